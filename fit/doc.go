@@ -1,0 +1,21 @@
+// Package fit identifies a polynomial vector field from logged runs and fits
+// a Lyapunov-function certificate for one of its equilibria.
+//
+// # The field
+//
+// [Field] fits dx/dt = f(x) by sequentially thresholded ridge least squares
+// on a monomial library (package [poly]), choosing the threshold by
+// cross-validation over runs, and finds the equilibria and their
+// linearisations. The result is a [Model], the content of model.json.
+//
+// # The certificate
+//
+// [Certify] fits a Lyapunov function V by linear programming on sampled
+// positivity and decrease constraints (package lp) and finds the largest
+// level set {V <= c} on which they hold inside the envelope the data cover.
+// The result is a [Certificate], the content of certificate.json; its
+// verdict stays [Inconclusive] until package validate has checked it on
+// held-out runs.
+//
+// Such a certificate is empirical evidence, not a proof: see [Caveat].
+package fit

@@ -1,0 +1,442 @@
+package fit
+
+import (
+	"encoding/json"
+	"errors"
+	"fmt"
+	"io"
+	"math"
+
+	"github.com/basin-dev/basin/fit/poly"
+)
+
+// Format strings of the JSON files; readers check them.
+const (
+	ModelFormat       = "basin.model/1"
+	CertificateFormat = "basin.certificate/1"
+)
+
+// Caveat is the sentence every certificate and report carries.
+const Caveat = "Empirical evidence from recorded samples only, not a proof of stability; " +
+	"nothing is claimed outside the envelope the data cover, and safety-relevant decisions " +
+	"defer to the applicable codes and to licensed engineering judgement."
+
+// Equation is one fitted state equation d(State)/dt = sum of terms, in
+// original units and raw coordinates. Exponents and Coefficients are the
+// contract's fields; the rest is added information, index-aligned with
+// them.
+type Equation struct {
+	State        string    `json:"state"`
+	Exponents    [][]int   `json:"exponents"`
+	Coefficients []float64 `json:"coefficients"`
+	// Terms carries, per term, the bootstrap interval and inclusion
+	// frequency (in the fitting coordinates' support).
+	Terms []Term `json:"terms,omitempty"`
+	// HeldoutError is the cross-validated derivative error, normalised by
+	// the spread of this state's derivative (1 = no better than a constant).
+	HeldoutError float64 `json:"heldout_error"`
+}
+
+// Term is the uncertainty of one fitted term, from the bootstrap over runs.
+type Term struct {
+	Name      string     `json:"name"`
+	Interval  [2]float64 `json:"interval"`  // coefficient interval, original units
+	Inclusion float64    `json:"inclusion"` // share of bootstrap fits that kept it
+	Weak      bool       `json:"weak"`      // Inclusion < 0.5
+}
+
+// Equilibrium is a zero of the fitted field with its linearisation.
+type Equilibrium struct {
+	Point       []float64    `json:"point"`
+	Jacobian    [][]float64  `json:"jacobian"`
+	Eigenvalues [][2]float64 `json:"eigenvalues"` // [real, imaginary], 1/s
+	// Class is one of "stable node", "stable focus", "saddle",
+	// "unstable node", "unstable focus", "non-hyperbolic", or "outside
+	// envelope" when Point is outside the data's envelope (never called
+	// stable then).
+	Class      string `json:"class"`
+	InEnvelope bool   `json:"in_envelope"`
+}
+
+// Model is a fitted polynomial vector field: the content of model.json.
+type Model struct {
+	Format    string     `json:"format"`
+	States    []string   `json:"states"`
+	Units     []string   `json:"units"`
+	Equations []Equation `json:"equations"`
+	// Equilibrium is the primary equilibrium (the one the runs settle on);
+	// JacobianEigenvalues its linearisation's eigenvalues.
+	Equilibrium         []float64    `json:"equilibrium"`
+	JacobianEigenvalues [][2]float64 `json:"jacobian_eigenvalues"`
+	// Equilibria lists every equilibrium found, the primary one first.
+	Equilibria []Equilibrium `json:"equilibria"`
+
+	Degree     int     `json:"degree"`
+	Threshold  float64 `json:"threshold"` // in the fitting coordinates
+	Ridge      float64 `json:"ridge"`
+	Derivative string  `json:"derivative"` // derivative method used
+	Condition  float64 `json:"condition"`  // of the normalised library's normal matrix
+	// Centre and Spread define the fitting coordinates (x - Centre)/Spread.
+	Centre []float64 `json:"centre"`
+	Spread []float64 `json:"spread"`
+	// Lower and Upper bound the recorded samples per state (the data's box).
+	Lower []float64 `json:"lower"`
+	Upper []float64 `json:"upper"`
+	// Noise is the estimated measurement noise (standard deviation) per
+	// state, in the state's unit.
+	Noise   []float64 `json:"noise"`
+	Runs    int       `json:"runs"`
+	Samples int       `json:"samples"`
+
+}
+
+// Field returns the equations as polynomials (raw coordinates).
+func (m *Model) Field() []poly.Poly {
+	out := make([]poly.Poly, len(m.Equations))
+	for i, e := range m.Equations {
+		out[i] = poly.Poly{Exponents: e.Exponents, Coefficients: e.Coefficients}
+	}
+	return out
+}
+
+// EvalTo stores f(x) in dst and returns dst. It is safe for concurrent use
+// but allocates; use a [FieldEvaluator] in loops.
+func (m *Model) EvalTo(dst, x []float64) []float64 {
+	for i, e := range m.Equations {
+		dst[i] = poly.Poly{Exponents: e.Exponents, Coefficients: e.Coefficients}.Eval(x)
+	}
+	return dst
+}
+
+// FieldEvaluator evaluates a model's field and Jacobian without
+// allocating. It is not safe for concurrent use: make one per goroutine.
+type FieldEvaluator struct {
+	n    int
+	lib  *poly.Library // union of all equations' monomials
+	coef [][]float64   // coef[i][k]: equation i, library term k
+	val  []float64
+	grad []float64
+	work []float64
+}
+
+// NewFieldEvaluator prepares m for repeated evaluation.
+func NewFieldEvaluator(m *Model) *FieldEvaluator {
+	n := len(m.States)
+	var exps [][]int
+	idx := map[string]int{}
+	for _, e := range m.Equations {
+		for _, x := range e.Exponents {
+			k := fmt.Sprint(x)
+			if _, ok := idx[k]; !ok {
+				idx[k] = len(exps)
+				exps = append(exps, x)
+			}
+		}
+	}
+	lib := poly.FromExponents(n, exps)
+	coef := make([][]float64, len(m.Equations))
+	for i, e := range m.Equations {
+		coef[i] = make([]float64, lib.Len())
+		for k, x := range e.Exponents {
+			coef[i][idx[fmt.Sprint(x)]] += e.Coefficients[k]
+		}
+	}
+	return &FieldEvaluator{n: n, lib: lib, coef: coef,
+		val: make([]float64, lib.Len()), grad: make([]float64, lib.Len()*n),
+		work: make([]float64, lib.GradWorkLen())}
+}
+
+// EvalTo stores f(x) in dst and returns dst.
+func (fe *FieldEvaluator) EvalTo(dst, x []float64) []float64 {
+	fe.lib.EvalWorkTo(fe.val, fe.work[:fe.lib.WorkLen()], x)
+	for i, c := range fe.coef {
+		s := 0.0
+		for k, v := range fe.val {
+			s += c[k] * v
+		}
+		dst[i] = s
+	}
+	return dst
+}
+
+// JacobianTo stores f(x) in f (which may be nil) and the Jacobian
+// df_i/dx_j in jac[i*n+j], and returns jac.
+func (fe *FieldEvaluator) JacobianTo(jac, f, x []float64) []float64 {
+	n := fe.n
+	fe.lib.GradWorkTo(fe.grad, fe.val, fe.work, x)
+	for i, c := range fe.coef {
+		row := jac[i*n : (i+1)*n]
+		for j := range row {
+			row[j] = 0
+		}
+		s := 0.0
+		for k, ck := range c {
+			if ck == 0 {
+				continue
+			}
+			s += ck * fe.val[k]
+			g := fe.grad[k*n : (k+1)*n]
+			for j := range row {
+				row[j] += ck * g[j]
+			}
+		}
+		if f != nil {
+			f[i] = s
+		}
+	}
+	return jac
+}
+
+// Verdict is the outcome of certification.
+type Verdict string
+
+// The verdicts of the contract.
+const (
+	Certified    Verdict = "certified"
+	Rejected     Verdict = "rejected"
+	Inconclusive Verdict = "inconclusive"
+)
+
+// Strength is how much a certified verdict claims.
+type Strength string
+
+// The strengths of the contract.
+const (
+	Asymptotic Strength = "asymptotic"
+	Stable     Strength = "stable"
+	NoClaim    Strength = "none"
+)
+
+// Certificate is the content of certificate.json. The certified region is
+// {x : V(z(x)) <= Level, x inside Box}, z_j = (x_j - Equilibrium_j)/Scale_j.
+type Certificate struct {
+	Format      string    `json:"format"`
+	Verdict     Verdict   `json:"verdict"`
+	Strength    Strength  `json:"strength"`
+	Reason      string    `json:"reason"`
+	Empirical   bool      `json:"empirical"`
+	Caveat      string    `json:"caveat"`
+	States      []string  `json:"states"`
+	Units       []string  `json:"units"`
+	Equilibrium []float64 `json:"equilibrium"`
+	Scale       []float64 `json:"scale"`
+	V           poly.Poly `json:"V"`
+	Level       float64   `json:"level"`
+	// Box bounds, per state in original units, the connected piece of the
+	// level set that holds the equilibrium; membership tests use it too.
+	Box        [][2]float64 `json:"box"`
+	Validation *Validation  `json:"validation"`
+
+	// Found says whether an LP produced a V at all.
+	Found bool `json:"found"`
+	// Margin is the LP's decrease margin g (in 1/s, scaled coordinates).
+	Margin float64 `json:"margin"`
+	// NoiseRadius is the radius, in z, of the ball around the equilibrium
+	// where noise dominates and no decrease is required.
+	NoiseRadius float64 `json:"noise_radius"`
+	// Tolerance is the noise tolerance on V differences along recorded
+	// pairs, in units of V.
+	Tolerance float64 `json:"tolerance"`
+	// Region describes the certified level set.
+	Region Region `json:"region"`
+	// RadiallyUnbounded reports whether V's top-degree part is positive
+	// definite. Information only: nothing is claimed beyond the envelope.
+	RadiallyUnbounded bool `json:"radially_unbounded"`
+	// InSample holds the figures on the fit runs.
+	InSample InSample `json:"in_sample"`
+	// Settings records the options used.
+	Settings map[string]any `json:"settings,omitempty"`
+}
+
+// Region describes the certified level set.
+type Region struct {
+	// EnvelopeShare is the region's volume as a share of the envelope's.
+	EnvelopeShare float64 `json:"envelope_share"`
+	// Extent is the region's extent along each state, original units.
+	Extent [][2]float64 `json:"extent"`
+	// Limit names what stopped the region growing: "envelope edge",
+	// "other equilibrium", "violated sample", "growth cap" or "none".
+	Limit string `json:"limit"`
+	// LimitPoint is where, in original units, when known.
+	LimitPoint []float64 `json:"limit_point,omitempty"`
+	LimitRun   string    `json:"limit_run,omitempty"`
+	LPRounds   int       `json:"lp_rounds"`
+	LPRows     int       `json:"lp_rows"`
+}
+
+// InSample holds in-sample figures of the certificate on the fit runs.
+type InSample struct {
+	Pairs            int     `json:"pairs"`
+	DecreaseFraction float64 `json:"decrease_fraction"`
+	FillPoints       int     `json:"fill_points"`
+}
+
+// Validation holds the held-out figures (filled by package validate).
+type Validation struct {
+	HeldoutRuns        int     `json:"heldout_runs"`
+	DecreaseFraction   float64 `json:"decrease_fraction"`
+	InvarianceFraction float64 `json:"invariance_fraction"`
+	ViolationBound     float64 `json:"violation_bound"`
+	Confidence         float64 `json:"confidence"`
+	// Extra detail; see package validate.
+	Pairs           int        `json:"pairs"`
+	StartInside     int        `json:"runs_started_inside"`
+	Settled         int        `json:"runs_settled"`
+	ScenarioSamples int        `json:"scenario_samples"`
+	Decorrelation   float64    `json:"decorrelation_s"`
+	DecisionVars    int        `json:"decision_variables"`
+	Worst           *Violation `json:"worst_violation,omitempty"`
+	Folds           int        `json:"folds"`
+	// Model checks on held-out runs.
+	DerivativeError []float64 `json:"derivative_error,omitempty"`
+	TrajectoryError []float64 `json:"trajectory_error,omitempty"`
+	DepartureTime   float64   `json:"departure_time_s"`
+	Diverged        int       `json:"runs_diverged"`
+	Note            string    `json:"note,omitempty"`
+}
+
+// Violation locates the worst held-out violation.
+type Violation struct {
+	Run    string    `json:"run"`
+	Time   float64   `json:"time"`
+	State  []float64 `json:"state"`
+	Excess float64   `json:"excess"`
+	Kind   string    `json:"kind"`
+}
+
+// ErrFormat is returned when a JSON file is not of the expected format.
+var ErrFormat = errors.New("not a basin file of this format")
+
+// ReadModel decodes and checks a model.json. Unknown fields are allowed.
+func ReadModel(r io.Reader) (*Model, error) {
+	var m Model
+	if err := json.NewDecoder(r).Decode(&m); err != nil {
+		return nil, fmt.Errorf("model: %w", err)
+	}
+	if m.Format != ModelFormat {
+		return nil, fmt.Errorf("model: format %q: %w", m.Format, ErrFormat)
+	}
+	if err := m.validate(); err != nil {
+		return nil, fmt.Errorf("model: %w", err)
+	}
+	return &m, nil
+}
+
+func (m *Model) validate() error {
+	n := len(m.States)
+	if n == 0 || len(m.Units) != n || len(m.Equations) != n || len(m.Equilibrium) != n {
+		return errors.New("states, units, equations and equilibrium must have one entry per state")
+	}
+	for i, e := range m.Equations {
+		if len(e.Exponents) != len(e.Coefficients) {
+			return fmt.Errorf("equation %d: %d exponents but %d coefficients", i, len(e.Exponents), len(e.Coefficients))
+		}
+		for _, x := range e.Exponents {
+			if len(x) != n {
+				return fmt.Errorf("equation %d: exponent vector of length %d, want %d", i, len(x), n)
+			}
+			for _, p := range x {
+				if p < 0 || p > 16 {
+					return fmt.Errorf("equation %d: exponent %d out of range", i, p)
+				}
+			}
+		}
+		if !finite(e.Coefficients...) {
+			return fmt.Errorf("equation %d: non-finite coefficient", i)
+		}
+	}
+	if !finite(m.Equilibrium...) {
+		return errors.New("non-finite equilibrium")
+	}
+	return nil
+}
+
+// ReadCertificate decodes and checks a certificate.json. A truncated or
+// inconsistent file is refused with the reason. Unknown fields are allowed.
+func ReadCertificate(r io.Reader) (*Certificate, error) {
+	var c Certificate
+	if err := json.NewDecoder(r).Decode(&c); err != nil {
+		return nil, fmt.Errorf("certificate: %w", err)
+	}
+	if c.Format != CertificateFormat {
+		return nil, fmt.Errorf("certificate: format %q: %w", c.Format, ErrFormat)
+	}
+	if err := c.check(); err != nil {
+		return nil, fmt.Errorf("certificate: %w", err)
+	}
+	return &c, nil
+}
+
+func (c *Certificate) check() error {
+	n := len(c.States)
+	if n == 0 || len(c.Units) != n || len(c.Equilibrium) != n || len(c.Scale) != n {
+		return errors.New("states, units, equilibrium and scale must have one entry per state")
+	}
+	switch c.Verdict {
+	case Certified, Rejected, Inconclusive:
+	default:
+		return fmt.Errorf("unknown verdict %q", c.Verdict)
+	}
+	if !finite(c.Equilibrium...) || !finite(c.Scale...) || !finite(c.Level) {
+		return errors.New("non-finite equilibrium, scale or level")
+	}
+	for _, s := range c.Scale {
+		if s <= 0 {
+			return errors.New("scale must be positive")
+		}
+	}
+	if len(c.V.Exponents) != len(c.V.Coefficients) {
+		return errors.New("V: exponents and coefficients differ in length")
+	}
+	for _, e := range c.V.Exponents {
+		if len(e) != n {
+			return fmt.Errorf("V: exponent vector of length %d, want %d", len(e), n)
+		}
+		for _, p := range e {
+			if p < 0 || p > 16 {
+				return fmt.Errorf("V: exponent %d out of range", p)
+			}
+		}
+	}
+	if !finite(c.V.Coefficients...) {
+		return errors.New("V: non-finite coefficient")
+	}
+	if c.Box != nil && len(c.Box) != n {
+		return errors.New("box must have one entry per state")
+	}
+	if c.Verdict == Certified && (len(c.V.Exponents) == 0 || c.Level <= 0) {
+		return errors.New("certified without a V or a positive level")
+	}
+	return nil
+}
+
+// Z stores the scaled coordinates of x in dst and returns dst.
+func (c *Certificate) Z(dst, x []float64) []float64 {
+	for j := range x {
+		dst[j] = (x[j] - c.Equilibrium[j]) / c.Scale[j]
+	}
+	return dst
+}
+
+// Inside reports whether x (original units) is in the certified region,
+// given V evaluated at z(x).
+func (c *Certificate) Inside(x []float64, v float64) bool {
+	if !(v <= c.Level) {
+		return false
+	}
+	for j, b := range c.Box {
+		if x[j] < b[0] || x[j] > b[1] {
+			return false
+		}
+	}
+	return true
+}
+
+func finite(xs ...float64) bool {
+	for _, x := range xs {
+		if math.IsNaN(x) || math.IsInf(x, 0) {
+			return false
+		}
+	}
+	return true
+}

@@ -1,0 +1,137 @@
+// Package ingest reads logged runs of a physical system: CSV in the
+// dialects data loggers write, Parquet, and run manifests.
+//
+// A [Dataset] holds runs with one consistent set of state columns. Samples
+// are stored column-wise: Run.X[j][i] is state j at sample i, taken at time
+// Run.T[i] in seconds. Missing cells never reach a Run: a run is split at a
+// gap (a missing cell or a time step more than [GapFactor] times the median
+// step) and the split is counted in [Dataset.Gaps] and named with a "~N"
+// suffix on the run's name.
+//
+// Bad input is reported as a [*ParseError] naming file, line and column,
+// wrapping one of the sentinel errors below; I/O errors stay *fs.PathError.
+package ingest
+
+import (
+	"errors"
+	"fmt"
+	"time"
+)
+
+// GapFactor is the time-step jump, relative to a run's median step, at
+// which a run is split.
+const GapFactor = 5
+
+// Column names a state (or time) column and carries its unit, read from a
+// header cell "name [unit]" or "name (unit)". Unit is empty when none was
+// given.
+type Column struct {
+	Name string `json:"name"`
+	Unit string `json:"unit"`
+}
+
+// Source says where a run came from.
+type Source struct {
+	File string // the path as given or found; "-" for stdin
+	Line int    // 1-based line (CSV) or row (Parquet) of the run's first sample
+}
+
+// Run is one contiguous, strictly time-ordered recording.
+type Run struct {
+	// Name is the file's base name, or "file#value" for a --run-col split,
+	// with a "~N" suffix (N = 1, 2, ...) for the pieces after the first when
+	// a gap split it.
+	Name   string
+	Source Source
+	// Split is "fit", "holdout" or "" (automatic), from a manifest.
+	Split string
+	// Epoch is the wall-clock time of T == 0 when the time column held
+	// ISO 8601 date-times; the zero Time otherwise.
+	Epoch time.Time
+	// T holds the sample times in seconds, strictly increasing. When the
+	// time column held numbers they are kept as logged; ISO 8601 times are
+	// converted to seconds from the run's first sample.
+	T []float64
+	// X[j][i] is state j at sample i; len(X) == len(Dataset.States) and
+	// len(X[j]) == len(T). Every value is finite.
+	X [][]float64
+}
+
+// Len returns the number of samples in r.
+func (r *Run) Len() int { return len(r.T) }
+
+// Dataset is a set of runs sharing the same state columns.
+type Dataset struct {
+	States []Column
+	Time   Column
+	Runs   []Run
+	// Gaps counts the splits made at gaps, over all runs.
+	Gaps int
+	// Missing counts samples dropped because a cell was empty or NaN.
+	Missing int
+}
+
+// Samples returns the total number of samples over all runs.
+func (ds *Dataset) Samples() int {
+	n := 0
+	for i := range ds.Runs {
+		n += len(ds.Runs[i].T)
+	}
+	return n
+}
+
+// Options controls how logs are read. A nil *Options means all defaults.
+type Options struct {
+	// TimeCol names the time column. Empty means the first column whose
+	// name, without a unit suffix, is t, time, timestamp or time_s, in any
+	// case.
+	TimeCol string
+	// Rate, in Hz, says rows are evenly sampled at that rate when there is
+	// no time column. Zero means a time column is required.
+	Rate float64
+	// RunCol names a column whose value splits a file into runs ("long
+	// format"). Empty means one run per file.
+	RunCol string
+	// States lists the state columns to keep, in order. Nil means every
+	// numeric column other than time and run.
+	States []string
+	// Manifest is a CSV file with columns path,run,split. Empty means none.
+	Manifest string
+}
+
+// Errors that can be returned in [ParseError.Err], or alone.
+var (
+	ErrNotNumber  = errors.New("not a number")
+	ErrNoTime     = errors.New("no time column (name one with --time-col, or give --rate)")
+	ErrNoStates   = errors.New("no state columns")
+	ErrTimeOrder  = errors.New("time does not increase")
+	ErrEmpty      = errors.New("no samples")
+	ErrRagged     = errors.New("wrong number of fields")
+	ErrColumns    = errors.New("columns differ from the first file's")
+	ErrFormat     = errors.New("not a readable log file")
+	ErrAllMissing = errors.New("every cell is missing")
+)
+
+// A ParseError reports an unusable cell or file. Line and Column are
+// 1-based; Column counts fields. Line or Column is 0 when it does not apply.
+type ParseError struct {
+	File   string // as given on the command line; "-" for stdin
+	Line   int    // for Parquet: the row number
+	Column int
+	Name   string // column header, when known
+	Err    error
+}
+
+func (e *ParseError) Error() string {
+	switch {
+	case e.Line > 0 && e.Name != "":
+		return fmt.Sprintf("%s:%d:%d: column %q: %v", e.File, e.Line, e.Column, e.Name, e.Err)
+	case e.Line > 0:
+		return fmt.Sprintf("%s:%d:%d: %v", e.File, e.Line, e.Column, e.Err)
+	case e.Name != "":
+		return fmt.Sprintf("%s: column %q: %v", e.File, e.Name, e.Err)
+	}
+	return fmt.Sprintf("%s: %v", e.File, e.Err)
+}
+
+func (e *ParseError) Unwrap() error { return e.Err }
