@@ -87,7 +87,6 @@ type Model struct {
 	Noise   []float64 `json:"noise"`
 	Runs    int       `json:"runs"`
 	Samples int       `json:"samples"`
-
 }
 
 // Field returns the equations as polynomials (raw coordinates).

@@ -1,0 +1,170 @@
+package main
+
+import (
+	"bufio"
+	"encoding/json"
+	"fmt"
+	"io"
+	"os"
+	"path/filepath"
+	"sync"
+	"time"
+)
+
+// atomicFile is one output to be written under a temporary name and
+// renamed into place only when every output of the command succeeded.
+type atomicFile struct {
+	Name  string                  // base name inside the output folder
+	Write func(w io.Writer) error // writes the content
+}
+
+// writeAtomic writes every file into dir: each to a temporary name first,
+// then all are renamed. On any error the temporary files are removed and
+// nothing is left half-written (files renamed before a later rename
+// failed are removed too).
+func writeAtomic(dir string, files ...atomicFile) error {
+	if err := os.MkdirAll(dir, 0o755); err != nil {
+		return err
+	}
+	tmps := make([]string, len(files))
+	cleanup := func() {
+		for _, t := range tmps {
+			if t != "" {
+				os.Remove(t)
+			}
+		}
+	}
+	for i, f := range files {
+		tf, err := os.CreateTemp(dir, "."+f.Name+".tmp*")
+		if err != nil {
+			cleanup()
+			return err
+		}
+		tmps[i] = tf.Name()
+		bw := bufio.NewWriter(tf)
+		err = f.Write(bw)
+		if err == nil {
+			err = bw.Flush()
+		}
+		if err == nil {
+			err = tf.Sync()
+		}
+		if cerr := tf.Close(); err == nil {
+			err = cerr
+		}
+		if err == nil {
+			err = os.Chmod(tf.Name(), 0o644)
+		}
+		if err != nil {
+			cleanup()
+			return fmt.Errorf("writing %s: %w", filepath.Join(dir, f.Name), err)
+		}
+	}
+	var done []string
+	for i, f := range files {
+		dst := filepath.Join(dir, f.Name)
+		if err := os.Rename(tmps[i], dst); err != nil {
+			cleanup()
+			for _, d := range done {
+				os.Remove(d)
+			}
+			return err
+		}
+		tmps[i] = ""
+		done = append(done, dst)
+	}
+	return nil
+}
+
+// jsonWriter returns a Write func encoding v as indented JSON.
+func jsonWriter(v any) func(io.Writer) error {
+	return func(w io.Writer) error { return writeJSON(w, v) }
+}
+
+// writeJSON encodes v as indented JSON. NaN and Inf are refused by
+// encoding/json, so nothing non-finite reaches a file.
+func writeJSON(w io.Writer, v any) error {
+	enc := json.NewEncoder(w)
+	enc.SetIndent("", "  ")
+	return enc.Encode(v)
+}
+
+// isTerminal reports whether f is a character device.
+func isTerminal(w io.Writer) bool {
+	f, ok := w.(*os.File)
+	if !ok {
+		return false
+	}
+	st, err := f.Stat()
+	return err == nil && st.Mode()&os.ModeCharDevice != 0
+}
+
+// progress prints a stage line with elapsed time to stderr, only when
+// stderr is a terminal and not quiet, and only for stages over a second.
+type progress struct {
+	mu    sync.Mutex
+	w     io.Writer
+	on    bool
+	stage string
+	start time.Time
+	stop  chan struct{}
+}
+
+func newProgress(w io.Writer, quiet bool) *progress {
+	return &progress{w: w, on: !quiet && isTerminal(w)}
+}
+
+// Stage ends the previous stage and starts a new one.
+func (p *progress) Stage(name string) {
+	if !p.on {
+		return
+	}
+	p.Done()
+	p.mu.Lock()
+	p.stage, p.start, p.stop = name, time.Now(), make(chan struct{})
+	stop, start := p.stop, p.start
+	p.mu.Unlock()
+	go func() {
+		t := time.NewTicker(200 * time.Millisecond)
+		defer t.Stop()
+		frames := []string{"[=   ]", "[ =  ]", "[  = ]", "[   =]", "[  = ]", "[ =  ]"}
+		i := 0
+		for {
+			select {
+			case <-stop:
+				return
+			case now := <-t.C:
+				if now.Sub(start) < time.Second {
+					continue
+				}
+				p.mu.Lock()
+				fmt.Fprintf(p.w, "\r%s %s %.1fs ", frames[i%len(frames)], name, now.Sub(start).Seconds())
+				p.mu.Unlock()
+				i++
+			}
+		}
+	}()
+}
+
+// Done ends the current stage.
+func (p *progress) Done() {
+	if !p.on {
+		return
+	}
+	p.mu.Lock()
+	defer p.mu.Unlock()
+	if p.stop != nil {
+		close(p.stop)
+		p.stop = nil
+		if time.Since(p.start) >= time.Second {
+			fmt.Fprintf(p.w, "\r%-60s\r", "")
+		}
+	}
+}
+
+// warnf prints a warning unless quiet.
+func warnf(e *env, quiet bool, format string, a ...any) {
+	if !quiet {
+		fmt.Fprintf(e.stderr, "basin: warning: "+format+"\n", a...)
+	}
+}
