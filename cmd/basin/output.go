@@ -3,8 +3,10 @@ package main
 import (
 	"bufio"
 	"encoding/json"
+	"flag"
 	"fmt"
 	"io"
+	"math"
 	"os"
 	"path/filepath"
 	"sync"
@@ -168,3 +170,11 @@ func warnf(e *env, quiet bool, format string, a ...any) {
 		fmt.Fprintf(e.stderr, "basin: warning: "+format+"\n", a...)
 	}
 }
+
+func newFlagSet() *flag.FlagSet {
+	fs := flag.NewFlagSet("basin", flag.ContinueOnError)
+	fs.SetOutput(io.Discard)
+	return fs
+}
+
+func nan() float64 { return math.NaN() }
