@@ -15,6 +15,7 @@ package ingest
 import (
 	"errors"
 	"fmt"
+	"io"
 	"time"
 )
 
@@ -45,6 +46,10 @@ type Run struct {
 	Source Source
 	// Split is "fit", "holdout" or "" (automatic), from a manifest.
 	Split string
+	// Gaps is the number of gap splits made in the recording (file, or
+	// --run-col group) this run was cut from; every piece of it carries
+	// the same number, and [Dataset.Gaps] counts each split once.
+	Gaps int
 	// Epoch is the wall-clock time of T == 0 when the time column held
 	// ISO 8601 date-times; the zero Time otherwise.
 	Epoch time.Time
@@ -69,6 +74,10 @@ type Dataset struct {
 	Gaps int
 	// Missing counts samples dropped because a cell was empty or NaN.
 	Missing int
+	// Ignored lists columns that were neither time, run nor state: text
+	// columns (decided on the first data row) and columns left out by
+	// Options.States.
+	Ignored []Column
 }
 
 // Samples returns the total number of samples over all runs.
@@ -97,6 +106,8 @@ type Options struct {
 	States []string
 	// Manifest is a CSV file with columns path,run,split. Empty means none.
 	Manifest string
+	// Stdin is read for the input "-". Nil means os.Stdin.
+	Stdin io.Reader `json:"-"`
 }
 
 // Errors that can be returned in [ParseError.Err], or alone.
@@ -110,6 +121,8 @@ var (
 	ErrColumns    = errors.New("columns differ from the first file's")
 	ErrFormat     = errors.New("not a readable log file")
 	ErrAllMissing = errors.New("every cell is missing")
+	ErrNoFiles    = errors.New("no .csv, .tsv, .txt or .parquet files")
+	ErrManifest   = errors.New("bad manifest entry")
 )
 
 // A ParseError reports an unusable cell or file. Line and Column are

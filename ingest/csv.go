@@ -1,0 +1,772 @@
+package ingest
+
+import (
+	"bytes"
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"runtime"
+	"strings"
+	"sync"
+	"sync/atomic"
+	"time"
+	"unicode/utf8"
+)
+
+// blockSize is how much of a CSV file one worker parses at a time. About a
+// megabyte keeps the per-block bookkeeping negligible and, with a bounded
+// queue, memory small.
+const blockSize = 1 << 20
+
+// Column roles in a CSV header.
+const (
+	roleSkip int8 = iota
+	roleTime
+	roleRun
+	roleState
+)
+
+// csvLayout is what the header and first data row decided.
+type csvLayout struct {
+	file     string
+	delim    byte
+	ncol     int
+	names    []string // raw names (without unit) of every header column
+	role     []int8
+	stateOf  []int // header column -> state index (roleState)
+	dateTime bool
+	nstate   int
+}
+
+// chunk is a block of whole lines and what was parsed from it.
+type chunk struct {
+	data  []byte
+	line  int // line number of data's first line
+	rows  int
+	t     []float64
+	tn    []int64
+	x     [][]float64
+	keys  []keySpan
+	marks []lineMark
+	err   error
+	done  chan struct{}
+}
+
+// ReadCSV reads one CSV file of logged samples from r. name is used in
+// errors and as the run's file ("-" for stdin). The dialect is detected:
+// a ',' ';' or tab delimiter (the most frequent one in the header), '#'
+// comment lines, a UTF-8 BOM, CRLF line ends, quoted cells (a quoted cell
+// may not span lines). Empty and NaN cells are missing samples. The time
+// column holds seconds or ISO 8601 date-times (RFC 3339, 'T' or a space
+// between date and time; no zone means UTC); date-times become seconds
+// from the recording's first sample and set [Run.Epoch].
+//
+// Errors are *ParseError values naming the line and column; read errors
+// from r are returned as they are.
+func ReadCSV(r io.Reader, name string, opts *Options) (*Dataset, error) {
+	tb, err := readCSVTable(r, name, opts)
+	if err != nil {
+		return nil, err
+	}
+	ds, err := tb.dataset()
+	if err != nil {
+		return nil, err
+	}
+	ds.Ignored = tb.ignored
+	return ds, nil
+}
+
+func readCSVTable(r io.Reader, name string, opts *Options) (*table, error) {
+	if opts == nil {
+		opts = &Options{}
+	}
+	first := make([]byte, blockSize)
+	n, err := io.ReadFull(r, first)
+	eof := false
+	switch {
+	case errors.Is(err, io.EOF), errors.Is(err, io.ErrUnexpectedEOF):
+		eof = true
+	case err != nil:
+		return nil, err
+	}
+	first = first[:n]
+	first = bytes.TrimPrefix(first, []byte("\xef\xbb\xbf"))
+	if bytes.IndexByte(first, 0) >= 0 {
+		return nil, &ParseError{File: name, Err: fmt.Errorf("%w: binary data, not text", ErrFormat)}
+	}
+	// the header: the first line that is neither blank nor a comment
+	line := 1
+	rest := first
+	var header []byte
+	for len(rest) > 0 {
+		nl := bytes.IndexByte(rest, '\n')
+		if nl < 0 {
+			if !eof {
+				return nil, &ParseError{File: name, Line: line, Err: fmt.Errorf("%w: header line longer than %d bytes", ErrFormat, blockSize)}
+			}
+			nl = len(rest)
+		}
+		l := trimCR(rest[:nl])
+		rest = rest[min(nl+1, len(rest)):]
+		if isBlankOrComment(l) {
+			line++
+			continue
+		}
+		header = l
+		break
+	}
+	if header == nil {
+		return nil, &ParseError{File: name, Err: fmt.Errorf("%w: no header line", ErrEmpty)}
+	}
+	if !utf8.Valid(header) {
+		return nil, &ParseError{File: name, Line: line, Err: fmt.Errorf("%w: header is not UTF-8 text", ErrFormat)}
+	}
+	headerLine := line
+	line++
+	lay, tb, err := newLayout(name, header, headerLine, opts)
+	if err != nil {
+		return nil, err
+	}
+	// Decide text columns and the kind of time cell on the first data row.
+	if err := lay.sniff(tb, rest, line, opts); err != nil {
+		return nil, err
+	}
+	// Parse: the rest of the first block, then further blocks.
+	p := &csvParser{lay: lay, tb: tb}
+	if eof {
+		c := &chunk{data: rest, line: line}
+		p.parse(c)
+		if c.err != nil {
+			return nil, c.err
+		}
+		p.merge(c)
+		return tb, nil
+	}
+	if err := p.parallel(r, rest, line); err != nil {
+		return nil, err
+	}
+	return tb, nil
+}
+
+func trimCR(l []byte) []byte {
+	if n := len(l); n > 0 && l[n-1] == '\r' {
+		return l[:n-1]
+	}
+	return l
+}
+
+func isBlankOrComment(l []byte) bool {
+	l = bytes.TrimLeft(l, " \t")
+	return len(l) == 0 || l[0] == '#'
+}
+
+// newLayout reads the header and assigns column roles.
+func newLayout(name string, header []byte, line int, opts *Options) (*csvLayout, *table, error) {
+	lay := &csvLayout{file: name, delim: detectDelim(header)}
+	cells, ok := splitQuoted(header, lay.delim, nil)
+	if !ok {
+		return nil, nil, &ParseError{File: name, Line: line, Err: fmt.Errorf("%w: unbalanced quote in header", ErrFormat)}
+	}
+	lay.ncol = len(cells)
+	cols := make([]Column, len(cells))
+	seen := map[string]int{}
+	for j, c := range cells {
+		cols[j] = splitUnit(strings.TrimSpace(string(c)))
+		if cols[j].Name == "" {
+			continue
+		}
+		if k, dup := seen[cols[j].Name]; dup {
+			return nil, nil, &ParseError{File: name, Line: line, Column: j + 1, Name: cols[j].Name,
+				Err: fmt.Errorf("%w: name repeats column %d", ErrFormat, k+1)}
+		}
+		seen[cols[j].Name] = j
+	}
+	lay.names = make([]string, len(cols))
+	for j := range cols {
+		lay.names[j] = cols[j].Name
+	}
+	tb := &table{file: name}
+	tr, err := assignRoles(name, cols, opts)
+	if err != nil {
+		return nil, nil, err
+	}
+	lay.role, lay.stateOf = tr.role, tr.stateOf
+	lay.nstate = len(tr.states)
+	tb.states, tb.stateCol, tb.timeCol, tb.timeIdx, tb.rate = tr.states, tr.stateCol, tr.timeCol, tr.timeIdx, tr.rate
+	tb.ignored = tr.ignored
+	tb.x = make([][]float64, lay.nstate)
+	if opts.RunCol != "" {
+		tb.keys = []keySpan{}
+	}
+	return lay, tb, nil
+}
+
+// roles is the column assignment shared by the CSV and Parquet readers.
+type roles struct {
+	role     []int8
+	stateOf  []int
+	states   []Column
+	stateCol []int
+	timeCol  Column
+	timeIdx  int
+	rate     float64
+	ignored  []Column
+	explicit bool // states named by Options.States
+}
+
+func findCol(cols []Column, name string) int {
+	for j, c := range cols {
+		if c.Name == name {
+			return j
+		}
+	}
+	for j, c := range cols {
+		if strings.EqualFold(c.Name, name) {
+			return j
+		}
+	}
+	return -1
+}
+
+// assignRoles picks the time, run and state columns per the contract.
+func assignRoles(file string, cols []Column, opts *Options) (*roles, error) {
+	r := &roles{role: make([]int8, len(cols)), stateOf: make([]int, len(cols))}
+	ti := -1
+	if opts.TimeCol != "" {
+		ti = findCol(cols, opts.TimeCol)
+		if ti < 0 {
+			return nil, &ParseError{File: file, Err: fmt.Errorf("%w: --time-col %q is not a column", ErrNoTime, opts.TimeCol)}
+		}
+	} else {
+		for j, c := range cols {
+			switch strings.ToLower(c.Name) {
+			case "t", "time", "timestamp", "time_s":
+				ti = j
+			}
+			if ti >= 0 {
+				break
+			}
+		}
+	}
+	if ti < 0 && opts.Rate <= 0 {
+		return nil, &ParseError{File: file, Err: ErrNoTime}
+	}
+	if ti >= 0 {
+		r.role[ti] = roleTime
+		r.timeCol, r.timeIdx = cols[ti], ti+1
+	} else {
+		r.rate = opts.Rate
+		r.timeCol = Column{Name: "t", Unit: "s"}
+	}
+	if opts.RunCol != "" {
+		ri := findCol(cols, opts.RunCol)
+		if ri < 0 {
+			return nil, &ParseError{File: file, Err: fmt.Errorf("%w: --run-col %q is not a column", ErrFormat, opts.RunCol)}
+		}
+		if ri == ti {
+			return nil, &ParseError{File: file, Err: fmt.Errorf("%w: --run-col %q is the time column", ErrFormat, opts.RunCol)}
+		}
+		r.role[ri] = roleRun
+	}
+	if opts.States != nil {
+		r.explicit = true
+		for _, s := range opts.States {
+			j := findCol(cols, s)
+			if j < 0 {
+				return nil, &ParseError{File: file, Err: fmt.Errorf("%w: --states names %q, which is not a column", ErrNoStates, s)}
+			}
+			if r.role[j] != roleSkip {
+				return nil, &ParseError{File: file, Err: fmt.Errorf("%w: --states names %q, the time or run column", ErrNoStates, s)}
+			}
+			r.role[j] = roleState
+			r.stateOf[j] = len(r.states)
+			r.states = append(r.states, cols[j])
+			r.stateCol = append(r.stateCol, j+1)
+		}
+		for j, c := range cols {
+			if r.role[j] == roleSkip && c.Name != "" {
+				r.ignored = append(r.ignored, c)
+			}
+		}
+		return r, nil
+	}
+	for j, c := range cols {
+		if r.role[j] != roleSkip || c.Name == "" {
+			continue
+		}
+		r.role[j] = roleState
+		r.stateOf[j] = len(r.states)
+		r.states = append(r.states, c)
+		r.stateCol = append(r.stateCol, j+1)
+	}
+	if len(r.states) == 0 {
+		return nil, &ParseError{File: file, Err: ErrNoStates}
+	}
+	return r, nil
+}
+
+// dropState turns state column j into an ignored one (a text column).
+func (r *roles) dropState(j int) {
+	k := r.stateOf[j]
+	r.ignored = append(r.ignored, r.states[k])
+	r.states = append(r.states[:k:k], r.states[k+1:]...)
+	r.stateCol = append(r.stateCol[:k:k], r.stateCol[k+1:]...)
+	r.role[j] = roleSkip
+	for i := range r.role {
+		if r.role[i] == roleState && r.stateOf[i] > k {
+			r.stateOf[i]--
+		}
+	}
+}
+
+// splitUnit splits "name [unit]" or "name (unit)".
+func splitUnit(s string) Column {
+	for _, p := range [][2]byte{{'[', ']'}, {'(', ')'}} {
+		if strings.HasSuffix(s, string(p[1])) {
+			if i := strings.LastIndexByte(s, p[0]); i > 0 {
+				return Column{Name: strings.TrimSpace(s[:i]), Unit: strings.TrimSpace(s[i+1 : len(s)-1])}
+			}
+		}
+	}
+	return Column{Name: s}
+}
+
+// detectDelim returns the most frequent of ',' ';' '\t' outside quotes in
+// the header, ',' when there is none.
+func detectDelim(h []byte) byte {
+	var n [3]int
+	q := false
+	for _, c := range h {
+		switch {
+		case c == '"':
+			q = !q
+		case q:
+		case c == ',':
+			n[0]++
+		case c == ';':
+			n[1]++
+		case c == '\t':
+			n[2]++
+		}
+	}
+	d, best := byte(','), n[0]
+	if n[1] > best {
+		d, best = ';', n[1]
+	}
+	if n[2] > best {
+		d = '\t'
+	}
+	return d
+}
+
+// splitQuoted splits a line with quoted fields, appending to dst. Quotes
+// are removed and "" becomes ". ok is false for an unbalanced quote.
+func splitQuoted(l []byte, delim byte, dst [][]byte) ([][]byte, bool) {
+	for {
+		// skip leading blanks before a quote
+		k := 0
+		for k < len(l) && (l[k] == ' ' || (l[k] == '\t' && delim != '\t')) {
+			k++
+		}
+		if k < len(l) && l[k] == '"' {
+			var f []byte
+			i := k + 1
+			for {
+				j := bytes.IndexByte(l[i:], '"')
+				if j < 0 {
+					return dst, false
+				}
+				f = append(f, l[i:i+j]...)
+				i += j + 1
+				if i < len(l) && l[i] == '"' {
+					f = append(f, '"')
+					i++
+					continue
+				}
+				break
+			}
+			// after the closing quote: blanks, then delimiter or end
+			for i < len(l) && (l[i] == ' ' || (l[i] == '\t' && delim != '\t')) {
+				i++
+			}
+			if f == nil {
+				f = []byte{}
+			}
+			dst = append(dst, f)
+			if i >= len(l) {
+				return dst, true
+			}
+			if l[i] != delim {
+				return dst, false
+			}
+			l = l[i+1:]
+			continue
+		}
+		j := bytes.IndexByte(l, delim)
+		if j < 0 {
+			return append(dst, l), true
+		}
+		dst = append(dst, l[:j])
+		l = l[j+1:]
+	}
+}
+
+// sniff looks at the first data row: with no --states, a state column
+// whose cell there is text (not a number, not empty) is ignored; the time
+// column's cell says whether time is in seconds or ISO 8601.
+func (lay *csvLayout) sniff(tb *table, rest []byte, line int, opts *Options) error {
+	var cells [][]byte
+	for len(rest) > 0 {
+		nl := bytes.IndexByte(rest, '\n')
+		if nl < 0 {
+			nl = len(rest)
+		}
+		l := trimCR(rest[:nl])
+		rest = rest[min(nl+1, len(rest)):]
+		if isBlankOrComment(l) {
+			line++
+			continue
+		}
+		var ok bool
+		cells, ok = splitQuoted(l, lay.delim, cells[:0])
+		if !ok || len(cells) != lay.ncol {
+			return nil // the parser reports it with its line
+		}
+		break
+	}
+	if cells == nil {
+		return nil
+	}
+	r := &roles{role: lay.role, stateOf: lay.stateOf, states: tb.states, stateCol: tb.stateCol, ignored: tb.ignored}
+	for j, c := range cells {
+		c = trimBlank(c, lay.delim)
+		switch lay.role[j] {
+		case roleTime:
+			if len(c) == 0 {
+				continue
+			}
+			if _, ok := parseFloat(c); ok {
+				continue
+			}
+			if _, ok := parseISO(c); ok {
+				lay.dateTime = true
+				tb.dateTime = true
+			}
+		case roleState:
+			if opts.States != nil || len(c) == 0 {
+				continue
+			}
+			if _, ok := parseFloat(c); !ok {
+				if comma := bytes.ReplaceAll(c, []byte(","), []byte(".")); bytes.Count(c, []byte(",")) == 1 {
+					if _, ok := parseFloat(comma); ok {
+						return &ParseError{File: lay.file, Line: line, Column: j + 1, Name: lay.names[j],
+							Err: fmt.Errorf("%w: %q has a decimal comma; write decimals with a point", ErrNotNumber, c)}
+					}
+				}
+				r.dropState(j)
+			}
+		}
+	}
+	tb.states, tb.stateCol, tb.ignored = r.states, r.stateCol, r.ignored
+	if len(tb.states) == 0 {
+		return &ParseError{File: lay.file, Line: line, Err: fmt.Errorf("%w: no numeric column besides time", ErrNoStates)}
+	}
+	lay.nstate = len(tb.states)
+	tb.x = make([][]float64, lay.nstate)
+	return nil
+}
+
+func trimBlank(c []byte, delim byte) []byte {
+	for len(c) > 0 && (c[0] == ' ' || (c[0] == '\t' && delim != '\t')) {
+		c = c[1:]
+	}
+	for len(c) > 0 && (c[len(c)-1] == ' ' || (c[len(c)-1] == '\t' && delim != '\t')) {
+		c = c[:len(c)-1]
+	}
+	return c
+}
+
+// parseISO parses an ISO 8601 date-time and returns Unix nanoseconds.
+func parseISO(c []byte) (int64, bool) {
+	if len(c) < 19 || c[4] != '-' || c[7] != '-' {
+		return 0, false
+	}
+	s := string(c)
+	if s[10] == ' ' {
+		s = s[:10] + "T" + s[11:]
+	}
+	for _, layout := range isoLayouts {
+		if t, err := time.Parse(layout, s); err == nil {
+			return t.UnixNano(), true
+		}
+	}
+	return 0, false
+}
+
+var isoLayouts = []string{
+	"2006-01-02T15:04:05.999999999Z07:00",
+	"2006-01-02T15:04:05.999999999Z0700",
+	"2006-01-02T15:04:05.999999999Z07",
+	"2006-01-02T15:04:05.999999999", // no zone: UTC
+}
+
+// csvParser parses blocks of lines into a table.
+type csvParser struct {
+	lay *csvLayout
+	tb  *table
+}
+
+// parallel reads r in blocks after the first one (rest, starting on line)
+// and parses them on GOMAXPROCS workers; results are merged in order.
+func (p *csvParser) parallel(r io.Reader, rest []byte, line int) error {
+	workers := runtime.GOMAXPROCS(0)
+	jobs := make(chan *chunk, workers)
+	order := make(chan *chunk, 2*workers)
+	var stop atomic.Bool
+	var wg sync.WaitGroup
+	for range workers {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for c := range jobs {
+				if !stop.Load() {
+					p.parse(c)
+				}
+				close(c.done)
+			}
+		}()
+	}
+	pool := sync.Pool{New: func() any { return make([]byte, 0, blockSize+blockSize/4) }}
+	var readErr error
+	go func() {
+		defer close(order)
+		defer close(jobs)
+		carry := append(pool.Get().([]byte)[:0], rest...)
+		for !stop.Load() {
+			buf := carry
+			if cap(buf)-len(buf) < blockSize/2 {
+				nb := make([]byte, len(buf), 2*cap(buf))
+				copy(nb, buf)
+				buf = nb
+			}
+			n, err := io.ReadFull(r, buf[len(buf):cap(buf)])
+			buf = buf[:len(buf)+n]
+			eof := errors.Is(err, io.EOF) || errors.Is(err, io.ErrUnexpectedEOF)
+			if err != nil && !eof {
+				readErr = err
+				stop.Store(true)
+				return
+			}
+			cut := len(buf)
+			if !eof {
+				nl := bytes.LastIndexByte(buf, '\n')
+				if nl < 0 { // a line longer than the buffer: grow and read on
+					carry = buf
+					continue
+				}
+				cut = nl + 1
+			}
+			carry = append(pool.Get().([]byte)[:0], buf[cut:]...)
+			c := &chunk{data: buf[:cut], line: line, done: make(chan struct{})}
+			line += bytes.Count(c.data, []byte{'\n'})
+			jobs <- c
+			order <- c
+			if eof {
+				return
+			}
+		}
+	}()
+	var firstErr error
+	for c := range order {
+		<-c.done
+		if firstErr == nil && c.err != nil {
+			firstErr = c.err
+			stop.Store(true)
+		}
+		if firstErr == nil {
+			p.merge(c)
+		}
+		if cap(c.data) <= blockSize+blockSize/4 {
+			pool.Put(c.data[:0])
+		}
+	}
+	wg.Wait()
+	if firstErr != nil {
+		return firstErr
+	}
+	return readErr
+}
+
+// merge appends a parsed chunk to the table.
+func (p *csvParser) merge(c *chunk) {
+	tb := p.tb
+	base := tb.rows
+	for _, m := range c.marks {
+		tb.marks = append(tb.marks, lineMark{row: base + m.row, line: m.line})
+	}
+	if p.lay.dateTime {
+		tb.tn = append(tb.tn, c.tn...)
+	} else if tb.timeIdx > 0 {
+		tb.t = append(tb.t, c.t...)
+	}
+	for j := range tb.x {
+		tb.x[j] = append(tb.x[j], c.x[j]...)
+	}
+	if tb.keys != nil {
+		for _, k := range c.keys {
+			if n := len(tb.keys); n > 0 && tb.keys[n-1].key == k.key {
+				tb.keys[n-1].n += k.n
+			} else {
+				tb.keys = append(tb.keys, k)
+			}
+		}
+	}
+	tb.rows += c.rows
+}
+
+// parse parses the lines of c.data. It stops at the first bad cell.
+func (p *csvParser) parse(c *chunk) {
+	lay := p.lay
+	est := len(c.data)/(8*lay.ncol+1) + 1
+	c.x = make([][]float64, lay.nstate)
+	for j := range c.x {
+		c.x[j] = make([]float64, 0, est)
+	}
+	timed := p.tb.timeIdx > 0
+	if timed && lay.dateTime {
+		c.tn = make([]int64, 0, est)
+	} else if timed {
+		c.t = make([]float64, 0, est)
+	}
+	var cells [][]byte
+	data := c.data
+	line := c.line
+	contiguous := false
+	for len(data) > 0 {
+		nl := bytes.IndexByte(data, '\n')
+		var l []byte
+		if nl < 0 {
+			l, data = data, nil
+		} else {
+			l, data = data[:nl], data[nl+1:]
+		}
+		l = trimCR(l)
+		if len(l) == 0 || l[0] == '#' || isBlankOrComment(l) {
+			line++
+			contiguous = false
+			continue
+		}
+		if !contiguous {
+			c.marks = append(c.marks, lineMark{row: c.rows, line: line})
+			contiguous = true
+		}
+		if bytes.IndexByte(l, '"') >= 0 {
+			var ok bool
+			cells, ok = splitQuoted(l, lay.delim, cells[:0])
+			if !ok {
+				c.err = &ParseError{File: lay.file, Line: line, Err: fmt.Errorf("%w: unbalanced quote", ErrFormat)}
+				return
+			}
+		} else {
+			cells = cells[:0]
+			for {
+				k := bytes.IndexByte(l, lay.delim)
+				if k < 0 {
+					cells = append(cells, l)
+					break
+				}
+				cells = append(cells, l[:k])
+				l = l[k+1:]
+			}
+		}
+		if len(cells) != lay.ncol {
+			col := lay.ncol + 1
+			if len(cells) < lay.ncol {
+				col = len(cells)
+			}
+			c.err = &ParseError{File: lay.file, Line: line, Column: col,
+				Err: fmt.Errorf("%w: %d, the header has %d", ErrRagged, len(cells), lay.ncol)}
+			return
+		}
+		for j, cell := range cells {
+			switch lay.role[j] {
+			case roleState:
+				v, ok := parseFloat(cell)
+				if !ok || v-v != 0 {
+					v, ok = p.cellSlow(cell)
+					if !ok {
+						c.err = p.cellError(line, j, cell)
+						return
+					}
+				}
+				k := lay.stateOf[j]
+				c.x[k] = append(c.x[k], v)
+			case roleTime:
+				if lay.dateTime {
+					cell = trimBlank(cell, lay.delim)
+					n, ok := parseISO(cell)
+					if !ok {
+						if len(cell) != 0 && !isNaNText(cell) {
+							c.err = &ParseError{File: lay.file, Line: line, Column: j + 1, Name: lay.names[j],
+								Err: fmt.Errorf("%w: %q is not an ISO 8601 date-time", ErrNotNumber, cell)}
+							return
+						}
+						n = noTime
+					}
+					c.tn = append(c.tn, n)
+					continue
+				}
+				v, ok := parseFloat(cell)
+				if !ok || v-v != 0 {
+					v, ok = p.cellSlow(cell)
+					if !ok {
+						c.err = p.cellError(line, j, cell)
+						return
+					}
+				}
+				c.t = append(c.t, v)
+			case roleRun:
+				key := string(trimBlank(cell, lay.delim))
+				if n := len(c.keys); n > 0 && c.keys[n-1].key == key {
+					c.keys[n-1].n++
+				} else {
+					c.keys = append(c.keys, keySpan{key: key, n: 1})
+				}
+			}
+		}
+		c.rows++
+		line++
+	}
+}
+
+// cellSlow handles what the fast path refused: blanks around a number,
+// empty and NaN cells (missing: NaN). Infinities are refused.
+func (p *csvParser) cellSlow(cell []byte) (float64, bool) {
+	cell = trimBlank(cell, p.lay.delim)
+	if len(cell) == 0 {
+		return math.NaN(), true
+	}
+	v, ok := parseFloat(cell)
+	if !ok || math.IsInf(v, 0) {
+		return 0, false
+	}
+	return v, true
+}
+
+func isNaNText(c []byte) bool { return len(c) == 3 && strings.EqualFold(string(c), "nan") }
+
+func (p *csvParser) cellError(line, j int, cell []byte) error {
+	cell = trimBlank(cell, p.lay.delim)
+	s := string(cell)
+	if len(s) > 40 {
+		s = s[:40] + "..."
+	}
+	msg := fmt.Errorf("%w %q", ErrNotNumber, s)
+	if v, ok := parseFloat(cell); ok && math.IsInf(v, 0) {
+		msg = fmt.Errorf("%w: %q is infinite or out of range", ErrNotNumber, s)
+	} else if !utf8.Valid(cell) {
+		msg = fmt.Errorf("%w: not text (binary data?)", ErrNotNumber)
+	}
+	return &ParseError{File: p.lay.file, Line: line, Column: j + 1, Name: p.lay.names[j], Err: msg}
+}

@@ -1,0 +1,230 @@
+package ingest
+
+import (
+	"context"
+	"fmt"
+	"io/fs"
+	"os"
+	"path/filepath"
+	"runtime"
+	"strings"
+	"sync"
+)
+
+// readable says whether a file found in a folder is read.
+func readable(name string) bool {
+	switch strings.ToLower(filepath.Ext(name)) {
+	case ".csv", ".tsv", ".txt", ".parquet":
+		return true
+	}
+	return false
+}
+
+// Expand turns INPUTS into the list of files to read: a folder becomes its
+// .csv, .tsv, .txt and .parquet files (not recursively, sorted by name,
+// hidden files skipped); "-" and files stay as given. A folder with no
+// such file is an error wrapping [ErrNoFiles]; a path that does not exist
+// is an *fs.PathError.
+func Expand(paths []string) ([]string, error) {
+	var out []string
+	for _, p := range paths {
+		if p == "-" {
+			out = append(out, p)
+			continue
+		}
+		st, err := os.Stat(p)
+		if err != nil {
+			return nil, err
+		}
+		if !st.IsDir() {
+			out = append(out, p)
+			continue
+		}
+		des, err := os.ReadDir(p)
+		if err != nil {
+			return nil, err
+		}
+		n := 0
+		for _, de := range des {
+			if strings.HasPrefix(de.Name(), ".") || !readable(de.Name()) {
+				continue
+			}
+			if de.Type()&fs.ModeType != 0 && de.Type()&fs.ModeSymlink == 0 {
+				continue
+			}
+			out = append(out, filepath.Join(p, de.Name()))
+			n++
+		}
+		if n == 0 {
+			return nil, &ParseError{File: p, Err: ErrNoFiles}
+		}
+	}
+	return out, nil
+}
+
+// ReadFile reads one log file: Parquet when its name ends in .parquet,
+// CSV otherwise; "-" reads CSV from opts.Stdin (os.Stdin when nil). The
+// manifest is not applied (see [Load]).
+func ReadFile(ctx context.Context, path string, opts *Options) (*Dataset, error) {
+	if err := ctx.Err(); err != nil {
+		return nil, err
+	}
+	if opts == nil {
+		opts = &Options{}
+	}
+	if path == "-" {
+		in := opts.Stdin
+		if in == nil {
+			in = os.Stdin
+		}
+		return ReadCSV(in, "-", opts)
+	}
+	if strings.EqualFold(filepath.Ext(path), ".parquet") {
+		return ReadParquet(ctx, path, opts)
+	}
+	f, err := os.Open(path)
+	if err != nil {
+		return nil, err
+	}
+	defer f.Close()
+	return ReadCSV(f, path, opts)
+}
+
+// Load reads every input (see [Expand]), several files at a time, and
+// joins their runs in input order into one data set. Every file must have
+// the same state columns as the first (else a *ParseError wrapping
+// [ErrColumns] names the file). With opts.Manifest set, the manifest's
+// splits are applied, and with no paths its files are read. The first
+// error in input order is returned.
+func Load(ctx context.Context, paths []string, opts *Options) (*Dataset, error) {
+	if opts == nil {
+		opts = &Options{}
+	}
+	var man []ManifestEntry
+	if opts.Manifest != "" {
+		var err error
+		if man, err = ReadManifest(opts.Manifest); err != nil {
+			return nil, err
+		}
+		if len(paths) == 0 {
+			seen := map[string]bool{}
+			for _, e := range man {
+				if !seen[e.Path] {
+					seen[e.Path] = true
+					paths = append(paths, e.Path)
+				}
+			}
+		}
+	}
+	files, err := Expand(paths)
+	if err != nil {
+		return nil, err
+	}
+	if len(files) == 0 {
+		return nil, fmt.Errorf("%w: no inputs", ErrEmpty)
+	}
+	stdin := 0
+	for _, f := range files {
+		if f == "-" {
+			stdin++
+		}
+	}
+	if stdin > 1 {
+		return nil, fmt.Errorf("%w: \"-\" (stdin) given %d times", ErrFormat, stdin)
+	}
+	ctx, cancel := context.WithCancel(ctx)
+	defer cancel()
+	dss := make([]*Dataset, len(files))
+	errs := make([]error, len(files))
+	sem := make(chan struct{}, runtime.GOMAXPROCS(0))
+	var wg sync.WaitGroup
+	for i, f := range files {
+		wg.Add(1)
+		sem <- struct{}{}
+		go func() {
+			defer wg.Done()
+			defer func() { <-sem }()
+			dss[i], errs[i] = ReadFile(ctx, f, opts)
+			if errs[i] != nil {
+				cancel()
+			}
+		}()
+	}
+	wg.Wait()
+	for _, err := range errs {
+		if err != nil && err != context.Canceled {
+			return nil, err
+		}
+	}
+	for _, err := range errs {
+		if err != nil {
+			return nil, err
+		}
+	}
+	out := dss[0]
+	for i, ds := range dss[1:] {
+		if err := sameColumns(out, ds, files[0], files[i+1]); err != nil {
+			return nil, err
+		}
+		out.Runs = append(out.Runs, ds.Runs...)
+		out.Gaps += ds.Gaps
+		out.Missing += ds.Missing
+		for _, c := range ds.Ignored {
+			if !hasColumn(out.Ignored, c.Name) {
+				out.Ignored = append(out.Ignored, c)
+			}
+		}
+	}
+	if man != nil {
+		applyManifest(out, man)
+	}
+	return out, nil
+}
+
+func hasColumn(cs []Column, name string) bool {
+	for _, c := range cs {
+		if c.Name == name {
+			return true
+		}
+	}
+	return false
+}
+
+func sameColumns(a, b *Dataset, fa, fb string) error {
+	names := func(cs []Column) []string {
+		s := make([]string, len(cs))
+		for i, c := range cs {
+			s[i] = c.Name
+		}
+		return s
+	}
+	na, nb := names(a.States), names(b.States)
+	same := len(na) == len(nb)
+	for i := 0; same && i < len(na); i++ {
+		same = na[i] == nb[i] && a.States[i].Unit == b.States[i].Unit
+	}
+	if !same {
+		return &ParseError{File: fb, Err: fmt.Errorf("%w: %s has %s, %s has %s", ErrColumns,
+			fb, colList(b.States), fa, colList(a.States))}
+	}
+	if a.Time.Unit != b.Time.Unit && a.Time.Unit != "" && b.Time.Unit != "" {
+		return &ParseError{File: fb, Name: b.Time.Name, Err: fmt.Errorf("%w: time unit %q, %s has %q", ErrColumns, b.Time.Unit, fa, a.Time.Unit)}
+	}
+	return nil
+}
+
+func colList(cs []Column) string {
+	var sb strings.Builder
+	sb.WriteByte('[')
+	for i, c := range cs {
+		if i > 0 {
+			sb.WriteByte(' ')
+		}
+		sb.WriteString(c.Name)
+		if c.Unit != "" {
+			sb.WriteString(" [" + c.Unit + "]")
+		}
+	}
+	sb.WriteByte(']')
+	return sb.String()
+}

@@ -1,0 +1,308 @@
+package ingest
+
+import (
+	"context"
+	"fmt"
+	"math"
+	"os"
+	"strings"
+
+	"github.com/apache/arrow/go/v15/arrow"
+	"github.com/apache/arrow/go/v15/arrow/array"
+	"github.com/apache/arrow/go/v15/arrow/memory"
+	"github.com/apache/arrow/go/v15/parquet/file"
+	"github.com/apache/arrow/go/v15/parquet/pqarrow"
+)
+
+// maxRowsPerByte bounds the row count a Parquet footer may claim, per
+// byte of the file, before anything is allocated. A logged numeric column
+// takes at least a few bits a row even when encoded well; 64 rows a byte
+// leaves ample room for real files and refuses a hostile footer that
+// claims billions of rows in a few kilobytes.
+const maxRowsPerByte = 64
+
+// ReadParquet reads one Parquet file of logged samples. Columns of type
+// float32, float64, int8..int64 and uint8..uint64 are numbers; a timestamp
+// column (any unit, any zone) is time, converted to seconds from the
+// recording's first sample with [Run.Epoch] set; string or integer
+// columns can be the --run-col. The time column is chosen as for CSV,
+// and when no column is named like time, the first timestamp column is
+// taken. Nulls are missing samples. Columns are read whole, one at a time
+// across all row groups, and copied out of Arrow's buffers.
+//
+// Errors: *fs.PathError for I/O; a *ParseError wrapping [ErrFormat] for a
+// file that is not Parquet, is truncated or claims more rows than it can
+// hold; for a bad column, Column is its 1-based index.
+func ReadParquet(ctx context.Context, path string, opts *Options) (ds *Dataset, err error) {
+	if opts == nil {
+		opts = &Options{}
+	}
+	tb, err := readParquetTable(ctx, path, opts)
+	if err != nil {
+		return nil, err
+	}
+	ds, err = tb.dataset()
+	if err != nil {
+		return nil, err
+	}
+	ds.Ignored = tb.ignored
+	return ds, nil
+}
+
+func readParquetTable(ctx context.Context, path string, opts *Options) (tb *table, err error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return nil, err
+	}
+	defer f.Close()
+	st, err := f.Stat()
+	if err != nil {
+		return nil, err
+	}
+	bad := func(format string, a ...any) error {
+		return &ParseError{File: path, Err: fmt.Errorf("%w: "+format, append([]any{ErrFormat}, a...)...)}
+	}
+	// The Arrow library can panic on corrupt pages; that is bad input.
+	defer func() {
+		if r := recover(); r != nil {
+			tb, err = nil, bad("corrupt Parquet data (%v)", r)
+		}
+	}()
+	pr, err := file.NewParquetReader(f)
+	if err != nil {
+		return nil, bad("not a Parquet file (%v)", err)
+	}
+	md := pr.MetaData()
+	nrows := pr.NumRows()
+	var sum int64
+	for i := 0; i < pr.NumRowGroups(); i++ {
+		n := md.RowGroup(i).NumRows()
+		if n < 0 {
+			return nil, bad("row group %d claims %d rows", i, n)
+		}
+		sum += n
+	}
+	if nrows < 0 || sum != nrows {
+		return nil, bad("footer claims %d rows, its row groups %d", nrows, sum)
+	}
+	if nrows > maxRowsPerByte*max(st.Size(), 1) || nrows > math.MaxInt32 {
+		return nil, bad("footer claims %d rows in %d bytes", nrows, st.Size())
+	}
+	fr, err := pqarrow.NewFileReader(pr, pqarrow.ArrowReadProperties{BatchSize: nrows + 1}, memory.DefaultAllocator)
+	if err != nil {
+		return nil, bad("%v", err)
+	}
+	sc, err := fr.Schema()
+	if err != nil {
+		return nil, bad("schema: %v", err)
+	}
+	fields := sc.Fields()
+	if md.Schema.NumColumns() != len(fields) {
+		return nil, bad("nested columns are not supported")
+	}
+	cols := make([]Column, len(fields))
+	for j, fd := range fields {
+		cols[j] = splitUnit(fd.Name)
+	}
+	o := *opts
+	if o.TimeCol == "" && o.Rate <= 0 && !hasTimeName(cols) {
+		for j, fd := range fields {
+			if fd.Type.ID() == arrow.TIMESTAMP {
+				o.TimeCol = cols[j].Name
+				break
+			}
+		}
+	}
+	r, err := assignRoles(path, cols, &o)
+	if err != nil {
+		return nil, err
+	}
+	// text columns are not states unless named by --states
+	for j, fd := range fields {
+		if r.role[j] == roleState && !numericType(fd.Type.ID()) {
+			if r.explicit {
+				return nil, &ParseError{File: path, Column: j + 1, Name: cols[j].Name,
+					Err: fmt.Errorf("%w: column type %s", ErrNotNumber, fd.Type)}
+			}
+			r.dropState(j)
+		}
+	}
+	if len(r.states) == 0 {
+		return nil, &ParseError{File: path, Err: ErrNoStates}
+	}
+	tb = &table{file: path, states: r.states, stateCol: r.stateCol, timeCol: r.timeCol, timeIdx: r.timeIdx,
+		rate: r.rate, ignored: r.ignored, rows: int(nrows), marks: []lineMark{{0, 1}}}
+	tb.x = make([][]float64, len(r.states))
+	for j := range fields {
+		if err := ctx.Err(); err != nil {
+			return nil, err
+		}
+		if r.role[j] == roleSkip {
+			continue
+		}
+		cr, err := fr.GetColumn(ctx, j)
+		if err != nil {
+			return nil, bad("column %q: %v", cols[j].Name, err)
+		}
+		ch, err := cr.NextBatch(nrows)
+		cr.Release()
+		if err != nil {
+			return nil, bad("column %q: %v", cols[j].Name, err)
+		}
+		err = tb.column(r, j, cols[j], ch, int(nrows))
+		ch.Release()
+		if err != nil {
+			return nil, err
+		}
+	}
+	return tb, nil
+}
+
+func hasTimeName(cols []Column) bool {
+	for _, c := range cols {
+		switch strings.ToLower(c.Name) {
+		case "t", "time", "timestamp", "time_s":
+			return true
+		}
+	}
+	return false
+}
+
+func numericType(id arrow.Type) bool {
+	switch id {
+	case arrow.FLOAT32, arrow.FLOAT64, arrow.INT8, arrow.INT16, arrow.INT32, arrow.INT64,
+		arrow.UINT8, arrow.UINT16, arrow.UINT32, arrow.UINT64:
+		return true
+	}
+	return false
+}
+
+// column copies one Arrow column into the table.
+func (tb *table) column(r *roles, j int, c Column, ch *arrow.Chunked, n int) error {
+	perr := func(row int, err error) error {
+		return &ParseError{File: tb.file, Line: row, Column: j + 1, Name: c.Name, Err: err}
+	}
+	if ch.Len() != n {
+		return perr(0, fmt.Errorf("%w: %d values, %d rows", ErrFormat, ch.Len(), n))
+	}
+	switch r.role[j] {
+	case roleRun:
+		tb.keys = []keySpan{}
+		for _, a := range ch.Chunks() {
+			for i := 0; i < a.Len(); i++ {
+				key := ""
+				if !a.IsNull(i) {
+					key = a.ValueStr(i)
+				}
+				if k := len(tb.keys); k > 0 && tb.keys[k-1].key == key {
+					tb.keys[k-1].n++
+				} else {
+					tb.keys = append(tb.keys, keySpan{key: key, n: 1})
+				}
+			}
+		}
+		return nil
+	case roleTime:
+		if ts, ok := ch.DataType().(*arrow.TimestampType); ok {
+			mul := int64(ts.Unit.Multiplier())
+			tb.dateTime = true
+			tb.tn = make([]int64, 0, n)
+			for _, a := range ch.Chunks() {
+				ta := a.(*array.Timestamp)
+				for i, v := range ta.TimestampValues() {
+					if ta.IsNull(i) {
+						tb.tn = append(tb.tn, noTime)
+						continue
+					}
+					ns := int64(v)
+					if ns > math.MaxInt64/mul || ns < math.MinInt64/mul+1 {
+						return perr(len(tb.tn)+1, fmt.Errorf("%w: timestamp out of range", ErrNotNumber))
+					}
+					tb.tn = append(tb.tn, ns*mul)
+				}
+			}
+			return nil
+		}
+		if !numericType(ch.DataType().ID()) {
+			return perr(0, fmt.Errorf("%w: time column type %s", ErrNotNumber, ch.DataType()))
+		}
+		tb.t = make([]float64, 0, n)
+		var err error
+		tb.t, err = appendFloats(tb.t, ch)
+		if err != nil {
+			return perr(len(tb.t)+1, err)
+		}
+		return nil
+	}
+	k := r.stateOf[j]
+	dst := make([]float64, 0, n)
+	dst, err := appendFloats(dst, ch)
+	if err != nil {
+		return perr(len(dst)+1, err)
+	}
+	tb.x[k] = dst
+	return nil
+}
+
+// appendFloats appends a numeric column as float64, nulls as NaN. An
+// infinite value is an error (the returned dst's length says where).
+func appendFloats(dst []float64, ch *arrow.Chunked) ([]float64, error) {
+	for _, a := range ch.Chunks() {
+		start := len(dst)
+		switch v := a.(type) {
+		case *array.Float64:
+			dst = append(dst, v.Float64Values()...)
+		case *array.Float32:
+			for _, x := range v.Float32Values() {
+				dst = append(dst, float64(x))
+			}
+		case *array.Int64:
+			for _, x := range v.Int64Values() {
+				dst = append(dst, float64(x))
+			}
+		case *array.Int32:
+			for _, x := range v.Int32Values() {
+				dst = append(dst, float64(x))
+			}
+		case *array.Int16:
+			for _, x := range v.Int16Values() {
+				dst = append(dst, float64(x))
+			}
+		case *array.Int8:
+			for _, x := range v.Int8Values() {
+				dst = append(dst, float64(x))
+			}
+		case *array.Uint64:
+			for _, x := range v.Uint64Values() {
+				dst = append(dst, float64(x))
+			}
+		case *array.Uint32:
+			for _, x := range v.Uint32Values() {
+				dst = append(dst, float64(x))
+			}
+		case *array.Uint16:
+			for _, x := range v.Uint16Values() {
+				dst = append(dst, float64(x))
+			}
+		case *array.Uint8:
+			for _, x := range v.Uint8Values() {
+				dst = append(dst, float64(x))
+			}
+		default:
+			return dst, fmt.Errorf("%w: column type %s", ErrNotNumber, a.DataType())
+		}
+		if a.NullN() > 0 {
+			for i := 0; i < a.Len(); i++ {
+				if a.IsNull(i) {
+					dst[start+i] = math.NaN()
+				}
+			}
+		}
+		for i := start; i < len(dst); i++ {
+			if math.IsInf(dst[i], 0) {
+				return dst[:i], fmt.Errorf("%w: infinite value", ErrNotNumber)
+			}
+		}
+	}
+	return dst, nil
+}

@@ -1,0 +1,184 @@
+package ingest
+
+import (
+	"math"
+	"slices"
+	"time"
+)
+
+// Settling thresholds for [Summarise].
+const (
+	// TailFraction is the share of a run, at its end, that is examined
+	// for settling.
+	TailFraction = 0.05
+	// SettleSpread is the largest span (max - min) of every state over a
+	// run's tail, relative to the state's span over the whole run, for
+	// the run to count as settled. A run that only wanders in noise has a
+	// tail span close to its whole span and does not count.
+	SettleSpread = 0.1
+	// minTail is the fewest tail samples a settle judgement uses.
+	minTail = 5
+)
+
+// Summary is what [Summarise] finds in a data set.
+type Summary struct {
+	Runs   []RunSummary
+	States []ColumnSummary // one per Dataset.States
+	Total  RunSummary      // over every run; Total.Name is empty
+	// SettledRuns counts runs that settled; Settle holds, per state, the
+	// median over settled runs of their settle points (nil if none did).
+	SettledRuns int
+	Settle      []float64
+	Files       int
+	Missing     int // samples dropped for missing cells
+}
+
+// RunSummary describes one run (or, in Summary.Total, all of them).
+type RunSummary struct {
+	Name  string
+	File  string
+	Line  int
+	Split string
+	Epoch time.Time // zero unless the time column held date-times
+	// Samples is the number of samples; Start and Duration are in
+	// seconds (Duration: last time minus first; for Total, the sum).
+	Samples         int
+	Start, Duration float64
+	// RateHz is 1 / the median time step; 0 with fewer than 2 samples.
+	RateHz float64
+	// Jitter is the interquartile range of the time steps divided by
+	// their median (0 for perfectly even sampling).
+	Jitter float64
+	Gaps   int
+	// Min and Max are per state, over the run.
+	Min, Max []float64
+	// Settled says whether every state's span over the last
+	// TailFraction of the run (at least 5 samples) is at most
+	// SettleSpread times its span over the run. Settle holds, per state,
+	// the median over that tail; nil when not settled.
+	Settled bool
+	Settle  []float64
+}
+
+// ColumnSummary gives a state's unit and range over all runs.
+type ColumnSummary struct {
+	Column
+	Min, Max float64
+}
+
+// Summarise describes ds: per run and in total, samples, timing, gaps,
+// ranges and where the runs settle. It does not modify ds.
+func Summarise(ds *Dataset) *Summary {
+	s := &Summary{Missing: ds.Missing}
+	ns := len(ds.States)
+	s.Total = RunSummary{Min: fill(ns, math.Inf(1)), Max: fill(ns, math.Inf(-1)), Gaps: ds.Gaps}
+	files := map[string]bool{}
+	var allDt []float64
+	var settles [][]float64 // per state, over settled runs
+	settles = make([][]float64, ns)
+	for i := range ds.Runs {
+		r := &ds.Runs[i]
+		files[r.Source.File] = true
+		rs := RunSummary{Name: r.Name, File: r.Source.File, Line: r.Source.Line, Split: r.Split, Epoch: r.Epoch,
+			Samples: r.Len(), Gaps: r.Gaps, Min: make([]float64, ns), Max: make([]float64, ns)}
+		if n := r.Len(); n > 0 {
+			rs.Start = r.T[0]
+			rs.Duration = r.T[n-1] - r.T[0]
+			dt := make([]float64, n-1)
+			for k := 1; k < n; k++ {
+				dt[k-1] = r.T[k] - r.T[k-1]
+			}
+			allDt = append(allDt, dt...)
+			rs.RateHz, rs.Jitter = rateJitter(dt)
+			for j := range ns {
+				rs.Min[j], rs.Max[j] = minMax(r.X[j])
+				s.Total.Min[j] = min(s.Total.Min[j], rs.Min[j])
+				s.Total.Max[j] = max(s.Total.Max[j], rs.Max[j])
+			}
+			rs.Settled, rs.Settle = settle(r, rs.Min, rs.Max)
+			if rs.Settled {
+				s.SettledRuns++
+				for j := range ns {
+					settles[j] = append(settles[j], rs.Settle[j])
+				}
+			}
+		}
+		s.Total.Samples += rs.Samples
+		s.Total.Duration += rs.Duration
+		s.Runs = append(s.Runs, rs)
+	}
+	s.Total.RateHz, s.Total.Jitter = rateJitter(allDt)
+	if s.Total.Samples == 0 {
+		s.Total.Min, s.Total.Max = make([]float64, ns), make([]float64, ns)
+	}
+	if s.SettledRuns > 0 {
+		s.Settle = make([]float64, ns)
+		for j := range ns {
+			s.Settle[j] = median(settles[j])
+		}
+	}
+	for j, c := range ds.States {
+		s.States = append(s.States, ColumnSummary{Column: c, Min: s.Total.Min[j], Max: s.Total.Max[j]})
+	}
+	s.Files = len(files)
+	return s
+}
+
+func fill(n int, v float64) []float64 {
+	s := make([]float64, n)
+	for i := range s {
+		s[i] = v
+	}
+	return s
+}
+
+func minMax(v []float64) (lo, hi float64) {
+	lo, hi = v[0], v[0]
+	for _, x := range v[1:] {
+		lo, hi = min(lo, x), max(hi, x)
+	}
+	return lo, hi
+}
+
+// rateJitter returns 1/median(dt) and IQR(dt)/median(dt); dt is reordered.
+func rateJitter(dt []float64) (rate, jitter float64) {
+	if len(dt) == 0 {
+		return 0, 0
+	}
+	slices.Sort(dt)
+	med := quantile(dt, 0.5)
+	if med <= 0 {
+		return 0, 0
+	}
+	return 1 / med, (quantile(dt, 0.75) - quantile(dt, 0.25)) / med
+}
+
+// quantile of sorted v by linear interpolation between order statistics
+// (the common "type 7" definition).
+func quantile(v []float64, p float64) float64 {
+	h := p * float64(len(v)-1)
+	lo := int(math.Floor(h))
+	if lo+1 >= len(v) {
+		return v[len(v)-1]
+	}
+	return v[lo] + (h-float64(lo))*(v[lo+1]-v[lo])
+}
+
+func settle(r *Run, lo, hi []float64) (bool, []float64) {
+	n := r.Len()
+	k := max(int(math.Ceil(TailFraction*float64(n))), minTail)
+	if k*2 > n { // the tail would be most of the run: no judgement
+		return false, nil
+	}
+	pt := make([]float64, len(r.X))
+	tail := make([]float64, k)
+	for j, x := range r.X {
+		copy(tail, x[n-k:])
+		tlo, thi := minMax(tail)
+		if span := hi[j] - lo[j]; span > 0 && thi-tlo > SettleSpread*span {
+			return false, nil
+		}
+		pt[j] = median(tail)
+	}
+	return true, pt
+}

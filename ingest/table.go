@@ -1,0 +1,252 @@
+package ingest
+
+import (
+	"fmt"
+	"math"
+	"path/filepath"
+	"slices"
+	"sort"
+	"time"
+)
+
+// noTime marks a missing date-time cell in table.tn.
+const noTime = math.MinInt64
+
+// keySpan is a run of consecutive rows with the same --run-col value.
+type keySpan struct {
+	key string
+	n   int
+}
+
+// lineMark says that table row Row is on line Line; rows after it follow
+// on consecutive lines until the next mark.
+type lineMark struct{ row, line int }
+
+// table is what a reader produces before runs are formed: every row, with
+// NaN (or noTime) for missing cells.
+type table struct {
+	file     string
+	states   []Column
+	stateCol []int // 1-based source column of each state, for errors
+	timeCol  Column
+	timeIdx  int     // 1-based source column of time; 0 if none
+	rate     float64 // > 0 when there is no time column
+	dateTime bool    // tn holds Unix nanoseconds, not t
+	t        []float64
+	tn       []int64
+	x        [][]float64
+	keys     []keySpan // nil without --run-col
+	marks    []lineMark
+	rows     int
+	ignored  []Column
+}
+
+// line returns the source line (CSV) or 1-based row (Parquet) of row i.
+func (tb *table) line(i int) int {
+	k := sort.Search(len(tb.marks), func(k int) bool { return tb.marks[k].row > i }) - 1
+	if k < 0 {
+		return i + 1
+	}
+	return tb.marks[k].line + (i - tb.marks[k].row)
+}
+
+// group is one recording before gap splitting: its rows in order.
+type group struct {
+	name  string
+	spans [][2]int // [start, end) row ranges, in order
+}
+
+func (tb *table) groups() []group {
+	base := filepath.Base(tb.file)
+	if tb.file == "-" {
+		base = "-"
+	}
+	if tb.keys == nil {
+		return []group{{name: base, spans: [][2]int{{0, tb.rows}}}}
+	}
+	var gs []group
+	idx := map[string]int{}
+	row := 0
+	for _, ks := range tb.keys {
+		g, ok := idx[ks.key]
+		if !ok {
+			g = len(gs)
+			idx[ks.key] = g
+			gs = append(gs, group{name: base + "#" + ks.key})
+		}
+		sp := gs[g].spans
+		if n := len(sp); n > 0 && sp[n-1][1] == row {
+			sp[n-1][1] = row + ks.n
+		} else {
+			sp = append(sp, [2]int{row, row + ks.n})
+		}
+		gs[g].spans = sp
+		row += ks.n
+	}
+	return gs
+}
+
+// dataset forms runs: groups by --run-col, drops rows with a missing cell,
+// checks that time strictly increases and splits at gaps.
+func (tb *table) dataset() (*Dataset, error) {
+	if tb.rows == 0 {
+		return nil, &ParseError{File: tb.file, Err: ErrEmpty}
+	}
+	for j, c := range tb.x {
+		if allNaN(c) {
+			return nil, &ParseError{File: tb.file, Column: tb.stateCol[j], Name: tb.states[j].Name, Err: ErrAllMissing}
+		}
+	}
+	ds := &Dataset{States: tb.states, Time: tb.timeCol}
+	if tb.dateTime || tb.rate > 0 {
+		tb.t = make([]float64, tb.rows)
+	}
+	for _, g := range tb.groups() {
+		if err := tb.splitGroup(ds, g); err != nil {
+			return nil, err
+		}
+	}
+	if len(ds.Runs) == 0 {
+		return nil, &ParseError{File: tb.file, Err: fmt.Errorf("%w: every row has a missing cell", ErrEmpty)}
+	}
+	tb.tn = nil
+	return ds, nil
+}
+
+func allNaN(c []float64) bool {
+	for _, v := range c {
+		if v == v {
+			return false
+		}
+	}
+	return true
+}
+
+func (tb *table) splitGroup(ds *Dataset, g group) error {
+	var epoch time.Time
+	var t0 int64
+	haveT0 := false
+	local := 0 // row index within the group, for --rate
+	// pieces of valid rows, split at missing rows
+	var pieces [][]int32
+	var cur []int32
+	prevT, prevRow := math.Inf(-1), -1
+	missing := 0
+	for _, sp := range g.spans {
+		for i := sp[0]; i < sp[1]; i++ {
+			var ti float64
+			switch {
+			case tb.rate > 0:
+				ti = float64(local) / tb.rate
+				tb.t[i] = ti
+			case tb.dateTime:
+				n := tb.tn[i]
+				if n == noTime {
+					ti = math.NaN()
+				} else {
+					if !haveT0 {
+						t0, haveT0 = n, true
+						epoch = time.Unix(0, n).UTC()
+					}
+					ti = float64(n-t0) / 1e9
+				}
+				tb.t[i] = ti
+			default:
+				ti = tb.t[i]
+			}
+			local++
+			ok := ti == ti
+			for _, c := range tb.x {
+				if c[i] != c[i] {
+					ok = false
+					break
+				}
+			}
+			if !ok {
+				missing++
+				if len(cur) > 0 {
+					pieces = append(pieces, cur)
+					cur = nil
+				}
+				continue
+			}
+			if ti <= prevT {
+				what := "repeats"
+				if ti < prevT {
+					what = "goes back"
+				}
+				return &ParseError{File: tb.file, Line: tb.line(i), Column: tb.timeIdx, Name: tb.timeCol.Name,
+					Err: fmt.Errorf("%w: %s (%g after %g on line %d)", ErrTimeOrder, what, ti, prevT, tb.line(prevRow))}
+			}
+			prevT, prevRow = ti, i
+			cur = append(cur, int32(i))
+		}
+	}
+	if len(cur) > 0 {
+		pieces = append(pieces, cur)
+	}
+	ds.Missing += missing
+	// median step over consecutive valid samples within pieces
+	var dts []float64
+	for _, p := range pieces {
+		for k := 1; k < len(p); k++ {
+			dts = append(dts, tb.t[p[k]]-tb.t[p[k-1]])
+		}
+	}
+	var limit = math.Inf(1)
+	if len(dts) > 0 {
+		limit = GapFactor * median(dts)
+	}
+	var final [][]int32
+	for _, p := range pieces {
+		a := 0
+		for k := 1; k < len(p); k++ {
+			if tb.t[p[k]]-tb.t[p[k-1]] > limit {
+				final = append(final, p[a:k])
+				a = k
+			}
+		}
+		final = append(final, p[a:])
+	}
+	gaps := len(final) - 1
+	ds.Gaps += gaps
+	for n, p := range final {
+		r := Run{Name: g.name, Source: Source{File: tb.file, Line: tb.line(int(p[0]))}, Epoch: epoch, Gaps: gaps}
+		if n > 0 {
+			r.Name = fmt.Sprintf("%s~%d", g.name, n)
+		}
+		a, b := int(p[0]), int(p[len(p)-1])+1
+		r.X = make([][]float64, len(tb.x))
+		if b-a == len(p) { // contiguous rows: share the table's storage
+			r.T = tb.t[a:b:b]
+			for j, c := range tb.x {
+				r.X[j] = c[a:b:b]
+			}
+		} else {
+			r.T = gather(tb.t, p)
+			for j, c := range tb.x {
+				r.X[j] = gather(c, p)
+			}
+		}
+		ds.Runs = append(ds.Runs, r)
+	}
+	return nil
+}
+
+func gather(src []float64, idx []int32) []float64 {
+	dst := make([]float64, len(idx))
+	for k, i := range idx {
+		dst[k] = src[i]
+	}
+	return dst
+}
+
+// median returns the median of v, reordering v. v must not be empty.
+func median(v []float64) float64 {
+	slices.Sort(v)
+	n := len(v)
+	if n%2 == 1 {
+		return v[n/2]
+	}
+	return (v[n/2-1] + v[n/2]) / 2
+}
