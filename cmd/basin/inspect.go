@@ -1,0 +1,218 @@
+package main
+
+import (
+	"context"
+	"errors"
+	"flag"
+	"fmt"
+	"io"
+	"io/fs"
+	"math"
+	"strconv"
+	"text/tabwriter"
+	"time"
+
+	"github.com/basin-dev/basin/ingest"
+)
+
+func init() {
+	register(&command{
+		Name:  "inspect",
+		Usage: "basin inspect [flags] INPUTS...",
+		Short: "say what the logs hold",
+		Long: `Reads the logs and says what it found: per run and in total, samples,
+start and duration, median sampling rate and its jitter (interquartile
+range of the time steps over their median), gaps, per-column ranges and
+units, and the point the runs settle on (median of the last 5% of each
+run whose last 5% spans at most a tenth of the run's range).`,
+		Flags: func(fs *flag.FlagSet) any {
+			c := &commonFlags{}
+			c.addInputFlags(fs)
+			return c
+		},
+		Run: runInspect,
+	})
+}
+
+// loadInputs reads the inputs per the flags; bad input becomes an
+// inputError (exit 2).
+func loadInputs(ctx context.Context, e *env, c *commonFlags, args []string) (*ingest.Dataset, error) {
+	if err := needInputs(args); err != nil && c.Manifest == "" {
+		return nil, err
+	}
+	opts, err := c.ingestOptions()
+	if err != nil {
+		return nil, err
+	}
+	opts.Stdin = e.stdin
+	ds, err := ingest.Load(ctx, args, opts)
+	if err != nil {
+		var pe *ingest.ParseError
+		var fe *fs.PathError
+		if errors.As(err, &pe) || errors.As(err, &fe) || isIngestSentinel(err) {
+			return nil, &inputError{err}
+		}
+		return nil, err
+	}
+	return ds, nil
+}
+
+func isIngestSentinel(err error) bool {
+	for _, s := range []error{ingest.ErrEmpty, ingest.ErrFormat, ingest.ErrNoFiles, ingest.ErrNoTime, ingest.ErrNoStates} {
+		if errors.Is(err, s) {
+			return true
+		}
+	}
+	return false
+}
+
+// inspectJSON is the contract's inspect --json shape (plus extra fields).
+type inspectJSON struct {
+	Runs    []inspectRun   `json:"runs"`
+	States  []inspectState `json:"states"`
+	Time    ingest.Column  `json:"time"`
+	Ignored []string       `json:"ignored,omitempty"`
+	Summary inspectSummary `json:"summary"`
+}
+
+type inspectRun struct {
+	File     string    `json:"file"`
+	Run      string    `json:"run"`
+	Line     int       `json:"line"`
+	Samples  int       `json:"samples"`
+	Start    float64   `json:"start"`
+	Epoch    string    `json:"epoch,omitempty"`
+	Duration float64   `json:"duration"`
+	RateHz   float64   `json:"rate_hz"`
+	Jitter   float64   `json:"jitter"`
+	Gaps     int       `json:"gaps"`
+	Split    string    `json:"split,omitempty"`
+	Min      []float64 `json:"min"`
+	Max      []float64 `json:"max"`
+	Settled  bool      `json:"settled"`
+	Settle   []float64 `json:"settle,omitempty"`
+}
+
+type inspectState struct {
+	Name   string   `json:"name"`
+	Unit   string   `json:"unit"`
+	Min    float64  `json:"min"`
+	Max    float64  `json:"max"`
+	Settle *float64 `json:"settle,omitempty"`
+}
+
+type inspectSummary struct {
+	Files       int       `json:"files"`
+	Runs        int       `json:"runs"`
+	Samples     int       `json:"samples"`
+	Duration    float64   `json:"duration"`
+	RateHz      float64   `json:"rate_hz"`
+	Jitter      float64   `json:"jitter"`
+	Gaps        int       `json:"gaps"`
+	Missing     int       `json:"missing"`
+	SettledRuns int       `json:"settled_runs"`
+	Settle      []float64 `json:"settle,omitempty"`
+	Jitterdef   string    `json:"jitter_definition"`
+}
+
+func runInspect(ctx context.Context, e *env, o any, args []string) error {
+	c := o.(*commonFlags)
+	ds, err := loadInputs(ctx, e, c, args)
+	if err != nil {
+		return err
+	}
+	s := ingest.Summarise(ds)
+	if c.JSON {
+		return writeJSON(e.stdout, inspectDoc(ds, s))
+	}
+	return inspectTable(e.stdout, ds, s)
+}
+
+func inspectDoc(ds *ingest.Dataset, s *ingest.Summary) *inspectJSON {
+	doc := &inspectJSON{Time: ds.Time, Runs: []inspectRun{}, States: []inspectState{}}
+	for _, r := range s.Runs {
+		ir := inspectRun{File: r.File, Run: r.Name, Line: r.Line, Samples: r.Samples, Start: r.Start,
+			Duration: r.Duration, RateHz: r.RateHz, Jitter: r.Jitter, Gaps: r.Gaps, Split: r.Split,
+			Min: r.Min, Max: r.Max, Settled: r.Settled, Settle: r.Settle}
+		if !r.Epoch.IsZero() {
+			ir.Epoch = r.Epoch.Format(time.RFC3339Nano)
+		}
+		doc.Runs = append(doc.Runs, ir)
+	}
+	for j, st := range s.States {
+		is := inspectState{Name: st.Name, Unit: st.Unit, Min: st.Min, Max: st.Max}
+		if s.Settle != nil {
+			v := s.Settle[j]
+			is.Settle = &v
+		}
+		doc.States = append(doc.States, is)
+	}
+	for _, c := range ds.Ignored {
+		doc.Ignored = append(doc.Ignored, c.Name)
+	}
+	doc.Summary = inspectSummary{Files: s.Files, Runs: len(s.Runs), Samples: s.Total.Samples,
+		Duration: s.Total.Duration, RateHz: s.Total.RateHz, Jitter: s.Total.Jitter, Gaps: ds.Gaps,
+		Missing: s.Missing, SettledRuns: s.SettledRuns, Settle: s.Settle,
+		Jitterdef: "interquartile range of the time steps divided by their median"}
+	return doc
+}
+
+func g(v float64) string {
+	if math.IsNaN(v) {
+		return "-"
+	}
+	return strconv.FormatFloat(v, 'g', 5, 64)
+}
+
+func inspectTable(w io.Writer, ds *ingest.Dataset, s *ingest.Summary) error {
+	tw := tabwriter.NewWriter(w, 0, 4, 2, ' ', 0)
+	fmt.Fprintln(tw, "run\tsamples\tstart\tduration\trate Hz\tjitter\tgaps\tsplit\tsettled")
+	for _, r := range s.Runs {
+		settled := "no"
+		if r.Settled {
+			settled = "yes"
+		}
+		split := r.Split
+		if split == "" {
+			split = "auto"
+		}
+		fmt.Fprintf(tw, "%s\t%d\t%s\t%s\t%s\t%s\t%d\t%s\t%s\n", r.Name, r.Samples, g(r.Start), g(r.Duration),
+			g(r.RateHz), g(r.Jitter), r.Gaps, split, settled)
+	}
+	fmt.Fprintf(tw, "total\t%d\t\t%s\t%s\t%s\t%d\t\t%d of %d\n", s.Total.Samples, g(s.Total.Duration),
+		g(s.Total.RateHz), g(s.Total.Jitter), ds.Gaps, s.SettledRuns, len(s.Runs))
+	if err := tw.Flush(); err != nil {
+		return err
+	}
+	fmt.Fprintln(w)
+	tw = tabwriter.NewWriter(w, 0, 4, 2, ' ', 0)
+	fmt.Fprintln(tw, "state\tunit\tmin\tmax\tsettles at")
+	for j, st := range s.States {
+		at := "-"
+		if s.Settle != nil {
+			at = g(s.Settle[j])
+		}
+		unit := st.Unit
+		if unit == "" {
+			unit = "-"
+		}
+		fmt.Fprintf(tw, "%s\t%s\t%s\t%s\t%s\n", st.Name, unit, g(st.Min), g(st.Max), at)
+	}
+	if err := tw.Flush(); err != nil {
+		return err
+	}
+	fmt.Fprintf(w, "\n%d files, %d runs, %d samples; time column %q", s.Files, len(s.Runs), s.Total.Samples, ds.Time.Name)
+	if ds.Time.Unit != "" {
+		fmt.Fprintf(w, " [%s]", ds.Time.Unit)
+	}
+	fmt.Fprintf(w, "; %d gaps split runs, %d samples missing\n", ds.Gaps, s.Missing)
+	if len(ds.Ignored) > 0 {
+		fmt.Fprintf(w, "ignored columns (not numeric or not chosen):")
+		for _, c := range ds.Ignored {
+			fmt.Fprintf(w, " %s", c.Name)
+		}
+		fmt.Fprintln(w)
+	}
+	fmt.Fprintln(w, "jitter: interquartile range of the time steps over their median; settled: the last 5% of a run spans at most 10% of its range")
+	return nil
+}
