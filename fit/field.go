@@ -3,8 +3,16 @@ package fit
 import (
 	"context"
 	"errors"
+	"fmt"
+	"math"
+	"math/rand/v2"
+	"runtime"
+	"sort"
+	"sync"
 
+	"github.com/basin-dev/basin/fit/poly"
 	"github.com/basin-dev/basin/ingest"
+	"gonum.org/v1/gonum/mat"
 )
 
 // FieldOptions controls Field. A nil *FieldOptions means all defaults.
@@ -12,9 +20,661 @@ type FieldOptions struct {
 	Degree int    // total degree of the monomial library; 0 means 3
 	Folds  int    // cross-validation folds over runs; 0 means 5
 	Seed   uint64 // random seed for folds and bootstrap; 0 means 1
+	// Derivative is DerivFornberg, DerivSavitzkyGolay or DerivIntegral;
+	// empty means DefaultDerivative.
+	Derivative string
+	// Window fixes the derivative window half-width in samples (the
+	// Savitzky–Golay window is 2·Window+1, the integral window 2·Window
+	// steps); 0 means chosen per state from the noise estimate.
+	Window int
+	// Bootstrap is the number of bootstrap refits over runs; 0 means 100,
+	// negative means none (Equation.Terms is then left empty).
+	Bootstrap int
+	// Thresholds and Ridges are the cross-validation grid, thresholds on
+	// coefficients normalised by their column's and target's spread (so
+	// 0.01 drops a term worth under 1% of its equation); nil means the
+	// default grids.
+	Thresholds []float64
+	Ridges     []float64
+	// SkipShort skips runs shorter than the derivative window instead of
+	// failing; false means such a run is an error.
+	SkipShort bool
 }
 
+// DefaultDerivative is the derivative method used when
+// FieldOptions.Derivative is empty; see TestDerivativeTable for the
+// measurement that chose it.
+const DefaultDerivative = DerivSavitzkyGolay
+
+var (
+	defaultThresholds = []float64{0, 0.001, 0.002, 0.005, 0.01, 0.02, 0.035, 0.05, 0.075, 0.1, 0.15, 0.2, 0.3, 0.5}
+	defaultRidges     = []float64{1e-8, 1e-4, 1e-2}
+)
+
+func (o *FieldOptions) withDefaults() FieldOptions {
+	var r FieldOptions
+	if o != nil {
+		r = *o
+	}
+	if r.Degree == 0 {
+		r.Degree = 3
+	}
+	if r.Folds == 0 {
+		r.Folds = 5
+	}
+	if r.Seed == 0 {
+		r.Seed = 1
+	}
+	if r.Derivative == "" {
+		r.Derivative = DefaultDerivative
+	}
+	if r.Bootstrap == 0 {
+		r.Bootstrap = 100
+	}
+	if r.Thresholds == nil {
+		r.Thresholds = defaultThresholds
+	}
+	if r.Ridges == nil {
+		r.Ridges = defaultRidges
+	}
+	return r
+}
+
+// Errors Field can return (wrapped with the numbers).
+var (
+	ErrTooFewSamples = errors.New("too few samples")
+	ErrConstant      = errors.New("constant state")
+	ErrCollinear     = errors.New("library terms nearly collinear")
+	ErrShortRun      = errors.New("run shorter than the derivative window")
+)
+
+// CollinearError reports a library whose normal matrix is too ill
+// conditioned to solve. It unwraps to ErrCollinear and to gonum's
+// mat.Condition carrying the number.
+type CollinearError struct {
+	Condition float64
+	Degree    int
+}
+
+func (e *CollinearError) Error() string {
+	return fmt.Sprintf("library terms nearly collinear (condition %.1e); try a lower --degree than %d", e.Condition, e.Degree)
+}
+
+func (e *CollinearError) Unwrap() []error { return []error{ErrCollinear, mat.Condition(e.Condition)} }
+
+const (
+	// rawCondMax: the raw-monomial basis is used for thresholding when its
+	// normalised normal matrix has condition at most this; past it the
+	// solve would lose more than about 7 of 16 digits, and the centred
+	// basis is used instead.
+	rawCondMax = 1e9
+	// collinearCond: a centred, normalised normal matrix worse than this
+	// leaves fewer than 3 correct digits (16 - 13); such a library is
+	// refused.
+	collinearCond = 1e13
+	// stateCorrMax: two states correlated beyond this move as one (two
+	// sensors of one quantity); the field cannot tell them apart.
+	stateCorrMax = 0.999
+	// rowsPerTerm: at least this many regression rows per library term.
+	rowsPerTerm = 3
+	// sampleCap bounds the samples used for quantiles and noise estimates.
+	sampleCap = 200000
+	// settleShare is the share of a run at its end that tells where it
+	// settles.
+	settleShare = 0.05
+)
+
 // Field fits a sparse polynomial vector field to the runs of ds.
+//
+// The steps: robust centring and scaling per state; derivatives by
+// FieldOptions.Derivative; the library's normal equations accumulated run
+// by run in parallel; sequentially thresholded ridge regression whose
+// threshold and ridge are chosen by K-fold cross-validation over runs (the
+// sparsest model within one standard error of the best held-out error),
+// refitted by least squares on the chosen support; a bootstrap over runs
+// for per-term inclusion frequencies and intervals; and Newton's method on
+// the fitted field for its equilibria.
+//
+// Bad input gives an error wrapping ErrTooFewSamples, ErrConstant,
+// ErrCollinear (as a *CollinearError) or ErrShortRun, with the numbers.
 func Field(ctx context.Context, ds *ingest.Dataset, opts *FieldOptions) (*Model, error) {
-	return nil, errors.New("fit: Field not built yet")
+	o := opts.withDefaults()
+	if o.Degree < 0 || o.Degree > 8 {
+		return nil, fmt.Errorf("fit: degree %d outside 0..8", o.Degree)
+	}
+	switch o.Derivative {
+	case DerivFornberg, DerivSavitzkyGolay, DerivIntegral:
+	default:
+		return nil, fmt.Errorf("fit: unknown derivative method %q", o.Derivative)
+	}
+	if ds == nil || len(ds.States) == 0 {
+		return nil, fmt.Errorf("fit: %w", ingest.ErrNoStates)
+	}
+	n := len(ds.States)
+	names := make([]string, n)
+	for j, c := range ds.States {
+		names[j] = c.Name
+	}
+	var runs []*ingest.Run
+	for i := range ds.Runs {
+		r := &ds.Runs[i]
+		if r.Len() == 0 {
+			continue
+		}
+		if r.Len() < minWindow {
+			if o.SkipShort {
+				continue
+			}
+			return nil, fmt.Errorf("%s: run %q has %d samples, fewer than the derivative window of %d: %w",
+				r.Source.File, r.Name, r.Len(), minWindow, ErrShortRun)
+		}
+		runs = append(runs, r)
+	}
+	lib := poly.NewLibrary(n, 0, o.Degree)
+	p := lib.Len()
+	samples := 0
+	for _, r := range runs {
+		samples += r.Len()
+	}
+	if samples == 0 {
+		return nil, fmt.Errorf("no usable samples (every cell missing?): %w", ErrTooFewSamples)
+	}
+
+	m := &Model{Format: ModelFormat, States: names, Units: make([]string, n), Degree: o.Degree,
+		Derivative: o.Derivative, Runs: len(runs), Samples: samples}
+	for j, c := range ds.States {
+		m.Units[j] = c.Unit
+	}
+	if err := scaleStates(m, runs); err != nil {
+		return nil, err
+	}
+	cols := make([][][]float64, n) // cols[j][r] = runs[r].X[j]
+	for j := range cols {
+		cols[j] = make([][]float64, len(runs))
+		for r, run := range runs {
+			cols[j][r] = run.X[j]
+		}
+	}
+	m.Noise = make([]float64, n)
+	m.Window = make([]int, n)
+	half := make([]int, n)
+	for j := range cols {
+		m.Noise[j] = noiseStd(cols[j], sampleCap)
+		half[j] = o.Window
+		if half[j] == 0 {
+			half[j] = windowCandidates[0]
+			if o.Derivative != DerivFornberg {
+				half[j] = chooseWindow(cols[j], m.Noise[j], 20000)
+			}
+		}
+		switch o.Derivative {
+		case DerivFornberg:
+			m.Window[j] = minWindow
+		case DerivSavitzkyGolay:
+			m.Window[j] = 2*half[j] + 1
+		case DerivIntegral:
+			m.Window[j] = 2*half[j] + 1
+		}
+	}
+	steps := 0 // integral window, in steps
+	if o.Derivative == DerivIntegral {
+		for _, h := range half {
+			steps = max(steps, 2*h)
+		}
+		steps = max(steps, 4)
+	}
+	rows := samples
+	if steps > 0 {
+		rows = 0
+		for _, r := range runs {
+			rows += (r.Len() - 1) / steps
+		}
+	}
+	if need := rowsPerTerm * p; rows < need {
+		per := 1
+		if steps > 0 {
+			per = steps
+		}
+		return nil, fmt.Errorf("%d samples, need at least %d for a degree-%d library of %d terms in %d states: %w",
+			samples, need*per, o.Degree, p, n, ErrTooFewSamples)
+	}
+
+	// Groups for cross-validation and the bootstrap.
+	groupOf, nGroups, by := makeGroups(runs, o.Folds)
+	m.CVBy, m.CVGroups = by, nGroups
+	groups := make([]*groupSums, nGroups)
+	for g := range groups {
+		groups[g] = newGroupSums(p, n)
+	}
+	if err := accumulate(ctx, groups, groupOf, runs, lib, m, half, steps, o.Derivative); err != nil {
+		return nil, err
+	}
+	var kept []*groupSums
+	for _, g := range groups {
+		if g.rows > 0 {
+			g.finish(p)
+			kept = append(kept, g)
+		}
+	}
+	if len(kept) < 2 {
+		return nil, fmt.Errorf("%d usable group of samples, need at least 2 to cross-validate: %w", len(kept), ErrTooFewSamples)
+	}
+
+	// Basis: scaled raw monomials when well enough conditioned.
+	a := make([]float64, n)
+	for j := range a {
+		a[j] = m.Centre[j] / m.Spread[j]
+	}
+	T := shiftMatrix(lib, a)
+	rawGroups := make([]*groupSums, len(kept))
+	for g, gs := range kept {
+		c := newGroupSums(p, n)
+		addSums(c, gs, 1)
+		transformSums(c, T, p, n)
+		rawGroups[g] = c
+	}
+	pr := newProblem(rawGroups, p, n)
+	m.Basis = "raw"
+	shift := make([]float64, n)
+	cond := pr.condition(pr.total)
+	if !(cond <= rawCondMax) {
+		pr = newProblem(kept, p, n)
+		m.Basis = "centred"
+		copy(shift, m.Centre)
+		cond = pr.condition(pr.total)
+		if !(cond <= collinearCond) {
+			if math.IsInf(cond, 0) || math.IsNaN(cond) {
+				cond = math.MaxFloat64
+			}
+			return nil, &CollinearError{Condition: cond, Degree: o.Degree}
+		}
+	}
+	m.Condition = cond
+	if err := ctx.Err(); err != nil {
+		return nil, err
+	}
+
+	rng := rand.New(rand.NewPCG(o.Seed, 0))
+	cands, chosen := pr.crossValidate(o.Thresholds, o.Ridges, o.Folds, rng)
+	ch := cands[chosen]
+	m.Threshold, m.Ridge = ch.tau, ch.lam
+
+	xi := make([][]float64, n)
+	for i := range xi {
+		xi[i] = make([]float64, p)
+	}
+	pr.fitAll(xi, newSolver(p), make([]float64, p*p), make([]float64, p*n), make([]float64, p), pr.total, ch.tau, ch.lam)
+	toRaw := func(dst []float64, i int, x []float64) []float64 {
+		beta := make([]float64, p)
+		for k := range beta {
+			if x[k] != 0 {
+				beta[k] = x[k] * pr.ySD[i] / pr.colScale[k]
+			}
+		}
+		return rawCoefTo(dst, lib, beta, shift, m.Spread, m.Spread[i])
+	}
+	raw := make([][]float64, n)
+	m.Equations = make([]Equation, n)
+	for i := range m.Equations {
+		raw[i] = toRaw(make([]float64, p), i, xi[i])
+		eq := Equation{State: names[i], HeldoutError: ch.perEq[i], Exponents: [][]int{}, Coefficients: []float64{}}
+		for k, c := range raw[i] {
+			if c != 0 {
+				eq.Exponents = append(eq.Exponents, append([]int(nil), lib.Exponents(k)...))
+				eq.Coefficients = append(eq.Coefficients, c)
+			}
+		}
+		m.Equations[i] = eq
+		m.HeldoutError += ch.perEq[i] / float64(n)
+	}
+
+	if o.Bootstrap > 0 {
+		if err := ctx.Err(); err != nil {
+			return nil, err
+		}
+		reps := pr.bootstrap(o.Bootstrap, o.Seed, ch.tau, ch.lam)
+		m.Bootstrap = o.Bootstrap
+		rc := make([][][]float64, len(reps)) // rc[b][i] raw coefficients
+		for b, rep := range reps {
+			rc[b] = make([][]float64, n)
+			for i := range rep {
+				rc[b][i] = toRaw(make([]float64, p), i, rep[i])
+			}
+		}
+		vals := make([]float64, len(reps))
+		for i := range m.Equations {
+			eq := &m.Equations[i]
+			for k, c := range raw[i] {
+				if c == 0 {
+					continue
+				}
+				in := 0
+				for b := range rc {
+					vals[b] = rc[b][i][k]
+					if vals[b] != 0 {
+						in++
+					}
+				}
+				inc := float64(in) / float64(len(rc))
+				eq.Terms = append(eq.Terms, Term{Name: lib.Name(k, names),
+					Interval:  [2]float64{quantile(vals, 0.025), quantile(vals, 0.975)},
+					Inclusion: inc, Weak: inc < 0.5})
+			}
+		}
+	}
+
+	equilibria(m, runs)
+	if !modelFinite(m) {
+		return nil, errors.New("fit: non-finite value in the fitted model")
+	}
+	return m, nil
+}
+
+// scaleStates fills Centre, Spread, Lower and Upper, and refuses constant
+// or collinear states.
+func scaleStates(m *Model, runs []*ingest.Run) error {
+	n := len(m.States)
+	total := 0
+	for _, r := range runs {
+		total += r.Len()
+	}
+	stride := max(1, total/sampleCap)
+	m.Centre, m.Spread = make([]float64, n), make([]float64, n)
+	m.Lower, m.Upper = make([]float64, n), make([]float64, n)
+	sub := make([][]float64, n)
+	for j := 0; j < n; j++ {
+		lo, hi := math.Inf(1), math.Inf(-1)
+		k := 0
+		for _, r := range runs {
+			for i, v := range r.X[j] {
+				lo, hi = math.Min(lo, v), math.Max(hi, v)
+				if k%stride == 0 {
+					sub[j] = append(sub[j], v)
+				}
+				_ = i
+				k++
+			}
+		}
+		m.Lower[j], m.Upper[j] = lo, hi
+		if !(hi > lo) {
+			return fmt.Errorf("state %q is constant (%g in every sample): %w; leave it out with --states", m.States[j], lo, ErrConstant)
+		}
+		tmp := append([]float64(nil), sub[j]...)
+		m.Centre[j], m.Spread[j] = robustScale(tmp)
+		if !(m.Spread[j] > 0) {
+			m.Spread[j] = (hi - lo) / 4
+		}
+	}
+	for a := 0; a < n; a++ {
+		for b := a + 1; b < n; b++ {
+			if r := correlation(sub[a], sub[b]); math.Abs(r) > stateCorrMax {
+				return fmt.Errorf("states %q and %q move together (correlation %.5f): two sensors of one quantity, or runs that never move them independently; keep one with --states: %w",
+					m.States[a], m.States[b], r, ErrCollinear)
+			}
+		}
+	}
+	return nil
+}
+
+func correlation(x, y []float64) float64 {
+	mx, my := 0.0, 0.0
+	for i := range x {
+		mx += x[i]
+		my += y[i]
+	}
+	mx /= float64(len(x))
+	my /= float64(len(y))
+	sxy, sxx, syy := 0.0, 0.0, 0.0
+	for i := range x {
+		dx, dy := x[i]-mx, y[i]-my
+		sxy += dx * dy
+		sxx += dx * dx
+		syy += dy * dy
+	}
+	if sxx == 0 || syy == 0 {
+		return 0
+	}
+	return sxy / math.Sqrt(sxx*syy)
+}
+
+// makeGroups assigns samples to cross-validation groups: one per run when
+// there are at least folds runs, otherwise each run is cut into
+// ceil(2·folds/runs) contiguous blocks. groupOf(r, i) is the group of
+// sample i of run r.
+func makeGroups(runs []*ingest.Run, folds int) (func(r, i int) int, int, string) {
+	R := len(runs)
+	if R >= folds {
+		return func(r, _ int) int { return r }, R, "run"
+	}
+	nb := (2*folds + R - 1) / R
+	return func(r, i int) int {
+		return r*nb + min(nb-1, i*nb/runs[r].Len())
+	}, R * nb, "block"
+}
+
+// accumulate differentiates every run and adds its rows to the groups, in
+// parallel over runs (one goroutine per core; each run's rows go to groups
+// only that run feeds, so no locking).
+func accumulate(ctx context.Context, groups []*groupSums, groupOf func(r, i int) int, runs []*ingest.Run,
+	lib *poly.Library, m *Model, half []int, steps int, method string) error {
+	n, p := len(m.States), lib.Len()
+	jobs := make(chan int)
+	var wg sync.WaitGroup
+	var mu sync.Mutex
+	var firstErr error
+	for w := 0; w < runtime.GOMAXPROCS(0); w++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			rb := newRowBuffer(p, n)
+			dw := newDerivWork()
+			work := make([]float64, lib.WorkLen())
+			z := make([]float64, n)
+			theta := make([]float64, p)
+			var xs, dx [][]float64
+			for r := range jobs {
+				if ctx.Err() != nil {
+					continue
+				}
+				run := runs[r]
+				L := run.Len()
+				if len(xs) == 0 || cap(xs[0]) < L {
+					xs, dx = make([][]float64, n), make([][]float64, n)
+					for j := range xs {
+						xs[j], dx[j] = make([]float64, L), make([]float64, L)
+					}
+				}
+				for j := range xs {
+					xs[j], dx[j] = xs[j][:L], dx[j][:L]
+				}
+				switch method {
+				case DerivFornberg:
+					for j := 0; j < n; j++ {
+						copy(xs[j], run.X[j])
+						dw.fornbergRun(dx[j], run.T, run.X[j])
+					}
+				case DerivSavitzkyGolay:
+					for j := 0; j < n; j++ {
+						dw.sgRun(xs[j], dx[j], run.T, run.X[j], half[j])
+					}
+				case DerivIntegral:
+					integralRows(rb, groups, groupOf, r, run, lib, m, steps, work, z, theta)
+					continue
+				}
+				for i := 0; i < L; i++ {
+					phi, y := rb.row(groups[groupOf(r, i)])
+					for j := 0; j < n; j++ {
+						z[j] = (xs[j][i] - m.Centre[j]) / m.Spread[j]
+						y[j] = dx[j][i] / m.Spread[j]
+					}
+					lib.EvalWorkTo(phi, work, z)
+					if !finite(y...) || !finite(phi...) {
+						rb.unrow()
+					}
+				}
+			}
+			rb.flush()
+		}()
+	}
+	for r := range runs {
+		jobs <- r
+	}
+	close(jobs)
+	wg.Wait()
+	mu.Lock()
+	defer mu.Unlock()
+	if firstErr != nil {
+		return firstErr
+	}
+	return ctx.Err()
+}
+
+// integralRows adds the integral-form rows of one run: for consecutive
+// windows [a, b] of steps steps, y = (x(b) - x(a))/s and phi the integral
+// of the library over [t_a, t_b] (composite Simpson on a uniform window
+// with an even number of steps, trapezoid otherwise). A last window of at
+// least 2 steps is kept.
+func integralRows(rb *rowBuffer, groups []*groupSums, groupOf func(r, i int) int, r int, run *ingest.Run,
+	lib *poly.Library, m *Model, steps int, work, z, theta []float64) {
+	n := len(m.States)
+	L := run.Len()
+	uni, _ := uniformGrid(run.T)
+	for a := 0; a+2 <= L-1; a += steps {
+		b := min(a+steps, L-1)
+		phi, y := rb.row(groups[groupOf(r, a)])
+		for k := range phi {
+			phi[k] = 0
+		}
+		simpson := uni && (b-a)%2 == 0
+		for i := a; i <= b; i++ {
+			var w float64
+			if simpson {
+				h := (run.T[b] - run.T[a]) / float64(b-a)
+				switch {
+				case i == a || i == b:
+					w = h / 3
+				case (i-a)%2 == 1:
+					w = 4 * h / 3
+				default:
+					w = 2 * h / 3
+				}
+			} else {
+				if i > a {
+					w += (run.T[i] - run.T[i-1]) / 2
+				}
+				if i < b {
+					w += (run.T[i+1] - run.T[i]) / 2
+				}
+			}
+			for j := 0; j < n; j++ {
+				z[j] = (run.X[j][i] - m.Centre[j]) / m.Spread[j]
+			}
+			lib.EvalWorkTo(theta, work, z)
+			for k, v := range theta {
+				phi[k] += w * v
+			}
+		}
+		for j := 0; j < n; j++ {
+			y[j] = (run.X[j][b] - run.X[j][a]) / m.Spread[j]
+		}
+		if !finite(y...) || !finite(phi...) {
+			rb.unrow()
+		}
+		if b == L-1 {
+			break
+		}
+	}
+}
+
+// equilibria finds where the runs settle and the fitted field's
+// equilibria, and fills the model's equilibrium fields.
+func equilibria(m *Model, runs []*ingest.Run) {
+	n := len(m.States)
+	var tails, settled [][]float64
+	for _, r := range runs {
+		L := r.Len()
+		k := max(3, int(math.Ceil(settleShare*float64(L))))
+		k = min(k, L)
+		med := make([]float64, n)
+		still := true
+		for j := 0; j < n; j++ {
+			seg := append([]float64(nil), r.X[j][L-k:]...)
+			sort.Float64s(seg)
+			med[j] = seg[len(seg)/2]
+			// Settled: the tail moves less than a tenth of the state's
+			// spread beyond what the noise explains (4 sigma either way).
+			if seg[len(seg)-1]-seg[0] > 0.1*m.Spread[j]+8*m.Noise[j] {
+				still = false
+			}
+		}
+		tails = append(tails, med)
+		if still {
+			settled = append(settled, med)
+		}
+	}
+	m.SettledRuns = len(settled)
+	src := settled
+	if len(src) == 0 {
+		src = tails
+	}
+	m.Settle = make([]float64, n)
+	for j := 0; j < n; j++ {
+		v := make([]float64, len(src))
+		for i, s := range src {
+			v[i] = s[j]
+		}
+		m.Settle[j] = quantile(v, 0.5)
+	}
+	starts := [][]float64{m.Settle}
+	stride := max(1, len(tails)/50)
+	for i := 0; i < len(tails); i += stride {
+		starts = append(starts, tails[i])
+	}
+	starts = append(starts, m.Centre)
+	starts = append(starts, gridStarts(m.Lower, m.Upper)...)
+	eqs := findEquilibria(m, starts, m.Lower, m.Upper, m.Spread)
+	best, bestD := -1, math.Inf(1)
+	for i, e := range eqs {
+		d := 0.0
+		for j := range e.Point {
+			v := (e.Point[j] - m.Settle[j]) / m.Spread[j]
+			d += v * v
+		}
+		if d < bestD {
+			best, bestD = i, d
+		}
+	}
+	if best < 0 {
+		m.Equilibria = []Equilibrium{}
+		m.Equilibrium = append([]float64(nil), m.Settle...)
+		_, eig, _ := linearise(NewFieldEvaluator(m), m.Settle)
+		m.JacobianEigenvalues = eig
+		m.Note = "no equilibrium of the fitted field found; equilibrium and eigenvalues are at the settle point"
+		return
+	}
+	eqs[0], eqs[best] = eqs[best], eqs[0]
+	m.Equilibria = eqs
+	m.Equilibrium = append([]float64(nil), eqs[0].Point...)
+	m.JacobianEigenvalues = eqs[0].Eigenvalues
+	if !eqs[0].InEnvelope {
+		m.Note = "the equilibrium nearest where the runs settle lies outside the data's box"
+	}
+}
+
+// modelFinite reports whether every number in m is finite.
+func modelFinite(m *Model) bool {
+	ok := finite(m.Equilibrium...) && finite(flattenPairs(m.JacobianEigenvalues)...) &&
+		finite(m.Threshold, m.Ridge, m.Condition, m.HeldoutError) &&
+		finite(m.Centre...) && finite(m.Spread...) && finite(m.Lower...) && finite(m.Upper...) &&
+		finite(m.Noise...) && finite(m.Settle...)
+	for _, e := range m.Equations {
+		ok = ok && finite(e.Coefficients...) && finite(e.HeldoutError)
+		for _, t := range e.Terms {
+			ok = ok && finite(t.Interval[0], t.Interval[1], t.Inclusion)
+		}
+	}
+	for _, e := range m.Equilibria {
+		ok = ok && finite(e.Point...) && finite(flatten(e.Jacobian)...) && finite(flattenPairs(e.Eigenvalues)...)
+	}
+	return ok
 }

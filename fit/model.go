@@ -87,6 +87,30 @@ type Model struct {
 	Noise   []float64 `json:"noise"`
 	Runs    int       `json:"runs"`
 	Samples int       `json:"samples"`
+
+	// Basis says where the threshold counted terms: "raw" (monomials of
+	// x/Spread, so the support is the raw equations' support) or
+	// "centred" (monomials of (x - Centre)/Spread, when the raw basis was
+	// too ill-conditioned; the raw equations are then their exact
+	// expansion and may hold more terms).
+	Basis string `json:"basis,omitempty"`
+	// Window is the derivative window per state, in samples.
+	Window []int `json:"window,omitempty"`
+	// CVGroups is how many groups cross-validation and the bootstrap
+	// resampled; CVBy is "run", or "block" when there were too few runs
+	// and each was cut into contiguous blocks.
+	CVGroups  int    `json:"cv_groups,omitempty"`
+	CVBy      string `json:"cv_by,omitempty"`
+	Bootstrap int    `json:"bootstrap,omitempty"`
+	// HeldoutError is the cross-validated error of the chosen model, the
+	// mean over equations of Equation.HeldoutError.
+	HeldoutError float64 `json:"heldout_error"`
+	// Settle is where the runs settle (median over settled runs of the
+	// median of their last 5%), SettledRuns how many did.
+	Settle      []float64 `json:"settle,omitempty"`
+	SettledRuns int       `json:"settled_runs"`
+	// Note says what to be careful about, e.g. "no equilibrium found".
+	Note string `json:"note,omitempty"`
 }
 
 // Field returns the equations as polynomials (raw coordinates).

@@ -1,0 +1,383 @@
+package fit
+
+import (
+	"math"
+	"sort"
+)
+
+// Derivative methods for [FieldOptions.Derivative].
+const (
+	// DerivFornberg differentiates by fourth-order finite differences whose
+	// weights come from Fornberg's recursion on the actual (possibly
+	// uneven) sample times: five nodes, centred where the run allows.
+	DerivFornberg = "fornberg"
+	// DerivSavitzkyGolay fits a cubic to a sliding window of samples by
+	// least squares and takes its value (the smoothed state) and slope.
+	// The window is chosen per state from the noise estimate (see
+	// [chooseWindow]).
+	DerivSavitzkyGolay = "savitzky-golay"
+	// DerivIntegral avoids differentiating: it regresses x(t_b) - x(t_a)
+	// on the time integrals of the library over consecutive windows
+	// [t_a, t_b] (Simpson's rule on even uniform windows, else the
+	// trapezoid rule).
+	DerivIntegral = "integral"
+)
+
+// minWindow is the fewest samples any derivative method needs from a run:
+// five nodes for the fourth-order stencil or the smallest cubic fit.
+const minWindow = 5
+
+// FornbergTo stores in c the weights of the finite-difference formulas
+// for the derivatives of orders 0..len(c)-1 at x0 on the given nodes:
+// f^(k)(x0) ≈ sum_j c[k][j] f(nodes[j]). Each c[k] must have len(nodes)
+// entries. It returns c. The nodes may be unevenly spaced and need not
+// bracket x0. This is the recursion of Fornberg, "Generation of finite
+// difference formulas on arbitrarily spaced grids", Math. Comp. 51(184),
+// 1988. It panics on a length mismatch and does not allocate.
+func FornbergTo(c [][]float64, x0 float64, nodes []float64) [][]float64 {
+	n := len(nodes)
+	m := len(c) - 1
+	for k := range c {
+		if len(c[k]) != n {
+			panic("fit: FornbergTo length mismatch")
+		}
+		for j := range c[k] {
+			c[k][j] = 0
+		}
+	}
+	if n == 0 || m < 0 {
+		return c
+	}
+	c1 := 1.0
+	c4 := nodes[0] - x0
+	c[0][0] = 1
+	for i := 1; i < n; i++ {
+		mn := min(i, m)
+		c2 := 1.0
+		c5 := c4
+		c4 = nodes[i] - x0
+		for j := 0; j < i; j++ {
+			c3 := nodes[i] - nodes[j]
+			c2 *= c3
+			if j == i-1 {
+				for k := mn; k >= 1; k-- {
+					c[k][i] = c1 * (float64(k)*c[k-1][i-1] - c5*c[k][i-1]) / c2
+				}
+				c[0][i] = -c1 * c5 * c[0][i-1] / c2
+			}
+			for k := mn; k >= 1; k-- {
+				c[k][j] = (c4*c[k][j] - float64(k)*c[k-1][j]) / c3
+			}
+			c[0][j] = c4 * c[0][j] / c3
+		}
+		c1 = c2
+	}
+	return c
+}
+
+// sgWork is scratch space for Savitzky–Golay weights of one degree.
+type sgWork struct {
+	q int       // polynomial degree
+	a []float64 // (q+1)^2 normal matrix, then its Cholesky factor
+	g []float64 // q+1
+}
+
+func newSGWork(q int) *sgWork {
+	return &sgWork{q: q, a: make([]float64, (q+1)*(q+1)), g: make([]float64, q+1)}
+}
+
+// weights stores in dst the weights w_j with sum_j w_j f(nodes[j]) equal
+// to the deriv-th derivative at x0 of the degree-q least-squares
+// polynomial through (nodes, f). It returns false when the nodes cannot
+// carry a polynomial of that degree.
+func (w *sgWork) weights(dst, nodes []float64, x0 float64, deriv int) bool {
+	q := w.q
+	r := q + 1
+	h := 0.0
+	for _, t := range nodes {
+		h = math.Max(h, math.Abs(t-x0))
+	}
+	if h == 0 || len(nodes) < r || deriv > q {
+		return false
+	}
+	a := w.a
+	for i := range a {
+		a[i] = 0
+	}
+	// Normal matrix of the Vandermonde in s = (t - x0)/h (well scaled).
+	for _, t := range nodes {
+		s := (t - x0) / h
+		p := 1.0
+		for i := 0; i < 2*q+1; i++ {
+			// a[u][v] with u+v == i: accumulate power s^i.
+			for u := max(0, i-q); u <= min(i, q); u++ {
+				a[u*r+(i-u)] += p
+			}
+			p *= s
+		}
+	}
+	// Cholesky in place (lower).
+	for j := 0; j < r; j++ {
+		d := a[j*r+j]
+		for k := 0; k < j; k++ {
+			d -= a[j*r+k] * a[j*r+k]
+		}
+		if d <= 1e-13*float64(len(nodes)) {
+			return false
+		}
+		d = math.Sqrt(d)
+		a[j*r+j] = d
+		for i := j + 1; i < r; i++ {
+			s := a[i*r+j]
+			for k := 0; k < j; k++ {
+				s -= a[i*r+k] * a[j*r+k]
+			}
+			a[i*r+j] = s / d
+		}
+	}
+	g := w.g
+	for i := range g {
+		g[i] = 0
+	}
+	g[deriv] = 1
+	for i := 0; i < r; i++ { // forward
+		s := g[i]
+		for k := 0; k < i; k++ {
+			s -= a[i*r+k] * g[k]
+		}
+		g[i] = s / a[i*r+i]
+	}
+	for i := r - 1; i >= 0; i-- { // back
+		s := g[i]
+		for k := i + 1; k < r; k++ {
+			s -= a[k*r+i] * g[k]
+		}
+		g[i] = s / a[i*r+i]
+	}
+	fact := 1.0
+	for i := 2; i <= deriv; i++ {
+		fact *= float64(i)
+	}
+	scale := fact / math.Pow(h, float64(deriv))
+	for j, t := range nodes {
+		s := (t - x0) / h
+		v, p := 0.0, 1.0
+		for i := 0; i < r; i++ {
+			v += g[i] * p
+			p *= s
+		}
+		dst[j] = v * scale
+	}
+	return true
+}
+
+// SavitzkyGolayTo stores in dst the Savitzky–Golay weights for the
+// deriv-th derivative at x0 of the least-squares polynomial of the given
+// degree through the nodes (Savitzky & Golay, Anal. Chem. 36(8), 1964, on
+// any grid), and returns dst; deriv 0 gives smoothing weights. It panics
+// on a length mismatch and returns nil when the nodes cannot carry a
+// polynomial of that degree (too few, or all at x0).
+func SavitzkyGolayTo(dst, nodes []float64, x0 float64, degree, deriv int) []float64 {
+	if len(dst) != len(nodes) || degree < 0 || deriv < 0 {
+		panic("fit: SavitzkyGolayTo bad arguments")
+	}
+	if !newSGWork(degree).weights(dst, nodes, x0, deriv) {
+		return nil
+	}
+	return dst
+}
+
+// noiseStd estimates the standard deviation of white measurement noise on
+// one state from its fourth differences, pooled over runs: for a smooth
+// signal sampled densely the fourth difference is dominated by noise, with
+// variance 70 σ² (C(8,4)); the median absolute value makes it robust to the
+// few places where the signal itself is rough: σ ≈ 1.4826·median|Δ⁴x|/√70.
+// At most about limit differences are used (evenly strided).
+func noiseStd(runs [][]float64, limit int) float64 {
+	total := 0
+	for _, x := range runs {
+		total += max(0, len(x)-4)
+	}
+	if total == 0 {
+		return 0
+	}
+	stride := max(1, total/limit)
+	d := make([]float64, 0, min(total, limit+len(runs)))
+	for _, x := range runs {
+		for i := 0; i+4 < len(x); i += stride {
+			v := x[i] - 4*x[i+1] + 6*x[i+2] - 4*x[i+3] + x[i+4]
+			d = append(d, math.Abs(v))
+		}
+	}
+	if len(d) == 0 {
+		return 0
+	}
+	sort.Float64s(d)
+	med := d[len(d)/2]
+	if len(d)%2 == 0 {
+		med = (d[len(d)/2-1] + d[len(d)/2]) / 2
+	}
+	return 1.4826 * med / math.Sqrt(70)
+}
+
+// windowCandidates are the Savitzky–Golay half-widths tried (window 2m+1).
+var windowCandidates = []int{2, 3, 4, 5, 6, 8, 10, 12, 15, 19, 24, 30, 38, 48, 60}
+
+// discrepancySlack is how much the smoothing residual may exceed what noise
+// alone explains before the window counts as biased (20%, common practice
+// for a discrepancy principle on a few thousand residuals).
+const discrepancySlack = 1.2
+
+// chooseWindow returns the half-width m of the cubic Savitzky–Golay window
+// for one state with noise std sigma: the largest candidate whose
+// smoothing residual is still explained by noise alone (Morozov's
+// discrepancy principle). For a projection filter with centre weight w0,
+// pure noise leaves a residual of mean square σ²(1 - w0); once the window
+// is wide enough to bend the signal the residual grows beyond that. The
+// residual is measured on about limit interior points, assuming a nearly
+// uniform grid (indices, not times). With sigma 0 the smallest window wins.
+func chooseWindow(runs [][]float64, sigma float64, limit int) int {
+	best := windowCandidates[0]
+	if sigma <= 0 {
+		return best
+	}
+	total := 0
+	for _, x := range runs {
+		total += len(x)
+	}
+	stride := max(1, total/limit)
+	w := newSGWork(3)
+	for _, m := range windowCandidates {
+		nodes := make([]float64, 2*m+1)
+		for i := range nodes {
+			nodes[i] = float64(i - m)
+		}
+		wt := make([]float64, len(nodes))
+		if !w.weights(wt, nodes, 0, 0) {
+			break
+		}
+		ss, cnt := 0.0, 0
+		for _, x := range runs {
+			for i := m; i+m < len(x); i += stride {
+				s := 0.0
+				for k, c := range wt {
+					s += c * x[i-m+k]
+				}
+				r := x[i] - s
+				ss += r * r
+				cnt++
+			}
+		}
+		if cnt < 20 {
+			break
+		}
+		if ss/float64(cnt) > discrepancySlack*sigma*sigma*(1-wt[m]) {
+			break
+		}
+		best = m
+	}
+	return best
+}
+
+// uniformGrid reports whether t is evenly spaced to within a relative
+// 1e-6 of its median step, and returns that step.
+func uniformGrid(t []float64) (bool, float64) {
+	if len(t) < 2 {
+		return false, 0
+	}
+	lo, hi := math.Inf(1), math.Inf(-1)
+	for i := 1; i < len(t); i++ {
+		d := t[i] - t[i-1]
+		lo, hi = math.Min(lo, d), math.Max(hi, d)
+	}
+	h := (t[len(t)-1] - t[0]) / float64(len(t)-1)
+	return hi-lo <= 1e-6*h, h
+}
+
+// derivWork holds per-goroutine scratch for differentiating one run.
+type derivWork struct {
+	sg   *sgWork
+	c    [][]float64
+	wt   []float64
+	wt0  []float64
+	node []float64
+}
+
+func newDerivWork() *derivWork {
+	return &derivWork{sg: newSGWork(3), c: [][]float64{make([]float64, minWindow), make([]float64, minWindow)}}
+}
+
+// stencil returns the start of the width-w window of [0, n) nearest to
+// centre i.
+func stencil(i, n, w int) int {
+	a := i - w/2
+	return max(0, min(a, n-w))
+}
+
+// fornbergRun stores in dx the fourth-order finite-difference derivative of
+// x over times t.
+func (dw *derivWork) fornbergRun(dx, t, x []float64) {
+	n := len(t)
+	uni, _ := uniformGrid(t)
+	var cached []float64 // interior weights on a uniform grid
+	for i := 0; i < n; i++ {
+		a := stencil(i, n, minWindow)
+		var w []float64
+		if uni && a == i-minWindow/2 && cached != nil {
+			w = cached
+		} else {
+			FornbergTo(dw.c, t[i], t[a:a+minWindow])
+			w = dw.c[1]
+			if uni && a == i-minWindow/2 {
+				cached = append([]float64(nil), w...)
+			}
+		}
+		s := 0.0
+		for k, c := range w {
+			s += c * x[a+k]
+		}
+		dx[i] = s
+	}
+}
+
+// sgRun stores in xs the smoothed states and in dx the slopes of the cubic
+// least-squares fits over windows of 2m+1 samples (fewer near the ends:
+// the window slides but keeps its width).
+func (dw *derivWork) sgRun(xs, dx, t, x []float64, m int) {
+	n := len(t)
+	w := min(2*m+1, n)
+	if cap(dw.wt) < w {
+		dw.wt, dw.wt0, dw.node = make([]float64, w), make([]float64, w), make([]float64, w)
+	}
+	wt1, wt0, nodes := dw.wt[:w], dw.wt0[:w], dw.node[:w]
+	uni, _ := uniformGrid(t)
+	var c0, c1 []float64 // centred weights on a uniform grid
+	for i := 0; i < n; i++ {
+		a := stencil(i, n, w)
+		centred := a == i-w/2 && w%2 == 1
+		var u0, u1 []float64
+		if uni && centred && c0 != nil {
+			u0, u1 = c0, c1
+		} else {
+			for k := range nodes {
+				nodes[k] = t[a+k] - t[i]
+			}
+			ok := dw.sg.weights(wt0, nodes, 0, 0) && dw.sg.weights(wt1, nodes, 0, 1)
+			if !ok { // cannot happen for w >= 4 distinct times; keep the sample
+				xs[i], dx[i] = x[i], 0
+				continue
+			}
+			u0, u1 = wt0, wt1
+			if uni && centred {
+				c0, c1 = append([]float64(nil), wt0...), append([]float64(nil), wt1...)
+			}
+		}
+		s0, s1 := 0.0, 0.0
+		for k := range u0 {
+			v := x[a+k]
+			s0 += u0[k] * v
+			s1 += u1[k] * v
+		}
+		xs[i], dx[i] = s0, s1
+	}
+}

@@ -1,0 +1,570 @@
+package fit
+
+import (
+	"math"
+	"math/rand/v2"
+	"runtime"
+	"sort"
+	"sync"
+
+	"gonum.org/v1/gonum/blas"
+	"gonum.org/v1/gonum/blas/blas64"
+	"gonum.org/v1/gonum/mat"
+)
+
+// Streaming least squares.
+//
+// The regression rows (library values, derivative targets) are never
+// stored: each group of samples (a run, or a contiguous block of one when
+// there are too few runs to cross-validate by run) is reduced to its
+// normal equations G = ΦᵀΦ (p×p), B = ΦᵀY (p×n) and the sums of y and y²,
+// accumulated 512 rows at a time with BLAS syrk/gemm. Normal equations
+// rather than a tall-skinny QR because every later step — K-fold
+// cross-validation by run, the threshold path, the bootstrap over runs —
+// needs the Gram matrix of an arbitrary union of groups, which for normal
+// equations is a plain sum (and a held-out error is a quadratic form in
+// the held-out group's sums), so the data are read once. The price is
+// that the condition number is squared; the columns are centred, scaled
+// and normalised first, the condition of the normalised normal matrix is
+// reported (Model.Condition), and a library past [collinearCond] is
+// refused. Memory is O(groups·p²) beyond the data.
+
+// blockRows is how many rows are buffered before a rank-k update.
+const blockRows = 512
+
+// groupSums holds the normal equations of one group of rows.
+type groupSums struct {
+	G    []float64 // p×p row-major, full after finish
+	B    []float64 // p×n row-major: B[k*n+i] = sum phi_k y_i
+	yy   []float64 // sum y_i^2
+	ys   []float64 // sum y_i
+	rows int
+}
+
+func newGroupSums(p, n int) *groupSums {
+	return &groupSums{G: make([]float64, p*p), B: make([]float64, p*n), yy: make([]float64, n), ys: make([]float64, n)}
+}
+
+// finish copies the upper triangle (what syrk fills) into the lower.
+func (g *groupSums) finish(p int) {
+	for i := 0; i < p; i++ {
+		for j := i + 1; j < p; j++ {
+			g.G[j*p+i] = g.G[i*p+j]
+		}
+	}
+}
+
+// rowBuffer batches rows for one target group.
+type rowBuffer struct {
+	p, n int
+	phi  []float64 // blockRows×p
+	y    []float64 // blockRows×n
+	cnt  int
+	dst  *groupSums
+}
+
+func newRowBuffer(p, n int) *rowBuffer {
+	return &rowBuffer{p: p, n: n, phi: make([]float64, blockRows*p), y: make([]float64, blockRows*n)}
+}
+
+// row returns the slices to fill for the next row of group g.
+func (rb *rowBuffer) row(g *groupSums) (phi, y []float64) {
+	if rb.dst != g || rb.cnt == blockRows {
+		rb.flush()
+		rb.dst = g
+	}
+	i := rb.cnt
+	rb.cnt++
+	return rb.phi[i*rb.p : (i+1)*rb.p], rb.y[i*rb.n : (i+1)*rb.n]
+}
+
+// unrow drops the last row (one that turned out non-finite).
+func (rb *rowBuffer) unrow() { rb.cnt-- }
+
+func (rb *rowBuffer) flush() {
+	if rb.cnt == 0 || rb.dst == nil {
+		rb.cnt = 0
+		return
+	}
+	p, n, c := rb.p, rb.n, rb.cnt
+	g := rb.dst
+	a := blas64.General{Rows: c, Cols: p, Stride: p, Data: rb.phi[:c*p]}
+	yb := blas64.General{Rows: c, Cols: n, Stride: n, Data: rb.y[:c*n]}
+	blas64.Syrk(blas.Trans, 1, a, 1, blas64.Symmetric{Uplo: blas.Upper, N: p, Stride: p, Data: g.G})
+	blas64.Gemm(blas.Trans, blas.NoTrans, 1, a, yb, 1, blas64.General{Rows: p, Cols: n, Stride: n, Data: g.B})
+	for r := 0; r < c; r++ {
+		for i, v := range rb.y[r*n : (r+1)*n] {
+			g.yy[i] += v * v
+			g.ys[i] += v
+		}
+	}
+	g.rows += c
+	rb.cnt = 0
+}
+
+// transformSums replaces g's sums by those of the basis Φ·T: G <- TᵀGT,
+// B <- TᵀB. T is p×p row-major.
+func transformSums(g *groupSums, T []float64, p, n int) {
+	tm := mat.NewDense(p, p, T)
+	gm := mat.NewDense(p, p, g.G)
+	var tmp, out mat.Dense
+	tmp.Mul(tm.T(), gm)
+	out.Mul(&tmp, tm)
+	copy(g.G, out.RawMatrix().Data)
+	bm := mat.NewDense(p, n, g.B)
+	var ob mat.Dense
+	ob.Mul(tm.T(), bm)
+	copy(g.B, ob.RawMatrix().Data)
+	// Symmetrise against round-off.
+	for i := 0; i < p; i++ {
+		for j := i + 1; j < p; j++ {
+			v := (g.G[i*p+j] + g.G[j*p+i]) / 2
+			g.G[i*p+j], g.G[j*p+i] = v, v
+		}
+	}
+}
+
+// problem is the normalised regression: columns scaled to unit root mean
+// square (colScale), each target to unit standard deviation (ySD).
+type problem struct {
+	p, n     int
+	groups   []*groupSums
+	total    *groupSums
+	colScale []float64 // D_k = sqrt(G_kk/N)
+	ySD      []float64
+}
+
+func newProblem(groups []*groupSums, p, n int) *problem {
+	pr := &problem{p: p, n: n, groups: groups, total: newGroupSums(p, n)}
+	for _, g := range groups {
+		addSums(pr.total, g, 1)
+	}
+	N := float64(pr.total.rows)
+	pr.colScale = make([]float64, p)
+	for k := 0; k < p; k++ {
+		pr.colScale[k] = math.Sqrt(pr.total.G[k*p+k] / N)
+	}
+	pr.ySD = make([]float64, n)
+	for i := 0; i < n; i++ {
+		m := pr.total.ys[i] / N
+		v := pr.total.yy[i]/N - m*m
+		if v <= 1e-300 {
+			v = pr.total.yy[i] / N
+		}
+		if v <= 1e-300 {
+			v = 1
+		}
+		pr.ySD[i] = math.Sqrt(v)
+	}
+	return pr
+}
+
+func addSums(dst, g *groupSums, w float64) {
+	for i, v := range g.G {
+		dst.G[i] += w * v
+	}
+	for i, v := range g.B {
+		dst.B[i] += w * v
+	}
+	for i := range g.yy {
+		dst.yy[i] += w * g.yy[i]
+		dst.ys[i] += w * g.ys[i]
+	}
+	dst.rows += int(w) * g.rows
+}
+
+// normalised returns Ĝ = D⁻¹GD⁻¹/N and b̂ (p×n, column i divided by ySD_i)
+// of s, where N = s.rows.
+func (pr *problem) normalised(gh, bh []float64, s *groupSums) {
+	p, n := pr.p, pr.n
+	N := float64(s.rows)
+	for k := 0; k < p; k++ {
+		for l := 0; l < p; l++ {
+			gh[k*p+l] = s.G[k*p+l] / (pr.colScale[k] * pr.colScale[l] * N)
+		}
+		for i := 0; i < n; i++ {
+			bh[k*n+i] = s.B[k*n+i] / (pr.colScale[k] * pr.ySD[i] * N)
+		}
+	}
+}
+
+// condition returns the 2-norm condition number of the normalised normal
+// matrix of s (+Inf when it is singular).
+func (pr *problem) condition(s *groupSums) float64 {
+	p := pr.p
+	gh := make([]float64, p*p)
+	bh := make([]float64, p*pr.n)
+	pr.normalised(gh, bh, s)
+	var es mat.EigenSym
+	if !es.Factorize(mat.NewSymDense(p, gh), false) {
+		return math.Inf(1)
+	}
+	v := es.Values(nil)
+	lo, hi := v[0], v[len(v)-1]
+	if lo <= hi*1e-300 || lo <= 0 {
+		return math.Inf(1)
+	}
+	return hi / lo
+}
+
+// solver runs STLSQ on one normalised problem; it holds scratch space.
+type solver struct {
+	p   int
+	a   []float64
+	r   []float64
+	idx []int
+	act []bool
+}
+
+func newSolver(p int) *solver {
+	return &solver{p: p, a: make([]float64, p*p), r: make([]float64, p), idx: make([]int, p), act: make([]bool, p)}
+}
+
+// maxSweeps bounds the STLSQ threshold-and-refit sweeps; supports settle in
+// a handful (Brunton, Proctor & Kutz use 10).
+const maxSweeps = 20
+
+// refitJitter is the ridge of the final refit on the chosen support,
+// relative to the unit diagonal: only there to keep the Cholesky factor
+// defined, far below the noise in any real log.
+const refitJitter = 1e-12
+
+// stlsq fits one equation: sequentially thresholded ridge regression on
+// the normalised normal equations (gh p×p, b a column of p), threshold tau
+// on the normalised coefficients, ridge lam; then refits by least squares
+// on the final support. It stores the coefficients in dst (zero outside
+// the support) and returns the support size.
+func (s *solver) stlsq(dst, gh, b []float64, tau, lam float64) int {
+	p := s.p
+	for k := 0; k < p; k++ {
+		s.act[k] = gh[k*p+k] > 0
+	}
+	for sweep := 0; sweep < maxSweeps; sweep++ {
+		s.solve(dst, gh, b, lam)
+		changed := false
+		for k := 0; k < p; k++ {
+			if s.act[k] && math.Abs(dst[k]) < tau {
+				s.act[k] = false
+				changed = true
+			}
+		}
+		if !changed {
+			break
+		}
+	}
+	if !s.solve(dst, gh, b, refitJitter) {
+		s.solve(dst, gh, b, math.Max(lam, 1e-8))
+	}
+	cnt := 0
+	for k := 0; k < p; k++ {
+		if s.act[k] {
+			cnt++
+		} else {
+			dst[k] = 0
+		}
+	}
+	return cnt
+}
+
+// solve solves (gh_SS + lam I) x_S = b_S on the active set by Cholesky,
+// storing x in dst (zero elsewhere). It reports false when the matrix was
+// not positive definite (then dst holds zeros on the active set).
+func (s *solver) solve(dst, gh, b []float64, lam float64) bool {
+	p := s.p
+	m := 0
+	for k := 0; k < p; k++ {
+		dst[k] = 0
+		if s.act[k] {
+			s.idx[m] = k
+			m++
+		}
+	}
+	if m == 0 {
+		return true
+	}
+	a := s.a[:m*m]
+	for i := 0; i < m; i++ {
+		ki := s.idx[i]
+		for j := 0; j <= i; j++ {
+			a[i*m+j] = gh[ki*p+s.idx[j]]
+		}
+		a[i*m+i] += lam
+		s.r[i] = b[ki]
+	}
+	for j := 0; j < m; j++ {
+		d := a[j*m+j]
+		for k := 0; k < j; k++ {
+			d -= a[j*m+k] * a[j*m+k]
+		}
+		if !(d > 0) {
+			return false
+		}
+		d = math.Sqrt(d)
+		a[j*m+j] = d
+		for i := j + 1; i < m; i++ {
+			v := a[i*m+j]
+			for k := 0; k < j; k++ {
+				v -= a[i*m+k] * a[j*m+k]
+			}
+			a[i*m+j] = v / d
+		}
+	}
+	r := s.r[:m]
+	for i := 0; i < m; i++ {
+		v := r[i]
+		for k := 0; k < i; k++ {
+			v -= a[i*m+k] * r[k]
+		}
+		r[i] = v / a[i*m+i]
+	}
+	for i := m - 1; i >= 0; i-- {
+		v := r[i]
+		for k := i + 1; k < m; k++ {
+			v -= a[k*m+i] * r[k]
+		}
+		r[i] = v / a[i*m+i]
+	}
+	for i := 0; i < m; i++ {
+		dst[s.idx[i]] = r[i]
+	}
+	return true
+}
+
+// candidate is one (threshold, ridge) pair on the cross-validation grid.
+type candidate struct {
+	tau, lam float64
+	mean, se float64   // held-out error over folds (mean of equations)
+	perEq    []float64 // mean held-out error per equation
+	terms    int       // support size of the fit on all data
+}
+
+// fitAll runs STLSQ for every equation of the normalised sums s and
+// stores the normalised coefficients in xi (n×p). It returns the total
+// support size.
+func (pr *problem) fitAll(xi [][]float64, sv *solver, gh, bh, col []float64, s *groupSums, tau, lam float64) int {
+	p, n := pr.p, pr.n
+	pr.normalised(gh, bh, s)
+	terms := 0
+	for i := 0; i < n; i++ {
+		for k := 0; k < p; k++ {
+			col[k] = bh[k*n+i]
+		}
+		terms += sv.stlsq(xi[i], gh, col, tau, lam)
+	}
+	return terms
+}
+
+// heldout returns, per equation, the sum of squared errors of xi on the
+// group sums h over its total sum of squares about its mean (1 = no better
+// than a constant), in normalised units.
+func (pr *problem) heldout(dst []float64, xi [][]float64, h *groupSums) {
+	p, n := pr.p, pr.n
+	for i := 0; i < n; i++ {
+		sd := pr.ySD[i]
+		yy := h.yy[i] / (sd * sd)
+		ys := h.ys[i] / sd
+		x := xi[i]
+		// SSE = yy - 2 xᵀb + xᵀGx with b, G the normalised (unscaled by N) sums.
+		xb, xgx := 0.0, 0.0
+		for k := 0; k < p; k++ {
+			if x[k] == 0 {
+				continue
+			}
+			ck := pr.colScale[k]
+			xb += x[k] * h.B[k*n+i] / (ck * sd)
+			row := h.G[k*p:]
+			q := 0.0
+			for l := 0; l < p; l++ {
+				if x[l] != 0 {
+					q += row[l] / (ck * pr.colScale[l]) * x[l]
+				}
+			}
+			xgx += x[k] * q
+		}
+		sse := math.Max(0, yy-2*xb+xgx)
+		sst := yy - ys*ys/float64(h.rows)
+		if sst <= 1e-12*yy || sst <= 0 {
+			sst = math.Max(yy, 1e-300)
+		}
+		dst[i] = sse / sst
+	}
+}
+
+// crossValidate evaluates every candidate by K-fold cross-validation over
+// the groups and returns them with errors filled, and the index of the
+// chosen one: the sparsest within one standard error of the best (ties go
+// to the larger threshold, then the larger ridge).
+func (pr *problem) crossValidate(taus, lams []float64, folds int, rng *rand.Rand) ([]candidate, int) {
+	p, n := pr.p, pr.n
+	R := len(pr.groups)
+	folds = min(folds, R)
+	perm := rng.Perm(R)
+	foldOf := make([]int, R)
+	for pos, g := range perm {
+		foldOf[g] = pos % folds
+	}
+	type foldData struct{ train, test *groupSums }
+	fd := make([]foldData, folds)
+	for f := range fd {
+		fd[f].test = newGroupSums(p, n)
+		for g, gs := range pr.groups {
+			if foldOf[g] == f {
+				addSums(fd[f].test, gs, 1)
+			}
+		}
+		fd[f].train = newGroupSums(p, n)
+		addSums(fd[f].train, pr.total, 1)
+		addSums(fd[f].train, fd[f].test, -1)
+	}
+	var cands []candidate
+	for _, lam := range lams {
+		for _, tau := range taus {
+			cands = append(cands, candidate{tau: tau, lam: lam})
+		}
+	}
+	// errs[c][f][i]
+	errs := make([][][]float64, len(cands))
+	terms := make([]int, len(cands))
+	for c := range errs {
+		errs[c] = make([][]float64, folds)
+	}
+	// One job per fold plus one for the fits on all data.
+	jobs := make(chan int)
+	var wg sync.WaitGroup
+	for w := 0; w < runtime.GOMAXPROCS(0); w++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			sv := newSolver(p)
+			gh, bh, col := make([]float64, p*p), make([]float64, p*n), make([]float64, p)
+			xi := make([][]float64, n)
+			for i := range xi {
+				xi[i] = make([]float64, p)
+			}
+			for f := range jobs {
+				for c := range cands {
+					if f == folds {
+						terms[c] = pr.fitAll(xi, sv, gh, bh, col, pr.total, cands[c].tau, cands[c].lam)
+						continue
+					}
+					pr.fitAll(xi, sv, gh, bh, col, fd[f].train, cands[c].tau, cands[c].lam)
+					e := make([]float64, n)
+					pr.heldout(e, xi, fd[f].test)
+					errs[c][f] = e
+				}
+			}
+		}()
+	}
+	for f := 0; f <= folds; f++ {
+		jobs <- f
+	}
+	close(jobs)
+	wg.Wait()
+
+	best := 0
+	for c := range cands {
+		cd := &cands[c]
+		cd.terms = terms[c]
+		cd.perEq = make([]float64, n)
+		per := make([]float64, folds)
+		for f := 0; f < folds; f++ {
+			s := 0.0
+			for i, e := range errs[c][f] {
+				s += e
+				cd.perEq[i] += e / float64(folds)
+			}
+			per[f] = s / float64(n)
+		}
+		mean, ss := 0.0, 0.0
+		for _, v := range per {
+			mean += v
+		}
+		mean /= float64(folds)
+		for _, v := range per {
+			ss += (v - mean) * (v - mean)
+		}
+		cd.mean = mean
+		if folds > 1 {
+			cd.se = math.Sqrt(ss / float64(folds-1) / float64(folds))
+		}
+		if cd.mean < cands[best].mean {
+			best = c
+		}
+	}
+	limit := cands[best].mean + cands[best].se
+	chosen := best
+	for c := range cands {
+		cd, ch := cands[c], cands[chosen]
+		if cd.mean > limit {
+			continue
+		}
+		if cd.terms < ch.terms || (cd.terms == ch.terms && (cd.tau > ch.tau || (cd.tau == ch.tau && cd.lam > ch.lam))) {
+			chosen = c
+		}
+	}
+	return cands, chosen
+}
+
+// bootstrap refits at (tau, lam) on B resamples of the groups (drawn with
+// replacement) and returns each replicate's normalised coefficients
+// (reps[b][i][k]). Replicate b uses its own generator seeded from (seed,
+// b), so the result does not depend on scheduling.
+func (pr *problem) bootstrap(B int, seed uint64, tau, lam float64) [][][]float64 {
+	p, n := pr.p, pr.n
+	R := len(pr.groups)
+	reps := make([][][]float64, B)
+	jobs := make(chan int)
+	var wg sync.WaitGroup
+	for w := 0; w < runtime.GOMAXPROCS(0); w++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			sv := newSolver(p)
+			gh, bh, col := make([]float64, p*p), make([]float64, p*n), make([]float64, p)
+			s := newGroupSums(p, n)
+			cnt := make([]int, R)
+			for b := range jobs {
+				rng := rand.New(rand.NewPCG(seed, uint64(b)+1))
+				for g := range cnt {
+					cnt[g] = 0
+				}
+				for range R {
+					cnt[rng.IntN(R)]++
+				}
+				clear(s.G)
+				clear(s.B)
+				clear(s.yy)
+				clear(s.ys)
+				s.rows = 0
+				for g, c := range cnt {
+					if c > 0 {
+						addSums(s, pr.groups[g], float64(c))
+					}
+				}
+				xi := make([][]float64, n)
+				for i := range xi {
+					xi[i] = make([]float64, p)
+				}
+				pr.fitAll(xi, sv, gh, bh, col, s, tau, lam)
+				reps[b] = xi
+			}
+		}()
+	}
+	for b := 0; b < B; b++ {
+		jobs <- b
+	}
+	close(jobs)
+	wg.Wait()
+	return reps
+}
+
+// quantile returns the p-quantile of xs (sorted in place), interpolating.
+func quantile(xs []float64, p float64) float64 {
+	sort.Float64s(xs)
+	h := p * float64(len(xs)-1)
+	i := int(h)
+	if i+1 >= len(xs) {
+		return xs[len(xs)-1]
+	}
+	return xs[i] + (h-float64(i))*(xs[i+1]-xs[i])
+}
