@@ -6,6 +6,25 @@
 // predictor–corrector), with an outer cutting-plane loop for problems with
 // many more rows than unknowns: solve on a subset of the rows, evaluate all
 // of them, add the most violated, repeat.
+//
+// # Method
+//
+// [Solve] runs the interior-point method on the homogeneous self-dual
+// embedding of the problem (Ye, Todd and Mizuno 1994; in the form of
+// Andersen and Andersen's MOSEK and of Vandenberghe's CVXOPT). Bounds are
+// treated as extra rows with a diagonal structure. Each iteration forms the
+// normal matrix G'DG + diag(bound terms), factorises it by gonum's Cholesky
+// (lapack64.Potrf, with a small diagonal shift that grows only if the
+// factorisation fails) and takes one predictor and one corrector step.
+// The embedding either converges to an optimal pair (x, z) or to a ray that
+// proves the problem infeasible (a Farkas certificate, [Farkas]) or
+// unbounded ([Result.Ray]); both are returned and can be checked by the
+// caller. Rows are scaled to unit infinity norm internally; every figure in
+// the [Result] refers to the problem as given.
+//
+// [SolveCuts] is the cutting-plane loop over a [Rows] source that is read
+// on demand, one pass per round, in parallel. Memory is the active rows
+// times the unknowns, plus one float64 and one byte per row.
 package lp
 
 import (
@@ -41,17 +60,23 @@ func (s Status) String() string {
 	return "unknown"
 }
 
-// Errors returned with the matching Status.
+// Errors returned with the matching Status. ErrInvalid reports a problem
+// with NaN or infinite data where a finite number is needed.
 var (
 	ErrInfeasible = errors.New("lp: infeasible")
 	ErrUnbounded  = errors.New("lp: unbounded")
 	ErrIterations = errors.New("lp: iteration limit")
 	ErrNumerical  = errors.New("lp: numerical failure")
+	ErrInvalid    = errors.New("lp: invalid problem")
 )
 
 // Rows is a (possibly huge) set of inequality rows g_i'x <= h_i that the
 // cutting-plane loop reads on demand, so that memory grows with the active
 // rows, not with all of them.
+//
+// SolveCuts calls RowTo from several goroutines at once (each with its own
+// dst). A Rows that needs scratch space can implement [Cloner]; each
+// goroutine then reads from its own clone.
 type Rows interface {
 	// Len returns the number of rows.
 	Len() int
@@ -60,8 +85,15 @@ type Rows interface {
 	RowTo(dst []float64, i int) float64
 }
 
+// Cloner is implemented by a [Rows] whose RowTo is not safe for concurrent
+// use. Clone returns a copy with its own scratch space.
+type Cloner interface {
+	Clone() Rows
+}
+
 // Problem is min c'x s.t. G x <= h (G row-major, len(H) rows), and
 // Lower <= x <= Upper (nil bounds mean unbounded; use ±Inf per entry).
+// A row with h = +Inf is ignored.
 type Problem struct {
 	C            []float64
 	G            []float64 // row-major, len(H) x len(C)
@@ -71,3 +103,79 @@ type Problem struct {
 
 // Inf is a convenient infinite bound.
 var Inf = math.Inf(1)
+
+// Options controls Solve. A nil *Options means all defaults.
+type Options struct {
+	// Tol is the relative tolerance on the primal and dual residuals and
+	// on the duality gap; 0 means 1e-8.
+	Tol float64
+	// MaxIter caps the interior-point iterations; 0 means 200.
+	MaxIter int
+}
+
+func (o *Options) tol() float64 {
+	if o == nil || o.Tol <= 0 {
+		return 1e-8
+	}
+	return o.Tol
+}
+
+func (o *Options) maxIter() int {
+	if o == nil || o.MaxIter <= 0 {
+		return 200
+	}
+	return o.MaxIter
+}
+
+// Result is the answer of Solve or SolveCuts.
+//
+// At an optimum the multipliers satisfy, up to DualResidual,
+//
+//	C + G'Z - ZLower + ZUpper = 0,  Z, ZLower, ZUpper >= 0,
+//
+// and the dual objective is -H'Z + Lower'ZLower - Upper'ZUpper (terms with
+// an infinite bound are left out; their multiplier is 0).
+type Result struct {
+	Status    Status
+	X         []float64 // the solution, within its bounds; for Infeasible and Unbounded, nil
+	Objective float64   // c'X (NaN when there is no X)
+
+	Z              []float64 // row multipliers, one per row (of all rows in SolveCuts)
+	ZLower, ZUpper []float64 // bound multipliers, one per unknown
+
+	Iterations int // interior-point iterations (summed over rounds in SolveCuts)
+
+	// PrimalResidual is the largest violation of a row or bound by X,
+	// max(0, g_i'X - h_i) and the bound excess, in the units of the data.
+	// In SolveCuts it covers all rows, not only the active ones.
+	PrimalResidual float64
+	// DualResidual is the infinity norm of C + G'Z - ZLower + ZUpper.
+	DualResidual float64
+	// Gap is the duality gap, primal minus dual objective; RelGap is
+	// Gap / (1 + |Objective|).
+	Gap, RelGap float64
+
+	// Farkas proves infeasibility (Status Infeasible), else nil.
+	Farkas *Farkas
+	// Ray proves unboundedness (Status Unbounded): c'Ray = -1, G Ray <= 0,
+	// Ray_j >= 0 where Lower_j is finite and Ray_j <= 0 where Upper_j is
+	// finite, all up to the solver tolerance. Else nil.
+	Ray []float64
+
+	// Cutting-plane figures (SolveCuts only).
+	Rounds int   // solves of the restricted problem
+	Active []int // indices of the rows in the last restricted problem, ascending
+}
+
+// Farkas is a certificate of primal infeasibility: Y, YLower, YUpper >= 0
+// with
+//
+//	G'Y - YLower + YUpper = 0  and  H'Y - Lower'YLower + Upper'YUpper = -1
+//
+// (up to Residual, the infinity norm of the first left-hand side). Any x
+// with Gx <= h and Lower <= x <= Upper would give 0 <= -1, so there is none.
+type Farkas struct {
+	Y              []float64
+	YLower, YUpper []float64
+	Residual       float64
+}

@@ -1,0 +1,129 @@
+package lp_test
+
+import (
+	"errors"
+	"math"
+	"math/rand/v2"
+	"slices"
+	"strings"
+	"testing"
+
+	"gonum.org/v1/gonum/floats"
+
+	"github.com/basin-dev/basin/fit/lp"
+)
+
+// TestSolveCutsMatchesSolve: on tall random LPs the cutting-plane loop must
+// reach the optimum of the whole LP solved at once, satisfy every row and
+// use only a fraction of them.
+func TestSolveCutsMatchesSolve(t *testing.T) {
+	rng := rand.New(rand.NewPCG(8, 0))
+	for _, sz := range [][2]int{{3, 5000}, {12, 20000}} {
+		n, m := sz[0], sz[1]
+		p := randomFeasible(rng, n, m)
+		whole, err := lp.Solve(p, nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		r, err := lp.SolveCuts(p.C, lp.DenseRows{G: p.G, H: p.H}, p.Lower, p.Upper, &lp.CutOptions{Initial: 20, Batch: 20})
+		if err != nil {
+			t.Fatal(err)
+		}
+		// Both answers are optimal to 1e-8 relative (default tolerances).
+		if math.Abs(r.Objective-whole.Objective) > 1e-7*(1+math.Abs(whole.Objective)) {
+			t.Errorf("%d x %d: cuts objective %.12g, whole LP %.12g", m, n, r.Objective, whole.Objective)
+		}
+		checkKKT(t, p, r, 1e-7) // over all rows, with Z zero off the active set
+		if len(r.Active) >= len(p.H)/2 || r.Rounds < 2 {
+			t.Errorf("%d x %d: %d active rows in %d rounds", m, n, len(r.Active), r.Rounds)
+		}
+		if len(r.Z) != len(p.H) || !slices.IsSorted(r.Active) {
+			t.Errorf("len(Z) = %d, Active sorted %v", len(r.Z), slices.IsSorted(r.Active))
+		}
+		t.Logf("%d x %d: %d rounds, %d active rows, %d iterations", m, n, r.Rounds, len(r.Active), r.Iterations)
+	}
+}
+
+// TestSolveCutsPolygon: the regular N-gon circumscribed about the unit
+// circle, with a facet normal along (1, 0), has max x = 1 (elementary
+// geometry, exact). The unknowns are free, so the first restricted
+// problem (2 rows) is unbounded and must be cut by the rows its ray
+// violates.
+func TestSolveCutsPolygon(t *testing.T) {
+	const N = 10000
+	g := make([]float64, 2*N)
+	h := make([]float64, N)
+	for i := 0; i < N; i++ {
+		th := 2 * math.Pi * float64(i) / N
+		g[2*i], g[2*i+1], h[i] = math.Cos(th), math.Sin(th), 1
+	}
+	r, err := lp.SolveCuts([]float64{-1, 0}, lp.DenseRows{G: g, H: h}, nil, nil, &lp.CutOptions{Initial: 2, Batch: 4})
+	if err != nil {
+		t.Fatal(err)
+	}
+	// Default solver tolerance 1e-8 relative.
+	if math.Abs(r.Objective+1) > 1e-7 || math.Abs(r.X[0]-1) > 1e-7 {
+		t.Errorf("objective %.10g at %.10g, want -1 at x = 1", r.Objective, r.X)
+	}
+	t.Logf("%d rounds, %d active rows", r.Rounds, len(r.Active))
+}
+
+func TestSolveCutsInfeasibleUnbounded(t *testing.T) {
+	rng := rand.New(rand.NewPCG(9, 0))
+	p := infeasibleRandom(rng, 10, 3000)
+	r, err := lp.SolveCuts(p.C, lp.DenseRows{G: p.G, H: p.H}, nil, nil, &lp.CutOptions{Initial: 50, Batch: 50})
+	if !errors.Is(err, lp.ErrInfeasible) {
+		t.Fatalf("infeasible: got %v", err)
+	}
+	checkFarkas(t, p, r.Farkas, 1e-7)
+
+	p = unboundedRandom(rng, 10, 3000)
+	r, err = lp.SolveCuts(p.C, lp.DenseRows{G: p.G, H: p.H}, nil, nil, &lp.CutOptions{Initial: 5, Batch: 5})
+	if !errors.Is(err, lp.ErrUnbounded) {
+		t.Fatalf("unbounded: got %v", err)
+	}
+	checkRay(t, p, r.Ray, 1e-7) // against all rows, not only the active ones
+}
+
+// nanRows is a Rows with one bad row.
+type nanRows struct {
+	lp.DenseRows
+	bad int
+}
+
+func (r nanRows) RowTo(dst []float64, i int) float64 {
+	h := r.DenseRows.RowTo(dst, i)
+	if i == r.bad {
+		dst[1] = math.NaN()
+	}
+	return h
+}
+
+func TestSolveCutsBadRow(t *testing.T) {
+	rng := rand.New(rand.NewPCG(10, 0))
+	p := randomFeasible(rng, 4, 5000)
+	_, err := lp.SolveCuts(p.C, nanRows{lp.DenseRows{G: p.G, H: p.H}, 3777}, p.Lower, p.Upper, nil)
+	if !errors.Is(err, lp.ErrInvalid) || !strings.Contains(err.Error(), "row 3777") {
+		t.Fatalf("got %v, want ErrInvalid naming row 3777", err)
+	}
+}
+
+// TestSolveCutsWorkers: the answer does not depend on the number of
+// goroutines that evaluate the rows.
+func TestSolveCutsWorkers(t *testing.T) {
+	rng := rand.New(rand.NewPCG(11, 0))
+	p := randomFeasible(rng, 6, 20000)
+	var xs [][]float64
+	for _, w := range []int{1, 2, 3} {
+		r, err := lp.SolveCuts(p.C, lp.DenseRows{G: p.G, H: p.H}, p.Lower, p.Upper, &lp.CutOptions{Workers: w, Initial: 30, Batch: 30})
+		if err != nil {
+			t.Fatal(err)
+		}
+		xs = append(xs, r.X)
+	}
+	for _, x := range xs[1:] {
+		if !floats.Equal(x, xs[0]) {
+			t.Errorf("x = %v, with one worker %v", x, xs[0])
+		}
+	}
+}
