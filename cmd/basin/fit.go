@@ -1,0 +1,224 @@
+package main
+
+import (
+	"context"
+	"errors"
+	"flag"
+	"fmt"
+	"io"
+	"math"
+	"path/filepath"
+	"strings"
+
+	"github.com/basin-dev/basin/fit"
+	"github.com/basin-dev/basin/fit/poly"
+	"github.com/basin-dev/basin/ingest"
+)
+
+// fitFlags are basin fit's flags.
+type fitFlags struct {
+	commonFlags
+	Deriv     string
+	Bootstrap int
+}
+
+func init() {
+	register(&command{
+		Name:  "fit",
+		Usage: "basin fit [flags] INPUTS...",
+		Short: "fit the vector field only; writes model.json",
+		Long: `Fits a sparse polynomial vector field dx/dt = f(x) to the runs (those a
+manifest marks holdout are left out): derivatives from the samples,
+sequentially thresholded ridge regression on all monomials up to --degree,
+threshold chosen by cross-validation over runs (--folds), a bootstrap over
+runs for each term's inclusion frequency and interval, and the equilibria
+of the fitted field with their linearisation. Writes DIR/model.json and
+prints the equations in the logs' units; --json prints the model instead.`,
+		Flags: func(fs *flag.FlagSet) any {
+			c := &fitFlags{}
+			c.addInputFlags(fs)
+			c.addFitFlags(fs, "basin-out")
+			fs.StringVar(&c.Deriv, "deriv", "", "derivative `METHOD`: savitzky-golay, fornberg or integral (default "+fit.DefaultDerivative+")")
+			fs.IntVar(&c.Bootstrap, "bootstrap", 100, "bootstrap refits over runs `N` (0: none)")
+			return c
+		},
+		Run: runFit,
+	})
+}
+
+// fieldOptions turns the flags into fit options.
+func (c *fitFlags) fieldOptions() (*fit.FieldOptions, error) {
+	if err := c.checkFit(); err != nil {
+		return nil, err
+	}
+	switch c.Deriv {
+	case "", fit.DerivSavitzkyGolay, fit.DerivFornberg, fit.DerivIntegral:
+	default:
+		return nil, usagef("--deriv must be savitzky-golay, fornberg or integral, got %q", c.Deriv)
+	}
+	if c.Bootstrap < 0 || c.Bootstrap > 10000 {
+		return nil, usagef("--bootstrap must be 0..10000, got %d", c.Bootstrap)
+	}
+	b := c.Bootstrap
+	if b == 0 {
+		b = -1
+	}
+	return &fit.FieldOptions{Degree: c.Degree, Folds: c.Folds, Seed: c.Seed, Derivative: c.Deriv, Bootstrap: b}, nil
+}
+
+func runFit(ctx context.Context, e *env, o any, args []string) error {
+	c := o.(*fitFlags)
+	opts, err := c.fieldOptions()
+	if err != nil {
+		return err
+	}
+	ds, err := loadInputs(ctx, e, &c.commonFlags, args)
+	if err != nil {
+		return err
+	}
+	m, err := fitModel(ctx, ds, opts)
+	if err != nil {
+		return err
+	}
+	if err := writeAtomic(c.Out, atomicFile{Name: "model.json", Write: jsonWriter(m)}); err != nil {
+		return err
+	}
+	if c.JSON {
+		return writeJSON(e.stdout, m)
+	}
+	if c.Quiet {
+		return nil
+	}
+	printModel(e.stdout, m)
+	fmt.Fprintf(e.stdout, "wrote %s\n", filepath.Join(c.Out, "model.json"))
+	return nil
+}
+
+// fitModel fits on the runs not held out by a manifest; bad input becomes
+// an inputError.
+func fitModel(ctx context.Context, ds *ingest.Dataset, opts *fit.FieldOptions) (*fit.Model, error) {
+	use := *ds
+	use.Runs = nil
+	for _, r := range ds.Runs {
+		if r.Split != "holdout" {
+			use.Runs = append(use.Runs, r)
+		}
+	}
+	m, err := fit.Field(ctx, &use, opts)
+	if err != nil {
+		for _, s := range []error{fit.ErrTooFewSamples, fit.ErrConstant, fit.ErrCollinear, fit.ErrShortRun, ingest.ErrNoStates} {
+			if errors.Is(err, s) {
+				return nil, &inputError{err}
+			}
+		}
+		return nil, err
+	}
+	return m, nil
+}
+
+// rateUnit is the unit of d(state)/dt.
+func rateUnit(u string) string {
+	switch {
+	case u == "":
+		return "1/s"
+	case strings.HasSuffix(u, "/s"):
+		return strings.TrimSuffix(u, "/s") + "/s^2"
+	}
+	return u + "/s"
+}
+
+// coef formats a coefficient with four significant digits and at least
+// three decimals, as in "1.000" or "0.02500"; tiny or huge ones in e form.
+func coef(c float64) string {
+	a := math.Abs(c)
+	switch {
+	case a == 0:
+		return "0"
+	case a < 1e-3 || a >= 1e5:
+		return fmt.Sprintf("%.3e", a)
+	}
+	dec := max(3, 3-int(math.Floor(math.Log10(a))))
+	return fmt.Sprintf("%.*f", dec, a)
+}
+
+// equationText renders one equation, e.g. "-4.000 theta - 0.800 omega".
+func equationText(eq fit.Equation, names []string) string {
+	if len(eq.Coefficients) == 0 {
+		return "0"
+	}
+	var b strings.Builder
+	for k, c := range eq.Coefficients {
+		sign := "+"
+		if c < 0 {
+			sign = "-"
+		}
+		switch {
+		case k == 0 && sign == "-":
+			b.WriteString("-")
+		case k > 0:
+			b.WriteString(" " + sign + " ")
+		}
+		b.WriteString(coef(c))
+		if mn := poly.MonomialName(eq.Exponents[k], names); mn != "1" {
+			b.WriteString(" " + mn)
+		}
+	}
+	return b.String()
+}
+
+func point(x []float64) string {
+	s := make([]string, len(x))
+	for i, v := range x {
+		s[i] = fmt.Sprintf("%.4g", v)
+	}
+	return "(" + strings.Join(s, ", ") + ")"
+}
+
+func eigenText(ev [][2]float64) string {
+	var s []string
+	for i := 0; i < len(ev); i++ {
+		re, im := ev[i][0], ev[i][1]
+		if im != 0 && i+1 < len(ev) && ev[i+1][0] == re && ev[i+1][1] == -im {
+			s = append(s, fmt.Sprintf("%.4g±%.4gi", re, math.Abs(im)))
+			i++
+			continue
+		}
+		if im != 0 {
+			s = append(s, fmt.Sprintf("%.4g%+.4gi", re, im))
+			continue
+		}
+		s = append(s, fmt.Sprintf("%.4g", re))
+	}
+	return strings.Join(s, ", ")
+}
+
+// printModel writes the readable form of m.
+func printModel(w io.Writer, m *fit.Model) {
+	fmt.Fprintf(w, "field fitted on %d runs, %d samples (degree %d, derivative %s, cross-validated by %s over %d groups)\n",
+		m.Runs, m.Samples, m.Degree, m.Derivative, m.CVBy, m.CVGroups)
+	fmt.Fprintf(w, "threshold %.3g, ridge %.1g, condition %.2g, held-out error %.3g (share of derivative variance unexplained)\n\n",
+		m.Threshold, m.Ridge, m.Condition, m.HeldoutError)
+	var weak []string
+	for i, eq := range m.Equations {
+		fmt.Fprintf(w, "d(%s)/dt [%s] = %s\n", eq.State, rateUnit(m.Units[i]), equationText(eq, m.States))
+		for _, t := range eq.Terms {
+			if t.Weak {
+				weak = append(weak, fmt.Sprintf("%s in d(%s)/dt (kept in %.0f%% of bootstrap fits)", t.Name, eq.State, 100*t.Inclusion))
+			}
+		}
+	}
+	if len(weak) > 0 {
+		fmt.Fprintf(w, "\nweak terms: %s\n", strings.Join(weak, "; "))
+	}
+	fmt.Fprintf(w, "\nequilibria (the first is where the runs settle):\n")
+	if len(m.Equilibria) == 0 {
+		fmt.Fprintf(w, "  none found; %s\n", m.Note)
+	}
+	for _, q := range m.Equilibria {
+		fmt.Fprintf(w, "  %s  %s  eigenvalues %s\n", point(q.Point), q.Class, eigenText(q.Eigenvalues))
+	}
+	if m.Note != "" && len(m.Equilibria) > 0 {
+		fmt.Fprintf(w, "  note: %s\n", m.Note)
+	}
+	fmt.Fprintln(w)
+}
