@@ -1,0 +1,102 @@
+package ingest
+
+import (
+	"math"
+	"math/rand/v2"
+	"strconv"
+	"testing"
+)
+
+// floatCorpus holds decimal strings whose float64 value is fixed by the
+// IEEE 754-2019 rule for conversion from decimal (§5.12.2: correctly
+// rounded, round to nearest, ties to even). strconv.ParseFloat implements
+// that rule, so parseFloat must return exactly its bits.
+var floatCorpus = []string{
+	"0", "-0", "+0", "0.0", "-0.0", "0e0", "-0e-5", "00000", ".0",
+	"1", "-1", "+1", "1.", ".5", "-.5", "0.1", "0.2", "0.3", "1.5e3", "1.5E3", "1.5e+3", "1.5e-3",
+	"123456789", "9007199254740992", "9007199254740993", "9007199254740991", // 2^53, 2^53+1, 2^53-1
+	"18446744073709551615", "18446744073709551616", "1234567890123456789", "12345678901234567890",
+	"0.1234567890123456789", "3.141592653589793238462643383279", "2.718281828459045",
+	"1e22", "1e23", "1e-22", "1e-23", "9999999999999999e22", "123e-22", "123e-23",
+	"1e308", "1.7976931348623157e308", "1.7976931348623158e308", "-1.7976931348623157e308",
+	"2.2250738585072014e-308", "2.2250738585072011e-308", // smallest normal and just below
+	"4.9e-324", "5e-324", "2.4703282292062328e-324", "2.4703282292062327e-324", // smallest subnormal, halfway
+	"1e-320", "-1e-310", "4.4501477170144023e-308",
+	"0.000001", "0.0000000000000000000001", "100000000000000000000000",
+	"7.038531e-26", "1.00000005960464477550", "8.589973e9", "1.2345678e-5", "-9.87654321e+10",
+	"0.30000000000000004", "1.0000000000000002", "0.9999999999999999",
+	"00012.5000", "1.50000000000000000000000000", "1_000", "1e400", "-1e400", "1e-400",
+	"NaN", "nan", "Inf", "-Inf", "infinity",
+}
+
+// floatBad is refused by strconv.ParseFloat, and so must be by parseFloat.
+var floatBad = []string{"", "-", "+", ".", "e5", "1e", "1e+", "1.2.3", "1,5", "abc", "1x", "0x", "--1", " 1", "1 ", "1e5e5", "\x00"}
+
+func sameFloat(a, b float64) bool { return math.Float64bits(a) == math.Float64bits(b) || (a != a && b != b) }
+
+func TestParseFloatCorpus(t *testing.T) {
+	for _, s := range floatCorpus {
+		want, werr := strconv.ParseFloat(s, 64)
+		got, ok := parseFloat([]byte(s))
+		if (werr == nil) != ok {
+			t.Errorf("parseFloat(%q) ok = %v, strconv err = %v", s, ok, werr)
+			continue
+		}
+		if ok && !sameFloat(got, want) {
+			t.Errorf("parseFloat(%q) = %v (%#x), strconv %v (%#x)", s, got, math.Float64bits(got), want, math.Float64bits(want))
+		}
+	}
+	for _, s := range floatBad {
+		if _, werr := strconv.ParseFloat(s, 64); werr == nil {
+			t.Fatalf("corpus error: strconv accepts %q", s)
+		}
+		if v, ok := parseFloat([]byte(s)); ok {
+			t.Errorf("parseFloat(%q) = %v, want refusal", s, v)
+		}
+	}
+}
+
+// TestParseFloatRandom compares bit for bit on random values printed the
+// ways loggers print them (shortest, fixed digits, exponent form).
+func TestParseFloatRandom(t *testing.T) {
+	rng := rand.New(rand.NewPCG(1, 0))
+	n := 200000
+	if testing.Short() {
+		n = 20000
+	}
+	for i := range n {
+		var v float64
+		switch i % 4 {
+		case 0:
+			v = rng.NormFloat64()
+		case 1:
+			v = math.Float64frombits(rng.Uint64()) // any bits, incl. subnormals
+		case 2:
+			v = rng.NormFloat64() * math.Pow(10, float64(rng.IntN(60)-30))
+		case 3:
+			v = float64(rng.IntN(2000000)-1000000) / 1000
+		}
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			continue
+		}
+		prec := rng.IntN(20) - 1
+		for _, f := range []byte{'g', 'e', 'f'} {
+			if f == 'f' && math.Abs(v) > 1e30 {
+				continue
+			}
+			s := strconv.FormatFloat(v, f, prec, 64)
+			want, werr := strconv.ParseFloat(s, 64) // out of range after rounding: an error for both
+			got, ok := parseFloat([]byte(s))
+			if ok != (werr == nil) || (ok && !sameFloat(got, want)) {
+				t.Fatalf("parseFloat(%q) = %v, %v; strconv %v", s, got, ok, want)
+			}
+		}
+	}
+}
+
+func TestParseFloatAllocs(t *testing.T) {
+	b := []byte("-1.2345e-3")
+	if n := testing.AllocsPerRun(100, func() { parseFloat(b) }); n != 0 {
+		t.Errorf("parseFloat allocates %v times", n)
+	}
+}
