@@ -439,6 +439,7 @@ func (lay *csvLayout) sniff(tb *table, rest []byte, line int, opts *Options) err
 		return nil
 	}
 	r := &roles{role: lay.role, stateOf: lay.stateOf, states: tb.states, stateCol: tb.stateCol, ignored: tb.ignored}
+	firstText, textCell := -1, []byte(nil)
 	for j, c := range cells {
 		c = trimBlank(c, lay.delim)
 		switch lay.role[j] {
@@ -464,12 +465,19 @@ func (lay *csvLayout) sniff(tb *table, rest []byte, line int, opts *Options) err
 							Err: fmt.Errorf("%w: %q has a decimal comma; write decimals with a point", ErrNotNumber, c)}
 					}
 				}
+				if firstText < 0 {
+					firstText, textCell = j, c
+				}
 				r.dropState(j)
 			}
 		}
 	}
 	tb.states, tb.stateCol, tb.ignored = r.states, r.stateCol, r.ignored
 	if len(tb.states) == 0 {
+		if firstText >= 0 { // every state column is text: most likely a bad cell
+			p := &csvParser{lay: lay, tb: tb}
+			return p.cellError(line, firstText, textCell)
+		}
 		return &ParseError{File: lay.file, Line: line, Err: fmt.Errorf("%w: no numeric column besides time", ErrNoStates)}
 	}
 	lay.nstate = len(tb.states)

@@ -32,7 +32,9 @@ var floatCorpus = []string{
 // floatBad is refused by strconv.ParseFloat, and so must be by parseFloat.
 var floatBad = []string{"", "-", "+", ".", "e5", "1e", "1e+", "1.2.3", "1,5", "abc", "1x", "0x", "--1", " 1", "1 ", "1e5e5", "\x00"}
 
-func sameFloat(a, b float64) bool { return math.Float64bits(a) == math.Float64bits(b) || (a != a && b != b) }
+func sameFloat(a, b float64) bool {
+	return math.Float64bits(a) == math.Float64bits(b) || (a != a && b != b)
+}
 
 func TestParseFloatCorpus(t *testing.T) {
 	for _, s := range floatCorpus {

@@ -126,7 +126,8 @@ var (
 )
 
 // A ParseError reports an unusable cell or file. Line and Column are
-// 1-based; Column counts fields. Line or Column is 0 when it does not apply.
+// 1-based; Column counts fields. Line or Column is 0 when it does not
+// apply, and is then left out of the message.
 type ParseError struct {
 	File   string // as given on the command line; "-" for stdin
 	Line   int    // for Parquet: the row number
@@ -137,6 +138,10 @@ type ParseError struct {
 
 func (e *ParseError) Error() string {
 	switch {
+	case e.Line > 0 && e.Column == 0 && e.Name != "":
+		return fmt.Sprintf("%s:%d: column %q: %v", e.File, e.Line, e.Name, e.Err)
+	case e.Line > 0 && e.Column == 0:
+		return fmt.Sprintf("%s:%d: %v", e.File, e.Line, e.Err)
 	case e.Line > 0 && e.Name != "":
 		return fmt.Sprintf("%s:%d:%d: column %q: %v", e.File, e.Line, e.Column, e.Name, e.Err)
 	case e.Line > 0:
