@@ -90,6 +90,14 @@ func (p Params) SaddleEnergy() float64 {
 	return p.K * p.K / (4 * p.K3)
 }
 
+// barrier returns the angle offset and energy that bound the basin inside
+// the stops: the saddles when they lie inside the stops, else the stops.
+func barrier(s *Options) (offset, energy float64) {
+	p := *s.Params
+	d := min(p.SaddleOffset(), s.EndStop)
+	return d, p.Energy(p.Trim+d, 0)
+}
+
 // Accel returns theta” in rad/s^2 for the state (theta, omega) under an
 // external torque tau in N m.
 func (p Params) Accel(theta, omega, tau float64) float64 {
@@ -213,7 +221,8 @@ type Run struct {
 	Burst *Burst // nil for a kick
 	// Start is the true state (theta, omega) at the first sample.
 	Start [2]float64
-	// EnergyRatio is the start's energy over the saddle energy.
+	// EnergyRatio is the start's energy over the saddle energy (over the
+	// potential at the stops when the saddles lie beyond them).
 	EnergyRatio float64
 	// Leaves says the run reached the end stop; LeaveTime is when (the
 	// time of its last sample), or 0.
@@ -239,6 +248,9 @@ const maxTries = 10000
 func Generate(seed uint64, opts *Options) ([]Run, error) {
 	s := opts.settings()
 	p := *s.Params
+	if s.Leaving > 0 && !(p.SaddleOffset() < s.EndStop) {
+		return nil, fmt.Errorf("leaving runs need saddles inside the end stops: %w", ErrSearch)
+	}
 	rng := rand.New(rand.NewPCG(seed, 0))
 	// Which slots leave and which start from bursts: a seeded shuffle so
 	// the kinds are spread over the file names.
@@ -288,7 +300,8 @@ func Generate(seed uint64, opts *Options) ([]Run, error) {
 			return nil, fmt.Errorf("%s: %w", r.File, err)
 		}
 		sample(r, rng, &s)
-		r.EnergyRatio = p.Energy(r.Start[0], r.Start[1]) / p.SaddleEnergy()
+		_, eb := barrier(&s)
+		r.EnergyRatio = p.Energy(r.Start[0], r.Start[1]) / eb
 	}
 	return runs, nil
 }
@@ -300,7 +313,7 @@ func Generate(seed uint64, opts *Options) ([]Run, error) {
 func reaches(s *Options, theta, omega float64) bool {
 	p := *s.Params
 	h := s.Step
-	es, ds := p.SaddleEnergy(), p.SaddleOffset()
+	ds, es := barrier(s)
 	for t := 0.0; t < 0.9*s.Duration; t += h {
 		theta, omega = p.Step(theta, omega, t, h, nil)
 		d := math.Abs(theta - p.Trim)
@@ -320,8 +333,7 @@ func reaches(s *Options, theta, omega float64) bool {
 func kickStart(r *Run, rng *rand.Rand, s *Options, leave bool) error {
 	p := *s.Params
 	r.Kind = "kick"
-	es := p.SaddleEnergy()
-	ds := p.SaddleOffset()
+	ds, es := barrier(s)
 	for range maxTries {
 		var lo, hi float64
 		if leave {
@@ -332,9 +344,9 @@ func kickStart(r *Run, rng *rand.Rand, s *Options, leave bool) error {
 		e := es * (lo + (hi-lo)*rng.Float64())
 		// An angle inside the saddles (or anywhere up to the stop for a
 		// leaving kick), then the rate that gives energy e.
-		span := min(0.95*ds, s.EndStop)
+		span := 0.95 * ds
 		if leave {
-			span = min(ds, s.EndStop)
+			span = ds
 		}
 		d := span * (2*rng.Float64() - 1)
 		u := p.Energy(p.Trim+d, 0)
@@ -367,12 +379,11 @@ func kickStart(r *Run, rng *rand.Rand, s *Options, leave bool) error {
 func burstStart(r *Run, rng *rand.Rand, s *Options, leave bool) error {
 	p := *s.Params
 	r.Kind = "burst"
-	es := p.SaddleEnergy()
-	ds := p.SaddleOffset()
+	ds, es := barrier(s)
 	// Torque amplitude as a share of the spring torque at the saddle
 	// (or at the stop): 3% to 35% for inside runs, 30% to 70% for leaving
 	// ones.
-	a0 := p.K * min(ds, s.EndStop)
+	a0 := p.K * ds
 	lo, hi := 0.03, 0.35
 	if leave {
 		lo, hi = 0.3, 0.7
