@@ -1,13 +1,15 @@
 package lp
 
 import (
-	"cmp"
 	"fmt"
 	"math"
 	"runtime"
 	"slices"
 	"sync"
 )
+
+// looseTol is the solver tolerance of the rounds before the last.
+const looseTol = 1e-5
 
 // CutOptions controls SolveCuts. A nil *CutOptions means all defaults.
 type CutOptions struct {
@@ -86,10 +88,10 @@ func SolveCuts(c []float64, rows Rows, lower, upper []float64, opts *CutOptions)
 		panic(fmt.Sprintf("lp: %d unknowns but %d lower and %d upper bounds", n, len(lower), len(upper)))
 	}
 	if o.Initial <= 0 {
-		o.Initial = max(200, 10*n)
+		o.Initial = max(4000, 10*n)
 	}
 	if o.Batch <= 0 {
-		o.Batch = max(200, 4*n)
+		o.Batch = max(2000, 4*n)
 	}
 	s, err := newIPM(c, lower, upper, min(m, o.Initial+4*o.Batch))
 	if err != nil {
@@ -109,11 +111,19 @@ func SolveCuts(c []float64, rows Rows, lower, upper []float64, opts *CutOptions)
 		}
 	}
 
+	// Rounds solve to a loose tolerance while rows are still being added;
+	// once none is violated, the same rows are solved again to the
+	// requested tolerance and checked again.
+	final := o.Solve
+	cur := final
+	if final.tol() < looseTol {
+		cur = &Options{Tol: looseTol, MaxIter: final.maxIter()}
+	}
 	ev := newEvaluator(rows, n, o.Workers)
 	total := 0
 	var res *Result
 	for round := 1; ; round++ {
-		res = s.run(o.Solve)
+		res = s.run(cur)
 		total += res.Iterations
 		res.Rounds = round
 		var probe []float64 // x to check, or the ray
@@ -126,6 +136,10 @@ func SolveCuts(c []float64, rows Rows, lower, upper []float64, opts *CutOptions)
 		case Unbounded:
 			probe = s.last.x
 		}
+		if probe == nil && cur != final {
+			cur = final // confirm a certificate or a failure at full accuracy
+			continue
+		}
 		if probe == nil {
 			break // infeasible or failed: nothing more to learn from the rows
 		}
@@ -135,6 +149,10 @@ func SolveCuts(c []float64, rows Rows, lower, upper []float64, opts *CutOptions)
 			return nil, err
 		}
 		cand := ev.violated(o.Tol, active)
+		if len(cand) == 0 && cur != final {
+			cur = final
+			continue
+		}
 		if len(cand) == 0 {
 			if !ray {
 				res.PrimalResidual = worst // combined with the bounds below
@@ -146,10 +164,7 @@ func SolveCuts(c []float64, rows Rows, lower, upper []float64, opts *CutOptions)
 			break
 		}
 		if len(cand) > o.Batch {
-			slices.SortFunc(cand, func(a, b int) int {
-				return cmp.Or(cmp.Compare(ev.viol[b], ev.viol[a]), cmp.Compare(a, b))
-			})
-			cand = cand[:o.Batch]
+			cand = ev.top(cand, o.Batch)
 		}
 		for _, i := range cand {
 			if err := add(i); err != nil {
@@ -178,6 +193,7 @@ type evaluator struct {
 	rows    []Rows // one per worker
 	n       int
 	viol    []float64
+	vals    []float64 // scratch for top
 	scratch [][]float64
 }
 
@@ -272,4 +288,71 @@ func (ev *evaluator) violated(tol float64, active []bool) []int {
 		}
 	}
 	return c
+}
+
+// top returns the k rows of cand (ascending indices) with the largest
+// violation, ties broken by the lower index, in ascending index order. It
+// runs in time linear in len(cand) on average.
+func (ev *evaluator) top(cand []int, k int) []int {
+	v := ev.vals[:0]
+	for _, i := range cand {
+		v = append(v, ev.viol[i])
+	}
+	ev.vals = v
+	thr := kthLargest(v, k) // reorders v
+	out := cand[:0]
+	eq := 0 // rows at the threshold still allowed in
+	above := 0
+	for _, i := range cand {
+		if ev.viol[i] > thr {
+			above++
+		}
+	}
+	eq = k - above
+	for _, i := range cand {
+		x := ev.viol[i]
+		if x > thr || (x == thr && eq > 0) {
+			if x == thr {
+				eq--
+			}
+			out = append(out, i)
+		}
+	}
+	return out
+}
+
+// kthLargest returns the k-th largest value of v (1 <= k <= len(v)) by
+// quickselect with a median-of-three pivot and a three-way partition (so
+// that ties cost nothing), reordering v.
+func kthLargest(v []float64, k int) float64 {
+	lo, hi := 0, len(v) // v[lo:hi] holds the wanted position
+	want := k - 1       // position in descending order
+	for hi-lo > 1 {
+		a, b, c := v[lo], v[lo+(hi-lo)/2], v[hi-1]
+		p := max(min(a, b), min(max(a, b), c)) // median of three
+		// Three-way partition of v[lo:hi]: > p, == p, < p.
+		gt, i, lt := lo, lo, hi
+		for i < lt {
+			switch x := v[i]; {
+			case x > p:
+				v[gt], v[i] = v[i], v[gt]
+				gt++
+				i++
+			case x < p:
+				lt--
+				v[lt], v[i] = v[i], v[lt]
+			default:
+				i++
+			}
+		}
+		switch {
+		case want < gt:
+			hi = gt
+		case want >= lt:
+			lo = lt
+		default:
+			return p
+		}
+	}
+	return v[lo]
 }

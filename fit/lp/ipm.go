@@ -13,7 +13,9 @@ import (
 // Solver constants (not user-facing).
 const (
 	stepFrac    = 0.99  // fraction of the step to the boundary
-	regStart    = 1e-13 // diagonal shift of the normal matrix, relative to its largest diagonal entry
+	regStart    = 1e-13 // diagonal shift of the normal matrix, relative to each diagonal entry
+	regFloor    = 1e-3  // the shift's floor, relative to regStart times the mean diagonal entry
+	refineSteps = 3     // iterative refinement of each normal-equations solve
 	regGrow     = 100   // shift growth after a failed factorisation
 	regTries    = 8     // factorisation attempts per iteration
 	stallIters  = 8     // iterations with tiny steps before giving up
@@ -234,6 +236,9 @@ func (s *ipm) run(opts *Options) *Result {
 		ds  = make([]float64, M)
 		dsa = make([]float64, M) // affine ds∘dz, for the corrector
 		tgt = make([]float64, M) // complementarity target
+		rhs = make([]float64, n) // refinement
+		rr  = make([]float64, n)
+		ra  = make([]float64, M)
 		bw  = make([]float64, m*n)
 		nm  = make([]float64, n*n)
 		nm0 = make([]float64, n*n)
@@ -263,6 +268,9 @@ func (s *ipm) run(opts *Options) *Result {
 		gap := max(math.Abs(pobj-dobj), sz/(st.tau*st.tau))
 		relgap := gap / (1 + min(math.Abs(pobj), math.Abs(dobj)))
 		res.Iterations = it
+		if debug {
+			println(it, pres, dres, relgap, cx, bz, st.tau, st.kappa, mu, reg)
+		}
 		if pres <= tol && dres <= tol && relgap <= tol {
 			res.Status = Optimal
 			break
@@ -312,16 +320,16 @@ func (s *ipm) run(opts *Options) *Result {
 		for k, j := range s.up {
 			nm0[j*n+j] += d[m+len(s.lo)+k]
 		}
-		dmax := minDiagonal
+		dmean := minDiagonal
 		for j := 0; j < n; j++ {
-			dmax = max(dmax, nm0[j*n+j])
+			dmean += nm0[j*n+j] / float64(n)
 		}
 		var chol blas64.Triangular
 		ok := false
 		for try := 0; try < regTries; try++ {
 			copy(nm, nm0)
 			for j := 0; j < n; j++ {
-				nm[j*n+j] += reg * dmax
+				nm[j*n+j] += reg * (nm0[j*n+j] + regFloor*dmean)
 			}
 			if chol, ok = lapack64.Potrf(blas64.Symmetric{N: n, Stride: n, Uplo: blas.Upper, Data: nm}); ok {
 				break
@@ -332,9 +340,31 @@ func (s *ipm) run(opts *Options) *Result {
 			res.Status = NumericalFailure
 			break
 		}
+		// solve overwrites v with M^-1 v, refining the solution with the
+		// factor of the shifted matrix against the unshifted M = A'DA.
 		solve := func(v []float64) {
-			if n > 0 {
-				lapack64.Potrs(chol, blas64.General{Rows: n, Cols: 1, Stride: 1, Data: v})
+			if n == 0 {
+				return
+			}
+			copy(rhs, v)
+			lapack64.Potrs(chol, blas64.General{Rows: n, Cols: 1, Stride: 1, Data: v})
+			prev := math.Inf(1)
+			for k := 0; k < refineSteps; k++ {
+				s.mulA(ra, v)
+				for i := range ra {
+					ra[i] *= d[i]
+				}
+				s.mulAT(rr, ra)
+				for j := range rr {
+					rr[j] = rhs[j] - rr[j]
+				}
+				e := floats.Norm(rr, math.Inf(1))
+				if e >= prev || e <= 1e-15*floats.Norm(rhs, math.Inf(1)) {
+					break
+				}
+				prev = e
+				lapack64.Potrs(chol, blas64.General{Rows: n, Cols: 1, Stride: 1, Data: rr})
+				floats.Add(v, rr)
 			}
 		}
 

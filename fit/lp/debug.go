@@ -1,0 +1,3 @@
+package lp
+import "os"
+var debug = os.Getenv("LPDEBUG") != ""
