@@ -268,9 +268,6 @@ func (s *ipm) run(opts *Options) *Result {
 		gap := max(math.Abs(pobj-dobj), sz/(st.tau*st.tau))
 		relgap := gap / (1 + min(math.Abs(pobj), math.Abs(dobj)))
 		res.Iterations = it
-		if debug {
-			println(it, pres, dres, relgap, cx, bz, st.tau, st.kappa, mu, reg)
-		}
 		if pres <= tol && dres <= tol && relgap <= tol {
 			res.Status = Optimal
 			break

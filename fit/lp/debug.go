@@ -1,3 +1,0 @@
-package lp
-import "os"
-var debug = os.Getenv("LPDEBUG") != ""
