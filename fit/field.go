@@ -97,7 +97,24 @@ type CollinearError struct {
 }
 
 func (e *CollinearError) Error() string {
+	if e.Condition >= math.MaxFloat64 {
+		return fmt.Sprintf("library terms collinear (normal matrix singular); try a lower --degree than %d, or fewer states", e.Degree)
+	}
 	return fmt.Sprintf("library terms nearly collinear (condition %.1e); try a lower --degree than %d", e.Condition, e.Degree)
+}
+
+// inputErr is an error whose text is msg and which unwraps to a sentinel
+// whose own text would repeat it.
+type inputErr struct {
+	msg string
+	err error
+}
+
+func (e *inputErr) Error() string { return e.msg }
+func (e *inputErr) Unwrap() error { return e.err }
+
+func errorf(sentinel error, format string, a ...any) error {
+	return &inputErr{msg: fmt.Sprintf(format, a...), err: sentinel}
 }
 
 func (e *CollinearError) Unwrap() []error { return []error{ErrCollinear, mat.Condition(e.Condition)} }
@@ -165,8 +182,8 @@ func Field(ctx context.Context, ds *ingest.Dataset, opts *FieldOptions) (*Model,
 			if o.SkipShort {
 				continue
 			}
-			return nil, fmt.Errorf("%s: run %q has %d samples, fewer than the derivative window of %d: %w",
-				r.Source.File, r.Name, r.Len(), minWindow, ErrShortRun)
+			return nil, errorf(ErrShortRun, "%s: run %q has %d samples, fewer than the derivative window of %d; drop the run or the gap that split it",
+				r.Source.File, r.Name, r.Len(), minWindow)
 		}
 		runs = append(runs, r)
 	}
@@ -177,7 +194,7 @@ func Field(ctx context.Context, ds *ingest.Dataset, opts *FieldOptions) (*Model,
 		samples += r.Len()
 	}
 	if samples == 0 {
-		return nil, fmt.Errorf("no usable samples (every cell missing?): %w", ErrTooFewSamples)
+		return nil, errorf(ErrTooFewSamples, "no usable samples: every cell missing, or no runs")
 	}
 
 	m := &Model{Format: ModelFormat, States: names, Units: make([]string, n), Degree: o.Degree,
@@ -242,8 +259,8 @@ func Field(ctx context.Context, ds *ingest.Dataset, opts *FieldOptions) (*Model,
 		if steps > 0 {
 			per = steps
 		}
-		return nil, fmt.Errorf("%d samples, need at least %d for a degree-%d library of %d terms in %d states: %w",
-			samples, need*per, o.Degree, p, n, ErrTooFewSamples)
+		return nil, errorf(ErrTooFewSamples, "too few samples: %d, need at least %d for a degree-%d library of %d terms in %d states",
+			samples, need*per, o.Degree, p, n)
 	}
 
 	// Groups for cross-validation and the bootstrap.
@@ -264,7 +281,7 @@ func Field(ctx context.Context, ds *ingest.Dataset, opts *FieldOptions) (*Model,
 		}
 	}
 	if len(kept) < 2 {
-		return nil, fmt.Errorf("%d usable group of samples, need at least 2 to cross-validate: %w", len(kept), ErrTooFewSamples)
+		return nil, errorf(ErrTooFewSamples, "too few samples: %d usable group of samples, need at least 2 to cross-validate", len(kept))
 	}
 
 	// Basis: scaled raw monomials when well enough conditioned.
@@ -404,7 +421,7 @@ func scaleStates(m *Model, runs []*ingest.Run) error {
 		}
 		m.Lower[j], m.Upper[j] = lo, hi
 		if !(hi > lo) {
-			return fmt.Errorf("state %q is constant (%g in every sample): %w; leave it out with --states", m.States[j], lo, ErrConstant)
+			return errorf(ErrConstant, "state %q is constant (%g in every sample); leave it out with --states", m.States[j], lo)
 		}
 		tmp := append([]float64(nil), sub[j]...)
 		m.Centre[j], m.Spread[j] = robustScale(tmp)
@@ -415,8 +432,8 @@ func scaleStates(m *Model, runs []*ingest.Run) error {
 	for a := 0; a < n; a++ {
 		for b := a + 1; b < n; b++ {
 			if r := correlation(sub[a], sub[b]); math.Abs(r) > stateCorrMax {
-				return fmt.Errorf("states %q and %q move together (correlation %.5f): two sensors of one quantity, or runs that never move them independently; keep one with --states: %w",
-					m.States[a], m.States[b], r, ErrCollinear)
+				return errorf(ErrCollinear, "states %q and %q move together (correlation %.5f): two sensors of one quantity, or runs that never move them apart; keep one with --states",
+					m.States[a], m.States[b], r)
 			}
 		}
 	}

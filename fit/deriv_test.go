@@ -1,0 +1,187 @@
+package fit
+
+import (
+	"math"
+	"testing"
+)
+
+func centred(m int) []float64 {
+	z := make([]float64, 2*m+1)
+	for i := range z {
+		z[i] = float64(i - m)
+	}
+	return z
+}
+
+func scaled(num []float64, den float64) []float64 {
+	out := make([]float64, len(num))
+	for i, v := range num {
+		out[i] = v / den
+	}
+	return out
+}
+
+// TestSavitzkyGolayTables checks the weights against the published tables
+// (REFERENCES.md C1–C2): Savitzky & Golay, "Smoothing and differentiation
+// of data by simplified least squares procedures", Anal. Chem. 36(8),
+// 1964, with the corrections of Steinier, Termonia & Deltour, Anal. Chem.
+// 44, 1972; the quartic 7-point set was recomputed by exact least squares
+// (REFERENCES.md). Exact rationals, so 1e-12.
+func TestSavitzkyGolayTables(t *testing.T) {
+	for _, tc := range []struct {
+		name          string
+		m, deg, deriv int
+		want          []float64
+	}{
+		{"5-pt quadratic smoothing", 2, 2, 0, scaled([]float64{-3, 12, 17, 12, -3}, 35)},
+		{"5-pt cubic smoothing", 2, 3, 0, scaled([]float64{-3, 12, 17, 12, -3}, 35)},
+		{"7-pt quadratic smoothing", 3, 2, 0, scaled([]float64{-2, 3, 6, 7, 6, 3, -2}, 21)},
+		{"9-pt quadratic smoothing", 4, 2, 0, scaled([]float64{-21, 14, 39, 54, 59, 54, 39, 14, -21}, 231)},
+		{"11-pt quadratic smoothing", 5, 2, 0, scaled([]float64{-36, 9, 44, 69, 84, 89, 84, 69, 44, 9, -36}, 429)},
+		{"7-pt quartic smoothing", 3, 4, 0, scaled([]float64{5, -30, 75, 131, 75, -30, 5}, 231)},
+		{"5-pt linear first derivative", 2, 1, 1, scaled([]float64{-2, -1, 0, 1, 2}, 10)},
+		{"5-pt quadratic first derivative", 2, 2, 1, scaled([]float64{-2, -1, 0, 1, 2}, 10)},
+		{"7-pt quadratic first derivative", 3, 2, 1, scaled([]float64{-3, -2, -1, 0, 1, 2, 3}, 28)},
+		{"5-pt cubic first derivative", 2, 3, 1, scaled([]float64{1, -8, 0, 8, -1}, 12)},
+		{"7-pt cubic first derivative", 3, 3, 1, scaled([]float64{22, -67, -58, 0, 58, 67, -22}, 252)},
+		{"9-pt cubic first derivative", 4, 3, 1, scaled([]float64{86, -142, -193, -126, 0, 126, 193, 142, -86}, 1188)},
+		{"5-pt quadratic second derivative", 2, 2, 2, scaled([]float64{2, -1, -2, -1, 2}, 7)},
+		{"7-pt cubic second derivative", 3, 3, 2, scaled([]float64{5, 0, -3, -4, -3, 0, 5}, 42)},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			z := centred(tc.m)
+			got := SavitzkyGolayTo(make([]float64, len(z)), z, 0, tc.deg, tc.deriv)
+			for i := range tc.want {
+				if math.Abs(got[i]-tc.want[i]) > 1e-12 {
+					t.Fatalf("weights %v, want %v", got, tc.want)
+				}
+			}
+		})
+	}
+	// Worked numbers (REFERENCES.md C2): derivative of exp at 0, h = 0.1.
+	for _, tc := range []struct {
+		m, deg int
+		want   float64
+	}{{3, 3, 0.99997914}, {2, 2, 1.00567751}} {
+		z := centred(tc.m)
+		nodes := scaled(z, 10)
+		w := SavitzkyGolayTo(make([]float64, len(z)), nodes, 0, tc.deg, 1)
+		s := 0.0
+		for i, v := range nodes {
+			s += w[i] * math.Exp(v)
+		}
+		if math.Abs(s-tc.want) > 1e-8 { // the reference has 8 decimals
+			t.Errorf("%d-pt degree %d: %.10f, want %.8f", 2*tc.m+1, tc.deg, s, tc.want)
+		}
+	}
+	// On z^4 at the centre the 5-point filter gives -72/35 (REFERENCES.md C1).
+	w := SavitzkyGolayTo(make([]float64, 5), centred(2), 0, 3, 0)
+	s := 0.0
+	for i, z := range centred(2) {
+		s += w[i] * z * z * z * z
+	}
+	if math.Abs(s-(-72.0/35)) > 1e-12 {
+		t.Errorf("z^4: %g, want %g", s, -72.0/35)
+	}
+	if SavitzkyGolayTo(make([]float64, 3), []float64{0, 1, 2}, 1, 3, 1) != nil {
+		t.Error("3 nodes carried a cubic")
+	}
+}
+
+// TestFornberg checks the weights of Fornberg, "Generation of finite
+// difference formulas on arbitrarily spaced grids", Math. Comp. 51(184),
+// 1988, Table 1, and the non-uniform and worked cases of REFERENCES.md C3
+// (exact rationals: 1e-12; the worked sin values are given to 10 decimals:
+// 1e-10).
+func TestFornberg(t *testing.T) {
+	for _, tc := range []struct {
+		name  string
+		nodes []float64
+		x0    float64
+		deriv int
+		want  []float64
+	}{
+		{"centred order 2", []float64{-1, 0, 1}, 0, 1, []float64{-0.5, 0, 0.5}},
+		{"centred order 4", []float64{-2, -1, 0, 1, 2}, 0, 1, []float64{1.0 / 12, -2.0 / 3, 0, 2.0 / 3, -1.0 / 12}},
+		{"centred order 6", centred(3), 0, 1, []float64{-1.0 / 60, 3.0 / 20, -3.0 / 4, 0, 3.0 / 4, -3.0 / 20, 1.0 / 60}},
+		{"centred order 8", centred(4), 0, 1, []float64{1.0 / 280, -4.0 / 105, 1.0 / 5, -4.0 / 5, 0, 4.0 / 5, -1.0 / 5, 4.0 / 105, -1.0 / 280}},
+		{"second order 2", []float64{-1, 0, 1}, 0, 2, []float64{1, -2, 1}},
+		{"second order 4", centred(2), 0, 2, []float64{-1.0 / 12, 4.0 / 3, -5.0 / 2, 4.0 / 3, -1.0 / 12}},
+		{"second order 6", centred(3), 0, 2, []float64{1.0 / 90, -3.0 / 20, 3.0 / 2, -49.0 / 18, 3.0 / 2, -3.0 / 20, 1.0 / 90}},
+		{"one-sided 2", []float64{0, 1}, 0, 1, []float64{-1, 1}},
+		{"one-sided 3", []float64{0, 1, 2}, 0, 1, []float64{-1.5, 2, -0.5}},
+		{"one-sided 5", []float64{0, 1, 2, 3, 4}, 0, 1, []float64{-25.0 / 12, 4, -3, 4.0 / 3, -1.0 / 4}},
+		{"non-uniform {-1,0,2}", []float64{-1, 0, 2}, 0, 1, []float64{-2.0 / 3, 1.0 / 2, 1.0 / 6}},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			c := make([][]float64, tc.deriv+1)
+			for k := range c {
+				c[k] = make([]float64, len(tc.nodes))
+			}
+			FornbergTo(c, tc.x0, tc.nodes)
+			for i, w := range tc.want {
+				if math.Abs(c[tc.deriv][i]-w) > 1e-12 {
+					t.Fatalf("weights %v, want %v", c[tc.deriv], tc.want)
+				}
+			}
+		})
+	}
+	apply := func(nodes []float64, deriv int) float64 {
+		c := make([][]float64, deriv+1)
+		for k := range c {
+			c[k] = make([]float64, len(nodes))
+		}
+		FornbergTo(c, 1, nodes)
+		s := 0.0
+		for i, x := range nodes {
+			s += c[deriv][i] * math.Sin(x)
+		}
+		return s
+	}
+	for _, tc := range []struct {
+		nodes []float64
+		deriv int
+		want  float64
+	}{
+		{[]float64{0.9, 1, 1.1}, 1, 0.5394022522},
+		{[]float64{0.8, 0.9, 1, 1.1, 1.2}, 1, 0.5403005070},
+		{[]float64{0.9, 1, 1.1}, 2, -0.8407699927},
+	} {
+		if got := apply(tc.nodes, tc.deriv); math.Abs(got-tc.want) > 1e-10 {
+			t.Errorf("sin at 1 on %v, derivative %d: %.10f, want %.10f", tc.nodes, tc.deriv, got, tc.want)
+		}
+	}
+}
+
+// TestDerivativeRuns checks the run-level derivatives on an uneven grid:
+// both methods are exact on a cubic (the fourth-order stencil and the
+// cubic fit reproduce cubics), to round-off.
+func TestDerivativeRuns(t *testing.T) {
+	n := 200
+	tm := make([]float64, n)
+	x := make([]float64, n)
+	for i := range tm {
+		tm[i] = 0.01*float64(i) + 0.003*math.Sin(float64(i)) // jittered clock
+		x[i] = 1 + 2*tm[i] - tm[i]*tm[i] + 0.5*tm[i]*tm[i]*tm[i]
+	}
+	dw := newDerivWork()
+	dx := make([]float64, n)
+	xs := make([]float64, n)
+	check := func(name string, dx []float64) {
+		for i, v := range dx {
+			want := 2 - 2*tm[i] + 1.5*tm[i]*tm[i]
+			if math.Abs(v-want) > 1e-8 {
+				t.Fatalf("%s: sample %d: %g, want %g", name, i, v, want)
+			}
+		}
+	}
+	dw.fornbergRun(dx, tm, x)
+	check("fornberg", dx)
+	dw.sgRun(xs, dx, tm, x, 6)
+	check("savitzky-golay", dx)
+	for i := range xs {
+		if math.Abs(xs[i]-x[i]) > 1e-10 {
+			t.Fatalf("smoothing changed a cubic at %d", i)
+		}
+	}
+}
