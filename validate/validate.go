@@ -46,27 +46,6 @@ type ScreenOptions struct {
 	Tolerance float64
 }
 
-// Screener screens runs against one certificate. It holds scratch space:
-// make one per goroutine.
-type Screener struct {
-	cert *fit.Certificate
-	opts ScreenOptions
-}
-
-// NewScreener prepares cert for screening.
-func NewScreener(cert *fit.Certificate, opts *ScreenOptions) *Screener {
-	s := &Screener{cert: cert}
-	if opts != nil {
-		s.opts = *opts
-	}
-	return s
-}
-
-// Screen screens run and stores the result in dst.
-func (s *Screener) Screen(dst *RunScreen, file string, run *ingest.Run) {
-	panic("validate: Screen not built yet")
-}
-
 // Options controls Evaluate and Check. A nil *Options means defaults.
 type Options struct {
 	Folds int    // folds over runs; 0 means 5

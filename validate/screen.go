@@ -1,0 +1,378 @@
+package validate
+
+import (
+	"context"
+	"math"
+	"runtime"
+	"sync"
+
+	"github.com/basin-dev/basin/fit"
+	"github.com/basin-dev/basin/fit/poly"
+	"github.com/basin-dev/basin/ingest"
+)
+
+// tailMax is the largest number of samples averaged at each end of a run
+// to judge settling; tailShare the share of the run used when shorter.
+const (
+	tailMax   = 50
+	tailShare = 20 // one twentieth of the run
+)
+
+// Screener screens runs against one certificate. V is compiled once: a V
+// of degree at most 2 is evaluated as z'Pz + q'z + r, any other through a
+// compiled monomial recipe. It holds scratch space: make one per
+// goroutine.
+//
+// The flags mean:
+//   - rises: between two consecutive samples that are both inside the
+//     region, with the first outside the noise ball (|z| > NoiseRadius), V
+//     rose by more than the tolerance. Excess is the worst rise minus the
+//     tolerance.
+//   - leaves: a sample outside the region after one inside it. Excess is
+//     the worst V - Level after entering (0 when only the box was left).
+//   - unsettled: the run entered the region and its end is neither settled
+//     (mean V over the last samples at most the settle level, the largest
+//     V on the noise ball) nor nearer the equilibrium than its start (mean
+//     V over the last samples below the mean over the first by more than
+//     the tolerance). Time is the run's last time, Excess the end's mean V
+//     minus the settle level.
+//
+// A run that never enters the region is not flagged: the certificate says
+// nothing about it (its EverInside is false).
+type Screener struct {
+	cert *fit.Certificate
+	opts ScreenOptions
+	n    int
+	tol  float64
+	r2   float64 // NoiseRadius squared
+	// settle is the largest V on the ball |z| <= NoiseRadius.
+	settle float64
+
+	// quadratic form, when V has degree <= 2
+	quad bool
+	p    []float64 // n*n, symmetric
+	q    []float64
+	r    float64
+	comp *poly.Compiled
+	inv  []float64 // 1/scale
+	eq   []float64
+	lo   []float64 // box
+	hi   []float64
+	z    []float64
+	x    []float64
+}
+
+// NewScreener prepares cert for screening. It panics if cert is nil or its
+// V has exponent vectors of the wrong length (ReadCertificate refuses
+// such files).
+func NewScreener(cert *fit.Certificate, opts *ScreenOptions) *Screener {
+	n := len(cert.States)
+	s := &Screener{cert: cert, n: n}
+	if opts != nil {
+		s.opts = *opts
+	}
+	s.tol = s.opts.Tolerance
+	if s.tol <= 0 {
+		s.tol = cert.Tolerance
+	}
+	if s.tol < 0 || math.IsNaN(s.tol) {
+		s.tol = 0
+	}
+	s.r2 = cert.NoiseRadius * cert.NoiseRadius
+	s.inv = make([]float64, n)
+	s.eq = append([]float64(nil), cert.Equilibrium...)
+	for j := range s.inv {
+		s.inv[j] = 1 / cert.Scale[j]
+	}
+	s.lo = make([]float64, n)
+	s.hi = make([]float64, n)
+	for j := range s.lo {
+		s.lo[j], s.hi[j] = math.Inf(-1), math.Inf(1)
+		if j < len(cert.Box) {
+			s.lo[j], s.hi[j] = cert.Box[j][0], cert.Box[j][1]
+		}
+	}
+	s.z = make([]float64, n)
+	s.x = make([]float64, n)
+	s.quad = true
+	for _, e := range cert.V.Exponents {
+		d := 0
+		for _, p := range e {
+			d += p
+		}
+		if d > 2 || len(e) != n {
+			s.quad = false
+		}
+	}
+	if s.quad {
+		s.p = make([]float64, n*n)
+		s.q = make([]float64, n)
+		for k, e := range cert.V.Exponents {
+			c := cert.V.Coefficients[k]
+			var idx [2]int
+			m := 0
+			for j, p := range e {
+				for ; p > 0; p-- {
+					idx[m] = j
+					m++
+				}
+			}
+			switch m {
+			case 0:
+				s.r += c
+			case 1:
+				s.q[idx[0]] += c
+			case 2:
+				i, j := idx[0], idx[1]
+				if i == j {
+					s.p[i*n+i] += c
+				} else {
+					s.p[i*n+j] += c / 2
+					s.p[j*n+i] += c / 2
+				}
+			}
+		}
+	} else {
+		s.comp = cert.V.Compile(n)
+	}
+	s.settle = s.ballMax(cert.NoiseRadius)
+	return s
+}
+
+// V returns V at the scaled point z. It does not allocate.
+func (s *Screener) V(z []float64) float64 {
+	if !s.quad {
+		return s.comp.Eval(z)
+	}
+	return s.quadV(z)
+}
+
+func (s *Screener) quadV(z []float64) float64 {
+	n := s.n
+	v := s.r
+	for i := 0; i < n; i++ {
+		zi := z[i]
+		row := s.p[i*n : i*n+n]
+		a := s.q[i]
+		for j, pj := range row {
+			a += pj * z[j]
+		}
+		v += a * zi
+	}
+	return v
+}
+
+// SettleLevel returns the largest V on the noise ball: a run whose end has
+// V at most this is settled.
+func (s *Screener) SettleLevel() float64 { return s.settle }
+
+// ballMax returns the largest V on the ball |z| <= r, by deterministic
+// sampling of the sphere (the axes, their diagonals and a fixed
+// quasi-random set) and of the centre; exact for a V with V(0) = 0 that
+// is a positive semidefinite quadratic form only when the largest
+// eigenvector is sampled, so for the quadratic case the eigenvalue bound
+// (the largest Gershgorin disc edge, an upper bound) is used instead.
+func (s *Screener) ballMax(r float64) float64 {
+	n := s.n
+	z := make([]float64, n)
+	if r <= 0 {
+		return s.V(z)
+	}
+	if s.quad {
+		// max over |z|<=r of z'Pz + q'z + c <= lambda_max+ r^2 + |q| r + c,
+		// with lambda_max bounded by Gershgorin.
+		lam := math.Inf(-1)
+		for i := 0; i < n; i++ {
+			g := s.p[i*n+i]
+			for j := 0; j < n; j++ {
+				if j != i {
+					g += math.Abs(s.p[i*n+j])
+				}
+			}
+			lam = max(lam, g)
+		}
+		qn := 0.0
+		for _, v := range s.q {
+			qn += v * v
+		}
+		return max(lam, 0)*r*r + math.Sqrt(qn)*r + s.r
+	}
+	best := s.V(z)
+	// Halton-like directions from a fixed additive recurrence.
+	const dirs = 512
+	for k := 0; k < dirs+2*n; k++ {
+		nrm := 0.0
+		for j := range z {
+			var u float64
+			if k < 2*n {
+				u = 0
+				if j == k/2 {
+					u = 1 - 2*float64(k%2)
+				}
+			} else {
+				a := math.Mod(float64(k)*(0.5+math.Sqrt(float64(j+2))), 1)
+				u = 2*a - 1
+			}
+			z[j] = u
+			nrm += u * u
+		}
+		if nrm == 0 {
+			continue
+		}
+		f := r / math.Sqrt(nrm)
+		for j := range z {
+			z[j] *= f
+		}
+		best = max(best, s.V(z))
+	}
+	return best
+}
+
+// Screen screens run and stores the result in dst, reusing dst.Flags'
+// storage. It does not allocate once dst.Flags has room for three flags.
+// A run with no samples gives an unflagged result with Samples 0.
+func (s *Screener) Screen(dst *RunScreen, file string, run *ingest.Run) {
+	*dst = RunScreen{File: file, Run: run.Name, Samples: run.Len(), Flags: dst.Flags[:0]}
+	m := run.Len()
+	if m == 0 || len(run.X) != s.n {
+		return
+	}
+	n := s.n
+	X := run.X
+	T := run.T
+	z, x := s.z, s.x
+	level := s.cert.Level
+	tol := s.tol
+	w := min(max(m/tailShare, 1), tailMax)
+
+	var (
+		prevV     float64
+		prevIn    bool
+		prevOut   bool // previous sample outside the noise ball
+		entered   bool
+		rise      = Flag{Kind: FlagRises, Time: math.NaN(), Excess: math.Inf(-1)}
+		leave     = Flag{Kind: FlagLeaves, Time: math.NaN(), Excess: math.Inf(-1)}
+		headSum   float64
+		tailStart = m - w
+		tailSum   float64
+		hasRise   bool
+		hasLeave  bool
+	)
+	for i := 0; i < m; i++ {
+		r2 := 0.0
+		inBox := true
+		for j := 0; j < n; j++ {
+			xj := X[j][i]
+			x[j] = xj
+			if xj < s.lo[j] || xj > s.hi[j] {
+				inBox = false
+			}
+			zj := (xj - s.eq[j]) * s.inv[j]
+			z[j] = zj
+			r2 += zj * zj
+		}
+		var v float64
+		if s.quad {
+			v = s.quadV(z)
+		} else {
+			v = s.comp.Eval(z)
+		}
+		in := inBox && v <= level // NaN V is outside
+		if i < w {
+			headSum += v
+		}
+		if i >= tailStart {
+			tailSum += v
+		}
+		if i == 0 {
+			dst.StartInside = in
+		}
+		if in {
+			entered = true
+			if prevIn && prevOut {
+				if d := v - prevV - tol; d > 0 {
+					if !hasRise {
+						rise.Time = T[i]
+						hasRise = true
+					}
+					rise.Excess = max(rise.Excess, d)
+				}
+			}
+		} else if entered {
+			if !hasLeave {
+				leave.Time = T[i]
+				hasLeave = true
+			}
+			e := 0.0
+			if v > level {
+				e = v - level
+			}
+			if !(e <= math.MaxFloat64) { // NaN or Inf: report the largest finite excess
+				e = math.MaxFloat64
+			}
+			leave.Excess = max(leave.Excess, e)
+		}
+		prevV, prevIn, prevOut = v, in, r2 > s.r2
+	}
+	dst.EverInside = entered
+	head := headSum / float64(w)
+	tail := tailSum / float64(w)
+	dst.Settled = tail <= s.settle || tail < head-tol
+	if hasRise {
+		dst.Flags = append(dst.Flags, rise)
+	}
+	if hasLeave {
+		dst.Flags = append(dst.Flags, leave)
+	}
+	if entered && !dst.Settled {
+		e := tail - s.settle
+		if !(e <= math.MaxFloat64) {
+			e = math.MaxFloat64
+		}
+		dst.Flags = append(dst.Flags, Flag{Kind: FlagUnsettled, Time: T[m-1], Excess: e})
+	}
+	dst.Flagged = len(dst.Flags) > 0
+}
+
+// ScreenRuns screens every run of ds against cert on up to GOMAXPROCS
+// goroutines and returns the results in run order. It stops early with
+// ctx's error when ctx is done.
+func ScreenRuns(ctx context.Context, cert *fit.Certificate, ds *ingest.Dataset, opts *ScreenOptions) ([]RunScreen, error) {
+	out := make([]RunScreen, len(ds.Runs))
+	workers := min(runtime.GOMAXPROCS(0), len(ds.Runs))
+	if workers <= 1 {
+		s := NewScreener(cert, opts)
+		for i := range ds.Runs {
+			if err := ctx.Err(); err != nil {
+				return nil, err
+			}
+			s.Screen(&out[i], ds.Runs[i].Source.File, &ds.Runs[i])
+		}
+		return out, nil
+	}
+	var wg sync.WaitGroup
+	next := make(chan int)
+	for k := 0; k < workers; k++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			s := NewScreener(cert, opts)
+			for i := range next {
+				s.Screen(&out[i], ds.Runs[i].Source.File, &ds.Runs[i])
+			}
+		}()
+	}
+	var err error
+	for i := range ds.Runs {
+		if err = ctx.Err(); err != nil {
+			break
+		}
+		next <- i
+	}
+	close(next)
+	wg.Wait()
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}

@@ -1,0 +1,241 @@
+package validate
+
+import (
+	"context"
+	"math"
+	"math/rand/v2"
+	"testing"
+
+	"github.com/basin-dev/basin/fit"
+	"github.com/basin-dev/basin/fit/poly"
+	"github.com/basin-dev/basin/ingest"
+)
+
+// circleCert is a hand-made certificate: V = z0^2 + z1^2 (plus extra
+// zero-coefficient terms when general is set, to force the compiled
+// path), level 1, scale (1, 2), equilibrium (0.5, 0).
+func circleCert(general bool) *fit.Certificate {
+	v := poly.Poly{Exponents: [][]int{{2, 0}, {0, 2}}, Coefficients: []float64{1, 1}}
+	if general {
+		v.Exponents = append(v.Exponents, []int{3, 1}, []int{0, 4})
+		v.Coefficients = append(v.Coefficients, 0, 0)
+	}
+	return &fit.Certificate{Format: fit.CertificateFormat, Verdict: fit.Inconclusive,
+		States: []string{"a", "b"}, Units: []string{"", ""},
+		Equilibrium: []float64{0.5, 0}, Scale: []float64{1, 2}, V: v, Level: 1,
+		Box: [][2]float64{{-0.5, 1.5}, {-2, 2}}, Found: true,
+		NoiseRadius: 0.05, Tolerance: 1e-3}
+}
+
+// makeRun samples f(t) (in z coordinates of circleCert) at m times.
+func makeRun(name string, m int, dt float64, f func(t float64) (z0, z1 float64)) ingest.Run {
+	r := ingest.Run{Name: name, T: make([]float64, m), X: [][]float64{make([]float64, m), make([]float64, m)}}
+	for i := range r.T {
+		t := float64(i) * dt
+		z0, z1 := f(t)
+		r.T[i] = t
+		r.X[0][i] = 0.5 + z0
+		r.X[1][i] = 2 * z1
+	}
+	return r
+}
+
+func TestScreen(t *testing.T) {
+	decay := func(t float64) (float64, float64) { // damped rotation, ends at 0
+		a := 0.8 * math.Exp(-t)
+		return a * math.Cos(3*t), a * math.Sin(3*t)
+	}
+	lossless := func(t float64) (float64, float64) { return 0.6 * math.Cos(2*t), 0.6 * math.Sin(2*t) }
+	grows := func(t float64) (float64, float64) { // spirals out, leaves at |z| = 1
+		a := 0.5 * math.Exp(0.2*t)
+		return a * math.Cos(2*t), a * math.Sin(2*t)
+	}
+	bump := func(t float64) (float64, float64) { // decays but jumps up at t = 1
+		a := 0.8 * math.Exp(-t)
+		if t >= 1 {
+			a += 0.2
+		}
+		if t >= 1.01 {
+			a = 0.8*math.Exp(-t) + 0.2*math.Exp(-(t-1)*10)
+		}
+		return a, 0
+	}
+	outside := func(t float64) (float64, float64) { return 3, 3 }
+	type want struct {
+		flags              []string
+		startIn, everIn, s bool
+	}
+	for _, tc := range []struct {
+		name string
+		run  ingest.Run
+		want want
+	}{
+		{"decays", makeRun("decays", 1000, 0.01, decay), want{nil, true, true, true}},
+		{"lossless", makeRun("lossless", 1000, 0.01, lossless), want{[]string{FlagUnsettled}, true, true, false}},
+		{"grows", makeRun("grows", 1000, 0.01, grows), want{[]string{FlagRises, FlagLeaves, FlagUnsettled}, true, true, false}},
+		{"bump", makeRun("bump", 1000, 0.01, bump), want{[]string{FlagRises}, true, true, true}},
+		{"outside", makeRun("outside", 100, 0.01, outside), want{nil, false, false, false}},
+	} {
+		for _, general := range []bool{false, true} {
+			s := NewScreener(circleCert(general), nil)
+			var got RunScreen
+			s.Screen(&got, "f.csv", &tc.run)
+			var kinds []string
+			for _, f := range got.Flags {
+				kinds = append(kinds, f.Kind)
+			}
+			if !equalStrings(kinds, tc.want.flags) || got.StartInside != tc.want.startIn ||
+				got.EverInside != tc.want.everIn || got.Settled != tc.want.s || got.Flagged != (len(kinds) > 0) {
+				t.Errorf("%s (general %v): flags %v start %v ever %v settled %v; want %+v",
+					tc.name, general, kinds, got.StartInside, got.EverInside, got.Settled, tc.want)
+			}
+			if got.Samples != tc.run.Len() || got.File != "f.csv" || got.Run != tc.name {
+				t.Errorf("%s: identity fields %+v", tc.name, got)
+			}
+		}
+	}
+}
+
+// TestScreenFlagDetail checks time and excess of each flag on a run built
+// so they are known exactly.
+func TestScreenFlagDetail(t *testing.T) {
+	// z0 values chosen by hand; z1 = 0. V = z0^2.
+	z := []float64{0.9, 0.5, 0.7, 0.3, 1.2, 0.4, 1.1, 0.95}
+	r := ingest.Run{Name: "r", T: make([]float64, len(z)), X: [][]float64{make([]float64, len(z)), make([]float64, len(z))}}
+	for i, v := range z {
+		r.T[i] = float64(i) / 10
+		r.X[0][i] = 0.5 + v
+	}
+	s := NewScreener(circleCert(false), nil)
+	var got RunScreen
+	s.Screen(&got, "f", &r)
+	// rises: 0.25 -> 0.49 at t = 0.2, excess 0.24 - tol; the later rises
+	// start or end outside the region and do not count.
+	// leaves: first at t = 0.4 (V = 1.44), worst 1.21+... = 0.44.
+	// unsettled: w = 1 sample (8/20 -> 1): tail 0.9025 vs head 0.81, not
+	// below the settle level 0.0025.
+	tol := 1e-3
+	want := []Flag{{FlagRises, 0.2, 0.49 - 0.25 - tol}, {FlagLeaves, 0.4, 0.44}, {FlagUnsettled, 0.7, 0.9025 - 0.0025}}
+	if len(got.Flags) != len(want) {
+		t.Fatalf("flags %+v, want %+v", got.Flags, want)
+	}
+	for i, f := range got.Flags {
+		// 1e-12: a handful of float64 operations on values near 1.
+		if f.Kind != want[i].Kind || math.Abs(f.Time-want[i].Time) > 1e-12 || math.Abs(f.Excess-want[i].Excess) > 1e-12 {
+			t.Errorf("flag %d = %+v, want %+v", i, f, want[i])
+		}
+	}
+	if math.Abs(s.SettleLevel()-0.0025) > 1e-15 {
+		t.Errorf("settle level %g, want 0.0025 (lambda_max 1 times 0.05^2)", s.SettleLevel())
+	}
+}
+
+// TestScreenerV checks both evaluation paths against the plain
+// poly.Poly.Eval (an independent, straightforward evaluator) on random
+// quadratics and quartics with cross terms, linear and constant parts.
+func TestScreenerV(t *testing.T) {
+	rng := rand.New(rand.NewPCG(7, 0))
+	for n := 1; n <= 4; n++ {
+		for _, deg := range []int{2, 4} {
+			lib := poly.NewLibrary(n, 0, deg)
+			p := poly.Poly{Exponents: lib.Terms(), Coefficients: make([]float64, lib.Len())}
+			for k := range p.Coefficients {
+				p.Coefficients[k] = rng.NormFloat64()
+			}
+			c := &fit.Certificate{States: make([]string, n), Equilibrium: make([]float64, n), Scale: make([]float64, n), V: p}
+			for j := range c.Scale {
+				c.Scale[j] = 1
+			}
+			s := NewScreener(c, nil)
+			if s.quad != (deg == 2) {
+				t.Fatalf("n=%d deg=%d: quadratic path %v", n, deg, s.quad)
+			}
+			z := make([]float64, n)
+			for i := 0; i < 50; i++ {
+				for j := range z {
+					z[j] = 2*rng.Float64() - 1
+				}
+				want := p.Eval(z)
+				// 1e-12 relative: sums of ~15 terms of order 1 in float64.
+				if got := s.V(z); math.Abs(got-want) > 1e-12*max(1, math.Abs(want)) {
+					t.Fatalf("n=%d deg=%d: V = %v, want %v", n, deg, got, want)
+				}
+			}
+		}
+	}
+}
+
+func TestScreenAllocs(t *testing.T) {
+	for _, general := range []bool{false, true} {
+		s := NewScreener(circleCert(general), nil)
+		r := makeRun("r", 5000, 0.01, func(t float64) (float64, float64) { return 0.5 * math.Cos(t), 0.5 * math.Sin(t) })
+		dst := RunScreen{Flags: make([]Flag, 0, 3)}
+		if a := testing.AllocsPerRun(20, func() { s.Screen(&dst, "f", &r) }); a != 0 {
+			t.Errorf("general %v: %v allocs per run", general, a)
+		}
+	}
+}
+
+func TestScreenRuns(t *testing.T) {
+	ds := &ingest.Dataset{}
+	for i := 0; i < 9; i++ {
+		ph := float64(i)
+		ds.Runs = append(ds.Runs, makeRun("r", 200, 0.05, func(t float64) (float64, float64) {
+			a := 0.7 * math.Exp(-t)
+			if i%3 == 0 {
+				a = 0.7
+			}
+			return a * math.Cos(2*t+ph), a * math.Sin(2*t+ph)
+		}))
+	}
+	got, err := ScreenRuns(context.Background(), circleCert(false), ds, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for i, g := range got {
+		if g.Flagged != (i%3 == 0) {
+			t.Errorf("run %d flagged %v", i, g.Flagged)
+		}
+	}
+}
+
+func equalStrings(a, b []string) bool {
+	if len(a) != len(b) {
+		return false
+	}
+	for i := range a {
+		if a[i] != b[i] {
+			return false
+		}
+	}
+	return true
+}
+
+// BenchmarkScreen measures the screening hot loop on 100 runs of 10,000
+// samples, one goroutine per core, for a quadratic and a quartic V.
+func BenchmarkScreen(b *testing.B) {
+	ds := &ingest.Dataset{}
+	for i := 0; i < 100; i++ {
+		ph := float64(i)
+		ds.Runs = append(ds.Runs, makeRun("r", 10000, 0.001, func(t float64) (float64, float64) {
+			a := 0.8 * math.Exp(-t)
+			return a * math.Cos(3*t+ph), a * math.Sin(3*t+ph)
+		}))
+	}
+	samples := ds.Samples()
+	for _, bc := range []struct {
+		name    string
+		general bool
+	}{{"quadratic", false}, {"quartic", true}} {
+		b.Run(bc.name, func(b *testing.B) {
+			cert := circleCert(bc.general)
+			b.SetBytes(int64(samples * 2 * 8))
+			for b.Loop() {
+				if _, err := ScreenRuns(context.Background(), cert, ds, nil); err != nil {
+					b.Fatal(err)
+				}
+			}
+			b.ReportMetric(float64(samples)*float64(b.N)/b.Elapsed().Seconds()/1e6, "Msamples/s")
+		})
+	}
+}
