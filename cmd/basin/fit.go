@@ -8,6 +8,7 @@ import (
 	"io"
 	"math"
 	"path/filepath"
+	"strconv"
 	"strings"
 
 	"github.com/basin-dev/basin/fit"
@@ -137,8 +138,9 @@ func coef(c float64) string {
 	case a < 1e-3 || a >= 1e5:
 		return fmt.Sprintf("%.3e", a)
 	}
-	dec := max(3, 3-int(math.Floor(math.Log10(a))))
-	return fmt.Sprintf("%.*f", dec, a)
+	r, _ := strconv.ParseFloat(fmt.Sprintf("%.4g", a), 64) // 0.99999 -> 1
+	dec := max(3, 3-int(math.Floor(math.Log10(r))))
+	return fmt.Sprintf("%.*f", dec, r)
 }
 
 // equationText renders one equation, e.g. "-4.000 theta - 0.800 omega".
@@ -166,9 +168,14 @@ func equationText(eq fit.Equation, names []string) string {
 	return b.String()
 }
 
-func point(x []float64) string {
+// point formats an equilibrium; a coordinate within a millionth of its
+// state's spread of zero prints as 0 (Newton leaves round-off there).
+func point(x, spread []float64) string {
 	s := make([]string, len(x))
 	for i, v := range x {
+		if math.Abs(v) < 1e-6*spread[i] {
+			v = 0
+		}
 		s[i] = fmt.Sprintf("%.4g", v)
 	}
 	return "(" + strings.Join(s, ", ") + ")"
@@ -215,7 +222,7 @@ func printModel(w io.Writer, m *fit.Model) {
 		fmt.Fprintf(w, "  none found; %s\n", m.Note)
 	}
 	for _, q := range m.Equilibria {
-		fmt.Fprintf(w, "  %s  %s  eigenvalues %s\n", point(q.Point), q.Class, eigenText(q.Eigenvalues))
+		fmt.Fprintf(w, "  %s  %s  eigenvalues %s\n", point(q.Point, m.Spread), q.Class, eigenText(q.Eigenvalues))
 	}
 	if m.Note != "" && len(m.Equilibria) > 0 {
 		fmt.Fprintf(w, "  note: %s\n", m.Note)
