@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"io/fs"
 	"math"
 	"runtime"
 	"strings"
@@ -142,6 +143,28 @@ func readCSVTable(r io.Reader, name string, opts *Options) (*table, error) {
 		}
 		p.merge(c)
 		return tb, nil
+	}
+	// Size the columns from the input's size, when known, so that they are
+	// not regrown (each regrowth briefly holds two copies).
+	var total int64
+	switch v := r.(type) {
+	case interface{ Stat() (fs.FileInfo, error) }:
+		if st, err := v.Stat(); err == nil && st.Mode().IsRegular() {
+			total = st.Size()
+		}
+	case interface{ Len() int }:
+		total = int64(v.Len() + n)
+	}
+	if lines := bytes.Count(rest, []byte{'\n'}); total > 0 && lines > 0 && len(rest) > 0 {
+		est := int(float64(lines)*float64(total)/float64(len(rest))*1.01) + 64
+		if tb.timeIdx > 0 && !tb.dateTime {
+			tb.t = make([]float64, 0, est)
+		} else if tb.dateTime {
+			tb.tn = make([]int64, 0, est)
+		}
+		for j := range tb.x {
+			tb.x[j] = make([]float64, 0, est)
+		}
 	}
 	if err := p.parallel(r, rest, line); err != nil {
 		return nil, err
@@ -521,8 +544,9 @@ var isoLayouts = []string{
 
 // csvParser parses blocks of lines into a table.
 type csvParser struct {
-	lay *csvLayout
-	tb  *table
+	lay  *csvLayout
+	tb   *table
+	bufs chan *chunk // parsed-value buffers for reuse (a free list: sync.Pool empties at each GC)
 }
 
 // parallel reads r in blocks after the first one (rest, starting on line)
@@ -545,12 +569,21 @@ func (p *csvParser) parallel(r io.Reader, rest []byte, line int) error {
 			}
 		}()
 	}
-	pool := sync.Pool{New: func() any { return make([]byte, 0, blockSize+blockSize/4) }}
+	p.bufs = make(chan *chunk, 4*workers)
+	free := make(chan []byte, 4*workers) // read buffers
+	getBuf := func() []byte {
+		select {
+		case b := <-free:
+			return b[:0]
+		default:
+			return make([]byte, 0, blockSize+blockSize/4)
+		}
+	}
 	var readErr error
 	go func() {
 		defer close(order)
 		defer close(jobs)
-		carry := append(pool.Get().([]byte)[:0], rest...)
+		carry := append(getBuf(), rest...)
 		for !stop.Load() {
 			buf := carry
 			if cap(buf)-len(buf) < blockSize/2 {
@@ -575,7 +608,7 @@ func (p *csvParser) parallel(r io.Reader, rest []byte, line int) error {
 				}
 				cut = nl + 1
 			}
-			carry = append(pool.Get().([]byte)[:0], buf[cut:]...)
+			carry = append(getBuf(), buf[cut:]...)
 			c := &chunk{data: buf[:cut], line: line, done: make(chan struct{})}
 			line += bytes.Count(c.data, []byte{'\n'})
 			jobs <- c
@@ -594,9 +627,16 @@ func (p *csvParser) parallel(r io.Reader, rest []byte, line int) error {
 		}
 		if firstErr == nil {
 			p.merge(c)
+			select {
+			case p.bufs <- &chunk{x: c.x, t: c.t, tn: c.tn}:
+			default:
+			}
 		}
 		if cap(c.data) <= blockSize+blockSize/4 {
-			pool.Put(c.data[:0])
+			select {
+			case free <- c.data[:0]:
+			default:
+			}
 		}
 	}
 	wg.Wait()
@@ -637,14 +677,26 @@ func (p *csvParser) merge(c *chunk) {
 func (p *csvParser) parse(c *chunk) {
 	lay := p.lay
 	est := len(c.data)/(8*lay.ncol+1) + 1
-	c.x = make([][]float64, lay.nstate)
-	for j := range c.x {
-		c.x[j] = make([]float64, 0, est)
+	var bufs *chunk
+	select {
+	case bufs = <-p.bufs:
+	default:
+	}
+	if bufs != nil {
+		c.x, c.t, c.tn = bufs.x, bufs.t[:0], bufs.tn[:0]
+		for j := range c.x {
+			c.x[j] = c.x[j][:0]
+		}
+	} else {
+		c.x = make([][]float64, lay.nstate)
+		for j := range c.x {
+			c.x[j] = make([]float64, 0, est)
+		}
 	}
 	timed := p.tb.timeIdx > 0
-	if timed && lay.dateTime {
+	if timed && lay.dateTime && c.tn == nil {
 		c.tn = make([]int64, 0, est)
-	} else if timed {
+	} else if timed && c.t == nil {
 		c.t = make([]float64, 0, est)
 	}
 	var cells [][]byte

@@ -127,12 +127,14 @@ func (tb *table) splitGroup(ds *Dataset, g group) error {
 	var t0 int64
 	haveT0 := false
 	local := 0 // row index within the group, for --rate
-	// pieces of valid rows, split at missing rows
-	var pieces [][]int32
-	var cur []int32
+	// pieces of valid rows, split at missing rows; a piece is a list of
+	// [start, end) row ranges (more than one only across --run-col spans)
+	var pieces [][][2]int
+	var cur [][2]int
 	prevT, prevRow := math.Inf(-1), -1
 	missing := 0
 	for _, sp := range g.spans {
+		ra := -1 // start of the open range
 		for i := sp[0]; i < sp[1]; i++ {
 			var ti float64
 			switch {
@@ -164,6 +166,10 @@ func (tb *table) splitGroup(ds *Dataset, g group) error {
 			}
 			if !ok {
 				missing++
+				if ra >= 0 {
+					cur = append(cur, [2]int{ra, i})
+					ra = -1
+				}
 				if len(cur) > 0 {
 					pieces = append(pieces, cur)
 					cur = nil
@@ -179,7 +185,12 @@ func (tb *table) splitGroup(ds *Dataset, g group) error {
 					Err: fmt.Errorf("%w: %s (%g after %g on line %d)", ErrTimeOrder, what, ti, prevT, tb.line(prevRow))}
 			}
 			prevT, prevRow = ti, i
-			cur = append(cur, int32(i))
+			if ra < 0 {
+				ra = i
+			}
+		}
+		if ra >= 0 {
+			cur = append(cur, [2]int{ra, sp[1]})
 		}
 	}
 	if len(cur) > 0 {
@@ -187,37 +198,57 @@ func (tb *table) splitGroup(ds *Dataset, g group) error {
 	}
 	ds.Missing += missing
 	// median step over consecutive valid samples within pieces
-	var dts []float64
+	nrows := 0
+	for _, sp := range g.spans {
+		nrows += sp[1] - sp[0]
+	}
+	dts := make([]float64, 0, nrows)
 	for _, p := range pieces {
-		for k := 1; k < len(p); k++ {
-			dts = append(dts, tb.t[p[k]]-tb.t[p[k-1]])
+		prev := -1
+		for _, rg := range p {
+			for i := rg[0]; i < rg[1]; i++ {
+				if prev >= 0 {
+					dts = append(dts, tb.t[i]-tb.t[prev])
+				}
+				prev = i
+			}
 		}
 	}
 	var limit = math.Inf(1)
 	if len(dts) > 0 {
 		limit = GapFactor * median(dts)
 	}
-	var final [][]int32
+	dts = nil
+	var final [][][2]int
 	for _, p := range pieces {
-		a := 0
-		for k := 1; k < len(p); k++ {
-			if tb.t[p[k]]-tb.t[p[k-1]] > limit {
-				final = append(final, p[a:k])
-				a = k
+		var out [][2]int
+		prev := -1
+		for _, rg := range p {
+			a := rg[0]
+			for i := rg[0]; i < rg[1]; i++ {
+				if prev >= 0 && tb.t[i]-tb.t[prev] > limit {
+					if i > a {
+						out = append(out, [2]int{a, i})
+					}
+					final = append(final, out)
+					out, a = nil, i
+				}
+				prev = i
 			}
+			out = append(out, [2]int{a, rg[1]})
 		}
-		final = append(final, p[a:])
+		final = append(final, out)
 	}
 	gaps := len(final) - 1
 	ds.Gaps += gaps
 	for n, p := range final {
-		r := Run{Name: g.name, Source: Source{File: tb.file, Line: tb.line(int(p[0]))}, Epoch: epoch, Gaps: gaps}
+		r := Run{Name: g.name, Source: Source{File: tb.file, Line: tb.line(p[0][0])}, Epoch: epoch, Gaps: gaps}
 		if n > 0 {
 			r.Name = fmt.Sprintf("%s~%d", g.name, n)
 		}
-		a, b := int(p[0]), int(p[len(p)-1])+1
 		r.X = make([][]float64, len(tb.x))
-		if b-a == len(p) { // contiguous rows: share the table's storage
+		if len(p) == 1 { // contiguous rows: share the table's storage
+			a, b := p[0][0], p[0][1]
 			r.T = tb.t[a:b:b]
 			for j, c := range tb.x {
 				r.X[j] = c[a:b:b]
@@ -233,10 +264,10 @@ func (tb *table) splitGroup(ds *Dataset, g group) error {
 	return nil
 }
 
-func gather(src []float64, idx []int32) []float64 {
-	dst := make([]float64, len(idx))
-	for k, i := range idx {
-		dst[k] = src[i]
+func gather(src []float64, rgs [][2]int) []float64 {
+	var dst []float64
+	for _, rg := range rgs {
+		dst = append(dst, src[rg[0]:rg[1]]...)
 	}
 	return dst
 }

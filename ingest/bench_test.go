@@ -1,0 +1,243 @@
+package ingest
+
+import (
+	"bufio"
+	"context"
+	"encoding/csv"
+	"fmt"
+	"io"
+	"math/rand/v2"
+	"os"
+	"path/filepath"
+	"runtime"
+	"runtime/metrics"
+	"strconv"
+	"sync"
+	"sync/atomic"
+	"testing"
+	"time"
+
+	"github.com/apache/arrow/go/v15/arrow"
+	"github.com/apache/arrow/go/v15/arrow/array"
+	"github.com/apache/arrow/go/v15/arrow/memory"
+)
+
+const benchRows, benchCols = 1_000_000, 7
+
+var (
+	benchOnce sync.Once
+	benchDir  string
+	benchCSV  string
+	benchPQ   string
+)
+
+// benchFiles writes a 1,000,000-row, 7-column CSV file (about 84 MB: a
+// time column and six noisy states printed with 8 significant digits, as
+// loggers print them) and the same data as Parquet.
+func benchFiles(b *testing.B) (string, string) {
+	benchOnce.Do(func() {
+		dir, err := os.MkdirTemp("", "basin-bench")
+		if err != nil {
+			b.Fatal(err)
+		}
+		benchDir = dir
+		benchCSV = filepath.Join(dir, "bench.csv")
+		f, err := os.Create(benchCSV)
+		if err != nil {
+			b.Fatal(err)
+		}
+		w := bufio.NewWriterSize(f, 1<<20)
+		rng := rand.New(rand.NewPCG(1, 0))
+		mem := memory.NewGoAllocator()
+		fields := []arrow.Field{{Name: "t", Type: arrow.PrimitiveTypes.Float64}}
+		for j := 1; j < benchCols; j++ {
+			fields = append(fields, arrow.Field{Name: fmt.Sprintf("x%d", j), Type: arrow.PrimitiveTypes.Float64})
+		}
+		rb := array.NewRecordBuilder(mem, arrow.NewSchema(fields, nil))
+		w.WriteString("t")
+		for j := 1; j < benchCols; j++ {
+			fmt.Fprintf(w, ",x%d", j)
+		}
+		w.WriteString("\n")
+		var buf []byte
+		for i := range benchRows {
+			tv := float64(i) * 0.005
+			buf = strconv.AppendFloat(buf[:0], tv, 'f', 3, 64)
+			rb.Field(0).(*array.Float64Builder).Append(atof(string(buf)))
+			for j := 1; j < benchCols; j++ {
+				buf = append(buf, ',')
+				k := len(buf)
+				buf = strconv.AppendFloat(buf, rng.NormFloat64(), 'g', 8, 64)
+				rb.Field(j).(*array.Float64Builder).Append(atof(string(buf[k:])))
+			}
+			buf = append(buf, '\n')
+			w.Write(buf)
+		}
+		if err := w.Flush(); err != nil {
+			b.Fatal(err)
+		}
+		f.Close()
+		rec := rb.NewRecord()
+		benchPQ = filepath.Join(dir, "bench.parquet")
+		writeArrowParquet(b, benchPQ, rec, 128*1024)
+		rec.Release()
+		rb.Release()
+	})
+	return benchCSV, benchPQ
+}
+
+// naiveRead is the baseline: encoding/csv with ReuseRecord and
+// strconv.ParseFloat into column slices.
+func naiveRead(r io.Reader) ([][]float64, error) {
+	cr := csv.NewReader(bufio.NewReaderSize(r, 1<<16))
+	cr.ReuseRecord = true
+	if _, err := cr.Read(); err != nil {
+		return nil, err
+	}
+	cols := make([][]float64, benchCols)
+	for {
+		rec, err := cr.Read()
+		if err == io.EOF {
+			return cols, nil
+		}
+		if err != nil {
+			return nil, err
+		}
+		for j, s := range rec {
+			v, err := strconv.ParseFloat(s, 64)
+			if err != nil {
+				return nil, err
+			}
+			cols[j] = append(cols[j], v)
+		}
+	}
+}
+
+// peakHeap samples the live heap every millisecond while f runs and
+// returns the largest value seen above the heap before f.
+func peakHeap(f func()) uint64 {
+	runtime.GC()
+	s := []metrics.Sample{{Name: "/memory/classes/heap/objects:bytes"}}
+	metrics.Read(s)
+	base := s[0].Value.Uint64()
+	var peak atomic.Uint64
+	done := make(chan struct{})
+	go func() {
+		ss := []metrics.Sample{{Name: "/memory/classes/heap/objects:bytes"}}
+		t := time.NewTicker(time.Millisecond)
+		defer t.Stop()
+		for {
+			select {
+			case <-done:
+				return
+			case <-t.C:
+				metrics.Read(ss)
+				if v := ss[0].Value.Uint64(); v > peak.Load() {
+					peak.Store(v)
+				}
+			}
+		}
+	}()
+	f()
+	close(done)
+	metrics.Read(s)
+	if v := s[0].Value.Uint64(); v > peak.Load() {
+		peak.Store(v)
+	}
+	if p := peak.Load(); p > base {
+		return p - base
+	}
+	return 0
+}
+
+// BenchmarkReadCSV compares ReadCSV with the naive reader on the same
+// file in the same run; "basin" reports x-naive, its throughput ratio,
+// and peak-x-data, the peak heap over the float64 size of the data.
+func BenchmarkReadCSV(b *testing.B) {
+	path, _ := benchFiles(b)
+	st, err := os.Stat(path)
+	if err != nil {
+		b.Fatal(err)
+	}
+	dataBytes := float64(benchRows * benchCols * 8)
+	var naiveNs float64
+	b.Run("naive", func(b *testing.B) {
+		b.SetBytes(st.Size())
+		b.ReportAllocs()
+		for b.Loop() {
+			f, _ := os.Open(path)
+			if _, err := naiveRead(f); err != nil {
+				b.Fatal(err)
+			}
+			f.Close()
+		}
+		naiveNs = float64(b.Elapsed().Nanoseconds()) / float64(b.N)
+	})
+	b.Run("basin", func(b *testing.B) {
+		b.SetBytes(st.Size())
+		b.ReportAllocs()
+		var peak uint64
+		for b.Loop() {
+			p := peakHeap(func() {
+				f, _ := os.Open(path)
+				ds, err := ReadCSV(f, path, nil)
+				f.Close()
+				if err != nil || ds.Samples() != benchRows {
+					b.Fatal(err)
+				}
+			})
+			peak = max(peak, p)
+		}
+		ns := float64(b.Elapsed().Nanoseconds()) / float64(b.N)
+		if naiveNs > 0 {
+			b.ReportMetric(naiveNs/ns, "x-naive")
+		}
+		b.ReportMetric(float64(peak)/dataBytes, "peak-x-data")
+		b.ReportMetric(float64(peak)/1e6, "peak-MB")
+	})
+}
+
+// BenchmarkReadParquet reads the same data from Parquet (Arrow's writer,
+// 128 Ki-row groups, default compression).
+func BenchmarkReadParquet(b *testing.B) {
+	_, path := benchFiles(b)
+	st, err := os.Stat(path)
+	if err != nil {
+		b.Fatal(err)
+	}
+	b.SetBytes(st.Size())
+	b.ReportAllocs()
+	var peak uint64
+	for b.Loop() {
+		p := peakHeap(func() {
+			ds, err := ReadParquet(context.Background(), path, nil)
+			if err != nil || ds.Samples() != benchRows {
+				b.Fatal(err)
+			}
+		})
+		peak = max(peak, p)
+	}
+	b.ReportMetric(float64(peak)/float64(benchRows*benchCols*8), "peak-x-data")
+	b.ReportMetric(float64(benchRows)*float64(b.N)/b.Elapsed().Seconds()/1e6, "Mrows/s")
+}
+
+// BenchmarkParseFloat compares the fast path with strconv on typical cells.
+func BenchmarkParseFloat(b *testing.B) {
+	cells := [][]byte{[]byte("-0.12345678"), []byte("1.2345678e-05"), []byte("4999.995"), []byte("3")}
+	b.Run("basin", func(b *testing.B) {
+		b.ReportAllocs()
+		for b.Loop() {
+			for _, c := range cells {
+				parseFloat(c)
+			}
+		}
+	})
+	b.Run("strconv", func(b *testing.B) {
+		b.ReportAllocs()
+		for b.Loop() {
+			for _, c := range cells {
+				strconv.ParseFloat(string(c), 64)
+			}
+		}
+	})
+}
