@@ -3,19 +3,546 @@ package fit
 import (
 	"context"
 	"errors"
+	"fmt"
+	"math"
+	"math/rand/v2"
+	"strings"
 
 	"github.com/basin-dev/basin/ingest"
+	"gonum.org/v1/gonum/mat"
 )
 
 // CertifyOptions controls Certify. A nil *CertifyOptions means all defaults.
 type CertifyOptions struct {
-	Degree int    // even total degree of V; 0 means 2
-	Seed   uint64 // random seed for fill points; 0 means 1
+	// Degree is the even total degree D of V (monomials of degree 2..D);
+	// 0 means 2.
+	Degree int
+	// Seed seeds the fill points and Monte-Carlo shares; 0 means 1.
+	Seed uint64
+	// Growth caps the rounds that re-solve the LP on a larger level set;
+	// 0 means 8.
+	Growth int
+	// LPSamples caps the recorded samples (and their pairs) put into each
+	// LP, taken evenly along the runs; 0 means 3000. The level search
+	// always checks every sample.
+	LPSamples int
+	// Fill is the number of fill points drawn in the envelope for each LP;
+	// 0 means 1500.
+	Fill int
+	// Kappa multiplies the noise standard deviation of a V difference to
+	// give the tolerance on recorded pairs; 0 means 5.
+	Kappa float64
+	// ShareSamples is the number of Monte-Carlo points for the envelope
+	// share; 0 means 20000.
+	ShareSamples int
 }
+
+func (o *CertifyOptions) get() CertifyOptions {
+	var c CertifyOptions
+	if o != nil {
+		c = *o
+	}
+	if c.Degree == 0 {
+		c.Degree = 2
+	}
+	if c.Seed == 0 {
+		c.Seed = 1
+	}
+	if c.Growth <= 0 {
+		c.Growth = 8
+	}
+	if c.LPSamples <= 0 {
+		c.LPSamples = 3000
+	}
+	if c.Fill <= 0 {
+		c.Fill = 1500
+	}
+	if c.Kappa <= 0 {
+		c.Kappa = 5
+	}
+	if c.ShareSamples <= 0 {
+		c.ShareSamples = 20000
+	}
+	return c
+}
+
+// Errors of Certify for bad input.
+var (
+	// ErrMismatch: the data and the model do not describe the same states.
+	ErrMismatch = errors.New("data and model disagree")
+	// ErrOptions: an option is out of range.
+	ErrOptions = errors.New("bad certify option")
+)
+
+// Tunables of the search (not user-facing).
+const (
+	// noiseRadiusSigmas: the noise ball has radius noiseRadiusSigmas·|σ_z|
+	// (3σ of the measurement noise, common practice), at least
+	// minNoiseRadius in z (1% of the data's spread).
+	noiseRadiusSigmas = 3
+	minNoiseRadius    = 0.01
+	// growFactor: each growth round solves the LP on the points with
+	// V_best <= growFactor·c_best.
+	growFactor = 2.0
+	// minGain: a round must add this share of the best volume to count.
+	minGain = 0.01
+	// unstableTol: a Jacobian eigenvalue with real part above
+	// -unstableTol·(1+|A|) is not asymptotically stable.
+	unstableTol = 1e-9
+)
 
 // Certify fits a Lyapunov function for m's primary equilibrium on the runs
 // of ds and finds the largest certified level set. The verdict is
 // Inconclusive until package validate has checked it on held-out runs.
+//
+// V is a polynomial in z = (x - equilibrium)/scale, scale = m.Spread (or
+// the data's standard deviation), of the family of [CertifyOptions.Degree].
+// The start is the quadratic from the Lyapunov equation of the scaled
+// Jacobian with Q = I; each growth round solves the LP of [certRows] on
+// the samples and fill points of a larger level set and keeps the V whose
+// certified level set covers the largest share of the envelope.
+//
+// When no V is found (unstable linearisation, equilibrium outside the
+// envelope, infeasible or failed LP, too few samples for the degree) the
+// result has Found = false and a one-sentence Reason; that is not an
+// error. Errors are for bad input only (wrapping [ErrMismatch] or
+// [ErrOptions]) and for a cancelled ctx.
 func Certify(ctx context.Context, m *Model, ds *ingest.Dataset, opts *CertifyOptions) (*Certificate, error) {
-	return nil, errors.New("fit: Certify not built yet")
+	o := opts.get()
+	if o.Degree < 2 || o.Degree > 8 || o.Degree%2 != 0 {
+		return nil, fmt.Errorf("%w: V degree must be even, 2..8, got %d", ErrOptions, o.Degree)
+	}
+	if m == nil || ds == nil {
+		return nil, fmt.Errorf("%w: nil model or data", ErrMismatch)
+	}
+	if err := m.validate(); err != nil {
+		return nil, fmt.Errorf("%w: model: %v", ErrMismatch, err)
+	}
+	n := len(m.States)
+	if len(ds.States) != n {
+		return nil, fmt.Errorf("%w: model has %d states, data %d", ErrMismatch, n, len(ds.States))
+	}
+	for j, c := range ds.States {
+		if c.Name != m.States[j] {
+			return nil, fmt.Errorf("%w: state %d is %q in the model but %q in the data", ErrMismatch, j+1, m.States[j], c.Name)
+		}
+	}
+	if ds.Samples() == 0 {
+		return nil, fmt.Errorf("%w: no samples", ErrTooFewSamples)
+	}
+	xe := append([]float64(nil), m.Equilibrium...)
+	scale := certScale(m, ds)
+	cert := &Certificate{
+		Format: CertificateFormat, Verdict: Inconclusive, Strength: NoClaim,
+		Empirical: true, Caveat: Caveat,
+		States: append([]string(nil), m.States...), Units: append([]string(nil), m.Units...),
+		Equilibrium: xe, Scale: scale,
+		Settings: map[string]any{"v_degree": o.Degree, "seed": o.Seed, "growth": o.Growth,
+			"lp_samples": o.LPSamples, "fill": o.Fill, "kappa": o.Kappa},
+	}
+	cert.Region.Limit = LimitNone
+	noFind := func(reason string) (*Certificate, error) {
+		cert.Found = false
+		cert.Reason = reason
+		return cert, nil
+	}
+
+	// The linearisation, in z.
+	fe := NewFieldEvaluator(m)
+	jac := fe.JacobianTo(make([]float64, n*n), nil, xe)
+	az := make([]float64, n*n)
+	anorm := 0.0
+	for i := 0; i < n; i++ {
+		for j := 0; j < n; j++ {
+			az[i*n+j] = jac[i*n+j] * scale[j] / scale[i]
+			anorm = math.Max(anorm, math.Abs(az[i*n+j]))
+		}
+	}
+	var eig mat.Eigen
+	if !eig.Factorize(mat.NewDense(n, n, append([]float64(nil), az...)), mat.EigenNone) {
+		return noFind("the Jacobian's eigenvalues could not be computed, so no V was fitted")
+	}
+	maxRe := math.Inf(-1)
+	for _, v := range eig.Values(nil) {
+		maxRe = math.Max(maxRe, real(v))
+	}
+	if maxRe > unstableTol*(1+anorm) {
+		cert.Contradicted = true
+		cert.Contradiction = fmt.Sprintf("the fitted linearisation at the equilibrium is unstable (an eigenvalue has real part %+.3g 1/s)", maxRe)
+		return noFind("No V was fitted: " + cert.Contradiction + ".")
+	}
+	if maxRe > -unstableTol*(1+anorm) {
+		return noFind("No V was fitted: the fitted linearisation at the equilibrium is not asymptotically stable (an eigenvalue lies on the imaginary axis), so neither the Lyapunov equation nor the LP has a strict start.")
+	}
+
+	// The runs in z, the envelope and the checker.
+	ck, allZ, err := newChecker(ctx, m, ds, xe, scale, o)
+	if err != nil {
+		return nil, err
+	}
+	ck.az = az
+	_ = allZ
+	cert.NoiseRadius = ck.r0
+	fam := ck.fam
+	if nMin := 3 * fam.Len(); ds.Samples() < nMin {
+		return noFind(fmt.Sprintf("No V was fitted: V of degree %d has %d coefficients, and %d samples are too few for it (at least %d needed); try a lower --v-degree.",
+			o.Degree, fam.Len(), ds.Samples(), nMin))
+	}
+	if !ck.env.inside(make([]float64, n)) {
+		return noFind("No V was fitted: the equilibrium lies outside the envelope the data cover.")
+	}
+
+	// Start: the Lyapunov equation, Q = I.
+	p, err := Lyapunov(az, eye(n), n)
+	if err != nil {
+		return noFind("No V was fitted: the Lyapunov equation of the linearisation is singular.")
+	}
+	c0 := fam.quadratic(p)
+	tr := fam.trace(c0)
+	for k := range c0 {
+		c0[k] /= tr
+	}
+	type cand struct {
+		c      []float64
+		g      float64
+		res    levelResult
+		source string
+	}
+	best := cand{c: c0, res: ck.level(c0), source: "Lyapunov equation"}
+	best.g = best.res.margin
+	rng := rand.New(rand.NewPCG(o.Seed, 0))
+	solves, rounds, rowsUsed := 0, 0, 0
+	var lastErr string
+	grown := false
+	capped := false
+	stale := 0
+	firstContra := false
+	for round := 0; round < o.Growth; round++ {
+		if err := ctx.Err(); err != nil {
+			return nil, err
+		}
+		target := growFactor * best.res.level
+		if !best.res.ok {
+			// Fall back to a small ellipse a few noise radii wide.
+			target = math.Max(best.res.vball*9, best.res.level)
+		}
+		rows := ck.lpRows(best.c, target, o, rng)
+		if rows.np < 3*fam.Len() {
+			lastErr = "too few samples in the level set for the LP"
+			break
+		}
+		out := solveCertLP(fam, rows)
+		solves++
+		rounds += out.rounds
+		rowsUsed = max(rowsUsed, out.rows)
+		if out.err != nil {
+			if certDebug != nil {
+				certDebug("round %d: %v", round, out.err)
+			}
+			lastErr = out.err.Error()
+			break
+		}
+		if !(out.g > 0) {
+			if solves == 1 && out.g < 0 && !best.res.ok {
+				firstContra = true
+				cert.Margin = out.g
+			}
+			lastErr = fmt.Sprintf("best margin %.3g <= 0", out.g)
+			break
+		}
+		res := ck.level(out.c)
+		if certDebug != nil {
+			certDebug("round %d target %.4g np %d g %.4g -> ok %v level %.4g share %.4f limit %s at %v (best %.4f) c %.3g", round, target, rows.np, out.g, res.ok, res.level, res.share, res.limit, res.limitZ, best.res.share, out.c)
+		}
+		if res.ok && (!best.res.ok || res.share > best.res.share*(1+minGain)+1e-12) {
+			best = cand{c: out.c, g: out.g, res: res, source: "LP"}
+			grown = true
+			stale = 0
+			if round == o.Growth-1 {
+				capped = true
+			}
+			continue
+		}
+		stale++
+		if stale >= 2 {
+			break
+		}
+	}
+	cert.Region.LPRounds = rounds
+	cert.Region.LPRows = rowsUsed
+	cert.Region.Solves = solves
+	if !best.res.ok {
+		if firstContra {
+			cert.Contradicted = true
+			cert.Contradiction = fmt.Sprintf("no V of degree %d falls along the recorded runs near the equilibrium (the LP's best margin is %.3g < 0, so V must rise)", o.Degree, cert.Margin)
+			return noFind("No V was found: " + cert.Contradiction + ".")
+		}
+		reason := best.res.reason
+		if lastErr != "" {
+			reason += "; the LP found none either (" + lastErr + ")"
+		}
+		return noFind("No V was found: " + reason + ".")
+	}
+	_ = grown
+
+	// The certificate.
+	r := best.res
+	cert.Found = true
+	cert.V = fam.poly(best.c)
+	cert.Level = r.level
+	cert.Margin = best.g
+	cert.Tolerance = r.tolerance
+	cert.Box = make([][2]float64, n)
+	cert.Region.Extent = make([][2]float64, n)
+	for j := 0; j < n; j++ {
+		cert.Box[j] = [2]float64{xe[j] + scale[j]*r.lo[j], xe[j] + scale[j]*r.hi[j]}
+	}
+	ext := ck.extent(best.c, r)
+	for j := 0; j < n; j++ {
+		cert.Region.Extent[j] = [2]float64{xe[j] + scale[j]*ext[0][j], xe[j] + scale[j]*ext[1][j]}
+	}
+	cert.Region.EnvelopeShare = r.share
+	vol := 1.0
+	for _, s := range scale {
+		vol *= s
+	}
+	cert.Region.EnvelopeVolume = ck.env.volume() * vol
+	cert.Region.Volume = r.share * cert.Region.EnvelopeVolume
+	cert.Region.Limit = r.limit
+	if capped {
+		cert.Region.Limit = LimitGrowth
+	}
+	if r.limitZ != nil {
+		cert.Region.LimitPoint = make([]float64, n)
+		for j := range r.limitZ {
+			cert.Region.LimitPoint[j] = xe[j] + scale[j]*r.limitZ[j]
+		}
+	}
+	cert.Region.LimitRun = r.limitRun
+	cert.RadiallyUnbounded = fam.radiallyUnbounded(best.c, rand.New(rand.NewPCG(o.Seed, 1)))
+	cert.InSample = InSample{Pairs: r.pairs, DecreaseFraction: r.decrease, FillPoints: o.Fill}
+	limit := r.limit
+	if capped {
+		limit = LimitGrowth
+	}
+	where := ""
+	if cert.Region.LimitPoint != nil {
+		where = " at " + formatPoint(cert.Region.LimitPoint, m.States, m.Units)
+		if r.limitRun != "" {
+			where += " (run " + r.limitRun + ")"
+		}
+	}
+	cert.Reason = fmt.Sprintf("V of degree %d (from the %s, margin %.3g) decreases on the fit runs; its level set V <= %.4g covers %.1f%% of the envelope, limited by %s%s; not yet checked on held-out runs.",
+		o.Degree, best.source, best.g, r.level, 100*r.share, limit, where)
+	return cert, nil
+}
+
+// certDebug, when set (tests only), receives one line per growth round.
+var certDebug func(format string, a ...any)
+
+// formatPoint prints a point with state names and units.
+func formatPoint(x []float64, names, units []string) string {
+	parts := make([]string, len(x))
+	for j, v := range x {
+		u := ""
+		if j < len(units) && units[j] != "" {
+			u = " " + units[j]
+		}
+		parts[j] = fmt.Sprintf("%s=%.4g%s", names[j], v, u)
+	}
+	return strings.Join(parts, ", ")
+}
+
+// certScale returns the per-state scale of z: the model's Spread when it
+// is usable, else the data's standard deviation (1 for a constant state).
+func certScale(m *Model, ds *ingest.Dataset) []float64 {
+	n := len(m.States)
+	s := make([]float64, n)
+	ok := len(m.Spread) == n
+	for j := 0; ok && j < n; j++ {
+		ok = m.Spread[j] > 0 && !math.IsInf(m.Spread[j], 0) && !math.IsNaN(m.Spread[j])
+	}
+	if ok {
+		copy(s, m.Spread)
+		return s
+	}
+	for j := 0; j < n; j++ {
+		var sum, sq, cnt float64
+		for i := range ds.Runs {
+			for _, v := range ds.Runs[i].X[j] {
+				sum += v
+				sq += v * v
+				cnt++
+			}
+		}
+		mean := sum / cnt
+		sd := math.Sqrt(math.Max(0, sq/cnt-mean*mean))
+		if !(sd > 0) {
+			sd = 1
+		}
+		s[j] = sd
+	}
+	return s
+}
+
+// newChecker converts the runs to z and builds the envelope and checker.
+func newChecker(ctx context.Context, m *Model, ds *ingest.Dataset, xe, scale []float64, o CertifyOptions) (*checker, []float64, error) {
+	n := len(xe)
+	var all []float64
+	runs := make([]zRun, 0, len(ds.Runs))
+	for i := range ds.Runs {
+		if err := ctx.Err(); err != nil {
+			return nil, nil, err
+		}
+		r := &ds.Runs[i]
+		if len(r.X) != n {
+			return nil, nil, fmt.Errorf("%w: run %s has %d states, want %d", ErrMismatch, r.Name, len(r.X), n)
+		}
+		zr := zRun{name: r.Name, t: r.T, z: make([]float64, n*len(r.T))}
+		for k := range r.T {
+			for j := 0; j < n; j++ {
+				zr.z[k*n+j] = (r.X[j][k] - xe[j]) / scale[j]
+			}
+		}
+		all = append(all, zr.z...)
+		runs = append(runs, zr)
+	}
+	env := newEnvelope(all, n)
+	for i := range runs {
+		runs[i].cell = make([]int32, len(runs[i].t))
+		for k := range runs[i].t {
+			runs[i].cell[k] = int32(env.cellOf(runs[i].z[k*n : (k+1)*n]))
+		}
+	}
+	sigma := make([]float64, n)
+	s2 := 0.0
+	for j := 0; j < n; j++ {
+		if j < len(m.Noise) && m.Noise[j] > 0 && !math.IsInf(m.Noise[j], 0) {
+			sigma[j] = m.Noise[j] / scale[j]
+		}
+		s2 += sigma[j] * sigma[j]
+	}
+	var others [][]float64
+	for i, e := range m.Equilibria {
+		if len(e.Point) != n {
+			continue
+		}
+		z := make([]float64, n)
+		d := 0.0
+		for j := range z {
+			z[j] = (e.Point[j] - xe[j]) / scale[j]
+			d += z[j] * z[j]
+		}
+		if i == 0 && d < 1e-12 {
+			continue // the primary one
+		}
+		if d < 1e-12 {
+			continue
+		}
+		others = append(others, z)
+	}
+	depth, extra := 1, 1
+	switch {
+	case n <= 2:
+		depth, extra = 3, 6
+	case n == 3:
+		depth, extra = 2, 3
+	}
+	ck := &checker{
+		fam: newVFamily(n, o.Degree), zf: newZField(m, xe, scale), env: env, runs: runs,
+		others: others, sigma: sigma,
+		r0:    math.Max(noiseRadiusSigmas*math.Sqrt(s2), minNoiseRadius),
+		kappa: o.Kappa, maxDepth: depth, extraDepth: extra, share: o.ShareSamples,
+		rng: rand.New(rand.NewPCG(o.Seed, 2)),
+	}
+	return ck, all, nil
+}
+
+// lpRows builds the LP on the recorded samples (every stride-th) and fill
+// points with V_prev(z) <= target, outside the noise ball. Pair
+// tolerances use V_prev's gradient (V has unit trace in both).
+func (ck *checker) lpRows(prev []float64, target float64, o CertifyOptions, rng *rand.Rand) *certRows {
+	n := ck.fam.n
+	ve := newVEval(ck.fam, prev)
+	rows := newCertRows(ck.fam)
+	total := 0
+	for i := range ck.runs {
+		total += len(ck.runs[i].t)
+	}
+	stride := max(1, total/o.LPSamples)
+	f := make([]float64, n)
+	g := make([]float64, n)
+	r02 := ck.r0 * ck.r0
+	idx := 0
+	for ri := range ck.runs {
+		r := &ck.runs[ri]
+		m := len(r.t)
+		for k := 0; k < m; k++ {
+			idx++
+			if idx%stride != 0 {
+				continue
+			}
+			z := r.z[k*n : (k+1)*n]
+			if norm2(z) <= r02 {
+				continue
+			}
+			v := ve.valueGrad(g, z)
+			if !(v <= target) {
+				continue
+			}
+			rows.addPoint(z, ck.zf.evalTo(f, z))
+			if k+1 < m {
+				rows.addPair(z, r.z[(k+1)*n:(k+2)*n], r.t[k+1]-r.t[k], ck.pairTol(g))
+			}
+		}
+	}
+	z := make([]float64, n)
+	for tries := 0; tries < 20*o.Fill && rows.np < o.Fill+len(rows.dt); tries++ {
+		ck.env.randomTo(z, rng)
+		if norm2(z) <= r02 || !(ve.value(z) <= target) {
+			continue
+		}
+		rows.addPoint(z, ck.zf.evalTo(f, z))
+	}
+	return rows
+}
+
+// extent returns the bounds, in z, of the checked points (samples and
+// cell centres) inside the region.
+func (ck *checker) extent(c []float64, r levelResult) [2][]float64 {
+	n := ck.fam.n
+	ve := newVEval(ck.fam, c)
+	lo, hi := make([]float64, n), make([]float64, n)
+	for j := range lo {
+		lo[j], hi[j] = math.Inf(1), math.Inf(-1)
+	}
+	add := func(z []float64) {
+		for j, v := range z {
+			if v < r.lo[j] || v > r.hi[j] {
+				return
+			}
+		}
+		if ve.value(z) > r.level {
+			return
+		}
+		for j, v := range z {
+			lo[j], hi[j] = math.Min(lo[j], v), math.Max(hi[j], v)
+		}
+	}
+	for ri := range ck.runs {
+		zs := ck.runs[ri].z
+		for k := 0; k+n <= len(zs); k += n {
+			add(zs[k : k+n])
+		}
+	}
+	z := make([]float64, n)
+	for _, cell := range ck.env.cells {
+		add(ck.env.centerTo(z, cell))
+	}
+	for j := range lo {
+		if lo[j] > hi[j] {
+			lo[j], hi[j] = 0, 0
+		}
+	}
+	return [2][]float64{lo, hi}
 }

@@ -82,3 +82,12 @@ func symEigen(s []float64, n int) []float64 {
 	}
 	return es.Values(nil)
 }
+
+// eye returns the n×n identity, row-major.
+func eye(n int) []float64 {
+	q := make([]float64, n*n)
+	for i := 0; i < n; i++ {
+		q[i*n+i] = 1
+	}
+	return q
+}

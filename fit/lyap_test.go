@@ -30,7 +30,7 @@ func TestLyapunovReference(t *testing.T) {
 			109.0 / 60, 23.0 / 20, 1.0 / 12, 23.0 / 20, 241.0 / 120, 3.0 / 20, 1.0 / 12, 3.0 / 20, 13.0 / 120}},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
-			q := identity(tc.n)
+			q := eye(tc.n)
 			p, err := Lyapunov(tc.a, q, tc.n)
 			if err != nil {
 				t.Fatal(err)
@@ -51,7 +51,7 @@ func TestLyapunovRandomStable(t *testing.T) {
 	for trial := 0; trial < 40; trial++ {
 		n := 2 + trial%5
 		a := randomStable(rng, n)
-		q := identity(n)
+		q := eye(n)
 		p, err := Lyapunov(a, q, n)
 		if err != nil {
 			t.Fatal(err)
@@ -93,7 +93,7 @@ func TestLyapunovRandomStable(t *testing.T) {
 
 func TestLyapunovSingular(t *testing.T) {
 	// Eigenvalues ±i sum to zero: no unique solution.
-	if _, err := Lyapunov([]float64{0, 1, -1, 0}, identity(2), 2); err == nil {
+	if _, err := Lyapunov([]float64{0, 1, -1, 0}, eye(2), 2); err == nil {
 		t.Fatal("want an error for a centre")
 	}
 }
@@ -168,14 +168,6 @@ func lyapByEigen(l []complex128, w *mat.CDense, n int) []float64 {
 
 func cabs(c complex128) float64    { return math.Hypot(real(c), imag(c)) }
 func conj(c complex128) complex128 { return complex(real(c), -imag(c)) }
-
-func identity(n int) []float64 {
-	q := make([]float64, n*n)
-	for i := 0; i < n; i++ {
-		q[i*n+i] = 1
-	}
-	return q
-}
 
 // randomStable returns a random n×n matrix shifted so that its spectral
 // abscissa is at most -0.1.

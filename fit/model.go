@@ -269,6 +269,12 @@ type Certificate struct {
 	InSample InSample `json:"in_sample"`
 	// Settings records the options used.
 	Settings map[string]any `json:"settings,omitempty"`
+	// Contradicted says the data contradict stability of the equilibrium
+	// (an unstable linearisation, or no V of the family can fall along
+	// the recorded runs near it: the LP's best margin is negative), so
+	// validation can say rejected; Contradiction says why.
+	Contradicted  bool   `json:"contradicted"`
+	Contradiction string `json:"contradiction,omitempty"`
 }
 
 // Region describes the certified level set.
@@ -285,6 +291,12 @@ type Region struct {
 	LimitRun   string    `json:"limit_run,omitempty"`
 	LPRounds   int       `json:"lp_rounds"`
 	LPRows     int       `json:"lp_rows"`
+	// Volume is the region's volume (Monte Carlo, inside the envelope) in
+	// the product of the states' units; EnvelopeVolume the envelope's.
+	Volume         float64 `json:"volume"`
+	EnvelopeVolume float64 `json:"envelope_volume"`
+	// Solves counts the certificate LPs solved while growing the region.
+	Solves int `json:"lp_solves"`
 }
 
 // InSample holds in-sample figures of the certificate on the fit runs.
