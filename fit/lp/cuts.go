@@ -16,10 +16,11 @@ type CutOptions struct {
 	// Solve controls each interior-point solve; nil means defaults.
 	Solve *Options
 	// Initial is the number of rows in the first restricted problem,
-	// spread evenly over the index range; 0 means max(200, 10·unknowns).
+	// spread evenly over the index range; 0 means
+	// max(20·unknowns, min(rows/10, 4000)).
 	Initial int
 	// Batch is the largest number of violated rows added per round, the
-	// most violated first; 0 means max(200, 4·unknowns).
+	// most violated first; 0 means half the initial number.
 	Batch int
 	// Tol is the tolerance on a row's violation relative to its
 	// magnitude: row i counts as violated by x when
@@ -88,10 +89,10 @@ func SolveCuts(c []float64, rows Rows, lower, upper []float64, opts *CutOptions)
 		panic(fmt.Sprintf("lp: %d unknowns but %d lower and %d upper bounds", n, len(lower), len(upper)))
 	}
 	if o.Initial <= 0 {
-		o.Initial = max(4000, 10*n)
+		o.Initial = max(20*n, min(m/10, 4000))
 	}
 	if o.Batch <= 0 {
-		o.Batch = max(2000, 4*n)
+		o.Batch = max(1, o.Initial/2)
 	}
 	s, err := newIPM(c, lower, upper, min(m, o.Initial+4*o.Batch))
 	if err != nil {

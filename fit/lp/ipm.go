@@ -3,6 +3,8 @@ package lp
 import (
 	"fmt"
 	"math"
+	"runtime"
+	"sync"
 
 	"gonum.org/v1/gonum/blas"
 	"gonum.org/v1/gonum/blas/blas64"
@@ -12,15 +14,16 @@ import (
 
 // Solver constants (not user-facing).
 const (
-	stepFrac    = 0.99  // fraction of the step to the boundary
-	regStart    = 1e-13 // diagonal shift of the normal matrix, relative to each diagonal entry
-	regFloor    = 1e-3  // the shift's floor, relative to regStart times the mean diagonal entry
-	refineSteps = 3     // iterative refinement of each normal-equations solve
-	regGrow     = 100   // shift growth after a failed factorisation
-	regTries    = 8     // factorisation attempts per iteration
-	stallIters  = 8     // iterations with tiny steps before giving up
-	tinyStep    = 1e-10 // a step this short makes no progress
-	minDiagonal = 1e-300
+	stepFrac     = 0.99  // fraction of the step to the boundary
+	regStart     = 1e-13 // diagonal shift of the normal matrix, relative to each diagonal entry
+	regFloor     = 1e-3  // the shift's floor, relative to regStart times the mean diagonal entry
+	refineSteps  = 3     // iterative refinement of each normal-equations solve
+	regGrow      = 100   // shift growth after a failed factorisation
+	regTries     = 8     // factorisation attempts per iteration
+	stallIters   = 8     // iterations with tiny steps before giving up
+	tinyStep     = 1e-10 // a step this short makes no progress
+	minDiagonal  = 1e-300
+	parallelWork = 1 << 21 // multiply-adds above which the normal matrix is formed in parallel
 )
 
 // Solve minimises p.C'x subject to p.G x <= p.H and p.Lower <= x <= p.Upper.
@@ -82,7 +85,8 @@ type ipm struct {
 	lb  []float64 // the bounds, per entry of lo and up
 	ub  []float64
 
-	last state // the final iterate of run
+	last state     // the final iterate of run
+	part []float64 // per-worker partial normal matrices
 }
 
 func newIPM(c, lower, upper []float64, rowsHint int) (*ipm, error) {
@@ -304,13 +308,7 @@ func (s *ipm) run(opts *Options) *Result {
 		for i := 0; i < m; i++ {
 			floats.ScaleTo(bw[i*n:(i+1)*n], math.Sqrt(d[i]), s.g[i*n:(i+1)*n])
 		}
-		for i := range nm0 {
-			nm0[i] = 0
-		}
-		if m > 0 {
-			blas64.Syrk(blas.Trans, 1, blas64.General{Rows: m, Cols: n, Stride: n, Data: bw},
-				0, blas64.Symmetric{N: n, Stride: n, Uplo: blas.Upper, Data: nm0})
-		}
+		s.normal(nm0, bw, m)
 		for k, j := range s.lo {
 			nm0[j*n+j] += d[m+k]
 		}
@@ -559,4 +557,47 @@ func (s *ipm) fill(res *Result, rows int, row func(i int) ([]float64, float64)) 
 	res.DualResidual = floats.Norm(dual, math.Inf(1))
 	res.Gap = res.Objective - dobj
 	res.RelGap = res.Gap / (1 + math.Abs(res.Objective))
+}
+
+// normal stores B'B in the upper triangle of dst (n x n), where B is the
+// first m rows of bw (row-major, n columns). Large products are split by
+// rows over the available cores and summed.
+func (s *ipm) normal(dst, bw []float64, m int) {
+	n := s.n
+	for i := range dst {
+		dst[i] = 0
+	}
+	if m == 0 || n == 0 {
+		return
+	}
+	sym := func(c []float64) blas64.Symmetric {
+		return blas64.Symmetric{N: n, Stride: n, Uplo: blas.Upper, Data: c}
+	}
+	gen := func(lo, hi int) blas64.General {
+		return blas64.General{Rows: hi - lo, Cols: n, Stride: n, Data: bw[lo*n : hi*n]}
+	}
+	w := min(runtime.GOMAXPROCS(0), m/64+1)
+	if w < 2 || m*n*n/2 < parallelWork {
+		blas64.Syrk(blas.Trans, 1, gen(0, m), 0, sym(dst))
+		return
+	}
+	if len(s.part) < (w-1)*n*n {
+		s.part = make([]float64, (w-1)*n*n)
+	}
+	var wg sync.WaitGroup
+	for k := 0; k < w; k++ {
+		c := dst
+		if k > 0 {
+			c = s.part[(k-1)*n*n : k*n*n]
+		}
+		wg.Add(1)
+		go func(k int, c []float64) {
+			defer wg.Done()
+			blas64.Syrk(blas.Trans, 1, gen(k*m/w, (k+1)*m/w), 0, sym(c))
+		}(k, c)
+	}
+	wg.Wait()
+	for k := 1; k < w; k++ {
+		floats.Add(dst, s.part[(k-1)*n*n:k*n*n])
+	}
 }

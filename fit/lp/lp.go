@@ -22,9 +22,17 @@
 // caller. Rows are scaled to unit infinity norm internally; every figure in
 // the [Result] refers to the problem as given.
 //
+// Unbounded means, as usual for interior-point methods, that the dual is
+// infeasible: the returned ray d has c'd < 0 and keeps every row and bound
+// (Gd <= 0, and d respects the finite bounds), so the problem is unbounded
+// whenever it is feasible at all.
+//
 // [SolveCuts] is the cutting-plane loop over a [Rows] source that is read
-// on demand, one pass per round, in parallel. Memory is the active rows
-// times the unknowns, plus one float64 and one byte per row.
+// on demand, one pass per round, in parallel. Rounds before the last are
+// solved to a loose tolerance (1e-5); the last one, and any certificate of
+// infeasibility, at the requested one. Memory is about twice the active
+// rows times the unknowns, plus a few words per row (violations, the
+// active flags, the candidate list).
 package lp
 
 import (

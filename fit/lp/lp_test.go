@@ -508,3 +508,43 @@ func TestSolveBadInput(t *testing.T) {
 		t.Errorf("h = +Inf row: %v %v", r, err)
 	}
 }
+
+// TestSolveEdgeCases: degenerate shapes with answers that follow from the
+// definitions (exact, computed by hand).
+func TestSolveEdgeCases(t *testing.T) {
+	inf := math.Inf(1)
+	for _, tc := range []struct {
+		name   string
+		p      *lp.Problem
+		status lp.Status
+		obj    float64
+	}{
+		{"box only", &lp.Problem{C: []float64{1, -2}, Lower: []float64{-1, -1}, Upper: []float64{1, 3}}, lp.Optimal, -7},
+		{"fixed unknown", &lp.Problem{C: []float64{1, 1}, G: []float64{-1, -1}, H: []float64{-3},
+			Lower: []float64{2, 0}, Upper: []float64{2, inf}}, lp.Optimal, 3},
+		{"zero row, h >= 0", &lp.Problem{C: []float64{1}, G: []float64{0}, H: []float64{0}, Lower: []float64{0}}, lp.Optimal, 0},
+		{"zero row, h < 0", &lp.Problem{C: []float64{1}, G: []float64{0}, H: []float64{-1}, Lower: []float64{0}}, lp.Infeasible, 0},
+		{"duplicate rows", &lp.Problem{C: []float64{-1}, G: []float64{1, 1, 1, 2}, H: []float64{1, 1, 1, 2}}, lp.Optimal, -1},
+		{"no unknowns, feasible", &lp.Problem{H: []float64{1}}, lp.Optimal, 0},
+		{"no unknowns, infeasible", &lp.Problem{H: []float64{-1}}, lp.Infeasible, 0},
+		{"zero objective", &lp.Problem{C: []float64{0, 0}, G: []float64{1, 1}, H: []float64{1}, Lower: zeros(2)}, lp.Optimal, 0},
+		{"scaled rows 1e6 apart", &lp.Problem{C: []float64{-1, -1}, G: []float64{1e6, 0, 0, 1e-6}, H: []float64{1e6, 1e-6}}, lp.Optimal, -2},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			r, err := lp.Solve(tc.p, nil)
+			if r == nil || r.Status != tc.status {
+				t.Fatalf("got %v, %v; want %v", r, err, tc.status)
+			}
+			switch tc.status {
+			case lp.Optimal:
+				// Default tolerance 1e-8 relative.
+				if err != nil || math.Abs(r.Objective-tc.obj) > 1e-7*(1+math.Abs(tc.obj)) {
+					t.Errorf("objective %g (%v), want %g", r.Objective, err, tc.obj)
+				}
+				checkKKT(t, tc.p, r, 1e-7)
+			case lp.Infeasible:
+				checkFarkas(t, tc.p, r.Farkas, 1e-7)
+			}
+		})
+	}
+}
