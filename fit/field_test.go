@@ -476,3 +476,42 @@ func TestClassify(t *testing.T) {
 		}
 	}
 }
+
+// TestFieldOffset: a thermal loop logged in kelvin near 300 K with
+// T' = -0.5 (T - 300) - 0.1 (T - 300)^3 + 0.2 h, h' = -h. Raw monomials of
+// T are nearly collinear here, so the threshold works in centred
+// coordinates and the raw equations are their exact expansion: they must
+// reproduce the true field on the data (1e-4 relative to its range; clean
+// data, smallest window) and the equilibrium (300, 0), a stable node.
+func TestFieldOffset(t *testing.T) {
+	sys := system{name: "thermal", states: []string{"T", "h"}, f: func(d, x []float64) {
+		u := x[0] - 300
+		d[0] = -0.5*u - 0.1*u*u*u + 0.2*x[1]
+		d[1] = -x[1]
+	}}
+	ds := simulate(sys, [][]float64{{303, 1}, {297, 0.5}, {301, -1}, {298.5, 2}, {302, -0.5}, {299, 0}}, 10, 0.01, 5, 0, 1)
+	m, err := Field(context.Background(), ds, &FieldOptions{Bootstrap: -1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if m.Basis != "centred" {
+		t.Errorf("basis %q, want centred (condition %g)", m.Basis, m.Condition)
+	}
+	fe := NewFieldEvaluator(m)
+	got, want := make([]float64, 2), make([]float64, 2)
+	for _, r := range ds.Runs {
+		for i := 0; i < r.Len(); i += 37 {
+			x := []float64{r.X[0][i], r.X[1][i]}
+			fe.EvalTo(got, x)
+			sys.f(want, x)
+			for j := range got {
+				if d := got[j] - want[j]; d > 1e-4*5 || d < -1e-4*5 { // the field spans about 5 K/s
+					t.Fatalf("at %v: f = %v, want %v", x, got, want)
+				}
+			}
+		}
+	}
+	if dist(m.Equilibrium, []float64{300, 0}) > 1e-3 || m.Equilibria[0].Class != ClassStableNode {
+		t.Errorf("equilibrium %v %q", m.Equilibrium, m.Equilibria[0].Class)
+	}
+}

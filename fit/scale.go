@@ -11,10 +11,12 @@ import (
 //
 // The normal equations are accumulated in centred, scaled coordinates
 // z_j = (x_j - c_j)/s_j, where c_j is the median of state j over all
-// samples and s_j a robust spread (the interquartile range over 1.349, the
-// standard deviation of a normal with that IQR; the standard deviation when
-// the IQR is zero). In z the monomials are well conditioned whatever the
-// units and offsets of the logs.
+// samples and s_j the larger of the interquartile range over 1.349 (the
+// standard deviation of a normal with that IQR) and the standard
+// deviation: logs of settling runs pile most samples at the equilibrium,
+// where the IQR alone collapses and the transients, which carry the
+// dynamics, would sit at tens of spreads. In z the monomials are well
+// conditioned whatever the units and offsets of the logs.
 //
 // Sparsity, however, is a property of the basis in which terms are
 // counted: a model that is sparse in raw monomials (Lorenz: x y, x z) is
@@ -25,8 +27,8 @@ import (
 // 300 K: offsets dwarf the spread). The result is reported in raw
 // coordinates either way, by exact expansion of the products ([rawPoly]).
 
-// robustScale returns the median and the robust spread of xs (which it
-// may reorder: pass a copy). It returns spread 0 for a constant sample.
+// robustScale returns the median and the spread of xs (which it may
+// reorder: pass a copy). It returns spread 0 for a constant sample.
 func robustScale(xs []float64) (centre, spread float64) {
 	if len(xs) == 0 {
 		return 0, 0
@@ -42,9 +44,6 @@ func robustScale(xs []float64) (centre, spread float64) {
 	}
 	centre = q(0.5)
 	spread = (q(0.75) - q(0.25)) / 1.349
-	if spread > 0 {
-		return centre, spread
-	}
 	mean := 0.0
 	for _, x := range xs {
 		mean += x
@@ -54,7 +53,7 @@ func robustScale(xs []float64) (centre, spread float64) {
 	for _, x := range xs {
 		ss += (x - mean) * (x - mean)
 	}
-	return centre, math.Sqrt(ss / float64(len(xs)))
+	return centre, math.Max(spread, math.Sqrt(ss/float64(len(xs))))
 }
 
 // binom returns the binomial coefficient C(n, k) for small n.

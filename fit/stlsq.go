@@ -361,15 +361,14 @@ func (pr *problem) fitAll(xi [][]float64, sv *solver, gh, bh, col []float64, s *
 	return terms
 }
 
-// heldout returns, per equation, the sum of squared errors of xi on the
-// group sums h over its total sum of squares about its mean (1 = no better
-// than a constant), in normalised units.
+// heldout stores, per equation, the mean squared error of xi on the group
+// sums h in units of the derivative's variance over all data (1 = no
+// better than its mean).
 func (pr *problem) heldout(dst []float64, xi [][]float64, h *groupSums) {
 	p, n := pr.p, pr.n
 	for i := 0; i < n; i++ {
 		sd := pr.ySD[i]
 		yy := h.yy[i] / (sd * sd)
-		ys := h.ys[i] / sd
 		x := xi[i]
 		// SSE = yy - 2 xᵀb + xᵀGx with b, G the normalised (unscaled by N) sums.
 		xb, xgx := 0.0, 0.0
@@ -388,12 +387,10 @@ func (pr *problem) heldout(dst []float64, xi [][]float64, h *groupSums) {
 			}
 			xgx += x[k] * q
 		}
-		sse := math.Max(0, yy-2*xb+xgx)
-		sst := yy - ys*ys/float64(h.rows)
-		if sst <= 1e-12*yy || sst <= 0 {
-			sst = math.Max(yy, 1e-300)
-		}
-		dst[i] = sse / sst
+		// Mean squared error over the variance of this derivative over all
+		// data (the targets are scaled to unit variance): a held-out run's
+		// own variance can be zero (a run that starts at rest).
+		dst[i] = math.Max(0, yy-2*xb+xgx) / float64(h.rows)
 	}
 }
 
