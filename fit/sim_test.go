@@ -127,9 +127,18 @@ var vanderpol = system{
 }
 
 // compare returns whether the model's support equals the true one and the
-// largest relative coefficient error over the true terms.
+// largest relative coefficient error over the true terms (1 for a missed
+// term).
 func compare(m *Model, sys system) (support bool, maxRel float64) {
+	support, maxRel, _, _ = compareCount(m, sys)
+	return support, maxRel
+}
+
+// compareCount is compare that also counts the missed and the extra terms;
+// maxRel is then over the true terms that were found.
+func compareCount(m *Model, sys system) (support bool, maxRel float64, missed, extra int) {
 	support = true
+	found := 0.0
 	for i, eq := range m.Equations {
 		got := map[string]float64{}
 		for k, e := range eq.Exponents {
@@ -139,18 +148,23 @@ func compare(m *Model, sys system) (support bool, maxRel float64) {
 			g, ok := got[name]
 			if !ok {
 				support = false
-				maxRel = math.Max(maxRel, 1)
+				missed++
 				continue
 			}
-			maxRel = math.Max(maxRel, math.Abs(g-want)/math.Abs(want))
+			found = math.Max(found, math.Abs(g-want)/math.Abs(want))
 		}
 		for name := range got {
 			if _, ok := sys.true[i][name]; !ok {
 				support = false
+				extra++
 			}
 		}
 	}
-	return support, maxRel
+	maxRel = found
+	if missed > 0 {
+		maxRel = 1
+	}
+	return support, maxRel, missed, extra
 }
 
 func monoName(e []int, names []string) string {
