@@ -167,8 +167,9 @@ func TestCertLPCutsMatchWhole(t *testing.T) {
 
 // BenchmarkCertificateLP runs SolveCuts on the certificate LP shapes of the
 // task, against the time HiGHS took inside a row-generation loop on the
-// same shapes (the task's table; "xHiGHS" is our time over that anchor).
-// SetBytes is the size of the whole dense LP, so MB/s compares shapes.
+// same shapes (the task's table; "xHiGHS" is our time over that anchor),
+// and the whole LP solved at once by Solve. SetBytes is the size of the
+// whole dense LP, so MB/s compares shapes.
 func BenchmarkCertificateLP(b *testing.B) {
 	for _, bc := range []struct {
 		n, d, samples int
@@ -182,10 +183,12 @@ func BenchmarkCertificateLP(b *testing.B) {
 		{6, 2, 100000, 1, chain6, 280 * time.Millisecond},
 		{6, 4, 10000, 1, chain6, 16200 * time.Millisecond},
 	} {
-		b.Run(fmt.Sprintf("n%d_d%d_N%d", bc.n, bc.d, bc.samples), func(b *testing.B) {
-			c := newCertLP(bc.n, bc.d, bc.samples, bc.box, bc.f, 1)
-			obj, lo, up := c.bounds()
-			b.SetBytes(int64(c.Len()) * int64(c.k+1) * 8)
+		name := fmt.Sprintf("n%d_d%d_N%d", bc.n, bc.d, bc.samples)
+		c := newCertLP(bc.n, bc.d, bc.samples, bc.box, bc.f, 1)
+		obj, lo, up := c.bounds()
+		size := int64(c.Len()) * int64(c.k+1) * 8
+		b.Run(name+"/cuts", func(b *testing.B) {
+			b.SetBytes(size)
 			b.ReportAllocs()
 			var r *lp.Result
 			start := time.Now()
@@ -199,6 +202,32 @@ func BenchmarkCertificateLP(b *testing.B) {
 			b.ReportMetric(float64(r.Rounds), "rounds")
 			b.ReportMetric(float64(r.Iterations), "iters")
 			b.ReportMetric(float64(len(r.Active)), "active")
+			b.ReportMetric(per/bc.highs.Seconds(), "xHiGHS")
+			b.ReportMetric(-r.Objective, "g")
+		})
+		// The whole LP at once with Solve, for the side-by-side ratio (the
+		// rows are generated outside the timed loop).
+		b.Run(name+"/whole", func(b *testing.B) {
+			if testing.Short() {
+				b.Skip("whole LP is large")
+			}
+			m, w := c.Len(), c.k+1
+			p := &lp.Problem{C: obj, G: make([]float64, m*w), H: make([]float64, m), Lower: lo, Upper: up}
+			for i := 0; i < m; i++ {
+				p.H[i] = c.RowTo(p.G[i*w:(i+1)*w], i)
+			}
+			b.SetBytes(size)
+			b.ReportAllocs()
+			var r *lp.Result
+			start := time.Now()
+			for b.Loop() {
+				var err error
+				if r, err = lp.Solve(p, nil); err != nil {
+					b.Fatal(err)
+				}
+			}
+			per := time.Since(start).Seconds() / float64(b.N)
+			b.ReportMetric(float64(r.Iterations), "iters")
 			b.ReportMetric(per/bc.highs.Seconds(), "xHiGHS")
 			b.ReportMetric(-r.Objective, "g")
 		})
