@@ -81,9 +81,13 @@ const (
 	// minNoiseRadius in z (1% of the data's spread).
 	noiseRadiusSigmas = 3
 	minNoiseRadius    = 0.01
-	// growFactor: each growth round solves the LP on the points with
-	// V_best <= growFactor·c_best.
-	growFactor = 2.0
+	// growStart: a growth round solves the LP with targets V_best <=
+	// gamma·c_best (gamma starts at growStart and halves its excess over 1
+	// after a round that gains nothing) and decrease rows on V_best <=
+	// growOuter·gamma·c_best; growStale failed rounds in a row end it.
+	growStart = 1.6
+	growOuter = 1.0
+	growStale = 5
 	// minGain: a round must add this share of the best volume to count.
 	minGain = 0.01
 	// unstableTol: a Jacobian eigenvalue with real part above
@@ -217,54 +221,60 @@ func Certify(ctx context.Context, m *Model, ds *ingest.Dataset, opts *CertifyOpt
 	capped := false
 	stale := 0
 	firstContra := false
+	gamma := growStart
 	for round := 0; round < o.Growth; round++ {
 		if err := ctx.Err(); err != nil {
 			return nil, err
 		}
-		target := growFactor * best.res.level
+		base := best.res.level
 		if !best.res.ok {
-			// Fall back to a small ellipse a few noise radii wide.
-			target = math.Max(best.res.vball*9, best.res.level)
+			// Start from a small ellipse a few noise radii wide.
+			base = math.Max(best.res.vball*9, best.res.level)
 		}
-		rows := ck.lpRows(best.c, target, o, rng)
-		if rows.np < 3*fam.Len() {
+		target := gamma * base
+		lambda := math.Max(best.g, 0) / target
+		rows := ck.lpRows(best.c, target, growOuter*target, lambda, o, rng)
+		improved := false
+		if len(rows.targets) < 3*fam.Len() {
 			lastErr = "too few samples in the level set for the LP"
-			break
-		}
-		out := solveCertLP(fam, rows)
-		solves++
-		rounds += out.rounds
-		rowsUsed = max(rowsUsed, out.rows)
-		if out.err != nil {
-			if certDebug != nil {
-				certDebug("round %d: %v", round, out.err)
+		} else {
+			out := solveCertLP(fam, rows)
+			solves++
+			rounds += out.rounds
+			rowsUsed = max(rowsUsed, out.rows)
+			switch {
+			case out.err != nil:
+				lastErr = out.err.Error()
+			case !(out.g > 0):
+				if solves == 1 && out.g < 0 && !best.res.ok {
+					firstContra = true
+					cert.Margin = out.g
+				}
+				lastErr = fmt.Sprintf("best margin %.3g <= 0", out.g)
+			default:
+				res := ck.level(out.c)
+				if certDebug != nil {
+					certDebug("round %d gamma %.3g target %.4g np %d g %.4g -> ok %v level %.4g share %.4f limit %s at %v (best %.4f)", round, gamma, target, rows.np, out.g, res.ok, res.level, res.share, res.limit, res.limitZ, best.res.share)
+				}
+				if res.ok && (!best.res.ok || res.share > best.res.share*(1+minGain)+1e-12) {
+					best = cand{c: out.c, g: out.g, res: res, source: "LP"}
+					improved = true
+				}
 			}
-			lastErr = out.err.Error()
-			break
-		}
-		if !(out.g > 0) {
-			if solves == 1 && out.g < 0 && !best.res.ok {
-				firstContra = true
-				cert.Margin = out.g
+			if certDebug != nil && !improved {
+				certDebug("round %d gamma %.3g: no gain: %v", round, gamma, lastErr)
 			}
-			lastErr = fmt.Sprintf("best margin %.3g <= 0", out.g)
-			break
 		}
-		res := ck.level(out.c)
-		if certDebug != nil {
-			certDebug("round %d target %.4g np %d g %.4g -> ok %v level %.4g share %.4f limit %s at %v (best %.4f) c %.3g", round, target, rows.np, out.g, res.ok, res.level, res.share, res.limit, res.limitZ, best.res.share, out.c)
-		}
-		if res.ok && (!best.res.ok || res.share > best.res.share*(1+minGain)+1e-12) {
-			best = cand{c: out.c, g: out.g, res: res, source: "LP"}
-			grown = true
+		if improved {
 			stale = 0
-			if round == o.Growth-1 {
-				capped = true
-			}
+			grown = true
+			capped = round == o.Growth-1
 			continue
 		}
+		capped = false
 		stale++
-		if stale >= 2 {
+		gamma = 1 + (gamma-1)/2
+		if stale >= growStale {
 			break
 		}
 	}
@@ -444,7 +454,7 @@ func newChecker(ctx context.Context, m *Model, ds *ingest.Dataset, xe, scale []f
 	depth, extra := 1, 1
 	switch {
 	case n <= 2:
-		depth, extra = 3, 6
+		depth, extra = 5, 6
 	case n == 3:
 		depth, extra = 2, 3
 	}
@@ -458,13 +468,15 @@ func newChecker(ctx context.Context, m *Model, ds *ingest.Dataset, xe, scale []f
 	return ck, all, nil
 }
 
-// lpRows builds the LP on the recorded samples (every stride-th) and fill
-// points with V_prev(z) <= target, outside the noise ball. Pair
-// tolerances use V_prev's gradient (V has unit trace in both).
-func (ck *checker) lpRows(prev []float64, target float64, o CertifyOptions, rng *rand.Rand) *certRows {
+// lpRows builds the LP of one growth round on the recorded samples
+// (every stride-th) and fill points with V_prev(z) <= outer, outside the
+// noise ball; those with V_prev(z) <= target are targets. V_prev is
+// rescaled by 1/target so that its pair tolerances match the new V's
+// scale (V <= 1 on the targets).
+func (ck *checker) lpRows(prev []float64, target, outer, lambda float64, o CertifyOptions, rng *rand.Rand) *certRows {
 	n := ck.fam.n
 	ve := newVEval(ck.fam, prev)
-	rows := newCertRows(ck.fam)
+	rows := newCertRows(ck.fam, lambda)
 	total := 0
 	for i := range ck.runs {
 		total += len(ck.runs[i].t)
@@ -483,26 +495,32 @@ func (ck *checker) lpRows(prev []float64, target float64, o CertifyOptions, rng 
 				continue
 			}
 			z := r.z[k*n : (k+1)*n]
-			if norm2(z) <= r02 {
+			if norm2(z) <= r02 || !ck.env.inside(z) {
 				continue
 			}
 			v := ve.valueGrad(g, z)
-			if !(v <= target) {
+			if !(v <= outer) {
 				continue
 			}
-			rows.addPoint(z, ck.zf.evalTo(f, z))
-			if k+1 < m {
-				rows.addPair(z, r.z[(k+1)*n:(k+2)*n], r.t[k+1]-r.t[k], ck.pairTol(g))
+			in := v <= target
+			rows.addPoint(z, ck.zf.evalTo(f, z), in)
+			if in && k+1 < m {
+				rows.addPair(z, r.z[(k+1)*n:(k+2)*n], r.t[k+1]-r.t[k], ck.pairTol(g)/target)
 			}
 		}
 	}
 	z := make([]float64, n)
-	for tries := 0; tries < 20*o.Fill && rows.np < o.Fill+len(rows.dt); tries++ {
+	for tries, added := 0, 0; tries < 20*o.Fill && added < o.Fill; tries++ {
 		ck.env.randomTo(z, rng)
-		if norm2(z) <= r02 || !(ve.value(z) <= target) {
+		if norm2(z) <= r02 {
 			continue
 		}
-		rows.addPoint(z, ck.zf.evalTo(f, z))
+		v := ve.value(z)
+		if !(v <= outer) {
+			continue
+		}
+		rows.addPoint(z, ck.zf.evalTo(f, z), v <= target)
+		added++
 	}
 	return rows
 }

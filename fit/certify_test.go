@@ -121,7 +121,7 @@ var vdpReverse = &certSystem{
 func TestCertifyVanDerPol(t *testing.T) {
 	certDebug = t.Logf
 	defer func() { certDebug = nil }()
-	ds := certRuns(vdpReverse, [][2]float64{{-2.2, 2.2}, {-3, 3}}, 40, 0.005, 3000, 10, 0, 1)
+	ds := certRuns(vdpReverse, [][2]float64{{-2.2, 2.2}, {-3, 3}}, 100, 0.005, 3000, 10, 0, 1)
 	m := vdpReverse.model([]float64{1, 1})
 	for _, deg := range []int{2, 4} {
 		c, err := Certify(context.Background(), m, ds, &CertifyOptions{Degree: deg})

@@ -8,38 +8,48 @@ import (
 )
 
 // certRows are the rows of the certificate LP, generated on demand for
-// lp.SolveCuts. The unknowns are u = (V's coefficients without the
-// eliminated z_n² one, g); see [vFamily]. For each point z_i (recorded
-// samples and fill points, all outside the noise ball):
+// lp.SolveCuts. The unknowns are u = (V's p coefficients, g). For each
+// point z_i (recorded samples and fill points, outside the noise ball):
 //
-//	positivity       -V(z_i)                              <= -posEps |z_i|²
-//	model decrease    grad V(z_i)·f(z_i) + g |z_i|²       <= 0
+//	positivity       -V(z_i)                                  <= -posEps |z_i|²
+//	model decrease    grad V(z_i)·f(z_i) + g |z_i|²
+//	                    - lambda |z_i|² (V(z_i) - 1)            <= 0
 //
-// and for each recorded pair (z_k, z_{k+1}) with time step dt_k:
+// for each target point (the level set the round tries to reach):
 //
-//	data decrease     V(z_{k+1}) - V(z_k) + g dt_k |z_k|² <= tau_k
+//	target            V(z_i)                                  <= 1
 //
-// where tau_k is the noise tolerance of the pair.
+// and for each recorded pair (z_k, z_{k+1}) at a target point, time step
+// dt_k:
+//
+//	data decrease     V(z_{k+1}) - V(z_k) + g dt_k |z_k|²       <= tau_k
+//
+// tau_k being the noise tolerance of the pair. The target rows fix V's
+// scale (the level set {V <= 1} must hold the targets; positivity rules out
+// V = 0). The multiplier term (a fixed lambda >= 0, the S-procedure) asks
+// for decrease only where V < 1 and relaxes it outside, where the region
+// is not claimed.
 type certRows struct {
-	fam    *vFamily
-	n, p   int
-	pz, pf []float64 // points and the field there, n each
-	np     int
-	a0, a1 []float64 // pair endpoints, n each
-	dt     []float64
-	tau    []float64
+	fam     *vFamily
+	n, p    int
+	lambda  float64
+	pz, pf  []float64 // points and the field there, n each
+	np      int
+	targets []int32 // indices of target points
+	a0, a1  []float64
+	dt      []float64
+	tau     []float64
 	// scratch
-	a, val, grad, work, val1 []float64
+	val, grad, work, val1 []float64
 }
 
-func newCertRows(fam *vFamily) *certRows {
-	r := &certRows{fam: fam, n: fam.n, p: fam.Len()}
+func newCertRows(fam *vFamily, lambda float64) *certRows {
+	r := &certRows{fam: fam, n: fam.n, p: fam.Len(), lambda: lambda}
 	return r.init()
 }
 
 func (r *certRows) init() *certRows {
 	lib := r.fam.lib
-	r.a = make([]float64, r.p)
 	r.val = make([]float64, r.p)
 	r.val1 = make([]float64, r.p)
 	r.grad = make([]float64, r.p*r.n)
@@ -47,7 +57,10 @@ func (r *certRows) init() *certRows {
 	return r
 }
 
-func (r *certRows) addPoint(z, f []float64) {
+func (r *certRows) addPoint(z, f []float64, target bool) {
+	if target {
+		r.targets = append(r.targets, int32(r.np))
+	}
 	r.pz = append(r.pz, z...)
 	r.pf = append(r.pf, f...)
 	r.np++
@@ -61,7 +74,7 @@ func (r *certRows) addPair(z0, z1 []float64, dt, tau float64) {
 }
 
 // Len returns the number of rows.
-func (r *certRows) Len() int { return 2*r.np + len(r.dt) }
+func (r *certRows) Len() int { return 2*r.np + len(r.targets) + len(r.dt) }
 
 // Clone returns a copy with its own scratch space (lp.Cloner).
 func (r *certRows) Clone() lp.Rows {
@@ -69,55 +82,58 @@ func (r *certRows) Clone() lp.Rows {
 	return c.init()
 }
 
-// RowTo stores row i in dst (length p) and returns its right-hand side.
+// RowTo stores row i in dst (length p+1) and returns its right-hand side.
 func (r *certRows) RowTo(dst []float64, i int) float64 {
 	n, p, lib := r.n, r.p, r.fam.lib
+	w := r.work[:lib.WorkLen()]
 	switch {
 	case i < r.np:
 		z := r.pz[i*n : (i+1)*n]
-		lib.EvalWorkTo(r.val, r.work[:lib.WorkLen()], z)
+		lib.EvalWorkTo(r.val, w, z)
 		for k, v := range r.val {
-			r.a[k] = -v
+			dst[k] = -v
 		}
-		dst[p-1] = 0
-		return r.fam.foldRow(dst[:p-1], r.a, -posEps*norm2(z))
+		dst[p] = 0
+		return -posEps * norm2(z)
 	case i < 2*r.np:
 		i -= r.np
 		z := r.pz[i*n : (i+1)*n]
 		f := r.pf[i*n : (i+1)*n]
-		lib.GradWorkTo(r.grad, nil, r.work, z)
+		z2 := norm2(z)
+		lib.GradWorkTo(r.grad, r.val, r.work, z)
 		for k := 0; k < p; k++ {
 			s := 0.0
 			gk := r.grad[k*n : (k+1)*n]
 			for j, fj := range f {
 				s += gk[j] * fj
 			}
-			r.a[k] = s
+			dst[k] = s - r.lambda*z2*r.val[k]
 		}
-		dst[p-1] = norm2(z)
-		return r.fam.foldRow(dst[:p-1], r.a, 0)
+		dst[p] = z2
+		return -r.lambda * z2
+	case i < 2*r.np+len(r.targets):
+		i = int(r.targets[i-2*r.np])
+		lib.EvalWorkTo(dst[:p], w, r.pz[i*n:(i+1)*n])
+		dst[p] = 0
+		return 1
 	default:
-		i -= 2 * r.np
+		i -= 2*r.np + len(r.targets)
 		z0 := r.a0[i*n : (i+1)*n]
 		z1 := r.a1[i*n : (i+1)*n]
-		w := r.work[:lib.WorkLen()]
 		lib.EvalWorkTo(r.val, w, z0)
 		lib.EvalWorkTo(r.val1, w, z1)
-		for k := range r.a {
-			r.a[k] = r.val1[k] - r.val[k]
+		for k := range r.val {
+			dst[k] = r.val1[k] - r.val[k]
 		}
-		dst[p-1] = r.dt[i] * norm2(z0)
-		return r.fam.foldRow(dst[:p-1], r.a, r.tau[i])
+		dst[p] = r.dt[i] * norm2(z0)
+		return r.tau[i]
 	}
 }
 
-// LP bounds (not user-facing). V has unit trace, so its quadratic
-// coefficients lie in [-1, 1] for a positive definite part (|P_ij| <=
-// sqrt(P_ii P_jj) <= 1/2 and the z_i z_j coefficient is 2 P_ij); higher
-// coefficients get a looser box so quartic terms can matter at |z| ~ 1.
+// LP bounds (not user-facing): a box on V's coefficients that V <= 1 on
+// targets of size ~1 in z never reaches, and on the margin.
 const (
-	lpQuadBound   = 1
-	lpHigherBound = 10
+	lpCoefBound   = 1e3
 	lpMarginBound = 1e4
 )
 
@@ -135,26 +151,14 @@ type lpOutcome struct {
 // solveCertLP maximises g over the rows.
 func solveCertLP(fam *vFamily, rows *certRows) lpOutcome {
 	p := fam.Len()
-	obj := make([]float64, p)
-	obj[p-1] = -1
-	lower := make([]float64, p)
-	upper := make([]float64, p)
-	i := 0
+	obj := make([]float64, p+1)
+	obj[p] = -1
+	lower := make([]float64, p+1)
+	upper := make([]float64, p+1)
 	for k := 0; k < p; k++ {
-		if k == fam.elim {
-			continue
-		}
-		b := float64(lpHigherBound)
-		if fam.lib.Degree(k) == 2 {
-			b = lpQuadBound
-		}
-		lower[i], upper[i] = -b, b
-		if fam.isDiag[k] {
-			lower[i] = 0
-		}
-		i++
+		lower[k], upper[k] = -lpCoefBound, lpCoefBound
 	}
-	lower[p-1], upper[p-1] = -lpMarginBound, lpMarginBound
+	lower[p], upper[p] = -lpMarginBound, lpMarginBound
 	res, err := lp.SolveCuts(obj, rows, lower, upper, nil)
 	out := lpOutcome{err: err}
 	if res != nil {
@@ -170,8 +174,8 @@ func solveCertLP(fam *vFamily, rows *certRows) lpOutcome {
 		out.err = errors.New("lp: " + res.Status.String())
 		return out
 	}
-	out.c = fam.expand(make([]float64, p), res.X)
-	out.g = res.X[p-1]
+	out.c = append([]float64(nil), res.X[:p]...)
+	out.g = res.X[p]
 	if math.IsNaN(out.g) {
 		out.err = lp.ErrNumerical
 	}
