@@ -16,6 +16,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"io"
 	"io/fs"
 	"os"
 	"os/signal"
@@ -29,9 +30,11 @@ import (
 	"github.com/basin-dev/basin/validate"
 )
 
+var errMismatch = errors.New("flagged runs differ from the truth")
+
 func main() {
 	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt)
-	err := run(ctx, os.Args[1:])
+	err := run(ctx, os.Stdout, os.Args[1:])
 	stop()
 	if err != nil {
 		fmt.Fprintln(os.Stderr, "certify:", err)
@@ -39,7 +42,9 @@ func main() {
 	}
 }
 
-func run(ctx context.Context, args []string) error {
+// run does the job on args, printing to w. It returns errMismatch when the
+// flagged runs differ from the runs the demo's truth says leave.
+func run(ctx context.Context, w io.Writer, args []string) error {
 	if len(args) > 1 {
 		return errors.New("usage: certify [DIR]")
 	}
@@ -56,7 +61,7 @@ func run(ctx context.Context, args []string) error {
 		if _, err := cameramount.WriteDir(ctx, dir, 1, nil); err != nil {
 			return err
 		}
-		fmt.Printf("wrote the demo data set to %s\n", dir)
+		fmt.Fprintf(w, "wrote the demo data set to %s\n", dir)
 	}
 
 	// 1. Read the logs: every CSV or Parquet file of the directory.
@@ -64,14 +69,14 @@ func run(ctx context.Context, args []string) error {
 	if err != nil {
 		return err // a *ingest.ParseError names file, line and column
 	}
-	fmt.Printf("%d runs, %d samples, states %v\n", len(ds.Runs), ds.Samples(), ds.States)
+	fmt.Fprintf(w, "%d runs, %d samples, states %v\n", len(ds.Runs), ds.Samples(), ds.States)
 
 	// 2. The vector field, on all runs (defaults: degree 3, 5 folds).
 	m, err := fit.Field(ctx, ds, nil)
 	if err != nil {
 		return err
 	}
-	fmt.Printf("equilibrium %v, eigenvalues %v\n", m.Equilibrium, m.JacobianEigenvalues)
+	fmt.Fprintf(w, "equilibrium %v, eigenvalues %v\n", m.Equilibrium, m.JacobianEigenvalues)
 
 	// 3. A certificate for that field on the same runs. Its verdict stays
 	// inconclusive: nothing has been checked on unseen runs yet.
@@ -79,7 +84,7 @@ func run(ctx context.Context, args []string) error {
 	if err != nil {
 		return err
 	}
-	fmt.Printf("in-sample certificate: found %v, level %.4g, verdict %s\n", c.Found, c.Level, c.Verdict)
+	fmt.Fprintf(w, "in-sample certificate: found %v, level %.4g, verdict %s\n", c.Found, c.Level, c.Verdict)
 
 	// 4. The honest figure: fit and certify on some runs, check on the
 	// others (folds by run), and give the verdict.
@@ -88,12 +93,12 @@ func run(ctx context.Context, args []string) error {
 		return err
 	}
 	cert := res.Certificate
-	fmt.Printf("verdict %s (%s): %s\n", cert.Verdict, cert.Strength, cert.Reason)
+	fmt.Fprintf(w, "verdict %s (%s): %s\n", cert.Verdict, cert.Strength, cert.Reason)
 	if v := cert.Validation; v != nil {
-		fmt.Printf("held-out runs %d, decrease %.4f, invariance %.4f, violation bound %.3g at confidence %g\n",
+		fmt.Fprintf(w, "held-out runs %d, decrease %.4f, invariance %.4f, violation bound %.3g at confidence %g\n",
 			v.HeldoutRuns, v.DecreaseFraction, v.InvarianceFraction, v.ViolationBound, v.Confidence)
 	}
-	fmt.Println(fit.Caveat)
+	fmt.Fprintln(w, fit.Caveat)
 
 	// 5. Screen every run against the validated certificate.
 	s := validate.NewScreener(cert, nil)
@@ -105,7 +110,7 @@ func run(ctx context.Context, args []string) error {
 			flagged = append(flagged, filepath.Base(rs.File))
 		}
 	}
-	fmt.Printf("flagged %d of %d runs: %s\n", len(flagged), len(ds.Runs), strings.Join(flagged, ", "))
+	fmt.Fprintf(w, "flagged %d of %d runs: %s\n", len(flagged), len(ds.Runs), strings.Join(flagged, ", "))
 
 	// 6. With the demo's truth at hand, compare.
 	f, err := os.Open(filepath.Join(dir, cameramount.TruthFile))
@@ -119,10 +124,9 @@ func run(ctx context.Context, args []string) error {
 	if err != nil {
 		return err
 	}
-	if slices.Equal(flagged, truth.Leaving) {
-		fmt.Println("the flagged runs are exactly the runs that leave the basin")
-	} else {
-		fmt.Printf("the runs that leave the basin are %s\n", strings.Join(truth.Leaving, ", "))
+	if !slices.Equal(flagged, truth.Leaving) {
+		return fmt.Errorf("%w: the runs that leave the basin are %s", errMismatch, strings.Join(truth.Leaving, ", "))
 	}
+	fmt.Fprintln(w, "the flagged runs are exactly the runs that leave the basin")
 	return nil
 }
