@@ -32,7 +32,7 @@ var (
 )
 
 // benchFiles writes a 1,000,000-row, 7-column CSV file (about 84 MB: a
-// time column and six noisy states printed with 8 significant digits, as
+// time column and six noisy states printed with 9 significant digits, as
 // loggers print them) and the same data as Parquet.
 func benchFiles(b *testing.B) (string, string) {
 	benchOnce.Do(func() {
@@ -62,12 +62,12 @@ func benchFiles(b *testing.B) (string, string) {
 		var buf []byte
 		for i := range benchRows {
 			tv := float64(i) * 0.005
-			buf = strconv.AppendFloat(buf[:0], tv, 'f', 3, 64)
+			buf = strconv.AppendFloat(buf[:0], tv, 'f', 4, 64)
 			rb.Field(0).(*array.Float64Builder).Append(atof(string(buf)))
 			for j := 1; j < benchCols; j++ {
 				buf = append(buf, ',')
 				k := len(buf)
-				buf = strconv.AppendFloat(buf, rng.NormFloat64(), 'g', 8, 64)
+				buf = strconv.AppendFloat(buf, rng.NormFloat64(), 'g', 9, 64)
 				rb.Field(j).(*array.Float64Builder).Append(atof(string(buf[k:])))
 			}
 			buf = append(buf, '\n')
@@ -84,6 +84,14 @@ func benchFiles(b *testing.B) (string, string) {
 		rb.Release()
 	})
 	return benchCSV, benchPQ
+}
+
+func TestMain(m *testing.M) {
+	code := m.Run()
+	if benchDir != "" {
+		os.RemoveAll(benchDir)
+	}
+	os.Exit(code)
 }
 
 // naiveRead is the baseline: encoding/csv with ReuseRecord and
@@ -240,4 +248,18 @@ func BenchmarkParseFloat(b *testing.B) {
 			}
 		}
 	})
+}
+
+func BenchmarkScanFast(b *testing.B) {
+	cells := [][]byte{[]byte("-0.12345678"), []byte("1.2345678e-05"), []byte("4999.995"), []byte("0.98765432")}
+	b.ReportAllocs()
+	var sink float64
+	for b.Loop() {
+		for _, c := range cells {
+			v, _, _ := scanFast(c)
+			sink += v
+		}
+	}
+	b.ReportMetric(float64(b.Elapsed().Nanoseconds())/float64(b.N)/4, "ns/cell")
+	_ = sink
 }

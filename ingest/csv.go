@@ -38,6 +38,25 @@ type csvLayout struct {
 	stateOf  []int // header column -> state index (roleState)
 	dateTime bool
 	nstate   int
+	hasRun   bool
+	timeAt   int   // header column of time, for the fast path
+	stateAt  []int // header column of each state, for the fast path
+}
+
+// index fills the fast path's column lists from role and stateOf.
+func (lay *csvLayout) index() {
+	lay.stateAt = make([]int, lay.nstate)
+	lay.hasRun = false
+	for j, r := range lay.role {
+		switch r {
+		case roleTime:
+			lay.timeAt = j
+		case roleRun:
+			lay.hasRun = true
+		case roleState:
+			lay.stateAt[lay.stateOf[j]] = j
+		}
+	}
 }
 
 // chunk is a block of whole lines and what was parsed from it.
@@ -134,6 +153,7 @@ func readCSVTable(r io.Reader, name string, opts *Options) (*table, error) {
 		return nil, err
 	}
 	// Parse: the rest of the first block, then further blocks.
+	lay.index()
 	p := &csvParser{lay: lay, tb: tb}
 	if eof {
 		c := &chunk{data: rest, line: line}
@@ -702,6 +722,9 @@ func (p *csvParser) parse(c *chunk) {
 	var cells [][]byte
 	data := c.data
 	line := c.line
+	// The fast row path: numbers only, no quotes anywhere in the block.
+	fast := !lay.dateTime && !lay.hasRun && bytes.IndexByte(data, '"') < 0
+	vals := make([]float64, lay.ncol)
 	contiguous := false
 	for len(data) > 0 {
 		nl := bytes.IndexByte(data, '\n')
@@ -712,7 +735,7 @@ func (p *csvParser) parse(c *chunk) {
 			l, data = data[:nl], data[nl+1:]
 		}
 		l = trimCR(l)
-		if len(l) == 0 || l[0] == '#' || isBlankOrComment(l) {
+		if len(l) == 0 || l[0] == '#' || ((l[0] == ' ' || l[0] == '\t') && isBlankOrComment(l)) {
 			line++
 			contiguous = false
 			continue
@@ -720,6 +743,17 @@ func (p *csvParser) parse(c *chunk) {
 		if !contiguous {
 			c.marks = append(c.marks, lineMark{row: c.rows, line: line})
 			contiguous = true
+		}
+		if fast && p.fastRow(l, vals) {
+			if timed {
+				c.t = append(c.t, vals[lay.timeAt])
+			}
+			for k, j := range lay.stateAt {
+				c.x[k] = append(c.x[k], vals[j])
+			}
+			c.rows++
+			line++
+			continue
 		}
 		if bytes.IndexByte(l, '"') >= 0 {
 			var ok bool
@@ -798,6 +832,40 @@ func (p *csvParser) parse(c *chunk) {
 		c.rows++
 		line++
 	}
+}
+
+// fastRow parses a row whose cells are all plain numbers (or skipped
+// columns) into vals, by header column. It returns false, having changed
+// nothing that matters, on anything else: the general path then parses
+// the row and reports what is wrong with it.
+func (p *csvParser) fastRow(l []byte, vals []float64) bool {
+	lay := p.lay
+	d := lay.delim
+	pos := 0
+	for j, r := range lay.role {
+		if j > 0 {
+			if pos >= len(l) || l[pos] != d {
+				return false
+			}
+			pos++
+		}
+		if r == roleSkip {
+			k := bytes.IndexByte(l[pos:], d)
+			if k < 0 {
+				pos = len(l)
+			} else {
+				pos += k
+			}
+			continue
+		}
+		v, n, ok := scanFast(l[pos:])
+		if !ok {
+			return false
+		}
+		vals[j] = v
+		pos += n
+	}
+	return pos == len(l)
 }
 
 // cellSlow handles what the fast path refused: blanks around a number,

@@ -1,6 +1,7 @@
 package ingest
 
 import (
+	"encoding/binary"
 	"strconv"
 	"unsafe"
 )
@@ -132,4 +133,127 @@ func slowFloat(b []byte) (float64, bool) {
 	// ParseFloat does not retain s (its *NumError clones the input).
 	f, err := strconv.ParseFloat(unsafe.String(&b[0], len(b)), 64)
 	return f, err == nil
+}
+
+// scanFast parses the plain decimal number at the start of b, as far as it
+// goes, when the exact fast path of parseFloat applies to it (digits, an
+// optional sign, point and exponent; at most 19 digits, leading zeros
+// included, so the mantissa cannot overflow; mantissa <= 2^53; |exponent|
+// <= 22). n is the number of bytes used. ok is false when b does not
+// start with such a number; the caller then parses the cell with
+// parseFloat, which agrees with strconv.ParseFloat everywhere.
+func scanFast(b []byte) (f float64, n int, ok bool) {
+	i := 0
+	neg := false
+	if i < len(b) && (b[i] == '-' || b[i] == '+') {
+		neg = b[i] == '-'
+		i++
+	}
+	var mant uint64
+	start := i
+	for i+8 <= len(b) {
+		x := binary.LittleEndian.Uint64(b[i:])
+		if !eightDigits(x) {
+			break
+		}
+		mant = mant*100000000 + eightValue(x)
+		i += 8
+	}
+	for ; i < len(b); i++ {
+		c := b[i] - '0'
+		if c > 9 {
+			break
+		}
+		mant = mant*10 + uint64(c)
+	}
+	digits := i - start
+	exp := 0
+	if i < len(b) && b[i] == '.' {
+		i++
+		fs := i
+		for i+8 <= len(b) && digits+(i-fs)+8 <= 19 {
+			x := binary.LittleEndian.Uint64(b[i:])
+			if !eightDigits(x) {
+				break
+			}
+			mant = mant*100000000 + eightValue(x)
+			i += 8
+		}
+		for ; i < len(b); i++ {
+			c := b[i] - '0'
+			if c > 9 {
+				break
+			}
+			mant = mant*10 + uint64(c)
+		}
+		exp = fs - i
+		digits += i - fs
+	}
+	if digits == 0 || digits > 19 {
+		return 0, 0, false
+	}
+	if i < len(b) && (b[i] == 'e' || b[i] == 'E') {
+		i++
+		eneg := false
+		if i < len(b) && (b[i] == '-' || b[i] == '+') {
+			eneg = b[i] == '-'
+			i++
+		}
+		es := i
+		e := 0
+		for ; i < len(b) && i-es < 4; i++ {
+			c := b[i] - '0'
+			if c > 9 {
+				break
+			}
+			e = e*10 + int(c)
+		}
+		if i == es || (i < len(b) && b[i]-'0' <= 9) {
+			return 0, 0, false
+		}
+		if eneg {
+			e = -e
+		}
+		exp += e
+	}
+	if mant > 1<<53 || exp > 22 || exp < -22 {
+		if mant == 0 && exp >= -400 && exp <= 400 {
+			exp = 0 // zero with any exponent is zero
+		} else {
+			return 0, 0, false
+		}
+	}
+	if mant == 0 {
+		if neg {
+			return negZero, i, true
+		}
+		return 0, i, true
+	}
+	f = float64(mant)
+	if exp >= 0 {
+		f *= exactPow10[exp]
+	} else {
+		f /= exactPow10[-exp]
+	}
+	if neg {
+		f = -f
+	}
+	return f, i, true
+}
+
+// eightDigits reports whether the 8 bytes of x (little-endian) are all
+// ASCII digits: each byte's high nibble is 3 and adding 6 does not carry
+// past 9 (a common SWAR test, as in Lemire's fast_float).
+func eightDigits(x uint64) bool {
+	return (x&0xF0F0F0F0F0F0F0F0)|(((x+0x0606060606060606)&0xF0F0F0F0F0F0F0F0)>>4) == 0x3333333333333333
+}
+
+// eightValue is the value of 8 ASCII digits in x, the first byte most
+// significant: pairs, then quads, then the whole, by multiply-and-shift
+// (the SWAR method of fast_float's parse_eight_digits_unrolled).
+func eightValue(x uint64) uint64 {
+	x -= 0x3030303030303030
+	x = x*10 + x>>8
+	x = ((x&0x000000FF000000FF)*(100+(1000000<<32)) + ((x>>16)&0x000000FF000000FF)*(1+(10000<<32))) >> 32
+	return x
 }

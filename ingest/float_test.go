@@ -32,11 +32,29 @@ var floatCorpus = []string{
 // floatBad is refused by strconv.ParseFloat, and so must be by parseFloat.
 var floatBad = []string{"", "-", "+", ".", "e5", "1e", "1e+", "1.2.3", "1,5", "abc", "1x", "0x", "--1", " 1", "1 ", "1e5e5", "\x00"}
 
+// checkScanFast: when scanFast takes the whole of s it must agree with
+// strconv.ParseFloat bit for bit, and it must never take a string that
+// strconv refuses.
+func checkScanFast(t *testing.T, s string) {
+	t.Helper()
+	v, n, ok := scanFast([]byte(s))
+	if !ok || n != len(s) {
+		return
+	}
+	want, err := strconv.ParseFloat(s, 64)
+	if err != nil || !sameFloat(v, want) {
+		t.Errorf("scanFast(%q) = %v, strconv %v, %v", s, v, want, err)
+	}
+}
+
 func sameFloat(a, b float64) bool {
 	return math.Float64bits(a) == math.Float64bits(b) || (a != a && b != b)
 }
 
 func TestParseFloatCorpus(t *testing.T) {
+	for _, s := range append(floatCorpus, floatBad...) {
+		checkScanFast(t, s)
+	}
 	for _, s := range floatCorpus {
 		want, werr := strconv.ParseFloat(s, 64)
 		got, ok := parseFloat([]byte(s))
@@ -87,6 +105,7 @@ func TestParseFloatRandom(t *testing.T) {
 				continue
 			}
 			s := strconv.FormatFloat(v, f, prec, 64)
+			checkScanFast(t, s)
 			want, werr := strconv.ParseFloat(s, 64) // out of range after rounding: an error for both
 			got, ok := parseFloat([]byte(s))
 			if ok != (werr == nil) || (ok && !sameFloat(got, want)) {
