@@ -527,6 +527,8 @@ func TestSolveEdgeCases(t *testing.T) {
 		{"duplicate rows", &lp.Problem{C: []float64{-1}, G: []float64{1, 1, 1, 2}, H: []float64{1, 1, 1, 2}}, lp.Optimal, -1},
 		{"no unknowns, feasible", &lp.Problem{H: []float64{1}}, lp.Optimal, 0},
 		{"no unknowns, infeasible", &lp.Problem{H: []float64{-1}}, lp.Infeasible, 0},
+		{"equality as two rows", &lp.Problem{C: []float64{1, 2}, G: []float64{1, 1, -1, -1}, H: []float64{1, -1},
+			Lower: zeros(2)}, lp.Optimal, 1},
 		{"zero objective", &lp.Problem{C: []float64{0, 0}, G: []float64{1, 1}, H: []float64{1}, Lower: zeros(2)}, lp.Optimal, 0},
 		{"scaled rows 1e6 apart", &lp.Problem{C: []float64{-1, -1}, G: []float64{1e6, 0, 0, 1e-6}, H: []float64{1e6, 1e-6}}, lp.Optimal, -2},
 	} {
