@@ -133,7 +133,7 @@ func TestReadCSVErrors(t *testing.T) {
 	}{
 		{"empty", "", nil, ErrEmpty, "x.csv: no samples: no header line"},
 		{"comments only", "# nothing\n\n", nil, ErrEmpty, "x.csv: no samples: no header line"},
-		{"header only", "t,a\n", nil, ErrEmpty, "x.csv: no samples"},
+		{"header only", "t,a\n", nil, ErrEmpty, "x.csv: no samples: a header but no data rows"},
 		{"not a number", "t,a,b\n0,1,2\n1,2,3\n2,1.2.3,4\n", nil, ErrNotNumber, `x.csv:4:2: column "a": not a number "1.2.3"`},
 		{"infinite", "t,a\n0,1\n1,inf\n", nil, ErrNotNumber, `x.csv:3:2: column "a": not a number: "inf" is infinite or out of range`},
 		{"ragged long", "t,a\n0,1\n1,2,3\n", nil, ErrRagged, "x.csv:3:3: wrong number of fields: 3, the header has 2"},

@@ -68,6 +68,22 @@ func readParquetTable(ctx context.Context, path string, opts *Options) (tb *tabl
 			tb, err = nil, bad("corrupt Parquet data (%v)", r)
 		}
 	}()
+	var head, tail [4]byte
+	if st.Size() < 12 {
+		return nil, bad("not a Parquet file (%d bytes)", st.Size())
+	}
+	if _, err := f.ReadAt(head[:], 0); err != nil {
+		return nil, err
+	}
+	if _, err := f.ReadAt(tail[:], st.Size()-4); err != nil {
+		return nil, err
+	}
+	if string(head[:]) != "PAR1" {
+		return nil, bad("not a Parquet file (no PAR1 mark at the start)")
+	}
+	if string(tail[:]) != "PAR1" {
+		return nil, bad("truncated Parquet file (no PAR1 mark at the end)")
+	}
 	pr, err := file.NewParquetReader(f)
 	if err != nil {
 		return nil, bad("not a Parquet file (%v)", err)

@@ -90,7 +90,7 @@ func (tb *table) groups() []group {
 // checks that time strictly increases and splits at gaps.
 func (tb *table) dataset() (*Dataset, error) {
 	if tb.rows == 0 {
-		return nil, &ParseError{File: tb.file, Err: ErrEmpty}
+		return nil, &ParseError{File: tb.file, Err: fmt.Errorf("%w: a header but no data rows", ErrEmpty)}
 	}
 	for j, c := range tb.x {
 		if allNaN(c) {
