@@ -56,13 +56,15 @@ type Truth struct {
 	RateNoise        float64      `json:"rate_noise_rad_s"`
 	Rate             float64      `json:"rate_hz"`
 	Runs             []TruthRun   `json:"runs"`
-	// Leaving lists the files of the runs that leave the basin.
+	// Leaving lists the CSV files of the runs that leave the basin.
 	Leaving []string `json:"leaving"`
 }
 
 // TruthRun is one run's entry in truth.json.
 type TruthRun struct {
-	File        string     `json:"file"`
+	File string `json:"file"`
+	// Parquet is the run's name when written as Parquet (WriteParquetDir).
+	Parquet     string     `json:"parquet"`
 	Kind        string     `json:"kind"`
 	Burst       *Burst     `json:"burst,omitempty"`
 	Start       [2]float64 `json:"start"`
@@ -96,7 +98,7 @@ func NewTruth(seed uint64, opts *Options, runs []Run) *Truth {
 	}
 	for i := range runs {
 		r := &runs[i]
-		t.Runs = append(t.Runs, TruthRun{File: r.File, Kind: r.Kind, Burst: r.Burst, Start: r.Start,
+		t.Runs = append(t.Runs, TruthRun{File: r.File, Parquet: r.ParquetName(), Kind: r.Kind, Burst: r.Burst, Start: r.Start,
 			EnergyRatio: r.EnergyRatio, Leaves: r.Leaves, LeaveTime: r.LeaveTime, Samples: len(r.T)})
 		if r.Leaves {
 			t.Leaving = append(t.Leaving, r.File)
@@ -128,6 +130,16 @@ func ReadTruth(r io.Reader) (*Truth, error) {
 // needed): one CSV file a run and truth.json. Each file is written under a
 // temporary name and renamed, so none is left half-written.
 func WriteDir(ctx context.Context, dir string, seed uint64, opts *Options) (*Truth, error) {
+	return writeDir(ctx, dir, seed, opts, false)
+}
+
+// WriteParquetDir is WriteDir writing one Parquet file a run
+// (run-01.parquet, ...) instead of CSV, with the same numbers.
+func WriteParquetDir(ctx context.Context, dir string, seed uint64, opts *Options) (*Truth, error) {
+	return writeDir(ctx, dir, seed, opts, true)
+}
+
+func writeDir(ctx context.Context, dir string, seed uint64, opts *Options, pq bool) (*Truth, error) {
 	runs, err := Generate(seed, opts)
 	if err != nil {
 		return nil, err
@@ -139,7 +151,11 @@ func WriteDir(ctx context.Context, dir string, seed uint64, opts *Options) (*Tru
 		if err := ctx.Err(); err != nil {
 			return nil, err
 		}
-		if err := writeFile(filepath.Join(dir, runs[i].File), runs[i].WriteCSV); err != nil {
+		name, write := runs[i].File, runs[i].WriteCSV
+		if pq {
+			name, write = runs[i].ParquetName(), runs[i].WriteParquet
+		}
+		if err := writeFile(filepath.Join(dir, name), write); err != nil {
 			return nil, err
 		}
 	}

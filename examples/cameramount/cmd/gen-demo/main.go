@@ -4,7 +4,7 @@
 //
 // Usage:
 //
-//	go run ./examples/cameramount/cmd/gen-demo [-seed N] [-out DIR]
+//	go run ./examples/cameramount/cmd/gen-demo [-seed N] [-out DIR] [-parquet]
 package main
 
 import (
@@ -19,12 +19,17 @@ import (
 func main() {
 	out := flag.String("out", "basin-demo/data", "write the data set to `DIR`")
 	seed := flag.Uint64("seed", 1, "random seed `N`")
+	pq := flag.Bool("parquet", false, "write Parquet files instead of CSV")
 	flag.Parse()
 	if flag.NArg() > 0 {
-		fmt.Fprintln(os.Stderr, "gen-demo: unexpected arguments; usage: gen-demo [-seed N] [-out DIR]")
+		fmt.Fprintln(os.Stderr, "gen-demo: unexpected arguments; usage: gen-demo [-seed N] [-out DIR] [-parquet] [-parquet]")
 		os.Exit(2)
 	}
-	t, err := cameramount.WriteDir(context.Background(), *out, *seed, nil)
+	write := cameramount.WriteDir
+	if *pq {
+		write = cameramount.WriteParquetDir
+	}
+	t, err := write(context.Background(), *out, *seed, nil)
 	if err != nil {
 		fmt.Fprintln(os.Stderr, "gen-demo:", err)
 		os.Exit(1)
