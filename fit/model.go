@@ -328,6 +328,15 @@ type Validation struct {
 	DepartureTime   float64   `json:"departure_time_s"`
 	Diverged        int       `json:"runs_diverged"`
 	Note            string    `json:"note,omitempty"`
+	// SettleRatio is the largest V(end)/V(start) over held-out runs that
+	// started inside (below 1: every one ended nearer the equilibrium).
+	SettleRatio float64 `json:"settle_ratio"`
+	// ScenarioViolations counts decrease violations among the
+	// ScenarioSamples; each adds one to d in the bound.
+	ScenarioViolations int `json:"scenario_violations"`
+	// FoldsAgree counts the folds (the released one included) whose
+	// verdict matches the released one, when every fold was fitted.
+	FoldsAgree int `json:"folds_agree,omitempty"`
 }
 
 // Violation locates the worst held-out violation.

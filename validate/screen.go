@@ -60,6 +60,10 @@ type Screener struct {
 	hi   []float64
 	z    []float64
 	x    []float64
+	// spacing is the time between scenario samples (see Check); worstX
+	// the state at the worst rise of the last run screened.
+	spacing float64
+	worstX  []float64
 }
 
 // NewScreener prepares cert for screening. It panics if cert is nil or its
@@ -94,6 +98,7 @@ func NewScreener(cert *fit.Certificate, opts *ScreenOptions) *Screener {
 	}
 	s.z = make([]float64, n)
 	s.x = make([]float64, n)
+	s.worstX = make([]float64, n)
 	s.quad = true
 	for _, e := range cert.V.Exponents {
 		d := 0
@@ -257,7 +262,9 @@ func (s *Screener) Screen(dst *RunScreen, file string, run *ingest.Run) {
 		tailSum   float64
 		hasRise   bool
 		hasLeave  bool
+		lastScen  = math.Inf(-1)
 	)
+	dst.worstExcess = math.Inf(-1)
 	for i := 0; i < m; i++ {
 		r2 := 0.0
 		inBox := true
@@ -290,10 +297,30 @@ func (s *Screener) Screen(dst *RunScreen, file string, run *ingest.Run) {
 		if in {
 			entered = true
 			if prevIn && prevOut {
-				if d := v - prevV - tol; d > 0 {
+				d := v - prevV - tol
+				dst.Pairs++
+				bad := !(d <= 0)
+				if !bad {
+					dst.Decreased++
+				}
+				if T[i]-lastScen >= s.spacing {
+					dst.scen++
+					lastScen = T[i]
+					if bad {
+						dst.scenViol++
+					}
+				}
+				if d > dst.worstExcess {
+					dst.worstExcess, dst.worstTime = d, T[i]
+					copy(s.worstX, x)
+				}
+				if bad {
 					if !hasRise {
 						rise.Time = T[i]
 						hasRise = true
+					}
+					if !(d <= math.MaxFloat64) {
+						d = math.MaxFloat64
 					}
 					rise.Excess = max(rise.Excess, d)
 				}
@@ -317,6 +344,7 @@ func (s *Screener) Screen(dst *RunScreen, file string, run *ingest.Run) {
 	dst.EverInside = entered
 	head := headSum / float64(w)
 	tail := tailSum / float64(w)
+	dst.VStart, dst.VEnd = clampFinite(head), clampFinite(tail)
 	dst.Settled = tail <= s.settle || tail < head-tol
 	if hasRise {
 		dst.Flags = append(dst.Flags, rise)
@@ -375,4 +403,16 @@ func ScreenRuns(ctx context.Context, cert *fit.Certificate, ds *ingest.Dataset, 
 		return nil, err
 	}
 	return out, nil
+}
+
+// clampFinite maps NaN and ±Inf to the largest finite float64 (of the
+// same sign for -Inf), so results stay JSON-encodable.
+func clampFinite(v float64) float64 {
+	switch {
+	case math.IsNaN(v), math.IsInf(v, 1):
+		return math.MaxFloat64
+	case math.IsInf(v, -1):
+		return -math.MaxFloat64
+	}
+	return v
 }

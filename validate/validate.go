@@ -1,15 +1,58 @@
 // Package validate checks a fitted certificate on held-out runs, bounds the
 // chance of a violation by the scenario approach, gives the verdict, and
 // screens new logs against a saved certificate.
+//
+// # Folds by run
+//
+// [Split] deals the runs (never single samples) into K folds by a seeded
+// permutation; a manifest's split column wins: with any run marked
+// "holdout", exactly those are held out and every other run is fitted on.
+// [Evaluate] fits the released model and certificate on the fit runs of
+// fold 0's split (about 1/K of the runs held out) and checks them on the
+// held-out runs only. With [Options.AllFolds] it also refits with each
+// other fold held out and reports how many folds reach the same verdict
+// (fit.Validation.FoldsAgree). With fewer than 3 runs there is no held-out
+// verdict: the result is inconclusive and says why.
+//
+// # Checks
+//
+// On the held-out runs: the model's derivative error (normalised per state
+// by the spread of the data's derivative, estimated by Savitzky–Golay) and
+// a simulation from each run's first sample with the adaptive
+// Dormand–Prince 5(4) integrator [Integrate] (trajectory error per state,
+// normalised by the state's spread, and the time until it departs by more
+// than [Options.DepartTol]); a model that blows up is counted, not crashed
+// on. The certificate checks ([Check]): decrease_fraction over consecutive
+// pairs inside the region whose first sample lies outside the noise ball,
+// where V may rise by at most the certificate's noise tolerance;
+// invariance_fraction over runs that start inside; settling (see
+// [Screener]); and the worst violation with run, time and state.
+//
+// # Scenario bound
+//
+// The chance that a new sample violates the decrease condition is at
+// most epsilon with confidence 1 - beta, epsilon from the exact binomial
+// tail of Campi & Garatti (SIAM J. Optim. 2008) ([ViolationBound]). N
+// counts only held-out pairs inside the region spaced at least one
+// decorrelation time apart ([Decorrelation]: the lag where the state's
+// autocorrelation falls below 1/e). d is the number of LP decision
+// variables (V's coefficients plus the margin); each violation among the N
+// samples adds one to d, which for d = 1 is exactly the one-sided
+// Clopper–Pearson bound and otherwise errs on the safe side.
+//
+// # Verdict
+//
+// certified needs a V, held-out runs that start inside, decrease_fraction
+// >= [Options.MinDecrease], invariance 1 and a linearisation that is not
+// unstable; its strength is asymptotic when V has a positive decrease
+// margin, every run that started inside settled and the linearisation is
+// strictly stable, else stable (stability without convergence, as for a
+// lossless oscillator). rejected when the data contradict stability: an
+// unstable linearisation, or a held-out run that starts inside and leaves
+// by more than the noise tolerance. Everything else is inconclusive. The
+// verdict is evidence from recorded samples, never a proof: see
+// fit.Caveat. Whether V is radially unbounded is information only.
 package validate
-
-import (
-	"context"
-	"errors"
-
-	"github.com/basin-dev/basin/fit"
-	"github.com/basin-dev/basin/ingest"
-)
 
 // Flag kinds of the contract.
 const (
@@ -37,6 +80,21 @@ type RunScreen struct {
 	StartInside bool `json:"start_inside"`
 	EverInside  bool `json:"ever_inside"`
 	Settled     bool `json:"settled"`
+	// Pairs counts consecutive sample pairs both inside the region with
+	// the first outside the noise ball; Decreased those where V did not
+	// rise by more than the tolerance.
+	Pairs     int `json:"pairs"`
+	Decreased int `json:"pairs_decreased"`
+	// VStart and VEnd are the mean V over the first and the last samples
+	// (a twentieth of the run, 1 to 50 samples) used to judge settling.
+	VStart float64 `json:"v_start"`
+	VEnd   float64 `json:"v_end"`
+
+	// scenario samples (pairs at least the decorrelation time apart) and
+	// the violations among them; worst rise and where.
+	scen, scenViol int
+	worstExcess    float64
+	worstTime      float64
 }
 
 // ScreenOptions controls screening. A nil *ScreenOptions means defaults.
@@ -44,34 +102,4 @@ type ScreenOptions struct {
 	// Tolerance on a rise of V between consecutive samples, in units of V;
 	// 0 means the certificate's Tolerance.
 	Tolerance float64
-}
-
-// Options controls Evaluate and Check. A nil *Options means defaults.
-type Options struct {
-	Folds int    // folds over runs; 0 means 5
-	Seed  uint64 // 0 means 1
-	// Beta is the scenario approach's confidence parameter; 0 means 1e-6.
-	Beta float64
-	// MinDecrease is the decrease_fraction a certified verdict needs; 0
-	// means 0.99.
-	MinDecrease float64
-	Field       *fit.FieldOptions
-	Certify     *fit.CertifyOptions
-}
-
-// Result is the whole evaluation: model and certificate fitted on the fit
-// runs, checked on the held-out runs.
-type Result struct {
-	Model       *fit.Model
-	Certificate *fit.Certificate
-	// Heldout[i] says run i of the data set was held out.
-	Heldout []bool
-	// Runs holds the per-run checks of the held-out runs.
-	Runs []RunScreen
-}
-
-// Evaluate splits ds by run, fits the model and certificate on the fit
-// runs, checks them on the held-out runs and sets the verdict.
-func Evaluate(ctx context.Context, ds *ingest.Dataset, opts *Options) (*Result, error) {
-	return nil, errors.New("validate: Evaluate not built yet")
 }

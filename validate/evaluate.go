@@ -1,0 +1,431 @@
+package validate
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"math"
+	"math/rand/v2"
+	"sort"
+	"strings"
+
+	"github.com/basin-dev/basin/fit"
+	"github.com/basin-dev/basin/ingest"
+)
+
+// Options controls Evaluate and Check. A nil *Options means defaults.
+type Options struct {
+	Folds int    // folds over runs; 0 means 5
+	Seed  uint64 // 0 means 1
+	// Beta is the scenario approach's confidence parameter; 0 means 1e-6.
+	Beta float64
+	// MinDecrease is the decrease_fraction a certified verdict needs; 0
+	// means 0.99.
+	MinDecrease float64
+	// Tolerance overrides the certificate's noise tolerance on a rise of
+	// V between consecutive samples, in units of V; 0 means the
+	// certificate's.
+	Tolerance float64
+	// LinearTol: an eigenvalue whose real part exceeds LinearTol times the
+	// largest eigenvalue magnitude makes the linearisation unstable, and
+	// one within ±LinearTol of it non-hyperbolic (stable strength at most);
+	// 0 means 0.02.
+	LinearTol float64
+	// DepartTol is the normalised trajectory error (per state, in units of
+	// the state's held-out spread) at which a simulation departs from its
+	// run; 0 means 0.1.
+	DepartTol float64
+	// AllFolds refits with each other fold held out too and counts the
+	// folds that agree with the released verdict; false means only the
+	// released split is fitted.
+	AllFolds bool
+	Field    *fit.FieldOptions
+	Certify  *fit.CertifyOptions
+}
+
+func (o *Options) get() Options {
+	var r Options
+	if o != nil {
+		r = *o
+	}
+	if r.Folds <= 0 {
+		r.Folds = 5
+	}
+	if r.Seed == 0 {
+		r.Seed = 1
+	}
+	if r.Beta <= 0 || r.Beta >= 1 {
+		r.Beta = 1e-6
+	}
+	if r.MinDecrease <= 0 || r.MinDecrease > 1 {
+		r.MinDecrease = 0.99
+	}
+	if r.LinearTol <= 0 {
+		r.LinearTol = 0.02
+	}
+	if r.DepartTol <= 0 {
+		r.DepartTol = 0.1
+	}
+	return r
+}
+
+// MinRuns is the fewest runs that allow a held-out verdict.
+const MinRuns = 3
+
+// ErrOptions is returned for an option out of range.
+var ErrOptions = errors.New("bad validate option")
+
+// Result is the whole evaluation: model and certificate fitted on the fit
+// runs, checked on the held-out runs.
+type Result struct {
+	Model       *fit.Model
+	Certificate *fit.Certificate
+	// Heldout[i] says run i of the data set was held out.
+	Heldout []bool
+	// Runs holds the per-run checks of the held-out runs.
+	Runs []RunScreen
+}
+
+// Split assigns each run a fold in 0..folds-1 by a permutation seeded
+// with seed (runs are dealt round robin in permuted order, so fold sizes
+// differ by at most one). A manifest wins: when some run has Split
+// "holdout", those runs get fold 0 and all others -1 (always fitted);
+// otherwise runs marked "fit" get -1 and the rest are dealt. It panics if
+// folds < 1.
+func Split(runs []ingest.Run, folds int, seed uint64) []int {
+	if folds < 1 {
+		panic("validate: Split: folds < 1")
+	}
+	out := make([]int, len(runs))
+	manual := false
+	for i := range runs {
+		if runs[i].Split == "holdout" {
+			manual = true
+		}
+	}
+	var auto []int
+	for i := range runs {
+		switch {
+		case manual && runs[i].Split == "holdout":
+			out[i] = 0
+		case manual || runs[i].Split == "fit":
+			out[i] = -1
+		default:
+			auto = append(auto, i)
+		}
+	}
+	rng := rand.New(rand.NewPCG(seed, 0))
+	rng.Shuffle(len(auto), func(a, b int) { auto[a], auto[b] = auto[b], auto[a] })
+	for k, i := range auto {
+		out[i] = k % folds
+	}
+	return out
+}
+
+// subset returns a data set with the runs where keep is true; the runs
+// share storage with ds.
+func subset(ds *ingest.Dataset, keep func(i int) bool) *ingest.Dataset {
+	out := &ingest.Dataset{States: ds.States, Time: ds.Time}
+	for i := range ds.Runs {
+		if keep(i) {
+			out.Runs = append(out.Runs, ds.Runs[i])
+		}
+	}
+	return out
+}
+
+// Check runs the certificate checks and the scenario bound on the runs
+// of ds, which the certificate must not have seen. It returns the figures
+// (Folds is left 0) and the per-run results in run order. Errors are for
+// a data set whose states differ from the certificate's and a done ctx.
+func Check(ctx context.Context, cert *fit.Certificate, ds *ingest.Dataset, opts *Options) (*fit.Validation, []RunScreen, error) {
+	o := opts.get()
+	if len(ds.States) != len(cert.States) {
+		return nil, nil, fmt.Errorf("certificate has %d states, data %d: %w", len(cert.States), len(ds.States), fit.ErrMismatch)
+	}
+	for j, c := range ds.States {
+		if c.Name != cert.States[j] {
+			return nil, nil, fmt.Errorf("state %d is %q in the certificate but %q in the data: %w", j+1, cert.States[j], c.Name, fit.ErrMismatch)
+		}
+	}
+	tau := Decorrelation(ds.Runs)
+	s := NewScreener(cert, &ScreenOptions{Tolerance: o.Tolerance})
+	s.spacing = tau
+	runs := make([]RunScreen, len(ds.Runs))
+	val := &fit.Validation{HeldoutRuns: len(ds.Runs), Decorrelation: tau, Confidence: 1 - o.Beta}
+	var scen, viol, started, stayed int
+	worst := math.Inf(-1)
+	settleRatio := 0.0
+	for i := range ds.Runs {
+		if err := ctx.Err(); err != nil {
+			return nil, nil, err
+		}
+		r := &runs[i]
+		s.Screen(r, ds.Runs[i].Source.File, &ds.Runs[i])
+		val.Pairs += r.Pairs
+		dec := r.Decreased
+		val.DecreaseFraction += float64(dec)
+		scen += r.scen
+		viol += r.scenViol
+		if r.Pairs > 0 && r.worstExcess > 0 && r.worstExcess > worst {
+			worst = r.worstExcess
+			val.Worst = &fit.Violation{Run: r.Run, Time: r.worstTime, State: append([]float64(nil), s.worstX...),
+				Excess: clampFinite(r.worstExcess), Kind: FlagRises}
+		}
+		if r.StartInside {
+			started++
+			if !hasFlag(r, FlagLeaves) {
+				stayed++
+			} else if f := flagOf(r, FlagLeaves); val.Worst == nil || val.Worst.Kind != FlagLeaves || f.Excess > val.Worst.Excess {
+				// leaving after starting inside outranks any rise
+				val.Worst = &fit.Violation{Run: r.Run, Time: f.Time, State: stateAt(&ds.Runs[i], f.Time), Excess: f.Excess, Kind: FlagLeaves}
+				worst = math.Inf(1)
+			}
+			if r.Settled {
+				val.Settled++
+			}
+			if r.VStart > 0 {
+				settleRatio = max(settleRatio, r.VEnd/r.VStart)
+			}
+		}
+	}
+	val.StartInside = started
+	if val.Pairs > 0 {
+		val.DecreaseFraction /= float64(val.Pairs)
+	}
+	if started > 0 {
+		val.InvarianceFraction = float64(stayed) / float64(started)
+	}
+	val.SettleRatio = clampFinite(settleRatio)
+	val.ScenarioSamples = scen
+	val.DecisionVars = len(cert.V.Exponents) + 1
+	val.ScenarioViolations = viol
+	val.ViolationBound = ViolationBound(scen, val.DecisionVars+viol, o.Beta)
+	val.Note = fmt.Sprintf("scenario bound: N = %d held-out pairs inside the region at least %.3g s apart "+
+		"(decorrelation time: lag where the states' autocorrelation falls below 1/e, median over runs); "+
+		"d = %d LP decision variables + %d violations among them", scen, tau, val.DecisionVars, viol)
+	return val, runs, nil
+}
+
+func hasFlag(r *RunScreen, kind string) bool {
+	for _, f := range r.Flags {
+		if f.Kind == kind {
+			return true
+		}
+	}
+	return false
+}
+
+func flagOf(r *RunScreen, kind string) Flag {
+	for _, f := range r.Flags {
+		if f.Kind == kind {
+			return f
+		}
+	}
+	return Flag{}
+}
+
+// stateAt returns run's state at the first sample with time >= t.
+func stateAt(run *ingest.Run, t float64) []float64 {
+	i := sort.SearchFloat64s(run.T, t)
+	i = min(i, run.Len()-1)
+	out := make([]float64, len(run.X))
+	for j := range out {
+		out[j] = run.X[j][i]
+	}
+	return out
+}
+
+// linear classifies a linearisation.
+type linear int
+
+const (
+	linUnknown  linear = iota
+	linStable          // every real part below -tol·|λ|max
+	linMarginal        // none above +tol·|λ|max, some within
+	linUnstable        // some real part above +tol·|λ|max
+)
+
+func classify(eig [][2]float64, tol float64) (linear, float64) {
+	if len(eig) == 0 {
+		return linUnknown, 0
+	}
+	mag, top := 0.0, math.Inf(-1)
+	for _, e := range eig {
+		mag = max(mag, math.Hypot(e[0], e[1]))
+		top = max(top, e[0])
+	}
+	switch {
+	case math.IsNaN(top):
+		return linUnknown, top
+	case top > tol*mag:
+		return linUnstable, top
+	case top >= -tol*mag:
+		return linMarginal, top
+	}
+	return linStable, top
+}
+
+// Decide sets cert's Verdict, Strength and Reason from the held-out
+// figures val, the runs checked and the linearisation's eigenvalues (nil
+// when unknown: then the certificate's own strength stands in for it).
+// See the package doc for the rules.
+func Decide(cert *fit.Certificate, val *fit.Validation, runs []RunScreen, eig [][2]float64, opts *Options) {
+	o := opts.get()
+	v, s, why := decide(cert, val, runs, eig, o)
+	cert.Verdict, cert.Strength, cert.Reason = v, s, why
+	cert.Empirical, cert.Caveat = true, fit.Caveat
+	cert.Validation = val
+}
+
+func decide(cert *fit.Certificate, val *fit.Validation, runs []RunScreen, eig [][2]float64, o Options) (fit.Verdict, fit.Strength, string) {
+	lin, top := classify(eig, o.LinearTol)
+	if eig == nil {
+		switch {
+		case cert.Verdict == fit.Certified && cert.Strength == fit.Asymptotic:
+			lin = linStable
+		case cert.Verdict == fit.Certified:
+			lin = linMarginal
+		case cert.Verdict == fit.Rejected && strings.Contains(cert.Reason, "linearisation"):
+			lin = linUnstable
+		}
+	}
+	if lin == linUnstable {
+		if eig == nil {
+			return fit.Rejected, fit.NoClaim, cert.Reason
+		}
+		return fit.Rejected, fit.NoClaim, fmt.Sprintf("The linearisation at the equilibrium is unstable (largest eigenvalue real part %+.3g 1/s).", top)
+	}
+	if !cert.Found || len(cert.V.Exponents) == 0 || !(cert.Level > 0) {
+		why := cert.Reason
+		if why == "" {
+			why = "No Lyapunov function was found on the fit runs."
+		}
+		return fit.Inconclusive, fit.NoClaim, why
+	}
+	tol := o.Tolerance
+	if tol <= 0 {
+		tol = cert.Tolerance
+	}
+	for _, r := range runs {
+		if r.StartInside && hasFlag(&r, FlagLeaves) {
+			if f := flagOf(&r, FlagLeaves); f.Excess > tol {
+				return fit.Rejected, fit.NoClaim, fmt.Sprintf("Held-out run %s started inside the region and left it at t = %.4g s (V above the level by %.3g).", r.Run, f.Time, f.Excess)
+			}
+		}
+	}
+	switch {
+	case val.HeldoutRuns == 0:
+		return fit.Inconclusive, fit.NoClaim, "No held-out runs to check the certificate on."
+	case val.StartInside == 0:
+		return fit.Inconclusive, fit.NoClaim, "No held-out run starts inside the certified region."
+	case val.Pairs == 0:
+		return fit.Inconclusive, fit.NoClaim, "No held-out sample pairs lie inside the region outside the noise ball."
+	case val.DecreaseFraction < o.MinDecrease:
+		return fit.Inconclusive, fit.NoClaim, fmt.Sprintf("V fell on only %.1f%% of %d held-out pairs inside the region (%.1f%% needed).", 100*val.DecreaseFraction, val.Pairs, 100*o.MinDecrease)
+	case val.InvarianceFraction < 1:
+		return fit.Inconclusive, fit.NoClaim, fmt.Sprintf("%d of %d held-out runs that started inside left the region, within the noise tolerance.", val.StartInside-int(math.Round(val.InvarianceFraction*float64(val.StartInside))), val.StartInside)
+	case lin == linUnknown && eig != nil:
+		return fit.Inconclusive, fit.NoClaim, "The linearisation at the equilibrium could not be classified."
+	}
+	if val.Settled == val.StartInside && cert.Margin > 0 && lin == linStable {
+		return fit.Certified, fit.Asymptotic, fmt.Sprintf("V fell on %.1f%% of %d held-out pairs inside the region; all %d held-out runs that started inside stayed inside and settled.", 100*val.DecreaseFraction, val.Pairs, val.StartInside)
+	}
+	why := "not all settled"
+	switch {
+	case val.Settled == val.StartInside && lin != linStable:
+		why = "settled, but the linearisation is not strictly stable"
+	case val.Settled == val.StartInside:
+		why = "settled, but V has no positive decrease margin"
+	}
+	return fit.Certified, fit.Stable, fmt.Sprintf("V did not rise beyond the noise tolerance on %.1f%% of %d held-out pairs and all %d held-out runs that started inside stayed inside but %s: stability without shown convergence.", 100*val.DecreaseFraction, val.Pairs, val.StartInside, why)
+}
+
+// Evaluate splits ds by run, fits the model and certificate on the fit
+// runs, checks them on the held-out runs and sets the verdict. Errors are
+// those of fit.Field and fit.Certify (bad input) and a done ctx; a
+// verdict of any kind is a result.
+func Evaluate(ctx context.Context, ds *ingest.Dataset, opts *Options) (*Result, error) {
+	o := opts.get()
+	if o.Folds < 2 {
+		return nil, fmt.Errorf("%w: folds must be at least 2, got %d", ErrOptions, o.Folds)
+	}
+	res := &Result{Heldout: make([]bool, len(ds.Runs))}
+	if len(ds.Runs) < MinRuns {
+		m, err := fit.Field(ctx, ds, o.Field)
+		if err != nil {
+			return nil, err
+		}
+		cert, err := fit.Certify(ctx, m, ds, o.Certify)
+		if err != nil {
+			return nil, err
+		}
+		cert.Verdict, cert.Strength = fit.Inconclusive, fit.NoClaim
+		cert.Reason = fmt.Sprintf("Only %d run(s): at least %d are needed to hold runs out, so there is no held-out verdict.", len(ds.Runs), MinRuns)
+		cert.Validation = &fit.Validation{Note: "no held-out runs", Confidence: 1 - o.Beta}
+		res.Model, res.Certificate = m, cert
+		return res, nil
+	}
+	fold := Split(ds.Runs, o.Folds, o.Seed)
+	one := func(f int) (*fit.Model, *fit.Certificate, []RunScreen, error) {
+		fitDS := subset(ds, func(i int) bool { return fold[i] != f })
+		hoDS := subset(ds, func(i int) bool { return fold[i] == f })
+		m, err := fit.Field(ctx, fitDS, o.Field)
+		if err != nil {
+			return nil, nil, nil, err
+		}
+		cert, err := fit.Certify(ctx, m, fitDS, o.Certify)
+		if err != nil {
+			return nil, nil, nil, err
+		}
+		val, runs, err := Check(ctx, cert, hoDS, &o)
+		if err != nil {
+			return nil, nil, nil, err
+		}
+		val.Folds = o.Folds
+		modelChecks(m, hoDS, val, o)
+		Decide(cert, val, runs, eigenvalues(m), &o)
+		return m, cert, runs, nil
+	}
+	m, cert, runs, err := one(0)
+	if err != nil {
+		return nil, err
+	}
+	for i := range ds.Runs {
+		res.Heldout[i] = fold[i] == 0
+	}
+	if o.AllFolds {
+		agree := 1
+		for f := 1; f < o.Folds; f++ {
+			has := false
+			for _, k := range fold {
+				has = has || k == f
+			}
+			if !has {
+				continue
+			}
+			_, c, _, err := one(f)
+			if err != nil {
+				return nil, err
+			}
+			if c.Verdict == cert.Verdict {
+				agree++
+			}
+		}
+		cert.Validation.FoldsAgree = agree
+	}
+	res.Model, res.Certificate, res.Runs = m, cert, runs
+	return res, nil
+}
+
+// eigenvalues returns the primary equilibrium's eigenvalues, or nil when
+// it lies outside the envelope (never called stable then).
+func eigenvalues(m *fit.Model) [][2]float64 {
+	if len(m.Equilibria) > 0 && !m.Equilibria[0].InEnvelope {
+		return [][2]float64{{math.NaN(), 0}}
+	}
+	if len(m.JacobianEigenvalues) == 0 {
+		return [][2]float64{{math.NaN(), 0}}
+	}
+	return m.JacobianEigenvalues
+}
