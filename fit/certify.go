@@ -476,6 +476,7 @@ func newChecker(ctx context.Context, m *Model, ds *ingest.Dataset, xe, scale []f
 func (ck *checker) lpRows(prev []float64, target, outer, lambda float64, o CertifyOptions, rng *rand.Rand) *certRows {
 	n := ck.fam.n
 	ve := newVEval(ck.fam, prev)
+	hq := ck.quadMax(prev)
 	rows := newCertRows(ck.fam, lambda)
 	total := 0
 	for i := range ck.runs {
@@ -505,7 +506,7 @@ func (ck *checker) lpRows(prev []float64, target, outer, lambda float64, o Certi
 			in := v <= target
 			rows.addPoint(z, ck.zf.evalTo(f, z), in)
 			if in && k+1 < m {
-				rows.addPair(z, r.z[(k+1)*n:(k+2)*n], r.t[k+1]-r.t[k], ck.pairTol(g)/target)
+				rows.addPair(z, r.z[(k+1)*n:(k+2)*n], r.t[k+1]-r.t[k], ck.pairTol(g, hq)/target)
 			}
 		}
 	}

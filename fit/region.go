@@ -77,15 +77,29 @@ type badMark struct {
 	run  string
 }
 
-// pairTol returns the noise tolerance on V(z_{k+1}) - V(z_k): kappa times
-// the standard deviation of grad V · (e_{k+1} - e_k) for independent
-// noise e of standard deviation sigma per state (first order).
-func (ck *checker) pairTol(g []float64) float64 {
-	s := 0.0
+// pairTol returns the noise tolerance on V(z_{k+1}) - V(z_k) for
+// independent noise e of standard deviation sigma per state: kappa times
+// the standard deviation of the first-order term grad V · (e_{k+1} - e_k),
+// plus kappa² hq |sigma|², a bound on the second-order term e'Pe at the
+// same level (hq the largest eigenvalue of V's quadratic part; it matters
+// near the noise ball, where grad V is small).
+func (ck *checker) pairTol(g []float64, hq float64) float64 {
+	s, s2 := 0.0, 0.0
 	for j, gj := range g {
 		s += gj * gj * ck.sigma[j] * ck.sigma[j]
+		s2 += ck.sigma[j] * ck.sigma[j]
 	}
-	return ck.kappa * math.Sqrt(2*s)
+	return ck.kappa*math.Sqrt(2*s) + ck.kappa*ck.kappa*math.Max(hq, 0)*s2
+}
+
+// quadMax returns the largest eigenvalue of V's quadratic part.
+func (ck *checker) quadMax(c []float64) float64 {
+	n := ck.fam.n
+	ev := symEigen(ck.fam.quadMatrix(c), n)
+	if ev == nil {
+		return 0
+	}
+	return ev[n-1]
 }
 
 // level returns the largest c such that the connected piece of {V <= c}
@@ -97,6 +111,7 @@ func (ck *checker) pairTol(g []float64) float64 {
 func (ck *checker) level(c []float64) levelResult {
 	env, n := ck.env, ck.fam.n
 	ve := newVEval(ck.fam, c)
+	hq := ck.quadMax(c)
 	bad := map[int]*badMark{}
 	mark := func(cell int, key float64, kind string, z []float64, run string) {
 		if cell < 0 {
@@ -133,7 +148,7 @@ func (ck *checker) level(c []float64) levelResult {
 			case !(vd < 0):
 				mark(int(r.cell[i]), v, LimitViolated, z, r.name)
 			case i+1 < m:
-				if vs[i+1]-v > ck.pairTol(ve.gbuf) {
+				if vs[i+1]-v > ck.pairTol(ve.gbuf, hq) {
 					mark(int(r.cell[i]), v, LimitViolated, z, r.name)
 				}
 			}
@@ -305,7 +320,7 @@ func (ck *checker) level(c []float64) levelResult {
 			}
 			res.pairs++
 			_, vd := ve.vdot(ck.zf, z0)
-			tol := ck.pairTol(ve.gbuf)
+			tol := ck.pairTol(ve.gbuf, hq)
 			res.tolerance = math.Max(res.tolerance, tol)
 			if vs[i+1]-vs[i] <= tol {
 				dec++
@@ -386,25 +401,7 @@ func (ck *checker) linearBall(ve *vEval) (float64, bool) {
 // the scaled Jacobian, and whether it is negative.
 func (ck *checker) linearDecay(c []float64) (float64, bool) {
 	n := ck.fam.n
-	p := make([]float64, n*n)
-	for k := 0; k < ck.fam.lib.Len(); k++ {
-		if ck.fam.lib.Degree(k) != 2 {
-			continue
-		}
-		var idx []int
-		for j, q := range ck.fam.lib.Exponents(k) {
-			for ; q > 0; q-- {
-				idx = append(idx, j)
-			}
-		}
-		i, j := idx[0], idx[1]
-		if i == j {
-			p[i*n+i] = c[k]
-		} else {
-			p[i*n+j] = c[k] / 2
-			p[j*n+i] = c[k] / 2
-		}
-	}
+	p := ck.fam.quadMatrix(c)
 	a := ck.az
 	mm := make([]float64, n*n)
 	for i := 0; i < n; i++ {

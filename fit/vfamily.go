@@ -124,6 +124,32 @@ func (f *vFamily) quadratic(p []float64) []float64 {
 	return c
 }
 
+// quadMatrix returns the symmetric n×n matrix P of V's quadratic part
+// (V = z'Pz + higher terms), row-major.
+func (f *vFamily) quadMatrix(c []float64) []float64 {
+	n := f.n
+	p := make([]float64, n*n)
+	for k := 0; k < f.lib.Len(); k++ {
+		if f.lib.Degree(k) != 2 {
+			continue
+		}
+		var idx []int
+		for j, q := range f.lib.Exponents(k) {
+			for ; q > 0; q-- {
+				idx = append(idx, j)
+			}
+		}
+		i, j := idx[0], idx[1]
+		if i == j {
+			p[i*n+i] = c[k]
+		} else {
+			p[i*n+j] = c[k] / 2
+			p[j*n+i] = c[k] / 2
+		}
+	}
+	return p
+}
+
 // trace returns the sum of the z_j² coefficients of c.
 func (f *vFamily) trace(c []float64) float64 {
 	s := 0.0
