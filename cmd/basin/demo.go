@@ -83,6 +83,7 @@ func runDemo(ctx context.Context, e *env, o any, args []string) error {
 		for _, st := range [][]string{
 			{"inspect", data},
 			{"fit", "--out", c.Out, data},
+			{"certify", "--model", filepath.Join(c.Out, "model.json"), "--out", c.Out, data},
 		} {
 			if !c.Quiet {
 				fmt.Fprintf(e.stdout, "\nbasin %s\n", strings.Join(st, " "))
