@@ -128,8 +128,8 @@ func rateUnit(u string) string {
 	return u + "/s"
 }
 
-// coef formats a coefficient with four significant digits and at least
-// three decimals, as in "1.000" or "0.02500"; tiny or huge ones in e form.
+// coef formats a coefficient's magnitude with four significant digits, as
+// in "1.000", "90.16" or "0.02500"; tiny or huge ones in e form.
 func coef(c float64) string {
 	a := math.Abs(c)
 	switch {
@@ -139,7 +139,7 @@ func coef(c float64) string {
 		return fmt.Sprintf("%.3e", a)
 	}
 	r, _ := strconv.ParseFloat(fmt.Sprintf("%.4g", a), 64) // 0.99999 -> 1
-	dec := max(3, 3-int(math.Floor(math.Log10(r))))
+	dec := max(0, 3-int(math.Floor(math.Log10(r))))
 	return fmt.Sprintf("%.*f", dec, r)
 }
 
