@@ -305,10 +305,7 @@ func (s *ipm) run(opts *Options) *Result {
 		for i := range d {
 			d[i] = st.z[i] / st.s[i]
 		}
-		for i := 0; i < m; i++ {
-			floats.ScaleTo(bw[i*n:(i+1)*n], math.Sqrt(d[i]), s.g[i*n:(i+1)*n])
-		}
-		s.normal(nm0, bw, m)
+		s.normal(nm0, bw, d[:m])
 		for k, j := range s.lo {
 			nm0[j*n+j] += d[m+k]
 		}
@@ -559,30 +556,42 @@ func (s *ipm) fill(res *Result, rows int, row func(i int) ([]float64, float64)) 
 	res.RelGap = res.Gap / (1 + math.Abs(res.Objective))
 }
 
-// normal stores B'B in the upper triangle of dst (n x n), where B is the
-// first m rows of bw (row-major, n columns). Large products are split by
-// rows over the available cores and summed.
-func (s *ipm) normal(dst, bw []float64, m int) {
-	n := s.n
+// normal stores G'DG in the upper triangle of dst (n x n), D = diag(d),
+// using bw (len(d) x n) as scratch for the transposed, scaled rows. Large
+// products are split by rows over the available cores and summed.
+func (s *ipm) normal(dst, bw, d []float64) {
+	n, m := s.n, len(d)
 	for i := range dst {
 		dst[i] = 0
 	}
 	if m == 0 || n == 0 {
 		return
 	}
-	sym := func(c []float64) blas64.Symmetric {
-		return blas64.Symmetric{N: n, Stride: n, Uplo: blas.Upper, Data: c}
-	}
-	gen := func(lo, hi int) blas64.General {
-		return blas64.General{Rows: hi - lo, Cols: n, Stride: n, Data: bw[lo*n : hi*n]}
-	}
 	w := min(runtime.GOMAXPROCS(0), m/64+1)
-	if w < 2 || m*n*n/2 < parallelWork {
-		blas64.Syrk(blas.Trans, 1, gen(0, m), 0, sym(dst))
-		return
+	if m*n*n/2 < parallelWork {
+		w = 1
 	}
 	if len(s.part) < (w-1)*n*n {
 		s.part = make([]float64, (w-1)*n*n)
+	}
+	// Worker k owns rows lo..hi and the block bw[lo*n:hi*n], which holds
+	// their transpose: entry (j, i-lo) = sqrt(d_i) g_ij.
+	work := func(k int, c []float64) {
+		lo, hi := k*m/w, (k+1)*m/w
+		kk := hi - lo
+		at := bw[lo*n : hi*n]
+		for i := lo; i < hi; i++ {
+			r := math.Sqrt(d[i])
+			g := s.g[i*n : (i+1)*n]
+			for j, v := range g {
+				at[j*kk+i-lo] = r * v
+			}
+		}
+		syrkT(c, at, n, kk)
+	}
+	if w == 1 {
+		work(0, dst)
+		return
 	}
 	var wg sync.WaitGroup
 	for k := 0; k < w; k++ {
@@ -591,10 +600,10 @@ func (s *ipm) normal(dst, bw []float64, m int) {
 			c = s.part[(k-1)*n*n : k*n*n]
 		}
 		wg.Add(1)
-		go func(k int, c []float64) {
+		go func() {
 			defer wg.Done()
-			blas64.Syrk(blas.Trans, 1, gen(k*m/w, (k+1)*m/w), 0, sym(c))
-		}(k, c)
+			work(k, c)
+		}()
 	}
 	wg.Wait()
 	for k := 1; k < w; k++ {
