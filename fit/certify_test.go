@@ -2,8 +2,10 @@ package fit
 
 import (
 	"context"
+	"errors"
 	"math"
 	"math/rand/v2"
+	"strings"
 	"testing"
 
 	"github.com/basin-dev/basin/ingest"
@@ -64,10 +66,11 @@ func certRK4(f func(dst, x []float64), x0 []float64, h float64, steps, every int
 	return ts, xs, true
 }
 
-// certRuns simulates runs from random starts in box that converge to the
-// equilibrium (within 0.05) and returns them as a dataset; noise adds
-// Gaussian measurement noise of that standard deviation.
-func certRuns(s *certSystem, box [][2]float64, runs int, h float64, steps, every int, noise float64, seed uint64) *ingest.Dataset {
+// certRuns simulates runs from random starts in box and returns them as a
+// dataset: only those that converge to the equilibrium (within 0.05), or
+// with keepAll every run that stays bounded. noise adds Gaussian
+// measurement noise of that standard deviation.
+func certRuns(s *certSystem, box [][2]float64, runs int, h float64, steps, every int, noise float64, seed uint64, keepAll bool) *ingest.Dataset {
 	rng := rand.New(rand.NewPCG(seed, 0))
 	n := len(s.states)
 	ds := &ingest.Dataset{}
@@ -87,7 +90,7 @@ func certRuns(s *certSystem, box [][2]float64, runs int, h float64, steps, every
 		for j := range x0 {
 			d += (xs[len(xs)-1][j] - s.eq[j]) * (xs[len(xs)-1][j] - s.eq[j])
 		}
-		if d > 0.05*0.05 {
+		if d > 0.05*0.05 && !keepAll {
 			continue
 		}
 		r := ingest.Run{Name: "run" + string(rune('A'+len(ds.Runs)%26)) + string(rune('0'+len(ds.Runs)/26)), T: ts, X: make([][]float64, n)}
@@ -118,20 +121,428 @@ var vdpReverse = &certSystem{
 	eq: []float64{0, 0},
 }
 
-func TestCertifyVanDerPol(t *testing.T) {
-	certDebug = t.Logf
-	defer func() { certDebug = nil }()
-	ds := certRuns(vdpReverse, [][2]float64{{-2.2, 2.2}, {-3, 3}}, 100, 0.005, 3000, 10, 0, 1)
+// vdpData is the Van der Pol data set of the tests: 100 runs started in
+// the box around the limit cycle that converge (so they lie inside it),
+// RK4 at h = 0.005 s, recorded every 0.05 s for 15 s, no noise.
+func vdpData() *ingest.Dataset {
+	return certRuns(vdpReverse, [][2]float64{{-2.2, 2.2}, {-3, 3}}, 100, 0.005, 3000, 10, 0, 1, false)
+}
+
+// vdpROAArea is the area inside the Van der Pol (mu = 1) limit cycle, the
+// true region of attraction of the reverse-time system (REFERENCES.md A4
+// and B5: 13.72222, computed there).
+const vdpROAArea = 13.72222
+
+// regionPoints draws up to want points uniformly from the data's box that
+// lie inside the certificate's region.
+func regionPoints(c *Certificate, lo, hi []float64, want int, seed uint64) [][]float64 {
+	rng := rand.New(rand.NewPCG(seed, 3))
+	n := len(lo)
+	vp := c.V.Compile(n)
+	z := make([]float64, n)
+	var out [][]float64
+	for tries := 0; len(out) < want && tries < 200*want; tries++ {
+		x := make([]float64, n)
+		for j := range x {
+			x[j] = lo[j] + rng.Float64()*(hi[j]-lo[j])
+		}
+		if c.Inside(x, vp.Eval(c.Z(z, x))) {
+			out = append(out, x)
+		}
+	}
+	return out
+}
+
+// dataBox returns the bounding box of ds.
+func dataBox(ds *ingest.Dataset) (lo, hi []float64) {
+	n := len(ds.States)
+	lo, hi = make([]float64, n), make([]float64, n)
+	for j := range lo {
+		lo[j], hi[j] = math.Inf(1), math.Inf(-1)
+	}
+	for _, r := range ds.Runs {
+		for j := range r.X {
+			for _, v := range r.X[j] {
+				lo[j], hi[j] = math.Min(lo[j], v), math.Max(hi[j], v)
+			}
+		}
+	}
+	return lo, hi
+}
+
+// checkConverges simulates every point with the true dynamics (own RK4,
+// h = 0.01 s, 40 s) and fails the test for any that does not end within
+// tol of the equilibrium.
+func checkConverges(t *testing.T, s *certSystem, pts [][]float64, tol float64) {
+	t.Helper()
+	bad := 0
+	for _, x0 := range pts {
+		_, xs, ok := certRK4(s.f, x0, 0.01, 4000, 4000, 100)
+		d := 0.0
+		end := xs[len(xs)-1]
+		for j := range end {
+			d += (end[j] - s.eq[j]) * (end[j] - s.eq[j])
+		}
+		if !ok || d > tol*tol {
+			bad++
+			if bad <= 3 {
+				t.Errorf("%s: region point %v does not converge (ends at %v)", s.name, x0, end)
+			}
+		}
+	}
+	if bad > 0 {
+		t.Errorf("%s: %d of %d region points do not converge", s.name, bad, len(pts))
+	}
+}
+
+func TestCertifyVanDerPolKhalilLevel(t *testing.T) {
+	// The quadratic V = 1.5x1² - x1x2 + x2² from the Lyapunov equation with
+	// Q = I (Khalil, Nonlinear Systems, 3rd ed., §8.2; REFERENCES.md B4)
+	// has its best level at c* = 2.3044776 (computed there with mpmath):
+	// a sound level search must stay at or below c* + 1e-3, and should
+	// reach 2.2 (REFERENCES.md B4).
+	ds := vdpData()
 	m := vdpReverse.model([]float64{1, 1})
+	ck, _, err := newChecker(context.Background(), m, ds, m.Equilibrium, []float64{1, 1}, (&CertifyOptions{}).get())
+	if err != nil {
+		t.Fatal(err)
+	}
+	ck.az = []float64{0, -1, 1, -1}
+	c := []float64{1.5, -1, 1} // terms z1², z1 z2, z2²
+	r := ck.level(c)
+	if !r.ok {
+		t.Fatalf("no level: %s", r.reason)
+	}
+	if r.level > 2.3044776+1e-3 || r.level < 2.2 {
+		t.Errorf("level %.5f, want in [2.2, 2.3055]", r.level)
+	}
+	t.Logf("Khalil's P: level %.5f (c* = 2.30448), limited by %s at %v", r.level, r.limit, r.limitZ)
+}
+
+func TestCertifyVanDerPol(t *testing.T) {
+	ds := vdpData()
+	m := vdpReverse.model([]float64{1, 1})
+	lo, hi := dataBox(ds)
+	for _, tc := range []struct {
+		deg      int
+		minShare float64 // of the true region of attraction
+	}{
+		// The best quadratic from Khalil's P reaches 47.2% of the true
+		// area (REFERENCES.md B5); the first-order cell bound costs a few
+		// per cent of that (FINDINGS: 3-5%), so 0.46 is asked of the LP's
+		// quadratic (measured 0.469).
+		{2, 0.46},
+		// The aim for degree 4 (measured ~0.80).
+		{4, 0.60},
+	} {
+		c, err := Certify(context.Background(), m, ds, &CertifyOptions{Degree: tc.deg})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if !c.Found {
+			t.Fatalf("degree %d: no certificate: %s", tc.deg, c.Reason)
+		}
+		share := c.Region.Volume / vdpROAArea
+		t.Logf("degree %d: level %.4g, %.1f%% of the envelope, %.1f%% of the true ROA, limit %s, %d solves, %d rounds",
+			tc.deg, c.Level, 100*c.Region.EnvelopeShare, 100*share, c.Region.Limit, c.Region.Solves, c.Region.LPRounds)
+		if share < tc.minShare {
+			t.Errorf("degree %d: %.3f of the true ROA, want >= %.2f", tc.deg, share, tc.minShare)
+		}
+		// The region lies inside the limit cycle: its area cannot exceed
+		// the cycle's (REFERENCES.md B5), allowing 2% for the Monte-Carlo
+		// share (20,000 points: relative error ~1%).
+		if c.Region.Volume > vdpROAArea*1.02 {
+			t.Errorf("degree %d: region area %.3f exceeds the ROA's %.3f", tc.deg, c.Region.Volume, vdpROAArea)
+		}
+		if c.Verdict != Inconclusive || c.Strength != NoClaim || !c.Empirical || c.Caveat != Caveat || c.Format != CertificateFormat {
+			t.Errorf("degree %d: verdict %s strength %s empirical %v", tc.deg, c.Verdict, c.Strength, c.Empirical)
+		}
+		// Every point of the region converges under the true dynamics.
+		pts := regionPoints(c, lo, hi, 300, uint64(tc.deg))
+		if len(pts) < 100 {
+			t.Fatalf("only %d region points drawn", len(pts))
+		}
+		checkConverges(t, vdpReverse, pts, 0.05)
+	}
+}
+
+func TestCertifyLinearLP(t *testing.T) {
+	// On a stable linear system the LP's quadratic must satisfy A'P + PA
+	// negative definite (Lyapunov's theorem for linear systems, e.g.
+	// Khalil, Nonlinear Systems, Theorem 4.6); checked by its eigenvalues.
+	// A = [[0, 1], [-2, -3]] (REFERENCES.md B2).
+	sys := &certSystem{
+		name:   "linear",
+		states: []string{"a", "b"},
+		eqs: []Equation{
+			{State: "a", Exponents: [][]int{{0, 1}}, Coefficients: []float64{1}},
+			{State: "b", Exponents: [][]int{{1, 0}, {0, 1}}, Coefficients: []float64{-2, -3}},
+		},
+		f:  func(dst, x []float64) { dst[0] = x[1]; dst[1] = -2*x[0] - 3*x[1] },
+		eq: []float64{0, 0},
+	}
+	ds := certRuns(sys, [][2]float64{{-1, 1}, {-1, 1}}, 20, 0.01, 600, 5, 0, 2, false)
+	m := sys.model([]float64{1, 1})
+	o := (&CertifyOptions{}).get()
+	ck, _, err := newChecker(context.Background(), m, ds, m.Equilibrium, []float64{1, 1}, o)
+	if err != nil {
+		t.Fatal(err)
+	}
+	a := []float64{0, 1, -2, -3}
+	ck.az = a
+	// Start from the identity (not the Lyapunov solution), so the LP must
+	// find the decrease itself.
+	prev := ck.fam.quadratic(eye(2))
+	rows := ck.lpRows(prev, 0.5, 0.5, 0, o, rand.New(rand.NewPCG(1, 0)))
+	out := solveCertLP(ck.fam, rows)
+	if out.err != nil || !(out.g > 0) {
+		t.Fatalf("LP: %v, margin %g", out.err, out.g)
+	}
+	p := ck.fam.quadMatrix(out.c)
+	lam, ok := ck.linearDecay(out.c)
+	ev := symEigen(p, 2)
+	if !ok || !(ev[0] > 0) {
+		t.Errorf("P = %v (eigenvalues %v), A'P+PA largest eigenvalue %g: want P > 0 and A'P+PA < 0", p, ev, lam)
+	}
+	// The margin bounds the decrease: z'(A'P+PA)z <= -g|z|², so
+	// lambda_max <= -g up to the LP tolerance (1e-7 relative, sampled
+	// directions only: 1e-3 slack).
+	if lam > -out.g*(1-1e-3) {
+		t.Errorf("lambda_max(A'P+PA) = %g, margin %g: want <= -margin", lam, out.g)
+	}
+}
+
+// The damped pendulum x1' = x2, x2' = -sin x1 - 0.5 x2 with saddles at
+// ±pi. The model is a least-squares odd polynomial for sin on
+// [-4.5, 4.5] (degree 7), whose zeros near ±pi are its other equilibria.
+func pendulumSystem(t *testing.T) *certSystem {
+	// Least squares for sin x ~ a1 x + a3 x³ + a5 x⁵ + a7 x⁷ on a grid.
+	var ata [4][4]float64
+	var atb [4]float64
+	for i := -900; i <= 900; i++ {
+		x := 4.5 * float64(i) / 900
+		phi := [4]float64{x, x * x * x, math.Pow(x, 5), math.Pow(x, 7)}
+		for a := 0; a < 4; a++ {
+			for b := 0; b < 4; b++ {
+				ata[a][b] += phi[a] * phi[b]
+			}
+			atb[a] += phi[a] * math.Sin(x)
+		}
+	}
+	k := solve4(ata, atb)
+	poly7 := func(x float64) float64 { return k[0]*x + k[1]*x*x*x + k[2]*math.Pow(x, 5) + k[3]*math.Pow(x, 7) }
+	// Newton for the zeros near ±pi.
+	root := math.Pi
+	for it := 0; it < 50; it++ {
+		d := k[0] + 3*k[1]*root*root + 5*k[2]*math.Pow(root, 4) + 7*k[3]*math.Pow(root, 6)
+		root -= poly7(root) / d
+	}
+	if math.Abs(root-math.Pi) > 0.1 {
+		t.Fatalf("fitted sin has its zero at %g, not near pi", root)
+	}
+	return &certSystem{
+		name:   "pendulum",
+		states: []string{"theta", "omega"},
+		eqs: []Equation{
+			{State: "theta", Exponents: [][]int{{0, 1}}, Coefficients: []float64{1}},
+			{State: "omega", Exponents: [][]int{{1, 0}, {3, 0}, {5, 0}, {7, 0}, {0, 1}},
+				Coefficients: []float64{-k[0], -k[1], -k[2], -k[3], -0.5}},
+		},
+		f:      func(dst, x []float64) { dst[0] = x[1]; dst[1] = -math.Sin(x[0]) - 0.5*x[1] },
+		eq:     []float64{0, 0},
+		others: [][]float64{{root, 0}, {-root, 0}},
+	}
+}
+
+func solve4(a [4][4]float64, b [4]float64) [4]float64 {
+	for c := 0; c < 4; c++ {
+		p := c
+		for r := c + 1; r < 4; r++ {
+			if math.Abs(a[r][c]) > math.Abs(a[p][c]) {
+				p = r
+			}
+		}
+		a[c], a[p] = a[p], a[c]
+		b[c], b[p] = b[p], b[c]
+		for r := 0; r < 4; r++ {
+			if r == c {
+				continue
+			}
+			f := a[r][c] / a[c][c]
+			for j := c; j < 4; j++ {
+				a[r][j] -= f * a[c][j]
+			}
+			b[r] -= f * b[c]
+		}
+	}
+	var x [4]float64
+	for i := range x {
+		x[i] = b[i] / a[i][i]
+	}
+	return x
+}
+
+// The double-well oscillator x1' = x2, x2' = x1 - x1³ - 0.5 x2: wells at
+// (±1, 0), a saddle at the origin; certified around the right well.
+var doubleWell = &certSystem{
+	name:   "double-well",
+	states: []string{"p", "v"},
+	eqs: []Equation{
+		{State: "p", Exponents: [][]int{{0, 1}}, Coefficients: []float64{1}},
+		{State: "v", Exponents: [][]int{{1, 0}, {3, 0}, {0, 1}}, Coefficients: []float64{1, -1, -0.5}},
+	},
+	f:      func(dst, x []float64) { dst[0] = x[1]; dst[1] = x[0] - x[0]*x[0]*x[0] - 0.5*x[1] },
+	eq:     []float64{1, 0},
+	others: [][]float64{{0, 0}, {-1, 0}},
+}
+
+func TestCertifySaddles(t *testing.T) {
+	pend := pendulumSystem(t)
+	for _, tc := range []struct {
+		sys  *certSystem
+		box  [][2]float64
+		deg  int
+		skip bool
+	}{
+		{pend, [][2]float64{{-4, 4}, {-2.5, 2.5}}, 2, false},
+		{pend, [][2]float64{{-4, 4}, {-2.5, 2.5}}, 4, testing.Short()},
+		{doubleWell, [][2]float64{{-2, 2}, {-1.5, 1.5}}, 2, false},
+		{doubleWell, [][2]float64{{-2, 2}, {-1.5, 1.5}}, 4, testing.Short()},
+	} {
+		if tc.skip {
+			continue
+		}
+		t.Run(tc.sys.name+"-"+string(rune('0'+tc.deg)), func(t *testing.T) {
+			// Runs from the whole box, kept whatever equilibrium they reach,
+			// so the saddles lie inside the data's envelope.
+			ds := certRuns(tc.sys, tc.box, 60, 0.01, 2000, 4, 0, 5, true)
+			m := tc.sys.model([]float64{1, 1})
+			c, err := Certify(context.Background(), m, ds, &CertifyOptions{Degree: tc.deg})
+			if err != nil {
+				t.Fatal(err)
+			}
+			if !c.Found {
+				t.Fatalf("no certificate: %s", c.Reason)
+			}
+			t.Logf("level %.4g, %.1f%% of the envelope, limit %s at %v", c.Level, 100*c.Region.EnvelopeShare, c.Region.Limit, c.Region.LimitPoint)
+			vp := c.V.Compile(2)
+			z := make([]float64, 2)
+			for _, o := range tc.sys.others {
+				// The model's other equilibria and the true saddles (±pi for
+				// the pendulum, whose model zeros are close to them).
+				for _, x := range [][]float64{o, {math.Copysign(math.Pi, o[0]), 0}} {
+					if tc.sys.name != "pendulum" && x[0] != o[0] {
+						continue
+					}
+					if c.Inside(x, vp.Eval(c.Z(z, x))) {
+						t.Errorf("the region holds the equilibrium %v", x)
+					}
+				}
+			}
+			lo, hi := dataBox(ds)
+			pts := regionPoints(c, lo, hi, 300, 9)
+			if len(pts) < 50 {
+				t.Fatalf("only %d region points", len(pts))
+			}
+			checkConverges(t, tc.sys, pts, 0.05)
+		})
+	}
+}
+
+func TestCertifyLimitCycle(t *testing.T) {
+	// Van der Pol forward in time (mu = 1): the origin is an unstable
+	// focus inside a stable limit cycle, so no certificate may exist for
+	// it (Khalil, Nonlinear Systems, §2.7; the linearisation has
+	// eigenvalues (1 ± i√3)/2).
+	sys := &certSystem{
+		name:   "vdp-forward",
+		states: []string{"x1", "x2"},
+		eqs: []Equation{
+			{State: "x1", Exponents: [][]int{{0, 1}}, Coefficients: []float64{1}},
+			{State: "x2", Exponents: [][]int{{1, 0}, {0, 1}, {2, 1}}, Coefficients: []float64{-1, 1, -1}},
+		},
+		f:  func(dst, x []float64) { dst[0] = x[1]; dst[1] = -x[0] + (1-x[0]*x[0])*x[1] },
+		eq: []float64{0, 0},
+	}
+	ds := certRuns(sys, [][2]float64{{-1, 1}, {-1, 1}}, 20, 0.01, 2000, 5, 0, 3, true)
+	for _, deg := range []int{2, 4} {
+		c, err := Certify(context.Background(), sys.model([]float64{1, 1}), ds, &CertifyOptions{Degree: deg})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if c.Found || !c.Contradicted || c.Verdict != Inconclusive || c.Reason == "" {
+			t.Errorf("degree %d: found %v contradicted %v verdict %s reason %q", deg, c.Found, c.Contradicted, c.Verdict, c.Reason)
+		}
+		t.Logf("%s", c.Reason)
+	}
+}
+
+func TestCertifyBadInput(t *testing.T) {
+	ds := certRuns(vdpReverse, [][2]float64{{-1, 1}, {-1, 1}}, 5, 0.01, 300, 5, 0, 4, false)
+	m := vdpReverse.model([]float64{1, 1})
+	ctx := context.Background()
+	if _, err := Certify(ctx, m, ds, &CertifyOptions{Degree: 3}); !errors.Is(err, ErrOptions) {
+		t.Errorf("odd degree: err = %v, want ErrOptions", err)
+	}
+	other := *ds
+	other.States = []ingest.Column{{Name: "x1"}, {Name: "y"}}
+	if _, err := Certify(ctx, m, &other, nil); !errors.Is(err, ErrMismatch) {
+		t.Errorf("state names differ: err = %v, want ErrMismatch", err)
+	}
+	if _, err := Certify(ctx, m, &ingest.Dataset{States: ds.States}, nil); !errors.Is(err, ErrTooFewSamples) {
+		t.Errorf("no samples: err = %v, want ErrTooFewSamples", err)
+	}
+	// Equilibrium outside the envelope: a result, not an error.
+	far := vdpReverse.model([]float64{1, 1})
+	far.Equilibrium = []float64{0, 10} // the Jacobian there is stable, so only the envelope stops it
+	far.Equilibria[0].Point = far.Equilibrium
+	c, err := Certify(ctx, far, ds, nil)
+	if err != nil || c.Found || !strings.Contains(c.Reason, "outside the envelope") {
+		t.Errorf("far equilibrium: err %v found %v reason %q", err, c != nil && c.Found, c.Reason)
+	}
+	// Degree too high for the samples.
+	tiny := *ds
+	tiny.Runs = []ingest.Run{ds.Runs[0]}
+	tiny.Runs[0].T = tiny.Runs[0].T[:20]
+	tiny.Runs[0].X = [][]float64{tiny.Runs[0].X[0][:20], tiny.Runs[0].X[1][:20]}
+	c, err = Certify(ctx, m, &tiny, &CertifyOptions{Degree: 8})
+	if err != nil || c.Found || !strings.Contains(c.Reason, "too few") {
+		t.Errorf("degree 8 on 20 samples: err %v reason %q", err, c.Reason)
+	}
+	// A centre (eigenvalues ±i): no strict start, not contradicted.
+	centre := &certSystem{states: []string{"x1", "x2"}, eq: []float64{0, 0}, eqs: []Equation{
+		{State: "x1", Exponents: [][]int{{0, 1}}, Coefficients: []float64{1}},
+		{State: "x2", Exponents: [][]int{{1, 0}}, Coefficients: []float64{-1}},
+	}}
+	c, err = Certify(ctx, centre.model([]float64{1, 1}), ds, nil)
+	if err != nil || c.Found || c.Contradicted {
+		t.Errorf("centre: err %v found %v contradicted %v", err, c.Found, c.Contradicted)
+	}
+}
+
+func TestCertifyVanDerPolFitted(t *testing.T) {
+	if testing.Short() {
+		t.Skip("fits the field; slow")
+	}
+	// The same runs with 0.01 of seeded measurement noise, the field
+	// fitted by Field: the shares are reported (the closing note's table),
+	// and the region must still converge under the true dynamics.
+	ds := certRuns(vdpReverse, [][2]float64{{-2.2, 2.2}, {-3, 3}}, 100, 0.005, 3000, 10, 0.01, 1, false)
+	m, err := Field(context.Background(), ds, &FieldOptions{Bootstrap: -1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	lo, hi := dataBox(ds)
 	for _, deg := range []int{2, 4} {
 		c, err := Certify(context.Background(), m, ds, &CertifyOptions{Degree: deg})
 		if err != nil {
 			t.Fatal(err)
 		}
-		t.Logf("deg %d: found %v level %.4g share %.3f volume %.3f (ROA share %.3f) limit %s rounds %d solves %d reason %s",
-			deg, c.Found, c.Level, c.Region.EnvelopeShare, c.Region.Volume, c.Region.Volume/13.72222, c.Region.Limit, c.Region.LPRounds, c.Region.Solves, c.Reason)
-		t.Logf("V = %v", c.V.Coefficients)
+		if !c.Found {
+			t.Fatalf("degree %d: %s", deg, c.Reason)
+		}
+		t.Logf("fitted field, degree %d: %.1f%% of the true ROA, %.1f%% of the envelope, limit %s; %s",
+			deg, 100*c.Region.Volume/vdpROAArea, 100*c.Region.EnvelopeShare, c.Region.Limit, c.Reason)
+		checkConverges(t, vdpReverse, regionPoints(c, lo, hi, 300, 5), 0.05)
 	}
 }
-
-var _ = math.Pi
