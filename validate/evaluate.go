@@ -26,10 +26,10 @@ type Options struct {
 	// V between consecutive samples, in units of V; 0 means the
 	// certificate's.
 	Tolerance float64
-	// LinearTol: an eigenvalue whose real part exceeds LinearTol times the
-	// largest eigenvalue magnitude makes the linearisation unstable, and
-	// one within ±LinearTol of it non-hyperbolic (stable strength at most);
-	// 0 means 0.02.
+	// LinearTol: an eigenvalue whose real part exceeds LinearTol times its
+	// own magnitude makes the linearisation unstable, and one within
+	// ±LinearTol of it non-hyperbolic (stable strength at most); 0 means
+	// 0.005.
 	LinearTol float64
 	// DepartTol is the normalised trajectory error (per state, in units of
 	// the state's held-out spread) at which a simulation departs from its
@@ -61,7 +61,7 @@ func (o *Options) get() Options {
 		r.MinDecrease = 0.99
 	}
 	if r.LinearTol <= 0 {
-		r.LinearTol = 0.02
+		r.LinearTol = 0.005
 	}
 	if r.DepartTol <= 0 {
 		r.DepartTol = 0.1
@@ -241,29 +241,30 @@ type linear int
 
 const (
 	linUnknown  linear = iota
-	linStable          // every real part below -tol·|λ|max
-	linMarginal        // none above +tol·|λ|max, some within
-	linUnstable        // some real part above +tol·|λ|max
+	linStable          // every real part below -tol·|λ|
+	linMarginal        // none above +tol·|λ|, some within
+	linUnstable        // some real part above +tol·|λ|
 )
 
 func classify(eig [][2]float64, tol float64) (linear, float64) {
 	if len(eig) == 0 {
 		return linUnknown, 0
 	}
-	mag, top := 0.0, math.Inf(-1)
+	cls, top := linStable, math.Inf(-1)
 	for _, e := range eig {
-		mag = max(mag, math.Hypot(e[0], e[1]))
+		if math.IsNaN(e[0]) || math.IsNaN(e[1]) {
+			return linUnknown, math.NaN()
+		}
 		top = max(top, e[0])
+		mag := math.Hypot(e[0], e[1])
+		switch {
+		case e[0] > tol*mag:
+			return linUnstable, e[0]
+		case e[0] >= -tol*mag:
+			cls = linMarginal
+		}
 	}
-	switch {
-	case math.IsNaN(top):
-		return linUnknown, top
-	case top > tol*mag:
-		return linUnstable, top
-	case top >= -tol*mag:
-		return linMarginal, top
-	}
-	return linStable, top
+	return cls, top
 }
 
 // Decide sets cert's Verdict, Strength and Reason from the held-out

@@ -1,0 +1,108 @@
+package validate
+
+import (
+	"context"
+	"math"
+	"testing"
+
+	"github.com/basin-dev/basin/fit"
+	"github.com/basin-dev/basin/ingest"
+)
+
+func TestSplit(t *testing.T) {
+	runs := make([]ingest.Run, 11)
+	f := Split(runs, 4, 1)
+	count := map[int]int{}
+	for _, k := range f {
+		count[k]++
+	}
+	for k := 0; k < 4; k++ {
+		if count[k] < 2 || count[k] > 3 {
+			t.Errorf("fold %d has %d runs: %v", k, count[k], f)
+		}
+	}
+	g := Split(runs, 4, 1)
+	h := Split(runs, 4, 2)
+	same, differ := true, false
+	for i := range f {
+		same = same && f[i] == g[i]
+		differ = differ || f[i] != h[i]
+	}
+	if !same || !differ {
+		t.Errorf("seeded: same seed equal %v, other seed differs %v", same, differ)
+	}
+	// A manifest's holdout wins; "fit" never held out.
+	runs[2].Split, runs[5].Split, runs[6].Split = "holdout", "holdout", "fit"
+	f = Split(runs, 4, 1)
+	for i, k := range f {
+		if want := map[bool]int{true: 0, false: -1}[runs[i].Split == "holdout"]; k != want {
+			t.Errorf("run %d (%q) fold %d, want %d", i, runs[i].Split, k, want)
+		}
+	}
+	runs[2].Split, runs[5].Split = "", ""
+	f = Split(runs, 4, 1)
+	if f[6] != -1 {
+		t.Errorf("a fit run was dealt to fold %d", f[6])
+	}
+}
+
+// TestEvaluateFewRuns: with 2 runs there is no held-out verdict.
+func TestEvaluateFewRuns(t *testing.T) {
+	sys := damped
+	sys.runs, sys.dur, sys.rate = 2, 40, 100
+	res, err := Evaluate(context.Background(), simulate(t, sys, 0, 1), evalOpts())
+	if err != nil {
+		t.Fatal(err)
+	}
+	if c := res.Certificate; c.Verdict != fit.Inconclusive || c.Strength != fit.NoClaim || c.Reason == "" {
+		t.Errorf("%s/%s: %s", c.Verdict, c.Strength, c.Reason)
+	}
+}
+
+// TestDecideLeaves: a held-out run that starts inside and leaves by more
+// than the tolerance rejects, whatever else holds; within the tolerance
+// it is inconclusive.
+func TestDecideLeaves(t *testing.T) {
+	stable := [][2]float64{{-0.3, 2}, {-0.3, -2}}
+	mk := func(growth float64) (*fit.Certificate, *fit.Validation, []RunScreen) {
+		c := circleCert(false)
+		c.Margin = 0.1
+		ds := &ingest.Dataset{States: []ingest.Column{{Name: "a"}, {Name: "b"}}}
+		for i := 0; i < 4; i++ {
+			ph := float64(i)
+			ds.Runs = append(ds.Runs, makeRun("d", 500, 0.01, func(t float64) (float64, float64) {
+				a := 0.8 * math.Exp(-t)
+				return a * math.Cos(3*t+ph), a * math.Sin(3*t+ph)
+			}))
+		}
+		ds.Runs = append(ds.Runs, makeRun("out", 500, 0.01, func(t float64) (float64, float64) {
+			return 0.95 + growth*t/5, 0
+		}))
+		val, runs, err := Check(context.Background(), c, ds, nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		return c, val, runs
+	}
+	c, val, runs := mk(0)
+	Decide(c, val, runs, stable, nil)
+	if c.Verdict != fit.Certified || c.Strength != fit.Stable {
+		// the "out" run sits still inside: stays, does not settle
+		t.Errorf("baseline: %s/%s %s", c.Verdict, c.Strength, c.Reason)
+	}
+	c, val, runs = mk(0.5)
+	Decide(c, val, runs, stable, nil)
+	if c.Verdict != fit.Rejected || val.Worst == nil || val.Worst.Kind != FlagLeaves || val.Worst.Run != "out" {
+		t.Errorf("leaving: %s %s worst %+v", c.Verdict, c.Reason, val.Worst)
+	}
+	c, val, runs = mk(0.1) // reaches z0 = 1.05: V = 1.1025, 0.1 above level
+	c.Tolerance = 0.2
+	Decide(c, val, runs, stable, &Options{Tolerance: 0.2})
+	if c.Verdict != fit.Inconclusive {
+		t.Errorf("leaving within tolerance: %s %s", c.Verdict, c.Reason)
+	}
+	Decide(c, val, runs, [][2]float64{{0.2, 1}, {0.2, -1}}, nil)
+	if c.Verdict != fit.Rejected {
+		t.Errorf("unstable linearisation: %s", c.Verdict)
+	}
+}

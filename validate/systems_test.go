@@ -1,0 +1,218 @@
+package validate
+
+import (
+	"context"
+	"fmt"
+	"math"
+	"math/rand/v2"
+	"testing"
+	"time"
+
+	"github.com/basin-dev/basin/fit"
+	"github.com/basin-dev/basin/fit/poly"
+	"github.com/basin-dev/basin/ingest"
+)
+
+// system is a test system with a known character.
+type system struct {
+	name   string
+	source string
+	f      ODE
+	states []string
+	x0     func(rng *rand.Rand) []float64 // a random initial condition
+	dur    float64                        // run duration, s
+	rate   float64                        // Hz
+	runs   int
+}
+
+// simulate draws runs of sys with Gaussian measurement noise of standard
+// deviation noise times each state's spread.
+func simulate(t testing.TB, sys system, noise float64, seed uint64) *ingest.Dataset {
+	rng := rand.New(rand.NewPCG(seed, 0))
+	ds := &ingest.Dataset{}
+	for _, s := range sys.states {
+		ds.States = append(ds.States, ingest.Column{Name: s})
+	}
+	m := int(sys.dur*sys.rate) + 1
+	ts := make([]float64, m)
+	for i := range ts {
+		ts[i] = float64(i) / sys.rate
+	}
+	n := len(sys.states)
+	var all [][]float64
+	for r := 0; r < sys.runs; r++ {
+		x := make([][]float64, n)
+		for j := range x {
+			x[j] = make([]float64, m)
+		}
+		st := Integrate(sys.f, sys.x0(rng), ts, x, &DopriOptions{RelTol: 1e-9, AbsTol: 1e-12})
+		if st.Diverged {
+			t.Fatalf("%s: truth simulation diverged: %s", sys.name, st.Reason)
+		}
+		all = append(all, x...)
+		ds.Runs = append(ds.Runs, ingest.Run{Name: fmt.Sprintf("%s-%02d", sys.name, r),
+			Source: ingest.Source{File: sys.name + ".csv"}, T: append([]float64(nil), ts...), X: x})
+	}
+	for j := 0; j < n; j++ {
+		lo, hi := math.Inf(1), math.Inf(-1)
+		for r := range ds.Runs {
+			for _, v := range ds.Runs[r].X[j] {
+				lo, hi = math.Min(lo, v), math.Max(hi, v)
+			}
+		}
+		for r := range ds.Runs {
+			for i := range ds.Runs[r].X[j] {
+				ds.Runs[r].X[j][i] += noise * (hi - lo) * rng.NormFloat64()
+			}
+		}
+	}
+	return ds
+}
+
+func box(rng *rand.Rand, half ...float64) []float64 {
+	x := make([]float64, len(half))
+	for j, h := range half {
+		x[j] = h * (2*rng.Float64() - 1)
+	}
+	return x
+}
+
+var (
+	// Linear oscillator x'' + c x' + k x = 0 (any dynamics text, e.g.
+	// Strogatz, Nonlinear Dynamics and Chaos, 1994, §5.1; common
+	// practice): damped c = 0.6 is a stable focus, c = 0 a centre whose
+	// energy is conserved.
+	damped = system{name: "damped", source: "linear oscillator, c = 0.6, k = 4 (Strogatz 1994 §5.1, from memory)",
+		f:      func(d []float64, _ float64, x []float64) { d[0] = x[1]; d[1] = -4*x[0] - 0.6*x[1] },
+		states: []string{"x", "v"}, x0: func(r *rand.Rand) []float64 { return box(r, 1, 2) }, dur: 12, rate: 50, runs: 12}
+	lossless = system{name: "lossless", source: "linear oscillator, c = 0, k = 4: a centre (Strogatz 1994 §5.2, from memory)",
+		f:      func(d []float64, _ float64, x []float64) { d[0] = x[1]; d[1] = -4 * x[0] },
+		states: []string{"x", "v"}, x0: func(r *rand.Rand) []float64 { return box(r, 1, 2) }, dur: 12, rate: 50, runs: 12}
+	// Damped pendulum x'' = -a sin x - b x', a = 4, b = 0.8 (Khalil,
+	// Nonlinear Systems, 3rd ed., 2002, §4.1; REFERENCES.md B3).
+	pendulum = system{name: "pendulum", source: "damped pendulum a = 4, b = 0.8 (Khalil 2002 §4.1)",
+		f:      func(d []float64, _ float64, x []float64) { d[0] = x[1]; d[1] = -4*math.Sin(x[0]) - 0.8*x[1] },
+		states: []string{"theta", "omega"}, x0: func(r *rand.Rand) []float64 { return box(r, 1.2, 1.5) }, dur: 12, rate: 50, runs: 12}
+	// Van der Pol, mu = 1: a limit cycle around an unstable focus (van der
+	// Pol 1926; Strogatz 1994 §7.5).
+	vanderpol = system{name: "vanderpol", source: "Van der Pol mu = 1, limit cycle around an unstable focus (Strogatz 1994 §7.5)",
+		f:      func(d []float64, _ float64, x []float64) { d[0] = x[1]; d[1] = (1-x[0]*x[0])*x[1] - x[0] },
+		states: []string{"x", "y"}, x0: func(r *rand.Rand) []float64 { return box(r, 2.5, 2.5) }, dur: 12, rate: 50, runs: 12}
+	// Lorenz sigma = 10, rho = 28, beta = 8/3: a chaotic attractor; the
+	// origin is a saddle (Lorenz, J. Atmos. Sci. 20:130-141, 1963).
+	lorenz = system{name: "lorenz", source: "Lorenz 1963, sigma 10, rho 28, beta 8/3",
+		f: func(d []float64, _ float64, x []float64) {
+			d[0] = 10 * (x[1] - x[0])
+			d[1] = x[0]*(28-x[2]) - x[1]
+			d[2] = x[0]*x[1] - 8.0/3*x[2]
+		},
+		states: []string{"x", "y", "z"}, x0: func(r *rand.Rand) []float64 { v := box(r, 10, 10, 10); v[2] += 25; return v },
+		dur: 5, rate: 200, runs: 10}
+	// Saddle x' = x, y' = -2y (Strogatz 1994 §5.1 example; exact).
+	saddle = system{name: "saddle", source: "linear saddle x' = x, y' = -2y (Strogatz 1994 §5.1)",
+		f:      func(d []float64, _ float64, x []float64) { d[0] = x[0]; d[1] = -2 * x[1] },
+		states: []string{"x", "y"}, x0: func(r *rand.Rand) []float64 { return box(r, 0.2, 2) }, dur: 2.5, rate: 200, runs: 16}
+)
+
+// evalOpts keeps the tests fast: no bootstrap refits.
+func evalOpts() *Options {
+	return &Options{Folds: 4, Seed: 1, Field: &fit.FieldOptions{Bootstrap: -1}}
+}
+
+// TestNoFalseCertificates: unstable and oscillating systems are never
+// certified, with or without noise; stable ones with enough data are.
+func TestNoFalseCertificates(t *testing.T) {
+	if testing.Short() {
+		t.Skip("fits fields and certificates")
+	}
+	type tc struct {
+		sys      system
+		noise    float64
+		certify  bool // must be certified (asymptotic)
+		stableOK bool // certified with strength stable is allowed, asymptotic never
+	}
+	// The lossless oscillator may come out inconclusive: fit.Certify fits
+	// no V at a non-hyperbolic linearisation. TestStrengthEnergy checks
+	// the stable strength with the exact energy V.
+	cases := []tc{
+		{damped, 0, true, false}, {damped, 0.002, true, false},
+		{pendulum, 0.002, true, false},
+		{lossless, 0, false, true}, {lossless, 0.002, false, true},
+		{vanderpol, 0, false, false}, {vanderpol, 0.005, false, false},
+		{lorenz, 0, false, false}, {lorenz, 0.005, false, false},
+		{saddle, 0, false, false}, {saddle, 0.005, false, false},
+	}
+	for _, c := range cases {
+		t.Run(fmt.Sprintf("%s/noise=%g", c.sys.name, c.noise), func(t *testing.T) {
+			ds := simulate(t, c.sys, c.noise, 3)
+			start := time.Now()
+			res, err := Evaluate(context.Background(), ds, evalOpts())
+			if err != nil {
+				t.Fatalf("%s: %v", c.sys.source, err)
+			}
+			cert := res.Certificate
+			v := cert.Validation
+			t.Logf("%s: %s/%s (%.1fs): %s share %.3g dec %.3g inv %.3g eps %.3g N %d",
+				c.sys.source, cert.Verdict, cert.Strength, time.Since(start).Seconds(), cert.Reason,
+				cert.Region.EnvelopeShare, v.DecreaseFraction, v.InvarianceFraction, v.ViolationBound, v.ScenarioSamples)
+			switch {
+			case c.certify && (cert.Verdict != fit.Certified || cert.Strength != fit.Asymptotic):
+				t.Errorf("%s: want certified/asymptotic, got %s/%s: %s", c.sys.source, cert.Verdict, cert.Strength, cert.Reason)
+			case !c.certify && cert.Verdict == fit.Certified && (!c.stableOK || cert.Strength != fit.Stable):
+				t.Errorf("%s: FALSE CERTIFICATE %s/%s: %s", c.sys.source, cert.Verdict, cert.Strength, cert.Reason)
+			}
+			if cert.Caveat != fit.Caveat || !cert.Empirical || cert.Reason == "" {
+				t.Errorf("caveat/empirical/reason missing: %+v", cert)
+			}
+		})
+	}
+}
+
+// energyCert is a certificate with the oscillator's energy V = k x^2 +
+// v^2 (conserved for c = 0, falling at rate 2c v^2 for c > 0; Strogatz
+// 1994 §5.1/§6.5, exact), level 4, unit scale, margin as given.
+func energyCert(margin float64) *fit.Certificate {
+	return &fit.Certificate{Format: fit.CertificateFormat, Verdict: fit.Inconclusive, Found: true,
+		States: []string{"x", "v"}, Units: []string{"", ""}, Equilibrium: []float64{0, 0}, Scale: []float64{1, 1},
+		V: poly.Poly{Exponents: [][]int{{2, 0}, {0, 2}}, Coefficients: []float64{4, 1}}, Level: 6,
+		NoiseRadius: 0.02, Tolerance: 2e-3, Margin: margin}
+}
+
+// TestStrengthEnergy: with the exact energy as V, the lossless
+// oscillator is certified only as stable (V conserved, runs never
+// settle) and the damped one as asymptotic. Eigenvalues are the exact
+// ones: ±2i, and -0.3 ± 1.977i.
+func TestStrengthEnergy(t *testing.T) {
+	lossless := lossless
+	lossless.x0 = func(r *rand.Rand) []float64 { return box(r, 0.9, 1.8) }
+	damped := damped
+	damped.x0 = lossless.x0
+	for _, c := range []struct {
+		sys    system
+		eig    [][2]float64
+		margin float64
+		want   fit.Strength
+	}{
+		{lossless, [][2]float64{{0, 2}, {0, -2}}, 0, fit.Stable},
+		{damped, [][2]float64{{-0.3, 1.977}, {-0.3, -1.977}}, 0.1, fit.Asymptotic},
+	} {
+		// Tolerance 5 sigma of a V difference (common practice, as in
+		// fit.CertifyOptions.Kappa): sigma_dV = sqrt(2)|grad V| sigma_x with
+		// |grad V| <= 9.8 on {V <= 6} and sigma_x <= 1e-4 * 3.6 gives
+		// 2.5e-2; noiseless, 1e-6 covers the 1e-9 integration error.
+		for _, nc := range []struct{ noise, tol float64 }{{0, 1e-6}, {1e-4, 2.5e-2}} {
+			noise := nc.noise
+			ds := simulate(t, c.sys, noise, 5)
+			cert := energyCert(c.margin)
+			cert.Tolerance = nc.tol
+			val, runs, err := Check(context.Background(), cert, ds, nil)
+			if err != nil {
+				t.Fatal(err)
+			}
+			Decide(cert, val, runs, c.eig, nil)
+			if cert.Verdict != fit.Certified || cert.Strength != c.want {
+				t.Errorf("%s noise %g: %s/%s (%s), want certified/%s", c.sys.name, noise, cert.Verdict, cert.Strength, cert.Reason, c.want)
+			}
+		}
+	}
+}
