@@ -408,17 +408,18 @@ func scaleStates(m *Model, runs []*ingest.Run) error {
 	stride := max(1, total/sampleCap)
 	m.Centre, m.Spread = make([]float64, n), make([]float64, n)
 	m.Lower, m.Upper = make([]float64, n), make([]float64, n)
+	tmp := make([]float64, 0, total/stride+1)
 	sub := make([][]float64, n)
 	for j := 0; j < n; j++ {
+		sub[j] = make([]float64, 0, total/stride+1)
 		lo, hi := math.Inf(1), math.Inf(-1)
 		k := 0
 		for _, r := range runs {
-			for i, v := range r.X[j] {
+			for _, v := range r.X[j] {
 				lo, hi = math.Min(lo, v), math.Max(hi, v)
 				if k%stride == 0 {
 					sub[j] = append(sub[j], v)
 				}
-				_ = i
 				k++
 			}
 		}
@@ -426,8 +427,7 @@ func scaleStates(m *Model, runs []*ingest.Run) error {
 		if !(hi > lo) {
 			return errorf(ErrConstant, "state %q is constant (%g in every sample); leave it out with --states", m.States[j], lo)
 		}
-		tmp := append([]float64(nil), sub[j]...)
-		m.Centre[j], m.Spread[j] = robustScale(tmp)
+		m.Centre[j], m.Spread[j] = robustScale(append(tmp[:0], sub[j]...))
 		if !(m.Spread[j] > 0) {
 			m.Spread[j] = (hi - lo) / 4
 		}

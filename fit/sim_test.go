@@ -186,3 +186,17 @@ func monoName(e []int, names []string) string {
 	}
 	return s
 }
+
+// softening is a fast, lightly damped oscillator with a softening spring
+// (saddles at ±0.346): x' = y, y' = -90x - 2.85y + 750x³; sampled at
+// 200 Hz in the derivative table, about 7 samples per radian of its
+// 9.5 rad/s oscillation.
+var softening = system{
+	name:   "softening",
+	states: []string{"x", "y"},
+	f: func(d, x []float64) {
+		d[0] = x[1]
+		d[1] = -90*x[0] - 2.85*x[1] + 750*x[0]*x[0]*x[0]
+	},
+	true: []map[string]float64{{"y": 1}, {"x": -90, "y": -2.85, "x^3": 750}},
+}
