@@ -162,6 +162,9 @@ func Field(ctx context.Context, ds *ingest.Dataset, opts *FieldOptions) (*Model,
 	if o.Degree < 0 || o.Degree > 8 {
 		return nil, fmt.Errorf("fit: degree %d outside 0..8", o.Degree)
 	}
+	if o.Folds < 2 {
+		return nil, fmt.Errorf("fit: %d cross-validation folds, need at least 2", o.Folds)
+	}
 	switch o.Derivative {
 	case DerivFornberg, DerivSavitzkyGolay, DerivIntegral:
 	default:

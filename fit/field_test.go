@@ -515,3 +515,31 @@ func TestFieldOffset(t *testing.T) {
 		t.Errorf("equilibrium %v %q", m.Equilibrium, m.Equilibria[0].Class)
 	}
 }
+
+// TestFieldOneRun: with fewer runs than folds, each run is cut into
+// contiguous blocks for cross-validation and the bootstrap; one clean
+// Lorenz run still gives the seven terms (Brunton, Proctor & Kutz 2016;
+// same bound as TestFieldLorenz).
+func TestFieldOneRun(t *testing.T) {
+	ds := simulate(lorenz, [][]float64{{-8, 7, 27}}, 20, 0.002, 4, 0, 1)
+	m, err := Field(context.Background(), ds, &FieldOptions{Degree: 2, Bootstrap: 10})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if m.CVBy != "block" || m.CVGroups != 10 {
+		t.Errorf("cross-validated by %q over %d groups, want block, 10", m.CVBy, m.CVGroups)
+	}
+	if sup, rel := compare(m, lorenz); !sup || rel > 0.005 {
+		t.Errorf("support %v, error %.3g", sup, rel)
+	}
+}
+
+// TestFieldCancel: a cancelled context stops the fit with its error.
+func TestFieldCancel(t *testing.T) {
+	ctx, cancel := context.WithCancel(context.Background())
+	cancel()
+	ds := simulate(vanderpol, [][]float64{{1, 0}, {0, 2}, {-2, 1}, {0.5, -0.5}, {3, 0}, {-1, -2}}, 4, 0.01, 5, 0, 1)
+	if _, err := Field(ctx, ds, nil); !errors.Is(err, context.Canceled) {
+		t.Errorf("error %v, want context.Canceled", err)
+	}
+}
