@@ -127,3 +127,12 @@ func TestSolveCutsWorkers(t *testing.T) {
 		}
 	}
 }
+
+// TestSolveCutsNoRows: with no rows the answer is the best corner of the
+// box (exact, by hand).
+func TestSolveCutsNoRows(t *testing.T) {
+	r, err := lp.SolveCuts([]float64{1, -2}, lp.DenseRows{}, []float64{-1, -1}, []float64{1, 3}, nil)
+	if err != nil || math.Abs(r.Objective+7) > 1e-7 { // default tolerance 1e-8 relative
+		t.Fatalf("got %v, %v; want -7", r, err)
+	}
+}
