@@ -352,7 +352,13 @@ func (s *Screener) Screen(dst *RunScreen, file string, run *ingest.Run) {
 	if hasLeave {
 		dst.Flags = append(dst.Flags, leave)
 	}
-	if entered && !dst.Settled {
+	// A run that ends outside the region has not settled, whether or not
+	// it ever entered: a run that leaves the basin starts outside any
+	// sound region and must still be flagged.
+	if !prevIn {
+		dst.Settled = false
+	}
+	if !dst.Settled {
 		e := tail - s.settle
 		if !(e <= math.MaxFloat64) {
 			e = math.MaxFloat64
