@@ -1,0 +1,179 @@
+// Package report writes basin's human-readable outputs: report.html, one
+// self-contained page with inline SVG figures, and the plain-text summary
+// (summary.txt and the summary that basin run prints).
+//
+// Both are drawn from the same [Input]: the fitted model, the certificate,
+// the data set, which runs were held out, and the per-run checks. The
+// figures redraw the certificate's own numbers: the region's boundary is
+// the contour V(z(x)) = level (clipped to the certificate's box) on the
+// plane of two chosen states, with the other states at the equilibrium.
+package report
+
+import (
+	"errors"
+	"fmt"
+	"math"
+	"sort"
+
+	"github.com/basin-dev/basin/fit"
+	"github.com/basin-dev/basin/ingest"
+	"github.com/basin-dev/basin/validate"
+)
+
+// Input is what a report is made of.
+type Input struct {
+	// Model is the fitted field; nil when none was fitted (the page says so).
+	Model *fit.Model
+	// Cert is the certificate; required.
+	Cert *fit.Certificate
+	// Data holds the runs; nil draws no runs.
+	Data *ingest.Dataset
+	// Heldout[i] says run i of Data was held out. Nil means none were.
+	Heldout []bool
+	// Checks are the per-run checks of the held-out runs, matched to the
+	// runs of Data by run name.
+	Checks []validate.RunScreen
+	// Settings are the settings used, shown sorted by key. Nil shows the
+	// certificate's own Settings.
+	Settings map[string]any
+	// Plane names two state indices for the phase plane. Nil means the two
+	// states with most variance in the certificate's scaled coordinates
+	// (so that units do not decide).
+	Plane []int
+	// Title heads the page. Empty means "basin report".
+	Title string
+}
+
+// ErrInput is returned when an Input cannot make a report.
+var ErrInput = errors.New("report: bad input")
+
+// check validates in and returns the plane to draw.
+func (in *Input) check() ([2]int, error) {
+	if in == nil || in.Cert == nil {
+		return [2]int{}, fmt.Errorf("%w: no certificate", ErrInput)
+	}
+	c := in.Cert
+	n := len(c.States)
+	if n == 0 || len(c.Equilibrium) != n || len(c.Scale) != n || len(c.Units) != n {
+		return [2]int{}, fmt.Errorf("%w: certificate states, units, equilibrium and scale differ in length", ErrInput)
+	}
+	if in.Data != nil {
+		if len(in.Data.States) != n {
+			return [2]int{}, fmt.Errorf("%w: data has %d states, certificate %d", ErrInput, len(in.Data.States), n)
+		}
+		if in.Heldout != nil && len(in.Heldout) != len(in.Data.Runs) {
+			return [2]int{}, fmt.Errorf("%w: %d held-out marks for %d runs", ErrInput, len(in.Heldout), len(in.Data.Runs))
+		}
+	}
+	if in.Plane != nil {
+		if len(in.Plane) != 2 || in.Plane[0] == in.Plane[1] || in.Plane[0] < 0 || in.Plane[1] < 0 ||
+			in.Plane[0] >= n || in.Plane[1] >= n {
+			return [2]int{}, fmt.Errorf("%w: plane %v: want two different state indices below %d", ErrInput, in.Plane, n)
+		}
+		return [2]int{in.Plane[0], in.Plane[1]}, nil
+	}
+	return DefaultPlane(c, in.Data), nil
+}
+
+// DefaultPlane returns the two states with most variance over the runs of
+// ds in the certificate's scaled coordinates, in state order; with one
+// state, or no data, the first two (or the only one twice).
+func DefaultPlane(c *fit.Certificate, ds *ingest.Dataset) [2]int {
+	n := len(c.States)
+	if n == 1 {
+		return [2]int{0, 0}
+	}
+	if ds == nil || len(ds.Runs) == 0 {
+		return [2]int{0, 1}
+	}
+	vars := make([]float64, n)
+	for j := range n {
+		var s, s2 float64
+		m := 0
+		for ri := range ds.Runs {
+			for _, x := range ds.Runs[ri].X[j] {
+				z := (x - c.Equilibrium[j]) / c.Scale[j]
+				s += z
+				s2 += z * z
+				m++
+			}
+		}
+		if m > 0 {
+			mu := s / float64(m)
+			vars[j] = s2/float64(m) - mu*mu
+		}
+	}
+	idx := make([]int, n)
+	for j := range idx {
+		idx[j] = j
+	}
+	sort.SliceStable(idx, func(a, b int) bool { return vars[idx[a]] > vars[idx[b]] })
+	a, b := idx[0], idx[1]
+	if a > b {
+		a, b = b, a
+	}
+	return [2]int{a, b}
+}
+
+// vAt evaluates the certificate's V at x (original units) with scratch z.
+func vAt(c *fit.Certificate, z, x []float64) float64 {
+	return c.V.Eval(c.Z(z, x))
+}
+
+// heldout reports whether run i was held out.
+func (in *Input) heldout(i int) bool {
+	return in.Heldout != nil && in.Heldout[i]
+}
+
+// checkFor returns the check of the run named name, or nil.
+func (in *Input) checkFor(name string) *validate.RunScreen {
+	for i := range in.Checks {
+		if in.Checks[i].Run == name {
+			return &in.Checks[i]
+		}
+	}
+	return nil
+}
+
+// settings returns the settings to show, sorted by key.
+func (in *Input) settings() []kv {
+	m := in.Settings
+	if m == nil {
+		m = in.Cert.Settings
+	}
+	keys := make([]string, 0, len(m))
+	for k := range m {
+		keys = append(keys, k)
+	}
+	sort.Strings(keys)
+	out := make([]kv, len(keys))
+	for i, k := range keys {
+		out[i] = kv{k, fmt.Sprint(m[k])}
+	}
+	return out
+}
+
+type kv struct{ Key, Value string }
+
+// g formats a number for people: 4 significant digits, no trailing noise.
+func g(x float64) string {
+	switch {
+	case math.IsNaN(x):
+		return "n/a"
+	case math.IsInf(x, 1):
+		return "∞"
+	case math.IsInf(x, -1):
+		return "-∞"
+	case x == 0:
+		return "0"
+	}
+	return fmt.Sprintf("%.4g", x)
+}
+
+// unit returns " [u]" or "" for state j.
+func unit(c *fit.Certificate, j int) string {
+	if c.Units[j] == "" {
+		return ""
+	}
+	return " [" + c.Units[j] + "]"
+}
