@@ -1,0 +1,178 @@
+package main
+
+import (
+	"context"
+	"errors"
+	"flag"
+	"fmt"
+	"math"
+	"strings"
+	"text/tabwriter"
+
+	"github.com/basin-dev/basin/fit"
+	"github.com/basin-dev/basin/validate"
+)
+
+// checkFlags are the flags of basin check.
+type checkFlags struct {
+	commonFlags
+	Cert        string
+	MinDecrease float64
+	Beta        float64
+	Tolerance   float64
+}
+
+func init() {
+	register(&command{
+		Name:  "check",
+		Usage: "basin check --cert certificate.json [flags] INPUTS...",
+		Short: "validate a certificate on runs it has not seen",
+		Long: `Checks a saved certificate on new runs: per run, whether it starts inside
+the region, stays inside, settles, and on how many consecutive pairs
+inside the region V fell (within the certificate's noise tolerance);
+overall the decrease and invariance fractions, the worst violation, and
+the scenario bound on the chance that a new sample from the same envelope
+violates the decrease condition (counting only samples one decorrelation
+time apart). The verdict on these runs follows the same rules as 'run'.`,
+		Flags: func(fs *flag.FlagSet) any {
+			c := &checkFlags{}
+			c.addInputFlags(fs)
+			fs.StringVar(&c.Cert, "cert", "", "the certificate `FILE` (certificate.json)")
+			fs.Float64Var(&c.MinDecrease, "min-decrease", 0.99, "decrease fraction `F` a certified verdict needs")
+			fs.Float64Var(&c.Beta, "beta", 1e-6, "scenario bound confidence parameter `B` (confidence 1-B)")
+			fs.Float64Var(&c.Tolerance, "rise-tol", 0, "tolerated rise of V between samples `DV` (0: the certificate's)")
+			return c
+		},
+		Run: runCheck,
+	})
+}
+
+// checkJSON is the contract's check --json shape.
+type checkJSON struct {
+	Certificate string               `json:"certificate"`
+	Runs        []validate.RunScreen `json:"runs"`
+	States      []stateJSON          `json:"states"`
+	Summary     checkSummary         `json:"summary"`
+	Validation  *fit.Validation      `json:"validation"`
+	Options     map[string]float64   `json:"options"`
+}
+
+type stateJSON struct {
+	Name string `json:"name"`
+	Unit string `json:"unit"`
+}
+
+type checkSummary struct {
+	Runs               int          `json:"runs"`
+	Flagged            int          `json:"flagged"`
+	StartedInside      int          `json:"runs_started_inside"`
+	Settled            int          `json:"runs_settled"`
+	DecreaseFraction   float64      `json:"decrease_fraction"`
+	InvarianceFraction float64      `json:"invariance_fraction"`
+	ViolationBound     float64      `json:"violation_bound"`
+	Confidence         float64      `json:"confidence"`
+	Verdict            fit.Verdict  `json:"verdict"`
+	Strength           fit.Strength `json:"strength"`
+	Reason             string       `json:"reason"`
+	Caveat             string       `json:"caveat"`
+}
+
+func runCheck(ctx context.Context, e *env, o any, args []string) error {
+	c := o.(*checkFlags)
+	switch {
+	case c.Cert == "":
+		return usagef("--cert FILE is required")
+	case !(c.MinDecrease > 0 && c.MinDecrease <= 1):
+		return usagef("--min-decrease must be in (0, 1], got %g", c.MinDecrease)
+	case !(c.Beta > 0 && c.Beta < 1):
+		return usagef("--beta must be in (0, 1), got %g", c.Beta)
+	case c.Tolerance < 0 || math.IsNaN(c.Tolerance) || math.IsInf(c.Tolerance, 0):
+		return usagef("--rise-tol must be a finite number >= 0, got %g", c.Tolerance)
+	}
+	cert, err := certFromFile(c.Cert)
+	if err != nil {
+		return err
+	}
+	ds, err := loadInputs(ctx, e, &c.commonFlags, args)
+	if err != nil {
+		return err
+	}
+	opts := &validate.Options{Beta: c.Beta, MinDecrease: c.MinDecrease, Tolerance: c.Tolerance}
+	val, runs, err := validate.Check(ctx, cert, ds, opts)
+	if err != nil {
+		if errors.Is(err, fit.ErrMismatch) {
+			return &inputError{fmt.Errorf("%s: %w", c.Cert, err)}
+		}
+		return err
+	}
+	judged := *cert
+	validate.Decide(&judged, val, runs, nil, opts)
+	doc := &checkJSON{Certificate: c.Cert, Runs: runs, Validation: val,
+		Options: map[string]float64{"min_decrease": c.MinDecrease, "beta": c.Beta, "rise_tol": c.Tolerance}}
+	for _, s := range ds.States {
+		doc.States = append(doc.States, stateJSON{s.Name, s.Unit})
+	}
+	sum := &doc.Summary
+	sum.Runs = len(runs)
+	for _, r := range runs {
+		if r.Flagged {
+			sum.Flagged++
+		}
+	}
+	sum.StartedInside, sum.Settled = val.StartInside, val.Settled
+	sum.DecreaseFraction, sum.InvarianceFraction = val.DecreaseFraction, val.InvarianceFraction
+	sum.ViolationBound, sum.Confidence = val.ViolationBound, val.Confidence
+	sum.Verdict, sum.Strength, sum.Reason, sum.Caveat = judged.Verdict, judged.Strength, judged.Reason, fit.Caveat
+	if c.JSON {
+		return writeJSON(e.stdout, doc)
+	}
+	return checkTable(e, doc, ds.States[0].Name)
+}
+
+func checkTable(e *env, doc *checkJSON, _ string) error {
+	tw := tabwriter.NewWriter(e.stdout, 0, 4, 2, ' ', 0)
+	fmt.Fprintln(tw, "run\tsamples\tstarts inside\tsettled\tpairs\tV fell\tflags")
+	for _, r := range doc.Runs {
+		fell := "-"
+		if r.Pairs > 0 {
+			fell = fmt.Sprintf("%.1f%%", 100*float64(r.Decreased)/float64(r.Pairs))
+		}
+		var fl []string
+		for _, f := range r.Flags {
+			fl = append(fl, fmt.Sprintf("%s@%.4gs(+%.3g)", f.Kind, f.Time, f.Excess))
+		}
+		flags := strings.Join(fl, " ")
+		if flags == "" {
+			flags = "-"
+		}
+		fmt.Fprintf(tw, "%s\t%d\t%s\t%s\t%d\t%s\t%s\n", r.Run, r.Samples, checkYesNo(r.StartInside), checkYesNo(r.Settled), r.Pairs, fell, flags)
+	}
+	if err := tw.Flush(); err != nil {
+		return err
+	}
+	v, s := doc.Validation, doc.Summary
+	w := e.stdout
+	fmt.Fprintf(w, "\n%d runs, %d flagged; %d started inside the region, %d of them settled\n", s.Runs, s.Flagged, s.StartedInside, s.Settled)
+	fmt.Fprintf(w, "decrease fraction %.4f over %d pairs; invariance fraction %.4f\n", v.DecreaseFraction, v.Pairs, v.InvarianceFraction)
+	if v.Worst != nil {
+		fmt.Fprintf(w, "worst violation: %s in %s at t = %.4g s, state %s, excess %.3g\n", v.Worst.Kind, v.Worst.Run, v.Worst.Time, checkVec(v.Worst.State), v.Worst.Excess)
+	}
+	fmt.Fprintf(w, "scenario bound: P(violation) <= %.4g with confidence %.6g\n  (%s)\n", v.ViolationBound, v.Confidence, v.Note)
+	fmt.Fprintf(w, "verdict on these runs: %s (strength %s): %s\n%s\n", s.Verdict, s.Strength, s.Reason, s.Caveat)
+	return nil
+}
+
+func checkYesNo(b bool) string {
+	if b {
+		return "yes"
+	}
+	return "no"
+}
+
+func checkVec(x []float64) string {
+	p := make([]string, len(x))
+	for i, v := range x {
+		p[i] = fmt.Sprintf("%.4g", v)
+	}
+	return "(" + strings.Join(p, ", ") + ")"
+}
