@@ -73,14 +73,19 @@ func runFit(ctx context.Context, e *env, o any, args []string) error {
 	if err != nil {
 		return err
 	}
+	pg := newProgress(e.stderr, c.Quiet)
+	defer pg.Done()
+	pg.Stage("reading logs")
 	ds, err := loadInputs(ctx, e, &c.commonFlags, args)
 	if err != nil {
 		return err
 	}
+	pg.Stage("fitting the field")
 	m, err := fitModel(ctx, ds, opts)
 	if err != nil {
 		return err
 	}
+	pg.Done()
 	if err := writeAtomic(c.Out, atomicFile{Name: "model.json", Write: jsonWriter(m)}); err != nil {
 		return err
 	}
