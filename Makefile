@@ -35,3 +35,14 @@ fuzz:
 
 clean:
 	rm -rf bin basin-demo basin-out
+
+# scale: basin run on 5 and 10 million samples (500 and 1,000 runs of
+# 10,000 samples, 6 states, degree 3): wall time, peak memory and their
+# ratio. Not part of make test (it takes minutes).
+SCALE_DIR ?= /tmp/basin-scale
+scale: build
+	$(GO) run ./examples/scale -runs 500 -samples 10000 -out $(SCALE_DIR)/half
+	$(GO) run ./examples/scale -runs 1000 -samples 10000 -out $(SCALE_DIR)/full
+	$(GO) run ./examples/scale/measure "5e6 samples" ./$(BIN) run --quiet --out $(SCALE_DIR)/out-half $(SCALE_DIR)/half | tee $(SCALE_DIR)/half.txt
+	$(GO) run ./examples/scale/measure "1e7 samples" ./$(BIN) run --quiet --out $(SCALE_DIR)/out-full $(SCALE_DIR)/full | tee $(SCALE_DIR)/full.txt
+	@awk '/wall/ {gsub(",","",$$5); w[NR]=$$5} END {printf "time ratio (1e7 / 5e6 samples): %.2f (target <= 2.3)\n", w[2]/w[1]}' $(SCALE_DIR)/half.txt $(SCALE_DIR)/full.txt
