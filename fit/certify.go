@@ -465,6 +465,7 @@ func newChecker(ctx context.Context, m *Model, ds *ingest.Dataset, xe, scale []f
 		kappa: o.Kappa, maxDepth: depth, extraDepth: extra, share: o.ShareSamples,
 		rng: rand.New(rand.NewPCG(o.Seed, 2)),
 	}
+	ck.indexSamples()
 	return ck, all, nil
 }
 

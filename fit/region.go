@@ -48,6 +48,9 @@ type checker struct {
 	rlin       float64     // radius of the linear ball of the V under test (set by level)
 	share      int         // Monte-Carlo points for the envelope share
 	rng        *rand.Rand
+	// Samples grouped by cell: bySample[cellStart[c]:cellStart[c+1]].
+	cellStart []int32
+	bySample  [][2]int32
 }
 
 // levelResult is the certified level set of one V.
@@ -67,6 +70,11 @@ type levelResult struct {
 	vball     float64 // largest V on the noise ball
 	margin    float64 // min of -Vdot/|z|² over checked samples in the region
 }
+
+// boxSlack widens the first-order lower bound of V over a cell when
+// deciding which cells of the box need their checks (curvature of V
+// within a cell).
+const boxSlack = 0.25
 
 // badMark is the first failing check of a cell: the lowest V at which it
 // fails (a lower bound over the failing part of the cell).
@@ -125,17 +133,39 @@ func (ck *checker) level(c []float64) levelResult {
 	g := make([]float64, n)
 	r02 := ck.r0 * ck.r0
 
-	// Samples: positivity, model decrease, recorded pairs.
+	// V at every sample (cheap; the pair checks and figures need it).
 	vals := make([][]float64, len(ck.runs))
 	for ri := range ck.runs {
 		r := &ck.runs[ri]
-		m := len(r.t)
-		vs := make([]float64, m)
-		for i := 0; i < m; i++ {
+		vs := make([]float64, len(r.t))
+		for i := range vs {
 			vs[i] = ve.value(r.z[i*n : (i+1)*n])
 		}
 		vals[ri] = vs
-		for i := 0; i < m; i++ {
+	}
+	var ok bool
+	if ck.rlin, ok = ck.linearBall(ve); !ok {
+		return levelResult{reason: "V's decrease along the linearised field is not negative definite at the equilibrium"}
+	}
+	center := make([]float64, n)
+	half := make([]float64, n)
+	for j := range half {
+		half[j] = env.h[j] / 2
+	}
+	cs := newCellScratch(n, ck.maxDepth+ck.extraDepth)
+	// check runs every check of an envelope cell, once, when the search
+	// first needs it (cells the level set never reaches are not checked):
+	// positivity, model decrease and recorded pairs at its samples, the
+	// other equilibria in it, and the cell bound on V-dot.
+	checked := map[int]bool{}
+	check := func(cell int) {
+		if checked[cell] {
+			return
+		}
+		checked[cell] = true
+		for _, si := range ck.cellSamples(cell) {
+			r := &ck.runs[si[0]]
+			i := int(si[1])
 			z := r.z[i*n : (i+1)*n]
 			z2 := norm2(z)
 			if z2 <= r02 {
@@ -143,38 +173,26 @@ func (ck *checker) level(c []float64) levelResult {
 			}
 			v, vd := ve.vdot(ck.zf, z)
 			switch {
-			case !(v >= posEps*z2):
-				mark(int(r.cell[i]), v, LimitViolated, z, r.name)
-			case !(vd < 0):
-				mark(int(r.cell[i]), v, LimitViolated, z, r.name)
-			case i+1 < m:
-				if vs[i+1]-v > ck.pairTol(ve.gbuf, hq) {
-					mark(int(r.cell[i]), v, LimitViolated, z, r.name)
+			case !(v >= posEps*z2), !(vd < 0):
+				mark(cell, v, LimitViolated, z, r.name)
+			case i+1 < len(r.t):
+				if vals[si[0]][i+1]-v > ck.pairTol(ve.gbuf, hq) {
+					mark(cell, v, LimitViolated, z, r.name)
 				}
 			}
 		}
-	}
-	// Other equilibria: explicit check points.
-	for _, o := range ck.others {
-		mark(env.cellOf(o), ve.value(o), LimitOther, o, "")
-	}
-	// Cells: first-order bound on V-dot, with subdivision.
-	center := make([]float64, n)
-	half := make([]float64, n)
-	for j := range half {
-		half[j] = env.h[j] / 2
-	}
-	var ok bool
-	if ck.rlin, ok = ck.linearBall(ve); !ok {
-		return levelResult{reason: "V's decrease along the linearised field is not negative definite at the equilibrium"}
-	}
-	cs := newCellScratch(n, ck.maxDepth+ck.extraDepth)
-	for _, cell := range env.cells {
+		for _, o := range ck.others {
+			if env.cellOf(o) == cell {
+				mark(cell, ve.value(o), LimitOther, o, "")
+			}
+		}
 		env.centerTo(center, cell)
 		if key, z := ck.cellKey(ve, cs, center, half, 0); key < math.Inf(1) {
 			mark(cell, key, LimitViolated, z, "")
 		}
 	}
+	// Other equilibria outside the grid cannot be reached; those in a
+	// non-envelope cell are behind the envelope edge.
 	// Lower bound of V over a cell, for joining and for non-envelope cells.
 	hd := env.halfDiag()
 	vlow := func(cell int) float64 {
@@ -206,6 +224,7 @@ func (ck *checker) level(c []float64) levelResult {
 			heap.Push(pq, floodItem{level: it.level, cell: it.cell, bad: true})
 			continue
 		}
+		check(it.cell)
 		if b, ok := bad[it.cell]; ok {
 			heap.Push(pq, floodItem{level: math.Max(it.level, b.key), cell: it.cell, bad: true})
 		}
@@ -262,6 +281,13 @@ func (ck *checker) level(c []float64) levelResult {
 		lowered := false
 		forBox(env, ilo, ihi, func(cell int) {
 			var bm badMark
+			vl := vlow(cell)
+			if vl > level+boxSlack*math.Max(math.Abs(level), math.Abs(vl)) {
+				return // V exceeds the level on the whole cell
+			}
+			if env.count[cell] != 0 {
+				check(cell)
+			}
 			if env.count[cell] == 0 {
 				bm = markOf(cell)
 			} else if b, ok := bad[cell]; ok {
@@ -419,6 +445,37 @@ func (ck *checker) linearDecay(c []float64) (float64, bool) {
 	}
 	lam := ev[n-1]
 	return lam, lam < 0
+}
+
+// cellSamples returns the (run, sample) indices of the samples in cell.
+func (ck *checker) cellSamples(cell int) [][2]int32 {
+	return ck.bySample[ck.cellStart[cell]:ck.cellStart[cell+1]]
+}
+
+// indexSamples groups the samples by envelope cell.
+func (ck *checker) indexSamples() {
+	env := ck.env
+	ck.cellStart = make([]int32, env.total+1)
+	for ri := range ck.runs {
+		for _, c := range ck.runs[ri].cell {
+			if c >= 0 {
+				ck.cellStart[c+1]++
+			}
+		}
+	}
+	for c := 0; c < env.total; c++ {
+		ck.cellStart[c+1] += ck.cellStart[c]
+	}
+	ck.bySample = make([][2]int32, ck.cellStart[env.total])
+	next := append([]int32(nil), ck.cellStart[:env.total]...)
+	for ri := range ck.runs {
+		for i, c := range ck.runs[ri].cell {
+			if c >= 0 {
+				ck.bySample[next[c]] = [2]int32{int32(ri), int32(i)}
+				next[c]++
+			}
+		}
+	}
 }
 
 // ballMax returns the largest V found on the noise sphere |z| = r0.

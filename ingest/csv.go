@@ -101,8 +101,15 @@ func readCSVTable(r io.Reader, name string, opts *Options) (*table, error) {
 	if opts == nil {
 		opts = &Options{}
 	}
-	first := make([]byte, blockSize)
+	// Read the first block: 64 KiB first, so that small files stay cheap.
+	first := make([]byte, 64<<10)
 	n, err := io.ReadFull(r, first)
+	if err == nil {
+		first = append(first, make([]byte, blockSize-len(first))...)
+		var m int
+		m, err = io.ReadFull(r, first[n:])
+		n += m
+	}
 	eof := false
 	switch {
 	case errors.Is(err, io.EOF), errors.Is(err, io.ErrUnexpectedEOF):

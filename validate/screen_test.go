@@ -241,3 +241,26 @@ func BenchmarkScreen(b *testing.B) {
 		})
 	}
 }
+
+// BenchmarkCheck is the whole certificate check (screening, decorrelation
+// time, scenario bound) of 100 held-out runs of 10,000 samples; the
+// target is under 1 s.
+func BenchmarkCheck(b *testing.B) {
+	ds := &ingest.Dataset{States: []ingest.Column{{Name: "a"}, {Name: "b"}}}
+	for i := 0; i < 100; i++ {
+		ph := float64(i)
+		ds.Runs = append(ds.Runs, makeRun("r", 10000, 0.001, func(t float64) (float64, float64) {
+			a := 0.8 * math.Exp(-t)
+			return a * math.Cos(3*t+ph), a * math.Sin(3*t+ph)
+		}))
+	}
+	cert := circleCert(false)
+	b.SetBytes(int64(ds.Samples() * 2 * 8))
+	b.ReportAllocs()
+	for b.Loop() {
+		if _, _, err := Check(context.Background(), cert, ds, nil); err != nil {
+			b.Fatal(err)
+		}
+	}
+	b.ReportMetric(b.Elapsed().Seconds()/float64(b.N), "s/check")
+}

@@ -292,7 +292,7 @@ func TestBadInput(t *testing.T) {
 	}
 	// A rejected certificate without V, model or data still makes a page.
 	rej := *c
-	rej.Verdict, rej.Strength, rej.V, rej.Level, rej.Validation = fit.Rejected, fit.NoClaim, rej.V, 0, nil
+	rej.Verdict, rej.Strength, rej.Level, rej.Validation = fit.Rejected, fit.NoClaim, 0, nil
 	rej.V.Exponents, rej.V.Coefficients = nil, nil
 	s := renderPage(t, &Input{Cert: &rej})
 	if !strings.Contains(s, "REJECTED") && !strings.Contains(s, "rejected") {
