@@ -162,6 +162,9 @@ func SolveCuts(c []float64, rows Rows, lower, upper []float64, opts *CutOptions)
 		}
 		if round >= o.MaxRounds {
 			res.Status = IterationLimit // the restricted answer violates some rows
+			if !ray {
+				res.PrimalResidual = worst
+			}
 			break
 		}
 		if len(cand) > o.Batch {

@@ -136,3 +136,18 @@ func TestSolveCutsNoRows(t *testing.T) {
 		t.Fatalf("got %v, %v; want -7", r, err)
 	}
 }
+
+// TestSolveCutsMaxRounds: stopping early is reported as an iteration
+// limit, with the violation of the rows left out in PrimalResidual.
+func TestSolveCutsMaxRounds(t *testing.T) {
+	rng := rand.New(rand.NewPCG(12, 0))
+	p := randomFeasible(rng, 12, 20000)
+	r, err := lp.SolveCuts(p.C, lp.DenseRows{G: p.G, H: p.H}, p.Lower, p.Upper,
+		&lp.CutOptions{Initial: 5, Batch: 5, MaxRounds: 2})
+	if !errors.Is(err, lp.ErrIterations) || r == nil || r.Status != lp.IterationLimit {
+		t.Fatalf("got %v, want an iteration limit", err)
+	}
+	if r.PrimalResidual <= 0 {
+		t.Errorf("PrimalResidual = %g, want the violation of the rows left out", r.PrimalResidual)
+	}
+}
