@@ -14,7 +14,7 @@ import (
 
 // Solver constants (not user-facing).
 const (
-	stepFrac     = 0.995  // fraction of the step to the boundary
+	stepFrac     = 0.99  // fraction of the step to the boundary
 	regStart     = 1e-13 // diagonal shift of the normal matrix, relative to each diagonal entry
 	regFloor     = 1e-3  // the shift's floor, relative to regStart times the mean diagonal entry
 	refineSteps  = 3     // iterative refinement of each normal-equations solve
