@@ -19,6 +19,11 @@ lint:
 test: lint
 	$(GO) test -race -count=1 $(PKGS)
 
+# The report's headless-browser check alone (it also runs inside `make test`
+# whenever /usr/bin/chromium exists; .ci/run installs it).
+browser:
+	$(GO) test -count=1 -run 'TestBrowserRender' -v ./cmd/basin/internal/report/
+
 demo: build
 	./$(BIN) demo --out basin-demo
 
