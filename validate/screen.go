@@ -64,6 +64,59 @@ type Screener struct {
 	// the state at the worst rise of the last run screened.
 	spacing float64
 	worstX  []float64
+	// per-block V, |z|^2 and out-of-box flags
+	vbuf [screenBlock]float64
+	rbuf [screenBlock]float64
+	obuf [screenBlock]bool
+	// generic disables the specialised kernels (benchmarks compare)
+	generic bool
+}
+
+// screenBlock is the number of samples evaluated per block.
+const screenBlock = 256
+
+// evalBlock stores V, |z|^2 and the out-of-box flag of samples i0..i1-1
+// in the block buffers.
+func (s *Screener) evalBlock(X [][]float64, i0, i1 int) {
+	vb, rb, ob := s.vbuf[:i1-i0], s.rbuf[:i1-i0], s.obuf[:i1-i0]
+	if s.quad && s.n == 2 && !s.generic {
+		x0, x1 := X[0][i0:i1], X[1][i0:i1]
+		x1 = x1[:len(x0)]
+		e0, e1, c0, c1 := s.eq[0], s.eq[1], s.inv[0], s.inv[1]
+		l0, h0, l1, h1 := s.lo[0], s.hi[0], s.lo[1], s.hi[1]
+		p00, p01, p11 := s.p[0], 2*s.p[1], s.p[3]
+		q0, q1, r := s.q[0], s.q[1], s.r
+		for k := range x0 {
+			a, b := x0[k], x1[k]
+			z0, z1 := (a-e0)*c0, (b-e1)*c1
+			vb[k] = z0*(p00*z0+p01*z1+q0) + z1*(p11*z1+q1) + r
+			rb[k] = z0*z0 + z1*z1
+			ob[k] = a < l0 || a > h0 || b < l1 || b > h1
+		}
+		return
+	}
+	z := s.z
+	n := s.n
+	for k := range vb {
+		i := i0 + k
+		r2 := 0.0
+		out := false
+		for j := 0; j < n; j++ {
+			xj := X[j][i]
+			if xj < s.lo[j] || xj > s.hi[j] {
+				out = true
+			}
+			zj := (xj - s.eq[j]) * s.inv[j]
+			z[j] = zj
+			r2 += zj * zj
+		}
+		if s.quad {
+			vb[k] = s.quadV(z)
+		} else {
+			vb[k] = s.comp.Eval(z)
+		}
+		rb[k], ob[k] = r2, out
+	}
 }
 
 // NewScreener prepares cert for screening. It panics if cert is nil or its
@@ -242,10 +295,8 @@ func (s *Screener) Screen(dst *RunScreen, file string, run *ingest.Run) {
 	if m == 0 || len(run.X) != s.n {
 		return
 	}
-	n := s.n
 	X := run.X
 	T := run.T
-	z, x := s.z, s.x
 	level := s.cert.Level
 	tol := s.tol
 	w := min(max(m/tailShare, 1), tailMax)
@@ -265,81 +316,71 @@ func (s *Screener) Screen(dst *RunScreen, file string, run *ingest.Run) {
 		lastScen  = math.Inf(-1)
 	)
 	dst.worstExcess = math.Inf(-1)
-	for i := 0; i < m; i++ {
-		r2 := 0.0
-		inBox := true
-		for j := 0; j < n; j++ {
-			xj := X[j][i]
-			x[j] = xj
-			if xj < s.lo[j] || xj > s.hi[j] {
-				inBox = false
+	vb, rb, ob := s.vbuf[:], s.rbuf[:], s.obuf[:]
+	for i0 := 0; i0 < m; i0 += screenBlock {
+		i1 := min(i0+screenBlock, m)
+		s.evalBlock(X, i0, i1)
+		for i := i0; i < i1; i++ {
+			v, r2, inBox := vb[i-i0], rb[i-i0], !ob[i-i0]
+			in := inBox && v <= level // NaN V is outside
+			if i < w {
+				headSum += v
 			}
-			zj := (xj - s.eq[j]) * s.inv[j]
-			z[j] = zj
-			r2 += zj * zj
-		}
-		var v float64
-		if s.quad {
-			v = s.quadV(z)
-		} else {
-			v = s.comp.Eval(z)
-		}
-		in := inBox && v <= level // NaN V is outside
-		if i < w {
-			headSum += v
-		}
-		if i >= tailStart {
-			tailSum += v
-		}
-		if i == 0 {
-			dst.StartInside = in
-		}
-		if in {
-			entered = true
-			if prevIn && prevOut {
-				d := v - prevV - tol
-				dst.Pairs++
-				bad := !(d <= 0)
-				if !bad {
-					dst.Decreased++
-				}
-				if T[i]-lastScen >= s.spacing {
-					dst.scen++
-					lastScen = T[i]
+			if i >= tailStart {
+				tailSum += v
+			}
+			if i == 0 {
+				dst.StartInside = in
+			}
+			if in {
+				entered = true
+				if prevIn && prevOut {
+					d := v - prevV - tol
+					dst.Pairs++
+					bad := !(d <= 0)
+					if !bad {
+						dst.Decreased++
+					}
+					if T[i]-lastScen >= s.spacing {
+						dst.scen++
+						lastScen = T[i]
+						if bad {
+							dst.scenViol++
+						}
+					}
+					if d > dst.worstExcess {
+						dst.worstExcess, dst.worstTime = d, T[i]
+						for j := range s.worstX {
+							s.worstX[j] = X[j][i]
+						}
+					}
 					if bad {
-						dst.scenViol++
+						if !hasRise {
+							rise.Time = T[i]
+							hasRise = true
+						}
+						if !(d <= math.MaxFloat64) {
+							d = math.MaxFloat64
+						}
+						rise.Excess = max(rise.Excess, d)
 					}
 				}
-				if d > dst.worstExcess {
-					dst.worstExcess, dst.worstTime = d, T[i]
-					copy(s.worstX, x)
+			} else if entered {
+				if !hasLeave {
+					leave.Time = T[i]
+					hasLeave = true
 				}
-				if bad {
-					if !hasRise {
-						rise.Time = T[i]
-						hasRise = true
-					}
-					if !(d <= math.MaxFloat64) {
-						d = math.MaxFloat64
-					}
-					rise.Excess = max(rise.Excess, d)
+				e := 0.0
+				if v > level {
+					e = v - level
 				}
+				if !(e <= math.MaxFloat64) { // NaN or Inf: report the largest finite excess
+					e = math.MaxFloat64
+				}
+				leave.Excess = max(leave.Excess, e)
 			}
-		} else if entered {
-			if !hasLeave {
-				leave.Time = T[i]
-				hasLeave = true
-			}
-			e := 0.0
-			if v > level {
-				e = v - level
-			}
-			if !(e <= math.MaxFloat64) { // NaN or Inf: report the largest finite excess
-				e = math.MaxFloat64
-			}
-			leave.Excess = max(leave.Excess, e)
+			prevV, prevIn, prevOut = v, in, r2 > s.r2
 		}
-		prevV, prevIn, prevOut = v, in, r2 > s.r2
 	}
 	dst.EverInside = entered
 	head := headSum / float64(w)

@@ -78,8 +78,10 @@ func TestScreen(t *testing.T) {
 		// that leave a basin start outside any sound region.
 		{"outside", makeRun("outside", 100, 0.01, outside), want{[]string{FlagUnsettled}, false, false, false}},
 	} {
-		for _, general := range []bool{false, true} {
+		for variant := 0; variant < 3; variant++ {
+			general := variant == 2
 			s := NewScreener(circleCert(general), nil)
+			s.generic = variant == 1 // quadratic through the general loop
 			var got RunScreen
 			s.Screen(&got, "f.csv", &tc.run)
 			var kinds []string
@@ -228,14 +230,13 @@ func BenchmarkScreen(b *testing.B) {
 	for _, bc := range []struct {
 		name    string
 		general bool
-	}{{"quadratic", false}, {"quartic", true}} {
+		generic bool
+	}{{"quadratic", false, false}, {"quadratic-unspecialised", false, true}, {"quartic", true, false}} {
 		b.Run(bc.name, func(b *testing.B) {
 			cert := circleCert(bc.general)
 			b.SetBytes(int64(samples * 2 * 8))
 			for b.Loop() {
-				if _, err := ScreenRuns(context.Background(), cert, ds, nil); err != nil {
-					b.Fatal(err)
-				}
+				screenRunsWith(ds, cert, bc.generic)
 			}
 			b.ReportMetric(float64(samples)*float64(b.N)/b.Elapsed().Seconds()/1e6, "Msamples/s")
 		})
@@ -263,4 +264,22 @@ func BenchmarkCheck(b *testing.B) {
 		}
 	}
 	b.ReportMetric(b.Elapsed().Seconds()/float64(b.N), "s/check")
+}
+
+// screenRunsWith is ScreenRuns with the specialised kernel switchable.
+func screenRunsWith(ds *ingest.Dataset, cert *fit.Certificate, generic bool) {
+	out := make([]RunScreen, len(ds.Runs))
+	done := make(chan bool)
+	for w := 0; w < 2; w++ {
+		go func() {
+			s := NewScreener(cert, nil)
+			s.generic = generic
+			for i := w; i < len(ds.Runs); i += 2 {
+				s.Screen(&out[i], "f", &ds.Runs[i])
+			}
+			done <- true
+		}()
+	}
+	<-done
+	<-done
 }
