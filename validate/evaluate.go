@@ -84,6 +84,9 @@ type Result struct {
 	Heldout []bool
 	// Runs holds the per-run checks of the held-out runs.
 	Runs []RunScreen
+	// FoldVerdicts holds the verdict with each fold held out (fold 0 is
+	// the released one) when Options.AllFolds is set, else only fold 0's.
+	FoldVerdicts []fit.Verdict
 }
 
 // Split assigns each run a fold in 0..folds-1 by a permutation seeded
@@ -395,6 +398,7 @@ func Evaluate(ctx context.Context, ds *ingest.Dataset, opts *Options) (*Result, 
 	for i := range ds.Runs {
 		res.Heldout[i] = fold[i] == 0
 	}
+	res.FoldVerdicts = []fit.Verdict{cert.Verdict}
 	if o.AllFolds {
 		agree := 1
 		for f := 1; f < o.Folds; f++ {
@@ -409,6 +413,7 @@ func Evaluate(ctx context.Context, ds *ingest.Dataset, opts *Options) (*Result, 
 			if err != nil {
 				return nil, err
 			}
+			res.FoldVerdicts = append(res.FoldVerdicts, c.Verdict)
 			if c.Verdict == cert.Verdict {
 				agree++
 			}

@@ -106,3 +106,48 @@ func TestDecideLeaves(t *testing.T) {
 		t.Errorf("unstable linearisation: %s", c.Verdict)
 	}
 }
+
+// TestEvaluateAllFolds: every fold of a well-sampled damped oscillator
+// is never rejected, and the released fold is certified.
+func TestEvaluateAllFolds(t *testing.T) {
+	if testing.Short() {
+		t.Skip("fits every fold")
+	}
+	o := evalOpts()
+	o.AllFolds = true
+	sys := damped
+	sys.runs = 24 // 6 held out a fold, so some start inside the region
+	res, err := Evaluate(context.Background(), simulate(t, sys, 0.001, 2), o)
+	if err != nil {
+		t.Fatal(err)
+	}
+	v := res.Certificate.Validation
+	if v.Folds != 4 || v.FoldsAgree < 1 || v.FoldsAgree > 4 {
+		t.Fatalf("folds %d agree %d", v.Folds, v.FoldsAgree)
+	}
+	// A stable system: no fold may be rejected; folds without a held-out
+	// run starting inside are inconclusive, and the agreement count is
+	// the number of certified folds.
+	certified := 0
+	for f, vd := range res.FoldVerdicts {
+		if vd == fit.Rejected {
+			t.Errorf("fold %d rejected a stable system", f)
+		}
+		if vd == fit.Certified {
+			certified++
+		}
+	}
+	t.Logf("fold verdicts %v", res.FoldVerdicts)
+	if res.Certificate.Verdict != fit.Certified || v.FoldsAgree != certified || len(res.FoldVerdicts) != 4 {
+		t.Errorf("%s (%s), %d of 4 folds agree, verdicts %v", res.Certificate.Verdict, res.Certificate.Reason, v.FoldsAgree, res.FoldVerdicts)
+	}
+	held := 0
+	for _, h := range res.Heldout {
+		if h {
+			held++
+		}
+	}
+	if held != 6 || len(res.Runs) != 6 {
+		t.Errorf("held out %d runs, %d checked; want 6 of 24", held, len(res.Runs))
+	}
+}

@@ -98,6 +98,12 @@ var (
 	vanderpol = system{name: "vanderpol", source: "Van der Pol mu = 1, limit cycle around an unstable focus (Strogatz 1994 §7.5)",
 		f:      func(d []float64, _ float64, x []float64) { d[0] = x[1]; d[1] = (1-x[0]*x[0])*x[1] - x[0] },
 		states: []string{"x", "y"}, x0: func(r *rand.Rand) []float64 { return box(r, 2.5, 2.5) }, dur: 12, rate: 50, runs: 12}
+	// Van der Pol in reverse time, mu = 1: a stable focus whose region of
+	// attraction is the inside of the cycle (Khalil 2002 §8.2;
+	// REFERENCES.md B4).
+	vdpReverse = system{name: "vdp-reverse", source: "Van der Pol mu = 1 in reverse time (Khalil 2002 §8.2, REFERENCES.md B4)",
+		f:      func(d []float64, _ float64, x []float64) { d[0] = -x[1]; d[1] = x[0] + (x[0]*x[0]-1)*x[1] },
+		states: []string{"x", "y"}, x0: func(r *rand.Rand) []float64 { return box(r, 1, 1) }, dur: 12, rate: 50, runs: 12}
 	// Lorenz sigma = 10, rho = 28, beta = 8/3: a chaotic attractor; the
 	// origin is a saddle (Lorenz, J. Atmos. Sci. 20:130-141, 1963).
 	lorenz = system{name: "lorenz", source: "Lorenz 1963, sigma 10, rho 28, beta 8/3",
@@ -137,6 +143,7 @@ func TestNoFalseCertificates(t *testing.T) {
 	cases := []tc{
 		{damped, 0, true, false}, {damped, 0.002, true, false},
 		{pendulum, 0.002, true, false},
+		{vdpReverse, 0.002, true, false},
 		{lossless, 0, false, true}, {lossless, 0.002, false, true},
 		{vanderpol, 0, false, false}, {vanderpol, 0.005, false, false},
 		{lorenz, 0, false, false}, {lorenz, 0.005, false, false},
