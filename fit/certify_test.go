@@ -3,10 +3,12 @@ package fit
 import (
 	"context"
 	"errors"
+	"fmt"
 	"math"
 	"math/rand/v2"
 	"strings"
 	"testing"
+	"time"
 
 	"github.com/basin-dev/basin/ingest"
 )
@@ -544,5 +546,71 @@ func TestCertifyVanDerPolFitted(t *testing.T) {
 		t.Logf("fitted field, degree %d: %.1f%% of the true ROA, %.1f%% of the envelope, limit %s; %s",
 			deg, 100*c.Region.Volume/vdpROAArea, 100*c.Region.EnvelopeShare, c.Region.Limit, c.Reason)
 		checkConverges(t, vdpReverse, regionPoints(c, lo, hi, 300, 5), 0.05)
+	}
+}
+
+// chainSystem is a stable chain of n states: x_i' = -x_i + 0.5 x_{i+1}
+// - 0.2 x_i³ (last: -x_n - 0.2 x_n³).
+func chainSystem(n int) *certSystem {
+	s := &certSystem{name: "chain", eq: make([]float64, n)}
+	for i := 0; i < n; i++ {
+		s.states = append(s.states, fmt.Sprintf("s%d", i))
+		e1, e3 := make([]int, n), make([]int, n)
+		e1[i], e3[i] = 1, 3
+		eq := Equation{State: s.states[i], Exponents: [][]int{e1, e3}, Coefficients: []float64{-1, -0.2}}
+		if i+1 < n {
+			en := make([]int, n)
+			en[i+1] = 1
+			eq.Exponents = append(eq.Exponents, en)
+			eq.Coefficients = append(eq.Coefficients, 0.5)
+		}
+		s.eqs = append(s.eqs, eq)
+	}
+	s.f = func(dst, x []float64) {
+		for i := range x {
+			dst[i] = -x[i] - 0.2*x[i]*x[i]*x[i]
+			if i+1 < len(x) {
+				dst[i] += 0.5 * x[i+1]
+			}
+		}
+	}
+	return s
+}
+
+func TestCertifyHigherDimensions(t *testing.T) {
+	// Stable chains of 3 and 6 states: a certificate is found, the region
+	// converges under the true dynamics, and it stays fast.
+	for _, n := range []int{3, 6} {
+		sys := chainSystem(n)
+		box := make([][2]float64, n)
+		for j := range box {
+			box[j] = [2]float64{-1.5, 1.5}
+		}
+		ds := certRuns(sys, box, 40, 0.01, 800, 4, 0, 6, false)
+		spread := make([]float64, n)
+		for j := range spread {
+			spread[j] = 0.5
+		}
+		for _, deg := range []int{2, 4} {
+			if n == 6 && deg == 4 {
+				continue // 210 LP unknowns: ~20 s; see BenchmarkCertify
+			}
+			t0 := time.Now()
+			c, err := Certify(context.Background(), sys.model(spread), ds, &CertifyOptions{Degree: deg})
+			if err != nil {
+				t.Fatal(err)
+			}
+			t.Logf("n=%d deg %d: found %v, %.2f%% of the envelope, limit %s, %d solves, %d active rows, %v",
+				n, deg, c.Found, 100*c.Region.EnvelopeShare, c.Region.Limit, c.Region.Solves, c.Region.LPRows, time.Since(t0))
+			if !c.Found {
+				t.Fatalf("n=%d deg %d: %s", n, deg, c.Reason)
+			}
+			lo, hi := dataBox(ds)
+			pts := regionPoints(c, lo, hi, 100, 1)
+			if n == 3 && len(pts) < 20 {
+				t.Errorf("n=3 deg %d: only %d region points drawn", deg, len(pts))
+			}
+			checkConverges(t, sys, pts, 0.05)
+		}
 	}
 }

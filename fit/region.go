@@ -48,6 +48,9 @@ type checker struct {
 	rlin       float64     // radius of the linear ball of the V under test (set by level)
 	share      int         // Monte-Carlo points for the envelope share
 	rng        *rand.Rand
+	// Radial lower bound of the V under test (set by level).
+	radLam  float64
+	radHigh []float64
 	// Samples grouped by cell: bySample[cellStart[c]:cellStart[c+1]].
 	cellStart []int32
 	bySample  [][2]int32
@@ -120,6 +123,7 @@ func (ck *checker) level(c []float64) levelResult {
 	env, n := ck.env, ck.fam.n
 	ve := newVEval(ck.fam, c)
 	hq := ck.quadMax(c)
+	ck.setRadial(c)
 	bad := map[int]*badMark{}
 	mark := func(cell int, key float64, kind string, z []float64, run string) {
 		if cell < 0 {
@@ -198,7 +202,7 @@ func (ck *checker) level(c []float64) levelResult {
 	vlow := func(cell int) float64 {
 		env.centerTo(center, cell)
 		v := ve.valueGrad(g, center)
-		return v - math.Sqrt(norm2(g))*hd
+		return math.Max(v-math.Sqrt(norm2(g))*hd, ck.vLowRadial(center, half))
 	}
 
 	// Minimax flood from the equilibrium's cell.
@@ -447,6 +451,45 @@ func (ck *checker) linearDecay(c []float64) (float64, bool) {
 	return lam, lam < 0
 }
 
+// setRadial prepares vLowRadial for V: the smallest eigenvalue of the
+// quadratic part and, per degree above 2, the sum of |coefficients|.
+func (ck *checker) setRadial(c []float64) {
+	n := ck.fam.n
+	ev := symEigen(ck.fam.quadMatrix(c), n)
+	ck.radLam = 0
+	if ev != nil {
+		ck.radLam = ev[0]
+	}
+	ck.radHigh = make([]float64, ck.fam.deg+1)
+	for k, ck2 := range c {
+		if d := ck.fam.lib.Degree(k); d > 2 {
+			ck.radHigh[d] += math.Abs(ck2)
+		}
+	}
+}
+
+// vLowRadial is a lower bound of V over the box centre ± half that holds
+// near the equilibrium, where the first-order bound is poor: with P the
+// quadratic part, V(z) >= lambda_min(P)|z|² - sum over higher terms of
+// |c_k| |z|^deg_k (each monomial of degree d is at most |z|^d in size),
+// taken with the box's nearest and farthest distances from 0.
+func (ck *checker) vLowRadial(center, half []float64) float64 {
+	dmin, dmax := 0.0, 0.0
+	for j, c := range center {
+		a := math.Abs(c)
+		dmin += math.Pow(math.Max(0, a-half[j]), 2)
+		dmax += math.Pow(a+half[j], 2)
+	}
+	dmax = math.Sqrt(dmax)
+	v := ck.radLam * dmin
+	for d := 3; d < len(ck.radHigh); d++ {
+		if ck.radHigh[d] != 0 {
+			v -= ck.radHigh[d] * math.Pow(dmax, float64(d))
+		}
+	}
+	return v
+}
+
 // cellSamples returns the (run, sample) indices of the samples in cell.
 func (ck *checker) cellSamples(cell int) [][2]int32 {
 	return ck.bySample[ck.cellStart[cell]:ck.cellStart[cell+1]]
@@ -533,7 +576,7 @@ func (ck *checker) cellKey(ve *vEval, cs *cellScratch, center, half []float64, d
 	}
 	v, vd := ve.vdot(ck.zf, center)
 	gv := math.Sqrt(norm2(ve.gbuf))
-	lowV := v - gv*r
+	lowV := math.Max(v-gv*r, ck.vLowRadial(center, half))
 	touches := cn-r <= ck.r0
 	if !touches && !(v >= posEps*cn*cn) {
 		return lowV, append([]float64(nil), center...)
