@@ -1,0 +1,305 @@
+package main
+
+import (
+	"context"
+	"errors"
+	"flag"
+	"fmt"
+	"io"
+	"io/fs"
+	"runtime"
+	"strings"
+	"sync"
+	"text/tabwriter"
+
+	"github.com/basin-dev/basin/fit"
+	"github.com/basin-dev/basin/ingest"
+	"github.com/basin-dev/basin/validate"
+)
+
+// screenFlags are basin screen's flags.
+type screenFlags struct {
+	commonFlags
+	Cert      string
+	Tolerance float64
+	Workers   int
+}
+
+func init() {
+	register(&command{
+		Name:  "screen",
+		Usage: "basin screen --cert certificate.json [flags] INPUTS...",
+		Short: "flag runs whose V rises, that leave the region, or that do not settle",
+		Long: `Screens new logs against a saved certificate. A run is flagged when V
+rises beyond the tolerance between samples inside the region (rises), when
+it leaves the region after entering it (leaves), or when it entered the
+region and does not settle, or ends outside the region (unsettled). Per
+run it reports each flag with the first time it happened and the worst
+excess, in units of V. A run that starts outside and comes in to settle
+is not flagged.
+
+Files are read one at a time per worker and screened as they arrive, so
+memory stays bounded by one file per worker however many files are given.
+The state columns are the certificate's, in its order, unless --states
+says otherwise. Exit status 1 when any run is flagged.`,
+		Flags: func(fs *flag.FlagSet) any {
+			c := &screenFlags{}
+			c.addInputFlags(fs)
+			fs.StringVar(&c.Cert, "cert", "", "the certificate `FILE` (certificate.json)")
+			fs.Float64Var(&c.Tolerance, "tolerance", 0, "tolerance on a rise of V between samples, in units of `V` (default: the certificate's)")
+			fs.IntVar(&c.Workers, "workers", 0, "files screened at once `N` (default: the number of CPUs)")
+			return c
+		},
+		Run: runScreen,
+	})
+}
+
+// screenJSON is the contract's screen --json shape.
+type screenJSON struct {
+	Runs    []validate.RunScreen `json:"runs"`
+	States  []screenState        `json:"states"`
+	Summary screenSummary        `json:"summary"`
+}
+
+type screenState struct {
+	Name string `json:"name"`
+	Unit string `json:"unit"`
+}
+
+type screenSummary struct {
+	Runs    int `json:"runs"`
+	Flagged int `json:"flagged"`
+	Files   int `json:"files"`
+	Samples int `json:"samples"`
+	// Counts per flag kind, over all runs.
+	Rises     int `json:"rises"`
+	Leaves    int `json:"leaves"`
+	Unsettled int `json:"unsettled"`
+	// NeverInside counts runs that never entered the region.
+	NeverInside int `json:"never_inside"`
+}
+
+func runScreen(ctx context.Context, e *env, opts any, args []string) error {
+	c := opts.(*screenFlags)
+	if c.Cert == "" {
+		return usagef("--cert FILE is required")
+	}
+	if err := needInputs(args); err != nil {
+		return err
+	}
+	if c.Tolerance < 0 {
+		return usagef("--tolerance must not be negative, got %g", c.Tolerance)
+	}
+	if c.Workers < 0 || c.Workers > 1024 {
+		return usagef("--workers must be 0..1024, got %d", c.Workers)
+	}
+	if c.Manifest != "" {
+		return usagef("--manifest does not apply to screen: every run given is screened")
+	}
+	cert, err := certFromFile(c.Cert)
+	if err != nil {
+		return err
+	}
+	iopts, err := c.ingestOptions()
+	if err != nil {
+		return err
+	}
+	if iopts.States == nil {
+		iopts.States = cert.States
+	}
+	if len(iopts.States) != len(cert.States) {
+		return usagef("--states names %d states, the certificate has %d", len(iopts.States), len(cert.States))
+	}
+	iopts.Stdin = e.stdin
+	files, err := ingest.Expand(args)
+	if err != nil {
+		return asInputError(err)
+	}
+	res, err := screenFiles(ctx, cert, files, iopts, &validate.ScreenOptions{Tolerance: c.Tolerance}, c.Workers)
+	if err != nil {
+		return asInputError(err)
+	}
+	out := screenJSON{Runs: []validate.RunScreen{}, Summary: screenSummary{Files: len(files)}}
+	for j, s := range cert.States {
+		out.States = append(out.States, screenState{s, cert.Units[j]})
+	}
+	for _, rs := range res {
+		for _, r := range rs.runs {
+			if r.Flags == nil {
+				r.Flags = []validate.Flag{}
+			}
+			out.Runs = append(out.Runs, r)
+			out.Summary.Runs++
+			out.Summary.Samples += r.Samples
+			if r.Flagged {
+				out.Summary.Flagged++
+			}
+			if !r.EverInside {
+				out.Summary.NeverInside++
+			}
+			for _, f := range r.Flags {
+				switch f.Kind {
+				case validate.FlagRises:
+					out.Summary.Rises++
+				case validate.FlagLeaves:
+					out.Summary.Leaves++
+				case validate.FlagUnsettled:
+					out.Summary.Unsettled++
+				}
+			}
+		}
+		for _, u := range rs.unitDiffs {
+			warnf(e, c.Quiet, "%s", u)
+		}
+	}
+	if cert.Verdict != fit.Certified {
+		warnf(e, c.Quiet, "%s: verdict is %s; screening against a region that claims nothing", c.Cert, cert.Verdict)
+	}
+	if c.JSON {
+		if err := writeJSON(e.stdout, out); err != nil {
+			return err
+		}
+	} else if err := screenTable(e.stdout, &out); err != nil {
+		return err
+	}
+	if out.Summary.Flagged > 0 {
+		return errFlagged
+	}
+	return nil
+}
+
+// asInputError marks bad input (a file that cannot be read or parsed) so
+// that it exits 2 with one line.
+func asInputError(err error) error {
+	var pe *ingest.ParseError
+	var fe *fs.PathError
+	if errors.As(err, &pe) || errors.As(err, &fe) || isIngestSentinel(err) {
+		return &inputError{err}
+	}
+	return err
+}
+
+// fileResult is the screening of one file.
+type fileResult struct {
+	runs      []validate.RunScreen
+	unitDiffs []string
+	err       error
+}
+
+// screenFiles reads and screens files on up to workers goroutines (0: one
+// per CPU), each with its own Screener, holding at most one file's data
+// per worker. Results are stored by file index, so the output order is the
+// input order whatever the timing. The first error in input order is
+// returned, and stops the rest.
+func screenFiles(ctx context.Context, cert *fit.Certificate, files []string, iopts *ingest.Options,
+	so *validate.ScreenOptions, workers int) ([]fileResult, error) {
+	if workers <= 0 {
+		workers = runtime.GOMAXPROCS(0)
+	}
+	workers = min(workers, len(files))
+	ctx, cancel := context.WithCancel(ctx)
+	defer cancel()
+	res := make([]fileResult, len(files))
+	next := make(chan int)
+	var wg sync.WaitGroup
+	for range workers {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			s := validate.NewScreener(cert, so)
+			for i := range next {
+				res[i] = screenOne(ctx, s, cert, files[i], iopts)
+				if res[i].err != nil {
+					cancel()
+				}
+			}
+		}()
+	}
+feed:
+	for i := range files {
+		select {
+		case next <- i:
+		case <-ctx.Done():
+			break feed
+		}
+	}
+	close(next)
+	wg.Wait()
+	var ctxErr error
+	for i := range res {
+		if err := res[i].err; err != nil {
+			if errors.Is(err, context.Canceled) {
+				ctxErr = err
+				continue
+			}
+			return nil, err
+		}
+	}
+	if ctxErr != nil {
+		return nil, ctxErr
+	}
+	if err := ctx.Err(); err != nil {
+		return nil, err
+	}
+	return res, nil
+}
+
+// screenOne reads one file and screens each of its runs.
+func screenOne(ctx context.Context, s *validate.Screener, cert *fit.Certificate, file string, iopts *ingest.Options) fileResult {
+	ds, err := ingest.ReadFile(ctx, file, iopts)
+	if err != nil {
+		return fileResult{err: err}
+	}
+	var r fileResult
+	for j, col := range ds.States {
+		if j < len(cert.Units) && col.Unit != "" && cert.Units[j] != "" && col.Unit != cert.Units[j] {
+			r.unitDiffs = append(r.unitDiffs, fmt.Sprintf("%s: column %q has unit %q, the certificate %q",
+				file, col.Name, col.Unit, cert.Units[j]))
+		}
+	}
+	r.runs = make([]validate.RunScreen, len(ds.Runs))
+	for k := range ds.Runs {
+		s.Screen(&r.runs[k], file, &ds.Runs[k])
+		// Screen reuses dst.Flags' storage; keep each run's own copy.
+		r.runs[k].Flags = append([]validate.Flag(nil), r.runs[k].Flags...)
+	}
+	return r
+}
+
+// screenTable prints the runs in input order, then a summary line.
+func screenTable(w io.Writer, out *screenJSON) error {
+	tw := tabwriter.NewWriter(w, 0, 8, 2, ' ', 0)
+	fmt.Fprintln(tw, "run\tfile\tsamples\tverdict\tflags (kind at time s: worst excess in V)")
+	for _, r := range out.Runs {
+		verdict := "ok"
+		switch {
+		case r.Flagged:
+			verdict = "FLAGGED"
+		case !r.EverInside:
+			verdict = "never inside"
+		}
+		var fl []string
+		for _, f := range r.Flags {
+			fl = append(fl, fmt.Sprintf("%s at %.4g: %.3g", f.Kind, f.Time, f.Excess))
+		}
+		fmt.Fprintf(tw, "%s\t%s\t%d\t%s\t%s\n", printable(r.Run), printable(r.File), r.Samples, verdict, strings.Join(fl, "; "))
+	}
+	if err := tw.Flush(); err != nil {
+		return err
+	}
+	s := out.Summary
+	_, err := fmt.Fprintf(w, "%d runs in %d files, %d samples: %d flagged (%d rises, %d leaves, %d unsettled), %d never inside the region\n",
+		s.Runs, s.Files, s.Samples, s.Flagged, s.Rises, s.Leaves, s.Unsettled, s.NeverInside)
+	return err
+}
+
+// printable replaces control characters (which would break the table or
+// the terminal) in a name taken from the user's files.
+func printable(s string) string {
+	return strings.Map(func(r rune) rune {
+		if r < 0x20 || r == 0x7f {
+			return '?'
+		}
+		return r
+	}, s)
+}

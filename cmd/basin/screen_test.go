@@ -1,0 +1,172 @@
+package main
+
+import (
+	"bytes"
+	"context"
+	"encoding/json"
+	"fmt"
+	"math"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+
+	"github.com/basin-dev/basin/fit"
+	"github.com/basin-dev/basin/validate"
+)
+
+// screenCert is certJSON (V = z0² + 0.1 z0 z1 + 0.3 z1², level 0.8) with a
+// noise ball and a tolerance.
+var screenCert = strings.Replace(certJSON, `"level": 0.8,`, `"level": 0.8, "noise_radius": 0.05, "tolerance": 1e-9,`, 1)
+
+// writeRun writes a CSV run of z' = rate·z (z scaled as in screenCert:
+// equilibrium (1.5, 0), scale (2, 10)) from z0, exact exponentials, 50 Hz.
+func writeRun(t *testing.T, dir, name string, z0 [2]float64, rate float64, secs float64) string {
+	t.Helper()
+	var b strings.Builder
+	b.WriteString("time [s],pitch [deg],rate [deg/s]\n")
+	for i := 0; float64(i)*0.02 <= secs; i++ {
+		tt := float64(i) * 0.02
+		e := math.Exp(rate * tt)
+		fmt.Fprintf(&b, "%g,%.17g,%.17g\n", tt, 1.5+2*z0[0]*e, 10*z0[1]*e)
+	}
+	p := filepath.Join(dir, name)
+	if err := os.WriteFile(p, []byte(b.String()), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	return p
+}
+
+func TestScreenCommand(t *testing.T) {
+	dir := t.TempDir()
+	cert := writeTestCert(t, screenCert)
+	// Two runs settle (V falls as e^{-2t}); one starts inside and grows
+	// (V rises, leaves); one starts outside and comes in (not flagged).
+	writeRun(t, dir, "a-settles.csv", [2]float64{0.5, 0.3}, -1, 10)
+	writeRun(t, dir, "b-settles.csv", [2]float64{-0.4, -0.6}, -0.7, 10)
+	writeRun(t, dir, "c-grows.csv", [2]float64{0.2, 0.1}, 0.4, 10)
+	writeRun(t, dir, "d-outside.csv", [2]float64{1.2, 0}, -1, 6)
+
+	var out, errb bytes.Buffer
+	code := basinMain(context.Background(), []string{"screen", dir, "--cert", cert, "--json"}, &out, &errb)
+	if code != 1 {
+		t.Fatalf("exit %d, want 1 (a run is flagged); stderr %s", code, errb.String())
+	}
+	var got struct {
+		Runs    []validate.RunScreen `json:"runs"`
+		States  []map[string]string  `json:"states"`
+		Summary map[string]int       `json:"summary"`
+	}
+	if err := json.Unmarshal(out.Bytes(), &got); err != nil {
+		t.Fatalf("%v\n%s", err, out.String())
+	}
+	if len(got.Runs) != 4 || got.Summary["runs"] != 4 || got.Summary["flagged"] != 1 {
+		t.Fatalf("runs %d, summary %v", len(got.Runs), got.Summary)
+	}
+	for i, want := range []string{"a-settles.csv", "b-settles.csv", "c-grows.csv", "d-outside.csv"} {
+		r := got.Runs[i]
+		if r.Run != want || r.File != filepath.Join(dir, want) || r.Samples == 0 {
+			t.Errorf("run %d: %+v, want %s in input order", i, r, want)
+		}
+		if r.Flagged != (want == "c-grows.csv") {
+			t.Errorf("%s: flagged %v, flags %+v", want, r.Flagged, r.Flags)
+		}
+	}
+	kinds := map[string]bool{}
+	for _, f := range got.Runs[2].Flags {
+		kinds[f.Kind] = true
+	}
+	if !kinds[validate.FlagRises] || !kinds[validate.FlagLeaves] {
+		t.Errorf("growing run: flags %+v, want rises and leaves", got.Runs[2].Flags)
+	}
+	if got.States[0]["name"] != "pitch" || got.States[1]["unit"] != "deg/s" {
+		t.Errorf("states %v", got.States)
+	}
+	if got.Runs[0].Flags == nil {
+		t.Error("flags must be [] not null for unflagged runs")
+	}
+
+	// The table, and the exit code when nothing is flagged.
+	out.Reset()
+	code = basinMain(context.Background(), []string{"screen", "--cert", cert, filepath.Join(dir, "a-settles.csv"), filepath.Join(dir, "d-outside.csv")}, &out, &errb)
+	if code != 0 || !strings.Contains(out.String(), "2 runs in 2 files, 802 samples: 0 flagged") {
+		t.Errorf("exit %d, table:\n%s", code, out.String())
+	}
+}
+
+func TestScreenBadInput(t *testing.T) {
+	dir := t.TempDir()
+	cert := writeTestCert(t, screenCert)
+	good := writeRun(t, dir, "good.csv", [2]float64{0.5, 0.3}, -1, 2)
+	bad := filepath.Join(dir, "bad.csv")
+	os.WriteFile(bad, []byte("time,pitch,rate\n0,1,2\n0.02,1.5,x2\n"), 0o644)
+	other := filepath.Join(dir, "other.csv")
+	os.WriteFile(other, []byte("time,roll,yaw\n0,1,2\n0.02,1.5,2\n"), 0o644)
+	cases := []struct {
+		name string
+		args []string
+		msg  string
+	}{
+		{"no cert", []string{"screen", good}, "--cert FILE is required"},
+		{"no inputs", []string{"screen", "--cert", cert}, "no INPUTS"},
+		{"bad cell", []string{"screen", "--cert", cert, good, bad}, "bad.csv:3:3"},
+		{"wrong columns", []string{"screen", "--cert", cert, other}, "other.csv"},
+		{"missing file", []string{"screen", "--cert", cert, filepath.Join(dir, "nope.csv")}, "nope.csv"},
+		{"bad cert", []string{"screen", "--cert", writeTestCert(t, `{"format": "basin.model/1"}`), good}, "certificate.json"},
+		{"negative tolerance", []string{"screen", "--cert", cert, "--tolerance", "-1", good}, "--tolerance"},
+		{"states count", []string{"screen", "--cert", cert, "--states", "pitch", good}, "--states names 1 states"},
+	}
+	for _, tc := range cases {
+		t.Run(tc.name, func(t *testing.T) {
+			var out, errb bytes.Buffer
+			code := basinMain(context.Background(), tc.args, &out, &errb)
+			if code != 2 || !strings.Contains(errb.String(), tc.msg) || strings.Count(errb.String(), "\n") != 1 || out.Len() != 0 {
+				t.Errorf("exit %d, stdout %q, stderr %q; want 2 and one line with %q", code, out.String(), errb.String(), tc.msg)
+			}
+		})
+	}
+}
+
+// TestScreenOrderAndWorkers: results come back in input order and are the
+// same for one worker and many.
+func TestScreenOrderAndWorkers(t *testing.T) {
+	dir := t.TempDir()
+	c, err := fit.ReadCertificate(strings.NewReader(screenCert))
+	if err != nil {
+		t.Fatal(err)
+	}
+	var files []string
+	for i := range 24 {
+		rate := -0.5
+		if i%5 == 3 {
+			rate = 0.5
+		}
+		files = append(files, writeRun(t, dir, fmt.Sprintf("r%02d.csv", i), [2]float64{0.3, -0.2}, rate, 4))
+	}
+	opts, _ := (&commonFlags{}).ingestOptions()
+	opts.States = c.States
+	one, err := screenFiles(context.Background(), c, files, opts, nil, 1)
+	if err != nil {
+		t.Fatal(err)
+	}
+	many, err := screenFiles(context.Background(), c, files, opts, nil, 7)
+	if err != nil {
+		t.Fatal(err)
+	}
+	a, _ := json.Marshal(one[0].runs)
+	for i := range files {
+		a, _ = json.Marshal(one[i].runs)
+		b, _ := json.Marshal(many[i].runs)
+		if !bytes.Equal(a, b) || one[i].runs[0].File != files[i] {
+			t.Fatalf("file %d: %s vs %s", i, a, b)
+		}
+		if one[i].runs[0].Flagged != (i%5 == 3) {
+			t.Errorf("file %d flagged %v", i, one[i].runs[0].Flagged)
+		}
+	}
+	ctx, cancel := context.WithCancel(context.Background())
+	cancel()
+	if _, err := screenFiles(ctx, c, files, opts, nil, 2); err == nil {
+		t.Error("no error from a cancelled context")
+	}
+}
