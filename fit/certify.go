@@ -332,15 +332,16 @@ func Certify(ctx context.Context, m *Model, ds *ingest.Dataset, opts *CertifyOpt
 	cert.RadiallyUnbounded = fam.radiallyUnbounded(best.c, rand.New(rand.NewPCG(o.Seed, 1)))
 	cert.InSample = InSample{Pairs: r.pairs, DecreaseFraction: r.decrease, FillPoints: o.Fill}
 	limit := r.limit
-	if capped {
-		limit = LimitGrowth
-	}
 	where := ""
 	if cert.Region.LimitPoint != nil {
 		where = " at " + formatPoint(cert.Region.LimitPoint, m.States, m.Units)
 		if r.limitRun != "" {
 			where += " (run " + r.limitRun + ")"
 		}
+	}
+	if capped {
+		limit = LimitGrowth + " (still gaining; this V's level set stops at " + r.limit + where + ")"
+		where = ""
 	}
 	cert.Reason = fmt.Sprintf("V of degree %d (from the %s, margin %.3g) decreases on the fit runs; its level set V <= %.4g covers %.1f%% of the envelope, limited by %s%s; not yet checked on held-out runs.",
 		o.Degree, best.source, best.g, r.level, 100*r.share, limit, where)
