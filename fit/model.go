@@ -72,7 +72,7 @@ type Model struct {
 	Equilibria []Equilibrium `json:"equilibria"`
 
 	Degree     int     `json:"degree"`
-	Threshold  float64 `json:"threshold"` // in the fitting coordinates
+	Threshold  float64 `json:"threshold"` // on coefficients normalised by their column's and target's spread
 	Ridge      float64 `json:"ridge"`
 	Derivative string  `json:"derivative"` // derivative method used
 	Condition  float64 `json:"condition"`  // of the normalised library's normal matrix
