@@ -20,7 +20,7 @@ type CertifyOptions struct {
 	// Seed seeds the fill points and Monte-Carlo shares; 0 means 1.
 	Seed uint64
 	// Growth caps the rounds that re-solve the LP on a larger level set;
-	// 0 means 8.
+	// 0 means 14.
 	Growth int
 	// LPSamples caps the recorded samples (and their pairs) put into each
 	// LP, taken evenly along the runs; 0 means 3000. The level search
@@ -49,7 +49,7 @@ func (o *CertifyOptions) get() CertifyOptions {
 		c.Seed = 1
 	}
 	if c.Growth <= 0 {
-		c.Growth = 8
+		c.Growth = 14
 	}
 	if c.LPSamples <= 0 {
 		c.LPSamples = 3000

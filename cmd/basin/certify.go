@@ -43,7 +43,7 @@ certificate is checked on held-out runs (basin check, basin run).
 			c.addInputFlags(fs)
 			c.addFitFlags(fs, "basin-out")
 			fs.StringVar(&c.Model, "model", "", "the fitted model `FILE` (model.json from basin fit)")
-			fs.IntVar(&c.Growth, "growth", 8, "region growth rounds `N` (LP re-fits on larger level sets)")
+			fs.IntVar(&c.Growth, "growth", 14, "region growth rounds `N` (LP re-fits on larger level sets)")
 			return c
 		},
 		Run: runCertify,
