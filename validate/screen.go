@@ -30,15 +30,17 @@ const (
 //     tolerance.
 //   - leaves: a sample outside the region after one inside it. Excess is
 //     the worst V - Level after entering (0 when only the box was left).
-//   - unsettled: the run entered the region and its end is neither settled
-//     (mean V over the last samples at most the settle level, the largest
-//     V on the noise ball) nor nearer the equilibrium than its start (mean
-//     V over the last samples below the mean over the first by more than
-//     the tolerance). Time is the run's last time, Excess the end's mean V
-//     minus the settle level.
+//   - unsettled: the run's last sample is outside the region, or its end
+//     is neither settled (mean V over the last samples at most the settle
+//     level, the largest V on the noise ball) nor nearer the equilibrium
+//     than its start (mean V over the last samples below the mean over the
+//     first by more than the tolerance). Time is the run's last time,
+//     Excess the end's mean V minus the settle level. A run that never
+//     enters the region is flagged so too: runs that leave a basin start
+//     outside any sound region.
 //
-// A run that never enters the region is not flagged: the certificate says
-// nothing about it (its EverInside is false).
+// A certificate without a V or with a level that is not positive has an
+// empty region (every run then ends outside it).
 type Screener struct {
 	cert *fit.Certificate
 	opts ScreenOptions
@@ -298,6 +300,9 @@ func (s *Screener) Screen(dst *RunScreen, file string, run *ingest.Run) {
 	X := run.X
 	T := run.T
 	level := s.cert.Level
+	if len(s.cert.V.Exponents) == 0 || !(level > 0) {
+		level = math.Inf(-1) // no V or no level: the region is empty
+	}
 	tol := s.tol
 	w := min(max(m/tailShare, 1), tailMax)
 

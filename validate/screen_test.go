@@ -283,3 +283,24 @@ func screenRunsWith(ds *ingest.Dataset, cert *fit.Certificate, generic bool) {
 	<-done
 	<-done
 }
+
+// TestScreenEmptyRegion: a certificate with no V (none found) or a zero
+// level has an empty region: nothing is inside, no pair is counted, and
+// the run (ending outside) is unsettled.
+func TestScreenEmptyRegion(t *testing.T) {
+	r := makeRun("r", 100, 0.01, func(t float64) (float64, float64) { return 0.1, 0 })
+	only := func(r RunScreen) bool { return len(r.Flags) == 1 && r.Flags[0].Kind == FlagUnsettled }
+	for _, c := range []*fit.Certificate{circleCert(false), circleCert(true)} {
+		c.Level = 0
+		var got RunScreen
+		NewScreener(c, nil).Screen(&got, "f", &r)
+		if got.EverInside || !only(got) || got.Pairs != 0 {
+			t.Errorf("level 0: %+v", got)
+		}
+		c.Level, c.V = 1, poly.Poly{}
+		NewScreener(c, nil).Screen(&got, "f", &r)
+		if got.EverInside || !only(got) || got.Pairs != 0 {
+			t.Errorf("no V: %+v", got)
+		}
+	}
+}
