@@ -36,7 +36,7 @@ const (
 	ClassUnstableNode   = "unstable node"
 	ClassUnstableFocus  = "unstable focus"
 	ClassNonHyperbolic  = "non-hyperbolic"
-	ClassOutsideEnvelop = "outside envelope"
+	ClassOutsideEnvelope = "outside envelope"
 )
 
 // newton runs damped Newton from x0 on fe; it returns the point and
@@ -222,7 +222,7 @@ func findEquilibria(m *Model, starts [][]float64, lower, upper, spread []float64
 		}
 		class := classify(vals)
 		if !in {
-			class = ClassOutsideEnvelop
+			class = ClassOutsideEnvelope
 		}
 		if !finite(flatten(jac)...) || !finite(flattenPairs(eig)...) {
 			continue

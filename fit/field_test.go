@@ -161,7 +161,7 @@ func TestLeastSquaresSajari(t *testing.T) {
 	rng := rand.New(rand.NewPCG(5, 0))
 	lib := poly.NewLibrary(2, 0, 2) // 1, x, y, x², xy, y²
 	p, n := lib.Len(), 1
-	const N = 3000
+	const N = 1000
 	g := newGroupSums(p, n)
 	rb := newRowBuffer(p, n)
 	r := new(regression.Regression)
@@ -448,7 +448,7 @@ func TestOutsideEnvelope(t *testing.T) {
 		t.Fatalf("equilibria %+v", m.Equilibria)
 	}
 	for _, e := range m.Equilibria {
-		if !e.InEnvelope && e.Class != ClassOutsideEnvelop {
+		if !e.InEnvelope && e.Class != ClassOutsideEnvelope {
 			t.Errorf("equilibrium %v outside the box has class %q", e.Point, e.Class)
 		}
 	}
