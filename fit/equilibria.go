@@ -30,12 +30,12 @@ const (
 
 // Equilibrium classes.
 const (
-	ClassStableNode     = "stable node"
-	ClassStableFocus    = "stable focus"
-	ClassSaddle         = "saddle"
-	ClassUnstableNode   = "unstable node"
-	ClassUnstableFocus  = "unstable focus"
-	ClassNonHyperbolic  = "non-hyperbolic"
+	ClassStableNode      = "stable node"
+	ClassStableFocus     = "stable focus"
+	ClassSaddle          = "saddle"
+	ClassUnstableNode    = "unstable node"
+	ClassUnstableFocus   = "unstable focus"
+	ClassNonHyperbolic   = "non-hyperbolic"
 	ClassOutsideEnvelope = "outside envelope"
 )
 
