@@ -155,6 +155,9 @@ const (
 // for per-term inclusion frequencies and intervals; and Newton's method on
 // the fitted field for its equilibria.
 //
+// Field uses every run of ds, whatever its Split: leave held-out runs out
+// before calling it (basin fit drops the runs a manifest holds out).
+//
 // Bad input gives an error wrapping ErrTooFewSamples, ErrConstant,
 // ErrCollinear (as a *CollinearError) or ErrShortRun, with the numbers.
 func Field(ctx context.Context, ds *ingest.Dataset, opts *FieldOptions) (*Model, error) {
