@@ -1,6 +1,10 @@
 package validate
 
-import "math"
+import (
+	"math"
+
+	"github.com/basin-dev/basin/fit"
+)
 
 // The Dormand–Prince 5(4) tableau (Dormand & Prince, "A family of embedded
 // Runge–Kutta formulae", J. Comput. Appl. Math. 6:19-26, 1980).
@@ -280,4 +284,12 @@ func finiteAll(x []float64) bool {
 		}
 	}
 	return true
+}
+
+// Simulate integrates the fitted field of m from x0 with [Integrate] and
+// stores x(times[i]) in dst[j][i]. A model that blows up is reported in
+// the stats (Diverged), never as a panic.
+func Simulate(m *fit.Model, x0, times []float64, dst [][]float64, opts *DopriOptions) DopriStats {
+	fe := fit.NewFieldEvaluator(m)
+	return Integrate(func(d []float64, _ float64, x []float64) { fe.EvalTo(d, x) }, x0, times, dst, opts)
 }

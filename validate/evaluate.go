@@ -318,6 +318,15 @@ func decide(cert *fit.Certificate, val *fit.Validation, runs []RunScreen, eig []
 			}
 		}
 	}
+	for _, r := range runs {
+		if !r.StartInside && hasFlag(&r, FlagLeaves) {
+			// entered later and left: the region is not invariant on this
+			// run; not a contradiction of the equilibrium's stability.
+			if f := flagOf(&r, FlagLeaves); f.Excess > tol {
+				return fit.Inconclusive, fit.NoClaim, fmt.Sprintf("Held-out run %s entered the region and left it again at t = %.4g s (V above the level by %.3g).", r.Run, f.Time, f.Excess)
+			}
+		}
+	}
 	switch {
 	case val.HeldoutRuns == 0:
 		return fit.Inconclusive, fit.NoClaim, "No held-out runs to check the certificate on."

@@ -3,6 +3,7 @@ package validate
 import (
 	"context"
 	"math"
+	"strings"
 	"testing"
 
 	"github.com/basin-dev/basin/fit"
@@ -100,6 +101,22 @@ func TestDecideLeaves(t *testing.T) {
 	Decide(c, val, runs, stable, &Options{Tolerance: 0.2})
 	if c.Verdict != fit.Inconclusive {
 		t.Errorf("leaving within tolerance: %s %s", c.Verdict, c.Reason)
+	}
+	// A run that starts outside, enters and leaves again: not certified.
+	c = circleCert(false)
+	c.Margin = 0.1
+	ds := &ingest.Dataset{States: []ingest.Column{{Name: "a"}, {Name: "b"}}}
+	for i := 0; i < 3; i++ {
+		ds.Runs = append(ds.Runs, makeRun("d", 500, 0.01, func(t float64) (float64, float64) { return 0.8 * math.Exp(-t), 0 }))
+	}
+	ds.Runs = append(ds.Runs, makeRun("through", 500, 0.01, func(t float64) (float64, float64) { return -1.2 + 0.6*t, 0 }))
+	val2, runs2, err := Check(context.Background(), c, ds, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	Decide(c, val2, runs2, stable, nil)
+	if c.Verdict != fit.Inconclusive || !strings.Contains(c.Reason, "through") {
+		t.Errorf("entered and left: %s %s", c.Verdict, c.Reason)
 	}
 	Decide(c, val, runs, [][2]float64{{0.2, 1}, {0.2, -1}}, nil)
 	if c.Verdict != fit.Rejected {
