@@ -53,7 +53,8 @@ type figure struct {
 	// contour holds the region boundary drawn, in the plane's data units.
 	contour [][][2]float64
 	// Notes for the caption.
-	offFigure int // other equilibria outside the figure
+	offFigure int  // other equilibria outside the figure
+	clipped   bool // runs reach beyond the view
 }
 
 func lineStyle(c color.Color, w vg.Length, dash ...vg.Length) draw.LineStyle {
@@ -121,6 +122,26 @@ func (s span) padded(ref float64) (float64, float64) {
 	return s.lo - 0.06*w, s.hi + 0.06*w
 }
 
+// viewBoxes bounds the phase plane's view, in widths of the box around
+// its centre.
+const viewBoxes = 3
+
+// limitSpan narrows s to viewBoxes box widths around the box's centre and
+// reports (or-ed into clip) whether it had to.
+func limitSpan(s span, box [2]float64, clip bool) (span, bool) {
+	c, w := (box[0]+box[1])/2, (box[1]-box[0])/2*viewBoxes
+	if w <= 0 {
+		return s, clip
+	}
+	if s.lo < c-w {
+		s.lo, clip = c-w, true
+	}
+	if s.hi > c+w {
+		s.hi, clip = c+w, true
+	}
+	return s, clip
+}
+
 // planeFigure draws the phase plane of states a and b.
 func planeFigure(in *Input, pl [2]int) (*figure, error) {
 	c := in.Cert
@@ -172,9 +193,26 @@ func planeFigure(in *Input, pl [2]int) (*figure, error) {
 		sy.add(c.Box[b][0])
 		sy.add(c.Box[b][1])
 	}
+	// The view: the data's span, but no wider than viewBoxes times the
+	// box around its centre, so that runs flying off do not shrink the
+	// region to a dot; equilibria of the model inside the data's envelope
+	// are always in view.
+	clip := false
+	if c.Box != nil {
+		sx, clip = limitSpan(sx, c.Box[a], clip)
+		sy, clip = limitSpan(sy, c.Box[b], clip)
+	}
+	if m := in.Model; m != nil {
+		for _, e := range m.Equilibria {
+			if e.InEnvelope && len(e.Point) == len(c.States) {
+				sx.add(e.Point[a])
+				sy.add(e.Point[b])
+			}
+		}
+	}
 	x0, x1 := sx.padded(c.Equilibrium[a])
 	y0, y1 := sy.padded(c.Equilibrium[b])
-	f := &figure{}
+	f := &figure{clipped: clip}
 	if c.Box != nil {
 		bx := c.Box
 		l, err := plotter.NewLine(plotter.XYs{{X: bx[a][0], Y: bx[b][0]}, {X: bx[a][1], Y: bx[b][0]},

@@ -40,6 +40,7 @@ type pageData struct {
 	PlaneA, PlaneB            string
 	PlaneSlice                string
 	OtherOff                  int
+	Clipped                   bool
 	VFig                      *figure
 	Keys                      []keyItem
 	VKeys                     []keyItem
@@ -161,7 +162,7 @@ func build(in *Input, pl [2]int) (*pageData, error) {
 		if err != nil {
 			return nil, err
 		}
-		d.Plane, d.OtherOff = f, f.offFigure
+		d.Plane, d.OtherOff, d.Clipped = f, f.offFigure, f.clipped
 		d.PlaneA, d.PlaneB = c.States[pl[0]], c.States[pl[1]]
 		if len(c.States) > 2 {
 			var others []string

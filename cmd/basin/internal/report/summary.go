@@ -39,7 +39,7 @@ func Summary(w io.Writer, in *Input) error {
 			fmt.Fprintf(&b, "  d%s/dt = %s\n", e.State, polyText(e.Exponents, e.Coefficients, m.States))
 		}
 		if len(m.Equilibria) > 1 {
-			fmt.Fprintf(&b, "  %d other equilibria found\n", len(m.Equilibria)-1)
+			fmt.Fprintf(&b, "  other equilibria found: %d\n", len(m.Equilibria)-1)
 		}
 	}
 	if len(c.V.Exponents) > 0 {
