@@ -14,8 +14,8 @@ func ExampleSummary() {
 		Format: fit.CertificateFormat, Verdict: fit.Inconclusive, Strength: fit.NoClaim,
 		Reason: "no held-out runs", States: []string{"pitch", "rate"}, Units: []string{"deg", "deg/s"},
 		Equilibrium: []float64{1.5, 0}, Scale: []float64{2, 10},
-		V:     poly.Poly{Exponents: [][]int{{2, 0}, {0, 2}}, Coefficients: []float64{1, 0.5}},
-		Level: 0.8,
+		V:      poly.Poly{Exponents: [][]int{{2, 0}, {0, 2}}, Coefficients: []float64{1, 0.5}},
+		Level:  0.8,
 		Region: fit.Region{Extent: [][2]float64{{-0.29, 3.29}, {-12.6, 12.6}}, Limit: "envelope edge"},
 	}
 	if err := report.Summary(os.Stdout, &report.Input{Cert: cert}); err != nil {
