@@ -405,11 +405,7 @@ func (s *Screener) Screen(dst *RunScreen, file string, run *ingest.Run) {
 		dst.Settled = false
 	}
 	if !dst.Settled {
-		e := tail - s.settle
-		if !(e <= math.MaxFloat64) {
-			e = math.MaxFloat64
-		}
-		dst.Flags = append(dst.Flags, Flag{Kind: FlagUnsettled, Time: T[m-1], Excess: e})
+		dst.Flags = append(dst.Flags, Flag{Kind: FlagUnsettled, Time: T[m-1], Excess: clampFinite(tail - s.settle)})
 	}
 	dst.Flagged = len(dst.Flags) > 0
 }

@@ -159,9 +159,10 @@ func TestNoFalseCertificates(t *testing.T) {
 			}
 			cert := res.Certificate
 			v := cert.Validation
-			t.Logf("%s: %s/%s (%.1fs): %s share %.3g dec %.3g inv %.3g eps %.3g N %d",
+			t.Logf("%s: %s/%s (%.1fs): %s | share %.3g, held-out runs %d (inside %d, settled %d), decrease %.4f over %d pairs, invariance %.3g, eps %.3g (N %d, tau %.3gs, d %d), deriv err %.3g, traj err %.3g, departs %.3gs",
 				c.sys.source, cert.Verdict, cert.Strength, time.Since(start).Seconds(), cert.Reason,
-				cert.Region.EnvelopeShare, v.DecreaseFraction, v.InvarianceFraction, v.ViolationBound, v.ScenarioSamples)
+				cert.Region.EnvelopeShare, v.HeldoutRuns, v.StartInside, v.Settled, v.DecreaseFraction, v.Pairs, v.InvarianceFraction,
+				v.ViolationBound, v.ScenarioSamples, v.Decorrelation, v.DecisionVars, v.DerivativeError, v.TrajectoryError, v.DepartureTime)
 			switch {
 			case c.certify && (cert.Verdict != fit.Certified || cert.Strength != fit.Asymptotic):
 				t.Errorf("%s: want certified/asymptotic, got %s/%s: %s", c.sys.source, cert.Verdict, cert.Strength, cert.Reason)
