@@ -6,6 +6,7 @@ import (
 	"math"
 	"os"
 	"strings"
+	"time"
 
 	"github.com/apache/arrow/go/v15/arrow"
 	"github.com/apache/arrow/go/v15/arrow/array"
@@ -20,6 +21,15 @@ import (
 // leaves ample room for real files and refuses a hostile footer that
 // claims billions of rows in a few kilobytes.
 const maxRowsPerByte = 64
+
+// maxExpand bounds the uncompressed size a column chunk may claim, as a
+// multiple of the file's size (plus 1 MiB): far above what compression
+// achieves on logged numbers, far below a decompression bomb.
+const maxExpand = 1024
+
+// parquetBudget is the base time allowed to decode one Parquet file, to
+// which a second per MiB of file is added.
+var parquetBudget = 10 * time.Second
 
 // ReadParquet reads one Parquet file of logged samples. Columns of type
 // float32, float64, int8..int64 and uint8..uint64 are numbers; a timestamp
@@ -37,7 +47,35 @@ func ReadParquet(ctx context.Context, path string, opts *Options) (ds *Dataset, 
 	if opts == nil {
 		opts = &Options{}
 	}
-	tb, err := readParquetTable(ctx, path, opts)
+	// A corrupt page header can send the Arrow decoder into a loop that
+	// allocates without end (found by FuzzReadParquet; see its corpus). It
+	// cannot be stopped from outside, so the read runs under a time
+	// budget far above real decoding speed; past it the file is reported
+	// as corrupt and the decoder is left to the process's exit.
+	type result struct {
+		tb  *table
+		err error
+	}
+	budget := parquetBudget
+	if st, err := os.Stat(path); err == nil {
+		budget += time.Duration(st.Size()>>20) * time.Second // >= 1 MB/s
+	}
+	done := make(chan result, 1)
+	go func() {
+		tb, err := readParquetTable(ctx, path, opts)
+		done <- result{tb, err}
+	}()
+	var tb *table
+	timer := time.NewTimer(budget)
+	defer timer.Stop()
+	select {
+	case r := <-done:
+		tb, err = r.tb, r.err
+	case <-timer.C:
+		return nil, &ParseError{File: path, Err: fmt.Errorf("%w: Parquet decoding did not finish in %v; the file is probably corrupt", ErrFormat, budget)}
+	case <-ctx.Done():
+		return nil, ctx.Err()
+	}
 	if err != nil {
 		return nil, err
 	}
@@ -97,6 +135,29 @@ func readParquetTable(ctx context.Context, path string, opts *Options) (tb *tabl
 			return nil, bad("row group %d claims %d rows", i, n)
 		}
 		sum += n
+	}
+	// Column chunks must lie inside the file, and not claim to expand
+	// beyond maxExpand times the file's size, before Arrow allocates
+	// buffers of the sizes they claim.
+	for i := 0; i < pr.NumRowGroups(); i++ {
+		rg := md.RowGroup(i)
+		for c := 0; c < rg.NumColumns(); c++ {
+			cc, err := rg.ColumnChunk(c)
+			if err != nil {
+				return nil, bad("row group %d column %d: %v", i, c+1, err)
+			}
+			start := cc.DataPageOffset()
+			if cc.HasDictionaryPage() && cc.DictionaryPageOffset() > 0 && cc.DictionaryPageOffset() < start {
+				start = cc.DictionaryPageOffset()
+			}
+			n, un := cc.TotalCompressedSize(), cc.TotalUncompressedSize()
+			if start < 0 || n < 0 || start > st.Size() || n > st.Size()-start {
+				return nil, bad("row group %d column %d: chunk at %d, %d bytes, outside the file (%d bytes)", i, c+1, start, n, st.Size())
+			}
+			if un < 0 || un > maxExpand*st.Size()+1<<20 {
+				return nil, bad("row group %d column %d: claims %d bytes uncompressed from a %d-byte file", i, c+1, un, st.Size())
+			}
+		}
 	}
 	if nrows < 0 || sum != nrows {
 		return nil, bad("footer claims %d rows, its row groups %d", nrows, sum)
