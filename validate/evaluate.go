@@ -342,7 +342,7 @@ func decide(cert *fit.Certificate, val *fit.Validation, runs []RunScreen, eig []
 		return fit.Inconclusive, fit.NoClaim, "The linearisation at the equilibrium could not be classified."
 	}
 	if val.Settled == val.StartInside && cert.Margin > 0 && lin == linStable {
-		return fit.Certified, fit.Asymptotic, fmt.Sprintf("V fell on %.1f%% of %d held-out pairs inside the region; all %d held-out runs that started inside stayed inside and settled.", 100*val.DecreaseFraction, val.Pairs, val.StartInside)
+		return fit.Certified, fit.Asymptotic, fmt.Sprintf("V fell on %.1f%% of %d held-out pairs inside the region; %s stayed inside and settled.", 100*val.DecreaseFraction, val.Pairs, insideRuns(val.StartInside))
 	}
 	why := "not all settled"
 	switch {
@@ -351,7 +351,15 @@ func decide(cert *fit.Certificate, val *fit.Validation, runs []RunScreen, eig []
 	case val.Settled == val.StartInside:
 		why = "settled, but V has no positive decrease margin"
 	}
-	return fit.Certified, fit.Stable, fmt.Sprintf("V did not rise beyond the noise tolerance on %.1f%% of %d held-out pairs and all %d held-out runs that started inside stayed inside but %s: stability without shown convergence.", 100*val.DecreaseFraction, val.Pairs, val.StartInside, why)
+	return fit.Certified, fit.Stable, fmt.Sprintf("V did not rise beyond the noise tolerance on %.1f%% of %d held-out pairs and %s stayed inside but %s: stability without shown convergence.", 100*val.DecreaseFraction, val.Pairs, insideRuns(val.StartInside), why)
+}
+
+// insideRuns names the held-out runs that started inside, by count.
+func insideRuns(k int) string {
+	if k == 1 {
+		return "the one held-out run that started inside"
+	}
+	return fmt.Sprintf("all %d held-out runs that started inside", k)
 }
 
 // Evaluate splits ds by run, fits the model and certificate on the fit
