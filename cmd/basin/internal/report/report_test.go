@@ -320,3 +320,13 @@ func TestSummary(t *testing.T) {
 		}
 	}
 }
+
+// TestDeterministic: the same input gives the same bytes (basin run
+// promises byte-identical outputs for the same input and seed).
+func TestDeterministic(t *testing.T) {
+	a := renderPage(t, fixture(mustCert(fixtureCertJSON), nil))
+	b := renderPage(t, fixture(mustCert(fixtureCertJSON), nil))
+	if a != b {
+		t.Fatal("two renderings of the same input differ")
+	}
+}
