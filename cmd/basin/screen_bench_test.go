@@ -20,6 +20,7 @@ import (
 	"github.com/apache/arrow/go/v15/parquet/pqarrow"
 
 	"github.com/basin-dev/basin/fit"
+	"github.com/basin-dev/basin/ingest"
 )
 
 const (
@@ -155,5 +156,24 @@ func BenchmarkScreen(b *testing.B) {
 				b.ReportMetric(n/(cpuSeconds()-cpu0), "samples/cpu-s")
 			})
 		}
+		// The same files only read (no screening), one worker: the share
+		// of the time that is ingest's.
+		b.Run(format+"/read-only", func(b *testing.B) {
+			opts, _ := (&commonFlags{}).ingestOptions()
+			opts.States = c.States
+			b.SetBytes(size)
+			b.ReportAllocs()
+			cpu0 := cpuSeconds()
+			for b.Loop() {
+				for _, p := range paths {
+					if _, err := ingest.ReadFile(context.Background(), p, opts); err != nil {
+						b.Fatal(err)
+					}
+				}
+			}
+			n := float64(benchFiles*benchRows) * float64(b.N)
+			b.ReportMetric(n/b.Elapsed().Seconds(), "samples/s")
+			b.ReportMetric(n/(cpuSeconds()-cpu0), "samples/cpu-s")
+		})
 	}
 }
