@@ -180,12 +180,11 @@ func Certify(ctx context.Context, m *Model, ds *ingest.Dataset, opts *CertifyOpt
 	}
 
 	// The runs in z, the envelope and the checker.
-	ck, allZ, err := newChecker(ctx, m, ds, xe, scale, o)
+	ck, _, err := newChecker(ctx, m, ds, xe, scale, o)
 	if err != nil {
 		return nil, err
 	}
 	ck.az = az
-	_ = allZ
 	cert.NoiseRadius = ck.r0
 	fam := ck.fam
 	if nMin := 3 * fam.Len(); ds.Samples() < nMin {
@@ -217,7 +216,6 @@ func Certify(ctx context.Context, m *Model, ds *ingest.Dataset, opts *CertifyOpt
 	rng := rand.New(rand.NewPCG(o.Seed, 0))
 	solves, rounds, rowsUsed := 0, 0, 0
 	var lastErr string
-	grown := false
 	capped := false
 	stale := 0
 	firstContra := false
@@ -267,7 +265,6 @@ func Certify(ctx context.Context, m *Model, ds *ingest.Dataset, opts *CertifyOpt
 		}
 		if improved {
 			stale = 0
-			grown = true
 			capped = round == o.Growth-1
 			continue
 		}
@@ -293,7 +290,6 @@ func Certify(ctx context.Context, m *Model, ds *ingest.Dataset, opts *CertifyOpt
 		}
 		return noFind("No V was found: " + reason + ".")
 	}
-	_ = grown
 
 	// The certificate.
 	r := best.res
