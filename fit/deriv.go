@@ -13,8 +13,9 @@ const (
 	DerivFornberg = "fornberg"
 	// DerivSavitzkyGolay fits a cubic to a sliding window of samples by
 	// least squares and takes its value (the smoothed state) and slope.
-	// The window is chosen per state from the noise estimate (see
-	// [chooseWindow]).
+	// The window is chosen per state from the noise estimate: half the
+	// widest smoothing window the noise explains ([chooseWindow]). Only
+	// samples with a full centred window enter the regression.
 	DerivSavitzkyGolay = "savitzky-golay"
 	// DerivIntegral avoids differentiating: it regresses x(t_b) - x(t_a)
 	// on the time integrals of the library over consecutive windows
