@@ -27,8 +27,8 @@ func ExampleWrite() {
 	// #
 	// # V is the Lyapunov function of a basin certificate over 2 states (verdict certified,
 	// # strength asymptotic). x is a state vector in the logs' original units, in the
-	// # order of the STATES list below; the scaling z = (x - equilibrium) / scale is built in.
-	// # The region is {x : V(x) <= LEVEL and x inside BOX}.
+	// # order of the state names below; the scaling z = (x - equilibrium) / scale is built in.
+	// # The region is {x : V(x) <= level and x inside the box}.
 	// #
 	// # Empirical evidence from recorded samples only, not a proof of stability;
 	// # nothing is claimed outside the envelope the data cover, and safety-relevant

@@ -119,8 +119,8 @@ func headerLines(cert *fit.Certificate) []string {
 		"",
 		fmt.Sprintf("V is the Lyapunov function of a basin certificate over %d states (verdict %s,", n, safeWord(string(cert.Verdict))),
 		fmt.Sprintf("strength %s). x is a state vector in the logs' original units, in the", safeWord(string(cert.Strength))),
-		"order of the STATES list below; the scaling z = (x - equilibrium) / scale is built in.",
-		"The region is {x : V(x) <= LEVEL and x inside BOX}.",
+		"order of the state names below; the scaling z = (x - equilibrium) / scale is built in.",
+		"The region is {x : V(x) <= level and x inside the box}.",
 		"",
 	}
 	if cert.Verdict != fit.Certified {

@@ -65,10 +65,11 @@ func writeGo(b *strings.Builder, cert *fit.Certificate, pkg string) {
 
 func writeC(b *strings.Builder, cert *fit.Certificate, p string) {
 	n := len(cert.States)
+	b.WriteString("/*\n")
 	for _, l := range headerLines(cert) {
-		fmt.Fprintf(b, "/* %-76s */\n", l)
+		b.WriteString(strings.TrimRight(" * "+l, " ") + "\n")
 	}
-	b.WriteString("\n/* Compile without -ffast-math or FMA contraction (-ffp-contract=off) for\n   results identical to basin's. */\n\n")
+	b.WriteString(" *\n * Compile without -ffast-math or FMA contraction (-ffp-contract=off) for\n * results identical to basin's.\n */\n\n")
 	up := strings.ToUpper(p)
 	fmt.Fprintf(b, "#define %sN %d\n\n", up, n)
 	fmt.Fprintf(b, "const char *const %sstates[%sN] = {", p, up)
