@@ -256,6 +256,11 @@ type Certificate struct {
 	Found bool `json:"found"`
 	// Margin is the LP's decrease margin g (in 1/s, scaled coordinates).
 	Margin float64 `json:"margin"`
+	// NonRise says V was fitted at a non-hyperbolic linearisation (an
+	// eigenvalue on the imaginary axis) and is only shown not to rise
+	// beyond the noise tolerance, not to fall: at most the stable
+	// strength is claimed, never asymptotic. Margin is then at most 0.
+	NonRise bool `json:"non_rise,omitempty"`
 	// NoiseRadius is the radius, in z, of the ball around the equilibrium
 	// where noise dominates and no decrease is required.
 	NoiseRadius float64 `json:"noise_radius"`
