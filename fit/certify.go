@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"sort"
 	"strings"
 
 	"github.com/basin-dev/basin/ingest"
@@ -93,6 +94,13 @@ const (
 	// unstableTol: a Jacobian eigenvalue with real part above
 	// -unstableTol·(1+|A|) is not asymptotically stable.
 	unstableTol = 1e-9
+	// nonRiseShift: the non-rise path starts from the Lyapunov equation of
+	// A - delta·I, delta = nonRiseShift·(1+|A|): for a centre this tends to
+	// the conserved quadratic form as delta -> 0 (its V-dot is O(delta)).
+	nonRiseShift = 1e-3
+	// nonRiseStartShare: the non-rise path's first target holds this
+	// share of the samples outside the noise ball.
+	nonRiseStartShare = 0.1
 )
 
 // Certify fits a Lyapunov function for m's primary equilibrium on the runs
@@ -175,9 +183,11 @@ func Certify(ctx context.Context, m *Model, ds *ingest.Dataset, opts *CertifyOpt
 		cert.Contradiction = fmt.Sprintf("the fitted linearisation at the equilibrium is unstable (an eigenvalue has real part %+.3g 1/s)", maxRe)
 		return noFind("No V was fitted: " + cert.Contradiction + ".")
 	}
-	if maxRe > -unstableTol*(1+anorm) {
-		return noFind("No V was fitted: the fitted linearisation at the equilibrium is not asymptotically stable (an eigenvalue lies on the imaginary axis), so neither the Lyapunov equation nor the LP has a strict start.")
-	}
+	// Non-hyperbolic but not unstable (an eigenvalue on the imaginary
+	// axis, as for a lossless oscillator): V can at best be shown not to
+	// rise, so the search runs on the non-rise conditions (see
+	// checker.nonRise) and claims at most stability.
+	nonRise := maxRe > -unstableTol*(1+anorm)
 
 	// The runs in z, the envelope and the checker.
 	ck, _, err := newChecker(ctx, m, ds, xe, scale, o)
@@ -185,6 +195,9 @@ func Certify(ctx context.Context, m *Model, ds *ingest.Dataset, opts *CertifyOpt
 		return nil, err
 	}
 	ck.az = az
+	if nonRise {
+		ck.setNonRise()
+	}
 	cert.NoiseRadius = ck.r0
 	fam := ck.fam
 	if nMin := 3 * fam.Len(); ds.Samples() < nMin {
@@ -195,8 +208,16 @@ func Certify(ctx context.Context, m *Model, ds *ingest.Dataset, opts *CertifyOpt
 		return noFind("No V was fitted: the equilibrium lies outside the envelope the data cover.")
 	}
 
-	// Start: the Lyapunov equation, Q = I.
-	p, err := Lyapunov(az, eye(n), n)
+	// Start: the Lyapunov equation, Q = I (of A - delta·I on the
+	// non-rise path, where A's own equation is singular).
+	a0 := az
+	if nonRise {
+		a0 = append([]float64(nil), az...)
+		for i := 0; i < n; i++ {
+			a0[i*n+i] -= nonRiseShift * (1 + anorm)
+		}
+	}
+	p, err := Lyapunov(a0, eye(n), n)
 	if err != nil {
 		return noFind("No V was fitted: the Lyapunov equation of the linearisation is singular.")
 	}
@@ -228,9 +249,18 @@ func Certify(ctx context.Context, m *Model, ds *ingest.Dataset, opts *CertifyOpt
 		if !best.res.ok {
 			// Start from a small ellipse a few noise radii wide.
 			base = math.Max(best.res.vball*9, best.res.level)
+			if nonRise {
+				// Runs of a lossless system circle the equilibrium and
+				// rarely pass near it: start from the level set of the
+				// start V that holds the innermost tenth of the samples.
+				base = math.Max(base, ck.quantile(best.c, nonRiseStartShare, 6*fam.Len()))
+			}
 		}
 		target := gamma * base
 		lambda := math.Max(best.g, 0) / target
+		if nonRise {
+			lambda = 0 // no decrease to relax outside the target set
+		}
 		rows := ck.lpRows(best.c, target, growOuter*target, lambda, o, rng)
 		improved := false
 		if len(rows.targets) < 3*fam.Len() {
@@ -243,7 +273,7 @@ func Certify(ctx context.Context, m *Model, ds *ingest.Dataset, opts *CertifyOpt
 			switch {
 			case out.err != nil:
 				lastErr = out.err.Error()
-			case !(out.g > 0):
+			case !(out.g > 0) && !(nonRise && out.g > -lpMarginBound):
 				if solves == 1 && out.g < 0 && !best.res.ok {
 					firstContra = true
 					cert.Margin = out.g
@@ -297,6 +327,11 @@ func Certify(ctx context.Context, m *Model, ds *ingest.Dataset, opts *CertifyOpt
 	cert.V = fam.poly(best.c)
 	cert.Level = r.level
 	cert.Margin = best.g
+	if nonRise {
+		// No positive margin is claimed on the non-rise path.
+		cert.NonRise = true
+		cert.Margin = math.Min(best.g, 0)
+	}
 	cert.Tolerance = r.tolerance
 	cert.Box = make([][2]float64, n)
 	cert.Region.Extent = make([][2]float64, n)
@@ -339,8 +374,12 @@ func Certify(ctx context.Context, m *Model, ds *ingest.Dataset, opts *CertifyOpt
 		limit = LimitGrowth + " (still gaining; this V's level set stops at " + r.limit + where + ")"
 		where = ""
 	}
-	cert.Reason = fmt.Sprintf("V of degree %d (from the %s, margin %.3g) decreases on the fit runs; its level set V <= %.4g covers %.1f%% of the envelope, limited by %s%s; not yet checked on held-out runs.",
-		o.Degree, best.source, best.g, r.level, 100*r.share, limit, where)
+	claim := "decreases"
+	if nonRise {
+		claim = "does not rise beyond the noise tolerance (the linearisation has an eigenvalue on the imaginary axis, so at most stability is claimed)"
+	}
+	cert.Reason = fmt.Sprintf("V of degree %d (from the %s, margin %.3g) %s on the fit runs; its level set V <= %.4g covers %.1f%% of the envelope, limited by %s%s; not yet checked on held-out runs.",
+		o.Degree, best.source, cert.Margin, claim, r.level, 100*r.share, limit, where)
 	return cert, nil
 }
 
@@ -562,4 +601,30 @@ func (ck *checker) extent(c []float64, r levelResult) [2][]float64 {
 		}
 	}
 	return [2][]float64{lo, hi}
+}
+
+// quantile returns the value of V (coefficients c) below which the given
+// share of the recorded samples outside the noise ball and inside the
+// envelope lie, at least the atLeast-th smallest such value (0 when there
+// are none).
+func (ck *checker) quantile(c []float64, share float64, atLeast int) float64 {
+	n := ck.fam.n
+	ve := newVEval(ck.fam, c)
+	r02 := ck.r0 * ck.r0
+	var vs []float64
+	for ri := range ck.runs {
+		zs := ck.runs[ri].z
+		for k := 0; k+n <= len(zs); k += n {
+			z := zs[k : k+n]
+			if norm2(z) > r02 && ck.env.inside(z) {
+				vs = append(vs, ve.value(z))
+			}
+		}
+	}
+	if len(vs) == 0 {
+		return 0
+	}
+	sort.Float64s(vs)
+	i := max(int(share*float64(len(vs))), atLeast)
+	return vs[min(i, len(vs)-1)]
 }

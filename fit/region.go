@@ -54,6 +54,48 @@ type checker struct {
 	// Samples grouped by cell: bySample[cellStart[c]:cellStart[c+1]].
 	cellStart []int32
 	bySample  [][2]int32
+	// nonRise replaces strict decrease by non-rise (see setNonRise);
+	// tmax is the longest run's duration.
+	nonRise bool
+	tmax    float64
+}
+
+// nonRiseFloor is the relative allowance of V-dot on the non-rise path,
+// in units of |grad V|·|f|: rounding of the dot product and of the
+// central differences of the cell bound (about 1e-13 relative), with a
+// wide safety factor, still far below any damping the data could show.
+const nonRiseFloor = 1e-6
+
+// setNonRise switches the checks to the non-rise conditions, for a
+// linearisation with an eigenvalue on the imaginary axis where V cannot
+// fall strictly. V-dot may then be positive by at most vdTol: the rise
+// that stays within one pair's noise tolerance over the longest recorded
+// run (a drift the data cannot tell from noise), plus nonRiseFloor.
+// Recorded pairs keep their tolerance; the noise ball, envelope, other
+// equilibria and the cell bound (against vdTol) all still apply. The
+// linear ball is empty: near the equilibrium only the noise ball is
+// exempt.
+func (ck *checker) setNonRise() {
+	ck.nonRise = true
+	ck.tmax = 0
+	for i := range ck.runs {
+		if t := ck.runs[i].t; len(t) > 1 {
+			ck.tmax = math.Max(ck.tmax, t[len(t)-1]-t[0])
+		}
+	}
+}
+
+// vdTol returns the allowed V-dot at a point with gradient g of V and
+// field f there: 0 (strict decrease) unless on the non-rise path.
+func (ck *checker) vdTol(g, f []float64, hq float64) float64 {
+	if !ck.nonRise {
+		return 0
+	}
+	tol := nonRiseFloor * math.Sqrt(norm2(g)*norm2(f))
+	if ck.tmax > 0 {
+		tol += ck.pairTol(g, hq) / ck.tmax
+	}
+	return tol
 }
 
 // levelResult is the certified level set of one V.
@@ -157,6 +199,7 @@ func (ck *checker) level(c []float64) levelResult {
 		half[j] = env.h[j] / 2
 	}
 	cs := newCellScratch(n, ck.maxDepth+ck.extraDepth)
+	cs.hq = hq
 	// check runs every check of an envelope cell, once, when the search
 	// first needs it (cells the level set never reaches are not checked):
 	// positivity, model decrease and recorded pairs at its samples, the
@@ -177,7 +220,7 @@ func (ck *checker) level(c []float64) levelResult {
 			}
 			v, vd := ve.vdot(ck.zf, z)
 			switch {
-			case !(v >= posEps*z2), !(vd < 0):
+			case !(v >= posEps*z2), !(vd < 0 || (ck.nonRise && vd <= ck.vdTol(ve.gbuf, ve.fbuf, hq))):
 				mark(cell, v, LimitViolated, z, r.name)
 			case i+1 < len(r.t):
 				if vals[si[0]][i+1]-v > ck.pairTol(ve.gbuf, hq) {
@@ -394,6 +437,19 @@ const (
 func (ck *checker) linearBall(ve *vEval) (float64, bool) {
 	n := ck.fam.n
 	lam, ok := ck.linearDecay(ve.c)
+	if ck.nonRise {
+		// Non-rise: M only needs to be negative semidefinite, up to the
+		// rounding allowance 2·nonRiseFloor·|P|·|A| (|.| the largest
+		// entry times n, a bound on the spectral norm); no linear ball.
+		pa, aa := 0.0, 0.0
+		for _, v := range ck.fam.quadMatrix(ve.c) {
+			pa = math.Max(pa, math.Abs(v))
+		}
+		for _, v := range ck.az {
+			aa = math.Max(aa, math.Abs(v))
+		}
+		return 0, lam <= 2*nonRiseFloor*float64(n*n)*pa*aa
+	}
 	if !ok {
 		return 0, false
 	}
@@ -546,6 +602,7 @@ func (ck *checker) ballMax(ve *vEval) float64 {
 type cellScratch struct {
 	sub, half [][]float64
 	zp        []float64
+	hq        float64 // largest eigenvalue of V's quadratic part
 }
 
 func newCellScratch(n, depth int) *cellScratch {
@@ -576,6 +633,7 @@ func (ck *checker) cellKey(ve *vEval, cs *cellScratch, center, half []float64, d
 	}
 	v, vd := ve.vdot(ck.zf, center)
 	gv := math.Sqrt(norm2(ve.gbuf))
+	tol := ck.vdTol(ve.gbuf, ve.fbuf, cs.hq)
 	lowV := math.Max(v-gv*r, ck.vLowRadial(center, half))
 	touches := cn-r <= ck.r0
 	if !touches && !(v >= posEps*cn*cn) {
@@ -593,7 +651,7 @@ func (ck *checker) cellKey(ve *vEval, cs *cellScratch, center, half []float64, d
 		_, b := ve.vdot(ck.zf, zp)
 		gd += math.Abs(a-b) / (2 * step) * half[j]
 	}
-	if vd+gd < 0 {
+	if vd+gd < 0 || (ck.nonRise && vd+gd <= tol) {
 		return math.Inf(1), nil
 	}
 	// Near the equilibrium V-dot is quadratic, so the first-order bound
