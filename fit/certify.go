@@ -249,12 +249,12 @@ func Certify(ctx context.Context, m *Model, ds *ingest.Dataset, opts *CertifyOpt
 		if !best.res.ok {
 			// Start from a small ellipse a few noise radii wide.
 			base = math.Max(best.res.vball*9, best.res.level)
-			if nonRise {
-				// Runs of a lossless system circle the equilibrium and
-				// rarely pass near it: start from the level set of the
-				// start V that holds the innermost tenth of the samples.
-				base = math.Max(base, ck.quantile(best.c, nonRiseStartShare, 6*fam.Len()))
-			}
+		}
+		if nonRise && round == 0 {
+			// Runs of a lossless system circle the equilibrium and rarely
+			// pass near it: start from at least the level set of the
+			// start V that holds the innermost tenth of the samples.
+			base = math.Max(base, ck.quantile(best.c, nonRiseStartShare, 6*fam.Len()))
 		}
 		target := gamma * base
 		lambda := math.Max(best.g, 0) / target
@@ -543,7 +543,7 @@ func (ck *checker) lpRows(prev []float64, target, outer, lambda float64, o Certi
 			in := v <= target
 			rows.addPoint(z, ck.zf.evalTo(f, z), in)
 			if in && k+1 < m {
-				rows.addPair(z, r.z[(k+1)*n:(k+2)*n], r.t[k+1]-r.t[k], ck.pairTol(g, hq)/target)
+				rows.addPair(z, r.z[(k+1)*n:(k+2)*n], r.t[k+1]-r.t[k], ck.pairTolAt(g, hq, v)/target)
 			}
 		}
 	}

@@ -514,14 +514,17 @@ func TestCertifyBadInput(t *testing.T) {
 	if err != nil || c.Found || !strings.Contains(c.Reason, "too few") {
 		t.Errorf("degree 8 on 20 samples: err %v reason %q", err, c.Reason)
 	}
-	// A centre (eigenvalues ±i): no strict start, not contradicted.
+	// A centre model (eigenvalues ±i) on runs that settle: no strict
+	// start, not contradicted; the non-rise path finds V = |z|², the
+	// centre's conserved energy (any mechanics text; exact), which does
+	// not rise along the settling runs either. Marked NonRise, no margin.
 	centre := &certSystem{states: []string{"x1", "x2"}, eq: []float64{0, 0}, eqs: []Equation{
 		{State: "x1", Exponents: [][]int{{0, 1}}, Coefficients: []float64{1}},
 		{State: "x2", Exponents: [][]int{{1, 0}}, Coefficients: []float64{-1}},
 	}}
 	c, err = Certify(ctx, centre.model([]float64{1, 1}), ds, nil)
-	if err != nil || c.Found || c.Contradicted {
-		t.Errorf("centre: err %v found %v contradicted %v", err, c.Found, c.Contradicted)
+	if err != nil || c.Contradicted || (c.Found && (!c.NonRise || c.Margin > 0)) || c.Verdict != Inconclusive {
+		t.Errorf("centre: err %v found %v non-rise %v margin %g contradicted %v verdict %s", err, c.Found, c.NonRise, c.Margin, c.Contradicted, c.Verdict)
 	}
 }
 

@@ -145,6 +145,18 @@ func (ck *checker) pairTol(g []float64, hq float64) float64 {
 	return ck.kappa*math.Sqrt(2*s) + ck.kappa*ck.kappa*math.Max(hq, 0)*s2
 }
 
+// pairTolAt is pairTol for a pair starting at V = v; on the non-rise
+// path it adds nonRiseFloor·|v| for rounding and the integrator's drift
+// of a conserved V on noiseless records (nothing on the strict path,
+// where the decrease dominates).
+func (ck *checker) pairTolAt(g []float64, hq, v float64) float64 {
+	t := ck.pairTol(g, hq)
+	if ck.nonRise {
+		t += nonRiseFloor * math.Abs(v)
+	}
+	return t
+}
+
 // quadMax returns the largest eigenvalue of V's quadratic part.
 func (ck *checker) quadMax(c []float64) float64 {
 	n := ck.fam.n
@@ -223,7 +235,7 @@ func (ck *checker) level(c []float64) levelResult {
 			case !(v >= posEps*z2), !(vd < 0 || (ck.nonRise && vd <= ck.vdTol(ve.gbuf, ve.fbuf, hq))):
 				mark(cell, v, LimitViolated, z, r.name)
 			case i+1 < len(r.t):
-				if vals[si[0]][i+1]-v > ck.pairTol(ve.gbuf, hq) {
+				if vals[si[0]][i+1]-v > ck.pairTolAt(ve.gbuf, hq, v) {
 					mark(cell, v, LimitViolated, z, r.name)
 				}
 			}
@@ -393,7 +405,7 @@ func (ck *checker) level(c []float64) levelResult {
 			}
 			res.pairs++
 			_, vd := ve.vdot(ck.zf, z0)
-			tol := ck.pairTol(ve.gbuf, hq)
+			tol := ck.pairTolAt(ve.gbuf, hq, vs[i])
 			res.tolerance = math.Max(res.tolerance, tol)
 			if vs[i+1]-vs[i] <= tol {
 				dec++
