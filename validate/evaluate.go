@@ -273,7 +273,11 @@ func classify(eig [][2]float64, tol float64) (linear, float64) {
 // Decide sets cert's Verdict, Strength and Reason from the held-out
 // figures val, the runs checked and the linearisation's eigenvalues (nil
 // when unknown: then the certificate's own strength stands in for it).
-// See the package doc for the rules.
+// See the package doc for the rules. Two more hold for the stable
+// strength: a certificate marked fit.Certificate.NonRise (V fitted only
+// not to rise, at a non-hyperbolic linearisation) is never asymptotic,
+// and no run that started inside may end with its mean V above its start
+// by more than the tolerance (slow growth: inconclusive).
 func Decide(cert *fit.Certificate, val *fit.Validation, runs []RunScreen, eig [][2]float64, opts *Options) {
 	o := opts.get()
 	v, s, why := decide(cert, val, runs, eig, o)
@@ -341,11 +345,21 @@ func decide(cert *fit.Certificate, val *fit.Validation, runs []RunScreen, eig []
 	case lin == linUnknown && eig != nil:
 		return fit.Inconclusive, fit.NoClaim, "The linearisation at the equilibrium could not be classified."
 	}
-	if val.Settled == val.StartInside && cert.Margin > 0 && lin == linStable {
+	if val.Settled == val.StartInside && cert.Margin > 0 && !cert.NonRise && lin == linStable {
 		return fit.Certified, fit.Asymptotic, fmt.Sprintf("V fell on %.1f%% of %d held-out pairs inside the region; %s stayed inside and settled.", 100*val.DecreaseFraction, val.Pairs, insideRuns(val.StartInside))
+	}
+	// The weaker claim still needs V not to drift up: a run that started
+	// inside and ends with V higher than it began by more than the
+	// tolerance grows (slowly enough to stay inside this time).
+	for _, r := range runs {
+		if r.StartInside && r.VEnd-r.VStart > tol {
+			return fit.Inconclusive, fit.NoClaim, fmt.Sprintf("V rose along held-out run %s from %.4g at its start to %.4g at its end (tolerance %.3g): growth, not stability.", r.Run, r.VStart, r.VEnd, tol)
+		}
 	}
 	why := "not all settled"
 	switch {
+	case cert.NonRise:
+		why = "V was only fitted not to rise (the linearisation has an eigenvalue on the imaginary axis)"
 	case val.Settled == val.StartInside && lin != linStable:
 		why = "settled, but the linearisation is not strictly stable"
 	case val.Settled == val.StartInside:
