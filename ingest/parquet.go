@@ -27,6 +27,10 @@ const maxRowsPerByte = 64
 // achieves on logged numbers, far below a decompression bomb.
 const maxExpand = 1024
 
+// parquetViaArrow sends every file through pqarrow (the general path),
+// for tests and benchmarks that compare the two paths.
+var parquetViaArrow = false
+
 // parquetBudget is the base time allowed to decode one Parquet file, to
 // which a second per MiB of file is added.
 var parquetBudget = 10 * time.Second
@@ -165,11 +169,7 @@ func readParquetTable(ctx context.Context, path string, opts *Options) (tb *tabl
 	if nrows > maxRowsPerByte*max(st.Size(), 1) || nrows > math.MaxInt32 {
 		return nil, bad("footer claims %d rows in %d bytes", nrows, st.Size())
 	}
-	fr, err := pqarrow.NewFileReader(pr, pqarrow.ArrowReadProperties{BatchSize: nrows + 1}, memory.DefaultAllocator)
-	if err != nil {
-		return nil, bad("%v", err)
-	}
-	sc, err := fr.Schema()
+	sc, err := pqarrow.FromParquet(md.Schema, &pqarrow.ArrowReadProperties{}, md.KeyValueMetadata())
 	if err != nil {
 		return nil, bad("schema: %v", err)
 	}
@@ -210,29 +210,52 @@ func readParquetTable(ctx context.Context, path string, opts *Options) (tb *tabl
 	tb = &table{file: path, states: r.states, stateCol: r.stateCol, timeCol: r.timeCol, timeIdx: r.timeIdx,
 		rate: r.rate, ignored: r.ignored, rows: int(nrows), marks: []lineMark{{0, 1}}}
 	tb.x = make([][]float64, len(r.states))
-	for j := range fields {
-		if err := ctx.Err(); err != nil {
+	if kinds, ok := directKinds(pr, fields, r); ok && !parquetViaArrow {
+		if err := tb.readDirect(ctx, f, pr, r, fields, kinds, st.Size()); err != nil {
 			return nil, err
+		}
+		return tb, nil
+	}
+	if err := tb.readArrow(ctx, pr, r, cols); err != nil {
+		return nil, err
+	}
+	return tb, nil
+}
+
+// readArrow reads the columns through pqarrow: the general path, for
+// column types and layouts that readDirect does not take.
+func (tb *table) readArrow(ctx context.Context, pr *file.Reader, r *roles, cols []Column) error {
+	fr, err := pqarrow.NewFileReader(pr, pqarrow.ArrowReadProperties{BatchSize: int64(tb.rows) + 1}, memory.DefaultAllocator)
+	if err != nil {
+		return &ParseError{File: tb.file, Err: fmt.Errorf("%w: %v", ErrFormat, err)}
+	}
+	nrows := int64(tb.rows)
+	for j := range cols {
+		if err := ctx.Err(); err != nil {
+			return err
 		}
 		if r.role[j] == roleSkip {
 			continue
 		}
+		bad := func(err error) error {
+			return &ParseError{File: tb.file, Err: fmt.Errorf("%w: column %q: %v", ErrFormat, cols[j].Name, err)}
+		}
 		cr, err := fr.GetColumn(ctx, j)
 		if err != nil {
-			return nil, bad("column %q: %v", cols[j].Name, err)
+			return bad(err)
 		}
 		ch, err := cr.NextBatch(nrows)
 		cr.Release()
 		if err != nil {
-			return nil, bad("column %q: %v", cols[j].Name, err)
+			return bad(err)
 		}
 		err = tb.column(r, j, cols[j], ch, int(nrows))
 		ch.Release()
 		if err != nil {
-			return nil, err
+			return err
 		}
 	}
-	return tb, nil
+	return nil
 }
 
 func hasTimeName(cols []Column) bool {

@@ -169,3 +169,40 @@ func flip(b []byte, from, to int) []byte {
 	}
 	return c
 }
+
+// TestReadParquetPaths: the direct column chunk reader and the general
+// pqarrow path give identical data sets on the independent parquet-go
+// file and on Arrow-written files (nulls, float32, int32, int64,
+// timestamps in ms, a text --run-col, several row groups).
+func TestReadParquetPaths(t *testing.T) {
+	path := filepath.Join(t.TempDir(), "types.parquet")
+	rec := smallRecord(40)
+	defer rec.Release()
+	writeArrowParquet(t, path, rec, 7)
+	for _, tc := range []struct {
+		file string
+		opts *Options
+	}{
+		{"testdata/indep.parquet", nil},
+		{path, nil},
+		{path, &Options{RunCol: "k", States: []string{"x"}}},
+	} {
+		read := func(viaArrow bool) *Dataset {
+			parquetViaArrow = viaArrow
+			defer func() { parquetViaArrow = false }()
+			ds, err := ReadParquet(context.Background(), tc.file, tc.opts)
+			if err != nil {
+				t.Fatalf("%s (via arrow %v): %v", tc.file, viaArrow, err)
+			}
+			return ds
+		}
+		a, d := read(true), read(false)
+		sameDataset(t, d, a)
+		for i := range a.Runs {
+			if a.Runs[i].Name != d.Runs[i].Name || a.Runs[i].Source != d.Runs[i].Source || !a.Runs[i].Epoch.Equal(d.Runs[i].Epoch) {
+				t.Errorf("%s run %d: %q %v %v vs %q %v %v", tc.file, i, d.Runs[i].Name, d.Runs[i].Source, d.Runs[i].Epoch,
+					a.Runs[i].Name, a.Runs[i].Source, a.Runs[i].Epoch)
+			}
+		}
+	}
+}
