@@ -93,3 +93,39 @@ func TestCertifyNonRise(t *testing.T) {
 		})
 	}
 }
+
+// BenchmarkCertifyNonRise: the strict path (damped oscillator x'' = -4x -
+// 0.6x') beside the non-rise path (the same without damping, a centre),
+// same size: 60 runs x 201 samples x 2 states, exact models, V degree 2.
+// Compare certify-s across the two in one run.
+func BenchmarkCertifyNonRise(b *testing.B) {
+	for _, c := range []struct {
+		name string
+		damp float64
+	}{{"strict-damped", 0.6}, {"nonrise-centre", 0}} {
+		eqs := []Equation{
+			{State: "x", Exponents: [][]int{{0, 1}}, Coefficients: []float64{1}},
+			{State: "y", Exponents: [][]int{{1, 0}, {0, 1}}, Coefficients: []float64{-4, -c.damp}},
+		}
+		damp := c.damp
+		sys := &certSystem{name: c.name, states: []string{"x", "y"}, eqs: eqs, eq: []float64{0, 0},
+			f: func(d, x []float64) { d[0] = x[1]; d[1] = -4*x[0] - damp*x[1] }}
+		ds := certRuns(sys, [][2]float64{{-1, 1}, {-1, 1}}, 60, 0.01, 1000, 5, 0, 7, true)
+		m := sys.model([]float64{1, 1})
+		b.Run(c.name, func(b *testing.B) {
+			b.SetBytes(int64(ds.Samples() * 3 * 8))
+			var cert *Certificate
+			for b.Loop() {
+				var err error
+				if cert, err = Certify(context.Background(), m, ds, nil); err != nil {
+					b.Fatal(err)
+				}
+			}
+			per := b.Elapsed().Seconds() / float64(b.N)
+			b.ReportMetric(per, "certify-s")
+			b.ReportMetric(float64(ds.Samples())/per, "samples/s")
+			b.ReportMetric(float64(cert.Region.Solves), "lp-solves")
+			b.ReportMetric(cert.Region.EnvelopeShare, "env-share")
+		})
+	}
+}
