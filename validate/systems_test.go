@@ -145,6 +145,18 @@ func losslessLogged() system {
 	return sys
 }
 
+// duffingLogged is the undamped hardening Duffing oscillator x” = -4x -
+// 2x³, logged like losslessLogged; its energy v²/2 + 2x² + x⁴/2 is
+// conserved (REFERENCES.md A6 with delta = 0), quartic, so V needs degree
+// 4.
+func duffingLogged() system {
+	sys := losslessLogged()
+	sys.name = "duffing-logged"
+	sys.source = "undamped Duffing x'' = -4x - 2x^3, 24 amplitudes (REFERENCES.md A6, delta = 0)"
+	sys.f = func(d []float64, _ float64, x []float64) { d[0] = x[1]; d[1] = -4*x[0] - 2*x[0]*x[0]*x[0] }
+	return sys
+}
+
 // evalOpts keeps the tests fast: no bootstrap refits.
 func evalOpts() *Options {
 	return &Options{Folds: 4, Seed: 1, Field: &fit.FieldOptions{Bootstrap: -1}}
@@ -162,6 +174,7 @@ func TestNoFalseCertificates(t *testing.T) {
 		certify  bool // must be certified (asymptotic)
 		stableOK bool // certified with strength stable is allowed, asymptotic never
 		stable   bool // must be certified with strength stable
+		vdeg     int  // V degree; 0 means the default
 	}
 	is := func(s system) func() system { return func() system { return s } }
 	// The lossless oscillator from random starts leaves a hole around the
@@ -171,24 +184,29 @@ func TestNoFalseCertificates(t *testing.T) {
 	// asymptotic. At noise 0.005 an outer run may leave the region within
 	// the tolerance (inconclusive), so stable is only allowed there.
 	cases := []tc{
-		{is(damped), 0, true, false, false}, {is(damped), 0.002, true, false, false},
-		{is(pendulum), 0.002, true, false, false},
-		{is(vdpReverse), 0.002, true, false, false},
-		{is(lossless), 0, false, true, false}, {is(lossless), 0.002, false, true, false},
-		{losslessLogged, 0, false, true, true}, {losslessLogged, 0.002, false, true, true},
-		{losslessLogged, 0.005, false, true, false},
-		{is(vanderpol), 0, false, false, false}, {is(vanderpol), 0.005, false, false, false},
-		{is(lorenz), 0, false, false, false}, {is(lorenz), 0.005, false, false, false},
-		{is(saddle), 0, false, false, false}, {is(saddle), 0.005, false, false, false},
-		{is(antidamped), 0, false, false, false}, {is(antidamped), 0.002, false, false, false},
-		{is(antidamped), 0.005, false, false, false},
+		{is(damped), 0, true, false, false, 0}, {is(damped), 0.002, true, false, false, 0},
+		{is(pendulum), 0.002, true, false, false, 0},
+		{is(vdpReverse), 0.002, true, false, false, 0},
+		{is(lossless), 0, false, true, false, 0}, {is(lossless), 0.002, false, true, false, 0},
+		{losslessLogged, 0, false, true, true, 0}, {losslessLogged, 0.002, false, true, true, 0},
+		{losslessLogged, 0.005, false, true, false, 0},
+		{duffingLogged, 0.002, false, true, true, 4},
+		{is(vanderpol), 0, false, false, false, 0}, {is(vanderpol), 0.005, false, false, false, 0},
+		{is(lorenz), 0, false, false, false, 0}, {is(lorenz), 0.005, false, false, false, 0},
+		{is(saddle), 0, false, false, false, 0}, {is(saddle), 0.005, false, false, false, 0},
+		{is(antidamped), 0, false, false, false, 0}, {is(antidamped), 0.002, false, false, false, 0},
+		{is(antidamped), 0.005, false, false, false, 0},
 	}
 	for _, c := range cases {
 		sys := c.sys()
 		t.Run(fmt.Sprintf("%s/noise=%g", sys.name, c.noise), func(t *testing.T) {
 			ds := simulate(t, sys, c.noise, 3)
 			start := time.Now()
-			res, err := Evaluate(context.Background(), ds, evalOpts())
+			o := evalOpts()
+			if c.vdeg > 0 {
+				o.Certify = &fit.CertifyOptions{Degree: c.vdeg}
+			}
+			res, err := Evaluate(context.Background(), ds, o)
 			if err != nil {
 				t.Fatalf("%s: %v", sys.source, err)
 			}
