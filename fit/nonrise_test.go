@@ -94,6 +94,30 @@ func TestCertifyNonRise(t *testing.T) {
 	}
 }
 
+// TestCertifyNonRiseGrowingData: a centre model (x' = y, y' = -x) on
+// runs of the anti-damped x'' = 0.05 x' - x, whose energy x² + y² grows
+// along every pair (at 0.1 y², Strogatz 1994 §5.2, from memory): the
+// model says V is conserved, the recorded pairs say it rises far beyond
+// the (noiseless) tolerance, so the non-rise path must not certify a
+// region beyond the noise ball.
+func TestCertifyNonRiseGrowingData(t *testing.T) {
+	grow := &certSystem{name: "grow", states: []string{"x", "y"}, eq: []float64{0, 0},
+		eqs: []Equation{
+			{State: "x", Exponents: [][]int{{0, 1}}, Coefficients: []float64{1}},
+			{State: "y", Exponents: [][]int{{1, 0}}, Coefficients: []float64{-1}},
+		},
+		f: func(d, x []float64) { d[0] = x[1]; d[1] = -x[0] + 0.05*x[1] }}
+	ds := certRuns(grow, [][2]float64{{-0.5, 0.5}, {-0.5, 0.5}}, 40, 0.01, 3000, 5, 0, 7, true)
+	c, err := Certify(context.Background(), grow.model([]float64{1, 1}), ds, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Logf("found %v non-rise %v share %.4g: %s", c.Found, c.NonRise, c.Region.EnvelopeShare, c.Reason)
+	if c.Found && c.Region.EnvelopeShare > 0.01 {
+		t.Errorf("a region of %.3g of the envelope certified on growing runs", c.Region.EnvelopeShare)
+	}
+}
+
 // BenchmarkCertifyNonRise: the strict path (damped oscillator x'' = -4x -
 // 0.6x') beside the non-rise path (the same without damping, a centre),
 // same size: 60 runs x 201 samples x 2 states, exact models, V degree 2.
