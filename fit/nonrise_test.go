@@ -95,7 +95,7 @@ func TestCertifyNonRise(t *testing.T) {
 }
 
 // TestCertifyNonRiseGrowingData: a centre model (x' = y, y' = -x) on
-// runs of the anti-damped x'' = 0.05 x' - x, whose energy x² + y² grows
+// runs of the anti-damped x” = 0.05 x' - x, whose energy x² + y² grows
 // along every pair (at 0.1 y², Strogatz 1994 §5.2, from memory): the
 // model says V is conserved, the recorded pairs say it rises far beyond
 // the (noiseless) tolerance, so the non-rise path must not certify a
@@ -118,7 +118,7 @@ func TestCertifyNonRiseGrowingData(t *testing.T) {
 	}
 }
 
-// BenchmarkCertifyNonRise: the strict path (damped oscillator x'' = -4x -
+// BenchmarkCertifyNonRise: the strict path (damped oscillator x” = -4x -
 // 0.6x') beside the non-rise path (the same without damping, a centre),
 // same size: 60 runs x 201 samples x 2 states, exact models, V degree 2.
 // Compare certify-s across the two in one run.
