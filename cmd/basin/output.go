@@ -3,13 +3,17 @@ package main
 import (
 	"bufio"
 	"encoding/json"
+	"errors"
 	"flag"
 	"fmt"
 	"io"
+	"io/fs"
 	"math"
 	"os"
 	"path/filepath"
 	"sync"
+	"sync/atomic"
+	"syscall"
 	"time"
 )
 
@@ -24,9 +28,17 @@ type atomicFile struct {
 // then all are renamed. On any error the temporary files are removed and
 // nothing is left half-written (files renamed before a later rename
 // failed are removed too).
+//
+// A folder that cannot be made or written into (a path under a regular
+// file, a read-only file system, no permission) is the user's --out and
+// is reported as an input error (exit 2); a failure while writing (a full
+// disk) is not.
 func writeAtomic(dir string, files ...atomicFile) error {
+	outputs.RLock()
+	defer outputs.RUnlock()
+	_, statErr := os.Stat(dir)
 	if err := os.MkdirAll(dir, 0o755); err != nil {
-		return err
+		return outDirError(dir, err)
 	}
 	tmps := make([]string, len(files))
 	cleanup := func() {
@@ -35,12 +47,15 @@ func writeAtomic(dir string, files ...atomicFile) error {
 				os.Remove(t)
 			}
 		}
+		if statErr != nil {
+			os.Remove(dir) // made here; removed only when empty
+		}
 	}
 	for i, f := range files {
 		tf, err := os.CreateTemp(dir, "."+f.Name+".tmp*")
 		if err != nil {
 			cleanup()
-			return err
+			return outDirError(dir, err)
 		}
 		tmps[i] = tf.Name()
 		bw := bufio.NewWriter(tf)
@@ -75,7 +90,34 @@ func writeAtomic(dir string, files ...atomicFile) error {
 		tmps[i] = ""
 		done = append(done, dst)
 	}
+	outputsWritten.Store(true)
 	return nil
+}
+
+var (
+	// outputs is held for reading by each writeAtomic, and for writing by
+	// an interrupted basin about to exit (holdOutputs).
+	outputs sync.RWMutex
+	// outputsWritten is set once a writeAtomic has renamed its files.
+	outputsWritten atomic.Bool
+)
+
+// holdOutputs waits until no writeAtomic is running (each one finishes or
+// removes its temporary files) and keeps any other from starting. It
+// reports whether some outputs were already written.
+func holdOutputs() (written bool) {
+	outputs.Lock()
+	return outputsWritten.Load()
+}
+
+// outDirError marks an output folder that cannot be made or written into
+// as an input error naming the folder.
+func outDirError(dir string, err error) error {
+	if errors.Is(err, fs.ErrPermission) || errors.Is(err, syscall.ENOTDIR) || errors.Is(err, syscall.EROFS) ||
+		errors.Is(err, fs.ErrExist) {
+		return &inputError{fmt.Errorf("cannot write to --out %s: %w", dir, err)}
+	}
+	return fmt.Errorf("writing to %s: %w", dir, err)
 }
 
 // jsonWriter returns a Write func encoding v as indented JSON.
