@@ -1,0 +1,326 @@
+package main
+
+import (
+	"bytes"
+	"context"
+	"errors"
+	"fmt"
+	"math/rand/v2"
+	"os"
+	"os/exec"
+	"path/filepath"
+	"runtime"
+	"strconv"
+	"strings"
+	"sync"
+	"syscall"
+	"testing"
+	"time"
+)
+
+// These tests are the fault half of the reliability work: outputs that
+// cannot be written, a disk that fills up, an interrupt in the middle of a
+// long command, and certificate files edited by hand. The rule under test
+// is the contract's: a failed or interrupted command leaves no half-written
+// file, says why in one line, and exits 2 (the user's input or arguments)
+// or 3 (anything else, interrupts included).
+
+// oneLine reports whether s is exactly one line of text.
+func oneLine(s string) bool { return strings.Count(s, "\n") == 1 && strings.HasSuffix(s, "\n") }
+
+// leftovers lists every file under dir (none when dir does not exist).
+func leftovers(t *testing.T, dir string) []string {
+	t.Helper()
+	var names []string
+	filepath.WalkDir(dir, func(p string, d os.DirEntry, err error) error {
+		if err == nil && !d.IsDir() {
+			names = append(names, p)
+		}
+		return nil
+	})
+	return names
+}
+
+// mountTmpfs mounts a tmpfs of the given options on a new folder, or skips
+// the test where that is not allowed (not root, no mount namespace).
+func mountTmpfs(t *testing.T, opts string) string {
+	t.Helper()
+	if runtime.GOOS != "linux" || os.Geteuid() != 0 {
+		t.Skip("mounting a tmpfs needs root on Linux")
+	}
+	dir := filepath.Join(t.TempDir(), "mnt")
+	os.Mkdir(dir, 0o755)
+	if out, err := exec.Command("mount", "-t", "tmpfs", "-o", opts, "tmpfs", dir).CombinedOutput(); err != nil {
+		t.Skipf("cannot mount a tmpfs here: %v %s", err, out)
+	}
+	t.Cleanup(func() { exec.Command("umount", dir).Run() })
+	return dir
+}
+
+// TestRunOutputFaults: `basin run` whose --out cannot be written exits 2
+// naming the folder (the user's argument is wrong), and a disk that fills
+// up while the outputs are written exits 3; neither leaves a file behind.
+func TestRunOutputFaults(t *testing.T) {
+	data := t.TempDir()
+	writeOscillator(t, data, 8, false)
+	for _, tc := range []struct {
+		name string
+		out  func(t *testing.T) string
+		code int
+		want string
+	}{
+		// As root, folder permissions do not stop a write; a path under a
+		// regular file does, for everyone.
+		{"out under a regular file", func(t *testing.T) string {
+			f := filepath.Join(t.TempDir(), "file")
+			os.WriteFile(f, []byte("x"), 0o644)
+			return filepath.Join(f, "out")
+		}, 2, "cannot write to --out"},
+		{"out is a regular file", func(t *testing.T) string {
+			f := filepath.Join(t.TempDir(), "file")
+			os.WriteFile(f, []byte("x"), 0o644)
+			return f
+		}, 2, "cannot write to --out"},
+		{"read-only file system", func(t *testing.T) string {
+			return filepath.Join(mountTmpfs(t, "ro,size=64k"), "out")
+		}, 2, "read-only file system"},
+		{"read-only folder (not root)", func(t *testing.T) string {
+			if os.Geteuid() == 0 {
+				t.Skip("root ignores folder permissions")
+			}
+			d := t.TempDir()
+			os.Chmod(d, 0o500)
+			t.Cleanup(func() { os.Chmod(d, 0o700) })
+			return filepath.Join(d, "out")
+		}, 2, "permission denied"},
+		// 64 KiB holds model.json and certificate.json but not the
+		// report (the HTML with its inline plots is larger).
+		{"disk full", func(t *testing.T) string {
+			return filepath.Join(mountTmpfs(t, "size=64k"), "out")
+		}, 3, "no space left on device"},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			out := tc.out(t)
+			var o, e bytes.Buffer
+			code := basinMain(context.Background(), []string{"run", "--quiet", "--bootstrap", "5", "--growth", "2", "--out", out, data}, &o, &e)
+			if code != tc.code {
+				t.Fatalf("exit %d, want %d: %s", code, tc.code, e.String())
+			}
+			if msg := e.String(); !oneLine(msg) || !strings.Contains(msg, tc.want) {
+				t.Errorf("stderr %q, want one line with %q", msg, tc.want)
+			}
+			if o.Len() != 0 {
+				t.Errorf("stdout %q on failure", o.String())
+			}
+			if st, err := os.Stat(out); err == nil && st.IsDir() {
+				if l := leftovers(t, out); len(l) != 0 {
+					t.Errorf("left behind: %v", l)
+				}
+			}
+		})
+	}
+}
+
+// binDir holds the binary built by [binary]; TestMain removes it.
+var binDir string
+
+func TestMain(m *testing.M) {
+	code := m.Run()
+	if binDir != "" {
+		os.RemoveAll(binDir)
+	}
+	os.Exit(code)
+}
+
+// binary builds cmd/basin once per test process, with the race detector
+// when the tests have it (so the build reuses the test's compiled packages).
+var binary = sync.OnceValues(func() (string, error) {
+	gobin := filepath.Join(runtime.GOROOT(), "bin", "go")
+	if _, err := os.Stat(gobin); err != nil {
+		return "", err
+	}
+	dir, err := os.MkdirTemp("", "basin-faults-")
+	if err != nil {
+		return "", err
+	}
+	binDir = dir
+	bin := filepath.Join(dir, "basin")
+	args := []string{"build", "-o", bin}
+	if raceBuild {
+		args = append(args, "-race")
+	}
+	cmd := exec.Command(gobin, append(args, ".")...)
+	if out, err := cmd.CombinedOutput(); err != nil {
+		return "", fmt.Errorf("go build: %v\n%s", err, out)
+	}
+	return bin, nil
+})
+
+func buildBasin(t *testing.T) string {
+	t.Helper()
+	if testing.Short() {
+		t.Skip("builds the binary")
+	}
+	bin, err := binary()
+	if err != nil {
+		t.Skipf("cannot build basin: %v", err)
+	}
+	return bin
+}
+
+// writeBigRuns writes runs of a lightly damped oscillator, samples rows
+// each at 100 Hz with seeded noise: enough for `basin run` to take a few
+// seconds. Exact dynamics do not matter here, only the size.
+func writeBigRuns(t *testing.T, dir string, runs, samples int) {
+	t.Helper()
+	rng := rand.New(rand.NewPCG(3, 0))
+	buf := make([]byte, 0, 64*samples)
+	for r := 0; r < runs; r++ {
+		buf = append(buf[:0], "time [s],theta [rad],omega [rad/s]\n"...)
+		x, v := 2*rng.Float64()-1, 2*rng.Float64()-1
+		const h = 0.01
+		for i := 0; i < samples; i++ {
+			buf = strconv.AppendFloat(buf, float64(i)*h, 'f', 2, 64)
+			buf = append(buf, ',')
+			buf = strconv.AppendFloat(buf, x+1e-4*rng.NormFloat64(), 'g', 8, 64)
+			buf = append(buf, ',')
+			buf = strconv.AppendFloat(buf, v+1e-4*rng.NormFloat64(), 'g', 8, 64)
+			buf = append(buf, '\n')
+			// semi-implicit Euler of x'' = -4x - 0.3x' - 0.5x³
+			v += h * (-4*x - 0.3*v - 0.5*x*x*x)
+			x += h * v
+		}
+		if err := os.WriteFile(filepath.Join(dir, fmt.Sprintf("run%03d.csv", r)), buf, 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+}
+
+// TestInterrupt sends SIGINT to the binary in the middle of `run` and of
+// `screen`, and to a `screen` blocked reading stdin that never ends (no
+// context reaches that read: main's grace period must). Each must exit 3
+// within a bound with the one-line message, and leave nothing in --out.
+func TestInterrupt(t *testing.T) {
+	bin := buildBasin(t)
+	dir := t.TempDir()
+	data := filepath.Join(dir, "data")
+	os.Mkdir(data, 0o755)
+	writeBigRuns(t, data, 60, 5000)
+	// A certificate to screen against (hand-made in the data's units).
+	cert := writeTestCert(t, strings.NewReplacer(`"pitch", "rate"`, `"theta", "omega"`,
+		`"deg", "deg/s"`, `"rad", "rad/s"`, `[1.5, 0]`, `[0, 0]`, `"scale": [2, 10]`, `"scale": [1, 2]`,
+		`"box": [[-2, 5], [-30, 30]],`, ``).Replace(certJSON))
+	many := []string{"screen", "--cert", cert, "--workers", "1"}
+	for range 200 {
+		many = append(many, data) // 6,000 files: far more than 0.5 s of work
+	}
+	for _, tc := range []struct {
+		name  string
+		args  []string
+		stdin bool // a pipe that stays open and silent
+		after time.Duration
+		// limit bounds the time from SIGINT to exit: a context check
+		// per run, fold or file answers in well under a second; a read
+		// that no context reaches waits out main's interruptGrace.
+		limit time.Duration
+	}{
+		// Uninterrupted, this run takes about 3 s (0.8 s without
+		// --all-folds), 6,000 files of screening about 3 s: the
+		// interrupts land in the fit, in a later fold and mid-screening.
+		{"run early", []string{"run", "--all-folds", "--out", filepath.Join(dir, "out-early"), data}, false, 300 * time.Millisecond, 2 * time.Second},
+		{"run later", []string{"run", "--all-folds", "--out", filepath.Join(dir, "out-later"), data}, false, 1500 * time.Millisecond, 2 * time.Second},
+		{"screen", many, false, 500 * time.Millisecond, 2 * time.Second},
+		{"screen stdin", []string{"screen", "--cert", cert, "-"}, true, 500 * time.Millisecond, interruptGrace + 2*time.Second},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			cmd := exec.Command(bin, tc.args...)
+			var o, e bytes.Buffer
+			cmd.Stdout, cmd.Stderr = &o, &e
+			if tc.stdin {
+				r, w, err := os.Pipe()
+				if err != nil {
+					t.Fatal(err)
+				}
+				defer w.Close()
+				defer r.Close()
+				cmd.Stdin = r
+				w.WriteString("time [s],theta [rad],omega [rad/s]\n0,0.1,0.2\n")
+			}
+			if err := cmd.Start(); err != nil {
+				t.Fatal(err)
+			}
+			exited := make(chan error, 1)
+			go func() { exited <- cmd.Wait() }()
+			select {
+			case err := <-exited:
+				t.Fatalf("finished before the interrupt (%v): the data set is too small; stderr %s", err, e.String())
+			case <-time.After(tc.after):
+			}
+			sent := time.Now()
+			cmd.Process.Signal(os.Interrupt)
+			var err error
+			select {
+			case err = <-exited:
+			case <-time.After(tc.limit + 5*time.Second):
+				cmd.Process.Kill()
+				<-exited
+				t.Fatalf("still running %v after SIGINT", tc.limit+5*time.Second)
+			}
+			took := time.Since(sent)
+			t.Logf("exited %v after SIGINT", took.Round(time.Millisecond))
+			if took > tc.limit {
+				t.Errorf("took %v to exit after SIGINT, want under %v", took, tc.limit)
+			}
+			var ee *exec.ExitError
+			if !errors.As(err, &ee) || ee.ExitCode() != 3 {
+				t.Fatalf("exit %v, want 3; stderr %s", err, e.String())
+			}
+			msg := e.String()
+			if i := strings.LastIndex(strings.TrimSuffix(msg, "\n"), "\n"); i >= 0 {
+				msg = msg[i+1:] // warnings may come first
+			}
+			if want := "basin " + tc.args[0] + ": interrupted; no output written\n"; msg != want {
+				t.Errorf("stderr ends %q, want %q", msg, want)
+			}
+			if tc.args[0] == "run" {
+				if l := leftovers(t, tc.args[len(tc.args)-2]); len(l) != 0 {
+					t.Errorf("left behind: %v", l)
+				}
+			}
+		})
+	}
+}
+
+// TestTerminate: SIGTERM is an interrupt too.
+func TestTerminate(t *testing.T) {
+	bin := buildBasin(t)
+	cert := writeTestCert(t, screenCert)
+	r, w, err := os.Pipe()
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer w.Close()
+	defer r.Close()
+	cmd := exec.Command(bin, "screen", "--quiet", "--cert", cert, "-")
+	cmd.Stdin = r
+	var e bytes.Buffer
+	cmd.Stderr = &e
+	if err := cmd.Start(); err != nil {
+		t.Fatal(err)
+	}
+	time.Sleep(200 * time.Millisecond)
+	cmd.Process.Signal(syscall.SIGTERM)
+	done := make(chan error, 1)
+	go func() { done <- cmd.Wait() }()
+	select {
+	case err = <-done:
+	case <-time.After(interruptGrace + 5*time.Second):
+		cmd.Process.Kill()
+		<-done
+		t.Fatal("SIGTERM ignored")
+	}
+	var ee *exec.ExitError
+	if !errors.As(err, &ee) || ee.ExitCode() != 3 || e.String() != "basin screen: interrupted; no output written\n" {
+		t.Errorf("exit %v, stderr %q; want 3 and the one-line message", err, e.String())
+	}
+}
