@@ -12,6 +12,7 @@ import (
 	"sync"
 	"sync/atomic"
 	"time"
+	"unicode"
 	"unicode/utf8"
 )
 
@@ -19,6 +20,15 @@ import (
 // megabyte keeps the per-block bookkeeping negligible and, with a bounded
 // queue, memory small.
 const blockSize = 1 << 20
+
+// MaxLineLength is the longest CSV line read, in bytes: far above any
+// logged row (a thousand columns of 24-digit numbers is 25 KB), and it
+// keeps a file without line ends from filling memory. The header line's
+// own limit is smaller (one block, 1 MiB).
+const MaxLineLength = 16 << 20
+
+// MaxColumns is the most columns a CSV header or Parquet schema may have.
+const MaxColumns = 4096
 
 // Column roles in a CSV header.
 const (
@@ -119,8 +129,8 @@ func readCSVTable(r io.Reader, name string, opts *Options) (*table, error) {
 	}
 	first = first[:n]
 	first = bytes.TrimPrefix(first, []byte("\xef\xbb\xbf"))
-	if bytes.IndexByte(first, 0) >= 0 {
-		return nil, &ParseError{File: name, Err: fmt.Errorf("%w: binary data, not text", ErrFormat)}
+	if k := bytes.IndexByte(first, 0); k >= 0 {
+		return nil, &ParseError{File: name, Err: binaryError(1 + bytes.Count(first[:k], []byte{'\n'}))}
 	}
 	// the header: the first line that is neither blank nor a comment
 	line := 1
@@ -148,6 +158,9 @@ func readCSVTable(r io.Reader, name string, opts *Options) (*table, error) {
 	}
 	if !utf8.Valid(header) {
 		return nil, &ParseError{File: name, Line: line, Err: fmt.Errorf("%w: header is not UTF-8 text", ErrFormat)}
+	}
+	if n := bytes.Count(header, []byte{detectDelim(header)}) + 1; n > MaxColumns {
+		return nil, &ParseError{File: name, Line: line, Err: fmt.Errorf("%w: %d columns, more than the limit of %d", ErrFormat, n, MaxColumns)}
 	}
 	headerLine := line
 	line++
@@ -199,6 +212,22 @@ func readCSVTable(r io.Reader, name string, opts *Options) (*table, error) {
 	return tb, nil
 }
 
+// binaryError is the error for a NUL byte on a line of a CSV file.
+func binaryError(line int) error {
+	return fmt.Errorf("%w: binary data, not text (a NUL byte on line %d): not a text log", ErrFormat, line)
+}
+
+// printable reports a column name that would not print as itself in an
+// error or a report: a control or other non-printable character.
+func printable(s string) error {
+	for i, r := range s {
+		if !unicode.IsPrint(r) && r != ' ' {
+			return fmt.Errorf("%q has a non-printable character %U at byte %d", s, r, i)
+		}
+	}
+	return nil
+}
+
 func trimCR(l []byte) []byte {
 	if n := len(l); n > 0 && l[n-1] == '\r' {
 		return l[:n-1]
@@ -223,6 +252,9 @@ func newLayout(name string, header []byte, line int, opts *Options) (*csvLayout,
 	seen := map[string]int{}
 	for j, c := range cells {
 		cols[j] = splitUnit(strings.TrimSpace(string(c)))
+		if err := printable(cols[j].Name + cols[j].Unit); err != nil {
+			return nil, nil, &ParseError{File: name, Line: line, Column: j + 1, Err: fmt.Errorf("%w: header cell %v", ErrFormat, err)}
+		}
 		if cols[j].Name == "" {
 			continue
 		}
@@ -606,7 +638,7 @@ func (p *csvParser) parallel(r io.Reader, rest []byte, line int) error {
 			return make([]byte, 0, blockSize+blockSize/4)
 		}
 	}
-	var readErr error
+	var readErr, lineErr error
 	go func() {
 		defer close(order)
 		defer close(jobs)
@@ -629,6 +661,12 @@ func (p *csvParser) parallel(r io.Reader, rest []byte, line int) error {
 			cut := len(buf)
 			if !eof {
 				nl := bytes.LastIndexByte(buf, '\n')
+				if nl < 0 && len(buf) > MaxLineLength {
+					lineErr = &ParseError{File: p.lay.file, Line: line,
+						Err: fmt.Errorf("%w: line %d longer than the limit of %d bytes", ErrFormat, line, MaxLineLength)}
+					stop.Store(true)
+					return
+				}
 				if nl < 0 { // a line longer than the buffer: grow and read on
 					carry = buf
 					continue
@@ -669,6 +707,9 @@ func (p *csvParser) parallel(r io.Reader, rest []byte, line int) error {
 	wg.Wait()
 	if firstErr != nil {
 		return firstErr
+	}
+	if lineErr != nil {
+		return lineErr
 	}
 	return readErr
 }
@@ -729,6 +770,10 @@ func (p *csvParser) parse(c *chunk) {
 	var cells [][]byte
 	data := c.data
 	line := c.line
+	if k := bytes.IndexByte(data, 0); k >= 0 {
+		c.err = &ParseError{File: lay.file, Err: binaryError(line + bytes.Count(data[:k], []byte{'\n'}))}
+		return
+	}
 	// The fast row path: numbers only, no quotes anywhere in the block.
 	fast := !lay.dateTime && !lay.hasRun && bytes.IndexByte(data, '"') < 0
 	vals := make([]float64, lay.ncol)

@@ -144,7 +144,7 @@ func TestReadCSVErrors(t *testing.T) {
 		{"no time", "a,b\n1,2\n", nil, ErrNoTime, "x.csv: no time column (name one with --time-col, or give --rate)"},
 		{"unknown time-col", "a,b\n1,2\n", &Options{TimeCol: "clock"}, ErrNoTime, `x.csv: no time column (name one with --time-col, or give --rate): --time-col "clock" is not a column`},
 		{"unknown state", "t,a\n1,2\n", &Options{States: []string{"b"}}, ErrNoStates, `x.csv: no state columns: --states names "b", which is not a column`},
-		{"binary", "t,a\n\x00\x01\x02\xff", nil, ErrFormat, "x.csv: not a readable log file: binary data, not text"},
+		{"binary", "t,a\n\x00\x01\x02\xff", nil, ErrFormat, "x.csv: not a readable log file: binary data, not text (a NUL byte on line 2): not a text log"},
 		{"bad utf8 header", "t,\xff\xfe\n1,2\n", nil, ErrFormat, "x.csv:1: not a readable log file: header is not UTF-8 text"},
 		{"decimal comma", "t;a\n0;1,5\n", nil, ErrNotNumber, `x.csv:2:2: column "a": not a number: "1,5" has a decimal comma; write decimals with a point`},
 		{"unbalanced quote", "t,a\n0,\"1\n", nil, ErrFormat, "x.csv:2: not a readable log file: unbalanced quote"},

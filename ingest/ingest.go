@@ -78,6 +78,26 @@ type Dataset struct {
 	// columns (decided on the first data row) and columns left out by
 	// Options.States.
 	Ignored []Column
+	// TimeLogged is the time column's unit as logged when the times were
+	// converted to seconds (see [TimeUnits]); Time.Unit is then "s".
+	// Empty when no conversion was made.
+	TimeLogged string
+	// Warnings are findings that did not stop the read, one line each:
+	// a time unit that is not known, so times are kept as logged.
+	Warnings []string
+}
+
+// TimeUnits maps the units a time column may carry in its header
+// ("time [ms]") to seconds per unit. Times in these units are converted
+// to seconds; a time column with another unit is kept as logged, with a
+// warning in [Dataset.Warnings]; one with no unit is taken as seconds.
+var TimeUnits = map[string]float64{
+	"s": 1, "sec": 1, "secs": 1, "second": 1, "seconds": 1,
+	"ms": 1e-3, "msec": 1e-3,
+	"us": 1e-6, "\u00b5s": 1e-6, "\u03bcs": 1e-6, // micro sign and Greek mu
+	"ns":  1e-9,
+	"min": 60, "minute": 60, "minutes": 60,
+	"h": 3600, "hr": 3600, "hour": 3600, "hours": 3600,
 }
 
 // Samples returns the total number of samples over all runs.

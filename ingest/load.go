@@ -169,6 +169,7 @@ func Load(ctx context.Context, paths []string, opts *Options) (*Dataset, error) 
 		out.Runs = append(out.Runs, ds.Runs...)
 		out.Gaps += ds.Gaps
 		out.Missing += ds.Missing
+		out.Warnings = append(out.Warnings, ds.Warnings...)
 		for _, c := range ds.Ignored {
 			if !hasColumn(out.Ignored, c.Name) {
 				out.Ignored = append(out.Ignored, c)

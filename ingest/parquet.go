@@ -7,6 +7,7 @@ import (
 	"os"
 	"strings"
 	"time"
+	"unicode/utf8"
 
 	"github.com/apache/arrow/go/v15/arrow"
 	"github.com/apache/arrow/go/v15/arrow/array"
@@ -177,9 +178,18 @@ func readParquetTable(ctx context.Context, path string, opts *Options) (tb *tabl
 	if md.Schema.NumColumns() != len(fields) {
 		return nil, bad("nested columns are not supported")
 	}
+	if len(fields) > MaxColumns {
+		return nil, bad("%d columns, more than the limit of %d", len(fields), MaxColumns)
+	}
 	cols := make([]Column, len(fields))
 	for j, fd := range fields {
 		cols[j] = splitUnit(fd.Name)
+		if !utf8.ValidString(fd.Name) {
+			return nil, &ParseError{File: path, Column: j + 1, Err: fmt.Errorf("%w: column name %q is not UTF-8 text", ErrFormat, fd.Name)}
+		}
+		if err := printable(fd.Name); err != nil {
+			return nil, &ParseError{File: path, Column: j + 1, Err: fmt.Errorf("%w: column name %v", ErrFormat, err)}
+		}
 	}
 	o := *opts
 	if o.TimeCol == "" && o.Rate <= 0 && !hasTimeName(cols) {
@@ -215,6 +225,9 @@ func readParquetTable(ctx context.Context, path string, opts *Options) (tb *tabl
 			return nil, err
 		}
 		return tb, nil
+	}
+	if err := checkAllChunks(f, pr, r, cols, st.Size()); err != nil {
+		return nil, err
 	}
 	if err := tb.readArrow(ctx, pr, r, cols); err != nil {
 		return nil, err

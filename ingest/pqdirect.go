@@ -515,3 +515,63 @@ func (r *byteReader) Read(p []byte) (int, error) {
 	r.pos += n
 	return n, nil
 }
+
+// checkAllChunks reads and checks (see [checkChunk]) every column chunk
+// of the columns that are read, before pqarrow decodes any of them: the
+// general path gets the same protection as readDirect.
+func checkAllChunks(f *os.File, pr *file.Reader, r *roles, cols []Column, size int64) error {
+	md := pr.MetaData()
+	old := pr.WriterVersion().LessThan(metadata.Parquet816FixedVersion)
+	var buf []byte
+	for j := range cols {
+		if r.role[j] == roleSkip {
+			continue
+		}
+		w := int64(8)
+		switch md.Schema.Column(j).PhysicalType() {
+		case parquet.Types.Int96:
+			w = 12
+		case parquet.Types.ByteArray, parquet.Types.FixedLenByteArray:
+			w = -1
+		}
+		for i := 0; i < pr.NumRowGroups(); i++ {
+			bad := func(err error) error {
+				return &ParseError{File: f.Name(), Column: j + 1, Name: cols[j].Name,
+					Err: fmt.Errorf("%w: row group %d: %v", ErrFormat, i, err)}
+			}
+			rg := md.RowGroup(i)
+			cc, err := rg.ColumnChunk(j)
+			if err != nil {
+				return bad(err)
+			}
+			if cc.CryptoMetadata() != nil {
+				return bad(fmt.Errorf("encrypted columns are not supported"))
+			}
+			start := cc.DataPageOffset()
+			if cc.HasDictionaryPage() && cc.DictionaryPageOffset() > 0 && cc.DictionaryPageOffset() < start {
+				start = cc.DictionaryPageOffset()
+			}
+			n := cc.TotalCompressedSize() // inside the file: checked from the footer
+			if old {                      // parquet-mr before 1.2.9 left the dictionary page header out
+				n += min(100, size-start-n)
+			}
+			if cap(buf) < int(n) {
+				buf = make([]byte, n)
+			}
+			if _, err := f.ReadAt(buf[:n], start); err != nil && err != io.EOF {
+				return err
+			}
+			lim := chunkLimits{values: cc.NumValues(), uncompressed: maxExpand*size + 1<<20}
+			if w > 0 {
+				lim.uncompressed = min(lim.uncompressed, cc.NumValues()*(2*w+5)+1<<20)
+			}
+			if cc.NumValues() != rg.NumRows() {
+				return bad(fmt.Errorf("%d values for %d rows", cc.NumValues(), rg.NumRows()))
+			}
+			if err := checkChunk(buf[:n], cc.Compression(), lim); err != nil {
+				return bad(err)
+			}
+		}
+	}
+	return nil
+}

@@ -6,6 +6,7 @@ import (
 	"path/filepath"
 	"slices"
 	"sort"
+	"strings"
 	"time"
 )
 
@@ -98,6 +99,9 @@ func (tb *table) dataset() (*Dataset, error) {
 		}
 	}
 	ds := &Dataset{States: tb.states, Time: tb.timeCol}
+	if !tb.dateTime && tb.rate <= 0 && tb.timeCol.Unit != "" {
+		tb.convertTime(ds)
+	}
 	if tb.dateTime || tb.rate > 0 {
 		tb.t = make([]float64, tb.rows)
 	}
@@ -111,6 +115,37 @@ func (tb *table) dataset() (*Dataset, error) {
 	}
 	tb.tn = nil
 	return ds, nil
+}
+
+// convertTime turns numeric times in a known unit into seconds (see
+// [TimeUnits]), or warns about a unit that is not known.
+func (tb *table) convertTime(ds *Dataset) {
+	u := tb.timeCol.Unit
+	f, ok := TimeUnits[u]
+	if !ok {
+		f, ok = TimeUnits[strings.ToLower(u)]
+	}
+	if !ok {
+		ds.Warnings = append(ds.Warnings, fmt.Sprintf("%s: time column %q has unit %q, not a time unit known here; times are used as logged",
+			tb.file, tb.timeCol.Name, u))
+		return
+	}
+	if u != "s" {
+		ds.TimeLogged = u
+		ds.Time.Unit = "s"
+	}
+	switch {
+	case f == 1:
+	case f < 1: // division by 10^k is correctly rounded: 10 ms is exactly 0.01 s
+		d := math.Round(1 / f)
+		for i, v := range tb.t {
+			tb.t[i] = v / d
+		}
+	default:
+		for i, v := range tb.t {
+			tb.t[i] = v * f
+		}
+	}
 }
 
 func allNaN(c []float64) bool {
