@@ -4,9 +4,11 @@ import (
 	"bytes"
 	"context"
 	"errors"
+	"io/fs"
 	"math"
 	"os"
 	"path/filepath"
+	"strings"
 	"testing"
 	"time"
 
@@ -125,4 +127,37 @@ func smallRecord(n int) arrow.Record {
 		b.Field(2).(*array.Int64Builder).Append(int64(i * i))
 	}
 	return b.NewRecord()
+}
+
+func FuzzReadManifest(f *testing.F) {
+	dir := f.TempDir()
+	if err := os.WriteFile(filepath.Join(dir, "a.csv"), []byte("t,x\n0,1\n"), 0o644); err != nil {
+		f.Fatal(err)
+	}
+	f.Add([]byte("path,run,split\na.csv,,fit\n"))
+	f.Add([]byte("\ufeffpath,split\r\na.csv,holdout\r\n"))
+	f.Add([]byte("path\n\"a.csv\"\nb.csv\n"))
+	f.Fuzz(func(t *testing.T, data []byte) {
+		p := filepath.Join(dir, "m.csv")
+		if err := os.WriteFile(p, data, 0o644); err != nil {
+			t.Fatal(err)
+		}
+		es, err := ReadManifest(p)
+		if err != nil {
+			var pe *ParseError
+			var fe *fs.PathError
+			if !errors.As(err, &pe) && !errors.As(err, &fe) {
+				t.Fatalf("error %T is neither a *ParseError nor a *fs.PathError: %v", err, err)
+			}
+			if strings.ContainsRune(err.Error(), '\n') {
+				t.Fatalf("multi-line error %q", err)
+			}
+			return
+		}
+		for _, e := range es {
+			if e.Path == "" || (e.Split != "" && e.Split != "fit" && e.Split != "holdout") {
+				t.Fatalf("bad entry %+v", e)
+			}
+		}
+	})
 }
