@@ -406,8 +406,14 @@ func (m *Model) validate() error {
 // inconsistent file is refused with the reason. Unknown fields are allowed.
 func ReadCertificate(r io.Reader) (*Certificate, error) {
 	var c Certificate
-	if err := json.NewDecoder(r).Decode(&c); err != nil {
+	dec := json.NewDecoder(r)
+	if err := dec.Decode(&c); err != nil {
 		return nil, fmt.Errorf("certificate: %w", err)
+	}
+	// A second value after the object (two files pasted together, an
+	// edit gone wrong) makes the file ambiguous: refuse it.
+	if _, err := dec.Token(); err != io.EOF {
+		return nil, fmt.Errorf("certificate: data after the JSON object: %w", ErrFormat)
 	}
 	if c.Format != CertificateFormat {
 		return nil, fmt.Errorf("certificate: format %q: %w", c.Format, ErrFormat)
@@ -454,6 +460,11 @@ func (c *Certificate) check() error {
 	}
 	if c.Box != nil && len(c.Box) != n {
 		return errors.New("box must have one entry per state")
+	}
+	for j, b := range c.Box {
+		if !(b[0] <= b[1]) {
+			return fmt.Errorf("box of state %d: lower bound %g above upper bound %g", j, b[0], b[1])
+		}
 	}
 	if c.Verdict == Certified && (len(c.V.Exponents) == 0 || c.Level <= 0) {
 		return errors.New("certified without a V or a positive level")
