@@ -308,7 +308,9 @@ func TestTerminate(t *testing.T) {
 	if err := cmd.Start(); err != nil {
 		t.Fatal(err)
 	}
-	time.Sleep(200 * time.Millisecond)
+	// Before main installs its handler a SIGTERM kills outright; a race
+	// build starts slower, so wait a second.
+	time.Sleep(time.Second)
 	cmd.Process.Signal(syscall.SIGTERM)
 	done := make(chan error, 1)
 	go func() { done <- cmd.Wait() }()
