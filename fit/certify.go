@@ -434,7 +434,9 @@ func certScale(m *Model, ds *ingest.Dataset) []float64 {
 // newChecker converts the runs to z and builds the envelope and checker.
 func newChecker(ctx context.Context, m *Model, ds *ingest.Dataset, xe, scale []float64, o CertifyOptions) (*checker, []float64, error) {
 	n := len(xe)
-	var all []float64
+	// One buffer holds every run's z; each run's slice aliases it, so the
+	// samples are stored once (memory grows with the data, not twice it).
+	all := make([]float64, 0, n*ds.Samples())
 	runs := make([]zRun, 0, len(ds.Runs))
 	for i := range ds.Runs {
 		if err := ctx.Err(); err != nil {
@@ -444,13 +446,14 @@ func newChecker(ctx context.Context, m *Model, ds *ingest.Dataset, xe, scale []f
 		if len(r.X) != n {
 			return nil, nil, fmt.Errorf("%w: run %s has %d states, want %d", ErrMismatch, r.Name, len(r.X), n)
 		}
-		zr := zRun{name: r.Name, t: r.T, z: make([]float64, n*len(r.T))}
+		off := len(all)
+		all = all[:off+n*len(r.T)]
+		zr := zRun{name: r.Name, t: r.T, z: all[off:len(all):len(all)]}
 		for k := range r.T {
 			for j := 0; j < n; j++ {
 				zr.z[k*n+j] = (r.X[j][k] - xe[j]) / scale[j]
 			}
 		}
-		all = append(all, zr.z...)
 		runs = append(runs, zr)
 	}
 	env := newEnvelope(all, n)
