@@ -8,7 +8,6 @@ import (
 	"io"
 	"math"
 	"os"
-	"path/filepath"
 	"strings"
 
 	"github.com/basin-dev/basin/fit"
@@ -86,18 +85,7 @@ func runCertify(ctx context.Context, e *env, o any, args []string) error {
 	if cert.V.Exponents == nil {
 		cert.V = poly.Poly{Exponents: [][]int{}, Coefficients: []float64{}}
 	}
-	if err := writeAtomic(c.Out, atomicFile{Name: "certificate.json", Write: jsonWriter(cert)}); err != nil {
-		return err
-	}
-	if c.JSON {
-		return writeJSON(e.stdout, cert)
-	}
-	if c.Quiet {
-		return nil
-	}
-	printCertificate(e.stdout, cert)
-	fmt.Fprintf(e.stdout, "wrote %s\n", filepath.Join(c.Out, "certificate.json"))
-	return nil
+	return writeOutput(e, &c.commonFlags, "certificate.json", cert, func(w io.Writer) { printCertificate(w, cert) })
 }
 
 // readModelFile opens and decodes a model.json; any failure is bad input.

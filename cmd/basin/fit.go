@@ -7,7 +7,6 @@ import (
 	"fmt"
 	"io"
 	"math"
-	"path/filepath"
 	"strconv"
 	"strings"
 
@@ -86,18 +85,7 @@ func runFit(ctx context.Context, e *env, o any, args []string) error {
 		return err
 	}
 	pg.Done()
-	if err := writeAtomic(c.Out, atomicFile{Name: "model.json", Write: jsonWriter(m)}); err != nil {
-		return err
-	}
-	if c.JSON {
-		return writeJSON(e.stdout, m)
-	}
-	if c.Quiet {
-		return nil
-	}
-	printModel(e.stdout, m)
-	fmt.Fprintf(e.stdout, "wrote %s\n", filepath.Join(c.Out, "model.json"))
-	return nil
+	return writeOutput(e, &c.commonFlags, "model.json", m, func(w io.Writer) { printModel(w, m) })
 }
 
 // fitModel fits on the runs not held out by a manifest; bad input becomes

@@ -220,3 +220,20 @@ func newFlagSet() *flag.FlagSet {
 }
 
 func nan() float64 { return math.NaN() }
+
+// writeOutput writes v as JSON to c.Out/name atomically, then prints it as
+// JSON (--json), nothing (--quiet), or readably with print and the path.
+func writeOutput(e *env, c *commonFlags, name string, v any, print func(io.Writer)) error {
+	if err := writeAtomic(c.Out, atomicFile{Name: name, Write: jsonWriter(v)}); err != nil {
+		return err
+	}
+	if c.JSON {
+		return writeJSON(e.stdout, v)
+	}
+	if c.Quiet {
+		return nil
+	}
+	print(e.stdout)
+	fmt.Fprintf(e.stdout, "wrote %s\n", filepath.Join(c.Out, name))
+	return nil
+}
