@@ -54,6 +54,9 @@ func loadInputs(ctx context.Context, e *env, c *commonFlags, args []string) (*in
 		}
 		return nil, err
 	}
+	for _, w := range ds.Warnings {
+		warnf(e, c.Quiet, "%s", w)
+	}
 	return ds, nil
 }
 

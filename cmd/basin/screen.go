@@ -7,6 +7,7 @@ import (
 	"fmt"
 	"io"
 	"io/fs"
+	"math"
 	"runtime"
 	"strings"
 	"sync"
@@ -87,7 +88,7 @@ func runScreen(ctx context.Context, e *env, opts any, args []string) error {
 	if err := needInputs(args); err != nil {
 		return err
 	}
-	if c.Tolerance < 0 {
+	if !(c.Tolerance >= 0) || math.IsInf(c.Tolerance, 0) { // NaN fails the first test
 		return usagef("--tolerance must not be negative, got %g", c.Tolerance)
 	}
 	if c.Workers < 0 || c.Workers > 1024 {
