@@ -37,14 +37,7 @@ func writeOscillator(t *testing.T, dir string, runs int, constant bool) {
 			}
 			b.WriteString("\n")
 			for s := 0; s < 10; s++ {
-				hh := h / 10
-				k1 := f(x)
-				k2 := f([]float64{x[0] + hh/2*k1[0], x[1] + hh/2*k1[1]})
-				k3 := f([]float64{x[0] + hh/2*k2[0], x[1] + hh/2*k2[1]})
-				k4 := f([]float64{x[0] + hh*k3[0], x[1] + hh*k3[1]})
-				for j := range x {
-					x[j] += hh / 6 * (k1[j] + 2*k2[j] + 2*k3[j] + k4[j])
-				}
+				rk4Step(f, x, h/10)
 			}
 		}
 		if err := os.WriteFile(filepath.Join(dir, fmt.Sprintf("run%02d.csv", r)), []byte(b.String()), 0o644); err != nil {

@@ -59,14 +59,7 @@ func writeNumRuns(t *testing.T, dir string, tc numCase, runs int) {
 			}
 			b.WriteString("\n")
 			for s := 0; s < 4; s++ {
-				hh := h / 4
-				k1 := f(x)
-				k2 := f([]float64{x[0] + hh/2*k1[0], x[1] + hh/2*k1[1]})
-				k3 := f([]float64{x[0] + hh/2*k2[0], x[1] + hh/2*k2[1]})
-				k4 := f([]float64{x[0] + hh*k3[0], x[1] + hh*k3[1]})
-				for j := range x {
-					x[j] += hh / 6 * (k1[j] + 2*k2[j] + 2*k3[j] + k4[j])
-				}
+				rk4Step(f, x, h/4)
 			}
 		}
 		if err := os.WriteFile(filepath.Join(dir, fmt.Sprintf("run%02d.csv", r)), []byte(b.String()), 0o644); err != nil {
