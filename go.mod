@@ -1,4 +1,4 @@
-module github.com/basin-dev/basin
+module basin.example
 
 go 1.26
 

@@ -8,8 +8,8 @@ import (
 	"testing"
 	"time"
 
-	"github.com/basin-dev/basin/fit/poly"
-	"github.com/basin-dev/basin/ingest"
+	"basin.example/fit/poly"
+	"basin.example/ingest"
 	"gonum.org/v1/gonum/mat"
 )
 

@@ -9,7 +9,7 @@ import (
 	"sort"
 	"strings"
 
-	"github.com/basin-dev/basin/ingest"
+	"basin.example/ingest"
 	"gonum.org/v1/gonum/mat"
 )
 

@@ -10,7 +10,7 @@ import (
 	"testing"
 	"time"
 
-	"github.com/basin-dev/basin/ingest"
+	"basin.example/ingest"
 )
 
 // certSystem is a test system with an exact polynomial model.

@@ -5,8 +5,8 @@ import (
 	"fmt"
 	"math"
 
-	"github.com/basin-dev/basin/fit"
-	"github.com/basin-dev/basin/ingest"
+	"basin.example/fit"
+	"basin.example/ingest"
 )
 
 // ExampleCertify certifies a damped linear oscillator, theta' = omega,

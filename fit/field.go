@@ -10,8 +10,8 @@ import (
 	"sort"
 	"sync"
 
-	"github.com/basin-dev/basin/fit/poly"
-	"github.com/basin-dev/basin/ingest"
+	"basin.example/fit/poly"
+	"basin.example/ingest"
 	"gonum.org/v1/gonum/mat"
 )
 

@@ -4,9 +4,9 @@ import (
 	"context"
 	"fmt"
 
-	"github.com/basin-dev/basin/fit"
-	"github.com/basin-dev/basin/fit/poly"
-	"github.com/basin-dev/basin/ingest"
+	"basin.example/fit"
+	"basin.example/fit/poly"
+	"basin.example/ingest"
 )
 
 // ExampleField fits a damped linear oscillator theta' = omega,

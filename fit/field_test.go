@@ -11,8 +11,8 @@ import (
 	"strings"
 	"testing"
 
-	"github.com/basin-dev/basin/fit/poly"
-	"github.com/basin-dev/basin/ingest"
+	"basin.example/fit/poly"
+	"basin.example/ingest"
 	"github.com/sajari/regression"
 	"gonum.org/v1/gonum/mat"
 )

@@ -4,7 +4,7 @@ import (
 	"errors"
 	"math"
 
-	"github.com/basin-dev/basin/fit/lp"
+	"basin.example/fit/lp"
 )
 
 // certRows are the rows of the certificate LP, generated on demand for

@@ -7,7 +7,7 @@ import (
 	"io"
 	"math"
 
-	"github.com/basin-dev/basin/fit/poly"
+	"basin.example/fit/poly"
 )
 
 // Format strings of the JSON files; readers check them.

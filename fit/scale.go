@@ -4,7 +4,7 @@ import (
 	"math"
 	"sort"
 
-	"github.com/basin-dev/basin/fit/poly"
+	"basin.example/fit/poly"
 )
 
 // Scaling.

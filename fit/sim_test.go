@@ -5,7 +5,7 @@ import (
 	"math"
 	"math/rand/v2"
 
-	"github.com/basin-dev/basin/ingest"
+	"basin.example/ingest"
 )
 
 // Test data: a small classical RK4 integrator and a few systems. Noise is

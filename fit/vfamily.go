@@ -4,7 +4,7 @@ import (
 	"math"
 	"math/rand/v2"
 
-	"github.com/basin-dev/basin/fit/poly"
+	"basin.example/fit/poly"
 )
 
 // vFamily is the space of candidate Lyapunov functions: polynomials in the

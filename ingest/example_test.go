@@ -4,7 +4,7 @@ import (
 	"fmt"
 	"strings"
 
-	"github.com/basin-dev/basin/ingest"
+	"basin.example/ingest"
 )
 
 func ExampleReadCSV() {

@@ -4,7 +4,7 @@ import (
 	"math"
 	"sort"
 
-	"github.com/basin-dev/basin/ingest"
+	"basin.example/ingest"
 )
 
 // ScenarioTail returns the exact binomial tail of the scenario approach,

@@ -3,7 +3,7 @@ package validate
 import (
 	"math"
 
-	"github.com/basin-dev/basin/fit"
+	"basin.example/fit"
 )
 
 // The Dormand–Prince 5(4) tableau (Dormand & Prince, "A family of embedded

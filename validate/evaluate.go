@@ -9,8 +9,8 @@ import (
 	"sort"
 	"strings"
 
-	"github.com/basin-dev/basin/fit"
-	"github.com/basin-dev/basin/ingest"
+	"basin.example/fit"
+	"basin.example/ingest"
 )
 
 // Options controls Evaluate and Check. A nil *Options means defaults.

@@ -4,10 +4,10 @@ import (
 	"fmt"
 	"math"
 
-	"github.com/basin-dev/basin/fit"
-	"github.com/basin-dev/basin/fit/poly"
-	"github.com/basin-dev/basin/ingest"
-	"github.com/basin-dev/basin/validate"
+	"basin.example/fit"
+	"basin.example/fit/poly"
+	"basin.example/ingest"
+	"basin.example/validate"
 )
 
 // With 1000 decorrelated samples and the 6 decision variables of a

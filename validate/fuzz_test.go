@@ -7,8 +7,8 @@ import (
 	"math"
 	"testing"
 
-	"github.com/basin-dev/basin/fit"
-	"github.com/basin-dev/basin/ingest"
+	"basin.example/fit"
+	"basin.example/ingest"
 )
 
 // FuzzScreenCertificate: any certificate that fit.ReadCertificate accepts

@@ -4,8 +4,8 @@ import (
 	"math"
 	"sort"
 
-	"github.com/basin-dev/basin/fit"
-	"github.com/basin-dev/basin/ingest"
+	"basin.example/fit"
+	"basin.example/ingest"
 )
 
 // Limits of the model checks (not user-facing): derivative error is taken

@@ -4,7 +4,7 @@ import (
 	"math"
 	"testing"
 
-	"github.com/basin-dev/basin/fit"
+	"basin.example/fit"
 )
 
 // TestModelChecks: the true model of the damped oscillator has a small

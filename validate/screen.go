@@ -6,9 +6,9 @@ import (
 	"runtime"
 	"sync"
 
-	"github.com/basin-dev/basin/fit"
-	"github.com/basin-dev/basin/fit/poly"
-	"github.com/basin-dev/basin/ingest"
+	"basin.example/fit"
+	"basin.example/fit/poly"
+	"basin.example/ingest"
 )
 
 // tailMax is the largest number of samples averaged at each end of a run

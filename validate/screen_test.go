@@ -6,9 +6,9 @@ import (
 	"math/rand/v2"
 	"testing"
 
-	"github.com/basin-dev/basin/fit"
-	"github.com/basin-dev/basin/fit/poly"
-	"github.com/basin-dev/basin/ingest"
+	"basin.example/fit"
+	"basin.example/fit/poly"
+	"basin.example/ingest"
 )
 
 // circleCert is a hand-made certificate: V = z0^2 + z1^2 (plus extra

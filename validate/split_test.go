@@ -6,8 +6,8 @@ import (
 	"strings"
 	"testing"
 
-	"github.com/basin-dev/basin/fit"
-	"github.com/basin-dev/basin/ingest"
+	"basin.example/fit"
+	"basin.example/ingest"
 )
 
 func TestSplit(t *testing.T) {

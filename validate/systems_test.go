@@ -8,9 +8,9 @@ import (
 	"testing"
 	"time"
 
-	"github.com/basin-dev/basin/fit"
-	"github.com/basin-dev/basin/fit/poly"
-	"github.com/basin-dev/basin/ingest"
+	"basin.example/fit"
+	"basin.example/fit/poly"
+	"basin.example/ingest"
 )
 
 // system is a test system with a known character.

@@ -10,8 +10,8 @@ import (
 	"os"
 	"strings"
 
-	"github.com/basin-dev/basin/fit"
-	"github.com/basin-dev/basin/fit/poly"
+	"basin.example/fit"
+	"basin.example/fit/poly"
 )
 
 // certifyFlags are basin certify's flags.

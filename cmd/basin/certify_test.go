@@ -9,7 +9,7 @@ import (
 	"strings"
 	"testing"
 
-	"github.com/basin-dev/basin/fit"
+	"basin.example/fit"
 )
 
 // certifyFixture writes oscillator runs into dir/data and fits the model

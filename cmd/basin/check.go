@@ -9,8 +9,8 @@ import (
 	"strings"
 	"text/tabwriter"
 
-	"github.com/basin-dev/basin/fit"
-	"github.com/basin-dev/basin/validate"
+	"basin.example/fit"
+	"basin.example/validate"
 )
 
 // checkFlags are the flags of basin check.

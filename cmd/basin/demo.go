@@ -10,7 +10,7 @@ import (
 	"path/filepath"
 	"strings"
 
-	"github.com/basin-dev/basin/examples/cameramount"
+	"basin.example/examples/cameramount"
 )
 
 // demoFlags are basin demo's flags.

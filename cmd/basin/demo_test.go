@@ -8,7 +8,7 @@ import (
 	"strings"
 	"testing"
 
-	"github.com/basin-dev/basin/examples/cameramount"
+	"basin.example/examples/cameramount"
 )
 
 func demo(t *testing.T, args ...string) (code int, stdout, stderr string) {

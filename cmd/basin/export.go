@@ -7,8 +7,8 @@ import (
 	"flag"
 	"os"
 
-	"github.com/basin-dev/basin/fit"
-	"github.com/basin-dev/basin/fit/export"
+	"basin.example/fit"
+	"basin.example/fit/export"
 )
 
 // exportFlags are basin export's flags.

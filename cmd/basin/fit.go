@@ -10,9 +10,9 @@ import (
 	"strconv"
 	"strings"
 
-	"github.com/basin-dev/basin/fit"
-	"github.com/basin-dev/basin/fit/poly"
-	"github.com/basin-dev/basin/ingest"
+	"basin.example/fit"
+	"basin.example/fit/poly"
+	"basin.example/ingest"
 )
 
 // fitFlags are basin fit's flags.

@@ -12,7 +12,7 @@ import (
 	"strings"
 	"testing"
 
-	"github.com/basin-dev/basin/fit"
+	"basin.example/fit"
 )
 
 // writeOscillator writes runs of theta' = omega, omega' = -4 theta -

@@ -5,7 +5,7 @@ import (
 	"fmt"
 	"strings"
 
-	"github.com/basin-dev/basin/ingest"
+	"basin.example/ingest"
 )
 
 // commonFlags are the flags every log-reading command shares.

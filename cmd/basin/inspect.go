@@ -12,7 +12,7 @@ import (
 	"text/tabwriter"
 	"time"
 
-	"github.com/basin-dev/basin/ingest"
+	"basin.example/ingest"
 )
 
 func init() {

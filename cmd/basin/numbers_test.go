@@ -13,7 +13,7 @@ import (
 	"strings"
 	"testing"
 
-	"github.com/basin-dev/basin/fit"
+	"basin.example/fit"
 )
 
 // numCase describes one badly conditioned data set: the runs of a damped

@@ -10,11 +10,11 @@ import (
 	"path/filepath"
 	"strings"
 
-	"github.com/basin-dev/basin/cmd/basin/internal/report"
-	"github.com/basin-dev/basin/fit"
-	"github.com/basin-dev/basin/fit/poly"
-	"github.com/basin-dev/basin/ingest"
-	"github.com/basin-dev/basin/validate"
+	"basin.example/cmd/basin/internal/report"
+	"basin.example/fit"
+	"basin.example/fit/poly"
+	"basin.example/ingest"
+	"basin.example/validate"
 )
 
 // runFlags are basin run's flags.

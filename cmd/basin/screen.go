@@ -13,9 +13,9 @@ import (
 	"sync"
 	"text/tabwriter"
 
-	"github.com/basin-dev/basin/fit"
-	"github.com/basin-dev/basin/ingest"
-	"github.com/basin-dev/basin/validate"
+	"basin.example/fit"
+	"basin.example/ingest"
+	"basin.example/validate"
 )
 
 // screenFlags are basin screen's flags.

@@ -19,8 +19,8 @@ import (
 	"github.com/apache/arrow/go/v15/parquet"
 	"github.com/apache/arrow/go/v15/parquet/pqarrow"
 
-	"github.com/basin-dev/basin/fit"
-	"github.com/basin-dev/basin/ingest"
+	"basin.example/fit"
+	"basin.example/ingest"
 )
 
 const (

@@ -11,8 +11,8 @@ import (
 	"strings"
 	"testing"
 
-	"github.com/basin-dev/basin/fit"
-	"github.com/basin-dev/basin/validate"
+	"basin.example/fit"
+	"basin.example/validate"
 )
 
 // screenCert is certJSON (V = z0² + 0.1 z0 z1 + 0.3 z1², level 0.8) with a

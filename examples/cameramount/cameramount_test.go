@@ -9,7 +9,7 @@ import (
 	"strconv"
 	"testing"
 
-	"github.com/basin-dev/basin/examples/cameramount"
+	"basin.example/examples/cameramount"
 )
 
 func generate(t testing.TB, seed uint64, opts *cameramount.Options) []cameramount.Run {

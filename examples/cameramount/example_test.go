@@ -3,7 +3,7 @@ package cameramount_test
 import (
 	"fmt"
 
-	"github.com/basin-dev/basin/examples/cameramount"
+	"basin.example/examples/cameramount"
 )
 
 func ExampleGenerate() {

@@ -8,8 +8,8 @@ import (
 	"slices"
 	"testing"
 
-	"github.com/basin-dev/basin/examples/cameramount"
-	"github.com/basin-dev/basin/ingest"
+	"basin.example/examples/cameramount"
+	"basin.example/ingest"
 )
 
 // TestParquetSameAsCSV reads one run written in both formats with basin's

@@ -24,10 +24,10 @@ import (
 	"slices"
 	"strings"
 
-	"github.com/basin-dev/basin/examples/cameramount"
-	"github.com/basin-dev/basin/fit"
-	"github.com/basin-dev/basin/ingest"
-	"github.com/basin-dev/basin/validate"
+	"basin.example/examples/cameramount"
+	"basin.example/fit"
+	"basin.example/ingest"
+	"basin.example/validate"
 )
 
 var errMismatch = errors.New("flagged runs differ from the truth")

@@ -4,9 +4,9 @@ import (
 	"fmt"
 	"os"
 
-	"github.com/basin-dev/basin/fit"
-	"github.com/basin-dev/basin/fit/export"
-	"github.com/basin-dev/basin/fit/poly"
+	"basin.example/fit"
+	"basin.example/fit/export"
+	"basin.example/fit/poly"
 )
 
 // ExampleWrite writes a two-state quadratic V as Python.

@@ -24,7 +24,7 @@ import (
 	"strings"
 	"unicode/utf8"
 
-	"github.com/basin-dev/basin/fit"
+	"basin.example/fit"
 )
 
 // Languages that [Write] knows.

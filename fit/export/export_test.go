@@ -15,8 +15,8 @@ import (
 	"strings"
 	"testing"
 
-	"github.com/basin-dev/basin/fit"
-	"github.com/basin-dev/basin/fit/poly"
+	"basin.example/fit"
+	"basin.example/fit/poly"
 )
 
 // The check is against basin's own evaluation (fit.Certificate.Z followed

@@ -6,7 +6,7 @@ import (
 	"strings"
 	"unicode/utf8"
 
-	"github.com/basin-dev/basin/fit"
+	"basin.example/fit"
 )
 
 func writeGo(b *strings.Builder, cert *fit.Certificate, pkg string) {

@@ -7,8 +7,8 @@ import (
 	"testing"
 	"time"
 
-	"github.com/basin-dev/basin/fit/lp"
-	"github.com/basin-dev/basin/fit/poly"
+	"basin.example/fit/lp"
+	"basin.example/fit/poly"
 )
 
 // certLP is the sampled Lyapunov LP of the benchmarks: V = sum_k c_k m_k

@@ -10,7 +10,7 @@ import (
 
 	"gonum.org/v1/gonum/floats"
 
-	"github.com/basin-dev/basin/fit/lp"
+	"basin.example/fit/lp"
 )
 
 // TestSolveCutsMatchesSolve: on tall random LPs the cutting-plane loop must

@@ -4,7 +4,7 @@ import (
 	"fmt"
 	"math"
 
-	"github.com/basin-dev/basin/fit/lp"
+	"basin.example/fit/lp"
 )
 
 // Chvátal's first example (Linear Programming, 1983, ch. 2): maximise

@@ -10,7 +10,7 @@ import (
 	"gonum.org/v1/gonum/mat"
 	gonumlp "gonum.org/v1/gonum/optimize/convex/lp"
 
-	"github.com/basin-dev/basin/fit/lp"
+	"basin.example/fit/lp"
 )
 
 // tight asks the solver for a relative gap of 1e-12, so that textbook

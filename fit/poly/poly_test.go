@@ -6,7 +6,7 @@ import (
 	"math/rand/v2"
 	"testing"
 
-	"github.com/basin-dev/basin/fit/poly"
+	"basin.example/fit/poly"
 )
 
 // binomial returns C(n, k) exactly for small arguments.

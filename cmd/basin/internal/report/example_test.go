@@ -3,9 +3,9 @@ package report_test
 import (
 	"os"
 
-	"github.com/basin-dev/basin/cmd/basin/internal/report"
-	"github.com/basin-dev/basin/fit"
-	"github.com/basin-dev/basin/fit/poly"
+	"basin.example/cmd/basin/internal/report"
+	"basin.example/fit"
+	"basin.example/fit/poly"
 )
 
 // ExampleSummary prints the text summary of a hand-made certificate.

@@ -14,7 +14,7 @@ import (
 	"gonum.org/v1/plot/vg/draw"
 	"gonum.org/v1/plot/vg/vgsvg"
 
-	"github.com/basin-dev/basin/fit"
+	"basin.example/fit"
 )
 
 // The report's visual language. Colours come in clearly different

@@ -5,10 +5,10 @@ import (
 	"math"
 	"strings"
 
-	"github.com/basin-dev/basin/fit"
-	"github.com/basin-dev/basin/fit/poly"
-	"github.com/basin-dev/basin/ingest"
-	"github.com/basin-dev/basin/validate"
+	"basin.example/fit"
+	"basin.example/fit/poly"
+	"basin.example/ingest"
+	"basin.example/validate"
 )
 
 // The fixture is the linear oscillator x1' = x2, x2' = -x1 - x2, whose

@@ -8,8 +8,8 @@ import (
 	"strconv"
 	"strings"
 
-	"github.com/basin-dev/basin/fit"
-	"github.com/basin-dev/basin/fit/poly"
+	"basin.example/fit"
+	"basin.example/fit/poly"
 )
 
 //go:embed page.html.tmpl

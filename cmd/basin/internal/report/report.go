@@ -15,9 +15,9 @@ import (
 	"math"
 	"sort"
 
-	"github.com/basin-dev/basin/fit"
-	"github.com/basin-dev/basin/ingest"
-	"github.com/basin-dev/basin/validate"
+	"basin.example/fit"
+	"basin.example/ingest"
+	"basin.example/validate"
 )
 
 // Input is what a report is made of.

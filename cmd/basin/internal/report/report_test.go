@@ -9,7 +9,7 @@ import (
 	"strings"
 	"testing"
 
-	"github.com/basin-dev/basin/fit"
+	"basin.example/fit"
 )
 
 func renderPage(t *testing.T, in *Input) string {

@@ -6,8 +6,8 @@ import (
 	"strconv"
 	"strings"
 
-	"github.com/basin-dev/basin/fit"
-	"github.com/basin-dev/basin/fit/poly"
+	"basin.example/fit"
+	"basin.example/fit/poly"
 )
 
 // Summary writes the plain-text summary of in to w: verdict and reason,

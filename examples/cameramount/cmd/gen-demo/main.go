@@ -13,7 +13,7 @@ import (
 	"fmt"
 	"os"
 
-	"github.com/basin-dev/basin/examples/cameramount"
+	"basin.example/examples/cameramount"
 )
 
 func main() {
