@@ -152,7 +152,7 @@ const (
 // threshold and ridge are chosen by K-fold cross-validation over runs (the
 // sparsest model within one standard error of the best held-out error),
 // refitted by least squares on the chosen support; a bootstrap over runs
-// for per-term inclusion frequencies and intervals; and Newton's method on
+// for per-term kept shares and intervals; and Newton's method on
 // the fitted field for its equilibria.
 //
 // Field uses every run of ds, whatever its Split: leave held-out runs out
@@ -391,7 +391,7 @@ func Field(ctx context.Context, ds *ingest.Dataset, opts *FieldOptions) (*Model,
 				inc := float64(in) / float64(len(rc))
 				eq.Terms = append(eq.Terms, Term{Name: lib.Name(k, names),
 					Interval:  [2]float64{quantile(vals, 0.025), quantile(vals, 0.975)},
-					Inclusion: inc, Weak: inc < 0.5})
+					KeptShare: inc, RarelyKept: inc < RarelyKeptShare})
 			}
 		}
 	}
@@ -719,7 +719,7 @@ func modelFinite(m *Model) bool {
 	for _, e := range m.Equations {
 		ok = ok && finite(e.Coefficients...) && finite(e.HeldoutError)
 		for _, t := range e.Terms {
-			ok = ok && finite(t.Interval[0], t.Interval[1], t.Inclusion)
+			ok = ok && finite(t.Interval[0], t.Interval[1], t.KeptShare)
 		}
 	}
 	for _, e := range m.Equilibria {

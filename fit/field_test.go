@@ -190,7 +190,7 @@ func TestLeastSquaresSajari(t *testing.T) {
 	xi := make([]float64, p)
 	gh, bh := make([]float64, p*p), make([]float64, p)
 	pr.normalised(gh, bh, pr.total)
-	newSolver(p).stlsq(xi, gh, bh, 0, 0)
+	newSolver(p).thresholdRefit(xi, gh, bh, 0, 0)
 	if err := r.Run(); err != nil {
 		t.Fatal(err)
 	}
@@ -290,8 +290,8 @@ func TestBootstrap(t *testing.T) {
 		}
 		for k, term := range eq.Terms {
 			want := duffing.true[i][monoName(eq.Exponents[k], duffing.states)]
-			if term.Inclusion < 0.9 || term.Weak {
-				t.Errorf("%s in %s: inclusion %g", term.Name, eq.State, term.Inclusion)
+			if term.KeptShare < 0.9 || term.RarelyKept {
+				t.Errorf("%s in %s: kept share %g", term.Name, eq.State, term.KeptShare)
 			}
 			// Widen by 2% of the value: the smoothing bias (about 0.5%
 			// here) is not what a bootstrap over runs measures.

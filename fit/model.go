@@ -29,8 +29,8 @@ type Equation struct {
 	State        string    `json:"state"`
 	Exponents    [][]int   `json:"exponents"`
 	Coefficients []float64 `json:"coefficients"`
-	// Terms carries, per term, the bootstrap interval and inclusion
-	// frequency (in the fitting coordinates' support).
+	// Terms carries, per term, the bootstrap interval and the share of
+	// bootstrap fits that kept it (in the fitting coordinates' support).
 	Terms []Term `json:"terms,omitempty"`
 	// HeldoutError is the cross-validated derivative error, normalised by
 	// the spread of this state's derivative (1 = no better than a constant).
@@ -38,11 +38,61 @@ type Equation struct {
 }
 
 // Term is the uncertainty of one fitted term, from the bootstrap over runs.
+//
+// In JSON it also carries the deprecated keys "inclusion" (= kept_share)
+// and "weak" (= rarely_kept), written for one release for readers of
+// older files; reading accepts either spelling, the new one first.
 type Term struct {
 	Name      string     `json:"name"`
-	Interval  [2]float64 `json:"interval"`  // coefficient interval, original units
-	Inclusion float64    `json:"inclusion"` // share of bootstrap fits that kept it
-	Weak      bool       `json:"weak"`      // Inclusion < 0.5
+	Interval  [2]float64 `json:"interval"`   // coefficient interval, original units
+	KeptShare float64    `json:"kept_share"` // share of bootstrap fits that kept it, 0..1
+	// RarelyKept is KeptShare < [RarelyKeptShare]: most bootstrap fits
+	// dropped the term.
+	RarelyKept bool `json:"rarely_kept"`
+}
+
+// RarelyKeptShare is the kept share below which a term is rarely kept.
+const RarelyKeptShare = 0.5
+
+// termJSON is Term on the wire: the current keys and the deprecated ones.
+type termJSON struct {
+	Name       string     `json:"name"`
+	Interval   [2]float64 `json:"interval"`
+	KeptShare  *float64   `json:"kept_share,omitempty"`
+	RarelyKept *bool      `json:"rarely_kept,omitempty"`
+	Inclusion  *float64   `json:"inclusion,omitempty"` // deprecated: kept_share
+	Weak       *bool      `json:"weak,omitempty"`      // deprecated: rarely_kept
+}
+
+// MarshalJSON writes the current keys and, for one release, the
+// deprecated ones with the same values.
+func (t Term) MarshalJSON() ([]byte, error) {
+	share, rare := t.KeptShare, t.RarelyKept
+	return json.Marshal(termJSON{Name: t.Name, Interval: t.Interval,
+		KeptShare: &share, RarelyKept: &rare, Inclusion: &share, Weak: &rare})
+}
+
+// UnmarshalJSON reads kept_share and rarely_kept, or the deprecated
+// inclusion and weak when the new keys are absent.
+func (t *Term) UnmarshalJSON(b []byte) error {
+	var w termJSON
+	if err := json.Unmarshal(b, &w); err != nil {
+		return err
+	}
+	*t = Term{Name: w.Name, Interval: w.Interval}
+	switch {
+	case w.KeptShare != nil:
+		t.KeptShare = *w.KeptShare
+	case w.Inclusion != nil:
+		t.KeptShare = *w.Inclusion
+	}
+	switch {
+	case w.RarelyKept != nil:
+		t.RarelyKept = *w.RarelyKept
+	case w.Weak != nil:
+		t.RarelyKept = *w.Weak
+	}
+	return nil
 }
 
 // Equilibrium is a zero of the fitted field with its linearisation.

@@ -243,14 +243,17 @@ func scanFast(b []byte) (f float64, n int, ok bool) {
 
 // eightDigits reports whether the 8 bytes of x (little-endian) are all
 // ASCII digits: each byte's high nibble is 3 and adding 6 does not carry
-// past 9 (a common SWAR test, as in Lemire's fast_float).
+// past 9: the eight-digit SWAR (SIMD within a register) test described by
+// Lemire, "Number parsing at a gigabyte per second", Software: Practice
+// and Experience 51(8), 2021.
 func eightDigits(x uint64) bool {
 	return (x&0xF0F0F0F0F0F0F0F0)|(((x+0x0606060606060606)&0xF0F0F0F0F0F0F0F0)>>4) == 0x3333333333333333
 }
 
 // eightValue is the value of 8 ASCII digits in x, the first byte most
 // significant: pairs, then quads, then the whole, by multiply-and-shift
-// (the SWAR method of fast_float's parse_eight_digits_unrolled).
+// (the eight-digit SWAR conversion of Lemire, "Number parsing at a
+// gigabyte per second", 2021).
 func eightValue(x uint64) uint64 {
 	x -= 0x3030303030303030
 	x = x*10 + x>>8

@@ -31,7 +31,7 @@ func init() {
 manifest marks holdout are left out): derivatives from the samples,
 sequentially thresholded ridge regression on all monomials up to --degree,
 threshold chosen by cross-validation over runs (--folds), a bootstrap over
-runs for each term's inclusion frequency and interval, and the equilibria
+runs for the share of fits that keep each term and its interval, and the equilibria
 of the fitted field with their linearisation. Writes DIR/model.json and
 prints the equations in the logs' units; --json prints the model instead.`,
 		Flags: func(fs *flag.FlagSet) any {
@@ -198,17 +198,17 @@ func printModel(w io.Writer, m *fit.Model) {
 		m.Runs, m.Samples, m.Degree, m.Derivative, m.CVBy, m.CVGroups)
 	fmt.Fprintf(w, "threshold %.3g, ridge %.1g, condition %.2g, held-out error %.3g (share of derivative variance unexplained)\n\n",
 		m.Threshold, m.Ridge, m.Condition, m.HeldoutError)
-	var weak []string
+	var rare []string
 	for i, eq := range m.Equations {
 		fmt.Fprintf(w, "d(%s)/dt [%s] = %s\n", eq.State, rateUnit(m.Units[i]), equationText(eq, m.States))
 		for _, t := range eq.Terms {
-			if t.Weak {
-				weak = append(weak, fmt.Sprintf("%s in d(%s)/dt (kept in %.0f%% of bootstrap fits)", t.Name, eq.State, 100*t.Inclusion))
+			if t.RarelyKept {
+				rare = append(rare, fmt.Sprintf("%s in d(%s)/dt (kept in %.0f%% of bootstrap fits)", t.Name, eq.State, 100*t.KeptShare))
 			}
 		}
 	}
-	if len(weak) > 0 {
-		fmt.Fprintf(w, "\nweak terms: %s\n", strings.Join(weak, "; "))
+	if len(rare) > 0 {
+		fmt.Fprintf(w, "\nrarely kept terms (most bootstrap fits dropped them): %s\n", strings.Join(rare, "; "))
 	}
 	fmt.Fprintf(w, "\nequilibria (the first is where the runs settle):\n")
 	if len(m.Equilibria) == 0 {

@@ -10,8 +10,10 @@
 // # Method
 //
 // [Solve] runs the interior-point method on the homogeneous self-dual
-// embedding of the problem (Ye, Todd and Mizuno 1994; in the form of
-// Andersen and Andersen's MOSEK and of Vandenberghe's CVXOPT). Bounds are
+// embedding of the problem (Ye, Todd and Mizuno, "An O(√nL)-iteration
+// homogeneous and self-dual linear programming algorithm", Math. Oper.
+// Res. 19(1), 1994; the primal, the dual and a homogenising pair τ, κ form
+// one self-dual LP, so no feasible start or phase one is needed). Bounds are
 // treated as extra rows with a diagonal structure. Each iteration forms the
 // normal matrix G'DG + diag(bound terms) (in parallel for large problems),
 // factorises it by gonum's Cholesky (lapack64.Potrf, after a diagonal

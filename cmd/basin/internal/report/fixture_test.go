@@ -92,9 +92,9 @@ func fixture(cert *fit.Certificate, names []string) *Input {
 	m := &fit.Model{Format: fit.ModelFormat, States: cert.States, Units: cert.Units,
 		Equations: []fit.Equation{
 			{State: cert.States[0], Exponents: [][]int{{0, 0}, {0, 1}}, Coefficients: []float64{0.1, 1},
-				Terms: []fit.Term{{Name: "1", Interval: [2]float64{0.09, 0.11}, Inclusion: 1}, {Name: "omega", Interval: [2]float64{0.98, 1.02}, Inclusion: 1}}},
+				Terms: []fit.Term{{Name: "1", Interval: [2]float64{0.09, 0.11}, KeptShare: 1}, {Name: "omega", Interval: [2]float64{0.98, 1.02}, KeptShare: 1}}},
 			{State: cert.States[1], Exponents: [][]int{{0, 0}, {1, 0}, {0, 1}, {3, 0}}, Coefficients: []float64{0.15, -1, -1, 0.001},
-				Terms: []fit.Term{{Inclusion: 1}, {Inclusion: 1}, {Inclusion: 1}, {Interval: [2]float64{-0.01, 0.01}, Inclusion: 0.2, Weak: true}}},
+				Terms: []fit.Term{{KeptShare: 1}, {KeptShare: 1}, {KeptShare: 1}, {Interval: [2]float64{-0.01, 0.01}, KeptShare: 0.2, RarelyKept: true}}},
 		},
 		Equilibrium: fixtureEquil,
 		Equilibria: []fit.Equilibrium{{Point: fixtureEquil, Class: "stable focus", InEnvelope: true},

@@ -75,9 +75,9 @@ type eqRow struct {
 type termRow struct {
 	Name                string
 	Coef, IntLo, IntHi  num
-	Inclusion           num
-	HasInterval, Weak   bool
-	InclusionPercentage string
+	KeptShare           num
+	HasInterval, Rarely bool
+	KeptSharePercentage string
 }
 
 type vTerm struct {
@@ -201,8 +201,8 @@ func build(in *Input, pl [2]int) (*pageData, error) {
 				if k < len(e.Terms) {
 					tm := e.Terms[k]
 					t.HasInterval = true
-					t.IntLo, t.IntHi, t.Inclusion, t.Weak = mk(tm.Interval[0]), mk(tm.Interval[1]), mk(tm.Inclusion), tm.Weak
-					t.InclusionPercentage = fmt.Sprintf("%.0f%%", 100*tm.Inclusion)
+					t.IntLo, t.IntHi, t.KeptShare, t.Rarely = mk(tm.Interval[0]), mk(tm.Interval[1]), mk(tm.KeptShare), tm.RarelyKept
+					t.KeptSharePercentage = fmt.Sprintf("%.0f%%", 100*tm.KeptShare)
 				}
 				row.Terms = append(row.Terms, t)
 			}

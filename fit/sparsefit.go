@@ -225,7 +225,8 @@ func (pr *problem) condition(s *groupSums) float64 {
 	return hi / lo
 }
 
-// solver runs STLSQ on one normalised problem; it holds scratch space.
+// solver runs sequentially thresholded least squares on one normalised
+// problem; it holds scratch space.
 type solver struct {
 	p   int
 	a   []float64
@@ -238,7 +239,7 @@ func newSolver(p int) *solver {
 	return &solver{p: p, a: make([]float64, p*p), r: make([]float64, p), idx: make([]int, p), act: make([]bool, p)}
 }
 
-// maxSweeps bounds the STLSQ threshold-and-refit sweeps; supports settle in
+// maxSweeps bounds the threshold-and-refit sweeps; supports settle in
 // a handful (Brunton, Proctor & Kutz use 10).
 const maxSweeps = 20
 
@@ -247,12 +248,12 @@ const maxSweeps = 20
 // defined, far below the noise in any real log.
 const refitJitter = 1e-12
 
-// stlsq fits one equation: sequentially thresholded ridge regression on
-// the normalised normal equations (gh p×p, b a column of p), threshold tau
-// on the normalised coefficients, ridge lam; then refits by least squares
-// on the final support. It stores the coefficients in dst (zero outside
+// thresholdRefit fits one equation: sequentially thresholded ridge
+// regression on the normalised normal equations (gh p×p, b a column of
+// p), threshold tau on the normalised coefficients, ridge lam; then
+// refits by least squares on the final support. It stores the coefficients in dst (zero outside
 // the support) and returns the support size.
-func (s *solver) stlsq(dst, gh, b []float64, tau, lam float64) int {
+func (s *solver) thresholdRefit(dst, gh, b []float64, tau, lam float64) int {
 	p := s.p
 	for k := 0; k < p; k++ {
 		s.act[k] = gh[k*p+k] > 0
@@ -363,7 +364,7 @@ type candidate struct {
 	terms    int       // support size of the fit on all data
 }
 
-// fitAll runs STLSQ for every equation of the normalised sums s and
+// fitAll runs the thresholded refit for every equation of the normalised sums s and
 // stores the normalised coefficients in xi (n×p). It returns the total
 // support size.
 func (pr *problem) fitAll(xi [][]float64, sv *solver, gh, bh, col []float64, s *groupSums, tau, lam float64) int {
@@ -374,7 +375,7 @@ func (pr *problem) fitAll(xi [][]float64, sv *solver, gh, bh, col []float64, s *
 		for k := 0; k < p; k++ {
 			col[k] = bh[k*n+i]
 		}
-		terms += sv.stlsq(xi[i], gh, col, tau, lam)
+		terms += sv.thresholdRefit(xi[i], gh, col, tau, lam)
 	}
 	return terms
 }
