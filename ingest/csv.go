@@ -30,14 +30,6 @@ const MaxLineLength = 16 << 20
 // MaxColumns is the most columns a CSV header or Parquet schema may have.
 const MaxColumns = 4096
 
-// Column roles in a CSV header.
-const (
-	roleSkip int8 = iota
-	roleTime
-	roleRun
-	roleState
-)
-
 // csvLayout is what the header and first data row decided.
 type csvLayout struct {
 	file     string
@@ -95,6 +87,15 @@ type chunk struct {
 // Errors are *ParseError values naming the line and column; read errors
 // from r are returned as they are.
 func ReadCSV(r io.Reader, name string, opts *Options) (*Dataset, error) {
+	ds, err := readCSV(r, name, opts)
+	if err != nil {
+		return nil, err
+	}
+	return ds, finish(ds, opts)
+}
+
+// readCSV is ReadCSV without the data-set-wide checks of [finish].
+func readCSV(r io.Reader, name string, opts *Options) (*Dataset, error) {
 	tb, err := readCSVTable(r, name, opts)
 	if err != nil {
 		return nil, err
@@ -276,130 +277,13 @@ func newLayout(name string, header []byte, line int, opts *Options) (*csvLayout,
 	lay.role, lay.stateOf = tr.role, tr.stateOf
 	lay.nstate = len(tr.states)
 	tb.states, tb.stateCol, tb.timeCol, tb.timeIdx, tb.rate = tr.states, tr.stateCol, tr.timeCol, tr.timeIdx, tr.rate
+	tb.nInput = tr.nInput
 	tb.ignored = tr.ignored
 	tb.x = make([][]float64, lay.nstate)
 	if opts.RunCol != "" {
 		tb.keys = []keySpan{}
 	}
 	return lay, tb, nil
-}
-
-// roles is the column assignment shared by the CSV and Parquet readers.
-type roles struct {
-	role     []int8
-	stateOf  []int
-	states   []Column
-	stateCol []int
-	timeCol  Column
-	timeIdx  int
-	rate     float64
-	ignored  []Column
-	explicit bool // states named by Options.States
-}
-
-func findCol(cols []Column, name string) int {
-	for j, c := range cols {
-		if c.Name == name {
-			return j
-		}
-	}
-	for j, c := range cols {
-		if strings.EqualFold(c.Name, name) {
-			return j
-		}
-	}
-	return -1
-}
-
-// assignRoles picks the time, run and state columns per the contract.
-func assignRoles(file string, cols []Column, opts *Options) (*roles, error) {
-	r := &roles{role: make([]int8, len(cols)), stateOf: make([]int, len(cols))}
-	ti := -1
-	if opts.TimeCol != "" {
-		ti = findCol(cols, opts.TimeCol)
-		if ti < 0 {
-			return nil, &ParseError{File: file, Err: fmt.Errorf("%w: --time-col %q is not a column", ErrNoTime, opts.TimeCol)}
-		}
-	} else {
-		for j, c := range cols {
-			switch strings.ToLower(c.Name) {
-			case "t", "time", "timestamp", "time_s":
-				ti = j
-			}
-			if ti >= 0 {
-				break
-			}
-		}
-	}
-	if ti < 0 && opts.Rate <= 0 {
-		return nil, &ParseError{File: file, Err: ErrNoTime}
-	}
-	if ti >= 0 {
-		r.role[ti] = roleTime
-		r.timeCol, r.timeIdx = cols[ti], ti+1
-	} else {
-		r.rate = opts.Rate
-		r.timeCol = Column{Name: "t", Unit: "s"}
-	}
-	if opts.RunCol != "" {
-		ri := findCol(cols, opts.RunCol)
-		if ri < 0 {
-			return nil, &ParseError{File: file, Err: fmt.Errorf("%w: --run-col %q is not a column", ErrFormat, opts.RunCol)}
-		}
-		if ri == ti {
-			return nil, &ParseError{File: file, Err: fmt.Errorf("%w: --run-col %q is the time column", ErrFormat, opts.RunCol)}
-		}
-		r.role[ri] = roleRun
-	}
-	if opts.States != nil {
-		r.explicit = true
-		for _, s := range opts.States {
-			j := findCol(cols, s)
-			if j < 0 {
-				return nil, &ParseError{File: file, Err: fmt.Errorf("%w: --states names %q, which is not a column", ErrNoStates, s)}
-			}
-			if r.role[j] != roleSkip {
-				return nil, &ParseError{File: file, Err: fmt.Errorf("%w: --states names %q, the time or run column", ErrNoStates, s)}
-			}
-			r.role[j] = roleState
-			r.stateOf[j] = len(r.states)
-			r.states = append(r.states, cols[j])
-			r.stateCol = append(r.stateCol, j+1)
-		}
-		for j, c := range cols {
-			if r.role[j] == roleSkip && c.Name != "" {
-				r.ignored = append(r.ignored, c)
-			}
-		}
-		return r, nil
-	}
-	for j, c := range cols {
-		if r.role[j] != roleSkip || c.Name == "" {
-			continue
-		}
-		r.role[j] = roleState
-		r.stateOf[j] = len(r.states)
-		r.states = append(r.states, c)
-		r.stateCol = append(r.stateCol, j+1)
-	}
-	if len(r.states) == 0 {
-		return nil, &ParseError{File: file, Err: ErrNoStates}
-	}
-	return r, nil
-}
-
-// dropState turns state column j into an ignored one (a text column).
-func (r *roles) dropState(j int) {
-	k := r.stateOf[j]
-	r.ignored = append(r.ignored, r.states[k])
-	r.states = append(r.states[:k:k], r.states[k+1:]...)
-	r.stateCol = append(r.stateCol[:k:k], r.stateCol[k+1:]...)
-	r.role[j] = roleSkip
-	for i := range r.role {
-		if r.role[i] == roleState && r.stateOf[i] > k {
-			r.stateOf[i]--
-		}
-	}
 }
 
 // splitUnit splits "name [unit]" or "name (unit)".
@@ -520,7 +404,7 @@ func (lay *csvLayout) sniff(tb *table, rest []byte, line int, opts *Options) err
 	if cells == nil {
 		return nil
 	}
-	r := &roles{role: lay.role, stateOf: lay.stateOf, states: tb.states, stateCol: tb.stateCol, ignored: tb.ignored}
+	r := &roles{role: lay.role, stateOf: lay.stateOf, states: tb.states, stateCol: tb.stateCol, ignored: tb.ignored, nInput: tb.nInput}
 	firstText, textCell := -1, []byte(nil)
 	for j, c := range cells {
 		c = trimBlank(c, lay.delim)
@@ -537,7 +421,7 @@ func (lay *csvLayout) sniff(tb *table, rest []byte, line int, opts *Options) err
 				tb.dateTime = true
 			}
 		case roleState:
-			if opts.States != nil || len(c) == 0 {
+			if (opts.States != nil && !r.isInput(j)) || len(c) == 0 {
 				continue
 			}
 			if _, ok := parseFloat(c); !ok {
@@ -547,6 +431,10 @@ func (lay *csvLayout) sniff(tb *table, rest []byte, line int, opts *Options) err
 							Err: fmt.Errorf("%w: %q has a decimal comma; write decimals with a point", ErrNotNumber, c)}
 					}
 				}
+				if r.isInput(j) { // named, so it must be numeric
+					p := &csvParser{lay: lay, tb: tb}
+					return p.cellError(line, j, c)
+				}
 				if firstText < 0 {
 					firstText, textCell = j, c
 				}
@@ -555,7 +443,7 @@ func (lay *csvLayout) sniff(tb *table, rest []byte, line int, opts *Options) err
 		}
 	}
 	tb.states, tb.stateCol, tb.ignored = r.states, r.stateCol, r.ignored
-	if len(tb.states) == 0 {
+	if len(tb.states) == tb.nInput {
 		if firstText >= 0 { // every state column is text: most likely a bad cell
 			p := &csvParser{lay: lay, tb: tb}
 			return p.cellError(line, firstText, textCell)

@@ -24,6 +24,19 @@ func checkDataset(t *testing.T, ds *Dataset) {
 		if len(r.X) != len(ds.States) {
 			t.Fatalf("run %s has %d states, dataset %d", r.Name, len(r.X), len(ds.States))
 		}
+		if len(r.U) != len(ds.Inputs) {
+			t.Fatalf("run %s has %d inputs, dataset %d", r.Name, len(r.U), len(ds.Inputs))
+		}
+		for k, u := range r.U {
+			if len(u) != len(r.T) {
+				t.Fatalf("run %s: input %d has %d samples, time %d", r.Name, k, len(u), len(r.T))
+			}
+			for i, v := range u {
+				if math.IsNaN(v) || math.IsInf(v, 0) {
+					t.Fatalf("run %s: bad U[%d] at %d", r.Name, k, i)
+				}
+			}
+		}
 		for i := range r.T {
 			if math.IsNaN(r.T[i]) || math.IsInf(r.T[i], 0) || (i > 0 && r.T[i] <= r.T[i-1]) {
 				t.Fatalf("run %s: bad time %v at %d", r.Name, r.T[i], i)

@@ -60,6 +60,10 @@ type Run struct {
 	// X[j][i] is state j at sample i; len(X) == len(Dataset.States) and
 	// len(X[j]) == len(T). Every value is finite.
 	X [][]float64
+	// U[k][i] is input k (see [Options.Inputs]) at sample i; len(U) ==
+	// len(Dataset.Inputs) and len(U[k]) == len(T). Every value is finite.
+	// Nil when there are no inputs.
+	U [][]float64
 }
 
 // Len returns the number of samples in r.
@@ -68,6 +72,10 @@ func (r *Run) Len() int { return len(r.T) }
 // Dataset is a set of runs sharing the same state columns.
 type Dataset struct {
 	States []Column
+	// Inputs are the measured columns that are not states (a drive, a
+	// setpoint), in the order of [Options.Inputs]; Run.U holds their
+	// samples. Empty without inputs.
+	Inputs []Column
 	Time   Column
 	Runs   []Run
 	// Gaps counts the splits made at gaps, over all runs.
@@ -122,8 +130,12 @@ type Options struct {
 	// format"). Empty means one run per file.
 	RunCol string
 	// States lists the state columns to keep, in order. Nil means every
-	// numeric column other than time and run.
+	// numeric column other than time, run and the inputs.
 	States []string
+	// Inputs lists measured columns that are not states (a drive, a
+	// setpoint), in order; their samples go to Run.U. A missing cell in
+	// an input is a missing sample, as in a state. Nil means none.
+	Inputs []string
 	// Manifest is a CSV file with columns path,run,split. Empty means none.
 	Manifest string
 	// Stdin is read for the input "-". Nil means os.Stdin.
@@ -143,6 +155,10 @@ var (
 	ErrAllMissing = errors.New("every cell is missing")
 	ErrNoFiles    = errors.New("no .csv, .tsv, .txt or .parquet files")
 	ErrManifest   = errors.New("bad manifest entry")
+	// ErrInputColumn: an input column that is not a usable column.
+	ErrInputColumn = errors.New("bad input column")
+	// ErrStateAndInput: a column named both as a state and as an input.
+	ErrStateAndInput = errors.New("named both as a state and as an input")
 )
 
 // A ParseError reports an unusable cell or file. Line and Column are

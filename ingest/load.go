@@ -7,6 +7,7 @@ import (
 	"os"
 	"path/filepath"
 	"runtime"
+	"slices"
 	"strings"
 	"sync"
 )
@@ -66,6 +67,15 @@ func Expand(paths []string) ([]string, error) {
 // CSV otherwise; "-" reads CSV from opts.Stdin (os.Stdin when nil). The
 // manifest is not applied (see [Load]).
 func ReadFile(ctx context.Context, path string, opts *Options) (*Dataset, error) {
+	ds, err := readFile(ctx, path, opts)
+	if err != nil {
+		return nil, err
+	}
+	return ds, finish(ds, opts)
+}
+
+// readFile is ReadFile without the data-set-wide checks of [finish].
+func readFile(ctx context.Context, path string, opts *Options) (*Dataset, error) {
 	if err := ctx.Err(); err != nil {
 		return nil, err
 	}
@@ -77,17 +87,17 @@ func ReadFile(ctx context.Context, path string, opts *Options) (*Dataset, error)
 		if in == nil {
 			in = os.Stdin
 		}
-		return ReadCSV(in, "-", opts)
+		return readCSV(in, "-", opts)
 	}
 	if strings.EqualFold(filepath.Ext(path), ".parquet") {
-		return ReadParquet(ctx, path, opts)
+		return readParquet(ctx, path, opts)
 	}
 	f, err := os.Open(path)
 	if err != nil {
 		return nil, err
 	}
 	defer f.Close()
-	return ReadCSV(f, path, opts)
+	return readCSV(f, path, opts)
 }
 
 // Load reads every input (see [Expand]), several files at a time, and
@@ -144,7 +154,7 @@ func Load(ctx context.Context, paths []string, opts *Options) (*Dataset, error) 
 		go func() {
 			defer wg.Done()
 			defer func() { <-sem }()
-			dss[i], errs[i] = ReadFile(ctx, f, opts)
+			dss[i], errs[i] = readFile(ctx, f, opts)
 			if errs[i] != nil {
 				cancel()
 			}
@@ -179,7 +189,7 @@ func Load(ctx context.Context, paths []string, opts *Options) (*Dataset, error) 
 	if man != nil {
 		applyManifest(out, man)
 	}
-	return out, nil
+	return out, finish(out, opts)
 }
 
 func hasColumn(cs []Column, name string) bool {
@@ -207,6 +217,10 @@ func sameColumns(a, b *Dataset, fa, fb string) error {
 	if !same {
 		return &ParseError{File: fb, Err: fmt.Errorf("%w: %s has %s, %s has %s", ErrColumns,
 			fb, colList(b.States), fa, colList(a.States))}
+	}
+	if !slices.Equal(a.Inputs, b.Inputs) {
+		return &ParseError{File: fb, Err: fmt.Errorf("%w: %s has inputs %s, %s has %s", ErrColumns,
+			fb, colList(b.Inputs), fa, colList(a.Inputs))}
 	}
 	if a.Time.Unit != b.Time.Unit && a.Time.Unit != "" && b.Time.Unit != "" {
 		return &ParseError{File: fb, Name: b.Time.Name, Err: fmt.Errorf("%w: time unit %q, %s has %q", ErrColumns, b.Time.Unit, fa, a.Time.Unit)}

@@ -48,7 +48,16 @@ var parquetBudget = 10 * time.Second
 // Errors: *fs.PathError for I/O; a *ParseError wrapping [ErrFormat] for a
 // file that is not Parquet, is truncated or claims more rows than it can
 // hold; for a bad column, Column is its 1-based index.
-func ReadParquet(ctx context.Context, path string, opts *Options) (ds *Dataset, err error) {
+func ReadParquet(ctx context.Context, path string, opts *Options) (*Dataset, error) {
+	ds, err := readParquet(ctx, path, opts)
+	if err != nil {
+		return nil, err
+	}
+	return ds, finish(ds, opts)
+}
+
+// readParquet is ReadParquet without the data-set-wide checks of [finish].
+func readParquet(ctx context.Context, path string, opts *Options) (ds *Dataset, err error) {
 	if opts == nil {
 		opts = &Options{}
 	}
@@ -207,17 +216,17 @@ func readParquetTable(ctx context.Context, path string, opts *Options) (tb *tabl
 	// text columns are not states unless named by --states
 	for j, fd := range fields {
 		if r.role[j] == roleState && !numericType(fd.Type.ID()) {
-			if r.explicit {
+			if r.explicit || r.isInput(j) {
 				return nil, &ParseError{File: path, Column: j + 1, Name: cols[j].Name,
 					Err: fmt.Errorf("%w: column type %s", ErrNotNumber, fd.Type)}
 			}
 			r.dropState(j)
 		}
 	}
-	if len(r.states) == 0 {
+	if len(r.states) == r.nInput {
 		return nil, &ParseError{File: path, Err: ErrNoStates}
 	}
-	tb = &table{file: path, states: r.states, stateCol: r.stateCol, timeCol: r.timeCol, timeIdx: r.timeIdx,
+	tb = &table{file: path, states: r.states, stateCol: r.stateCol, nInput: r.nInput, timeCol: r.timeCol, timeIdx: r.timeIdx,
 		rate: r.rate, ignored: r.ignored, rows: int(nrows), marks: []lineMark{{0, 1}}}
 	tb.x = make([][]float64, len(r.states))
 	if kinds, ok := directKinds(pr, fields, r); ok && !parquetViaArrow {

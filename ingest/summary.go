@@ -24,6 +24,7 @@ const (
 type Summary struct {
 	Runs   []RunSummary
 	States []ColumnSummary // one per Dataset.States
+	Inputs []ColumnSummary // one per Dataset.Inputs, ranges over every run
 	Total  RunSummary      // over every run; Total.Name is empty
 	// SettledRuns counts runs that settled; Settle holds, per state, the
 	// median over settled runs of their settle points (nil if none did).
@@ -119,6 +120,19 @@ func Summarise(ds *Dataset) *Summary {
 	}
 	for j, c := range ds.States {
 		s.States = append(s.States, ColumnSummary{Column: c, Min: s.Total.Min[j], Max: s.Total.Max[j]})
+	}
+	for k, c := range ds.Inputs {
+		cs := ColumnSummary{Column: c, Min: math.Inf(1), Max: math.Inf(-1)}
+		for i := range ds.Runs {
+			if u := ds.Runs[i].U[k]; len(u) > 0 {
+				lo, hi := minMax(u)
+				cs.Min, cs.Max = min(cs.Min, lo), max(cs.Max, hi)
+			}
+		}
+		if cs.Min > cs.Max { // no samples
+			cs.Min, cs.Max = 0, 0
+		}
+		s.Inputs = append(s.Inputs, cs)
 	}
 	s.Files = len(files)
 	return s

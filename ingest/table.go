@@ -27,8 +27,9 @@ type lineMark struct{ row, line int }
 // NaN (or noTime) for missing cells.
 type table struct {
 	file     string
-	states   []Column
-	stateCol []int // 1-based source column of each state, for errors
+	states   []Column // the states, then nInput inputs
+	stateCol []int    // 1-based source column of each state or input, for errors
+	nInput   int
 	timeCol  Column
 	timeIdx  int     // 1-based source column of time; 0 if none
 	rate     float64 // > 0 when there is no time column
@@ -98,7 +99,11 @@ func (tb *table) dataset() (*Dataset, error) {
 			return nil, &ParseError{File: tb.file, Column: tb.stateCol[j], Name: tb.states[j].Name, Err: ErrAllMissing}
 		}
 	}
-	ds := &Dataset{States: tb.states, Time: tb.timeCol}
+	ns := len(tb.states) - tb.nInput
+	ds := &Dataset{States: tb.states[:ns:ns], Time: tb.timeCol}
+	if tb.nInput > 0 {
+		ds.Inputs = tb.states[ns:]
+	}
 	if !tb.dateTime && tb.rate <= 0 && tb.timeCol.Unit != "" {
 		tb.convertTime(ds)
 	}
@@ -281,18 +286,23 @@ func (tb *table) splitGroup(ds *Dataset, g group) error {
 		if n > 0 {
 			r.Name = fmt.Sprintf("%s~%d", g.name, n)
 		}
-		r.X = make([][]float64, len(tb.x))
+		cols := make([][]float64, len(tb.x))
 		if len(p) == 1 { // contiguous rows: share the table's storage
 			a, b := p[0][0], p[0][1]
 			r.T = tb.t[a:b:b]
 			for j, c := range tb.x {
-				r.X[j] = c[a:b:b]
+				cols[j] = c[a:b:b]
 			}
 		} else {
 			r.T = gather(tb.t, p)
 			for j, c := range tb.x {
-				r.X[j] = gather(c, p)
+				cols[j] = gather(c, p)
 			}
+		}
+		ns := len(tb.x) - tb.nInput
+		r.X = cols[:ns:ns]
+		if tb.nInput > 0 {
+			r.U = cols[ns:]
 		}
 		ds.Runs = append(ds.Runs, r)
 	}

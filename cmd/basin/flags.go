@@ -21,6 +21,7 @@ type commonFlags struct {
 	Rate     float64
 	RunCol   string
 	States   string
+	Inputs   string
 	Manifest string
 }
 
@@ -29,7 +30,8 @@ func (c *commonFlags) addInputFlags(fs *flag.FlagSet) {
 	fs.StringVar(&c.TimeCol, "time-col", "", "the time column is `NAME`")
 	fs.Float64Var(&c.Rate, "rate", 0, "rows are evenly sampled at `HZ` (no time column)")
 	fs.StringVar(&c.RunCol, "run-col", "", "split files into runs by column `NAME`")
-	fs.StringVar(&c.States, "states", "", "state columns `a,b,c` (default: every numeric column)")
+	fs.StringVar(&c.States, "states", "", "state columns `a,b,c` (default: every numeric column but time, run and inputs)")
+	fs.StringVar(&c.Inputs, "inputs", "", "measured columns `a,b` that are not states (a drive, a setpoint)")
 	fs.StringVar(&c.Manifest, "manifest", "", "run manifest `FILE.csv` (path,run,split)")
 	fs.BoolVar(&c.Quiet, "quiet", false, "no progress or warnings")
 	fs.BoolVar(&c.JSON, "json", false, "print JSON on stdout instead of a table")
@@ -57,6 +59,15 @@ func (c *commonFlags) ingestOptions() (*ingest.Options, error) {
 				return nil, usagef("--states: empty name in %q", c.States)
 			}
 			o.States = append(o.States, s)
+		}
+	}
+	if c.Inputs != "" {
+		for _, s := range strings.Split(c.Inputs, ",") {
+			s = strings.TrimSpace(s)
+			if s == "" {
+				return nil, usagef("--inputs: empty name in %q", c.Inputs)
+			}
+			o.Inputs = append(o.Inputs, s)
 		}
 	}
 	return o, nil

@@ -73,6 +73,7 @@ func isIngestSentinel(err error) bool {
 type inspectJSON struct {
 	Runs    []inspectRun   `json:"runs"`
 	States  []inspectState `json:"states"`
+	Inputs  []inspectState `json:"inputs"`
 	Time    ingest.Column  `json:"time"`
 	Ignored []string       `json:"ignored,omitempty"`
 	Summary inspectSummary `json:"summary"`
@@ -132,7 +133,7 @@ func runInspect(ctx context.Context, e *env, o any, args []string) error {
 }
 
 func inspectDoc(ds *ingest.Dataset, s *ingest.Summary) *inspectJSON {
-	doc := &inspectJSON{Time: ds.Time, Runs: []inspectRun{}, States: []inspectState{}}
+	doc := &inspectJSON{Time: ds.Time, Runs: []inspectRun{}, States: []inspectState{}, Inputs: []inspectState{}}
 	for _, r := range s.Runs {
 		ir := inspectRun{File: r.File, Run: r.Name, Line: r.Line, Samples: r.Samples, Start: r.Start,
 			Duration: r.Duration, RateHz: r.RateHz, Jitter: r.Jitter, Gaps: r.Gaps, Split: r.Split,
@@ -149,6 +150,9 @@ func inspectDoc(ds *ingest.Dataset, s *ingest.Summary) *inspectJSON {
 			is.Settle = &v
 		}
 		doc.States = append(doc.States, is)
+	}
+	for _, in := range s.Inputs {
+		doc.Inputs = append(doc.Inputs, inspectState{Name: in.Name, Unit: in.Unit, Min: in.Min, Max: in.Max})
 	}
 	for _, c := range ds.Ignored {
 		doc.Ignored = append(doc.Ignored, c.Name)
@@ -200,6 +204,13 @@ func inspectTable(w io.Writer, ds *ingest.Dataset, s *ingest.Summary) error {
 			unit = "-"
 		}
 		fmt.Fprintf(tw, "%s\t%s\t%s\t%s\t%s\n", st.Name, unit, g(st.Min), g(st.Max), at)
+	}
+	for _, in := range s.Inputs {
+		unit := in.Unit
+		if unit == "" {
+			unit = "-"
+		}
+		fmt.Fprintf(tw, "%s (input)\t%s\t%s\t%s\t-\n", in.Name, unit, g(in.Min), g(in.Max))
 	}
 	if err := tw.Flush(); err != nil {
 		return err

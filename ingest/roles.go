@@ -1,0 +1,227 @@
+package ingest
+
+import (
+	"fmt"
+	"strings"
+)
+
+// Column roles in a header. An input column (see [Options.Inputs]) has
+// role roleState while it is read: the readers fill one table column per
+// state or input, states first, and [table.dataset] separates them.
+const (
+	roleSkip int8 = iota
+	roleTime
+	roleRun
+	roleState
+)
+
+// roles is the column assignment shared by the CSV and Parquet readers.
+// states holds the state columns followed by the nInput input columns;
+// stateOf maps a header column of role roleState to its index there.
+type roles struct {
+	role     []int8
+	stateOf  []int
+	states   []Column
+	stateCol []int
+	nInput   int
+	timeCol  Column
+	timeIdx  int
+	rate     float64
+	ignored  []Column
+	explicit bool // states named by Options.States
+}
+
+// isInput reports whether header column j is an input column.
+func (r *roles) isInput(j int) bool {
+	return r.role[j] == roleState && r.stateOf[j] >= len(r.states)-r.nInput
+}
+
+func findCol(cols []Column, name string) int {
+	for j, c := range cols {
+		if c.Name == name {
+			return j
+		}
+	}
+	for j, c := range cols {
+		if strings.EqualFold(c.Name, name) {
+			return j
+		}
+	}
+	return -1
+}
+
+// assignRoles picks the time, run, state and input columns per the
+// contract: time by name (or none with a rate), the run column, the
+// inputs, then the states named, or else every other column.
+func assignRoles(file string, cols []Column, opts *Options) (*roles, error) {
+	r := &roles{role: make([]int8, len(cols)), stateOf: make([]int, len(cols))}
+	ti := -1
+	if opts.TimeCol != "" {
+		ti = findCol(cols, opts.TimeCol)
+		if ti < 0 {
+			return nil, &ParseError{File: file, Err: fmt.Errorf("%w: --time-col %q is not a column", ErrNoTime, opts.TimeCol)}
+		}
+	} else {
+		for j, c := range cols {
+			switch strings.ToLower(c.Name) {
+			case "t", "time", "timestamp", "time_s":
+				ti = j
+			}
+			if ti >= 0 {
+				break
+			}
+		}
+	}
+	if ti < 0 && opts.Rate <= 0 {
+		return nil, &ParseError{File: file, Err: ErrNoTime}
+	}
+	if ti >= 0 {
+		r.role[ti] = roleTime
+		r.timeCol, r.timeIdx = cols[ti], ti+1
+	} else {
+		r.rate = opts.Rate
+		r.timeCol = Column{Name: "t", Unit: "s"}
+	}
+	ri := -1
+	if opts.RunCol != "" {
+		ri = findCol(cols, opts.RunCol)
+		if ri < 0 {
+			return nil, &ParseError{File: file, Err: fmt.Errorf("%w: --run-col %q is not a column", ErrFormat, opts.RunCol)}
+		}
+		if ri == ti {
+			return nil, &ParseError{File: file, Err: fmt.Errorf("%w: --run-col %q is the time column", ErrFormat, opts.RunCol)}
+		}
+		r.role[ri] = roleRun
+	}
+	// Inputs are resolved first, so that the default states leave them
+	// out; they are appended after the states below.
+	inputAt := make([]int, 0, len(opts.Inputs))
+	isIn := map[int]bool{}
+	for _, s := range opts.Inputs {
+		j := findCol(cols, s)
+		switch {
+		case j < 0:
+			return nil, &ParseError{File: file, Name: s, Err: fmt.Errorf("%w: no column has this name", ErrInputColumn)}
+		case j == ti:
+			return nil, &ParseError{File: file, Column: j + 1, Name: cols[j].Name, Err: fmt.Errorf("%w: it is the time column", ErrInputColumn)}
+		case j == ri:
+			return nil, &ParseError{File: file, Column: j + 1, Name: cols[j].Name, Err: fmt.Errorf("%w: it is the run column", ErrInputColumn)}
+		case isIn[j]:
+			return nil, &ParseError{File: file, Column: j + 1, Name: cols[j].Name, Err: fmt.Errorf("%w: named twice", ErrInputColumn)}
+		}
+		isIn[j] = true
+		inputAt = append(inputAt, j)
+	}
+	if opts.States != nil {
+		r.explicit = true
+		for _, s := range opts.States {
+			j := findCol(cols, s)
+			if j < 0 {
+				return nil, &ParseError{File: file, Err: fmt.Errorf("%w: --states names %q, which is not a column", ErrNoStates, s)}
+			}
+			if isIn[j] {
+				return nil, &ParseError{File: file, Column: j + 1, Name: cols[j].Name, Err: ErrStateAndInput}
+			}
+			if r.role[j] != roleSkip {
+				return nil, &ParseError{File: file, Err: fmt.Errorf("%w: --states names %q, the time or run column", ErrNoStates, s)}
+			}
+			r.addState(j, cols[j])
+		}
+		r.addInputs(inputAt, cols)
+		for j, c := range cols {
+			if r.role[j] == roleSkip && c.Name != "" {
+				r.ignored = append(r.ignored, c)
+			}
+		}
+		return r, nil
+	}
+	for j, c := range cols {
+		if r.role[j] != roleSkip || c.Name == "" || isIn[j] {
+			continue
+		}
+		r.addState(j, c)
+	}
+	if len(r.states) == 0 {
+		return nil, &ParseError{File: file, Err: ErrNoStates}
+	}
+	r.addInputs(inputAt, cols)
+	return r, nil
+}
+
+func (r *roles) addState(j int, c Column) {
+	r.role[j] = roleState
+	r.stateOf[j] = len(r.states)
+	r.states = append(r.states, c)
+	r.stateCol = append(r.stateCol, j+1)
+}
+
+func (r *roles) addInputs(at []int, cols []Column) {
+	for _, j := range at {
+		r.addState(j, cols[j])
+	}
+	r.nInput = len(at)
+}
+
+// dropState turns state column j into an ignored one (a text column). It
+// must not be an input column.
+func (r *roles) dropState(j int) {
+	k := r.stateOf[j]
+	r.ignored = append(r.ignored, r.states[k])
+	r.states = append(r.states[:k:k], r.states[k+1:]...)
+	r.stateCol = append(r.stateCol[:k:k], r.stateCol[k+1:]...)
+	r.role[j] = roleSkip
+	for i := range r.role {
+		if r.role[i] == roleState && r.stateOf[i] > k {
+			r.stateOf[i]--
+		}
+	}
+}
+
+// ConstantInputs returns the indices into ds.Inputs of the input columns
+// that hold one value in every sample of every run: such an input cannot
+// be told apart from a constant term and adds nothing to a fit.
+func (ds *Dataset) ConstantInputs() []int {
+	var out []int
+	for k := range ds.Inputs {
+		if _, ok := ds.constantInput(k); ok {
+			out = append(out, k)
+		}
+	}
+	return out
+}
+
+// constantInput returns the value input k holds throughout, if it does.
+func (ds *Dataset) constantInput(k int) (float64, bool) {
+	first, seen := 0.0, false
+	for i := range ds.Runs {
+		for _, v := range ds.Runs[i].U[k] {
+			if !seen {
+				first, seen = v, true
+			} else if v != first {
+				return 0, false
+			}
+		}
+	}
+	return first, seen
+}
+
+// warnConstantInputs appends a warning to ds.Warnings for each input
+// column that [Dataset.ConstantInputs] finds.
+func warnConstantInputs(ds *Dataset) {
+	for _, k := range ds.ConstantInputs() {
+		v, _ := ds.constantInput(k)
+		c := ds.Inputs[k]
+		val := fmt.Sprintf("%g", v)
+		if c.Unit != "" {
+			val += " " + c.Unit
+		}
+		ds.Warnings = append(ds.Warnings, fmt.Sprintf("input %s is constant (%s in every sample): it adds nothing", c.Name, val))
+	}
+}
+
+// finish makes the checks that need the whole data set, once it is read
+// and joined: inputs that never change are a warning.
+func finish(ds *Dataset, opts *Options) error {
+	warnConstantInputs(ds)
+	return nil
+}
