@@ -2,6 +2,7 @@ package fit
 
 import (
 	"math"
+	"slices"
 	"sort"
 )
 
@@ -78,43 +79,55 @@ func FornbergTo(c [][]float64, x0 float64, nodes []float64) [][]float64 {
 
 // sgWork is scratch space for Savitzky–Golay weights of one degree.
 type sgWork struct {
-	q int       // polynomial degree
-	a []float64 // (q+1)^2 normal matrix, then its Cholesky factor
-	g []float64 // q+1
+	q   int       // polynomial degree
+	mom []float64 // 2q+1 power sums of the scaled offsets
+	a   []float64 // (q+1)^2 normal matrix, then its Cholesky factor
+	g   []float64 // q+1
+	g1  []float64 // q+1, a second right-hand side
 }
 
 func newSGWork(q int) *sgWork {
-	return &sgWork{q: q, a: make([]float64, (q+1)*(q+1)), g: make([]float64, q+1)}
+	return &sgWork{q: q, mom: make([]float64, 2*q+1), a: make([]float64, (q+1)*(q+1)),
+		g: make([]float64, q+1), g1: make([]float64, q+1)}
 }
 
-// weights stores in dst the weights w_j with sum_j w_j f(nodes[j]) equal
-// to the deriv-th derivative at x0 of the degree-q least-squares
-// polynomial through (nodes, f). It returns false when the nodes cannot
-// carry a polynomial of that degree.
-func (w *sgWork) weights(dst, nodes []float64, x0 float64, deriv int) bool {
+// factor forms the normal matrix of the degree-q Vandermonde in the scaled
+// offsets s = (t - x0)/h, h the largest |t - x0|, and factorises it by
+// Cholesky. It returns h, and false when the nodes cannot carry a
+// polynomial of degree q.
+func (w *sgWork) factor(nodes []float64, x0 float64) (float64, bool) {
 	q := w.q
 	r := q + 1
 	h := 0.0
 	for _, t := range nodes {
-		h = math.Max(h, math.Abs(t-x0))
+		d := t - x0
+		if d < 0 {
+			d = -d
+		}
+		if d > h {
+			h = d
+		}
 	}
-	if h == 0 || len(nodes) < r || deriv > q {
-		return false
+	if !(h > 0) || len(nodes) < r {
+		return h, false
+	}
+	// The normal matrix is a Hankel matrix of the power sums: a[u][v] is
+	// the sum of s^(u+v).
+	mom := w.mom
+	clear(mom)
+	inv := 1 / h
+	for _, t := range nodes {
+		s := (t - x0) * inv
+		p := 1.0
+		for i := range mom {
+			mom[i] += p
+			p *= s
+		}
 	}
 	a := w.a
-	for i := range a {
-		a[i] = 0
-	}
-	// Normal matrix of the Vandermonde in s = (t - x0)/h (well scaled).
-	for _, t := range nodes {
-		s := (t - x0) / h
-		p := 1.0
-		for i := 0; i < 2*q+1; i++ {
-			// a[u][v] with u+v == i: accumulate power s^i.
-			for u := max(0, i-q); u <= min(i, q); u++ {
-				a[u*r+(i-u)] += p
-			}
-			p *= s
+	for u := 0; u < r; u++ {
+		for v := 0; v < r; v++ {
+			a[u*r+v] = mom[u+v]
 		}
 	}
 	// Cholesky in place (lower).
@@ -124,7 +137,7 @@ func (w *sgWork) weights(dst, nodes []float64, x0 float64, deriv int) bool {
 			d -= a[j*r+k] * a[j*r+k]
 		}
 		if d <= 1e-13*float64(len(nodes)) {
-			return false
+			return h, false
 		}
 		d = math.Sqrt(d)
 		a[j*r+j] = d
@@ -136,14 +149,19 @@ func (w *sgWork) weights(dst, nodes []float64, x0 float64, deriv int) bool {
 			a[i*r+j] = s / d
 		}
 	}
-	g := w.g
-	for i := range g {
-		g[i] = 0
-	}
+	return h, true
+}
+
+// unit stores in g the solution of L L' g = e_deriv with the factor of
+// the last factor call.
+func (w *sgWork) unit(g []float64, deriv int) {
+	r := w.q + 1
+	a := w.a
+	clear(g)
 	g[deriv] = 1
-	for i := 0; i < r; i++ { // forward
+	for i := deriv; i < r; i++ { // forward; g[:deriv] stays 0
 		s := g[i]
-		for k := 0; k < i; k++ {
+		for k := deriv; k < i; k++ {
 			s -= a[i*r+k] * g[k]
 		}
 		g[i] = s / a[i*r+i]
@@ -155,19 +173,66 @@ func (w *sgWork) weights(dst, nodes []float64, x0 float64, deriv int) bool {
 		}
 		g[i] = s / a[i*r+i]
 	}
+}
+
+// weights stores in dst the weights w_j with sum_j w_j f(nodes[j]) equal
+// to the deriv-th derivative at x0 of the degree-q least-squares
+// polynomial through (nodes, f). It returns false when the nodes cannot
+// carry a polynomial of that degree.
+func (w *sgWork) weights(dst, nodes []float64, x0 float64, deriv int) bool {
+	if deriv > w.q {
+		return false
+	}
+	h, ok := w.factor(nodes, x0)
+	if !ok {
+		return false
+	}
+	g := w.g
+	w.unit(g, deriv)
 	fact := 1.0
 	for i := 2; i <= deriv; i++ {
 		fact *= float64(i)
 	}
 	scale := fact / math.Pow(h, float64(deriv))
+	inv := 1 / h
 	for j, t := range nodes {
-		s := (t - x0) / h
+		s := (t - x0) * inv
 		v, p := 0.0, 1.0
-		for i := 0; i < r; i++ {
-			v += g[i] * p
+		for _, gi := range g {
+			v += gi * p
 			p *= s
 		}
 		dst[j] = v * scale
+	}
+	return true
+}
+
+// pair stores in w0 and w1 the smoothing (value) and first-derivative
+// weights at x0 of the degree-q least-squares polynomial through the
+// nodes, from one factorisation: the same numbers as weights with deriv
+// 0 and 1. It returns false when the nodes cannot carry the polynomial.
+func (w *sgWork) pair(w0, w1, nodes []float64, x0 float64) bool {
+	if w.q < 1 {
+		return false
+	}
+	h, ok := w.factor(nodes, x0)
+	if !ok {
+		return false
+	}
+	g0, g1 := w.g, w.g1
+	w.unit(g0, 0)
+	w.unit(g1, 1)
+	inv := 1 / h
+	for j, t := range nodes {
+		s := (t - x0) * inv
+		v0, v1, p := 0.0, 0.0, 1.0
+		for i, a := range g0 {
+			v0 += a * p
+			v1 += g1[i] * p
+			p *= s
+		}
+		w0[j] = v0
+		w1[j] = v1 * inv
 	}
 	return true
 }
@@ -297,11 +362,12 @@ func uniformGrid(t []float64) (bool, float64) {
 
 // derivWork holds per-goroutine scratch for differentiating one run.
 type derivWork struct {
-	sg   *sgWork
-	c    [][]float64
-	wt   []float64
-	wt0  []float64
-	node []float64
+	sg    *sgWork
+	c     [][]float64
+	wt    []float64
+	wt0   []float64
+	node  []float64
+	group []int
 }
 
 func newDerivWork() *derivWork {
@@ -341,17 +407,38 @@ func (dw *derivWork) fornbergRun(dx, t, x []float64) {
 	}
 }
 
-// sgRun stores in xs the smoothed states and in dx the slopes of the cubic
-// least-squares fits over windows of 2m+1 samples (fewer near the ends:
-// the window slides but keeps its width).
-func (dw *derivWork) sgRun(xs, dx, t, x []float64, m int) {
+// sgRuns stores in xs[j] the smoothed states and in dx[j] the slopes of
+// the cubic least-squares fits over windows of 2·half[j]+1 samples of
+// x[j] (fewer near the ends: the window slides but keeps its width). The
+// weights depend only on the time stamps, so they are computed once per
+// sample and window width, value and slope from one factorisation, and
+// applied to every state with that width.
+func (dw *derivWork) sgRuns(xs, dx [][]float64, t []float64, x [][]float64, half []int) {
+	uni, _ := uniformGrid(t)
+	group := dw.group[:0]
+	for j, m := range half {
+		if slices.Contains(half[:j], m) {
+			continue // done with the first state of that width
+		}
+		group = group[:0]
+		for k := j; k < len(half); k++ {
+			if half[k] == m {
+				group = append(group, k)
+			}
+		}
+		dw.sgGroup(xs, dx, t, x, group, m, uni)
+	}
+	dw.group = group
+}
+
+// sgGroup is sgRuns for the states in group, all of half-width m.
+func (dw *derivWork) sgGroup(xs, dx [][]float64, t []float64, x [][]float64, group []int, m int, uni bool) {
 	n := len(t)
 	w := min(2*m+1, n)
 	if cap(dw.wt) < w {
 		dw.wt, dw.wt0, dw.node = make([]float64, w), make([]float64, w), make([]float64, w)
 	}
 	wt1, wt0, nodes := dw.wt[:w], dw.wt0[:w], dw.node[:w]
-	uni, _ := uniformGrid(t)
 	var c0, c1 []float64 // centred weights on a uniform grid
 	for i := 0; i < n; i++ {
 		a := stencil(i, n, w)
@@ -363,9 +450,10 @@ func (dw *derivWork) sgRun(xs, dx, t, x []float64, m int) {
 			for k := range nodes {
 				nodes[k] = t[a+k] - t[i]
 			}
-			ok := dw.sg.weights(wt0, nodes, 0, 0) && dw.sg.weights(wt1, nodes, 0, 1)
-			if !ok { // cannot happen for w >= 4 distinct times; keep the sample
-				xs[i], dx[i] = x[i], 0
+			if !dw.sg.pair(wt0, wt1, nodes, 0) { // cannot happen for w >= 4 distinct times; keep the sample
+				for _, j := range group {
+					xs[j][i], dx[j][i] = x[j][i], 0
+				}
 				continue
 			}
 			u0, u1 = wt0, wt1
@@ -373,12 +461,14 @@ func (dw *derivWork) sgRun(xs, dx, t, x []float64, m int) {
 				c0, c1 = append([]float64(nil), wt0...), append([]float64(nil), wt1...)
 			}
 		}
-		s0, s1 := 0.0, 0.0
-		for k := range u0 {
-			v := x[a+k]
-			s0 += u0[k] * v
-			s1 += u1[k] * v
+		for _, j := range group {
+			win := x[j][a : a+len(u0)]
+			s0, s1 := 0.0, 0.0
+			for k, v := range win {
+				s0 += u0[k] * v
+				s1 += u1[k] * v
+			}
+			xs[j][i], dx[j][i] = s0, s1
 		}
-		xs[i], dx[i] = s0, s1
 	}
 }

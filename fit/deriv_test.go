@@ -2,7 +2,12 @@ package fit
 
 import (
 	"math"
+	"math/rand/v2"
 	"testing"
+
+	"gonum.org/v1/gonum/floats"
+	"gonum.org/v1/gonum/floats/scalar"
+	"gonum.org/v1/gonum/mat"
 )
 
 func centred(m int) []float64 {
@@ -177,11 +182,90 @@ func TestDerivativeRuns(t *testing.T) {
 	}
 	dw.fornbergRun(dx, tm, x)
 	check("fornberg", dx)
-	dw.sgRun(xs, dx, tm, x, 6)
+	dw.sgRuns([][]float64{xs}, [][]float64{dx}, tm, [][]float64{x}, []int{6})
 	check("savitzky-golay", dx)
 	for i := range xs {
 		if math.Abs(xs[i]-x[i]) > 1e-10 {
 			t.Fatalf("smoothing changed a cubic at %d", i)
+		}
+	}
+}
+
+// TestSGPairTables checks the value and slope weights that sgRuns
+// computes together from one factorisation against the cubic tables of
+// Savitzky & Golay, "Smoothing and differentiation of data by simplified
+// least squares procedures", Anal. Chem. 36(8), 1964 (Tables I and III,
+// with the corrections of Steinier, Termonia & Deltour, 1972): exact
+// rationals, so 1e-12.
+func TestSGPairTables(t *testing.T) {
+	for _, tc := range []struct {
+		m      int
+		w0, w1 []float64
+	}{
+		{2, scaled([]float64{-3, 12, 17, 12, -3}, 35), scaled([]float64{1, -8, 0, 8, -1}, 12)},
+		{3, scaled([]float64{-2, 3, 6, 7, 6, 3, -2}, 21), scaled([]float64{22, -67, -58, 0, 58, 67, -22}, 252)},
+		{4, scaled([]float64{-21, 14, 39, 54, 59, 54, 39, 14, -21}, 231),
+			scaled([]float64{86, -142, -193, -126, 0, 126, 193, 142, -86}, 1188)},
+	} {
+		z := centred(tc.m)
+		w0, w1 := make([]float64, len(z)), make([]float64, len(z))
+		if !newSGWork(3).pair(w0, w1, z, 0) {
+			t.Fatalf("%d points: no weights", len(z))
+		}
+		if !floats.EqualApprox(w0, tc.w0, 1e-12) || !floats.EqualApprox(w1, tc.w1, 1e-12) {
+			t.Errorf("%d points: value weights %v, want %v; slope weights %v, want %v", len(z), w0, tc.w0, w1, tc.w1)
+		}
+	}
+}
+
+// TestSGRunsLeastSquares checks sgRuns on a jittered clock and three
+// states of two window widths against an independent least-squares fit:
+// at every sample, gonum's QR solve (mat.Dense.Solve) of the cubic
+// Vandermonde system in the offsets t - t_i over the same window gives
+// the value (constant term) and the slope (linear term). The windows are
+// well conditioned (condition of the scaled Vandermonde below 10), so the
+// two agree to 1e-9 relative to the data's size.
+func TestSGRunsLeastSquares(t *testing.T) {
+	rng := rand.New(rand.NewPCG(4, 0))
+	n := 300
+	tm := make([]float64, n)
+	for i := range tm {
+		tm[i] = 0.005*float64(i) + 20e-6*rng.NormFloat64() // 200 Hz, 20 µs jitter
+	}
+	half := []int{6, 3, 6}
+	x := make([][]float64, len(half))
+	xs := make([][]float64, len(half))
+	dx := make([][]float64, len(half))
+	for j := range x {
+		x[j], xs[j], dx[j] = make([]float64, n), make([]float64, n), make([]float64, n)
+		for i := range x[j] {
+			x[j][i] = math.Sin(float64(j+1)*tm[i]) + 0.01*rng.NormFloat64()
+		}
+	}
+	newDerivWork().sgRuns(xs, dx, tm, x, half)
+	for j, m := range half {
+		w := 2*m + 1
+		for i := 0; i < n; i++ {
+			a := stencil(i, n, w)
+			v := mat.NewDense(w, 4, nil)
+			y := mat.NewVecDense(w, nil)
+			for k := 0; k < w; k++ {
+				s := tm[a+k] - tm[i]
+				v.Set(k, 0, 1)
+				v.Set(k, 1, s)
+				v.Set(k, 2, s*s)
+				v.Set(k, 3, s*s*s)
+				y.SetVec(k, x[j][a+k])
+			}
+			var c mat.VecDense
+			if err := c.SolveVec(v, y); err != nil {
+				t.Fatal(err)
+			}
+			if !scalar.EqualWithinAbsOrRel(xs[j][i], c.AtVec(0), 1e-9, 1e-9) ||
+				!scalar.EqualWithinAbsOrRel(dx[j][i], c.AtVec(1), 1e-9*float64(j+1), 1e-9) {
+				t.Fatalf("state %d sample %d: value %.12g slope %.12g, least squares %.12g %.12g",
+					j, i, xs[j][i], dx[j][i], c.AtVec(0), c.AtVec(1))
+			}
 		}
 	}
 }

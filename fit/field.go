@@ -528,9 +528,7 @@ func accumulate(ctx context.Context, groups []*groupSums, groupOf func(r, i int)
 						dw.fornbergRun(dx[j], run.T, run.X[j])
 					}
 				case DerivSavitzkyGolay:
-					for j := 0; j < n; j++ {
-						dw.sgRun(xs[j], dx[j], run.T, run.X[j], half[j])
-					}
+					dw.sgRuns(xs, dx, run.T, run.X, half)
 					// Only samples with a full centred window: the slid
 					// windows at a run's ends extrapolate, and a run that
 					// starts with a kick puts its largest errors there (on
