@@ -153,8 +153,9 @@ func Certify(ctx context.Context, m *Model, ds *ingest.Dataset, opts *CertifyOpt
 			"lp_samples": o.LPSamples, "fill": o.Fill, "kappa": o.Kappa},
 	}
 	cert.Region.Limit = LimitNone
-	noFind := func(reason string) (*Certificate, error) {
+	noFind := func(kind ReasonKind, reason string) (*Certificate, error) {
 		cert.Found = false
+		cert.ReasonKind = kind
 		cert.Reason = reason
 		return cert, nil
 	}
@@ -172,7 +173,7 @@ func Certify(ctx context.Context, m *Model, ds *ingest.Dataset, opts *CertifyOpt
 	}
 	var eig mat.Eigen
 	if !eig.Factorize(mat.NewDense(n, n, append([]float64(nil), az...)), mat.EigenNone) {
-		return noFind("the Jacobian's eigenvalues could not be computed, so no V was fitted")
+		return noFind(ReasonEigenvalues, "the Jacobian's eigenvalues could not be computed, so no V was fitted")
 	}
 	maxRe := math.Inf(-1)
 	for _, v := range eig.Values(nil) {
@@ -181,7 +182,7 @@ func Certify(ctx context.Context, m *Model, ds *ingest.Dataset, opts *CertifyOpt
 	if maxRe > unstableTol*(1+anorm) {
 		cert.Contradicted = true
 		cert.Contradiction = fmt.Sprintf("the fitted linearisation at the equilibrium is unstable (an eigenvalue has real part %+.3g 1/s)", maxRe)
-		return noFind("No V was fitted: " + cert.Contradiction + ".")
+		return noFind(ReasonUnstableLinearisation, "No V was fitted: "+cert.Contradiction+".")
 	}
 	// Non-hyperbolic but not unstable (an eigenvalue on the imaginary
 	// axis, as for a lossless oscillator): V can at best be shown not to
@@ -201,11 +202,11 @@ func Certify(ctx context.Context, m *Model, ds *ingest.Dataset, opts *CertifyOpt
 	cert.NoiseRadius = ck.r0
 	fam := ck.fam
 	if nMin := 3 * fam.Len(); ds.Samples() < nMin {
-		return noFind(fmt.Sprintf("No V was fitted: V of degree %d has %d coefficients, and %d samples are too few for it (at least %d needed); try a lower --v-degree.",
+		return noFind(ReasonTooFewSamples, fmt.Sprintf("No V was fitted: V of degree %d has %d coefficients, and %d samples are too few for it (at least %d needed); try a lower --v-degree.",
 			o.Degree, fam.Len(), ds.Samples(), nMin))
 	}
 	if !ck.env.inside(make([]float64, n)) {
-		return noFind("No V was fitted: the equilibrium lies outside the envelope the data cover.")
+		return noFind(ReasonOutsideData, "No V was fitted: the equilibrium lies outside the envelope the data cover.")
 	}
 
 	// Start: the Lyapunov equation, Q = I (of A - delta·I on the
@@ -219,7 +220,7 @@ func Certify(ctx context.Context, m *Model, ds *ingest.Dataset, opts *CertifyOpt
 	}
 	p, err := Lyapunov(a0, eye(n), n)
 	if err != nil {
-		return noFind("No V was fitted: the Lyapunov equation of the linearisation is singular.")
+		return noFind(ReasonLyapunovSingular, "No V was fitted: the Lyapunov equation of the linearisation is singular.")
 	}
 	c0 := fam.quadratic(p)
 	tr := fam.trace(c0)
@@ -312,13 +313,13 @@ func Certify(ctx context.Context, m *Model, ds *ingest.Dataset, opts *CertifyOpt
 		if firstContra {
 			cert.Contradicted = true
 			cert.Contradiction = fmt.Sprintf("no V of degree %d falls along the recorded runs near the equilibrium (the LP's best margin is %.3g < 0, so V must rise)", o.Degree, cert.Margin)
-			return noFind("No V was found: " + cert.Contradiction + ".")
+			return noFind(ReasonLPInfeasible, "No V was found: "+cert.Contradiction+".")
 		}
 		reason := best.res.reason
 		if lastErr != "" {
 			reason += "; the LP found none either (" + lastErr + ")"
 		}
-		return noFind("No V was found: " + reason + ".")
+		return noFind(ReasonNoLevel, "No V was found: "+reason+".")
 	}
 
 	// The certificate.
@@ -378,6 +379,7 @@ func Certify(ctx context.Context, m *Model, ds *ingest.Dataset, opts *CertifyOpt
 	if nonRise {
 		claim = "does not rise beyond the noise tolerance (the linearisation has an eigenvalue on the imaginary axis, so at most stability is claimed)"
 	}
+	cert.ReasonKind = ReasonRegion
 	cert.Reason = fmt.Sprintf("V of degree %d (from the %s, margin %.3g) %s on the fit runs; its level set V <= %.4g covers %.1f%% of the envelope, limited by %s%s; not yet checked on held-out runs.",
 		o.Degree, best.source, cert.Margin, claim, r.level, 100*r.share, limit, where)
 	return cert, nil

@@ -285,18 +285,20 @@ const (
 // Certificate is the content of certificate.json. The certified region is
 // {x : V(z(x)) <= Level, x inside Box}, z_j = (x_j - Equilibrium_j)/Scale_j.
 type Certificate struct {
-	Format      string    `json:"format"`
-	Verdict     Verdict   `json:"verdict"`
-	Strength    Strength  `json:"strength"`
-	Reason      string    `json:"reason"`
-	Empirical   bool      `json:"empirical"`
-	Caveat      string    `json:"caveat"`
-	States      []string  `json:"states"`
-	Units       []string  `json:"units"`
-	Equilibrium []float64 `json:"equilibrium"`
-	Scale       []float64 `json:"scale"`
-	V           poly.Poly `json:"V"`
-	Level       float64   `json:"level"`
+	Format   string   `json:"format"`
+	Verdict  Verdict  `json:"verdict"`
+	Strength Strength `json:"strength"`
+	Reason   string   `json:"reason"`
+	// ReasonKind classifies Reason (see [ReasonKind]).
+	ReasonKind  ReasonKind `json:"reason_kind,omitempty"`
+	Empirical   bool       `json:"empirical"`
+	Caveat      string     `json:"caveat"`
+	States      []string   `json:"states"`
+	Units       []string   `json:"units"`
+	Equilibrium []float64  `json:"equilibrium"`
+	Scale       []float64  `json:"scale"`
+	V           poly.Poly  `json:"V"`
+	Level       float64    `json:"level"`
 	// Box bounds, per state in original units, the connected piece of the
 	// level set that holds the equilibrium; membership tests use it too.
 	Box        [][2]float64 `json:"box"`
@@ -371,8 +373,11 @@ type Validation struct {
 	ViolationBound     float64 `json:"violation_bound"`
 	Confidence         float64 `json:"confidence"`
 	// Extra detail; see package validate.
-	Pairs           int        `json:"pairs"`
-	StartInside     int        `json:"runs_started_inside"`
+	Pairs       int `json:"pairs"`
+	StartInside int `json:"runs_started_inside"`
+	// EnteredRuns counts held-out runs with at least one sample inside
+	// the region; each is checked from its first sample inside.
+	EnteredRuns     int        `json:"entered_runs"`
 	Settled         int        `json:"runs_settled"`
 	ScenarioSamples int        `json:"scenario_samples"`
 	Decorrelation   float64    `json:"decorrelation_s"`

@@ -31,6 +31,10 @@ type Options struct {
 	// ±LinearTol of it non-hyperbolic (stable strength at most); 0 means
 	// 0.005.
 	LinearTol float64
+	// MinEntered is the fewest held-out runs that must enter the region
+	// for a certified verdict (each is checked from its first sample
+	// inside); 0 means 3, so that no single atypical run decides.
+	MinEntered int
 	// DepartTol is the normalised trajectory error (per state, in units of
 	// the state's held-out spread) at which a simulation departs from its
 	// run; 0 means 0.1.
@@ -62,6 +66,9 @@ func (o *Options) get() Options {
 	}
 	if r.LinearTol <= 0 {
 		r.LinearTol = 0.005
+	}
+	if r.MinEntered <= 0 {
+		r.MinEntered = 3
 	}
 	if r.DepartTol <= 0 {
 		r.DepartTol = 0.1
@@ -156,7 +163,7 @@ func Check(ctx context.Context, cert *fit.Certificate, ds *ingest.Dataset, opts 
 	s.spacing = tau
 	runs := make([]RunScreen, len(ds.Runs))
 	val := &fit.Validation{HeldoutRuns: len(ds.Runs), Decorrelation: tau, Confidence: 1 - o.Beta}
-	var scen, viol, started, stayed int
+	var scen, viol, started, entered, stayed int
 	worst := math.Inf(-1)
 	settleRatio := 0.0
 	for i := range ds.Runs {
@@ -177,27 +184,35 @@ func Check(ctx context.Context, cert *fit.Certificate, ds *ingest.Dataset, opts 
 		}
 		if r.StartInside {
 			started++
-			if !hasFlag(r, FlagLeaves) {
-				stayed++
-			} else if f := flagOf(r, FlagLeaves); val.Worst == nil || val.Worst.Kind != FlagLeaves || f.Excess > val.Worst.Excess {
-				// leaving after starting inside outranks any rise
+		}
+		if r.EverInside {
+			// Validation from entry: from its first sample inside, the run
+			// must not leave (beyond the tolerance) and must settle when
+			// the rest of it is long enough to tell.
+			entered++
+			if !hasFlag(r, FlagLeaves) || flagOf(r, FlagLeaves).Excess <= s.tol {
+				stayed++ // leaving within the noise tolerance is staying
+			}
+			if f := flagOf(r, FlagLeaves); hasFlag(r, FlagLeaves) && (val.Worst == nil || val.Worst.Kind != FlagLeaves || f.Excess > val.Worst.Excess) {
+				// leaving after entering outranks any rise
 				val.Worst = &fit.Violation{Run: r.Run, Time: f.Time, State: stateAt(&ds.Runs[i], f.Time), Excess: f.Excess, Kind: FlagLeaves}
 				worst = math.Inf(1)
 			}
-			if r.Settled {
+			if r.settledEntry {
 				val.Settled++
 			}
-			if r.VStart > 0 {
-				settleRatio = max(settleRatio, r.VEnd/r.VStart)
+			if r.vEnter > 0 {
+				settleRatio = max(settleRatio, r.VEnd/r.vEnter)
 			}
 		}
 	}
 	val.StartInside = started
+	val.EnteredRuns = entered
 	if val.Pairs > 0 {
 		val.DecreaseFraction /= float64(val.Pairs)
 	}
-	if started > 0 {
-		val.InvarianceFraction = float64(stayed) / float64(started)
+	if entered > 0 {
+		val.InvarianceFraction = float64(stayed) / float64(entered)
 	}
 	val.SettleRatio = clampFinite(settleRatio)
 	val.ScenarioSamples = scen
@@ -276,17 +291,18 @@ func classify(eig [][2]float64, tol float64) (linear, float64) {
 // See the package doc for the rules. Two more hold for the stable
 // strength: a certificate marked fit.Certificate.NonRise (V fitted only
 // not to rise, at a non-hyperbolic linearisation) is never asymptotic,
-// and no run that started inside may end with its mean V above its start
-// by more than the tolerance (slow growth: inconclusive).
+// and no run that entered may end with its mean V above V at entry by
+// more than the tolerance (slow growth: inconclusive). The certificate's
+// ReasonKind is set with the Reason.
 func Decide(cert *fit.Certificate, val *fit.Validation, runs []RunScreen, eig [][2]float64, opts *Options) {
 	o := opts.get()
-	v, s, why := decide(cert, val, runs, eig, o)
-	cert.Verdict, cert.Strength, cert.Reason = v, s, why
+	v, s, kind, why := decide(cert, val, runs, eig, o)
+	cert.Verdict, cert.Strength, cert.ReasonKind, cert.Reason = v, s, kind, why
 	cert.Empirical, cert.Caveat = true, fit.Caveat
 	cert.Validation = val
 }
 
-func decide(cert *fit.Certificate, val *fit.Validation, runs []RunScreen, eig [][2]float64, o Options) (fit.Verdict, fit.Strength, string) {
+func decide(cert *fit.Certificate, val *fit.Validation, runs []RunScreen, eig [][2]float64, o Options) (fit.Verdict, fit.Strength, fit.ReasonKind, string) {
 	lin, top := classify(eig, o.LinearTol)
 	if eig == nil {
 		switch {
@@ -294,22 +310,22 @@ func decide(cert *fit.Certificate, val *fit.Validation, runs []RunScreen, eig []
 			lin = linStable
 		case cert.Verdict == fit.Certified:
 			lin = linMarginal
-		case cert.Verdict == fit.Rejected && strings.Contains(cert.Reason, "linearisation"):
+		case cert.Verdict == fit.Rejected && (cert.ReasonKind == fit.ReasonUnstableLinearisation || cert.Contradicted):
 			lin = linUnstable
 		}
 	}
 	if lin == linUnstable {
 		if eig == nil {
-			return fit.Rejected, fit.NoClaim, cert.Reason
+			return fit.Rejected, fit.NoClaim, fit.ReasonUnstableLinearisation, cert.Reason
 		}
-		return fit.Rejected, fit.NoClaim, fmt.Sprintf("The linearisation at the equilibrium is unstable (largest eigenvalue real part %+.3g 1/s).", top)
+		return fit.Rejected, fit.NoClaim, fit.ReasonUnstableLinearisation, fmt.Sprintf("The linearisation at the equilibrium is unstable (largest eigenvalue real part %+.3g 1/s).", top)
 	}
 	if !cert.Found || len(cert.V.Exponents) == 0 || !(cert.Level > 0) {
 		why := cert.Reason
 		if why == "" {
 			why = "No Lyapunov function was found on the fit runs."
 		}
-		return fit.Inconclusive, fit.NoClaim, why
+		return fit.Inconclusive, fit.NoClaim, cert.ReasonKind, why
 	}
 	tol := o.Tolerance
 	if tol <= 0 {
@@ -318,7 +334,7 @@ func decide(cert *fit.Certificate, val *fit.Validation, runs []RunScreen, eig []
 	for _, r := range runs {
 		if r.StartInside && hasFlag(&r, FlagLeaves) {
 			if f := flagOf(&r, FlagLeaves); f.Excess > tol {
-				return fit.Rejected, fit.NoClaim, fmt.Sprintf("Held-out run %s started inside the region and left it at t = %.4g s (V above the level by %.3g).", r.Run, f.Time, f.Excess)
+				return fit.Rejected, fit.NoClaim, fit.ReasonLeft, fmt.Sprintf("Held-out run %s started inside the region and left it at t = %.4g s (V above the level by %.3g).", r.Run, f.Time, f.Excess)
 			}
 		}
 	}
@@ -327,53 +343,102 @@ func decide(cert *fit.Certificate, val *fit.Validation, runs []RunScreen, eig []
 			// entered later and left: the region is not invariant on this
 			// run; not a contradiction of the equilibrium's stability.
 			if f := flagOf(&r, FlagLeaves); f.Excess > tol {
-				return fit.Inconclusive, fit.NoClaim, fmt.Sprintf("Held-out run %s entered the region and left it again at t = %.4g s (V above the level by %.3g).", r.Run, f.Time, f.Excess)
+				return fit.Inconclusive, fit.NoClaim, fit.ReasonLeft, fmt.Sprintf("Held-out run %s entered the region and left it again at t = %.4g s (V above the level by %.3g). Record more runs through that part of the state space, or expect a smaller region.", r.Run, f.Time, f.Excess)
 			}
 		}
 	}
+	where := regionWords(cert)
 	switch {
 	case val.HeldoutRuns == 0:
-		return fit.Inconclusive, fit.NoClaim, "No held-out runs to check the certificate on."
-	case val.StartInside == 0:
-		return fit.Inconclusive, fit.NoClaim, "No held-out run starts inside the certified region."
+		return fit.Inconclusive, fit.NoClaim, fit.ReasonNoHeldout, "No held-out runs to check the certificate on. Record more runs so that some can be held out."
+	case val.EnteredRuns == 0:
+		return fit.Inconclusive, fit.NoClaim, fit.ReasonNoneEntered, fmt.Sprintf("None of the %d held-out runs entered the certified region, so nothing checks it. Record runs that start or pass within %s.", val.HeldoutRuns, where)
+	case val.EnteredRuns < o.MinEntered:
+		return fit.Inconclusive, fit.NoClaim, fit.ReasonFewEntered, fmt.Sprintf("Only %d of the %d held-out runs entered the certified region (%d needed). Record more runs that start or pass within %s.", val.EnteredRuns, val.HeldoutRuns, o.MinEntered, where)
 	case val.Pairs == 0:
-		return fit.Inconclusive, fit.NoClaim, "No held-out sample pairs lie inside the region outside the noise ball."
+		return fit.Inconclusive, fit.NoClaim, fit.ReasonNoHeldoutPairs, fmt.Sprintf("No held-out sample pairs lie inside the region outside the noise ball. Record runs that pass within %s, away from the equilibrium.", where)
 	case val.DecreaseFraction < o.MinDecrease:
-		return fit.Inconclusive, fit.NoClaim, fmt.Sprintf("V fell on only %.1f%% of %d held-out pairs inside the region (%.1f%% needed).", 100*val.DecreaseFraction, val.Pairs, 100*o.MinDecrease)
+		return fit.Inconclusive, fit.NoClaim, fit.ReasonHeldoutRise, fmt.Sprintf("V fell on only %.1f%% of %d held-out pairs inside the region (%.1f%% needed). The model or V does not hold there; try more runs or a different --v-degree.", 100*val.DecreaseFraction, val.Pairs, 100*o.MinDecrease)
 	case val.InvarianceFraction < 1:
-		return fit.Inconclusive, fit.NoClaim, fmt.Sprintf("%d of %d held-out runs that started inside left the region, within the noise tolerance.", val.StartInside-int(math.Round(val.InvarianceFraction*float64(val.StartInside))), val.StartInside)
+		return fit.Inconclusive, fit.NoClaim, fit.ReasonLeft, fmt.Sprintf("%d of %d held-out runs that entered the region left it again beyond the noise tolerance. Record more runs near the region's edge.", val.EnteredRuns-int(math.Round(val.InvarianceFraction*float64(val.EnteredRuns))), val.EnteredRuns)
 	case lin == linUnknown && eig != nil:
-		return fit.Inconclusive, fit.NoClaim, "The linearisation at the equilibrium could not be classified."
+		return fit.Inconclusive, fit.NoClaim, fit.ReasonLinearUnknown, "The linearisation at the equilibrium could not be classified. Record runs that settle on the equilibrium."
 	}
-	if val.Settled == val.StartInside && cert.Margin > 0 && !cert.NonRise && lin == linStable {
-		return fit.Certified, fit.Asymptotic, fmt.Sprintf("V fell on %.1f%% of %d held-out pairs inside the region; %s stayed inside and settled.", 100*val.DecreaseFraction, val.Pairs, insideRuns(val.StartInside))
-	}
-	// The weaker claim still needs V not to drift up: a run that started
-	// inside and ends with V higher than it began by more than the
-	// tolerance grows (slowly enough to stay inside this time).
+	// Settling is judged on the runs that entered with enough samples
+	// after entry to tell (two tail windows); at least one must.
+	long, settled := 0, 0
 	for _, r := range runs {
-		if r.StartInside && r.VEnd-r.VStart > tol {
-			return fit.Inconclusive, fit.NoClaim, fmt.Sprintf("V rose along held-out run %s from %.4g at its start to %.4g at its end (tolerance %.3g): growth, not stability.", r.Run, r.VStart, r.VEnd, tol)
+		if r.EverInside && r.longAfter {
+			long++
+			if r.settledEntry {
+				settled++
+			}
+		}
+	}
+	if long > 0 && settled == long && cert.Margin > 0 && !cert.NonRise && lin == linStable {
+		return fit.Certified, fit.Asymptotic, fit.ReasonCertified, fmt.Sprintf("V fell on %.1f%% of %d held-out pairs inside the region; %s stayed inside and settled.", 100*val.DecreaseFraction, val.Pairs, enteredRuns(val.EnteredRuns))
+	}
+	// The weaker claim still needs V not to drift up: a run that entered
+	// and ends with V higher than at entry by more than the tolerance
+	// grows (slowly enough to stay inside this time).
+	for _, r := range runs {
+		if r.EverInside && r.VEnd-r.vEnter > tol {
+			return fit.Inconclusive, fit.NoClaim, fit.ReasonHeldoutRise, fmt.Sprintf("V rose along held-out run %s from %.4g where it entered the region to %.4g at its end (tolerance %.3g): growth, not stability. Record longer runs to tell.", r.Run, r.vEnter, r.VEnd, tol)
 		}
 	}
 	why := "not all settled"
 	switch {
 	case cert.NonRise:
 		why = "V was only fitted not to rise (the linearisation has an eigenvalue on the imaginary axis)"
-	case val.Settled == val.StartInside && lin != linStable:
+	case long == 0:
+		why = "no run was long enough after entering to show settling"
+	case settled == long && lin != linStable:
 		why = "settled, but the linearisation is not strictly stable"
-	case val.Settled == val.StartInside:
+	case settled == long:
 		why = "settled, but V has no positive decrease margin"
 	}
-	return fit.Certified, fit.Stable, fmt.Sprintf("V did not rise beyond the noise tolerance on %.1f%% of %d held-out pairs and %s stayed inside but %s: stability without shown convergence.", 100*val.DecreaseFraction, val.Pairs, insideRuns(val.StartInside), why)
+	return fit.Certified, fit.Stable, fit.ReasonCertified, fmt.Sprintf("V did not rise beyond the noise tolerance on %.1f%% of %d held-out pairs and %s stayed inside but %s: stability without shown convergence.", 100*val.DecreaseFraction, val.Pairs, enteredRuns(val.EnteredRuns), why)
 }
 
-// insideRuns names the held-out runs that started inside, by count.
-func insideRuns(k int) string {
-	if k == 1 {
-		return "the one held-out run that started inside"
+// regionWords describes the certified region's box per state in the
+// states' units, for a reason's next step: "theta within -0.3..0.4 rad".
+func regionWords(cert *fit.Certificate) string {
+	box := cert.Region.Extent
+	if len(box) != len(cert.States) {
+		box = cert.Box
 	}
-	return fmt.Sprintf("all %d held-out runs that started inside", k)
+	if len(box) != len(cert.States) {
+		return "the certified region"
+	}
+	parts := make([]string, len(box))
+	for j, b := range box {
+		u := ""
+		if j < len(cert.Units) && cert.Units[j] != "" {
+			u = " " + cert.Units[j]
+		}
+		e := 0.0
+		if j < len(cert.Equilibrium) {
+			e = cert.Equilibrium[j]
+		}
+		lo, hi := b[0]-e, b[1]-e
+		if scalarClose(-lo, hi) {
+			parts[j] = fmt.Sprintf("%s %.4g ±%.3g%s", cert.States[j], e, hi, u)
+		} else {
+			parts[j] = fmt.Sprintf("%s %.4g..%.4g%s", cert.States[j], b[0], b[1], u)
+		}
+	}
+	return strings.Join(parts, ", ")
+}
+
+// scalarClose says a and b agree to 5% (a symmetric box prints as ±).
+func scalarClose(a, b float64) bool { return math.Abs(a-b) <= 0.05*math.Max(math.Abs(a), math.Abs(b)) }
+
+// enteredRuns names the held-out runs that entered, by count.
+func enteredRuns(k int) string {
+	if k == 1 {
+		return "the one held-out run that entered"
+	}
+	return fmt.Sprintf("all %d held-out runs that entered", k)
 }
 
 // Evaluate splits ds by run, fits the model and certificate on the fit
@@ -396,7 +461,8 @@ func Evaluate(ctx context.Context, ds *ingest.Dataset, opts *Options) (*Result, 
 			return nil, err
 		}
 		cert.Verdict, cert.Strength = fit.Inconclusive, fit.NoClaim
-		cert.Reason = fmt.Sprintf("Only %d run(s): at least %d are needed to hold runs out, so there is no held-out verdict.", len(ds.Runs), MinRuns)
+		cert.ReasonKind = fit.ReasonFewRuns
+		cert.Reason = fmt.Sprintf("Only %d run(s): at least %d are needed to hold runs out, so there is no held-out verdict. Record at least %d runs.", len(ds.Runs), MinRuns, MinRuns*2)
 		cert.Validation = &fit.Validation{Note: "no held-out runs", Confidence: 1 - o.Beta}
 		res.Model, res.Certificate = m, cert
 		return res, nil

@@ -292,7 +292,7 @@ func (s *Screener) ballMax(r float64) float64 {
 // storage. It does not allocate once dst.Flags has room for three flags.
 // A run with no samples gives an unflagged result with Samples 0.
 func (s *Screener) Screen(dst *RunScreen, file string, run *ingest.Run) {
-	*dst = RunScreen{File: file, Run: run.Name, Samples: run.Len(), Flags: dst.Flags[:0]}
+	*dst = RunScreen{File: file, Run: run.Name, Samples: run.Len(), Flags: dst.Flags[:0], enter: -1}
 	m := run.Len()
 	if m == 0 || len(run.X) != s.n {
 		return
@@ -338,6 +338,9 @@ func (s *Screener) Screen(dst *RunScreen, file string, run *ingest.Run) {
 				dst.StartInside = in
 			}
 			if in {
+				if !entered {
+					dst.enter, dst.vEnter = i, v
+				}
 				entered = true
 				if prevIn && prevOut {
 					d := v - prevV - tol
@@ -403,6 +406,10 @@ func (s *Screener) Screen(dst *RunScreen, file string, run *ingest.Run) {
 	// sound region and must still be flagged.
 	if !prevIn {
 		dst.Settled = false
+	}
+	if entered {
+		dst.longAfter = m-dst.enter >= 2*w
+		dst.settledEntry = prevIn && (tail <= s.settle || tail < dst.vEnter-tol)
 	}
 	if !dst.Settled {
 		dst.Flags = append(dst.Flags, Flag{Kind: FlagUnsettled, Time: T[m-1], Excess: clampFinite(tail - s.settle)})

@@ -25,8 +25,14 @@
 // on. The certificate checks ([Check]): decrease_fraction over consecutive
 // pairs inside the region whose first sample lies outside the noise ball,
 // where V may rise by at most the certificate's noise tolerance;
-// invariance_fraction over runs that start inside; settling (see
-// [Screener]); and the worst violation with run, time and state.
+// and, from entry, each held-out run from its first sample inside the
+// region: entered_runs counts the runs with a sample inside,
+// invariance_fraction the share of them that never left again by more
+// than the noise tolerance, runs_settled those that settled from there
+// (ended inside, at the settle level or below V at entry by more than the
+// tolerance; see [Screener]); runs that never enter lie outside the claim
+// and are only counted. The worst violation is given with run, time and
+// state.
 //
 // # Scenario bound
 //
@@ -42,11 +48,12 @@
 //
 // # Verdict
 //
-// certified needs a V, held-out runs that start inside, decrease_fraction
-// >= [Options.MinDecrease], invariance 1 and a linearisation that is not
-// unstable; its strength is asymptotic when V has a positive decrease
-// margin, every run that started inside settled and the linearisation is
-// strictly stable, else stable (stability without convergence, as for a
+// certified needs a V, at least [Options.MinEntered] held-out runs that
+// entered the region, decrease_fraction >= [Options.MinDecrease],
+// invariance 1 and a linearisation that is not unstable; its strength is
+// asymptotic when V has a positive decrease margin, every run that
+// entered with at least two tail windows of samples after entry settled
+// (and there is one) and the linearisation is strictly stable, else stable (stability without convergence, as for a
 // lossless oscillator). rejected when the data contradict stability: an
 // unstable linearisation, or a held-out run that starts inside and leaves
 // by more than the noise tolerance. Everything else is inconclusive. The
@@ -89,6 +96,17 @@ type RunScreen struct {
 	// (a twentieth of the run, 1 to 50 samples) used to judge settling.
 	VStart float64 `json:"v_start"`
 	VEnd   float64 `json:"v_end"`
+
+	// From the first sample inside the region (validation from entry):
+	// its index (-1 when the run never enters) and V there; whether the
+	// part after it is long enough to judge settling (at least two tail
+	// windows); and whether the run settled from there (ends inside with
+	// its end at the settle level, or below V at entry by more than the
+	// tolerance).
+	enter        int
+	vEnter       float64
+	longAfter    bool
+	settledEntry bool
 
 	// scenario samples (pairs at least the decorrelation time apart) and
 	// the violations among them; worst rise and where.
