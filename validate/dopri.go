@@ -150,8 +150,16 @@ func Integrate(f ODE, x0 []float64, times []float64, dst [][]float64, opts *Dopr
 		if t+h > tEnd {
 			h = tEnd - t
 		}
-		if h <= 1e-14*math.Max(1, math.Abs(t)) {
-			if t >= tEnd {
+		if tiny := 1e-14 * math.Max(1, math.Abs(t)); h <= tiny {
+			if tEnd-t <= tiny {
+				// The end, to the rounding of the accumulated time (ten
+				// fixed steps of 0.2 stop just short of 2): the remaining
+				// requested times are t itself.
+				for ; next < len(times); next++ {
+					for j := range dst {
+						dst[j][next] = x[j]
+					}
+				}
 				break
 			}
 			return fail("step size collapsed")

@@ -1,6 +1,7 @@
 package validate
 
 import (
+	"gonum.org/v1/gonum/floats/scalar"
 	"math"
 	"testing"
 )
@@ -18,7 +19,7 @@ func TestDopriTableau(t *testing.T) {
 		for _, a := range dpA[i] {
 			s += a
 		}
-		if math.Abs(s-dpC[i]) > tol {
+		if !scalar.EqualWithinAbs(s, dpC[i], tol) {
 			t.Errorf("row %d sums to %v, want c = %v", i, s, dpC[i])
 		}
 	}
@@ -28,14 +29,14 @@ func TestDopriTableau(t *testing.T) {
 			s5 += dpB5[i] * math.Pow(dpC[i], float64(k))
 			s4 += dpB4[i] * math.Pow(dpC[i], float64(k))
 		}
-		if math.Abs(s5-1/float64(k+1)) > tol {
+		if !scalar.EqualWithinAbs(s5, 1/float64(k+1), tol) {
 			t.Errorf("b5 order condition k=%d: %v", k, s5)
 		}
 		want4 := 1 / float64(k+1)
 		if k == 4 {
 			want4 = 53929.0 / 270000
 		}
-		if math.Abs(s4-want4) > tol {
+		if !scalar.EqualWithinAbs(s4, want4, tol) {
 			t.Errorf("b4 sum c^%d = %v, want %v", k, s4, want4)
 		}
 	}
@@ -54,7 +55,7 @@ func TestDopriTableau(t *testing.T) {
 	for _, tc := range []struct{ h, want, tol float64 }{{1, 1631.0 / 600, 1e-14}, {0.1, 1.10517091833, 1e-11}} {
 		dst := [][]float64{make([]float64, 2)}
 		Integrate(func(d []float64, _ float64, x []float64) { d[0] = x[0] }, []float64{1}, []float64{0, tc.h}, dst, &DopriOptions{FixedStep: tc.h})
-		if math.Abs(dst[0][1]-tc.want) > tc.tol {
+		if !scalar.EqualWithinAbs(dst[0][1], tc.want, tc.tol) {
 			t.Errorf("y'=y, h=%g: %.12f, want %.12f", tc.h, dst[0][1], tc.want)
 		}
 	}
@@ -75,7 +76,7 @@ func TestDopriBurdenFaires(t *testing.T) {
 		ts[i] = 0.2 * float64(i)
 	}
 	Integrate(burden, []float64{0.5}, ts, dst, &DopriOptions{FixedStep: 0.2})
-	if got := dst[0][10]; math.Abs(got-5.3054723945) > 5e-8 {
+	if got := dst[0][10]; !scalar.EqualWithinAbs(got, 5.3054723945, 5e-8) {
 		t.Errorf("fixed h=0.2: y(2) = %.10f, want 5.3054723945", got)
 	}
 	// Convergence order: the global error at t = 2 must fall by about 2^5
@@ -93,7 +94,7 @@ func TestDopriBurdenFaires(t *testing.T) {
 		errs = append(errs, math.Abs(d[0][m-1]-burdenExact(2)))
 	}
 	for i := 1; i < len(errs); i++ {
-		if p := math.Log2(errs[i-1] / errs[i]); p < 4.6 || p > 5.4 {
+		if p := math.Log2(errs[i-1] / errs[i]); !(p >= 4.6 && p <= 5.4) {
 			t.Errorf("observed order %.2f between h=%g and h/2 (errors %v)", p, 0.2/math.Pow(2, float64(i-1)), errs)
 		}
 	}
@@ -107,7 +108,7 @@ func TestDopriBurdenFaires(t *testing.T) {
 	d := [][]float64{make([]float64, 201)}
 	st := Integrate(burden, []float64{0.5}, ts, d, &DopriOptions{RelTol: 1e-8, AbsTol: 1e-10})
 	for i, tt := range ts {
-		if e := math.Abs(d[0][i] - burdenExact(tt)); e > 1e-6 {
+		if e := math.Abs(d[0][i] - burdenExact(tt)); !(e <= 1e-6) {
 			t.Fatalf("dense output at t=%g: error %g", tt, e)
 		}
 	}
@@ -145,11 +146,11 @@ func TestDopriVanDerPol(t *testing.T) {
 			ups = append(ups, ts[i-1]+f*dt)
 		}
 	}
-	if math.Abs(amp-2.0086) > 0.01 {
+	if !scalar.EqualWithinAbs(amp, 2.0086, 0.01) {
 		t.Errorf("amplitude %.4f, want about 2.0086", amp)
 	}
 	period := (ups[len(ups)-1] - ups[0]) / float64(len(ups)-1)
-	if math.Abs(period-6.6633) > 0.01 {
+	if !scalar.EqualWithinAbs(period, 6.6633, 0.01) {
 		t.Errorf("period %.4f, want about 6.6633", period)
 	}
 }
@@ -164,7 +165,7 @@ func TestDopriBlowUp(t *testing.T) {
 		t.Errorf("stats %+v", st)
 	}
 	// exact 1/(1-t) at 0.5 and 0.99; 1e-4 relative at default tolerances.
-	if math.Abs(d[0][1]-2) > 2e-4 || math.Abs(d[0][2]/100-1) > 1e-3 || !math.IsNaN(d[0][3]) {
+	if !scalar.EqualWithinAbs(d[0][1], 2, 2e-4) || !scalar.EqualWithinAbs(d[0][2]/100, 1, 1e-3) || !math.IsNaN(d[0][3]) {
 		t.Errorf("values %v", d[0])
 	}
 }
