@@ -2,6 +2,7 @@ package ingest
 
 import (
 	"errors"
+	"fmt"
 	"math"
 	"slices"
 	"strings"
@@ -205,10 +206,20 @@ func TestReadCSVBlocks(t *testing.T) {
 		}
 	}
 	// an error far into the file names its line: row i is on line i+2, plus
-	// one for the comment before row 70000; t = 1000.5 is row 100050
-	bad := strings.Replace(sb.String(), "\r\n"+ftoa(1000.5)+",", "\r\n"+ftoa(1000.5)+",x", 1)
+	// one for the comment before row 70000; row n-49950 is 100050 (t =
+	// 1000.5) in the full test and 40050 under -short
+	k := n - 49950
+	line := k + 2
+	if k > 70000 {
+		line++
+	}
+	tk := ftoa(float64(k) / 100)
+	bad := strings.Replace(sb.String(), "\r\n"+tk+",", "\r\n"+tk+",x", 1)
+	if bad == sb.String() {
+		t.Fatalf("row %d (t = %s) not found to spoil", k, tk)
+	}
 	_, err = ReadCSV(strings.NewReader(bad), "big.csv", nil)
-	if want := `big.csv:100053:2: column "a": not a number "x`; err == nil || !strings.HasPrefix(err.Error(), want) {
+	if want := fmt.Sprintf(`big.csv:%d:2: column "a": not a number "x`, line); err == nil || !strings.HasPrefix(err.Error(), want) {
 		t.Errorf("err = %v, want prefix %s", err, want)
 	}
 }

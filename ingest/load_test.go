@@ -3,6 +3,7 @@ package ingest
 import (
 	"context"
 	"errors"
+	"gonum.org/v1/gonum/floats/scalar"
 	"io/fs"
 	"os"
 	"path/filepath"
@@ -148,7 +149,7 @@ func TestSummarise(t *testing.T) {
 	}
 	// 99 steps of 0.01 s with two perturbed (0.012, 0.008): median 0.01,
 	// quartiles 0.01; rate 100 Hz to rounding of the decimal times.
-	if d := a.RateHz - 100; d > 1e-9 || d < -1e-9 || a.Jitter > 1e-9 {
+	if !scalar.EqualWithinAbs(a.RateHz, 100, 1e-9) || !(a.Jitter <= 1e-9) {
 		t.Errorf("rate %v jitter %v", a.RateHz, a.Jitter)
 	}
 	if s.States[1].Min != -1 || s.States[1].Max != 1 {

@@ -4,7 +4,7 @@ import (
 	"bytes"
 	"context"
 	"errors"
-	"math"
+	"gonum.org/v1/gonum/floats/scalar"
 	"os"
 	"path/filepath"
 	"slices"
@@ -117,7 +117,7 @@ func TestReadParquetTypes(t *testing.T) {
 	r := ds.Runs[1]
 	// rows 5..9: 0.05 s steps of 10 ms from the first sample (ms -> s is exact to 1 ulp)
 	for k, i := range []int{5, 6, 7, 8, 9} {
-		if math.Abs(r.T[k]-float64(i)*0.01) > 1e-15 || r.X[0][k] != float64(i)/4 || r.X[1][k] != float64(-i) || r.X[2][k] != float64(int64(i)<<40) {
+		if !scalar.EqualWithinAbs(r.T[k], float64(i)*0.01, 1e-15) || r.X[0][k] != float64(i)/4 || r.X[1][k] != float64(-i) || r.X[2][k] != float64(int64(i)<<40) {
 			t.Errorf("row %d: %v %v %v %v", i, r.T[k], r.X[0][k], r.X[1][k], r.X[2][k])
 		}
 	}
