@@ -1,6 +1,7 @@
 package fit
 
 import (
+	"gonum.org/v1/gonum/floats/scalar"
 	"math"
 	"math/rand/v2"
 	"testing"
@@ -57,7 +58,7 @@ func TestSavitzkyGolayTables(t *testing.T) {
 			z := centred(tc.m)
 			got := SavitzkyGolayTo(make([]float64, len(z)), z, 0, tc.deg, tc.deriv)
 			for i := range tc.want {
-				if math.Abs(got[i]-tc.want[i]) > 1e-12 {
+				if !scalar.EqualWithinAbs(got[i], tc.want[i], 1e-12) {
 					t.Fatalf("weights %v, want %v", got, tc.want)
 				}
 			}
@@ -75,7 +76,7 @@ func TestSavitzkyGolayTables(t *testing.T) {
 		for i, v := range nodes {
 			s += w[i] * math.Exp(v)
 		}
-		if math.Abs(s-tc.want) > 1e-8 { // the reference has 8 decimals
+		if !scalar.EqualWithinAbs(s, tc.want, 1e-8) { // the reference has 8 decimals
 			t.Errorf("%d-pt degree %d: %.10f, want %.8f", 2*tc.m+1, tc.deg, s, tc.want)
 		}
 	}
@@ -85,7 +86,7 @@ func TestSavitzkyGolayTables(t *testing.T) {
 	for i, z := range centred(2) {
 		s += w[i] * z * z * z * z
 	}
-	if math.Abs(s-(-72.0/35)) > 1e-12 {
+	if !scalar.EqualWithinAbs(s, (-72.0 / 35), 1e-12) {
 		t.Errorf("z^4: %g, want %g", s, -72.0/35)
 	}
 	if SavitzkyGolayTo(make([]float64, 3), []float64{0, 1, 2}, 1, 3, 1) != nil {
@@ -125,7 +126,7 @@ func TestFornberg(t *testing.T) {
 			}
 			FornbergTo(c, tc.x0, tc.nodes)
 			for i, w := range tc.want {
-				if math.Abs(c[tc.deriv][i]-w) > 1e-12 {
+				if !scalar.EqualWithinAbs(c[tc.deriv][i], w, 1e-12) {
 					t.Fatalf("weights %v, want %v", c[tc.deriv], tc.want)
 				}
 			}
@@ -152,7 +153,7 @@ func TestFornberg(t *testing.T) {
 		{[]float64{0.8, 0.9, 1, 1.1, 1.2}, 1, 0.5403005070},
 		{[]float64{0.9, 1, 1.1}, 2, -0.8407699927},
 	} {
-		if got := apply(tc.nodes, tc.deriv); math.Abs(got-tc.want) > 1e-10 {
+		if got := apply(tc.nodes, tc.deriv); !scalar.EqualWithinAbs(got, tc.want, 1e-10) {
 			t.Errorf("sin at 1 on %v, derivative %d: %.10f, want %.10f", tc.nodes, tc.deriv, got, tc.want)
 		}
 	}
@@ -175,7 +176,7 @@ func TestDerivativeRuns(t *testing.T) {
 	check := func(name string, dx []float64) {
 		for i, v := range dx {
 			want := 2 - 2*tm[i] + 1.5*tm[i]*tm[i]
-			if math.Abs(v-want) > 1e-8 {
+			if !scalar.EqualWithinAbs(v, want, 1e-8) {
 				t.Fatalf("%s: sample %d: %g, want %g", name, i, v, want)
 			}
 		}
@@ -185,7 +186,7 @@ func TestDerivativeRuns(t *testing.T) {
 	dw.sgRuns([][]float64{xs}, [][]float64{dx}, tm, [][]float64{x}, []int{6})
 	check("savitzky-golay", dx)
 	for i := range xs {
-		if math.Abs(xs[i]-x[i]) > 1e-10 {
+		if !scalar.EqualWithinAbs(xs[i], x[i], 1e-10) {
 			t.Fatalf("smoothing changed a cubic at %d", i)
 		}
 	}

@@ -1,6 +1,7 @@
 package fit
 
 import (
+	"gonum.org/v1/gonum/floats/scalar"
 	"math"
 	"math/rand/v2"
 	"testing"
@@ -38,7 +39,7 @@ func TestLyapunovReference(t *testing.T) {
 			// The references are exact rationals; 1e-12 allows for the
 			// LU solve's rounding on these well-conditioned systems.
 			for i := range p {
-				if math.Abs(p[i]-tc.p[i]) > 1e-12 {
+				if !scalar.EqualWithinAbs(p[i], tc.p[i], 1e-12) {
 					t.Fatalf("P = %v, want %v", p, tc.p)
 				}
 			}
@@ -79,7 +80,7 @@ func TestLyapunovRandomStable(t *testing.T) {
 		eig.VectorsTo(&w)
 		pe := lyapByEigen(l, &w, n)
 		for i := range p {
-			if math.Abs(p[i]-pe[i]) > 1e-8*(1+math.Abs(p[i])) {
+			if !scalar.EqualWithinAbs(p[i], pe[i], 1e-8*(1+math.Abs(p[i]))) {
 				t.Fatalf("n=%d: P[%d] = %g, eigen route %g", n, i, p[i], pe[i])
 			}
 		}

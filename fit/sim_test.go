@@ -135,7 +135,8 @@ func compare(m *Model, sys system) (support bool, maxRel float64) {
 }
 
 // compareCount is compare that also counts the missed and the extra terms;
-// maxRel is then over the true terms that were found.
+// maxRel is then over the true terms that were found; a NaN coefficient
+// makes it NaN (math.Max propagates NaN), so callers compare with !(rel <= tol).
 func compareCount(m *Model, sys system) (support bool, maxRel float64, missed, extra int) {
 	support = true
 	found := 0.0

@@ -6,6 +6,7 @@ import (
 	"encoding/hex"
 	"errors"
 	"fmt"
+	"gonum.org/v1/gonum/floats/scalar"
 	"math"
 	"math/rand/v2"
 	"os"
@@ -310,10 +311,10 @@ func TestGeneratedAgrees(t *testing.T) {
 						d = math.Abs(got)
 					}
 					worst = max(worst, d)
-					if d > relTol {
+					if !(d <= relTol) {
 						t.Fatalf("point %d %v: V = %v, basin %v (rel %g)", i, pts[i], got, want[i], d)
 					}
-					if (f[1] == "1") != wantIn[i] && math.Abs(want[i]-c.Level) > relTol*c.Level {
+					if (f[1] == "1") != wantIn[i] && !scalar.EqualWithinAbs(want[i], c.Level, relTol*c.Level) {
 						t.Fatalf("point %d %v: inside = %s, basin %v (V %v, level %v)", i, pts[i], f[1], wantIn[i], want[i], c.Level)
 					}
 					i++

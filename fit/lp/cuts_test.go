@@ -2,6 +2,7 @@ package lp_test
 
 import (
 	"errors"
+	"gonum.org/v1/gonum/floats/scalar"
 	"math"
 	"math/rand/v2"
 	"slices"
@@ -30,7 +31,7 @@ func TestSolveCutsMatchesSolve(t *testing.T) {
 			t.Fatal(err)
 		}
 		// Both answers are optimal to 1e-8 relative (default tolerances).
-		if math.Abs(r.Objective-whole.Objective) > 1e-7*(1+math.Abs(whole.Objective)) {
+		if !scalar.EqualWithinAbs(r.Objective, whole.Objective, 1e-7*(1+math.Abs(whole.Objective))) {
 			t.Errorf("%d x %d: cuts objective %.12g, whole LP %.12g", m, n, r.Objective, whole.Objective)
 		}
 		checkKKT(t, p, r, 1e-7) // over all rows, with Z zero off the active set
@@ -62,7 +63,7 @@ func TestSolveCutsPolygon(t *testing.T) {
 		t.Fatal(err)
 	}
 	// Default solver tolerance 1e-8 relative.
-	if math.Abs(r.Objective+1) > 1e-7 || math.Abs(r.X[0]-1) > 1e-7 {
+	if !scalar.EqualWithinAbs(r.Objective, -1, 1e-7) || !scalar.EqualWithinAbs(r.X[0], 1, 1e-7) {
 		t.Errorf("objective %.10g at %.10g, want -1 at x = 1", r.Objective, r.X)
 	}
 	t.Logf("%d rounds, %d active rows", r.Rounds, len(r.Active))
@@ -132,7 +133,7 @@ func TestSolveCutsWorkers(t *testing.T) {
 // box (exact, by hand).
 func TestSolveCutsNoRows(t *testing.T) {
 	r, err := lp.SolveCuts([]float64{1, -2}, lp.DenseRows{}, []float64{-1, -1}, []float64{1, 3}, nil)
-	if err != nil || math.Abs(r.Objective+7) > 1e-7 { // default tolerance 1e-8 relative
+	if err != nil || !scalar.EqualWithinAbs(r.Objective, -7, 1e-7) { // default tolerance 1e-8 relative
 		t.Fatalf("got %v, %v; want -7", r, err)
 	}
 }

@@ -1,7 +1,7 @@
 package lp
 
 import (
-	"math"
+	"gonum.org/v1/gonum/floats/scalar"
 	"math/rand/v2"
 	"slices"
 	"testing"
@@ -75,7 +75,7 @@ func TestSyrkT(t *testing.T) {
 		for i := 0; i < n; i++ {
 			for j := i; j < n; j++ {
 				// k products of unit normals: rounding ~ k * 1e-16 * sqrt(k).
-				if d := math.Abs(got[i*n+j] - want[i*n+j]); d > 1e-12*float64(k) {
+				if !scalar.EqualWithinAbs(got[i*n+j], want[i*n+j], 1e-12*float64(k)) {
 					t.Fatalf("n=%d k=%d: c[%d][%d] = %g, Dsyrk %g", n, k, i, j, got[i*n+j], want[i*n+j])
 				}
 			}

@@ -2,6 +2,7 @@ package lp_test
 
 import (
 	"errors"
+	"gonum.org/v1/gonum/floats/scalar"
 	"math"
 	"math/rand/v2"
 	"testing"
@@ -84,7 +85,7 @@ func TestSolveTextbook(t *testing.T) {
 			if r.Status != lp.Optimal {
 				t.Fatalf("status %v", r.Status)
 			}
-			if math.Abs(r.Objective-tc.obj) > tc.tol {
+			if !scalar.EqualWithinAbs(r.Objective, tc.obj, tc.tol) {
 				t.Errorf("objective %.12g, want %g", r.Objective, tc.obj)
 			}
 			if !floats.EqualApprox(r.X, tc.x, tc.tol) {
@@ -140,11 +141,11 @@ func checkKKT(t *testing.T, p *lp.Problem, r *lp.Result, tol float64) {
 			t.Errorf("multiplier on an infinite upper bound %d", j)
 		}
 	}
-	if d := floats.Norm(dual, math.Inf(1)); d > tol*scale {
+	if d := floats.Norm(dual, math.Inf(1)); !(d <= tol*scale) {
 		t.Errorf("dual residual %g", d)
 	}
 	pobj := floats.Dot(p.C, r.X)
-	if g := math.Abs(pobj - dobj); g > tol*(1+math.Abs(pobj)) {
+	if g := math.Abs(pobj - dobj); !(g <= tol*(1+math.Abs(pobj))) {
 		t.Errorf("duality gap %g (primal %g, dual %g)", g, pobj, dobj)
 	}
 }
@@ -285,7 +286,7 @@ func TestSolveAgainstSimplex(t *testing.T) {
 		}
 		// Both solvers work to about 1e-10 relative; 1e-8 leaves room for
 		// the conditioning of random data.
-		if math.Abs(r.Objective-want) > 1e-8*(1+math.Abs(want)) {
+		if !scalar.EqualWithinAbs(r.Objective, want, 1e-8*(1+math.Abs(want))) {
 			t.Errorf("case %d (%d x %d): objective %.12g, gonum lp.Simplex %.12g", k, m, n, r.Objective, want)
 		}
 		checkKKT(t, p, r, 1e-8)
@@ -311,7 +312,7 @@ func TestSolveLargeKKT(t *testing.T) {
 		// The default tolerance is 1e-8 relative on scaled rows; 1e-7
 		// allows for the row scaling being undone.
 		checkKKT(t, p, r, 1e-7)
-		if r.PrimalResidual > 1e-7 || r.DualResidual > 1e-7 || math.Abs(r.RelGap) > 1e-7 {
+		if !(r.PrimalResidual <= 1e-7) || !(r.DualResidual <= 1e-7) || !scalar.EqualWithinAbs(r.RelGap, 0, 1e-7) {
 			t.Errorf("%d x %d: reported residuals %g %g gap %g", m, n, r.PrimalResidual, r.DualResidual, r.RelGap)
 		}
 		t.Logf("%d x %d: %d iterations", m, n, r.Iterations)
@@ -350,10 +351,10 @@ func checkFarkas(t *testing.T, p *lp.Problem, f *lp.Farkas, tol float64) {
 		}
 		ynorm = max(ynorm, f.YLower[j], f.YUpper[j])
 	}
-	if math.Abs(by+1) > 1e-9 {
+	if !scalar.EqualWithinAbs(by, -1, 1e-9) {
 		t.Errorf("h'y = %g, want -1", by)
 	}
-	if d := floats.Norm(r, math.Inf(1)); d > tol*(1+ynorm) {
+	if d := floats.Norm(r, math.Inf(1)); !(d <= tol*(1+ynorm)) {
 		t.Errorf("|G'y - yl + yu| = %g (|y| %g)", d, ynorm)
 	}
 }
@@ -413,7 +414,7 @@ func checkRay(t *testing.T, p *lp.Problem, d []float64, tol float64) {
 	if len(d) != n {
 		t.Fatalf("ray has %d entries", len(d))
 	}
-	if cd := floats.Dot(p.C, d); math.Abs(cd+1) > 1e-9 {
+	if cd := floats.Dot(p.C, d); !scalar.EqualWithinAbs(cd, -1, 1e-9) {
 		t.Errorf("c'd = %g, want -1", cd)
 	}
 	dn := floats.Norm(d, math.Inf(1))
@@ -504,7 +505,7 @@ func TestSolveBadInput(t *testing.T) {
 	}
 	// A row with h = +Inf is no constraint.
 	r, err := lp.Solve(&lp.Problem{C: []float64{-1}, G: []float64{1, 1}, H: []float64{math.Inf(1), 2}}, nil)
-	if err != nil || math.Abs(r.X[0]-2) > 1e-7 || r.Z[0] != 0 {
+	if err != nil || !scalar.EqualWithinAbs(r.X[0], 2, 1e-7) || r.Z[0] != 0 {
 		t.Errorf("h = +Inf row: %v %v", r, err)
 	}
 }
@@ -540,7 +541,7 @@ func TestSolveEdgeCases(t *testing.T) {
 			switch tc.status {
 			case lp.Optimal:
 				// Default tolerance 1e-8 relative.
-				if err != nil || math.Abs(r.Objective-tc.obj) > 1e-7*(1+math.Abs(tc.obj)) {
+				if err != nil || !scalar.EqualWithinAbs(r.Objective, tc.obj, 1e-7*(1+math.Abs(tc.obj))) {
 					t.Errorf("objective %g (%v), want %g", r.Objective, err, tc.obj)
 				}
 				checkKKT(t, tc.p, r, 1e-7)

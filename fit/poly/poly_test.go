@@ -2,6 +2,7 @@ package poly_test
 
 import (
 	"fmt"
+	"gonum.org/v1/gonum/floats/scalar"
 	"math"
 	"math/rand/v2"
 	"testing"
@@ -76,7 +77,7 @@ func TestEvalGrad(t *testing.T) {
 			for j, e := range lib.Exponents(k) {
 				want *= math.Pow(x[j], float64(e))
 			}
-			if math.Abs(val[k]-want) > 1e-14 || val2[k] != val[k] {
+			if !scalar.EqualWithinAbs(val[k], want, 1e-14) || val2[k] != val[k] {
 				t.Fatalf("n=%d term %d: %g, %g, want %g", n, k, val[k], val2[k], want)
 			}
 		}
@@ -92,7 +93,7 @@ func TestEvalGrad(t *testing.T) {
 			lib.EvalTo(vm, xm)
 			for k := 0; k < p; k++ {
 				fd := (vp[k] - vm[k]) / (2 * h)
-				if math.Abs(grad[k*n+j]-fd) > 1e-7 {
+				if !scalar.EqualWithinAbs(grad[k*n+j], fd, 1e-7) {
 					t.Fatalf("n=%d term %s d/dx%d: %g, finite difference %g", n, lib.Name(k, make([]string, n)), j, grad[k*n+j], fd)
 				}
 			}
@@ -109,11 +110,11 @@ func TestEvalGrad(t *testing.T) {
 			xp[j] += h
 			xm[j] -= h
 			fd := (pl.Eval(xp) - pl.Eval(xm)) / (2 * h)
-			if math.Abs(g[j]-fd) > 1e-6 {
+			if !scalar.EqualWithinAbs(g[j], fd, 1e-6) {
 				t.Fatalf("Poly.GradTo n=%d j=%d: %g, finite difference %g", n, j, g[j], fd)
 			}
 		}
-		if c := pl.Compile(n); math.Abs(c.Eval(x)-pl.Eval(x)) > 1e-12 {
+		if c := pl.Compile(n); !scalar.EqualWithinAbs(c.Eval(x), pl.Eval(x), 1e-12) {
 			t.Fatalf("Compiled.Eval differs")
 		}
 	}
