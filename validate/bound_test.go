@@ -1,6 +1,7 @@
 package validate
 
 import (
+	"gonum.org/v1/gonum/floats/scalar"
 	"math"
 	"testing"
 
@@ -17,7 +18,7 @@ func TestScenarioTailBinomial(t *testing.T) {
 			for _, eps := range []float64{0.001, 0.01, 0.05, 0.2} {
 				want := distuv.Binomial{N: float64(n), P: eps}.CDF(float64(d - 1))
 				got := ScenarioTail(n, d, eps)
-				if math.Abs(got-want) > 1e-9*math.Max(want, 1e-300)+1e-300 {
+				if !scalar.EqualWithinAbs(got, want, 1e-9*math.Max(want, 1e-300)+1e-300) {
 					t.Errorf("tail(%d,%d,%g) = %.12g, gonum %.12g", n, d, eps, got, want)
 				}
 			}
@@ -49,10 +50,10 @@ func TestMinSamples(t *testing.T) {
 		}
 		// The tables give 5-6 significant digits: 1e-4 relative.
 		if tc.tailN > 0 {
-			if got := ScenarioTail(tc.n, tc.d, tc.eps); math.Abs(got/tc.tailN-1) > 1e-4 {
+			if got := ScenarioTail(tc.n, tc.d, tc.eps); !scalar.EqualWithinAbs(got/tc.tailN, 1, 1e-4) {
 				t.Errorf("tail at N=%d: %.6g, want %.6g", tc.n, got, tc.tailN)
 			}
-			if got := ScenarioTail(tc.n-1, tc.d, tc.eps); math.Abs(got/tc.tailBelow-1) > 1e-4 {
+			if got := ScenarioTail(tc.n-1, tc.d, tc.eps); !scalar.EqualWithinAbs(got/tc.tailBelow, 1, 1e-4) {
 				t.Errorf("tail at N=%d: %.6g, want %.6g", tc.n-1, got, tc.tailBelow)
 			}
 		}
@@ -94,11 +95,11 @@ func TestViolationBound(t *testing.T) {
 		beta float64
 		eps  float64
 	}{{100, 1, 0.05, 0.0295130}, {500, 3, 1e-3, 0.0222516}, {1000, 6, 1e-6, 0.0251547}, {2000, 10, 1e-9, 0.0206997}} {
-		if got := ViolationBound(tc.n, tc.d, tc.beta); math.Abs(got/tc.eps-1) > 1e-5 {
+		if got := ViolationBound(tc.n, tc.d, tc.beta); !scalar.EqualWithinAbs(got/tc.eps, 1, 1e-5) {
 			t.Errorf("ViolationBound(%d,%d,%g) = %.7g, want %.7g", tc.n, tc.d, tc.beta, got, tc.eps)
 		}
 	}
-	if got, want := ViolationBound(100, 1, 0.05), 1-math.Pow(0.05, 0.01); math.Abs(got-want) > 1e-10 {
+	if got, want := ViolationBound(100, 1, 0.05), 1-math.Pow(0.05, 0.01); !scalar.EqualWithinAbs(got, want, 1e-10) {
 		t.Errorf("d=1: %g, closed form %g", got, want)
 	}
 	// gonum's Beta quantile is the same inverse (I_{1-eps}(N-d+1, d) =
@@ -106,7 +107,7 @@ func TestViolationBound(t *testing.T) {
 	for _, n := range []int{50, 800, 5000} {
 		for _, d := range []int{1, 4, 13} {
 			want := distuv.Beta{Alpha: float64(d), Beta: float64(n - d + 1)}.Quantile(1 - 1e-6)
-			if got := ViolationBound(n, d, 1e-6); math.Abs(got/want-1) > 1e-6 {
+			if got := ViolationBound(n, d, 1e-6); !scalar.EqualWithinAbs(got/want, 1, 1e-6) {
 				t.Errorf("ViolationBound(%d,%d) = %g, gonum Beta quantile %g", n, d, got, want)
 			}
 		}
@@ -125,7 +126,7 @@ func TestAcfLag(t *testing.T) {
 		x[i] = math.Sin(2 * math.Pi * float64(i) / P)
 	}
 	want := P * math.Acos(1/math.E) / (2 * math.Pi) // 37.9
-	if got := acfLag(x); math.Abs(float64(got)-want) > 1.5 {
+	if got := acfLag(x); !scalar.EqualWithinAbs(float64(got), want, 1.5) {
 		t.Errorf("lag %d, want about %.1f", got, want)
 	}
 }

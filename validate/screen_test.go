@@ -2,6 +2,7 @@ package validate
 
 import (
 	"context"
+	"gonum.org/v1/gonum/floats/scalar"
 	"math"
 	"math/rand/v2"
 	"testing"
@@ -125,11 +126,11 @@ func TestScreenFlagDetail(t *testing.T) {
 	}
 	for i, f := range got.Flags {
 		// 1e-12: a handful of float64 operations on values near 1.
-		if f.Kind != want[i].Kind || math.Abs(f.Time-want[i].Time) > 1e-12 || math.Abs(f.Excess-want[i].Excess) > 1e-12 {
+		if f.Kind != want[i].Kind || !scalar.EqualWithinAbs(f.Time, want[i].Time, 1e-12) || !scalar.EqualWithinAbs(f.Excess, want[i].Excess, 1e-12) {
 			t.Errorf("flag %d = %+v, want %+v", i, f, want[i])
 		}
 	}
-	if math.Abs(s.SettleLevel()-0.0025) > 1e-15 {
+	if !scalar.EqualWithinAbs(s.SettleLevel(), 0.0025, 1e-15) {
 		t.Errorf("settle level %g, want 0.0025 (lambda_max 1 times 0.05^2)", s.SettleLevel())
 	}
 }
@@ -161,7 +162,7 @@ func TestScreenerV(t *testing.T) {
 				}
 				want := p.Eval(z)
 				// 1e-12 relative: sums of ~15 terms of order 1 in float64.
-				if got := s.V(z); math.Abs(got-want) > 1e-12*max(1, math.Abs(want)) {
+				if got := s.V(z); !scalar.EqualWithinAbs(got, want, 1e-12*max(1, math.Abs(want))) {
 					t.Fatalf("n=%d deg=%d: V = %v, want %v", n, deg, got, want)
 				}
 			}

@@ -5,7 +5,7 @@ import (
 	"context"
 	"encoding/json"
 	"fmt"
-	"math"
+	"gonum.org/v1/gonum/floats/scalar"
 	"math/rand/v2"
 	"os"
 	"path/filepath"
@@ -234,7 +234,7 @@ func TestRunIllConditioned(t *testing.T) {
 				base = c
 			}
 			if tc.levelTol > 0 && base != nil {
-				if c.Verdict != base.Verdict || math.Abs(c.Level-base.Level) > tc.levelTol*base.Level {
+				if c.Verdict != base.Verdict || !scalar.EqualWithinAbs(c.Level, base.Level, tc.levelTol*base.Level) {
 					t.Errorf("verdict %s level %.12g, baseline %s level %.12g (tolerance %g relative)",
 						c.Verdict, c.Level, base.Verdict, base.Level, tc.levelTol)
 				}

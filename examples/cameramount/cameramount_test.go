@@ -5,6 +5,7 @@ import (
 	"encoding/csv"
 	"errors"
 	"fmt"
+	"gonum.org/v1/gonum/floats/scalar"
 	"math"
 	"strconv"
 	"testing"
@@ -82,7 +83,7 @@ func TestStepLinear(t *testing.T) {
 	// At the demo's step (1e-4 s, w h ~ 1e-3) the local error is about
 	// (w h)^5/120 per step over 3e4 steps: ~1e-13 relative to the 0.1 rad
 	// amplitude. 1e-10 leaves room for rounding over 3e4 steps.
-	if e := errAt(1e-4); e > 1e-10 {
+	if e := errAt(1e-4); !(e <= 1e-10) {
 		t.Errorf("error at h=1e-4: %.3g, want <= 1e-10", e)
 	}
 	// Order: from h = 8 ms to 4 ms (w h ~ 0.08 and 0.04, where the
@@ -110,7 +111,7 @@ func TestParams(t *testing.T) {
 		// The saddle is an equilibrium.
 		{"acceleration at the saddle", p.Accel(p.SaddleOffset(), 0, 0), 0, 1e-12},
 	} {
-		if math.Abs(c.got-c.want) > c.tol {
+		if !scalar.EqualWithinAbs(c.got, c.want, c.tol) {
 			t.Errorf("%s = %.6g, want %.6g ± %g", c.name, c.got, c.want, c.tol)
 		}
 	}
@@ -147,7 +148,7 @@ func TestEnergy(t *testing.T) {
 		}
 		// Trapezoid error for omega^2 (frequency ~2w = 19 rad/s) at a
 		// 5 ms step: about (19 * 0.005)^2 / 12 = 7.5e-4 relative; 3e-3.
-		if got, want := e0-prev, loss; math.Abs(got-want) > 3e-3*want {
+		if got, want := e0-prev, loss; !scalar.EqualWithinAbs(got, want, 3e-3*want) {
 			t.Errorf("%s: energy fell by %.6g J, integral of C omega^2 is %.6g J", r.File, got, want)
 		}
 		// Settled: the decay rate zeta w = 1.42/s gives E ~ e^-28 after
@@ -243,7 +244,7 @@ func TestNoise(t *testing.T) {
 		{"gyro noise", math.Sqrt(som / n), 5e-3, 0.02},
 		{"step jitter", math.Sqrt(sdt / ndt), math.Sqrt2 * 20e-6, 0.05},
 	} {
-		if math.Abs(c.got-c.want) > c.rel*c.want {
+		if !scalar.EqualWithinAbs(c.got, c.want, c.rel*c.want) {
 			t.Errorf("%s: %.4g, want %.4g ± %.0f%%", c.name, c.got, c.want, 100*c.rel)
 		}
 	}
@@ -270,7 +271,7 @@ func TestCSV(t *testing.T) {
 		for j, want := range []float64{runs[0].T[k], runs[0].Theta[k], runs[0].Omega[k]} {
 			got, err := strconv.ParseFloat(row[j], 64)
 			// Six decimals: the printed value is within half a unit.
-			if err != nil || math.Abs(got-want) > 5e-7 {
+			if err != nil || !scalar.EqualWithinAbs(got, want, 5e-7) {
 				t.Fatalf("row %d col %d: %q, want %.9f", k+2, j+1, row[j], want)
 			}
 		}

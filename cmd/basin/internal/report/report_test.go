@@ -3,6 +3,7 @@ package report
 import (
 	"bytes"
 	"errors"
+	"gonum.org/v1/gonum/floats/scalar"
 	"math"
 	"regexp"
 	"strconv"
@@ -151,7 +152,7 @@ func TestFiguresRedrawCertificate(t *testing.T) {
 			a, b := x-fixtureEquil[0], y-fixtureEquil[1]
 			gx, gy := 3*a+b, a+2*b
 			tol := 2 * (math.Abs(gx)*dx + math.Abs(gy)*dy)
-			if v := quadV(x, y); math.Abs(v-cert.Level) > tol {
+			if v := quadV(x, y); !scalar.EqualWithinAbs(v, cert.Level, tol) {
 				t.Fatalf("boundary point (%g, %g): V = %g, level %g, tol %g", x, y, v, cert.Level, tol)
 			}
 			if x < cert.Box[0][0]-dx || x > cert.Box[0][1]+dx || y < cert.Box[1][0]-dy || y > cert.Box[1][1]+dy {
@@ -179,7 +180,7 @@ func TestFiguresRedrawCertificate(t *testing.T) {
 		cy += p[1] / 4
 	}
 	x, y, dx, dy := toData([2]float64{cx, cy})
-	if math.Abs(x-cert.Equilibrium[0]) > 2*dx || math.Abs(y-cert.Equilibrium[1]) > 2*dy {
+	if !scalar.EqualWithinAbs(x, cert.Equilibrium[0], 2*dx) || !scalar.EqualWithinAbs(y, cert.Equilibrium[1], 2*dy) {
 		t.Errorf("equilibrium drawn at (%g, %g), certificate (%g, %g)", x, y, cert.Equilibrium[0], cert.Equilibrium[1])
 	}
 	// Tables: the exact value of each number rides along in data-v.
@@ -234,7 +235,7 @@ func TestContourOnLevel(t *testing.T) {
 	}
 	for _, p := range l {
 		// bisection to 2^-60 of a cell edge (0.1): below 1e-15 in V
-		if r := math.Hypot(p[0], p[1]); math.Abs(r-1) > 1e-12 {
+		if r := math.Hypot(p[0], p[1]); !scalar.EqualWithinAbs(r, 1, 1e-12) {
 			t.Fatalf("point %v at radius %v", p, r)
 		}
 	}
