@@ -1,7 +1,6 @@
 package fit
 
 import (
-	"gonum.org/v1/gonum/floats/scalar"
 	"math"
 	"math/rand/v2"
 	"testing"

@@ -1,10 +1,10 @@
 package validate
 
 import (
-	"gonum.org/v1/gonum/floats/scalar"
 	"math"
 	"testing"
 
+	"gonum.org/v1/gonum/floats/scalar"
 	"gonum.org/v1/gonum/stat/distuv"
 )
 

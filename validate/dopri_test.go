@@ -1,9 +1,10 @@
 package validate
 
 import (
-	"gonum.org/v1/gonum/floats/scalar"
 	"math"
 	"testing"
+
+	"gonum.org/v1/gonum/floats/scalar"
 )
 
 // TestDopriTableau checks the tableau against the identities of

@@ -1,11 +1,11 @@
 package validate
 
 import (
-	"gonum.org/v1/gonum/floats/scalar"
 	"math"
 	"testing"
 
 	"basin.example/fit"
+	"gonum.org/v1/gonum/floats/scalar"
 )
 
 // TestModelChecks: the true model of the damped oscillator has a small

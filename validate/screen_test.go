@@ -2,10 +2,11 @@ package validate
 
 import (
 	"context"
-	"gonum.org/v1/gonum/floats/scalar"
 	"math"
 	"math/rand/v2"
 	"testing"
+
+	"gonum.org/v1/gonum/floats/scalar"
 
 	"basin.example/fit"
 	"basin.example/fit/poly"

@@ -2,11 +2,12 @@ package lp_test
 
 import (
 	"fmt"
-	"gonum.org/v1/gonum/floats/scalar"
 	"math"
 	"math/rand/v2"
 	"testing"
 	"time"
+
+	"gonum.org/v1/gonum/floats/scalar"
 
 	"basin.example/fit/lp"
 	"basin.example/fit/poly"

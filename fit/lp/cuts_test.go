@@ -2,7 +2,6 @@ package lp_test
 
 import (
 	"errors"
-	"gonum.org/v1/gonum/floats/scalar"
 	"math"
 	"math/rand/v2"
 	"slices"
@@ -10,6 +9,7 @@ import (
 	"testing"
 
 	"gonum.org/v1/gonum/floats"
+	"gonum.org/v1/gonum/floats/scalar"
 
 	"basin.example/fit/lp"
 )

@@ -1,13 +1,13 @@
 package lp
 
 import (
-	"gonum.org/v1/gonum/floats/scalar"
 	"math/rand/v2"
 	"slices"
 	"testing"
 
 	"gonum.org/v1/gonum/blas"
 	"gonum.org/v1/gonum/blas/blas64"
+	"gonum.org/v1/gonum/floats/scalar"
 )
 
 // TestTop checks the linear-time selection of the most violated rows

@@ -2,12 +2,12 @@ package lp_test
 
 import (
 	"errors"
-	"gonum.org/v1/gonum/floats/scalar"
 	"math"
 	"math/rand/v2"
 	"testing"
 
 	"gonum.org/v1/gonum/floats"
+	"gonum.org/v1/gonum/floats/scalar"
 	"gonum.org/v1/gonum/mat"
 	gonumlp "gonum.org/v1/gonum/optimize/convex/lp"
 

@@ -2,10 +2,11 @@ package poly_test
 
 import (
 	"fmt"
-	"gonum.org/v1/gonum/floats/scalar"
 	"math"
 	"math/rand/v2"
 	"testing"
+
+	"gonum.org/v1/gonum/floats/scalar"
 
 	"basin.example/fit/poly"
 )
