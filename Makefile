@@ -51,3 +51,15 @@ scale: build
 	$(GO) run ./examples/scale/measure "5e6 samples" ./$(BIN) run --quiet --out $(SCALE_DIR)/out-half $(SCALE_DIR)/half | tee $(SCALE_DIR)/half.txt
 	$(GO) run ./examples/scale/measure "1e7 samples" ./$(BIN) run --quiet --out $(SCALE_DIR)/out-full $(SCALE_DIR)/full | tee $(SCALE_DIR)/full.txt
 	@awk '/wall/ {w[NR]=$$4} END {printf "time ratio (1e7 / 5e6 samples): %.2f (target <= 2.3)\n", w[2]/w[1]}' $(SCALE_DIR)/half.txt $(SCALE_DIR)/full.txt
+
+# bench-lp: fit/lp (SolveCuts and Solve) against HiGHS's dual simplex on
+# the same certificate LP files, interleaved, with ratios and whether the
+# optima agree. HiGHS comes from Debian's python3-scipy (installed here
+# when missing) and is a yardstick only: basin never calls it.
+.PHONY: bench-lp
+BENCHLP_DIR ?= /tmp/basin-bench-lp
+BENCHLP_FLAGS ?=
+bench-lp:
+	@/usr/bin/python3 -c 'import scipy.optimize' 2>/dev/null || \
+	  { apt-get update && apt-get install -y --no-install-recommends python3-scipy; }
+	$(GO) run ./fit/lp/internal/benchlp -dir $(BENCHLP_DIR) $(BENCHLP_FLAGS)
