@@ -10,7 +10,7 @@ import (
 	"path/filepath"
 	"strings"
 
-	"basin.example/examples/cameramount"
+	"basin.example/internal/demodata"
 )
 
 // demoFlags are basin demo's flags.
@@ -61,7 +61,7 @@ func runDemo(ctx context.Context, e *env, o any, args []string) error {
 		return err
 	}
 	fmt.Fprintf(e.stdout, "wrote the demo data set: %d runs of a camera mount in %s (truth in %s)\n",
-		len(truth.Runs), data, filepath.Join(data, cameramount.TruthFile))
+		len(truth.Runs), data, filepath.Join(data, demodata.TruthFile))
 	if !c.Quiet {
 		fmt.Fprintf(e.stdout, "%d runs leave the basin: %s\n", len(truth.Leaving), strings.Join(truth.Leaving, ", "))
 	}
@@ -115,17 +115,17 @@ func runDemo(ctx context.Context, e *env, o any, args []string) error {
 
 // writeDemoData generates the demo data set and writes it into dir,
 // atomically: every run's CSV file and truth.json, or nothing.
-func writeDemoData(dir string, seed uint64) (*cameramount.Truth, error) {
-	runs, err := cameramount.Generate(seed, nil)
+func writeDemoData(dir string, seed uint64) (*demodata.Truth, error) {
+	runs, err := demodata.Generate(seed, nil)
 	if err != nil {
 		return nil, err
 	}
-	truth := cameramount.NewTruth(seed, nil, runs)
+	truth := demodata.NewTruth(seed, nil, runs)
 	files := make([]atomicFile, 0, len(runs)+1)
 	for i := range runs {
 		files = append(files, atomicFile{Name: runs[i].File, Write: runs[i].WriteCSV})
 	}
-	files = append(files, atomicFile{Name: cameramount.TruthFile, Write: truth.WriteJSON})
+	files = append(files, atomicFile{Name: demodata.TruthFile, Write: truth.WriteJSON})
 	if err := writeAtomic(dir, files...); err != nil {
 		// Mostly an --out that names a file or an unwritable place.
 		return nil, &inputError{fmt.Errorf("--out: %w", err)}

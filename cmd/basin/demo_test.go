@@ -8,7 +8,7 @@ import (
 	"strings"
 	"testing"
 
-	"basin.example/examples/cameramount"
+	"basin.example/internal/demodata"
 )
 
 func demo(t *testing.T, args ...string) (code int, stdout, stderr string) {
@@ -29,7 +29,7 @@ func TestDemoData(t *testing.T) {
 	if !strings.Contains(out, "40 runs") || !strings.Contains(out, "5 runs leave the basin") {
 		t.Errorf("stdout: %q", out)
 	}
-	runs, err := cameramount.Generate(1, nil)
+	runs, err := demodata.Generate(1, nil)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -45,12 +45,12 @@ func TestDemoData(t *testing.T) {
 			t.Errorf("%s differs from the generator's output (%v)", runs[i].File, err)
 		}
 	}
-	f, err := os.Open(filepath.Join(dir, "data", cameramount.TruthFile))
+	f, err := os.Open(filepath.Join(dir, "data", demodata.TruthFile))
 	if err != nil {
 		t.Fatal(err)
 	}
 	defer f.Close()
-	truth, err := cameramount.ReadTruth(f)
+	truth, err := demodata.ReadTruth(f)
 	if err != nil {
 		t.Fatal(err)
 	}

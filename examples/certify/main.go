@@ -7,7 +7,7 @@
 //
 //	go run ./examples/certify [DIR]
 //
-// With no DIR it writes the demo data set (package cameramount) into a
+// With no DIR it writes the demo data set (package internal/demodata) into a
 // temporary directory first. When DIR holds a truth.json (as the demo data
 // do), the screened runs are compared with the runs known to leave.
 package main
@@ -24,9 +24,9 @@ import (
 	"slices"
 	"strings"
 
-	"basin.example/examples/cameramount"
 	"basin.example/fit"
 	"basin.example/ingest"
+	"basin.example/internal/demodata"
 	"basin.example/validate"
 )
 
@@ -58,7 +58,7 @@ func run(ctx context.Context, w io.Writer, args []string) error {
 		}
 		defer os.RemoveAll(tmp)
 		dir = filepath.Join(tmp, "data")
-		if _, err := cameramount.WriteDir(ctx, dir, 1, nil); err != nil {
+		if _, err := demodata.WriteDir(ctx, dir, 1, nil); err != nil {
 			return err
 		}
 		fmt.Fprintf(w, "wrote the demo data set to %s\n", dir)
@@ -113,14 +113,14 @@ func run(ctx context.Context, w io.Writer, args []string) error {
 	fmt.Fprintf(w, "flagged %d of %d runs: %s\n", len(flagged), len(ds.Runs), strings.Join(flagged, ", "))
 
 	// 6. With the demo's truth at hand, compare.
-	f, err := os.Open(filepath.Join(dir, cameramount.TruthFile))
+	f, err := os.Open(filepath.Join(dir, demodata.TruthFile))
 	if errors.Is(err, fs.ErrNotExist) {
 		return nil
 	} else if err != nil {
 		return err
 	}
 	defer f.Close()
-	truth, err := cameramount.ReadTruth(f)
+	truth, err := demodata.ReadTruth(f)
 	if err != nil {
 		return err
 	}

@@ -1,4 +1,4 @@
-package cameramount
+package demodata
 
 import (
 	"io"

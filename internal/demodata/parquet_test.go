@@ -1,4 +1,4 @@
-package cameramount_test
+package demodata_test
 
 import (
 	"bytes"
@@ -8,15 +8,15 @@ import (
 	"slices"
 	"testing"
 
-	"basin.example/examples/cameramount"
 	"basin.example/ingest"
+	"basin.example/internal/demodata"
 )
 
 // TestParquetSameAsCSV reads one run written in both formats with basin's
 // readers: the numbers must agree bit for bit (the Parquet values are the
 // CSV decimals parsed with strconv, the IEEE 754 nearest double).
 func TestParquetSameAsCSV(t *testing.T) {
-	runs := generate(t, 1, &cameramount.Options{Runs: 2, Leaving: 1, Bursts: -1, Duration: 2})
+	runs := generate(t, 1, &demodata.Options{Runs: 2, Leaving: 1, Bursts: -1, Duration: 2})
 	dir := t.TempDir()
 	for i := range runs {
 		r := &runs[i]
@@ -55,13 +55,13 @@ func TestParquetSameAsCSV(t *testing.T) {
 // read as a log.
 func TestWriteDirFormats(t *testing.T) {
 	ctx := context.Background()
-	opts := &cameramount.Options{Runs: 4, Leaving: 1, Bursts: 1, Duration: 2}
+	opts := &demodata.Options{Runs: 4, Leaving: 1, Bursts: 1, Duration: 2}
 	a, b := t.TempDir(), t.TempDir()
-	ta, err := cameramount.WriteDir(ctx, a, 3, opts)
+	ta, err := demodata.WriteDir(ctx, a, 3, opts)
 	if err != nil {
 		t.Fatal(err)
 	}
-	if _, err := cameramount.WriteParquetDir(ctx, b, 3, opts); err != nil {
+	if _, err := demodata.WriteParquetDir(ctx, b, 3, opts); err != nil {
 		t.Fatal(err)
 	}
 	da, err := ingest.Load(ctx, []string{a}, nil)

@@ -1,4 +1,4 @@
-package cameramount_test
+package demodata_test
 
 import (
 	"bytes"
@@ -10,12 +10,12 @@ import (
 	"strconv"
 	"testing"
 
-	"basin.example/examples/cameramount"
+	"basin.example/internal/demodata"
 )
 
-func generate(t testing.TB, seed uint64, opts *cameramount.Options) []cameramount.Run {
+func generate(t testing.TB, seed uint64, opts *demodata.Options) []demodata.Run {
 	t.Helper()
-	runs, err := cameramount.Generate(seed, opts)
+	runs, err := demodata.Generate(seed, opts)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -23,7 +23,7 @@ func generate(t testing.TB, seed uint64, opts *cameramount.Options) []cameramoun
 }
 
 // bytesOf returns every CSV file and truth.json concatenated.
-func bytesOf(t *testing.T, seed uint64, runs []cameramount.Run) []byte {
+func bytesOf(t *testing.T, seed uint64, runs []demodata.Run) []byte {
 	var b bytes.Buffer
 	for i := range runs {
 		b.WriteString(runs[i].File + "\n")
@@ -31,7 +31,7 @@ func bytesOf(t *testing.T, seed uint64, runs []cameramount.Run) []byte {
 			t.Fatal(err)
 		}
 	}
-	if err := cameramount.NewTruth(seed, nil, runs).WriteJSON(&b); err != nil {
+	if err := demodata.NewTruth(seed, nil, runs).WriteJSON(&b); err != nil {
 		t.Fatal(err)
 	}
 	return b.Bytes()
@@ -71,7 +71,7 @@ func dampedFree(w, zeta, th0, om0, t float64) (float64, float64) {
 // Differential Equations", 2nd ed., 2008, sec. 32, the classical
 // fourth-order method), so halving h cuts the error about 16 times.
 func TestStepLinear(t *testing.T) {
-	p := cameramount.DefaultParams()
+	p := demodata.DefaultParams()
 	p.K3 = 0
 	w, zeta := math.Sqrt(p.K/p.J), p.DampingRatio()
 	const T = 3.0
@@ -96,7 +96,7 @@ func TestStepLinear(t *testing.T) {
 
 func TestParams(t *testing.T) {
 	// The demo's design figures (ours, documented in the package doc).
-	p := cameramount.DefaultParams()
+	p := demodata.DefaultParams()
 	for _, c := range []struct {
 		name      string
 		got, want float64
@@ -125,7 +125,7 @@ func TestParams(t *testing.T) {
 // that stay inside: E never rises, it falls by the integral of C omega^2,
 // and it ends settled.
 func TestEnergy(t *testing.T) {
-	p := cameramount.DefaultParams()
+	p := demodata.DefaultParams()
 	runs := generate(t, 1, nil)
 	inside := 0
 	for i := range runs {
@@ -171,9 +171,9 @@ func TestEnergy(t *testing.T) {
 // with energy below the saddles' and its angle between them can never
 // leave (the energy only falls), so each leaving run starts above it.
 func TestLeaving(t *testing.T) {
-	p := cameramount.DefaultParams()
+	p := demodata.DefaultParams()
 	runs := generate(t, 1, nil)
-	truth := cameramount.NewTruth(1, nil, runs)
+	truth := demodata.NewTruth(1, nil, runs)
 	if len(truth.Leaving) != 5 {
 		t.Fatalf("%d leaving runs %v, want 5", len(truth.Leaving), truth.Leaving)
 	}
@@ -252,7 +252,7 @@ func TestNoise(t *testing.T) {
 
 // TestCSV reads a written file back with encoding/csv and strconv.
 func TestCSV(t *testing.T) {
-	runs := generate(t, 1, &cameramount.Options{Runs: 3, Leaving: -1, Bursts: -1, Duration: 1})
+	runs := generate(t, 1, &demodata.Options{Runs: 3, Leaving: -1, Bursts: -1, Duration: 1})
 	var b bytes.Buffer
 	if err := runs[0].WriteCSV(&b); err != nil {
 		t.Fatal(err)
@@ -279,14 +279,14 @@ func TestCSV(t *testing.T) {
 }
 
 func TestImpossible(t *testing.T) {
-	p := cameramount.DefaultParams()
+	p := demodata.DefaultParams()
 	p.K3 = 0 // no saddles: nothing can leave
-	_, err := cameramount.Generate(1, &cameramount.Options{Params: &p, Runs: 2, Leaving: 1, Bursts: -1})
-	if !errors.Is(err, cameramount.ErrSearch) {
+	_, err := demodata.Generate(1, &demodata.Options{Params: &p, Runs: 2, Leaving: 1, Bursts: -1})
+	if !errors.Is(err, demodata.ErrSearch) {
 		t.Fatalf("err = %v, want ErrSearch", err)
 	}
 	// Without saddles, runs that stay inside are still possible.
-	runs, err := cameramount.Generate(1, &cameramount.Options{Params: &p, Runs: 4, Leaving: -1, Duration: 1})
+	runs, err := demodata.Generate(1, &demodata.Options{Params: &p, Runs: 4, Leaving: -1, Duration: 1})
 	if err != nil || len(runs) != 4 || runs[0].Leaves {
 		t.Fatalf("no saddles, inside runs: %d runs, err %v", len(runs), err)
 	}

@@ -1,4 +1,4 @@
-// Package cameramount generates basin's demo data set: an invented
+// Package demodata generates basin's demo data set: an invented
 // pitch-stabilised camera mount on a vibration rig.
 //
 // # The scenario
@@ -34,7 +34,7 @@
 // Everything is deterministic from the seed: [Generate] draws from
 // rand.New(rand.NewPCG(seed, 0)) only, and the CSV writers format numbers
 // with strconv, so the same seed gives the same bytes.
-package cameramount
+package demodata
 
 import (
 	"errors"
@@ -237,7 +237,7 @@ type Run struct {
 
 // ErrSearch is returned by Generate when no start of the requested kind was
 // found (only possible with unusual Params or Options).
-var ErrSearch = errors.New("cameramount: no suitable start found")
+var ErrSearch = errors.New("demodata: no suitable start found")
 
 // maxTries bounds the rejection sampling of one run's start.
 const maxTries = 10000

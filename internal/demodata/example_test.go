@@ -1,18 +1,18 @@
-package cameramount_test
+package demodata_test
 
 import (
 	"fmt"
 
-	"basin.example/examples/cameramount"
+	"basin.example/internal/demodata"
 )
 
 func ExampleGenerate() {
-	runs, err := cameramount.Generate(1, nil)
+	runs, err := demodata.Generate(1, nil)
 	if err != nil {
 		fmt.Println(err)
 		return
 	}
-	t := cameramount.NewTruth(1, nil, runs)
+	t := demodata.NewTruth(1, nil, runs)
 	fmt.Printf("%d runs, saddles at ±%.3f rad, leaving: %v\n", len(runs), t.Params.SaddleOffset(), t.Leaving)
 	// Output:
 	// 40 runs, saddles at ±0.346 rad, leaving: [run-08.csv run-09.csv run-22.csv run-25.csv run-37.csv]
