@@ -2,7 +2,6 @@ package main
 
 import (
 	"context"
-	"errors"
 	"flag"
 	"fmt"
 	"io"
@@ -16,17 +15,27 @@ import (
 
 // certifyFlags are basin certify's flags.
 type certifyFlags struct {
-	commonFlags
-	Model  string
-	Growth int
+	inputFlags
+	outputFlags
+	certFlags
+	Model string
+	Out   string
+	Seed  uint64
 }
 
-func init() {
-	register(&command{
-		Name:  "certify",
-		Usage: "basin certify --model model.json [flags] INPUTS...",
-		Short: "fit a Lyapunov certificate; writes certificate.json",
-		Long: `Fits a Lyapunov function V for the model's primary equilibrium on the runs
+func (f *certifyFlags) register(fs *flag.FlagSet) {
+	f.inputFlags.register(fs, true)
+	f.outputFlags.register(fs)
+	f.certFlags.register(fs)
+	fs.StringVar(&f.Model, "model", "", "the fitted model `FILE` (model.json from basin fit)")
+	registerOut(fs, &f.Out, defaultOut, "write certificate.json into `DIR`")
+	registerSeed(fs, &f.Seed)
+}
+
+var cmdCertify = &command{
+	UsageLine: "basin certify --model model.json [flags] INPUTS...",
+	Short:     "fit a Lyapunov certificate; writes certificate.json",
+	Long: `Fits a Lyapunov function V for the model's primary equilibrium on the runs
 (those a manifest marks holdout are left out) and finds the largest level
 set {V <= level} on which V is positive and falls, inside the envelope the
 data cover. V is a polynomial of even degree --v-degree in the scaled
@@ -37,55 +46,41 @@ re-fits V on larger level sets while that gains volume (--growth rounds).
 Writes DIR/certificate.json; the verdict stays inconclusive until the
 certificate is checked on held-out runs (basin check, basin run).
 --json prints the certificate instead of the summary.`,
-		Flags: func(fs *flag.FlagSet) any {
-			c := &certifyFlags{}
-			c.addInputFlags(fs)
-			c.addFitFlags(fs, "basin-out")
-			fs.StringVar(&c.Model, "model", "", "the fitted model `FILE` (model.json from basin fit)")
-			fs.IntVar(&c.Growth, "growth", 14, "region growth rounds `N` (LP re-fits on larger level sets)")
-			return c
-		},
-		Run: runCertify,
-	})
 }
 
-func runCertify(ctx context.Context, e *env, o any, args []string) error {
-	c := o.(*certifyFlags)
-	if err := c.checkFit(); err != nil {
+func init() { cmdCertify.Run = runCertify }
+
+func runCertify(ctx context.Context, e *env, args []string) error {
+	var f certifyFlags
+	fs := cmdCertify.flagSet()
+	f.register(fs)
+	args, err := cmdCertify.parse(e, fs, args)
+	if err != nil {
 		return err
 	}
-	if c.Model == "" {
+	opts, err := f.certFlags.options(f.Seed)
+	if err != nil {
+		return err
+	}
+	if f.Model == "" {
 		return usagef("--model FILE is required (the model.json written by basin fit)")
 	}
-	if c.Growth < 1 || c.Growth > 100 {
-		return usagef("--growth must be 1..100, got %d", c.Growth)
-	}
-	m, err := readModelFile(c.Model)
+	m, err := readModelFile(f.Model)
 	if err != nil {
 		return err
 	}
-	ds, err := loadInputs(ctx, e, &c.commonFlags, args)
+	ds, err := loadInputs(ctx, e, &f.inputFlags, f.Quiet, args)
 	if err != nil {
 		return err
 	}
-	use := *ds
-	use.Runs = nil
-	for _, r := range ds.Runs {
-		if r.Split != "holdout" {
-			use.Runs = append(use.Runs, r)
-		}
-	}
-	cert, err := fit.Certify(ctx, m, &use, &fit.CertifyOptions{Degree: c.VDegree, Seed: c.Seed, Growth: c.Growth})
+	cert, err := fit.Certify(ctx, m, fitRuns(ds), opts)
 	if err != nil {
-		if errors.Is(err, fit.ErrMismatch) || errors.Is(err, fit.ErrOptions) || errors.Is(err, fit.ErrTooFewSamples) {
-			return &inputError{fmt.Errorf("%s: %w", c.Model, err)}
-		}
-		return err
+		return classify(err, f.Model)
 	}
 	if cert.V.Exponents == nil {
 		cert.V = poly.Poly{Exponents: [][]int{}, Coefficients: []float64{}}
 	}
-	return writeOutput(e, &c.commonFlags, "certificate.json", cert, func(w io.Writer) { printCertificate(w, cert) })
+	return writeOutput(e, f.Out, &f.outputFlags, "certificate.json", cert, func(w io.Writer) { printCertificate(w, cert) })
 }
 
 // readModelFile opens and decodes a model.json; any failure is bad input.

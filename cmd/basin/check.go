@@ -2,7 +2,6 @@ package main
 
 import (
 	"context"
-	"errors"
 	"flag"
 	"fmt"
 	"math"
@@ -15,37 +14,36 @@ import (
 
 // checkFlags are the flags of basin check.
 type checkFlags struct {
-	commonFlags
+	inputFlags
+	outputFlags
 	Cert        string
 	MinDecrease float64
 	Beta        float64
 	Tolerance   float64
 }
 
-func init() {
-	register(&command{
-		Name:  "check",
-		Usage: "basin check --cert certificate.json [flags] INPUTS...",
-		Short: "validate a certificate on runs it has not seen",
-		Long: `Checks a saved certificate on new runs: per run, whether it starts inside
+func (f *checkFlags) register(fs *flag.FlagSet) {
+	f.inputFlags.register(fs, true)
+	f.outputFlags.register(fs)
+	fs.StringVar(&f.Cert, "cert", "", "the certificate `FILE` (certificate.json)")
+	fs.Float64Var(&f.MinDecrease, "min-decrease", defaultMinDecr, "decrease fraction `F` a certified verdict needs")
+	fs.Float64Var(&f.Beta, "beta", defaultBeta, "scenario bound confidence parameter `B` (confidence 1-B)")
+	fs.Float64Var(&f.Tolerance, "rise-tol", 0, "tolerated rise of V between samples `DV` (0: the certificate's)")
+}
+
+var cmdCheck = &command{
+	UsageLine: "basin check --cert certificate.json [flags] INPUTS...",
+	Short:     "validate a certificate on runs it has not seen",
+	Long: `Checks a saved certificate on new runs: per run, whether it starts inside
 the region, stays inside, settles, and on how many consecutive pairs
 inside the region V fell (within the certificate's noise tolerance);
 overall the decrease and invariance fractions, the worst violation, and
 the scenario bound on the chance that a new sample from the same envelope
 violates the decrease condition (counting only samples one decorrelation
 time apart). The verdict on these runs follows the same rules as 'run'.`,
-		Flags: func(fs *flag.FlagSet) any {
-			c := &checkFlags{}
-			c.addInputFlags(fs)
-			fs.StringVar(&c.Cert, "cert", "", "the certificate `FILE` (certificate.json)")
-			fs.Float64Var(&c.MinDecrease, "min-decrease", 0.99, "decrease fraction `F` a certified verdict needs")
-			fs.Float64Var(&c.Beta, "beta", 1e-6, "scenario bound confidence parameter `B` (confidence 1-B)")
-			fs.Float64Var(&c.Tolerance, "rise-tol", 0, "tolerated rise of V between samples `DV` (0: the certificate's)")
-			return c
-		},
-		Run: runCheck,
-	})
 }
+
+func init() { cmdCheck.Run = runCheck }
 
 // checkJSON is the contract's check --json shape.
 type checkJSON struct {
@@ -77,8 +75,14 @@ type checkSummary struct {
 	Caveat             string       `json:"caveat"`
 }
 
-func runCheck(ctx context.Context, e *env, o any, args []string) error {
-	c := o.(*checkFlags)
+func runCheck(ctx context.Context, e *env, args []string) error {
+	c := new(checkFlags)
+	fs := cmdCheck.flagSet()
+	c.register(fs)
+	args, err := cmdCheck.parse(e, fs, args)
+	if err != nil {
+		return err
+	}
 	switch {
 	case c.Cert == "":
 		return usagef("--cert FILE is required")
@@ -93,17 +97,14 @@ func runCheck(ctx context.Context, e *env, o any, args []string) error {
 	if err != nil {
 		return err
 	}
-	ds, err := loadInputs(ctx, e, &c.commonFlags, args)
+	ds, err := loadInputs(ctx, e, &c.inputFlags, c.Quiet, args)
 	if err != nil {
 		return err
 	}
 	opts := &validate.Options{Beta: c.Beta, MinDecrease: c.MinDecrease, Tolerance: c.Tolerance}
 	val, runs, err := validate.Check(ctx, cert, ds, opts)
 	if err != nil {
-		if errors.Is(err, fit.ErrMismatch) {
-			return &inputError{fmt.Errorf("%s: %w", c.Cert, err)}
-		}
-		return err
+		return classify(err, c.Cert)
 	}
 	judged := *cert
 	validate.Decide(&judged, val, runs, nil, opts)

@@ -1,28 +1,40 @@
 package main
 
 import (
+	"bytes"
 	"context"
 	"errors"
 	"flag"
 	"fmt"
 	"io"
 	"runtime/debug"
-	"sort"
 	"strings"
-	"sync"
 )
 
-// A command is one subcommand of basin.
+// A command is one subcommand of basin, on the model of cmd/go's
+// base.Command: each lives in its own file with its own flag struct, and
+// its Run makes a fresh [flag.FlagSet], so no flag outlives a call.
 type command struct {
-	Name  string
-	Usage string // "basin inspect [flags] INPUTS..."
-	Short string
-	Long  string
-	// Flags adds the command's flags to fs and returns the parsed values.
-	Flags func(fs *flag.FlagSet) any
-	// Run does the work. args are the positional arguments.
-	Run func(ctx context.Context, env *env, opts any, args []string) error
+	// UsageLine is the one-line usage; its second word is the name.
+	UsageLine string
+	Short     string // one line for 'basin help'
+	Long      string // the rest of 'basin help NAME'
+	// Run parses args (flags anywhere among the INPUTS) and does the work.
+	// With -h it prints the help and returns errHelp.
+	Run func(ctx context.Context, e *env, args []string) error
 }
+
+// Name is the command's name: the second word of UsageLine.
+func (c *command) Name() string {
+	f := strings.Fields(c.UsageLine)
+	if len(f) < 2 {
+		return ""
+	}
+	return f[1]
+}
+
+// commands are basin's commands in the order 'basin help' lists them.
+var commands = []*command{cmdRun, cmdInspect, cmdFit, cmdCertify, cmdCheck, cmdScreen, cmdExport, cmdDemo, cmdHelp, cmdVersion}
 
 // env is what a command may touch besides its flags.
 type env struct {
@@ -30,16 +42,9 @@ type env struct {
 	stdin          io.Reader
 }
 
-var (
-	commands  []*command
-	stubsOnce sync.Once
-)
-
-func register(c *command) { commands = append(commands, c) }
-
 func lookup(name string) *command {
 	for _, c := range commands {
-		if c.Name == name {
+		if c.Name() == name {
 			return c
 		}
 	}
@@ -52,10 +57,8 @@ func basinMain(ctx context.Context, args []string, stdout, stderr io.Writer) (co
 }
 
 func basinMainIn(ctx context.Context, args []string, stdout, stderr io.Writer, stdin io.Reader) (code int) {
-	stubsOnce.Do(addStubs)
-	sort.SliceStable(commands, func(i, j int) bool { return commands[i].Name < commands[j].Name })
 	if len(args) == 0 {
-		printHelp(stdout, "")
+		printOverview(stdout)
 		return 2
 	}
 	name := args[0]
@@ -64,33 +67,56 @@ func basinMainIn(ctx context.Context, args []string, stdout, stderr io.Writer, s
 	}
 	c := lookup(name)
 	if c == nil {
-		fmt.Fprintf(stderr, "basin: unknown command %q; try 'basin help'\n", name)
+		fmt.Fprintf(stderr, "basin: unknown command %q; try 'basin help'\n", printable(name))
 		return 2
 	}
 	defer func() {
 		if r := recover(); r != nil {
+			// A bare panic would exit 2, the code for bad input.
 			fmt.Fprintf(stderr, "basin %s: internal failure: %v\n%s", name, r, debug.Stack())
 			code = 3
 		}
 	}()
-	fs := flag.NewFlagSet("basin "+name, flag.ContinueOnError)
+	err := c.Run(ctx, &env{stdout: stdout, stderr: stderr, stdin: stdin}, args[1:])
+	return exitCode(stderr, name, err)
+}
+
+// flagSet returns a fresh, silent FlagSet for c.
+func (c *command) flagSet() *flag.FlagSet {
+	fs := flag.NewFlagSet("basin "+c.Name(), flag.ContinueOnError)
 	fs.SetOutput(io.Discard)
-	var opts any
-	if c.Flags != nil {
-		opts = c.Flags(fs)
-	}
-	pos, err := parseAnywhere(fs, args[1:])
+	return fs
+}
+
+// parse parses args into fs, flags before or after the positional
+// arguments. On -h it prints c's help to e.stdout and returns errHelp; a
+// bad flag is a usage error.
+func (c *command) parse(e *env, fs *flag.FlagSet, args []string) ([]string, error) {
+	pos, err := parseAnywhere(fs, args)
 	if errors.Is(err, flag.ErrHelp) {
-		printHelp(stdout, name)
-		return 0
+		c.printHelp(e.stdout, fs)
+		return nil, errHelp
 	}
 	if err != nil {
-		fmt.Fprintf(stderr, "basin %s: %v\n", name, err)
-		return 2
+		// The flag package spells the flag with one dash; basin's help uses two.
+		return nil, &usageError{strings.Replace(err.Error(), ": -", ": --", 1)}
 	}
-	e := &env{stdout: stdout, stderr: stderr, stdin: stdin}
-	err = c.Run(ctx, e, opts, pos)
-	return exitCode(stderr, name, err)
+	return pos, nil
+}
+
+// printHelp writes c's usage, description and flags (with their defaults).
+func (c *command) printHelp(w io.Writer, fs *flag.FlagSet) {
+	fmt.Fprintf(w, "Usage: %s\n\n%s.\n", c.UsageLine, capitalise(c.Short))
+	if c.Long != "" {
+		fmt.Fprintf(w, "\n%s\n", strings.TrimSpace(c.Long))
+	}
+	var b bytes.Buffer
+	fs.SetOutput(&b)
+	fs.PrintDefaults()
+	fs.SetOutput(io.Discard)
+	if b.Len() > 0 {
+		fmt.Fprintf(w, "\nFlags:\n%s", strings.ReplaceAll(b.String(), "  -", "  --"))
+	}
 }
 
 // parseAnywhere parses flags before and after positional arguments: flag
@@ -116,42 +142,17 @@ func parseAnywhere(fs *flag.FlagSet, args []string) ([]string, error) {
 	}
 }
 
-// Errors that choose the exit code.
-type usageError struct{ msg string }
-
-func (e *usageError) Error() string { return e.msg }
-
-// inputError marks bad input: exit 2 with one line.
-type inputError struct{ err error }
-
-func (e *inputError) Error() string { return e.err.Error() }
-func (e *inputError) Unwrap() error { return e.err }
-
-var errFlagged = errors.New("at least one run flagged")
-
-var errNotBuilt = errors.New("not built yet")
-
-func usagef(format string, a ...any) error { return &usageError{fmt.Sprintf(format, a...)} }
-
-// exitCode prints err (one line) and maps it to the contract's exit codes.
-func exitCode(stderr io.Writer, name string, err error) int {
-	if err == nil {
-		return 0
+// noInputs refuses positional arguments for a command that takes none.
+func noInputs(c *command, args []string) error {
+	if len(args) > 0 {
+		return usagef("%s takes no INPUTS, got %q", c.Name(), printable(args[0]))
 	}
-	if errors.Is(err, errFlagged) {
-		return 1
+	return nil
+}
+
+func capitalise(s string) string {
+	if s == "" {
+		return s
 	}
-	msg := strings.ReplaceAll(err.Error(), "\n", " ")
-	var ue *usageError
-	var ie *inputError
-	switch {
-	case errors.As(err, &ue), errors.As(err, &ie):
-		fmt.Fprintf(stderr, "basin %s: %s\n", name, msg)
-		return 2
-	case errors.Is(err, context.Canceled):
-		fmt.Fprintf(stderr, "basin %s: interrupted; no output written\n", name)
-		return 3
-	}
-	fmt.Fprintf(stderr, "basin %s: %s\n", name, msg)
-	return 3
+	return strings.ToUpper(s[:1]) + s[1:]
 }

@@ -2,10 +2,8 @@ package main
 
 import (
 	"context"
-	"errors"
 	"flag"
 	"fmt"
-	"io"
 	"os"
 	"path/filepath"
 	"strings"
@@ -21,12 +19,17 @@ type demoFlags struct {
 	DataOnly bool
 }
 
-func init() {
-	register(&command{
-		Name:  "demo",
-		Usage: "basin demo [--out DIR]",
-		Short: "write the demo data set and run the job on it",
-		Long: `Writes the built-in demo data set into DIR/data and runs 'basin run
+func (f *demoFlags) register(fs *flag.FlagSet) {
+	fs.StringVar(&f.Out, "out", "basin-demo", "write the data and the outputs to `DIR`")
+	fs.Uint64Var(&f.Seed, "seed", defaultSeed, "random seed `N` of the demo data")
+	fs.BoolVar(&f.Quiet, "quiet", false, "print only where the outputs are")
+	fs.BoolVar(&f.DataOnly, "data-only", false, "write the data set only; do not run the job")
+}
+
+var cmdDemo = &command{
+	UsageLine: "basin demo [--out DIR]",
+	Short:     "write the demo data set and run the job on it",
+	Long: `Writes the built-in demo data set into DIR/data and runs 'basin run
 --out DIR DIR/data' on it, then says where the report is.
 
 The data are invented: a pitch-stabilised camera mount on a vibration rig
@@ -35,22 +38,20 @@ ratio 0.15, a softening spring with saddles at ±0.346 rad). 40 runs of
 10 s at 200 Hz start from kicks or from vibration bursts; 5 of them leave
 the basin and end at the end stop (|theta| >= 0.8 rad). DIR/data/truth.json
 says which (it is not read as a log). The same --seed gives the same bytes.`,
-		Flags: func(fs *flag.FlagSet) any {
-			c := &demoFlags{}
-			fs.StringVar(&c.Out, "out", "basin-demo", "write the data and the outputs to `DIR`")
-			fs.Uint64Var(&c.Seed, "seed", 1, "random seed `N` of the demo data")
-			fs.BoolVar(&c.Quiet, "quiet", false, "print only where the outputs are")
-			fs.BoolVar(&c.DataOnly, "data-only", false, "write the data set only; do not run the job")
-			return c
-		},
-		Run: runDemo,
-	})
 }
 
-func runDemo(ctx context.Context, e *env, o any, args []string) error {
-	c := o.(*demoFlags)
-	if len(args) > 0 {
-		return usagef("demo takes no INPUTS, got %q", args[0])
+func init() { cmdDemo.Run = runDemo }
+
+func runDemo(ctx context.Context, e *env, args []string) error {
+	c := new(demoFlags)
+	fs := cmdDemo.flagSet()
+	c.register(fs)
+	args, err := cmdDemo.parse(e, fs, args)
+	if err != nil {
+		return err
+	}
+	if err := noInputs(cmdDemo, args); err != nil {
+		return err
 	}
 	if c.Out == "" {
 		return usagef("--out needs a directory")
@@ -75,32 +76,7 @@ func runDemo(ctx context.Context, e *env, o any, args []string) error {
 	if !c.Quiet {
 		fmt.Fprintf(e.stdout, "\nbasin run --out %s %s\n", c.Out, data)
 	}
-	err = subcommand(ctx, e, "run", append(append([]string{"--out", c.Out}, quiet...), data))
-	if errors.Is(err, errNotBuilt) {
-		// Until 'run' lands, run the stages that exist, and say so.
-		fmt.Fprintf(e.stdout, "basin run is not built yet; running the stages that exist instead\n")
-		ran := 0
-		for _, st := range [][]string{
-			{"inspect", data},
-			{"fit", "--out", c.Out, data},
-			{"certify", "--model", filepath.Join(c.Out, "model.json"), "--out", c.Out, data},
-		} {
-			if !c.Quiet {
-				fmt.Fprintf(e.stdout, "\nbasin %s\n", strings.Join(st, " "))
-			}
-			err = subcommand(ctx, e, st[0], append(quiet, st[1:]...))
-			if errors.Is(err, errNotBuilt) {
-				fmt.Fprintf(e.stdout, "basin %s is not built yet\n", st[0])
-				continue
-			}
-			if err != nil {
-				return fmt.Errorf("%s: %w", st[0], err)
-			}
-			ran++
-		}
-		fmt.Fprintf(e.stdout, "\nran %d stage(s); no report yet (it comes with basin run)\n", ran)
-		return nil
-	}
+	err = cmdRun.Run(ctx, e, append(append([]string{"--out", c.Out}, quiet...), data))
 	if err != nil {
 		return fmt.Errorf("run: %w", err)
 	}
@@ -131,25 +107,4 @@ func writeDemoData(dir string, seed uint64) (*demodata.Truth, error) {
 		return nil, &inputError{fmt.Errorf("--out: %w", err)}
 	}
 	return truth, nil
-}
-
-// subcommand runs another command as if from the command line, with its
-// own flags, and returns its error (nil, errNotBuilt for a stub, ...).
-func subcommand(ctx context.Context, e *env, name string, args []string) error {
-	c := lookup(name)
-	if c == nil {
-		return errNotBuilt
-	}
-	if c.Flags == nil {
-		// No flags (as the stubs of unbuilt commands): pass args as given.
-		return c.Run(ctx, e, nil, args)
-	}
-	fs := flag.NewFlagSet("basin "+name, flag.ContinueOnError)
-	fs.SetOutput(io.Discard)
-	opts := c.Flags(fs)
-	pos, err := parseAnywhere(fs, args)
-	if err != nil {
-		return fmt.Errorf("basin %s: %w", name, err)
-	}
-	return c.Run(ctx, e, opts, pos)
 }

@@ -20,12 +20,18 @@ type exportFlags struct {
 	Quiet   bool
 }
 
-func init() {
-	register(&command{
-		Name:  "export",
-		Usage: "basin export --cert certificate.json --lang go|c|python",
-		Short: "write a dependency-free function that evaluates V",
-		Long: `Writes, on standard output, a small function with no dependencies that
+func (f *exportFlags) register(fs *flag.FlagSet) {
+	fs.StringVar(&f.Cert, "cert", "", "the certificate `FILE` (certificate.json)")
+	fs.StringVar(&f.Lang, "lang", "", "target `LANG`: go, c or python")
+	fs.StringVar(&f.Package, "package", "", "Go package `NAME` (default basinv)")
+	fs.StringVar(&f.Prefix, "prefix", "", "C identifier `PREFIX` (default basin_)")
+	fs.BoolVar(&f.Quiet, "quiet", false, "no warnings")
+}
+
+var cmdExport = &command{
+	UsageLine: "basin export --cert certificate.json --lang go|c|python",
+	Short:     "write a dependency-free function that evaluates V",
+	Long: `Writes, on standard output, a small function with no dependencies that
 evaluates the certificate's Lyapunov function V at a state vector in the
 logs' original units (the scaling z = (x - equilibrium)/scale is built in)
 and tests membership of the region: V <= level and inside the box. The
@@ -35,23 +41,20 @@ machines (compile C without -ffast-math or FMA contraction).
 
 A certificate that is not certified still exports, with a warning in the
 code and on standard error: its region claims nothing.`,
-		Flags: func(fs *flag.FlagSet) any {
-			c := &exportFlags{}
-			fs.StringVar(&c.Cert, "cert", "", "the certificate `FILE` (certificate.json)")
-			fs.StringVar(&c.Lang, "lang", "", "target `LANG`: go, c or python")
-			fs.StringVar(&c.Package, "package", "", "Go package `NAME` (default basinv)")
-			fs.StringVar(&c.Prefix, "prefix", "", "C identifier `PREFIX` (default basin_)")
-			fs.BoolVar(&c.Quiet, "quiet", false, "no warnings")
-			return c
-		},
-		Run: runExport,
-	})
 }
 
-func runExport(ctx context.Context, e *env, opts any, args []string) error {
-	c := opts.(*exportFlags)
-	if len(args) > 0 {
-		return usagef("export takes no INPUTS, got %q", args[0])
+func init() { cmdExport.Run = runExport }
+
+func runExport(ctx context.Context, e *env, args []string) error {
+	c := new(exportFlags)
+	fs := cmdExport.flagSet()
+	c.register(fs)
+	args, err := cmdExport.parse(e, fs, args)
+	if err != nil {
+		return err
+	}
+	if err := noInputs(cmdExport, args); err != nil {
+		return err
 	}
 	if c.Cert == "" {
 		return usagef("--cert FILE is required")
@@ -72,10 +75,8 @@ func runExport(ctx context.Context, e *env, opts any, args []string) error {
 	switch {
 	case errors.Is(err, export.ErrName):
 		return usagef("%v", err)
-	case errors.Is(err, export.ErrNoV):
-		return &inputError{errors.New(c.Cert + ": " + err.Error())}
 	case err != nil:
-		return err
+		return classify(err, c.Cert)
 	}
 	if cert.Verdict != fit.Certified {
 		warnf(e, c.Quiet, "%s: verdict is %s; the exported region claims nothing", c.Cert, cert.Verdict)

@@ -2,7 +2,6 @@ package main
 
 import (
 	"context"
-	"errors"
 	"flag"
 	"fmt"
 	"io"
@@ -17,65 +16,52 @@ import (
 
 // fitFlags are basin fit's flags.
 type fitFlags struct {
-	commonFlags
-	Deriv     string
-	Bootstrap int
+	inputFlags
+	outputFlags
+	fieldFlags
+	Out  string
+	Seed uint64
 }
 
-func init() {
-	register(&command{
-		Name:  "fit",
-		Usage: "basin fit [flags] INPUTS...",
-		Short: "fit the vector field only; writes model.json",
-		Long: `Fits a sparse polynomial vector field dx/dt = f(x) to the runs (those a
+func (f *fitFlags) register(fs *flag.FlagSet) {
+	f.inputFlags.register(fs, true)
+	f.outputFlags.register(fs)
+	f.fieldFlags.register(fs)
+	registerOut(fs, &f.Out, defaultOut, "write model.json into `DIR`")
+	registerSeed(fs, &f.Seed)
+}
+
+var cmdFit = &command{
+	UsageLine: "basin fit [flags] INPUTS...",
+	Short:     "fit the vector field only; writes model.json",
+	Long: `Fits a sparse polynomial vector field dx/dt = f(x) to the runs (those a
 manifest marks holdout are left out): derivatives from the samples,
 sequentially thresholded ridge regression on all monomials up to --degree,
-threshold chosen by cross-validation over runs (--folds), a bootstrap over
-runs for the share of fits that keep each term and its interval, and the equilibria
-of the fitted field with their linearisation. Writes DIR/model.json and
-prints the equations in the logs' units; --json prints the model instead.`,
-		Flags: func(fs *flag.FlagSet) any {
-			c := &fitFlags{}
-			c.addInputFlags(fs)
-			c.addFitFlags(fs, "basin-out")
-			fs.StringVar(&c.Deriv, "deriv", "", "derivative `METHOD`: savitzky-golay, fornberg or integral (default "+fit.DefaultDerivative+")")
-			fs.IntVar(&c.Bootstrap, "bootstrap", 100, "bootstrap refits over runs `N` (0: none)")
-			return c
-		},
-		Run: runFit,
-	})
+threshold chosen by cross-validation over runs (--select-folds), a
+bootstrap over runs for the share of fits that keep each term and its
+interval, and the equilibria of the fitted field with their linearisation. Writes
+DIR/model.json and prints the equations in the logs' units; --json prints
+the model instead.`,
 }
 
-// fieldOptions turns the flags into fit options.
-func (c *fitFlags) fieldOptions() (*fit.FieldOptions, error) {
-	if err := c.checkFit(); err != nil {
-		return nil, err
-	}
-	switch c.Deriv {
-	case "", fit.DerivSavitzkyGolay, fit.DerivFornberg, fit.DerivIntegral:
-	default:
-		return nil, usagef("--deriv must be savitzky-golay, fornberg or integral, got %q", c.Deriv)
-	}
-	if c.Bootstrap < 0 || c.Bootstrap > 10000 {
-		return nil, usagef("--bootstrap must be 0..10000, got %d", c.Bootstrap)
-	}
-	b := c.Bootstrap
-	if b == 0 {
-		b = -1
-	}
-	return &fit.FieldOptions{Degree: c.Degree, Folds: c.Folds, Seed: c.Seed, Derivative: c.Deriv, Bootstrap: b}, nil
-}
+func init() { cmdFit.Run = runFit } // runFit mentions cmdFit: break the init cycle
 
-func runFit(ctx context.Context, e *env, o any, args []string) error {
-	c := o.(*fitFlags)
-	opts, err := c.fieldOptions()
+func runFit(ctx context.Context, e *env, args []string) error {
+	var f fitFlags
+	fs := cmdFit.flagSet()
+	f.register(fs)
+	args, err := cmdFit.parse(e, fs, args)
 	if err != nil {
 		return err
 	}
-	pg := newProgress(e.stderr, c.Quiet)
+	opts, err := f.fieldFlags.options(f.Seed)
+	if err != nil {
+		return err
+	}
+	pg := newProgress(e.stderr, f.Quiet)
 	defer pg.Done()
 	pg.Stage("reading logs")
-	ds, err := loadInputs(ctx, e, &c.commonFlags, args)
+	ds, err := loadInputs(ctx, e, &f.inputFlags, f.Quiet, args)
 	if err != nil {
 		return err
 	}
@@ -85,12 +71,11 @@ func runFit(ctx context.Context, e *env, o any, args []string) error {
 		return err
 	}
 	pg.Done()
-	return writeOutput(e, &c.commonFlags, "model.json", m, func(w io.Writer) { printModel(w, m) })
+	return writeOutput(e, f.Out, &f.outputFlags, "model.json", m, func(w io.Writer) { printModel(w, m) })
 }
 
-// fitModel fits on the runs not held out by a manifest; bad input becomes
-// an inputError.
-func fitModel(ctx context.Context, ds *ingest.Dataset, opts *fit.FieldOptions) (*fit.Model, error) {
+// fitRuns returns ds without the runs a manifest holds out.
+func fitRuns(ds *ingest.Dataset) *ingest.Dataset {
 	use := *ds
 	use.Runs = nil
 	for _, r := range ds.Runs {
@@ -98,14 +83,14 @@ func fitModel(ctx context.Context, ds *ingest.Dataset, opts *fit.FieldOptions) (
 			use.Runs = append(use.Runs, r)
 		}
 	}
-	m, err := fit.Field(ctx, &use, opts)
+	return &use
+}
+
+// fitModel fits on the runs not held out by a manifest.
+func fitModel(ctx context.Context, ds *ingest.Dataset, opts *fit.FieldOptions) (*fit.Model, error) {
+	m, err := fit.Field(ctx, fitRuns(ds), opts)
 	if err != nil {
-		for _, s := range []error{fit.ErrTooFewSamples, fit.ErrConstant, fit.ErrCollinear, fit.ErrShortRun, ingest.ErrNoStates} {
-			if errors.Is(err, s) {
-				return nil, &inputError{err}
-			}
-		}
-		return nil, err
+		return nil, classify(err, "")
 	}
 	return m, nil
 }

@@ -2,21 +2,28 @@ package main
 
 import (
 	"flag"
-	"fmt"
 	"strings"
 
+	"basin.example/fit"
 	"basin.example/ingest"
 )
 
-// commonFlags are the flags every log-reading command shares.
-type commonFlags struct {
-	Out      string
-	Degree   int
-	VDegree  int
-	Folds    int
-	Seed     uint64
-	Quiet    bool
-	JSON     bool
+// Defaults shared by every command that has the option: one value each.
+const (
+	defaultOut       = "basin-out"
+	defaultDegree    = 3
+	defaultVDegree   = 2
+	defaultFolds     = 5 // held-out folds of run
+	defaultSelect    = 5 // inner folds that choose the threshold
+	defaultSeed      = 1
+	defaultBootstrap = 100
+	defaultGrowth    = 8
+	defaultBeta      = 1e-6
+	defaultMinDecr   = 0.99
+)
+
+// inputFlags say how logs are read; every command that reads logs has them.
+type inputFlags struct {
 	TimeCol  string
 	Rate     float64
 	RunCol   string
@@ -25,47 +32,38 @@ type commonFlags struct {
 	Manifest string
 }
 
-// addInputFlags registers the flags that say how logs are read.
-func (c *commonFlags) addInputFlags(fs *flag.FlagSet) {
-	fs.StringVar(&c.TimeCol, "time-col", "", "the time column is `NAME`")
-	fs.Float64Var(&c.Rate, "rate", 0, "rows are evenly sampled at `HZ` (no time column)")
-	fs.StringVar(&c.RunCol, "run-col", "", "split files into runs by column `NAME`")
-	fs.StringVar(&c.States, "states", "", "state columns `a,b,c` (default: every numeric column but time, run and inputs)")
-	fs.StringVar(&c.Inputs, "inputs", "", "measured columns `a,b` that are not states (a drive, a setpoint)")
-	fs.StringVar(&c.Manifest, "manifest", "", "run manifest `FILE.csv` (path,run,split)")
-	fs.BoolVar(&c.Quiet, "quiet", false, "no progress or warnings")
-	fs.BoolVar(&c.JSON, "json", false, "print JSON on stdout instead of a table")
-}
-
-// addFitFlags registers the fitting flags.
-func (c *commonFlags) addFitFlags(fs *flag.FlagSet, out string) {
-	fs.StringVar(&c.Out, "out", out, "write outputs to `DIR`")
-	fs.IntVar(&c.Degree, "degree", 3, "field library degree `N`")
-	fs.IntVar(&c.VDegree, "v-degree", 2, "certificate degree `N` (even)")
-	fs.IntVar(&c.Folds, "folds", 5, "held-out folds `K`, by run")
-	fs.Uint64Var(&c.Seed, "seed", 1, "random seed `N`")
-}
-
-// ingestOptions turns the flags into ingest options.
-func (c *commonFlags) ingestOptions() (*ingest.Options, error) {
-	if c.Rate < 0 {
-		return nil, usagef("--rate must be positive, got %g", c.Rate)
+// register adds the input flags to fs; --manifest only when manifest.
+func (f *inputFlags) register(fs *flag.FlagSet, manifest bool) {
+	fs.StringVar(&f.TimeCol, "time-col", "", "the time column is `NAME`")
+	fs.Float64Var(&f.Rate, "rate", 0, "rows are evenly sampled at `HZ` (no time column)")
+	fs.StringVar(&f.RunCol, "run-col", "", "split files into runs by column `NAME`")
+	fs.StringVar(&f.States, "states", "", "state columns `a,b,c` (default: every numeric column but time, run and inputs)")
+	fs.StringVar(&f.Inputs, "inputs", "", "measured columns `a,b` that are not states (a drive, a setpoint)")
+	if manifest {
+		fs.StringVar(&f.Manifest, "manifest", "", "run manifest `FILE.csv` (path,run,split)")
 	}
-	o := &ingest.Options{TimeCol: c.TimeCol, Rate: c.Rate, RunCol: c.RunCol, Manifest: c.Manifest}
-	if c.States != "" {
-		for _, s := range strings.Split(c.States, ",") {
+}
+
+// options turns the flags into ingest options.
+func (f *inputFlags) options() (*ingest.Options, error) {
+	if f.Rate < 0 {
+		return nil, usagef("--rate must be positive, got %g", f.Rate)
+	}
+	o := &ingest.Options{TimeCol: f.TimeCol, Rate: f.Rate, RunCol: f.RunCol, Manifest: f.Manifest}
+	if f.States != "" {
+		for _, s := range strings.Split(f.States, ",") {
 			s = strings.TrimSpace(s)
 			if s == "" {
-				return nil, usagef("--states: empty name in %q", c.States)
+				return nil, usagef("--states: empty name in %q", f.States)
 			}
 			o.States = append(o.States, s)
 		}
 	}
-	if c.Inputs != "" {
-		for _, s := range strings.Split(c.Inputs, ",") {
+	if f.Inputs != "" {
+		for _, s := range strings.Split(f.Inputs, ",") {
 			s = strings.TrimSpace(s)
 			if s == "" {
-				return nil, usagef("--inputs: empty name in %q", c.Inputs)
+				return nil, usagef("--inputs: empty name in %q", f.Inputs)
 			}
 			o.Inputs = append(o.Inputs, s)
 		}
@@ -73,17 +71,84 @@ func (c *commonFlags) ingestOptions() (*ingest.Options, error) {
 	return o, nil
 }
 
-// checkFit validates the fitting flags.
-func (c *commonFlags) checkFit() error {
+// outputFlags say what is printed.
+type outputFlags struct {
+	Quiet bool
+	JSON  bool
+}
+
+func (f *outputFlags) register(fs *flag.FlagSet) {
+	fs.BoolVar(&f.Quiet, "quiet", false, "no progress or warnings")
+	fs.BoolVar(&f.JSON, "json", false, "print JSON on stdout instead of a table")
+}
+
+// fieldFlags set the vector field fit (fit and run).
+type fieldFlags struct {
+	Degree      int
+	SelectFolds int
+	Deriv       string
+	Bootstrap   int
+}
+
+func (f *fieldFlags) register(fs *flag.FlagSet) {
+	fs.IntVar(&f.Degree, "degree", defaultDegree, "field library degree `N`")
+	fs.IntVar(&f.SelectFolds, "select-folds", defaultSelect, "folds `K` over the fit runs that choose the sparsity threshold")
+	fs.StringVar(&f.Deriv, "deriv", "", "derivative `METHOD`: savitzky-golay, fornberg or integral (default "+fit.DefaultDerivative+")")
+	fs.IntVar(&f.Bootstrap, "bootstrap", defaultBootstrap, "bootstrap refits over runs `N` (0: none)")
+}
+
+// options turns the flags into fit options.
+func (f *fieldFlags) options(seed uint64) (*fit.FieldOptions, error) {
 	switch {
-	case c.Degree < 1 || c.Degree > 8:
-		return usagef("--degree must be 1..8, got %d", c.Degree)
-	case c.VDegree < 2 || c.VDegree > 8 || c.VDegree%2 != 0:
-		return usagef("--v-degree must be even, 2..8, got %d", c.VDegree)
-	case c.Folds < 2 || c.Folds > 100:
-		return usagef("--folds must be 2..100, got %d", c.Folds)
+	case f.Degree < 1 || f.Degree > 8:
+		return nil, usagef("--degree must be 1..8, got %d", f.Degree)
+	case f.SelectFolds < 2 || f.SelectFolds > 100:
+		return nil, usagef("--select-folds must be 2..100, got %d", f.SelectFolds)
 	}
-	return nil
+	switch f.Deriv {
+	case "", fit.DerivSavitzkyGolay, fit.DerivFornberg, fit.DerivIntegral:
+	default:
+		return nil, usagef("--deriv must be savitzky-golay, fornberg or integral, got %q", f.Deriv)
+	}
+	if f.Bootstrap < 0 || f.Bootstrap > 10000 {
+		return nil, usagef("--bootstrap must be 0..10000, got %d", f.Bootstrap)
+	}
+	b := f.Bootstrap
+	if b == 0 {
+		b = -1
+	}
+	return &fit.FieldOptions{Degree: f.Degree, Folds: f.SelectFolds, Seed: seed, Derivative: f.Deriv, Bootstrap: b}, nil
+}
+
+// certFlags set the certificate fit (certify and run).
+type certFlags struct {
+	VDegree int
+	Growth  int
+}
+
+func (f *certFlags) register(fs *flag.FlagSet) {
+	fs.IntVar(&f.VDegree, "v-degree", defaultVDegree, "certificate degree `N` (even)")
+	fs.IntVar(&f.Growth, "growth", defaultGrowth, "region growth rounds `N` (LP re-fits on larger level sets)")
+}
+
+func (f *certFlags) options(seed uint64) (*fit.CertifyOptions, error) {
+	switch {
+	case f.VDegree < 2 || f.VDegree > 8 || f.VDegree%2 != 0:
+		return nil, usagef("--v-degree must be even, 2..8, got %d", f.VDegree)
+	case f.Growth < 1 || f.Growth > 100:
+		return nil, usagef("--growth must be 1..100, got %d", f.Growth)
+	}
+	return &fit.CertifyOptions{Degree: f.VDegree, Seed: seed, Growth: f.Growth}, nil
+}
+
+// registerOut adds --out.
+func registerOut(fs *flag.FlagSet, out *string, def, usage string) {
+	fs.StringVar(out, "out", def, usage)
+}
+
+// registerSeed adds --seed.
+func registerSeed(fs *flag.FlagSet, seed *uint64) {
+	fs.Uint64Var(seed, "seed", defaultSeed, "random seed `N`")
 }
 
 func needInputs(args []string) error {
@@ -92,5 +157,3 @@ func needInputs(args []string) error {
 	}
 	return nil
 }
-
-var _ = fmt.Sprintf

@@ -1,35 +1,42 @@
 package main
 
 import (
-	"bytes"
 	"context"
-	"flag"
+	"errors"
 	"fmt"
 	"io"
-	"strings"
 	"text/tabwriter"
 )
 
-func init() {
-	register(&command{
-		Name:  "help",
-		Usage: "basin help [COMMAND]",
-		Short: "explain basin or one command",
-		Run: func(ctx context.Context, e *env, _ any, args []string) error {
-			if len(args) > 1 {
-				return usagef("help takes at most one COMMAND")
-			}
-			name := ""
-			if len(args) == 1 {
-				name = args[0]
-				if lookup(name) == nil {
-					return usagef("unknown command %q", name)
-				}
-			}
-			printHelp(e.stdout, name)
-			return nil
-		},
-	})
+var cmdHelp = &command{
+	UsageLine: "basin help [COMMAND]",
+	Short:     "explain basin or one command",
+}
+
+func init() { cmdHelp.Run = runHelp }
+
+func runHelp(ctx context.Context, e *env, args []string) error {
+	fs := cmdHelp.flagSet()
+	args, err := cmdHelp.parse(e, fs, args)
+	if err != nil {
+		return err
+	}
+	switch {
+	case len(args) > 1:
+		return usagef("help takes at most one COMMAND")
+	case len(args) == 0:
+		printOverview(e.stdout)
+		return nil
+	}
+	c := lookup(args[0])
+	if c == nil {
+		return usagef("unknown command %q", printable(args[0]))
+	}
+	// The command prints its own help: one source for the usage text.
+	if err := c.Run(ctx, e, []string{"-h"}); !errors.Is(err, errHelp) {
+		return err
+	}
+	return nil
 }
 
 const overview = `basin reads logged runs of a physical system, fits a sparse polynomial
@@ -50,38 +57,14 @@ Exit codes: 0 done; 1 screen flagged a run; 2 usage or input error;
 3 internal failure.
 `
 
-func printHelp(w io.Writer, name string) {
-	if name == "" {
-		fmt.Fprint(w, overview)
-		fmt.Fprintln(w, "\nCommands:")
-		tw := tabwriter.NewWriter(w, 0, 8, 2, ' ', 0)
-		for _, c := range commands {
-			fmt.Fprintf(tw, "\t%s\t%s\n", c.Name, c.Short)
-		}
-		tw.Flush()
-		fmt.Fprintln(w, "\nRun 'basin help COMMAND' for a command's flags.")
-		return
+// printOverview writes what basin is and its command list.
+func printOverview(w io.Writer) {
+	fmt.Fprint(w, overview)
+	fmt.Fprintln(w, "\nCommands:")
+	tw := tabwriter.NewWriter(w, 0, 8, 2, ' ', 0)
+	for _, c := range commands {
+		fmt.Fprintf(tw, "\t%s\t%s\n", c.Name(), c.Short)
 	}
-	c := lookup(name)
-	fmt.Fprintf(w, "Usage: %s\n\n%s.\n", c.Usage, capitalise(c.Short))
-	if c.Long != "" {
-		fmt.Fprintf(w, "\n%s\n", strings.TrimSpace(c.Long))
-	}
-	if c.Flags != nil {
-		fs := flag.NewFlagSet(name, flag.ContinueOnError)
-		c.Flags(fs)
-		var b bytes.Buffer
-		fs.SetOutput(&b)
-		fs.PrintDefaults()
-		if b.Len() > 0 {
-			fmt.Fprintf(w, "\nFlags:\n%s", strings.ReplaceAll(b.String(), "  -", "  --"))
-		}
-	}
-}
-
-func capitalise(s string) string {
-	if s == "" {
-		return s
-	}
-	return strings.ToUpper(s[:1]) + s[1:]
+	tw.Flush()
+	fmt.Fprintln(w, "\nRun 'basin help COMMAND' for a command's flags.")
 }

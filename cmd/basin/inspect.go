@@ -2,11 +2,8 @@ package main
 
 import (
 	"context"
-	"errors"
-	"flag"
 	"fmt"
 	"io"
-	"io/fs"
 	"math"
 	"strconv"
 	"text/tabwriter"
@@ -15,58 +12,43 @@ import (
 	"basin.example/ingest"
 )
 
-func init() {
-	register(&command{
-		Name:  "inspect",
-		Usage: "basin inspect [flags] INPUTS...",
-		Short: "say what the logs hold",
-		Long: `Reads the logs and says what it found: per run and in total, samples,
+// inspectFlags are basin inspect's flags.
+type inspectFlags struct {
+	inputFlags
+	outputFlags
+}
+
+var cmdInspect = &command{
+	UsageLine: "basin inspect [flags] INPUTS...",
+	Short:     "say what the logs hold",
+	Long: `Reads the logs and says what it found: per run and in total, samples,
 start and duration, median sampling rate and its jitter (interquartile
 range of the time steps over their median), gaps, per-column ranges and
 units, and the point the runs settle on (median of the last 5% of each
 run whose last 5% spans at most a tenth of the run's range).`,
-		Flags: func(fs *flag.FlagSet) any {
-			c := &commonFlags{}
-			c.addInputFlags(fs)
-			return c
-		},
-		Run: runInspect,
-	})
 }
+
+func init() { cmdInspect.Run = runInspect }
 
 // loadInputs reads the inputs per the flags; bad input becomes an
 // inputError (exit 2).
-func loadInputs(ctx context.Context, e *env, c *commonFlags, args []string) (*ingest.Dataset, error) {
-	if err := needInputs(args); err != nil && c.Manifest == "" {
+func loadInputs(ctx context.Context, e *env, f *inputFlags, quiet bool, args []string) (*ingest.Dataset, error) {
+	if err := needInputs(args); err != nil && f.Manifest == "" {
 		return nil, err
 	}
-	opts, err := c.ingestOptions()
+	opts, err := f.options()
 	if err != nil {
 		return nil, err
 	}
 	opts.Stdin = e.stdin
 	ds, err := ingest.Load(ctx, args, opts)
 	if err != nil {
-		var pe *ingest.ParseError
-		var fe *fs.PathError
-		if errors.As(err, &pe) || errors.As(err, &fe) || isIngestSentinel(err) {
-			return nil, &inputError{err}
-		}
-		return nil, err
+		return nil, classify(err, "")
 	}
 	for _, w := range ds.Warnings {
-		warnf(e, c.Quiet, "%s", w)
+		warnf(e, quiet, "%s", w)
 	}
 	return ds, nil
-}
-
-func isIngestSentinel(err error) bool {
-	for _, s := range []error{ingest.ErrEmpty, ingest.ErrFormat, ingest.ErrNoFiles, ingest.ErrNoTime, ingest.ErrNoStates} {
-		if errors.Is(err, s) {
-			return true
-		}
-	}
-	return false
 }
 
 // inspectJSON is the contract's inspect --json shape (plus extra fields).
@@ -119,9 +101,16 @@ type inspectSummary struct {
 	Jitterdef   string    `json:"jitter_definition"`
 }
 
-func runInspect(ctx context.Context, e *env, o any, args []string) error {
-	c := o.(*commonFlags)
-	ds, err := loadInputs(ctx, e, c, args)
+func runInspect(ctx context.Context, e *env, args []string) error {
+	c := new(inspectFlags)
+	fs := cmdInspect.flagSet()
+	c.inputFlags.register(fs, true)
+	c.outputFlags.register(fs)
+	args, err := cmdInspect.parse(e, fs, args)
+	if err != nil {
+		return err
+	}
+	ds, err := loadInputs(ctx, e, &c.inputFlags, c.Quiet, args)
 	if err != nil {
 		return err
 	}

@@ -1,6 +1,6 @@
-// Command basin answers, from logged trajectories alone, whether a system
-// settles to its operating point, from how far away, and how sure one can
-// be. See doc.go for the manual.
+// main.go holds only main: the manual is doc.go, the commands are one file
+// each (command.go lists them).
+
 package main
 
 import (

@@ -4,11 +4,9 @@ import (
 	"bufio"
 	"encoding/json"
 	"errors"
-	"flag"
 	"fmt"
 	"io"
 	"io/fs"
-	"math"
 	"os"
 	"path/filepath"
 	"sync"
@@ -213,18 +211,10 @@ func warnf(e *env, quiet bool, format string, a ...any) {
 	}
 }
 
-func newFlagSet() *flag.FlagSet {
-	fs := flag.NewFlagSet("basin", flag.ContinueOnError)
-	fs.SetOutput(io.Discard)
-	return fs
-}
-
-func nan() float64 { return math.NaN() }
-
-// writeOutput writes v as JSON to c.Out/name atomically, then prints it as
+// writeOutput writes v as JSON to out/name atomically, then prints it as
 // JSON (--json), nothing (--quiet), or readably with print and the path.
-func writeOutput(e *env, c *commonFlags, name string, v any, print func(io.Writer)) error {
-	if err := writeAtomic(c.Out, atomicFile{Name: name, Write: jsonWriter(v)}); err != nil {
+func writeOutput(e *env, out string, c *outputFlags, name string, v any, print func(io.Writer)) error {
+	if err := writeAtomic(out, atomicFile{Name: name, Write: jsonWriter(v)}); err != nil {
 		return err
 	}
 	if c.JSON {
@@ -234,6 +224,6 @@ func writeOutput(e *env, c *commonFlags, name string, v any, print func(io.Write
 		return nil
 	}
 	print(e.stdout)
-	fmt.Fprintf(e.stdout, "wrote %s\n", filepath.Join(c.Out, name))
+	fmt.Fprintf(e.stdout, "wrote %s\n", filepath.Join(out, name))
 	return nil
 }

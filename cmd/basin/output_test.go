@@ -3,6 +3,7 @@ package main
 import (
 	"errors"
 	"io"
+	"math"
 	"os"
 	"path/filepath"
 	"strings"
@@ -66,7 +67,7 @@ func TestWriteAtomicUnwritable(t *testing.T) {
 
 func TestWriteJSONRefusesNaN(t *testing.T) {
 	var b strings.Builder
-	if err := writeJSON(&b, map[string]float64{"x": nan()}); err == nil {
+	if err := writeJSON(&b, map[string]float64{"x": math.NaN()}); err == nil {
 		t.Fatal("NaN encoded")
 	}
 }
@@ -81,9 +82,9 @@ func TestParseAnywhere(t *testing.T) {
 		{[]string{"--degree=2", "-"}, "-", 2},
 		{[]string{"x", "--", "--degree"}, "x --degree", 3},
 	} {
-		c := &commonFlags{}
-		fs := newFlagSet()
-		c.addFitFlags(fs, "o")
+		c := &fieldFlags{}
+		fs := cmdFit.flagSet()
+		c.register(fs)
 		pos, err := parseAnywhere(fs, tc.args)
 		if err != nil {
 			t.Fatal(err)

@@ -3,7 +3,6 @@ package main
 import (
 	"bytes"
 	"context"
-	"errors"
 	"flag"
 	"fmt"
 	"io"
@@ -19,22 +18,37 @@ import (
 
 // runFlags are basin run's flags.
 type runFlags struct {
-	commonFlags
-	Deriv       string
-	Bootstrap   int
-	Growth      int
+	inputFlags
+	outputFlags
+	fieldFlags
+	certFlags
+	Out         string
+	Seed        uint64
+	Folds       int
 	MinDecrease float64
 	Beta        float64
 	Plane       string
 	AllFolds    bool
 }
 
-func init() {
-	register(&command{
-		Name:  "run",
-		Usage: "basin run [flags] INPUTS...",
-		Short: "the whole job: fit, certify, validate, report",
-		Long: `Reads the logs, holds out about one run in --folds (or the runs a manifest
+func (f *runFlags) register(fs *flag.FlagSet) {
+	f.inputFlags.register(fs, true)
+	f.outputFlags.register(fs)
+	f.fieldFlags.register(fs)
+	f.certFlags.register(fs)
+	registerOut(fs, &f.Out, defaultOut, "write the outputs into `DIR`")
+	registerSeed(fs, &f.Seed)
+	fs.IntVar(&f.Folds, "folds", defaultFolds, "held-out folds `K`, by run: about one run in K is held out")
+	fs.Float64Var(&f.MinDecrease, "min-decrease", defaultMinDecr, "share `F` of held-out pairs on which V must fall for certified")
+	fs.Float64Var(&f.Beta, "beta", defaultBeta, "scenario bound holds with confidence 1-`B`")
+	fs.StringVar(&f.Plane, "plane", "", "states `a,b` of the report's phase plane (default: the two with most variance)")
+	fs.BoolVar(&f.AllFolds, "all-folds", false, "also refit with every other fold held out and count the folds that agree")
+}
+
+var cmdRun = &command{
+	UsageLine: "basin run [flags] INPUTS...",
+	Short:     "the whole job: fit, certify, validate, report",
+	Long: `Reads the logs, holds out about one run in --folds (or the runs a manifest
 marks holdout), fits the vector field and the certificate on the other
 runs, checks the certificate on the held-out runs (decrease, invariance,
 settling, and a scenario-approach bound on the chance of a violation), and
@@ -47,42 +61,31 @@ byte-identical outputs.
 The verdict is empirical evidence from recorded samples, not a proof;
 safety-relevant decisions defer to the applicable codes and to licensed
 engineering judgement.`,
-		Flags: func(fs *flag.FlagSet) any {
-			c := &runFlags{}
-			c.addInputFlags(fs)
-			c.addFitFlags(fs, "basin-out")
-			fs.StringVar(&c.Deriv, "deriv", "", "derivative `METHOD`: savitzky-golay, fornberg or integral (default "+fit.DefaultDerivative+")")
-			fs.IntVar(&c.Bootstrap, "bootstrap", 100, "bootstrap refits over runs `N` (0: none)")
-			fs.IntVar(&c.Growth, "growth", 8, "region growth rounds `N` (LP re-fits on larger level sets)")
-			fs.Float64Var(&c.MinDecrease, "min-decrease", 0.99, "share `F` of held-out pairs on which V must fall for certified")
-			fs.Float64Var(&c.Beta, "beta", 1e-6, "scenario bound holds with confidence 1-`B`")
-			fs.StringVar(&c.Plane, "plane", "", "states `a,b` of the report's phase plane (default: the two with most variance)")
-			fs.BoolVar(&c.AllFolds, "all-folds", false, "also refit with every other fold held out and count the folds that agree")
-			return c
-		},
-		Run: runRun,
-	})
 }
 
+func init() { cmdRun.Run = runRun }
+
 // options turns the flags into validate options.
-func (c *runFlags) options() (*validate.Options, error) {
-	ff := &fitFlags{commonFlags: c.commonFlags, Deriv: c.Deriv, Bootstrap: c.Bootstrap}
-	fo, err := ff.fieldOptions()
+func (f *runFlags) options() (*validate.Options, error) {
+	fo, err := f.fieldFlags.options(f.Seed)
+	if err != nil {
+		return nil, err
+	}
+	co, err := f.certFlags.options(f.Seed)
 	if err != nil {
 		return nil, err
 	}
 	switch {
-	case c.Growth < 1 || c.Growth > 100:
-		return nil, usagef("--growth must be 1..100, got %d", c.Growth)
-	case !(c.MinDecrease > 0 && c.MinDecrease <= 1):
-		return nil, usagef("--min-decrease must be in (0, 1], got %g", c.MinDecrease)
-	case !(c.Beta > 0 && c.Beta < 1):
-		return nil, usagef("--beta must be in (0, 1), got %g", c.Beta)
+	case f.Folds < 2 || f.Folds > 100:
+		return nil, usagef("--folds must be 2..100, got %d", f.Folds)
+	case !(f.MinDecrease > 0 && f.MinDecrease <= 1):
+		return nil, usagef("--min-decrease must be in (0, 1], got %g", f.MinDecrease)
+	case !(f.Beta > 0 && f.Beta < 1):
+		return nil, usagef("--beta must be in (0, 1), got %g", f.Beta)
 	}
 	return &validate.Options{
-		Folds: c.Folds, Seed: c.Seed, Beta: c.Beta, MinDecrease: c.MinDecrease, AllFolds: c.AllFolds,
-		Field:   fo,
-		Certify: &fit.CertifyOptions{Degree: c.VDegree, Seed: c.Seed, Growth: c.Growth},
+		Folds: f.Folds, Seed: f.Seed, Beta: f.Beta, MinDecrease: f.MinDecrease, AllFolds: f.AllFolds,
+		Field: fo, Certify: co,
 	}, nil
 }
 
@@ -118,7 +121,7 @@ func (c *runFlags) plane(states []ingest.Column) ([]int, error) {
 // settings lists the options used, for the report and the certificate.
 func (c *runFlags) settings(args []string) map[string]any {
 	return map[string]any{
-		"degree": c.Degree, "v_degree": c.VDegree, "folds": c.Folds, "seed": c.Seed,
+		"degree": c.Degree, "v_degree": c.VDegree, "folds": c.Folds, "select_folds": c.SelectFolds, "seed": c.Seed,
 		"derivative": orDefault(c.Deriv, fit.DefaultDerivative), "bootstrap": c.Bootstrap,
 		"growth": c.Growth, "min_decrease": c.MinDecrease, "beta": c.Beta,
 		"all_folds": c.AllFolds, "inputs": strings.Join(args, " "),
@@ -132,8 +135,14 @@ func orDefault(s, d string) string {
 	return s
 }
 
-func runRun(ctx context.Context, e *env, o any, args []string) error {
-	c := o.(*runFlags)
+func runRun(ctx context.Context, e *env, args []string) error {
+	c := new(runFlags)
+	fs := cmdRun.flagSet()
+	c.register(fs)
+	args, err := cmdRun.parse(e, fs, args)
+	if err != nil {
+		return err
+	}
 	opts, err := c.options()
 	if err != nil {
 		return err
@@ -144,7 +153,7 @@ func runRun(ctx context.Context, e *env, o any, args []string) error {
 	prog := newProgress(e.stderr, c.Quiet)
 	defer prog.Done()
 	prog.Stage("reading logs")
-	ds, err := loadInputs(ctx, e, &c.commonFlags, args)
+	ds, err := loadInputs(ctx, e, &c.inputFlags, c.Quiet, args)
 	if err != nil {
 		return err
 	}
@@ -155,7 +164,7 @@ func runRun(ctx context.Context, e *env, o any, args []string) error {
 	prog.Stage("fitting, certifying and checking")
 	res, err := validate.Evaluate(ctx, ds, opts)
 	if err != nil {
-		return classifyFitError(err)
+		return classify(err, "")
 	}
 	if err := ctx.Err(); err != nil {
 		return err
@@ -204,15 +213,4 @@ func runRun(ctx context.Context, e *env, o any, args []string) error {
 
 func bytesWriter(b []byte) func(io.Writer) error {
 	return func(w io.Writer) error { _, err := w.Write(b); return err }
-}
-
-// classifyFitError marks the fitting errors caused by the data as bad input.
-func classifyFitError(err error) error {
-	for _, s := range []error{fit.ErrTooFewSamples, fit.ErrConstant, fit.ErrCollinear, fit.ErrShortRun,
-		fit.ErrMismatch, fit.ErrOptions, ingest.ErrNoStates, validate.ErrOptions} {
-		if errors.Is(err, s) {
-			return &inputError{err}
-		}
-	}
-	return err
 }

@@ -6,7 +6,6 @@ import (
 	"flag"
 	"fmt"
 	"io"
-	"io/fs"
 	"math"
 	"runtime"
 	"strings"
@@ -20,18 +19,25 @@ import (
 
 // screenFlags are basin screen's flags.
 type screenFlags struct {
-	commonFlags
+	inputFlags
+	outputFlags
 	Cert      string
 	Tolerance float64
 	Workers   int
 }
 
-func init() {
-	register(&command{
-		Name:  "screen",
-		Usage: "basin screen --cert certificate.json [flags] INPUTS...",
-		Short: "flag runs whose V rises, that leave the region, or that do not settle",
-		Long: `Screens new logs against a saved certificate. A run is flagged when V
+func (f *screenFlags) register(fs *flag.FlagSet) {
+	f.inputFlags.register(fs, false) // every run given is screened: no manifest
+	f.outputFlags.register(fs)
+	fs.StringVar(&f.Cert, "cert", "", "the certificate `FILE` (certificate.json)")
+	fs.Float64Var(&f.Tolerance, "tolerance", 0, "tolerance on a rise of V between samples, in units of `V` (default: the certificate's)")
+	fs.IntVar(&f.Workers, "workers", 0, "files screened at once `N` (default: the number of CPUs)")
+}
+
+var cmdScreen = &command{
+	UsageLine: "basin screen --cert certificate.json [flags] INPUTS...",
+	Short:     "flag runs whose V rises, that leave the region, or that do not settle",
+	Long: `Screens new logs against a saved certificate. A run is flagged when V
 rises beyond the tolerance between samples inside the region (rises), when
 it leaves the region after entering it (leaves), or when it entered the
 region and does not settle, or ends outside the region (unsettled). Per
@@ -43,17 +49,9 @@ Files are read one at a time per worker and screened as they arrive, so
 memory stays bounded by one file per worker however many files are given.
 The state columns are the certificate's, in its order, unless --states
 says otherwise. Exit status 1 when any run is flagged.`,
-		Flags: func(fs *flag.FlagSet) any {
-			c := &screenFlags{}
-			c.addInputFlags(fs)
-			fs.StringVar(&c.Cert, "cert", "", "the certificate `FILE` (certificate.json)")
-			fs.Float64Var(&c.Tolerance, "tolerance", 0, "tolerance on a rise of V between samples, in units of `V` (default: the certificate's)")
-			fs.IntVar(&c.Workers, "workers", 0, "files screened at once `N` (default: the number of CPUs)")
-			return c
-		},
-		Run: runScreen,
-	})
 }
+
+func init() { cmdScreen.Run = runScreen }
 
 // screenJSON is the contract's screen --json shape.
 type screenJSON struct {
@@ -80,8 +78,14 @@ type screenSummary struct {
 	NeverInside int `json:"never_inside"`
 }
 
-func runScreen(ctx context.Context, e *env, opts any, args []string) error {
-	c := opts.(*screenFlags)
+func runScreen(ctx context.Context, e *env, args []string) error {
+	c := new(screenFlags)
+	fs := cmdScreen.flagSet()
+	c.register(fs)
+	args, err := cmdScreen.parse(e, fs, args)
+	if err != nil {
+		return err
+	}
 	if c.Cert == "" {
 		return usagef("--cert FILE is required")
 	}
@@ -94,14 +98,11 @@ func runScreen(ctx context.Context, e *env, opts any, args []string) error {
 	if c.Workers < 0 || c.Workers > 1024 {
 		return usagef("--workers must be 0..1024, got %d", c.Workers)
 	}
-	if c.Manifest != "" {
-		return usagef("--manifest does not apply to screen: every run given is screened")
-	}
 	cert, err := certFromFile(c.Cert)
 	if err != nil {
 		return err
 	}
-	iopts, err := c.ingestOptions()
+	iopts, err := c.inputFlags.options()
 	if err != nil {
 		return err
 	}
@@ -171,14 +172,7 @@ func runScreen(ctx context.Context, e *env, opts any, args []string) error {
 
 // asInputError marks bad input (a file that cannot be read or parsed) so
 // that it exits 2 with one line.
-func asInputError(err error) error {
-	var pe *ingest.ParseError
-	var fe *fs.PathError
-	if errors.As(err, &pe) || errors.As(err, &fe) || isIngestSentinel(err) {
-		return &inputError{err}
-	}
-	return err
-}
+func asInputError(err error) error { return classify(err, "") }
 
 // fileResult is the screening of one file.
 type fileResult struct {

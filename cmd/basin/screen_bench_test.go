@@ -134,7 +134,7 @@ func BenchmarkScreen(b *testing.B) {
 		paths, size := benchData(b, dir, format)
 		for _, workers := range []int{1, 2} {
 			b.Run(fmt.Sprintf("%s/workers=%d", format, workers), func(b *testing.B) {
-				opts, _ := (&commonFlags{}).ingestOptions()
+				opts, _ := (&inputFlags{}).options()
 				opts.States = c.States
 				b.SetBytes(size)
 				b.ReportAllocs()
@@ -159,7 +159,7 @@ func BenchmarkScreen(b *testing.B) {
 		// The same files only read (no screening), one worker: the share
 		// of the time that is ingest's.
 		b.Run(format+"/read-only", func(b *testing.B) {
-			opts, _ := (&commonFlags{}).ingestOptions()
+			opts, _ := (&inputFlags{}).options()
 			opts.States = c.States
 			b.SetBytes(size)
 			b.ReportAllocs()

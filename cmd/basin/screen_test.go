@@ -143,7 +143,7 @@ func TestScreenOrderAndWorkers(t *testing.T) {
 		}
 		files = append(files, writeRun(t, dir, fmt.Sprintf("r%02d.csv", i), [2]float64{0.3, -0.2}, rate, 4))
 	}
-	opts, _ := (&commonFlags{}).ingestOptions()
+	opts, _ := (&inputFlags{}).options()
 	opts.States = c.States
 	one, err := screenFiles(context.Background(), c, files, opts, nil, 1)
 	if err != nil {

@@ -1,0 +1,165 @@
+/*
+Basin reads logged runs of a physical system, fits a sparse polynomial
+model of its dynamics, and looks for a Lyapunov function that shows, from
+the data alone, that the system settles to its operating point and from how
+far away. Its certificates are empirical evidence, not proofs:
+safety-relevant decisions defer to the applicable codes and to licensed
+engineering judgement.
+
+Usage:
+
+	basin COMMAND [flags] INPUTS...
+
+INPUTS are .csv, .tsv, .txt or .parquet files, directories of them (their
+such files, sorted by name), or - for CSV on standard input. Flags may come
+before or after INPUTS; -x and --x are the same; -- ends the flags. 'basin
+help COMMAND' and 'basin COMMAND -h' print a command's flags with their
+defaults; this page is the same text in one place.
+
+Exit codes: 0 done; 1 screen flagged at least one run; 2 usage or input
+error (one line on stderr naming the file, line and column where there is
+one; nothing written); 3 internal failure. Human text goes to stdout,
+progress and warnings to stderr (progress only on a terminal); --quiet
+silences both and --json prints the machine-readable result on stdout.
+
+# Reading logs
+
+Every command that reads logs takes:
+
+	--time-col NAME     the time column (default: the first named t, time,
+	                    timestamp or time_s, any case, without its unit)
+	--rate HZ           no time column: the rows are evenly sampled at HZ
+	--run-col NAME      split each file into runs by the value of NAME
+	--states a,b,c      the state columns (default: every numeric column
+	                    other than time, run and inputs)
+	--inputs a,b        measured columns that are not states (a drive, a
+	                    setpoint)
+	--manifest FILE.csv columns path,run,split (fit, holdout or empty):
+	                    which runs are held out (not screen)
+
+A header cell "name [unit]" or "name (unit)" carries a unit, reported back
+wherever the column appears. Empty cells and NaN are missing samples: a run
+is split at a gap, not interpolated across it.
+
+# basin run
+
+	basin run [flags] INPUTS...
+
+The whole job: holds out about one run in --folds (or the runs a manifest
+marks holdout), fits the vector field and the certificate on the other
+runs, checks the certificate on the held-out runs, and gives the verdict
+(certified, rejected or inconclusive) with its strength. Writes model.json,
+certificate.json, report.html and summary.txt into --out as one set, and
+prints the summary. The same input and --seed give byte-identical outputs.
+
+	--out DIR           the output folder (default basin-out)
+	--degree N          field library degree, 1..8 (default 3)
+	--select-folds K    folds over the fit runs that choose the sparsity
+	                    threshold (default 5)
+	--deriv METHOD      savitzky-golay (default), fornberg or integral
+	--bootstrap N       bootstrap refits over runs, 0 for none (default 100)
+	--v-degree N        certificate degree, even, 2..8 (default 2)
+	--growth N          region growth rounds, 1..100 (default 8)
+	--folds K           held-out folds by run, 2..100 (default 5)
+	--min-decrease F    share of held-out pairs on which V must fall for
+	                    certified (default 0.99)
+	--beta B            the scenario bound holds with confidence 1-B
+	                    (default 1e-6)
+	--all-folds         also refit with every other fold held out and count
+	                    the folds that agree
+	--plane a,b         the states of the report's phase plane
+	--seed N            random seed (default 1)
+	--quiet, --json     as above; --json prints certificate.json
+
+plus the flags of Reading logs.
+
+# basin inspect
+
+	basin inspect [flags] INPUTS...
+
+Says what the logs hold: per run and in total, samples, start, duration,
+median sampling rate and its jitter, gaps, ranges and units, and the point
+the runs settle on. Flags: those of Reading logs, --quiet and --json.
+
+# basin fit
+
+	basin fit [flags] INPUTS...
+
+Fits the vector field only, on the runs a manifest does not hold out, and
+writes DIR/model.json. Flags: --out, --degree, --select-folds, --deriv,
+--bootstrap, --seed, --quiet and --json as for run, and those of
+Reading logs.
+
+# basin certify
+
+	basin certify --model model.json [flags] INPUTS...
+
+Fits a Lyapunov function V for the model's primary equilibrium and the
+largest level set on which it falls, and writes DIR/certificate.json; the
+verdict stays inconclusive until the certificate is checked on held-out
+runs. Flags: --model FILE (required), --out, --v-degree, --growth, --seed,
+--quiet and --json as for run, and those of Reading logs.
+
+# basin check
+
+	basin check --cert certificate.json [flags] INPUTS...
+
+Validates a certificate on runs it has not seen: per run, whether it starts
+inside, stays inside, settles, and on how many pairs V fell; overall the
+decrease and invariance fractions and the scenario bound.
+
+	--cert FILE         the certificate (required)
+	--min-decrease F    as for run (default 0.99)
+	--beta B            as for run (default 1e-6)
+	--rise-tol DV       tolerated rise of V between samples (default: the
+	                    certificate's)
+
+plus --quiet, --json and the flags of Reading logs.
+
+# basin screen
+
+	basin screen --cert certificate.json [flags] INPUTS...
+
+Flags runs whose V rises (rises), that leave the region after entering it
+(leaves), or that do not settle (unsettled); exit status 1 when any run is
+flagged. Files are read one at a time per worker, so memory stays bounded
+however many are given.
+
+	--cert FILE         the certificate (required)
+	--tolerance V       tolerated rise of V between samples (default: the
+	                    certificate's)
+	--workers N         files screened at once (default: the CPUs)
+
+plus --quiet, --json and the flags of Reading logs except --manifest.
+
+# basin export
+
+	basin export --cert certificate.json --lang go|c|python
+
+Prints a dependency-free function that evaluates V in the logs' units and
+tests membership of the region, for a monitor on the rig.
+
+	--cert FILE         the certificate (required)
+	--lang LANG         go, c or python (required)
+	--package NAME      the Go package (default basinv)
+	--prefix PREFIX     the C identifier prefix (default basin_)
+	--quiet             no warnings
+
+# basin demo
+
+	basin demo [--out DIR]
+
+Writes the invented demo data set (a pitch-stabilised camera mount on a
+vibration rig) into DIR/data and runs 'basin run --out DIR DIR/data'.
+
+	--out DIR           the folder (default basin-demo)
+	--seed N            the demo data's seed (default 1)
+	--data-only         write the data only
+	--quiet             print only where the outputs are
+
+# basin help, basin version
+
+	basin help [COMMAND]
+	basin version
+*/
+package main

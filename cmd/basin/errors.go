@@ -1,0 +1,119 @@
+package main
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"io"
+	"io/fs"
+	"strings"
+
+	"basin.example/fit"
+	"basin.example/fit/export"
+	"basin.example/ingest"
+	"basin.example/validate"
+)
+
+// Errors that choose the exit code.
+type usageError struct{ msg string }
+
+func (e *usageError) Error() string { return e.msg }
+
+// inputError marks bad input: exit 2 with one line.
+type inputError struct{ err error }
+
+func (e *inputError) Error() string { return e.err.Error() }
+func (e *inputError) Unwrap() error { return e.err }
+
+var (
+	errFlagged = errors.New("at least one run flagged")
+	// errHelp is returned after a command printed its help for -h: exit 0.
+	errHelp = errors.New("help printed")
+)
+
+func usagef(format string, a ...any) error { return &usageError{fmt.Sprintf(format, a...)} }
+
+// badInput lists the library errors that are findings about the user's
+// files or options, not failures of basin: they exit 2.
+var badInput = []error{
+	ingest.ErrEmpty, ingest.ErrFormat, ingest.ErrNoFiles, ingest.ErrNoTime, ingest.ErrNoStates,
+	fit.ErrTooFewSamples, fit.ErrConstant, fit.ErrCollinear, fit.ErrShortRun, fit.ErrMismatch, fit.ErrOptions,
+	validate.ErrOptions, export.ErrNoV,
+}
+
+// optionFlags maps the Go option fields the libraries name in their errors
+// to the flags that set them; the longer spellings come first.
+var optionFlags = strings.NewReplacer(
+	"ingest.Options.TimeCol", "--time-col", "ingest.Options.Rate", "--rate", "ingest.Options.RunCol", "--run-col",
+	"ingest.Options.States", "--states", "ingest.Options.Manifest", "--manifest",
+	"fit.FieldOptions.Degree", "--degree", "fit.FieldOptions.Folds", "--select-folds",
+	"fit.FieldOptions.Derivative", "--deriv", "fit.FieldOptions.Bootstrap", "--bootstrap",
+	"fit.CertifyOptions.Degree", "--v-degree", "fit.CertifyOptions.Growth", "--growth",
+	"validate.Options.Folds", "--folds", "validate.Options.Beta", "--beta", "validate.Options.MinDecrease", "--min-decrease",
+	"Options.TimeCol", "--time-col", "Options.Rate", "--rate", "Options.RunCol", "--run-col",
+	"Options.States", "--states", "Options.Manifest", "--manifest",
+	"FieldOptions.Degree", "--degree", "FieldOptions.Folds", "--select-folds",
+	"FieldOptions.Derivative", "--deriv", "FieldOptions.Bootstrap", "--bootstrap",
+	"CertifyOptions.Degree", "--v-degree", "CertifyOptions.Growth", "--growth",
+)
+
+// flagged is a library error reworded for the command line: the Go option
+// fields it names become the flags that set them.
+type flagged struct{ err error }
+
+func (e *flagged) Error() string { return optionFlags.Replace(e.err.Error()) }
+func (e *flagged) Unwrap() error { return e.err }
+
+// classify is the one place where a library error becomes a CLI error:
+// bad files (a positioned parse error, an unreadable path) and the
+// libraries' bad-input sentinels exit 2, with flags named in place of the
+// options they set; anything else is left as it is (exit 3). prefix, when
+// not empty, names the file the error is about ("model.json: ...").
+func classify(err error, prefix string) error {
+	var ue *usageError
+	var ie *inputError
+	if err == nil || errors.As(err, &ue) || errors.As(err, &ie) || errors.Is(err, errFlagged) {
+		return err
+	}
+	bad := false
+	var pe *ingest.ParseError
+	var fe *fs.PathError
+	if errors.As(err, &pe) || errors.As(err, &fe) {
+		bad = true
+	}
+	for _, s := range badInput {
+		if errors.Is(err, s) {
+			bad = true
+		}
+	}
+	if !bad {
+		return err
+	}
+	if prefix != "" {
+		err = fmt.Errorf("%s: %w", prefix, err)
+	}
+	return &inputError{&flagged{err}}
+}
+
+// exitCode prints err (one line) and maps it to the contract's exit codes.
+func exitCode(stderr io.Writer, name string, err error) int {
+	if err == nil || errors.Is(err, errHelp) {
+		return 0
+	}
+	if errors.Is(err, errFlagged) {
+		return 1
+	}
+	msg := printable(strings.ReplaceAll(optionFlags.Replace(err.Error()), "\n", " "))
+	var ue *usageError
+	var ie *inputError
+	switch {
+	case errors.As(err, &ue), errors.As(err, &ie):
+		fmt.Fprintf(stderr, "basin %s: %s\n", name, msg)
+		return 2
+	case errors.Is(err, context.Canceled):
+		fmt.Fprintf(stderr, "basin %s: interrupted; no output written\n", name)
+		return 3
+	}
+	fmt.Fprintf(stderr, "basin %s: %s\n", name, msg)
+	return 3
+}
