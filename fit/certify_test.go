@@ -109,7 +109,7 @@ func certRuns(s *certSystem, box [][2]float64, runs int, h float64, steps, every
 }
 
 // Van der Pol in reverse time, mu = 1: x1' = -x2, x2' = x1 + (x1²-1)x2
-// (Khalil, Nonlinear Systems, 3rd ed., §8.2; REFERENCES.md B4).
+// (Khalil, Nonlinear Systems, 3rd ed., §8.2; [Khalil2002]).
 var vdpReverse = &certSystem{
 	name:   "vdp-reverse",
 	states: []string{"x1", "x2"},
@@ -132,7 +132,7 @@ func vdpData() *ingest.Dataset {
 }
 
 // vdpROAArea is the area inside the Van der Pol (mu = 1) limit cycle, the
-// true region of attraction of the reverse-time system (REFERENCES.md A4
+// true region of attraction of the reverse-time system ([VanderPolCycle]
 // and B5: 13.72222, computed there).
 const vdpROAArea = 13.72222
 
@@ -200,10 +200,10 @@ func checkConverges(t *testing.T, s *certSystem, pts [][]float64, tol float64) {
 
 func TestCertifyVanDerPolKhalilLevel(t *testing.T) {
 	// The quadratic V = 1.5x1² - x1x2 + x2² from the Lyapunov equation with
-	// Q = I (Khalil, Nonlinear Systems, 3rd ed., §8.2; REFERENCES.md B4)
+	// Q = I (Khalil, Nonlinear Systems, 3rd ed., §8.2; [Khalil2002])
 	// has its best level at c* = 2.3044776 (computed there with mpmath):
 	// a sound level search must stay at or below c* + 1e-3, and should
-	// reach 2.2 (REFERENCES.md B4).
+	// reach 2.2 ([Khalil2002]).
 	ds := vdpData()
 	m := vdpReverse.model([]float64{1, 1})
 	ck, _, err := newChecker(context.Background(), m, ds, m.Equilibrium, []float64{1, 1}, (&CertifyOptions{}).get())
@@ -231,7 +231,7 @@ func TestCertifyVanDerPol(t *testing.T) {
 		minShare float64 // of the true region of attraction
 	}{
 		// The best quadratic from Khalil's P reaches 47.2% of the true
-		// area (REFERENCES.md B5); the first-order cell bound costs a few
+		// area ([VanderPolCycle]); the first-order cell bound costs a few
 		// per cent of that (FINDINGS: 3-5%), so 0.46 is asked of the LP's
 		// quadratic (measured 0.469).
 		{2, 0.46},
@@ -255,7 +255,7 @@ func TestCertifyVanDerPol(t *testing.T) {
 			t.Errorf("degree %d: %.3f of the true ROA, want >= %.2f", tc.deg, share, tc.minShare)
 		}
 		// The region lies inside the limit cycle: its area cannot exceed
-		// the cycle's (REFERENCES.md B5), allowing 2% for the Monte-Carlo
+		// the cycle's ([VanderPolCycle]), allowing 2% for the Monte-Carlo
 		// share (20,000 points: relative error ~1%).
 		if c.Region.Volume > vdpROAArea*1.02 {
 			t.Errorf("degree %d: region area %.3f exceeds the ROA's %.3f", tc.deg, c.Region.Volume, vdpROAArea)
@@ -275,8 +275,8 @@ func TestCertifyVanDerPol(t *testing.T) {
 func TestCertifyLinearLP(t *testing.T) {
 	// On a stable linear system the LP's quadratic must satisfy A'P + PA
 	// negative definite (Lyapunov's theorem for linear systems, e.g.
-	// Khalil, Nonlinear Systems, Theorem 4.6); checked by its eigenvalues.
-	// A = [[0, 1], [-2, -3]] (REFERENCES.md B2).
+	// [Khalil2002] Theorem 4.6); checked by its eigenvalues.
+	// A = [[0, 1], [-2, -3]] ([Ogata]).
 	sys := &certSystem{
 		name:   "linear",
 		states: []string{"a", "b"},
@@ -458,7 +458,7 @@ func TestCertifySaddles(t *testing.T) {
 func TestCertifyLimitCycle(t *testing.T) {
 	// Van der Pol forward in time (mu = 1): the origin is an unstable
 	// focus inside a stable limit cycle, so no certificate may exist for
-	// it (Khalil, Nonlinear Systems, §2.7; the linearisation has
+	// it ([Khalil2002] §2.7; the linearisation has
 	// eigenvalues (1 ± i√3)/2).
 	sys := &certSystem{
 		name:   "vdp-forward",

@@ -27,11 +27,11 @@ func scaled(num []float64, den float64) []float64 {
 }
 
 // TestSavitzkyGolayTables checks the weights against the published tables
-// (REFERENCES.md C1–C2): Savitzky & Golay, "Smoothing and differentiation
+// ([SavitzkyGolay1964]): Savitzky & Golay, "Smoothing and differentiation
 // of data by simplified least squares procedures", Anal. Chem. 36(8),
 // 1964, with the corrections of Steinier, Termonia & Deltour, Anal. Chem.
 // 44, 1972; the quartic 7-point set was recomputed by exact least squares
-// (REFERENCES.md). Exact rationals, so 1e-12.
+// (docs/references.md). Exact rationals, so 1e-12.
 func TestSavitzkyGolayTables(t *testing.T) {
 	for _, tc := range []struct {
 		name          string
@@ -63,7 +63,7 @@ func TestSavitzkyGolayTables(t *testing.T) {
 			}
 		})
 	}
-	// Worked numbers (REFERENCES.md C2): derivative of exp at 0, h = 0.1.
+	// Worked numbers ([SavitzkyGolay1964]): derivative of exp at 0, h = 0.1.
 	for _, tc := range []struct {
 		m, deg int
 		want   float64
@@ -79,7 +79,7 @@ func TestSavitzkyGolayTables(t *testing.T) {
 			t.Errorf("%d-pt degree %d: %.10f, want %.8f", 2*tc.m+1, tc.deg, s, tc.want)
 		}
 	}
-	// On z^4 at the centre the 5-point filter gives -72/35 (REFERENCES.md C1).
+	// On z^4 at the centre the 5-point filter gives -72/35 ([SavitzkyGolay1964]).
 	w := SavitzkyGolayTo(make([]float64, 5), centred(2), 0, 3, 0)
 	s := 0.0
 	for i, z := range centred(2) {
@@ -93,9 +93,9 @@ func TestSavitzkyGolayTables(t *testing.T) {
 	}
 }
 
-// TestFornberg checks the weights of Fornberg, "Generation of finite
+// TestFornberg checks the weights of [Fornberg1988], "Generation of finite
 // difference formulas on arbitrarily spaced grids", Math. Comp. 51(184),
-// 1988, Table 1, and the non-uniform and worked cases of REFERENCES.md C3
+// 1988, Table 1, and the non-uniform and worked cases of [Fornberg1988]
 // (exact rationals: 1e-12; the worked sin values are given to 10 decimals:
 // 1e-10).
 func TestFornberg(t *testing.T) {
@@ -193,7 +193,7 @@ func TestDerivativeRuns(t *testing.T) {
 
 // TestSGPairTables checks the value and slope weights that sgRuns
 // computes together from one factorisation against the cubic tables of
-// Savitzky & Golay, "Smoothing and differentiation of data by simplified
+// [SavitzkyGolay1964], "Smoothing and differentiation of data by simplified
 // least squares procedures", Anal. Chem. 36(8), 1964 (Tables I and III,
 // with the corrections of Steinier, Termonia & Deltour, 1972): exact
 // rationals, so 1e-12.

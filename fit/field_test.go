@@ -22,10 +22,10 @@ func lorenzStarts() [][]float64 {
 	return [][]float64{{-8, 7, 27}, {1, 1, 1}, {10, -5, 30}, {-3, -6, 15}, {5, 10, 20}, {0.5, -2, 35}, {0.5, -0.5, -1}}
 }
 
-// TestFieldLorenz is the sparse-regression check of Brunton, Proctor &
+// TestFieldLorenz is the sparse-regression check of [Brunton2016] (Brunton, Proctor &
 // Kutz, "Discovering governing equations from data by sparse
 // identification of nonlinear dynamical systems", PNAS 113(15), 2016
-// (REFERENCES.md A1): sigma = 10, rho = 28, beta = 8/3. Six runs of 5 s at
+// ([Brunton2016]): sigma = 10, rho = 28, beta = 8/3. Six runs of 5 s at
 // 500 Hz from RK4 (step 5e-4, error far below the tolerances). Clean data:
 // exactly the seven true terms, every coefficient within 0.5% (the brief's
 // bound; the measured error is about 2e-6). 1% noise: the true support and
@@ -61,8 +61,8 @@ func TestFieldLorenz(t *testing.T) {
 }
 
 // TestLorenzEquilibria checks the equilibria and linearisations of the
-// field fitted to clean Lorenz data against REFERENCES.md A2 (computed
-// from the formulas in Strogatz, Nonlinear Dynamics and Chaos, ch. 9):
+// field fitted to clean Lorenz data against [Lorenz1963], [Strogatz1994] (computed
+// from the formulas in [Strogatz1994] ch. 9):
 // the origin, a saddle with eigenvalues -22.827723, -2.666667, 11.827723,
 // and C± = (±6√2, ±6√2, 27) with -13.854578 and 0.093956 ± 10.194505i.
 // Tolerance 1e-4 relative: the fitted coefficients are within about 2e-6.
@@ -116,8 +116,8 @@ func dist(a, b []float64) float64 {
 }
 
 // TestFieldLinear fits the damped linear oscillator x' = -0.1x + 2y,
-// y' = -2x - 0.1y (Brunton, Proctor & Kutz 2016, first example;
-// REFERENCES.md A3) with a degree-3 library and checks the fitted matrix
+// y' = -2x - 0.1y ([Brunton2016], first example;
+// [Brunton2016]) with a degree-3 library and checks the fitted matrix
 // and that the eigenvalues agree with gonum's on the true matrix
 // (-0.1 ± 2i). Clean data, tolerance 1e-5 (derivative error of the
 // smallest cubic window at 100 Hz is about 1e-7).
@@ -154,7 +154,7 @@ func TestFieldLinear(t *testing.T) {
 }
 
 // TestLeastSquaresSajari checks the streamed, normalised normal-equation
-// solve (every term kept: threshold 0) against github.com/sajari/regression
+// solve (every term kept: threshold 0) against [sajari] github.com/sajari/regression
 // v1.0.1, an independent ordinary-least-squares implementation, to 1e-8
 // relative: the normalised matrix has condition about 1e2 and the refit
 // jitter is 1e-12, so both agree to about 1e-11.
@@ -532,7 +532,7 @@ func TestFieldOffset(t *testing.T) {
 
 // TestFieldOneRun: with fewer runs than folds, each run is cut into
 // contiguous blocks for cross-validation and the bootstrap; one clean
-// Lorenz run still gives the seven terms (Brunton, Proctor & Kutz 2016;
+// Lorenz run still gives the seven terms ([Brunton2016];
 // same bound as TestFieldLorenz).
 func TestFieldOneRun(t *testing.T) {
 	ds := simulate(lorenz, [][]float64{{-8, 7, 27}}, 20, 0.002, 4, 0, 1)

@@ -15,18 +15,17 @@ func TestLyapunovReference(t *testing.T) {
 		n    int
 		a, p []float64
 	}{
-		// Khalil, Nonlinear Systems, 3rd ed. (2002), ch. 4; REFERENCES.md B2
-		// (confirmed there against a second source). Exact rationals.
+		// [Khalil2002] ch. 4 (confirmed in math.stackexchange q. 4604793,
+		// which follows Khalil). Exact rationals.
 		{"khalil", 2, []float64{0, 1, -1, -1}, []float64{1.5, 0.5, 0.5, 1}},
-		// Van der Pol in reverse time, linearised (REFERENCES.md B1, from
+		// Van der Pol in reverse time, linearised ([Khalil2002], from
 		// Khalil §8.2; exact).
 		{"vdp-reverse", 2, []float64{0, -1, 1, -1}, []float64{1.5, -0.5, -0.5, 1}},
-		// Ogata-style textbook example, from memory, verified exactly
-		// (REFERENCES.md B2).
+		// [Ogata]-style textbook example, from memory, verified exactly.
 		{"ogata", 2, []float64{0, 1, -2, -3}, []float64{1.25, 0.25, 0.25, 0.25}},
 		{"diag", 2, []float64{-1, 0, 0, -2}, []float64{0.5, 0, 0, 0.25}},
-		// Companion matrix with poles -1, -2, -3; P computed exactly
-		// (REFERENCES.md B2).
+		// Companion matrix with poles -1, -2, -3; P computed here with
+		// exact rationals (the equation of [Khalil2002] ch. 4).
 		{"companion3", 3, []float64{0, 1, 0, 0, 0, 1, -6, -11, -6}, []float64{
 			109.0 / 60, 23.0 / 20, 1.0 / 12, 23.0 / 20, 241.0 / 120, 3.0 / 20, 1.0 / 12, 3.0 / 20, 13.0 / 120}},
 	} {

@@ -23,7 +23,7 @@ func TestCertifyNonRise(t *testing.T) {
 		energy func(x, y float64) float64 // conserved (nil: damped)
 	}{
 		// Harmonic oscillator x' = y, y' = -w² x, w = 2: the energy w²x² + y²
-		// is conserved (any mechanics text, e.g. Strogatz, Nonlinear Dynamics
+		// is conserved (any mechanics text, e.g. [Strogatz1994] Nonlinear Dynamics
 		// and Chaos, 1994, §5.1; exact).
 		{"centre", sys("centre", []Equation{
 			{State: "x", Exponents: [][]int{{0, 1}}, Coefficients: []float64{1}},
@@ -31,7 +31,7 @@ func TestCertifyNonRise(t *testing.T) {
 		}, func(d, x []float64) { d[0] = x[1]; d[1] = -4 * x[0] }), 2,
 			func(x, y float64) float64 { return 4*x*x + y*y }},
 		// Undamped hardening Duffing x' = y, y' = -x - 0.5x³: E = y²/2 + x²/2
-		// + x⁴/8 is conserved (REFERENCES.md A6 with delta = 0, alpha = 1,
+		// + x⁴/8 is conserved ([GuckenheimerHolmes1983] with delta = 0, alpha = 1,
 		// beta = 0.5; computed there).
 		{"duffing", sys("duffing", []Equation{
 			{State: "x", Exponents: [][]int{{0, 1}}, Coefficients: []float64{1}},
@@ -96,7 +96,7 @@ func TestCertifyNonRise(t *testing.T) {
 
 // TestCertifyNonRiseGrowingData: a centre model (x' = y, y' = -x) on
 // runs of the anti-damped x” = 0.05 x' - x, whose energy x² + y² grows
-// along every pair (at 0.1 y², Strogatz 1994 §5.2, from memory): the
+// along every pair (at 0.1 y², [Strogatz1994] §5.2, from memory): the
 // model says V is conserved, the recorded pairs say it rises far beyond
 // the (noiseless) tolerance, so the non-rise path must not certify a
 // region beyond the noise ball.

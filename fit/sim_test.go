@@ -115,7 +115,7 @@ var duffing = system{
 	true: []map[string]float64{{"y": 1}, {"x": -1, "y": -0.2, "x^3": -1}},
 }
 
-// vanderpol with mu = 1 (REFERENCES.md A4).
+// vanderpol with mu = 1 ([VanderPolCycle]).
 var vanderpol = system{
 	name:   "vanderpol",
 	states: []string{"x", "y"},

@@ -26,9 +26,9 @@ func TestScenarioTailBinomial(t *testing.T) {
 	}
 }
 
-// TestMinSamples checks the exact smallest sample sizes of REFERENCES.md
-// E1 (Wilks, Ann. Math. Stat. 12:91-96, 1941, d = 1) and E2 (computed
-// exactly from the Campi & Garatti 2008 tail), and the tails beside them.
+// TestMinSamples checks the exact smallest sample sizes of
+// [Wilks1941] (Ann. Math. Stat. 12:91-96, 1941, d = 1) and those computed
+// exactly from the tail of [CampiGaratti2008] (d > 1), and the tails beside them.
 func TestMinSamples(t *testing.T) {
 	for _, tc := range []struct {
 		eps, beta        float64
@@ -60,9 +60,9 @@ func TestMinSamples(t *testing.T) {
 	}
 }
 
-// TestSufficientSamples checks (2/eps)(ln(1/beta)+d) against REFERENCES.md
-// E3 and that it is never below the exact size (property over a grid, as
-// E3 describes).
+// TestSufficientSamples checks (2/eps)(ln(1/beta)+d) against the
+// values computed from [CampiGaratti2008] and that it is never below the
+// exact size (a property over a grid of eps, beta and d).
 func TestSufficientSamples(t *testing.T) {
 	for _, tc := range []struct {
 		eps, beta float64
@@ -87,7 +87,7 @@ func TestSufficientSamples(t *testing.T) {
 	}
 }
 
-// TestViolationBound checks the inverse against REFERENCES.md E4 (rel.
+// TestViolationBound checks the inverse against [CampiGaratti2008] (rel.
 // 1e-5 as stated there) and the closed form 1 - beta^(1/N) for d = 1.
 func TestViolationBound(t *testing.T) {
 	for _, tc := range []struct {

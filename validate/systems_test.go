@@ -79,29 +79,29 @@ func box(rng *rand.Rand, half ...float64) []float64 {
 
 var (
 	// Linear oscillator x'' + c x' + k x = 0 (any dynamics text, e.g.
-	// Strogatz, Nonlinear Dynamics and Chaos, 1994, §5.1; common
+	// [Strogatz1994] §5.1; common
 	// practice): damped c = 0.6 is a stable focus, c = 0 a centre whose
 	// energy is conserved.
-	damped = system{name: "damped", source: "linear oscillator, c = 0.6, k = 4 (Strogatz 1994 §5.1, from memory)",
+	damped = system{name: "damped", source: "linear oscillator, c = 0.6, k = 4 ([Strogatz1994] §5.1, from memory)",
 		f:      func(d []float64, _ float64, x []float64) { d[0] = x[1]; d[1] = -4*x[0] - 0.6*x[1] },
 		states: []string{"x", "v"}, x0: func(r *rand.Rand) []float64 { return box(r, 1, 2) }, dur: 12, rate: 50, runs: 12}
-	lossless = system{name: "lossless", source: "linear oscillator, c = 0, k = 4: a centre (Strogatz 1994 §5.2, from memory)",
+	lossless = system{name: "lossless", source: "linear oscillator, c = 0, k = 4: a centre ([Strogatz1994] §5.2, from memory)",
 		f:      func(d []float64, _ float64, x []float64) { d[0] = x[1]; d[1] = -4 * x[0] },
 		states: []string{"x", "v"}, x0: func(r *rand.Rand) []float64 { return box(r, 1, 2) }, dur: 12, rate: 50, runs: 12}
 	// Damped pendulum x'' = -a sin x - b x', a = 4, b = 0.8 (Khalil,
-	// Nonlinear Systems, 3rd ed., 2002, §4.1; REFERENCES.md B3).
-	pendulum = system{name: "pendulum", source: "damped pendulum a = 4, b = 0.8 (Khalil 2002 §4.1)",
+	// Nonlinear Systems, 3rd ed., 2002, §4.1; [Khalil2002]).
+	pendulum = system{name: "pendulum", source: "damped pendulum a = 4, b = 0.8 ([Khalil2002] §4.1)",
 		f:      func(d []float64, _ float64, x []float64) { d[0] = x[1]; d[1] = -4*math.Sin(x[0]) - 0.8*x[1] },
 		states: []string{"theta", "omega"}, x0: func(r *rand.Rand) []float64 { return box(r, 1.2, 1.5) }, dur: 12, rate: 50, runs: 12}
 	// Van der Pol, mu = 1: a limit cycle around an unstable focus (van der
-	// Pol 1926; Strogatz 1994 §7.5).
-	vanderpol = system{name: "vanderpol", source: "Van der Pol mu = 1, limit cycle around an unstable focus (Strogatz 1994 §7.5)",
+	// Pol 1926; [Strogatz1994] §7.5).
+	vanderpol = system{name: "vanderpol", source: "Van der Pol mu = 1, limit cycle around an unstable focus ([Strogatz1994] §7.5)",
 		f:      func(d []float64, _ float64, x []float64) { d[0] = x[1]; d[1] = (1-x[0]*x[0])*x[1] - x[0] },
 		states: []string{"x", "y"}, x0: func(r *rand.Rand) []float64 { return box(r, 2.5, 2.5) }, dur: 12, rate: 50, runs: 12}
 	// Van der Pol in reverse time, mu = 1: a stable focus whose region of
-	// attraction is the inside of the cycle (Khalil 2002 §8.2;
-	// REFERENCES.md B4).
-	vdpReverse = system{name: "vdp-reverse", source: "Van der Pol mu = 1 in reverse time (Khalil 2002 §8.2, REFERENCES.md B4)",
+	// attraction is the inside of the cycle ([Khalil2002] §8.2;
+	// [Khalil2002]).
+	vdpReverse = system{name: "vdp-reverse", source: "Van der Pol mu = 1 in reverse time (Khalil 2002 §8.2, [Khalil2002])",
 		f:      func(d []float64, _ float64, x []float64) { d[0] = -x[1]; d[1] = x[0] + (x[0]*x[0]-1)*x[1] },
 		states: []string{"x", "y"}, x0: func(r *rand.Rand) []float64 { return box(r, 1, 1) }, dur: 12, rate: 50, runs: 12}
 	// Lorenz sigma = 10, rho = 28, beta = 8/3: a chaotic attractor; the
@@ -116,13 +116,13 @@ var (
 		dur: 5, rate: 200, runs: 10}
 	// Weakly anti-damped oscillator x'' = +0.05 x' - x: an unstable focus,
 	// eigenvalues 0.025 ± 0.9997i, energy growing about e^(0.05 t) (any
-	// dynamics text, e.g. Strogatz 1994 §5.2 and §6.5, from memory). 60 s
+	// dynamics text, e.g. [Strogatz1994] §5.2 and §6.5, from memory). 60 s
 	// runs: the energy grows some 20-fold, far beyond the noise.
-	antidamped = system{name: "antidamped", source: "anti-damped oscillator x'' = 0.05 x' - x, unstable focus (Strogatz 1994 §5.2, from memory)",
+	antidamped = system{name: "antidamped", source: "anti-damped oscillator x'' = 0.05 x' - x, unstable focus ([Strogatz1994] §5.2, from memory)",
 		f:      func(d []float64, _ float64, x []float64) { d[0] = x[1]; d[1] = -x[0] + 0.05*x[1] },
 		states: []string{"x", "v"}, x0: func(r *rand.Rand) []float64 { return box(r, 0.3, 0.3) }, dur: 60, rate: 20, runs: 12}
-	// Saddle x' = x, y' = -2y (Strogatz 1994 §5.1 example; exact).
-	saddle = system{name: "saddle", source: "linear saddle x' = x, y' = -2y (Strogatz 1994 §5.1)",
+	// Saddle x' = x, y' = -2y ([Strogatz1994] §5.1 example; exact).
+	saddle = system{name: "saddle", source: "linear saddle x' = x, y' = -2y ([Strogatz1994] §5.1)",
 		f:      func(d []float64, _ float64, x []float64) { d[0] = x[0]; d[1] = -2 * x[1] },
 		states: []string{"x", "y"}, x0: func(r *rand.Rand) []float64 { return box(r, 0.2, 2) }, dur: 2.5, rate: 200, runs: 16}
 )
@@ -135,7 +135,7 @@ var (
 func losslessLogged() system {
 	sys := lossless
 	sys.name, sys.runs = "lossless-logged", 24
-	sys.source = "linear oscillator, c = 0, k = 4, 24 amplitudes (Strogatz 1994 §5.2, from memory)"
+	sys.source = "linear oscillator, c = 0, k = 4, 24 amplitudes ([Strogatz1994] §5.2, from memory)"
 	k := 0
 	sys.x0 = func(r *rand.Rand) []float64 {
 		k++
@@ -147,12 +147,12 @@ func losslessLogged() system {
 
 // duffingLogged is the undamped hardening Duffing oscillator x” = -4x -
 // 2x³, logged like losslessLogged; its energy v²/2 + 2x² + x⁴/2 is
-// conserved (REFERENCES.md A6 with delta = 0), quartic, so V needs degree
+// conserved ([GuckenheimerHolmes1983] with delta = 0), quartic, so V needs degree
 // 4.
 func duffingLogged() system {
 	sys := losslessLogged()
 	sys.name = "duffing-logged"
-	sys.source = "undamped Duffing x'' = -4x - 2x^3, 24 amplitudes (REFERENCES.md A6, delta = 0)"
+	sys.source = "undamped Duffing x'' = -4x - 2x^3, 24 amplitudes ([GuckenheimerHolmes1983], delta = 0)"
 	sys.f = func(d []float64, _ float64, x []float64) { d[0] = x[1]; d[1] = -4*x[0] - 2*x[0]*x[0]*x[0] }
 	return sys
 }
@@ -283,7 +283,7 @@ func TestStrengthEnergy(t *testing.T) {
 // TestStableNeedsNoDrift: the stable strength asks V not to drift up
 // along the runs that start inside. With V = x² + v², the energy of x” =
 // -x (conserved) and of x” = 0.05 x' - x (growing about e^(0.05 t);
-// Strogatz 1994 §5.2, from memory), a per-pair tolerance of 0.05 (as
+// [Strogatz1994] §5.2, from memory), a per-pair tolerance of 0.05 (as
 // from noisy data: amplitudes start below 0.43 and grow at most e^1.5-fold
 // in 60 s, so V < 4 and the rise per 0.05 s pair, 0.1 v² dt, stays below
 // 0.02 and every pair passes) and a level the runs never reach, only the

@@ -7,7 +7,7 @@ import (
 	"basin.example/fit/lp"
 )
 
-// Chvátal's first example (Linear Programming, 1983, ch. 2): maximise
+// Chvátal's first example ([Chvatal1983] ch. 2): maximise
 // 5x1 + 4x2 + 3x3 subject to three rows and x >= 0. The optimum is 13 at
 // (2, 0, 1), with dual (1, 0, 1).
 func ExampleSolve() {

@@ -15,7 +15,7 @@ import (
 )
 
 // tight asks the solver for a relative gap of 1e-12, so that textbook
-// optima can be asserted to 1e-9 (REFERENCES.md F1 suggests 1e-9).
+// optima can be asserted to 1e-9 ([Chvatal1983] suggests 1e-9).
 var tight = &lp.Options{Tol: 1e-12}
 
 func zeros(n int) []float64 { return make([]float64, n) }
@@ -31,9 +31,9 @@ func TestSolveTextbook(t *testing.T) {
 		maxIt int
 	}{
 		{
-			// Chvátal, Linear Programming (1983), ch. 2, first example; also
+			// [Chvatal1983] ch. 2, first example; also
 			// Vanderbei, Linear Programming: Foundations and Extensions, ch. 2
-			// (from memory; REFERENCES.md F1, verified there by vertex
+			// (from memory; [Chvatal1983], verified there by vertex
 			// enumeration). Maximise 5x1+4x2+3x3, so minimise the negative.
 			name: "Chvatal ch.2",
 			p: lp.Problem{C: []float64{-5, -4, -3},
@@ -43,15 +43,15 @@ func TestSolveTextbook(t *testing.T) {
 		{
 			// Hillier & Lieberman, Introduction to Operations Research, §3.1,
 			// Wyndor Glass (statement confirmed, optimum from memory;
-			// REFERENCES.md F2). Shadow prices (0, 3/2, 1) from memory.
+			// [HillierLieberman]). Shadow prices (0, 3/2, 1) from memory.
 			name: "Wyndor Glass",
 			p: lp.Problem{C: []float64{-3, -5},
 				G: []float64{1, 0, 0, 2, 3, 2}, H: []float64{4, 12, 18}, Lower: zeros(2)},
 			obj: -36, x: []float64{2, 6}, y: []float64{0, 1.5, 1}, tol: 1e-9,
 		},
 		{
-			// Chvátal (1983) ch. 3, the degenerate example on which the
-			// largest-coefficient rule cycles (from memory; REFERENCES.md F3).
+			// [Chvatal1983] ch. 3, the degenerate example on which the
+			// largest-coefficient rule cycles (from memory; [Chvatal1983], [Beale1955]).
 			name: "Chvatal ch.3 cycling",
 			p: lp.Problem{C: []float64{-10, 57, 9, 24},
 				G: []float64{0.5, -5.5, -2.5, 9, 0.5, -1.5, -0.5, 1, 1, 0, 0, 0},
@@ -60,7 +60,7 @@ func TestSolveTextbook(t *testing.T) {
 		},
 		{
 			// Beale (1955), the classic cycling example (from memory;
-			// REFERENCES.md F3).
+			// [Chvatal1983], [Beale1955]).
 			name: "Beale 1955",
 			p: lp.Problem{C: []float64{-0.75, 20, -0.5, 6},
 				G: []float64{0.25, -8, -1, 9, 0.5, -12, -0.5, 3, 0, 0, 1, 0},

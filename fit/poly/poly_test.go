@@ -22,7 +22,7 @@ func binomial(n, k int) int {
 
 // TestCount: the number of monomials of total degree <= p in n variables
 // is C(n+p, p), of degree exactly d it is C(n+d-1, d) (elementary
-// combinatorics; REFERENCES.md A7 lists (2,3) 10, (3,2) 10, (3,3) 20,
+// combinatorics; [MonomialCount] lists (2,3) 10, (3,2) 10, (3,3) 20,
 // (3,5) 56, (2,5) 21, and (6,3) 84 is the benchmark's library).
 func TestCount(t *testing.T) {
 	for _, tc := range []struct{ n, p, want int }{{2, 3, 10}, {3, 2, 10}, {3, 3, 20}, {3, 5, 56}, {2, 5, 21}, {6, 3, 84}} {

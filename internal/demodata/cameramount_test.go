@@ -118,7 +118,7 @@ func TestParams(t *testing.T) {
 }
 
 // TestEnergy checks the energy balance dE/dt = -C omega^2 of a damped
-// oscillator with a conservative spring (Guckenheimer & Holmes,
+// oscillator with a conservative spring ([GuckenheimerHolmes1983] Guckenheimer & Holmes,
 // "Nonlinear Oscillations, Dynamical Systems, and Bifurcations of Vector
 // Fields", 1983, sec. 2.2, the unforced Duffing equation; from memory,
 // and the identity is one line of calculus) on the true states of the runs

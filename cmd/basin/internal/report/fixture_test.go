@@ -13,8 +13,8 @@ import (
 
 // The fixture is the linear oscillator x1' = x2, x2' = -x1 - x2, whose
 // Lyapunov equation AᵀP + PA = -I has P = [[3/2, 1/2], [1/2, 1]]
-// (Khalil, Nonlinear Systems, 3rd ed., 2002, ch. 4, from memory; confirmed
-// in math.stackexchange q. 4604793, see REFERENCES B2). So V = zᵀPz with
+// ([Khalil2002] ch. 4, from memory; confirmed in math.stackexchange
+// q. 4604793; keys in docs/references.md). So V = zᵀPz with
 // z = x - x*, and dV/dt = -|z|² along every run. Runs are integrated with
 // classical RK4 (common practice).
 
