@@ -30,7 +30,7 @@ func ExampleSummary() {
 	// region {V <= 0.8}:
 	//   pitch from -0.29 to 3.29 deg
 	//   rate from -12.6 to 12.6 deg/s
-	//   limited by: envelope edge
-	// held-out: none (so not certified)
+	//   limited by: envelope edge: the region reached the edge of the states the runs cover; to let it grow, add runs from larger kicks that start outside pitch -0.29 to 3.29 deg, rate -12.6 to 12.6 deg/s
+	// held-out: none, so the verdict cannot be certified: hold out runs (split holdout in a manifest) or record more runs
 	// caveat: Empirical evidence from recorded samples only, not a proof of stability; nothing is claimed outside the envelope the data cover, and safety-relevant decisions defer to the applicable codes and to licensed engineering judgement.
 }

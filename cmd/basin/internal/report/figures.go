@@ -55,6 +55,10 @@ type figure struct {
 	// Notes for the caption.
 	offFigure int  // other equilibria outside the figure
 	clipped   bool // runs reach beyond the view
+	wide      bool // the data reach beyond viewBoxes box widths (a close-up helps)
+	// others lists the classes of the other equilibria drawn, in order
+	// of first appearance, for the key.
+	others []string
 }
 
 func lineStyle(c color.Color, w vg.Length, dash ...vg.Length) draw.LineStyle {
@@ -142,8 +146,10 @@ func limitSpan(s span, box [2]float64, clip bool) (span, bool) {
 	return s, clip
 }
 
-// planeFigure draws the phase plane of states a and b.
-func planeFigure(in *Input, pl [2]int) (*figure, error) {
+// planeFigure draws the phase plane of states a and b. With closeUp the
+// view is at most viewBoxes box widths around the box (runs that go
+// further are cut at the edge); without it the view holds every sample.
+func planeFigure(in *Input, pl [2]int, closeUp bool) (*figure, error) {
 	c := in.Cert
 	a, b := pl[0], pl[1]
 	p := plot.New()
@@ -193,14 +199,18 @@ func planeFigure(in *Input, pl [2]int) (*figure, error) {
 		sy.add(c.Box[b][0])
 		sy.add(c.Box[b][1])
 	}
-	// The view: the data's span, but no wider than viewBoxes times the
-	// box around its centre, so that runs flying off do not shrink the
-	// region to a dot; equilibria of the model inside the data's envelope
-	// are always in view.
-	clip := false
+	// The view: the data's whole span; or, for the close-up, no wider
+	// than viewBoxes times the box around its centre, so that runs flying
+	// off do not shrink the region to a dot. Equilibria of the model
+	// inside the data's envelope are always in view.
+	clip, wide := false, false
 	if c.Box != nil {
-		sx, clip = limitSpan(sx, c.Box[a], clip)
-		sy, clip = limitSpan(sy, c.Box[b], clip)
+		_, wide = limitSpan(sx, c.Box[a], false)
+		_, wide = limitSpan(sy, c.Box[b], wide)
+		if closeUp {
+			sx, clip = limitSpan(sx, c.Box[a], clip)
+			sy, clip = limitSpan(sy, c.Box[b], clip)
+		}
 	}
 	if m := in.Model; m != nil {
 		for _, e := range m.Equilibria {
@@ -212,7 +222,7 @@ func planeFigure(in *Input, pl [2]int) (*figure, error) {
 	}
 	x0, x1 := sx.padded(c.Equilibrium[a])
 	y0, y1 := sy.padded(c.Equilibrium[b])
-	f := &figure{clipped: clip}
+	f := &figure{clipped: clip, wide: wide}
 	if c.Box != nil {
 		bx := c.Box
 		l, err := plotter.NewLine(plotter.XYs{{X: bx[a][0], Y: bx[b][0]}, {X: bx[a][1], Y: bx[b][0]},
@@ -239,7 +249,7 @@ func planeFigure(in *Input, pl [2]int) (*figure, error) {
 		}
 	}
 	if m := in.Model; m != nil && len(m.Equilibria) > 1 {
-		var xy plotter.XYs
+		byClass := map[string]plotter.XYs{}
 		for _, e := range m.Equilibria[1:] {
 			if len(e.Point) != len(c.States) {
 				continue
@@ -249,14 +259,18 @@ func planeFigure(in *Input, pl [2]int) (*figure, error) {
 				f.offFigure++
 				continue
 			}
-			xy = append(xy, plotter.XY{X: x, Y: y})
+			k := markOf(e.Class)
+			if _, seen := byClass[k]; !seen {
+				f.others = append(f.others, k)
+			}
+			byClass[k] = append(byClass[k], plotter.XY{X: x, Y: y})
 		}
-		if len(xy) > 0 {
-			s, err := plotter.NewScatter(xy)
+		for _, k := range f.others {
+			s, err := plotter.NewScatter(byClass[k])
 			if err != nil {
 				return nil, err
 			}
-			s.GlyphStyle = draw.GlyphStyle{Color: inkOther, Radius: 4.5, Shape: draw.TriangleGlyph{}}
+			s.GlyphStyle = draw.GlyphStyle{Color: inkOther, Radius: 4.5, Shape: otherMarks[k].glyph}
 			p.Add(s)
 		}
 	}
@@ -267,8 +281,13 @@ func planeFigure(in *Input, pl [2]int) (*figure, error) {
 	s.GlyphStyle = draw.GlyphStyle{Color: inkEquil, Radius: 4, Shape: draw.BoxGlyph{}}
 	p.Add(s)
 	p.X.Min, p.X.Max, p.Y.Min, p.Y.Max = x0, x1, y0, y1
+	p.X.Tick.Marker, p.Y.Tick.Marker = linTicks{}, linTicks{}
 	p.Add(plotter.NewGrid())
-	if err := render(p, "phase plane of "+c.States[a]+" and "+c.States[b], f); err != nil {
+	label := "phase plane of " + c.States[a] + " and " + c.States[b]
+	if closeUp {
+		label = "close-up of the phase plane of " + c.States[a] + " and " + c.States[b]
+	}
+	if err := render(p, label, f); err != nil {
 		return nil, err
 	}
 	return f, nil
@@ -323,7 +342,8 @@ func vFigure(in *Input) (*figure, error) {
 	p.X.Label.Text = "time since the run's first sample [s]"
 	p.Y.Label.Text = "V (log scale)"
 	p.Y.Scale = plot.LogScale{}
-	p.Y.Tick.Marker = plot.LogTicks{Prec: -1}
+	p.Y.Tick.Marker = logTicks{}
+	p.X.Tick.Marker = linTicks{}
 	z := make([]float64, len(c.States))
 	x := make([]float64, len(c.States))
 	sy := newSpan()
@@ -391,7 +411,8 @@ func vFigure(in *Input) (*figure, error) {
 		s.GlyphStyle = draw.GlyphStyle{Color: inkViolMark, Radius: 6, Shape: draw.CrossGlyph{}}
 		p.Add(s)
 	}
-	p.X.Min, p.X.Max = 0, math.Max(tmax, 1e-9)
+	// a little room on the right so that the last tick's label is not cut
+	p.X.Min, p.X.Max = 0, 1.03*math.Max(tmax, 1e-9)
 	p.Y.Min, p.Y.Max = math.Max(sy.lo/2, floor), sy.hi*2
 	f := &figure{logY: true}
 	if err := render(p, "V along held-out runs", f); err != nil {
@@ -415,6 +436,37 @@ func nearest(ts []float64, t float64) int {
 		lo--
 	}
 	return lo
+}
+
+// The other equilibria's marks, one shape per kind, so that a saddle and
+// a second stable point never look alike.
+type otherMark struct {
+	glyph draw.GlyphDrawer
+	swatch string // the key's swatch shape (see page.html.tmpl)
+	label  string
+}
+
+var otherMarks = map[string]otherMark{
+	"saddle":         {draw.TriangleGlyph{}, "triangle", "saddle of the fitted model"},
+	"stable":         {draw.RingGlyph{}, "ring", "other stable equilibrium of the fitted model"},
+	"unstable":       {draw.SquareGlyph{}, "square-outline", "unstable equilibrium of the fitted model"},
+	"non-hyperbolic": {draw.PlusGlyph{}, "plus", "equilibrium of the fitted model with an eigenvalue on the imaginary axis"},
+	"outside":        {draw.CrossGlyph{}, "cross", "equilibrium of the fitted model outside the data's envelope"},
+}
+
+// markOf maps an equilibrium class to its mark.
+func markOf(class string) string {
+	switch {
+	case class == "saddle":
+		return "saddle"
+	case strings.HasPrefix(class, "stable"):
+		return "stable"
+	case strings.HasPrefix(class, "unstable"):
+		return "unstable"
+	case class == "outside envelope":
+		return "outside"
+	}
+	return "non-hyperbolic"
 }
 
 // hex formats a colour as #RRGGBB for the page's key.

@@ -37,7 +37,7 @@ const fixtureCertJSON = `{
   "found": true,
   "region": {"envelope_share": 0.41, "extent": [[-1.2, 1.6], [-1.6, 1.4]], "limit": "envelope edge", "lp_rounds": 3, "lp_rows": 900},
   "validation": {"heldout_runs": 3, "decrease_fraction": 0.9987, "invariance_fraction": 1, "violation_bound": 0.0041,
-    "confidence": 0.999999, "pairs": 1800, "runs_started_inside": 2, "runs_settled": 3, "scenario_samples": 1200, "folds": 5},
+    "confidence": 0.999999, "pairs": 1800, "runs_started_inside": 2, "runs_settled": 2, "scenario_samples": 1200, "folds": 5},
   "settings": {"degree": 3, "v_degree": 2, "seed": 1}
 }`
 

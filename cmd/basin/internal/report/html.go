@@ -5,9 +5,11 @@ import (
 	"fmt"
 	"html/template"
 	"io"
+	"math"
 	"strconv"
 	"strings"
 
+	"basin.example/cmd/basin/internal/human"
 	"basin.example/fit"
 	"basin.example/fit/poly"
 )
@@ -26,6 +28,12 @@ type num struct {
 
 func mk(x float64) num { return num{g(x), strconv.FormatFloat(x, 'g', -1, 64)} }
 
+// mkNear is mk for a coordinate of a state whose scale is scale: shown to
+// a thousandth of the scale (round-off around zero shows as 0).
+func mkNear(x, scale float64) num {
+	return num{human.Near(x, scale), strconv.FormatFloat(x, 'g', -1, 64)}
+}
+
 type pageData struct {
 	Title, Caveat, CertCaveat string
 	Verdict, Strength, Reason string
@@ -37,6 +45,8 @@ type pageData struct {
 	Limit                     string
 	EnvelopeShare             num
 	Plane                     *figure
+	CloseUp                   *figure
+	CloseKeys                 []keyItem
 	PlaneA, PlaneB            string
 	PlaneSlice                string
 	OtherOff                  int
@@ -47,12 +57,25 @@ type pageData struct {
 	Model                     bool
 	Equations                 []eqRow
 	VTerms                    []vTerm
+	VDropped                  string // "2 more terms" of V left out of the table (zero or below 1e-4 of the largest)
 	Val                       *fit.Validation
 	ValRows                   []valRow
 	Runs                      []runRow
 	Settings                  []kv
 	Noise                     num
 	Tolerance                 num
+	// DerivErr is the cross-validated derivative error of the model per
+	// state, as an RMS share (the square root of the model's
+	// heldout_error, so that it reads in the same measure as the held-out
+	// runs' derivative_error).
+	DerivErr []stateNum
+	// ValDerivErr and ValTrajErr are the model checks on the held-out runs.
+	ValDerivErr []stateNum
+}
+
+type stateNum struct {
+	Name  string
+	Value num
 }
 
 type stateVal struct {
@@ -87,8 +110,8 @@ type vTerm struct {
 
 type valRow struct {
 	Key, Label string
-	Value      num
-	Text       string
+	Exact      string // the certificate's value, for machines and tests
+	Text       string // what people read
 }
 
 type runRow struct {
@@ -133,8 +156,8 @@ func build(in *Input, pl [2]int) (*pageData, error) {
 		Verdict:    string(c.Verdict), Strength: string(c.Strength), Reason: c.Reason,
 		VerdictClass: map[fit.Verdict]string{fit.Certified: "v-ok", fit.Rejected: "v-no", fit.Inconclusive: "v-open"}[c.Verdict],
 		Level:        mk(c.Level), Found: c.Found,
-		Limit:         c.Region.Limit,
-		EnvelopeShare: mk(c.Region.EnvelopeShare),
+		Limit:         limitText(c),
+		EnvelopeShare: num{boundPercent(c.Region.EnvelopeShare), strconv.FormatFloat(c.Region.EnvelopeShare, 'g', -1, 64)},
 		Noise:         mk(c.NoiseRadius), Tolerance: mk(c.Tolerance),
 		Val:      c.Validation,
 		Settings: in.settings(),
@@ -147,22 +170,42 @@ func build(in *Input, pl [2]int) (*pageData, error) {
 		d.CertCaveat = ""
 	}
 	for j, s := range c.States {
-		d.Equilibrium = append(d.Equilibrium, stateVal{s, c.Units[j], mk(c.Equilibrium[j]), mk(c.Scale[j])})
+		d.Equilibrium = append(d.Equilibrium, stateVal{s, c.Units[j], mkNear(c.Equilibrium[j], c.Scale[j]), mk(c.Scale[j])})
 	}
 	for j, e := range c.Region.Extent {
 		if j < len(c.States) {
-			d.Extent = append(d.Extent, extentRow{c.States[j], c.Units[j], mk(e[0]), mk(e[1])})
+			d.Extent = append(d.Extent, extentRow{c.States[j], c.Units[j], mkNear(e[0], c.Scale[j]), mkNear(e[1], c.Scale[j])})
 		}
 	}
+	big := 0.0
+	for _, a := range c.V.Coefficients {
+		big = math.Max(big, math.Abs(a))
+	}
+	dropped := 0
 	for k, e := range c.V.Exponents {
+		if math.Abs(c.V.Coefficients[k]) <= 1e-4*big {
+			dropped++ // zero, or LP round-off
+			continue
+		}
 		d.VTerms = append(d.VTerms, vTerm{poly.MonomialName(e, zNames(c.States)), mk(c.V.Coefficients[k])})
 	}
+	if dropped > 0 {
+		d.VDropped = human.Count(dropped, "more term")
+	}
 	if len(c.States) >= 2 && pl[0] != pl[1] {
-		f, err := planeFigure(in, pl)
+		f, err := planeFigure(in, pl, false)
 		if err != nil {
 			return nil, err
 		}
-		d.Plane, d.OtherOff, d.Clipped = f, f.offFigure, f.clipped
+		d.Plane, d.OtherOff = f, f.offFigure
+		if f.wide {
+			cf, err := planeFigure(in, pl, true)
+			if err != nil {
+				return nil, err
+			}
+			d.CloseUp, d.Clipped = cf, cf.clipped
+			d.CloseKeys = planeKeys(cf)
+		}
 		d.PlaneA, d.PlaneB = c.States[pl[0]], c.States[pl[1]]
 		if len(c.States) > 2 {
 			var others []string
@@ -179,13 +222,8 @@ func build(in *Input, pl [2]int) (*pageData, error) {
 		return nil, err
 	}
 	d.VFig = vf
-	d.Keys = []keyItem{
-		{Label: "fit run (used to fit the model and V)", Colour: hex(inkFit), Width: 0.7},
-		{Label: "held-out run (checked, not fitted)", Colour: hex(inkHeldout), Width: 1.3, Dash: "4 2"},
-		{Label: "boundary of the certified region, V = level", Colour: hex(inkRegion), Width: 2.4},
-		{Label: "box bounding the region", Colour: hex(inkBox), Width: 0.8, Dash: "1 2.5"},
-		{Label: "equilibrium the runs settle on", Colour: hex(inkEquil), Mark: "square"},
-		{Label: "other equilibrium of the fitted model", Colour: hex(inkOther), Mark: "triangle"},
+	if d.Plane != nil {
+		d.Keys = planeKeys(d.Plane)
 	}
 	d.VKeys = []keyItem{
 		{Label: "held-out run, not flagged", Colour: hex(inkCalm), Width: 0.9},
@@ -195,6 +233,7 @@ func build(in *Input, pl [2]int) (*pageData, error) {
 	}
 	if m := in.Model; m != nil {
 		for _, e := range m.Equations {
+			d.DerivErr = append(d.DerivErr, stateNum{e.State, mk(math.Sqrt(math.Max(e.HeldoutError, 0)))})
 			row := eqRow{State: e.State, HeldoutError: mk(e.HeldoutError)}
 			for k, x := range e.Exponents {
 				t := termRow{Name: poly.MonomialName(x, m.States), Coef: mk(e.Coefficients[k])}
@@ -210,30 +249,72 @@ func build(in *Input, pl [2]int) (*pageData, error) {
 		}
 	}
 	if v := c.Validation; v != nil {
-		d.ValRows = []valRow{
-			{"heldout_runs", "held-out runs", mk(float64(v.HeldoutRuns)), ""},
-			{"decrease_fraction", "share of held-out pairs inside the region where V fell", mk(v.DecreaseFraction), pct(v.DecreaseFraction)},
-			{"invariance_fraction", "share of held-out runs starting inside that stayed inside", mk(v.InvarianceFraction), pct(v.InvarianceFraction)},
-			{"violation_bound", "scenario bound on the chance a new sample violates the decrease", mk(v.ViolationBound), ""},
-			{"confidence", "confidence of that bound", mk(v.Confidence), strconv.FormatFloat(v.Confidence, 'g', -1, 64)},
-			{"pairs", "held-out sample pairs inside the region", mk(float64(v.Pairs)), ""},
-			{"runs_started_inside", "held-out runs that started inside", mk(float64(v.StartInside)), ""},
-			{"runs_settled", "held-out runs that settled", mk(float64(v.Settled)), ""},
-			{"scenario_samples", "effectively independent samples used by the bound", mk(float64(v.ScenarioSamples)), ""},
-			{"runs_diverged", "held-out runs that diverged", mk(float64(v.Diverged)), ""},
+		d.ValRows = valRows(v)
+		for j, e := range v.DerivativeError {
+			if j < len(c.States) {
+				d.ValDerivErr = append(d.ValDerivErr, stateNum{c.States[j], mk(e)})
+			}
 		}
 	}
-	for _, r := range in.Checks {
+	for i := range in.Checks {
+		r := &in.Checks[i]
 		var fl []string
 		for _, f := range r.Flags {
-			fl = append(fl, fmt.Sprintf("%s at %s s (excess %s)", f.Kind, g(f.Time), g(f.Excess)))
+			fl = append(fl, FlagText(c, f, r))
 		}
 		d.Runs = append(d.Runs, runRow{r.Run, r.File, r.Samples, r.StartInside, r.Settled, r.Flagged, strings.Join(fl, "; ")})
 	}
 	return d, nil
 }
 
-func pct(x float64) string { return fmt.Sprintf("%.1f%%", 100*x) }
+// planeKeys is the key of a phase-plane figure: the lines, the
+// equilibrium, and one entry per kind of other equilibrium drawn.
+func planeKeys(f *figure) []keyItem {
+	keys := []keyItem{
+		{Label: "fit run (used to fit the model and V)", Colour: hex(inkFit), Width: 0.7},
+		{Label: "held-out run (checked, not fitted)", Colour: hex(inkHeldout), Width: 1.3, Dash: "4 2"},
+		{Label: "boundary of the certified region, V = level", Colour: hex(inkRegion), Width: 2.4},
+		{Label: "box bounding the region", Colour: hex(inkBox), Width: 0.8, Dash: "1 2.5"},
+		{Label: "equilibrium the runs settle on", Colour: hex(inkEquil), Mark: "square"},
+	}
+	for _, k := range f.others {
+		keys = append(keys, keyItem{Label: otherMarks[k].label, Colour: hex(inkOther), Mark: otherMarks[k].swatch})
+	}
+	return keys
+}
+
+// valRows are the held-out figures as people read them, each with the
+// certificate's exact value alongside. Shares come with their counts; a
+// share of nothing says so instead of "0.0% of 0".
+func valRows(v *fit.Validation) []valRow {
+	exact := func(x float64) string { return strconv.FormatFloat(x, 'g', -1, 64) }
+	count := func(n int) string { return strconv.Itoa(n) }
+	decreased := int(math.Round(v.DecreaseFraction * float64(v.Pairs)))
+	stayed := int(math.Round(v.InvarianceFraction * float64(v.StartInside)))
+	inv := human.Share(stayed, v.StartInside, "run")
+	settled := fmt.Sprintf("%d of %d", v.Settled, v.StartInside)
+	if v.StartInside == 0 {
+		inv, settled = "no run started inside", "no run started inside"
+	}
+	dec := human.Share(decreased, v.Pairs, "pair")
+	if v.Pairs == 0 {
+		dec = "no pair inside the region"
+	}
+	rows := []valRow{
+		{"heldout_runs", "held-out runs (not used to fit)", exact(float64(v.HeldoutRuns)), count(v.HeldoutRuns)},
+		{"pairs", "consecutive sample pairs inside the region", exact(float64(v.Pairs)), count(v.Pairs)},
+		{"decrease_fraction", "of those, pairs where V did not rise beyond the noise tolerance", exact(v.DecreaseFraction), dec},
+		{"runs_started_inside", "held-out runs that started inside the region", exact(float64(v.StartInside)), count(v.StartInside)},
+		{"invariance_fraction", "of those, runs that stayed inside", exact(v.InvarianceFraction), inv},
+		{"runs_settled", "of those, runs that settled", exact(float64(v.Settled)), settled},
+		{"violation_bound", "scenario bound: chance that a new sample inside the region breaks the decrease, at most", exact(v.ViolationBound), boundPercent(v.ViolationBound)},
+		{"confidence", "confidence of that bound", exact(v.Confidence), human.Confidence(v.Confidence)},
+		{"scenario_samples", "effectively independent samples the bound rests on", exact(float64(v.ScenarioSamples)),
+			fmt.Sprintf("%d (at least %s s apart), %s", v.ScenarioSamples, human.Num(v.Decorrelation), human.Count(v.ScenarioViolations, "violation"))},
+		{"runs_diverged", "held-out runs where the fitted model, simulated from the run's first sample, ran away", exact(float64(v.Diverged)), count(v.Diverged)},
+	}
+	return rows
+}
 
 // zNames names the scaled coordinates z_name.
 func zNames(states []string) []string {

@@ -12,9 +12,9 @@ package report
 import (
 	"errors"
 	"fmt"
-	"math"
 	"sort"
 
+	"basin.example/cmd/basin/internal/human"
 	"basin.example/fit"
 	"basin.example/ingest"
 	"basin.example/validate"
@@ -155,20 +155,8 @@ func (in *Input) settings() []kv {
 
 type kv struct{ Key, Value string }
 
-// g formats a number for people: 4 significant digits, no trailing noise.
-func g(x float64) string {
-	switch {
-	case math.IsNaN(x):
-		return "n/a"
-	case math.IsInf(x, 1):
-		return "∞"
-	case math.IsInf(x, -1):
-		return "-∞"
-	case x == 0:
-		return "0"
-	}
-	return fmt.Sprintf("%.4g", x)
-}
+// g formats a number for people: 4 significant digits, no float noise.
+func g(x float64) string { return human.Num(x) }
 
 // unit returns " [u]" or "" for state j.
 func unit(c *fit.Certificate, j int) string {

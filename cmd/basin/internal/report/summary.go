@@ -3,18 +3,22 @@ package report
 import (
 	"fmt"
 	"io"
-	"strconv"
+	"math"
 	"strings"
 
+	"basin.example/cmd/basin/internal/human"
 	"basin.example/fit"
 	"basin.example/fit/poly"
 )
 
 // Summary writes the plain-text summary of in to w: verdict and reason,
 // the equilibrium with units, the model's equations, V, the region's
-// extent per state in original units, the held-out figures, the scenario
-// bound and the caveat. It returns an error wrapping [ErrInput] for an
-// unusable Input, or the writer's error.
+// extent per state in original units and what limited it (with what to
+// record to let it grow), the held-out figures, the scenario bound and
+// the caveat. Numbers are rounded to what the data can tell: coordinates
+// to a thousandth of their state's scale, coefficients to 4 significant
+// digits. It returns an error wrapping [ErrInput] for an unusable Input,
+// or the writer's error.
 func Summary(w io.Writer, in *Input) error {
 	if _, err := in.check(); err != nil {
 		return err
@@ -25,53 +29,63 @@ func Summary(w io.Writer, in *Input) error {
 	if c.Reason != "" {
 		fmt.Fprintf(&b, "  %s\n", c.Reason)
 	}
-	b.WriteString("equilibrium:")
-	for j, s := range c.States {
-		if j > 0 {
-			b.WriteString(",")
-		}
-		fmt.Fprintf(&b, " %s = %s%s", s, g(c.Equilibrium[j]), spaceUnit(c.Units[j]))
-	}
-	b.WriteString("\n")
+	fmt.Fprintf(&b, "equilibrium: %s\n", statePoint(c, c.Equilibrium))
 	if m := in.Model; m != nil {
 		b.WriteString("model (original units):\n")
-		for _, e := range m.Equations {
-			fmt.Fprintf(&b, "  d%s/dt = %s\n", e.State, polyText(e.Exponents, e.Coefficients, m.States))
+		for i, e := range m.Equations {
+			u := ""
+			if i < len(m.Units) {
+				u = m.Units[i]
+			}
+			fmt.Fprintf(&b, "  %s\n", Formula(e.State, u, e.Exponents, e.Coefficients, m.States))
 		}
 		if len(m.Equilibria) > 1 {
-			fmt.Fprintf(&b, "  other equilibria found: %d\n", len(m.Equilibria)-1)
+			var others []string
+			for _, e := range m.Equilibria[1:] {
+				if len(e.Point) == len(c.States) {
+					cls := e.Class
+					if cls == "outside envelope" {
+						cls = "outside the data's envelope"
+					}
+					others = append(others, cls+" at "+statePoint(c, e.Point))
+				}
+			}
+			fmt.Fprintf(&b, "  other equilibria of the fitted model: %s\n", strings.Join(others, "; "))
 		}
 	}
 	if len(c.V.Exponents) > 0 {
-		fmt.Fprintf(&b, "V(z) = %s\n", polyText(c.V.Exponents, c.V.Coefficients, zNames(c.States)))
+		text, dropped := vText(c)
+		fmt.Fprintf(&b, "V(z) = %s\n", text)
+		if dropped > 0 {
+			fmt.Fprintf(&b, "  (%s below 1e-4 of the largest coefficient left out; certificate.json has them all)\n", human.Count(dropped, "term"))
+		}
 		b.WriteString("  z = (x - equilibrium) / scale, scale:")
 		for j, s := range c.States {
 			if j > 0 {
 				b.WriteString(",")
 			}
-			fmt.Fprintf(&b, " %s %s%s", s, g(c.Scale[j]), spaceUnit(c.Units[j]))
+			fmt.Fprintf(&b, " %s %s%s", s, human.Num(c.Scale[j]), spaceUnit(c.Units[j]))
 		}
 		b.WriteString("\n")
 	}
-	if c.Level > 0 && len(c.Region.Extent) == len(c.States) {
-		fmt.Fprintf(&b, "region {V <= %s}:\n", g(c.Level))
+	inside := c.Level > 0 && len(c.Region.Extent) == len(c.States)
+	if inside {
+		fmt.Fprintf(&b, "region {V <= %s}:\n", human.Num(c.Level))
 		for j, s := range c.States {
 			e := c.Region.Extent[j]
-			fmt.Fprintf(&b, "  %s from %s to %s%s\n", s, g(e[0]), g(e[1]), spaceUnit(c.Units[j]))
+			fmt.Fprintf(&b, "  %s from %s to %s%s\n", s, human.Near(e[0], c.Scale[j]), human.Near(e[1], c.Scale[j]), spaceUnit(c.Units[j]))
 		}
-		if c.Region.Limit != "" {
-			fmt.Fprintf(&b, "  limited by: %s\n", c.Region.Limit)
+		if l := limitText(c); l != "" {
+			fmt.Fprintf(&b, "  limited by: %s\n", l)
 		}
 	} else {
 		b.WriteString("region: none certified\n")
 	}
 	if v := c.Validation; v != nil {
-		fmt.Fprintf(&b, "held-out: %d runs; V fell on %s of %d pairs inside; %s of runs starting inside stayed inside; %d settled\n",
-			v.HeldoutRuns, pct(v.DecreaseFraction), v.Pairs, pct(v.InvarianceFraction), v.Settled)
-		fmt.Fprintf(&b, "scenario bound: a new sample violates the decrease with probability at most %s, at confidence %s\n",
-			g(v.ViolationBound), strconv.FormatFloat(v.Confidence, 'g', -1, 64))
+		fmt.Fprintf(&b, "held-out: %s\n", heldoutText(c, v))
+		fmt.Fprintf(&b, "scenario bound: %s\n", boundText(v))
 	} else {
-		b.WriteString("held-out: none (so not certified)\n")
+		b.WriteString("held-out: none, so the verdict cannot be certified: hold out runs (split holdout in a manifest) or record more runs\n")
 	}
 	flagged := 0
 	for _, r := range in.Checks {
@@ -85,6 +99,153 @@ func Summary(w io.Writer, in *Input) error {
 	fmt.Fprintf(&b, "caveat: %s\n", fit.Caveat)
 	_, err := io.WriteString(w, b.String())
 	return err
+}
+
+// statePoint writes x as "theta = 0.1 rad, omega = 0 rad/s", each
+// coordinate to a thousandth of its state's scale.
+func statePoint(c *fit.Certificate, x []float64) string {
+	var b strings.Builder
+	for j, s := range c.States {
+		if j >= len(x) {
+			break
+		}
+		if j > 0 {
+			b.WriteString(", ")
+		}
+		fmt.Fprintf(&b, "%s = %s%s", s, human.Near(x[j], c.Scale[j]), spaceUnit(c.Units[j]))
+	}
+	return b.String()
+}
+
+// stateRanges writes the region's extent as "theta -0.18 to 0.16 rad,
+// omega -1.6 to 1.7 rad/s".
+func stateRanges(c *fit.Certificate) string {
+	var parts []string
+	for j, s := range c.States {
+		if j >= len(c.Region.Extent) {
+			break
+		}
+		e := c.Region.Extent[j]
+		parts = append(parts, fmt.Sprintf("%s %s to %s%s", s, human.Near(e[0], c.Scale[j]), human.Near(e[1], c.Scale[j]), spaceUnit(c.Units[j])))
+	}
+	return strings.Join(parts, ", ")
+}
+
+// limitText says what stopped the region growing, where, and what would
+// let it grow, in the states' units.
+func limitText(c *fit.Certificate) string {
+	r := c.Region
+	at := ""
+	if len(r.LimitPoint) == len(c.States) {
+		at = " at " + statePoint(c, r.LimitPoint)
+	}
+	switch r.Limit {
+	case "", "none":
+		return ""
+	case "envelope edge":
+		where := " beyond that point"
+		if at == "" {
+			where = " outside " + stateRanges(c)
+		}
+		return "envelope edge: the region reached the edge of the states the runs cover" + at +
+			"; to let it grow, add runs from larger kicks that start" + where
+	case "other equilibrium":
+		return "other equilibrium: the region reached another equilibrium of the fitted model" + at +
+			"; no region around this equilibrium can contain it"
+	case "violated sample":
+		run := ""
+		if r.LimitRun != "" {
+			run = " of run " + r.LimitRun
+		}
+		return "violated sample: a recorded sample" + run + " where V did not fall lies on the edge" + at +
+			"; look at that run, or log longer or with less noise near that point"
+	case "growth cap":
+		return "growth cap: the region stopped at the most it may grow from its first size" + at +
+			"; raise --growth if the data reach further"
+	}
+	return r.Limit + at
+}
+
+// heldoutText describes the held-out figures without contradicting the
+// run table: settled counts are of the runs that started inside.
+func heldoutText(c *fit.Certificate, v *fit.Validation) string {
+	var b strings.Builder
+	b.WriteString(human.Count(v.HeldoutRuns, "run"))
+	if v.Pairs > 0 {
+		fmt.Fprintf(&b, "; V did not rise beyond the noise tolerance on %s inside the region",
+			human.Share(int(math.Round(v.DecreaseFraction*float64(v.Pairs))), v.Pairs, "sample pair"))
+	} else {
+		b.WriteString("; no held-out sample pair lay inside the region")
+	}
+	switch {
+	case v.StartInside == 0 && len(c.Region.Extent) == len(c.States):
+		fmt.Fprintf(&b, "; no run started inside the region, so none could show that it stays inside: record held-out runs that start within %s", stateRanges(c))
+	case v.StartInside == 0:
+		b.WriteString("; no run started inside the region")
+	default:
+		stayed := int(math.Round(v.InvarianceFraction * float64(v.StartInside)))
+		fmt.Fprintf(&b, "; of the %s that started inside, %d stayed inside and %d settled",
+			human.Count(v.StartInside, "run"), stayed, v.Settled)
+	}
+	return b.String()
+}
+
+// boundText states the scenario bound as a probability with its
+// confidence and what it rests on.
+func boundText(v *fit.Validation) string {
+	s := fmt.Sprintf("with confidence %s, a new sample inside the region breaks the decrease with probability at most %s",
+		human.Confidence(v.Confidence), boundPercent(v.ViolationBound))
+	if v.ScenarioSamples > 0 {
+		s += fmt.Sprintf(" (from %s, %s)", human.CountAs(v.ScenarioSamples, "effectively independent sample", "effectively independent samples"),
+			human.Count(v.ScenarioViolations, "violation"))
+	}
+	return s
+}
+
+// boundPercent writes a probability as a percentage to 3 significant
+// digits ("11.5%", "0.69%").
+func boundPercent(p float64) string {
+	if math.IsNaN(p) {
+		return "n/a"
+	}
+	return human.Sig(100*p, 3) + "%"
+}
+
+// vText writes V without the terms that are zero, or below 1e-4 of the
+// largest coefficient (round-off of the LP), and says how many it left out.
+func vText(c *fit.Certificate) (string, int) {
+	big := 0.0
+	for _, a := range c.V.Coefficients {
+		big = math.Max(big, math.Abs(a))
+	}
+	var exps [][]int
+	var coefs []float64
+	for k, a := range c.V.Coefficients {
+		if math.Abs(a) <= 1e-4*big {
+			continue
+		}
+		exps, coefs = append(exps, c.V.Exponents[k]), append(coefs, a)
+	}
+	return polyText(exps, coefs, zNames(c.States)), len(c.V.Coefficients) - len(coefs)
+}
+
+// Formula writes one fitted equation the one way basin writes it
+// everywhere: "d(theta)/dt [rad/s] = 0.9991 omega - 0.1 theta^3", with the
+// rate's unit from the state's unit and 4 significant digits.
+func Formula(state, unit string, exps [][]int, coefs []float64, names []string) string {
+	return "d(" + state + ")/dt [" + RateUnit(unit) + "] = " + polyText(exps, coefs, names)
+}
+
+// RateUnit is the unit of d(x)/dt for a state in unit u: "rad" gives
+// "rad/s", "rad/s" gives "rad/s^2", no unit gives "1/s".
+func RateUnit(u string) string {
+	switch {
+	case u == "":
+		return "1/s"
+	case strings.HasSuffix(u, "/s"):
+		return strings.TrimSuffix(u, "/s") + "/s^2"
+	}
+	return u + "/s"
 }
 
 func spaceUnit(u string) string {
@@ -116,9 +277,9 @@ func polyText(exps [][]int, coefs []float64, names []string) string {
 			a = -a
 		}
 		if m == "1" {
-			b.WriteString(g(a))
+			b.WriteString(human.Num(a))
 		} else {
-			fmt.Fprintf(&b, "%s %s", g(a), m)
+			fmt.Fprintf(&b, "%s %s", human.Num(a), m)
 		}
 	}
 	return b.String()

@@ -1,0 +1,33 @@
+package report
+
+import (
+	"fmt"
+
+	"basin.example/cmd/basin/internal/human"
+	"basin.example/fit"
+	"basin.example/validate"
+)
+
+// FlagText says what a screening flag found on a run, in words a test
+// engineer reads without the documentation: when, and how much in terms
+// of the region's own level. V has no unit; the level is where the
+// region ends. r, when not nil, gives the run's own figures.
+func FlagText(c *fit.Certificate, f validate.Flag, r *validate.RunScreen) string {
+	at := human.Num(f.Time) + " s"
+	level := human.Num(c.Level)
+	switch f.Kind {
+	case validate.FlagRises:
+		return fmt.Sprintf("V rose at %s, by %s more than the noise tolerance (%s), inside the region", at, human.Num(f.Excess), human.Num(c.Tolerance))
+	case validate.FlagLeaves:
+		if f.Excess <= 0 {
+			return fmt.Sprintf("left the region's box at %s", at)
+		}
+		return fmt.Sprintf("left the region at %s: V reached %s, beyond the region's edge at V = %s", at, human.Num(c.Level+f.Excess), level)
+	case validate.FlagUnsettled:
+		if r != nil {
+			return fmt.Sprintf("had not settled by its end at %s: V over its last samples was %s (region's edge at V = %s)", at, human.Num(r.VEnd), level)
+		}
+		return fmt.Sprintf("had not settled by its end at %s: V over its last samples was %s above settled", at, human.Num(f.Excess))
+	}
+	return fmt.Sprintf("%s at %s (excess %s in V)", f.Kind, at, human.Num(f.Excess))
+}

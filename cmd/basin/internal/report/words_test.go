@@ -1,0 +1,98 @@
+package report
+
+import (
+	"bytes"
+	"html"
+	"regexp"
+	"strings"
+	"testing"
+
+	"basin.example/fit"
+)
+
+// wordCases are fixed inputs whose rendering must read cleanly: the
+// fixture; one held-out run that does not start inside, with round-off
+// in the equilibrium, LP zeros in V and a bound small enough for an
+// exponent; and a rejected certificate without a region or held-out runs.
+func wordCases() map[string]*Input {
+	cases := map[string]*Input{"fixture": fixture(mustCert(fixtureCertJSON), nil)}
+
+	c := mustCert(fixtureCertJSON)
+	c.Equilibrium = []float64{2.019e-28, -1.1102e-13}
+	c.V.Exponents = [][]int{{2, 0}, {1, 1}, {0, 2}, {1, 0}, {0, 1}}
+	c.V.Coefficients = []float64{1.5, 1, 1, 0, 3e-9}
+	c.Tolerance = 1.1102e-13
+	c.NoiseRadius = 9.999999999999999e-05
+	v := *c.Validation
+	v.HeldoutRuns, v.StartInside, v.Settled, v.InvarianceFraction = 1, 0, 0, 0
+	v.ViolationBound, v.Pairs, v.DecreaseFraction, v.ScenarioSamples = 6.9e-05, 1, 1, 1
+	v.DerivativeError = []float64{0.0513, 9.999999999999999e-05}
+	c.Validation = &v
+	in := fixture(c, nil)
+	in.Model.Equations[0].HeldoutError = 1.1102e-13
+	in.Checks = in.Checks[len(in.Checks)-1:]
+	for i := range in.Heldout {
+		in.Heldout[i] = i == len(in.Heldout)-1
+	}
+	cases["one run, none inside"] = in
+
+	r := mustCert(fixtureCertJSON)
+	r.Verdict, r.Strength, r.Level, r.Validation = fit.Rejected, fit.NoClaim, 0, nil
+	r.Region = fit.Region{}
+	cases["rejected"] = &Input{Cert: r}
+	return cases
+}
+
+// TestWords renders the summary and the page of each case and looks for
+// what a reader should never see: float noise in exponent form, a count
+// of one with a plural noun, a share of nothing, 100% for a share below
+// one, and a state vector without units.
+func TestWords(t *testing.T) {
+	// What people see: the text, the figures' labels included, without
+	// the markup (SVG coordinates, the exact values in data-v for machines).
+	tags := regexp.MustCompile(`(?s)<[^>]*>`)
+	bad := []*regexp.Regexp{
+		regexp.MustCompile(`e-0\d`),
+		regexp.MustCompile(`\b1 (runs|pairs|sample pairs|samples|violations|terms|states)\b`),
+		regexp.MustCompile(`0(\.0)?% of 0|% \(0 of 0`),
+		regexp.MustCompile(`\(-?[0-9.]+(e[-+]?\d+)?, -?[0-9.]+(e[-+]?\d+)?\)`), // "(-6.772, -159.4)"
+		regexp.MustCompile(`\d{7,}`), // 499.99999999999955, 0.30000000000000004
+	}
+	// every coordinate of a state vector names its state and its unit
+	coord := regexp.MustCompile(`\b(theta|omega) = (-?[0-9.]+(e[-+]?\d+)?)( rad/s| rad)?`)
+	for name, in := range wordCases() {
+		var sum bytes.Buffer
+		if err := Summary(&sum, in); err != nil {
+			t.Fatal(err)
+		}
+		page := html.UnescapeString(tags.ReplaceAllString(renderPage(t, in), " "))
+		for what, text := range map[string]string{"summary": sum.String(), "page": page} {
+			for _, re := range bad {
+				if m := re.FindString(text); m != "" {
+					t.Errorf("%s, %s: %q (matches %s)", name, what, m, re)
+				}
+			}
+			for _, m := range coord.FindAllStringSubmatch(text, -1) {
+				if m[4] == "" {
+					t.Errorf("%s, %s: %q has no unit", name, what, m[0])
+				}
+			}
+			if strings.Contains(text, "100.0%") {
+				t.Errorf("%s, %s: a share printed as 100.0%%", name, what)
+			}
+		}
+		if name == "one run, none inside" {
+			for _, want := range []string{"held-out: 1 run;", "no run started inside the region", "record held-out runs that start within theta",
+				"equilibrium: theta = 0 rad, omega = 0 rad/s", "V(z) = 1.5 z_theta^2 + 1 z_theta z_omega + 1 z_omega^2\n  (2 terms below"} {
+				if !strings.Contains(sum.String(), want) {
+					t.Errorf("summary lacks %q:\n%s", want, sum.String())
+				}
+			}
+			for _, want := range []string{"no run started inside", "theta rad 0 1", "omega rad/s 0 1", "Left out here: 2 more terms of V"} {
+				if !strings.Contains(strings.Join(strings.Fields(page), " "), want) {
+					t.Errorf("page lacks %q", want)
+				}
+			}
+		}
+	}
+}
