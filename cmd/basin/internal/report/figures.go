@@ -441,7 +441,7 @@ func nearest(ts []float64, t float64) int {
 // The other equilibria's marks, one shape per kind, so that a saddle and
 // a second stable point never look alike.
 type otherMark struct {
-	glyph draw.GlyphDrawer
+	glyph  draw.GlyphDrawer
 	swatch string // the key's swatch shape (see page.html.tmpl)
 	label  string
 }

@@ -56,7 +56,7 @@ func TestWords(t *testing.T) {
 		regexp.MustCompile(`\b1 (runs|pairs|sample pairs|samples|violations|terms|states)\b`),
 		regexp.MustCompile(`0(\.0)?% of 0|% \(0 of 0`),
 		regexp.MustCompile(`\(-?[0-9.]+(e[-+]?\d+)?, -?[0-9.]+(e[-+]?\d+)?\)`), // "(-6.772, -159.4)"
-		regexp.MustCompile(`\d{7,}`), // 499.99999999999955, 0.30000000000000004
+		regexp.MustCompile(`\d{7,}`),                                           // 499.99999999999955, 0.30000000000000004
 	}
 	// every coordinate of a state vector names its state and its unit
 	coord := regexp.MustCompile(`\b(theta|omega) = (-?[0-9.]+(e[-+]?\d+)?)( rad/s| rad)?`)
