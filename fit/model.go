@@ -399,6 +399,32 @@ type Validation struct {
 	// FoldsAgree counts the folds (the released one included) whose
 	// verdict matches the released one, when every fold was fitted.
 	FoldsAgree int `json:"folds_agree,omitempty"`
+	// Decay holds the held-out runs' decay rates of V, from which screen
+	// flags runs that settle too slowly; nil in older certificates.
+	Decay *Decay `json:"decay,omitempty"`
+}
+
+// Decay is the distribution of V's decay rate over the held-out runs:
+// per run, minus the least-squares slope of log V against time over its
+// samples inside the region and outside the noise ball (package validate
+// computes it).
+type Decay struct {
+	// Runs counts the held-out runs with a rate; Rates holds them, in
+	// 1/s, in increasing order.
+	Runs  int       `json:"runs"`
+	Rates []float64 `json:"rates"`
+	// Min, Median and Max summarise Rates.
+	Min    float64 `json:"min"`
+	Median float64 `json:"median"`
+	Max    float64 `json:"max"`
+	// LowerBound is the rate below which a run is flagged slow, in 1/s
+	// (0: too few runs for a bound; nothing is flagged slow).
+	LowerBound float64 `json:"lower_bound"`
+	// FalseAlarm is the share of the held-out runs flagged slow by the
+	// bound set from the other held-out runs (leave one out).
+	FalseAlarm float64 `json:"false_alarm"`
+	// Rule says how LowerBound was set.
+	Rule string `json:"rule"`
 }
 
 // Violation locates the worst held-out violation.

@@ -215,6 +215,7 @@ func Check(ctx context.Context, cert *fit.Certificate, ds *ingest.Dataset, opts 
 		val.InvarianceFraction = float64(stayed) / float64(entered)
 	}
 	val.SettleRatio = clampFinite(settleRatio)
+	val.Decay = DecayOf(runs)
 	val.ScenarioSamples = scen
 	val.DecisionVars = len(cert.V.Exponents) + 1
 	val.ScenarioViolations = viol

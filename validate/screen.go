@@ -70,6 +70,16 @@ type Screener struct {
 	vbuf [screenBlock]float64
 	rbuf [screenBlock]float64
 	obuf [screenBlock]bool
+	// wbuf: outside the box widened by the noise radius (loW, hiW)
+	wbuf [screenBlock]bool
+	loW  []float64
+	hiW  []float64
+	g    []float64
+	// level is the certificate's level, or -Inf for an empty region.
+	level float64
+	// slowBound is the decay rate below which a run is slow (0: none).
+	slowBound float64
+	st        runState
 	// generic disables the specialised kernels (benchmarks compare)
 	generic bool
 }
@@ -80,12 +90,13 @@ const screenBlock = 256
 // evalBlock stores V, |z|^2 and the out-of-box flag of samples i0..i1-1
 // in the block buffers.
 func (s *Screener) evalBlock(X [][]float64, i0, i1 int) {
-	vb, rb, ob := s.vbuf[:i1-i0], s.rbuf[:i1-i0], s.obuf[:i1-i0]
+	vb, rb, ob, wb := s.vbuf[:i1-i0], s.rbuf[:i1-i0], s.obuf[:i1-i0], s.wbuf[:i1-i0]
 	if s.quad && s.n == 2 && !s.generic {
 		x0, x1 := X[0][i0:i1], X[1][i0:i1]
 		x1 = x1[:len(x0)]
 		e0, e1, c0, c1 := s.eq[0], s.eq[1], s.inv[0], s.inv[1]
 		l0, h0, l1, h1 := s.lo[0], s.hi[0], s.lo[1], s.hi[1]
+		wl0, wh0, wl1, wh1 := s.loW[0], s.hiW[0], s.loW[1], s.hiW[1]
 		p00, p01, p11 := s.p[0], 2*s.p[1], s.p[3]
 		q0, q1, r := s.q[0], s.q[1], s.r
 		for k := range x0 {
@@ -94,6 +105,7 @@ func (s *Screener) evalBlock(X [][]float64, i0, i1 int) {
 			vb[k] = z0*(p00*z0+p01*z1+q0) + z1*(p11*z1+q1) + r
 			rb[k] = z0*z0 + z1*z1
 			ob[k] = a < l0 || a > h0 || b < l1 || b > h1
+			wb[k] = a < wl0 || a > wh0 || b < wl1 || b > wh1
 		}
 		return
 	}
@@ -102,11 +114,14 @@ func (s *Screener) evalBlock(X [][]float64, i0, i1 int) {
 	for k := range vb {
 		i := i0 + k
 		r2 := 0.0
-		out := false
+		out, wide := false, false
 		for j := 0; j < n; j++ {
 			xj := X[j][i]
 			if xj < s.lo[j] || xj > s.hi[j] {
 				out = true
+			}
+			if xj < s.loW[j] || xj > s.hiW[j] {
+				wide = true
 			}
 			zj := (xj - s.eq[j]) * s.inv[j]
 			z[j] = zj
@@ -117,7 +132,7 @@ func (s *Screener) evalBlock(X [][]float64, i0, i1 int) {
 		} else {
 			vb[k] = s.comp.Eval(z)
 		}
-		rb[k], ob[k] = r2, out
+		rb[k], ob[k], wb[k] = r2, out, wide
 	}
 }
 
@@ -151,7 +166,26 @@ func NewScreener(cert *fit.Certificate, opts *ScreenOptions) *Screener {
 			s.lo[j], s.hi[j] = cert.Box[j][0], cert.Box[j][1]
 		}
 	}
+	// The box widened by the noise radius, per state in its units: a
+	// sample just past the box by noise has not left.
+	s.loW = make([]float64, n)
+	s.hiW = make([]float64, n)
+	for j := range s.lo {
+		w := 0.0
+		if r := cert.NoiseRadius; r > 0 && !math.IsInf(r, 0) {
+			w = r * math.Abs(cert.Scale[j])
+		}
+		s.loW[j], s.hiW[j] = s.lo[j]-w, s.hi[j]+w
+	}
+	s.level = cert.Level
+	if len(cert.V.Exponents) == 0 || !(s.level > 0) {
+		s.level = math.Inf(-1) // no V or no level: the region is empty
+	}
+	if v := cert.Validation; v != nil && v.Decay != nil && v.Decay.LowerBound > 0 && !s.opts.NoSlow {
+		s.slowBound = v.Decay.LowerBound
+	}
 	s.z = make([]float64, n)
+	s.g = make([]float64, n)
 	s.x = make([]float64, n)
 	s.worstX = make([]float64, n)
 	s.quad = true
@@ -289,132 +323,347 @@ func (s *Screener) ballMax(r float64) float64 {
 }
 
 // Screen screens run and stores the result in dst, reusing dst.Flags'
-// storage. It does not allocate once dst.Flags has room for three flags.
-// A run with no samples gives an unflagged result with Samples 0.
+// storage. It does not allocate once dst.Flags has room for four flags,
+// unless a rises or leaves flag is raised (each carries its Distance). A
+// run with no samples gives an unflagged result with Samples 0. Screen is
+// Begin, one Feed per block of screenBlock samples, and End.
 func (s *Screener) Screen(dst *RunScreen, file string, run *ingest.Run) {
-	*dst = RunScreen{File: file, Run: run.Name, Samples: run.Len(), Flags: dst.Flags[:0], enter: -1}
-	m := run.Len()
-	if m == 0 || len(run.X) != s.n {
-		return
+	s.Begin(dst, file, run.Name)
+	if len(run.X) != s.n {
+		s.st.bad = true
 	}
-	X := run.X
-	T := run.T
-	level := s.cert.Level
-	if len(s.cert.V.Exponents) == 0 || !(level > 0) {
-		level = math.Inf(-1) // no V or no level: the region is empty
+	m := run.Len()
+	for i0 := 0; i0 < m && !s.st.bad; i0 += screenBlock {
+		i1 := min(i0+screenBlock, m)
+		s.feed(run.X, run.T, i0, i1)
+	}
+	s.End()
+}
+
+// runState carries one run's screening from block to block.
+type runState struct {
+	dst       *RunScreen
+	bad       bool // wrong number of state columns: the result stays empty
+	m         int  // samples seen
+	prevV     float64
+	prevIn    bool
+	prevOut   bool // previous sample outside the noise ball
+	entered   bool
+	lastT     float64
+	lastScen  float64
+	rise      Flag
+	leave     Flag
+	hasRise   bool
+	hasLeave  bool
+	leaveWrst float64 // worst leave measure (V - level, or box excess)
+	leaveX    []float64
+	// head holds V of the first tailMax samples; tail is a ring of the
+	// last tailMax.
+	head [tailMax]float64
+	tail [tailMax]float64
+	// decay fit: log V against t - t0 over the samples inside the region
+	// and outside the noise ball with V > 0
+	dn                      int
+	t0, dt, dy, dtt, dty, d float64
+}
+
+// Begin starts screening a run named run of file into dst, reusing
+// dst.Flags' storage; feed its samples with [Screener.Feed] in time
+// order, then call [Screener.End]. A Screener screens one run at a time.
+func (s *Screener) Begin(dst *RunScreen, file, run string) {
+	flags := dst.Flags[:0]
+	*dst = RunScreen{File: file, Run: run, Flags: flags, enter: -1}
+	dst.worstExcess = math.Inf(-1)
+	st := &s.st
+	lx := st.leaveX
+	*st = runState{dst: dst, leaveX: lx, lastScen: math.Inf(-1),
+		rise:  Flag{Kind: FlagRises, Time: math.NaN(), Excess: math.Inf(-1)},
+		leave: Flag{Kind: FlagLeaves, Time: math.NaN(), Excess: math.Inf(-1)}, leaveWrst: math.Inf(-1)}
+	if len(st.leaveX) != s.n {
+		st.leaveX = make([]float64, s.n)
+	}
+}
+
+// Feed screens the next samples of the run begun by [Screener.Begin]:
+// T holds their times and X[j] the values of state j, each as long as T.
+// It does not allocate. It panics if X does not have one column per state
+// or a column is shorter than T.
+func (s *Screener) Feed(X [][]float64, T []float64) {
+	if len(X) != s.n {
+		panic("validate: Feed with the wrong number of state columns")
+	}
+	for i0 := 0; i0 < len(T); i0 += screenBlock {
+		s.feed(X, T, i0, min(i0+screenBlock, len(T)))
+	}
+}
+
+// feed screens samples i0..i1-1 (at most screenBlock of them).
+func (s *Screener) feed(X [][]float64, T []float64, i0, i1 int) {
+	st := &s.st
+	dst := st.dst
+	level := s.level
+	tol := s.tol
+	leaveLevel := level + s.tol
+	s.evalBlock(X, i0, i1)
+	vb, rb, ob, wb := s.vbuf[:], s.rbuf[:], s.obuf[:], s.wbuf[:]
+	for i := i0; i < i1; i++ {
+		k := i - i0
+		v, r2, inBox := vb[k], rb[k], !ob[k]
+		in := inBox && v <= level // NaN V is outside
+		idx := st.m
+		if idx < tailMax {
+			st.head[idx] = v
+		}
+		st.tail[idx%tailMax] = v
+		if idx == 0 {
+			dst.StartInside = in
+		}
+		if in {
+			if !st.entered {
+				dst.enter, dst.vEnter = idx, v
+			}
+			st.entered = true
+			if r2 > s.r2 && v > 0 {
+				t := T[i]
+				if st.dn == 0 {
+					st.t0 = t
+				}
+				dt, y := t-st.t0, math.Log(v)
+				st.dn++
+				st.dt += dt
+				st.dy += y
+				st.dtt += dt * dt
+				st.dty += dt * y
+			}
+			if st.prevIn && st.prevOut {
+				d := v - st.prevV - tol
+				dst.Pairs++
+				bad := !(d <= 0)
+				if !bad {
+					dst.Decreased++
+				}
+				if T[i]-st.lastScen >= s.spacing {
+					dst.scen++
+					st.lastScen = T[i]
+					if bad {
+						dst.scenViol++
+					}
+				}
+				if d > dst.worstExcess {
+					dst.worstExcess, dst.worstTime = d, T[i]
+					for j := range s.worstX {
+						s.worstX[j] = X[j][i]
+					}
+				}
+				if bad {
+					if !st.hasRise {
+						st.rise.Time = T[i]
+						st.hasRise = true
+					}
+					if !(d <= math.MaxFloat64) {
+						d = math.MaxFloat64
+					}
+					st.rise.Excess = max(st.rise.Excess, d)
+				}
+			}
+		} else if st.entered && (wb[k] || !(v <= leaveLevel)) {
+			// Outside the region by more than the noise: V above the level
+			// by more than the tolerance, or outside the box widened by
+			// the noise radius.
+			if !st.hasLeave {
+				st.leave.Time = T[i]
+				st.hasLeave = true
+			}
+			e := 0.0
+			if v > level {
+				e = v - level
+			}
+			if !(e <= math.MaxFloat64) { // NaN or Inf: report the largest finite excess
+				e = math.MaxFloat64
+			}
+			st.leave.Excess = max(st.leave.Excess, e)
+			if w := s.leaveMeasure(X, i, e); w > st.leaveWrst {
+				st.leaveWrst = w
+				for j := range st.leaveX {
+					st.leaveX[j] = X[j][i]
+				}
+			}
+		}
+		st.prevV, st.prevIn, st.prevOut = v, in, r2 > s.r2
+		st.lastT = T[i]
+		st.m++
+	}
+}
+
+// leaveMeasure orders leaving samples: by V's excess e, then by how far
+// outside the box.
+func (s *Screener) leaveMeasure(X [][]float64, i int, e float64) float64 {
+	if e > 0 {
+		return 1 + e
+	}
+	w := 0.0
+	for j := range s.lo {
+		x := X[j][i]
+		w = max(w, (s.lo[j]-x)*s.inv[j], (x-s.hi[j])*s.inv[j])
+	}
+	return min(w, 1) // below any V excess
+}
+
+// End finishes the run begun by [Screener.Begin] and completes its
+// result: settling, the flags with their distances, the decay rate.
+func (s *Screener) End() {
+	st := &s.st
+	dst := st.dst
+	m := st.m
+	dst.Samples = m
+	if m == 0 || st.bad {
+		dst.Samples = m
+		if st.bad {
+			dst.Samples = 0
+		}
+		return
 	}
 	tol := s.tol
 	w := min(max(m/tailShare, 1), tailMax)
-
-	var (
-		prevV     float64
-		prevIn    bool
-		prevOut   bool // previous sample outside the noise ball
-		entered   bool
-		rise      = Flag{Kind: FlagRises, Time: math.NaN(), Excess: math.Inf(-1)}
-		leave     = Flag{Kind: FlagLeaves, Time: math.NaN(), Excess: math.Inf(-1)}
-		headSum   float64
-		tailStart = m - w
-		tailSum   float64
-		hasRise   bool
-		hasLeave  bool
-		lastScen  = math.Inf(-1)
-	)
-	dst.worstExcess = math.Inf(-1)
-	vb, rb, ob := s.vbuf[:], s.rbuf[:], s.obuf[:]
-	for i0 := 0; i0 < m; i0 += screenBlock {
-		i1 := min(i0+screenBlock, m)
-		s.evalBlock(X, i0, i1)
-		for i := i0; i < i1; i++ {
-			v, r2, inBox := vb[i-i0], rb[i-i0], !ob[i-i0]
-			in := inBox && v <= level // NaN V is outside
-			if i < w {
-				headSum += v
-			}
-			if i >= tailStart {
-				tailSum += v
-			}
-			if i == 0 {
-				dst.StartInside = in
-			}
-			if in {
-				if !entered {
-					dst.enter, dst.vEnter = i, v
-				}
-				entered = true
-				if prevIn && prevOut {
-					d := v - prevV - tol
-					dst.Pairs++
-					bad := !(d <= 0)
-					if !bad {
-						dst.Decreased++
-					}
-					if T[i]-lastScen >= s.spacing {
-						dst.scen++
-						lastScen = T[i]
-						if bad {
-							dst.scenViol++
-						}
-					}
-					if d > dst.worstExcess {
-						dst.worstExcess, dst.worstTime = d, T[i]
-						for j := range s.worstX {
-							s.worstX[j] = X[j][i]
-						}
-					}
-					if bad {
-						if !hasRise {
-							rise.Time = T[i]
-							hasRise = true
-						}
-						if !(d <= math.MaxFloat64) {
-							d = math.MaxFloat64
-						}
-						rise.Excess = max(rise.Excess, d)
-					}
-				}
-			} else if entered {
-				if !hasLeave {
-					leave.Time = T[i]
-					hasLeave = true
-				}
-				e := 0.0
-				if v > level {
-					e = v - level
-				}
-				if !(e <= math.MaxFloat64) { // NaN or Inf: report the largest finite excess
-					e = math.MaxFloat64
-				}
-				leave.Excess = max(leave.Excess, e)
-			}
-			prevV, prevIn, prevOut = v, in, r2 > s.r2
-		}
+	headSum, tailSum := 0.0, 0.0
+	for i := 0; i < w; i++ {
+		headSum += st.head[i]
 	}
-	dst.EverInside = entered
+	for i := m - w; i < m; i++ {
+		tailSum += st.tail[i%tailMax]
+	}
+	dst.EverInside = st.entered
 	head := headSum / float64(w)
 	tail := tailSum / float64(w)
 	dst.VStart, dst.VEnd = clampFinite(head), clampFinite(tail)
 	dst.Settled = tail <= s.settle || tail < head-tol
-	if hasRise {
-		dst.Flags = append(dst.Flags, rise)
+	dst.DecaySamples = st.dn
+	if rate, ok := st.rate(); ok {
+		dst.DecayRate = rate
+	} else {
+		dst.DecaySamples = 0
 	}
-	if hasLeave {
-		dst.Flags = append(dst.Flags, leave)
+	if st.hasRise {
+		st.rise.Distance = s.riseDistance(st.rise.Excess)
+		dst.Flags = append(dst.Flags, st.rise)
+	}
+	if st.hasLeave {
+		st.leave.Distance = s.leaveDistance(st.leaveX)
+		dst.Flags = append(dst.Flags, st.leave)
 	}
 	// A run that ends outside the region has not settled, whether or not
-	// it ever entered: a run that leaves the basin starts outside any
-	// sound region and must still be flagged.
-	if !prevIn {
+	// it ever entered: a run that leaves a basin starts outside any sound
+	// region and must still be flagged.
+	if !st.prevIn {
 		dst.Settled = false
 	}
-	if entered {
+	if st.entered {
 		dst.longAfter = m-dst.enter >= 2*w
-		dst.settledEntry = prevIn && (tail <= s.settle || tail < dst.vEnter-tol)
+		dst.settledEntry = st.prevIn && (tail <= s.settle || tail < dst.vEnter-tol)
 	}
 	if !dst.Settled {
-		dst.Flags = append(dst.Flags, Flag{Kind: FlagUnsettled, Time: T[m-1], Excess: clampFinite(tail - s.settle)})
+		dst.Flags = append(dst.Flags, Flag{Kind: FlagUnsettled, Time: st.lastT, Excess: clampFinite(tail - s.settle)})
+	}
+	if s.slowBound > 0 && dst.DecaySamples > 0 && dst.DecayRate < s.slowBound {
+		dst.Flags = append(dst.Flags, Flag{Kind: FlagSlow, Time: st.lastT, Excess: s.slowBound - dst.DecayRate})
 	}
 	dst.Flagged = len(dst.Flags) > 0
+	st.dst = nil
+}
+
+// rate returns the decay rate: minus the least-squares slope of log V
+// against time over the run's decay samples, in 1/s; ok is false with
+// fewer than DecayMinSamples of them or no spread in time.
+func (st *runState) rate() (float64, bool) {
+	if st.dn < DecayMinSamples {
+		return 0, false
+	}
+	n := float64(st.dn)
+	den := n*st.dtt - st.dt*st.dt
+	if !(den > 0) {
+		return 0, false
+	}
+	r := -(n*st.dty - st.dt*st.dy) / den
+	if math.IsNaN(r) || math.IsInf(r, 0) {
+		return 0, false
+	}
+	return r, true
+}
+
+// riseDistance returns, per state in the states' units, the smallest
+// displacement (to first order, in the scaled coordinates) of the worst
+// rise's sample that accounts for the excess e of V: e ∇V/|∇V|² in z,
+// times the scale.
+func (s *Screener) riseDistance(e float64) []float64 {
+	z := s.z
+	for j := range z {
+		z[j] = (s.worstX[j] - s.eq[j]) * s.inv[j]
+	}
+	g := s.grad(z)
+	g2 := 0.0
+	for _, gj := range g {
+		g2 += gj * gj
+	}
+	d := make([]float64, s.n)
+	if !(g2 > 0) || !(e > 0) {
+		return d
+	}
+	for j := range d {
+		d[j] = clampFinite(math.Abs(e * g[j] / g2 * s.cert.Scale[j]))
+	}
+	return d
+}
+
+// leaveDistance returns, per state in the states' units, how far the
+// worst leaving sample x lies past the region's boundary: along the ray
+// from the equilibrium to x, the distance from the boundary (the point
+// where V reaches the level, found by bisection) to x, or how far x lies
+// outside the box in that state when that is larger.
+func (s *Screener) leaveDistance(x []float64) []float64 {
+	n := s.n
+	d := make([]float64, n)
+	z := s.z
+	vAt := func(f float64) float64 {
+		for j := range z {
+			z[j] = f * (x[j] - s.eq[j]) * s.inv[j]
+		}
+		return s.V(z)
+	}
+	level := s.level
+	if vx := vAt(1); vx > level && vAt(0) <= level {
+		lo, hi := 0.0, 1.0
+		for range 60 {
+			mid := (lo + hi) / 2
+			if vAt(mid) <= level {
+				lo = mid
+			} else {
+				hi = mid
+			}
+		}
+		for j := range d {
+			d[j] = math.Abs(x[j]-s.eq[j]) * (1 - lo)
+		}
+	}
+	for j := range d {
+		d[j] = clampFinite(max(d[j], s.lo[j]-x[j], x[j]-s.hi[j]))
+	}
+	return d
+}
+
+// grad returns ∇V at z in s's scratch space.
+func (s *Screener) grad(z []float64) []float64 {
+	g := s.g
+	if s.quad {
+		for i := range g {
+			a := s.q[i]
+			for j := 0; j < s.n; j++ {
+				a += 2 * s.p[i*s.n+j] * z[j]
+			}
+			g[i] = a
+		}
+		return g
+	}
+	return s.cert.V.GradTo(g, z)
 }
 
 // ScreenRuns screens every run of ds against cert on up to GOMAXPROCS

@@ -121,7 +121,7 @@ func TestScreenFlagDetail(t *testing.T) {
 	// unsettled: w = 1 sample (8/20 -> 1): tail 0.9025 vs head 0.81, not
 	// below the settle level 0.0025.
 	tol := 1e-3
-	want := []Flag{{FlagRises, 0.2, 0.49 - 0.25 - tol}, {FlagLeaves, 0.4, 0.44}, {FlagUnsettled, 0.7, 0.9025 - 0.0025}}
+	want := []Flag{{Kind: FlagRises, Time: 0.2, Excess: 0.49 - 0.25 - tol}, {Kind: FlagLeaves, Time: 0.4, Excess: 0.44}, {Kind: FlagUnsettled, Time: 0.7, Excess: 0.9025 - 0.0025}}
 	if len(got.Flags) != len(want) {
 		t.Fatalf("flags %+v, want %+v", got.Flags, want)
 	}
@@ -129,6 +129,22 @@ func TestScreenFlagDetail(t *testing.T) {
 		// 1e-12: a handful of float64 operations on values near 1.
 		if f.Kind != want[i].Kind || !scalar.EqualWithinAbs(f.Time, want[i].Time, 1e-12) || !scalar.EqualWithinAbs(f.Excess, want[i].Excess, 1e-12) {
 			t.Errorf("flag %d = %+v, want %+v", i, f, want[i])
+		}
+	}
+	// Distances in the states' units. leaves: worst sample z0 = 1.2
+	// (a = 1.7), the boundary on its ray at z0 = 1 (a = 1.5): 0.2 in a,
+	// 0 in b. rises: worst at z0 = 0.7, grad V = (1.4, 0) in z, so the
+	// move is excess/1.4 in z0, times scale 1.
+	wantD := [][]float64{{(0.24 - tol) / 1.4, 0}, {0.2, 0}, nil}
+	for i, f := range got.Flags {
+		if len(f.Distance) != len(wantD[i]) {
+			t.Fatalf("flag %s distance %v, want %v", f.Kind, f.Distance, wantD[i])
+		}
+		for j := range f.Distance {
+			// 1e-12: bisection to 2^-60 and a few operations near 1.
+			if !scalar.EqualWithinAbsOrRel(f.Distance[j], wantD[i][j], 1e-12, 1e-12) {
+				t.Errorf("flag %s distance %v, want %v", f.Kind, f.Distance, wantD[i])
+			}
 		}
 	}
 	if !scalar.EqualWithinAbs(s.SettleLevel(), 0.0025, 1e-15) {
@@ -303,6 +319,57 @@ func TestScreenEmptyRegion(t *testing.T) {
 		NewScreener(c, nil).Screen(&got, "f", &r)
 		if got.EverInside || !only(got) || got.Pairs != 0 {
 			t.Errorf("no V: %+v", got)
+		}
+	}
+}
+
+// TestScreenLeavesNoise: a run that settles with samples past the region's
+// boundary by less than the noise (V above the level by less than the
+// tolerance, or past the box by less than the noise radius times the
+// scale) is not flagged leaves; past by more, it is, with the distance in
+// the states' units.
+func TestScreenLeavesNoise(t *testing.T) {
+	c := circleCert(false) // level 1, tol 1e-3, noise radius 0.05, box a in [-0.5, 1.5]
+	for _, tc := range []struct {
+		name  string
+		z0    float64 // the excursion in z0 after entering
+		z1    float64
+		leave bool
+		dist  []float64
+	}{
+		{"V within tolerance", math.Sqrt(1 + 0.5e-3), 0, false, nil},
+		{"V past tolerance", 1.01, 0, true, []float64{0.01, 0}},
+		// past the box edge a = 1.5 (z0 = 1) by 0.0004 < 0.05 * scale 1,
+		// with V = 1.0008 within the tolerance too
+		{"box within noise", 1.0004, 0, false, nil},
+		// b past its edge (2, z1 = 1) by 0.2 > 0.05 * 2, V = 1.21: leaves
+		{"V and box past noise", 0, 1.1, true, []float64{0, 0.2}},
+	} {
+		zs := [][2]float64{{0.5, 0}, {0.6, 0}, {tc.z0, tc.z1}, {0.3, 0}}
+		r := ingest.Run{Name: tc.name, X: [][]float64{nil, nil}}
+		for k := 0; k < 400; k++ {
+			z := zs[min(k/100, 3)]
+			if k/100 == 3 {
+				z = [2]float64{0.3 * math.Exp(-float64(k-300)/10), 0}
+			}
+			r.T = append(r.T, float64(k)*0.01)
+			r.X[0] = append(r.X[0], 0.5+z[0])
+			r.X[1] = append(r.X[1], 2*z[1])
+		}
+		var got RunScreen
+		NewScreener(c, nil).Screen(&got, "f", &r)
+		if hasFlag(&got, FlagLeaves) != tc.leave {
+			t.Errorf("%s: flags %+v, want leaves %v", tc.name, got.Flags, tc.leave)
+			continue
+		}
+		if tc.leave {
+			d := flagOf(&got, FlagLeaves).Distance
+			for j := range tc.dist {
+				// 1e-9: bisection and the float64 sums above
+				if len(d) != 2 || !scalar.EqualWithinAbsOrRel(d[j], tc.dist[j], 1e-9, 1e-9) {
+					t.Errorf("%s: distance %v, want %v", tc.name, d, tc.dist)
+				}
+			}
 		}
 	}
 }

@@ -66,13 +66,19 @@ const (
 	FlagRises     = "rises"     // V rose beyond the tolerance inside the region
 	FlagLeaves    = "leaves"    // the run left the region after entering it
 	FlagUnsettled = "unsettled" // the run did not settle
+	FlagSlow      = "slow"      // V decayed slower than the held-out runs allow
 )
 
 // Flag is one finding on a run.
 type Flag struct {
 	Kind   string  `json:"kind"`
 	Time   float64 `json:"time"`   // first time it happened, seconds
-	Excess float64 `json:"excess"` // worst excess, in units of V
+	Excess float64 `json:"excess"` // worst excess, in units of V (slow: 1/s)
+	// Distance is, for rises and leaves, the excess per state in the
+	// states' units: for leaves how far the worst sample lies past the
+	// region's boundary, for rises the smallest move of the worst
+	// sample that accounts for the rise (see [Screener]).
+	Distance []float64 `json:"distance,omitempty"`
 }
 
 // RunScreen is the result of screening one run.
@@ -96,6 +102,12 @@ type RunScreen struct {
 	// (a twentieth of the run, 1 to 50 samples) used to judge settling.
 	VStart float64 `json:"v_start"`
 	VEnd   float64 `json:"v_end"`
+	// DecayRate is minus the least-squares slope of log V against time
+	// over the samples inside the region and outside the noise ball, in
+	// 1/s; DecaySamples counts them, and is 0 when there were fewer than
+	// DecayMinSamples (the rate is then 0 and unknown).
+	DecayRate    float64 `json:"decay_rate"`
+	DecaySamples int     `json:"decay_samples"`
 
 	// From the first sample inside the region (validation from entry):
 	// its index (-1 when the run never enters) and V there; whether the
@@ -120,4 +132,7 @@ type ScreenOptions struct {
 	// Tolerance on a rise of V between consecutive samples, in units of V;
 	// 0 means the certificate's Tolerance.
 	Tolerance float64
+	// NoSlow turns off the slow flag even when the certificate records
+	// the held-out decay rates; false means flag slow runs when it can.
+	NoSlow bool
 }

@@ -39,11 +39,18 @@ var cmdScreen = &command{
 	Short:     "flag runs whose V rises, that leave the region, or that do not settle",
 	Long: `Screens new logs against a saved certificate. A run is flagged when V
 rises beyond the tolerance between samples inside the region (rises), when
-it leaves the region after entering it (leaves), or when it entered the
-region and does not settle, or ends outside the region (unsettled). Per
-run it reports each flag with the first time it happened and the worst
-excess, in units of V. A run that starts outside and comes in to settle
-is not flagged.
+it leaves the region after entering it by more than the noise (leaves: V
+above the level by more than the tolerance, or outside the box by more
+than the noise radius), when it entered the region and does not settle,
+or ends outside the region (unsettled), or when V decays more slowly than
+the certificate's held-out runs allow (slow: the run's decay rate, minus
+the slope of log V against time inside the region and outside the noise
+ball, is below half the slowest held-out run's). Per run it reports each
+flag with the first time it happened and the worst excess, in units of V;
+rises and leaves also say how far past the boundary, per state in the
+states' units; and the run's decay rate. A run that starts outside and
+comes in to settle is not flagged. A certificate without held-out decay
+rates (an older file) screens without the slow flag, with one warning.
 
 Files are read one at a time per worker and screened as they arrive, so
 memory stays bounded by one file per worker however many files are given.
@@ -58,6 +65,9 @@ type screenJSON struct {
 	Runs    []validate.RunScreen `json:"runs"`
 	States  []screenState        `json:"states"`
 	Summary screenSummary        `json:"summary"`
+	// SlowBound is the decay rate (1/s) below which a run is slow, 0
+	// when the certificate records no held-out decay rates.
+	SlowBound float64 `json:"slow_bound"`
 }
 
 type screenState struct {
@@ -74,6 +84,7 @@ type screenSummary struct {
 	Rises     int `json:"rises"`
 	Leaves    int `json:"leaves"`
 	Unsettled int `json:"unsettled"`
+	Slow      int `json:"slow"`
 	// NeverInside counts runs that never entered the region.
 	NeverInside int `json:"never_inside"`
 }
@@ -147,6 +158,8 @@ func runScreen(ctx context.Context, e *env, args []string) error {
 					out.Summary.Leaves++
 				case validate.FlagUnsettled:
 					out.Summary.Unsettled++
+				case validate.FlagSlow:
+					out.Summary.Slow++
 				}
 			}
 		}
@@ -156,6 +169,11 @@ func runScreen(ctx context.Context, e *env, args []string) error {
 	}
 	if cert.Verdict != fit.Certified {
 		warnf(e, c.Quiet, "%s: verdict is %s; screening against a region that claims nothing", c.Cert, cert.Verdict)
+	}
+	if v := cert.Validation; v != nil && v.Decay != nil && v.Decay.LowerBound > 0 {
+		out.SlowBound = v.Decay.LowerBound
+	} else {
+		warnf(e, c.Quiet, "%s: no held-out decay rates recorded (an older certificate, or too few held-out runs); screening without the slow flag", c.Cert)
 	}
 	if c.JSON {
 		if err := writeJSON(e.stdout, out); err != nil {
@@ -264,7 +282,7 @@ func screenOne(ctx context.Context, s *validate.Screener, cert *fit.Certificate,
 // screenTable prints the runs in input order, then a summary line.
 func screenTable(w io.Writer, out *screenJSON) error {
 	tw := tabwriter.NewWriter(w, 0, 8, 2, ' ', 0)
-	fmt.Fprintln(tw, "run\tfile\tsamples\tverdict\tflags (kind at time s: worst excess in V)")
+	fmt.Fprintln(tw, "run\tfile\tsamples\tverdict\tdecay 1/s\tflags (kind at time s: worst excess in V; past the boundary in state units)")
 	for _, r := range out.Runs {
 		verdict := "ok"
 		switch {
@@ -275,17 +293,51 @@ func screenTable(w io.Writer, out *screenJSON) error {
 		}
 		var fl []string
 		for _, f := range r.Flags {
-			fl = append(fl, fmt.Sprintf("%s at %.4g: %.3g", f.Kind, f.Time, f.Excess))
+			fl = append(fl, flagText(f, out.States))
 		}
-		fmt.Fprintf(tw, "%s\t%s\t%d\t%s\t%s\n", printable(r.Run), printable(r.File), r.Samples, verdict, strings.Join(fl, "; "))
+		rate := "-"
+		if r.DecaySamples > 0 {
+			rate = fmt.Sprintf("%.3g", r.DecayRate)
+		}
+		fmt.Fprintf(tw, "%s\t%s\t%d\t%s\t%s\t%s\n", printable(r.Run), printable(r.File), r.Samples, verdict, rate, strings.Join(fl, "; "))
 	}
 	if err := tw.Flush(); err != nil {
 		return err
 	}
 	s := out.Summary
-	_, err := fmt.Fprintf(w, "%d runs in %d files, %d samples: %d flagged (%d rises, %d leaves, %d unsettled), %d never inside the region\n",
-		s.Runs, s.Files, s.Samples, s.Flagged, s.Rises, s.Leaves, s.Unsettled, s.NeverInside)
+	_, err := fmt.Fprintf(w, "%d runs in %d files, %d samples: %d flagged (%d rises, %d leaves, %d unsettled, %d slow), %d never inside the region\n",
+		s.Runs, s.Files, s.Samples, s.Flagged, s.Rises, s.Leaves, s.Unsettled, s.Slow, s.NeverInside)
+	if err == nil && out.SlowBound > 0 {
+		_, err = fmt.Fprintf(w, "slow: decay rate of V below %.3g 1/s (half the slowest held-out run's)\n", out.SlowBound)
+	}
+	if err == nil {
+		_, err = fmt.Fprintln(w, fit.Caveat)
+	}
 	return err
+}
+
+// flagText is one flag in the table: kind, time, excess and, for rises
+// and leaves, the distance per state with its unit.
+func flagText(f validate.Flag, states []screenState) string {
+	if f.Kind == validate.FlagSlow {
+		return fmt.Sprintf("%s: decay rate %.3g 1/s below the bound", f.Kind, f.Excess) // Excess is bound - rate
+	}
+	t := fmt.Sprintf("%s at %.4g: %.3g", f.Kind, f.Time, f.Excess)
+	var d []string
+	for j, x := range f.Distance {
+		if x == 0 || j >= len(states) {
+			continue
+		}
+		u := ""
+		if states[j].Unit != "" {
+			u = " " + states[j].Unit
+		}
+		d = append(d, fmt.Sprintf("%s %.3g%s", printable(states[j].Name), x, u))
+	}
+	if len(d) > 0 {
+		t += " (" + strings.Join(d, ", ") + ")"
+	}
+	return t
 }
 
 // printable replaces control characters (which would break the table or

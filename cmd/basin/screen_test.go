@@ -11,6 +11,8 @@ import (
 	"strings"
 	"testing"
 
+	"gonum.org/v1/gonum/floats/scalar"
+
 	"basin.example/fit"
 	"basin.example/validate"
 )
@@ -170,3 +172,50 @@ func TestScreenOrderAndWorkers(t *testing.T) {
 		t.Error("no error from a cancelled context")
 	}
 }
+
+// TestScreenSlowCommand: with held-out decay rates in the certificate a
+// run whose V decays below the bound is flagged slow and its rate is
+// reported (V ∝ e^{2·rate·t} for writeRun's z' = rate·z); without them
+// screen says once that it screens without the slow flag.
+func TestScreenSlowCommand(t *testing.T) {
+	dir := t.TempDir()
+	writeRun(t, dir, "a.csv", [2]float64{0.5, 0.3}, -1, 10)     // decay rate 2
+	writeRun(t, dir, "b.csv", [2]float64{-0.4, -0.6}, -0.5, 10) // decay rate 1
+	withDecay := strings.Replace(screenCert, `"confidence": 0.999999}`,
+		`"confidence": 0.999999, "decay": {"runs": 4, "rates": [3, 3.2, 3.4, 3.5], "min": 3, "median": 3.3, "max": 3.5, "lower_bound": 1.5, "false_alarm": 0, "rule": "test"}}`, 1)
+	if withDecay == screenCert {
+		t.Fatal("certificate fixture changed: no validation object to extend")
+	}
+	for _, tc := range []struct {
+		name     string
+		cert     string
+		flagged  []bool
+		warnings int
+	}{
+		{"with decay", withDecay, []bool{false, true}, 0},
+		{"older certificate", screenCert, []bool{false, false}, 1},
+	} {
+		var out, errb bytes.Buffer
+		code := basinMain(context.Background(), []string{"screen", dir, "--cert", writeTestCert(t, tc.cert), "--json"}, &out, &errb)
+		var got struct {
+			Runs      []validate.RunScreen `json:"runs"`
+			SlowBound float64              `json:"slow_bound"`
+		}
+		if err := json.Unmarshal(out.Bytes(), &got); err != nil || len(got.Runs) != 2 {
+			t.Fatalf("%s: exit %d, %v\n%s%s", tc.name, code, err, out.String(), errb.String())
+		}
+		for i, want := range []float64{2, 1} {
+			r := got.Runs[i]
+			// exact exponentials printed to 17 digits: the slope is the rate to rounding
+			if !scalarClose(r.DecayRate, want, 1e-6) || r.Flagged != tc.flagged[i] {
+				t.Errorf("%s: run %s rate %g flagged %v flags %+v; want rate %g flagged %v",
+					tc.name, r.Run, r.DecayRate, r.Flagged, r.Flags, want, tc.flagged[i])
+			}
+		}
+		if n := strings.Count(errb.String(), "without the slow flag"); n != tc.warnings {
+			t.Errorf("%s: %d warnings about the slow flag, want %d: %s", tc.name, n, tc.warnings, errb.String())
+		}
+	}
+}
+
+func scalarClose(a, b, tol float64) bool { return scalar.EqualWithinAbsOrRel(a, b, tol, tol) }
