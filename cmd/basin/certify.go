@@ -58,6 +58,9 @@ func runCertify(ctx context.Context, e *env, args []string) error {
 	if err != nil {
 		return err
 	}
+	if err := checkOut(f.Out, args); err != nil {
+		return err
+	}
 	opts, err := f.certFlags.options(f.Seed)
 	if err != nil {
 		return err
@@ -85,6 +88,9 @@ func runCertify(ctx context.Context, e *env, args []string) error {
 
 // readModelFile opens and decodes a model.json; any failure is bad input.
 func readModelFile(path string) (*fit.Model, error) {
+	if err := mixedSet(path); err != nil {
+		return nil, err
+	}
 	f, err := os.Open(path)
 	if err != nil {
 		return nil, &inputError{err}

@@ -53,8 +53,8 @@ func runDemo(ctx context.Context, e *env, args []string) error {
 	if err := noInputs(cmdDemo, args); err != nil {
 		return err
 	}
-	if c.Out == "" {
-		return usagef("--out needs a directory")
+	if err := checkDemoOut(c.Out); err != nil {
+		return err
 	}
 	data := filepath.Join(c.Out, "data")
 	truth, err := writeDemoData(data, c.Seed)

@@ -88,6 +88,9 @@ func runExport(ctx context.Context, e *env, args []string) error {
 // certFromFile reads and checks a certificate.json; a missing or bad file
 // is an input error (exit 2) naming the file.
 func certFromFile(path string) (*fit.Certificate, error) {
+	if err := mixedSet(path); err != nil {
+		return nil, err
+	}
 	f, err := os.Open(path)
 	if err != nil {
 		return nil, &inputError{err}

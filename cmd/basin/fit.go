@@ -54,6 +54,9 @@ func runFit(ctx context.Context, e *env, args []string) error {
 	if err != nil {
 		return err
 	}
+	if err := checkOut(f.Out, args); err != nil {
+		return err
+	}
 	opts, err := f.fieldFlags.options(f.Seed)
 	if err != nil {
 		return err

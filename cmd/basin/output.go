@@ -1,7 +1,6 @@
 package main
 
 import (
-	"bufio"
 	"encoding/json"
 	"errors"
 	"fmt"
@@ -14,83 +13,6 @@ import (
 	"syscall"
 	"time"
 )
-
-// atomicFile is one output to be written under a temporary name and
-// renamed into place only when every output of the command succeeded.
-type atomicFile struct {
-	Name  string                  // base name inside the output folder
-	Write func(w io.Writer) error // writes the content
-}
-
-// writeAtomic writes every file into dir: each to a temporary name first,
-// then all are renamed. On any error the temporary files are removed and
-// nothing is left half-written (files renamed before a later rename
-// failed are removed too).
-//
-// A folder that cannot be made or written into (a path under a regular
-// file, a read-only file system, no permission) is the user's --out and
-// is reported as an input error (exit 2); a failure while writing (a full
-// disk) is not.
-func writeAtomic(dir string, files ...atomicFile) error {
-	outputs.RLock()
-	defer outputs.RUnlock()
-	_, statErr := os.Stat(dir)
-	if err := os.MkdirAll(dir, 0o755); err != nil {
-		return outDirError(dir, err)
-	}
-	tmps := make([]string, len(files))
-	cleanup := func() {
-		for _, t := range tmps {
-			if t != "" {
-				os.Remove(t)
-			}
-		}
-		if statErr != nil {
-			os.Remove(dir) // made here; removed only when empty
-		}
-	}
-	for i, f := range files {
-		tf, err := os.CreateTemp(dir, "."+f.Name+".tmp*")
-		if err != nil {
-			cleanup()
-			return outDirError(dir, err)
-		}
-		tmps[i] = tf.Name()
-		bw := bufio.NewWriter(tf)
-		err = f.Write(bw)
-		if err == nil {
-			err = bw.Flush()
-		}
-		if err == nil {
-			err = tf.Sync()
-		}
-		if cerr := tf.Close(); err == nil {
-			err = cerr
-		}
-		if err == nil {
-			err = os.Chmod(tf.Name(), 0o644)
-		}
-		if err != nil {
-			cleanup()
-			return fmt.Errorf("writing %s: %w", filepath.Join(dir, f.Name), err)
-		}
-	}
-	var done []string
-	for i, f := range files {
-		dst := filepath.Join(dir, f.Name)
-		if err := os.Rename(tmps[i], dst); err != nil {
-			cleanup()
-			for _, d := range done {
-				os.Remove(d)
-			}
-			return err
-		}
-		tmps[i] = ""
-		done = append(done, dst)
-	}
-	outputsWritten.Store(true)
-	return nil
-}
 
 var (
 	// outputs is held for reading by each writeAtomic, and for writing by

@@ -147,7 +147,10 @@ func runRun(ctx context.Context, e *env, args []string) error {
 	if err != nil {
 		return err
 	}
-	if err := needInputs(args); err != nil {
+	if err := needInputs(args); err != nil && c.Manifest == "" { // a manifest may name every file
+		return err
+	}
+	if err := checkOut(c.Out, args); err != nil {
 		return err
 	}
 	prog := newProgress(e.stderr, c.Quiet)

@@ -1,0 +1,101 @@
+package main
+
+import (
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+)
+
+// run1 runs basin and returns the exit code and stderr, which must be
+// one line when the code is 2 or 3.
+func run1(t *testing.T, args ...string) (int, string) {
+	t.Helper()
+	var out, errb strings.Builder
+	code := basinMain(t.Context(), args, &out, &errb)
+	msg := strings.TrimSpace(errb.String())
+	if (code == 2 || code == 3) && strings.Contains(msg, "\n") {
+		t.Errorf("%v: exit %d with more than one line on stderr:\n%s", args, code, msg)
+	}
+	return code, msg
+}
+
+// TestOutCheckedFirst: a bad --out is refused before the inputs are read
+// (the inputs here do not exist, and the error is about --out).
+func TestOutCheckedFirst(t *testing.T) {
+	dir := t.TempDir()
+	file := filepath.Join(dir, "file")
+	os.WriteFile(file, []byte("x"), 0o644)
+	logs := filepath.Join(dir, "logs")
+	os.Mkdir(logs, 0o755)
+	missing := filepath.Join(dir, "nosuch.csv")
+	for _, tc := range []struct {
+		args []string
+		want string
+	}{
+		{[]string{"run", "--out", "", missing}, "--out needs a folder"},
+		{[]string{"fit", "--out", " ", missing}, "--out needs a folder"},
+		{[]string{"certify", "--model", missing, "--out", file, missing}, "is a file, not a folder"},
+		{[]string{"run", "--out", filepath.Join(file, "sub"), missing}, "not a directory"},
+		{[]string{"run", "--out", logs, logs}, "is also an input folder"},
+		{[]string{"fit", "--out", logs + "/", logs}, "is also an input folder"},
+		{[]string{"demo", "--out", ""}, "--out needs a folder"},
+		{[]string{"demo", "--out", file}, "is a file"},
+	} {
+		code, msg := run1(t, tc.args...)
+		if code != 2 || !strings.Contains(msg, tc.want) {
+			t.Errorf("%q: exit %d %q, want 2 and %q", tc.args, code, msg, tc.want)
+		}
+	}
+}
+
+// TestDemoLeavesForeignFiles: demo refuses, before writing anything, a
+// folder holding files it did not write, and rewrites its own folder.
+func TestDemoLeavesForeignFiles(t *testing.T) {
+	for _, tc := range []struct {
+		name  string
+		files map[string]string // path under DIR -> content
+		want  string            // "" when demo may write there
+	}{
+		{"user's logs", map[string]string{"data/run-01.csv": "mine", "data/notes.txt": "mine"}, "did not write"},
+		{"user's run only", map[string]string{"data/run-01.csv": "mine"}, "did not write"},
+		{"user's summary", map[string]string{"summary.txt": "mine"}, "did not write"},
+		{"data is a file", map[string]string{"data": "mine"}, "not a folder basin demo wrote"},
+		{"unrelated files", map[string]string{"README": "mine"}, ""},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			dir := t.TempDir()
+			for p, c := range tc.files {
+				os.MkdirAll(filepath.Dir(filepath.Join(dir, p)), 0o755)
+				if err := os.WriteFile(filepath.Join(dir, p), []byte(c), 0o644); err != nil {
+					t.Fatal(err)
+				}
+			}
+			code, msg := run1(t, "demo", "--data-only", "--quiet", "--out", dir)
+			if tc.want == "" {
+				if code != 0 {
+					t.Fatalf("exit %d: %s", code, msg)
+				}
+			} else if code != 2 || !strings.Contains(msg, tc.want) {
+				t.Fatalf("exit %d %q, want 2 and %q", code, msg, tc.want)
+			}
+			for p, c := range tc.files {
+				if b, err := os.ReadFile(filepath.Join(dir, p)); err != nil || string(b) != c {
+					t.Errorf("%s changed: %q, %v", p, b, err)
+				}
+			}
+			if tc.want != "" {
+				if _, err := os.Stat(filepath.Join(dir, "data", "truth.json")); err == nil {
+					t.Error("truth.json written into a refused folder")
+				}
+			}
+		})
+	}
+	// A demo folder is the demo's own: a second demo rewrites it.
+	dir := t.TempDir()
+	for range 2 {
+		if code, msg := run1(t, "demo", "--data-only", "--quiet", "--out", dir); code != 0 {
+			t.Fatalf("demo into its own folder: exit %d: %s", code, msg)
+		}
+	}
+}
