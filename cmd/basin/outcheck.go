@@ -19,16 +19,16 @@ func checkOut(out string, inputs []string) error {
 	st, err := os.Stat(out)
 	switch {
 	case err == nil && !st.IsDir():
-		return usagef("--out %s is a file, not a folder", printable(out))
+		return usagef("cannot write to --out %s: it is a file, not a folder", printable(out))
 	case err != nil && !errors.Is(err, os.ErrNotExist):
 		// A path through a file (ENOTDIR) or an unreadable parent.
-		return usagef("--out %s: %v", printable(out), err)
+		return usagef("cannot write to --out %s: %v", printable(out), err)
 	case err != nil:
 		// The folder will be made: its nearest existing parent must be one.
 		for p := filepath.Dir(filepath.Clean(out)); ; p = filepath.Dir(p) {
 			if pst, perr := os.Stat(p); perr == nil {
 				if !pst.IsDir() {
-					return usagef("--out %s: %s is a file, not a folder", printable(out), printable(p))
+					return usagef("cannot write to --out %s: %s is a file, not a folder", printable(out), printable(p))
 				}
 				break
 			}
