@@ -19,7 +19,8 @@ defaults; this page is the same text in one place.
 Exit codes: 0 done; 1 screen flagged at least one run; 2 usage or input
 error (one line on stderr naming the file, line and column where there is
 one; nothing written); 3 internal failure. Human text goes to stdout,
-progress and warnings to stderr (progress only on a terminal); --quiet
+progress and warnings to stderr (progress only on a terminal: the stage,
+and on long work a bar with the share done and the time left); --quiet
 silences both and --json prints the machine-readable result on stdout.
 
 # Reading logs

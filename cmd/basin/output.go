@@ -11,7 +11,6 @@ import (
 	"sync"
 	"sync/atomic"
 	"syscall"
-	"time"
 )
 
 var (
@@ -61,69 +60,6 @@ func isTerminal(w io.Writer) bool {
 	}
 	st, err := f.Stat()
 	return err == nil && st.Mode()&os.ModeCharDevice != 0
-}
-
-// progress prints a stage line with elapsed time to stderr, only when
-// stderr is a terminal and not quiet, and only for stages over a second.
-type progress struct {
-	mu    sync.Mutex
-	w     io.Writer
-	on    bool
-	stage string
-	start time.Time
-	stop  chan struct{}
-}
-
-func newProgress(w io.Writer, quiet bool) *progress {
-	return &progress{w: w, on: !quiet && isTerminal(w)}
-}
-
-// Stage ends the previous stage and starts a new one.
-func (p *progress) Stage(name string) {
-	if !p.on {
-		return
-	}
-	p.Done()
-	p.mu.Lock()
-	p.stage, p.start, p.stop = name, time.Now(), make(chan struct{})
-	stop, start := p.stop, p.start
-	p.mu.Unlock()
-	go func() {
-		t := time.NewTicker(200 * time.Millisecond)
-		defer t.Stop()
-		frames := []string{"[=   ]", "[ =  ]", "[  = ]", "[   =]", "[  = ]", "[ =  ]"}
-		i := 0
-		for {
-			select {
-			case <-stop:
-				return
-			case now := <-t.C:
-				if now.Sub(start) < time.Second {
-					continue
-				}
-				p.mu.Lock()
-				fmt.Fprintf(p.w, "\r%s %s %.1fs ", frames[i%len(frames)], name, now.Sub(start).Seconds())
-				p.mu.Unlock()
-				i++
-			}
-		}
-	}()
-}
-
-// Done ends the current stage.
-func (p *progress) Done() {
-	if !p.on {
-		return
-	}
-	p.mu.Lock()
-	defer p.mu.Unlock()
-	if p.stop != nil {
-		close(p.stop)
-		p.stop = nil
-		if time.Since(p.start) >= time.Second {
-			fmt.Fprintf(p.w, "\r%-60s\r", "")
-		}
-	}
 }
 
 // warnf prints a warning unless quiet.

@@ -164,7 +164,7 @@ func runRun(ctx context.Context, e *env, args []string) error {
 	if err != nil {
 		return err
 	}
-	prog.Stage("fitting, certifying and checking")
+	opts.Progress = prog.Share
 	res, err := validate.Evaluate(ctx, ds, opts)
 	if err != nil {
 		return classify(err, "")
