@@ -103,11 +103,8 @@ func TestDemoFull(t *testing.T) {
 	if testing.Short() {
 		t.Skip("runs the pipeline")
 	}
-	dir := t.TempDir()
-	code, out, errs := demo(t, "--out", dir)
-	if code != 0 {
-		t.Fatalf("exit %d: %s\n%s", code, errs, out)
-	}
+	d := sharedDemo(t)
+	dir, out := d.dir, d.stdout
 	if _, err := os.Stat(filepath.Join(dir, "report.html")); err == nil {
 		if !strings.Contains(out, "report.html") {
 			t.Errorf("report written but not named: %q", out)

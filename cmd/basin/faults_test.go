@@ -129,6 +129,9 @@ func TestMain(m *testing.M) {
 	if binDir != "" {
 		os.RemoveAll(binDir)
 	}
+	if demoDir != "" {
+		os.RemoveAll(demoDir)
+	}
 	os.Exit(code)
 }
 
