@@ -25,7 +25,7 @@ import (
 // a reviewer reads.
 var update = flag.Bool("update", false, "rewrite testdata/golden from this run")
 
-// demoDir holds the shared demo output (see demoOutputs); TestMain
+// demoDir holds the shared demo output (see sharedDemoRun); TestMain
 // removes it.
 var demoDir string
 
@@ -38,7 +38,7 @@ type demoResult struct {
 	stdout, stderr string
 }
 
-var demoOutputs = sync.OnceValues(func() (*demoResult, error) {
+var sharedDemoRun = sync.OnceValues(func() (*demoResult, error) {
 	dir, err := os.MkdirTemp("", "basin-demo-")
 	if err != nil {
 		return nil, err
@@ -53,7 +53,7 @@ var demoOutputs = sync.OnceValues(func() (*demoResult, error) {
 // Tests must not write into its directory.
 func sharedDemo(t *testing.T) *demoResult {
 	t.Helper()
-	d, err := demoOutputs()
+	d, err := sharedDemoRun()
 	if err != nil {
 		t.Fatal(err)
 	}
