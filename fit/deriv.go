@@ -8,6 +8,9 @@ import (
 
 // Derivative methods for [FieldOptions.Derivative].
 const (
+	// DerivAuto tries every method below and keeps the one whose model has
+	// the least held-out error on the integral-form yardstick.
+	DerivAuto = "auto"
 	// DerivFornberg differentiates by fourth-order finite differences whose
 	// weights come from Fornberg's recursion on the actual (possibly
 	// uneven) sample times: five nodes, centred where the run allows.

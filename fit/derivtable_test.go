@@ -21,7 +21,7 @@ func TestDerivativeTable(t *testing.T) {
 	if testing.Short() {
 		t.Skip("measurement table; run without -short")
 	}
-	methods := []string{DerivFornberg, DerivSavitzkyGolay, DerivIntegral}
+	methods := []string{DerivFornberg, DerivSavitzkyGolay, DerivIntegral, DerivAuto}
 	var b strings.Builder
 	fmt.Fprintf(&b, "| system | noise | %s |\n|---|---|%s\n", strings.Join(methods, " | "), strings.Repeat("---|", len(methods)))
 	for _, sys := range []system{duffing, vanderpol, softening} {

@@ -32,8 +32,30 @@ type Equation struct {
 	// Terms carries, per term, the bootstrap interval and the share of
 	// bootstrap fits that kept it (in the fitting coordinates' support).
 	Terms []Term `json:"terms,omitempty"`
-	// HeldoutError is the cross-validated derivative error, normalised by
-	// the spread of this state's derivative (1 = no better than a constant).
+	// HeldoutError is the cross-validated mean squared error of the
+	// window-mean slope (the integral form over held-out runs, whatever
+	// the derivative method), as a share of that slope's variance (1 = no
+	// better than a constant).
+	HeldoutError float64 `json:"heldout_error"`
+	// HeldoutRMS is the same error's root mean square in the state's unit
+	// per second, HeldoutShare its share of the slope's standard deviation
+	// (the square root of HeldoutError).
+	HeldoutRMS   float64 `json:"heldout_rms"`
+	HeldoutShare float64 `json:"heldout_share"`
+	// DenseError is HeldoutError of the unthresholded model (every library
+	// term); the chosen model's is within one paired standard error of it.
+	DenseError float64 `json:"dense_error"`
+	// Threshold and Ridge are this equation's chosen values.
+	Threshold float64 `json:"threshold"`
+	Ridge     float64 `json:"ridge"`
+	// Warning says the equation is empty or no better than a constant.
+	Warning string `json:"warning,omitempty"`
+}
+
+// MethodScore is one derivative method's held-out error (mean over
+// equations of the least Equation.HeldoutError its candidates reached).
+type MethodScore struct {
+	Method       string  `json:"method"`
 	HeldoutError float64 `json:"heldout_error"`
 }
 
@@ -122,10 +144,12 @@ type Model struct {
 	Equilibria []Equilibrium `json:"equilibria"`
 
 	Degree     int     `json:"degree"`
-	Threshold  float64 `json:"threshold"` // on coefficients normalised by their column's and target's spread
-	Ridge      float64 `json:"ridge"`
+	Threshold  float64 `json:"threshold"`  // largest of the equations', on coefficients normalised by their column's and target's spread
+	Ridge      float64 `json:"ridge"`      // largest of the equations'
 	Derivative string  `json:"derivative"` // derivative method used
-	Condition  float64 `json:"condition"`  // of the normalised library's normal matrix
+	// DerivativeScores lists the methods tried with their held-out errors.
+	DerivativeScores []MethodScore `json:"derivative_scores,omitempty"`
+	Condition        float64       `json:"condition"` // of the normalised library's normal matrix
 	// Centre and Spread define the fitting coordinates (x - Centre)/Spread.
 	Centre []float64 `json:"centre"`
 	Spread []float64 `json:"spread"`

@@ -349,190 +349,19 @@ func (s *solver) solve(dst, gh, b []float64, lam float64) bool {
 	return true
 }
 
-// seFloor is the least tolerance of the one-standard-error rule, in
-// shares of the derivative variance: held-out errors that differ by less
-// than one part in a million are equal for any logged data (on exact
-// simulated data the spread over folds can be smaller still, and the rule
-// would otherwise keep terms that fit only quadrature round-off).
+// seFloor is the least rise in held-out error a threshold may always
+// cost, in shares of the derivative variance: held-out errors that differ
+// by less than one part in a million are equal for any logged data (on
+// exact simulated data the dense model's error can be smaller still, and
+// the rule would otherwise keep terms that fit only quadrature round-off).
 const seFloor = 1e-6
 
-// candidate is one (threshold, ridge) pair on the cross-validation grid.
-type candidate struct {
-	tau, lam float64
-	mean, se float64   // held-out error over folds (mean of equations)
-	perEq    []float64 // mean held-out error per equation
-	terms    int       // support size of the fit on all data
-}
-
-// fitAll runs the thresholded refit for every equation of the normalised sums s and
-// stores the normalised coefficients in xi (n×p). It returns the total
-// support size.
-func (pr *problem) fitAll(xi [][]float64, sv *solver, gh, bh, col []float64, s *groupSums, tau, lam float64) int {
-	p, n := pr.p, pr.n
-	pr.normalised(gh, bh, s)
-	terms := 0
-	for i := 0; i < n; i++ {
-		for k := 0; k < p; k++ {
-			col[k] = bh[k*n+i]
-		}
-		terms += sv.thresholdRefit(xi[i], gh, col, tau, lam)
-	}
-	return terms
-}
-
-// heldout stores, per equation, the mean squared error of xi on the group
-// sums h in units of the derivative's variance over all data (1 = no
-// better than its mean).
-func (pr *problem) heldout(dst []float64, xi [][]float64, h *groupSums) {
-	p, n := pr.p, pr.n
-	for i := 0; i < n; i++ {
-		sd := pr.ySD[i]
-		yy := h.yy[i] / (sd * sd)
-		x := xi[i]
-		// SSE = yy - 2 xᵀb + xᵀGx with b, G the normalised (unscaled by N) sums.
-		xb, xgx := 0.0, 0.0
-		for k := 0; k < p; k++ {
-			if x[k] == 0 {
-				continue
-			}
-			ck := pr.colScale[k]
-			xb += x[k] * h.B[k*n+i] / (ck * sd)
-			row := h.G[k*p:]
-			q := 0.0
-			for l := 0; l < p; l++ {
-				if x[l] != 0 {
-					q += row[l] / (ck * pr.colScale[l]) * x[l]
-				}
-			}
-			xgx += x[k] * q
-		}
-		// Mean squared error over the variance of this derivative over all
-		// data (the targets are scaled to unit variance): a held-out run's
-		// own variance can be zero (a run that starts at rest).
-		dst[i] = math.Max(0, yy-2*xb+xgx) / float64(h.rows)
-	}
-}
-
-// crossValidate evaluates every candidate by K-fold cross-validation over
-// the groups and returns them with errors filled, and the index of the
-// chosen one: the sparsest within one standard error of the best (ties go
-// to the larger threshold, then the larger ridge).
-func (pr *problem) crossValidate(taus, lams []float64, folds int, rng *rand.Rand) ([]candidate, int) {
-	p, n := pr.p, pr.n
-	R := len(pr.groups)
-	folds = min(folds, R)
-	perm := rng.Perm(R)
-	foldOf := make([]int, R)
-	for pos, g := range perm {
-		foldOf[g] = pos % folds
-	}
-	type foldData struct{ train, test *groupSums }
-	fd := make([]foldData, folds)
-	for f := range fd {
-		fd[f].test = newGroupSums(p, n)
-		for g, gs := range pr.groups {
-			if foldOf[g] == f {
-				addSums(fd[f].test, gs, 1)
-			}
-		}
-		fd[f].train = newGroupSums(p, n)
-		addSums(fd[f].train, pr.total, 1)
-		addSums(fd[f].train, fd[f].test, -1)
-	}
-	var cands []candidate
-	for _, lam := range lams {
-		for _, tau := range taus {
-			cands = append(cands, candidate{tau: tau, lam: lam})
-		}
-	}
-	// errs[c][f][i]
-	errs := make([][][]float64, len(cands))
-	terms := make([]int, len(cands))
-	for c := range errs {
-		errs[c] = make([][]float64, folds)
-	}
-	// One job per fold plus one for the fits on all data.
-	jobs := make(chan int)
-	var wg sync.WaitGroup
-	for w := 0; w < runtime.GOMAXPROCS(0); w++ {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			sv := newSolver(p)
-			gh, bh, col := make([]float64, p*p), make([]float64, p*n), make([]float64, p)
-			xi := make([][]float64, n)
-			for i := range xi {
-				xi[i] = make([]float64, p)
-			}
-			for f := range jobs {
-				for c := range cands {
-					if f == folds {
-						terms[c] = pr.fitAll(xi, sv, gh, bh, col, pr.total, cands[c].tau, cands[c].lam)
-						continue
-					}
-					pr.fitAll(xi, sv, gh, bh, col, fd[f].train, cands[c].tau, cands[c].lam)
-					e := make([]float64, n)
-					pr.heldout(e, xi, fd[f].test)
-					errs[c][f] = e
-				}
-			}
-		}()
-	}
-	for f := 0; f <= folds; f++ {
-		jobs <- f
-	}
-	close(jobs)
-	wg.Wait()
-
-	best := 0
-	for c := range cands {
-		cd := &cands[c]
-		cd.terms = terms[c]
-		cd.perEq = make([]float64, n)
-		per := make([]float64, folds)
-		for f := 0; f < folds; f++ {
-			s := 0.0
-			for i, e := range errs[c][f] {
-				s += e
-				cd.perEq[i] += e / float64(folds)
-			}
-			per[f] = s / float64(n)
-		}
-		mean, ss := 0.0, 0.0
-		for _, v := range per {
-			mean += v
-		}
-		mean /= float64(folds)
-		for _, v := range per {
-			ss += (v - mean) * (v - mean)
-		}
-		cd.mean = mean
-		if folds > 1 {
-			cd.se = math.Sqrt(ss / float64(folds-1) / float64(folds))
-		}
-		if cd.mean < cands[best].mean {
-			best = c
-		}
-	}
-	limit := cands[best].mean + math.Max(cands[best].se, seFloor)
-	chosen := best
-	for c := range cands {
-		cd, ch := cands[c], cands[chosen]
-		if cd.mean > limit {
-			continue
-		}
-		if cd.terms < ch.terms || (cd.terms == ch.terms && (cd.tau > ch.tau || (cd.tau == ch.tau && cd.lam > ch.lam))) {
-			chosen = c
-		}
-	}
-	return cands, chosen
-}
-
-// bootstrap refits at (tau, lam) on B resamples of the groups (drawn with
+// bootstrap refits at each equation's (taus[i], lams[i]) on B resamples
+// of the groups (drawn with
 // replacement) and returns each replicate's normalised coefficients
 // (reps[b][i][k]). Replicate b uses its own generator seeded from (seed,
 // b), so the result does not depend on scheduling.
-func (pr *problem) bootstrap(B int, seed uint64, tau, lam float64) [][][]float64 {
+func (pr *problem) bootstrap(B int, seed uint64, taus, lams []float64) [][][]float64 {
 	p, n := pr.p, pr.n
 	R := len(pr.groups)
 	reps := make([][][]float64, B)
@@ -568,7 +397,7 @@ func (pr *problem) bootstrap(B int, seed uint64, tau, lam float64) [][][]float64
 				for i := range xi {
 					xi[i] = make([]float64, p)
 				}
-				pr.fitAll(xi, sv, gh, bh, col, s, tau, lam)
+				pr.fitEach(xi, sv, gh, bh, col, s, taus, lams)
 				reps[b] = xi
 			}
 		}()

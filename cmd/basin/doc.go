@@ -57,7 +57,8 @@ prints the summary. The same input and --seed give byte-identical outputs.
 	--degree N          field library degree, 1..8 (default 3)
 	--select-folds K    folds over the fit runs that choose the sparsity
 	                    threshold (default 5)
-	--deriv METHOD      savitzky-golay (default), fornberg or integral
+	--deriv METHOD      auto (default: each method tried, the least held-out
+	                    error kept), savitzky-golay, fornberg or integral
 	--bootstrap N       bootstrap refits over runs, 0 for none (default 100)
 	--v-degree N        certificate degree, even, 2..8 (default 2)
 	--growth N          region growth rounds, 1..100 (default 8)

@@ -184,7 +184,7 @@ func eigenText(ev [][2]float64) string {
 func printModel(w io.Writer, m *fit.Model) {
 	fmt.Fprintf(w, "field fitted on %d runs, %d samples (degree %d, derivative %s, cross-validated by %s over %d groups)\n",
 		m.Runs, m.Samples, m.Degree, m.Derivative, m.CVBy, m.CVGroups)
-	fmt.Fprintf(w, "threshold %.3g, ridge %.1g, condition %.2g, held-out error %.3g (share of derivative variance unexplained)\n\n",
+	fmt.Fprintf(w, "threshold %.3g, ridge %.1g, condition %.2g, held-out error %.3g (share of the window-mean slope's variance unexplained)\n\n",
 		m.Threshold, m.Ridge, m.Condition, m.HeldoutError)
 	var rare []string
 	for i, eq := range m.Equations {
@@ -197,6 +197,12 @@ func printModel(w io.Writer, m *fit.Model) {
 	}
 	if len(rare) > 0 {
 		fmt.Fprintf(w, "\nrarely kept terms (most bootstrap fits dropped them): %s\n", strings.Join(rare, "; "))
+	}
+	for i, eq := range m.Equations {
+		fmt.Fprintf(w, "held-out error of d(%s)/dt: %.3g %s (%.1f%% of its spread)\n", eq.State, eq.HeldoutRMS, rateUnit(m.Units[i]), 100*eq.HeldoutShare)
+		if eq.Warning != "" {
+			fmt.Fprintf(w, "warning: d(%s)/dt: %s\n", eq.State, eq.Warning)
+		}
 	}
 	fmt.Fprintf(w, "\nequilibria (the first is where the runs settle):\n")
 	if len(m.Equilibria) == 0 {

@@ -93,7 +93,7 @@ type fieldFlags struct {
 func (f *fieldFlags) register(fs *flag.FlagSet) {
 	fs.IntVar(&f.Degree, "degree", defaultDegree, "field library degree `N`")
 	fs.IntVar(&f.SelectFolds, "select-folds", defaultSelect, "folds `K` over the fit runs that choose the sparsity threshold")
-	fs.StringVar(&f.Deriv, "deriv", "", "derivative `METHOD`: savitzky-golay, fornberg or integral (default "+fit.DefaultDerivative+")")
+	fs.StringVar(&f.Deriv, "deriv", "", "derivative `METHOD`: auto (each tried, least held-out error kept), savitzky-golay, fornberg or integral (default "+fit.DefaultDerivative+")")
 	fs.IntVar(&f.Bootstrap, "bootstrap", defaultBootstrap, "bootstrap refits over runs `N` (0: none)")
 }
 
@@ -106,9 +106,9 @@ func (f *fieldFlags) options(seed uint64) (*fit.FieldOptions, error) {
 		return nil, usagef("--select-folds must be 2..100, got %d", f.SelectFolds)
 	}
 	switch f.Deriv {
-	case "", fit.DerivSavitzkyGolay, fit.DerivFornberg, fit.DerivIntegral:
+	case "", fit.DerivAuto, fit.DerivSavitzkyGolay, fit.DerivFornberg, fit.DerivIntegral:
 	default:
-		return nil, usagef("--deriv must be savitzky-golay, fornberg or integral, got %q", f.Deriv)
+		return nil, usagef("--deriv must be auto, savitzky-golay, fornberg or integral, got %q", f.Deriv)
 	}
 	if f.Bootstrap < 0 || f.Bootstrap > 10000 {
 		return nil, usagef("--bootstrap must be 0..10000, got %d", f.Bootstrap)

@@ -93,6 +93,10 @@ type eqRow struct {
 	State        string
 	Terms        []termRow
 	HeldoutError num
+	HeldoutRMS   num
+	RateUnit     string
+	HeldoutShare string
+	Warning      string
 }
 
 type termRow struct {
@@ -234,7 +238,11 @@ func build(in *Input, pl [2]int) (*pageData, error) {
 	if m := in.Model; m != nil {
 		for _, e := range m.Equations {
 			d.DerivErr = append(d.DerivErr, stateNum{e.State, mk(math.Sqrt(math.Max(e.HeldoutError, 0)))})
-			row := eqRow{State: e.State, HeldoutError: mk(e.HeldoutError)}
+			row := eqRow{State: e.State, HeldoutError: mk(e.HeldoutError), HeldoutRMS: mk(e.HeldoutRMS),
+				RateUnit: "1/s", HeldoutShare: human.Percent(e.HeldoutShare), Warning: e.Warning}
+			if i := len(d.Equations); i < len(m.Units) {
+				row.RateUnit = RateUnit(m.Units[i])
+			}
 			for k, x := range e.Exponents {
 				t := termRow{Name: poly.MonomialName(x, m.States), Coef: mk(e.Coefficients[k])}
 				if k < len(e.Terms) {

@@ -52,6 +52,7 @@ func Summary(w io.Writer, in *Input) error {
 			}
 			fmt.Fprintf(&b, "  other equilibria of the fitted model: %s\n", strings.Join(others, "; "))
 		}
+		equationErrors(&b, m)
 	}
 	if len(c.V.Exponents) > 0 {
 		text, dropped := vText(c)
@@ -283,4 +284,27 @@ func polyText(exps [][]int, coefs []float64, names []string) string {
 		}
 	}
 	return b.String()
+}
+
+// equationErrors writes each equation's held-out error (the window-mean
+// slope on held-out runs) in the state's unit per second and as a share
+// of its spread, the derivative method, and any equation's warning.
+func equationErrors(b *strings.Builder, m *fit.Model) {
+	fmt.Fprintf(b, "held-out error per equation (derivative %s):", m.Derivative)
+	for i, e := range m.Equations {
+		if i > 0 {
+			b.WriteString(",")
+		}
+		u := "1/s"
+		if i < len(m.Units) {
+			u = RateUnit(m.Units[i])
+		}
+		fmt.Fprintf(b, " d(%s)/dt %s %s (%s of its spread)", e.State, human.Num(e.HeldoutRMS), u, human.Percent(e.HeldoutShare))
+	}
+	b.WriteString("\n")
+	for _, e := range m.Equations {
+		if e.Warning != "" {
+			fmt.Fprintf(b, "  warning: d(%s)/dt: %s\n", e.State, e.Warning)
+		}
+	}
 }
