@@ -12,9 +12,8 @@ import (
 )
 
 // twoWell is the unforced two-well Duffing oscillator x” + δx' - x + x³
-// = 0 with δ = 0.5 (Guckenheimer & Holmes, Nonlinear Oscillations,
-// Dynamical Systems, and Bifurcations of Vector Fields, 1983, §2.2: the
-// double well α = -1, β = 1; rest points ±1 stable, 0 a saddle).
+// = 0 with δ = 0.5 ([GuckenheimerHolmes1983] §2.2: the double well
+// α = -1, β = 1; rest points ±1 stable, 0 a saddle).
 var twoWell = system{
 	name:   "two-well",
 	states: []string{"x", "v"},
@@ -27,8 +26,7 @@ var twoWell = system{
 
 // thermalLoop is a first-order thermal loop, Newton's law of cooling
 // dT/dt = -k (T - Tamb) with k = 0.02 1/s, Tamb = 20 (the lumped
-// capacitance model: Incropera & DeWitt, Fundamentals of Heat and Mass
-// Transfer, §5.1; from memory).
+// capacitance model, [IncroperaDeWitt] §5.1; from memory).
 var thermalLoop = system{
 	name:   "thermal",
 	states: []string{"T"},

@@ -357,9 +357,8 @@ func (s *solver) solve(dst, gh, b []float64, lam float64) bool {
 const seFloor = 1e-6
 
 // bootstrap refits at each equation's (taus[i], lams[i]) on B resamples
-// of the groups (drawn with
-// replacement) and returns each replicate's normalised coefficients
-// (reps[b][i][k]). Replicate b uses its own generator seeded from (seed,
+// of the groups (drawn with replacement) and returns each replicate's
+// normalised coefficients (reps[b][i][k]). Replicate b uses its own generator seeded from (seed,
 // b), so the result does not depend on scheduling.
 func (pr *problem) bootstrap(B int, seed uint64, taus, lams []float64) [][][]float64 {
 	p, n := pr.p, pr.n
