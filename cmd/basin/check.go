@@ -8,6 +8,8 @@ import (
 	"strings"
 	"text/tabwriter"
 
+	"basin.example/cmd/basin/internal/human"
+	"basin.example/cmd/basin/internal/report"
 	"basin.example/fit"
 	"basin.example/validate"
 )
@@ -40,7 +42,11 @@ inside the region V fell (within the certificate's noise tolerance);
 overall the decrease and invariance fractions, the worst violation, and
 the scenario bound on the chance that a new sample from the same envelope
 violates the decrease condition (counting only samples one decorrelation
-time apart). The verdict on these runs follows the same rules as 'run'.`,
+time apart). The verdict on these runs follows the same rules as 'run'.
+
+The exit status is 0 whatever the verdict, rejected included (status 1
+belongs to 'screen'): read the verdict line, or summary.verdict with
+--json. To stop a pipeline on a bad run, use 'basin screen'.`,
 }
 
 func init() { cmdCheck.Run = runCheck }
@@ -127,38 +133,43 @@ func runCheck(ctx context.Context, e *env, args []string) error {
 	if c.JSON {
 		return writeJSON(e.stdout, doc)
 	}
-	return checkTable(e, doc, ds.States[0].Name)
+	return checkTable(e, doc, cert)
 }
 
-func checkTable(e *env, doc *checkJSON, _ string) error {
+func checkTable(e *env, doc *checkJSON, cert *fit.Certificate) error {
 	tw := tabwriter.NewWriter(e.stdout, 0, 4, 2, ' ', 0)
-	fmt.Fprintln(tw, "run\tsamples\tstarts inside\tsettled\tpairs\tV fell\tflags")
-	for _, r := range doc.Runs {
-		fell := "-"
+	fmt.Fprintln(tw, "run\tsamples\tstarts inside\tsettled\tpairs inside\tV did not rise\tflags")
+	for i := range doc.Runs {
+		r := &doc.Runs[i]
+		kept := "-"
 		if r.Pairs > 0 {
-			fell = fmt.Sprintf("%.1f%%", 100*float64(r.Decreased)/float64(r.Pairs))
+			kept = human.Percent(float64(r.Decreased) / float64(r.Pairs))
 		}
 		var fl []string
 		for _, f := range r.Flags {
-			fl = append(fl, fmt.Sprintf("%s@%.4gs(+%.3g)", f.Kind, f.Time, f.Excess))
+			fl = append(fl, report.FlagText(cert, f, r))
 		}
-		flags := strings.Join(fl, " ")
+		flags := strings.Join(fl, "; ")
 		if flags == "" {
 			flags = "-"
 		}
-		fmt.Fprintf(tw, "%s\t%d\t%s\t%s\t%d\t%s\t%s\n", r.Run, r.Samples, checkYesNo(r.StartInside), checkYesNo(r.Settled), r.Pairs, fell, flags)
+		fmt.Fprintf(tw, "%s\t%d\t%s\t%s\t%d\t%s\t%s\n", printable(r.Run), r.Samples, checkYesNo(r.StartInside), checkYesNo(r.Settled), r.Pairs, kept, printable(flags))
 	}
 	if err := tw.Flush(); err != nil {
 		return err
 	}
 	v, s := doc.Validation, doc.Summary
 	w := e.stdout
-	fmt.Fprintf(w, "\n%d runs, %d flagged; %d started inside the region, %d of them settled\n", s.Runs, s.Flagged, s.StartedInside, s.Settled)
-	fmt.Fprintf(w, "decrease fraction %.4f over %d pairs; invariance fraction %.4f\n", v.DecreaseFraction, v.Pairs, v.InvarianceFraction)
+	fmt.Fprintf(w, "\n%s checked, %d flagged\n", human.Count(s.Runs, "run"), s.Flagged)
+	fmt.Fprintf(w, "%s\n", report.HeldoutText(cert, v))
 	if v.Worst != nil {
-		fmt.Fprintf(w, "worst violation: %s in %s at t = %.4g s, state %s, excess %.3g\n", v.Worst.Kind, v.Worst.Run, v.Worst.Time, checkVec(v.Worst.State), v.Worst.Excess)
+		fmt.Fprintf(w, "worst violation, in run %s at %s: %s\n", printable(v.Worst.Run), report.StatePoint(cert, v.Worst.State),
+			report.FlagText(cert, validate.Flag{Kind: v.Worst.Kind, Time: v.Worst.Time, Excess: v.Worst.Excess}, nil))
 	}
-	fmt.Fprintf(w, "scenario bound: P(violation) <= %.4g with confidence %.6g\n  (%s)\n", v.ViolationBound, v.Confidence, v.Note)
+	fmt.Fprintf(w, "scenario bound: %s\n", report.BoundText(v))
+	if v.Note != "" {
+		fmt.Fprintf(w, "  (%s)\n", v.Note)
+	}
 	fmt.Fprintf(w, "verdict on these runs: %s (strength %s): %s\n%s\n", s.Verdict, s.Strength, s.Reason, s.Caveat)
 	return nil
 }
@@ -168,12 +179,4 @@ func checkYesNo(b bool) string {
 		return "yes"
 	}
 	return "no"
-}
-
-func checkVec(x []float64) string {
-	p := make([]string, len(x))
-	for i, v := range x {
-		p[i] = fmt.Sprintf("%.4g", v)
-	}
-	return "(" + strings.Join(p, ", ") + ")"
 }

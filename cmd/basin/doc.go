@@ -107,8 +107,10 @@ runs. Flags: --model FILE (required), --out, --v-degree, --growth, --seed,
 	basin check --cert certificate.json [flags] INPUTS...
 
 Validates a certificate on runs it has not seen: per run, whether it starts
-inside, stays inside, settles, and on how many pairs V fell; overall the
-decrease and invariance fractions and the scenario bound.
+inside, stays inside, settles, and on how many pairs V did not rise beyond
+the noise tolerance; overall the decrease and invariance fractions and the
+scenario bound. The exit status is 0 whatever the verdict, rejected
+included (status 1 belongs to screen); the verdict is in the output.
 
 	--cert FILE         the certificate (required)
 	--min-decrease F    as for run (default 0.99)
@@ -128,8 +130,8 @@ flagged. Files are read one at a time per worker, so memory stays bounded
 however many are given.
 
 	--cert FILE         the certificate (required)
-	--tolerance V       tolerated rise of V between samples (default: the
-	                    certificate's)
+	--rise-tol DV       tolerated rise of V between samples (default: the
+	                    certificate's); --tolerance is a deprecated alias
 	--workers N         files screened at once (default: the CPUs)
 
 plus --quiet, --json and the flags of Reading logs except --manifest.

@@ -12,6 +12,7 @@ import (
 	"sync"
 	"text/tabwriter"
 
+	"basin.example/cmd/basin/internal/human"
 	"basin.example/fit"
 	"basin.example/ingest"
 	"basin.example/validate"
@@ -30,7 +31,8 @@ func (f *screenFlags) register(fs *flag.FlagSet) {
 	f.inputFlags.register(fs, false) // every run given is screened: no manifest
 	f.outputFlags.register(fs)
 	fs.StringVar(&f.Cert, "cert", "", "the certificate `FILE` (certificate.json)")
-	fs.Float64Var(&f.Tolerance, "tolerance", 0, "tolerance on a rise of V between samples, in units of `V` (default: the certificate's)")
+	fs.Float64Var(&f.Tolerance, "rise-tol", 0, "tolerated rise of V between samples `DV` (0: the certificate's)")
+	fs.Float64Var(&f.Tolerance, "tolerance", 0, "deprecated: the old name of --rise-tol")
 	fs.IntVar(&f.Workers, "workers", 0, "files screened at once `N` (default: the number of CPUs)")
 }
 
@@ -104,7 +106,7 @@ func runScreen(ctx context.Context, e *env, args []string) error {
 		return err
 	}
 	if !(c.Tolerance >= 0) || math.IsInf(c.Tolerance, 0) { // NaN fails the first test
-		return usagef("--tolerance must not be negative, got %g", c.Tolerance)
+		return usagef("--rise-tol must be a finite number >= 0, got %g", c.Tolerance)
 	}
 	if c.Workers < 0 || c.Workers > 1024 {
 		return usagef("--workers must be 0..1024, got %d", c.Workers)
@@ -282,7 +284,7 @@ func screenOne(ctx context.Context, s *validate.Screener, cert *fit.Certificate,
 // screenTable prints the runs in input order, then a summary line.
 func screenTable(w io.Writer, out *screenJSON) error {
 	tw := tabwriter.NewWriter(w, 0, 8, 2, ' ', 0)
-	fmt.Fprintln(tw, "run\tfile\tsamples\tverdict\tdecay 1/s\tflags (kind at time s: worst excess in V; past the boundary in state units)")
+	fmt.Fprintln(tw, "run\tfile\tsamples\tverdict\tdecay 1/s\tflags")
 	for _, r := range out.Runs {
 		verdict := "ok"
 		switch {
@@ -297,7 +299,7 @@ func screenTable(w io.Writer, out *screenJSON) error {
 		}
 		rate := "-"
 		if r.DecaySamples > 0 {
-			rate = fmt.Sprintf("%.3g", r.DecayRate)
+			rate = human.Sig(r.DecayRate, 3)
 		}
 		fmt.Fprintf(tw, "%s\t%s\t%d\t%s\t%s\t%s\n", printable(r.Run), printable(r.File), r.Samples, verdict, rate, strings.Join(fl, "; "))
 	}
@@ -320,9 +322,19 @@ func screenTable(w io.Writer, out *screenJSON) error {
 // and leaves, the distance per state with its unit.
 func flagText(f validate.Flag, states []screenState) string {
 	if f.Kind == validate.FlagSlow {
-		return fmt.Sprintf("%s: decay rate %.3g 1/s below the bound", f.Kind, f.Excess) // Excess is bound - rate
+		return fmt.Sprintf("%s: decay rate of V %s 1/s below the bound", f.Kind, human.Sig(f.Excess, 3)) // Excess is bound - rate
 	}
-	t := fmt.Sprintf("%s at %.4g: %.3g", f.Kind, f.Time, f.Excess)
+	var t string
+	switch f.Kind {
+	case validate.FlagRises:
+		t = fmt.Sprintf("rises at %s s: V up %s more than the tolerance", human.Num(f.Time), human.Sig(f.Excess, 3))
+	case validate.FlagLeaves:
+		t = fmt.Sprintf("leaves at %s s: V %s above the region's level", human.Num(f.Time), human.Sig(f.Excess, 3))
+	case validate.FlagUnsettled:
+		t = fmt.Sprintf("unsettled at the end, %s s: V %s above settled", human.Num(f.Time), human.Sig(f.Excess, 3))
+	default:
+		t = fmt.Sprintf("%s at %s s: %s in V", f.Kind, human.Num(f.Time), human.Sig(f.Excess, 3))
+	}
 	var d []string
 	for j, x := range f.Distance {
 		if x == 0 || j >= len(states) {
@@ -332,10 +344,12 @@ func flagText(f validate.Flag, states []screenState) string {
 		if states[j].Unit != "" {
 			u = " " + states[j].Unit
 		}
-		d = append(d, fmt.Sprintf("%s %.3g%s", printable(states[j].Name), x, u))
+		d = append(d, fmt.Sprintf("%s %s%s", printable(states[j].Name), human.Sig(x, 3), u))
 	}
-	if len(d) > 0 {
-		t += " (" + strings.Join(d, ", ") + ")"
+	if len(d) > 0 && f.Kind == validate.FlagRises {
+		t += ", as much as a move of " + strings.Join(d, ", ")
+	} else if len(d) > 0 {
+		t += ", past the boundary by " + strings.Join(d, ", ")
 	}
 	return t
 }

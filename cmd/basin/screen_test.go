@@ -115,7 +115,8 @@ func TestScreenBadInput(t *testing.T) {
 		{"wrong columns", []string{"screen", "--cert", cert, other}, "other.csv"},
 		{"missing file", []string{"screen", "--cert", cert, filepath.Join(dir, "nope.csv")}, "nope.csv"},
 		{"bad cert", []string{"screen", "--cert", writeTestCert(t, `{"format": "basin.model/1"}`), good}, "certificate.json"},
-		{"negative tolerance", []string{"screen", "--cert", cert, "--tolerance", "-1", good}, "--tolerance"},
+		{"negative tolerance", []string{"screen", "--cert", cert, "--rise-tol", "-1", good}, "--rise-tol"},
+		{"negative tolerance, deprecated name", []string{"screen", "--cert", cert, "--tolerance", "-1", good}, "--rise-tol"},
 		{"states count", []string{"screen", "--cert", cert, "--states", "pitch", good}, "--states names 1 states"},
 	}
 	for _, tc := range cases {

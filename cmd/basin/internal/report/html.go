@@ -298,11 +298,12 @@ func valRows(v *fit.Validation) []valRow {
 	exact := func(x float64) string { return strconv.FormatFloat(x, 'g', -1, 64) }
 	count := func(n int) string { return strconv.Itoa(n) }
 	decreased := int(math.Round(v.DecreaseFraction * float64(v.Pairs)))
-	stayed := int(math.Round(v.InvarianceFraction * float64(v.StartInside)))
-	inv := human.Share(stayed, v.StartInside, "run")
-	settled := fmt.Sprintf("%d of %d", v.Settled, v.StartInside)
-	if v.StartInside == 0 {
-		inv, settled = "no run started inside", "no run started inside"
+	base, how := checkedRuns(v)
+	stayed := int(math.Round(v.InvarianceFraction * float64(base)))
+	inv := human.Share(stayed, base, "run")
+	settled := fmt.Sprintf("%d of %d", v.Settled, base)
+	if base == 0 {
+		inv, settled = "no run entered the region", "no run entered the region"
 	}
 	dec := human.Share(decreased, v.Pairs, "pair")
 	if v.Pairs == 0 {
@@ -313,8 +314,9 @@ func valRows(v *fit.Validation) []valRow {
 		{"pairs", "consecutive sample pairs inside the region", exact(float64(v.Pairs)), count(v.Pairs)},
 		{"decrease_fraction", "of those, pairs where V did not rise beyond the noise tolerance", exact(v.DecreaseFraction), dec},
 		{"runs_started_inside", "held-out runs that started inside the region", exact(float64(v.StartInside)), count(v.StartInside)},
-		{"invariance_fraction", "of those, runs that stayed inside", exact(v.InvarianceFraction), inv},
-		{"runs_settled", "of those, runs that settled", exact(float64(v.Settled)), settled},
+		{"entered_runs", "held-out runs that entered the region (each checked from its first sample inside)", exact(float64(v.EnteredRuns)), count(v.EnteredRuns)},
+		{"invariance_fraction", "of the runs that " + how + ", those that stayed inside", exact(v.InvarianceFraction), inv},
+		{"runs_settled", "of the runs that " + how + ", those that settled", exact(float64(v.Settled)), settled},
 		{"violation_bound", "scenario bound: chance that a new sample inside the region breaks the decrease, at most", exact(v.ViolationBound), boundPercent(v.ViolationBound)},
 		{"confidence", "confidence of that bound", exact(v.Confidence), human.Confidence(v.Confidence)},
 		{"scenario_samples", "effectively independent samples the bound rests on", exact(float64(v.ScenarioSamples)),

@@ -102,8 +102,19 @@ func Summary(w io.Writer, in *Input) error {
 	return err
 }
 
-// statePoint writes x as "theta = 0.1 rad, omega = 0 rad/s", each
-// coordinate to a thousandth of its state's scale.
+// StatePoint writes x as "theta = 0.1 rad, omega = 0 rad/s", each
+// coordinate to a thousandth of its state's scale in the certificate c.
+func StatePoint(c *fit.Certificate, x []float64) string { return statePoint(c, x) }
+
+// HeldoutText describes held-out figures v of the certificate c in one
+// sentence: the runs, the share of pairs where V did not rise, and what
+// the runs that started inside did (or what to record when none did).
+func HeldoutText(c *fit.Certificate, v *fit.Validation) string { return heldoutText(c, v) }
+
+// BoundText states the scenario bound of v with its confidence and what
+// it rests on.
+func BoundText(v *fit.Validation) string { return boundText(v) }
+
 func statePoint(c *fit.Certificate, x []float64) string {
 	var b strings.Builder
 	for j, s := range c.States {
@@ -178,17 +189,31 @@ func heldoutText(c *fit.Certificate, v *fit.Validation) string {
 	} else {
 		b.WriteString("; no held-out sample pair lay inside the region")
 	}
+	base, how := checkedRuns(v)
 	switch {
-	case v.StartInside == 0 && len(c.Region.Extent) == len(c.States):
-		fmt.Fprintf(&b, "; no run started inside the region, so none could show that it stays inside: record held-out runs that start within %s", stateRanges(c))
-	case v.StartInside == 0:
-		b.WriteString("; no run started inside the region")
+	case base == 0 && len(c.Region.Extent) == len(c.States):
+		fmt.Fprintf(&b, "; no run entered the region, so none could show that it stays inside: record held-out runs that start or pass within %s", stateRanges(c))
+	case base == 0:
+		b.WriteString("; no run entered the region")
 	default:
-		stayed := int(math.Round(v.InvarianceFraction * float64(v.StartInside)))
-		fmt.Fprintf(&b, "; of the %s that started inside, %d stayed inside and %d settled",
-			human.Count(v.StartInside, "run"), stayed, v.Settled)
+		stayed := int(math.Round(v.InvarianceFraction * float64(base)))
+		fmt.Fprintf(&b, "; of the %s that %s, %d stayed inside and %d settled", human.Count(base, "run"), how, stayed, v.Settled)
+		if how == "entered the region" && v.StartInside > 0 {
+			fmt.Fprintf(&b, " (%d started inside)", v.StartInside)
+		}
 	}
 	return b.String()
+}
+
+// checkedRuns is how many held-out runs the invariance and settling
+// figures are over, and how they qualified: the runs that entered the
+// region (checked from their first sample inside), or, in certificates
+// written before entered_runs existed, the runs that started inside.
+func checkedRuns(v *fit.Validation) (int, string) {
+	if v.EnteredRuns == 0 && v.StartInside > 0 {
+		return v.StartInside, "started inside"
+	}
+	return v.EnteredRuns, "entered the region"
 }
 
 // boundText states the scenario bound as a probability with its

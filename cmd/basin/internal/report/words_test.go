@@ -82,13 +82,13 @@ func TestWords(t *testing.T) {
 			}
 		}
 		if name == "one run, none inside" {
-			for _, want := range []string{"held-out: 1 run;", "no run started inside the region", "record held-out runs that start within theta",
+			for _, want := range []string{"held-out: 1 run;", "no run entered the region", "record held-out runs that start or pass within theta",
 				"equilibrium: theta = 0 rad, omega = 0 rad/s", "V(z) = 1.5 z_theta^2 + 1 z_theta z_omega + 1 z_omega^2\n  (2 terms below"} {
 				if !strings.Contains(sum.String(), want) {
 					t.Errorf("summary lacks %q:\n%s", want, sum.String())
 				}
 			}
-			for _, want := range []string{"no run started inside", "theta rad 0 1", "omega rad/s 0 1", "Left out here: 2 more terms of V"} {
+			for _, want := range []string{"no run entered the region", "theta rad 0 1", "omega rad/s 0 1", "Left out here: 2 more terms of V"} {
 				if !strings.Contains(strings.Join(strings.Fields(page), " "), want) {
 					t.Errorf("page lacks %q", want)
 				}
