@@ -40,6 +40,10 @@ type FieldOptions struct {
 	// SkipShort skips runs shorter than the derivative window instead of
 	// failing; false means such a run is an error.
 	SkipShort bool
+	// MaxMemory is the memory budget in bytes, checked in closed form
+	// before the library is built (see [FieldMemory]); 0 means
+	// DefaultMaxMemory.
+	MaxMemory int64
 }
 
 // DefaultDerivative is the derivative method used when
@@ -208,8 +212,6 @@ func Field(ctx context.Context, ds *ingest.Dataset, opts *FieldOptions) (*Model,
 		}
 		runs = append(runs, r)
 	}
-	lib := poly.NewLibrary(n, 0, o.Degree)
-	p := lib.Len()
 	samples := 0
 	for _, r := range runs {
 		samples += r.Len()
@@ -217,6 +219,11 @@ func Field(ctx context.Context, ds *ingest.Dataset, opts *FieldOptions) (*Model,
 	if samples == 0 {
 		return nil, errorf(ErrTooFewSamples, "no usable samples: every cell missing, or no runs")
 	}
+	if err := o.checkBudget(n+len(ds.Inputs), samples, len(runs)); err != nil {
+		return nil, err
+	}
+	lib := poly.NewLibrary(n, 0, o.Degree)
+	p := lib.Len()
 
 	m := &Model{Format: ModelFormat, States: names, Units: make([]string, n), Degree: o.Degree,
 		Derivative: o.Derivative, Runs: len(runs), Samples: samples}

@@ -18,6 +18,7 @@ type certifyFlags struct {
 	inputFlags
 	outputFlags
 	certFlags
+	memFlags
 	Model string
 	Out   string
 	Seed  uint64
@@ -27,6 +28,7 @@ func (f *certifyFlags) register(fs *flag.FlagSet) {
 	f.inputFlags.register(fs, true)
 	f.outputFlags.register(fs)
 	f.certFlags.register(fs)
+	f.memFlags.register(fs)
 	fs.StringVar(&f.Model, "model", "", "the fitted model `FILE` (model.json from basin fit)")
 	registerOut(fs, &f.Out, defaultOut, "write certificate.json into `DIR`")
 	registerSeed(fs, &f.Seed)
@@ -70,6 +72,9 @@ func runCertify(ctx context.Context, e *env, args []string) error {
 	}
 	m, err := readModelFile(f.Model)
 	if err != nil {
+		return err
+	}
+	if err := f.checkV(len(m.States), f.VDegree); err != nil {
 		return err
 	}
 	ds, err := loadInputs(ctx, e, &f.inputFlags, f.Quiet, args)

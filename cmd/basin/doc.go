@@ -60,6 +60,10 @@ prints the summary. The same input and --seed give byte-identical outputs.
 	--deriv METHOD      auto (default: each method tried, the least held-out
 	                    error kept), savitzky-golay, fornberg or integral
 	--bootstrap N       bootstrap refits over runs, 0 for none (default 100)
+	--max-memory SIZE   memory budget of the field fit and of the
+	                    certificate's LP, as 512MiB or 8GiB, checked in
+	                    closed form before either is built; over it, basin
+	                    stops at once with one line (default 2GiB)
 	--v-degree N        certificate degree, even, 2..8 (default 2)
 	--growth N          region growth rounds, 1..100 (default 8)
 	--folds K           held-out folds by run, 2..100 (default 5)
@@ -89,7 +93,7 @@ the runs settle on. Flags: those of Reading logs, --quiet and --json.
 
 Fits the vector field only, on the runs a manifest does not hold out, and
 writes DIR/model.json. Flags: --out, --degree, --select-folds, --deriv,
---bootstrap, --seed, --quiet and --json as for run, and those of
+--bootstrap, --max-memory, --seed, --quiet and --json as for run, and those of
 Reading logs.
 
 # basin certify
@@ -99,8 +103,9 @@ Reading logs.
 Fits a Lyapunov function V for the model's primary equilibrium and the
 largest level set on which it falls, and writes DIR/certificate.json; the
 verdict stays inconclusive until the certificate is checked on held-out
-runs. Flags: --model FILE (required), --out, --v-degree, --growth, --seed,
---quiet and --json as for run, and those of Reading logs.
+runs. Flags: --model FILE (required), --out, --v-degree, --growth,
+--max-memory, --seed, --quiet and --json as for run, and those of
+Reading logs.
 
 # basin check
 

@@ -37,7 +37,7 @@ func usagef(format string, a ...any) error { return &usageError{fmt.Sprintf(form
 // files or options, not failures of basin: they exit 2.
 var badInput = []error{
 	ingest.ErrEmpty, ingest.ErrFormat, ingest.ErrNoFiles, ingest.ErrNoTime, ingest.ErrNoStates,
-	fit.ErrTooFewSamples, fit.ErrConstant, fit.ErrCollinear, fit.ErrShortRun, fit.ErrMismatch, fit.ErrOptions,
+	fit.ErrTooFewSamples, fit.ErrBudget, fit.ErrConstant, fit.ErrCollinear, fit.ErrShortRun, fit.ErrMismatch, fit.ErrOptions,
 	validate.ErrOptions, export.ErrNoV,
 }
 
@@ -48,12 +48,14 @@ var optionFlags = strings.NewReplacer(
 	"ingest.Options.States", "--states", "ingest.Options.Manifest", "--manifest",
 	"fit.FieldOptions.Degree", "--degree", "fit.FieldOptions.Folds", "--select-folds",
 	"fit.FieldOptions.Derivative", "--deriv", "fit.FieldOptions.Bootstrap", "--bootstrap",
+	"fit.FieldOptions.MaxMemory", "--max-memory",
 	"fit.CertifyOptions.Degree", "--v-degree", "fit.CertifyOptions.Growth", "--growth",
 	"validate.Options.Folds", "--folds", "validate.Options.Beta", "--beta", "validate.Options.MinDecrease", "--min-decrease",
 	"Options.TimeCol", "--time-col", "Options.Rate", "--rate", "Options.RunCol", "--run-col",
 	"Options.States", "--states", "Options.Manifest", "--manifest",
 	"FieldOptions.Degree", "--degree", "FieldOptions.Folds", "--select-folds",
 	"FieldOptions.Derivative", "--deriv", "FieldOptions.Bootstrap", "--bootstrap",
+	"FieldOptions.MaxMemory", "--max-memory",
 	"CertifyOptions.Degree", "--v-degree", "CertifyOptions.Growth", "--growth",
 )
 

@@ -19,6 +19,7 @@ type fitFlags struct {
 	inputFlags
 	outputFlags
 	fieldFlags
+	memFlags
 	Out  string
 	Seed uint64
 }
@@ -27,6 +28,7 @@ func (f *fitFlags) register(fs *flag.FlagSet) {
 	f.inputFlags.register(fs, true)
 	f.outputFlags.register(fs)
 	f.fieldFlags.register(fs)
+	f.memFlags.register(fs)
 	registerOut(fs, &f.Out, defaultOut, "write model.json into `DIR`")
 	registerSeed(fs, &f.Seed)
 }
@@ -57,7 +59,7 @@ func runFit(ctx context.Context, e *env, args []string) error {
 	if err := checkOut(f.Out, args); err != nil {
 		return err
 	}
-	opts, err := f.fieldFlags.options(f.Seed)
+	opts, err := f.fieldFlags.options(f.Seed, &f.memFlags)
 	if err != nil {
 		return err
 	}

@@ -2,6 +2,9 @@ package main
 
 import (
 	"flag"
+	"fmt"
+	"math"
+	"strconv"
 	"strings"
 
 	"basin.example/fit"
@@ -90,6 +93,29 @@ type fieldFlags struct {
 	Bootstrap   int
 }
 
+// memFlags hold the memory budget (fit, certify and run).
+type memFlags struct {
+	MaxMemory byteSize
+}
+
+func (f *memFlags) register(fs *flag.FlagSet) {
+	f.MaxMemory = fit.DefaultMaxMemory
+	fs.Var(&f.MaxMemory, "max-memory", "memory budget `SIZE` (as 512MiB, 8GiB), checked in closed form before the work")
+}
+
+// checkV refuses, before any allocation, a certificate whose V family in
+// n states is too large for the memory budget: the LP holds about
+// certLPRows rows of its terms.
+func (f *memFlags) checkV(n, degree int) error {
+	terms := fit.LibraryTerms(n, degree) - 1 - float64(n) // degrees 2..D
+	const certLPRows = 8000
+	if need := 8 * terms * (certLPRows + terms); need > float64(f.MaxMemory) {
+		return &inputError{fmt.Errorf("V of degree %d in %d states has %.4g terms; its LP would need about %.3g GiB, over the budget of %s; lower --v-degree or raise --max-memory",
+			degree, n, terms, need/(1<<30), f.MaxMemory.String())}
+	}
+	return nil
+}
+
 func (f *fieldFlags) register(fs *flag.FlagSet) {
 	fs.IntVar(&f.Degree, "degree", defaultDegree, "field library degree `N`")
 	fs.IntVar(&f.SelectFolds, "select-folds", defaultSelect, "folds `K` over the fit runs that choose the sparsity threshold")
@@ -98,7 +124,7 @@ func (f *fieldFlags) register(fs *flag.FlagSet) {
 }
 
 // options turns the flags into fit options.
-func (f *fieldFlags) options(seed uint64) (*fit.FieldOptions, error) {
+func (f *fieldFlags) options(seed uint64, mem *memFlags) (*fit.FieldOptions, error) {
 	switch {
 	case f.Degree < 1 || f.Degree > 8:
 		return nil, usagef("--degree must be 1..8, got %d", f.Degree)
@@ -117,7 +143,8 @@ func (f *fieldFlags) options(seed uint64) (*fit.FieldOptions, error) {
 	if b == 0 {
 		b = -1
 	}
-	return &fit.FieldOptions{Degree: f.Degree, Folds: f.SelectFolds, Seed: seed, Derivative: f.Deriv, Bootstrap: b}, nil
+	return &fit.FieldOptions{Degree: f.Degree, Folds: f.SelectFolds, Seed: seed, Derivative: f.Deriv, Bootstrap: b,
+		MaxMemory: int64(mem.MaxMemory)}, nil
 }
 
 // certFlags set the certificate fit (certify and run).
@@ -155,5 +182,34 @@ func needInputs(args []string) error {
 	if len(args) == 0 {
 		return usagef("no INPUTS given (files, directories or -)")
 	}
+	return nil
+}
+
+// byteSize is a flag value of bytes, written with an optional binary unit:
+// 1500, 64KiB, 512MiB, 8GiB, 1TiB (K, M, G, T mean the same).
+type byteSize int64
+
+func (b *byteSize) String() string {
+	v := int64(*b)
+	for _, u := range []struct {
+		s string
+		n int64
+	}{{"TiB", 1 << 40}, {"GiB", 1 << 30}, {"MiB", 1 << 20}, {"KiB", 1 << 10}} {
+		if v >= u.n && v%u.n == 0 {
+			return strconv.FormatInt(v/u.n, 10) + u.s
+		}
+	}
+	return strconv.FormatInt(v, 10)
+}
+
+func (b *byteSize) Set(s string) error {
+	num := strings.TrimRight(s, "BbIiKkMmGgTt")
+	unit := strings.ToUpper(strings.TrimSuffix(strings.TrimSuffix(s[len(num):], "B"), "b"))
+	mult := map[string]float64{"": 1, "K": 1 << 10, "KI": 1 << 10, "M": 1 << 20, "MI": 1 << 20, "G": 1 << 30, "GI": 1 << 30, "T": 1 << 40, "TI": 1 << 40}[unit]
+	v, err := strconv.ParseFloat(strings.TrimSpace(num), 64)
+	if err != nil || mult == 0 || !(v > 0) || v*mult > math.MaxInt64/2 || strings.ContainsAny(num, "_xXpP") {
+		return fmt.Errorf("not a size such as 512MiB or 8GiB")
+	}
+	*b = byteSize(v * mult)
 	return nil
 }

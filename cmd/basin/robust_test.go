@@ -99,3 +99,60 @@ func TestDemoLeavesForeignFiles(t *testing.T) {
 		}
 	}
 }
+
+// writeWide writes a CSV of cols random columns and rows rows.
+func writeWide(t *testing.T, path string, cols, rows int) {
+	t.Helper()
+	var b strings.Builder
+	b.WriteString("t")
+	for j := range cols {
+		b.WriteString(",x" + ftoa(float64(j)))
+	}
+	b.WriteString("\n")
+	v := 0.1
+	for i := range rows {
+		b.WriteString(ftoa(0.01 * float64(i)))
+		for range cols {
+			v = 4 * v * (1 - v) // logistic map: deterministic, not constant
+			b.WriteString("," + ftoa(v))
+		}
+		b.WriteString("\n")
+	}
+	if err := os.WriteFile(path, []byte(b.String()), 0o644); err != nil {
+		t.Fatal(err)
+	}
+}
+
+// TestMemoryBudget: a wide file with few rows, and a fit over the budget,
+// stop at once with one line that says the budget and the flag raising
+// it; the V family's size is checked the same way.
+func TestMemoryBudget(t *testing.T) {
+	dir := t.TempDir()
+	wide := filepath.Join(dir, "wide.csv")
+	writeWide(t, wide, 200, 50)
+	out := filepath.Join(dir, "out")
+	for _, cmd := range []string{"run", "fit"} {
+		if code, msg := run1(t, cmd, "--out", out, wide); code != 2 || !strings.Contains(msg, "too few samples") && !strings.Contains(msg, "over the budget") {
+			t.Errorf("%s on 200 columns x 50 rows: exit %d %q", cmd, code, msg)
+		}
+	}
+	logs := filepath.Join(dir, "logs")
+	os.Mkdir(logs, 0o755)
+	writeOscillator(t, logs, 6, false)
+	code, msg := run1(t, "fit", "--max-memory", "1KiB", "--out", out, logs)
+	if code != 2 || !strings.Contains(msg, "over the budget of 1 KiB") || !strings.Contains(msg, "--max-memory") {
+		t.Errorf("1 KiB budget: exit %d %q", code, msg)
+	}
+	for _, bad := range []string{"0", "-1GiB", "lots", "1_000", "0x10", "NaN", "8PiB"} {
+		if code, msg := run1(t, "fit", "--max-memory", bad, "--out", out, logs); code != 2 || !strings.Contains(msg, "max-memory") {
+			t.Errorf("--max-memory %s: exit %d %q", bad, code, msg)
+		}
+	}
+	m := &memFlags{MaxMemory: 2 << 30}
+	if err := m.checkV(40, 8); err == nil || !strings.Contains(err.Error(), "--v-degree") {
+		t.Errorf("V of degree 8 in 40 states: %v", err)
+	}
+	if err := m.checkV(2, 8); err != nil {
+		t.Errorf("V of degree 8 in 2 states: %v", err)
+	}
+}

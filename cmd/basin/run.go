@@ -22,6 +22,7 @@ type runFlags struct {
 	outputFlags
 	fieldFlags
 	certFlags
+	memFlags
 	Out         string
 	Seed        uint64
 	Folds       int
@@ -36,6 +37,7 @@ func (f *runFlags) register(fs *flag.FlagSet) {
 	f.outputFlags.register(fs)
 	f.fieldFlags.register(fs)
 	f.certFlags.register(fs)
+	f.memFlags.register(fs)
 	registerOut(fs, &f.Out, defaultOut, "write the outputs into `DIR`")
 	registerSeed(fs, &f.Seed)
 	fs.IntVar(&f.Folds, "folds", defaultFolds, "held-out folds `K`, by run: about one run in K is held out")
@@ -67,7 +69,7 @@ func init() { cmdRun.Run = runRun }
 
 // options turns the flags into validate options.
 func (f *runFlags) options() (*validate.Options, error) {
-	fo, err := f.fieldFlags.options(f.Seed)
+	fo, err := f.fieldFlags.options(f.Seed, &f.memFlags)
 	if err != nil {
 		return nil, err
 	}
@@ -158,6 +160,9 @@ func runRun(ctx context.Context, e *env, args []string) error {
 	prog.Stage("reading logs")
 	ds, err := loadInputs(ctx, e, &c.inputFlags, c.Quiet, args)
 	if err != nil {
+		return err
+	}
+	if err := c.checkV(len(ds.States), c.VDegree); err != nil {
 		return err
 	}
 	plane, err := c.plane(ds.States)
