@@ -69,7 +69,7 @@ func ones(n int) []float64 {
 }
 
 // TestDecayRateLinear checks the decay rate against linear systems
-// theory (from memory; any linear systems textbook): for x' = A x and V =
+// theory [LinearDecay] (from memory; any linear systems textbook): for x' = A x and V =
 // |x|^2 with A normal, d/dt log V = 2 x'Ax/x'x lies between 2 min Re(λ)
 // and 2 max Re(λ), so its least-squares slope over time (a positively
 // weighted mean of the derivative) does too: the rate, minus the slope,

@@ -720,3 +720,44 @@ func clampFinite(v float64) float64 {
 	}
 	return v
 }
+
+// Rules are the constants of a Screener's rules, for writing the same
+// screening in another language (see package fit/export's SQL).
+type Rules struct {
+	// N is the number of states; Eq and Inv give z_j = (x_j - Eq[j])·Inv[j].
+	N       int
+	Eq, Inv []float64
+	// Level is the region's level (-Inf: the region is empty); a sample
+	// is inside when it lies in [Lo, Hi] (per state, ±Inf when unbounded)
+	// and V <= Level. After entering, it has left when V > LeaveLevel or
+	// it lies outside [LoWide, HiWide].
+	Level, LeaveLevel      float64
+	Lo, Hi, LoWide, HiWide []float64
+	// Tolerance on a rise of V between consecutive samples; NoiseR2 the
+	// noise ball's squared radius in z; Settle the largest V on the ball.
+	Tolerance, NoiseR2, Settle float64
+	// Quad says V is evaluated as a quadratic form with P (N×N, row-major,
+	// symmetric), Q and R; TwoState that the two-state kernel is used:
+	// z0·(P00·z0 + 2P01·z1 + Q0) + z1·(P11·z1 + Q1) + R. Otherwise V is
+	// evaluated term by term as [poly.Poly.Eval] does.
+	Quad, TwoState bool
+	P, Q           []float64
+	R              float64
+	// SlowBound is the decay rate below which a run is slow (0: no slow
+	// flag); DecayMinSamples the samples a rate needs.
+	SlowBound       float64
+	DecayMinSamples int
+	// TailMax and TailShare fix the samples w averaged at each end of a
+	// run of m samples: w = min(max(m/TailShare, 1), TailMax).
+	TailMax, TailShare int
+}
+
+// Rules returns the constants of s's rules. The slices are copies.
+func (s *Screener) Rules() Rules {
+	c := func(x []float64) []float64 { return append([]float64(nil), x...) }
+	return Rules{N: s.n, Eq: c(s.eq), Inv: c(s.inv), Level: s.level, LeaveLevel: s.level + s.tol,
+		Lo: c(s.lo), Hi: c(s.hi), LoWide: c(s.loW), HiWide: c(s.hiW),
+		Tolerance: s.tol, NoiseR2: s.r2, Settle: s.settle,
+		Quad: s.quad, TwoState: s.quad && s.n == 2 && !s.generic, P: c(s.p), Q: c(s.q), R: s.r,
+		SlowBound: s.slowBound, DecayMinSamples: DecayMinSamples, TailMax: tailMax, TailShare: tailShare}
+}

@@ -130,9 +130,12 @@ plus --quiet, --json and the flags of Reading logs.
 	basin screen --cert certificate.json [flags] INPUTS...
 
 Flags runs whose V rises (rises), that leave the region after entering it
-(leaves), or that do not settle (unsettled); exit status 1 when any run is
-flagged. Files are read one at a time per worker, so memory stays bounded
-however many are given.
+by more than the noise (leaves), that do not settle (unsettled), or whose
+V decays below half the slowest held-out run's rate (slow; only with a
+certificate that records the held-out decay rates); exit status 1 when any
+run is flagged. Rises and leaves say how far past the boundary, per state
+in the states' units; every run reports its decay rate. Files are read one
+at a time per worker, so memory stays bounded however many are given.
 
 	--cert FILE         the certificate (required)
 	--rise-tol DV       tolerated rise of V between samples (default: the
@@ -143,15 +146,20 @@ plus --quiet, --json and the flags of Reading logs except --manifest.
 
 # basin export
 
-	basin export --cert certificate.json --lang go|c|python
+	basin export --cert certificate.json --lang go|c|python|sql [--table NAME]
 
 Prints a dependency-free function that evaluates V in the logs' units and
-tests membership of the region, for a monitor on the rig.
+tests membership of the region, for a monitor on the rig; with --lang sql,
+one standard-SQL query that screens the runs of a table (columns run, t and
+one per state) by the rules and tolerances of basin screen, one row per
+run.
 
 	--cert FILE         the certificate (required)
-	--lang LANG         go, c or python (required)
+	--lang LANG         go, c, python or sql (required)
 	--package NAME      the Go package (default basinv)
 	--prefix PREFIX     the C identifier prefix (default basin_)
+	--table NAME        the SQL table (default samples; one to three
+	                    identifiers joined by dots)
 	--quiet             no warnings
 
 # basin demo

@@ -17,20 +17,22 @@ type exportFlags struct {
 	Lang    string
 	Package string
 	Prefix  string
+	Table   string
 	Quiet   bool
 }
 
 func (f *exportFlags) register(fs *flag.FlagSet) {
 	fs.StringVar(&f.Cert, "cert", "", "the certificate `FILE` (certificate.json)")
-	fs.StringVar(&f.Lang, "lang", "", "target `LANG`: go, c or python")
+	fs.StringVar(&f.Lang, "lang", "", "target `LANG`: go, c, python or sql")
 	fs.StringVar(&f.Package, "package", "", "Go package `NAME` (default basinv)")
 	fs.StringVar(&f.Prefix, "prefix", "", "C identifier `PREFIX` (default basin_)")
+	fs.StringVar(&f.Table, "table", "", "SQL table `NAME` the query reads (default samples; letters, digits, _, parts joined by dots)")
 	fs.BoolVar(&f.Quiet, "quiet", false, "no warnings")
 }
 
 var cmdExport = &command{
-	UsageLine: "basin export --cert certificate.json --lang go|c|python",
-	Short:     "write a dependency-free function that evaluates V",
+	UsageLine: "basin export --cert certificate.json --lang go|c|python|sql [--table NAME]",
+	Short:     "write a dependency-free function that evaluates V, or the screening rule as SQL",
 	Long: `Writes, on standard output, a small function with no dependencies that
 evaluates the certificate's Lyapunov function V at a state vector in the
 logs' original units (the scaling z = (x - equilibrium)/scale is built in)
@@ -38,6 +40,17 @@ and tests membership of the region: V <= level and inside the box. The
 constants are printed to full precision and the arithmetic follows basin's
 own order, so the result matches basin's to the last bit on IEEE 754
 machines (compile C without -ffast-math or FMA contraction).
+
+With --lang sql it writes one query in standard SQL that screens the
+samples of a table (default samples; --table NAME) by the rules and
+tolerances of basin screen: the table has columns run, t and one column
+per state named as in the certificate, and the query returns one row per
+run with the booleans flagged, rises, leaves, unsettled and, when the
+certificate records held-out decay rates, slow. It uses window functions
+over PARTITION BY run ORDER BY t and no vendor functions, so it runs on
+PostgreSQL, SQLite and engines that follow the standard, distributed ones
+included (the work partitions by run). Identifiers are quoted, so names
+match exactly, case included.
 
 A certificate that is not certified still exports, with a warning in the
 code and on standard error: its region claims nothing.`,
@@ -60,18 +73,21 @@ func runExport(ctx context.Context, e *env, args []string) error {
 		return usagef("--cert FILE is required")
 	}
 	switch c.Lang {
-	case export.Go, export.C, export.Python:
+	case export.Go, export.C, export.Python, export.SQL:
 	case "":
-		return usagef("--lang is required: go, c or python")
+		return usagef("--lang is required: go, c, python or sql")
 	default:
-		return usagef("--lang must be go, c or python, got %q", c.Lang)
+		return usagef("--lang must be go, c, python or sql, got %q", c.Lang)
+	}
+	if c.Table != "" && c.Lang != export.SQL {
+		return usagef("--table applies to --lang sql only")
 	}
 	cert, err := certFromFile(c.Cert)
 	if err != nil {
 		return err
 	}
 	var b bytes.Buffer
-	err = export.Write(&b, cert, c.Lang, &export.Options{Package: c.Package, Prefix: c.Prefix})
+	err = export.Write(&b, cert, c.Lang, &export.Options{Package: c.Package, Prefix: c.Prefix, Table: c.Table})
 	switch {
 	case errors.Is(err, export.ErrName):
 		return usagef("%v", err)
@@ -80,6 +96,9 @@ func runExport(ctx context.Context, e *env, args []string) error {
 	}
 	if cert.Verdict != fit.Certified {
 		warnf(e, c.Quiet, "%s: verdict is %s; the exported region claims nothing", c.Cert, cert.Verdict)
+	}
+	if v := cert.Validation; c.Lang == export.SQL && (v == nil || v.Decay == nil || !(v.Decay.LowerBound > 0)) {
+		warnf(e, c.Quiet, "%s: no held-out decay rates recorded; the query is without the slow column", c.Cert)
 	}
 	_, err = e.stdout.Write(b.Bytes())
 	return err

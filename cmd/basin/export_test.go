@@ -55,6 +55,10 @@ func TestExportCommand(t *testing.T) {
 		{"truncated", []string{"export", "--cert", writeTestCert(t, certJSON[:200]), "--lang", "c"}, 2, "", "certificate.json: certificate:"},
 		{"bad package", []string{"export", "--cert", good, "--lang", "go", "--package", "my-pkg"}, 2, "", "not a valid identifier"},
 		{"inputs", []string{"export", "--cert", good, "--lang", "go", "logs/"}, 2, "", "takes no INPUTS"},
+		{"sql", []string{"export", "--cert", good, "--lang", "sql"}, 0, `FROM "samples"`, "without the slow column"},
+		{"sql table", []string{"export", "--cert", good, "--lang", "sql", "--table", "lake.fleet_logs"}, 0, `FROM "lake"."fleet_logs"`, ""},
+		{"sql bad table", []string{"export", "--cert", good, "--lang", "sql", "--table", "logs; DROP TABLE x"}, 2, "", "not a valid identifier"},
+		{"table without sql", []string{"export", "--cert", good, "--lang", "go", "--table", "t"}, 2, "", "--table applies to --lang sql only"},
 		{"not certified", []string{"export", "--cert", writeTestCert(t, strings.Replace(certJSON, `"certified"`, `"inconclusive"`, 1)), "--lang", "python"}, 0, "NOT certified", "claims nothing"},
 	}
 	for _, tc := range cases {

@@ -1,5 +1,16 @@
 // Package export writes a certificate's Lyapunov function V as a small,
-// dependency-free function in Go, C or Python, for a monitor on the rig.
+// dependency-free function in Go, C or Python, for a monitor on the rig,
+// or the whole screening rule of basin screen as one standard-SQL query
+// ([SQL]) for screening logs where they are stored.
+//
+// The SQL query reads a table of samples (columns run, t and one per
+// state) and returns one row per run with the flags basin screen gives:
+// it evaluates V per row, carries each run's state with the window
+// functions LAG, ROW_NUMBER, COUNT and MAX over PARTITION BY run ORDER BY
+// t (ISO SQL:2003), and aggregates per run with GROUP BY. It uses only
+// CAST, CASE, arithmetic, LN, AVG, SUM, MIN and MAX, so it runs unchanged
+// on PostgreSQL, SQLite (3.35 or later with its math functions) and
+// engines that follow the standard.
 //
 // The generated code has the scaling built in: it takes a state vector in
 // the logs' original units and order, computes z_j = (x_j - e_j)/s_j, and
@@ -36,7 +47,7 @@ const (
 
 // Errors returned by [Write], possibly wrapped.
 var (
-	ErrLang = errors.New("unknown language (want go, c or python)")
+	ErrLang = errors.New("unknown language (want go, c, python or sql)")
 	ErrNoV  = errors.New("certificate holds no V")
 	ErrName = errors.New("not a valid identifier")
 )
@@ -49,14 +60,20 @@ type Options struct {
 	// Prefix starts every C identifier, so that two exported functions can
 	// live in one program. Empty means "basin_". Ignored for Go and Python.
 	Prefix string
+	// Table is the table the SQL query reads: one to three identifiers
+	// joined by dots. Empty means "samples". Ignored for other languages.
+	Table string
 }
 
 var ident = regexp.MustCompile(`^[A-Za-z_][A-Za-z0-9_]*$`)
 
 // Write writes the source of V and the membership test for cert in lang
-// (one of [Go], [C], [Python]) to w. It returns an error wrapping [ErrLang]
+// (one of [Go], [C], [Python]) to w, or for [SQL] the screening query
+// (see the package doc; opts.Table names its table). It returns an error wrapping [ErrLang]
 // for an unknown language, [ErrNoV] for a certificate without V terms,
-// [ErrName] for a bad Options name, or the writer's error.
+// [ErrName] for a bad Options name (a Table that is not one to three
+// identifiers joined by dots), or the writer's error. Nothing is written
+// on an error other than the writer's.
 func Write(w io.Writer, cert *fit.Certificate, lang string, opts *Options) error {
 	o := Options{Package: "basinv", Prefix: "basin_"}
 	if opts != nil {
@@ -77,6 +94,13 @@ func Write(w io.Writer, cert *fit.Certificate, lang string, opts *Options) error
 		return fmt.Errorf("prefix %q: %w", o.Prefix, ErrName)
 	}
 	var b strings.Builder
+	if strings.ToLower(lang) == SQL {
+		if err := writeSQL(&b, cert, opts); err != nil {
+			return err
+		}
+		_, err := io.WriteString(w, b.String())
+		return err
+	}
 	switch strings.ToLower(lang) {
 	case Go:
 		writeGo(&b, cert, o.Package)

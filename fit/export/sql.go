@@ -1,0 +1,229 @@
+package export
+
+import (
+	"fmt"
+	"math"
+	"regexp"
+	"strings"
+
+	"basin.example/fit"
+	"basin.example/validate"
+)
+
+// SQL is the language of the screening query [Write] writes (see the
+// package doc).
+const SQL = "sql"
+
+// DefaultTable is the table the SQL query reads when Options.Table is
+// empty.
+const DefaultTable = "samples"
+
+// tableName is a table name: up to three identifiers joined by dots
+// (catalog.schema.table).
+var tableName = regexp.MustCompile(`^[A-Za-z_][A-Za-z0-9_]*(\.[A-Za-z_][A-Za-z0-9_]*){0,2}$`)
+
+// writeSQL writes one query in standard SQL (ISO SQL:2003 window
+// functions, no vendor functions) that screens every run of a table by
+// the rules of basin screen ([validate.Screener]) with the certificate's
+// tolerances. The table (opts.Table, default [DefaultTable]) has columns
+// run, t and one DOUBLE PRECISION column per state named as in the
+// certificate; the query returns one row per run, ordered by run, with
+// columns run, flagged, rises, leaves, unsettled and, when the
+// certificate records held-out decay rates, slow (booleans; 1 and 0 in
+// engines without a boolean type). Every identifier is written as a
+// quoted (delimited) identifier, so names are matched exactly, case
+// included. It returns an error wrapping [ErrNoV] for a certificate
+// without V and [ErrName] for a table name that is not one to three
+// identifiers joined by dots or a state name holding a control character.
+func writeSQL(b *strings.Builder, cert *fit.Certificate, opts *Options) error {
+	table := DefaultTable
+	if opts != nil && opts.Table != "" {
+		table = opts.Table
+	}
+	if !tableName.MatchString(table) {
+		return fmt.Errorf("table %q (want letters, digits and _, parts joined by dots): %w", table, ErrName)
+	}
+	if len(cert.V.Exponents) == 0 {
+		return ErrNoV
+	}
+	for _, s := range cert.States {
+		if strings.ContainsFunc(s, func(r rune) bool { return r < 0x20 || r == 0x7f }) || s == "" {
+			return fmt.Errorf("state %q: %w", s, ErrName)
+		}
+	}
+	var parts []string
+	for _, p := range strings.Split(table, ".") {
+		parts = append(parts, qid(p))
+	}
+	ru := validate.NewScreener(cert, nil).Rules()
+	n := ru.N
+	for _, l := range headerLines(cert) {
+		b.WriteString(strings.TrimRight("-- "+l, " ") + "\n")
+	}
+	b.WriteString(`--
+-- One row per run: run, flagged, rises, leaves, unsettled` + map[bool]string{true: ", slow", false: ""}[ru.SlowBound > 0] + `,
+-- by the rules of basin screen with the certificate's tolerances. The
+-- table has columns "run", "t" (seconds, increasing within a run) and one
+-- DOUBLE PRECISION column per state, named as in the certificate; a run
+-- with a gap should be split into runs first, as basin does.
+`)
+	fmt.Fprintf(b, "-- States, in order: %d columns, quoted below.\n", n)
+	sq := func(x float64) string { return sqlNum(x) }
+	z := make([]string, n)
+	for j := range z {
+		z[j] = fmt.Sprintf("z%d", j)
+	}
+	b.WriteString("WITH\nx AS (\n  SELECT \"run\", CAST(\"t\" AS DOUBLE PRECISION) AS t")
+	for j, s := range cert.States {
+		fmt.Fprintf(b, ",\n    CAST(%s AS DOUBLE PRECISION) AS x%d", qid(s), j)
+	}
+	fmt.Fprintf(b, "\n  FROM %s\n),\n", strings.Join(parts, "."))
+	b.WriteString("s AS (\n  SELECT \"run\", t")
+	for j := range z {
+		fmt.Fprintf(b, ", x%d", j)
+	}
+	for j := range z {
+		fmt.Fprintf(b, ",\n    (x%d - %s) * %s AS z%d", j, sq(ru.Eq[j]), sq(ru.Inv[j]), j)
+	}
+	b.WriteString("\n  FROM x\n),\n")
+	// V, |z|^2 in basin's order of operations.
+	r2 := make([]string, n)
+	for j := range z {
+		r2[j] = z[j] + " * " + z[j]
+	}
+	fmt.Fprintf(b, "v AS (\n  SELECT \"run\", t")
+	for j := range z {
+		fmt.Fprintf(b, ", x%d", j)
+	}
+	fmt.Fprintf(b, ",\n    %s AS v,\n    %s AS r2\n  FROM s\n),\n", sqlV(cert, &ru, z), strings.Join(r2, " + "))
+	// inside and beyond
+	var inBox, outWide []string
+	for j := range z {
+		x := fmt.Sprintf("x%d", j)
+		if !math.IsInf(ru.Lo[j], 0) {
+			inBox = append(inBox, fmt.Sprintf("%s >= %s", x, sq(ru.Lo[j])))
+		}
+		if !math.IsInf(ru.Hi[j], 0) {
+			inBox = append(inBox, fmt.Sprintf("%s <= %s", x, sq(ru.Hi[j])))
+		}
+		if !math.IsInf(ru.LoWide[j], 0) {
+			outWide = append(outWide, fmt.Sprintf("%s < %s", x, sq(ru.LoWide[j])))
+		}
+		if !math.IsInf(ru.HiWide[j], 0) {
+			outWide = append(outWide, fmt.Sprintf("%s > %s", x, sq(ru.HiWide[j])))
+		}
+	}
+	inside := "1 = 0" // empty region
+	beyond := "1 = 1"
+	if !math.IsInf(ru.Level, -1) {
+		inside = strings.Join(append(inBox, "v <= "+sq(ru.Level)), " AND ")
+		beyond = strings.Join(append(outWide, "v > "+sq(ru.LeaveLevel)), " OR ")
+	}
+	fmt.Fprintf(b, "f AS (\n  SELECT \"run\", t, v, r2,\n    CASE WHEN %s THEN 1 ELSE 0 END AS inside,\n    CASE WHEN %s THEN 1 ELSE 0 END AS beyond\n  FROM v\n),\n", inside, beyond)
+	r02 := sq(ru.NoiseR2)
+	const win = `PARTITION BY "run" ORDER BY t`
+	fmt.Fprintf(b, `w AS (
+  SELECT "run", t, v, r2, inside, beyond,
+    CASE WHEN inside = 1 AND r2 > %[1]s AND v > 0 THEN 1 ELSE 0 END AS q,
+    LAG(v) OVER (%[2]s) AS pv,
+    LAG(inside) OVER (%[2]s) AS pin,
+    LAG(r2) OVER (%[2]s) AS pr2,
+    MAX(inside) OVER (%[2]s ROWS BETWEEN UNBOUNDED PRECEDING AND CURRENT ROW) AS entered,
+    ROW_NUMBER() OVER (%[2]s) AS rn,
+    COUNT(*) OVER (PARTITION BY "run") AS m
+  FROM f
+),
+d AS (
+  SELECT "run", t, v, r2, inside, beyond, q, pv, pin, pr2, entered, rn, m,
+    MIN(CASE WHEN q = 1 THEN t END) OVER (PARTITION BY "run") AS t0
+  FROM w
+),
+`, r02, win)
+	tol := sq(ru.Tolerance)
+	// w = min(max(m/share, 1), max): sample rn is in the head when
+	// rn <= w, in the tail when m - rn + 1 <= w, written without division.
+	fmt.Fprintf(b, `r AS (
+  SELECT "run",
+    MAX(CASE WHEN inside = 1 AND pin = 1 AND pr2 > %[1]s AND v - pv - %[2]s > 0 THEN 1 ELSE 0 END) AS rises,
+    MAX(CASE WHEN inside = 0 AND entered = 1 AND beyond = 1 THEN 1 ELSE 0 END) AS leaves,
+    MAX(CASE WHEN rn = m THEN inside ELSE 0 END) AS last_inside,
+    AVG(CASE WHEN rn <= %[3]d AND (%[4]d * rn <= m OR rn = 1) THEN v END) AS head,
+    AVG(CASE WHEN m - rn < %[3]d AND (%[4]d * (m - rn + 1) <= m OR rn = m) THEN v END) AS tail,
+    SUM(q) AS dn,
+    SUM(CASE WHEN q = 1 THEN t - t0 END) AS st,
+    SUM(CASE WHEN q = 1 THEN LN(v) END) AS sy,
+    SUM(CASE WHEN q = 1 THEN (t - t0) * (t - t0) END) AS stt,
+    SUM(CASE WHEN q = 1 THEN (t - t0) * LN(v) END) AS sty
+  FROM d
+  GROUP BY "run"
+),
+k AS (
+  SELECT "run", rises, leaves,
+    CASE WHEN last_inside = 1 AND (tail <= %[5]s OR tail < head - %[2]s) THEN 0 ELSE 1 END AS unsettled,
+`, r02, tol, ru.TailMax, ru.TailShare, sq(ru.Settle))
+	if ru.SlowBound > 0 {
+		fmt.Fprintf(b, `    CASE WHEN dn >= %d AND dn * stt - st * st > 0
+      AND -(dn * sty - st * sy) / (dn * stt - st * st) < %s THEN 1 ELSE 0 END AS slow
+`, ru.DecayMinSamples, sq(ru.SlowBound))
+	} else {
+		b.WriteString("    0 AS slow\n")
+	}
+	b.WriteString("  FROM r\n)\nSELECT \"run\",\n")
+	if ru.SlowBound > 0 {
+		b.WriteString("  (rises = 1 OR leaves = 1 OR unsettled = 1 OR slow = 1) AS flagged,\n")
+	} else {
+		b.WriteString("  (rises = 1 OR leaves = 1 OR unsettled = 1) AS flagged,\n")
+	}
+	b.WriteString("  (rises = 1) AS rises,\n  (leaves = 1) AS leaves,\n  (unsettled = 1) AS unsettled")
+	if ru.SlowBound > 0 {
+		b.WriteString(",\n  (slow = 1) AS slow")
+	}
+	b.WriteString("\nFROM k\nORDER BY \"run\";\n")
+	return nil
+}
+
+// sqlV writes V(z) in the order of operations of the Screener's kernel.
+func sqlV(cert *fit.Certificate, ru *validate.Rules, z []string) string {
+	n := ru.N
+	sq := sqlNum
+	if ru.TwoState {
+		return fmt.Sprintf("%[1]s * (%[3]s * %[1]s + %[4]s * %[2]s + %[5]s) + %[2]s * (%[6]s * %[2]s + %[7]s) + %[8]s",
+			z[0], z[1], sq(ru.P[0]), sq(2*ru.P[1]), sq(ru.Q[0]), sq(ru.P[3]), sq(ru.Q[1]), sq(ru.R))
+	}
+	if ru.Quad {
+		// v = r; for each i: a = q_i + sum_j p_ij z_j; v += a z_i
+		v := sq(ru.R)
+		for i := 0; i < n; i++ {
+			a := sq(ru.Q[i])
+			for j := 0; j < n; j++ {
+				a += fmt.Sprintf(" + %s * %s", sq(ru.P[i*n+j]), z[j])
+			}
+			v += fmt.Sprintf(" + (%s) * %s", a, z[i])
+		}
+		return v
+	}
+	var t []string
+	for k, e := range cert.V.Exponents {
+		f := []string{sq(cert.V.Coefficients[k])}
+		for j, q := range e {
+			if q > 0 {
+				f = append(f, "("+pow(z[j], q)+")")
+			}
+		}
+		t = append(t, strings.Join(f, " * "))
+	}
+	return strings.Join(t, " + ")
+}
+
+// qid quotes s as an SQL delimited identifier.
+func qid(s string) string { return `"` + strings.ReplaceAll(s, `"`, `""`) + `"` }
+
+// sqlNum writes x as an SQL numeric literal that reads back as x; a
+// negative number is parenthesised so that it can follow any operator.
+func sqlNum(x float64) string {
+	s := num(x)
+	if strings.HasPrefix(s, "-") {
+		return "(" + s + ")"
+	}
+	return s
+}

@@ -1,0 +1,422 @@
+package export_test
+
+import (
+	"bytes"
+	"database/sql"
+	"fmt"
+	"math"
+	"math/rand/v2"
+	"os"
+	"os/exec"
+	"os/user"
+	"path/filepath"
+	"sort"
+	"strconv"
+	"strings"
+	"syscall"
+	"testing"
+	"time"
+
+	_ "modernc.org/sqlite" // pure-Go SQLite, a second SQL dialect for the query
+
+	"basin.example/fit"
+	"basin.example/fit/export"
+	"basin.example/fit/poly"
+	"basin.example/ingest"
+	"basin.example/validate"
+)
+
+// The SQL query's outside checks [SQL2003]: the ISO SQL:2003 definition of LAG,
+// ROW_NUMBER and framed MAX over an ordered partition (from memory; any
+// SQL reference), as implemented by two independent engines of different
+// dialects — a real PostgreSQL server [postgresql] and SQLite [sqlite] — which must agree with
+// each other and with basin screen (validate.Screener) run by run.
+
+// sqlCerts are hand-made certificates: two states with a cross term, a
+// state name holding a double quote and held-out decay rates (so the
+// query has a slow column), and three states with a quartic V (the
+// term-by-term path) without decay rates.
+func sqlCerts() map[string]*fit.Certificate {
+	two := &fit.Certificate{Format: fit.CertificateFormat, Verdict: fit.Certified,
+		States: []string{"pitch", `rate "fast"`}, Units: []string{"rad", "rad/s"},
+		Equilibrium: []float64{0.5, -0.2}, Scale: []float64{1, 2},
+		V:     poly.Poly{Exponents: [][]int{{2, 0}, {1, 1}, {0, 2}}, Coefficients: []float64{1, 0.2, 0.9}},
+		Level: 1, Box: [][2]float64{{-0.6, 1.6}, {-2.4, 2}}, Found: true, NoiseRadius: 0.05, Tolerance: 2e-3,
+		Validation: &fit.Validation{Decay: &fit.Decay{Runs: 6, LowerBound: 0.8}}}
+	three := &fit.Certificate{Format: fit.CertificateFormat, Verdict: fit.Inconclusive,
+		States: []string{"a", "B", "c_2"}, Units: []string{"", "", ""},
+		Equilibrium: []float64{0, 0, 1}, Scale: []float64{1, 1, 0.5},
+		V: poly.Poly{Exponents: [][]int{{2, 0, 0}, {0, 2, 0}, {0, 0, 2}, {4, 0, 0}, {1, 1, 2}},
+			Coefficients: []float64{1, 1, 1, 0.5, 0.1}},
+		Level: 0.8, Found: true, NoiseRadius: 0.03, Tolerance: 1e-3}
+	return map[string]*fit.Certificate{"two": two, "three": three}
+}
+
+// sqlRuns makes runs in z coordinates: decaying rotations at healthy and
+// slow rates from inside, one that grows and leaves, one that comes in
+// from outside, one that stays outside, one with a kick, all with noise.
+func sqlRuns(c *fit.Certificate) []ingest.Run {
+	n := len(c.States)
+	rng := rand.New(rand.NewPCG(11, uint64(n)))
+	type shape struct {
+		name       string
+		r0, k, w   float64
+		kick, grow bool
+	}
+	var shapes []shape
+	for i := range 8 {
+		shapes = append(shapes, shape{name: fmt.Sprintf("healthy-%d", i), r0: 0.4 + 0.05*float64(i), k: 1 + 0.1*float64(i), w: 3})
+	}
+	for i := range 3 {
+		shapes = append(shapes, shape{name: fmt.Sprintf("worn-%d", i), r0: 0.6, k: 0.15 + 0.02*float64(i), w: 3})
+	}
+	shapes = append(shapes,
+		shape{name: "grows", r0: 0.3, k: -0.4, w: 2, grow: true},
+		shape{name: "from-outside", r0: 1.6, k: 1.2, w: 2},
+		shape{name: "outside", r0: 3, k: 0, w: 0},
+		shape{name: "kicked", r0: 0.5, k: 1.5, w: 3, kick: true})
+	var runs []ingest.Run
+	for _, s := range shapes {
+		m := 800
+		r := ingest.Run{Name: s.name, T: make([]float64, m), X: make([][]float64, n)}
+		for j := range r.X {
+			r.X[j] = make([]float64, m)
+		}
+		ph := rng.Float64() * 2 * math.Pi
+		for i := range m {
+			t := float64(i) * 0.01
+			a := s.r0 * math.Exp(-s.k*t)
+			if s.kick && t >= 3 {
+				a += 0.4 * math.Exp(-s.k*(t-3))
+			}
+			r.T[i] = t
+			for j := range n {
+				zj := a * math.Cos(s.w*t+ph+float64(j)*math.Pi/2/float64(n-1)) / math.Sqrt(float64(n-1))
+				r.X[j][i] = c.Equilibrium[j] + c.Scale[j]*(zj+1e-3*rng.NormFloat64())
+			}
+		}
+		runs = append(runs, r)
+	}
+	return runs
+}
+
+// flagRow is one run's flags, as screen gives them or a query returns.
+type flagRow struct {
+	flagged, rises, leaves, unsettled, slow bool
+}
+
+func (f flagRow) String() string {
+	return fmt.Sprintf("flagged %v rises %v leaves %v unsettled %v slow %v", f.flagged, f.rises, f.leaves, f.unsettled, f.slow)
+}
+
+func screenFlags(c *fit.Certificate, runs []ingest.Run) map[string]flagRow {
+	s := validate.NewScreener(c, nil)
+	out := map[string]flagRow{}
+	for i := range runs {
+		var rs validate.RunScreen
+		s.Screen(&rs, "f", &runs[i])
+		var f flagRow
+		f.flagged = rs.Flagged
+		for _, fl := range rs.Flags {
+			switch fl.Kind {
+			case validate.FlagRises:
+				f.rises = true
+			case validate.FlagLeaves:
+				f.leaves = true
+			case validate.FlagUnsettled:
+				f.unsettled = true
+			case validate.FlagSlow:
+				f.slow = true
+			}
+		}
+		out[runs[i].Name] = f
+	}
+	return out
+}
+
+func query(t *testing.T, c *fit.Certificate, table string) string {
+	t.Helper()
+	var b bytes.Buffer
+	if err := export.Write(&b, c, export.SQL, &export.Options{Table: table}); err != nil {
+		t.Fatal(err)
+	}
+	return b.String()
+}
+
+// compare checks got against screen's flags run by run.
+func compare(t *testing.T, engine string, want, got map[string]flagRow) {
+	t.Helper()
+	if len(got) != len(want) {
+		t.Errorf("%s: %d runs, screen %d", engine, len(got), len(want))
+	}
+	for name, w := range want {
+		g, ok := got[name]
+		if !ok {
+			t.Errorf("%s: run %s missing", engine, name)
+			continue
+		}
+		if g != w {
+			t.Errorf("%s: run %s: %v; screen: %v", engine, name, g, w)
+		}
+	}
+}
+
+// checkVariety makes sure the data exercise every flag and a clean run,
+// so the comparison cannot pass on all-false columns.
+func checkVariety(t *testing.T, name string, want map[string]flagRow, slow bool) {
+	t.Helper()
+	var clean, rises, leaves, unsettled, slows int
+	for _, f := range want {
+		if !f.flagged {
+			clean++
+		}
+		if f.rises {
+			rises++
+		}
+		if f.leaves {
+			leaves++
+		}
+		if f.unsettled {
+			unsettled++
+		}
+		if f.slow {
+			slows++
+		}
+	}
+	if clean == 0 || rises == 0 || leaves == 0 || unsettled == 0 || (slow && slows == 0) {
+		t.Fatalf("%s: the data do not exercise every flag: clean %d rises %d leaves %d unsettled %d slow %d",
+			name, clean, rises, leaves, unsettled, slows)
+	}
+}
+
+func TestSQLSQLite(t *testing.T) {
+	for name, c := range sqlCerts() {
+		runs := sqlRuns(c)
+		want := screenFlags(c, runs)
+		checkVariety(t, name, want, name == "two")
+		db, err := sql.Open("sqlite", ":memory:")
+		if err != nil {
+			t.Fatal(err)
+		}
+		defer db.Close()
+		db.SetMaxOpenConns(1) // one connection: one in-memory database
+		cols := []string{`"run" TEXT`, `"t" DOUBLE PRECISION`}
+		for _, s := range c.States {
+			cols = append(cols, `"`+strings.ReplaceAll(s, `"`, `""`)+`" DOUBLE PRECISION`)
+		}
+		if _, err := db.Exec(`CREATE TABLE "fleet_logs" (` + strings.Join(cols, ", ") + `)`); err != nil {
+			t.Fatal(err)
+		}
+		tx, err := db.Begin()
+		if err != nil {
+			t.Fatal(err)
+		}
+		ph := strings.TrimSuffix(strings.Repeat("?, ", len(c.States)+2), ", ")
+		st, err := tx.Prepare(`INSERT INTO "fleet_logs" VALUES (` + ph + `)`)
+		if err != nil {
+			t.Fatal(err)
+		}
+		for _, r := range runs {
+			for i := range r.T {
+				args := []any{r.Name, r.T[i]}
+				for j := range r.X {
+					args = append(args, r.X[j][i])
+				}
+				if _, err := st.Exec(args...); err != nil {
+					t.Fatal(err)
+				}
+			}
+		}
+		if err := tx.Commit(); err != nil {
+			t.Fatal(err)
+		}
+		rows, err := db.Query(query(t, c, "fleet_logs"))
+		if err != nil {
+			t.Fatalf("%s: %v", name, err)
+		}
+		got := map[string]flagRow{}
+		for rows.Next() {
+			var run string
+			var v [5]int64
+			dst := []any{&run, &v[0], &v[1], &v[2], &v[3]}
+			if name == "two" {
+				dst = append(dst, &v[4])
+			}
+			if err := rows.Scan(dst...); err != nil {
+				t.Fatal(err)
+			}
+			got[run] = flagRow{v[0] == 1, v[1] == 1, v[2] == 1, v[3] == 1, v[4] == 1}
+		}
+		if err := rows.Err(); err != nil {
+			t.Fatal(err)
+		}
+		compare(t, "sqlite "+name, want, got)
+	}
+}
+
+// postgres is a PostgreSQL server started for a test on a unix socket in
+// a temporary folder (no TCP port), stopped at the end.
+type postgres struct {
+	bin, sock string
+}
+
+// startPostgres finds initdb, pg_ctl and psql (PATH, then Debian's
+// /usr/lib/postgresql/*/bin) and starts a server; it skips the test
+// when they are absent. The server refuses to run as root, so as root
+// it runs as the user nobody.
+func startPostgres(t *testing.T) *postgres {
+	t.Helper()
+	bin := ""
+	if p, err := exec.LookPath("pg_ctl"); err == nil {
+		bin = filepath.Dir(p)
+	} else if m, _ := filepath.Glob("/usr/lib/postgresql/*/bin/pg_ctl"); len(m) > 0 {
+		sort.Strings(m)
+		bin = filepath.Dir(m[len(m)-1])
+	}
+	if bin == "" {
+		t.Skip("PostgreSQL server binaries (pg_ctl, initdb) not found: install Debian's postgresql package to run this check")
+	}
+	for _, b := range []string{"initdb", "psql"} {
+		if _, err := os.Stat(filepath.Join(bin, b)); err != nil {
+			if p, err := exec.LookPath(b); err == nil && b == "psql" {
+				_ = p
+				continue
+			}
+			t.Skipf("PostgreSQL %s not found beside %s", b, bin)
+		}
+	}
+	dir, err := os.MkdirTemp("", "basin-pg-")
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(func() { os.RemoveAll(dir) })
+	var cred *syscall.Credential
+	if os.Geteuid() == 0 {
+		u, err := user.Lookup("nobody")
+		if err != nil {
+			t.Skip("running as root without a user nobody to run PostgreSQL as")
+		}
+		uid, _ := strconv.Atoi(u.Uid)
+		gid, _ := strconv.Atoi(u.Gid)
+		cred = &syscall.Credential{Uid: uint32(uid), Gid: uint32(gid)}
+		if err := os.Chmod(dir, 0o755); err != nil {
+			t.Fatal(err)
+		}
+		if err := os.Chown(dir, uid, gid); err != nil {
+			t.Fatal(err)
+		}
+	}
+	run := func(name string, args ...string) {
+		t.Helper()
+		cmd := exec.Command(filepath.Join(bin, name), args...)
+		cmd.Env = append(os.Environ(), "LC_ALL=C")
+		if cred != nil {
+			cmd.SysProcAttr = &syscall.SysProcAttr{Credential: cred}
+		}
+		if out, err := cmd.CombinedOutput(); err != nil {
+			t.Fatalf("%s %v: %v\n%s", name, args, err, out)
+		}
+	}
+	data := filepath.Join(dir, "data")
+	run("initdb", "-D", data, "-U", "basin", "--auth=trust", "-E", "UTF8", "--no-sync")
+	run("pg_ctl", "start", "-w", "-t", "60", "-D", data, "-l", filepath.Join(dir, "log"),
+		"-o", "-k "+dir+" -c listen_addresses= -c fsync=off -p 5432")
+	t.Cleanup(func() {
+		cmd := exec.Command(filepath.Join(bin, "pg_ctl"), "stop", "-m", "immediate", "-w", "-D", data)
+		if cred != nil {
+			cmd.SysProcAttr = &syscall.SysProcAttr{Credential: cred}
+		}
+		_ = cmd.Run()
+	})
+	return &postgres{bin: bin, sock: dir}
+}
+
+// psql runs sql through psql (unaligned, comma-separated, tuples only)
+// with stdin as the COPY data, and returns its output.
+func (pg *postgres) psql(t *testing.T, sql string, stdin []byte) string {
+	t.Helper()
+	p := filepath.Join(pg.bin, "psql")
+	if _, err := os.Stat(p); err != nil {
+		p = "psql"
+	}
+	cmd := exec.Command(p, "-X", "-q", "-v", "ON_ERROR_STOP=1", "-h", pg.sock, "-p", "5432", "-U", "basin",
+		"-d", "postgres", "-At", "-F", ",", "-c", sql)
+	cmd.Stdin = bytes.NewReader(stdin)
+	var out, errb bytes.Buffer
+	cmd.Stdout, cmd.Stderr = &out, &errb
+	done := make(chan error, 1)
+	if err := cmd.Start(); err != nil {
+		t.Fatal(err)
+	}
+	go func() { done <- cmd.Wait() }()
+	select {
+	case err := <-done:
+		if err != nil {
+			t.Fatalf("psql: %v\n%s", err, errb.String())
+		}
+	case <-time.After(5 * time.Minute): // a hang guard, not a speed check
+		_ = cmd.Process.Kill()
+		t.Fatal("psql did not finish")
+	}
+	return out.String()
+}
+
+func TestSQLPostgreSQL(t *testing.T) {
+	pg := startPostgres(t)
+	for name, c := range sqlCerts() {
+		runs := sqlRuns(c)
+		want := screenFlags(c, runs)
+		checkVariety(t, name, want, name == "two")
+		table := "fleet_" + name
+		cols := []string{`"run" TEXT`, `"t" DOUBLE PRECISION`}
+		for _, s := range c.States {
+			cols = append(cols, `"`+strings.ReplaceAll(s, `"`, `""`)+`" DOUBLE PRECISION`)
+		}
+		pg.psql(t, `CREATE SCHEMA IF NOT EXISTS logs; CREATE TABLE logs.`+table+` (`+strings.Join(cols, ", ")+`)`, nil)
+		var csv bytes.Buffer
+		for _, r := range runs {
+			for i := range r.T {
+				csv.WriteString(r.Name + "," + strconv.FormatFloat(r.T[i], 'g', -1, 64))
+				for j := range r.X {
+					csv.WriteString("," + strconv.FormatFloat(r.X[j][i], 'g', -1, 64))
+				}
+				csv.WriteByte('\n')
+			}
+		}
+		pg.psql(t, `\copy logs.`+table+` FROM STDIN WITH (FORMAT csv)`, csv.Bytes())
+		out := pg.psql(t, query(t, c, "logs."+table), nil)
+		got := map[string]flagRow{}
+		for _, line := range strings.Split(strings.TrimSpace(out), "\n") {
+			f := strings.Split(line, ",")
+			if len(f) < 5 {
+				t.Fatalf("%s: row %q", name, line)
+			}
+			b := func(k int) bool { return k < len(f) && f[k] == "t" }
+			got[f[0]] = flagRow{b(1), b(2), b(3), b(4), b(5)}
+		}
+		compare(t, "postgresql "+name, want, got)
+	}
+}
+
+// TestSQLTableNames: a table name that is not one to three identifiers
+// joined by dots is refused, never spliced into the query.
+func TestSQLTableNames(t *testing.T) {
+	c := sqlCerts()["two"]
+	for _, tc := range []struct {
+		table string
+		ok    bool
+	}{
+		{"", true}, {"samples", true}, {"lake.logs.samples", true}, {"_x1", true},
+		{"samples; DROP TABLE x", false}, {`"samples"`, false}, {"a.b.c.d", false}, {"1abc", false},
+		{"sam ples", false}, {"samples--", false}, {"é", false}, {"a..b", false},
+	} {
+		var b bytes.Buffer
+		err := export.Write(&b, c, export.SQL, &export.Options{Table: tc.table})
+		if (err == nil) != tc.ok {
+			t.Errorf("table %q: error %v, want ok %v", tc.table, err, tc.ok)
+		}
+		if !tc.ok && b.Len() != 0 {
+			t.Errorf("table %q: wrote %d bytes on error", tc.table, b.Len())
+		}
+	}
+}
