@@ -4,12 +4,13 @@ import (
 	"context"
 	"errors"
 	"fmt"
-	"gonum.org/v1/gonum/floats/scalar"
 	"math"
 	"math/rand/v2"
 	"strings"
 	"testing"
 	"time"
+
+	"gonum.org/v1/gonum/floats/scalar"
 
 	"basin.example/ingest"
 )

@@ -4,7 +4,6 @@ import (
 	"context"
 	"encoding/json"
 	"errors"
-	"gonum.org/v1/gonum/floats/scalar"
 	"math"
 	"math/cmplx"
 	"math/rand/v2"
@@ -15,6 +14,7 @@ import (
 	"basin.example/fit/poly"
 	"basin.example/ingest"
 	"github.com/sajari/regression"
+	"gonum.org/v1/gonum/floats/scalar"
 	"gonum.org/v1/gonum/mat"
 )
 

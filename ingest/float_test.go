@@ -121,3 +121,21 @@ func TestParseFloatAllocs(t *testing.T) {
 		t.Errorf("parseFloat allocates %v times", n)
 	}
 }
+
+// FuzzParseFloat compares parseFloat and scanFast with strconv.ParseFloat
+// bit for bit ([IEEE754]: conversion from decimal is correctly rounded,
+// and strconv implements it): the same acceptance, the same bits, NaN for
+// NaN.
+func FuzzParseFloat(f *testing.F) {
+	for _, s := range append(floatCorpus, floatBad...) {
+		f.Add(s)
+	}
+	f.Fuzz(func(t *testing.T, s string) {
+		checkScanFast(t, s)
+		want, werr := strconv.ParseFloat(s, 64)
+		got, ok := parseFloat([]byte(s))
+		if ok != (werr == nil) || (ok && !sameFloat(got, want)) {
+			t.Fatalf("parseFloat(%q) = %v (%#x), %v; strconv %v (%#x), %v", s, got, math.Float64bits(got), ok, want, math.Float64bits(want), werr)
+		}
+	})
+}

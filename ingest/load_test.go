@@ -3,13 +3,14 @@ package ingest
 import (
 	"context"
 	"errors"
-	"gonum.org/v1/gonum/floats/scalar"
 	"io/fs"
 	"os"
 	"path/filepath"
 	"slices"
 	"strings"
 	"testing"
+
+	"gonum.org/v1/gonum/floats/scalar"
 )
 
 func writeFiles(t *testing.T, dir string, files map[string]string) {

@@ -4,7 +4,6 @@ import (
 	"bytes"
 	"context"
 	"errors"
-	"gonum.org/v1/gonum/floats/scalar"
 	"os"
 	"path/filepath"
 	"slices"
@@ -16,6 +15,7 @@ import (
 	"github.com/apache/arrow/go/v15/arrow/memory"
 	"github.com/apache/arrow/go/v15/parquet"
 	"github.com/apache/arrow/go/v15/parquet/pqarrow"
+	"gonum.org/v1/gonum/floats/scalar"
 )
 
 // TestReadParquetIndependent: testdata/indep.parquet was written by

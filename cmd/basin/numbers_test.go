@@ -5,13 +5,14 @@ import (
 	"context"
 	"encoding/json"
 	"fmt"
-	"gonum.org/v1/gonum/floats/scalar"
 	"math/rand/v2"
 	"os"
 	"path/filepath"
 	"regexp"
 	"strings"
 	"testing"
+
+	"gonum.org/v1/gonum/floats/scalar"
 
 	"basin.example/fit"
 )

@@ -6,7 +6,6 @@ import (
 	"encoding/hex"
 	"errors"
 	"fmt"
-	"gonum.org/v1/gonum/floats/scalar"
 	"math"
 	"math/rand/v2"
 	"os"
@@ -15,6 +14,8 @@ import (
 	"strconv"
 	"strings"
 	"testing"
+
+	"gonum.org/v1/gonum/floats/scalar"
 
 	"basin.example/fit"
 	"basin.example/fit/poly"

@@ -5,10 +5,11 @@ import (
 	"encoding/csv"
 	"errors"
 	"fmt"
-	"gonum.org/v1/gonum/floats/scalar"
 	"math"
 	"strconv"
 	"testing"
+
+	"gonum.org/v1/gonum/floats/scalar"
 
 	"basin.example/internal/demodata"
 )

@@ -3,12 +3,13 @@ package report
 import (
 	"bytes"
 	"errors"
-	"gonum.org/v1/gonum/floats/scalar"
 	"math"
 	"regexp"
 	"strconv"
 	"strings"
 	"testing"
+
+	"gonum.org/v1/gonum/floats/scalar"
 
 	"basin.example/fit"
 )
