@@ -96,11 +96,17 @@ func ReadCSV(r io.Reader, name string, opts *Options) (*Dataset, error) {
 
 // readCSV is ReadCSV without the data-set-wide checks of [finish].
 func readCSV(r io.Reader, name string, opts *Options) (*Dataset, error) {
+	if opts == nil {
+		opts = &Options{}
+	}
+	if err := opts.checkWindow(); err != nil {
+		return nil, err
+	}
 	tb, err := readCSVTable(r, name, opts)
 	if err != nil {
 		return nil, err
 	}
-	ds, err := tb.dataset()
+	ds, err := tb.dataset(opts)
 	if err != nil {
 		return nil, err
 	}

@@ -61,15 +61,41 @@ func FuzzReadCSV(f *testing.F) {
 	} {
 		f.Add([]byte(s), uint8(0))
 	}
+	// a resting head, a hit and a dropped sample, with an input column:
+	// for the input, window, head and event modes
+	var sb strings.Builder
+	sb.WriteString("run,t,a,b\n")
+	for i := range 60 {
+		a := 0.0
+		if i >= 30 {
+			a = 5 * math.Cos(0.2*float64(i-30))
+		}
+		if i == 45 {
+			a = 0
+		}
+		sb.WriteString("R," + ftoa(float64(i)*0.05) + "," + ftoa(a+1e-3*math.Sin(7.3*float64(i))) + "," + ftoa(float64(i%4)) + "\n")
+	}
+	for m := range uint8(8) {
+		f.Add([]byte(sb.String()), m)
+	}
+	f.Add([]byte("t,a,b\n0,1,2\n1,2,2\n2,3,\n3,4,2\n"), uint8(4))
 	f.Fuzz(func(t *testing.T, data []byte, mode uint8) {
 		var opts *Options
-		switch mode % 4 {
+		switch mode % 8 {
 		case 1:
 			opts = &Options{Rate: 100}
 		case 2:
 			opts = &Options{RunCol: "run"}
 		case 3:
 			opts = &Options{States: []string{"a"}}
+		case 4:
+			opts = &Options{Inputs: []string{"b"}}
+		case 5: // a time window, and the resting-head trim and events
+			opts = &Options{From: 0.5, To: 2}
+		case 6:
+			opts = &Options{States: []string{"a"}, Inputs: []string{"b"}, RunCol: "run", From: 1}
+		case 7:
+			opts = &Options{Inputs: []string{"b"}, KeepHead: true, KeepEvents: true}
 		}
 		ds, err := ReadCSV(bytes.NewReader(data), "f.csv", opts)
 		if err != nil {

@@ -50,6 +50,9 @@ type Run struct {
 	// --run-col group) this run was cut from; every piece of it carries
 	// the same number, and [Dataset.Gaps] counts each split once.
 	Gaps int
+	// Events is the number of event splits (see [Event]) made in the
+	// recording this run was cut from, counted like Gaps.
+	Events int
 	// Epoch is the wall-clock time of T == 0 when the time column held
 	// ISO 8601 date-times; the zero Time otherwise.
 	Epoch time.Time
@@ -80,6 +83,21 @@ type Dataset struct {
 	Runs   []Run
 	// Gaps counts the splits made at gaps, over all runs.
 	Gaps int
+	// Events lists the one-sample jumps far beyond the noise at which
+	// runs were split, one per state that jumped, in input order. Nil
+	// with Options.KeepEvents.
+	Events []Event
+	// Heads lists the resting heads trimmed from the start of
+	// recordings. Nil with Options.KeepHead.
+	Heads []Head
+	// Window counts, when Options.From or Options.To is set, the
+	// recordings left out because no sample fell in the time window.
+	Window int
+	// longest is the longest recording's duration before the window, in
+	// seconds, for the message when the window leaves nothing.
+	longest float64
+	// files are the files read, for that message.
+	files []string
 	// Missing counts samples dropped because a cell was empty or NaN.
 	Missing int
 	// Ignored lists columns that were neither time, run nor state: text
@@ -138,6 +156,18 @@ type Options struct {
 	Inputs []string
 	// Manifest is a CSV file with columns path,run,split. Empty means none.
 	Manifest string
+	// From and To keep, of each recording (a file, or a --run-col
+	// group), the samples with time in [From, To] seconds from its first
+	// sample. Zero From means from the start; zero To means to the end.
+	// Negative values, or From after a nonzero To, are an error wrapping
+	// [ErrWindow].
+	From, To float64
+	// KeepHead keeps a recording's resting head (see [Head]). False means
+	// it is trimmed.
+	KeepHead bool
+	// KeepEvents keeps a run whole across a one-sample jump far beyond
+	// the noise (see [Event]). False means the run is split there.
+	KeepEvents bool
 	// Stdin is read for the input "-". Nil means os.Stdin.
 	Stdin io.Reader `json:"-"`
 }
@@ -159,6 +189,8 @@ var (
 	ErrInputColumn = errors.New("bad input column")
 	// ErrStateAndInput: a column named both as a state and as an input.
 	ErrStateAndInput = errors.New("named both as a state and as an input")
+	// ErrWindow: a time window that is not one, or that leaves no sample.
+	ErrWindow = errors.New("time window")
 )
 
 // A ParseError reports an unusable cell or file. Line and Column are

@@ -110,6 +110,9 @@ func Load(ctx context.Context, paths []string, opts *Options) (*Dataset, error) 
 	if opts == nil {
 		opts = &Options{}
 	}
+	if err := opts.checkWindow(); err != nil {
+		return nil, err
+	}
 	var man []ManifestEntry
 	if opts.Manifest != "" {
 		var err error
@@ -179,6 +182,11 @@ func Load(ctx context.Context, paths []string, opts *Options) (*Dataset, error) 
 		out.Runs = append(out.Runs, ds.Runs...)
 		out.Gaps += ds.Gaps
 		out.Missing += ds.Missing
+		out.Events = append(out.Events, ds.Events...)
+		out.Heads = append(out.Heads, ds.Heads...)
+		out.Window += ds.Window
+		out.longest = max(out.longest, ds.longest)
+		out.files = append(out.files, ds.files...)
 		out.Warnings = append(out.Warnings, ds.Warnings...)
 		for _, c := range ds.Ignored {
 			if !hasColumn(out.Ignored, c.Name) {

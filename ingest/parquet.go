@@ -61,6 +61,9 @@ func readParquet(ctx context.Context, path string, opts *Options) (ds *Dataset, 
 	if opts == nil {
 		opts = &Options{}
 	}
+	if err := opts.checkWindow(); err != nil {
+		return nil, err
+	}
 	// A corrupt page header can send the Arrow decoder into a loop that
 	// allocates without end (found by FuzzReadParquet; see its corpus). It
 	// cannot be stopped from outside, so the read runs under a time
@@ -93,7 +96,7 @@ func readParquet(ctx context.Context, path string, opts *Options) (ds *Dataset, 
 	if err != nil {
 		return nil, err
 	}
-	ds, err = tb.dataset()
+	ds, err = tb.dataset(opts)
 	if err != nil {
 		return nil, err
 	}

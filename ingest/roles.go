@@ -2,6 +2,7 @@ package ingest
 
 import (
 	"fmt"
+	"math"
 	"strings"
 )
 
@@ -220,8 +221,77 @@ func warnConstantInputs(ds *Dataset) {
 }
 
 // finish makes the checks that need the whole data set, once it is read
-// and joined: inputs that never change are a warning.
+// and joined: a time window that leaves no run is an error; recordings
+// it leaves out, and inputs that never change, are warnings.
 func finish(ds *Dataset, opts *Options) error {
+	if opts == nil {
+		opts = &Options{}
+	}
+	if len(ds.Runs) == 0 {
+		err := fmt.Errorf("%w: no samples from %s: every run ends before, the longest lasts %g s",
+			ErrWindow, windowText(opts.From, opts.To), ds.longest)
+		if len(ds.files) == 1 {
+			return &ParseError{File: ds.files[0], Err: err}
+		}
+		return err
+	}
+	if ds.Window > 0 {
+		ds.Warnings = append(ds.Warnings, fmt.Sprintf("%d recordings have no samples from %s and are left out",
+			ds.Window, windowText(opts.From, opts.To)))
+	}
+	warnEvents(ds)
 	warnConstantInputs(ds)
+	return nil
+}
+
+// warnEvents sums up the events and resting heads in one warning line
+// each.
+func warnEvents(ds *Dataset) {
+	if n := len(ds.Events); n > 0 {
+		ev := ds.Events[0]
+		unit := ""
+		for _, c := range ds.States {
+			if c.Name == ev.State && c.Unit != "" {
+				unit = " " + c.Unit
+			}
+		}
+		more := ""
+		if n > 1 {
+			more = fmt.Sprintf(" (and %d more)", n-1)
+		}
+		far := "in data with no noise"
+		if ev.Noise > 0 {
+			far = fmt.Sprintf("%.0f times the noise", math.Abs(ev.Size)/ev.Noise)
+		}
+		ds.Warnings = append(ds.Warnings, fmt.Sprintf("%d one-sample jumps far beyond the noise split runs: %s at %g s, %s %s of %+.4g%s, %s%s",
+			n, ev.Run, ev.Time, ev.State, ev.Kind, ev.Size, unit, far, more))
+	}
+	if n := len(ds.Heads); n > 0 {
+		total := 0.0
+		for _, h := range ds.Heads {
+			total += h.Duration
+		}
+		ds.Warnings = append(ds.Warnings, fmt.Sprintf("resting heads before the first motion trimmed from %d recordings (%.4g s in all, %s %.4g s first)",
+			n, total, ds.Heads[0].Run, ds.Heads[0].Duration))
+	}
+}
+
+func windowText(from, to float64) string {
+	if to > 0 {
+		return fmt.Sprintf("%g s to %g s after their start", from, to)
+	}
+	return fmt.Sprintf("%g s after their start", from)
+}
+
+// checkWindow checks Options.From and Options.To.
+func (o *Options) checkWindow() error {
+	switch {
+	case math.IsNaN(o.From) || math.IsInf(o.From, 0) || o.From < 0:
+		return fmt.Errorf("%w: start %g s is not a time from the run's start (want 0 or more)", ErrWindow, o.From)
+	case math.IsNaN(o.To) || math.IsInf(o.To, 0) || o.To < 0:
+		return fmt.Errorf("%w: end %g s is not a time from the run's start (want more than 0)", ErrWindow, o.To)
+	case o.To > 0 && o.From > o.To:
+		return fmt.Errorf("%w: start %g s is after end %g s", ErrWindow, o.From, o.To)
+	}
 	return nil
 }

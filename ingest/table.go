@@ -90,7 +90,7 @@ func (tb *table) groups() []group {
 
 // dataset forms runs: groups by --run-col, drops rows with a missing cell,
 // checks that time strictly increases and splits at gaps.
-func (tb *table) dataset() (*Dataset, error) {
+func (tb *table) dataset(opts *Options) (*Dataset, error) {
 	if tb.rows == 0 {
 		return nil, &ParseError{File: tb.file, Err: fmt.Errorf("%w: a header but no data rows", ErrEmpty)}
 	}
@@ -100,7 +100,7 @@ func (tb *table) dataset() (*Dataset, error) {
 		}
 	}
 	ns := len(tb.states) - tb.nInput
-	ds := &Dataset{States: tb.states[:ns:ns], Time: tb.timeCol}
+	ds := &Dataset{States: tb.states[:ns:ns], Time: tb.timeCol, files: []string{tb.file}}
 	if tb.nInput > 0 {
 		ds.Inputs = tb.states[ns:]
 	}
@@ -111,9 +111,12 @@ func (tb *table) dataset() (*Dataset, error) {
 		tb.t = make([]float64, tb.rows)
 	}
 	for _, g := range tb.groups() {
-		if err := tb.splitGroup(ds, g); err != nil {
+		if err := tb.splitGroup(ds, g, opts); err != nil {
 			return nil, err
 		}
+	}
+	if len(ds.Runs) == 0 && ds.Window > 0 {
+		return ds, nil // the time window left nothing here; finish decides
 	}
 	if len(ds.Runs) == 0 {
 		return nil, &ParseError{File: tb.file, Err: fmt.Errorf("%w: every row has a missing cell", ErrEmpty)}
@@ -162,7 +165,7 @@ func allNaN(c []float64) bool {
 	return true
 }
 
-func (tb *table) splitGroup(ds *Dataset, g group) error {
+func (tb *table) splitGroup(ds *Dataset, g group, opts *Options) error {
 	var epoch time.Time
 	var t0 int64
 	haveT0 := false
@@ -237,6 +240,12 @@ func (tb *table) splitGroup(ds *Dataset, g group) error {
 		pieces = append(pieces, cur)
 	}
 	ds.Missing += missing
+	if opts.From > 0 || opts.To > 0 {
+		pieces = tb.window(ds, pieces, opts.From, opts.To)
+		if len(pieces) == 0 {
+			return nil
+		}
+	}
 	// median step over consecutive valid samples within pieces
 	nrows := 0
 	for _, sp := range g.spans {
@@ -281,8 +290,30 @@ func (tb *table) splitGroup(ds *Dataset, g group) error {
 	}
 	gaps := len(final) - 1
 	ds.Gaps += gaps
+	events := 0
+	if ns := len(tb.x) - tb.nInput; ns > 0 && len(final) > 0 && (!opts.KeepHead || !opts.KeepEvents) {
+		noise := tb.noiseOf(final, ns)
+		if !opts.KeepHead {
+			if k := tb.restingHead(final[0], noise); k > 0 {
+				p := final[0]
+				first := pieceRow(p, k)
+				ds.Heads = append(ds.Heads, Head{Run: g.name, Samples: k, Duration: tb.t[first] - tb.t[p[0][0]]})
+				final[0] = subPiece(p, k, pieceLen(p))
+			}
+		}
+		if !opts.KeepEvents {
+			var split [][][2]int
+			for _, p := range final {
+				cuts := tb.findEvents(ds, g.name, p, noise[:ns])
+				out, _ := splitAt(p, cuts)
+				events += len(out) - 1
+				split = append(split, out...)
+			}
+			final = split
+		}
+	}
 	for n, p := range final {
-		r := Run{Name: g.name, Source: Source{File: tb.file, Line: tb.line(p[0][0])}, Epoch: epoch, Gaps: gaps}
+		r := Run{Name: g.name, Source: Source{File: tb.file, Line: tb.line(p[0][0])}, Epoch: epoch, Gaps: gaps, Events: events}
 		if n > 0 {
 			r.Name = fmt.Sprintf("%s~%d", g.name, n)
 		}
@@ -325,4 +356,38 @@ func median(v []float64) float64 {
 		return v[n/2]
 	}
 	return (v[n/2-1] + v[n/2]) / 2
+}
+
+// window keeps, of a recording's pieces, the rows with time in
+// [t0+from, t0+to] (to = 0: no end), t0 being the recording's first
+// sample. With nothing left it counts the recording in ds.Window.
+func (tb *table) window(ds *Dataset, pieces [][][2]int, from, to float64) [][][2]int {
+	first, last := pieces[0][0][0], 0
+	lp := pieces[len(pieces)-1]
+	last = lp[len(lp)-1][1] - 1
+	t0 := tb.t[first]
+	ds.longest = max(ds.longest, tb.t[last]-t0)
+	lo, hi := t0+from, math.Inf(1)
+	if to > 0 {
+		hi = t0 + to
+	}
+	var out [][][2]int
+	for _, p := range pieces {
+		var q [][2]int
+		for _, rg := range p {
+			ts := tb.t[rg[0]:rg[1]]
+			a := sort.SearchFloat64s(ts, lo)
+			b := sort.Search(len(ts), func(i int) bool { return ts[i] > hi })
+			if a < b {
+				q = append(q, [2]int{rg[0] + a, rg[0] + b})
+			}
+		}
+		if len(q) > 0 {
+			out = append(out, q)
+		}
+	}
+	if len(out) == 0 {
+		ds.Window++
+	}
+	return out
 }
