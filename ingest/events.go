@@ -53,17 +53,29 @@ const (
 	eventSpan = 1e-3
 	// noiseSubsample caps the values a noise estimate sorts.
 	noiseSubsample = 1 << 16
-	// spikeMatch tells a spike from a step by the jump statistic beside
-	// the largest: a spike of S at m gives s = 1.5 S at m and -1.5 S at
-	// m+1, a step of J at c gives J at c and -J/2 beside it; a neighbour
-	// within this share of the opposite of the largest means a spike.
+	// spikeMatch tells a step from a spike or a kink by the jump
+	// statistic beside the largest: a step of J at c gives J at c and -J/2
+	// on either side; a spike of S at m (one sample off) gives -S/2, 1.5 S,
+	// -1.5 S, S/2 at m-1 .. m+2; a kink (the slope changes by K after
+	// sample m, as a position does when a hit changes the velocity) gives
+	// 0, -K/2, K/2, 0. A neighbour within this share of the opposite of
+	// the largest means a spike or a kink.
 	spikeMatch = 0.25
+	// kinkOuter tells the two apart by the outer pair: (s_{m+2} -
+	// s_{m-1})/2 over s_m is 1/3 for a spike and 0 for a kink; the
+	// threshold is half way.
+	kinkOuter = 1.0 / 6
+	// minEventPiece is the fewest samples a piece between two event cuts
+	// keeps; shorter ones (a step in one state one sample from a kink in
+	// another) are dropped.
+	minEventPiece = 3
 )
 
 // Event kinds.
 const (
 	EventStep  = "step"  // the state jumps between two samples and stays
 	EventSpike = "spike" // one sample departs and the next comes back; it is dropped
+	EventKink  = "kink"  // the slope changes between two steps (a position when a hit changes the velocity)
 )
 
 // An Event is a one-sample jump far beyond the noise inside a recording
@@ -77,14 +89,19 @@ type Event struct {
 	// sample, in seconds as in Run.T.
 	Time  float64 `json:"time"`
 	State string  `json:"state"`
-	Kind  string  `json:"kind"` // EventStep or EventSpike
+	Kind  string  `json:"kind"` // EventStep, EventSpike or EventKink
 	// Size is the jump in the state's unit: for a step, the change
 	// between the two samples less the slope on either side; for a spike,
-	// the sample's departure from the mean of its neighbours.
+	// the sample's departure from the mean of its neighbours. For a kink
+	// it is the change of slope, in the state's unit per second.
 	Size float64 `json:"size"`
 	// Noise is the per-sample noise estimate of the state in its
 	// recording (the robust scale above over the square root of 5).
 	Noise float64 `json:"noise"`
+	// Sigmas is how far the jump statistic stood out: its size over its
+	// noise scale (at least EventSigmas; +Inf is never written: 0 when
+	// the recording has no noise).
+	Sigmas float64 `json:"sigmas"`
 }
 
 // A Head is a resting start (a pre-trigger baseline) trimmed from a
@@ -99,7 +116,7 @@ type Head struct {
 // jumpStat stores in dst[i], for 2 <= i < len(x)-1, the jump statistic
 // s_i = d_i - (d_{i-1} + d_{i+1})/2 with d_i = x_i - x_{i-1}: the step
 // between two samples less the mean step on either side. Smooth motion
-// gives s near h^3 x'''/2 (h the time step); a step of J at i gives J at
+// gives s near h^3 x”'/2 (h the time step); a step of J at i gives J at
 // i and -J/2 beside it; white noise of deviation sigma gives deviation
 // sqrt(5) sigma (coefficients 3/2, -3/2, 1/2, -1/2). The ends are 0.
 func jumpStat(dst, x []float64) []float64 {
@@ -236,18 +253,30 @@ func (tb *table) findEvents(ds *Dataset, name string, p [][2]int, noise []stateN
 			}
 			i = end
 			ev := Event{Run: name, State: ds.States[j].Name, Kind: EventStep, Size: s[c], Noise: sn.s / math.Sqrt(5)}
-			m := -1 // the spike's sample
+			m := -1 // the spike's sample, or the kink's corner
 			switch {
 			case c+1 < n-1 && math.Abs(s[c]+s[c+1]) < spikeMatch*math.Abs(s[c]):
 				m = c
 			case c-1 >= 2 && math.Abs(s[c]+s[c-1]) < spikeMatch*math.Abs(s[c]):
 				m = c - 1
 			}
-			k := c
+			k, at := c, c // the cut (before k), and the sample whose time is reported
 			if m >= 1 && m+1 < n {
-				ev.Kind, ev.Size, k = EventSpike, x[m]-(x[m-1]+x[m+1])/2, m
+				kink := false
+				if m-1 >= 2 && m+2 < n-1 {
+					kink = (s[m+2]-s[m-1])/2/s[m] < kinkOuter
+				}
+				if kink {
+					h := tb.t[pieceRow(p, m+1)] - tb.t[pieceRow(p, m)]
+					ev.Kind, ev.Size, k, at = EventKink, (x[m+1]-2*x[m]+x[m-1])/h, m+1, m
+				} else {
+					ev.Kind, ev.Size, k, at = EventSpike, x[m]-(x[m-1]+x[m+1])/2, m, m
+				}
 			}
-			ev.Time = tb.t[pieceRow(p, k)]
+			ev.Time = tb.t[pieceRow(p, at)]
+			if sn.s > 0 {
+				ev.Sigmas = math.Abs(s[c]) / sn.s
+			}
 			ds.Events = append(ds.Events, ev)
 			marks[k] = marks[k] || ev.Kind == EventSpike
 		}
@@ -263,21 +292,28 @@ func (tb *table) findEvents(ds *Dataset, name string, p [][2]int, noise []stateN
 // splitAt cuts piece p at the cuts and returns the pieces left, in order,
 // and the number of samples dropped.
 func splitAt(p [][2]int, cuts []cut) (out [][][2]int, dropped int) {
+	if len(cuts) == 0 {
+		return [][][2]int{p}, 0
+	}
 	n := pieceLen(p)
 	start := 0
-	for _, c := range cuts {
-		if c.k > start {
-			out = append(out, subPiece(p, start, c.k))
+	keep := func(a, b int) {
+		switch {
+		case b-a >= minEventPiece:
+			out = append(out, subPiece(p, a, b))
+		case b > a:
+			dropped += b - a
 		}
-		start = c.k
+	}
+	for _, c := range cuts {
+		keep(start, c.k)
+		start = max(start, c.k)
 		if c.drop {
-			start++
+			start = max(start, c.k+1)
 			dropped++
 		}
 	}
-	if start < n {
-		out = append(out, subPiece(p, start, n))
-	}
+	keep(start, n)
 	return out, dropped
 }
 

@@ -11,7 +11,7 @@ import (
 	"gonum.org/v1/gonum/stat/distuv"
 )
 
-// oscillator logs a damped linear oscillator x'' + 2 zeta w x' + w^2 x = 0
+// oscillator logs a damped linear oscillator x” + 2 zeta w x' + w^2 x = 0
 // (w = 2 pi rad/s, zeta = 0.05) at 200 Hz for dur seconds, from x0, v0,
 // with Gaussian noise sd on both states. At sample hit (if >= 0) the
 // velocity jumps by dv (a hammer hit: an impulse changes the velocity,
@@ -324,4 +324,53 @@ func slicesEqual(a, b []float64) bool {
 		}
 	}
 	return true
+}
+
+// TestEventKink: a hit changes the velocity, so the position's slope
+// changes at the hit's sample (a kink). In a position-only log that kink
+// is the event, its size the velocity jump; with both states logged the
+// velocity's step and the position's kink make one split, the sample
+// between their cuts dropped.
+func TestEventKink(t *testing.T) {
+	const sd, dv, hit = 0.01, 400.0, 1000
+	in := oscillator(rand.New(rand.NewPCG(13, 14)), 8, 10, 0, 0, hit, dv, sd)
+	var pos strings.Builder
+	for _, l := range strings.Split(strings.TrimSpace(in), "\n") {
+		f := strings.Split(l, ",")
+		pos.WriteString(f[0] + "," + f[1] + "\n")
+	}
+	ds, err := ReadCSV(strings.NewReader(pos.String()), "pos.csv", nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(ds.Events) != 1 || len(ds.Runs) != 2 {
+		t.Fatalf("position only: events %+v, %d runs", ds.Events, len(ds.Runs))
+	}
+	ev := ds.Events[0]
+	// the corner is the hit's sample: the position is continuous there
+	// and the next step has the new velocity
+	if ev.Kind != EventKink || ev.Time != hit*0.005 || ds.Runs[0].Len() != hit+1 {
+		t.Errorf("event %+v, first run %d samples; want a kink at %g s, %d samples", ev, ds.Runs[0].Len(), hit*0.005, hit+1)
+	}
+	// The second difference over h has noise sqrt(6) sd / h = 4.9 mm/s;
+	// the damped response's own curvature over one step adds
+	// w^2 x h, under 2 mm/s here: 5 noise deviations plus that.
+	if tol := 5*math.Sqrt(6)*sd/0.005 + 2; !scalar.EqualWithinAbs(ev.Size, dv, tol) {
+		t.Errorf("kink size %g mm/s, want the velocity jump %g ± %g", ev.Size, dv, tol)
+	}
+	ds, err = ReadCSV(strings.NewReader(in), "both.csv", nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	kinds := map[string]string{}
+	for _, ev := range ds.Events {
+		kinds[ev.State] = ev.Kind
+		if ev.Time != hit*0.005 {
+			t.Errorf("event %+v, want it at %g s", ev, hit*0.005)
+		}
+	}
+	if kinds["vel"] != EventStep || kinds["disp"] != EventKink || len(ds.Runs) != 2 || ds.Dropped != 1 ||
+		ds.Runs[0].Len() != hit || ds.Runs[1].T[0] != (hit+1)*0.005 {
+		t.Errorf("both states: events %+v, %d runs, %d dropped", ds.Events, len(ds.Runs), ds.Dropped)
+	}
 }

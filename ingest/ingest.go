@@ -90,6 +90,9 @@ type Dataset struct {
 	// Heads lists the resting heads trimmed from the start of
 	// recordings. Nil with Options.KeepHead.
 	Heads []Head
+	// Dropped counts samples dropped at events: spikes, and pieces of
+	// fewer than 3 samples between two event cuts.
+	Dropped int
 	// Window counts, when Options.From or Options.To is set, the
 	// recordings left out because no sample fell in the time window.
 	Window int

@@ -185,6 +185,7 @@ func Load(ctx context.Context, paths []string, opts *Options) (*Dataset, error) 
 		out.Events = append(out.Events, ds.Events...)
 		out.Heads = append(out.Heads, ds.Heads...)
 		out.Window += ds.Window
+		out.Dropped += ds.Dropped
 		out.longest = max(out.longest, ds.longest)
 		out.files = append(out.files, ds.files...)
 		out.Warnings = append(out.Warnings, ds.Warnings...)

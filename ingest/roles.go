@@ -236,8 +236,8 @@ func finish(ds *Dataset, opts *Options) error {
 		return err
 	}
 	if ds.Window > 0 {
-		ds.Warnings = append(ds.Warnings, fmt.Sprintf("%d recordings have no samples from %s and are left out",
-			ds.Window, windowText(opts.From, opts.To)))
+		ds.Warnings = append(ds.Warnings, fmt.Sprintf("%d of %d recordings have no samples from %s and are left out",
+			ds.Window, ds.Window+ds.recordings(), windowText(opts.From, opts.To)))
 	}
 	warnEvents(ds)
 	warnConstantInputs(ds)
@@ -260,19 +260,31 @@ func warnEvents(ds *Dataset) {
 			more = fmt.Sprintf(" (and %d more)", n-1)
 		}
 		far := "in data with no noise"
-		if ev.Noise > 0 {
-			far = fmt.Sprintf("%.0f times the noise", math.Abs(ev.Size)/ev.Noise)
+		if ev.Sigmas > 0 {
+			far = fmt.Sprintf("%.0f times the noise", ev.Sigmas)
 		}
-		ds.Warnings = append(ds.Warnings, fmt.Sprintf("%d one-sample jumps far beyond the noise split runs: %s at %g s, %s %s of %+.4g%s, %s%s",
-			n, ev.Run, ev.Time, ev.State, ev.Kind, ev.Size, unit, far, more))
+		if ev.Kind == EventKink {
+			unit += "/s"
+		}
+		what := "jumps"
+		if n == 1 {
+			what = "jump"
+		}
+		ds.Warnings = append(ds.Warnings, fmt.Sprintf("%d one-sample %s far beyond the noise split runs: %s at %g s, %s %s of %+.4g%s, %s%s",
+			n, what, ev.Run, ev.Time, ev.State, ev.Kind, ev.Size, unit, far, more))
 	}
 	if n := len(ds.Heads); n > 0 {
 		total := 0.0
 		for _, h := range ds.Heads {
 			total += h.Duration
 		}
-		ds.Warnings = append(ds.Warnings, fmt.Sprintf("resting heads before the first motion trimmed from %d recordings (%.4g s in all, %s %.4g s first)",
-			n, total, ds.Heads[0].Run, ds.Heads[0].Duration))
+		if n == 1 {
+			ds.Warnings = append(ds.Warnings, fmt.Sprintf("resting start before the first motion trimmed: %s, %.4g s (%d samples)",
+				ds.Heads[0].Run, ds.Heads[0].Duration, ds.Heads[0].Samples))
+		} else {
+			ds.Warnings = append(ds.Warnings, fmt.Sprintf("resting starts before the first motion trimmed from %d recordings (%.4g s in all; %s, %.4g s, first)",
+				n, total, ds.Heads[0].Run, ds.Heads[0].Duration))
+		}
 	}
 }
 
@@ -294,4 +306,15 @@ func (o *Options) checkWindow() error {
 		return fmt.Errorf("%w: start %g s is after end %g s", ErrWindow, o.From, o.To)
 	}
 	return nil
+}
+
+// recordings counts the recordings the runs were cut from.
+func (ds *Dataset) recordings() int {
+	n := 0
+	for i := range ds.Runs {
+		if !strings.Contains(ds.Runs[i].Name, "~") {
+			n++
+		}
+	}
+	return n
 }

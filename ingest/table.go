@@ -240,7 +240,7 @@ func (tb *table) splitGroup(ds *Dataset, g group, opts *Options) error {
 		pieces = append(pieces, cur)
 	}
 	ds.Missing += missing
-	if opts.From > 0 || opts.To > 0 {
+	if (opts.From > 0 || opts.To > 0) && len(pieces) > 0 {
 		pieces = tb.window(ds, pieces, opts.From, opts.To)
 		if len(pieces) == 0 {
 			return nil
@@ -292,7 +292,7 @@ func (tb *table) splitGroup(ds *Dataset, g group, opts *Options) error {
 	ds.Gaps += gaps
 	events := 0
 	if ns := len(tb.x) - tb.nInput; ns > 0 && len(final) > 0 && (!opts.KeepHead || !opts.KeepEvents) {
-		noise := tb.noiseOf(final, ns)
+		noise := tb.noiseOf(final, len(tb.x)) // the inputs too: a head ends when the drive starts
 		if !opts.KeepHead {
 			if k := tb.restingHead(final[0], noise); k > 0 {
 				p := final[0]
@@ -305,7 +305,8 @@ func (tb *table) splitGroup(ds *Dataset, g group, opts *Options) error {
 			var split [][][2]int
 			for _, p := range final {
 				cuts := tb.findEvents(ds, g.name, p, noise[:ns])
-				out, _ := splitAt(p, cuts)
+				out, dropped := splitAt(p, cuts)
+				ds.Dropped += dropped
 				events += len(out) - 1
 				split = append(split, out...)
 			}

@@ -37,10 +37,24 @@ Every command that reads logs takes:
 	                    setpoint)
 	--manifest FILE.csv columns path,run,split (fit, holdout or empty):
 	                    which runs are held out (not screen)
+	--from S, --to S    keep the samples from S to S seconds after each
+	                    run's first sample (default: all of it)
+	--keep-head         keep a run's resting start (default: trimmed)
+	--keep-events       keep runs whole across one-sample jumps (default:
+	                    split there)
 
 A header cell "name [unit]" or "name (unit)" carries a unit, reported back
 wherever the column appears. Empty cells and NaN are missing samples: a run
 is split at a gap, not interpolated across it.
+
+A one-sample jump far beyond the noise (a hammer hit, a relay, a dropped
+packet) splits a run there like a gap; a spike, one sample that departs
+and comes back, is dropped. Far means more than 8 times the robust noise
+scale of the jump statistic, taken from the run's own samples (1.2e-15 of
+Gaussian noise goes that far). A run's resting start, the samples before
+the first motion beyond 6 times the noise, is trimmed when it holds at
+least 20 samples and does not drift. Both are reported by inspect and in
+a warning.
 
 # basin run
 

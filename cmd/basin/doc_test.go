@@ -43,7 +43,8 @@ func TestDocMentionsEveryFlag(t *testing.T) {
 	if reading == "" {
 		t.Fatal("doc.go has no Reading logs section")
 	}
-	inputFlags := map[string]bool{"--inputs": true, "--time-col": true, "--rate": true, "--run-col": true, "--states": true, "--manifest": true}
+	inputFlags := map[string]bool{"--inputs": true, "--time-col": true, "--rate": true, "--run-col": true, "--states": true, "--manifest": true,
+		"--from": true, "--to": true, "--keep-head": true, "--keep-events": true}
 	for _, c := range commands {
 		name := c.Name()
 		if name == "help" || name == "version" {

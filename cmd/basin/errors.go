@@ -36,7 +36,7 @@ func usagef(format string, a ...any) error { return &usageError{fmt.Sprintf(form
 // badInput lists the library errors that are findings about the user's
 // files or options, not failures of basin: they exit 2.
 var badInput = []error{
-	ingest.ErrEmpty, ingest.ErrFormat, ingest.ErrNoFiles, ingest.ErrNoTime, ingest.ErrNoStates,
+	ingest.ErrEmpty, ingest.ErrFormat, ingest.ErrNoFiles, ingest.ErrNoTime, ingest.ErrNoStates, ingest.ErrWindow,
 	fit.ErrTooFewSamples, fit.ErrBudget, fit.ErrConstant, fit.ErrCollinear, fit.ErrShortRun, fit.ErrMismatch, fit.ErrOptions,
 	validate.ErrOptions, export.ErrNoV,
 }

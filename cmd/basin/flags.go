@@ -33,6 +33,10 @@ type inputFlags struct {
 	States   string
 	Inputs   string
 	Manifest string
+	// the time window and the trimming
+	From, To   float64
+	KeepHead   bool
+	KeepEvents bool
 }
 
 // register adds the input flags to fs; --manifest only when manifest.
@@ -45,6 +49,10 @@ func (f *inputFlags) register(fs *flag.FlagSet, manifest bool) {
 	if manifest {
 		fs.StringVar(&f.Manifest, "manifest", "", "run manifest `FILE.csv` (path,run,split)")
 	}
+	fs.Float64Var(&f.From, "from", 0, "keep samples from `S` seconds after each run's first sample")
+	fs.Float64Var(&f.To, "to", 0, "keep samples up to `S` seconds after each run's first sample (default: to the end)")
+	fs.BoolVar(&f.KeepHead, "keep-head", false, "keep a run's resting start before its first motion (default: trimmed)")
+	fs.BoolVar(&f.KeepEvents, "keep-events", false, "keep runs whole across one-sample jumps far beyond the noise (default: split there)")
 }
 
 // options turns the flags into ingest options.
@@ -52,7 +60,16 @@ func (f *inputFlags) options() (*ingest.Options, error) {
 	if f.Rate < 0 {
 		return nil, usagef("--rate must be positive, got %g", f.Rate)
 	}
-	o := &ingest.Options{TimeCol: f.TimeCol, Rate: f.Rate, RunCol: f.RunCol, Manifest: f.Manifest}
+	switch {
+	case !(f.From >= 0) || math.IsInf(f.From, 0):
+		return nil, usagef("--from must be 0 or more seconds, got %g", f.From)
+	case !(f.To >= 0) || math.IsInf(f.To, 0):
+		return nil, usagef("--to must be more than 0 seconds, got %g", f.To)
+	case f.To > 0 && f.From > f.To:
+		return nil, usagef("--from %g is after --to %g", f.From, f.To)
+	}
+	o := &ingest.Options{TimeCol: f.TimeCol, Rate: f.Rate, RunCol: f.RunCol, Manifest: f.Manifest,
+		From: f.From, To: f.To, KeepHead: f.KeepHead, KeepEvents: f.KeepEvents}
 	if f.States != "" {
 		for _, s := range strings.Split(f.States, ",") {
 			s = strings.TrimSpace(s)

@@ -59,6 +59,10 @@ type inspectJSON struct {
 	Time    ingest.Column  `json:"time"`
 	Ignored []string       `json:"ignored,omitempty"`
 	Summary inspectSummary `json:"summary"`
+	// Events are the one-sample jumps runs were split at; Heads the
+	// resting starts trimmed.
+	Events []ingest.Event `json:"events"`
+	Heads  []ingest.Head  `json:"heads"`
 }
 
 type inspectRun struct {
@@ -72,6 +76,7 @@ type inspectRun struct {
 	RateHz   float64   `json:"rate_hz"`
 	Jitter   float64   `json:"jitter"`
 	Gaps     int       `json:"gaps"`
+	Events   int       `json:"events"`
 	Split    string    `json:"split,omitempty"`
 	Min      []float64 `json:"min"`
 	Max      []float64 `json:"max"`
@@ -96,6 +101,9 @@ type inspectSummary struct {
 	Jitter      float64   `json:"jitter"`
 	Gaps        int       `json:"gaps"`
 	Missing     int       `json:"missing"`
+	Events      int       `json:"events"`
+	Heads       int       `json:"heads"`
+	LeftOut     int       `json:"window_left_out"`
 	SettledRuns int       `json:"settled_runs"`
 	Settle      []float64 `json:"settle,omitempty"`
 	Jitterdef   string    `json:"jitter_definition"`
@@ -122,11 +130,18 @@ func runInspect(ctx context.Context, e *env, args []string) error {
 }
 
 func inspectDoc(ds *ingest.Dataset, s *ingest.Summary) *inspectJSON {
-	doc := &inspectJSON{Time: ds.Time, Runs: []inspectRun{}, States: []inspectState{}, Inputs: []inspectState{}}
-	for _, r := range s.Runs {
+	doc := &inspectJSON{Time: ds.Time, Runs: []inspectRun{}, States: []inspectState{}, Inputs: []inspectState{},
+		Events: ds.Events, Heads: ds.Heads}
+	if doc.Events == nil {
+		doc.Events = []ingest.Event{}
+	}
+	if doc.Heads == nil {
+		doc.Heads = []ingest.Head{}
+	}
+	for i, r := range s.Runs {
 		ir := inspectRun{File: r.File, Run: r.Name, Line: r.Line, Samples: r.Samples, Start: r.Start,
 			Duration: r.Duration, RateHz: r.RateHz, Jitter: r.Jitter, Gaps: r.Gaps, Split: r.Split,
-			Min: r.Min, Max: r.Max, Settled: r.Settled, Settle: r.Settle}
+			Min: r.Min, Max: r.Max, Settled: r.Settled, Settle: r.Settle, Events: ds.Runs[i].Events}
 		if !r.Epoch.IsZero() {
 			ir.Epoch = r.Epoch.Format(time.RFC3339Nano)
 		}
@@ -148,7 +163,8 @@ func inspectDoc(ds *ingest.Dataset, s *ingest.Summary) *inspectJSON {
 	}
 	doc.Summary = inspectSummary{Files: s.Files, Runs: len(s.Runs), Samples: s.Total.Samples,
 		Duration: s.Total.Duration, RateHz: s.Total.RateHz, Jitter: s.Total.Jitter, Gaps: ds.Gaps,
-		Missing: s.Missing, SettledRuns: s.SettledRuns, Settle: s.Settle,
+		Missing: s.Missing, Events: len(ds.Events), Heads: len(ds.Heads), LeftOut: ds.Window,
+		SettledRuns: s.SettledRuns, Settle: s.Settle,
 		Jitterdef: "interquartile range of the time steps divided by their median"}
 	return doc
 }
@@ -209,6 +225,7 @@ func inspectTable(w io.Writer, ds *ingest.Dataset, s *ingest.Summary) error {
 		fmt.Fprintf(w, " [%s]", ds.Time.Unit)
 	}
 	fmt.Fprintf(w, "; %d gaps split runs, %d samples missing\n", ds.Gaps, s.Missing)
+	inspectEvents(w, ds)
 	if len(ds.Ignored) > 0 {
 		fmt.Fprintf(w, "ignored columns (not numeric or not chosen):")
 		for _, c := range ds.Ignored {
@@ -218,4 +235,52 @@ func inspectTable(w io.Writer, ds *ingest.Dataset, s *ingest.Summary) error {
 	}
 	fmt.Fprintln(w, "jitter: interquartile range of the time steps over their median; settled: the last 5% of a run spans at most 10% of its range")
 	return nil
+}
+
+// maxListed is the most events or heads inspect's table lists.
+const maxListed = 20
+
+// inspectEvents lists the events runs were split at and the resting
+// heads trimmed.
+func inspectEvents(w io.Writer, ds *ingest.Dataset) {
+	unit := map[string]string{}
+	for _, c := range ds.States {
+		unit[c.Name] = c.Unit
+	}
+	if n := len(ds.Events); n > 0 {
+		fmt.Fprintf(w, "\n%d one-sample jumps far beyond the noise split runs (a step or kink splits there, a spike's sample is dropped; %d samples dropped):\n", n, ds.Dropped)
+		tw := tabwriter.NewWriter(w, 0, 4, 2, ' ', 0)
+		fmt.Fprintln(tw, "  run\ttime s\tstate\tkind\tsize\tnoise\ttimes the noise")
+		for _, ev := range ds.Events[:min(n, maxListed)] {
+			times := "-"
+			if ev.Sigmas > 0 {
+				times = strconv.FormatFloat(ev.Sigmas, 'f', 0, 64)
+			}
+			u := unit[ev.State]
+			if u != "" {
+				u = " " + u
+			}
+			su := u
+			if ev.Kind == ingest.EventKink { // a change of slope
+				su += "/s"
+			}
+			fmt.Fprintf(tw, "  %s\t%s\t%s\t%s\t%s%s\t%s%s\t%s\n", ev.Run, g(ev.Time), ev.State, ev.Kind, g(ev.Size), su, g(ev.Noise), u, times)
+		}
+		tw.Flush()
+		if n > maxListed {
+			fmt.Fprintf(w, "  ... and %d more (--json lists them all; --keep-events keeps runs whole)\n", n-maxListed)
+		}
+	}
+	if n := len(ds.Heads); n > 0 {
+		fmt.Fprintf(w, "\nresting starts trimmed before the first motion (--keep-head keeps them):\n")
+		for _, h := range ds.Heads[:min(n, maxListed)] {
+			fmt.Fprintf(w, "  %s: %s s (%d samples)\n", h.Run, g(h.Duration), h.Samples)
+		}
+		if n > maxListed {
+			fmt.Fprintf(w, "  ... and %d more\n", n-maxListed)
+		}
+	}
+	if ds.Window > 0 {
+		fmt.Fprintf(w, "\n%d recordings left out: no samples in the --from/--to window\n", ds.Window)
+	}
 }

@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"context"
 	"encoding/json"
+	"math"
 	"os"
 	"path/filepath"
 	"strings"
@@ -53,6 +54,84 @@ func TestInspectInputs(t *testing.T) {
 		{[]string{"--inputs", "drive", "--states", "disp,drive"}, `column "drive": named both as a state and as an input`},
 		{[]string{"--inputs", "force"}, `column "force": bad input column: no column has this name`},
 		{[]string{"--inputs", "drive,"}, `--inputs: empty name`},
+	} {
+		stdout.Reset()
+		stderr.Reset()
+		code := basinMainIn(context.Background(), append(append([]string{"inspect"}, tc.args...), path), &stdout, &stderr, nil)
+		if msg := stderr.String(); code != 2 || stdout.Len() != 0 || strings.Count(msg, "\n") != 1 || !strings.Contains(msg, tc.want) {
+			t.Errorf("%v: exit %d, stderr %q; want 2 and one line with %q", tc.args, code, msg, tc.want)
+		}
+	}
+}
+
+// TestInspectEvents: a hit in a run and a resting start are listed by
+// inspect (table and --json); a reversed window and one after every
+// run's end exit 2 with one line naming it.
+func TestInspectEvents(t *testing.T) {
+	dir := t.TempDir()
+	// at rest for 100 samples, then a decaying oscillation (50 samples a
+	// period) hit at sample 300, with a little deterministic "noise"
+	in := "t [s],x [mm],v [mm/s]\n"
+	x, v := 0.0, 0.0
+	for i := range 600 {
+		if i == 100 {
+			x = 5
+		}
+		if i == 300 {
+			v += 80
+		}
+		nz := 0.01 * math.Sin(1.7*float64(i)*float64(i))
+		in += ftoa(float64(i)*0.01) + "," + ftoa(x+nz) + "," + ftoa(v-nz) + "\n"
+		if i >= 100 { // semi-implicit Euler of x'' = -0.2 x' - 16 x
+			v += 0.01 * (-0.2*v - 16*x)
+			x += 0.01 * v
+		}
+	}
+	path := filepath.Join(dir, "hit.csv")
+	if err := os.WriteFile(path, []byte(in), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	var stdout, stderr bytes.Buffer
+	if code := basinMainIn(context.Background(), []string{"inspect", "--json", path}, &stdout, &stderr, nil); code != 0 {
+		t.Fatalf("exit %d: %s", code, stderr.String())
+	}
+	var doc struct {
+		Events []struct {
+			Run, State, Kind string
+			Time             float64
+		} `json:"events"`
+		Heads []struct {
+			Run      string
+			Samples  int
+			Duration float64
+		} `json:"heads"`
+		Summary struct{ Events, Heads int } `json:"summary"`
+	}
+	if err := json.Unmarshal(stdout.Bytes(), &doc); err != nil {
+		t.Fatal(err)
+	}
+	found := false
+	for _, ev := range doc.Events {
+		found = found || (ev.State == "v" && ev.Kind == "step" && ev.Time == 3)
+	}
+	if !found || len(doc.Heads) != 1 || doc.Heads[0].Samples != 100 || doc.Summary.Heads != 1 || doc.Summary.Events != len(doc.Events) {
+		t.Errorf("events %+v, heads %+v, summary %+v", doc.Events, doc.Heads, doc.Summary)
+	}
+	if w := stderr.String(); !strings.Contains(w, "far beyond the noise") || !strings.Contains(w, "resting start") {
+		t.Errorf("warnings %q", w)
+	}
+	stdout.Reset()
+	if code := basinMainIn(context.Background(), []string{"inspect", path}, &stdout, &stderr, nil); code != 0 ||
+		!strings.Contains(stdout.String(), "one-sample jump") || !strings.Contains(stdout.String(), "hit.csv: 1 s (100 samples)") {
+		t.Errorf("table: exit %d\n%s", code, stdout.String())
+	}
+	for _, tc := range []struct {
+		args []string
+		want string
+	}{
+		{[]string{"--from", "5", "--to", "2"}, "--from 5 is after --to 2"},
+		{[]string{"--from", "-1"}, "--from must be 0 or more"},
+		{[]string{"--from", "60"}, "time window: no samples from 60 s after their start: every run ends before, the longest lasts 5.99 s"},
 	} {
 		stdout.Reset()
 		stderr.Reset()
