@@ -9,6 +9,7 @@ import (
 	"sort"
 	"strings"
 
+	"basin.example/fit/lyapunov"
 	"basin.example/ingest"
 	"gonum.org/v1/gonum/mat"
 )
@@ -192,6 +193,9 @@ func Certify(ctx context.Context, m *Model, ds *ingest.Dataset, opts *CertifyOpt
 
 	// The runs in z, the envelope and the checker.
 	ck, _, err := newChecker(ctx, m, ds, xe, scale, o)
+	if errors.Is(err, lyapunov.ErrDegenerate) {
+		return noFind(ReasonTrustDegenerate, fmt.Sprintf("No V was fitted: the model's trust region cannot be computed (%v), so nothing tells where the model holds. Record runs that start at different states and move every state.", err))
+	}
 	if err != nil {
 		return nil, err
 	}
@@ -205,8 +209,8 @@ func Certify(ctx context.Context, m *Model, ds *ingest.Dataset, opts *CertifyOpt
 		return noFind(ReasonTooFewSamples, fmt.Sprintf("No V was fitted: V of degree %d has %d coefficients, and %d samples are too few for it (at least %d needed); try a lower --v-degree.",
 			o.Degree, fam.Len(), ds.Samples(), nMin))
 	}
-	if !ck.env.inside(make([]float64, n)) {
-		return noFind(ReasonOutsideData, "No V was fitted: the equilibrium lies outside the envelope the data cover.")
+	if !ck.trust.Inside(make([]float64, n)) {
+		return noFind(ReasonOutsideData, fmt.Sprintf("No V was fitted: the equilibrium lies outside the trust region of the model (where the data make it believable). Record runs that settle at %s.", formatPoint(xe, m.States, m.Units)))
 	}
 
 	// Start: the Lyapunov equation, Q = I (of A - delta·I on the
@@ -322,8 +326,13 @@ func Certify(ctx context.Context, m *Model, ds *ingest.Dataset, opts *CertifyOpt
 		return noFind(ReasonNoLevel, "No V was found: "+reason+".")
 	}
 
+	// The bound over the piece of the level set.
+	r := ck.verify(best.c, best.res)
+	if !r.ok {
+		return noFind(ReasonNoLevel, "No V was found: "+r.reason+". Record more runs near the equilibrium.")
+	}
+
 	// The certificate.
-	r := best.res
 	cert.Found = true
 	cert.V = fam.poly(best.c)
 	cert.Level = r.level
@@ -348,7 +357,11 @@ func Certify(ctx context.Context, m *Model, ds *ingest.Dataset, opts *CertifyOpt
 	for _, s := range scale {
 		vol *= s
 	}
-	cert.Region.EnvelopeVolume = ck.env.volume() * vol
+	boxVol := 1.0
+	for j := 0; j < n; j++ {
+		boxVol *= ck.trust.Hi[j] - ck.trust.Lo[j]
+	}
+	cert.Region.EnvelopeVolume = ck.poolShare * boxVol * vol
 	cert.Region.Volume = r.share * cert.Region.EnvelopeVolume
 	cert.Region.Limit = r.limit
 	if capped {
@@ -380,9 +393,38 @@ func Certify(ctx context.Context, m *Model, ds *ingest.Dataset, opts *CertifyOpt
 		claim = "does not rise beyond the noise tolerance (the linearisation has an eigenvalue on the imaginary axis, so at most stability is claimed)"
 	}
 	cert.ReasonKind = ReasonRegion
-	cert.Reason = fmt.Sprintf("V of degree %d (from the %s, margin %.3g) %s on the fit runs; its level set V <= %.4g covers %.1f%% of the envelope, limited by %s%s; not yet checked on held-out runs.",
-		o.Degree, best.source, cert.Margin, claim, r.level, 100*r.share, limit, where)
+	cert.Reason = fmt.Sprintf("V of degree %d (from the %s, margin %.3g) %s on the fit runs; its level set V <= %.4g covers %.1f%% of the model's trust region, limited by %s%s; not yet checked on held-out runs. %s",
+		o.Degree, best.source, cert.Margin, claim, r.level, 100*r.share, limit, where, nextStep(r.limit, cert, m))
 	return cert, nil
+}
+
+// nextStep says, in the states' units, what to record to grow a region
+// stopped by limit.
+func nextStep(limit string, cert *Certificate, m *Model) string {
+	wide := make([]string, len(cert.Box))
+	for j, b := range cert.Box {
+		e := cert.Equilibrium[j]
+		w := 1.5 * math.Max(math.Abs(b[0]-e), math.Abs(b[1]-e))
+		u := ""
+		if j < len(m.Units) && m.Units[j] != "" {
+			u = " " + m.Units[j]
+		}
+		wide[j] = fmt.Sprintf("%s %.4g ±%.3g%s", m.States[j], e, w, u)
+	}
+	within := strings.Join(wide, ", ")
+	switch limit {
+	case LimitTrust:
+		return "The model is uncertain beyond here (too few samples there); to grow the region, record runs that start within " + within + "."
+	case LimitOther:
+		return "The region stops at another equilibrium: it cannot grow past it."
+	case LimitViolated:
+		return "A recorded run does not fall there: record more runs through that point to tell noise from a real rise."
+	case LimitDecrease:
+		return "The model does not fall there (or is too uncertain to tell); record runs that pass through that point."
+	case LimitGrowth:
+		return "The search was still growing: raise the growth rounds to go further."
+	}
+	return "Record runs that start within " + within + " to check and grow the region."
 }
 
 // certDebug, when set (tests only), receives one line per growth round.
@@ -433,7 +475,8 @@ func certScale(m *Model, ds *ingest.Dataset) []float64 {
 	return s
 }
 
-// newChecker converts the runs to z and builds the envelope and checker.
+// newChecker converts the runs to z and builds the trust region and the
+// checker. Its error wraps lyapunov.ErrDegenerate for a collinear library.
 func newChecker(ctx context.Context, m *Model, ds *ingest.Dataset, xe, scale []float64, o CertifyOptions) (*checker, []float64, error) {
 	n := len(xe)
 	// One buffer holds every run's z; each run's slice aliases it, so the
@@ -457,13 +500,6 @@ func newChecker(ctx context.Context, m *Model, ds *ingest.Dataset, xe, scale []f
 			}
 		}
 		runs = append(runs, zr)
-	}
-	env := newEnvelope(all, n)
-	for i := range runs {
-		runs[i].cell = make([]int32, len(runs[i].t))
-		for k := range runs[i].t {
-			runs[i].cell[k] = int32(env.cellOf(runs[i].z[k*n : (k+1)*n]))
-		}
 	}
 	sigma := make([]float64, n)
 	s2 := 0.0
@@ -492,22 +528,174 @@ func newChecker(ctx context.Context, m *Model, ds *ingest.Dataset, xe, scale []f
 		}
 		others = append(others, z)
 	}
-	depth, extra := 1, 1
-	switch {
-	case n <= 2:
-		depth, extra = 5, 6
-	case n == 3:
-		depth, extra = 2, 3
-	}
 	ck := &checker{
-		fam: newVFamily(n, o.Degree), zf: newZField(m, xe, scale), env: env, runs: runs,
+		fam: newVFamily(n, o.Degree), zf: newZField(m, xe, scale), runs: runs,
 		others: others, sigma: sigma,
 		r0:    math.Max(noiseRadiusSigmas*math.Sqrt(s2), minNoiseRadius),
-		kappa: o.Kappa, maxDepth: depth, extraDepth: extra, share: o.ShareSamples,
-		rng: rand.New(rand.NewPCG(o.Seed, 2)),
+		kappa: o.Kappa,
 	}
-	ck.indexSamples()
+	// The trust region: leverage over the model's terms.
+	var terms [][]int
+	for _, e := range m.Equations {
+		terms = append(terms, e.Exponents...)
+	}
+	tr, err := lyapunov.NewTrust(n, terms, xe, scale, all)
+	if err != nil {
+		return nil, nil, err
+	}
+	ck.trust = tr
+	off := 0
+	for i := range ck.runs {
+		k := len(ck.runs[i].t)
+		ck.runs[i].h = tr.HSamples[off : off+k]
+		off += k
+	}
+	ck.sigmaF = fieldSigma(m, ck, all)
+	ck.fz = fieldZ(m, xe, scale)
+	ck.makeRays(rand.New(rand.NewPCG(o.Seed, 4)))
+	ck.makePool(o.ShareSamples, rand.New(rand.NewPCG(o.Seed, 2)))
 	return ck, all, nil
+}
+
+// fieldSigma returns the residual standard deviation of the fitted field
+// per state in z units per second: the equation's cross-validated error
+// (normalised by the spread of the state's derivative) times the spread
+// of the fitted derivative over the samples; nil when the model carries
+// no held-out errors (an exact model).
+func fieldSigma(m *Model, ck *checker, all []float64) []float64 {
+	n := len(m.States)
+	any := false
+	for _, e := range m.Equations {
+		any = any || e.HeldoutError > 0
+	}
+	if !any {
+		return nil
+	}
+	ns := len(all) / n
+	stride := max(1, ns/5000)
+	f := make([]float64, n)
+	sum, sq := make([]float64, n), make([]float64, n)
+	cnt := 0.0
+	for i := 0; i < ns; i += stride {
+		ck.zf.evalTo(f, all[i*n:(i+1)*n])
+		for j, v := range f {
+			sum[j] += v
+			sq[j] += v * v
+		}
+		cnt++
+	}
+	out := make([]float64, n)
+	for j := range out {
+		mean := sum[j] / cnt
+		sd := math.Sqrt(math.Max(0, sq[j]/cnt-mean*mean))
+		if e := m.Equations[j].HeldoutError; e > 0 && !math.IsInf(e, 0) {
+			out[j] = e * sd
+		}
+	}
+	return out
+}
+
+// Rays and Monte-Carlo points (not user-facing): raysPerState·n random
+// directions plus the 2n axes; rayExitSteps steps to find a ray's exit
+// from the trust region, then rayBisect halvings.
+const (
+	raysPerState = 100
+	rayExitSteps = 64
+	rayBisect    = 12
+)
+
+// makeRays draws the rays from the equilibrium and cuts each at the first
+// point where the model is not trusted.
+func (ck *checker) makeRays(rng *rand.Rand) {
+	n := ck.fam.n
+	tr := ck.trust
+	rmax := 0.0
+	for j := 0; j < n; j++ {
+		rmax += math.Max(tr.Lo[j]*tr.Lo[j], tr.Hi[j]*tr.Hi[j])
+	}
+	rmax = math.Sqrt(rmax)
+	u := make([]float64, n)
+	z := make([]float64, n)
+	at := func(t float64) []float64 {
+		for j := range z {
+			z[j] = t * u[j]
+		}
+		return z
+	}
+	count := raysPerState*n + 2*n
+	for d := 0; d < count; d++ {
+		if d < 2*n {
+			for j := range u {
+				u[j] = 0
+			}
+			u[d/2] = 1 - 2*float64(d%2)
+		} else {
+			r := 0.0
+			for j := range u {
+				u[j] = rng.NormFloat64()
+				r += u[j] * u[j]
+			}
+			r = math.Sqrt(r)
+			for j := range u {
+				u[j] /= r
+			}
+		}
+		// First untrusted step, then bisect between it and the last
+		// trusted one.
+		step := rmax / rayExitSteps
+		t0, t1 := 0.0, math.Inf(1)
+		for k := 1; k <= rayExitSteps+1; k++ {
+			if !tr.Inside(at(float64(k) * step)) {
+				t1 = float64(k) * step
+				break
+			}
+			t0 = float64(k) * step
+		}
+		ry := ray{z: make([]float64, rayPoints*n), f: make([]float64, rayPoints*n), h: make([]float64, rayPoints)}
+		end := t0
+		if !math.IsInf(t1, 1) {
+			for b := 0; b < rayBisect; b++ {
+				mid := (t0 + t1) / 2
+				if tr.Inside(at(mid)) {
+					t0 = mid
+				} else {
+					t1 = mid
+				}
+			}
+			end, ry.exit = t1, true
+		}
+		for k := 0; k < rayPoints; k++ {
+			p := ry.z[k*n : (k+1)*n]
+			copy(p, at(end*float64(k+1)/rayPoints))
+			ck.zf.evalTo(ry.f[k*n:(k+1)*n], p)
+			ry.h[k] = tr.Leverage(p)
+		}
+		ck.rays = append(ck.rays, ry)
+	}
+}
+
+// maxOutside caps the untrusted points kept for the LP's exclusion rows.
+const maxOutside = 2000
+
+// makePool draws draws points uniformly from the samples' box and keeps
+// the trusted ones (and up to maxOutside untrusted ones).
+func (ck *checker) makePool(draws int, rng *rand.Rand) {
+	n := ck.fam.n
+	tr := ck.trust
+	z := make([]float64, n)
+	kept := 0
+	for s := 0; s < draws; s++ {
+		for j := range z {
+			z[j] = tr.Lo[j] + rng.Float64()*(tr.Hi[j]-tr.Lo[j])
+		}
+		if tr.Inside(z) {
+			ck.pool = append(ck.pool, z...)
+			kept++
+		} else if len(ck.outside) < n*maxOutside {
+			ck.outside = append(ck.outside, z...)
+		}
+	}
+	ck.poolShare = float64(kept) / float64(max(draws, 1))
 }
 
 // lpRows builds the LP of one growth round on the recorded samples
@@ -538,7 +726,7 @@ func (ck *checker) lpRows(prev []float64, target, outer, lambda float64, o Certi
 				continue
 			}
 			z := r.z[k*n : (k+1)*n]
-			if norm2(z) <= r02 || !ck.env.inside(z) {
+			if norm2(z) <= r02 {
 				continue
 			}
 			v := ve.valueGrad(g, z)
@@ -552,9 +740,10 @@ func (ck *checker) lpRows(prev []float64, target, outer, lambda float64, o Certi
 			}
 		}
 	}
-	z := make([]float64, n)
-	for tries, added := 0, 0; tries < 20*o.Fill && added < o.Fill; tries++ {
-		ck.env.randomTo(z, rng)
+	np := len(ck.pool) / n
+	for tries, added := 0, 0; np > 0 && tries < 20*o.Fill && added < o.Fill; tries++ {
+		k := rng.IntN(np)
+		z := ck.pool[k*n : (k+1)*n]
 		if norm2(z) <= r02 {
 			continue
 		}
@@ -564,6 +753,23 @@ func (ck *checker) lpRows(prev []float64, target, outer, lambda float64, o Certi
 		}
 		rows.addPoint(z, ck.zf.evalTo(f, z), v <= target)
 		added++
+	}
+	if ck.fam.deg > 2 {
+		// Positivity across the samples' box (a quadratic V's is decided
+		// by its matrix).
+		tr := ck.trust
+		z := make([]float64, n)
+		for k := 0; k < o.Fill; k++ {
+			for j := range z {
+				z[j] = tr.Lo[j] + rng.Float64()*(tr.Hi[j]-tr.Lo[j])
+			}
+			if norm2(z) > r02 {
+				rows.addPositive(z)
+			}
+		}
+		for k := 0; k+n <= len(ck.outside); k += n {
+			rows.addExcluded(ck.outside[k : k+n])
+		}
 	}
 	return rows
 }
@@ -596,9 +802,8 @@ func (ck *checker) extent(c []float64, r levelResult) [2][]float64 {
 			add(zs[k : k+n])
 		}
 	}
-	z := make([]float64, n)
-	for _, cell := range ck.env.cells {
-		add(ck.env.centerTo(z, cell))
+	for k := 0; k+n <= len(ck.pool); k += n {
+		add(ck.pool[k : k+n])
 	}
 	for j := range lo {
 		if lo[j] > hi[j] {
@@ -609,8 +814,7 @@ func (ck *checker) extent(c []float64, r levelResult) [2][]float64 {
 }
 
 // quantile returns the value of V (coefficients c) below which the given
-// share of the recorded samples outside the noise ball and inside the
-// envelope lie, at least the atLeast-th smallest such value (0 when there
+// share of the recorded samples outside the noise ball lie, at least the atLeast-th smallest such value (0 when there
 // are none).
 func (ck *checker) quantile(c []float64, share float64, atLeast int) float64 {
 	n := ck.fam.n
@@ -621,7 +825,7 @@ func (ck *checker) quantile(c []float64, share float64, atLeast int) float64 {
 		zs := ck.runs[ri].z
 		for k := 0; k+n <= len(zs); k += n {
 			z := zs[k : k+n]
-			if norm2(z) > r02 && ck.env.inside(z) {
+			if norm2(z) > r02 {
 				vs = append(vs, ve.value(z))
 			}
 		}

@@ -213,14 +213,14 @@ func TestCertifyVanDerPolKhalilLevel(t *testing.T) {
 	}
 	ck.az = []float64{0, -1, 1, -1}
 	c := []float64{1.5, -1, 1} // terms z1², z1 z2, z2²
-	r := ck.level(c)
+	r := ck.verify(c, ck.level(c))
 	if !r.ok {
 		t.Fatalf("no level: %s", r.reason)
 	}
 	if r.level > 2.3044776+1e-3 || r.level < 2.2 {
 		t.Errorf("level %.5f, want in [2.2, 2.3055]", r.level)
 	}
-	t.Logf("Khalil's P: level %.5f (c* = 2.30448), limited by %s at %v", r.level, r.limit, r.limitZ)
+	t.Logf("Khalil's P: level %.5f (c* = 2.30448), limited by %s at %v; bound: %+v", r.level, r.limit, r.limitZ, r.bound)
 }
 
 func TestCertifyVanDerPol(t *testing.T) {
@@ -504,7 +504,7 @@ func TestCertifyBadInput(t *testing.T) {
 	far.Equilibrium = []float64{0, 10} // the Jacobian there is stable, so only the envelope stops it
 	far.Equilibria[0].Point = far.Equilibrium
 	c, err := Certify(ctx, far, ds, nil)
-	if err != nil || c.Found || !strings.Contains(c.Reason, "outside the envelope") {
+	if err != nil || c.Found || !strings.Contains(c.Reason, "outside the trust region") {
 		t.Errorf("far equilibrium: err %v found %v reason %q", err, c != nil && c.Found, c.Reason)
 	}
 	// Degree too high for the samples.

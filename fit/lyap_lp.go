@@ -19,6 +19,16 @@ import (
 //
 //	target            V(z_i)                                  <= 1
 //
+// for positivity-only points (drawn across the samples' box, so that V
+// stays positive in the box of its level set's piece):
+//
+//	positivity       -V(z_i)                                  <= -posEps |z_i|²
+//
+// for exclusion points (points of the samples' box where the model is not
+// trusted, so that the level set {V <= 1} stays in the trust region):
+//
+//	exclusion        -V(z_i)                                  <= -1
+//
 // and for each recorded pair (z_k, z_{k+1}) at a target point, time step
 // dt_k:
 //
@@ -39,6 +49,13 @@ type certRows struct {
 	a0, a1  []float64
 	dt      []float64
 	tau     []float64
+	// positivity-only points (across the samples' box, trusted or not:
+	// the piece's box may not hold a part where V is not positive)
+	pp  []float64
+	npp int
+	// exclusion points (untrusted points of the samples' box): V >= 1
+	xp  []float64
+	nxp int
 	// scratch
 	val, grad, work, val1 []float64
 }
@@ -73,8 +90,20 @@ func (r *certRows) addPair(z0, z1 []float64, dt, tau float64) {
 	r.tau = append(r.tau, tau)
 }
 
+// addPositive adds a positivity-only point.
+func (r *certRows) addPositive(z []float64) {
+	r.pp = append(r.pp, z...)
+	r.npp++
+}
+
+// addExcluded adds an exclusion point.
+func (r *certRows) addExcluded(z []float64) {
+	r.xp = append(r.xp, z...)
+	r.nxp++
+}
+
 // Len returns the number of rows.
-func (r *certRows) Len() int { return 2*r.np + len(r.targets) + len(r.dt) }
+func (r *certRows) Len() int { return 2*r.np + len(r.targets) + len(r.dt) + r.npp + r.nxp }
 
 // Clone returns a copy with its own scratch space (lp.Cloner).
 func (r *certRows) Clone() lp.Rows {
@@ -116,6 +145,23 @@ func (r *certRows) RowTo(dst []float64, i int) float64 {
 		lib.EvalWorkTo(dst[:p], w, r.pz[i*n:(i+1)*n])
 		dst[p] = 0
 		return 1
+	case i >= 2*r.np+len(r.targets)+len(r.dt)+r.npp:
+		i -= 2*r.np + len(r.targets) + len(r.dt) + r.npp
+		lib.EvalWorkTo(r.val, w, r.xp[i*n:(i+1)*n])
+		for k, v := range r.val {
+			dst[k] = -v
+		}
+		dst[p] = 0
+		return -1
+	case i >= 2*r.np+len(r.targets)+len(r.dt):
+		i -= 2*r.np + len(r.targets) + len(r.dt)
+		z := r.pp[i*n : (i+1)*n]
+		lib.EvalWorkTo(r.val, w, z)
+		for k, v := range r.val {
+			dst[k] = -v
+		}
+		dst[p] = 0
+		return -posEps * norm2(z)
 	default:
 		i -= 2*r.np + len(r.targets)
 		z0 := r.a0[i*n : (i+1)*n]

@@ -1,16 +1,26 @@
 package fit
 
 import (
-	"container/heap"
 	"math"
 	"math/rand/v2"
+
+	"basin.example/fit/lyapunov"
+	"gonum.org/v1/gonum/mat"
 )
 
 // Limits of a region, as reported in Region.Limit.
 const (
+	// LimitTrust: the level set reaches where the model is not trusted
+	// (regression leverage above the fit samples' largest, or the edge of
+	// the samples' box).
+	LimitTrust = "trust region edge"
+	// LimitEnvelope is the former name of the data's edge (older files).
 	LimitEnvelope = "envelope edge"
 	LimitOther    = "other equilibrium"
 	LimitViolated = "violated sample"
+	// LimitDecrease: the model's robust decrease fails at a point that is
+	// not a recorded sample.
+	LimitDecrease = "model decrease fails"
 	LimitGrowth   = "growth cap"
 	LimitNone     = "none"
 )
@@ -22,6 +32,20 @@ const (
 	posEps = 1e-3
 	// levelShrink keeps the level strictly below the first bad value.
 	levelShrink = 1e-9
+	// boxMargin widens the piece's box beyond the level set's extent, so
+	// that V exceeds the level on its faces by a margin a bound can show
+	// (2%: about 4% in V for a quadratic V).
+	boxMargin = 0.02
+	// rayPoints is the number of points checked along each ray.
+	rayPoints = 32
+	// robustK multiplies the standard error of the fitted field in the
+	// robust decrease condition: 3, the one-sided normal quantile of
+	// 0.99865 (the "3 sigma" of common practice); the fitted value's
+	// error is about normal for many samples.
+	robustK = 3
+	// exemptFactor widens the uncertainty ball (where the robust term
+	// exceeds the linearised decrease) for the higher-order terms.
+	exemptFactor = 2
 )
 
 // zRun is one recorded run in scaled coordinates.
@@ -29,31 +53,36 @@ type zRun struct {
 	name string
 	t    []float64
 	z    []float64 // n a sample, row-major
-	cell []int32   // envelope cell of each sample
+	h    []float64 // leverage of each sample
+}
+
+// ray is one direction from the equilibrium, cut where the model stops
+// being trusted: rayPoints points up to and including the first untrusted
+// one (exit), with the field and the leverage there (independent of V).
+type ray struct {
+	z, f, h []float64 // rayPoints points, n each for z and f
+	exit    bool      // the last point is untrusted
 }
 
 // checker finds the largest certified level of a given V.
 type checker struct {
-	fam        *vFamily
-	zf         *zField
-	env        *envelope
-	runs       []zRun
-	others     [][]float64 // other equilibria, in z
-	sigma      []float64   // noise std per state, in z
-	r0         float64     // noise radius
-	az         []float64   // Jacobian at the equilibrium, in z, row-major
-	kappa      float64     // noise multiplier of the pair tolerance
-	maxDepth   int         // cell subdivision depth
-	extraDepth int         // further depth for cells near the equilibrium
-	rlin       float64     // radius of the linear ball of the V under test (set by level)
-	share      int         // Monte-Carlo points for the envelope share
-	rng        *rand.Rand
-	// Radial lower bound of the V under test (set by level).
-	radLam  float64
-	radHigh []float64
-	// Samples grouped by cell: bySample[cellStart[c]:cellStart[c+1]].
-	cellStart []int32
-	bySample  [][2]int32
+	fam    *vFamily
+	zf     *zField
+	trust  *lyapunov.Trust
+	runs   []zRun
+	others [][]float64 // other equilibria, in z
+	sigma  []float64   // noise std per state, in z
+	sigmaF []float64   // residual std of the fitted field per state, z/s
+	r0     float64     // noise radius
+	az     []float64   // Jacobian at the equilibrium, in z, row-major
+	kappa  float64     // noise multiplier of the pair tolerance
+	rays   []ray
+	fz     []*lyapunov.Poly // the field in z
+	// pool holds Monte-Carlo points of the samples' box that are trusted
+	// (n each); poolShare is their share of the box's points.
+	pool      []float64
+	poolShare float64
+	outside   []float64 // untrusted points of the box, n each
 	// nonRise replaces strict decrease by non-rise (see setNonRise);
 	// tmax is the longest run's duration.
 	nonRise bool
@@ -107,22 +136,17 @@ type levelResult struct {
 	limitZ    []float64
 	limitRun  string
 	lo, hi    []float64 // the piece's box, in z
-	share     float64   // of the envelope's volume
-	pieceLen  int
-	tolerance float64 // noise tolerance on V differences in the region
+	share     float64   // of the trust region's volume
+	tolerance float64   // noise tolerance on V differences in the region
 	pairs     int
 	decrease  float64
-	vball     float64 // largest V on the noise ball
+	vball     float64 // largest V on the exempt ball
+	exempt    float64 // radius of the exempt ball (noise and model uncertainty)
 	margin    float64 // min of -Vdot/|z|² over checked samples in the region
+	bound     *lyapunov.Verified
 }
 
-// boxSlack widens the first-order lower bound of V over a cell when
-// deciding which cells of the box need their checks (curvature of V
-// within a cell).
-const boxSlack = 0.25
-
-// badMark is the first failing check of a cell: the lowest V at which it
-// fails (a lower bound over the failing part of the cell).
+// badMark is a failing check: the level at which it joins the piece.
 type badMark struct {
 	key  float64
 	kind string
@@ -167,31 +191,86 @@ func (ck *checker) quadMax(c []float64) float64 {
 	return ev[n-1]
 }
 
-// level returns the largest c such that the connected piece of {V <= c}
-// holding the equilibrium stays inside the envelope, holds no other
-// equilibrium, and passes every check: positivity and model decrease at
-// every sample and cell, a first-order bound on V-dot over every cell
-// (with subdivision), and decrease within the noise tolerance along
-// every recorded pair.
+// robust returns the robust decrease term K·sqrt(h)·|g ∘ sigmaF| at a
+// point with leverage h and gradient g of V (0 on the non-rise path,
+// where the held-out runs decide).
+func (ck *checker) robust(g []float64, h float64) float64 {
+	if ck.nonRise || ck.sigmaF == nil {
+		return 0
+	}
+	s := 0.0
+	for j, gj := range g {
+		s += gj * gj * ck.sigmaF[j] * ck.sigmaF[j]
+	}
+	return robustK * math.Sqrt(math.Max(h, 0)*s)
+}
+
+// exemptRadius returns the radius of the ball around the equilibrium
+// where no decrease is asked of V: the noise ball, widened to where the
+// model's own uncertainty outweighs the linearised decrease. With P the
+// quadratic part of V and lambda < 0 the largest eigenvalue of A'P + PA,
+// V-dot is about lambda|z|² there while the robust term is at most
+// K·sqrt(h(0))·max sigmaF·2·lambda_max(P)|z|, so decrease can be shown
+// only beyond 2K·sqrt(h(0))·max sigmaF·lambda_max(P)/|lambda|, times
+// exemptFactor for the higher-order terms.
+func (ck *checker) exemptRadius(c []float64, lam float64) float64 {
+	r := ck.r0
+	if ck.nonRise || ck.sigmaF == nil || !(lam < 0) {
+		return r
+	}
+	sm := 0.0
+	for _, s := range ck.sigmaF {
+		sm = math.Max(sm, s)
+	}
+	h0 := ck.trust.Leverage(make([]float64, ck.fam.n))
+	ru := exemptFactor * 2 * robustK * math.Sqrt(h0) * sm * ck.quadMax(c) / -lam
+	return math.Max(r, ru)
+}
+
+// rayMax returns the largest V on the segment from the equilibrium to z
+// (rayPoints points): the level at which z joins the piece of {V <= c}
+// along that segment (an upper bound of the true joining level).
+func rayMax(ve *vEval, z, buf []float64) float64 {
+	mx := 0.0
+	for k := 1; k <= rayPoints; k++ {
+		t := float64(k) / rayPoints
+		for j := range buf {
+			buf[j] = t * z[j]
+		}
+		mx = math.Max(mx, ve.value(buf))
+	}
+	return mx
+}
+
+// level returns the largest c such that the piece of {V <= c} holding
+// the equilibrium (as seen along rays from it) passes every check at the
+// recorded samples and along the rays: positivity, the robust model
+// decrease, decrease within the noise tolerance along every recorded
+// pair, no other equilibrium, and the trust region (each ray ends at the
+// first point where the model is not trusted). It is a sampled search,
+// fast enough for every growth round; Certify bounds the final V's level
+// with [lyapunov.Verify].
 func (ck *checker) level(c []float64) levelResult {
-	env, n := ck.env, ck.fam.n
+	n := ck.fam.n
 	ve := newVEval(ck.fam, c)
 	hq := ck.quadMax(c)
-	ck.setRadial(c)
-	bad := map[int]*badMark{}
-	mark := func(cell int, key float64, kind string, z []float64, run string) {
-		if cell < 0 {
-			return
+	lam, ok := ck.linearDecay(c)
+	if ck.nonRise {
+		if !ck.nonRiseLinear(c, lam) {
+			return levelResult{reason: "V's change along the linearised field is not negative semidefinite at the equilibrium"}
 		}
-		if b, ok := bad[cell]; ok && b.key <= key {
-			return
-		}
-		bad[cell] = &badMark{key: key, kind: kind, z: append([]float64(nil), z...), run: run}
+	} else if !ok {
+		return levelResult{reason: "V's decrease along the linearised field is not negative definite at the equilibrium"}
 	}
-	g := make([]float64, n)
-	r02 := ck.r0 * ck.r0
-
-	// V at every sample (cheap; the pair checks and figures need it).
+	rex := ck.exemptRadius(c, lam)
+	rex2 := rex * rex
+	best := badMark{key: math.Inf(1), kind: LimitNone}
+	mark := func(key float64, kind string, z []float64, run string) {
+		if key < best.key {
+			best = badMark{key: key, kind: kind, z: append([]float64(nil), z...), run: run}
+		}
+	}
+	buf := make([]float64, n)
 	vals := make([][]float64, len(ck.runs))
 	for ri := range ck.runs {
 		r := &ck.runs[ri]
@@ -201,178 +280,176 @@ func (ck *checker) level(c []float64) levelResult {
 		}
 		vals[ri] = vs
 	}
-	var ok bool
-	if ck.rlin, ok = ck.linearBall(ve); !ok {
-		return levelResult{reason: "V's decrease along the linearised field is not negative definite at the equilibrium"}
-	}
-	center := make([]float64, n)
-	half := make([]float64, n)
-	for j := range half {
-		half[j] = env.h[j] / 2
-	}
-	cs := newCellScratch(n, ck.maxDepth+ck.extraDepth)
-	cs.hq = hq
-	// check runs every check of an envelope cell, once, when the search
-	// first needs it (cells the level set never reaches are not checked):
-	// positivity, model decrease and recorded pairs at its samples, the
-	// other equilibria in it, and the cell bound on V-dot.
-	checked := map[int]bool{}
-	check := func(cell int) {
-		if checked[cell] {
-			return
-		}
-		checked[cell] = true
-		for _, si := range ck.cellSamples(cell) {
-			r := &ck.runs[si[0]]
-			i := int(si[1])
+	// Recorded samples.
+	for ri := range ck.runs {
+		r := &ck.runs[ri]
+		vs := vals[ri]
+		for i := range vs {
 			z := r.z[i*n : (i+1)*n]
 			z2 := norm2(z)
-			if z2 <= r02 {
+			if z2 <= rex2 || vs[i] >= best.key {
 				continue
 			}
 			v, vd := ve.vdot(ck.zf, z)
-			switch {
-			case !(v >= posEps*z2), !(vd < 0 || (ck.nonRise && vd <= ck.vdTol(ve.gbuf, ve.fbuf, hq))):
-				mark(cell, v, LimitViolated, z, r.name)
-			case i+1 < len(r.t):
-				if vals[si[0]][i+1]-v > ck.pairTolAt(ve.gbuf, hq, v) {
-					mark(cell, v, LimitViolated, z, r.name)
+			bad := !(v >= posEps*z2) ||
+				!(vd+ck.robust(ve.gbuf, r.h[i]) < 0 || (ck.nonRise && vd <= ck.vdTol(ve.gbuf, ve.fbuf, hq))) ||
+				(i+1 < len(vs) && vs[i+1]-v > ck.pairTolAt(ve.gbuf, hq, v))
+			if bad {
+				if k := rayMax(ve, z, buf); k < best.key {
+					mark(k, LimitViolated, z, r.name)
 				}
 			}
 		}
-		for _, o := range ck.others {
-			if env.cellOf(o) == cell {
-				mark(cell, ve.value(o), LimitOther, o, "")
+	}
+	// Rays: the model's conditions between the samples, and the trust
+	// region's edge.
+	g := make([]float64, n)
+	for ri := range ck.rays {
+		ry := &ck.rays[ri]
+		mx := 0.0
+		for k := 0; k < rayPoints; k++ {
+			z := ry.z[k*n : (k+1)*n]
+			v := ve.valueGrad(g, z)
+			mx = math.Max(mx, v)
+			if mx >= best.key {
+				break
+			}
+			if k == rayPoints-1 && ry.exit {
+				mark(mx, LimitTrust, z, "")
+				break
+			}
+			z2 := norm2(z)
+			if z2 <= rex2 {
+				continue
+			}
+			vd := 0.0
+			f := ry.f[k*n : (k+1)*n]
+			for j := range g {
+				vd += g[j] * f[j]
+			}
+			okd := vd+ck.robust(g, ry.h[k]) < 0 || (ck.nonRise && vd <= ck.vdTol(g, f, hq))
+			if !(v >= posEps*z2) || !okd {
+				mark(mx, LimitDecrease, z, "")
+				break
 			}
 		}
-		env.centerTo(center, cell)
-		if key, z := ck.cellKey(ve, cs, center, half, 0); key < math.Inf(1) {
-			mark(cell, key, LimitViolated, z, "")
-		}
 	}
-	// Other equilibria outside the grid cannot be reached; those in a
-	// non-envelope cell are behind the envelope edge.
-	// Lower bound of V over a cell, for joining and for non-envelope cells.
-	hd := env.halfDiag()
-	vlow := func(cell int) float64 {
-		env.centerTo(center, cell)
-		v := ve.valueGrad(g, center)
-		return math.Max(v-math.Sqrt(norm2(g))*hd, ck.vLowRadial(center, half))
+	for _, o := range ck.others {
+		mark(rayMax(ve, o, buf), LimitOther, o, "")
 	}
-
-	// Minimax flood from the equilibrium's cell.
-	start := env.cellOf(make([]float64, n))
-	if start < 0 || env.count[start] == 0 {
-		return levelResult{reason: "the equilibrium lies outside the envelope the data cover"}
-	}
-	join := map[int]float64{}
-	queued := map[int]bool{start: true}
-	pq := &floodQueue{}
-	heap.Push(pq, floodItem{level: math.Inf(-1), cell: start})
-	var stop *floodItem
-	var stopMark badMark
-	for pq.Len() > 0 {
-		it := heap.Pop(pq).(floodItem)
-		if it.bad {
-			stop = &it
-			break
-		}
-		join[it.cell] = it.level
-		if env.count[it.cell] == 0 {
-			// Outside the envelope: bad as soon as it is reached.
-			heap.Push(pq, floodItem{level: it.level, cell: it.cell, bad: true})
-			continue
-		}
-		check(it.cell)
-		if b, ok := bad[it.cell]; ok {
-			heap.Push(pq, floodItem{level: math.Max(it.level, b.key), cell: it.cell, bad: true})
-		}
-		env.neighbours(it.cell, func(nb int) {
-			if queued[nb] {
-				return
-			}
-			queued[nb] = true
-			heap.Push(pq, floodItem{level: math.Max(it.level, vlow(nb)), cell: nb})
-		})
-	}
-	if stop == nil { // cannot happen: the grid is padded with empty cells
-		return levelResult{reason: "internal: flood did not meet the envelope edge"}
-	}
-	markOf := func(cell int) badMark {
-		if b, ok := bad[cell]; ok && env.count[cell] != 0 {
-			return *b
-		}
-		z := env.centerTo(make([]float64, n), cell)
-		return badMark{key: vlow(cell), kind: LimitEnvelope, z: z}
-	}
-	stopMark = markOf(stop.cell)
-	level := stop.level - levelShrink*math.Max(1, math.Abs(stop.level))
-
-	// The piece and its box; no bad or non-envelope cell in the box may
-	// lie below the level (other components of {V <= c} are claimed by
-	// the contract's {V <= level, x in box} too).
-	lo, hi := make([]float64, n), make([]float64, n)
-	var piece []int
-	for iter := 0; iter < 20; iter++ {
-		piece = piece[:0]
-		for cell, l := range join {
-			if l <= level && env.count[cell] != 0 {
-				piece = append(piece, cell)
-			}
-		}
-		if len(piece) == 0 {
-			break
-		}
-		ilo, ihi := make([]int, n), make([]int, n)
-		for j := range ilo {
-			ilo[j], ihi[j] = math.MaxInt, -1
-		}
-		for _, cell := range piece {
+	if ck.fam.deg == 2 {
+		// The samples' box: the least V on each face, exactly (for
+		// z'Pz on z_j = b it is b²/(P^-1)_jj at b·P^-1 e_j/(P^-1)_jj).
+		if inv := symInverse(ck.fam.quadMatrix(c), n); inv != nil {
 			for j := 0; j < n; j++ {
-				i := env.index(cell, j)
-				ilo[j], ihi[j] = min(ilo[j], i), max(ihi[j], i)
+				for _, b := range []float64{ck.trust.Lo[j], ck.trust.Hi[j]} {
+					z := make([]float64, n)
+					for i := range z {
+						z[i] = b * inv[i*n+j] / inv[j*n+j]
+					}
+					mark(b*b/inv[j*n+j], LimitTrust, z, "")
+				}
 			}
-		}
-		for j := 0; j < n; j++ {
-			lo[j] = env.lo[j] + float64(ilo[j])*env.h[j]
-			hi[j] = env.lo[j] + float64(ihi[j]+1)*env.h[j]
-		}
-		lowered := false
-		forBox(env, ilo, ihi, func(cell int) {
-			var bm badMark
-			vl := vlow(cell)
-			if vl > level+boxSlack*math.Max(math.Abs(level), math.Abs(vl)) {
-				return // V exceeds the level on the whole cell
-			}
-			if env.count[cell] != 0 {
-				check(cell)
-			}
-			if env.count[cell] == 0 {
-				bm = markOf(cell)
-			} else if b, ok := bad[cell]; ok {
-				bm = *b
-			} else {
-				return
-			}
-			if bm.key <= level {
-				level = bm.key - levelShrink*math.Max(1, math.Abs(bm.key))
-				stopMark = bm
-				lowered = true
-			}
-		})
-		if !lowered {
-			break
 		}
 	}
-	res := levelResult{ok: true, level: level, limit: stopMark.kind, limitZ: stopMark.z,
-		limitRun: stopMark.run, lo: lo, hi: hi, pieceLen: len(piece)}
-	// The region must reach beyond the noise ball.
-	res.vball = ck.ballMax(ve)
-	if len(piece) == 0 || !(level > res.vball) {
+	res := levelResult{ok: true, limit: best.kind, limitZ: best.z, limitRun: best.run, exempt: rex}
+	res.level = best.key - levelShrink*math.Max(1, math.Abs(best.key))
+	if math.IsInf(best.key, 1) {
+		// Nothing stopped it along the rays (which all end at the trust
+		// region's edge): cannot happen unless every ray stays trusted.
+		res.level = 0
+		for ri := range ck.rays {
+			ry := &ck.rays[ri]
+			res.level = math.Max(res.level, ve.value(ry.z[(rayPoints-1)*n:]))
+		}
+	}
+	res.vball = ck.ballMax(ve, rex)
+	if !(res.level > res.vball) {
 		res.ok = false
-		res.reason = "no level set of V reaches beyond the noise ball while passing the checks (limited by " + stopMark.kind + ")"
+		res.reason = "no level set of V reaches beyond the noise ball while passing the checks (limited by " + best.kind + ")"
 		return res
 	}
+	res.lo, res.hi = ck.pieceBox(ve, c, res.level)
+	ck.figures(&res, ve, vals, hq)
+	return res
+}
+
+// nonRiseLinear checks, on the non-rise path, that A'P + PA is negative
+// semidefinite up to the rounding allowance 2·nonRiseFloor·|P|·|A| (|.|
+// the largest entry times n, a bound on the spectral norm).
+func (ck *checker) nonRiseLinear(c []float64, lam float64) bool {
+	n := ck.fam.n
+	pa, aa := 0.0, 0.0
+	for _, v := range ck.fam.quadMatrix(c) {
+		pa = math.Max(pa, math.Abs(v))
+	}
+	for _, v := range ck.az {
+		aa = math.Max(aa, math.Abs(v))
+	}
+	return lam <= 2*nonRiseFloor*float64(n*n)*pa*aa
+}
+
+// pieceBox returns the box of the piece of {V <= level} holding the
+// equilibrium, in z, cut to the samples' box: for a quadratic V exactly
+// (the ellipsoid's half widths sqrt(level·(P^-1)_jj)); otherwise the
+// bounding box of the ray points and samples that join the piece below
+// the level, widened by a fiftieth of its width (Certify's bound check
+// then asks V > level on its faces and widens it where that fails).
+func (ck *checker) pieceBox(ve *vEval, c []float64, level float64) (lo, hi []float64) {
+	n := ck.fam.n
+	lo, hi = make([]float64, n), make([]float64, n)
+	tl, th := ck.trust.Lo, ck.trust.Hi
+	if ck.fam.deg == 2 {
+		if inv := symInverse(ck.fam.quadMatrix(c), n); inv != nil {
+			for j := 0; j < n; j++ {
+				w := math.Sqrt(math.Max(level*inv[j*n+j], 0)) * (1 + boxMargin)
+				lo[j], hi[j] = math.Max(-w, tl[j]), math.Min(w, th[j])
+			}
+			return lo, hi
+		}
+	}
+	for j := range lo {
+		lo[j], hi[j] = 0, 0
+	}
+	add := func(z []float64) {
+		for j, v := range z {
+			lo[j], hi[j] = math.Min(lo[j], v), math.Max(hi[j], v)
+		}
+	}
+	for ri := range ck.rays {
+		ry := &ck.rays[ri]
+		mx := 0.0
+		for k := 0; k < rayPoints; k++ {
+			z := ry.z[k*n : (k+1)*n]
+			mx = math.Max(mx, ve.value(z))
+			if mx > level {
+				break
+			}
+			add(z)
+		}
+	}
+	buf := make([]float64, n)
+	for ri := range ck.runs {
+		zs := ck.runs[ri].z
+		for k := 0; k+n <= len(zs); k += n {
+			z := zs[k : k+n]
+			if ve.value(z) <= level && rayMax(ve, z, buf) <= level {
+				add(z)
+			}
+		}
+	}
+	for j := range lo {
+		w := hi[j] - lo[j]
+		lo[j], hi[j] = math.Max(lo[j]-w*boxMargin, tl[j]), math.Min(hi[j]+w*boxMargin, th[j])
+	}
+	return lo, hi
+}
+
+// figures fills the share of the trust region, the in-sample figures and
+// the tolerance of a level result.
+func (ck *checker) figures(res *levelResult, ve *vEval, vals [][]float64, hq float64) {
+	n := ck.fam.n
+	lo, hi, level := res.lo, res.hi, res.level
 	inBox := func(z []float64) bool {
 		for j, v := range z {
 			if v < lo[j] || v > hi[j] {
@@ -381,18 +458,19 @@ func (ck *checker) level(c []float64) levelResult {
 		}
 		return true
 	}
-	// Envelope share by Monte Carlo.
-	z := make([]float64, n)
-	in := 0
-	for s := 0; s < ck.share; s++ {
-		env.randomTo(z, ck.rng)
+	in, np := 0, len(ck.pool)/n
+	for k := 0; k < np; k++ {
+		z := ck.pool[k*n : (k+1)*n]
 		if inBox(z) && ve.value(z) <= level {
 			in++
 		}
 	}
-	res.share = float64(in) / float64(ck.share)
-	// In-sample figures and the tolerance.
+	if np > 0 {
+		res.share = float64(in) / float64(np)
+	}
+	r02 := res.exempt * res.exempt
 	res.margin = math.Inf(1)
+	res.pairs, res.tolerance, res.decrease = 0, 0, 0
 	dec := 0
 	for ri := range ck.runs {
 		r := &ck.runs[ri]
@@ -421,78 +499,26 @@ func (ck *checker) level(c []float64) levelResult {
 	if math.IsInf(res.margin, 1) {
 		res.margin = 0
 	}
-	return res
 }
 
-// Linear-ball search (not user-facing): radii from linMin to linMax in z,
-// linSteps geometric steps, linDirs·n directions a radius.
-const (
-	linMin   = 1e-3
-	linMax   = 0.25
-	linSteps = 40
-	linDirs  = 200
-)
-
-// linearBall checks V against the linearisation at the equilibrium and
-// returns the radius of the ball where the linearisation decides.
-//
-// With P the quadratic part of V and A the Jacobian (in z), V-dot =
-// z'Mz + O(|z|³), M = A'P + PA. If M is negative definite (checked by its
-// eigenvalues: Lyapunov's indirect method) V falls on some ball around
-// the equilibrium. The first-order cell bound cannot show that near the
-// equilibrium, where V-dot is quadratic, so cells inside the returned
-// radius are exempt from it: the largest sampled radius rho (at most
-// linMax) such that V-dot(z) <= lambda_max(M)|z|²/2 at every sampled
-// direction and radius up to rho, i.e. where the cubic remainder has not
-// eaten half the quadratic decrease. It returns ok = false when M is not
-// negative definite.
-func (ck *checker) linearBall(ve *vEval) (float64, bool) {
-	n := ck.fam.n
-	lam, ok := ck.linearDecay(ve.c)
-	if ck.nonRise {
-		// Non-rise: M only needs to be negative semidefinite, up to the
-		// rounding allowance 2·nonRiseFloor·|P|·|A| (|.| the largest
-		// entry times n, a bound on the spectral norm); no linear ball.
-		pa, aa := 0.0, 0.0
-		for _, v := range ck.fam.quadMatrix(ve.c) {
-			pa = math.Max(pa, math.Abs(v))
-		}
-		for _, v := range ck.az {
-			aa = math.Max(aa, math.Abs(v))
-		}
-		return 0, lam <= 2*nonRiseFloor*float64(n*n)*pa*aa
+// symInverse returns the inverse of the symmetric positive definite n×n
+// matrix s (row-major), or nil.
+func symInverse(s []float64, n int) []float64 {
+	var ch mat.Cholesky
+	if !ch.Factorize(mat.NewSymDense(n, append([]float64(nil), s...))) {
+		return nil
 	}
-	if !ok {
-		return 0, false
+	var inv mat.SymDense
+	if ch.InverseTo(&inv) != nil {
+		return nil
 	}
-	rng := rand.New(rand.NewPCG(11, 11))
-	dirs := make([]float64, linDirs*n*n)
-	for d := 0; d < linDirs*n; d++ {
-		u := dirs[d*n : (d+1)*n]
-		for j := range u {
-			u[j] = rng.NormFloat64()
-		}
-		r := math.Sqrt(norm2(u))
-		for j := range u {
-			u[j] /= r
+	out := make([]float64, n*n)
+	for i := 0; i < n; i++ {
+		for j := 0; j < n; j++ {
+			out[i*n+j] = inv.At(i, j)
 		}
 	}
-	z := make([]float64, n)
-	rho := 0.0
-	for s := 0; s <= linSteps; s++ {
-		r := linMin * math.Pow(linMax/linMin, float64(s)/linSteps)
-		for d := 0; d < linDirs*n; d++ {
-			u := dirs[d*n : (d+1)*n]
-			for j := range z {
-				z[j] = r * u[j]
-			}
-			if _, vd := ve.vdot(ck.zf, z); !(vd <= 0.5*lam*r*r) {
-				return rho, true
-			}
-		}
-		rho = r
-	}
-	return rho, true
+	return out
 }
 
 // linearDecay returns lambda_max(A'P + PA) for V's quadratic part P and
@@ -519,78 +545,8 @@ func (ck *checker) linearDecay(c []float64) (float64, bool) {
 	return lam, lam < 0
 }
 
-// setRadial prepares vLowRadial for V: the smallest eigenvalue of the
-// quadratic part and, per degree above 2, the sum of |coefficients|.
-func (ck *checker) setRadial(c []float64) {
-	n := ck.fam.n
-	ev := symEigen(ck.fam.quadMatrix(c), n)
-	ck.radLam = 0
-	if ev != nil {
-		ck.radLam = ev[0]
-	}
-	ck.radHigh = make([]float64, ck.fam.deg+1)
-	for k, ck2 := range c {
-		if d := ck.fam.lib.Degree(k); d > 2 {
-			ck.radHigh[d] += math.Abs(ck2)
-		}
-	}
-}
-
-// vLowRadial is a lower bound of V over the box centre ± half that holds
-// near the equilibrium, where the first-order bound is poor: with P the
-// quadratic part, V(z) >= lambda_min(P)|z|² - sum over higher terms of
-// |c_k| |z|^deg_k (each monomial of degree d is at most |z|^d in size),
-// taken with the box's nearest and farthest distances from 0.
-func (ck *checker) vLowRadial(center, half []float64) float64 {
-	dmin, dmax := 0.0, 0.0
-	for j, c := range center {
-		a := math.Abs(c)
-		dmin += math.Pow(math.Max(0, a-half[j]), 2)
-		dmax += math.Pow(a+half[j], 2)
-	}
-	dmax = math.Sqrt(dmax)
-	v := ck.radLam * dmin
-	for d := 3; d < len(ck.radHigh); d++ {
-		if ck.radHigh[d] != 0 {
-			v -= ck.radHigh[d] * math.Pow(dmax, float64(d))
-		}
-	}
-	return v
-}
-
-// cellSamples returns the (run, sample) indices of the samples in cell.
-func (ck *checker) cellSamples(cell int) [][2]int32 {
-	return ck.bySample[ck.cellStart[cell]:ck.cellStart[cell+1]]
-}
-
-// indexSamples groups the samples by envelope cell.
-func (ck *checker) indexSamples() {
-	env := ck.env
-	ck.cellStart = make([]int32, env.total+1)
-	for ri := range ck.runs {
-		for _, c := range ck.runs[ri].cell {
-			if c >= 0 {
-				ck.cellStart[c+1]++
-			}
-		}
-	}
-	for c := 0; c < env.total; c++ {
-		ck.cellStart[c+1] += ck.cellStart[c]
-	}
-	ck.bySample = make([][2]int32, ck.cellStart[env.total])
-	next := append([]int32(nil), ck.cellStart[:env.total]...)
-	for ri := range ck.runs {
-		for i, c := range ck.runs[ri].cell {
-			if c >= 0 {
-				ck.bySample[next[c]] = [2]int32{int32(ri), int32(i)}
-				next[c]++
-			}
-		}
-	}
-}
-
-// ballMax returns the largest V found on the noise sphere |z| = r0.
-func (ck *checker) ballMax(ve *vEval) float64 {
+// ballMax returns the largest V found on the sphere |z| = r0.
+func (ck *checker) ballMax(ve *vEval, r0 float64) float64 {
 	n := ck.fam.n
 	z := make([]float64, n)
 	mx := 0.0
@@ -601,150 +557,11 @@ func (ck *checker) ballMax(ve *vEval) float64 {
 			z[j] = rng.NormFloat64()
 			r += z[j] * z[j]
 		}
-		r = ck.r0 / math.Sqrt(r)
+		r = r0 / math.Sqrt(r)
 		for j := range z {
 			z[j] *= r
 		}
 		mx = math.Max(mx, ve.value(z))
 	}
 	return mx
-}
-
-// cellScratch holds per-depth buffers for cellKey.
-type cellScratch struct {
-	sub, half [][]float64
-	zp        []float64
-	hq        float64 // largest eigenvalue of V's quadratic part
-}
-
-func newCellScratch(n, depth int) *cellScratch {
-	cs := &cellScratch{zp: make([]float64, n)}
-	for d := 0; d <= depth; d++ {
-		cs.sub = append(cs.sub, make([]float64, n))
-		cs.half = append(cs.half, make([]float64, n))
-	}
-	return cs
-}
-
-// cellFDStep is the relative step of the central differences for the
-// gradient of V-dot (relative to the cell's half width): small enough
-// that the difference error (O(step²)) is far below the bound's slack.
-const cellFDStep = 1e-3
-
-// cellKey checks the cell centre ± half: positivity at the centre and
-// the first-order bound V-dot(c) + |grad V-dot(c)|·|half| < 0, splitting
-// the cell into 2^n halves up to maxDepth when the bound fails. Parts
-// within the noise ball are exempt. It returns +Inf when the cell
-// passes, else a lower bound of V over the failing part and its centre.
-func (ck *checker) cellKey(ve *vEval, cs *cellScratch, center, half []float64, depth int) (float64, []float64) {
-	n := len(center)
-	r := math.Sqrt(norm2(half))
-	cn := math.Sqrt(norm2(center))
-	if cn+r <= ck.r0 || cn+r <= ck.rlin {
-		return math.Inf(1), nil
-	}
-	v, vd := ve.vdot(ck.zf, center)
-	gv := math.Sqrt(norm2(ve.gbuf))
-	tol := ck.vdTol(ve.gbuf, ve.fbuf, cs.hq)
-	lowV := math.Max(v-gv*r, ck.vLowRadial(center, half))
-	touches := cn-r <= ck.r0
-	if !touches && !(v >= posEps*cn*cn) {
-		return lowV, append([]float64(nil), center...)
-	}
-	// Gradient of V-dot by central differences.
-	gd := 0.0 // max of the linear term over the box: sum |d_j| half_j
-	zp := cs.zp
-	for j := 0; j < n; j++ {
-		step := cellFDStep * half[j]
-		copy(zp, center)
-		zp[j] += step
-		_, a := ve.vdot(ck.zf, zp)
-		zp[j] -= 2 * step
-		_, b := ve.vdot(ck.zf, zp)
-		gd += math.Abs(a-b) / (2 * step) * half[j]
-	}
-	if vd+gd < 0 || (ck.nonRise && vd+gd <= tol) {
-		return math.Inf(1), nil
-	}
-	// Near the equilibrium V-dot is quadratic, so the first-order bound
-	// only passes on cells small against their distance: keep splitting
-	// those (few of them) deeper.
-	limit := ck.maxDepth
-	if cn < 3*r {
-		limit += ck.extraDepth
-	}
-	if depth >= limit {
-		if touches {
-			return math.Inf(1), nil // at the noise ball's edge: exempt
-		}
-		return lowV, append([]float64(nil), center...)
-	}
-	sub, sh := cs.sub[depth+1], cs.half[depth+1]
-	for j := range sh {
-		sh[j] = half[j] / 2
-	}
-	best, bestZ := math.Inf(1), []float64(nil)
-	for mask := 0; mask < 1<<n; mask++ {
-		for j := 0; j < n; j++ {
-			if mask&(1<<j) != 0 {
-				sub[j] = center[j] + sh[j]
-			} else {
-				sub[j] = center[j] - sh[j]
-			}
-		}
-		// sub and sh are overwritten by deeper calls: pass copies.
-		k, z := ck.cellKey(ve, cs, append([]float64(nil), sub...), append([]float64(nil), sh...), depth+1)
-		if k < best {
-			best, bestZ = k, z
-		}
-	}
-	return best, bestZ
-}
-
-// forBox calls fn for every grid cell with per-axis index in [ilo, ihi].
-func forBox(env *envelope, ilo, ihi []int, fn func(int)) {
-	n := env.n
-	idx := append([]int(nil), ilo...)
-	for {
-		c := 0
-		for j := 0; j < n; j++ {
-			c += idx[j] * env.stride[j]
-		}
-		fn(c)
-		j := 0
-		for ; j < n; j++ {
-			idx[j]++
-			if idx[j] <= ihi[j] {
-				break
-			}
-			idx[j] = ilo[j]
-		}
-		if j == n {
-			return
-		}
-	}
-}
-
-type floodItem struct {
-	level float64
-	cell  int
-	bad   bool
-}
-
-type floodQueue []floodItem
-
-func (q floodQueue) Len() int { return len(q) }
-func (q floodQueue) Less(i, j int) bool {
-	if q[i].level != q[j].level {
-		return q[i].level < q[j].level
-	}
-	return q[i].bad && !q[j].bad // a bad event at a level stops before a join at it
-}
-func (q floodQueue) Swap(i, j int) { q[i], q[j] = q[j], q[i] }
-func (q *floodQueue) Push(x any)   { *q = append(*q, x.(floodItem)) }
-func (q *floodQueue) Pop() any {
-	old := *q
-	it := old[len(old)-1]
-	*q = old[:len(old)-1]
-	return it
 }

@@ -1,0 +1,127 @@
+package fit
+
+import (
+	"math"
+
+	"basin.example/fit/lyapunov"
+)
+
+// Bound-check settings (not user-facing): the boxes one check may examine,
+// and the halvings of a box edge (relative to the samples' box) below
+// which a failing box is not split, by state count: finer in few states.
+const boundBoxes = 200000
+
+// keepLimit: a bound within this share of the sampled level keeps the
+// sampled search's limit as the reason.
+const keepLimit = 0.97
+
+func boundDepth(n int) int { return max(7, 12-n) }
+
+// fieldZ returns the model's field in z as polynomials: f_j(xe + s∘z)/s_j.
+func fieldZ(m *Model, xe, scale []float64) []*lyapunov.Poly {
+	n := len(xe)
+	out := make([]*lyapunov.Poly, n)
+	for j, e := range m.Equations {
+		p := lyapunov.Affine(lyapunov.NewPoly(n, e.Exponents, e.Coefficients), xe, scale)
+		out[j] = lyapunov.Sum([]float64{1 / scale[j]}, p)
+	}
+	return out
+}
+
+// verify bounds the level of V (coefficients c) found by the sampled
+// search r with [lyapunov.Verify] and returns the result with the level,
+// box, limit and figures of the bound (r itself when the bound confirms
+// it).
+func (ck *checker) verify(c []float64, r levelResult) levelResult {
+	n := ck.fam.n
+	lib := ck.fam.lib
+	v := lyapunov.NewPoly(n, lib.Terms(), c)
+	grad := make([]*lyapunov.Poly, n)
+	var terms []*lyapunov.Poly
+	for j := 0; j < n; j++ {
+		grad[j] = lyapunov.Deriv(v, j)
+		terms = append(terms, lyapunov.Mul(grad[j], ck.fz[j]))
+	}
+	ones := make([]float64, n)
+	for j := range ones {
+		ones[j] = 1
+	}
+	p := &lyapunov.Problem{
+		N: n, V: v, VDot: lyapunov.Sum(ones, terms...), Grad: grad,
+		Trust: ck.trust, Lo: ck.trust.Lo, Hi: ck.trust.Hi,
+		Exempt: r.exempt, PosEps: posEps, Others: ck.others,
+		MaxBoxes: boundBoxes, Depth: boundDepth(n),
+	}
+	if !ck.nonRise && ck.sigmaF != nil {
+		p.Sigma, p.K = ck.sigmaF, robustK
+	}
+	ve := newVEval(ck.fam, c)
+	hq := ck.quadMax(c)
+	if ck.nonRise {
+		p.Tol = ck.nonRiseTol(ve, r, hq)
+	}
+	vr := lyapunov.Verify(p, r.level, r.lo, r.hi)
+	r.bound = &vr
+	if certDebug != nil {
+		certDebug("bound: sampled level %.5g -> %.5g, limit %s at %v, box %v..%v (asked %v..%v), %d boxes, %d rounds, radial %.3g exempt %.3g", r.level, vr.Level, vr.Limit, vr.Point, vr.Lo, vr.Hi, r.lo, r.hi, vr.Boxes, vr.Rounds, vr.Radial, r.exempt)
+	}
+	if vr.Level >= r.level {
+		return r
+	}
+	r.level = vr.Level
+	if !(r.level > r.vball) {
+		r.ok = false
+		r.reason = "the bound over the region found no level set of V beyond the noise ball (limited by " + string(vr.Limit) + ")"
+		return r
+	}
+	switch {
+	case vr.Level >= keepLimit*r.level:
+		// The bound only trimmed the sampled level: what stopped the
+		// sampled search still explains the region.
+	case vr.Limit == lyapunov.LimitTrust:
+		r.limit = LimitTrust
+	case vr.Limit == lyapunov.LimitOther:
+		r.limit = LimitOther
+	case vr.Limit == lyapunov.LimitBudget:
+		r.limit = string(lyapunov.LimitBudget)
+	default:
+		r.limit = LimitDecrease
+	}
+	if vr.Level < keepLimit*r.level {
+		r.limitZ, r.limitRun = vr.Point, ""
+	}
+	r.lo, r.hi = ck.pieceBox(ve, c, r.level)
+	for j := range r.lo {
+		// the bound's box holds the piece too
+		r.lo[j], r.hi[j] = math.Max(r.lo[j], vr.Lo[j]), math.Min(r.hi[j], vr.Hi[j])
+	}
+	vals := make([][]float64, len(ck.runs))
+	for ri := range ck.runs {
+		rr := &ck.runs[ri]
+		vs := make([]float64, len(rr.t))
+		for i := range vs {
+			vs[i] = ve.value(rr.z[i*n : (i+1)*n])
+		}
+		vals[ri] = vs
+	}
+	ck.figures(&r, ve, vals, hq)
+	return r
+}
+
+// nonRiseTol returns the largest V-dot allowance of the non-rise path
+// (see checker.vdTol) over the recorded samples inside the region: a
+// constant for the bound.
+func (ck *checker) nonRiseTol(ve *vEval, r levelResult, hq float64) float64 {
+	n := ck.fam.n
+	tol := 0.0
+	for ri := range ck.runs {
+		zs := ck.runs[ri].z
+		for k := 0; k+n <= len(zs); k += n {
+			z := zs[k : k+n]
+			if v, _ := ve.vdot(ck.zf, z); v <= r.level {
+				tol = math.Max(tol, ck.vdTol(ve.gbuf, ve.fbuf, hq))
+			}
+		}
+	}
+	return tol
+}
