@@ -539,7 +539,7 @@ func newChecker(ctx context.Context, m *Model, ds *ingest.Dataset, xe, scale []f
 	for _, e := range m.Equations {
 		terms = append(terms, e.Exponents...)
 	}
-	tr, err := lyapunov.NewTrust(n, terms, xe, scale, all)
+	tr, err := lyapunov.NewTrust(n, terms, all)
 	if err != nil {
 		return nil, nil, err
 	}

@@ -32,11 +32,16 @@ const trustCondMax = 1e12
 // value at z for a residual standard deviation sigma. The region is also
 // cut to the samples' bounding box (Lo, Hi).
 //
-// Coordinates are the scaled z of the certificate; the library's terms
-// are monomials of the raw x = shift + scale∘z, each column normalised by
-// its root mean square over the samples (leverage does not change under a
-// column scaling; only the conditioning does). A constant term is always
-// included. Trust is not modified after NewTrust: safe for concurrent
+// Coordinates are the scaled z of the certificate. A raw monomial x^e of
+// the library (x = shift + scale∘z) is a combination of the monomials z^b
+// with b <= e, so the columns are the monomials of z over the downward
+// closure of the library's exponents: they span every raw term (the
+// leverage over a larger span is at least as large, so the region errs
+// on the small side), and being centred on the equilibrium they stay well
+// conditioned when the states sit far from zero. Each column is
+// normalised by its root mean square over the samples (leverage does not
+// change under a column scaling; only the conditioning does). The
+// constant is always included. Trust is not modified after NewTrust: safe for concurrent
 // use except through its Bounder (see [Trust.Bounder]).
 type Trust struct {
 	N        int
@@ -52,18 +57,30 @@ type Trust struct {
 }
 
 // NewTrust builds the trust region of the library terms (raw exponent
-// vectors) over the samples z (n a point, flattened), with x = shift +
-// scale∘z. It returns an error wrapping [ErrDegenerate] for a collinear
+// vectors) over the samples z (n a point, flattened). It returns an error wrapping [ErrDegenerate] for a collinear
 // library and for fewer samples than terms.
-func NewTrust(n int, terms [][]int, shift, scale, z []float64) (*Trust, error) {
-	// The union of the terms and the constant.
+func NewTrust(n int, terms [][]int, z []float64) (*Trust, error) {
+	// The downward closure of the terms (the constant included).
 	all := [][]int{make([]int, n)}
 	seen := map[uint64]bool{pack(all[0]): true}
-	for _, e := range terms {
-		if k := pack(e); !seen[k] {
-			seen[k] = true
-			all = append(all, e)
+	var add func(e []int)
+	add = func(e []int) {
+		k := pack(e)
+		if seen[k] {
+			return
 		}
+		seen[k] = true
+		all = append(all, append([]int(nil), e...))
+		for j := range e {
+			if e[j] > 0 {
+				d := append([]int(nil), e...)
+				d[j]--
+				add(d)
+			}
+		}
+	}
+	for _, e := range terms {
+		add(e)
 	}
 	p := len(all)
 	ns := len(z) / n
@@ -77,7 +94,7 @@ func NewTrust(n int, terms [][]int, shift, scale, z []float64) (*Trust, error) {
 	one := []float64{1}
 	cols := make([]*Poly, p)
 	for k, e := range all {
-		cols[k] = Affine(NewPoly(n, [][]int{e}, one), shift, scale)
+		cols[k] = NewPoly(n, [][]int{e}, one)
 	}
 	// Column norms, then the normal matrix.
 	phi := make([]float64, p)
