@@ -161,6 +161,16 @@ func limitText(c *fit.Certificate) string {
 		}
 		return "envelope edge: the region reached the edge of the states the runs cover" + at +
 			"; to let it grow, add runs from larger kicks that start" + where
+	case "trust region edge":
+		where := " beyond that point"
+		if at == "" {
+			where = " outside " + stateRanges(c)
+		}
+		return "trust region edge: the model is uncertain beyond here (too few samples there to believe it)" + at +
+			"; to let the region grow, record runs that start" + where
+	case "model decrease fails":
+		return "model decrease fails: the fitted model does not make V fall there, or is too uncertain to tell" + at +
+			"; record runs that pass near that point"
 	case "other equilibrium":
 		return "other equilibrium: the region reached another equilibrium of the fitted model" + at +
 			"; no region around this equilibrium can contain it"
