@@ -219,14 +219,13 @@ func BenchmarkReadParquet(b *testing.B) {
 	var arrowNs float64
 	for _, via := range []string{"arrow", "direct"} {
 		b.Run(via, func(b *testing.B) {
-			parquetViaArrow = via == "arrow"
-			defer func() { parquetViaArrow = false }()
+			opts := &Options{viaArrow: via == "arrow"}
 			b.SetBytes(st.Size())
 			b.ReportAllocs()
 			var peak uint64
 			for b.Loop() {
 				p := peakHeap(func() {
-					ds, err := ReadParquet(context.Background(), path, nil)
+					ds, err := ReadParquet(context.Background(), path, opts)
 					if err != nil || ds.Samples() != benchRows {
 						b.Fatal(err)
 					}

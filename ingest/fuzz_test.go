@@ -116,9 +116,7 @@ func FuzzReadParquet(f *testing.F) {
 	// Seeds stay small (a large seed makes the fuzzer spend its time
 	// minimising): a 12-row file from Arrow's writer, in 3 row groups,
 	// with a timestamp, a nullable float32 and an int64 column.
-	old := parquetBudget
-	parquetBudget = time.Second // a looping decoder is an error, quickly
-	f.Cleanup(func() { parquetBudget = old })
+	opts := &Options{decodeBudget: time.Second} // a looping decoder is an error, quickly
 	dir := f.TempDir()
 	seed := filepath.Join(dir, "seed.parquet")
 	writeArrowParquet(f, seed, smallRecord(12), 4)
@@ -134,7 +132,7 @@ func FuzzReadParquet(f *testing.F) {
 		if err := os.WriteFile(p, data, 0o644); err != nil {
 			t.Fatal(err)
 		}
-		ds, err := ReadParquet(context.Background(), p, nil)
+		ds, err := ReadParquet(context.Background(), p, opts)
 		if err != nil {
 			var pe *ParseError
 			if !errors.As(err, &pe) {

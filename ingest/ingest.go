@@ -173,6 +173,10 @@ type Options struct {
 	KeepEvents bool
 	// Stdin is read for the input "-". Nil means os.Stdin.
 	Stdin io.Reader `json:"-"`
+
+	// Test hooks, set only by the package's own tests and benchmarks.
+	viaArrow     bool          // send every Parquet file through pqarrow (the general path)
+	decodeBudget time.Duration // base time to decode one Parquet file; 0 means parquetBudget
 }
 
 // Errors that can be returned in [ParseError.Err], or alone.

@@ -28,13 +28,10 @@ const maxRowsPerByte = 64
 // achieves on logged numbers, far below a decompression bomb.
 const maxExpand = 1024
 
-// parquetViaArrow sends every file through pqarrow (the general path),
-// for tests and benchmarks that compare the two paths.
-var parquetViaArrow = false
-
 // parquetBudget is the base time allowed to decode one Parquet file, to
-// which a second per MiB of file is added.
-var parquetBudget = 10 * time.Second
+// which a second per MiB of file is added (Options.decodeBudget replaces
+// it in tests).
+const parquetBudget = 10 * time.Second
 
 // ReadParquet reads one Parquet file of logged samples. Columns of type
 // float32, float64, int8..int64 and uint8..uint64 are numbers; a timestamp
@@ -68,18 +65,26 @@ func readParquet(ctx context.Context, path string, opts *Options) (ds *Dataset, 
 	// allocates without end (found by FuzzReadParquet; see its corpus). It
 	// cannot be stopped from outside, so the read runs under a time
 	// budget far above real decoding speed; past it the file is reported
-	// as corrupt and the decoder is left to the process's exit.
+	// as corrupt, and the decoder's context is cancelled so that it stops
+	// at its next check (between record batches and pages); a decoder
+	// stuck inside one Arrow call cannot be stopped, which is why the page
+	// checks of pqcheck.go refuse the known trigger before decoding.
 	type result struct {
 		tb  *table
 		err error
 	}
 	budget := parquetBudget
+	if opts.decodeBudget > 0 {
+		budget = opts.decodeBudget
+	}
 	if st, err := os.Stat(path); err == nil {
 		budget += time.Duration(st.Size()>>20) * time.Second // >= 1 MB/s
 	}
+	dctx, stop := context.WithCancel(ctx)
+	defer stop() // on every return, the time-out included: the decoder stops too
 	done := make(chan result, 1)
 	go func() {
-		tb, err := readParquetTable(ctx, path, opts)
+		tb, err := readParquetTable(dctx, path, opts)
 		done <- result{tb, err}
 	}()
 	var tb *table
@@ -232,7 +237,7 @@ func readParquetTable(ctx context.Context, path string, opts *Options) (tb *tabl
 	tb = &table{file: path, states: r.states, stateCol: r.stateCol, nInput: r.nInput, timeCol: r.timeCol, timeIdx: r.timeIdx,
 		rate: r.rate, ignored: r.ignored, rows: int(nrows), marks: []lineMark{{0, 1}}}
 	tb.x = make([][]float64, len(r.states))
-	if kinds, ok := directKinds(pr, fields, r); ok && !parquetViaArrow {
+	if kinds, ok := directKinds(pr, fields, r); ok && !opts.viaArrow {
 		if err := tb.readDirect(ctx, f, pr, r, fields, kinds, st.Size()); err != nil {
 			return nil, err
 		}

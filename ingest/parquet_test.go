@@ -191,9 +191,12 @@ func TestReadParquetPaths(t *testing.T) {
 		{path, &Options{RunCol: "k", States: []string{"x"}}},
 	} {
 		read := func(viaArrow bool) *Dataset {
-			parquetViaArrow = viaArrow
-			defer func() { parquetViaArrow = false }()
-			ds, err := ReadParquet(context.Background(), tc.file, tc.opts)
+			var o Options
+			if tc.opts != nil {
+				o = *tc.opts
+			}
+			o.viaArrow = viaArrow
+			ds, err := ReadParquet(context.Background(), tc.file, &o)
 			if err != nil {
 				t.Fatalf("%s (via arrow %v): %v", tc.file, viaArrow, err)
 			}
