@@ -145,8 +145,27 @@ func Load(ctx context.Context, paths []string, opts *Options) (*Dataset, error) 
 	if stdin > 1 {
 		return nil, fmt.Errorf("%w: \"-\" (stdin) given %d times", ErrFormat, stdin)
 	}
-	ctx, cancel := context.WithCancel(ctx)
-	defer cancel()
+	// Each file has its own context: a failure cancels only the files
+	// after it, so the error returned is always the earliest bad file's,
+	// whatever the timing.
+	ctxs := make([]context.Context, len(files))
+	cancels := make([]context.CancelFunc, len(files))
+	for i := range files {
+		ctxs[i], cancels[i] = context.WithCancel(ctx)
+		defer cancels[i]()
+	}
+	var mu sync.Mutex
+	firstBad := len(files)
+	fail := func(i int) {
+		mu.Lock()
+		defer mu.Unlock()
+		if i < firstBad {
+			for j := i + 1; j < firstBad; j++ {
+				cancels[j]()
+			}
+			firstBad = i
+		}
+	}
 	dss := make([]*Dataset, len(files))
 	errs := make([]error, len(files))
 	sem := make(chan struct{}, runtime.GOMAXPROCS(0))
@@ -157,17 +176,23 @@ func Load(ctx context.Context, paths []string, opts *Options) (*Dataset, error) 
 		go func() {
 			defer wg.Done()
 			defer func() { <-sem }()
-			dss[i], errs[i] = readFile(ctx, f, opts)
-			if errs[i] != nil {
-				cancel()
+			defer func() {
+				// A panic here would end the program with the bad-input
+				// exit code and a stack trace: return it as an error.
+				if r := recover(); r != nil {
+					errs[i] = fmt.Errorf("internal error reading %s: %v", f, r)
+					fail(i)
+				}
+			}()
+			dss[i], errs[i] = readFile(ctxs[i], f, opts)
+			if errs[i] != nil && ctxs[i].Err() == nil {
+				fail(i)
 			}
 		}()
 	}
 	wg.Wait()
-	for _, err := range errs {
-		if err != nil && err != context.Canceled {
-			return nil, err
-		}
+	if err := ctx.Err(); err != nil {
+		return nil, err
 	}
 	for _, err := range errs {
 		if err != nil {

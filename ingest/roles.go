@@ -16,6 +16,13 @@ const (
 	roleState
 )
 
+// MinRate and MaxRate bound Options.Rate: outside them the sample times
+// i/Rate underflow, overflow or repeat in float64.
+const (
+	MinRate = 1e-6
+	MaxRate = 1e9
+)
+
 // roles is the column assignment shared by the CSV and Parquet readers.
 // states holds the state columns followed by the nInput input columns;
 // stateOf maps a header column of role roleState to its index there.
@@ -73,7 +80,11 @@ func assignRoles(file string, cols []Column, opts *Options) (*roles, error) {
 			}
 		}
 	}
-	if ti < 0 && opts.Rate <= 0 {
+	if ti < 0 && (math.IsNaN(opts.Rate) || opts.Rate > 0 && !(opts.Rate >= MinRate && opts.Rate <= MaxRate)) {
+		return nil, &ParseError{File: file, Err: fmt.Errorf("%w: Options.Rate %g is not a usable sampling rate (a finite number of Hz from %g to %g)",
+			ErrFormat, opts.Rate, MinRate, MaxRate)}
+	}
+	if ti < 0 && !(opts.Rate > 0) {
 		return nil, &ParseError{File: file, Err: ErrNoTime}
 	}
 	if ti >= 0 {

@@ -7,7 +7,6 @@ import (
 	"flag"
 	"fmt"
 	"io"
-	"runtime/debug"
 	"strings"
 )
 
@@ -73,7 +72,11 @@ func basinMainIn(ctx context.Context, args []string, stdout, stderr io.Writer, s
 	defer func() {
 		if r := recover(); r != nil {
 			// A bare panic would exit 2, the code for bad input.
-			fmt.Fprintf(stderr, "basin %s: internal failure: %v\n%s", name, r, debug.Stack())
+			pe := recovered("in "+name, r)
+			fmt.Fprintf(stderr, "basin %s: %s\n", name, printable(pe.Error()))
+			if trace() {
+				stderr.Write(pe.stack)
+			}
 			code = 3
 		}
 	}()

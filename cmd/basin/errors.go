@@ -117,5 +117,9 @@ func exitCode(stderr io.Writer, name string, err error) int {
 		return 3
 	}
 	fmt.Fprintf(stderr, "basin %s: %s\n", name, msg)
+	var pe *panicError
+	if errors.As(err, &pe) && trace() {
+		stderr.Write(pe.stack)
+	}
 	return 3
 }

@@ -57,8 +57,8 @@ func (f *inputFlags) register(fs *flag.FlagSet, manifest bool) {
 
 // options turns the flags into ingest options.
 func (f *inputFlags) options() (*ingest.Options, error) {
-	if f.Rate < 0 {
-		return nil, usagef("--rate must be positive, got %g", f.Rate)
+	if f.Rate != 0 && !(f.Rate >= ingest.MinRate && f.Rate <= ingest.MaxRate) { // NaN fails too
+		return nil, usagef("--rate must be a sampling rate in Hz from %g to %g, got %g", ingest.MinRate, ingest.MaxRate, f.Rate)
 	}
 	switch {
 	case !(f.From >= 0) || math.IsInf(f.From, 0):

@@ -1,6 +1,7 @@
 package main
 
 import (
+	"errors"
 	"os"
 	"path/filepath"
 	"strings"
@@ -154,5 +155,68 @@ func TestMemoryBudget(t *testing.T) {
 	}
 	if err := m.checkV(2, 8); err != nil {
 		t.Errorf("V of degree 8 in 2 states: %v", err)
+	}
+}
+
+// TestRateRefused: a sampling rate that is not a number, infinite, or
+// so small or large that the sample times underflow or overflow is a
+// usage error (it was a panic for NaN).
+func TestRateRefused(t *testing.T) {
+	dir := t.TempDir()
+	f := filepath.Join(dir, "notime.csv")
+	os.WriteFile(f, []byte("x,y\n1,2\n2,3\n3,1\n4,5\n"), 0o644)
+	for _, r := range []string{"NaN", "nan", "Inf", "-Inf", "1e-320", "1e300", "-3"} {
+		for _, cmd := range []string{"inspect", "fit"} {
+			code, msg := run1(t, cmd, "--rate", r, "--out", filepath.Join(dir, "out"), f)
+			if cmd == "inspect" {
+				code, msg = run1(t, cmd, "--rate", r, f)
+			}
+			if code != 2 || !strings.Contains(msg, "--rate must be a sampling rate in Hz") {
+				t.Errorf("%s --rate %s: exit %d %q", cmd, r, code, msg)
+			}
+		}
+	}
+	if code, msg := run1(t, "inspect", "--rate", "50", f); code != 0 {
+		t.Errorf("--rate 50: exit %d %q", code, msg)
+	}
+}
+
+// TestPanicIsOneLine: a panic recovered in a goroutine exits 3 (not 2,
+// the bad-input code) with one line.
+func TestPanicIsOneLine(t *testing.T) {
+	err := screenSafe(func() fileResult { var x []int; _ = x[3]; return fileResult{} }, "a\x1b[2Jb.csv").err
+	var pe *panicError
+	if !errors.As(err, &pe) {
+		t.Fatalf("err = %v, want a panicError", err)
+	}
+	var b strings.Builder
+	if code := exitCode(&b, "screen", err); code != 3 {
+		t.Errorf("exit %d, want 3", code)
+	}
+	if msg := b.String(); strings.Count(msg, "\n") != 1 || strings.ContainsRune(msg, 0x1b) || !strings.Contains(msg, "index out of range") {
+		t.Errorf("stderr %q: want one sanitised line", msg)
+	}
+}
+
+// TestEarliestBadFileNamed: with two bad files, the error names the
+// first in input order every time, though the later one fails sooner.
+func TestEarliestBadFileNamed(t *testing.T) {
+	dir := t.TempDir()
+	var b strings.Builder
+	b.WriteString("t,x\n")
+	for i := range 100000 {
+		b.WriteString(ftoa(float64(i)*0.01) + ",1\n")
+	}
+	b.WriteString("1e9,oops\n")
+	os.WriteFile(filepath.Join(dir, "a.csv"), []byte(b.String()), 0o644)
+	for _, n := range []string{"b.csv", "c.csv"} {
+		os.WriteFile(filepath.Join(dir, n), []byte("t,x\n0,1\n0.1,2\n0.2,3\n"), 0o644)
+	}
+	os.WriteFile(filepath.Join(dir, "z.csv"), []byte("t,x\n0,bad\n"), 0o644)
+	for range 10 {
+		code, msg := run1(t, "inspect", dir)
+		if code != 2 || !strings.Contains(msg, "a.csv") {
+			t.Fatalf("exit %d %q, want the error of a.csv", code, msg)
+		}
 	}
 }

@@ -223,7 +223,7 @@ func screenFiles(ctx context.Context, cert *fit.Certificate, files []string, iop
 			defer wg.Done()
 			s := validate.NewScreener(cert, so)
 			for i := range next {
-				res[i] = screenOne(ctx, s, cert, files[i], iopts)
+				res[i] = screenSafe(func() fileResult { return screenOne(ctx, s, cert, files[i], iopts) }, files[i])
 				if res[i].err != nil {
 					cancel()
 				}
