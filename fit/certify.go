@@ -343,6 +343,7 @@ func Certify(ctx context.Context, m *Model, ds *ingest.Dataset, opts *CertifyOpt
 		cert.Margin = math.Min(best.g, 0)
 	}
 	cert.Tolerance = r.tolerance
+	cert.Noise = append([]float64(nil), m.Noise...)
 	cert.Box = make([][2]float64, n)
 	cert.Region.Extent = make([][2]float64, n)
 	for j := 0; j < n; j++ {

@@ -244,6 +244,8 @@ func Field(ctx context.Context, ds *ingest.Dataset, opts *FieldOptions) (*Model,
 	for j := range cols {
 		m.Noise[j] = noiseStd(cols[j], sampleCap)
 	}
+	var upper []float64
+	m.NoiseRange, upper = noiseRange(runs, n)
 	base := make([]int, n) // the smoothing window the noise explains, per state
 	for j := range cols {
 		base[j] = chooseWindow(cols[j], m.Noise[j], 20000)
@@ -479,6 +481,11 @@ func Field(ctx context.Context, ds *ingest.Dataset, opts *FieldOptions) (*Model,
 		}
 	}
 	equilibria(m, runs)
+	// The tolerances built on Noise must hold for the louder runs too:
+	// take the upper end of the runs' own figures.
+	for j := range m.Noise {
+		m.Noise[j] = math.Max(m.Noise[j], upper[j])
+	}
 	if !modelFinite(m) {
 		return nil, errors.New("fit: non-finite value in the fitted model")
 	}

@@ -158,11 +158,20 @@ type Model struct {
 	Upper []float64 `json:"upper"`
 	// Noise is the estimated measurement noise (standard deviation) per
 	// state, in the state's unit: 1.4826·median|Δ⁴x|/√70 over the fourth
-	// differences of the samples, pooled over runs (white noise gives Δ⁴
-	// a variance of 70σ²; a smooth, densely sampled signal adds little).
-	Noise   []float64 `json:"noise"`
-	Runs    int       `json:"runs"`
-	Samples int       `json:"samples"`
+	// differences of the samples (white noise gives Δ⁴ a variance of 70σ²;
+	// a smooth, densely sampled signal adds little), the larger of that
+	// figure pooled over runs and the 90th percentile of the runs' own
+	// ([RunNoise]): noise that is a share of each run's spread makes the
+	// pooled figure the quiet runs', too low for the tolerances built on
+	// it. A run louder still gets its own tolerance widened when checked
+	// or screened (package validate).
+	Noise []float64 `json:"noise"`
+	// NoiseRange is, per state, the lowest and highest noise estimate of
+	// one run ([RunNoise]) over the fit runs: how much the noise differs
+	// between runs.
+	NoiseRange [][2]float64 `json:"noise_range,omitempty"`
+	Runs       int          `json:"runs"`
+	Samples    int          `json:"samples"`
 
 	// Basis says where the threshold counted terms: "raw" (monomials of
 	// x/Spread, so the support is the raw equations' support) or
@@ -337,6 +346,11 @@ type Certificate struct {
 	// beyond the noise tolerance, not to fall: at most the stable
 	// strength is claimed, never asymptotic. Margin is then at most 0.
 	NonRise bool `json:"non_rise,omitempty"`
+	// Noise is the noise per state, in the states' units, that Tolerance
+	// and NoiseRadius assume (the model's pooled estimate); a run whose
+	// own estimate ([RunNoise]) is higher gets its tolerances widened in
+	// proportion when it is checked or screened.
+	Noise []float64 `json:"noise,omitempty"`
 	// NoiseRadius is the radius, in z, of the ball around the equilibrium
 	// where noise dominates and no decrease is required.
 	NoiseRadius float64 `json:"noise_radius"`

@@ -46,7 +46,11 @@ type Screener struct {
 	opts ScreenOptions
 	n    int
 	tol  float64
-	r2   float64 // NoiseRadius squared
+	// baseTol is the tolerance before a run's own noise widens it (see
+	// runNoise.go).
+	baseTol float64
+	noise   runNoise
+	r2      float64 // NoiseRadius squared
 	// settle is the largest V on the ball |z| <= NoiseRadius.
 	settle float64
 
@@ -152,6 +156,8 @@ func NewScreener(cert *fit.Certificate, opts *ScreenOptions) *Screener {
 	if s.tol < 0 || math.IsNaN(s.tol) {
 		s.tol = 0
 	}
+	s.baseTol = s.tol
+	s.initRunNoise()
 	s.r2 = cert.NoiseRadius * cert.NoiseRadius
 	s.inv = make([]float64, n)
 	s.eq = append([]float64(nil), cert.Equilibrium...)
@@ -331,6 +337,8 @@ func (s *Screener) Screen(dst *RunScreen, file string, run *ingest.Run) {
 	s.Begin(dst, file, run.Name)
 	if len(run.X) != s.n {
 		s.st.bad = true
+	} else {
+		s.tol = s.runTol(run)
 	}
 	m := run.Len()
 	for i0 := 0; i0 < m && !s.st.bad; i0 += screenBlock {
@@ -371,6 +379,7 @@ type runState struct {
 // dst.Flags' storage; feed its samples with [Screener.Feed] in time
 // order, then call [Screener.End]. A Screener screens one run at a time.
 func (s *Screener) Begin(dst *RunScreen, file, run string) {
+	s.tol = s.baseTol
 	flags := dst.Flags[:0]
 	*dst = RunScreen{File: file, Run: run, Flags: flags, enter: -1}
 	dst.worstExcess = math.Inf(-1)

@@ -337,6 +337,20 @@ func equationErrors(b *strings.Builder, m *fit.Model) {
 		fmt.Fprintf(b, " d(%s)/dt %s %s (%s of its spread)", e.State, human.Num(e.HeldoutRMS), u, human.Percent(e.HeldoutShare))
 	}
 	b.WriteString("\n")
+	if len(m.NoiseRange) == len(m.States) {
+		b.WriteString("noise per run (lowest to highest estimate):")
+		for j, s := range m.States {
+			if j > 0 {
+				b.WriteString(",")
+			}
+			u := ""
+			if j < len(m.Units) {
+				u = spaceUnit(m.Units[j])
+			}
+			fmt.Fprintf(b, " %s %s to %s%s", s, human.Num(m.NoiseRange[j][0]), human.Num(m.NoiseRange[j][1]), u)
+		}
+		b.WriteString("\n")
+	}
 	for _, e := range m.Equations {
 		if e.Warning != "" {
 			fmt.Fprintf(b, "  warning: d(%s)/dt: %s\n", e.State, e.Warning)
