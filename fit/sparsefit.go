@@ -7,8 +7,7 @@ import (
 	"sort"
 	"sync"
 
-	"gonum.org/v1/gonum/blas"
-	"gonum.org/v1/gonum/blas/blas64"
+	"basin.example/fit/internal/gram"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -18,7 +17,7 @@ import (
 // stored: each group of samples (a run, or a contiguous block of one when
 // there are too few runs to cross-validate by run) is reduced to its
 // normal equations G = ΦᵀΦ (p×p), B = ΦᵀY (p×n) and the sums of y and y²,
-// accumulated 512 rows at a time with BLAS syrk/gemm. Normal equations
+// accumulated 512 rows at a time by one rank-k update (gram.AddRows). Normal equations
 // rather than a tall-skinny QR because every later step — K-fold
 // cross-validation by run, the threshold path, the bootstrap over runs —
 // needs the Gram matrix of an arbitrary union of groups, which for normal
@@ -62,14 +61,16 @@ func (g *groupSums) finish(p int) {
 // BenchmarkFit).
 type rowBuffer struct {
 	p, n int
-	rows []float64 // blockRows×(p+n)
-	aug  []float64 // (p+n)² scratch for one flush
+	ws   int       // row stride: p+n rounded up to a multiple of 8 (the Gram kernel's tile), the padding zero
+	rows []float64 // blockRows×ws
+	aug  []float64 // ws² scratch for one flush
 	cnt  int
 	dst  *groupSums
 }
 
 func newRowBuffer(p, n int) *rowBuffer {
-	return &rowBuffer{p: p, n: n, rows: make([]float64, blockRows*(p+n)), aug: make([]float64, (p+n)*(p+n))}
+	ws := (p + n + 7) &^ 7
+	return &rowBuffer{p: p, n: n, ws: ws, rows: make([]float64, blockRows*ws), aug: make([]float64, ws*ws)}
 }
 
 // row returns the slices to fill for the next row of group g.
@@ -78,10 +79,9 @@ func (rb *rowBuffer) row(g *groupSums) (phi, y []float64) {
 		rb.flush()
 		rb.dst = g
 	}
-	w := rb.p + rb.n
-	r := rb.rows[rb.cnt*w : (rb.cnt+1)*w]
+	r := rb.rows[rb.cnt*rb.ws : (rb.cnt+1)*rb.ws]
 	rb.cnt++
-	return r[:rb.p], r[rb.p:]
+	return r[:rb.p], r[rb.p : rb.p+rb.n]
 }
 
 // unrow drops the last row (one that turned out non-finite).
@@ -93,11 +93,10 @@ func (rb *rowBuffer) flush() {
 		return
 	}
 	p, n, c := rb.p, rb.n, rb.cnt
-	w := p + n
+	w := rb.ws
 	g := rb.dst
 	clear(rb.aug)
-	a := blas64.General{Rows: c, Cols: w, Stride: w, Data: rb.rows[:c*w]}
-	blas64.Syrk(blas.Trans, 1, a, 0, blas64.Symmetric{Uplo: blas.Upper, N: w, Stride: w, Data: rb.aug})
+	gram.AddRows(rb.aug, rb.rows[:c*w], w, c, w)
 	for k := 0; k < p; k++ {
 		row := rb.aug[k*w:]
 		gk := g.G[k*p:]
@@ -112,7 +111,7 @@ func (rb *rowBuffer) flush() {
 		g.yy[i] += rb.aug[(p+i)*w+p+i]
 	}
 	for r := 0; r < c; r++ {
-		for i, v := range rb.rows[r*w+p : (r+1)*w] {
+		for i, v := range rb.rows[r*w+p : r*w+p+n] {
 			g.ys[i] += v
 		}
 	}

@@ -6,6 +6,7 @@ import (
 	"runtime"
 	"sync"
 
+	"basin.example/fit/internal/gram"
 	"gonum.org/v1/gonum/blas"
 	"gonum.org/v1/gonum/blas/blas64"
 	"gonum.org/v1/gonum/floats"
@@ -587,7 +588,7 @@ func (s *ipm) normal(dst, bw, d []float64) {
 				at[j*kk+i-lo] = r * v
 			}
 		}
-		syrkT(c, at, n, kk)
+		gram.SyrkT(c, at, n, kk)
 	}
 	if w == 1 {
 		work(0, dst)

@@ -166,7 +166,13 @@ func main() {
 	only := flag.String("cases", "", "comma-separated case names to run (default all)")
 	hInit := flag.Int("highs-initial", 0, "initial rows of HiGHS's loop (0: 10 x unknowns)")
 	hBatch := flag.Int("highs-batch", 0, "rows added per round in HiGHS's loop (0: 2 x unknowns)")
+	oInit := flag.Int("initial", 0, "fit/lp's initial rows (0: SolveCuts's default)")
+	oBatch := flag.Int("batch", 0, "fit/lp's rows added per round (0: SolveCuts's default)")
 	flag.Parse()
+	var copts *lp.CutOptions
+	if *oInit > 0 || *oBatch > 0 {
+		copts = &lp.CutOptions{Initial: *oInit, Batch: *oBatch}
+	}
 	if err := os.MkdirAll(*dir, 0o755); err != nil {
 		fmt.Fprintln(os.Stderr, "benchlp:", err)
 		os.Exit(1)
@@ -212,11 +218,11 @@ func main() {
 		for r := 0; r < *reps; r++ {
 			// Alternate which solver goes first.
 			if r%2 == 0 {
-				cut[k].ours = append(cut[k].ours, goCuts(d, nil))
+				cut[k].ours = append(cut[k].ours, goCuts(d, copts))
 				cut[k].theirs = append(cut[k].theirs, h.run("cuts", files[k], ini, bat))
 			} else {
 				cut[k].theirs = append(cut[k].theirs, h.run("cuts", files[k], ini, bat))
-				cut[k].ours = append(cut[k].ours, goCuts(d, nil))
+				cut[k].ours = append(cut[k].ours, goCuts(d, copts))
 			}
 			fmt.Fprintf(os.Stderr, "%s cuts %d: ours %.3fs, HiGHS %.3fs (CPU)\n", c.Name(), r+1,
 				cut[k].ours[r].cpu, cut[k].theirs[r].cpu)

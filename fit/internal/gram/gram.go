@@ -1,12 +1,17 @@
-package lp
+// Package gram computes Gram matrices (sums of outer products of rows,
+// the normal matrices of least squares and of interior-point steps) with
+// a register-tiled kernel in pure Go.
+package gram
 
-// syrkT stores in the upper triangle of c (n x n, row-major) the products
+// SyrkT stores in the upper triangle of c (n x n, row-major) the products
 // c[i][j] = sum_l at[i][l] at[j][l], for i <= j, where at is n x k
-// row-major (the transpose of the scaled rows). The lower triangle is not
-// touched. Entries are computed in 2 x 4 register blocks, about 1.5 times
+// row-major (the transpose of the scaled rows). Of the lower triangle only
+// the entries c[i+1][i] for even i are written (with their upper
+// counterparts' values); the rest is not touched. Entries are computed in 2 x 4 register blocks, about 1.5 times
 // the speed of gonum's Dsyrk on the same product with the rows as given
-// (measured at n = 205, k = 4900). It does not allocate.
-func syrkT(c, at []float64, n, k int) {
+// (measured at n = 205, k = 4900). It does not allocate. It panics if c
+// or at is shorter than n*n or n*k.
+func SyrkT(c, at []float64, n, k int) {
 	for i := 0; i < n; i += 2 {
 		a0 := at[i*k : (i+1)*k]
 		two := i+1 < n
