@@ -3,7 +3,6 @@ package ingest
 import (
 	"context"
 	"fmt"
-	"io/fs"
 	"os"
 	"path/filepath"
 	"runtime"
@@ -22,43 +21,19 @@ func readable(name string) bool {
 }
 
 // Expand turns INPUTS into the list of files to read: a folder becomes its
-// .csv, .tsv, .txt and .parquet files (not recursively, sorted by name,
-// hidden files skipped); "-" and files stay as given. A folder with no
-// such file is an error wrapping [ErrNoFiles]; a path that does not exist
-// is an *fs.PathError.
+// .csv, .tsv, .txt and .parquet files and those of its key=value
+// partition folders (sorted by name, hidden files skipped; see
+// [ExpandTree], which also gives the partition values); "-" and files
+// stay as given. A folder with no such file is an error wrapping
+// [ErrNoFiles]; a path that does not exist is an *fs.PathError.
 func Expand(paths []string) ([]string, error) {
-	var out []string
-	for _, p := range paths {
-		if p == "-" {
-			out = append(out, p)
-			continue
-		}
-		st, err := os.Stat(p)
-		if err != nil {
-			return nil, err
-		}
-		if !st.IsDir() {
-			out = append(out, p)
-			continue
-		}
-		des, err := os.ReadDir(p)
-		if err != nil {
-			return nil, err
-		}
-		n := 0
-		for _, de := range des {
-			if strings.HasPrefix(de.Name(), ".") || !readable(de.Name()) {
-				continue
-			}
-			if de.Type()&fs.ModeType != 0 && de.Type()&fs.ModeSymlink == 0 {
-				continue
-			}
-			out = append(out, filepath.Join(p, de.Name()))
-			n++
-		}
-		if n == 0 {
-			return nil, &ParseError{File: p, Err: ErrNoFiles}
-		}
+	in, _, err := ExpandTree(paths, nil)
+	if err != nil {
+		return nil, err
+	}
+	out := make([]string, len(in))
+	for i := range in {
+		out[i] = in[i].Path
 	}
 	return out, nil
 }

@@ -150,11 +150,17 @@ certificate that records the held-out decay rates); exit status 1 when any
 run is flagged. Rises and leaves say how far past the boundary, per state
 in the states' units; every run reports its decay rate. Files are read one
 at a time per worker, so memory stays bounded however many are given.
+Folders are read with their key=value subfolders (logs/vehicle=17/
+day=2026-11-30/run.parquet), and each run reports its partition values.
 
 	--cert FILE         the certificate (required)
 	--rise-tol DV       tolerated rise of V between samples (default: the
 	                    certificate's); --tolerance is a deprecated alias
 	--workers N         files screened at once (default: the CPUs)
+	--recursive         descend into every subfolder, not only key=value
+	                    partition folders
+	--format FORMAT     table (default), or csv: one row per run with
+	                    the partition columns, the flags and decay_rate
 
 plus --quiet, --json and the flags of Reading logs except --manifest.
 

@@ -1,13 +1,18 @@
 package main
 
 import (
+	"bytes"
 	"context"
+	"encoding/csv"
+	"encoding/json"
 	"errors"
 	"flag"
 	"fmt"
 	"io"
 	"math"
 	"runtime"
+	"slices"
+	"strconv"
 	"strings"
 	"sync"
 	"text/tabwriter"
@@ -25,6 +30,8 @@ type screenFlags struct {
 	Cert      string
 	Tolerance float64
 	Workers   int
+	Recursive bool
+	Format    string
 }
 
 func (f *screenFlags) register(fs *flag.FlagSet) {
@@ -34,6 +41,8 @@ func (f *screenFlags) register(fs *flag.FlagSet) {
 	fs.Float64Var(&f.Tolerance, "rise-tol", 0, "tolerated rise of V between samples `DV` (0: the certificate's)")
 	fs.Float64Var(&f.Tolerance, "tolerance", 0, "deprecated: the old name of --rise-tol")
 	fs.IntVar(&f.Workers, "workers", 0, "files screened at once `N` (default: the number of CPUs)")
+	fs.BoolVar(&f.Recursive, "recursive", false, "descend into every subfolder, not only key=value partition folders")
+	fs.StringVar(&f.Format, "format", "table", "output `FORMAT`: table, or csv (one row per run)")
 }
 
 var cmdScreen = &command{
@@ -54,6 +63,14 @@ states' units; and the run's decay rate. A run that starts outside and
 comes in to settle is not flagged. A certificate without held-out decay
 rates (an older file) screens without the slow flag, with one warning.
 
+Folders are read with their key=value subfolders (the partition layout of
+data lakes and Parquet writers: logs/vehicle=17/day=2026-11-30/run.parquet),
+and each run reports its partition values (partition in --json, a column
+per key in the table and in --format csv); other subfolders are skipped,
+with a note, unless --recursive. --format csv prints one row per run:
+the partition columns, run, file, samples, flagged, rises, leaves,
+unsettled, slow, never_inside and decay_rate.
+
 Files are read one at a time per worker and screened as they arrive, so
 memory stays bounded by one file per worker however many files are given.
 The state columns are the certificate's, in its order, unless --states
@@ -64,12 +81,58 @@ func init() { cmdScreen.Run = runScreen }
 
 // screenJSON is the contract's screen --json shape.
 type screenJSON struct {
-	Runs    []validate.RunScreen `json:"runs"`
-	States  []screenState        `json:"states"`
-	Summary screenSummary        `json:"summary"`
+	Runs    []screenRun   `json:"runs"`
+	States  []screenState `json:"states"`
+	Summary screenSummary `json:"summary"`
+	// Partitions lists the partition keys met, in order of first
+	// appearance.
+	Partitions []string `json:"partition_keys,omitempty"`
 	// SlowBound is the decay rate (1/s) below which a run is slow, 0
 	// when the certificate records no held-out decay rates.
 	SlowBound float64 `json:"slow_bound"`
+}
+
+// screenRun is one run's screening and the partition of its file.
+type screenRun struct {
+	validate.RunScreen
+	Partition partition `json:"partition,omitempty"`
+}
+
+// partition is a file's key=value folders, written as a JSON object in
+// path order.
+type partition []ingest.Partition
+
+func (p partition) MarshalJSON() ([]byte, error) {
+	var b bytes.Buffer
+	b.WriteByte('{')
+	for i, kv := range p {
+		if i > 0 {
+			b.WriteByte(',')
+		}
+		k, err := json.Marshal(kv.Key)
+		if err != nil {
+			return nil, err
+		}
+		v, err := json.Marshal(kv.Value)
+		if err != nil {
+			return nil, err
+		}
+		b.Write(k)
+		b.WriteByte(':')
+		b.Write(v)
+	}
+	b.WriteByte('}')
+	return b.Bytes(), nil
+}
+
+// value returns the value of key, or "" when p has none.
+func (p partition) value(key string) string {
+	for _, kv := range p {
+		if kv.Key == key {
+			return kv.Value
+		}
+	}
+	return ""
 }
 
 type screenState struct {
@@ -111,6 +174,14 @@ func runScreen(ctx context.Context, e *env, args []string) error {
 	if c.Workers < 0 || c.Workers > 1024 {
 		return usagef("--workers must be 0..1024, got %d", c.Workers)
 	}
+	switch c.Format {
+	case "table", "csv":
+	default:
+		return usagef("--format must be table or csv, got %q", c.Format)
+	}
+	if c.JSON && c.Format == "csv" {
+		return usagef("--json and --format csv: choose one")
+	}
 	cert, err := certFromFile(c.Cert)
 	if err != nil {
 		return err
@@ -126,24 +197,40 @@ func runScreen(ctx context.Context, e *env, args []string) error {
 		return usagef("--states names %d states, the certificate has %d", len(iopts.States), len(cert.States))
 	}
 	iopts.Stdin = e.stdin
-	files, err := ingest.Expand(args)
+	inputs, skipped, err := ingest.ExpandTree(args, &ingest.ExpandOptions{Recursive: c.Recursive})
 	if err != nil {
 		return asInputError(err)
+	}
+	for _, d := range skipped {
+		warnf(e, c.Quiet, "%s: skipped folder (not key=value; --recursive reads it)", printable(d))
+	}
+	files := make([]string, len(inputs))
+	for i := range inputs {
+		files[i] = inputs[i].Path
 	}
 	res, err := screenFiles(ctx, cert, files, iopts, &validate.ScreenOptions{Tolerance: c.Tolerance}, c.Workers)
 	if err != nil {
 		return asInputError(err)
 	}
-	out := screenJSON{Runs: []validate.RunScreen{}, Summary: screenSummary{Files: len(files)}}
+	out := screenJSON{Runs: []screenRun{}, Summary: screenSummary{Files: len(files)}}
+	seen := map[string]bool{}
+	for _, in := range inputs {
+		for _, kv := range in.Partition {
+			if !seen[kv.Key] {
+				seen[kv.Key] = true
+				out.Partitions = append(out.Partitions, kv.Key)
+			}
+		}
+	}
 	for j, s := range cert.States {
 		out.States = append(out.States, screenState{s, cert.Units[j]})
 	}
-	for _, rs := range res {
+	for i, rs := range res {
 		for _, r := range rs.runs {
 			if r.Flags == nil {
 				r.Flags = []validate.Flag{}
 			}
-			out.Runs = append(out.Runs, r)
+			out.Runs = append(out.Runs, screenRun{RunScreen: r, Partition: inputs[i].Partition})
 			out.Summary.Runs++
 			out.Summary.Samples += r.Samples
 			if r.Flagged {
@@ -177,12 +264,19 @@ func runScreen(ctx context.Context, e *env, args []string) error {
 	} else {
 		warnf(e, c.Quiet, "%s: no held-out decay rates recorded (an older certificate, or too few held-out runs); screening without the slow flag", c.Cert)
 	}
-	if c.JSON {
+	switch {
+	case c.JSON:
 		if err := writeJSON(e.stdout, out); err != nil {
 			return err
 		}
-	} else if err := screenTable(e.stdout, &out); err != nil {
-		return err
+	case c.Format == "csv":
+		if err := screenCSV(e.stdout, &out); err != nil {
+			return err
+		}
+	default:
+		if err := screenTable(e.stdout, &out); err != nil {
+			return err
+		}
 	}
 	if out.Summary.Flagged > 0 {
 		return errFlagged
@@ -284,8 +378,14 @@ func screenOne(ctx context.Context, s *validate.Screener, cert *fit.Certificate,
 // screenTable prints the runs in input order, then a summary line.
 func screenTable(w io.Writer, out *screenJSON) error {
 	tw := tabwriter.NewWriter(w, 0, 8, 2, ' ', 0)
+	for _, k := range out.Partitions {
+		fmt.Fprintf(tw, "%s\t", printable(k))
+	}
 	fmt.Fprintln(tw, "run\tfile\tsamples\tverdict\tdecay 1/s\tflags")
 	for _, r := range out.Runs {
+		for _, k := range out.Partitions {
+			fmt.Fprintf(tw, "%s\t", printable(r.Partition.value(k)))
+		}
 		verdict := "ok"
 		switch {
 		case r.Flagged:
@@ -316,6 +416,49 @@ func screenTable(w io.Writer, out *screenJSON) error {
 		_, err = fmt.Fprintln(w, fit.Caveat)
 	}
 	return err
+}
+
+// screenCSV prints one CSV row per run: the partition columns (a key
+// that repeats a fixed column's name gets a "partition." prefix), then
+// run, file, samples, the flags as true or false, never_inside and the
+// decay rate (empty when the run has none).
+func screenCSV(w io.Writer, out *screenJSON) error {
+	fixed := []string{"run", "file", "samples", "flagged", "rises", "leaves", "unsettled", "slow", "never_inside", "decay_rate"}
+	var head []string
+	for _, k := range out.Partitions {
+		k = printable(k)
+		if slices.Contains(fixed, k) {
+			k = "partition." + k
+		}
+		head = append(head, k)
+	}
+	cw := csv.NewWriter(w)
+	if err := cw.Write(append(head, fixed...)); err != nil {
+		return err
+	}
+	tf := strconv.FormatBool
+	for _, r := range out.Runs {
+		var row []string
+		for _, k := range out.Partitions {
+			row = append(row, printable(r.Partition.value(k)))
+		}
+		kinds := map[string]bool{}
+		for _, f := range r.Flags {
+			kinds[f.Kind] = true
+		}
+		rate := ""
+		if r.DecaySamples > 0 {
+			rate = strconv.FormatFloat(r.DecayRate, 'g', -1, 64)
+		}
+		row = append(row, printable(r.Run), printable(r.File), strconv.Itoa(r.Samples), tf(r.Flagged),
+			tf(kinds[validate.FlagRises]), tf(kinds[validate.FlagLeaves]), tf(kinds[validate.FlagUnsettled]),
+			tf(kinds[validate.FlagSlow]), tf(!r.EverInside), rate)
+		if err := cw.Write(row); err != nil {
+			return err
+		}
+	}
+	cw.Flush()
+	return cw.Error()
 }
 
 // flagText is one flag in the table: kind, time, excess and, for rises

@@ -3,6 +3,7 @@ package main
 import (
 	"bytes"
 	"context"
+	"encoding/csv"
 	"encoding/json"
 	"fmt"
 	"math"
@@ -220,3 +221,97 @@ func TestScreenSlowCommand(t *testing.T) {
 }
 
 func scalarClose(a, b, tol float64) bool { return scalar.EqualWithinAbsOrRel(a, b, tol, tol) }
+
+// TestScreenPartitions: runs under key=value folders report their
+// partition in --json (in path order), as columns in the table and in
+// --format csv; a plain folder is skipped with a note unless --recursive;
+// a key named twice in a path is an input error.
+func TestScreenPartitions(t *testing.T) {
+	root := t.TempDir()
+	dir := func(rel string) string {
+		p := filepath.Join(root, rel)
+		if err := os.MkdirAll(p, 0o755); err != nil {
+			t.Fatal(err)
+		}
+		return p
+	}
+	writeRun(t, dir("vehicle=17/day=2026-11-30"), "a.csv", [2]float64{0.5, 0.3}, -1, 4)
+	writeRun(t, dir("vehicle=9/day=2026-12-01"), "b.csv", [2]float64{0.2, 0.1}, 0.4, 4) // grows: flagged
+	writeRun(t, dir("vehicle=x%2Cy \"q\""), "c.csv", [2]float64{0.5, 0.3}, -1, 4)       // odd characters
+	writeRun(t, dir("archive"), "d.csv", [2]float64{0.5, 0.3}, -1, 4)
+	cert := writeTestCert(t, screenCert)
+
+	var out, errb bytes.Buffer
+	code := basinMain(context.Background(), []string{"screen", "--cert", cert, "--json", root}, &out, &errb)
+	if code != 1 {
+		t.Fatalf("exit %d; %s", code, errb.String())
+	}
+	var got struct {
+		Runs []struct {
+			Run       string          `json:"run"`
+			Flagged   bool            `json:"flagged"`
+			Partition json.RawMessage `json:"partition"`
+		} `json:"runs"`
+		Keys []string `json:"partition_keys"`
+	}
+	if err := json.Unmarshal(out.Bytes(), &got); err != nil {
+		t.Fatal(err)
+	}
+	want := map[string]string{
+		"a.csv": `{"vehicle":"17","day":"2026-11-30"}`,
+		"b.csv": `{"vehicle":"9","day":"2026-12-01"}`,
+		"c.csv": `{"vehicle":"x,y \"q\""}`,
+	}
+	if len(got.Runs) != 3 || strings.Join(got.Keys, ",") != "vehicle,day" {
+		t.Fatalf("runs %+v keys %v", got.Runs, got.Keys)
+	}
+	for _, r := range got.Runs {
+		var c bytes.Buffer
+		if err := json.Compact(&c, r.Partition); err != nil || c.String() != want[r.Run] || r.Flagged != (r.Run == "b.csv") {
+			t.Errorf("%s: partition %s flagged %v, want %s", r.Run, c.String(), r.Flagged, want[r.Run])
+		}
+	}
+	if !strings.Contains(errb.String(), "archive: skipped folder") {
+		t.Errorf("no note of the skipped folder: %s", errb.String())
+	}
+
+	out.Reset()
+	errb.Reset()
+	code = basinMain(context.Background(), []string{"screen", "--cert", cert, "--format", "csv", "--recursive", root}, &out, &errb)
+	rows, err := csvRows(out.String())
+	if code != 1 || err != nil || len(rows) != 5 {
+		t.Fatalf("csv: exit %d, %v, %q; %s", code, err, out.String(), errb.String())
+	}
+	if strings.Join(rows[0], ",") != "vehicle,day,run,file,samples,flagged,rises,leaves,unsettled,slow,never_inside,decay_rate" {
+		t.Errorf("csv header %v", rows[0])
+	}
+	if rows[1][2] != "d.csv" || rows[1][0] != "" || rows[4][0] != `x,y "q"` || rows[3][5] != "true" || rows[2][5] != "false" {
+		t.Errorf("csv rows %v", rows[1:])
+	}
+	if strings.Contains(errb.String(), "skipped folder") {
+		t.Errorf("--recursive still skipped: %s", errb.String())
+	}
+
+	for _, tc := range []struct {
+		name string
+		args []string
+		err  string
+	}{
+		{"bad format", []string{"--format", "xml", root}, "--format must be table or csv"},
+		{"json and csv", []string{"--format", "csv", "--json", root}, "choose one"},
+		{"key twice", []string{dir("vehicle=1/vehicle=2")}, "partition key named twice"},
+	} {
+		if tc.name == "key twice" {
+			writeRun(t, filepath.Join(root, "vehicle=1/vehicle=2"), "e.csv", [2]float64{0.5, 0.3}, -1, 4)
+			tc.args = []string{root}
+		}
+		out.Reset()
+		errb.Reset()
+		code := basinMain(context.Background(), append([]string{"screen", "--cert", cert}, tc.args...), &out, &errb)
+		if code != 2 || !strings.Contains(errb.String(), tc.err) || out.Len() != 0 {
+			t.Errorf("%s: exit %d, stdout %q, stderr %q; want 2 and %q", tc.name, code, out.String(), errb.String(), tc.err)
+		}
+	}
+}
+
+func csvRows(s string) ([][]string, error) { return csv.NewReader(strings.NewReader(s)).ReadAll() }
