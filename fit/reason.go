@@ -47,4 +47,5 @@ const (
 	ReasonLinearUnknown  ReasonKind = "linearisation_unknown"
 	ReasonFewRuns        ReasonKind = "too_few_runs"
 	ReasonNoHeldoutPairs ReasonKind = "no_heldout_pairs"
+	ReasonSameStart      ReasonKind = "runs_start_at_one_state"
 )

@@ -521,6 +521,10 @@ func Evaluate(ctx context.Context, ds *ingest.Dataset, opts *Options) (*Result, 
 		val.Folds = o.Folds
 		modelChecks(m, hoDS, val, o)
 		Decide(cert, val, runs, eigenvalues(m), &o)
+		if sameStart(ds) && cert.Verdict == fit.Certified {
+			cert.Verdict, cert.Strength, cert.ReasonKind = fit.Inconclusive, fit.NoClaim, fit.ReasonSameStart
+			cert.Reason = "Every run starts at the same state, so the held-out runs repeat the fit runs and check nothing new. Record runs that start from different states."
+		}
 		return m, cert, runs, nil
 	}
 	m, cert, runs, err := one(0)
@@ -554,6 +558,45 @@ func Evaluate(ctx context.Context, ds *ingest.Dataset, opts *Options) (*Result, 
 	}
 	res.Model, res.Certificate, res.Runs = m, cert, runs
 	return res, nil
+}
+
+// sameStartShare: runs whose starting states spread less than this share
+// of the data's spread, in every state, all start at one point.
+const sameStartShare = 0.02
+
+// sameStart reports whether every run of ds starts at about the same
+// state: the standard deviation of the first samples over the runs is
+// below sameStartShare of the data's standard deviation in every state.
+func sameStart(ds *ingest.Dataset) bool {
+	if len(ds.Runs) < 2 {
+		return false
+	}
+	for j := range ds.States {
+		var s0, q0, sa, qa, n0, na float64
+		for i := range ds.Runs {
+			x := ds.Runs[i].X[j]
+			if len(x) == 0 {
+				continue
+			}
+			s0 += x[0]
+			q0 += x[0] * x[0]
+			n0++
+			for _, v := range x {
+				sa += v
+				qa += v * v
+				na++
+			}
+		}
+		if n0 < 2 || na < 2 {
+			continue
+		}
+		sd0 := math.Sqrt(math.Max(0, q0/n0-(s0/n0)*(s0/n0)))
+		sda := math.Sqrt(math.Max(0, qa/na-(sa/na)*(sa/na)))
+		if sd0 > sameStartShare*sda {
+			return false
+		}
+	}
+	return true
 }
 
 // eigenvalues returns the primary equilibrium's eigenvalues, or nil when
