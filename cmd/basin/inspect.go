@@ -188,7 +188,7 @@ func inspectTable(w io.Writer, ds *ingest.Dataset, s *ingest.Summary) error {
 		if split == "" {
 			split = "auto"
 		}
-		fmt.Fprintf(tw, "%s\t%d\t%s\t%s\t%s\t%s\t%d\t%s\t%s\n", r.Name, r.Samples, g(r.Start), g(r.Duration),
+		fmt.Fprintf(tw, "%s\t%d\t%s\t%s\t%s\t%s\t%d\t%s\t%s\n", printable(r.Name), r.Samples, g(r.Start), g(r.Duration),
 			g(r.RateHz), g(r.Jitter), r.Gaps, split, settled)
 	}
 	fmt.Fprintf(tw, "total\t%d\t\t%s\t%s\t%s\t%d\t\t%d of %d\n", s.Total.Samples, g(s.Total.Duration),
@@ -208,28 +208,28 @@ func inspectTable(w io.Writer, ds *ingest.Dataset, s *ingest.Summary) error {
 		if unit == "" {
 			unit = "-"
 		}
-		fmt.Fprintf(tw, "%s\t%s\t%s\t%s\t%s\n", st.Name, unit, g(st.Min), g(st.Max), at)
+		fmt.Fprintf(tw, "%s\t%s\t%s\t%s\t%s\n", printable(st.Name), printable(unit), g(st.Min), g(st.Max), at)
 	}
 	for _, in := range s.Inputs {
 		unit := in.Unit
 		if unit == "" {
 			unit = "-"
 		}
-		fmt.Fprintf(tw, "%s (input)\t%s\t%s\t%s\t-\n", in.Name, unit, g(in.Min), g(in.Max))
+		fmt.Fprintf(tw, "%s (input)\t%s\t%s\t%s\t-\n", printable(in.Name), printable(unit), g(in.Min), g(in.Max))
 	}
 	if err := tw.Flush(); err != nil {
 		return err
 	}
 	fmt.Fprintf(w, "\n%d files, %d runs, %d samples; time column %q", s.Files, len(s.Runs), s.Total.Samples, ds.Time.Name)
 	if ds.Time.Unit != "" {
-		fmt.Fprintf(w, " [%s]", ds.Time.Unit)
+		fmt.Fprintf(w, " [%s]", printable(ds.Time.Unit))
 	}
 	fmt.Fprintf(w, "; %d gaps split runs, %d samples missing\n", ds.Gaps, s.Missing)
 	inspectEvents(w, ds)
 	if len(ds.Ignored) > 0 {
 		fmt.Fprintf(w, "ignored columns (not numeric or not chosen):")
 		for _, c := range ds.Ignored {
-			fmt.Fprintf(w, " %s", c.Name)
+			fmt.Fprintf(w, " %s", printable(c.Name))
 		}
 		fmt.Fprintln(w)
 	}
@@ -264,7 +264,7 @@ func inspectEvents(w io.Writer, ds *ingest.Dataset) {
 			if ev.Kind == ingest.EventKink { // a change of slope
 				su += "/s"
 			}
-			fmt.Fprintf(tw, "  %s\t%s\t%s\t%s\t%s%s\t%s%s\t%s\n", ev.Run, g(ev.Time), ev.State, ev.Kind, g(ev.Size), su, g(ev.Noise), u, times)
+			fmt.Fprintf(tw, "  %s\t%s\t%s\t%s\t%s%s\t%s%s\t%s\n", printable(ev.Run), g(ev.Time), printable(ev.State), ev.Kind, g(ev.Size), su, g(ev.Noise), u, times)
 		}
 		tw.Flush()
 		if n > maxListed {
@@ -274,7 +274,7 @@ func inspectEvents(w io.Writer, ds *ingest.Dataset) {
 	if n := len(ds.Heads); n > 0 {
 		fmt.Fprintf(w, "\nresting starts trimmed before the first motion (--keep-head keeps them):\n")
 		for _, h := range ds.Heads[:min(n, maxListed)] {
-			fmt.Fprintf(w, "  %s: %s s (%d samples)\n", h.Run, g(h.Duration), h.Samples)
+			fmt.Fprintf(w, "  %s: %s s (%d samples)\n", printable(h.Run), g(h.Duration), h.Samples)
 		}
 		if n > maxListed {
 			fmt.Fprintf(w, "  ... and %d more\n", n-maxListed)

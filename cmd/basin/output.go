@@ -65,7 +65,7 @@ func isTerminal(w io.Writer) bool {
 // warnf prints a warning unless quiet.
 func warnf(e *env, quiet bool, format string, a ...any) {
 	if !quiet {
-		fmt.Fprintf(e.stderr, "basin: warning: "+format+"\n", a...)
+		fmt.Fprintf(e.stderr, "basin: warning: %s\n", printable(fmt.Sprintf(format, a...)))
 	}
 }
 

@@ -220,3 +220,32 @@ func TestEarliestBadFileNamed(t *testing.T) {
 		}
 	}
 }
+
+// TestTerminalOutputSanitised: a file name with ESC, OSC, CR and a
+// newline (which forged a table line "verdict: certified") reaches the
+// terminal as '?' in inspect's table.
+func TestTerminalOutputSanitised(t *testing.T) {
+	dir := t.TempDir()
+	name := "run\x1b]0;owned\x07\r\nverdict: certified\u202e.csv"
+	var b strings.Builder
+	b.WriteString("t,x\n")
+	for i := range 50 {
+		b.WriteString(ftoa(0.01*float64(i)) + "," + ftoa(float64(i%7)) + "\n")
+	}
+	if err := os.WriteFile(filepath.Join(dir, name), []byte(b.String()), 0o644); err != nil {
+		t.Skip("the file system refuses the name:", err)
+	}
+	var out, errb strings.Builder
+	if code := basinMain(t.Context(), []string{"inspect", dir}, &out, &errb); code != 0 {
+		t.Fatalf("exit %d: %s", code, errb.String())
+	}
+	text := out.String() + errb.String()
+	if strings.ContainsAny(text, "\x1b\x07\r\u202e") {
+		t.Errorf("control characters reached the terminal: %q", text)
+	}
+	for _, line := range strings.Split(text, "\n") {
+		if strings.HasPrefix(line, "verdict") {
+			t.Errorf("forged line: %q", line)
+		}
+	}
+}

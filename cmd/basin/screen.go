@@ -501,7 +501,9 @@ func flagText(f validate.Flag, states []screenState) string {
 // the terminal) in a name taken from the user's files.
 func printable(s string) string {
 	return strings.Map(func(r rune) rune {
-		if r < 0x20 || r == 0x7f {
+		// C0 and C1 controls (ESC, CSI, CR, newline), and the
+		// bidirectional overrides that reorder what a terminal shows.
+		if r < 0x20 || r >= 0x7f && r <= 0x9f || r >= 0x202a && r <= 0x202e || r >= 0x2066 && r <= 0x2069 {
 			return '?'
 		}
 		return r
