@@ -480,13 +480,28 @@ var ErrFormat = errors.New("not a basin file of this format")
 // ReadModel decodes and checks a model.json. Unknown fields are allowed.
 func ReadModel(r io.Reader) (*Model, error) {
 	var m Model
-	if err := json.NewDecoder(r).Decode(&m); err != nil {
+	dec := json.NewDecoder(r)
+	if err := dec.Decode(&m); err != nil {
 		return nil, fmt.Errorf("model: %w", err)
+	}
+	if _, err := dec.Token(); err != io.EOF {
+		return nil, fmt.Errorf("model: data after the JSON object: %w", ErrFormat)
 	}
 	if m.Format != ModelFormat {
 		return nil, fmt.Errorf("model: format %q: %w", m.Format, ErrFormat)
 	}
 	if err := m.validate(); err != nil {
+		return nil, fmt.Errorf("model: %w", err)
+	}
+	if err := checkNames(m.States); err != nil {
+		return nil, fmt.Errorf("model: %w", err)
+	}
+	for i, e := range m.Equations {
+		if err := checkTerms(fmt.Sprintf("equation %d", i+1), e.Exponents, len(m.States)); err != nil {
+			return nil, fmt.Errorf("model: %w", err)
+		}
+	}
+	if err := m.checkRanges(); err != nil {
 		return nil, fmt.Errorf("model: %w", err)
 	}
 	return &m, nil
@@ -536,6 +551,12 @@ func ReadCertificate(r io.Reader) (*Certificate, error) {
 	}
 	if c.Format != CertificateFormat {
 		return nil, fmt.Errorf("certificate: format %q: %w", c.Format, ErrFormat)
+	}
+	if err := checkNames(c.States); err != nil {
+		return nil, fmt.Errorf("certificate: %w", err)
+	}
+	if err := checkTerms("V", c.V.Exponents, len(c.States)); err != nil {
+		return nil, fmt.Errorf("certificate: %w", err)
 	}
 	if err := c.check(); err != nil {
 		return nil, fmt.Errorf("certificate: %w", err)
