@@ -16,7 +16,7 @@ func certJSON(exps [][]int, states []string) string {
 		"format": CertificateFormat, "verdict": "inconclusive", "states": states,
 		"units": make([]string, len(states)), "equilibrium": make([]float64, len(states)),
 		"level": 1.0,
-		"V": map[string]any{"exponents": exps, "coefficients": coef},
+		"V":     map[string]any{"exponents": exps, "coefficients": coef},
 	}
 	sc := make([]float64, len(states))
 	for i := range sc {
