@@ -13,6 +13,11 @@ import (
 // 1.17/√N for Gaussian noise, common practice).
 const runNoiseCap = 4096
 
+// RunNoiseSamples is the most fourth differences [RunNoise] uses per
+// state: every stride-th from the first, stride = max(1, (m-4)/4096) for
+// a run of m samples.
+const RunNoiseSamples = runNoiseCap + 1
+
 // RunNoise returns the measurement noise (standard deviation) of each
 // state of run, in the states' units: 1.4826·median|Δ⁴x|/√70 over the
 // run's own fourth differences (white noise gives Δ⁴ a variance of 70σ²;

@@ -740,7 +740,7 @@ type Rules struct {
 	// is inside when it lies in [Lo, Hi] (per state, ±Inf when unbounded)
 	// and V <= Level. After entering, it has left when V > LeaveLevel or
 	// it lies outside [LoWide, HiWide].
-	Level, LeaveLevel      float64
+	Level, LeaveLevel      float64 // LeaveLevel is Level + Tolerance
 	Lo, Hi, LoWide, HiWide []float64
 	// Tolerance on a rise of V between consecutive samples; NoiseR2 the
 	// noise ball's squared radius in z; Settle the largest V on the ball.
@@ -759,14 +759,23 @@ type Rules struct {
 	// TailMax and TailShare fix the samples w averaged at each end of a
 	// run of m samples: w = min(max(m/TailShare, 1), TailMax).
 	TailMax, TailShare int
+	// NoiseRef, when not nil, is the certificate's noise per state: a run
+	// of at least 5 samples whose own noise ([fit.RunNoise]) exceeds it
+	// has Tolerance (and LeaveLevel's share of it) multiplied by the
+	// largest ratio over states (see runNoise).
+	NoiseRef []float64
 }
 
 // Rules returns the constants of s's rules. The slices are copies.
 func (s *Screener) Rules() Rules {
 	c := func(x []float64) []float64 { return append([]float64(nil), x...) }
-	return Rules{N: s.n, Eq: c(s.eq), Inv: c(s.inv), Level: s.level, LeaveLevel: s.level + s.tol,
+	r := Rules{N: s.n, Eq: c(s.eq), Inv: c(s.inv), Level: s.level, LeaveLevel: s.level + s.baseTol,
 		Lo: c(s.lo), Hi: c(s.hi), LoWide: c(s.loW), HiWide: c(s.hiW),
-		Tolerance: s.tol, NoiseR2: s.r2, Settle: s.settle,
+		Tolerance: s.baseTol, NoiseR2: s.r2, Settle: s.settle,
 		Quad: s.quad, TwoState: s.quad && s.n == 2 && !s.generic, P: c(s.p), Q: c(s.q), R: s.r,
 		SlowBound: s.slowBound, DecayMinSamples: DecayMinSamples, TailMax: tailMax, TailShare: tailShare}
+	if s.noise.on {
+		r.NoiseRef = c(s.noise.ref)
+	}
+	return r
 }

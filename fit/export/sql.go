@@ -78,6 +78,7 @@ func writeSQL(b *strings.Builder, cert *fit.Certificate, opts *Options) error {
 		fmt.Fprintf(b, ",\n    CAST(%s AS DOUBLE PRECISION) AS x%d", qid(s), j)
 	}
 	fmt.Fprintf(b, "\n  FROM %s\n),\n", strings.Join(parts, "."))
+	writeSQLNoise(b, &ru)
 	b.WriteString("s AS (\n  SELECT \"run\", t")
 	for j := range z {
 		fmt.Fprintf(b, ", x%d", j)
@@ -115,9 +116,15 @@ func writeSQL(b *strings.Builder, cert *fit.Certificate, opts *Options) error {
 	}
 	inside := "1 = 0" // empty region
 	beyond := "1 = 1"
+	leaveV := "1 = 1"
 	if !math.IsInf(ru.Level, -1) {
 		inside = strings.Join(append(inBox, "v <= "+sq(ru.Level)), " AND ")
-		beyond = strings.Join(append(outWide, "v > "+sq(ru.LeaveLevel)), " OR ")
+		beyond = "1 = 0"
+		if len(outWide) > 0 {
+			beyond = strings.Join(outWide, " OR ")
+		}
+		// V above the level by more than the run's tolerance
+		leaveV = "v > (" + sq(ru.Level) + " + tol)"
 	}
 	fmt.Fprintf(b, "f AS (\n  SELECT \"run\", t, v, r2,\n    CASE WHEN %s THEN 1 ELSE 0 END AS inside,\n    CASE WHEN %s THEN 1 ELSE 0 END AS beyond\n  FROM v\n),\n", inside, beyond)
 	r02 := sq(ru.NoiseR2)
@@ -134,18 +141,19 @@ func writeSQL(b *strings.Builder, cert *fit.Certificate, opts *Options) error {
   FROM f
 ),
 d AS (
-  SELECT "run", t, v, r2, inside, beyond, q, pv, pin, pr2, entered, rn, m,
-    MIN(CASE WHEN q = 1 THEN t END) OVER (PARTITION BY "run") AS t0
-  FROM w
+  SELECT w."run", t, v, r2, inside, beyond, q, pv, pin, pr2, entered, rn, m,
+    MIN(CASE WHEN q = 1 THEN t END) OVER (PARTITION BY w."run") AS t0,
+    COALESCE(nt.tol, %[3]s) AS tol
+  FROM w LEFT JOIN nt ON w."run" = nt."run"
 ),
-`, r02, win)
-	tol := sq(ru.Tolerance)
+`, r02, win, sq(ru.Tolerance))
 	// w = min(max(m/share, 1), max): sample rn is in the head when
 	// rn <= w, in the tail when m - rn + 1 <= w, written without division.
 	fmt.Fprintf(b, `r AS (
   SELECT "run",
-    MAX(CASE WHEN inside = 1 AND pin = 1 AND pr2 > %[1]s AND v - pv - %[2]s > 0 THEN 1 ELSE 0 END) AS rises,
-    MAX(CASE WHEN inside = 0 AND entered = 1 AND beyond = 1 THEN 1 ELSE 0 END) AS leaves,
+    MAX(tol) AS tol,
+    MAX(CASE WHEN inside = 1 AND pin = 1 AND pr2 > %[1]s AND v - pv - tol > 0 THEN 1 ELSE 0 END) AS rises,
+    MAX(CASE WHEN inside = 0 AND entered = 1 AND (beyond = 1 OR %[2]s) THEN 1 ELSE 0 END) AS leaves,
     MAX(CASE WHEN rn = m THEN inside ELSE 0 END) AS last_inside,
     AVG(CASE WHEN rn <= %[3]d AND (%[4]d * rn <= m OR rn = 1) THEN v END) AS head,
     AVG(CASE WHEN m - rn < %[3]d AND (%[4]d * (m - rn + 1) <= m OR rn = m) THEN v END) AS tail,
@@ -159,8 +167,8 @@ d AS (
 ),
 k AS (
   SELECT "run", rises, leaves,
-    CASE WHEN last_inside = 1 AND (tail <= %[5]s OR tail < head - %[2]s) THEN 0 ELSE 1 END AS unsettled,
-`, r02, tol, ru.TailMax, ru.TailShare, sq(ru.Settle))
+    CASE WHEN last_inside = 1 AND (tail <= %[5]s OR tail < head - tol) THEN 0 ELSE 1 END AS unsettled,
+`, r02, leaveV, ru.TailMax, ru.TailShare, sq(ru.Settle))
 	if ru.SlowBound > 0 {
 		fmt.Fprintf(b, `    CASE WHEN dn >= %d AND dn * stt - st * st > 0
       AND -(dn * sty - st * sy) / (dn * stt - st * st) < %s THEN 1 ELSE 0 END AS slow
@@ -180,6 +188,57 @@ k AS (
 	}
 	b.WriteString("\nFROM k\nORDER BY \"run\";\n")
 	return nil
+}
+
+// writeSQLNoise writes the CTEs n1..n4 and nt: each run's tolerance,
+// widened by its own noise as the Screener does (validate's runNoise with
+// fit.RunNoise: 1.4826·median|Δ⁴x|/√70 over every stride-th fourth
+// difference, at most fit.RunNoiseSamples of them). Without the
+// certificate's noise, nt is empty and every run has the certificate's
+// tolerance.
+func writeSQLNoise(b *strings.Builder, ru *validate.Rules) {
+	const win = `PARTITION BY "run" ORDER BY t`
+	if ru.NoiseRef == nil {
+		b.WriteString("nt AS (\n  SELECT \"run\", CAST(NULL AS DOUBLE PRECISION) AS tol FROM x WHERE 1 = 0\n),\n")
+		return
+	}
+	n := ru.N
+	b.WriteString("n1 AS (\n  SELECT \"run\", ROW_NUMBER() OVER (" + win + ") - 1 AS i,\n    COUNT(*) OVER (PARTITION BY \"run\") AS m")
+	for j := range n {
+		x := fmt.Sprintf("x%d", j)
+		fmt.Fprintf(b, ",\n    %[1]s - 4 * LEAD(%[1]s, 1) OVER (%[2]s) + 6 * LEAD(%[1]s, 2) OVER (%[2]s)"+
+			" - 4 * LEAD(%[1]s, 3) OVER (%[2]s) + LEAD(%[1]s, 4) OVER (%[2]s) AS e%[3]d", x, win, j)
+	}
+	b.WriteString("\n  FROM x\n),\n")
+	// stride = max(1, floor((m - 4)/4096)); every stride-th difference
+	// from the first, at most RunNoiseSamples of them.
+	cap := fit.RunNoiseSamples - 1
+	fmt.Fprintf(b, "n2 AS (\n  SELECT \"run\", i, m,\n    CASE WHEN m - 4 < %d THEN 1 ELSE CAST(FLOOR((m - 4) / %d.0) AS INTEGER) END AS stride", 2*cap, cap)
+	for j := range n {
+		fmt.Fprintf(b, ",\n    ABS(e%d) AS d%d", j, j)
+	}
+	fmt.Fprintf(b, "\n  FROM n1\n  WHERE i + 4 < m\n),\n")
+	b.WriteString("n3 AS (\n  SELECT \"run\", COUNT(*) OVER (PARTITION BY \"run\") AS c")
+	for j := range n {
+		fmt.Fprintf(b, ",\n    d%[1]d, ROW_NUMBER() OVER (PARTITION BY \"run\" ORDER BY d%[1]d) AS k%[1]d", j)
+	}
+	fmt.Fprintf(b, "\n  FROM n2\n  WHERE MOD(i, stride) = 0 AND i < %d * stride\n),\n", fit.RunNoiseSamples)
+	// the median: the middle row, or the mean of the middle two
+	b.WriteString("n4 AS (\n  SELECT \"run\"")
+	for j := range n {
+		fmt.Fprintf(b, ",\n    %s * AVG(CASE WHEN 2 * k%[2]d >= c AND 2 * k%[2]d <= c + 2 THEN d%[2]d END) / %[3]s / %[4]s AS r%[2]d",
+			sqlNum(1.4826), j, sqlNum(math.Sqrt(70)), sqlNum(ru.NoiseRef[j]))
+	}
+	b.WriteString("\n  FROM n3\n  GROUP BY \"run\"\n),\n")
+	// ratio = max(1, r_0, r_1, ...) (MAX is exact, so the order does not
+	// matter); tol = base * ratio
+	var u []string
+	for j := range n {
+		u = append(u, fmt.Sprintf("SELECT \"run\", r%d AS r FROM n4", j))
+	}
+	u = append(u, "SELECT \"run\", CAST(1 AS DOUBLE PRECISION) AS r FROM n4")
+	fmt.Fprintf(b, "nt AS (\n  SELECT \"run\", %s * MAX(r) AS tol\n  FROM (\n    %s\n  ) AS nr\n  GROUP BY \"run\"\n),\n",
+		sqlNum(ru.Tolerance), strings.Join(u, "\n    UNION ALL "))
 }
 
 // sqlV writes V(z) in the order of operations of the Screener's kernel.

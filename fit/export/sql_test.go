@@ -42,7 +42,10 @@ func sqlCerts() map[string]*fit.Certificate {
 		Equilibrium: []float64{0.5, -0.2}, Scale: []float64{1, 2},
 		V:     poly.Poly{Exponents: [][]int{{2, 0}, {1, 1}, {0, 2}}, Coefficients: []float64{1, 0.2, 0.9}},
 		Level: 1, Box: [][2]float64{{-0.6, 1.6}, {-2.4, 2}}, Found: true, NoiseRadius: 0.05, Tolerance: 2e-3,
-		Validation: &fit.Validation{Decay: &fit.Decay{Runs: 6, LowerBound: 0.8}}}
+		Validation: &fit.Validation{Decay: &fit.Decay{Runs: 6, LowerBound: 0.8}},
+		// the runs' noise (1 to 3 times 1e-3 in z) exceeds this: their
+		// tolerances are widened per run, as screen does
+		Noise: []float64{0.8e-3, 1.6e-3}}
 	three := &fit.Certificate{Format: fit.CertificateFormat, Verdict: fit.Inconclusive,
 		States: []string{"a", "B", "c_2"}, Units: []string{"", "", ""},
 		Equilibrium: []float64{0, 0, 1}, Scale: []float64{1, 1, 0.5},
@@ -62,11 +65,14 @@ func sqlRuns(c *fit.Certificate) []ingest.Run {
 		name       string
 		r0, k, w   float64
 		kick, grow bool
+		m          int
 	}
 	var shapes []shape
 	for i := range 8 {
 		shapes = append(shapes, shape{name: fmt.Sprintf("healthy-%d", i), r0: 0.4 + 0.05*float64(i), k: 1 + 0.1*float64(i), w: 3})
 	}
+	// a long run: the noise estimate strides over its fourth differences
+	shapes = append(shapes, shape{name: "long", r0: 0.5, k: 0.5, w: 1, m: 9000})
 	for i := range 3 {
 		shapes = append(shapes, shape{name: fmt.Sprintf("worn-%d", i), r0: 0.6, k: 0.15 + 0.02*float64(i), w: 3})
 	}
@@ -76,8 +82,12 @@ func sqlRuns(c *fit.Certificate) []ingest.Run {
 		shape{name: "outside", r0: 3, k: 0, w: 0},
 		shape{name: "kicked", r0: 0.5, k: 1.5, w: 3, kick: true})
 	var runs []ingest.Run
-	for _, s := range shapes {
+	for k, s := range shapes {
 		m := 800
+		if s.m > 0 {
+			m = s.m
+		}
+		sigma := 1e-3 * float64(1+k%3)
 		r := ingest.Run{Name: s.name, T: make([]float64, m), X: make([][]float64, n)}
 		for j := range r.X {
 			r.X[j] = make([]float64, m)
@@ -92,7 +102,7 @@ func sqlRuns(c *fit.Certificate) []ingest.Run {
 			r.T[i] = t
 			for j := range n {
 				zj := a * math.Cos(s.w*t+ph+float64(j)*math.Pi/2/float64(n-1)) / math.Sqrt(float64(n-1))
-				r.X[j][i] = c.Equilibrium[j] + c.Scale[j]*(zj+1e-3*rng.NormFloat64())
+				r.X[j][i] = c.Equilibrium[j] + c.Scale[j]*(zj+sigma*rng.NormFloat64())
 			}
 		}
 		runs = append(runs, r)
