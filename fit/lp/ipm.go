@@ -244,7 +244,7 @@ func (s *ipm) run(opts *Options) *Result {
 		rhs = make([]float64, n) // refinement
 		rr  = make([]float64, n)
 		ra  = make([]float64, M)
-		bw  = make([]float64, m*n)
+		bw  = make([]float64, m*((n+7)&^7))
 		nm  = make([]float64, n*n)
 		nm0 = make([]float64, n*n)
 	)
@@ -558,8 +558,9 @@ func (s *ipm) fill(res *Result, rows int, row func(i int) ([]float64, float64)) 
 }
 
 // normal stores G'DG in the upper triangle of dst (n x n), D = diag(d),
-// using bw (len(d) x n) as scratch for the transposed, scaled rows. Large
-// products are split by rows over the available cores and summed.
+// using bw (len(d) rows of n rounded up to a multiple of 8, the padding
+// zero) as scratch for the scaled rows sqrt(d_i) g_i. Large products are
+// split by rows over the available cores and summed.
 func (s *ipm) normal(dst, bw, d []float64) {
 	n, m := s.n, len(d)
 	for i := range dst {
@@ -568,46 +569,46 @@ func (s *ipm) normal(dst, bw, d []float64) {
 	if m == 0 || n == 0 {
 		return
 	}
+	ws := (n + 7) &^ 7 // the Gram kernel's tile width
 	w := min(runtime.GOMAXPROCS(0), m/64+1)
 	if m*n*n/2 < parallelWork {
 		w = 1
 	}
-	if len(s.part) < (w-1)*n*n {
-		s.part = make([]float64, (w-1)*n*n)
+	if len(s.part) < w*ws*ws {
+		s.part = make([]float64, w*ws*ws)
 	}
-	// Worker k owns rows lo..hi and the block bw[lo*n:hi*n], which holds
-	// their transpose: entry (j, i-lo) = sqrt(d_i) g_ij.
-	work := func(k int, c []float64) {
+	// Worker k owns rows lo..hi, their block of bw and its ws x ws part.
+	work := func(k int) {
 		lo, hi := k*m/w, (k+1)*m/w
-		kk := hi - lo
-		at := bw[lo*n : hi*n]
+		blk := bw[lo*ws : hi*ws]
 		for i := lo; i < hi; i++ {
 			r := math.Sqrt(d[i])
-			g := s.g[i*n : (i+1)*n]
-			for j, v := range g {
-				at[j*kk+i-lo] = r * v
+			row := blk[(i-lo)*ws : (i-lo)*ws+n]
+			for j, v := range s.g[i*n : (i+1)*n] {
+				row[j] = r * v
 			}
 		}
-		gram.SyrkT(c, at, n, kk)
+		c := s.part[k*ws*ws : (k+1)*ws*ws]
+		clear(c)
+		gram.AddRows(c, blk, ws, hi-lo, ws)
 	}
 	if w == 1 {
-		work(0, dst)
-		return
-	}
-	var wg sync.WaitGroup
-	for k := 0; k < w; k++ {
-		c := dst
-		if k > 0 {
-			c = s.part[(k-1)*n*n : k*n*n]
+		work(0)
+	} else {
+		var wg sync.WaitGroup
+		for k := 0; k < w; k++ {
+			wg.Add(1)
+			go func() {
+				defer wg.Done()
+				work(k)
+			}()
 		}
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			work(k, c)
-		}()
+		wg.Wait()
 	}
-	wg.Wait()
-	for k := 1; k < w; k++ {
-		floats.Add(dst, s.part[(k-1)*n*n:k*n*n])
+	for k := 0; k < w; k++ {
+		c := s.part[k*ws*ws : (k+1)*ws*ws]
+		for i := 0; i < n; i++ {
+			floats.Add(dst[i*n+i:(i+1)*n], c[i*ws+i:i*ws+n])
+		}
 	}
 }

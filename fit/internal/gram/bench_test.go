@@ -41,22 +41,12 @@ func benchGram(b *testing.B, rows, cols int, kernel func(c, blk, at []float64, k
 	b.ReportMetric(b.Elapsed().Seconds()/float64(b.N), "s/gram")
 }
 
-// BenchmarkGram compares AddRows, SyrkT (with the transpose it needs) and gonum's
+// BenchmarkGram compares AddRows and gonum's
 // Dsyrk on the field fit's normal equations: 1e6 rows of the degree-3
 // library in 6 states (84 terms) and 6 targets, 90 columns. The anchor,
 // OpenBLAS on the same shape, is measured outside the repository.
 func BenchmarkGram(b *testing.B) {
 	const rows, cols = 1000000, 90
-	b.Run("tiled", func(b *testing.B) {
-		benchGram(b, rows, cols, func(c, blk, at []float64, k int) {
-			for l := 0; l < k; l++ {
-				for j, v := range blk[l*cols : (l+1)*cols] {
-					at[j*k+l] = v
-				}
-			}
-			SyrkT(c, at[:cols*k], cols, k)
-		})
-	})
 	b.Run("rows", func(b *testing.B) {
 		benchGram(b, rows, cols, func(c, blk, at []float64, k int) {
 			AddRows(c, blk, cols, k, cols)

@@ -10,37 +10,6 @@ import (
 	"gonum.org/v1/gonum/floats/scalar"
 )
 
-// TestSyrkT checks the normal-matrix kernel against gonum's Dsyrk (an
-// independent general-purpose library) on odd and even shapes; both sum
-// the same products in different orders, so they agree to rounding.
-func TestSyrkT(t *testing.T) {
-	rng := rand.New(rand.NewPCG(2, 0))
-	for _, sz := range [][2]int{{1, 1}, {2, 3}, {3, 7}, {5, 10}, {8, 33}, {13, 100}, {31, 257}} {
-		n, k := sz[0], sz[1]
-		a := make([]float64, k*n) // k x n rows
-		at := make([]float64, n*k)
-		for l := 0; l < k; l++ {
-			for i := 0; i < n; i++ {
-				a[l*n+i] = rng.NormFloat64()
-				at[i*k+l] = a[l*n+i]
-			}
-		}
-		want := make([]float64, n*n)
-		blas64.Syrk(blas.Trans, 1, blas64.General{Rows: k, Cols: n, Stride: n, Data: a}, 0,
-			blas64.Symmetric{N: n, Stride: n, Uplo: blas.Upper, Data: want})
-		got := make([]float64, n*n)
-		SyrkT(got, at, n, k)
-		for i := 0; i < n; i++ {
-			for j := i; j < n; j++ {
-				// k products of unit normals: rounding ~ k * 1e-16 * sqrt(k).
-				if !scalar.EqualWithinAbs(got[i*n+j], want[i*n+j], 1e-12*float64(k)) {
-					t.Fatalf("n=%d k=%d: c[%d][%d] = %g, Dsyrk %g", n, k, i, j, got[i*n+j], want[i*n+j])
-				}
-			}
-		}
-	}
-}
-
 // TestAddRows checks AddRows (the assembly tiles where the machine has
 // them, and the plain-Go remainder) against gonum's Dsyrk, an independent
 // general-purpose library, on shapes with and without a remainder, a row
