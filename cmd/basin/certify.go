@@ -81,6 +81,9 @@ func runCertify(ctx context.Context, e *env, args []string) error {
 	if err != nil {
 		return err
 	}
+	if err := sameUnits(f.Model, m.States, m.Units, ds); err != nil {
+		return err
+	}
 	cert, err := fit.Certify(ctx, m, fitRuns(ds), opts)
 	if err != nil {
 		return classify(err, f.Model)

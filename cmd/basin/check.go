@@ -107,6 +107,9 @@ func runCheck(ctx context.Context, e *env, args []string) error {
 	if err != nil {
 		return err
 	}
+	if err := sameUnits(c.Cert, cert.States, cert.Units, ds); err != nil {
+		return err
+	}
 	opts := &validate.Options{Beta: c.Beta, MinDecrease: c.MinDecrease, Tolerance: c.Tolerance}
 	val, runs, err := validate.Check(ctx, cert, ds, opts)
 	if err != nil {

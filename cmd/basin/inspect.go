@@ -48,6 +48,9 @@ func loadInputs(ctx context.Context, e *env, f *inputFlags, quiet bool, args []s
 	for _, w := range ds.Warnings {
 		warnf(e, quiet, "%s", w)
 	}
+	for _, w := range ingest.CollapseCopies(ds) {
+		warnf(e, quiet, "%s", w)
+	}
 	return ds, nil
 }
 

@@ -2,10 +2,12 @@ package main
 
 import (
 	"errors"
+	"fmt"
 	"os"
 	"path/filepath"
 	"strings"
 
+	"basin.example/ingest"
 	"basin.example/internal/demodata"
 )
 
@@ -100,6 +102,23 @@ func checkDemoOut(out string) error {
 		if own == nil || !own[n] || !e.Type().IsRegular() {
 			return usagef("--out %s: %s holds %s, which basin demo did not write; nothing was changed; give an empty or new folder",
 				printable(out), printable(data), printable(n))
+		}
+	}
+	return nil
+}
+
+// sameUnits refuses data whose state columns carry other units than the
+// model's or certificate's in file (names are compared by the libraries):
+// a certificate in deg and deg/s says nothing about logs in rad. A column
+// or a file without a unit is not compared.
+func sameUnits(file string, names, units []string, ds *ingest.Dataset) error {
+	for j, c := range ds.States {
+		if j >= len(units) || j >= len(names) || c.Name != names[j] {
+			return nil // a name mismatch: the library says which
+		}
+		if c.Unit != "" && units[j] != "" && c.Unit != units[j] {
+			return &inputError{fmt.Errorf("%s: state %q is in %s in the data but in %s in %s; convert the logs or refit",
+				printable(file), printable(c.Name), printable(c.Unit), printable(units[j]), printable(file))}
 		}
 	}
 	return nil

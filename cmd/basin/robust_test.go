@@ -249,3 +249,38 @@ func TestTerminalOutputSanitised(t *testing.T) {
 		}
 	}
 }
+
+// TestUnitsAndCopies: logs in other units than the certificate's are
+// refused (names alone matched before); copies of a run are counted once,
+// with a warning (before, every run duplicated twice gave a smaller
+// violation bound).
+func TestUnitsAndCopies(t *testing.T) {
+	d := sharedDemo(t)
+	cert := filepath.Join(d.dir, "certificate.json")
+	dir := t.TempDir()
+	src, err := os.ReadFile(filepath.Join(d.dir, "data", "run-01.csv"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	deg := filepath.Join(dir, "deg")
+	os.Mkdir(deg, 0o755)
+	os.WriteFile(filepath.Join(deg, "run-01.csv"), []byte(strings.Replace(string(src), "[rad]", "[deg]", 1)), 0o644)
+	code, msg := run1(t, "check", "--cert", cert, deg)
+	if code != 2 || !strings.Contains(msg, `state "theta" is in deg in the data but in rad`) {
+		t.Errorf("check on logs in deg: exit %d %q", code, msg)
+	}
+	cp := filepath.Join(dir, "copies")
+	os.Mkdir(cp, 0o755)
+	for _, n := range []string{"a.csv", "b.csv", "c.csv"} {
+		os.WriteFile(filepath.Join(cp, n), src, 0o644)
+	}
+	var out, errb strings.Builder
+	basinMain(t.Context(), []string{"check", "--json", "--cert", cert, cp}, &out, &errb)
+	if !strings.Contains(errb.String(), "run b.csv (") || !strings.Contains(errb.String(), "is a copy of run a.csv") ||
+		strings.Count(errb.String(), "is a copy of") != 2 {
+		t.Errorf("no warning for the copies: %q", errb.String())
+	}
+	if n := strings.Count(out.String(), `"file":`); n != 1 {
+		t.Errorf("%d runs checked, want the 3 copies counted once", n)
+	}
+}
