@@ -209,7 +209,7 @@ func Certify(ctx context.Context, m *Model, ds *ingest.Dataset, opts *CertifyOpt
 		return noFind(ReasonTooFewSamples, fmt.Sprintf("No V was fitted: V of degree %d has %d coefficients, and %d samples are too few for it (at least %d needed); try a lower --v-degree.",
 			o.Degree, fam.Len(), ds.Samples(), nMin))
 	}
-	if !ck.trust.Inside(make([]float64, n)) {
+	if !ck.inside(make([]float64, n)) {
 		return noFind(ReasonOutsideData, fmt.Sprintf("No V was fitted: the equilibrium lies outside the trust region of the model (where the data make it believable). Record runs that settle at %s.", formatPoint(xe, m.States, m.Units)))
 	}
 
@@ -327,7 +327,10 @@ func Certify(ctx context.Context, m *Model, ds *ingest.Dataset, opts *CertifyOpt
 	}
 
 	// The bound over the piece of the level set.
-	r := ck.verify(best.c, best.res)
+	r := best.res
+	if !skipBound {
+		r = ck.verify(best.c, best.res)
+	}
 	if !r.ok {
 		return noFind(ReasonNoLevel, "No V was found: "+r.reason+". Record more runs near the equilibrium.")
 	}
@@ -551,6 +554,10 @@ func newChecker(ctx context.Context, m *Model, ds *ingest.Dataset, xe, scale []f
 		ck.runs[i].h = tr.HSamples[off : off+k]
 		off += k
 	}
+	ck.inside = tr.Inside
+	if trustBalls {
+		ck.inside = ballsTrust(all, runs, n)
+	}
 	ck.sigmaF = fieldSigma(m, ck, all)
 	ck.fz = fieldZ(m, xe, scale)
 	ck.makeRays(rand.New(rand.NewPCG(o.Seed, 4)))
@@ -646,7 +653,7 @@ func (ck *checker) makeRays(rng *rand.Rand) {
 		step := rmax / rayExitSteps
 		t0, t1 := 0.0, math.Inf(1)
 		for k := 1; k <= rayExitSteps+1; k++ {
-			if !tr.Inside(at(float64(k) * step)) {
+			if !ck.inside(at(float64(k) * step)) {
 				t1 = float64(k) * step
 				break
 			}
@@ -657,7 +664,7 @@ func (ck *checker) makeRays(rng *rand.Rand) {
 		if !math.IsInf(t1, 1) {
 			for b := 0; b < rayBisect; b++ {
 				mid := (t0 + t1) / 2
-				if tr.Inside(at(mid)) {
+				if ck.inside(at(mid)) {
 					t0 = mid
 				} else {
 					t1 = mid
@@ -689,7 +696,7 @@ func (ck *checker) makePool(draws int, rng *rand.Rand) {
 		for j := range z {
 			z[j] = tr.Lo[j] + rng.Float64()*(tr.Hi[j]-tr.Lo[j])
 		}
-		if tr.Inside(z) {
+		if ck.inside(z) {
 			ck.pool = append(ck.pool, z...)
 			kept++
 		} else if len(ck.outside) < n*maxOutside {

@@ -69,6 +69,7 @@ type checker struct {
 	fam    *vFamily
 	zf     *zField
 	trust  *lyapunov.Trust
+	inside func(z []float64) bool // the trust region's membership
 	runs   []zRun
 	others [][]float64 // other equilibria, in z
 	sigma  []float64   // noise std per state, in z
