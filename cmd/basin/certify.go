@@ -9,6 +9,8 @@ import (
 	"os"
 	"strings"
 
+	"basin.example/cmd/basin/internal/human"
+	"basin.example/cmd/basin/internal/report"
 	"basin.example/fit"
 	"basin.example/fit/poly"
 )
@@ -120,34 +122,6 @@ func zNames(states []string) []string {
 	return out
 }
 
-// vText renders V in the scaled coordinates, skipping zero terms.
-func vText(v poly.Poly, states []string) string {
-	names := zNames(states)
-	var b strings.Builder
-	first := true
-	for k, c := range v.Coefficients {
-		if c == 0 {
-			continue
-		}
-		sign := "+"
-		if c < 0 {
-			sign = "-"
-		}
-		switch {
-		case first && sign == "-":
-			b.WriteString("-")
-		case !first:
-			b.WriteString(" " + sign + " ")
-		}
-		first = false
-		b.WriteString(coef(c) + " " + poly.MonomialName(v.Exponents[k], names))
-	}
-	if first {
-		return "0"
-	}
-	return b.String()
-}
-
 // printCertificate writes the readable form of a certificate.
 func printCertificate(w io.Writer, c *fit.Certificate) {
 	fmt.Fprintf(w, "verdict: %s (strength %s)\n", c.Verdict, c.Strength)
@@ -165,25 +139,28 @@ func printCertificate(w io.Writer, c *fit.Certificate) {
 		if c.Units[j] != "" {
 			u = " " + c.Units[j]
 		}
-		x0 := c.Equilibrium[j]
-		if math.Abs(x0) < 1e-9*c.Scale[j] { // round-off of a zero
-			x0 = 0
-		}
-		zs = append(zs, fmt.Sprintf("z_%s = (%s - %.4g)/%.4g%s", s, s, x0, c.Scale[j], u))
+		zs = append(zs, fmt.Sprintf("z_%s = (%s - %s)/%s%s", s, s, human.Near(c.Equilibrium[j], c.Scale[j]), human.Num(c.Scale[j]), u))
 	}
-	fmt.Fprintf(w, "V = %s\n  with %s\n", vText(c.V, c.States), strings.Join(zs, ", "))
-	fmt.Fprintf(w, "level: V <= %.6g (margin %.3g, noise radius %.3g in z, pair tolerance %.3g)\n",
-		c.Level, c.Margin, c.NoiseRadius, c.Tolerance)
-	fmt.Fprintf(w, "region: %.1f%% of the envelope the data cover, limited by %s\n", 100*c.Region.EnvelopeShare, c.Region.Limit)
+	text, dropped := report.VText(c)
+	fmt.Fprintf(w, "V = %s\n  with %s\n", text, strings.Join(zs, ", "))
+	if dropped > 0 {
+		fmt.Fprintf(w, "  (%s below 1e-4 of the largest coefficient left out; --json has them all)\n", human.Count(dropped, "term"))
+	}
+	fmt.Fprintf(w, "level: V <= %s (margin %s, noise radius %s in z, pair tolerance %s)\n",
+		human.Sig(c.Level, 6), human.Sig(c.Margin, 3), human.Sig(c.NoiseRadius, 3), human.Sig(c.Tolerance, 3))
+	fmt.Fprintf(w, "region: %s of the envelope the data cover\n", human.Percent(c.Region.EnvelopeShare))
 	for j, s := range c.States {
 		u := ""
 		if c.Units[j] != "" {
 			u = " " + c.Units[j]
 		}
-		fmt.Fprintf(w, "  %-12s %.4g .. %.4g%s\n", s, c.Region.Extent[j][0], c.Region.Extent[j][1], u)
+		fmt.Fprintf(w, "  %-12s %s .. %s%s\n", s, human.Near(c.Region.Extent[j][0], c.Scale[j]), human.Near(c.Region.Extent[j][1], c.Scale[j]), u)
 	}
-	fmt.Fprintf(w, "in sample: %d pairs inside, V fell on %.1f%% of them; %d LP solves, %d rounds, %d active rows\n",
-		c.InSample.Pairs, 100*c.InSample.DecreaseFraction, c.Region.Solves, c.Region.LPRounds, c.Region.LPRows)
+	if l := report.LimitText(c); l != "" {
+		fmt.Fprintf(w, "limited by: %s\n", l)
+	}
+	fmt.Fprintf(w, "in sample: V did not rise beyond the noise tolerance on %s inside; %d LP solves, %d rounds, %d active rows\n",
+		human.Share(int(math.Round(c.InSample.DecreaseFraction*float64(c.InSample.Pairs))), c.InSample.Pairs, "pair"), c.Region.Solves, c.Region.LPRounds, c.Region.LPRows)
 	ru := "no"
 	if c.RadiallyUnbounded {
 		ru = "yes"

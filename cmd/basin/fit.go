@@ -6,11 +6,11 @@ import (
 	"fmt"
 	"io"
 	"math"
-	"strconv"
 	"strings"
 
+	"basin.example/cmd/basin/internal/human"
+	"basin.example/cmd/basin/internal/report"
 	"basin.example/fit"
-	"basin.example/fit/poly"
 	"basin.example/ingest"
 )
 
@@ -100,68 +100,30 @@ func fitModel(ctx context.Context, ds *ingest.Dataset, opts *fit.FieldOptions) (
 	return m, nil
 }
 
-// rateUnit is the unit of d(state)/dt.
-func rateUnit(u string) string {
-	switch {
-	case u == "":
-		return "1/s"
-	case strings.HasSuffix(u, "/s"):
-		return strings.TrimSuffix(u, "/s") + "/s^2"
-	}
-	return u + "/s"
-}
-
-// coef formats a coefficient's magnitude with four significant digits, as
-// in "1.000", "90.16" or "0.02500"; tiny or huge ones in e form.
-func coef(c float64) string {
-	a := math.Abs(c)
-	switch {
-	case a == 0:
-		return "0"
-	case a < 1e-3 || a >= 1e5:
-		return fmt.Sprintf("%.3e", a)
-	}
-	r, _ := strconv.ParseFloat(fmt.Sprintf("%.4g", a), 64) // 0.99999 -> 1
-	dec := max(0, 3-int(math.Floor(math.Log10(r))))
-	return fmt.Sprintf("%.*f", dec, r)
-}
-
-// equationText renders one equation, e.g. "-4.000 theta - 0.800 omega".
-func equationText(eq fit.Equation, names []string) string {
-	if len(eq.Coefficients) == 0 {
-		return "0"
-	}
-	var b strings.Builder
-	for k, c := range eq.Coefficients {
-		sign := "+"
-		if c < 0 {
-			sign = "-"
-		}
-		switch {
-		case k == 0 && sign == "-":
-			b.WriteString("-")
-		case k > 0:
-			b.WriteString(" " + sign + " ")
-		}
-		b.WriteString(coef(c))
-		if mn := poly.MonomialName(eq.Exponents[k], names); mn != "1" {
-			b.WriteString(" " + mn)
-		}
-	}
-	return b.String()
-}
-
 // point formats an equilibrium; a coordinate within a millionth of its
 // state's spread of zero prints as 0 (Newton leaves round-off there).
-func point(x, spread []float64) string {
+func point(x []float64, m *fit.Model) string {
 	s := make([]string, len(x))
 	for i, v := range x {
-		if math.Abs(v) < 1e-6*spread[i] {
-			v = 0
+		u := ""
+		if i < len(m.Units) && m.Units[i] != "" {
+			u = " " + m.Units[i]
 		}
-		s[i] = fmt.Sprintf("%.4g", v)
+		sp := math.NaN()
+		if i < len(m.Spread) {
+			sp = m.Spread[i]
+		}
+		s[i] = m.States[i] + " = " + human.Near(v, sp) + u
 	}
-	return "(" + strings.Join(s, ", ") + ")"
+	return strings.Join(s, ", ")
+}
+
+// signed writes x with its sign, "+1.5" or "-1.5".
+func signed(x float64) string {
+	if x < 0 {
+		return human.Num(x)
+	}
+	return "+" + human.Num(x)
 }
 
 func eigenText(ev [][2]float64) string {
@@ -169,15 +131,15 @@ func eigenText(ev [][2]float64) string {
 	for i := 0; i < len(ev); i++ {
 		re, im := ev[i][0], ev[i][1]
 		if im != 0 && i+1 < len(ev) && ev[i+1][0] == re && ev[i+1][1] == -im {
-			s = append(s, fmt.Sprintf("%.4g±%.4gi", re, math.Abs(im)))
+			s = append(s, human.Num(re)+"±"+human.Num(math.Abs(im))+"i")
 			i++
 			continue
 		}
 		if im != 0 {
-			s = append(s, fmt.Sprintf("%.4g%+.4gi", re, im))
+			s = append(s, fmt.Sprintf("%s%si", human.Num(re), signed(im)))
 			continue
 		}
-		s = append(s, fmt.Sprintf("%.4g", re))
+		s = append(s, human.Num(re))
 	}
 	return strings.Join(s, ", ")
 }
@@ -186,11 +148,11 @@ func eigenText(ev [][2]float64) string {
 func printModel(w io.Writer, m *fit.Model) {
 	fmt.Fprintf(w, "field fitted on %d runs, %d samples (degree %d, derivative %s, cross-validated by %s over %d groups)\n",
 		m.Runs, m.Samples, m.Degree, m.Derivative, m.CVBy, m.CVGroups)
-	fmt.Fprintf(w, "threshold %.3g, ridge %.1g, condition %.2g, held-out error %.3g (share of the window-mean slope's variance unexplained)\n\n",
-		m.Threshold, m.Ridge, m.Condition, m.HeldoutError)
+	fmt.Fprintf(w, "threshold %s, ridge %s, condition %s, held-out error %s (share of the window-mean slope's variance unexplained)\n\n",
+		human.Sig(m.Threshold, 3), human.Sig(m.Ridge, 1), human.Sig(m.Condition, 2), human.Sig(m.HeldoutError, 3))
 	var rare []string
 	for i, eq := range m.Equations {
-		fmt.Fprintf(w, "d(%s)/dt [%s] = %s\n", eq.State, rateUnit(m.Units[i]), equationText(eq, m.States))
+		fmt.Fprintf(w, "%s\n", report.Formula(eq.State, m.Units[i], eq.Exponents, eq.Coefficients, m.States))
 		for _, t := range eq.Terms {
 			if t.RarelyKept {
 				rare = append(rare, fmt.Sprintf("%s in d(%s)/dt (kept in %.0f%% of bootstrap fits)", t.Name, eq.State, 100*t.KeptShare))
@@ -201,7 +163,7 @@ func printModel(w io.Writer, m *fit.Model) {
 		fmt.Fprintf(w, "\nrarely kept terms (most bootstrap fits dropped them): %s\n", strings.Join(rare, "; "))
 	}
 	for i, eq := range m.Equations {
-		fmt.Fprintf(w, "held-out error of d(%s)/dt: %.3g %s (%.1f%% of its spread)\n", eq.State, eq.HeldoutRMS, rateUnit(m.Units[i]), 100*eq.HeldoutShare)
+		fmt.Fprintf(w, "held-out error of d(%s)/dt: %s %s (%s of its spread)\n", eq.State, human.Sig(eq.HeldoutRMS, 3), report.RateUnit(m.Units[i]), human.Percent(eq.HeldoutShare))
 		if eq.Warning != "" {
 			fmt.Fprintf(w, "warning: d(%s)/dt: %s\n", eq.State, eq.Warning)
 		}
@@ -211,7 +173,7 @@ func printModel(w io.Writer, m *fit.Model) {
 		fmt.Fprintf(w, "  none found; %s\n", m.Note)
 	}
 	for _, q := range m.Equilibria {
-		fmt.Fprintf(w, "  %s  %s  eigenvalues %s\n", point(q.Point, m.Spread), q.Class, eigenText(q.Eigenvalues))
+		fmt.Fprintf(w, "  %s: %s; eigenvalues %s 1/s\n", q.Class, point(q.Point, m), eigenText(q.Eigenvalues))
 	}
 	if m.Note != "" && len(m.Equilibria) > 0 {
 		fmt.Fprintf(w, "  note: %s\n", m.Note)

@@ -56,9 +56,9 @@ func TestFitCommand(t *testing.T) {
 	}
 	text := o.String()
 	for _, want := range []string{
-		"d(theta)/dt [rad/s] = 1.000 omega",
-		"d(omega)/dt [rad/s^2] = -4.000 theta - 0.8000 omega",
-		"(0, 0)  stable focus  eigenvalues -0.4±1.96i",
+		"d(theta)/dt [rad/s] = 1 omega",
+		"d(omega)/dt [rad/s^2] = -4 theta - 0.8 omega",
+		"stable focus: theta = 0 rad, omega = 0 rad/s; eigenvalues -0.4±1.96i 1/s",
 	} {
 		if !strings.Contains(text, want) {
 			t.Errorf("output lacks %q:\n%s", want, text)

@@ -5,10 +5,10 @@ import (
 	"fmt"
 	"io"
 	"math"
-	"strconv"
 	"text/tabwriter"
 	"time"
 
+	"basin.example/cmd/basin/internal/human"
 	"basin.example/ingest"
 )
 
@@ -143,7 +143,7 @@ func inspectDoc(ds *ingest.Dataset, s *ingest.Summary) *inspectJSON {
 	}
 	for i, r := range s.Runs {
 		ir := inspectRun{File: r.File, Run: r.Name, Line: r.Line, Samples: r.Samples, Start: r.Start,
-			Duration: r.Duration, RateHz: r.RateHz, Jitter: r.Jitter, Gaps: r.Gaps, Split: r.Split,
+			Duration: roundDuration(r.Duration), RateHz: roundRate(r.RateHz), Jitter: roundJitter(r.Jitter), Gaps: r.Gaps, Split: r.Split,
 			Min: r.Min, Max: r.Max, Settled: r.Settled, Settle: r.Settle, Events: ds.Runs[i].Events}
 		if !r.Epoch.IsZero() {
 			ir.Epoch = r.Epoch.Format(time.RFC3339Nano)
@@ -165,7 +165,7 @@ func inspectDoc(ds *ingest.Dataset, s *ingest.Summary) *inspectJSON {
 		doc.Ignored = append(doc.Ignored, c.Name)
 	}
 	doc.Summary = inspectSummary{Files: s.Files, Runs: len(s.Runs), Samples: s.Total.Samples,
-		Duration: s.Total.Duration, RateHz: s.Total.RateHz, Jitter: s.Total.Jitter, Gaps: ds.Gaps,
+		Duration: roundDuration(s.Total.Duration), RateHz: roundRate(s.Total.RateHz), Jitter: roundJitter(s.Total.Jitter), Gaps: ds.Gaps,
 		Missing: s.Missing, Events: len(ds.Events), Heads: len(ds.Heads), LeftOut: ds.Window,
 		SettledRuns: s.SettledRuns, Settle: s.Settle,
 		Jitterdef: "interquartile range of the time steps divided by their median"}
@@ -176,8 +176,16 @@ func g(v float64) string {
 	if math.IsNaN(v) {
 		return "-"
 	}
-	return strconv.FormatFloat(v, 'g', 5, 64)
+	return human.Sig(v, 5)
 }
+
+// Rates, durations and jitter come from differences of time stamps, whose
+// last digits are floating-point noise (a 200 Hz log gives a rate of
+// 199.99999999999997 and a jitter of 1e-13): they are rounded to what
+// the stamps can tell before they are shown or written.
+func roundRate(hz float64) float64    { return human.RoundSig(hz, 9) }
+func roundDuration(s float64) float64 { return human.RoundSig(s, 12) }
+func roundJitter(j float64) float64   { return human.RoundTo(j, 1e-9) }
 
 func inspectTable(w io.Writer, ds *ingest.Dataset, s *ingest.Summary) error {
 	tw := tabwriter.NewWriter(w, 0, 4, 2, ' ', 0)
@@ -191,11 +199,11 @@ func inspectTable(w io.Writer, ds *ingest.Dataset, s *ingest.Summary) error {
 		if split == "" {
 			split = "auto"
 		}
-		fmt.Fprintf(tw, "%s\t%d\t%s\t%s\t%s\t%s\t%d\t%s\t%s\n", printable(r.Name), r.Samples, g(r.Start), g(r.Duration),
-			g(r.RateHz), g(r.Jitter), r.Gaps, split, settled)
+		fmt.Fprintf(tw, "%s\t%d\t%s\t%s\t%s\t%s\t%d\t%s\t%s\n", printable(r.Name), r.Samples, g(r.Start), g(roundDuration(r.Duration)),
+			g(roundRate(r.RateHz)), g(roundJitter(r.Jitter)), r.Gaps, split, settled)
 	}
 	fmt.Fprintf(tw, "total\t%d\t\t%s\t%s\t%s\t%d\t\t%d of %d\n", s.Total.Samples, g(s.Total.Duration),
-		g(s.Total.RateHz), g(s.Total.Jitter), ds.Gaps, s.SettledRuns, len(s.Runs))
+		g(roundRate(s.Total.RateHz)), g(roundJitter(s.Total.Jitter)), ds.Gaps, s.SettledRuns, len(s.Runs))
 	if err := tw.Flush(); err != nil {
 		return err
 	}
@@ -257,7 +265,7 @@ func inspectEvents(w io.Writer, ds *ingest.Dataset) {
 		for _, ev := range ds.Events[:min(n, maxListed)] {
 			times := "-"
 			if ev.Sigmas > 0 {
-				times = strconv.FormatFloat(ev.Sigmas, 'f', 0, 64)
+				times = human.Sig(math.Round(ev.Sigmas), 6)
 			}
 			u := unit[ev.State]
 			if u != "" {

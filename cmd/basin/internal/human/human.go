@@ -199,3 +199,30 @@ func Near(x, scale float64) string {
 
 // decade is the power of ten at or below x > 0.
 func decade(x float64) float64 { return math.Pow(10, math.Floor(math.Log10(x))) }
+
+// RoundSig returns x rounded to n significant digits, for JSON values
+// whose last digits are floating-point noise (499.99999999999955 with 9
+// digits is 500). NaN, infinities and zero are returned as they are.
+func RoundSig(x float64, n int) float64 {
+	if x == 0 || math.IsNaN(x) || math.IsInf(x, 0) {
+		return x
+	}
+	r, _ := strconv.ParseFloat(strconv.FormatFloat(x, 'e', max(n, 1)-1, 64), 64)
+	return r
+}
+
+// RoundTo returns x rounded to a multiple of q > 0 (an absolute
+// resolution), with the result's noise digits removed: RoundTo(1.1102e-13,
+// 1e-9) is 0 and RoundTo(0.0123456, 1e-4) is 0.0123.
+func RoundTo(x, q float64) float64 {
+	if !(q > 0) || math.IsNaN(x) || math.IsInf(x, 0) {
+		return x
+	}
+	r := math.Round(x/q) * q
+	if r == 0 {
+		return 0 // no -0
+	}
+	d := max(0, -int(math.Floor(math.Log10(q))))
+	v, _ := strconv.ParseFloat(strconv.FormatFloat(r, 'f', d, 64), 64)
+	return v
+}

@@ -65,3 +65,14 @@ func TestNear(t *testing.T) {
 		}
 	}
 }
+
+func TestRound(t *testing.T) {
+	for _, tc := range []struct{ got, want float64 }{
+		{RoundSig(499.99999999999955, 9), 500}, {RoundSig(0.30000000000000004, 9), 0.3}, {RoundSig(-1234.5678, 3), -1230},
+		{RoundTo(1.1102e-13, 1e-9), 0}, {RoundTo(0.0123456, 1e-4), 0.0123}, {RoundTo(-1e-12, 1e-9), 0}, {RoundTo(2.5, 0), 2.5},
+	} {
+		if tc.got != tc.want || math.Signbit(tc.got) != math.Signbit(tc.want) {
+			t.Errorf("got %v, want %v", tc.got, tc.want)
+		}
+	}
+}

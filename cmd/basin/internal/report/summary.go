@@ -115,6 +115,14 @@ func HeldoutText(c *fit.Certificate, v *fit.Validation) string { return heldoutT
 // it rests on.
 func BoundText(v *fit.Validation) string { return boundText(v) }
 
+// LimitText says what stopped the certificate's region growing, where,
+// and what would let it grow, in the states' units ("" when nothing did).
+func LimitText(c *fit.Certificate) string { return limitText(c) }
+
+// VText writes the certificate's V in z without the terms that are zero
+// or below 1e-4 of the largest coefficient, and how many it left out.
+func VText(c *fit.Certificate) (string, int) { return vText(c) }
+
 func statePoint(c *fit.Certificate, x []float64) string {
 	var b strings.Builder
 	for j, s := range c.States {
@@ -149,7 +157,7 @@ func limitText(c *fit.Certificate) string {
 	r := c.Region
 	at := ""
 	if len(r.LimitPoint) == len(c.States) {
-		at = " at " + statePoint(c, r.LimitPoint)
+		at = " near " + statePoint(c, r.LimitPoint)
 	}
 	switch r.Limit {
 	case "", "none":
