@@ -4,7 +4,7 @@ BIN     := bin/basin
 PKGS    := ./...
 FUZZTIME ?= 30s
 
-.PHONY: all build test demo bench fuzz lint scale clean browser
+.PHONY: all build test test-short demo bench fuzz lint scale clean browser
 
 all: build
 
@@ -16,8 +16,22 @@ lint:
 	@out=$$(gofmt -l $$(git ls-files '*.go' 2>/dev/null || find . -name '*.go')); \
 	if [ -n "$$out" ]; then echo "gofmt needed:"; echo "$$out"; exit 1; fi
 
+# make test runs every test case, in two passes: everything under the race
+# detector, where the heaviest single-goroutine numerical cases (degree-4
+# certificates, the derivative table; they call heavy(t) in fit) skip
+# themselves, then ./fit/... again without -race, where they run. The
+# timeout is per package binary: the slowest package under -race on a
+# loaded 2-core machine measured about 6 minutes (fit before the split,
+# cmd/basin after it), so 20 minutes means a hang, not a slow machine.
+# test-short is the inner loop: no end-to-end runs, no -race.
+TEST_TIMEOUT ?= 20m
+
 test: lint
-	$(GO) test -race -count=1 $(PKGS)
+	$(GO) test -race -count=1 -timeout $(TEST_TIMEOUT) $(PKGS)
+	$(GO) test -count=1 -timeout $(TEST_TIMEOUT) ./fit/...
+
+test-short:
+	$(GO) test -short -count=1 -timeout 10m $(PKGS)
 
 # The report's headless-browser check alone (it also runs inside `make test`
 # whenever /usr/bin/chromium exists; .ci/run installs it).

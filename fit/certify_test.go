@@ -224,6 +224,7 @@ func TestCertifyVanDerPolKhalilLevel(t *testing.T) {
 }
 
 func TestCertifyVanDerPol(t *testing.T) {
+	heavy(t)
 	ds := vdpData()
 	m := vdpReverse.model([]float64{1, 1})
 	lo, hi := dataBox(ds)
@@ -404,6 +405,7 @@ var doubleWell = &certSystem{
 }
 
 func TestCertifySaddles(t *testing.T) {
+	heavy(t)
 	pend := pendulumSystem(t)
 	for _, tc := range []struct {
 		sys  *certSystem
@@ -586,6 +588,7 @@ func chainSystem(n int) *certSystem {
 }
 
 func TestCertifyHigherDimensions(t *testing.T) {
+	heavy(t)
 	// Stable chains of 3 and 6 states: a certificate is found, the region
 	// converges under the true dynamics, and it stays fast.
 	for _, n := range []int{3, 6} {

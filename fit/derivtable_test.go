@@ -18,6 +18,7 @@ import (
 // default recovers the support in every noisy case it is meant for. Skipped
 // with -short.
 func TestDerivativeTable(t *testing.T) {
+	heavy(t)
 	if testing.Short() {
 		t.Skip("measurement table; run without -short")
 	}

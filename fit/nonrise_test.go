@@ -12,6 +12,7 @@ import (
 // the same oscillator with damping takes the strict path with a positive
 // margin.
 func TestCertifyNonRise(t *testing.T) {
+	heavy(t)
 	eq := []float64{0, 0}
 	sys := func(name string, eqs []Equation, f func(dst, x []float64)) *certSystem {
 		return &certSystem{name: name, states: []string{"x", "y"}, eqs: eqs, f: f, eq: eq}

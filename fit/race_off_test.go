@@ -2,5 +2,11 @@
 
 package fit
 
+import "testing"
+
 // raceOn says the race detector is on; see race_on_test.go.
 const raceOn = false
+
+// heavy marks a test that make test runs only in its pass without -race
+// (see race_on_test.go); here it does nothing.
+func heavy(t *testing.T) { t.Helper() }
