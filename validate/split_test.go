@@ -127,6 +127,7 @@ func TestDecideLeaves(t *testing.T) {
 // TestEvaluateAllFolds: every fold of a well-sampled damped oscillator
 // is never rejected, and the released fold is certified.
 func TestEvaluateAllFolds(t *testing.T) {
+	heavy(t)
 	if testing.Short() {
 		t.Skip("fits every fold")
 	}

@@ -165,6 +165,7 @@ func evalOpts() *Options {
 // TestNoFalseCertificates: unstable and oscillating systems are never
 // certified, with or without noise; stable ones with enough data are.
 func TestNoFalseCertificates(t *testing.T) {
+	heavy(t)
 	if testing.Short() {
 		t.Skip("fits fields and certificates")
 	}
