@@ -545,7 +545,7 @@ func TestCertifyVanDerPolFitted(t *testing.T) {
 		t.Fatal(err)
 	}
 	lo, hi := dataBox(ds)
-	for _, deg := range []int{2, 4} {
+	for _, deg := range []int{2, 4, 6} {
 		c, err := Certify(context.Background(), m, ds, &CertifyOptions{Degree: deg})
 		if err != nil {
 			t.Fatal(err)
@@ -555,6 +555,12 @@ func TestCertifyVanDerPolFitted(t *testing.T) {
 		}
 		t.Logf("fitted field, degree %d: %.1f%% of the true ROA, %.1f%% of the envelope, limit %s; %s",
 			deg, 100*c.Region.Volume/vdpROAArea, 100*c.Region.EnvelopeShare, c.Region.Limit, c.Reason)
+		// Degree 4 must cover 80% of the true region of attraction (the
+		// inside of the cycle, area vdpROAArea): the share an LP with the
+		// exact field reached was 88% (a prototype, measured).
+		if roa := c.Region.Volume / vdpROAArea; deg == 4 && roa < 0.8 {
+			t.Errorf("degree 4 covers %.1f%% of the true region of attraction, want >= 80%%", 100*roa)
+		}
 		checkConverges(t, vdpReverse, regionPoints(c, lo, hi, 300, 5), 0.05)
 	}
 }
