@@ -28,13 +28,14 @@ type CertifyOptions struct {
 	// LP, taken evenly along the runs; 0 means 3000. The level search
 	// always checks every sample.
 	LPSamples int
-	// Fill is the number of fill points drawn in the envelope for each LP;
+	// Fill is the number of fill points drawn in the trust region for each
+	// LP (and, for V of degree above 2, of positivity and exclusion points);
 	// 0 means 1500.
 	Fill int
 	// Kappa multiplies the noise standard deviation of a V difference to
 	// give the tolerance on recorded pairs; 0 means 5.
 	Kappa float64
-	// ShareSamples is the number of Monte-Carlo points for the envelope
+	// ShareSamples is the number of Monte-Carlo points for the trust region
 	// share; 0 means 20000.
 	ShareSamples int
 }
@@ -113,12 +114,16 @@ const (
 // The start is the quadratic from the Lyapunov equation of the scaled
 // Jacobian with Q = I; each growth round solves the LP of [certRows] on
 // the samples and fill points of a larger level set and keeps the V whose
-// certified level set covers the largest share of the envelope.
+// level set (by the sampled search of checker.level) covers the largest
+// share of the trust region. The chosen V's level is then bounded over
+// the level set's box with lyapunov.Verify, and only the bounded level is
+// certified.
 //
 // When no V is found (unstable linearisation, equilibrium outside the
-// envelope, infeasible or failed LP, too few samples for the degree) the
-// result has Found = false and a one-sentence Reason; that is not an
-// error. Errors are for bad input only (wrapping [ErrMismatch] or
+// trust region, a degenerate trust region, infeasible or failed LP, too
+// few samples for the degree) the result has Found = false, a Reason with
+// a plain first sentence and a next step, and a ReasonKind; that is not
+// an error. Errors are for bad input only (wrapping [ErrMismatch] or
 // [ErrOptions]) and for a cancelled ctx.
 func Certify(ctx context.Context, m *Model, ds *ingest.Dataset, opts *CertifyOptions) (*Certificate, error) {
 	o := opts.get()
@@ -191,7 +196,7 @@ func Certify(ctx context.Context, m *Model, ds *ingest.Dataset, opts *CertifyOpt
 	// checker.nonRise) and claims at most stability.
 	nonRise := maxRe > -unstableTol*(1+anorm)
 
-	// The runs in z, the envelope and the checker.
+	// The runs in z, the trust region and the checker.
 	ck, _, err := newChecker(ctx, m, ds, xe, scale, o)
 	if errors.Is(err, lyapunov.ErrDegenerate) {
 		return noFind(ReasonTrustDegenerate, fmt.Sprintf("No V was fitted: the model's trust region cannot be computed (%v), so nothing tells where the model holds. Record runs that start at different states and move every state.", err))

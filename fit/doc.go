@@ -14,7 +14,12 @@
 //
 // [Certify] fits a Lyapunov function V by linear programming on sampled
 // positivity and decrease constraints (package lp) and finds the largest
-// level set {V <= c} on which they hold inside the envelope the data cover.
+// level set {V <= c} on which they hold inside the model's trust region
+// (regression leverage no larger than at the fit samples; package
+// [lyapunov]): first by a sampled search along the recorded samples and
+// rays from the equilibrium, then by a branch-and-bound bound over the
+// level set's box, with the decrease made robust to the fitted field's
+// standard error.
 // The result is a [Certificate], the content of certificate.json; its
 // verdict stays [Inconclusive] until package validate has checked it on
 // held-out runs.
