@@ -8,6 +8,7 @@ import (
 	"io/fs"
 	"math"
 	"runtime"
+	"strconv"
 	"strings"
 	"sync"
 	"sync/atomic"
@@ -733,7 +734,7 @@ func (p *csvParser) parse(c *chunk) {
 			switch lay.role[j] {
 			case roleState:
 				v, ok := parseFloat(cell)
-				if !ok || v-v != 0 {
+				if !ok || v-v != 0 || notDecimal(cell) { // only lines the fast path refused get here
 					v, ok = p.cellSlow(cell)
 					if !ok {
 						c.err = p.cellError(line, j, cell)
@@ -758,7 +759,7 @@ func (p *csvParser) parse(c *chunk) {
 					continue
 				}
 				v, ok := parseFloat(cell)
-				if !ok || v-v != 0 {
+				if !ok || v-v != 0 || notDecimal(cell) { // only lines the fast path refused get here
 					v, ok = p.cellSlow(cell)
 					if !ok {
 						c.err = p.cellError(line, j, cell)
@@ -815,11 +816,17 @@ func (p *csvParser) fastRow(l []byte, vals []float64) bool {
 }
 
 // cellSlow handles what the fast path refused: blanks around a number,
-// empty and NaN cells (missing: NaN). Infinities are refused.
+// empty and NaN cells (missing: NaN). Infinities are refused, and so are
+// Go's digit separators and hexadecimal floats ("1_000", "0x1p-2"), which
+// strconv accepts but no logger writes: such a cell is a typo or not a
+// number at all.
 func (p *csvParser) cellSlow(cell []byte) (float64, bool) {
 	cell = trimBlank(cell, p.lay.delim)
 	if len(cell) == 0 {
 		return math.NaN(), true
+	}
+	if notDecimal(cell) {
+		return 0, false
 	}
 	v, ok := parseFloat(cell)
 	if !ok || math.IsInf(v, 0) {
@@ -837,10 +844,27 @@ func (p *csvParser) cellError(line, j int, cell []byte) error {
 		s = s[:40] + "..."
 	}
 	msg := fmt.Errorf("%w %q", ErrNotNumber, s)
-	if v, ok := parseFloat(cell); ok && math.IsInf(v, 0) {
+	v, ok := parseFloat(cell)
+	var ne *strconv.NumError
+	_, perr := strconv.ParseFloat(string(cell), 64)
+	if notDecimal(cell) {
+		msg = fmt.Errorf("%w %q (write plain decimals: no digit separators, no hexadecimal)", ErrNotNumber, s)
+	} else if ok && math.IsInf(v, 0) || errors.As(perr, &ne) && errors.Is(ne.Err, strconv.ErrRange) {
 		msg = fmt.Errorf("%w: %q is infinite or out of range", ErrNotNumber, s)
 	} else if !utf8.Valid(cell) {
 		msg = fmt.Errorf("%w: not text (binary data?)", ErrNotNumber)
 	}
 	return &ParseError{File: p.lay.file, Line: line, Column: j + 1, Name: p.lay.names[j], Err: msg}
+}
+
+// notDecimal reports whether cell uses Go's digit separators or is a
+// hexadecimal float: forms strconv.ParseFloat accepts but basin does not.
+func notDecimal(cell []byte) bool {
+	for _, c := range cell {
+		switch c {
+		case '_', 'x', 'X', 'p', 'P':
+			return true
+		}
+	}
+	return false
 }

@@ -24,3 +24,24 @@ func TestRateUnusable(t *testing.T) {
 		}
 	}
 }
+
+// TestNumberForms: Go's digit separators and hexadecimal floats are not
+// numbers in a log, and a decimal beyond float64's range is called out of
+// range like an infinity (it was "not a number").
+func TestNumberForms(t *testing.T) {
+	for _, tc := range []struct{ cell, want string }{
+		{"1_000", "no digit separators"},
+		{"0x1p-2", "no hexadecimal"},
+		{"1e5000", "infinite or out of range"},
+		{"-1e5000", "infinite or out of range"},
+		{"+inf", "infinite or out of range"},
+	} {
+		_, err := ReadCSV(strings.NewReader("t,x\n0,1\n0.1,"+tc.cell+"\n0.2,3\n"), "n.csv", nil)
+		if !errors.Is(err, ErrNotNumber) || !strings.Contains(err.Error(), tc.want) || !strings.Contains(err.Error(), "n.csv:3:2") {
+			t.Errorf("%s: err = %v, want n.csv:3:2 and %q", tc.cell, err, tc.want)
+		}
+	}
+	if _, err := ReadCSV(strings.NewReader("t,x\n0,1e3\n0.1, 2.5 \n0.2,NaN\n0.3,4\n"), "n.csv", nil); err != nil {
+		t.Errorf("plain decimals refused: %v", err)
+	}
+}

@@ -83,6 +83,9 @@ func runCertify(ctx context.Context, e *env, args []string) error {
 	if err != nil {
 		return err
 	}
+	if err := someFitRuns(ds); err != nil {
+		return err
+	}
 	if err := sameUnits(f.Model, m.States, m.Units, ds); err != nil {
 		return err
 	}

@@ -1,6 +1,7 @@
 package main
 
 import (
+	"go/token"
 	"bytes"
 	"context"
 	"errors"
@@ -87,6 +88,9 @@ func runExport(ctx context.Context, e *env, args []string) error {
 		return err
 	}
 	var b bytes.Buffer
+	if c.Package != "" && (!token.IsIdentifier(c.Package) || c.Package == "_") {
+		return usagef("--package %q is not a Go package name (a keyword or not an identifier)", printable(c.Package))
+	}
 	err = export.Write(&b, cert, c.Lang, &export.Options{Package: c.Package, Prefix: c.Prefix, Table: c.Table})
 	switch {
 	case errors.Is(err, export.ErrName):

@@ -91,8 +91,19 @@ func fitRuns(ds *ingest.Dataset) *ingest.Dataset {
 	return &use
 }
 
+// someFitRuns refuses data of which a manifest holds out every run.
+func someFitRuns(ds *ingest.Dataset) error {
+	if len(ds.Runs) > 0 && len(fitRuns(ds).Runs) == 0 {
+		return usagef("--manifest holds out every one of the %d runs: none is left to fit; mark some fit, or leave their split empty", len(ds.Runs))
+	}
+	return nil
+}
+
 // fitModel fits on the runs not held out by a manifest.
 func fitModel(ctx context.Context, ds *ingest.Dataset, opts *fit.FieldOptions) (*fit.Model, error) {
+	if err := someFitRuns(ds); err != nil {
+		return nil, err
+	}
 	m, err := fit.Field(ctx, fitRuns(ds), opts)
 	if err != nil {
 		return nil, classify(err, "")

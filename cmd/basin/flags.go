@@ -1,6 +1,7 @@
 package main
 
 import (
+	"slices"
 	"flag"
 	"fmt"
 	"math"
@@ -76,6 +77,9 @@ func (f *inputFlags) options() (*ingest.Options, error) {
 			if s == "" {
 				return nil, usagef("--states: empty name in %q", f.States)
 			}
+			if slices.Contains(o.States, s) {
+				return nil, usagef("--states names %q twice", s)
+			}
 			o.States = append(o.States, s)
 		}
 	}
@@ -84,6 +88,9 @@ func (f *inputFlags) options() (*ingest.Options, error) {
 			s = strings.TrimSpace(s)
 			if s == "" {
 				return nil, usagef("--inputs: empty name in %q", f.Inputs)
+			}
+			if slices.Contains(o.Inputs, s) {
+				return nil, usagef("--inputs names %q twice", s)
 			}
 			o.Inputs = append(o.Inputs, s)
 		}

@@ -284,3 +284,42 @@ func TestUnitsAndCopies(t *testing.T) {
 		t.Errorf("%d runs checked, want the 3 copies counted once", n)
 	}
 }
+
+// TestExitMessages: the messages of the small cases that blamed the wrong
+// thing or exited with the wrong code.
+func TestExitMessages(t *testing.T) {
+	d := sharedDemo(t)
+	cert := filepath.Join(d.dir, "certificate.json")
+	data := filepath.Join(d.dir, "data")
+	dir := t.TempDir()
+	man := filepath.Join(dir, "m.csv")
+	var b strings.Builder
+	b.WriteString("path,run,split\n")
+	ents, _ := os.ReadDir(data)
+	for _, e := range ents {
+		if strings.HasSuffix(e.Name(), ".csv") {
+			b.WriteString(filepath.Join(data, e.Name()) + ",,holdout\n")
+		}
+	}
+	os.WriteFile(man, []byte(b.String()), 0o644)
+	ab := filepath.Join(dir, "ab.csv")
+	os.WriteFile(ab, []byte("t,a,b\n0,1,2\n0.1,2,3\n0.2,3,4\n"), 0o644)
+	out := filepath.Join(dir, "out")
+	for _, tc := range []struct {
+		args []string
+		want string
+	}{
+		{[]string{"inspect", "--states", "theta,theta", data}, `--states names "theta" twice`},
+		// A manifest that names every file needs no INPUTS; holding out
+		// every run is said as such.
+		{[]string{"run", "--manifest", man, "--out", out}, "holds out every one of the 40 runs"},
+		{[]string{"fit", "--manifest", man, "--out", out}, "holds out every one"},
+		{[]string{"export", "--cert", cert, "--lang", "go", "--package", "func"}, `--package "func" is not a Go package name`},
+		{[]string{"screen", "--cert", cert, ab}, "the certificate's states theta,omega are not all columns"},
+	} {
+		code, msg := run1(t, tc.args...)
+		if code != 2 || !strings.Contains(msg, tc.want) || strings.Contains(tc.args[0], "screen") && strings.Contains(msg, "--states names") {
+			t.Errorf("%q: exit %d %q, want 2 and %q", tc.args, code, msg, tc.want)
+		}
+	}
+}

@@ -162,6 +162,9 @@ func runRun(ctx context.Context, e *env, args []string) error {
 	if err != nil {
 		return err
 	}
+	if err := someFitRuns(ds); err != nil {
+		return err
+	}
 	if err := c.checkV(len(ds.States), c.VDegree); err != nil {
 		return err
 	}

@@ -209,6 +209,12 @@ func runScreen(ctx context.Context, e *env, args []string) error {
 		files[i] = inputs[i].Path
 	}
 	res, err := screenFiles(ctx, cert, files, iopts, &validate.ScreenOptions{Tolerance: c.Tolerance}, c.Workers)
+	var pe *ingest.ParseError
+	if err != nil && c.States == "" && errors.Is(err, ingest.ErrNoStates) && errors.As(err, &pe) {
+		// The states came from the certificate, not from --states.
+		return &inputError{fmt.Errorf("%s: the certificate's states %s are not all columns of this file; name the file's columns with --states",
+			printable(pe.File), printable(strings.Join(cert.States, ",")))}
+	}
 	if err != nil {
 		return asInputError(err)
 	}
