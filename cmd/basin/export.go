@@ -1,11 +1,11 @@
 package main
 
 import (
-	"go/token"
 	"bytes"
 	"context"
 	"errors"
 	"flag"
+	"go/token"
 	"os"
 
 	"basin.example/fit"

@@ -1,10 +1,10 @@
 package main
 
 import (
-	"slices"
 	"flag"
 	"fmt"
 	"math"
+	"slices"
 	"strconv"
 	"strings"
 
