@@ -847,7 +847,7 @@ func (p *csvParser) cellError(line, j int, cell []byte) error {
 	v, ok := parseFloat(cell)
 	var ne *strconv.NumError
 	_, perr := strconv.ParseFloat(string(cell), 64)
-	if notDecimal(cell) {
+	if ok && notDecimal(cell) {
 		msg = fmt.Errorf("%w %q (write plain decimals: no digit separators, no hexadecimal)", ErrNotNumber, s)
 	} else if ok && math.IsInf(v, 0) || errors.As(perr, &ne) && errors.Is(ne.Err, strconv.ErrRange) {
 		msg = fmt.Errorf("%w: %q is infinite or out of range", ErrNotNumber, s)

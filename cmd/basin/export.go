@@ -89,7 +89,7 @@ func runExport(ctx context.Context, e *env, args []string) error {
 	}
 	var b bytes.Buffer
 	if c.Package != "" && (!token.IsIdentifier(c.Package) || c.Package == "_") {
-		return usagef("--package %q is not a Go package name (a keyword or not an identifier)", printable(c.Package))
+		return usagef("--package %q: not a valid identifier for a Go package (a keyword, or not an identifier)", printable(c.Package))
 	}
 	err = export.Write(&b, cert, c.Lang, &export.Options{Package: c.Package, Prefix: c.Prefix, Table: c.Table})
 	switch {

@@ -314,7 +314,7 @@ func TestExitMessages(t *testing.T) {
 		// every run is said as such.
 		{[]string{"run", "--manifest", man, "--out", out}, "holds out every one of the 40 runs"},
 		{[]string{"fit", "--manifest", man, "--out", out}, "holds out every one"},
-		{[]string{"export", "--cert", cert, "--lang", "go", "--package", "func"}, `--package "func" is not a Go package name`},
+		{[]string{"export", "--cert", cert, "--lang", "go", "--package", "func"}, `--package "func": not a valid identifier`},
 		{[]string{"screen", "--cert", cert, ab}, "the certificate's states theta,omega are not all columns"},
 	} {
 		code, msg := run1(t, tc.args...)
