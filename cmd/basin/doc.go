@@ -68,7 +68,8 @@ certificate.json, report.html and summary.txt into --out as one set, and
 prints the summary. The same input and --seed give byte-identical outputs.
 
 	--out DIR           the output folder (default basin-out)
-	--degree N          field library degree, 1..8 (default 3)
+	--degree N          highest degree of the field's polynomial terms, 1..8
+	                    (default 3)
 	--select-folds K    folds over the fit runs that choose the sparsity
 	                    threshold (default 5)
 	--deriv METHOD      auto (default: each method tried, the least held-out

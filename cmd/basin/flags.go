@@ -141,7 +141,7 @@ func (f *memFlags) checkV(n, degree int) error {
 }
 
 func (f *fieldFlags) register(fs *flag.FlagSet) {
-	fs.IntVar(&f.Degree, "degree", defaultDegree, "field library degree `N`")
+	fs.IntVar(&f.Degree, "degree", defaultDegree, "highest degree `N` of the field's polynomial terms")
 	fs.IntVar(&f.SelectFolds, "select-folds", defaultSelect, "folds `K` over the fit runs that choose the sparsity threshold")
 	fs.StringVar(&f.Deriv, "deriv", "", "derivative `METHOD`: auto (each tried, least held-out error kept), savitzky-golay, fornberg or integral (default "+fit.DefaultDerivative+")")
 	fs.IntVar(&f.Bootstrap, "bootstrap", defaultBootstrap, "bootstrap refits over runs `N` (0: none)")

@@ -39,7 +39,7 @@ func (f *screenFlags) register(fs *flag.FlagSet) {
 	f.outputFlags.register(fs)
 	fs.StringVar(&f.Cert, "cert", "", "the certificate `FILE` (certificate.json)")
 	fs.Float64Var(&f.Tolerance, "rise-tol", 0, "tolerated rise of V between samples `DV` (0: the certificate's)")
-	fs.Float64Var(&f.Tolerance, "tolerance", 0, "deprecated: the old name of --rise-tol")
+	fs.Float64Var(&f.Tolerance, "tolerance", 0, "deprecated: the old name of --rise-tol `DV`")
 	fs.IntVar(&f.Workers, "workers", 0, "files screened at once `N` (default: the number of CPUs)")
 	fs.BoolVar(&f.Recursive, "recursive", false, "descend into every subfolder, not only key=value partition folders")
 	fs.StringVar(&f.Format, "format", "table", "output `FORMAT`: table, or csv (one row per run)")

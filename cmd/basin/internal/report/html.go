@@ -64,12 +64,8 @@ type pageData struct {
 	Settings                  []kv
 	Noise                     num
 	Tolerance                 num
-	// DerivErr is the cross-validated derivative error of the model per
-	// state, as an RMS share (the square root of the model's
-	// heldout_error, so that it reads in the same measure as the held-out
-	// runs' derivative_error).
-	DerivErr []stateNum
-	// ValDerivErr and ValTrajErr are the model checks on the held-out runs.
+	// ValDerivErr is the model's derivative check on the held-out runs,
+	// as a percentage of each derivative's spread.
 	ValDerivErr []stateNum
 }
 
@@ -237,7 +233,6 @@ func build(in *Input, pl [2]int) (*pageData, error) {
 	}
 	if m := in.Model; m != nil {
 		for _, e := range m.Equations {
-			d.DerivErr = append(d.DerivErr, stateNum{e.State, mk(math.Sqrt(math.Max(e.HeldoutError, 0)))})
 			row := eqRow{State: e.State, HeldoutError: mk(e.HeldoutError), HeldoutRMS: mk(e.HeldoutRMS),
 				RateUnit: "1/s", HeldoutShare: human.Percent(e.HeldoutShare), Warning: e.Warning}
 			if i := len(d.Equations); i < len(m.Units) {
@@ -260,7 +255,7 @@ func build(in *Input, pl [2]int) (*pageData, error) {
 		d.ValRows = valRows(v)
 		for j, e := range v.DerivativeError {
 			if j < len(c.States) {
-				d.ValDerivErr = append(d.ValDerivErr, stateNum{c.States[j], mk(e)})
+				d.ValDerivErr = append(d.ValDerivErr, stateNum{c.States[j], num{human.Percent(e), strconv.FormatFloat(e, 'g', -1, 64)}})
 			}
 		}
 	}
