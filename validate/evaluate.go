@@ -378,7 +378,7 @@ func decide(cert *fit.Certificate, val *fit.Validation, runs []RunScreen, eig []
 	case val.Pairs == 0:
 		return fit.Inconclusive, fit.NoClaim, fit.ReasonNoHeldoutPairs, fmt.Sprintf("No held-out sample pairs lie inside the region outside the noise ball. Record runs that pass within %s, away from the equilibrium.", where)
 	case val.DecreaseFraction < o.MinDecrease:
-		return fit.Inconclusive, fit.NoClaim, fit.ReasonHeldoutRise, fmt.Sprintf("V fell on only %.1f%% of %d held-out pairs inside the region (%.1f%% needed). The model or V does not hold there; try more runs or a different --v-degree.", 100*val.DecreaseFraction, val.Pairs, 100*o.MinDecrease)
+		return fit.Inconclusive, fit.NoClaim, fit.ReasonHeldoutRise, fmt.Sprintf("V did not rise beyond the noise tolerance on only %s of %d held-out pairs inside the region (%.1f%% needed). The model or V does not hold there; try more runs or a different --v-degree.", sharePct(val.DecreaseFraction), val.Pairs, 100*o.MinDecrease)
 	case val.InvarianceFraction < 1:
 		return fit.Inconclusive, fit.NoClaim, fit.ReasonLeft, fmt.Sprintf("%d of %d held-out runs that entered the region left it again beyond the noise tolerance. Record more runs near the region's edge.", val.EnteredRuns-int(math.Round(val.InvarianceFraction*float64(val.EnteredRuns))), val.EnteredRuns)
 	case lin == linUnknown && eig != nil:
@@ -396,7 +396,7 @@ func decide(cert *fit.Certificate, val *fit.Validation, runs []RunScreen, eig []
 		}
 	}
 	if long > 0 && settled == long && cert.Margin > 0 && !cert.NonRise && lin == linStable {
-		return fit.Certified, fit.Asymptotic, fit.ReasonCertified, fmt.Sprintf("V fell on %.1f%% of %d held-out pairs inside the region; %s stayed inside and settled.", 100*val.DecreaseFraction, val.Pairs, enteredRuns(val.EnteredRuns))
+		return fit.Certified, fit.Asymptotic, fit.ReasonCertified, fmt.Sprintf("V did not rise beyond the noise tolerance on %s of %d held-out pairs inside the region; %s stayed inside and settled.", sharePct(val.DecreaseFraction), val.Pairs, enteredRuns(val.EnteredRuns))
 	}
 	// The weaker claim still needs V not to drift up: a run that entered
 	// and ends with V higher than at entry by more than the tolerance
@@ -417,7 +417,7 @@ func decide(cert *fit.Certificate, val *fit.Validation, runs []RunScreen, eig []
 	case settled == long:
 		why = "settled, but V has no positive decrease margin"
 	}
-	return fit.Certified, fit.Stable, fit.ReasonCertified, fmt.Sprintf("V did not rise beyond the noise tolerance on %.1f%% of %d held-out pairs and %s stayed inside but %s: stability without shown convergence.", 100*val.DecreaseFraction, val.Pairs, enteredRuns(val.EnteredRuns), why)
+	return fit.Certified, fit.Stable, fit.ReasonCertified, fmt.Sprintf("V did not rise beyond the noise tolerance on %s of %d held-out pairs and %s stayed inside but %s: stability without shown convergence.", sharePct(val.DecreaseFraction), val.Pairs, enteredRuns(val.EnteredRuns), why)
 }
 
 // regionWords describes the certified region's box per state in the
@@ -609,4 +609,19 @@ func eigenvalues(m *fit.Model) [][2]float64 {
 		return [][2]float64{{math.NaN(), 0}}
 	}
 	return m.JacobianEigenvalues
+}
+
+// sharePct writes a share as a percentage for a reason: one decimal, but
+// never "100.0%" for a share below 1 nor "0.0%" for one above 0 (more
+// decimals then, up to four).
+func sharePct(p float64) string {
+	if p >= 1 || p <= 0 || p != p {
+		return fmt.Sprintf("%.0f%%", 100*p)
+	}
+	for dec := 1; dec < 4; dec++ {
+		if s := fmt.Sprintf("%.*f", dec, 100*p); s != fmt.Sprintf("%.*f", dec, 100.0) && s != fmt.Sprintf("%.*f", dec, 0.0) {
+			return s + "%"
+		}
+	}
+	return fmt.Sprintf("%.4f%%", 100*p)
 }
