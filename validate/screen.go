@@ -28,8 +28,13 @@ const (
 //     region, with the first outside the noise ball (|z| > NoiseRadius), V
 //     rose by more than the tolerance. Excess is the worst rise minus the
 //     tolerance.
-//   - leaves: a sample outside the region after one inside it. Excess is
-//     the worst V - Level after entering (0 when only the box was left).
+//   - leaves: after a sample inside the region, a sample outside it by
+//     more than the noise: V above Level plus the tolerance, or outside
+//     the box widened per state by NoiseRadius times the state's scale.
+//     Excess is the worst V - Level after entering (0 when only the box
+//     was left); Distance how far the worst sample lies past the
+//     boundary, per state in the states' units (along the ray from the
+//     equilibrium, or past the box when that is more).
 //   - unsettled: the run's last sample is outside the region, or its end
 //     is neither settled (mean V over the last samples at most the settle
 //     level, the largest V on the noise ball) nor nearer the equilibrium
@@ -38,6 +43,15 @@ const (
 //     Excess the end's mean V minus the settle level. A run that never
 //     enters the region is flagged so too: runs that leave a basin start
 //     outside any sound region.
+//   - slow: the run's decay rate (minus the least-squares slope of log V
+//     against time over its samples inside the region and outside the
+//     noise ball, at least DecayMinSamples of them) is below the
+//     certificate's validation.decay.lower_bound (see [DecayOf]). Excess
+//     is the bound minus the rate, in 1/s. Certificates without the
+//     bound give no slow flag.
+//
+// A rises flag's Distance is the smallest move of the worst rise's sample,
+// to first order in the scaled coordinates, that accounts for the excess.
 //
 // A certificate without a V or with a level that is not positive has an
 // empty region (every run then ends outside it).

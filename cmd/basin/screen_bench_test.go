@@ -7,8 +7,10 @@ import (
 	"math/rand/v2"
 	"os"
 	"path/filepath"
+	"runtime"
 	"strconv"
 	"strings"
+	"sync/atomic"
 	"syscall"
 	"testing"
 	"time"
@@ -28,25 +30,35 @@ const (
 	benchRows  = 250_000 // samples per file
 )
 
-// benchData writes benchFiles runs of a decaying oscillation with noise
-// (in screenCert's coordinates) as Parquet (Arrow's writer, "parquet" with
-// its default dictionary encoding, "parquet-plain" without) or CSV, and
-// returns the paths and their total size.
-func benchData(b *testing.B, dir, format string) ([]string, int64) {
+// benchData writes benchFiles runs of benchRows samples (rows when not
+// 0) of a decaying oscillation with noise in states states (pitch and
+// rate in screenCert's coordinates, then s2, s3, ... in benchCert's) as
+// Parquet (Arrow's writer, "parquet" with its default dictionary
+// encoding, "parquet-plain" without) or CSV, and returns the paths and
+// their total size.
+func benchData(b *testing.B, dir, format string, states, files, rows int) ([]string, int64) {
 	b.Helper()
 	var paths []string
 	var size int64
-	for f := range benchFiles {
+	names := []string{"time [s]", "pitch [deg]", "rate [deg/s]"}
+	for j := 2; j < states; j++ {
+		names = append(names, fmt.Sprintf("s%d", j))
+	}
+	for f := range files {
 		r := rand.New(rand.NewPCG(uint64(f), 0))
-		t := make([]float64, benchRows)
-		p := make([]float64, benchRows)
-		q := make([]float64, benchRows)
-		for i := range t {
+		cols := make([][]float64, states+1)
+		for j := range cols {
+			cols[j] = make([]float64, rows)
+		}
+		for i := range rows {
 			tt := float64(i) * 0.001
 			e := math.Exp(-0.05 * tt)
-			t[i] = tt
-			p[i] = 1.5 + 2*0.5*e*math.Cos(tt) + 1e-4*r.NormFloat64()
-			q[i] = 10 * 0.5 * e * -math.Sin(tt)
+			cols[0][i] = tt
+			cols[1][i] = 1.5 + 2*0.5*e*math.Cos(tt) + 1e-4*r.NormFloat64()
+			cols[2][i] = 10 * 0.5 * e * -math.Sin(tt)
+			for j := 3; j <= states; j++ {
+				cols[j][i] = 0.3*e*math.Cos(float64(j)*tt) + 1e-4*r.NormFloat64()
+			}
 		}
 		ext := format
 		if strings.HasPrefix(format, "parquet") {
@@ -54,17 +66,19 @@ func benchData(b *testing.B, dir, format string) ([]string, int64) {
 		}
 		path := filepath.Join(dir, fmt.Sprintf("run%02d.%s", f, ext))
 		if ext == "parquet" {
-			writeParquetCols(b, path, format == "parquet", []string{"time [s]", "pitch [deg]", "rate [deg/s]"}, t, p, q)
+			writeParquetCols(b, path, format == "parquet", names, cols...)
 		} else {
 			var sb strings.Builder
-			sb.WriteString("time [s],pitch [deg],rate [deg/s]\n")
-			buf := make([]byte, 0, 64)
-			for i := range t {
-				buf = strconv.AppendFloat(buf[:0], t[i], 'g', -1, 64)
-				buf = append(buf, ',')
-				buf = strconv.AppendFloat(buf, p[i], 'g', -1, 64)
-				buf = append(buf, ',')
-				buf = strconv.AppendFloat(buf, q[i], 'g', -1, 64)
+			sb.WriteString(strings.Join(names, ",") + "\n")
+			buf := make([]byte, 0, 64*(states+1))
+			for i := range rows {
+				buf = buf[:0]
+				for j := range cols {
+					if j > 0 {
+						buf = append(buf, ',')
+					}
+					buf = strconv.AppendFloat(buf, cols[j][i], 'g', -1, 64)
+				}
 				buf = append(buf, '\n')
 				sb.Write(buf)
 			}
@@ -80,6 +94,49 @@ func benchData(b *testing.B, dir, format string) ([]string, int64) {
 		paths = append(paths, path)
 	}
 	return paths, size
+}
+
+// benchCert returns screenCert for 2 states, and for more a certificate
+// on pitch, rate, s2, ... with V = Σ z_j² (a quadratic V of that many
+// states).
+func benchCert(b *testing.B, states int) *fit.Certificate {
+	b.Helper()
+	if states == 2 {
+		c, err := fit.ReadCertificate(strings.NewReader(screenCert))
+		if err != nil {
+			b.Fatal(err)
+		}
+		return c
+	}
+	names := []string{`"pitch"`, `"rate"`}
+	units := []string{`"deg"`, `"deg/s"`}
+	eq := []string{"1.5", "0"}
+	sc := []string{"2", "10"}
+	var exps, coef []string
+	for j := 2; j < states; j++ {
+		names = append(names, fmt.Sprintf(`"s%d"`, j))
+		units, eq, sc = append(units, `""`), append(eq, "0"), append(sc, "1")
+	}
+	for j := range states {
+		e := make([]string, states)
+		for k := range e {
+			e[k] = "0"
+		}
+		e[j] = "2"
+		exps = append(exps, "["+strings.Join(e, ",")+"]")
+		coef = append(coef, "1")
+	}
+	js := fmt.Sprintf(`{"format": "basin.certificate/1", "verdict": "certified", "strength": "asymptotic",
+  "reason": "benchmark", "empirical": true, "caveat": "benchmark", "states": [%s], "units": [%s],
+  "equilibrium": [%s], "scale": [%s], "V": {"exponents": [%s], "coefficients": [%s]},
+  "level": 2, "noise_radius": 0.05, "tolerance": 1e-9, "validation": {"heldout_runs": 4}}`,
+		strings.Join(names, ","), strings.Join(units, ","), strings.Join(eq, ","), strings.Join(sc, ","),
+		strings.Join(exps, ","), strings.Join(coef, ","))
+	c, err := fit.ReadCertificate(strings.NewReader(js))
+	if err != nil {
+		b.Fatal(err)
+	}
+	return c
 }
 
 // cpuSeconds returns the process's user plus system CPU time.
@@ -121,59 +178,120 @@ func writeParquetCols(b *testing.B, path string, dict bool, names []string, cols
 }
 
 // BenchmarkScreen measures basin screen end to end (read the files, screen
-// every run) on a quadratic V, Parquet and CSV input, with one and two
-// workers, side by side. The target is at least 20 million samples per
-// second over 2 cores on Parquet.
+// every run) on a quadratic V of 2 and 6 states, Parquet and CSV input,
+// with one and two workers, beside a read of the same files by ingest
+// (read-only) and a plain read of their bytes (cat: os.ReadFile, what cat
+// does), in one run so the ratios are on the same load. The target is at
+// most 10 times cat's time.
 func BenchmarkScreen(b *testing.B) {
-	c, err := fit.ReadCertificate(strings.NewReader(screenCert))
-	if err != nil {
-		b.Fatal(err)
-	}
-	for _, format := range []string{"parquet", "parquet-plain", "csv"} {
-		dir := b.TempDir()
-		paths, size := benchData(b, dir, format)
-		for _, workers := range []int{1, 2} {
-			b.Run(fmt.Sprintf("%s/workers=%d", format, workers), func(b *testing.B) {
+	for _, states := range []int{2, 6} {
+		c := benchCert(b, states)
+		for _, format := range []string{"parquet", "parquet-plain", "csv"} {
+			dir := b.TempDir()
+			paths, size := benchData(b, dir, format, states, benchFiles, benchRows)
+			n := float64(benchFiles * benchRows)
+			report := func(b *testing.B, cpu0 float64) {
+				b.ReportMetric(n*float64(b.N)/b.Elapsed().Seconds(), "samples/s")
+				// On a shared machine wall time depends on the other load;
+				// samples per CPU-second (user+system, whole process) do
+				// not, and times the cores used give the idle-machine rate.
+				b.ReportMetric(n*float64(b.N)/(cpuSeconds()-cpu0), "samples/cpu-s")
+			}
+			name := fmt.Sprintf("states=%d/%s", states, format)
+			b.Run(name+"/cat", func(b *testing.B) {
+				b.SetBytes(size)
+				cpu0 := cpuSeconds()
+				for b.Loop() {
+					for _, p := range paths {
+						if _, err := os.ReadFile(p); err != nil {
+							b.Fatal(err)
+						}
+					}
+				}
+				report(b, cpu0)
+			})
+			for _, workers := range []int{1, 2} {
+				b.Run(fmt.Sprintf("%s/workers=%d", name, workers), func(b *testing.B) {
+					opts, _ := (&inputFlags{}).options()
+					opts.States = c.States
+					b.SetBytes(size)
+					b.ReportAllocs()
+					cpu0 := cpuSeconds()
+					for b.Loop() {
+						res, err := screenFiles(context.Background(), c, paths, opts, nil, workers)
+						if err != nil {
+							b.Fatal(err)
+						}
+						if len(res) != benchFiles || res[0].runs[0].Samples != benchRows {
+							b.Fatalf("screened %d files, %d samples", len(res), res[0].runs[0].Samples)
+						}
+					}
+					report(b, cpu0)
+				})
+			}
+			// The same files only read (no screening), one worker: the
+			// share of the time that is ingest's.
+			b.Run(name+"/read-only", func(b *testing.B) {
 				opts, _ := (&inputFlags{}).options()
 				opts.States = c.States
 				b.SetBytes(size)
 				b.ReportAllocs()
 				cpu0 := cpuSeconds()
 				for b.Loop() {
-					res, err := screenFiles(context.Background(), c, paths, opts, nil, workers)
-					if err != nil {
-						b.Fatal(err)
-					}
-					if len(res) != benchFiles || res[0].runs[0].Samples != benchRows {
-						b.Fatalf("screened %d files, %d samples", len(res), res[0].runs[0].Samples)
+					for _, p := range paths {
+						if _, err := ingest.ReadFile(context.Background(), p, opts); err != nil {
+							b.Fatal(err)
+						}
 					}
 				}
-				n := float64(benchFiles*benchRows) * float64(b.N)
-				b.ReportMetric(n/b.Elapsed().Seconds(), "samples/s")
-				// On a shared machine wall time depends on the other load;
-				// samples per CPU-second (user+system, whole process) do
-				// not, and times the cores used give the idle-machine rate.
-				b.ReportMetric(n/(cpuSeconds()-cpu0), "samples/cpu-s")
+				report(b, cpu0)
 			})
 		}
-		// The same files only read (no screening), one worker: the share
-		// of the time that is ingest's.
-		b.Run(format+"/read-only", func(b *testing.B) {
+	}
+}
+
+// BenchmarkScreenMemory screens one Parquet file of growing size with one
+// worker and reports the peak heap in use (sampled every millisecond)
+// and its ratio to the file's size: the memory a screen needs per file.
+func BenchmarkScreenMemory(b *testing.B) {
+	c := benchCert(b, 2)
+	for _, rows := range []int{100_000, 400_000, 1_600_000} {
+		dir := b.TempDir()
+		paths, size := benchData(b, dir, "parquet-plain", 2, 1, rows)
+		b.Run(fmt.Sprintf("rows=%d", rows), func(b *testing.B) {
 			opts, _ := (&inputFlags{}).options()
 			opts.States = c.States
-			b.SetBytes(size)
-			b.ReportAllocs()
-			cpu0 := cpuSeconds()
-			for b.Loop() {
-				for _, p := range paths {
-					if _, err := ingest.ReadFile(context.Background(), p, opts); err != nil {
-						b.Fatal(err)
+			runtime.GC()
+			var base runtime.MemStats
+			runtime.ReadMemStats(&base)
+			var peak atomic.Uint64
+			stop := make(chan struct{})
+			done := make(chan struct{})
+			go func() {
+				defer close(done)
+				var ms runtime.MemStats
+				for {
+					select {
+					case <-stop:
+						return
+					case <-time.After(time.Millisecond):
+					}
+					runtime.ReadMemStats(&ms)
+					if h := ms.HeapInuse; h > peak.Load() {
+						peak.Store(h)
 					}
 				}
+			}()
+			for b.Loop() {
+				if _, err := screenFiles(context.Background(), c, paths, opts, nil, 1); err != nil {
+					b.Fatal(err)
+				}
 			}
-			n := float64(benchFiles*benchRows) * float64(b.N)
-			b.ReportMetric(n/b.Elapsed().Seconds(), "samples/s")
-			b.ReportMetric(n/(cpuSeconds()-cpu0), "samples/cpu-s")
+			close(stop)
+			<-done
+			grow := float64(peak.Load()) - float64(base.HeapInuse)
+			b.ReportMetric(grow/1e6, "peak-heap-MB")
+			b.ReportMetric(grow/float64(size), "peak-heap/file-size")
 		})
 	}
 }
