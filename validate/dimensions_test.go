@@ -233,7 +233,7 @@ func TestBadInputVerdicts(t *testing.T) {
 	}
 }
 
-// TestStableFromBox: the undamped hardening oscillator x'' = -4x - 2x³
+// TestStableFromBox: the undamped hardening oscillator d²x/dt² = -4x - 2x³
 // logged from a box of starting states conserves its energy v²/2 + 2x² +
 // x⁴/2 ([GuckenheimerHolmes1983], delta = 0), and no run passes near the
 // equilibrium; V of degree 4 is fitted not to rise and the held-out runs

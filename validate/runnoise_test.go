@@ -11,7 +11,7 @@ import (
 
 // TestRunNoise: runs whose noise is a share (0.5% to 3%) of each run's
 // own spread, as with one sensor range per test. The damped linear
-// oscillator x'' + 0.6 x' + 4 x = 0 ([Strogatz1994] §5.1) from starts of
+// oscillator d²x/dt² + 0.6 dx/dt + 4 x = 0 ([Strogatz1994] §5.1) from starts of
 // very different sizes. Each run's estimate must be within 20% of the
 // noise it was given (the brief's bound; the median-based estimator's
 // standard error on 600 samples is about 5%, common practice), and no
