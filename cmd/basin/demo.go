@@ -8,6 +8,7 @@ import (
 	"path/filepath"
 	"strings"
 
+	"basin.example/cmd/basin/internal/human"
 	"basin.example/internal/demodata"
 )
 
@@ -64,7 +65,7 @@ func runDemo(ctx context.Context, e *env, args []string) error {
 	fmt.Fprintf(e.stdout, "wrote the demo data set: %d runs of a camera mount in %s (truth in %s)\n",
 		len(truth.Runs), data, filepath.Join(data, demodata.TruthFile))
 	if !c.Quiet {
-		fmt.Fprintf(e.stdout, "%d runs leave the basin: %s\n", len(truth.Leaving), strings.Join(truth.Leaving, ", "))
+		fmt.Fprintf(e.stdout, "%s the basin: %s\n", human.CountAs(len(truth.Leaving), "run leaves", "runs leave"), strings.Join(truth.Leaving, ", "))
 	}
 	if c.DataOnly {
 		return nil

@@ -157,8 +157,8 @@ func eigenText(ev [][2]float64) string {
 
 // printModel writes the readable form of m.
 func printModel(w io.Writer, m *fit.Model) {
-	fmt.Fprintf(w, "field fitted on %d runs, %d samples (degree %d, derivative %s, cross-validated by %s over %d groups)\n",
-		m.Runs, m.Samples, m.Degree, m.Derivative, m.CVBy, m.CVGroups)
+	fmt.Fprintf(w, "field fitted on %s, %s (degree %d, derivative %s, cross-validated by %s over %s)\n",
+		human.Count(m.Runs, "run"), human.Count(m.Samples, "sample"), m.Degree, m.Derivative, m.CVBy, human.Count(m.CVGroups, "group"))
 	fmt.Fprintf(w, "threshold %s, ridge %s, condition %s, held-out error %s (share of the window-mean slope's variance unexplained)\n\n",
 		human.Sig(m.Threshold, 3), human.Sig(m.Ridge, 1), human.Sig(m.Condition, 2), human.Sig(m.HeldoutError, 3))
 	var rare []string

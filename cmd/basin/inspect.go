@@ -231,11 +231,11 @@ func inspectTable(w io.Writer, ds *ingest.Dataset, s *ingest.Summary) error {
 	if err := tw.Flush(); err != nil {
 		return err
 	}
-	fmt.Fprintf(w, "\n%d files, %d runs, %d samples; time column %q", s.Files, len(s.Runs), s.Total.Samples, ds.Time.Name)
+	fmt.Fprintf(w, "\n%s, %s, %s; time column %q", human.Count(s.Files, "file"), human.Count(len(s.Runs), "run"), human.Count(s.Total.Samples, "sample"), ds.Time.Name)
 	if ds.Time.Unit != "" {
 		fmt.Fprintf(w, " [%s]", printable(ds.Time.Unit))
 	}
-	fmt.Fprintf(w, "; %d gaps split runs, %d samples missing\n", ds.Gaps, s.Missing)
+	fmt.Fprintf(w, "; %s split runs, %s missing\n", human.Count(ds.Gaps, "gap"), human.Count(s.Missing, "sample"))
 	inspectEvents(w, ds)
 	if len(ds.Ignored) > 0 {
 		fmt.Fprintf(w, "ignored columns (not numeric or not chosen):")

@@ -413,8 +413,8 @@ func screenTable(w io.Writer, out *screenJSON) error {
 		return err
 	}
 	s := out.Summary
-	_, err := fmt.Fprintf(w, "%d runs in %d files, %d samples: %d flagged (%d rises, %d leaves, %d unsettled, %d slow), %d never inside the region\n",
-		s.Runs, s.Files, s.Samples, s.Flagged, s.Rises, s.Leaves, s.Unsettled, s.Slow, s.NeverInside)
+	_, err := fmt.Fprintf(w, "%s in %s, %s: %d flagged (%d rises, %d leaves, %d unsettled, %d slow), %d never inside the region\n",
+		human.Count(s.Runs, "run"), human.Count(s.Files, "file"), human.Count(s.Samples, "sample"), s.Flagged, s.Rises, s.Leaves, s.Unsettled, s.Slow, s.NeverInside)
 	if err == nil && out.SlowBound > 0 {
 		_, err = fmt.Fprintf(w, "slow: decay rate of V below %.3g 1/s (half the slowest held-out run's)\n", out.SlowBound)
 	}
