@@ -174,6 +174,7 @@ func FuzzReadManifest(f *testing.F) {
 	f.Add([]byte("path,run,split\na.csv,,fit\n"))
 	f.Add([]byte("\ufeffpath,split\r\na.csv,holdout\r\n"))
 	f.Add([]byte("path\n\"a.csv\"\nb.csv\n"))
+	f.Add([]byte("path\n\"a\nb.csv\"\n")) // a quoted path with a newline: once a two-line error
 	f.Fuzz(func(t *testing.T, data []byte) {
 		p := filepath.Join(dir, "m.csv")
 		if err := os.WriteFile(p, data, 0o644); err != nil {

@@ -84,10 +84,10 @@ func ReadManifest(path string) ([]ManifestEntry, error) {
 		st, err := os.Stat(e.Path)
 		if err != nil {
 			return nil, &ParseError{File: path, Line: e.Line, Name: "path",
-				Err: fmt.Errorf("%w: %s: %v", ErrManifest, e.Path, errors.Unwrap(err))}
+				Err: fmt.Errorf("%w: %q: %v", ErrManifest, e.Path, errors.Unwrap(err))}
 		}
 		if st.IsDir() {
-			return nil, &ParseError{File: path, Line: e.Line, Name: "path", Err: fmt.Errorf("%w: %s is a folder", ErrManifest, e.Path)}
+			return nil, &ParseError{File: path, Line: e.Line, Name: "path", Err: fmt.Errorf("%w: %q is a folder", ErrManifest, e.Path)}
 		}
 	}
 	return es, nil
