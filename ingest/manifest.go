@@ -7,6 +7,7 @@ import (
 	"fmt"
 	"os"
 	"path/filepath"
+	"strconv"
 	"strings"
 
 	"github.com/gocarina/gocsv"
@@ -84,10 +85,10 @@ func ReadManifest(path string) ([]ManifestEntry, error) {
 		st, err := os.Stat(e.Path)
 		if err != nil {
 			return nil, &ParseError{File: path, Line: e.Line, Name: "path",
-				Err: fmt.Errorf("%w: %q: %v", ErrManifest, e.Path, errors.Unwrap(err))}
+				Err: fmt.Errorf("%w: %s: %v", ErrManifest, pathText(e.Path), errors.Unwrap(err))}
 		}
 		if st.IsDir() {
-			return nil, &ParseError{File: path, Line: e.Line, Name: "path", Err: fmt.Errorf("%w: %q is a folder", ErrManifest, e.Path)}
+			return nil, &ParseError{File: path, Line: e.Line, Name: "path", Err: fmt.Errorf("%w: %s is a folder", ErrManifest, pathText(e.Path))}
 		}
 	}
 	return es, nil
@@ -124,4 +125,15 @@ func applyManifest(ds *Dataset, es []ManifestEntry) {
 			}
 		}
 	}
+}
+
+// pathText is p as it is, or quoted Go-style when it holds a control
+// character (a newline would break the one-line error).
+func pathText(p string) string {
+	for _, r := range p {
+		if r < 0x20 || r == 0x7f {
+			return strconv.Quote(p)
+		}
+	}
+	return p
 }
