@@ -278,3 +278,46 @@ func BenchmarkScanFast(b *testing.B) {
 	b.ReportMetric(float64(b.Elapsed().Nanoseconds())/float64(b.N)/4, "ns/cell")
 	_ = sink
 }
+
+// BenchmarkReadCSVSideBySide times ReadCSV and the naive reader on the
+// same file alternately in one loop (the order swapped every iteration),
+// so that both see the same machine load; x-naive is the naive reader's
+// total time over ReadCSV's. Run it with -cpu 1,2 to see the ratio with
+// one core and with two.
+func BenchmarkReadCSVSideBySide(b *testing.B) {
+	path, _ := benchFiles(b)
+	var naive, basin time.Duration
+	readNaive := func() {
+		f, _ := os.Open(path)
+		defer f.Close()
+		t0 := time.Now()
+		if _, err := naiveRead(f); err != nil {
+			b.Fatal(err)
+		}
+		naive += time.Since(t0)
+	}
+	readBasin := func() {
+		f, _ := os.Open(path)
+		defer f.Close()
+		t0 := time.Now()
+		ds, err := ReadCSV(f, path, nil)
+		if err != nil || ds.Samples() != benchRows {
+			b.Fatal(err)
+		}
+		basin += time.Since(t0)
+	}
+	i := 0
+	for b.Loop() {
+		if i%2 == 0 {
+			readNaive()
+			readBasin()
+		} else {
+			readBasin()
+			readNaive()
+		}
+		i++
+	}
+	b.ReportMetric(naive.Seconds()/basin.Seconds(), "x-naive")
+	b.ReportMetric(basin.Seconds()/float64(b.N), "basin-s")
+	b.ReportMetric(naive.Seconds()/float64(b.N), "naive-s")
+}
