@@ -9,6 +9,7 @@ import (
 	"sort"
 	"strings"
 
+	"basin.example/fit/lp"
 	"basin.example/fit/lyapunov"
 	"basin.example/ingest"
 	"gonum.org/v1/gonum/mat"
@@ -179,7 +180,7 @@ func Certify(ctx context.Context, m *Model, ds *ingest.Dataset, opts *CertifyOpt
 	}
 	var eig mat.Eigen
 	if !eig.Factorize(mat.NewDense(n, n, append([]float64(nil), az...)), mat.EigenNone) {
-		return noFind(ReasonEigenvalues, "the Jacobian's eigenvalues could not be computed, so no V was fitted")
+		return noFind(ReasonEigenvalues, "No V was fitted: the Jacobian's eigenvalues could not be computed. Check the model for extreme coefficients.")
 	}
 	maxRe := math.Inf(-1)
 	for _, v := range eig.Values(nil) {
@@ -188,7 +189,7 @@ func Certify(ctx context.Context, m *Model, ds *ingest.Dataset, opts *CertifyOpt
 	if maxRe > unstableTol*(1+anorm) {
 		cert.Contradicted = true
 		cert.Contradiction = fmt.Sprintf("the fitted linearisation at the equilibrium is unstable (an eigenvalue has real part %+.3g 1/s)", maxRe)
-		return noFind(ReasonUnstableLinearisation, "No V was fitted: "+cert.Contradiction+".")
+		return noFind(ReasonUnstableLinearisation, "No V was fitted: "+cert.Contradiction+". The data contradict stability there; if that is unexpected, check the model's terms and record runs that settle on the equilibrium.")
 	}
 	// Non-hyperbolic but not unstable (an eigenvalue on the imaginary
 	// axis, as for a lossless oscillator): V can at best be shown not to
@@ -229,7 +230,7 @@ func Certify(ctx context.Context, m *Model, ds *ingest.Dataset, opts *CertifyOpt
 	}
 	p, err := Lyapunov(a0, eye(n), n)
 	if err != nil {
-		return noFind(ReasonLyapunovSingular, "No V was fitted: the Lyapunov equation of the linearisation is singular.")
+		return noFind(ReasonLyapunovSingular, "No V was fitted: the Lyapunov equation of the linearisation is singular (two eigenvalues sum to zero). Record runs that settle, so that the damping shows in the fit.")
 	}
 	c0 := fam.quadratic(p)
 	tr := fam.trace(c0)
@@ -247,6 +248,7 @@ func Certify(ctx context.Context, m *Model, ds *ingest.Dataset, opts *CertifyOpt
 	rng := rand.New(rand.NewPCG(o.Seed, 0))
 	solves, rounds, rowsUsed := 0, 0, 0
 	var lastErr string
+	var lastKind ReasonKind
 	capped := false
 	stale := 0
 	firstContra := false
@@ -275,6 +277,7 @@ func Certify(ctx context.Context, m *Model, ds *ingest.Dataset, opts *CertifyOpt
 		improved := false
 		if len(rows.targets) < 3*fam.Len() {
 			lastErr = "too few samples in the level set for the LP"
+			lastKind = ReasonTooFewSamples
 		} else {
 			out := solveCertLP(fam, rows)
 			solves++
@@ -283,6 +286,10 @@ func Certify(ctx context.Context, m *Model, ds *ingest.Dataset, opts *CertifyOpt
 			switch {
 			case out.err != nil:
 				lastErr = out.err.Error()
+				lastKind = ReasonLPFailed
+				if errors.Is(out.err, lp.ErrInfeasible) {
+					lastKind = ReasonLPInfeasible
+				}
 			case !(out.g > 0) && !(nonRise && out.g > -lpMarginBound):
 				if solves == 1 && out.g < 0 && !best.res.ok {
 					firstContra = true
@@ -322,13 +329,21 @@ func Certify(ctx context.Context, m *Model, ds *ingest.Dataset, opts *CertifyOpt
 		if firstContra {
 			cert.Contradicted = true
 			cert.Contradiction = fmt.Sprintf("no V of degree %d falls along the recorded runs near the equilibrium (the LP's best margin is %.3g < 0, so V must rise)", o.Degree, cert.Margin)
-			return noFind(ReasonLPInfeasible, "No V was found: "+cert.Contradiction+".")
+			return noFind(ReasonLPInfeasible, "No V was found: "+cert.Contradiction+". Record runs nearer the equilibrium, or with less noise, to tell a real rise from noise.")
 		}
 		reason := best.res.reason
+		kind := ReasonNoLevel
 		if lastErr != "" {
 			reason += "; the LP found none either (" + lastErr + ")"
+			if lastKind != "" {
+				kind = lastKind
+			}
 		}
-		return noFind(ReasonNoLevel, "No V was found: "+reason+".")
+		next := " Record more runs that start near the equilibrium, or try another --v-degree."
+		if kind == ReasonTooFewSamples {
+			next = " Record more runs near the equilibrium, or try a lower --v-degree."
+		}
+		return noFind(kind, "No V was found: "+reason+"."+next)
 	}
 
 	// The bound over the piece of the level set.

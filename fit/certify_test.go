@@ -412,11 +412,16 @@ func TestCertifySaddles(t *testing.T) {
 		box  [][2]float64
 		deg  int
 		skip bool
+		// area of the region certified by the earlier occupancy-grid
+		// search on the same data (measured at commit 61d47c4, a grid of
+		// 447 x 448 points over the data's box): the region may not
+		// shrink by more than 10%.
+		before float64
 	}{
-		{pend, [][2]float64{{-4, 4}, {-2.5, 2.5}}, 2, false},
-		{pend, [][2]float64{{-4, 4}, {-2.5, 2.5}}, 4, testing.Short() || raceOn},
-		{doubleWell, [][2]float64{{-2, 2}, {-1.5, 1.5}}, 2, false},
-		{doubleWell, [][2]float64{{-2, 2}, {-1.5, 1.5}}, 4, testing.Short() || raceOn},
+		{pend, [][2]float64{{-4, 4}, {-2.5, 2.5}}, 2, false, 9.4236},
+		{pend, [][2]float64{{-4, 4}, {-2.5, 2.5}}, 4, testing.Short() || raceOn, 9.4236},
+		{doubleWell, [][2]float64{{-2, 2}, {-1.5, 1.5}}, 2, false, 0.4755},
+		{doubleWell, [][2]float64{{-2, 2}, {-1.5, 1.5}}, 4, testing.Short() || raceOn, 1.3894},
 	} {
 		if tc.skip {
 			continue
@@ -449,6 +454,18 @@ func TestCertifySaddles(t *testing.T) {
 				}
 			}
 			lo, hi := dataBox(ds)
+			in, draws := 0, 447*448
+			x := make([]float64, 2)
+			for s := 0; s < draws; s++ {
+				x[0] = lo[0] + float64(s%447)/447*(hi[0]-lo[0])
+				x[1] = lo[1] + float64(s/447)/448*(hi[1]-lo[1])
+				if c.Inside(x, vp.Eval(c.Z(z, x))) {
+					in++
+				}
+			}
+			if area := float64(in) / float64(draws) * (hi[0] - lo[0]) * (hi[1] - lo[1]); area < 0.9*tc.before {
+				t.Errorf("region area %.4f, below 90%% of the earlier %.4f", area, tc.before)
+			}
 			pts := regionPoints(c, lo, hi, 300, 9)
 			if len(pts) < 50 {
 				t.Fatalf("only %d region points", len(pts))
