@@ -481,11 +481,21 @@ func certScale(m *Model, ds *ingest.Dataset) []float64 {
 		return s
 	}
 	for j := 0; j < n; j++ {
-		var sum, sq, cnt float64
+		// Sums of v - shift, shift a sample: sq/cnt - mean² on the raw
+		// values loses every digit when |mean| >> sd (a state logged with
+		// an offset); shifted, the cancellation is only that of the spread.
+		var sum, sq, cnt, shift float64
+		for i := range ds.Runs {
+			if len(ds.Runs[i].X[j]) > 0 {
+				shift = ds.Runs[i].X[j][0]
+				break
+			}
+		}
 		for i := range ds.Runs {
 			for _, v := range ds.Runs[i].X[j] {
-				sum += v
-				sq += v * v
+				d := v - shift
+				sum += d
+				sq += d * d
 				cnt++
 			}
 		}
@@ -602,13 +612,19 @@ func fieldSigma(m *Model, ck *checker, all []float64) []float64 {
 	ns := len(all) / n
 	stride := max(1, ns/5000)
 	f := make([]float64, n)
-	sum, sq := make([]float64, n), make([]float64, n)
+	// Shifted sums (shift: the first sample's value), as in the scale
+	// above: stable when the mean is large against the spread.
+	sum, sq, shift := make([]float64, n), make([]float64, n), make([]float64, n)
 	cnt := 0.0
 	for i := 0; i < ns; i += stride {
 		ck.zf.evalTo(f, all[i*n:(i+1)*n])
+		if i == 0 {
+			copy(shift, f)
+		}
 		for j, v := range f {
-			sum[j] += v
-			sq[j] += v * v
+			d := v - shift[j]
+			sum[j] += d
+			sq[j] += d * d
 		}
 		cnt++
 	}
