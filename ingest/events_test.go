@@ -18,7 +18,7 @@ import (
 // not the position). Before sample rest (if > 0) the rig is at rest at
 // x = 0 and the motion starts there. The free response is the textbook
 // closed form of the underdamped oscillator (any vibrations text, e.g.
-// Rao, Mechanical Vibrations, the free damped response; from memory),
+// [Rao], Mechanical Vibrations, the free damped response; from memory),
 // stepped sample to sample exactly, so the truth has no integration
 // error.
 func oscillator(rng *rand.Rand, dur float64, x0, v0 float64, rest, hit int, dv, sd float64) string {
@@ -224,11 +224,12 @@ func TestEventQuietCases(t *testing.T) {
 // TestEventThreshold checks the figures the thresholds' comments rely on
 // against the normal distribution: two-sided tail probabilities
 // 2(1 - Phi(k)) of 1.973e-9 for k = 6 and 1.244e-15 for k = 8 (standard
-// normal tables, e.g. Abramowitz and Stegun, Handbook of Mathematical
+// normal tables, [AbramowitzStegun1964], Handbook of Mathematical
 // Functions, 1964, table 26.1; from memory), computed with gonum's distuv
-// as an independent implementation; and that the jump statistic's robust
-// scale on white noise is sqrt(5) times the noise, as its coefficients
-// say.
+// as an independent implementation [gonum]; the MAD consistency factor
+// 1/Phi^-1(3/4) [RousseeuwCroux1993]; and that the jump statistic's
+// robust scale on white noise is sqrt(5) times the noise, as its
+// coefficients say (a computation, checked by simulation).
 func TestEventThreshold(t *testing.T) {
 	n := distuv.UnitNormal
 	for _, tc := range []struct {
