@@ -26,10 +26,13 @@ type Summary struct {
 	States []ColumnSummary // one per Dataset.States
 	Inputs []ColumnSummary // one per Dataset.Inputs, ranges over every run
 	Total  RunSummary      // over every run; Total.Name is empty
-	// SettledRuns counts runs that settled; Settle holds, per state, the
-	// median over settled runs of their settle points (nil if none did).
+	// SettledRuns counts runs that settled. RestPoints are the clusters
+	// of their settle points (see [RestPoints]), the one most runs settle
+	// on first; Settle is its point (nil if no run settled): with one rest
+	// point, the median over settled runs of their settle points.
 	SettledRuns int
 	Settle      []float64
+	RestPoints  []RestPoint
 	Files       int
 	Missing     int // samples dropped for missing cells
 }
@@ -75,8 +78,8 @@ func Summarise(ds *Dataset) *Summary {
 	s.Total = RunSummary{Min: fill(ns, math.Inf(1)), Max: fill(ns, math.Inf(-1)), Gaps: ds.Gaps}
 	files := map[string]bool{}
 	var allDt []float64
-	var settles [][]float64 // per state, over settled runs
-	settles = make([][]float64, ns)
+	var names []string
+	var pts [][]float64 // settle points of the settled runs
 	for i := range ds.Runs {
 		r := &ds.Runs[i]
 		files[r.Source.File] = true
@@ -99,9 +102,8 @@ func Summarise(ds *Dataset) *Summary {
 			rs.Settled, rs.Settle = settle(r, rs.Min, rs.Max)
 			if rs.Settled {
 				s.SettledRuns++
-				for j := range ns {
-					settles[j] = append(settles[j], rs.Settle[j])
-				}
+				names = append(names, r.Name)
+				pts = append(pts, rs.Settle)
 			}
 		}
 		s.Total.Samples += rs.Samples
@@ -112,11 +114,13 @@ func Summarise(ds *Dataset) *Summary {
 	if s.Total.Samples == 0 {
 		s.Total.Min, s.Total.Max = make([]float64, ns), make([]float64, ns)
 	}
-	if s.SettledRuns > 0 {
-		s.Settle = make([]float64, ns)
-		for j := range ns {
-			s.Settle[j] = median(settles[j])
-		}
+	span := make([]float64, ns)
+	for j := range ns {
+		span[j] = s.Total.Max[j] - s.Total.Min[j]
+	}
+	s.RestPoints = clusterRest(names, pts, span)
+	if len(s.RestPoints) > 0 {
+		s.Settle = s.RestPoints[0].Point
 	}
 	for j, c := range ds.States {
 		s.States = append(s.States, ColumnSummary{Column: c, Min: s.Total.Min[j], Max: s.Total.Max[j]})

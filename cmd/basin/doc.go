@@ -99,8 +99,12 @@ plus the flags of Reading logs.
 	basin inspect [flags] INPUTS...
 
 Says what the logs hold: per run and in total, samples, start, duration,
-median sampling rate and its jitter, gaps, ranges and units, and the point
-the runs settle on. Flags: those of Reading logs, --quiet and --json.
+median sampling rate and its jitter, gaps, ranges and units, the inputs,
+the one-sample jumps runs were split at and the resting starts trimmed, and
+the rest points the runs settle on, each with its count of runs, most first
+(settle points within a tenth of each state's range are one rest point; the
+settle column and --json's settle are the first). Flags: those of
+Reading logs, --quiet and --json.
 
 # basin fit
 

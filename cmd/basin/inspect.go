@@ -24,8 +24,12 @@ var cmdInspect = &command{
 	Long: `Reads the logs and says what it found: per run and in total, samples,
 start and duration, median sampling rate and its jitter (interquartile
 range of the time steps over their median), gaps, per-column ranges and
-units, and the point the runs settle on (median of the last 5% of each
-run whose last 5% spans at most a tenth of the run's range).`,
+units, inputs, and the rest points the runs settle on: a run settles when
+its last 5% spans at most a tenth of its range, its settle point is the
+median of that tail, and settle points within a tenth of each state's
+range over all runs are one rest point, reported with its count of runs
+(most first). Also lists the one-sample jumps runs were split at, the
+resting starts trimmed and the recordings a --from/--to window left out.`,
 }
 
 func init() { cmdInspect.Run = runInspect }
@@ -109,7 +113,16 @@ type inspectSummary struct {
 	LeftOut     int       `json:"window_left_out"`
 	SettledRuns int       `json:"settled_runs"`
 	Settle      []float64 `json:"settle,omitempty"`
-	Jitterdef   string    `json:"jitter_definition"`
+	// RestPoints are the clusters of the runs' settle points, the one
+	// most runs settle on first (Settle is its point).
+	RestPoints []inspectRest `json:"rest_points"`
+	Jitterdef  string        `json:"jitter_definition"`
+}
+
+type inspectRest struct {
+	Point    []float64 `json:"point"`
+	Runs     int       `json:"runs"`
+	RunNames []string  `json:"run_names"`
 }
 
 func runInspect(ctx context.Context, e *env, args []string) error {
@@ -168,7 +181,10 @@ func inspectDoc(ds *ingest.Dataset, s *ingest.Summary) *inspectJSON {
 		Duration: roundDuration(s.Total.Duration), RateHz: roundRate(s.Total.RateHz), Jitter: roundJitter(s.Total.Jitter), Gaps: ds.Gaps,
 		Missing: s.Missing, Events: len(ds.Events), Heads: len(ds.Heads), LeftOut: ds.Window,
 		SettledRuns: s.SettledRuns, Settle: s.Settle,
-		Jitterdef: "interquartile range of the time steps divided by their median"}
+		Jitterdef: "interquartile range of the time steps divided by their median", RestPoints: []inspectRest{}}
+	for _, rp := range s.RestPoints {
+		doc.Summary.RestPoints = append(doc.Summary.RestPoints, inspectRest{Point: rp.Point, Runs: rp.Runs, RunNames: rp.RunNames})
+	}
 	return doc
 }
 
@@ -209,7 +225,11 @@ func inspectTable(w io.Writer, ds *ingest.Dataset, s *ingest.Summary) error {
 	}
 	fmt.Fprintln(w)
 	tw = tabwriter.NewWriter(w, 0, 4, 2, ' ', 0)
-	fmt.Fprintln(tw, "state\tunit\tmin\tmax\tsettles at")
+	if len(s.RestPoints) > 1 {
+		fmt.Fprintln(tw, "state\tunit\tmin\tmax\tsettles at (most runs)")
+	} else {
+		fmt.Fprintln(tw, "state\tunit\tmin\tmax\tsettles at")
+	}
 	for j, st := range s.States {
 		at := "-"
 		if s.Settle != nil {
@@ -230,6 +250,22 @@ func inspectTable(w io.Writer, ds *ingest.Dataset, s *ingest.Summary) error {
 	}
 	if err := tw.Flush(); err != nil {
 		return err
+	}
+	if len(s.RestPoints) > 1 {
+		fmt.Fprintf(w, "\n%d rest points the runs settle on (settle points within a tenth of each state's range are one):\n", len(s.RestPoints))
+		for k, rp := range s.RestPoints {
+			fmt.Fprintf(w, "  %d. ", k+1)
+			for j, st := range s.States {
+				if j > 0 {
+					fmt.Fprint(w, ", ")
+				}
+				fmt.Fprintf(w, "%s = %s", printable(st.Name), g(rp.Point[j]))
+				if st.Unit != "" {
+					fmt.Fprintf(w, " %s", printable(st.Unit))
+				}
+			}
+			fmt.Fprintf(w, ": %d of %d settled runs\n", rp.Runs, s.SettledRuns)
+		}
 	}
 	fmt.Fprintf(w, "\n%s, %s, %s; time column %q", human.Count(s.Files, "file"), human.Count(len(s.Runs), "run"), human.Count(s.Total.Samples, "sample"), ds.Time.Name)
 	if ds.Time.Unit != "" {

@@ -7,6 +7,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"strconv"
 	"strings"
 	"testing"
 )
@@ -139,5 +140,51 @@ func TestInspectEvents(t *testing.T) {
 		if msg := stderr.String(); code != 2 || stdout.Len() != 0 || strings.Count(msg, "\n") != 1 || !strings.Contains(msg, tc.want) {
 			t.Errorf("%v: exit %d, stderr %q; want 2 and one line with %q", tc.args, code, msg, tc.want)
 		}
+	}
+}
+
+// TestInspectRestPoints: runs that settle on two points are reported as
+// two rest points with their counts, in the table and in --json.
+func TestInspectRestPoints(t *testing.T) {
+	dir := t.TempDir()
+	// x' = -x + c for 200 samples: runs settle at c = -1 (2 runs) or 2 (3)
+	for k, c := range []float64{2, -1, 2, -1, 2} {
+		in := "t,x\n"
+		x := c + 3
+		for i := range 200 {
+			in += ftoa(float64(i)*0.05) + "," + ftoa(x+0.001*math.Sin(float64(i*i))) + "\n"
+			x += 0.05 * (c - x)
+		}
+		if err := os.WriteFile(filepath.Join(dir, "r"+strconv.Itoa(k)+".csv"), []byte(in), 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	var stdout, stderr bytes.Buffer
+	if code := basinMainIn(context.Background(), []string{"inspect", "--json", dir}, &stdout, &stderr, nil); code != 0 {
+		t.Fatalf("exit %d: %s", code, stderr.String())
+	}
+	var doc struct {
+		Summary struct {
+			Settle     []float64 `json:"settle"`
+			RestPoints []struct {
+				Point    []float64 `json:"point"`
+				Runs     int       `json:"runs"`
+				RunNames []string  `json:"run_names"`
+			} `json:"rest_points"`
+		} `json:"summary"`
+	}
+	if err := json.Unmarshal(stdout.Bytes(), &doc); err != nil {
+		t.Fatal(err)
+	}
+	rp := doc.Summary.RestPoints
+	// the runs end 10 s, ten time constants, after a start 3 away: e^-10 * 3 = 1.4e-4 from c
+	if len(rp) != 2 || rp[0].Runs != 3 || rp[1].Runs != 2 || math.Abs(rp[0].Point[0]-2) > 1e-3 || math.Abs(rp[1].Point[0]+1) > 1e-3 ||
+		strings.Join(rp[1].RunNames, " ") != "r1.csv r3.csv" || doc.Summary.Settle[0] != rp[0].Point[0] {
+		t.Errorf("rest points %+v, settle %v", rp, doc.Summary.Settle)
+	}
+	stdout.Reset()
+	if code := basinMainIn(context.Background(), []string{"inspect", dir}, &stdout, &stderr, nil); code != 0 ||
+		!strings.Contains(stdout.String(), "2 rest points") || !strings.Contains(stdout.String(), ": 3 of 5 settled runs") {
+		t.Errorf("table: exit %d\n%s", code, stdout.String())
 	}
 }
