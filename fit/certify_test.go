@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"os"
 	"strings"
 	"testing"
 	"time"
@@ -563,6 +564,9 @@ func TestCertifyVanDerPolFitted(t *testing.T) {
 	}
 	lo, hi := dataBox(ds)
 	for _, deg := range []int{2, 4, 6} {
+		if deg == 6 && os.Getenv("BASIN_TABLES") == "" {
+			continue // reported in the closing note's table only (about 6 s)
+		}
 		c, err := Certify(context.Background(), m, ds, &CertifyOptions{Degree: deg})
 		if err != nil {
 			t.Fatal(err)
