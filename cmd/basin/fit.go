@@ -67,6 +67,9 @@ func runFit(ctx context.Context, e *env, args []string) error {
 	defer pg.Done()
 	pg.Stage("reading logs")
 	ds, err := loadInputs(ctx, e, &f.inputFlags, f.Quiet, args)
+	if err == nil {
+		err = refuseConstantInputs(ds)
+	}
 	if err != nil {
 		return err
 	}

@@ -189,3 +189,29 @@ func TestInspectRestPoints(t *testing.T) {
 		t.Errorf("table: exit %d\n%s", code, stdout.String())
 	}
 }
+
+// TestFitConstantInput: fitting with an input that never changes exits 2
+// with one line naming it (inspect only warns), and writes nothing.
+func TestFitConstantInput(t *testing.T) {
+	dir := t.TempDir()
+	in := "t,x,u\n"
+	for i := range 50 {
+		in += ftoa(float64(i)*0.1) + "," + ftoa(math.Exp(-0.1*float64(i))) + ",2\n"
+	}
+	path := filepath.Join(dir, "c.csv")
+	if err := os.WriteFile(path, []byte(in), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	out := filepath.Join(dir, "out")
+	for _, cmd := range []string{"fit", "run"} {
+		var stdout, stderr bytes.Buffer
+		code := basinMainIn(context.Background(), []string{cmd, "--quiet", "--inputs", "u", "--out", out, path}, &stdout, &stderr, nil)
+		msg := stderr.String()
+		if code != 2 || strings.Count(msg, "\n") != 1 || !strings.Contains(msg, `--inputs "u": the input is constant (2 in every sample): it adds nothing`) {
+			t.Errorf("%s: exit %d, stderr %q", cmd, code, msg)
+		}
+		if _, err := os.Stat(out); err == nil {
+			t.Errorf("%s wrote %s", cmd, out)
+		}
+	}
+}

@@ -159,6 +159,9 @@ func runRun(ctx context.Context, e *env, args []string) error {
 	defer prog.Done()
 	prog.Stage("reading logs")
 	ds, err := loadInputs(ctx, e, &c.inputFlags, c.Quiet, args)
+	if err == nil {
+		err = refuseConstantInputs(ds)
+	}
 	if err != nil {
 		return err
 	}
