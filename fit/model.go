@@ -434,9 +434,12 @@ type Validation struct {
 	// ScenarioViolations counts decrease violations among the
 	// ScenarioSamples; each adds one to d in the bound.
 	ScenarioViolations int `json:"scenario_violations"`
-	// FoldsAgree counts the folds (the released one included) whose
-	// verdict matches the released one, when every fold was fitted.
-	FoldsAgree int `json:"folds_agree,omitempty"`
+	// FoldsAgree counts the folds (the released one included) whose own
+	// verdict matches the released (combined) one, when every fold was
+	// held out once; FoldVerdicts lists each fold's own verdict, the
+	// released fold first.
+	FoldsAgree   int      `json:"folds_agree,omitempty"`
+	FoldVerdicts []string `json:"fold_verdicts,omitempty"`
 	// Decay holds the held-out runs' decay rates of V, from which screen
 	// flags runs that settle too slowly; nil in older certificates.
 	Decay *Decay `json:"decay,omitempty"`

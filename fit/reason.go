@@ -48,4 +48,7 @@ const (
 	ReasonFewRuns        ReasonKind = "too_few_runs"
 	ReasonNoHeldoutPairs ReasonKind = "no_heldout_pairs"
 	ReasonSameStart      ReasonKind = "runs_start_at_one_state"
+	// ReasonFoldsDisagree: the folds (each run held out once) did not all
+	// certify, nor did most reject.
+	ReasonFoldsDisagree ReasonKind = "folds_disagree"
 )

@@ -39,12 +39,16 @@ type Options struct {
 	// the state's held-out spread) at which a simulation departs from its
 	// run; 0 means 0.1.
 	DepartTol float64
-	// AllFolds refits with each other fold held out too and counts the
-	// folds that agree with the released verdict; false means only the
-	// released split is fitted.
+	// AllFolds is the default and kept for older callers: every fold is
+	// held out once (see OneFold).
 	AllFolds bool
-	Field    *fit.FieldOptions
-	Certify  *fit.CertifyOptions
+	// OneFold fits only the released split (fold 0 held out), so the
+	// verdict may depend on which runs the seed holds out; false means
+	// every fold is held out once and the verdict is combined over the
+	// folds (see combineFolds).
+	OneFold bool
+	Field   *fit.FieldOptions
+	Certify *fit.CertifyOptions
 	// Progress, when not nil, is called by Evaluate as each stage starts,
 	// with the stage's name and the share of the whole job done before it
 	// (0 to 1, by fixed weights per stage measured on logs of a million
@@ -491,8 +495,9 @@ func Evaluate(ctx context.Context, ds *ingest.Dataset, opts *Options) (*Result, 
 		return res, nil
 	}
 	fold := Split(ds.Runs, o.Folds, o.Seed)
+	every := o.AllFolds || !o.OneFold
 	nFits := 1
-	if o.AllFolds {
+	if every {
 		nFits = o.Folds
 	}
 	one := func(f int) (*fit.Model, *fit.Certificate, []RunScreen, error) {
@@ -535,8 +540,8 @@ func Evaluate(ctx context.Context, ds *ingest.Dataset, opts *Options) (*Result, 
 		res.Heldout[i] = fold[i] == 0
 	}
 	res.FoldVerdicts = []fit.Verdict{cert.Verdict}
-	if o.AllFolds {
-		agree := 1
+	if every {
+		certs := []*fit.Certificate{cert}
 		for f := 1; f < o.Folds; f++ {
 			has := false
 			for _, k := range fold {
@@ -550,11 +555,9 @@ func Evaluate(ctx context.Context, ds *ingest.Dataset, opts *Options) (*Result, 
 				return nil, err
 			}
 			res.FoldVerdicts = append(res.FoldVerdicts, c.Verdict)
-			if c.Verdict == cert.Verdict {
-				agree++
-			}
+			certs = append(certs, c)
 		}
-		cert.Validation.FoldsAgree = agree
+		combineFolds(cert, certs)
 	}
 	res.Model, res.Certificate, res.Runs = m, cert, runs
 	return res, nil
@@ -624,4 +627,87 @@ func sharePct(p float64) string {
 		}
 	}
 	return fmt.Sprintf("%.4f%%", 100*p)
+}
+
+// combineFolds sets the released certificate's verdict from every fold's
+// (certs[0] is the released one), so that the verdict does not hang on
+// which runs a seed holds out. A fold that was inconclusive only for want
+// of held-out evidence (too few of its held-out runs entered the region,
+// or it held out none) abstains: small folds can never certify, and must
+// not veto. Then: certified when every other fold certified and at least
+// one did (with the weakest strength of any); rejected when more than
+// half of the folds rejected (the released reason, or the first
+// rejecting fold's); inconclusive otherwise, saying how many folds
+// agreed. Validation.FoldsAgree counts the folds whose own verdict
+// matches the combined one, and FoldVerdicts lists them.
+func combineFolds(rel *fit.Certificate, certs []*fit.Certificate) {
+	k := len(certs)
+	verdicts := make([]string, k)
+	for i, c := range certs {
+		verdicts[i] = string(c.Verdict)
+	}
+	var cert, rej, abstain int
+	var firstRej *fit.Certificate
+	strength := fit.Asymptotic
+	for _, c := range certs {
+		switch c.Verdict {
+		case fit.Certified:
+			cert++
+			if c.Strength == fit.Stable {
+				strength = fit.Stable
+			}
+		case fit.Rejected:
+			rej++
+			if firstRej == nil {
+				firstRej = c
+			}
+		default:
+			switch c.ReasonKind {
+			case fit.ReasonFewEntered, fit.ReasonNoneEntered, fit.ReasonNoHeldout, fit.ReasonNoHeldoutPairs:
+				abstain++
+			}
+		}
+	}
+	note := ""
+	if abstain > 0 {
+		note = fmt.Sprintf(" %d of %d folds held out too few runs that entered the region to judge.", abstain, k)
+	}
+	switch {
+	case cert > 0 && cert+abstain == k:
+		if rel.Verdict != fit.Certified {
+			for _, c := range certs {
+				if c.Verdict == fit.Certified {
+					rel.Reason = "Another fold: " + c.Reason
+					break
+				}
+			}
+			rel.Verdict, rel.ReasonKind = fit.Certified, fit.ReasonCertified
+		}
+		rel.Strength = strength
+		if strength == fit.Stable && !strings.Contains(rel.Reason, "stability without shown convergence") {
+			rel.Reason += " Another fold's certificate claims only stability, so this one does too."
+		}
+	case 2*rej > k:
+		if rel.Verdict != fit.Rejected {
+			rel.Verdict, rel.Strength, rel.ReasonKind = fit.Rejected, fit.NoClaim, firstRej.ReasonKind
+			rel.Reason = firstRej.Reason
+		}
+	default:
+		if rel.Verdict != fit.Inconclusive || cert > 0 {
+			rel.Reason = fmt.Sprintf("%d of %d folds certified and %d rejected; certified needs every fold that could judge to certify. This fold: %s", cert, k, rej, rel.Reason)
+			rel.ReasonKind = fit.ReasonFoldsDisagree
+		}
+		rel.Verdict, rel.Strength = fit.Inconclusive, fit.NoClaim
+	}
+	agree := 0
+	for _, v := range verdicts {
+		if fit.Verdict(v) == rel.Verdict {
+			agree++
+		}
+	}
+	rel.Reason += fmt.Sprintf(" Folds: %d of %d agree.%s", agree, k, note)
+	if rel.Validation != nil {
+		rel.Validation.FoldsAgree = agree
+		rel.Validation.FoldVerdicts = verdicts
+	}
 }

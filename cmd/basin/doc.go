@@ -86,8 +86,9 @@ prints the summary. The same input and --seed give byte-identical outputs.
 	                    certified (default 0.99)
 	--beta B            the scenario bound holds with confidence 1-B
 	                    (default 1e-6)
-	--all-folds         also refit with every other fold held out and count
-	                    the folds that agree
+	--all-folds         hold every fold out once and certify only when all
+	                    folds certify (default true; --all-folds=false fits
+	                    only the released split: faster, seed-dependent)
 	--plane a,b         the states of the report's phase plane
 	--seed N            random seed (default 1)
 	--quiet, --json     as above; --json prints certificate.json

@@ -1,0 +1,78 @@
+package validate
+
+import (
+	"context"
+	"testing"
+
+	"basin.example/fit"
+)
+
+// TestCombineFolds: the rule that makes the verdict independent of which
+// runs a seed holds out.
+func TestCombineFolds(t *testing.T) {
+	C, R, I := fit.Certified, fit.Rejected, fit.Inconclusive
+	A := fit.Verdict("abstain") // inconclusive: too few held-out runs entered
+	for _, tc := range []struct {
+		name  string
+		folds []fit.Verdict
+		want  fit.Verdict
+		agree int
+	}{
+		{"all certified", []fit.Verdict{C, C, C, C, C}, C, 5},
+		{"one inconclusive", []fit.Verdict{C, C, I, C, C}, I, 1},
+		{"released rejected, rest certified", []fit.Verdict{R, C, C, C, C}, I, 0},
+		{"most rejected", []fit.Verdict{C, R, R, R, I}, R, 3},
+		{"half rejected is not most", []fit.Verdict{R, R, C, C}, I, 0},
+		{"small folds abstain", []fit.Verdict{C, C, A, A, A}, C, 2},
+		{"only abstaining folds", []fit.Verdict{A, A, A}, I, 3},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			var certs []*fit.Certificate
+			for _, v := range tc.folds {
+				c := &fit.Certificate{Verdict: v, Strength: fit.Asymptotic, Reason: "r " + string(v) + ".", Validation: &fit.Validation{}}
+				if v == A {
+					c.Verdict, c.ReasonKind = I, fit.ReasonFewEntered
+				}
+				certs = append(certs, c)
+			}
+			combineFolds(certs[0], certs)
+			if got := certs[0].Verdict; got != tc.want || certs[0].Validation.FoldsAgree != tc.agree {
+				t.Errorf("verdict %s with %d agreeing (reason %q), want %s with %d", got, certs[0].Validation.FoldsAgree, certs[0].Reason, tc.want, tc.agree)
+			}
+			if tc.want != C && certs[0].Strength != fit.NoClaim {
+				t.Errorf("strength %s on a %s verdict", certs[0].Strength, tc.want)
+			}
+		})
+	}
+}
+
+// TestVerdictSeeds: with every fold held out once (the default) seeds 1
+// to 10 give the same verdict on the same data, the damped linear
+// oscillator of [Strogatz1994] §5.1 at 1% noise.
+func TestVerdictSeeds(t *testing.T) {
+	if testing.Short() {
+		t.Skip("ten evaluations of five folds each")
+	}
+	ds := simulate(t, damped, 0.01, 4)
+	var first fit.Verdict
+	for seed := uint64(1); seed <= 10; seed++ {
+		res, err := Evaluate(context.Background(), ds, &Options{Seed: seed, Field: &fit.FieldOptions{Bootstrap: -1, Seed: seed},
+			Certify: &fit.CertifyOptions{Seed: seed}})
+		if err != nil {
+			t.Fatal(err)
+		}
+		v := res.Certificate.Verdict
+		t.Logf("seed %d: %s, folds %v held %v: %s", seed, v, res.Certificate.Validation.FoldVerdicts, res.Heldout, res.Certificate.Reason)
+		if seed == 1 {
+			first = v
+		} else if v != first {
+			t.Errorf("seed %d: verdict %s, seed 1 gave %s", seed, v, first)
+		}
+		if n := len(res.Certificate.Validation.FoldVerdicts); n != 5 {
+			t.Errorf("seed %d: %d fold verdicts, want 5", seed, n)
+		}
+	}
+	if first != fit.Certified {
+		t.Errorf("the damped oscillator: %s, want certified", first)
+	}
+}
