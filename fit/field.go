@@ -450,7 +450,10 @@ func Field(ctx context.Context, ds *ingest.Dataset, opts *FieldOptions) (*Model,
 		if err := ctx.Err(); err != nil {
 			return nil, err
 		}
-		reps := pr.bootstrap(o.Bootstrap, o.Seed, taus, lams)
+		reps, err := pr.bootstrap(ctx, o.Bootstrap, o.Seed, taus, lams)
+		if err != nil {
+			return nil, err
+		}
 		m.Bootstrap = o.Bootstrap
 		rc := make([][][]float64, len(reps)) // rc[b][i] raw coefficients
 		for b, rep := range reps {

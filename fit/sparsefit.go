@@ -1,13 +1,13 @@
 package fit
 
 import (
+	"context"
 	"math"
 	"math/rand/v2"
-	"runtime"
 	"sort"
-	"sync"
 
 	"basin.example/fit/internal/gram"
+	"basin.example/internal/parallel"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -359,53 +359,48 @@ const seFloor = 1e-6
 // of the groups (drawn with replacement) and returns each replicate's
 // normalised coefficients (reps[b][i][k]). Replicate b uses its own generator seeded from (seed,
 // b), so the result does not depend on scheduling.
-func (pr *problem) bootstrap(B int, seed uint64, taus, lams []float64) [][][]float64 {
+func (pr *problem) bootstrap(ctx context.Context, B int, seed uint64, taus, lams []float64) ([][][]float64, error) {
 	p, n := pr.p, pr.n
 	R := len(pr.groups)
 	reps := make([][][]float64, B)
-	jobs := make(chan int)
-	var wg sync.WaitGroup
-	for w := 0; w < runtime.GOMAXPROCS(0); w++ {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			sv := newSolver(p)
-			gh, bh, col := make([]float64, p*p), make([]float64, p*n), make([]float64, p)
-			s := newGroupSums(p, n)
-			cnt := make([]int, R)
-			for b := range jobs {
-				rng := rand.New(rand.NewPCG(seed, uint64(b)+1))
-				for g := range cnt {
-					cnt[g] = 0
-				}
-				for range R {
-					cnt[rng.IntN(R)]++
-				}
-				clear(s.G)
-				clear(s.B)
-				clear(s.yy)
-				clear(s.ys)
-				s.rows = 0
-				for g, c := range cnt {
-					if c > 0 {
-						addSums(s, pr.groups[g], float64(c))
-					}
-				}
-				xi := make([][]float64, n)
-				for i := range xi {
-					xi[i] = make([]float64, p)
-				}
-				pr.fitEach(xi, sv, gh, bh, col, s, taus, lams)
-				reps[b] = xi
+	type work struct {
+		sv          *solver
+		gh, bh, col []float64
+		s           *groupSums
+		cnt         []int
+	}
+	newWork := func() *work {
+		return &work{sv: newSolver(p), gh: make([]float64, p*p), bh: make([]float64, p*n), col: make([]float64, p),
+			s: newGroupSums(p, n), cnt: make([]int, R)}
+	}
+	err := parallel.For(ctx, B, 0, newWork, func(_ context.Context, b int, w *work) error {
+		s, cnt := w.s, w.cnt
+		rng := rand.New(rand.NewPCG(seed, uint64(b)+1))
+		for g := range cnt {
+			cnt[g] = 0
+		}
+		for range R {
+			cnt[rng.IntN(R)]++
+		}
+		clear(s.G)
+		clear(s.B)
+		clear(s.yy)
+		clear(s.ys)
+		s.rows = 0
+		for g, c := range cnt {
+			if c > 0 {
+				addSums(s, pr.groups[g], float64(c))
 			}
-		}()
-	}
-	for b := 0; b < B; b++ {
-		jobs <- b
-	}
-	close(jobs)
-	wg.Wait()
-	return reps
+		}
+		xi := make([][]float64, n)
+		for i := range xi {
+			xi[i] = make([]float64, p)
+		}
+		pr.fitEach(xi, w.sv, w.gh, w.bh, w.col, s, taus, lams)
+		reps[b] = xi
+		return nil
+	})
+	return reps, err
 }
 
 // quantile returns the p-quantile of xs (sorted in place), interpolating.
