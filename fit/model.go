@@ -645,3 +645,41 @@ func finite(xs ...float64) bool {
 	}
 	return true
 }
+
+// AtEquilibrium returns a copy of m whose primary equilibrium is
+// m.Equilibria[i] (listed first, with Equilibrium and JacobianEigenvalues
+// set from it), so that [Certify] certifies that one; the other
+// equilibria follow in their order. The copy shares the equations with m.
+// It panics if i is out of range.
+func (m *Model) AtEquilibrium(i int) *Model {
+	e := m.Equilibria[i]
+	c := *m
+	c.Equilibria = append([]Equilibrium{e}, append(append([]Equilibrium(nil), m.Equilibria[:i]...), m.Equilibria[i+1:]...)...)
+	c.Equilibrium = append([]float64(nil), e.Point...)
+	c.JacobianEigenvalues = e.Eigenvalues
+	return &c
+}
+
+// Nearest returns the index in m.Equilibria of the equilibrium nearest x
+// (distance in units of each state's Spread) and that distance, or -1
+// when there is none.
+func (m *Model) Nearest(x []float64) (int, float64) {
+	best, bd := -1, math.Inf(1)
+	for i, e := range m.Equilibria {
+		if len(e.Point) != len(x) {
+			continue
+		}
+		d := 0.0
+		for j, v := range e.Point {
+			s := 1.0
+			if j < len(m.Spread) && m.Spread[j] > 0 {
+				s = m.Spread[j]
+			}
+			d += (v - x[j]) * (v - x[j]) / (s * s)
+		}
+		if d < bd {
+			best, bd = i, d
+		}
+	}
+	return best, math.Sqrt(bd)
+}

@@ -39,6 +39,10 @@ type Options struct {
 	// the state's held-out spread) at which a simulation departs from its
 	// run; 0 means 0.1.
 	DepartTol float64
+	// Equilibrium, when not nil, picks the fitted equilibrium nearest this
+	// point (in the states' units) as the one to certify in every fold;
+	// nil means the one the runs settle on.
+	Equilibrium []float64
 	// AllFolds is the default and kept for older callers: every fold is
 	// held out once (see OneFold).
 	AllFolds bool
@@ -512,6 +516,11 @@ func Evaluate(ctx context.Context, ds *ingest.Dataset, opts *Options) (*Result, 
 		m, err := fit.Field(ctx, fitDS, o.Field)
 		if err != nil {
 			return nil, nil, nil, err
+		}
+		if o.Equilibrium != nil {
+			if k, _ := m.Nearest(o.Equilibrium); k > 0 {
+				m = m.AtEquilibrium(k)
+			}
 		}
 		o.progress("certifying"+of, at(progressField))
 		cert, err := fit.Certify(ctx, m, fitDS, o.Certify)

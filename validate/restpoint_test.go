@@ -1,0 +1,41 @@
+package validate
+
+import (
+	"context"
+	"math"
+	"math/rand/v2"
+	"testing"
+
+	"basin.example/fit"
+)
+
+// TestEvaluateEachWell: the two-well Duffing oscillator x'' + 0.5 x' - x
+// + x³ = 0 ([GuckenheimerHolmes1983] §2.2: stable rest points at x = ±1,
+// a saddle at 0), 30 runs that settle in either well. Options.Equilibrium
+// picks each well in turn: the certificate is about that well, and when
+// it has a region, the region does not hold the saddle. (At this commit
+// no V of degree 2 is found at either well, so the saddle check has no
+// region to look at; the equilibrium check always applies.)
+func TestEvaluateEachWell(t *testing.T) {
+	if testing.Short() {
+		t.Skip("two evaluations of five folds each")
+	}
+	sys := system{name: "two-well", f: func(d []float64, _ float64, x []float64) { d[0] = x[1]; d[1] = x[0] - 0.5*x[1] - x[0]*x[0]*x[0] },
+		states: []string{"x", "v"}, x0: func(r *rand.Rand) []float64 { return box(r, 2, 2) }, dur: 20, rate: 50, runs: 30}
+	ds := simulate(t, sys, 0.003, 5)
+	for _, well := range []float64{1, -1} {
+		res, err := Evaluate(context.Background(), ds, &Options{Equilibrium: []float64{well, 0}, Field: &fit.FieldOptions{Bootstrap: -1}})
+		if err != nil {
+			t.Fatal(err)
+		}
+		c := res.Certificate
+		t.Logf("well %+g: %s at %.4g: %s", well, c.Verdict, c.Equilibrium, c.Reason)
+		if !(math.Abs(c.Equilibrium[0]-well) <= 0.02) || !(math.Abs(c.Equilibrium[1]) <= 0.02) {
+			t.Errorf("well %+g: certificate at %v", well, c.Equilibrium)
+		}
+		z := c.Z(make([]float64, 2), []float64{0, 0})
+		if c.Level > 0 && c.Inside([]float64{0, 0}, c.V.Eval(z)) {
+			t.Errorf("well %+g: the region holds the saddle (0, 0)", well)
+		}
+	}
+}
