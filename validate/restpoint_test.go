@@ -9,7 +9,7 @@ import (
 	"basin.example/fit"
 )
 
-// TestEvaluateEachWell: the two-well Duffing oscillator x'' + 0.5 x' - x
+// TestEvaluateEachWell: the two-well Duffing oscillator x” + 0.5 x' - x
 // + x³ = 0 ([GuckenheimerHolmes1983] §2.2: stable rest points at x = ±1,
 // a saddle at 0), 30 runs that settle in either well. Options.Equilibrium
 // picks each well in turn: the certificate is about that well, and when
