@@ -321,3 +321,37 @@ func BenchmarkReadCSVSideBySide(b *testing.B) {
 	b.ReportMetric(basin.Seconds()/float64(b.N), "basin-s")
 	b.ReportMetric(naive.Seconds()/float64(b.N), "naive-s")
 }
+
+// BenchmarkEventsSideBySide reads the benchmark file with the event and
+// resting-start passes (the default) and without them (KeepEvents,
+// KeepHead), interleaved in one run, and reports the cost of the passes
+// as a ratio.
+func BenchmarkEventsSideBySide(b *testing.B) {
+	path, _ := benchFiles(b)
+	var with, without time.Duration
+	read := func(opts *Options, d *time.Duration) {
+		f, _ := os.Open(path)
+		defer f.Close()
+		t0 := time.Now()
+		ds, err := ReadCSV(f, path, opts)
+		if err != nil || ds.Samples() < benchRows*99/100 {
+			b.Fatal(err)
+		}
+		*d += time.Since(t0)
+	}
+	keep := &Options{KeepEvents: true, KeepHead: true}
+	i := 0
+	for b.Loop() {
+		if i%2 == 0 {
+			read(nil, &with)
+			read(keep, &without)
+		} else {
+			read(keep, &without)
+			read(nil, &with)
+		}
+		i++
+	}
+	b.ReportMetric(with.Seconds()/without.Seconds(), "x-without")
+	b.ReportMetric(with.Seconds()/float64(b.N), "with-s")
+	b.ReportMetric(without.Seconds()/float64(b.N), "without-s")
+}
