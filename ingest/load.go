@@ -2,13 +2,14 @@ package ingest
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"os"
 	"path/filepath"
-	"runtime"
 	"slices"
 	"strings"
-	"sync"
+
+	"basin.example/internal/parallel"
 )
 
 // readable says whether a file found in a folder is read.
@@ -120,59 +121,19 @@ func Load(ctx context.Context, paths []string, opts *Options) (*Dataset, error) 
 	if stdin > 1 {
 		return nil, fmt.Errorf("%w: \"-\" (stdin) given %d times", ErrFormat, stdin)
 	}
-	// Each file has its own context: a failure cancels only the files
-	// after it, so the error returned is always the earliest bad file's,
-	// whatever the timing.
-	ctxs := make([]context.Context, len(files))
-	cancels := make([]context.CancelFunc, len(files))
-	for i := range files {
-		ctxs[i], cancels[i] = context.WithCancel(ctx)
-		defer cancels[i]()
+	// Files are read in parallel; a failure cancels only the files after
+	// it, so the error returned is always the earliest bad file's,
+	// whatever the timing, and a panic in a reader is an error naming the
+	// file, not a crash with the bad-input exit code.
+	dss, err := parallel.Map(ctx, len(files), 0, func(ctx context.Context, i int) (*Dataset, error) {
+		return readFile(ctx, files[i], opts)
+	})
+	var pe *parallel.PanicError
+	if errors.As(err, &pe) {
+		return nil, fmt.Errorf("internal error reading %s: %v", files[pe.Index], pe.Value)
 	}
-	var mu sync.Mutex
-	firstBad := len(files)
-	fail := func(i int) {
-		mu.Lock()
-		defer mu.Unlock()
-		if i < firstBad {
-			for j := i + 1; j < firstBad; j++ {
-				cancels[j]()
-			}
-			firstBad = i
-		}
-	}
-	dss := make([]*Dataset, len(files))
-	errs := make([]error, len(files))
-	sem := make(chan struct{}, runtime.GOMAXPROCS(0))
-	var wg sync.WaitGroup
-	for i, f := range files {
-		wg.Add(1)
-		sem <- struct{}{}
-		go func() {
-			defer wg.Done()
-			defer func() { <-sem }()
-			defer func() {
-				// A panic here would end the program with the bad-input
-				// exit code and a stack trace: return it as an error.
-				if r := recover(); r != nil {
-					errs[i] = fmt.Errorf("internal error reading %s: %v", f, r)
-					fail(i)
-				}
-			}()
-			dss[i], errs[i] = readFile(ctxs[i], f, opts)
-			if errs[i] != nil && ctxs[i].Err() == nil {
-				fail(i)
-			}
-		}()
-	}
-	wg.Wait()
-	if err := ctx.Err(); err != nil {
+	if err != nil {
 		return nil, err
-	}
-	for _, err := range errs {
-		if err != nil {
-			return nil, err
-		}
 	}
 	out := dss[0]
 	for i, ds := range dss[1:] {
