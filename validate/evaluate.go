@@ -103,6 +103,11 @@ func (o *Options) get() Options {
 	return r
 }
 
+// farEquilibrium: a requested equilibrium more than this many spreads
+// (robust scale per state, Euclidean over states) from every fitted one
+// names none of them.
+const farEquilibrium = 0.5
+
 // MinRuns is the fewest runs that allow a held-out verdict.
 const MinRuns = 3
 
@@ -518,7 +523,11 @@ func Evaluate(ctx context.Context, ds *ingest.Dataset, opts *Options) (*Result, 
 			return nil, nil, nil, err
 		}
 		if o.Equilibrium != nil {
-			if k, _ := m.Nearest(o.Equilibrium); k > 0 {
+			k, d := m.Nearest(o.Equilibrium)
+			if k < 0 || d > farEquilibrium {
+				return nil, nil, nil, fmt.Errorf("%w: no equilibrium of the fitted model near %v (the nearest is %.3g spreads away)", ErrOptions, o.Equilibrium, d)
+			}
+			if k > 0 {
 				m = m.AtEquilibrium(k)
 			}
 		}

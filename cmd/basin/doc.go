@@ -89,6 +89,10 @@ prints the summary. The same input and --seed give byte-identical outputs.
 	--all-folds         hold every fold out once and certify only when all
 	                    folds certify (default true; --all-folds=false fits
 	                    only the released split: faster, seed-dependent)
+	--equilibrium name=value,...
+	                    certify the fitted equilibrium nearest this point
+	                    (every state named) instead of the one the runs
+	                    settle on; none within half a spread: exit 2
 	--plane a,b         the states of the report's phase plane
 	--seed N            random seed (default 1)
 	--quiet, --json     as above; --json prints certificate.json

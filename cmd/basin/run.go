@@ -6,7 +6,9 @@ import (
 	"flag"
 	"fmt"
 	"io"
+	"math"
 	"path/filepath"
+	"strconv"
 	"strings"
 
 	"basin.example/cmd/basin/internal/report"
@@ -29,6 +31,7 @@ type runFlags struct {
 	MinDecrease float64
 	Beta        float64
 	Plane       string
+	Equilibrium string
 	AllFolds    bool
 }
 
@@ -43,6 +46,7 @@ func (f *runFlags) register(fs *flag.FlagSet) {
 	fs.IntVar(&f.Folds, "folds", defaultFolds, "held-out folds `K`, by run: about one run in K is held out")
 	fs.Float64Var(&f.MinDecrease, "min-decrease", defaultMinDecr, "share `F` of held-out pairs on which V must fall for certified")
 	fs.Float64Var(&f.Beta, "beta", defaultBeta, "scenario bound holds with confidence 1-`B`")
+	fs.StringVar(&f.Equilibrium, "equilibrium", "", "certify the fitted equilibrium nearest `name=value,...` (every state named; default: the one the runs settle on)")
 	fs.StringVar(&f.Plane, "plane", "", "states `a,b` of the report's phase plane (default: the two with most variance)")
 	fs.BoolVar(&f.AllFolds, "all-folds", true, "hold every fold out once and certify only when all folds agree (false: fit only the released split; faster, but the verdict may depend on --seed)")
 }
@@ -89,6 +93,41 @@ func (f *runFlags) options() (*validate.Options, error) {
 		Folds: f.Folds, Seed: f.Seed, Beta: f.Beta, MinDecrease: f.MinDecrease, AllFolds: f.AllFolds, OneFold: !f.AllFolds,
 		Field: fo, Certify: co,
 	}, nil
+}
+
+// equilibrium resolves --equilibrium name=value,... against the states.
+func (c *runFlags) equilibrium(states []ingest.Column) ([]float64, error) {
+	if c.Equilibrium == "" {
+		return nil, nil
+	}
+	x := make([]float64, len(states))
+	set := make([]bool, len(states))
+	for _, part := range strings.Split(c.Equilibrium, ",") {
+		name, val, ok := strings.Cut(strings.TrimSpace(part), "=")
+		if !ok {
+			return nil, usagef("--equilibrium needs name=value pairs, got %q", part)
+		}
+		k := -1
+		for j, s := range states {
+			if s.Name == strings.TrimSpace(name) {
+				k = j
+			}
+		}
+		if k < 0 {
+			return nil, usagef("--equilibrium: no state %q", name)
+		}
+		v, err := strconv.ParseFloat(strings.TrimSpace(val), 64)
+		if err != nil || math.IsNaN(v) || math.IsInf(v, 0) {
+			return nil, usagef("--equilibrium: %s=%q is not a finite number", name, val)
+		}
+		x[k], set[k] = v, true
+	}
+	for j, s := range states {
+		if !set[j] {
+			return nil, usagef("--equilibrium: no value for state %q", s.Name)
+		}
+	}
+	return x, nil
 }
 
 // plane resolves --plane against the state names.
@@ -169,6 +208,9 @@ func runRun(ctx context.Context, e *env, args []string) error {
 		return err
 	}
 	if err := c.checkV(len(ds.States), c.VDegree); err != nil {
+		return err
+	}
+	if opts.Equilibrium, err = c.equilibrium(ds.States); err != nil {
 		return err
 	}
 	plane, err := c.plane(ds.States)
