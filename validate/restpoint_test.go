@@ -39,3 +39,47 @@ func TestEvaluateEachWell(t *testing.T) {
 		}
 	}
 }
+
+// TestEvaluateAllWells: on the same two-well data ([GuckenheimerHolmes1983]
+// §2.2), EvaluateAll gives one result per well, the well more runs
+// settle at first, each certificate at its own well (within 0.02 of
+// x = ±1, v = 0; noise 0.003), with no region holding the saddle.
+func TestEvaluateAllWells(t *testing.T) {
+	if testing.Short() {
+		t.Skip("two evaluations of five folds each")
+	}
+	sys := system{name: "two-well", f: func(d []float64, _ float64, x []float64) { d[0] = x[1]; d[1] = x[0] - 0.5*x[1] - x[0]*x[0]*x[0] },
+		states: []string{"x", "v"}, x0: func(r *rand.Rand) []float64 { return box(r, 2, 2) }, dur: 20, rate: 50, runs: 30}
+	ds := simulate(t, sys, 0.003, 5)
+	all, skips, err := EvaluateAll(context.Background(), ds, &Options{Field: &fit.FieldOptions{Bootstrap: -1}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, s := range skips {
+		t.Logf("skipped %v (%d runs): %s", s.Rest.Point, s.Rest.Runs, s.Why)
+	}
+	if len(all) != 2 {
+		t.Fatalf("%d results, want one per well", len(all))
+	}
+	if !(all[0].Rest.Runs >= all[1].Rest.Runs) || all[1].Rest.Runs == 0 {
+		t.Errorf("runs settling: %d then %d, want falling and both > 0", all[0].Rest.Runs, all[1].Rest.Runs)
+	}
+	if !(all[0].Certificate.Equilibrium[0]*all[1].Certificate.Equilibrium[0] < 0) {
+		t.Errorf("both certificates in one well: %v and %v", all[0].Certificate.Equilibrium, all[1].Certificate.Equilibrium)
+	}
+	for i, r := range all {
+		c := r.Certificate
+		t.Logf("%d: %s at %.4g, %d runs: %s", i, c.Verdict, c.Equilibrium, r.Rest.Runs, c.Reason)
+		well := math.Copysign(1, c.Equilibrium[0])
+		if !(math.Abs(c.Equilibrium[0]-well) <= 0.02) || !(math.Abs(c.Equilibrium[1]) <= 0.02) {
+			t.Errorf("%d: certificate at %v", i, c.Equilibrium)
+		}
+		if !(math.Abs(r.Rest.Point[0]-well) <= 0.05) {
+			t.Errorf("%d: rest point %v for a certificate at %v", i, r.Rest.Point, c.Equilibrium)
+		}
+		z := c.Z(make([]float64, 2), []float64{0, 0})
+		if c.Level > 0 && c.Inside([]float64{0, 0}, c.V.Eval(z)) {
+			t.Errorf("%d: the region holds the saddle (0, 0)", i)
+		}
+	}
+}

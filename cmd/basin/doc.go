@@ -67,6 +67,14 @@ runs, checks the certificate on the held-out runs, and gives the verdict
 certificate.json, report.html and summary.txt into --out as one set, and
 prints the summary. The same input and --seed give byte-identical outputs.
 
+When the runs settle at several rest points, certificate.json is about the
+one most runs settle at (or the one --equilibrium names), and each other
+stable rest point runs settle at gets its own complete certificate in the
+same set, certificate-2.json, certificate-3.json, ..., in falling order of
+the runs settling there; the summary has a section per rest point (file,
+verdict, runs settling there, region) and says which got none and why,
+and the report's phase plane draws every region.
+
 	--out DIR           the output folder (default basin-out)
 	--degree N          highest degree of the field's polynomial terms, 1..8
 	                    (default 3)
@@ -91,8 +99,9 @@ prints the summary. The same input and --seed give byte-identical outputs.
 	                    only the released split: faster, seed-dependent)
 	--equilibrium name=value,...
 	                    certify the fitted equilibrium nearest this point
-	                    (every state named) instead of the one the runs
-	                    settle on; none within half a spread: exit 2
+	                    (every state named) for certificate.json instead of
+	                    the one most runs settle on; none within half a
+	                    spread: exit 2
 	--plane a,b         the states of the report's phase plane
 	--seed N            random seed (default 1)
 	--quiet, --json     as above; --json prints certificate.json

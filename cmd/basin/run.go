@@ -46,7 +46,7 @@ func (f *runFlags) register(fs *flag.FlagSet) {
 	fs.IntVar(&f.Folds, "folds", defaultFolds, "held-out folds `K`, by run: about one run in K is held out")
 	fs.Float64Var(&f.MinDecrease, "min-decrease", defaultMinDecr, "share `F` of held-out pairs on which V must fall for certified")
 	fs.Float64Var(&f.Beta, "beta", defaultBeta, "scenario bound holds with confidence 1-`B`")
-	fs.StringVar(&f.Equilibrium, "equilibrium", "", "certify the fitted equilibrium nearest `name=value,...` (every state named; default: the one the runs settle on)")
+	fs.StringVar(&f.Equilibrium, "equilibrium", "", "certify in certificate.json the fitted equilibrium nearest `name=value,...` (every state named; default: the one most runs settle on)")
 	fs.StringVar(&f.Plane, "plane", "", "states `a,b` of the report's phase plane (default: the two with most variance)")
 	fs.BoolVar(&f.AllFolds, "all-folds", true, "hold every fold out once and certify only when all folds agree (false: fit only the released split; faster, but the verdict may depend on --seed)")
 }
@@ -62,7 +62,11 @@ gives the verdict: certified, rejected or inconclusive, with its strength.
 
 Writes, atomically, into --out: model.json, certificate.json, report.html
 and summary.txt, and prints the summary. The same input and --seed give
-byte-identical outputs.
+byte-identical outputs. When the runs settle at several rest points,
+certificate.json is about the one most runs settle at (or --equilibrium's),
+and each other stable one gets its own certificate in the same set,
+certificate-2.json, certificate-3.json, ..., in falling order of the runs
+settling there; the summary has a section for each.
 
 The verdict is empirical evidence from recorded samples, not a proof;
 safety-relevant decisions defer to the applicable codes and to licensed
@@ -218,10 +222,11 @@ func runRun(ctx context.Context, e *env, args []string) error {
 		return err
 	}
 	opts.Progress = prog.Share
-	res, err := validate.Evaluate(ctx, ds, opts)
+	all, skips, err := validate.EvaluateAll(ctx, ds, opts)
 	if err != nil {
 		return classify(err, "")
 	}
+	res := all[0].Result
 	if err := ctx.Err(); err != nil {
 		return err
 	}
@@ -234,6 +239,30 @@ func runRun(ctx context.Context, e *env, args []string) error {
 	cert.Settings = settings
 	in := &report.Input{Model: m, Cert: cert, Data: ds, Heldout: res.Heldout, Checks: res.Runs,
 		Settings: settings, Plane: plane}
+	// Several rest points: certificate-2.json, ... for the others.
+	files := []atomicFile{
+		{Name: "model.json", Write: jsonWriter(m)},
+		{Name: "certificate.json", Write: jsonWriter(cert)},
+	}
+	names := []string{"model.json", "certificate.json"}
+	if len(all) > 1 || len(skips) > 0 {
+		in.Rests = append(in.Rests, report.Rest{File: "certificate.json", Cert: cert, Runs: all[0].Rest.Runs})
+		for i, r := range all[1:] {
+			ci := r.Certificate
+			if ci.V.Exponents == nil {
+				ci.V = poly.Poly{Exponents: [][]int{}, Coefficients: []float64{}}
+			}
+			ci.Settings = settings
+			name := fmt.Sprintf("certificate-%d.json", i+2)
+			files = append(files, atomicFile{Name: name, Write: jsonWriter(ci)})
+			names = append(names, name)
+			in.Rests = append(in.Rests, report.Rest{File: name, Cert: ci, Runs: r.Rest.Runs})
+		}
+		for _, s := range skips {
+			in.Skipped = append(in.Skipped, fmt.Sprintf("the rest point at %s (%d runs settle there): %s",
+				report.StatePoint(cert, s.Rest.Point), s.Rest.Runs, s.Why))
+		}
+	}
 	// Render everything in memory first: a failure leaves nothing behind.
 	var html, summary bytes.Buffer
 	if err := report.HTML(&html, in); err != nil {
@@ -245,12 +274,12 @@ func runRun(ctx context.Context, e *env, args []string) error {
 	if err := ctx.Err(); err != nil {
 		return err
 	}
-	err = writeAtomic(c.Out,
-		atomicFile{Name: "model.json", Write: jsonWriter(m)},
-		atomicFile{Name: "certificate.json", Write: jsonWriter(cert)},
+	files = append(files,
 		atomicFile{Name: "report.html", Write: bytesWriter(html.Bytes())},
 		atomicFile{Name: "summary.txt", Write: bytesWriter(summary.Bytes())},
 	)
+	names = append(names, "report.html", "summary.txt")
+	err = writeAtomic(c.Out, files...)
 	if err != nil {
 		return err
 	}
@@ -262,7 +291,7 @@ func runRun(ctx context.Context, e *env, args []string) error {
 		return nil
 	}
 	e.stdout.Write(summary.Bytes())
-	fmt.Fprintf(e.stdout, "\nwrote %s (model.json, certificate.json, report.html, summary.txt)\n", c.Out)
+	fmt.Fprintf(e.stdout, "\nwrote %s (%s)\n", c.Out, strings.Join(names, ", "))
 	fmt.Fprintf(e.stdout, "report: %s\n", filepath.Join(c.Out, "report.html"))
 	return nil
 }

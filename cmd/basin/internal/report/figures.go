@@ -248,6 +248,25 @@ func planeFigure(in *Input, pl [2]int, closeUp bool) (*figure, error) {
 			p.Add(l)
 		}
 	}
+	// The other rest points' regions, thinner, in the same ink.
+	for _, r := range in.Rests {
+		o := r.Cert
+		if o == c || o == nil || len(o.V.Exponents) == 0 || !(o.Level > 0) || len(o.States) != len(c.States) {
+			continue
+		}
+		for _, line := range regionBoundary(o, a, b, x0, x1, y0, y1) {
+			xy := make(plotter.XYs, len(line))
+			for k, q := range line {
+				xy[k] = plotter.XY{X: q[0], Y: q[1]}
+			}
+			l, err := plotter.NewLine(xy)
+			if err != nil {
+				return nil, err
+			}
+			l.LineStyle = lineStyle(inkRegion, 1.6, 5, 2)
+			p.Add(l)
+		}
+	}
 	if m := in.Model; m != nil && len(m.Equilibria) > 1 {
 		byClass := map[string]plotter.XYs{}
 		for _, e := range m.Equilibria[1:] {

@@ -42,6 +42,21 @@ type Input struct {
 	Plane []int
 	// Title heads the page. Empty means "basin report".
 	Title string
+	// Rests lists every rest point certified, the primary (Cert) first,
+	// when there are several; empty means Cert is the only one. The
+	// summary gives a section to each and the phase plane draws each
+	// region.
+	Rests []Rest
+	// Skipped lists, one sentence each, rest points the runs settle at
+	// that got no certificate.
+	Skipped []string
+}
+
+// Rest is one certified rest point of a run with several.
+type Rest struct {
+	File string           // the certificate's file name
+	Cert *fit.Certificate // the certificate
+	Runs int              // runs that settle there (0: none settle near it)
 }
 
 // ErrInput is returned when an Input cannot make a report.

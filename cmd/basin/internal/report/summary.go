@@ -97,9 +97,40 @@ func Summary(w io.Writer, in *Input) error {
 	if len(in.Checks) > 0 {
 		fmt.Fprintf(&b, "checked runs: %d, flagged: %d\n", len(in.Checks), flagged)
 	}
+	restSections(&b, in)
 	fmt.Fprintf(&b, "caveat: %s\n", fit.Caveat)
 	_, err := io.WriteString(w, b.String())
 	return err
+}
+
+// restSections writes a section per rest point when there are several.
+func restSections(b *strings.Builder, in *Input) {
+	if len(in.Rests) == 0 && len(in.Skipped) == 0 {
+		return
+	}
+	fmt.Fprintf(b, "rest points: %d certificate(s), in falling order of the runs settling there\n", len(in.Rests))
+	for _, r := range in.Rests {
+		c := r.Cert
+		fmt.Fprintf(b, "  %s: rest point %s\n", r.File, statePoint(c, c.Equilibrium))
+		fmt.Fprintf(b, "    verdict: %s (strength %s)\n", c.Verdict, c.Strength)
+		fmt.Fprintf(b, "    runs settling there: %d\n", r.Runs)
+		if c.Level > 0 && len(c.Region.Extent) == len(c.States) {
+			fmt.Fprintf(b, "    region {V <= %s}:", human.Num(c.Level))
+			for j, s := range c.States {
+				e := c.Region.Extent[j]
+				if j > 0 {
+					b.WriteString(",")
+				}
+				fmt.Fprintf(b, " %s from %s to %s%s", s, human.Near(e[0], c.Scale[j]), human.Near(e[1], c.Scale[j]), spaceUnit(c.Units[j]))
+			}
+			b.WriteString("\n")
+		} else {
+			b.WriteString("    region: none certified\n")
+		}
+	}
+	for _, s := range in.Skipped {
+		fmt.Fprintf(b, "  no certificate: %s\n", s)
+	}
 }
 
 // StatePoint writes x as "theta = 0.1 rad, omega = 0 rad/s", each

@@ -1,0 +1,167 @@
+package main
+
+import (
+	"bytes"
+	"context"
+	"encoding/json"
+	"fmt"
+	"math"
+	"math/rand/v2"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+
+	"basin.example/fit"
+)
+
+// writeTwoWell writes runs of the two-well Duffing oscillator
+// x” + 0.5 x' - x + x³ = 0 ([GuckenheimerHolmes1983] §2.2: stable rest
+// points at x = ±1, v = 0, a saddle at the origin) into dir, RK4 at
+// 50 Hz for 20 s each, with Gaussian noise of sd noise on every cell.
+// Starts are uniform in [-2, 2]²; the first left runs start at x < 0,
+// the rest at x > 0, with v of the same sign. It returns how many runs
+// end (noise-free) at x > 0. With linear set the system is instead the
+// damped oscillator x” + 0.5 x' + x = 0, one rest point at the origin.
+func writeTwoWell(t *testing.T, dir string, runs, left int, noise float64, linear bool) (right int) {
+	t.Helper()
+	rng := rand.New(rand.NewPCG(11, 0))
+	f := func(x []float64) []float64 { return []float64{x[1], x[0] - 0.5*x[1] - x[0]*x[0]*x[0]} }
+	if linear {
+		f = func(x []float64) []float64 { return []float64{x[1], -x[0] - 0.5*x[1]} }
+	}
+	for r := 0; r < runs; r++ {
+		s := 1.0
+		if r < left {
+			s = -1
+		}
+		x := []float64{s * (0.5 + 1.5*rng.Float64()), s * 1.5 * rng.Float64()}
+		var b strings.Builder
+		b.WriteString("t,x,v\n")
+		const h = 0.02
+		for i := 0; i < 1000; i++ {
+			fmt.Fprintf(&b, "%.2f,%.6g,%.6g\n", float64(i)*h, x[0]+noise*rng.NormFloat64(), x[1]+noise*rng.NormFloat64())
+			for k := 0; k < 4; k++ {
+				rk4Step(f, x, h/4)
+			}
+		}
+		if err := os.WriteFile(filepath.Join(dir, fmt.Sprintf("run%02d.csv", r)), []byte(b.String()), 0o644); err != nil {
+			t.Fatal(err)
+		}
+		if x[0] > 0 {
+			right++
+		}
+	}
+	return right
+}
+
+func readCert(t *testing.T, path string) *fit.Certificate {
+	t.Helper()
+	b, err := os.ReadFile(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	c := new(fit.Certificate)
+	if err := json.Unmarshal(b, c); err != nil {
+		t.Fatalf("%s: %v", path, err)
+	}
+	return c
+}
+
+// TestRunTwoWells: basin run on the two-well oscillator writes a
+// certificate per well, the well more runs settle at in
+// certificate.json, and --equilibrium swaps them. Neither region holds
+// the saddle (0, 0), and each is about its own well (within 0.05 of
+// x = ±1, v = 0: the noise is 0.002 against a unit well distance).
+func TestRunTwoWells(t *testing.T) {
+	if testing.Short() {
+		t.Skip("four evaluations of five folds each")
+	}
+	data := t.TempDir()
+	right := writeTwoWell(t, data, 30, 12, 0.002, false)
+	most, fewer := 1.0, right
+	if right < 30-right {
+		most, fewer = -1, right
+	} else {
+		fewer = 30 - right
+	}
+	if right == 15 {
+		t.Fatal("the runs split evenly: change the starts")
+	}
+	for _, tc := range []struct {
+		name    string
+		args    []string
+		primary float64 // x of the well in certificate.json
+	}{
+		{"most settled", nil, most},
+		{"picked", []string{"--equilibrium", fmt.Sprintf("x=%g,v=0", -most)}, -most},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			out := filepath.Join(t.TempDir(), "out")
+			args := append([]string{"run", "--quiet", "--out", out}, tc.args...)
+			var so, se bytes.Buffer
+			if code := basinMain(context.Background(), append(args, data), &so, &se); code != 0 {
+				t.Fatalf("exit %d: %s", code, se.String())
+			}
+			for i, name := range []string{"certificate.json", "certificate-2.json"} {
+				c := readCert(t, filepath.Join(out, name))
+				want := tc.primary
+				if i == 1 {
+					want = -want
+				}
+				t.Logf("%s: %s (%s) at %.4g, level %.3g: %s", name, c.Verdict, c.Strength, c.Equilibrium, c.Level, c.Reason)
+				if len(c.Equilibrium) != 2 || !(math.Abs(c.Equilibrium[0]-want) <= 0.05) || !(math.Abs(c.Equilibrium[1]) <= 0.05) {
+					t.Errorf("%s: equilibrium %v, want (%g, 0)", name, c.Equilibrium, want)
+				}
+				z := c.Z(make([]float64, 2), []float64{0, 0})
+				if c.Level > 0 && c.Inside([]float64{0, 0}, c.V.Eval(z)) {
+					t.Errorf("%s: the region holds the saddle (0, 0)", name)
+				}
+				// Noise 0.002 against wells of unit size: each well is
+				// certified (measured: both asymptotic, 3 to 4 of 5 folds).
+				if c.Verdict != fit.Certified {
+					t.Errorf("%s: %s, want certified: %s", name, c.Verdict, c.Reason)
+				}
+			}
+			if _, err := os.Stat(filepath.Join(out, "certificate-3.json")); err == nil {
+				t.Error("certificate-3.json written for a system with two stable rest points")
+			}
+			sum, err := os.ReadFile(filepath.Join(out, "summary.txt"))
+			if err != nil {
+				t.Fatal(err)
+			}
+			for _, want := range []string{"rest points: 2 certificate(s)", "certificate-2.json: rest point", fmt.Sprintf("runs settling there: %d", 30-fewer), fmt.Sprintf("runs settling there: %d", fewer)} {
+				if !strings.Contains(string(sum), want) {
+					t.Errorf("summary.txt lacks %q:\n%s", want, sum)
+				}
+			}
+		})
+	}
+}
+
+// TestRunOneRest: a system with one rest point (the damped oscillator
+// x” + 0.5 x' + x = 0, common textbook example) gets certificate.json
+// only, and no rest-point sections in the summary.
+func TestRunOneRest(t *testing.T) {
+	if testing.Short() {
+		t.Skip("an evaluation of five folds")
+	}
+	data := t.TempDir()
+	writeTwoWell(t, data, 12, 6, 0.002, true)
+	out := filepath.Join(t.TempDir(), "out")
+	var so, se bytes.Buffer
+	if code := basinMain(context.Background(), []string{"run", "--quiet", "--out", out, data}, &so, &se); code != 0 {
+		t.Fatalf("exit %d: %s", code, se.String())
+	}
+	readCert(t, filepath.Join(out, "certificate.json"))
+	if _, err := os.Stat(filepath.Join(out, "certificate-2.json")); !os.IsNotExist(err) {
+		t.Errorf("certificate-2.json for one rest point (stat: %v)", err)
+	}
+	sum, err := os.ReadFile(filepath.Join(out, "summary.txt"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if strings.Contains(string(sum), "rest points:") {
+		t.Errorf("summary has rest-point sections for one rest point:\n%s", sum)
+	}
+}

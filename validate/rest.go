@@ -1,0 +1,101 @@
+package validate
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"strings"
+
+	"basin.example/ingest"
+)
+
+// RestResult is the evaluation of one rest point (see [EvaluateAll]).
+type RestResult struct {
+	*Result
+	// Rest is the cluster of settle points this certificate is about;
+	// Rest.Runs is 0 when no cluster lies near the certified equilibrium
+	// (Options.Equilibrium named a point no run settles at, or no run
+	// settles).
+	Rest ingest.RestPoint
+}
+
+// RestSkip is a rest point the runs settle at that gets no certificate,
+// and why.
+type RestSkip struct {
+	Rest ingest.RestPoint
+	Why  string
+}
+
+// EvaluateAll evaluates every stable rest point the runs of ds settle at
+// (clusters of [ingest.RestPoints]), one [Evaluate] each with
+// Options.Equilibrium at the cluster. The first result is the primary:
+// the fitted equilibrium nearest opts.Equilibrium when it is set, else
+// the one nearest the rest point most runs settle at (falling back to
+// Evaluate's own choice when no fitted equilibrium lies near it). The
+// others follow in falling order of the runs that settle there. A
+// cluster is skipped, with the reason, when the primary's model has no
+// equilibrium within farEquilibrium spreads of it, when that equilibrium
+// is not a stable one, or when it is one already evaluated. Errors are
+// those of Evaluate.
+func EvaluateAll(ctx context.Context, ds *ingest.Dataset, opts *Options) ([]RestResult, []RestSkip, error) {
+	rps := ingest.RestPoints(ds)
+	o := opts.get()
+	first := o
+	if first.Equilibrium == nil && len(rps) > 0 {
+		first.Equilibrium = rps[0].Point
+	}
+	res, err := Evaluate(ctx, ds, &first)
+	if err != nil && opts.getEquilibrium() == nil && first.Equilibrium != nil && errors.Is(err, ErrOptions) {
+		// No fitted equilibrium near the largest cluster: certify the
+		// one Evaluate picks.
+		res, err = Evaluate(ctx, ds, &o)
+	}
+	if err != nil {
+		return nil, nil, err
+	}
+	m := res.Model
+	// done holds the fitted equilibria evaluated, as indices into the
+	// primary's model (0 is the primary's own).
+	done := map[int]bool{0: true}
+	out := []RestResult{{Result: res}}
+	var skips []RestSkip
+	var rest []int
+	for i, rp := range rps {
+		k, d := m.Nearest(rp.Point)
+		switch {
+		case k < 0 || d > farEquilibrium:
+			skips = append(skips, RestSkip{rp, fmt.Sprintf("no equilibrium of the fitted model near it (the nearest is %.3g spreads away)", d)})
+		case k == 0 && out[0].Rest.Runs == 0:
+			out[0].Rest = rp
+		case done[k]:
+			skips = append(skips, RestSkip{rp, "the same fitted equilibrium as an earlier rest point"})
+		case !strings.HasPrefix(m.Equilibria[k].Class, "stable"):
+			skips = append(skips, RestSkip{rp, fmt.Sprintf("the fitted equilibrium there is a %s", m.Equilibria[k].Class)})
+		default:
+			done[k] = true
+			rest = append(rest, i)
+		}
+	}
+	for _, i := range rest {
+		oi := o
+		oi.Equilibrium = rps[i].Point
+		r, err := Evaluate(ctx, ds, &oi)
+		if errors.Is(err, ErrOptions) {
+			// A fold's model has no equilibrium there.
+			skips = append(skips, RestSkip{rps[i], "some fold's fitted model has no equilibrium near it"})
+			continue
+		}
+		if err != nil {
+			return nil, nil, err
+		}
+		out = append(out, RestResult{Result: r, Rest: rps[i]})
+	}
+	return out, skips, nil
+}
+
+func (o *Options) getEquilibrium() []float64 {
+	if o == nil {
+		return nil
+	}
+	return o.Equilibrium
+}
