@@ -137,6 +137,7 @@ func Certify(ctx context.Context, m *Model, ds *ingest.Dataset, opts *CertifyOpt
 	if err := m.validate(); err != nil {
 		return nil, fmt.Errorf("%w: model: %v", ErrMismatch, err)
 	}
+	m = m.AtRest() // a model with inputs is certified at its rest input
 	n := len(m.States)
 	if len(ds.States) != n {
 		return nil, fmt.Errorf("%w: model has %d states, data %d", ErrMismatch, n, len(ds.States))

@@ -44,6 +44,11 @@ type FieldOptions struct {
 	// before the library is built (see [FieldMemory]); 0 means
 	// DefaultMaxMemory.
 	MaxMemory int64
+	// RestInput is the value of each input (Dataset.Inputs) the model is
+	// certified at; nil means the median of each input over the runs'
+	// settled tails (the rig idle), or over every sample when no run
+	// settles (see restInput).
+	RestInput []float64
 }
 
 // DefaultDerivative is the derivative method used when
@@ -222,8 +227,29 @@ func Field(ctx context.Context, ds *ingest.Dataset, opts *FieldOptions) (*Model,
 	if err := o.checkBudget(n+len(ds.Inputs), samples, len(runs)); err != nil {
 		return nil, err
 	}
-	lib := poly.NewLibrary(n, 0, o.Degree)
+	// The library is over the states and the inputs together: the general
+	// polynomial form x' = f(x, u). At degree >= 2 it contains the
+	// control-affine form f(x) + g(x)·u (every x^e·u term with |e| <
+	// degree), and thresholding it costs nothing beyond the extra columns:
+	// terms in u that the data do not support are dropped like any other.
+	q := len(ds.Inputs)
+	for _, r := range runs {
+		if len(r.U) != q {
+			return nil, fmt.Errorf("fit: run %q has %d input columns, want %d", r.Name, len(r.U), q)
+		}
+	}
+	if o.RestInput != nil && len(o.RestInput) != q {
+		return nil, fmt.Errorf("fit: %d rest input values for %d inputs", len(o.RestInput), q)
+	}
+	if !finite(o.RestInput...) {
+		return nil, fmt.Errorf("fit: non-finite rest input")
+	}
+	lib := poly.NewLibrary(n+q, 0, o.Degree)
 	p := lib.Len()
+	vnames := append([]string(nil), names...)
+	for _, c := range ds.Inputs {
+		vnames = append(vnames, c.Name)
+	}
 
 	m := &Model{Format: ModelFormat, States: names, Units: make([]string, n), Degree: o.Degree,
 		Derivative: o.Derivative, Runs: len(runs), Samples: samples}
@@ -232,6 +258,12 @@ func Field(ctx context.Context, ds *ingest.Dataset, opts *FieldOptions) (*Model,
 	}
 	if err := scaleStates(m, runs); err != nil {
 		return nil, err
+	}
+	sc := &varScale{centre: append([]float64(nil), m.Centre...), spread: append([]float64(nil), m.Spread...)}
+	for k, c := range ds.Inputs {
+		m.Inputs = append(m.Inputs, Input{Name: c.Name, Unit: c.Unit})
+		ce, sp := inputScale(runs, k)
+		sc.centre, sc.spread = append(sc.centre, ce), append(sc.spread, sp)
 	}
 	cols := make([][][]float64, n) // cols[j][r] = runs[r].X[j]
 	for j := range cols {
@@ -293,7 +325,7 @@ func Field(ctx context.Context, ds *ingest.Dataset, opts *FieldOptions) (*Model,
 		for g := range groups {
 			groups[g] = newGroupSums(p, n)
 		}
-		if err := accumulate(ctx, groups, groupOf, runs, lib, m, md.half, md.steps, md.name); err != nil {
+		if err := accumulate(ctx, groups, groupOf, runs, lib, m, sc, md.half, md.steps, md.name); err != nil {
 			return nil, err
 		}
 		for _, g := range groups {
@@ -339,9 +371,9 @@ func Field(ctx context.Context, ds *ingest.Dataset, opts *FieldOptions) (*Model,
 
 	// Basis: scaled raw monomials when well enough conditioned (judged on
 	// the first method), else centred.
-	a := make([]float64, n)
+	a := make([]float64, n+q)
 	for j := range a {
-		a[j] = m.Centre[j] / m.Spread[j]
+		a[j] = sc.centre[j] / sc.spread[j]
 	}
 	T := shiftMatrix(lib, a)
 	toRawBasis := func(gs []*groupSums) []*groupSums {
@@ -355,11 +387,11 @@ func Field(ctx context.Context, ds *ingest.Dataset, opts *FieldOptions) (*Model,
 		return out
 	}
 	m.Basis = "raw"
-	shift := make([]float64, n)
+	shift := make([]float64, n+q)
 	raw0 := newProblem(toRawBasis(filter(ms[0].groups)), p, n)
 	if cond := raw0.condition(raw0.total); !(cond <= rawCondMax) {
 		m.Basis = "centred"
-		copy(shift, m.Centre)
+		copy(shift, sc.centre)
 	}
 	for mi, md := range append(ms, score) {
 		if md == nil || (mi == len(ms) && md.pr != nil) {
@@ -418,7 +450,7 @@ func Field(ctx context.Context, ds *ingest.Dataset, opts *FieldOptions) (*Model,
 				beta[k] = x[k] * pr.ySD[i] / pr.colScale[k]
 			}
 		}
-		return rawCoefTo(dst, lib, beta, shift, m.Spread, m.Spread[i])
+		return rawCoefTo(dst, lib, beta, shift, sc.spread, m.Spread[i])
 	}
 	raw := make([][]float64, n)
 	m.Equations = make([]Equation, n)
@@ -477,13 +509,26 @@ func Field(ctx context.Context, ds *ingest.Dataset, opts *FieldOptions) (*Model,
 					}
 				}
 				inc := float64(in) / float64(len(rc))
-				eq.Terms = append(eq.Terms, Term{Name: lib.Name(k, names),
+				eq.Terms = append(eq.Terms, Term{Name: lib.Name(k, vnames),
 					Interval:  [2]float64{quantile(vals, 0.025), quantile(vals, 0.975)},
 					KeptShare: inc, RarelyKept: inc < RarelyKeptShare})
 			}
 		}
 	}
-	equilibria(m, runs)
+	if q > 0 {
+		m.RestInput = o.RestInput
+		if m.RestInput == nil {
+			m.RestInput = restInput(m, runs, q)
+		}
+		m.RestInput = append([]float64(nil), m.RestInput...)
+		// Equilibria and eigenvalues are those of the system at rest input.
+		sm := m.AtRest()
+		equilibria(sm, runs)
+		m.Equilibria, m.Equilibrium, m.JacobianEigenvalues = sm.Equilibria, sm.Equilibrium, sm.JacobianEigenvalues
+		m.Settle, m.SettledRuns, m.Note = sm.Settle, sm.SettledRuns, sm.Note
+	} else {
+		equilibria(m, runs)
+	}
 	// The tolerances built on Noise must hold for the louder runs too:
 	// take the upper end of the runs' own figures.
 	for j := range m.Noise {
@@ -624,7 +669,7 @@ func makeGroups(runs []*ingest.Run, folds int) (func(r, i int) int, int, string)
 // parallel over runs (one goroutine per core; each run's rows go to groups
 // only that run feeds, so no locking).
 func accumulate(ctx context.Context, groups []*groupSums, groupOf func(r, i int) int, runs []*ingest.Run,
-	lib *poly.Library, m *Model, half []int, steps int, method string) error {
+	lib *poly.Library, m *Model, sc *varScale, half []int, steps int, method string) error {
 	n, p := len(m.States), lib.Len()
 	jobs := make(chan int)
 	var wg sync.WaitGroup
@@ -637,7 +682,7 @@ func accumulate(ctx context.Context, groups []*groupSums, groupOf func(r, i int)
 			rb := newRowBuffer(p, n)
 			dw := newDerivWork()
 			work := make([]float64, lib.WorkLen())
-			z := make([]float64, n)
+			z := make([]float64, len(sc.centre))
 			theta := make([]float64, p)
 			var xs, dx [][]float64
 			for r := range jobs {
@@ -680,7 +725,7 @@ func accumulate(ctx context.Context, groups []*groupSums, groupOf func(r, i int)
 					for j := 0; j < n; j++ {
 						copy(xs[j], run.X[j])
 					}
-					integralRows(rb, groups, groupOf, r, run, xs, lib, m, steps, work, z, theta)
+					integralRows(rb, groups, groupOf, r, run, xs, lib, m, sc, steps, work, z, theta)
 					continue
 				}
 				for i := lo; i < hi; i++ {
@@ -688,6 +733,9 @@ func accumulate(ctx context.Context, groups []*groupSums, groupOf func(r, i int)
 					for j := 0; j < n; j++ {
 						z[j] = (xs[j][i] - m.Centre[j]) / m.Spread[j]
 						y[j] = dx[j][i] / m.Spread[j]
+					}
+					for k, u := range run.U {
+						z[n+k] = (u[i] - sc.centre[n+k]) / sc.spread[n+k]
 					}
 					lib.EvalWorkTo(phi, work, z)
 					if !finite(y...) || !finite(phi...) {
@@ -717,7 +765,7 @@ func accumulate(ctx context.Context, groups []*groupSums, groupOf func(r, i int)
 // with an even number of steps, trapezoid otherwise). A last window of at
 // least 2 steps is kept.
 func integralRows(rb *rowBuffer, groups []*groupSums, groupOf func(r, i int) int, r int, run *ingest.Run, xs [][]float64,
-	lib *poly.Library, m *Model, steps int, work, z, theta []float64) {
+	lib *poly.Library, m *Model, sc *varScale, steps int, work, z, theta []float64) {
 	n := len(m.States)
 	L := run.Len()
 	uni, _ := uniformGrid(run.T)
@@ -750,6 +798,9 @@ func integralRows(rb *rowBuffer, groups []*groupSums, groupOf func(r, i int) int
 			}
 			for j := 0; j < n; j++ {
 				z[j] = (xs[j][i] - m.Centre[j]) / m.Spread[j]
+			}
+			for k, u := range run.U {
+				z[n+k] = (u[i] - sc.centre[n+k]) / sc.spread[n+k]
 			}
 			lib.EvalWorkTo(theta, work, z)
 			for k, v := range theta {

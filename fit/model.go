@@ -136,6 +136,13 @@ type Model struct {
 	States    []string   `json:"states"`
 	Units     []string   `json:"units"`
 	Equations []Equation `json:"equations"`
+	// Inputs are the measured non-state columns in the library (see
+	// [FieldOptions] and [Model.AtRest]); each exponent vector then has one
+	// entry per state followed by one per input. RestInput is the input
+	// value the certificate assumes (the rig idle). Both absent without
+	// inputs.
+	Inputs    []Input   `json:"inputs,omitempty"`
+	RestInput []float64 `json:"rest_input,omitempty"`
 	// Equilibrium is the primary equilibrium (the one the runs settle on);
 	// JacobianEigenvalues its linearisation's eigenvalues.
 	Equilibrium         []float64    `json:"equilibrium"`
@@ -200,6 +207,7 @@ type Model struct {
 
 // Field returns the equations as polynomials (raw coordinates).
 func (m *Model) Field() []poly.Poly {
+	m = m.AtRest()
 	out := make([]poly.Poly, len(m.Equations))
 	for i, e := range m.Equations {
 		out[i] = poly.Poly{Exponents: e.Exponents, Coefficients: e.Coefficients}
@@ -210,6 +218,7 @@ func (m *Model) Field() []poly.Poly {
 // EvalTo stores f(x) in dst and returns dst. It is safe for concurrent use
 // but allocates; use a [FieldEvaluator] in loops.
 func (m *Model) EvalTo(dst, x []float64) []float64 {
+	m = m.AtRest()
 	for i, e := range m.Equations {
 		dst[i] = poly.Poly{Exponents: e.Exponents, Coefficients: e.Coefficients}.Eval(x)
 	}
@@ -229,6 +238,7 @@ type FieldEvaluator struct {
 
 // NewFieldEvaluator prepares m for repeated evaluation.
 func NewFieldEvaluator(m *Model) *FieldEvaluator {
+	m = m.AtRest()
 	n := len(m.States)
 	var exps [][]int
 	idx := map[string]int{}
@@ -500,7 +510,7 @@ func ReadModel(r io.Reader) (*Model, error) {
 		return nil, fmt.Errorf("model: %w", err)
 	}
 	for i, e := range m.Equations {
-		if err := checkTerms(fmt.Sprintf("equation %d", i+1), e.Exponents, len(m.States)); err != nil {
+		if err := checkTerms(fmt.Sprintf("equation %d", i+1), e.Exponents, len(m.States)+len(m.Inputs)); err != nil {
 			return nil, fmt.Errorf("model: %w", err)
 		}
 	}
@@ -515,13 +525,22 @@ func (m *Model) validate() error {
 	if n == 0 || len(m.Units) != n || len(m.Equations) != n || len(m.Equilibrium) != n {
 		return errors.New("states, units, equations and equilibrium must have one entry per state")
 	}
+	if len(m.RestInput) != len(m.Inputs) {
+		return fmt.Errorf("rest_input has %d entries, want one per input (%d)", len(m.RestInput), len(m.Inputs))
+	}
+	if !finite(m.RestInput...) {
+		return errors.New("rest_input: non-finite entry")
+	}
+	if err := checkNames(m.Vars()); err != nil {
+		return err
+	}
 	for i, e := range m.Equations {
 		if len(e.Exponents) != len(e.Coefficients) {
 			return fmt.Errorf("equation %d: %d exponents but %d coefficients", i, len(e.Exponents), len(e.Coefficients))
 		}
 		for _, x := range e.Exponents {
-			if len(x) != n {
-				return fmt.Errorf("equation %d: exponent vector of length %d, want %d", i, len(x), n)
+			if len(x) != n+len(m.Inputs) {
+				return fmt.Errorf("equation %d: exponent vector of length %d, want %d", i, len(x), n+len(m.Inputs))
 			}
 			for _, p := range x {
 				if p < 0 || p > 16 {

@@ -166,7 +166,7 @@ func printModel(w io.Writer, m *fit.Model) {
 		human.Sig(m.Threshold, 3), human.Sig(m.Ridge, 1), human.Sig(m.Condition, 2), human.Sig(m.HeldoutError, 3))
 	var rare []string
 	for i, eq := range m.Equations {
-		fmt.Fprintf(w, "%s\n", report.Formula(eq.State, m.Units[i], eq.Exponents, eq.Coefficients, m.States))
+		fmt.Fprintf(w, "%s\n", report.Formula(eq.State, m.Units[i], eq.Exponents, eq.Coefficients, m.Vars()))
 		for _, t := range eq.Terms {
 			if t.RarelyKept {
 				rare = append(rare, fmt.Sprintf("%s in d(%s)/dt (kept in %.0f%% of bootstrap fits)", t.Name, eq.State, 100*t.KeptShare))
@@ -182,6 +182,13 @@ func printModel(w io.Writer, m *fit.Model) {
 			fmt.Fprintf(w, "warning: d(%s)/dt: %s\n", eq.State, eq.Warning)
 		}
 	}
+	if len(m.Inputs) > 0 {
+		var at []string
+		for k, in := range m.Inputs {
+			at = append(at, fmt.Sprintf("%s = %s%s", in.Name, human.Sig(m.RestInput[k], 4), unitSuffix(in.Unit)))
+		}
+		fmt.Fprintf(w, "\nequilibria and certificate at rest input %s\n", strings.Join(at, ", "))
+	}
 	fmt.Fprintf(w, "\nequilibria (the first is where the runs settle):\n")
 	if len(m.Equilibria) == 0 {
 		fmt.Fprintf(w, "  none found; %s\n", m.Note)
@@ -193,4 +200,11 @@ func printModel(w io.Writer, m *fit.Model) {
 		fmt.Fprintf(w, "  note: %s\n", m.Note)
 	}
 	fmt.Fprintln(w)
+}
+
+func unitSuffix(u string) string {
+	if u == "" {
+		return ""
+	}
+	return " " + u
 }

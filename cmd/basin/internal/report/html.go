@@ -239,7 +239,7 @@ func build(in *Input, pl [2]int) (*pageData, error) {
 				row.RateUnit = RateUnit(m.Units[i])
 			}
 			for k, x := range e.Exponents {
-				t := termRow{Name: poly.MonomialName(x, m.States), Coef: mk(e.Coefficients[k])}
+				t := termRow{Name: poly.MonomialName(x, m.Vars()), Coef: mk(e.Coefficients[k])}
 				if k < len(e.Terms) {
 					tm := e.Terms[k]
 					t.HasInterval = true

@@ -37,7 +37,7 @@ func Summary(w io.Writer, in *Input) error {
 			if i < len(m.Units) {
 				u = m.Units[i]
 			}
-			fmt.Fprintf(&b, "  %s\n", Formula(e.State, u, e.Exponents, e.Coefficients, m.States))
+			fmt.Fprintf(&b, "  %s\n", Formula(e.State, u, e.Exponents, e.Coefficients, m.Vars()))
 		}
 		if len(m.Equilibria) > 1 {
 			var others []string
