@@ -91,7 +91,7 @@ func forcedDataset(states []string, input string, f func(dst, x []float64, u flo
 // TestInputFirstOrder: x' = -a x + b u with a = 2, b = 3, logged under a
 // multisine drive at 0.1% noise. The identified a and b must be within 2%
 // (the noise and the derivative's bias are far below that), and no other
-// term kept; the model certifies at rest input u = 0 (where it settles).
+// term kept; the rest input is the idle drive 0 and the eigenvalue there -a.
 // Source: the first-order linear system x' = -a x + b u; the truth is
 // the simulated system's own coefficients [FirstOrderLag].
 func TestInputFirstOrder(t *testing.T) {
@@ -110,6 +110,9 @@ func TestInputFirstOrder(t *testing.T) {
 	}
 	if !scalar.EqualWithinAbs(m.RestInput[0], 0, 1e-12) {
 		t.Errorf("rest input %g, want 0 (the idle drive)", m.RestInput[0])
+	}
+	if len(m.Equations[0].Exponents) != 2 {
+		t.Errorf("%d terms kept, want 2 (x and u)", len(m.Equations[0].Exponents))
 	}
 	for _, e := range m.Equations[0].Exponents {
 		if len(e) != 2 {
