@@ -149,6 +149,15 @@ func TestRunOneRest(t *testing.T) {
 	data := t.TempDir()
 	writeTwoWell(t, data, 12, 6, 0.002, true)
 	out := filepath.Join(t.TempDir(), "out")
+	// An earlier run's extra certificate goes; a user's file stays.
+	if err := os.MkdirAll(out, 0o755); err != nil {
+		t.Fatal(err)
+	}
+	for _, n := range []string{"certificate-2.json", "certificate-02.json", "certificate-old.json"} {
+		if err := os.WriteFile(filepath.Join(out, n), []byte("{}"), 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
 	var so, se bytes.Buffer
 	if code := basinMain(context.Background(), []string{"run", "--quiet", "--out", out, data}, &so, &se); code != 0 {
 		t.Fatalf("exit %d: %s", code, se.String())
@@ -156,6 +165,11 @@ func TestRunOneRest(t *testing.T) {
 	readCert(t, filepath.Join(out, "certificate.json"))
 	if _, err := os.Stat(filepath.Join(out, "certificate-2.json")); !os.IsNotExist(err) {
 		t.Errorf("certificate-2.json for one rest point (stat: %v)", err)
+	}
+	for _, n := range []string{"certificate-02.json", "certificate-old.json"} {
+		if _, err := os.Stat(filepath.Join(out, n)); err != nil {
+			t.Errorf("%s, not basin's, was removed: %v", n, err)
+		}
 	}
 	sum, err := os.ReadFile(filepath.Join(out, "summary.txt"))
 	if err != nil {

@@ -7,6 +7,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"os"
 	"path/filepath"
 	"strconv"
 	"strings"
@@ -283,6 +284,7 @@ func runRun(ctx context.Context, e *env, args []string) error {
 	if err != nil {
 		return err
 	}
+	removeStaleRests(c.Out, len(all))
 	prog.Done()
 	if c.JSON {
 		return writeJSON(e.stdout, cert)
@@ -294,6 +296,30 @@ func runRun(ctx context.Context, e *env, args []string) error {
 	fmt.Fprintf(e.stdout, "\nwrote %s (%s)\n", c.Out, strings.Join(names, ", "))
 	fmt.Fprintf(e.stdout, "report: %s\n", filepath.Join(c.Out, "report.html"))
 	return nil
+}
+
+// removeStaleRests removes the certificate-N.json (N > have, digits
+// only) that an earlier run with more rest points left in dir, so that
+// the folder holds one set. It runs after the new set is in place; a
+// basin killed in between leaves them, and the summary names the files
+// of the set.
+func removeStaleRests(dir string, have int) {
+	ents, err := os.ReadDir(dir)
+	if err != nil {
+		return
+	}
+	for _, e := range ents {
+		n := e.Name()
+		num, ok := strings.CutPrefix(n, "certificate-")
+		if num, ok = strings.CutSuffix(num, ".json"); !ok || !e.Type().IsRegular() {
+			continue
+		}
+		k, err := strconv.Atoi(num)
+		if err != nil || num != strconv.Itoa(k) || k <= have {
+			continue
+		}
+		os.Remove(filepath.Join(dir, n))
+	}
 }
 
 func bytesWriter(b []byte) func(io.Writer) error {

@@ -59,6 +59,9 @@ type figure struct {
 	// others lists the classes of the other equilibria drawn, in order
 	// of first appearance, for the key.
 	others []string
+	// restRegions says the regions of other rest points' certificates
+	// are drawn.
+	restRegions bool
 }
 
 func lineStyle(c color.Color, w vg.Length, dash ...vg.Length) draw.LineStyle {
@@ -265,6 +268,7 @@ func planeFigure(in *Input, pl [2]int, closeUp bool) (*figure, error) {
 			}
 			l.LineStyle = lineStyle(inkRegion, 1.6, 5, 2)
 			p.Add(l)
+			f.restRegions = true
 		}
 	}
 	if m := in.Model; m != nil && len(m.Equilibria) > 1 {

@@ -280,6 +280,9 @@ func planeKeys(f *figure) []keyItem {
 		{Label: "box bounding the region", Colour: hex(inkBox), Width: 0.8, Dash: "1 2.5"},
 		{Label: "equilibrium the runs settle on", Colour: hex(inkEquil), Mark: "square"},
 	}
+	if f.restRegions {
+		keys = append(keys, keyItem{Label: "boundary of another rest point's certified region (certificate-2.json, ...)", Colour: hex(inkRegion), Width: 1.6, Dash: "5 2"})
+	}
 	for _, k := range f.others {
 		keys = append(keys, keyItem{Label: otherMarks[k].label, Colour: hex(inkOther), Mark: otherMarks[k].swatch})
 	}
