@@ -137,7 +137,16 @@ func Certify(ctx context.Context, m *Model, ds *ingest.Dataset, opts *CertifyOpt
 	if err := m.validate(); err != nil {
 		return nil, fmt.Errorf("%w: model: %v", ErrMismatch, err)
 	}
-	m = m.AtRest() // a model with inputs is certified at its rest input
+	if len(m.Inputs) > 0 { // a model with inputs is certified at its rest input
+		if len(ds.Inputs) != len(m.Inputs) {
+			return nil, fmt.Errorf("%w: model has %d inputs, data %d; name the same input columns", ErrMismatch, len(m.Inputs), len(ds.Inputs))
+		}
+		ds = RestSegments(ds, m.RestInput)
+		if ds.Samples() == 0 {
+			return nil, fmt.Errorf("%w: no samples with the inputs at rest", ErrTooFewSamples)
+		}
+		m = m.AtRest()
+	}
 	n := len(m.States)
 	if len(ds.States) != n {
 		return nil, fmt.Errorf("%w: model has %d states, data %d", ErrMismatch, n, len(ds.States))

@@ -197,3 +197,72 @@ func (m *Model) Coefficient(i int, e []int) float64 {
 	}
 	return s
 }
+
+// RestSegments returns the parts of ds's runs where every input is at
+// rest: within 4 noise standard deviations (estimated per input as for a
+// state, see noiseStd) of rest. Each maximal stretch of at least
+// minWindow such samples becomes a run of its own, named "run@t" by its
+// first time; the samples share storage with ds. Only there does the
+// system obey the at-rest model ([Model.AtRest]), so certification and
+// the held-out checks use these samples; the forced ones obey f(x, u).
+// A data set without inputs is returned as it is.
+func RestSegments(ds *ingest.Dataset, rest []float64) *ingest.Dataset {
+	q := len(ds.Inputs)
+	if q == 0 {
+		return ds
+	}
+	tol := make([]float64, q)
+	for k := range tol {
+		cols := make([][]float64, 0, len(ds.Runs))
+		for _, r := range ds.Runs {
+			if len(r.U) == q {
+				cols = append(cols, r.U[k])
+			}
+		}
+		tol[k] = 4*noiseStd(cols, sampleCap) + 1e-12*(1+math.Abs(rest[k]))
+	}
+	out := *ds
+	out.Runs = nil
+	for _, r := range ds.Runs {
+		if len(r.U) != q {
+			continue
+		}
+		L := r.Len()
+		for i := 0; i < L; {
+			at := func(i int) bool {
+				for k := range tol {
+					if !(math.Abs(r.U[k][i]-rest[k]) <= tol[k]) {
+						return false
+					}
+				}
+				return true
+			}
+			if !at(i) {
+				i++
+				continue
+			}
+			j := i
+			for j < L && at(j) {
+				j++
+			}
+			if j-i >= minWindow {
+				s := r
+				s.T = r.T[i:j]
+				s.X = make([][]float64, len(r.X))
+				for c := range r.X {
+					s.X[c] = r.X[c][i:j]
+				}
+				s.U = make([][]float64, q)
+				for c := range r.U {
+					s.U[c] = r.U[c][i:j]
+				}
+				if i > 0 || j < L {
+					s.Name = fmt.Sprintf("%s@%g", r.Name, r.T[i])
+				}
+				out.Runs = append(out.Runs, s)
+			}
+			i = j
+		}
+	}
+	return &out
+}

@@ -169,3 +169,29 @@ func TestInputOscillator(t *testing.T) {
 		t.Errorf("steady-state amplitude %g, want %g within 3%% (magnification factor)", amp, want)
 	}
 }
+
+// TestRestSegments: a run driven for its first 600 samples and idle (drive
+// 0) for its last 400 keeps one segment, the idle tail, whole; a data set
+// without inputs is returned unchanged. Common practice (the samples
+// where the input holds its rest value obey the at-rest model).
+func TestRestSegments(t *testing.T) {
+	L := 1000
+	T, X, U := make([]float64, L), make([]float64, L), make([]float64, L)
+	for i := range T {
+		T[i] = float64(i) * 0.01
+		X[i] = math.Exp(-T[i])
+		if i < 600 {
+			U[i] = 1 + math.Sin(T[i])
+		}
+	}
+	ds := &ingest.Dataset{States: []ingest.Column{{Name: "x"}}, Inputs: []ingest.Column{{Name: "u"}},
+		Runs: []ingest.Run{{Name: "r", T: T, X: [][]float64{X}, U: [][]float64{U}}}}
+	got := RestSegments(ds, []float64{0})
+	if len(got.Runs) != 1 || got.Runs[0].Len() != 400 || got.Runs[0].T[0] != T[600] || got.Runs[0].Name != "r@6" {
+		t.Fatalf("segments %d, first %+v", len(got.Runs), got.Runs)
+	}
+	ds.Inputs, ds.Runs[0].U = nil, nil
+	if RestSegments(ds, nil) != ds {
+		t.Error("a data set without inputs was not returned as it is")
+	}
+}

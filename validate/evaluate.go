@@ -531,6 +531,9 @@ func Evaluate(ctx context.Context, ds *ingest.Dataset, opts *Options) (*Result, 
 				m = m.AtEquilibrium(k)
 			}
 		}
+		if len(m.Inputs) > 0 { // held-out runs are checked where the inputs rest
+			hoDS = fit.RestSegments(hoDS, m.RestInput)
+		}
 		o.progress("certifying"+of, at(progressField))
 		cert, err := fit.Certify(ctx, m, fitDS, o.Certify)
 		if err != nil {

@@ -39,6 +39,13 @@ func Summary(w io.Writer, in *Input) error {
 			}
 			fmt.Fprintf(&b, "  %s\n", Formula(e.State, u, e.Exponents, e.Coefficients, m.Vars()))
 		}
+		if len(m.Inputs) > 0 && len(m.RestInput) == len(m.Inputs) {
+			var at []string
+			for k, in := range m.Inputs {
+				at = append(at, fmt.Sprintf("%s = %s%s", in.Name, human.Sig(m.RestInput[k], 4), spaceUnit(in.Unit)))
+			}
+			fmt.Fprintf(&b, "certificate at rest input %s: the region and its checks hold with the inputs held there (samples with the inputs away from rest are left out of them)\n", strings.Join(at, ", "))
+		}
 		if len(m.Equilibria) > 1 {
 			var others []string
 			for _, e := range m.Equilibria[1:] {
