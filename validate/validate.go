@@ -14,6 +14,10 @@
 // (fit.Validation.FoldsAgree). With fewer than 3 runs there is no held-out
 // verdict: the result is inconclusive and says why.
 //
+// [EvaluateAll] evaluates every stable rest point the runs settle at
+// (clusters of ingest.RestPoints), one Evaluate each, the one most runs
+// settle at first.
+//
 // # Checks
 //
 // On the held-out runs: the model's derivative error (normalised per state
