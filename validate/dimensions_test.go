@@ -61,6 +61,31 @@ var (
 			d[5] = -(x3 - x2) - 0.5*x[5]
 		},
 		states: []string{"x1", "v1", "x2", "v2", "x3", "v3"}, x0: func(r *rand.Rand) []float64 { return box(r, 1, 1, 1, 1, 1, 1) }, dur: 12, rate: 40, runs: 80}
+	// chain6Cubic: three unit masses, stiffness K = [[2,-1,0],[-1,2,-1],
+	// [0,-1,2]], proportional damping C = 0.3K and a hardening cubic
+	// -0.5q³ on each mass, states ordered q1..q3, v1..v3 as a rig logs
+	// them. Energy ½v'v + ½q'Kq + Σ q⁴/8 falls at rate -v'Cv along every
+	// motion and the rest point is asymptotically stable ([Khalil2002]
+	// §4.1, with LaSalle's invariance principle). The linear part's
+	// slowest mode is lightly damped: K's smallest eigenvalue is 2-√2
+	// (tridiagonal Toeplitz, exact), so that pair is -0.15(2-√2) ±
+	// i·sqrt((2-√2) - (0.15(2-√2))²) = -0.088 ± 0.76i.
+	chain6Cubic = system{name: "chain6-cubic", source: "three-mass chain, proportional damping 0.3K, hardening cubic, slowest pair -0.088 ± 0.76i ([Khalil2002] §4.1)",
+		f: func(d []float64, _ float64, x []float64) {
+			q1, q2, q3 := x[0], x[1], x[2]
+			v1, v2, v3 := x[3], x[4], x[5]
+			d[0], d[1], d[2] = v1, v2, v3
+			k1 := 2*q1 - q2
+			k2 := -q1 + 2*q2 - q3
+			k3 := -q2 + 2*q3
+			c1 := 0.3 * (2*v1 - v2)
+			c2 := 0.3 * (-v1 + 2*v2 - v3)
+			c3 := 0.3 * (-v2 + 2*v3)
+			d[3] = -k1 - c1 - 0.5*q1*q1*q1
+			d[4] = -k2 - c2 - 0.5*q2*q2*q2
+			d[5] = -k3 - c3 - 0.5*q3*q3*q3
+		},
+		states: []string{"q1", "q2", "q3", "v1", "v2", "v3"}, x0: func(r *rand.Rand) []float64 { return box(r, 1, 1, 1, 1, 1, 1) }, dur: 15, rate: 200.0 / 3, runs: 80}
 )
 
 // regionSample draws points uniformly from the box lo..hi and returns
@@ -124,17 +149,28 @@ func TestCertifyDimensions(t *testing.T) {
 		minShare  float64 // of that box inside the region
 		minConv   float64 // share of region points that converge
 		skipShort bool
+		convDur   float64 // seconds simulated for the converge check
+		runNoise  bool    // noise per run ([simulateRunNoise]), not per state range
 	}{
-		{lin3, 2, 0.25, 1, false},
-		{lorenzStable, 3, 0, 1, false},
-		{chain4, 1, 0, 0.99, true},
-		{chain6, 1, 0, 0.99, true},
+		{lin3, 2, 0.25, 1, false, 40, false},
+		{lorenzStable, 3, 0, 1, false, 40, false},
+		{chain4, 1, 0, 0.99, true, 40, false},
+		{chain6, 1, 0, 0.99, true, 40, false},
+		// A rig-shaped log: 0.3% of each run's own spread, so the noise
+		// ball is small (about 0.03 in V's scaled units) and the bound
+		// must show the decrease close to the equilibrium. The slowest
+		// pair decays as exp(-0.088t): 60 s takes a unit start to
+		// 0.005, well inside the 0.05 tolerance.
+		{chain6Cubic, 1, 0, 0.99, true, 60, true},
 	} {
 		t.Run(tc.sys.name, func(t *testing.T) {
 			if tc.skipShort && (testing.Short() || raceOn) {
 				t.Skip("slow")
 			}
 			ds := simulate(t, tc.sys, 0.003, 3)
+			if tc.runNoise {
+				ds = simulateRunNoise(t, tc.sys, 0.003, 3)
+			}
 			res, err := Evaluate(context.Background(), ds, evalOpts())
 			if err != nil {
 				t.Fatal(err)
@@ -146,7 +182,7 @@ func TestCertifyDimensions(t *testing.T) {
 				lo[j], hi[j] = -tc.half, tc.half
 			}
 			share, pts := regionSample(c, lo, hi, 20000, 300, 1)
-			conv := converged(tc.sys, pts, 40, 0.05)
+			conv := converged(tc.sys, pts, tc.convDur, 0.05)
 			t.Logf("%s: %s/%s [%s]: %s; region %.1f%% of the start box, %d of %d sampled region points, %.1f%% converge, %.1f%% of the trust region, limit %s",
 				tc.sys.source, c.Verdict, c.Strength, c.ReasonKind, c.Reason, 100*share, len(pts), 20000, 100*conv, 100*c.Region.EnvelopeShare, c.Region.Limit)
 			if c.Verdict != fit.Certified || c.Strength != fit.Asymptotic {
@@ -254,4 +290,35 @@ func TestStableFromBox(t *testing.T) {
 	if c.Verdict != fit.Certified || c.Strength != fit.Stable {
 		t.Errorf("%s/%s, want certified/stable", c.Verdict, c.Strength)
 	}
+}
+
+// simulateRunNoise draws runs of sys like [simulate] but with the noise
+// of each run set as a rig's logger would see it: noise times the mean,
+// over the states, of that run's own standard deviation (one level for
+// every state of the run).
+func simulateRunNoise(t testing.TB, sys system, noise float64, seed uint64) *ingest.Dataset {
+	ds := simulate(t, sys, 0, seed)
+	rng := rand.New(rand.NewPCG(seed, 1))
+	for r := range ds.Runs {
+		x := ds.Runs[r].X
+		sd := 0.0
+		for j := range x {
+			m, s2 := 0.0, 0.0
+			for _, v := range x[j] {
+				m += v
+			}
+			m /= float64(len(x[j]))
+			for _, v := range x[j] {
+				s2 += (v - m) * (v - m)
+			}
+			sd += math.Sqrt(s2 / float64(len(x[j])))
+		}
+		sd /= float64(len(x))
+		for j := range x {
+			for i := range x[j] {
+				x[j][i] += noise * sd * rng.NormFloat64()
+			}
+		}
+	}
+	return ds
 }

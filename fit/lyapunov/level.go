@@ -103,6 +103,11 @@ type verifier struct {
 	failZ          []float64
 	exhausted      bool
 	sigmaMax, hAll float64
+	// The quadratic-part bounds: p = z'Mz + rest, with z'Mz between
+	// lambda_min(M)|z|² and lambda_max(M)|z|² (see [quadSplit]).
+	vRest, vdRest     *Bounder
+	vLamLo, vdLamHi   float64
+	vQuadOK, vdQuadOK bool
 }
 
 // Verify returns the largest level at most c0 for which every condition
@@ -124,6 +129,16 @@ type verifier struct {
 func Verify(p *Problem, c0 float64, lo0, hi0 []float64) Verified {
 	n := p.N
 	vf := &verifier{p: p, v: NewBounder(p.V), vd: NewBounder(p.VDot), maxBox: p.MaxBoxes, depth: p.Depth}
+	if rest, ok := quadSplit(p.V); ok {
+		if ev := symEigen(QuadMatrix(p.V), n); ev != nil {
+			vf.vRest, vf.vLamLo, vf.vQuadOK = NewBounder(rest), ev[0], true
+		}
+	}
+	if rest, ok := quadSplit(p.VDot); ok {
+		if ev := symEigen(QuadMatrix(p.VDot), n); ev != nil {
+			vf.vdRest, vf.vdLamHi, vf.vdQuadOK = NewBounder(rest), ev[n-1], true
+		}
+	}
 	if vf.maxBox <= 0 {
 		vf.maxBox = 200000
 	}
@@ -238,7 +253,7 @@ func (vf *verifier) faces(c float64, lo, hi []float64, last bool) []int {
 			b.depth[j] = uint8(vf.depth)
 			edge := onDomainEdge(b, vf.p.Lo, vf.p.Hi)
 			q := &boxQueue{}
-			b.vlo, _ = vf.v.Bounds(b.c, b.r)
+			b.vlo, _ = vf.vLow(b.c, b.r)
 			heap.Push(q, b)
 			budget := vf.maxBox / (4 * n)
 			for used := 0; q.Len() > 0; used++ {
@@ -254,7 +269,7 @@ func (vf *verifier) faces(c float64, lo, hi []float64, last bool) []int {
 				}
 				if k, ok := vf.split(b, false); ok {
 					for _, kb := range k {
-						kb.vlo, _ = vf.v.Bounds(kb.c, kb.r)
+						kb.vlo, _ = vf.vLow(kb.c, kb.r)
 						kb.vlo = math.Max(kb.vlo, vlo)
 						heap.Push(q, kb)
 					}
@@ -349,7 +364,7 @@ func (vf *verifier) interior(c float64, lo, hi []float64) {
 	}
 	boxDepth(&b, vf.width)
 	q := &boxQueue{}
-	b.vlo, _ = vf.v.Bounds(b.c, b.r)
+	b.vlo, _ = vf.vLow(b.c, b.r)
 	heap.Push(q, b)
 	for q.Len() > 0 {
 		b := heap.Pop(q).(bbox)
@@ -401,7 +416,7 @@ func (vf *verifier) interior(c float64, lo, hi []float64) {
 		near := kind != LimitTrust && math.Sqrt(hd) > dmin/4
 		if k, ok := vf.split(b, near); ok {
 			for _, kb := range k {
-				kb.vlo, _ = vf.v.Bounds(kb.c, kb.r)
+				kb.vlo, _ = vf.vLow(kb.c, kb.r)
 				kb.vlo = math.Max(kb.vlo, vlo) // a part is at least its whole's bound
 				heap.Push(q, kb)
 			}
@@ -412,6 +427,49 @@ func (vf *verifier) interior(c float64, lo, hi []float64) {
 		}
 		vf.fail(vlo, kind, b.c)
 	}
+}
+
+// quadSplit returns p without its degree-2 terms; false when p has none.
+func quadSplit(p *Poly) (*Poly, bool) {
+	var es [][]int
+	var cs []float64
+	found := false
+	for k, e := range p.E {
+		d := 0
+		for _, q := range e {
+			d += q
+		}
+		if d == 2 {
+			found = true
+			continue
+		}
+		es, cs = append(es, e), append(cs, p.C[k])
+	}
+	if !found {
+		return nil, false
+	}
+	return NewPoly(p.N, es, cs), true
+}
+
+// vLow returns a lower bound of V over the box center ± half: the larger
+// of the Taylor-form bound of [Bounder] and, with V = z'Pz + rest,
+// lambda_min(P)·d² + (the rest's lower bound), d the box's smallest
+// (lambda_min >= 0) or largest (lambda_min < 0) distance from 0. Both
+// bound V from below, so their maximum does; the second stays tight on
+// boxes wide against their distance from the equilibrium, where the
+// Taylor form is loose.
+func (vf *verifier) vLow(center, half []float64) (float64, float64) {
+	lo, hi := vf.v.Bounds(center, half)
+	if !vf.vQuadOK {
+		return lo, hi
+	}
+	dmin, dmax := dist(bbox{c: center, r: half})
+	rlo, _ := vf.vRest.Bounds(center, half)
+	q := vf.vLamLo * dmin * dmin
+	if vf.vLamLo < 0 {
+		q = vf.vLamLo * dmax * dmax
+	}
+	return math.Max(lo, q+rlo), hi
 }
 
 // boxQueue is a min-heap of boxes by their lower bound of V.
@@ -447,6 +505,15 @@ func (vf *verifier) trusted(b bbox) bool {
 func (vf *verifier) decrease(b bbox) bool {
 	p := vf.p
 	_, vdhi := vf.vd.Bounds(b.c, b.r)
+	if vf.vdQuadOK {
+		dmin, dmax := dist(b)
+		_, rhi := vf.vdRest.Bounds(b.c, b.r)
+		q := vf.vdLamHi * dmax * dmax
+		if vf.vdLamHi < 0 {
+			q = vf.vdLamHi * dmin * dmin
+		}
+		vdhi = math.Min(vdhi, q+rhi)
+	}
 	rob := 0.0
 	if p.K > 0 && vf.sigmaMax > 0 {
 		hhi := 0.0
@@ -470,73 +537,131 @@ func (vf *verifier) decrease(b bbox) bool {
 
 // radialBall returns the largest radius rho (at most the domain's
 // half-diagonal) such that on every sphere |z| = r, Exempt <= r <= rho,
-// the radial bounds show the robust decrease and positivity:
+// the radial bounds show the robust decrease and positivity. For r in a
+// shell [a, b] (the shells step geometrically from Exempt):
 //
-//	VDot(z) <= lambda_max(Q) r² + sum over degrees d != 2 of C_d r^d
-//	V(z)    >= lambda_min(P) r² - sum over degrees d != 2 of D_d r^d
-//	|grad V ∘ Sigma| <= max Sigma · sum over d of G_d r^d
+//	VDot(z) <= lambda_max(Q) a² + sum over degrees d != 2 of C_d b^d
+//	V(z)    >= lambda_min(P) a² - sum over degrees d != 2 of D_d b^d
+//	|grad V ∘ Sigma| <= |diag(Sigma) G1|_2 b + |(Sigma_j sum over d != 1 of G_jd b^d)_j|_2
+//	h(z)    <= the bound of h over the cube [-b, b]^n (which holds the ball)
 //
-// (Q, P the quadratic parts, C_d, D_d, G_d the sums of |coefficients| of
-// each degree; see [DegreeNorms]) with h bounded by HMax (every box is
-// checked against HMax separately). 0 when it fails at the exempt radius.
+// (Q, P the quadratic parts, C_d, D_d, G_jd the sums of |coefficients| of
+// each degree, see [DegreeNorms]; G1 the matrix of grad V's linear part,
+// so |diag(Sigma) G1 z|_2 <= its spectral norm times |z|; lambda_max(Q)
+// < 0 and lambda_min(P) > 0 are needed). Each shell's bounds hold for every
+// r in it, so the claim holds on the whole ball, not only on the
+// spheres sampled. 0 when it fails at the exempt radius.
 func (vf *verifier) radialBall() float64 {
 	p := vf.p
 	n := p.N
 	lq, ok := eigMax(QuadMatrix(p.VDot), n)
-	if !ok {
+	if !ok || !(lq < 0) {
 		return 0
 	}
 	lp, ok := eigMin(QuadMatrix(p.V), n)
-	if !ok {
+	if !ok || !(lp > p.PosEps) {
 		return 0
 	}
 	cd := DegreeNorms(p.VDot)
 	dd := DegreeNorms(p.V)
-	var gd []float64
-	for _, g := range p.Grad {
-		for d, v := range DegreeNorms(g) {
-			for len(gd) <= d {
-				gd = append(gd, 0)
+	// grad V's linear part, rows scaled by Sigma, and the other degrees.
+	g1 := make([]float64, n*n)
+	gd := make([][]float64, n)
+	sig := func(j int) float64 {
+		if j < len(p.Sigma) {
+			return p.Sigma[j]
+		}
+		return 0
+	}
+	for j, g := range p.Grad {
+		for k, e := range g.E {
+			s, at := 0, -1
+			for i, q := range e {
+				s += q
+				if q > 0 {
+					at = i
+				}
 			}
-			gd[d] += v
+			if s == 1 {
+				g1[j*n+at] += sig(j) * g.C[k]
+			}
+		}
+		gd[j] = DegreeNorms(g)
+	}
+	// spectral norm of g1: sqrt of the largest eigenvalue of g1'g1.
+	gtg := make([]float64, n*n)
+	for a := 0; a < n; a++ {
+		for b := 0; b < n; b++ {
+			s := 0.0
+			for j := 0; j < n; j++ {
+				s += g1[j*n+a] * g1[j*n+b]
+			}
+			gtg[a*n+b] = s
 		}
 	}
-	hmax := 0.0
-	if p.Trust != nil {
-		hmax = p.Trust.HMax
+	l1, ok := eigMax(gtg, n)
+	if !ok {
+		return 0
 	}
-	rob := p.K * vf.sigmaMax * math.Sqrt(hmax)
+	gnorm := math.Sqrt(math.Max(l1, 0)) * (1 + 1e-9)
 	rmax := 0.0
 	for j := range p.Lo {
 		rmax += math.Max(p.Lo[j]*p.Lo[j], p.Hi[j]*p.Hi[j])
 	}
 	rmax = math.Sqrt(rmax)
 	start := math.Max(p.Exempt, 1e-6*rmax)
+	if start >= rmax {
+		return 0
+	}
 	rho := 0.0
-	const steps = 200
-	for s := 0; s <= steps; s++ {
-		r := start * math.Pow(rmax/start, float64(s)/steps)
-		vd := lq * r * r
+	const steps = 400
+	zero := make([]float64, n)
+	half := make([]float64, n)
+	a := start
+	for s := 1; s <= steps; s++ {
+		b := start * math.Pow(rmax/start, float64(s)/steps)
+		vd := lq * a * a
 		for d, c := range cd {
 			if d != 2 {
-				vd += c * math.Pow(r, float64(d))
+				vd += c * math.Pow(b, float64(d))
 			}
 		}
-		g := 0.0
-		for d, c := range gd {
-			g += c * math.Pow(r, float64(d))
+		hi := 0.0
+		for j := range gd {
+			t := 0.0
+			for d, c := range gd[j] {
+				if d != 1 {
+					t += c * math.Pow(b, float64(d))
+				}
+			}
+			t *= sig(j)
+			hi += t * t
 		}
-		v := (lp - p.PosEps) * r * r
+		g := gnorm*b + math.Sqrt(hi)
+		rob := 0.0
+		if p.K > 0 && vf.sigmaMax > 0 {
+			hh := 0.0
+			if vf.h != nil {
+				for j := range half {
+					half[j] = b
+				}
+				_, hh = vf.h.Bounds(zero, half)
+				hh = math.Max(hh, 0)
+			}
+			rob = p.K * math.Sqrt(hh) * g
+		}
+		v := (lp - p.PosEps) * a * a
 		for d, c := range dd {
 			if d != 2 {
-				v -= c * math.Pow(r, float64(d))
+				v -= c * math.Pow(b, float64(d))
 			}
 		}
-		okd := vd+rob*g < 0 || (p.Tol > 0 && vd+rob*g <= p.Tol)
+		okd := vd+rob < 0 || (p.Tol > 0 && vd+rob <= p.Tol)
 		if !okd || !(v > 0) {
 			break
 		}
-		rho = r
+		rho = b
+		a = b
 	}
 	return rho
 }
