@@ -253,7 +253,7 @@ func (vf *verifier) faces(c float64, lo, hi []float64, last bool) []int {
 			b.depth[j] = uint8(vf.depth)
 			edge := onDomainEdge(b, vf.p.Lo, vf.p.Hi)
 			q := &boxQueue{}
-			b.vlo, _ = vf.vLow(b.c, b.r)
+			b.vlo = vf.vLow(b.c, b.r, c)
 			heap.Push(q, b)
 			budget := vf.maxBox / (4 * n)
 			for used := 0; q.Len() > 0; used++ {
@@ -269,7 +269,7 @@ func (vf *verifier) faces(c float64, lo, hi []float64, last bool) []int {
 				}
 				if k, ok := vf.split(b, false); ok {
 					for _, kb := range k {
-						kb.vlo, _ = vf.vLow(kb.c, kb.r)
+						kb.vlo = vf.vLow(kb.c, kb.r, math.Min(c, vf.failKey))
 						kb.vlo = math.Max(kb.vlo, vlo)
 						heap.Push(q, kb)
 					}
@@ -364,7 +364,7 @@ func (vf *verifier) interior(c float64, lo, hi []float64) {
 	}
 	boxDepth(&b, vf.width)
 	q := &boxQueue{}
-	b.vlo, _ = vf.vLow(b.c, b.r)
+	b.vlo = vf.vLow(b.c, b.r, c)
 	heap.Push(q, b)
 	for q.Len() > 0 {
 		b := heap.Pop(q).(bbox)
@@ -416,7 +416,7 @@ func (vf *verifier) interior(c float64, lo, hi []float64) {
 		near := kind != LimitTrust && math.Sqrt(hd) > dmin/4
 		if k, ok := vf.split(b, near); ok {
 			for _, kb := range k {
-				kb.vlo, _ = vf.vLow(kb.c, kb.r)
+				kb.vlo = vf.vLow(kb.c, kb.r, math.Min(c, vf.failKey))
 				kb.vlo = math.Max(kb.vlo, vlo) // a part is at least its whole's bound
 				heap.Push(q, kb)
 			}
@@ -457,11 +457,12 @@ func quadSplit(p *Poly) (*Poly, bool) {
 // (lambda_min >= 0) or largest (lambda_min < 0) distance from 0. Both
 // bound V from below, so their maximum does; the second stays tight on
 // boxes wide against their distance from the equilibrium, where the
-// Taylor form is loose.
-func (vf *verifier) vLow(center, half []float64) (float64, float64) {
-	lo, hi := vf.v.Bounds(center, half)
-	if !vf.vQuadOK {
-		return lo, hi
+// Taylor form is loose. The second is skipped when the first already
+// exceeds need (the box lies above the level asked).
+func (vf *verifier) vLow(center, half []float64, need float64) float64 {
+	lo, _ := vf.v.Bounds(center, half)
+	if !vf.vQuadOK || lo > need {
+		return lo
 	}
 	dmin, dmax := dist(bbox{c: center, r: half})
 	rlo, _ := vf.vRest.Bounds(center, half)
@@ -469,7 +470,7 @@ func (vf *verifier) vLow(center, half []float64) (float64, float64) {
 	if vf.vLamLo < 0 {
 		q = vf.vLamLo * dmax * dmax
 	}
-	return math.Max(lo, q+rlo), hi
+	return math.Max(lo, q+rlo)
 }
 
 // boxQueue is a min-heap of boxes by their lower bound of V.
@@ -501,19 +502,14 @@ func (vf *verifier) trusted(b bbox) bool {
 	return hhi <= p.Trust.HMax
 }
 
-// decrease bounds VDot + K sqrt(h) |grad V ∘ Sigma| over the box.
+// decrease bounds VDot + K sqrt(h) |grad V ∘ Sigma| over the box. V-dot's
+// upper bound is the Taylor form of [Bounder] or, where that fails, with
+// VDot = z'Mz + rest, lambda_max(M)·d² + (the rest's upper bound), d the
+// box's smallest (lambda_max < 0) or largest distance from 0: the
+// smaller of two upper bounds is one.
 func (vf *verifier) decrease(b bbox) bool {
 	p := vf.p
 	_, vdhi := vf.vd.Bounds(b.c, b.r)
-	if vf.vdQuadOK {
-		dmin, dmax := dist(b)
-		_, rhi := vf.vdRest.Bounds(b.c, b.r)
-		q := vf.vdLamHi * dmax * dmax
-		if vf.vdLamHi < 0 {
-			q = vf.vdLamHi * dmin * dmin
-		}
-		vdhi = math.Min(vdhi, q+rhi)
-	}
 	rob := 0.0
 	if p.K > 0 && vf.sigmaMax > 0 {
 		hhi := 0.0
@@ -529,10 +525,22 @@ func (vf *verifier) decrease(b bbox) bool {
 		}
 		rob = p.K * math.Sqrt(hhi*s)
 	}
-	if p.Tol > 0 {
-		return vdhi+rob <= p.Tol
+	pass := func(vdhi float64) bool {
+		if p.Tol > 0 {
+			return vdhi+rob <= p.Tol
+		}
+		return vdhi+rob < 0
 	}
-	return vdhi+rob < 0
+	if pass(vdhi) || !vf.vdQuadOK {
+		return pass(vdhi)
+	}
+	dmin, dmax := dist(b)
+	_, rhi := vf.vdRest.Bounds(b.c, b.r)
+	q := vf.vdLamHi * dmax * dmax
+	if vf.vdLamHi < 0 {
+		q = vf.vdLamHi * dmin * dmin
+	}
+	return pass(math.Min(vdhi, q+rhi))
 }
 
 // radialBall returns the largest radius rho (at most the domain's
