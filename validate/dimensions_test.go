@@ -174,7 +174,11 @@ func TestCertifyDimensions(t *testing.T) {
 			if tc.runNoise {
 				ds = simulateRunNoise(t, tc.sys, 0.003, 3)
 			}
-			res, err := Evaluate(context.Background(), ds, evalOpts())
+			opts := evalOpts()
+			// The rig-shaped case tests the bound, not the agreement of
+			// folds: one fold keeps its cost down.
+			opts.OneFold = tc.runNoise
+			res, err := Evaluate(context.Background(), ds, opts)
 			if err != nil {
 				t.Fatal(err)
 			}
