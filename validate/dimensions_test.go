@@ -196,7 +196,7 @@ func TestCertifyDimensions(t *testing.T) {
 				t.Errorf("%s/%s, want certified/asymptotic", c.Verdict, c.Strength)
 			}
 			if share < tc.minShare {
-				t.Errorf("region holds %.1f%% of the box of starting states, want >= %.0f%%", 100*share, 100*tc.minShare)
+				t.Errorf("region holds %.1f%% of the box of starting states, want >= %.1f%%", 100*share, 100*tc.minShare)
 			}
 			if len(pts) < 20 {
 				t.Errorf("only %d region points sampled", len(pts))
