@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"strings"
 
+	"basin.example/fit"
 	"basin.example/ingest"
 )
 
@@ -53,28 +54,10 @@ func EvaluateAll(ctx context.Context, ds *ingest.Dataset, opts *Options) ([]Rest
 	if err != nil {
 		return nil, nil, err
 	}
-	m := res.Model
-	// done holds the fitted equilibria evaluated, as indices into the
-	// primary's model (0 is the primary's own).
-	done := map[int]bool{0: true}
+	primary, rest, skips := placeRests(res.Model, rps)
 	out := []RestResult{{Result: res}}
-	var skips []RestSkip
-	var rest []int
-	for i, rp := range rps {
-		k, d := m.Nearest(rp.Point)
-		switch {
-		case k < 0 || d > farEquilibrium:
-			skips = append(skips, RestSkip{rp, fmt.Sprintf("no equilibrium of the fitted model near it (the nearest is %.3g spreads away)", d)})
-		case k == 0 && out[0].Rest.Runs == 0:
-			out[0].Rest = rp
-		case done[k]:
-			skips = append(skips, RestSkip{rp, "the same fitted equilibrium as an earlier rest point"})
-		case !strings.HasPrefix(m.Equilibria[k].Class, "stable"):
-			skips = append(skips, RestSkip{rp, fmt.Sprintf("the fitted equilibrium there is a %s", m.Equilibria[k].Class)})
-		default:
-			done[k] = true
-			rest = append(rest, i)
-		}
+	if primary >= 0 {
+		out[0].Rest = rps[primary]
 	}
 	for _, i := range rest {
 		oi := o
@@ -98,4 +81,32 @@ func (o *Options) getEquilibrium() []float64 {
 		return nil
 	}
 	return o.Equilibrium
+}
+
+// placeRests maps each rest point of rps to the nearest equilibrium of m
+// (whose first equilibrium is the one already certified): it returns
+// the index in rps of the first rest point at m's first equilibrium (-1
+// when none), the indices of the rest points to certify (one per other
+// stable equilibrium, in rps's order), and the rest points skipped with
+// why.
+func placeRests(m *fit.Model, rps []ingest.RestPoint) (primary int, rest []int, skips []RestSkip) {
+	primary = -1
+	done := map[int]bool{0: true}
+	for i, rp := range rps {
+		k, d := m.Nearest(rp.Point)
+		switch {
+		case k < 0 || d > farEquilibrium:
+			skips = append(skips, RestSkip{rp, fmt.Sprintf("no equilibrium of the fitted model near it (the nearest is %.3g spreads away)", d)})
+		case k == 0 && primary < 0:
+			primary = i
+		case done[k]:
+			skips = append(skips, RestSkip{rp, "the same fitted equilibrium as an earlier rest point"})
+		case !strings.HasPrefix(m.Equilibria[k].Class, "stable"):
+			skips = append(skips, RestSkip{rp, fmt.Sprintf("the fitted equilibrium there is a %s", m.Equilibria[k].Class)})
+		default:
+			done[k] = true
+			rest = append(rest, i)
+		}
+	}
+	return primary, rest, skips
 }

@@ -2,11 +2,14 @@ package validate
 
 import (
 	"context"
+	"fmt"
 	"math"
 	"math/rand/v2"
+	"strings"
 	"testing"
 
 	"basin.example/fit"
+	"basin.example/ingest"
 )
 
 // TestEvaluateEachWell: the two-well Duffing oscillator x” + 0.5 x' - x
@@ -81,5 +84,51 @@ func TestEvaluateAllWells(t *testing.T) {
 		if c.Level > 0 && c.Inside([]float64{0, 0}, c.V.Eval(z)) {
 			t.Errorf("%d: the region holds the saddle (0, 0)", i)
 		}
+	}
+}
+
+// TestPlaceRests: rest points map to the fitted equilibria of the
+// two-well oscillator ([GuckenheimerHolmes1983] §2.2: foci at x = ±1, a
+// saddle at 0): the primary's, one certificate for the other well, and
+// a reason for each rest point that gets none (near the saddle, far from
+// every equilibrium, the same well twice).
+func TestPlaceRests(t *testing.T) {
+	m := &fit.Model{Spread: []float64{1, 1}, Equilibria: []fit.Equilibrium{
+		{Point: []float64{1, 0}, Class: "stable focus"},
+		{Point: []float64{0, 0}, Class: "saddle"},
+		{Point: []float64{-1, 0}, Class: "stable focus"},
+	}}
+	rp := func(x float64, n int) ingest.RestPoint { return ingest.RestPoint{Point: []float64{x, 0}, Runs: n} }
+	for _, tc := range []struct {
+		name    string
+		rps     []ingest.RestPoint
+		primary int
+		rest    []int
+		skips   []string // reasons, by prefix
+	}{
+		{"two wells", []ingest.RestPoint{rp(-1.01, 9), rp(0.99, 7)}, 1, []int{0}, nil},
+		{"saddle and far", []ingest.RestPoint{rp(1, 9), rp(0.02, 3), rp(3, 2)}, 0, nil,
+			[]string{"the fitted equilibrium there is a saddle", "no equilibrium of the fitted model near it"}},
+		{"one well twice", []ingest.RestPoint{rp(-1, 5), rp(1, 4), rp(-0.9, 3)}, 1, []int{0},
+			[]string{"the same fitted equilibrium"}},
+		{"none settle", nil, -1, nil, nil},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			p, rest, skips := placeRests(m, tc.rps)
+			if p != tc.primary {
+				t.Errorf("primary %d, want %d", p, tc.primary)
+			}
+			if fmt.Sprint(rest) != fmt.Sprint(tc.rest) {
+				t.Errorf("rest %v, want %v", rest, tc.rest)
+			}
+			if len(skips) != len(tc.skips) {
+				t.Fatalf("skips %+v, want %q", skips, tc.skips)
+			}
+			for i, s := range skips {
+				if !strings.HasPrefix(s.Why, tc.skips[i]) {
+					t.Errorf("skip %d: %q, want %q...", i, s.Why, tc.skips[i])
+				}
+			}
+		})
 	}
 }
