@@ -195,3 +195,40 @@ func TestRestSegments(t *testing.T) {
 		t.Error("a data set without inputs was not returned as it is")
 	}
 }
+
+// TestInputGainFirstOrder: for x' = -a x + b u (a = 2, b = 3) with V = x²
+// the ultimate bound under |u| <= U is |x| <= (b/a) U [FirstOrderLag]
+// (from memory): with lambda = a the inequality dV/dt <= -lambda V +
+// gamma u² holds exactly when gamma >= b²/a·(scale), and the bound is
+// tight at the steady state x = (b/a) u. The runs hold input steps for 3
+// s (6 time constants), so the samples reach that steady state and the
+// gain fitted on them by the dissipation LP must be within 5% of b/a =
+// 1.5 (the fitted coefficients are within 0.1%; the rest is how close the
+// samples come to the steady state).
+func TestInputGainFirstOrder(t *testing.T) {
+	rng := rand.New(rand.NewPCG(5, 5))
+	ds := &ingest.Dataset{States: []ingest.Column{{Name: "x"}}, Inputs: []ingest.Column{{Name: "u"}}}
+	f := func(d, x []float64, u float64) { d[0] = -2*x[0] + 3*u }
+	for r := 0; r < 8; r++ {
+		lv := []float64{2*rng.Float64() - 1, 2*rng.Float64() - 1, 2*rng.Float64() - 1, 0}
+		u := func(t float64) float64 { return lv[min(3, int(t/3))] }
+		T, X, U := forced(f, u, []float64{2*rng.Float64() - 1}, 0.01, 1200, []float64{0.0005}, rng)
+		ds.Runs = append(ds.Runs, ingest.Run{Name: fmt.Sprintf("run%02d", r), T: T, X: X, U: [][]float64{U}})
+	}
+	m, err := Field(context.Background(), ds, &FieldOptions{Degree: 2, Bootstrap: -1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	g, err := FitInputGain(m, ds)
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Logf("model %v %v; gamma %.5g, lambda %.5g, bound %.5g (want 1.5), norm bound %.5g, %d samples",
+		m.Equations[0].Exponents, m.Equations[0].Coefficients, g.Gamma, g.Lambda, g.Bound, g.NormBound, g.Samples)
+	if len(g.Bound) != 1 || !scalar.EqualWithinRel(g.Bound[0], 1.5, 0.05) {
+		t.Errorf("ultimate bound per unit input %v, want b/a = 1.5 within 5%%", g.Bound)
+	}
+	if !(g.Lambda > 0) || !(g.Gamma > 0) {
+		t.Errorf("gamma %g, lambda %g: both must be positive", g.Gamma, g.Lambda)
+	}
+}

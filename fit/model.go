@@ -356,6 +356,10 @@ type Certificate struct {
 	// beyond the noise tolerance, not to fall: at most the stable
 	// strength is claimed, never asymptotic. Margin is then at most 0.
 	NonRise bool `json:"non_rise,omitempty"`
+	// InputGain is the dissipation inequality fitted for a model with
+	// inputs (see [FitInputGain]); absent without inputs or when none
+	// holds on the samples.
+	InputGain *InputGain `json:"input_gain,omitempty"`
 	// Noise is the noise per state, in the states' units, that Tolerance
 	// and NoiseRadius assume (the model's pooled estimate); a run whose
 	// own estimate ([RunNoise]) is higher gets its tolerances widened in

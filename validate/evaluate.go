@@ -539,6 +539,11 @@ func Evaluate(ctx context.Context, ds *ingest.Dataset, opts *Options) (*Result, 
 		if err != nil {
 			return nil, nil, nil, err
 		}
+		if len(m.Inputs) > 0 {
+			if g, err := fit.FitInputGain(m, fitDS); err == nil {
+				cert.InputGain = g
+			}
+		}
 		o.progress("checking held-out runs"+of, at(progressField+progressCertify))
 		val, runs, err := Check(ctx, cert, hoDS, &o)
 		if err != nil {

@@ -93,6 +93,11 @@ func runCertify(ctx context.Context, e *env, args []string) error {
 	if err != nil {
 		return classify(err, f.Model)
 	}
+	if len(m.Inputs) > 0 {
+		if g, err := fit.FitInputGain(m, fitRuns(ds)); err == nil {
+			cert.InputGain = g
+		}
+	}
 	if cert.V.Exponents == nil {
 		cert.V = poly.Poly{Exponents: [][]int{}, Coefficients: []float64{}}
 	}

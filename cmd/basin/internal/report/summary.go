@@ -45,6 +45,22 @@ func Summary(w io.Writer, in *Input) error {
 				at = append(at, fmt.Sprintf("%s = %s%s", in.Name, human.Sig(m.RestInput[k], 4), spaceUnit(in.Unit)))
 			}
 			fmt.Fprintf(&b, "certificate at rest input %s: the region and its checks hold with the inputs held there (samples with the inputs away from rest are left out of them)\n", strings.Join(at, ", "))
+			if g := c.InputGain; g != nil && len(g.Bound) == len(m.States) {
+				var per []string
+				for j, v := range g.Bound {
+					u := ""
+					if j < len(m.Units) {
+						u = m.Units[j]
+					}
+					per = append(per, fmt.Sprintf("%s %s%s", m.States[j], human.Sig(v, 3), spaceUnit(u)))
+				}
+				unit := "unit"
+				if len(m.Inputs) == 1 && m.Inputs[0].Unit != "" {
+					unit = m.Inputs[0].Unit
+				}
+				fmt.Fprintf(&b, "input gain: an input kept within U of rest leaves the states, in the long run, within %s of the equilibrium per %s of U (dV/dt <= -%s V + %s |u - u_rest|^2 on %d recorded samples; empirical)\n",
+					strings.Join(per, ", "), unit, human.Sig(g.Lambda, 3), human.Sig(g.Gamma, 3), g.Samples)
+			}
 		}
 		if len(m.Equilibria) > 1 {
 			var others []string
