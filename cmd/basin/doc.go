@@ -34,7 +34,9 @@ Every command that reads logs takes:
 	--states a,b,c      the state columns (default: every numeric column
 	                    other than time, run and inputs)
 	--inputs a,b        measured columns that are not states (a drive, a
-	                    setpoint)
+	                    setpoint): fit x' = f(x, u), certify at the rest
+	                    input, and fit the input gain (certificate's
+	                    input_gain)
 	--manifest FILE.csv columns path,run,split (fit, holdout or empty):
 	                    which runs are held out (not screen)
 	--from S, --to S    keep the samples from S to S seconds after each
