@@ -1,7 +1,10 @@
 package fit
 
 import (
+	"bytes"
 	"context"
+	"encoding/json"
+	"errors"
 	"fmt"
 	"math"
 	"math/rand/v2"
@@ -230,5 +233,55 @@ func TestInputGainFirstOrder(t *testing.T) {
 	}
 	if !(g.Lambda > 0) || !(g.Gamma > 0) {
 		t.Errorf("gamma %g, lambda %g: both must be positive", g.Gamma, g.Lambda)
+	}
+}
+
+// TestInputModelRoundTrip: a model with inputs survives model.json (the
+// exponents one per state then one per input), a rest_input of the wrong
+// length or an exponent vector without the input entry is refused, and
+// Certify works on it at rest input. Common practice (a file format read
+// back as written).
+func TestInputModelRoundTrip(t *testing.T) {
+	f := func(d, x []float64, u float64) { d[0] = -2*x[0] + 3*u }
+	ds := forcedDataset([]string{"x"}, "u", f, 8, 8, 0.01, []float64{0.13, 0.41, 0.97}, 1, []float64{0.001}, 1)
+	m, err := Field(context.Background(), ds, &FieldOptions{Degree: 2, Bootstrap: -1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	b, err := json.Marshal(m)
+	if err != nil {
+		t.Fatal(err)
+	}
+	back, err := ReadModel(bytes.NewReader(b))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(back.Inputs) != 1 || back.Inputs[0].Name != "u" || len(back.RestInput) != 1 ||
+		!scalar.EqualWithinAbs(back.Coefficient(0, []int{0, 1}), m.Coefficient(0, []int{0, 1}), 0) {
+		t.Fatalf("read back %+v", back)
+	}
+	for _, bad := range []func(*Model){
+		func(m *Model) { m.RestInput = nil },
+		func(m *Model) { m.Equations[0].Exponents[0] = m.Equations[0].Exponents[0][:1] },
+	} {
+		c := *back
+		c.Equations = []Equation{back.Equations[0]}
+		c.Equations[0].Exponents = append([][]int(nil), back.Equations[0].Exponents...)
+		bad(&c)
+		b, _ := json.Marshal(&c)
+		if _, err := ReadModel(bytes.NewReader(b)); err == nil {
+			t.Errorf("a broken model with inputs was read: %s", b)
+		}
+	}
+	cert, err := Certify(context.Background(), back, ds, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !cert.Found {
+		t.Errorf("no certificate at rest input for a stable first-order lag: %s", cert.Reason)
+	}
+	ds.Inputs = nil
+	if _, err := Certify(context.Background(), back, ds, nil); !errors.Is(err, ErrMismatch) {
+		t.Errorf("data without the model's input: err %v, want ErrMismatch", err)
 	}
 }
