@@ -199,9 +199,12 @@ func (m *Model) Coefficient(i int, e []int) float64 {
 }
 
 // RestSegments returns the parts of ds's runs where every input is at
-// rest: within 4 noise standard deviations (estimated per input as for a
-// state, see noiseStd) of rest. Each maximal stretch of at least
-// minWindow such samples becomes a run of its own, named "run@t" by its
+// rest: within 5 noise standard deviations (estimated per input as for a
+// state, see noiseStd) of rest (a Gaussian sample strays beyond that
+// once in 1.7 million). Each maximal stretch of such samples at least
+// minWindow long and a twentieth (settleShare) of its run becomes a run
+// of its own (shorter ones are a drive passing through its rest value,
+// not the rig idle), named "run@t" by its
 // first time; the samples share storage with ds. Only there does the
 // system obey the at-rest model ([Model.AtRest]), so certification and
 // the held-out checks use these samples; the forced ones obey f(x, u).
@@ -219,7 +222,7 @@ func RestSegments(ds *ingest.Dataset, rest []float64) *ingest.Dataset {
 				cols = append(cols, r.U[k])
 			}
 		}
-		tol[k] = 4*noiseStd(cols, sampleCap) + 1e-12*(1+math.Abs(rest[k]))
+		tol[k] = 5*noiseStd(cols, sampleCap) + 1e-12*(1+math.Abs(rest[k]))
 	}
 	out := *ds
 	out.Runs = nil
@@ -245,7 +248,7 @@ func RestSegments(ds *ingest.Dataset, rest []float64) *ingest.Dataset {
 			for j < L && at(j) {
 				j++
 			}
-			if j-i >= minWindow {
+			if j-i >= max(minWindow, int(math.Ceil(settleShare*float64(L)))) {
 				s := r
 				s.T = r.T[i:j]
 				s.X = make([][]float64, len(r.X))

@@ -110,6 +110,10 @@ func runCheck(ctx context.Context, e *env, args []string) error {
 	if err := sameUnits(c.Cert, cert.States, cert.Units, ds); err != nil {
 		return err
 	}
+	if g := cert.InputGain; g != nil && len(ds.Inputs) > 0 && len(ds.Inputs) == len(g.RestInput) {
+		// A certificate at rest input is checked where the inputs rest.
+		ds = fit.RestSegments(ds, g.RestInput)
+	}
 	opts := &validate.Options{Beta: c.Beta, MinDecrease: c.MinDecrease, Tolerance: c.Tolerance}
 	val, runs, err := validate.Check(ctx, cert, ds, opts)
 	if err != nil {
