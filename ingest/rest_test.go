@@ -3,7 +3,6 @@ package ingest
 import (
 	"context"
 	"fmt"
-	"math"
 	"math/rand/v2"
 	"path/filepath"
 	"slices"
@@ -99,7 +98,7 @@ func TestRestPointsTwoWells(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if rps := RestPoints(ds); len(rps) != 1 || rps[0].Runs != 2 || math.Abs(rps[0].Point[0]-1) > 0.03 {
+	if rps := RestPoints(ds); len(rps) != 1 || rps[0].Runs != 2 || !scalar.EqualWithinAbs(rps[0].Point[0], 1, 0.03) {
 		t.Errorf("one well: %+v", rps)
 	}
 }

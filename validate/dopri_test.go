@@ -48,7 +48,7 @@ func TestDopriTableau(t *testing.T) {
 			t.Errorf("FSAL: A[6][%d] != b5[%d]", i, i)
 		}
 	}
-	if math.Abs(e) > tol {
+	if !scalar.EqualWithinAbs(e, 0, tol) {
 		t.Errorf("error weights sum to %v", e)
 	}
 	// D1: one step on y' = y with h = 1 gives the stability polynomial at

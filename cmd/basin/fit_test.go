@@ -5,7 +5,6 @@ import (
 	"context"
 	"encoding/json"
 	"fmt"
-	"math"
 	"math/rand/v2"
 	"os"
 	"path/filepath"
@@ -13,6 +12,7 @@ import (
 	"testing"
 
 	"basin.example/fit"
+	"gonum.org/v1/gonum/floats/scalar"
 )
 
 // writeOscillator writes runs of theta' = omega, omega' = -4 theta -
@@ -73,7 +73,7 @@ func TestFitCommand(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if m.Units[1] != "rad/s" || len(m.Equations[1].Coefficients) != 2 || math.Abs(m.Equations[1].Coefficients[0]+4) > 1e-3 {
+	if m.Units[1] != "rad/s" || len(m.Equations[1].Coefficients) != 2 || !scalar.EqualWithinAbs(m.Equations[1].Coefficients[0], -4, 1e-3) {
 		t.Errorf("model %+v", m.Equations)
 	}
 	// --json prints the same model.
