@@ -177,20 +177,26 @@ func Affine(p *Poly, shift, scale []float64) *Poly {
 			if _, ok := keep[key]; !ok {
 				keep[key] = append([]int(nil), b...)
 			}
-			j := 0
-			for ; j < n; j++ {
-				b[j]++
-				if b[j] <= e[j] {
-					break
-				}
-				b[j] = 0
-			}
-			if j == n {
+			if !nextBelow(b, e) {
 				break
 			}
 		}
 	}
 	return fromMap(n, acc, keep)
+}
+
+// nextBelow steps the multi-index b to the next one with b <= e
+// componentwise (the first index fastest), and reports false when b has
+// wrapped back to zero after the last one.
+func nextBelow(b, e []int) bool {
+	for j := range b {
+		b[j]++
+		if b[j] <= e[j] {
+			return true
+		}
+		b[j] = 0
+	}
+	return false
 }
 
 func binom(n, k int) float64 {
@@ -262,15 +268,7 @@ func NewBounder(p *Poly) *Bounder {
 			bd.src = append(bd.src, int32(k))
 			bd.dst = append(bd.dst, di)
 			bd.fac = append(bd.fac, f*p.C[k])
-			j := 0
-			for ; j < n; j++ {
-				b[j]++
-				if b[j] <= e[j] {
-					break
-				}
-				b[j] = 0
-			}
-			if j == n {
+			if !nextBelow(b, e) {
 				break
 			}
 		}
