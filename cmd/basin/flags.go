@@ -71,29 +71,12 @@ func (f *inputFlags) options() (*ingest.Options, error) {
 	}
 	o := &ingest.Options{TimeCol: f.TimeCol, Rate: f.Rate, RunCol: f.RunCol, Manifest: f.Manifest,
 		From: f.From, To: f.To, KeepHead: f.KeepHead, KeepEvents: f.KeepEvents}
-	if f.States != "" {
-		for _, s := range strings.Split(f.States, ",") {
-			s = strings.TrimSpace(s)
-			if s == "" {
-				return nil, usagef("--states: empty name in %q", f.States)
-			}
-			if slices.Contains(o.States, s) {
-				return nil, usagef("--states names %q twice", s)
-			}
-			o.States = append(o.States, s)
-		}
+	var err error
+	if o.States, err = nameList("--states", f.States); err != nil {
+		return nil, err
 	}
-	if f.Inputs != "" {
-		for _, s := range strings.Split(f.Inputs, ",") {
-			s = strings.TrimSpace(s)
-			if s == "" {
-				return nil, usagef("--inputs: empty name in %q", f.Inputs)
-			}
-			if slices.Contains(o.Inputs, s) {
-				return nil, usagef("--inputs names %q twice", s)
-			}
-			o.Inputs = append(o.Inputs, s)
-		}
+	if o.Inputs, err = nameList("--inputs", f.Inputs); err != nil {
+		return nil, err
 	}
 	return o, nil
 }
@@ -236,4 +219,24 @@ func (b *byteSize) Set(s string) error {
 	}
 	*b = byteSize(v * mult)
 	return nil
+}
+
+// nameList splits a comma-separated list of column names given to flag,
+// refusing an empty name and a name given twice; "" gives nil.
+func nameList(flag, list string) ([]string, error) {
+	if list == "" {
+		return nil, nil
+	}
+	var out []string
+	for _, s := range strings.Split(list, ",") {
+		s = strings.TrimSpace(s)
+		if s == "" {
+			return nil, usagef("%s: empty name in %q", flag, list)
+		}
+		if slices.Contains(out, s) {
+			return nil, usagef("%s names %q twice", flag, s)
+		}
+		out = append(out, s)
+	}
+	return out, nil
 }
