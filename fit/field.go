@@ -7,11 +7,13 @@ import (
 	"math"
 	"math/rand/v2"
 	"runtime"
+	"slices"
 	"sort"
 	"sync"
 
 	"basin.example/fit/poly"
 	"basin.example/ingest"
+	"basin.example/internal/order"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -509,8 +511,9 @@ func Field(ctx context.Context, ds *ingest.Dataset, opts *FieldOptions) (*Model,
 					}
 				}
 				inc := float64(in) / float64(len(rc))
+				slices.Sort(vals)
 				eq.Terms = append(eq.Terms, Term{Name: lib.Name(k, vnames),
-					Interval:  [2]float64{quantile(vals, 0.025), quantile(vals, 0.975)},
+					Interval:  [2]float64{order.Quantile(vals, 0.025), order.Quantile(vals, 0.975)},
 					KeptShare: inc, RarelyKept: inc < RarelyKeptShare})
 			}
 		}
@@ -863,7 +866,8 @@ func equilibria(m *Model, runs []*ingest.Run) {
 		for i, s := range src {
 			v[i] = s[j]
 		}
-		m.Settle[j] = quantile(v, 0.5)
+		slices.Sort(v)
+		m.Settle[j] = order.Quantile(v, 0.5)
 	}
 	starts := [][]float64{m.Settle}
 	stride := max(1, len(tails)/50)

@@ -3,9 +3,9 @@ package fit
 import (
 	"fmt"
 	"math"
-	"sort"
 
 	"basin.example/ingest"
+	"basin.example/internal/order"
 )
 
 // Input is a measured column of the fit that is not a state (a drive, a
@@ -106,28 +106,19 @@ func restInput(m *Model, runs []*ingest.Run, q int) []float64 {
 		}
 	}
 	out := make([]float64, q)
+	var w []float64
 	for j := range out {
 		src := settled[j]
 		if len(src) == 0 {
 			src = all[j]
 		}
-		out[j] = median(src)
-	}
-	return out
-}
-
-func median(v []float64) float64 {
-	var w []float64
-	for _, x := range v {
-		if !math.IsNaN(x) {
-			w = append(w, x)
+		// the upper median of the samples that are not NaN (0 when none
+		// is): always an observed value
+		if w = order.Sorted(w, src); len(w) > 0 {
+			out[j] = order.HighMedian(w)
 		}
 	}
-	if len(w) == 0 {
-		return 0
-	}
-	sort.Float64s(w)
-	return w[len(w)/2]
+	return out
 }
 
 // varScale is the centring and scaling of the library's variables: the

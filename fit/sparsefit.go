@@ -4,9 +4,10 @@ import (
 	"context"
 	"math"
 	"math/rand/v2"
-	"sort"
+	"slices"
 
 	"basin.example/fit/internal/gram"
+	"basin.example/internal/order"
 	"basin.example/internal/parallel"
 	"gonum.org/v1/gonum/mat"
 )
@@ -403,13 +404,9 @@ func (pr *problem) bootstrap(ctx context.Context, B int, seed uint64, taus, lams
 	return reps, err
 }
 
-// quantile returns the p-quantile of xs (sorted in place), interpolating.
+// quantile sorts xs in place and returns its p-quantile, Hyndman and
+// Fan's definition 7 ([order.Quantile]).
 func quantile(xs []float64, p float64) float64 {
-	sort.Float64s(xs)
-	h := p * float64(len(xs)-1)
-	i := int(h)
-	if i+1 >= len(xs) {
-		return xs[len(xs)-1]
-	}
-	return xs[i] + (h-float64(i))*(xs[i+1]-xs[i])
+	slices.Sort(xs)
+	return order.Quantile(xs, p)
 }

@@ -5,6 +5,7 @@ import (
 	"slices"
 
 	"basin.example/fit"
+	"basin.example/internal/order"
 )
 
 // DecayMinSamples is the fewest samples inside the region and outside the
@@ -39,7 +40,7 @@ func DecayOf(runs []RunScreen) *fit.Decay {
 	}
 	slices.Sort(rates)
 	n := len(rates)
-	d := &fit.Decay{Runs: n, Rates: rates, Min: rates[0], Max: rates[n-1], Median: median(rates)}
+	d := &fit.Decay{Runs: n, Rates: rates, Min: rates[0], Max: rates[n-1], Median: order.Median(rates)}
 	if n < decayMinRuns || !(rates[0] > 0) {
 		d.Rule = fmt.Sprintf("no bound: %d held-out run(s) with a rate, smallest %.3g 1/s (a bound needs %d runs and a positive smallest rate)",
 			n, rates[0], decayMinRuns)
@@ -57,13 +58,4 @@ func DecayOf(runs []RunScreen) *fit.Decay {
 		"a run like the held-out ones falls below their smallest with chance at most 1/(n+1) = %.3g",
 		decayBoundShare, n, 1/float64(n+1))
 	return d
-}
-
-// median returns the median of sorted, non-empty x.
-func median(x []float64) float64 {
-	n := len(x)
-	if n%2 == 1 {
-		return x[n/2]
-	}
-	return (x[n/2-1] + x[n/2]) / 2
 }
