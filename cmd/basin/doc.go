@@ -188,7 +188,7 @@ plus --quiet, --json and the flags of Reading logs except --manifest.
 
 # basin export
 
-	basin export --cert certificate.json --lang go|c|python|sql [--table NAME]
+	basin export --cert certificate.json --lang go|c|python|sql [--table NAME] [--rise-tol DV]
 
 Prints a dependency-free function that evaluates V in the logs' units and
 tests membership of the region, for a monitor on the rig; with --lang sql,
@@ -202,6 +202,8 @@ run.
 	--prefix PREFIX     the C identifier prefix (default basin_)
 	--table NAME        the SQL table (default samples; one to three
 	                    identifiers joined by dots)
+	--rise-tol DV       SQL: tolerated rise of V between samples, as for
+	                    screen (default: the certificate's)
 	--quiet             no warnings
 
 # basin demo

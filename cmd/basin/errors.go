@@ -38,7 +38,7 @@ func usagef(format string, a ...any) error { return &usageError{fmt.Sprintf(form
 var badInput = []error{
 	ingest.ErrEmpty, ingest.ErrFormat, ingest.ErrNoFiles, ingest.ErrNoTime, ingest.ErrNoStates, ingest.ErrWindow,
 	fit.ErrTooFewSamples, fit.ErrBudget, fit.ErrConstant, fit.ErrCollinear, fit.ErrShortRun, fit.ErrMismatch, fit.ErrOptions,
-	validate.ErrOptions, export.ErrNoV,
+	validate.ErrOptions, export.ErrNoV, export.ErrOption,
 }
 
 // optionFlags maps the Go option fields the libraries name in their errors
@@ -50,6 +50,7 @@ var optionFlags = strings.NewReplacer(
 	"fit.FieldOptions.Derivative", "--deriv", "fit.FieldOptions.Bootstrap", "--bootstrap",
 	"fit.FieldOptions.MaxMemory", "--max-memory",
 	"fit.CertifyOptions.Degree", "--v-degree", "fit.CertifyOptions.Growth", "--growth",
+	"export.Options.RiseTolerance", "--rise-tol", "Options.RiseTolerance", "--rise-tol",
 	"validate.Options.Folds", "--folds", "validate.Options.Beta", "--beta", "validate.Options.MinDecrease", "--min-decrease",
 	"Options.TimeCol", "--time-col", "Options.Rate", "--rate", "Options.RunCol", "--run-col",
 	"Options.States", "--states", "Options.Manifest", "--manifest",

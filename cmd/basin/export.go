@@ -6,6 +6,7 @@ import (
 	"errors"
 	"flag"
 	"go/token"
+	"math"
 	"os"
 
 	"basin.example/fit"
@@ -19,6 +20,7 @@ type exportFlags struct {
 	Package string
 	Prefix  string
 	Table   string
+	RiseTol float64
 	Quiet   bool
 }
 
@@ -28,11 +30,12 @@ func (f *exportFlags) register(fs *flag.FlagSet) {
 	fs.StringVar(&f.Package, "package", "", "Go package `NAME` (default basinv)")
 	fs.StringVar(&f.Prefix, "prefix", "", "C identifier `PREFIX` (default basin_)")
 	fs.StringVar(&f.Table, "table", "", "SQL table `NAME` the query reads (default samples; letters, digits, _, parts joined by dots)")
+	fs.Float64Var(&f.RiseTol, "rise-tol", 0, "SQL: tolerated rise of V between samples `DV`, as for screen (0: the certificate's)")
 	fs.BoolVar(&f.Quiet, "quiet", false, "no warnings")
 }
 
 var cmdExport = &command{
-	UsageLine: "basin export --cert certificate.json --lang go|c|python|sql [--table NAME]",
+	UsageLine: "basin export --cert certificate.json --lang go|c|python|sql [--table NAME] [--rise-tol DV]",
 	Short:     "write a dependency-free function that evaluates V, or the screening rule as SQL",
 	Long: `Writes, on standard output, a small function with no dependencies that
 evaluates the certificate's Lyapunov function V at a state vector in the
@@ -51,7 +54,9 @@ certificate records held-out decay rates, slow. It uses window functions
 over PARTITION BY run ORDER BY t and no vendor functions, so it runs on
 PostgreSQL, SQLite and engines that follow the standard, distributed ones
 included (the work partitions by run). Identifiers are quoted, so names
-match exactly, case included.
+match exactly, case included. --rise-tol DV sets the tolerated rise of V
+between samples as basin screen --rise-tol does (default: the
+certificate's), so the query flags what screen flags with the same flag.
 
 A certificate that is not certified still exports, with a warning in the
 code and on standard error: its region claims nothing.`,
@@ -83,6 +88,12 @@ func runExport(ctx context.Context, e *env, args []string) error {
 	if c.Table != "" && c.Lang != export.SQL {
 		return usagef("--table applies to --lang sql only")
 	}
+	if !(c.RiseTol >= 0) || math.IsInf(c.RiseTol, 0) { // NaN fails the first test
+		return usagef("--rise-tol must be a finite number >= 0, got %g", c.RiseTol)
+	}
+	if c.RiseTol != 0 && c.Lang != export.SQL {
+		return usagef("--rise-tol applies to --lang sql only")
+	}
 	cert, err := certFromFile(c.Cert)
 	if err != nil {
 		return err
@@ -91,7 +102,7 @@ func runExport(ctx context.Context, e *env, args []string) error {
 	if c.Package != "" && (!token.IsIdentifier(c.Package) || c.Package == "_") {
 		return usagef("--package %q: not a valid identifier for a Go package (a keyword, or not an identifier)", printable(c.Package))
 	}
-	err = export.Write(&b, cert, c.Lang, &export.Options{Package: c.Package, Prefix: c.Prefix, Table: c.Table})
+	err = export.Write(&b, cert, c.Lang, &export.Options{Package: c.Package, Prefix: c.Prefix, Table: c.Table, RiseTolerance: c.RiseTol})
 	switch {
 	case errors.Is(err, export.ErrName):
 		return usagef("%v", err)

@@ -58,6 +58,10 @@ func TestExportCommand(t *testing.T) {
 		{"sql", []string{"export", "--cert", good, "--lang", "sql"}, 0, `FROM "samples"`, "without the slow column"},
 		{"sql table", []string{"export", "--cert", good, "--lang", "sql", "--table", "lake.fleet_logs"}, 0, `FROM "lake"."fleet_logs"`, ""},
 		{"sql bad table", []string{"export", "--cert", good, "--lang", "sql", "--table", "logs; DROP TABLE x"}, 2, "", "not a valid identifier"},
+		{"sql rise-tol", []string{"export", "--cert", good, "--lang", "sql", "--rise-tol", "0.25"}, 0, "tolerated rise of V between samples: 0.25", ""},
+		{"sql bad rise-tol", []string{"export", "--cert", good, "--lang", "sql", "--rise-tol", "-1"}, 2, "", "--rise-tol must be a finite number >= 0, got -1"},
+		{"sql NaN rise-tol", []string{"export", "--cert", good, "--lang", "sql", "--rise-tol", "NaN"}, 2, "", "--rise-tol must be a finite number >= 0"},
+		{"rise-tol without sql", []string{"export", "--cert", good, "--lang", "c", "--rise-tol", "0.1"}, 2, "", "--rise-tol applies to --lang sql only"},
 		{"table without sql", []string{"export", "--cert", good, "--lang", "go", "--table", "t"}, 2, "", "--table applies to --lang sql only"},
 		{"not certified", []string{"export", "--cert", writeTestCert(t, strings.Replace(certJSON, `"certified"`, `"inconclusive"`, 1)), "--lang", "python"}, 0, "NOT certified", "claims nothing"},
 	}

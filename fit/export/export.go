@@ -50,6 +50,8 @@ var (
 	ErrLang = errors.New("unknown language (want go, c, python or sql)")
 	ErrNoV  = errors.New("certificate holds no V")
 	ErrName = errors.New("not a valid identifier")
+	// ErrOption reports an Options value out of its range.
+	ErrOption = errors.New("option out of range")
 )
 
 // Options controls [Write]. A nil *Options means all defaults.
@@ -63,6 +65,14 @@ type Options struct {
 	// Table is the table the SQL query reads: one to three identifiers
 	// joined by dots. Empty means "samples". Ignored for other languages.
 	Table string
+	// RiseTolerance is the SQL query's tolerated rise of V between
+	// consecutive samples, in units of V, as [validate.ScreenOptions]
+	// Tolerance is for basin screen (it also widens the leave level and
+	// is scaled by each run's noise in the same way). 0 means the
+	// certificate's Tolerance. Write returns an error wrapping
+	// [ErrOption] when it is negative, NaN or infinite. Ignored for other
+	// languages.
+	RiseTolerance float64
 }
 
 var ident = regexp.MustCompile(`^[A-Za-z_][A-Za-z0-9_]*$`)
@@ -72,7 +82,8 @@ var ident = regexp.MustCompile(`^[A-Za-z_][A-Za-z0-9_]*$`)
 // (see the package doc; opts.Table names its table). It returns an error wrapping [ErrLang]
 // for an unknown language, [ErrNoV] for a certificate without V terms,
 // [ErrName] for a bad Options name (a Table that is not one to three
-// identifiers joined by dots), or the writer's error. Nothing is written
+// identifiers joined by dots), [ErrOption] for an SQL RiseTolerance that
+// is negative or not finite, or the writer's error. Nothing is written
 // on an error other than the writer's.
 func Write(w io.Writer, cert *fit.Certificate, lang string, opts *Options) error {
 	o := Options{Package: "basinv", Prefix: "basin_"}

@@ -25,7 +25,8 @@ var tableName = regexp.MustCompile(`^[A-Za-z_][A-Za-z0-9_]*(\.[A-Za-z_][A-Za-z0-
 // writeSQL writes one query in standard SQL (ISO SQL:2003 window
 // functions, no vendor functions) that screens every run of a table by
 // the rules of basin screen ([validate.Screener]) with the certificate's
-// tolerances. The table (opts.Table, default [DefaultTable]) has columns
+// tolerances, or opts.RiseTolerance for the rise of V as
+// [validate.ScreenOptions] Tolerance. The table (opts.Table, default [DefaultTable]) has columns
 // run, t and one DOUBLE PRECISION column per state named as in the
 // certificate; the query returns one row per run, ordered by run, with
 // columns run, flagged, rises, leaves, unsettled and, when the
@@ -46,6 +47,13 @@ func writeSQL(b *strings.Builder, cert *fit.Certificate, opts *Options) error {
 	if len(cert.V.Exponents) == 0 {
 		return ErrNoV
 	}
+	var so validate.ScreenOptions
+	if opts != nil {
+		if !(opts.RiseTolerance >= 0) || math.IsInf(opts.RiseTolerance, 0) { // NaN fails the first test
+			return fmt.Errorf("Options.RiseTolerance %g (want a finite number >= 0): %w", opts.RiseTolerance, ErrOption)
+		}
+		so.Tolerance = opts.RiseTolerance
+	}
 	for _, s := range cert.States {
 		if strings.ContainsFunc(s, func(r rune) bool { return r < 0x20 || r == 0x7f }) || s == "" {
 			return fmt.Errorf("state %q: %w", s, ErrName)
@@ -55,7 +63,7 @@ func writeSQL(b *strings.Builder, cert *fit.Certificate, opts *Options) error {
 	for _, p := range strings.Split(table, ".") {
 		parts = append(parts, qid(p))
 	}
-	ru := validate.NewScreener(cert, nil).Rules()
+	ru := validate.NewScreener(cert, &so).Rules()
 	n := ru.N
 	for _, l := range headerLines(cert) {
 		b.WriteString(strings.TrimRight("-- "+l, " ") + "\n")
@@ -67,6 +75,10 @@ func writeSQL(b *strings.Builder, cert *fit.Certificate, opts *Options) error {
 -- DOUBLE PRECISION column per state, named as in the certificate; a run
 -- with a gap should be split into runs first, as basin does.
 `)
+	if so.Tolerance > 0 {
+		fmt.Fprintf(b, "-- Except the tolerated rise of V between samples: %s (the certificate's: %s).\n",
+			num(so.Tolerance), num(cert.Tolerance))
+	}
 	fmt.Fprintf(b, "-- States, in order: %d columns, quoted below.\n", n)
 	sq := func(x float64) string { return sqlNum(x) }
 	z := make([]string, n)

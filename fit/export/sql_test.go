@@ -3,6 +3,7 @@ package export_test
 import (
 	"bytes"
 	"database/sql"
+	"errors"
 	"fmt"
 	"math"
 	"math/rand/v2"
@@ -119,8 +120,10 @@ func (f flagRow) String() string {
 	return fmt.Sprintf("flagged %v rises %v leaves %v unsettled %v slow %v", f.flagged, f.rises, f.leaves, f.unsettled, f.slow)
 }
 
-func screenFlags(c *fit.Certificate, runs []ingest.Run) map[string]flagRow {
-	s := validate.NewScreener(c, nil)
+// screenFlags screens runs as basin screen --rise-tol tol does (0: the
+// certificate's tolerance).
+func screenFlags(c *fit.Certificate, runs []ingest.Run, tol float64) map[string]flagRow {
+	s := validate.NewScreener(c, &validate.ScreenOptions{Tolerance: tol})
 	out := map[string]flagRow{}
 	for i := range runs {
 		var rs validate.RunScreen
@@ -144,10 +147,10 @@ func screenFlags(c *fit.Certificate, runs []ingest.Run) map[string]flagRow {
 	return out
 }
 
-func query(t *testing.T, c *fit.Certificate, table string) string {
+func query(t *testing.T, c *fit.Certificate, table string, tol float64) string {
 	t.Helper()
 	var b bytes.Buffer
-	if err := export.Write(&b, c, export.SQL, &export.Options{Table: table}); err != nil {
+	if err := export.Write(&b, c, export.SQL, &export.Options{Table: table, RiseTolerance: tol}); err != nil {
 		t.Fatal(err)
 	}
 	return b.String()
@@ -169,6 +172,26 @@ func compare(t *testing.T, engine string, want, got map[string]flagRow) {
 			t.Errorf("%s: run %s: %v; screen: %v", engine, name, g, w)
 		}
 	}
+}
+
+// riseTols are the tolerances each engine is compared with screen at: the
+// certificate's (0), and a quarter of it, at which screen flags more runs
+// (checked by tolChanges), so a query that ignored the option would
+// differ from screen on some run.
+func riseTols(c *fit.Certificate) []float64 { return []float64{0, c.Tolerance / 4} }
+
+// tolChanges makes sure the non-default tolerance changes screen's flags
+// on at least one run, so the comparison at it can fail.
+func tolChanges(t *testing.T, name string, c *fit.Certificate, runs []ingest.Run) {
+	t.Helper()
+	tols := riseTols(c)
+	a, b := screenFlags(c, runs, tols[0]), screenFlags(c, runs, tols[1])
+	for k := range a {
+		if a[k] != b[k] {
+			return
+		}
+	}
+	t.Fatalf("%s: screen gives the same flags at --rise-tol %g as at the certificate's %g: the option is not exercised", name, tols[1], c.Tolerance)
 }
 
 // checkVariety makes sure the data exercise every flag and a clean run,
@@ -202,8 +225,8 @@ func checkVariety(t *testing.T, name string, want map[string]flagRow, slow bool)
 func TestSQLSQLite(t *testing.T) {
 	for name, c := range sqlCerts() {
 		runs := sqlRuns(c)
-		want := screenFlags(c, runs)
-		checkVariety(t, name, want, name == "two")
+		checkVariety(t, name, screenFlags(c, runs, 0), name == "two")
+		tolChanges(t, name, c, runs)
 		db, err := sql.Open("sqlite", ":memory:")
 		if err != nil {
 			t.Fatal(err)
@@ -240,27 +263,29 @@ func TestSQLSQLite(t *testing.T) {
 		if err := tx.Commit(); err != nil {
 			t.Fatal(err)
 		}
-		rows, err := db.Query(query(t, c, "fleet_logs"))
-		if err != nil {
-			t.Fatalf("%s: %v", name, err)
-		}
-		got := map[string]flagRow{}
-		for rows.Next() {
-			var run string
-			var v [5]int64
-			dst := []any{&run, &v[0], &v[1], &v[2], &v[3]}
-			if name == "two" {
-				dst = append(dst, &v[4])
+		for _, tol := range riseTols(c) {
+			rows, err := db.Query(query(t, c, "fleet_logs", tol))
+			if err != nil {
+				t.Fatalf("%s: %v", name, err)
 			}
-			if err := rows.Scan(dst...); err != nil {
+			got := map[string]flagRow{}
+			for rows.Next() {
+				var run string
+				var v [5]int64
+				dst := []any{&run, &v[0], &v[1], &v[2], &v[3]}
+				if name == "two" {
+					dst = append(dst, &v[4])
+				}
+				if err := rows.Scan(dst...); err != nil {
+					t.Fatal(err)
+				}
+				got[run] = flagRow{v[0] == 1, v[1] == 1, v[2] == 1, v[3] == 1, v[4] == 1}
+			}
+			if err := rows.Err(); err != nil {
 				t.Fatal(err)
 			}
-			got[run] = flagRow{v[0] == 1, v[1] == 1, v[2] == 1, v[3] == 1, v[4] == 1}
+			compare(t, fmt.Sprintf("sqlite %s rise-tol %g", name, tol), screenFlags(c, runs, tol), got)
 		}
-		if err := rows.Err(); err != nil {
-			t.Fatal(err)
-		}
-		compare(t, "sqlite "+name, want, got)
 	}
 }
 
@@ -375,8 +400,8 @@ func TestSQLPostgreSQL(t *testing.T) {
 	pg := startPostgres(t)
 	for name, c := range sqlCerts() {
 		runs := sqlRuns(c)
-		want := screenFlags(c, runs)
-		checkVariety(t, name, want, name == "two")
+		checkVariety(t, name, screenFlags(c, runs, 0), name == "two")
+		tolChanges(t, name, c, runs)
 		table := "fleet_" + name
 		cols := []string{`"run" TEXT`, `"t" DOUBLE PRECISION`}
 		for _, s := range c.States {
@@ -394,17 +419,41 @@ func TestSQLPostgreSQL(t *testing.T) {
 			}
 		}
 		pg.psql(t, `\copy logs.`+table+` FROM STDIN WITH (FORMAT csv)`, csv.Bytes())
-		out := pg.psql(t, query(t, c, "logs."+table), nil)
-		got := map[string]flagRow{}
-		for _, line := range strings.Split(strings.TrimSpace(out), "\n") {
-			f := strings.Split(line, ",")
-			if len(f) < 5 {
-				t.Fatalf("%s: row %q", name, line)
+		for _, tol := range riseTols(c) {
+			out := pg.psql(t, query(t, c, "logs."+table, tol), nil)
+			got := map[string]flagRow{}
+			for _, line := range strings.Split(strings.TrimSpace(out), "\n") {
+				f := strings.Split(line, ",")
+				if len(f) < 5 {
+					t.Fatalf("%s: row %q", name, line)
+				}
+				b := func(k int) bool { return k < len(f) && f[k] == "t" }
+				got[f[0]] = flagRow{b(1), b(2), b(3), b(4), b(5)}
 			}
-			b := func(k int) bool { return k < len(f) && f[k] == "t" }
-			got[f[0]] = flagRow{b(1), b(2), b(3), b(4), b(5)}
+			compare(t, fmt.Sprintf("postgresql %s rise-tol %g", name, tol), screenFlags(c, runs, tol), got)
 		}
-		compare(t, "postgresql "+name, want, got)
+	}
+}
+
+// TestSQLRiseTolerance: a tolerance screen would refuse is refused, with
+// nothing written; a valid one is named in the query's header.
+func TestSQLRiseTolerance(t *testing.T) {
+	c := sqlCerts()["two"]
+	for _, tc := range []struct {
+		tol float64
+		ok  bool
+	}{{0, true}, {1e-3, true}, {-1e-3, false}, {math.NaN(), false}, {math.Inf(1), false}} {
+		var b bytes.Buffer
+		err := export.Write(&b, c, export.SQL, &export.Options{RiseTolerance: tc.tol})
+		if tc.ok != (err == nil) || (!tc.ok && !errors.Is(err, export.ErrOption)) {
+			t.Errorf("RiseTolerance %g: error %v, want ok %v", tc.tol, err, tc.ok)
+		}
+		if !tc.ok && b.Len() != 0 {
+			t.Errorf("RiseTolerance %g: wrote %d bytes on error", tc.tol, b.Len())
+		}
+		if named := strings.Contains(b.String(), "tolerated rise of V between samples: 0.001 (the certificate's: 0.002)"); named != (tc.tol == 1e-3) {
+			t.Errorf("RiseTolerance %g: header names the tolerance: %v", tc.tol, named)
+		}
 	}
 }
 
