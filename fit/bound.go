@@ -62,9 +62,7 @@ func (ck *checker) verify(c []float64, r levelResult) levelResult {
 	}
 	vr := lyapunov.Verify(p, r.level, r.lo, r.hi)
 	r.bound = &vr
-	if certDebug != nil {
-		certDebug("bound: sampled level %.5g -> %.5g, limit %s at %v, box %v..%v (asked %v..%v), %d boxes, %d rounds, radial %.3g exempt %.3g", r.level, vr.Level, vr.Limit, vr.Point, vr.Lo, vr.Hi, r.lo, r.hi, vr.Boxes, vr.Rounds, vr.Radial, r.exempt)
-	}
+	tracef(ck.trace, "bound: sampled level %.5g -> %.5g, limit %s at %v, box %v..%v (asked %v..%v), %d boxes, %d rounds, radial %.3g exempt %.3g", r.level, vr.Level, vr.Limit, vr.Point, vr.Lo, vr.Hi, r.lo, r.hi, vr.Boxes, vr.Rounds, vr.Radial, r.exempt)
 	if vr.Level >= r.level {
 		return r
 	}

@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"io"
 	"math"
 	"math/rand/v2"
 	"sort"
@@ -39,6 +40,9 @@ type CertifyOptions struct {
 	// ShareSamples is the number of Monte-Carlo points for the trust region
 	// share; 0 means 20000.
 	ShareSamples int
+	// Trace, when set, receives one line of text per growth round and one
+	// for the bound check, to follow the search; nil means none.
+	Trace io.Writer `json:"-"`
 }
 
 func (o *CertifyOptions) get() CertifyOptions {
@@ -308,16 +312,14 @@ func Certify(ctx context.Context, m *Model, ds *ingest.Dataset, opts *CertifyOpt
 				lastErr = fmt.Sprintf("best margin %.3g <= 0", out.g)
 			default:
 				res := ck.level(out.c)
-				if certDebug != nil {
-					certDebug("round %d gamma %.3g target %.4g np %d g %.4g -> ok %v level %.4g share %.4f limit %s at %v (best %.4f)", round, gamma, target, rows.np, out.g, res.ok, res.level, res.share, res.limit, res.limitZ, best.res.share)
-				}
+				tracef(o.Trace, "round %d gamma %.3g target %.4g np %d g %.4g -> ok %v level %.4g share %.4f limit %s at %v (best %.4f)", round, gamma, target, rows.np, out.g, res.ok, res.level, res.share, res.limit, res.limitZ, best.res.share)
 				if res.ok && (!best.res.ok || res.share > best.res.share*(1+minGain)+1e-12) {
 					best = cand{c: out.c, g: out.g, res: res, source: "LP"}
 					improved = true
 				}
 			}
-			if certDebug != nil && !improved {
-				certDebug("round %d gamma %.3g: no gain: %v", round, gamma, lastErr)
+			if !improved {
+				tracef(o.Trace, "round %d gamma %.3g: no gain: %v", round, gamma, lastErr)
 			}
 		}
 		if improved {
@@ -461,8 +463,12 @@ func nextStep(limit string, cert *Certificate, m *Model) string {
 	return "Record runs that start within " + within + " to check and grow the region."
 }
 
-// certDebug, when set (tests only), receives one line per growth round.
-var certDebug func(format string, a ...any)
+// tracef writes one line of the search's trace to w (nothing when w is nil).
+func tracef(w io.Writer, format string, a ...any) {
+	if w != nil {
+		fmt.Fprintf(w, format+"\n", a...)
+	}
+}
 
 // formatPoint prints a point with state names and units.
 func formatPoint(x []float64, names, units []string) string {
@@ -491,26 +497,11 @@ func certScale(m *Model, ds *ingest.Dataset) []float64 {
 		return s
 	}
 	for j := 0; j < n; j++ {
-		// Sums of v - shift, shift a sample: sq/cnt - mean² on the raw
-		// values loses every digit when |mean| >> sd (a state logged with
-		// an offset); shifted, the cancellation is only that of the spread.
-		var sum, sq, cnt, shift float64
+		cols := make([][]float64, len(ds.Runs))
 		for i := range ds.Runs {
-			if len(ds.Runs[i].X[j]) > 0 {
-				shift = ds.Runs[i].X[j][0]
-				break
-			}
+			cols[i] = ds.Runs[i].X[j]
 		}
-		for i := range ds.Runs {
-			for _, v := range ds.Runs[i].X[j] {
-				d := v - shift
-				sum += d
-				sq += d * d
-				cnt++
-			}
-		}
-		mean := sum / cnt
-		sd := math.Sqrt(math.Max(0, sq/cnt-mean*mean))
+		sd := popSD(cols...)
 		if !(sd > 0) {
 			sd = 1
 		}
@@ -576,7 +567,7 @@ func newChecker(ctx context.Context, m *Model, ds *ingest.Dataset, xe, scale []f
 		fam: newVFamily(n, o.Degree), zf: newZField(m, xe, scale), runs: runs,
 		others: others, sigma: sigma,
 		r0:    math.Max(noiseRadiusSigmas*math.Sqrt(s2), minNoiseRadius),
-		kappa: o.Kappa,
+		kappa: o.Kappa, trace: o.Trace,
 	}
 	// The trust region: leverage over the model's terms.
 	var terms [][]int
@@ -622,31 +613,50 @@ func fieldSigma(m *Model, ck *checker, all []float64) []float64 {
 	ns := len(all) / n
 	stride := max(1, ns/5000)
 	f := make([]float64, n)
-	// Shifted sums (shift: the first sample's value), as in the scale
-	// above: stable when the mean is large against the spread.
-	sum, sq, shift := make([]float64, n), make([]float64, n), make([]float64, n)
-	cnt := 0.0
+	vals := make([][]float64, n)
 	for i := 0; i < ns; i += stride {
 		ck.zf.evalTo(f, all[i*n:(i+1)*n])
-		if i == 0 {
-			copy(shift, f)
-		}
 		for j, v := range f {
-			d := v - shift[j]
-			sum[j] += d
-			sq[j] += d * d
+			vals[j] = append(vals[j], v)
 		}
-		cnt++
 	}
 	out := make([]float64, n)
 	for j := range out {
-		mean := sum[j] / cnt
-		sd := math.Sqrt(math.Max(0, sq[j]/cnt-mean*mean))
 		if e := m.Equations[j].HeldoutError; e > 0 && !math.IsInf(e, 0) {
-			out[j] = e * sd
+			out[j] = e * popSD(vals[j])
 		}
 	}
 	return out
+}
+
+// popSD returns the population standard deviation (divided by the count)
+// of the values of every slice of xs taken together, 0 for none. It is
+// the corrected two-pass form (the mean first, then the squared
+// deviations less their sum's square over n, which removes the first
+// order of the mean's rounding; Chan, Golub & LeVeque [ChanGolubLeVeque1983]),
+// with no cancellation when the mean is large against the spread (a
+// state logged with an offset), unlike sq/n - mean².
+func popSD(xs ...[]float64) float64 {
+	var sum, cnt float64
+	for _, x := range xs {
+		for _, v := range x {
+			sum += v
+		}
+		cnt += float64(len(x))
+	}
+	if cnt == 0 {
+		return 0
+	}
+	mean := sum / cnt
+	var ss, sd float64
+	for _, x := range xs {
+		for _, v := range x {
+			d := v - mean
+			ss += d * d
+			sd += d
+		}
+	}
+	return math.Sqrt(math.Max(0, (ss-sd*sd/cnt)/cnt))
 }
 
 // Rays and Monte-Carlo points (not user-facing): raysPerState·n random

@@ -12,6 +12,7 @@ import (
 	"time"
 
 	"gonum.org/v1/gonum/floats/scalar"
+	"gonum.org/v1/gonum/stat"
 
 	"basin.example/ingest"
 )
@@ -650,5 +651,40 @@ func TestCertifyHigherDimensions(t *testing.T) {
 			}
 			checkConverges(t, sys, pts, 0.05)
 		}
+	}
+}
+
+// TestPopSD compares the two-pass standard deviation with gonum's
+// stat.PopMeanVariance [gonum] on values with a large offset, where
+// sq/n - mean² loses every digit [ChanGolubLeVeque1983], split across
+// slices as runs are.
+func TestPopSD(t *testing.T) {
+	rng := rand.New(rand.NewPCG(3, 0))
+	for _, tc := range []struct {
+		name   string
+		offset float64
+		tol    float64 // relative, on the standard deviation
+	}{
+		{"centred", 0, 1e-12},
+		// 1e9 offset, unit spread: the deviations are exact to ulp(1e9)
+		// ~1e-7 of each stored value, the same values gonum sees; the
+		// corrected form removes the mean's rounding to first order, so
+		// both agree far below 1e-12 relative.
+		{"offset 1e9", 1e9, 1e-12},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			xs := make([]float64, 5000)
+			for i := range xs {
+				xs[i] = tc.offset + rng.NormFloat64()
+			}
+			_, v := stat.PopMeanVariance(xs, nil)
+			got := popSD(xs[:1234], xs[1234:4000], nil, xs[4000:])
+			if want := math.Sqrt(v); !(want > 0.9) || !scalar.EqualWithinRel(got, want, tc.tol) {
+				t.Errorf("sd = %.15g, want %.15g", got, want)
+			}
+		})
+	}
+	if got := popSD(); got != 0 {
+		t.Errorf("popSD() = %g, want 0", got)
 	}
 }

@@ -1,8 +1,8 @@
 package fit
 
 import (
+	"io"
 	"math"
-	"math/rand/v2"
 
 	"basin.example/fit/lyapunov"
 	"gonum.org/v1/gonum/mat"
@@ -88,6 +88,7 @@ type checker struct {
 	// tmax is the longest run's duration.
 	nonRise bool
 	tmax    float64
+	trace   io.Writer // CertifyOptions.Trace
 }
 
 // nonRiseFloor is the relative allowance of V-dot on the non-rise path,
@@ -546,23 +547,10 @@ func (ck *checker) linearDecay(c []float64) (float64, bool) {
 	return lam, lam < 0
 }
 
-// ballMax returns the largest V found on the sphere |z| = r0.
-func (ck *checker) ballMax(ve *vEval, r0 float64) float64 {
-	n := ck.fam.n
-	z := make([]float64, n)
-	mx := 0.0
-	rng := rand.New(rand.NewPCG(7, 7))
-	for s := 0; s < 200*n; s++ {
-		r := 0.0
-		for j := range z {
-			z[j] = rng.NormFloat64()
-			r += z[j] * z[j]
-		}
-		r = r0 / math.Sqrt(r)
-		for j := range z {
-			z[j] *= r
-		}
-		mx = math.Max(mx, ve.value(z))
-	}
-	return mx
+// ballMax returns an upper bound of V on the ball |z| <= r: exact for a
+// quadratic V (r² lambda_max(P)), a sound term-wise bound otherwise (see
+// [lyapunov.BallMax]). An upper bound is the safe side: the level must
+// exceed every V of the exempt ball.
+func (ck *checker) ballMax(ve *vEval, r float64) float64 {
+	return lyapunov.BallMax(lyapunov.NewPoly(ck.fam.n, ck.fam.lib.Terms(), ve.c), r)
 }
