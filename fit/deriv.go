@@ -371,6 +371,8 @@ type derivWork struct {
 	wt0   []float64
 	node  []float64
 	group []int
+	pre   []float64 // prefix sums of sgBlocks
+	ref   []float64 // per-state reference levels of sgBlocks
 }
 
 func newDerivWork() *derivWork {
@@ -434,16 +436,37 @@ func (dw *derivWork) sgRuns(xs, dx [][]float64, t []float64, x [][]float64, half
 	dw.group = group
 }
 
-// sgGroup is sgRuns for the states in group, all of half-width m.
+// sgPerSample makes sgGroup factorise a normal matrix at every sample on
+// every grid (the reference path), for the benchmark and the tests that
+// compare the two paths.
+var sgPerSample = false
+
+// sgGroup is sgRuns for the states in group, all of half-width m. On a
+// uniform grid the centred weights are computed once and reused. On any
+// other grid the windows are summed from prefix sums ([derivWork.sgBlocks]),
+// which costs a few operations per sample instead of a factorisation over
+// the whole window.
 func (dw *derivWork) sgGroup(xs, dx [][]float64, t []float64, x [][]float64, group []int, m int, uni bool) {
 	n := len(t)
 	w := min(2*m+1, n)
+	if uni || sgPerSample || w < 4 {
+		dw.sgSamples(xs, dx, t, x, group, w, 0, n, uni)
+		return
+	}
+	dw.sgBlocks(xs, dx, t, x, group, w)
+}
+
+// sgSamples is sgGroup for the centres i0 <= i < i1 with windows of w
+// samples: a factorisation and a pair of weight vectors per sample
+// (once in all when uni says the grid is uniform).
+func (dw *derivWork) sgSamples(xs, dx [][]float64, t []float64, x [][]float64, group []int, w, i0, i1 int, uni bool) {
+	n := len(t)
 	if cap(dw.wt) < w {
 		dw.wt, dw.wt0, dw.node = make([]float64, w), make([]float64, w), make([]float64, w)
 	}
 	wt1, wt0, nodes := dw.wt[:w], dw.wt0[:w], dw.node[:w]
 	var c0, c1 []float64 // centred weights on a uniform grid
-	for i := 0; i < n; i++ {
+	for i := i0; i < i1; i++ {
 		a := stencil(i, n, w)
 		centred := a == i-w/2 && w%2 == 1
 		var u0, u1 []float64
@@ -474,4 +497,172 @@ func (dw *derivWork) sgGroup(xs, dx [][]float64, t []float64, x [][]float64, gro
 			xs[j][i], dx[j][i] = s0, s1
 		}
 	}
+}
+
+// sgMoments is the number of power sums of the offsets a cubic fit needs
+// (u^0 .. u^6) and sgCoef the number of its coefficients.
+const (
+	sgMoments = 7
+	sgCoef    = 4
+)
+
+// sgBlock returns how many consecutive centres share one anchor in
+// sgBlocks for windows of w samples: a quarter of the window, so that a
+// window spans at least four fifths of its block's nodes and the normal
+// matrix in the block's offsets stays about as well conditioned as in
+// the window's own (its condition grows like the inverse sixth power of
+// that share).
+func sgBlock(w int) int { return max(1, w/4) }
+
+// sgBlocks is sgGroup for a cubic on windows of w >= 4 samples on any
+// grid. The centres go in blocks of sgBlock(w); a block's nodes span the
+// union of its windows, and each node's offset u = (t - tc)/L from the
+// span's midpoint tc (L its half-length, so |u| <= 1) enters prefix sums
+// of u^0..u^6 and of u^0..u^3 times each state (less the state's value
+// at the span's middle, so a large constant level costs no digits). A
+// window's normal matrix and right-hand sides are then differences of
+// two prefix rows; one Cholesky factor per sample serves every state of
+// the group, and value and slope come from one solve per state,
+// evaluated at the sample's own offset. The least-squares cubic does not
+// depend on the basis it is written in, so this is the per-sample fit of
+// sgSamples up to rounding. A block whose sums are not finite, or a
+// window whose normal matrix is near singular, goes to sgSamples.
+func (dw *derivWork) sgBlocks(xs, dx [][]float64, t []float64, x [][]float64, group []int, w int) {
+	n := len(t)
+	g := len(group)
+	stride := sgMoments + sgCoef*g
+	b := sgBlock(w)
+	if cap(dw.ref) < g {
+		dw.ref = make([]float64, g)
+	}
+	ref := dw.ref[:g]
+	for i0 := 0; i0 < n; i0 += b {
+		i1 := min(n, i0+b)
+		lo := stencil(i0, n, w)
+		hi := stencil(i1-1, n, w) + w
+		tc := 0.5 * (t[lo] + t[hi-1])
+		half := 0.5 * (t[hi-1] - t[lo])
+		if !(half > 0) || math.IsInf(half, 0) {
+			dw.sgSamples(xs, dx, t, x, group, w, i0, i1, false)
+			continue
+		}
+		inv := 1 / half
+		mid := (lo + hi) / 2
+		for k, j := range group {
+			ref[k] = x[j][mid]
+		}
+		span := hi - lo
+		if need := (span + 1) * stride; cap(dw.pre) < need {
+			dw.pre = make([]float64, need)
+		}
+		pre := dw.pre[:(span+1)*stride]
+		clear(pre[:stride])
+		for k := 0; k < span; k++ {
+			src := pre[k*stride : (k+1)*stride]
+			dst := pre[(k+1)*stride : (k+2)*stride]
+			u := (t[lo+k] - tc) * inv
+			u2 := u * u
+			u3 := u2 * u
+			dst[0] = src[0] + 1
+			dst[1] = src[1] + u
+			dst[2] = src[2] + u2
+			dst[3] = src[3] + u3
+			dst[4] = src[4] + u2*u2
+			dst[5] = src[5] + u2*u3
+			dst[6] = src[6] + u3*u3
+			for q, j := range group {
+				v := x[j][lo+k] - ref[q]
+				o := sgMoments + sgCoef*q
+				dst[o] = src[o] + v
+				dst[o+1] = src[o+1] + v*u
+				dst[o+2] = src[o+2] + v*u2
+				dst[o+3] = src[o+3] + v*u3
+			}
+		}
+		if !finite(pre[span*stride : (span+1)*stride]...) {
+			dw.sgSamples(xs, dx, t, x, group, w, i0, i1, false)
+			continue
+		}
+		for i := i0; i < i1; i++ {
+			a := stencil(i, n, w) - lo
+			r0 := pre[a*stride : (a+1)*stride]
+			r1 := pre[(a+w)*stride : (a+w+1)*stride]
+			var f ldl4
+			if !f.factor(r0, r1) {
+				dw.sgSamples(xs, dx, t, x, group, w, i, i+1, false)
+				continue
+			}
+			u := (t[i] - tc) * inv
+			for q, j := range group {
+				o := sgMoments + sgCoef*q
+				c0, c1, c2, c3 := f.solve(r1[o]-r0[o], r1[o+1]-r0[o+1], r1[o+2]-r0[o+2], r1[o+3]-r0[o+3])
+				xs[j][i] = ref[q] + (c0 + u*(c1+u*(c2+u*c3)))
+				dx[j][i] = (c1 + u*(2*c2+u*3*c3)) * inv
+			}
+		}
+	}
+}
+
+// sgPivotMin is the smallest share of a diagonal entry of the normal
+// matrix that its Cholesky pivot may keep: below it the window's offsets
+// hardly carry a cubic (repeated time stamps) and the sample goes to the
+// per-sample path, which decides for itself.
+const sgPivotMin = 1e-9
+
+// ldl4 is the factorisation L D L' of a 4x4 normal matrix of a cubic
+// (unit lower triangular L below the diagonal, and the reciprocals of D).
+type ldl4 struct {
+	l10, l20, l30, l21, l31, l32 float64
+	r0, r1, r2, r3               float64
+}
+
+// factor factorises the Hankel matrix whose entry (u, v) is the power
+// sum r1[u+v] - r0[u+v], and reports whether every pivot D_j kept at
+// least sgPivotMin of its diagonal entry.
+func (f *ldl4) factor(r0, r1 []float64) bool {
+	r0, r1 = r0[:sgMoments], r1[:sgMoments]
+	m0, m1, m2, m3 := r1[0]-r0[0], r1[1]-r0[1], r1[2]-r0[2], r1[3]-r0[3]
+	m4, m5, m6 := r1[4]-r0[4], r1[5]-r0[5], r1[6]-r0[6]
+	// Column 0.
+	if !(m0 > 0) {
+		return false
+	}
+	f.r0 = 1 / m0
+	f.l10, f.l20, f.l30 = m1*f.r0, m2*f.r0, m3*f.r0
+	// Column 1: e = a - sum over earlier columns of L D L'.
+	d1 := m2 - f.l10*m1
+	if !(d1 > sgPivotMin*m2) {
+		return false
+	}
+	f.r1 = 1 / d1
+	e21 := m3 - f.l20*m1
+	e31 := m4 - f.l30*m1
+	f.l21, f.l31 = e21*f.r1, e31*f.r1
+	// Column 2.
+	d2 := m4 - f.l20*m2 - f.l21*e21
+	if !(d2 > sgPivotMin*m4) {
+		return false
+	}
+	f.r2 = 1 / d2
+	e32 := m5 - f.l30*m2 - f.l31*e21
+	f.l32 = e32 * f.r2
+	// Column 3.
+	d3 := m6 - f.l30*m3 - f.l31*e31 - f.l32*e32
+	if !(d3 > sgPivotMin*m6) {
+		return false
+	}
+	f.r3 = 1 / d3
+	return true
+}
+
+// solve returns the solution of L D L' c = b.
+func (f *ldl4) solve(b0, b1, b2, b3 float64) (c0, c1, c2, c3 float64) {
+	y1 := b1 - f.l10*b0
+	y2 := b2 - f.l20*b0 - f.l21*y1
+	y3 := b3 - f.l30*b0 - f.l31*y1 - f.l32*y2
+	c3 = y3 * f.r3
+	c2 = y2*f.r2 - f.l32*c3
+	c1 = y1*f.r1 - f.l21*c2 - f.l31*c3
+	c0 = b0*f.r0 - f.l10*c1 - f.l20*c2 - f.l30*c3
+	return
 }

@@ -269,3 +269,196 @@ func TestSGRunsLeastSquares(t *testing.T) {
 		}
 	}
 }
+
+// TestSGBlocksTables forces the prefix-sum path (sgBlocks) onto a uniform
+// grid and reads its value and slope weights off impulse responses: a
+// unit sample at node j gives, at centre i, the weight of offset j - i.
+// They must be the cubic tables of [SavitzkyGolay1964], "Smoothing and
+// differentiation of data by simplified least squares procedures", Anal.
+// Chem. 36(8), 1964 (Tables I and III, with the corrections of Steinier,
+// Termonia & Deltour, 1972). The sums are differences of prefix sums over
+// a block (at most 1.25 windows of nodes, |u| <= 1) and the normal
+// matrices have condition below 300 (gonum's mat.Cond on the worst
+// window of a block, measured for 5..121 points), so the weights agree
+// with the exact rationals to about 300 * 2.2e-16 * 121 ≈ 1e-11: 1e-10.
+func TestSGBlocksTables(t *testing.T) {
+	for _, tc := range []struct {
+		m      int
+		w0, w1 []float64
+	}{
+		{2, scaled([]float64{-3, 12, 17, 12, -3}, 35), scaled([]float64{1, -8, 0, 8, -1}, 12)},
+		{3, scaled([]float64{-2, 3, 6, 7, 6, 3, -2}, 21), scaled([]float64{22, -67, -58, 0, 58, 67, -22}, 252)},
+		{4, scaled([]float64{-21, 14, 39, 54, 59, 54, 39, 14, -21}, 231),
+			scaled([]float64{86, -142, -193, -126, 0, 126, 193, 142, -86}, 1188)},
+	} {
+		w := 2*tc.m + 1
+		n := 6 * w
+		tm := make([]float64, n)
+		for i := range tm {
+			tm[i] = float64(i)
+		}
+		j := n / 2
+		x := [][]float64{make([]float64, n)}
+		x[0][j] = 1
+		xs, dx := [][]float64{make([]float64, n)}, [][]float64{make([]float64, n)}
+		newDerivWork().sgBlocks(xs, dx, tm, x, []int{0}, w)
+		got0, got1 := make([]float64, w), make([]float64, w)
+		for k := range w { // centre i = j - (k - m) sees the impulse at offset k - m
+			i := j - (k - tc.m)
+			got0[k], got1[k] = xs[0][i], dx[0][i]
+		}
+		if !floats.EqualApprox(got0, tc.w0, 1e-10) || !floats.EqualApprox(got1, tc.w1, 1e-10) {
+			t.Errorf("%d points: value weights %v, want %v; slope weights %v, want %v", w, got0, tc.w0, got1, tc.w1)
+		}
+	}
+}
+
+// TestSGJitteredCubic checks sgRuns on jittered clocks against the exact
+// value and slope of a cubic: a least-squares cubic reproduces a cubic
+// exactly on any nodes (common practice: Savitzky–Golay of order p is
+// exact for polynomials of degree <= p), so only rounding is left. It is
+// bounded by the condition of the normal matrices (below 300, see
+// TestSGBlocksTables) times 2.2e-16 times the window's size (<= 121)
+// times the data's scale X: about 1e-11 X for the value and 1e-11 X / H
+// for the slope, H the window's half-length in time; the test allows ten
+// times that. The cases cover the demo's clock (200 Hz, 20 µs rms
+// jitter), a jitter of a third of the step, a clock that starts at 1e4 s
+// (offsets lose digits to the large times) and a large constant level.
+func TestSGJitteredCubic(t *testing.T) {
+	for _, tc := range []struct {
+		name           string
+		t0, h, jitter  float64 // start, step, uniform jitter half-width (s)
+		level          float64
+		half           []int
+		wantBlocksPath bool
+	}{
+		{"demo clock", 0, 0.005, 35e-6, 0, []int{6, 12}, true},
+		{"a third of a step", 0, 0.005, 0.005 / 3, 0, []int{2, 3, 60}, true},
+		{"late clock", 1e4, 0.01, 1e-3, 0, []int{4, 30}, true},
+		{"large level", 0, 0.001, 2e-4, 1e3, []int{5, 19}, true},
+		{"uniform", 0, 0.005, 0, 0, []int{6, 12}, false},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			rng := rand.New(rand.NewPCG(11, 0))
+			n := 700
+			tm := make([]float64, n)
+			for i := range tm {
+				tm[i] = tc.t0 + tc.h*float64(i) + tc.jitter*(2*rng.Float64()-1)
+			}
+			if uni, _ := uniformGrid(tm); uni == tc.wantBlocksPath {
+				t.Fatalf("uniform grid %v: the case does not take the path it is meant for", uni)
+			}
+			// x_j(t) = level + a + b s + c s^2 + d s^3 with s = t - mid.
+			mid := tm[n/2]
+			span := tm[n-1] - tm[0]
+			coef := [][4]float64{{0.3, 1.2 / span, -4 / (span * span), 9 / (span * span * span)},
+				{-1, 0.5 / span, 2 / (span * span), -3 / (span * span * span)}}
+			x := make([][]float64, len(tc.half))
+			xs := make([][]float64, len(tc.half))
+			dx := make([][]float64, len(tc.half))
+			for j := range x {
+				x[j], xs[j], dx[j] = make([]float64, n), make([]float64, n), make([]float64, n)
+				c := coef[j%2]
+				for i, ti := range tm {
+					s := ti - mid
+					x[j][i] = tc.level + c[0] + s*(c[1]+s*(c[2]+s*c[3]))
+				}
+			}
+			newDerivWork().sgRuns(xs, dx, tm, x, tc.half)
+			for j, m := range tc.half {
+				c := coef[j%2]
+				scale := math.Abs(tc.level) + 2 // |x| <= level + 2 on the run
+				tolV := 1e-10 * scale
+				tolS := 1e-10 * scale / (float64(m) * tc.h)
+				for i, ti := range tm {
+					s := ti - mid
+					v := tc.level + c[0] + s*(c[1]+s*(c[2]+s*c[3]))
+					d := c[1] + s*(2*c[2]+s*3*c[3])
+					if !scalar.EqualWithinAbs(xs[j][i], v, tolV) || !scalar.EqualWithinAbs(dx[j][i], d, tolS) {
+						t.Fatalf("state %d (half-width %d) sample %d: value %.15g slope %.15g, want %.15g %.15g (tol %.2g, %.2g)",
+							j, m, i, xs[j][i], dx[j][i], v, d, tolV, tolS)
+					}
+				}
+			}
+		})
+	}
+}
+
+// TestSGBlocksMatchSamples compares the prefix-sum path with the
+// per-sample factorisation it replaces, on noisy data on a jittered clock
+// (the tolerance of TestSGJitteredCubic), and on the inputs that send
+// blocks or samples back to the per-sample path: a NaN in a state (its
+// windows give NaN in both paths, and only those), repeated time stamps
+// (windows with fewer than four distinct times) and runs of four to six
+// samples.
+func TestSGBlocksMatchSamples(t *testing.T) {
+	rng := rand.New(rand.NewPCG(5, 0))
+	clock := func(n int) []float64 {
+		tm := make([]float64, n)
+		for i := range tm {
+			tm[i] = 0.005*float64(i) + 20e-6*rng.NormFloat64()
+		}
+		return tm
+	}
+	repeated := clock(200)
+	for i := 100; i < 105; i++ {
+		repeated[i] = repeated[100] // five samples at one time
+	}
+	for _, tc := range []struct {
+		name string
+		tm   []float64
+		nan  int // index of a NaN in state 0, or -1
+		half []int
+	}{
+		{"noisy", clock(2001), -1, []int{6, 12, 6}},
+		{"NaN", clock(400), 150, []int{3, 8}},
+		{"repeated times", repeated, -1, []int{2, 5}},
+		{"4 samples", clock(4), -1, []int{2}},
+		{"6 samples", clock(6), -1, []int{2, 6}},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			n := len(tc.tm)
+			x := make([][]float64, len(tc.half))
+			got := [2][][]float64{make([][]float64, len(x)), make([][]float64, len(x))}
+			want := [2][][]float64{make([][]float64, len(x)), make([][]float64, len(x))}
+			for j := range x {
+				x[j] = make([]float64, n)
+				for i, s := range tc.tm {
+					x[j][i] = math.Sin(float64(j+2)*s) + 0.01*rng.NormFloat64()
+				}
+				for k := range 2 {
+					got[k][j], want[k][j] = make([]float64, n), make([]float64, n)
+				}
+			}
+			if tc.nan >= 0 {
+				x[0][tc.nan] = math.NaN()
+			}
+			newDerivWork().sgRuns(got[0], got[1], tc.tm, x, tc.half)
+			sgPerSample = true
+			newDerivWork().sgRuns(want[0], want[1], tc.tm, x, tc.half)
+			sgPerSample = false
+			checked := 0
+			for j, m := range tc.half {
+				w := min(2*m+1, n)
+				tolS := 1e-10 * 2 / (float64(w/2) * 0.005) // |x| <= 2; see TestSGJitteredCubic
+				for i := range n {
+					for k, tol := range []float64{1e-10 * 2, tolS} {
+						g, e := got[k][j][i], want[k][j][i]
+						if math.IsNaN(e) != math.IsNaN(g) || !math.IsNaN(e) && !scalar.EqualWithinAbs(g, e, tol) {
+							t.Fatalf("state %d sample %d (%s): %.15g, per sample %.15g", j, i, []string{"value", "slope"}[k], g, e)
+						}
+						if !math.IsNaN(e) {
+							checked++
+						}
+					}
+				}
+			}
+			if checked == 0 {
+				t.Fatal("no finite values compared")
+			}
+			if tc.nan >= 0 && !math.IsNaN(got[1][0][tc.nan]) {
+				t.Errorf("the NaN sample's own slope is %g", got[1][0][tc.nan])
+			}
+		})
+	}
+}
