@@ -6,6 +6,7 @@ import (
 	"encoding/csv"
 	"fmt"
 	"io"
+	"math"
 	"math/rand/v2"
 	"os"
 	"path/filepath"
@@ -354,4 +355,63 @@ func BenchmarkEventsSideBySide(b *testing.B) {
 	b.ReportMetric(with.Seconds()/without.Seconds(), "x-without")
 	b.ReportMetric(with.Seconds()/float64(b.N), "with-s")
 	b.ReportMetric(without.Seconds()/float64(b.N), "without-s")
+}
+
+// BenchmarkFindEvents times the event pass over 10^6 samples of three
+// states, the sliding window against the copy-and-sort reference
+// (findEventsSorted, in a test file) in one run: on noise (few
+// candidates: the cost is the scan) and on noise with bursts of fast
+// smooth motion over 30 % of the samples (nearly every sample there is a
+// candidate, and each needs the window's median and MAD; the reference
+// takes about 14 s an iteration there: run it with -benchtime 1x).
+func BenchmarkFindEvents(b *testing.B) {
+	const n = 1_000_000
+	for _, tc := range []struct {
+		name string
+		gen  func(rng *rand.Rand) func(i, j int) float64
+	}{
+		{"noise", func(rng *rand.Rand) func(i, j int) float64 {
+			return func(i, j int) float64 { return rng.NormFloat64() }
+		}},
+		{"bursts", func(rng *rand.Rand) func(i, j int) float64 {
+			return func(i, j int) float64 {
+				v := 1e-3 * rng.NormFloat64()
+				if i%10000 < 3000 {
+					v += 100 * math.Sin(0.4*float64(i)*float64(j+1))
+				}
+				return v
+			}
+		}},
+	} {
+		tb, ds := eventCase(n, 3, tc.gen(rand.New(rand.NewPCG(1, 0))))
+		pieces := [][][2]int{{{0, n}}}
+		noise := tb.noiseOf(pieces, 3)
+		for _, via := range []string{"sorted", "sliding"} {
+			b.Run(tc.name+"/"+via, func(b *testing.B) {
+				sc := new(eventScratch)
+				b.SetBytes(n * 3 * 8)
+				for b.Loop() {
+					ds.Events = ds.Events[:0]
+					if via == "sorted" {
+						tb.findEventsSorted(ds, "r", pieces[0], noise)
+					} else {
+						tb.findEvents(ds, "r", pieces[0], noise, sc)
+					}
+				}
+			})
+		}
+	}
+}
+
+// BenchmarkNoise times the recording's noise estimate (noiseOf) over
+// 10^6 samples of three states.
+func BenchmarkNoise(b *testing.B) {
+	const n = 1_000_000
+	rng := rand.New(rand.NewPCG(1, 0))
+	tb, _ := eventCase(n, 3, func(i, j int) float64 { return rng.NormFloat64() })
+	pieces := [][][2]int{{{0, n}}}
+	b.SetBytes(n * 3 * 8)
+	for b.Loop() {
+		tb.noiseOf(pieces, 3)
+	}
 }

@@ -143,10 +143,13 @@ func robustScale(v []float64) float64 {
 		w = append(w, v[i])
 	}
 	m := median(w)
-	for i := range w {
-		w[i] = math.Abs(w[i] - m)
+	if math.IsNaN(w[0]) || math.IsInf(m, 0) { // no order to merge by
+		for i := range w {
+			w[i] = math.Abs(w[i] - m)
+		}
+		return madGauss * median(w)
 	}
-	return madGauss * median(w)
+	return madGauss * madOfSorted(w, m)
 }
 
 // stateNoise is what event and head detection know about one state of a
@@ -182,13 +185,16 @@ func (tb *table) noiseOf(pieces [][][2]int, ns int) []stateNoise {
 		lo, hi := math.Inf(1), math.Inf(-1)
 		for _, p := range pieces {
 			x := pieceValues(tb.x[j], p)
-			a, b := minMax(x)
-			lo, hi = min(lo, a), max(hi, b)
+			// the span and the resolution in one pass (minMax's order)
+			a, b := x[0], x[0]
 			for i := 1; i < len(x); i++ {
-				if d := math.Abs(x[i] - x[i-1]); d > 0 && d < q {
+				v := x[i]
+				a, b = min(a, v), max(b, v)
+				if d := math.Abs(v - x[i-1]); d > 0 && d < q {
 					q = d
 				}
 			}
+			lo, hi = min(lo, a), max(hi, b)
 			for i := 2; i < len(x)-1; i += stride {
 				all = append(all, 1.5*(x[i]-x[i-1])+0.5*(x[i-2]-x[i+1]))
 			}
@@ -207,71 +213,65 @@ type cut struct {
 
 // findEvents finds the events of one piece (flat sample indices) for
 // every state, appends them to ds.Events, and returns the cuts, sorted.
-func (tb *table) findEvents(ds *Dataset, name string, p [][2]int, noise []stateNoise) []cut {
+//
+// A sample i is a candidate when |s_i| exceeds the state's jump floor;
+// a candidate is an event sample ("far") when it also stands EventSigmas
+// local scales from the median of s over the window [i-eventBlock,
+// i+eventBlock] (clipped to [2, n-1)), the local scale being madGauss
+// times the window's median absolute deviation. The window is kept
+// sorted as it moves from candidate to candidate (see [sortedWindow]), so
+// a run of candidates costs a few insertions each, not a sort.
+func (tb *table) findEvents(ds *Dataset, name string, p [][2]int, noise []stateNoise, sc *eventScratch) []cut {
 	n := pieceLen(p)
 	if n < 5 {
 		return nil
 	}
-	marks := map[int]bool{} // k -> drop
+	if sc == nil {
+		sc = new(eventScratch)
+	}
+	var cuts []cut
 	for j, sn := range noise {
 		if math.IsInf(sn.quant, 1) { // constant state
 			continue
 		}
 		x := pieceValues(tb.x[j], p)
-		sv := func(i int) float64 { return 1.5*(x[i]-x[i-1]) + 0.5*(x[i-2]-x[i+1]) } // as jumpStat
+		s, finite := jumpStatFinite(sc.s, x)
+		sc.s = s
 		base := sn.jumpFloor()
-		var win []float64
-		// far says whether s_i stands out of the s around it
-		far := func(i int) bool {
-			if math.Abs(sv(i)) <= base {
-				return false
-			}
-			win = win[:0]
-			for k := max(2, i-eventBlock); k < min(n-1, i+eventBlock+1); k++ {
-				win = append(win, sv(k))
-			}
-			med := median(win)
-			for k := range win {
-				win[k] = math.Abs(win[k] - med)
-			}
-			return math.Abs(sv(i)-med) > EventSigmas*madGauss*median(win)
-		}
-		// s around a candidate cluster, for the kind of event; zero
-		// outside [2, n-1) as in jumpStat
-		s := func(i int) float64 {
-			if i < 2 || i >= n-1 {
-				return 0
-			}
-			return sv(i)
-		}
+		// the event samples, in increasing order
+		far := sc.far[:0]
+		sc.win.reset()
 		for i := 2; i < n-1; i++ {
-			if !far(i) {
-				continue
+			if !(math.Abs(s[i]) <= base) && sc.win.stands(s, i, n, finite) {
+				far = append(far, i)
 			}
-			// a cluster: candidates no more than 2 apart; its largest |s| is the event
-			c, end := i, i
-			for k := i + 1; k < n-1 && k <= end+2; k++ {
-				if far(k) {
-					end = k
-					if math.Abs(s(k)) > math.Abs(s(c)) {
-						c = k
-					}
+		}
+		sc.far = far
+		// clusters: event samples no more than 2 apart; the largest |s|
+		// of each is its event
+		for a := 0; a < len(far); {
+			c, end := far[a], far[a]
+			b := a + 1
+			for ; b < len(far) && far[b] <= end+2; b++ {
+				end = far[b]
+				if math.Abs(s[end]) > math.Abs(s[c]) {
+					c = end
 				}
 			}
-			i = end
-			ev := Event{Run: name, State: ds.States[j].Name, Kind: EventStep, Size: s(c), Noise: sn.s / math.Sqrt(5)}
+			a = b
+			ev := Event{Run: name, State: ds.States[j].Name, Kind: EventStep, Size: s[c], Noise: sn.s / math.Sqrt(5)}
 			m := -1 // the spike's sample, or the kink's corner
 			switch {
-			case c+1 < n-1 && math.Abs(s(c)+s(c+1)) < spikeMatch*math.Abs(s(c)):
+			case c+1 < n-1 && math.Abs(s[c]+s[c+1]) < spikeMatch*math.Abs(s[c]):
 				m = c
-			case c-1 >= 2 && math.Abs(s(c)+s(c-1)) < spikeMatch*math.Abs(s(c)):
+			case c-1 >= 2 && math.Abs(s[c]+s[c-1]) < spikeMatch*math.Abs(s[c]):
 				m = c - 1
 			}
 			k, at := c, c // the cut (before k), and the sample whose time is reported
 			if m >= 1 && m+1 < n {
 				kink := false
 				if m-1 >= 2 && m+2 < n-1 {
-					kink = (s(m+2)-s(m-1))/2/s(m) < kinkOuter
+					kink = (s[m+2]-s[m-1])/2/s[m] < kinkOuter
 				}
 				if kink {
 					h := tb.t[pieceRow(p, m+1)] - tb.t[pieceRow(p, m)]
@@ -282,18 +282,174 @@ func (tb *table) findEvents(ds *Dataset, name string, p [][2]int, noise []stateN
 			}
 			ev.Time = tb.t[pieceRow(p, at)]
 			if sn.s > 0 {
-				ev.Sigmas = math.Abs(s(c)) / sn.s
+				ev.Sigmas = math.Abs(s[c]) / sn.s
 			}
 			ds.Events = append(ds.Events, ev)
-			marks[k] = marks[k] || ev.Kind == EventSpike
+			cuts = append(cuts, cut{k, ev.Kind == EventSpike})
 		}
 	}
-	cuts := make([]cut, 0, len(marks))
-	for k, drop := range marks {
-		cuts = append(cuts, cut{k, drop})
-	}
+	return mergeCuts(cuts)
+}
+
+// mergeCuts sorts cuts by sample and makes one of the cuts at the same
+// sample, a drop if any of them is.
+func mergeCuts(cuts []cut) []cut {
 	slices.SortFunc(cuts, func(a, b cut) int { return a.k - b.k })
-	return cuts
+	out := cuts[:0]
+	for _, c := range cuts {
+		if n := len(out); n > 0 && out[n-1].k == c.k {
+			out[n-1].drop = out[n-1].drop || c.drop
+			continue
+		}
+		out = append(out, c)
+	}
+	return out
+}
+
+// eventScratch holds the buffers of the event pass, reused across the
+// states and pieces of a recording.
+type eventScratch struct {
+	s   []float64 // the jump statistic of one state over a piece
+	far []int     // its event samples
+	win sortedWindow
+}
+
+// jumpStatFinite is jumpStat, and reports whether every value is finite
+// (values near the float64 limit can make s infinite or NaN).
+func jumpStatFinite(dst, x []float64) ([]float64, bool) {
+	n := len(x)
+	dst = slices.Grow(dst[:0], n)[:n]
+	if n < 4 {
+		clear(dst)
+		return dst, true
+	}
+	dst[0], dst[1], dst[n-1] = 0, 0, 0
+	acc := 0.0
+	for i := 2; i < n-1; i++ {
+		v := 1.5*(x[i]-x[i-1]) + 0.5*(x[i-2]-x[i+1]) // as jumpStat
+		dst[i] = v
+		acc += v - v // NaN once any v is NaN or infinite
+	}
+	return dst, acc == 0
+}
+
+// slideMax is the longest forward move of a [sortedWindow] made by
+// removing and inserting values one at a time; a longer one sorts the
+// window afresh (129 values sort in about the time of 16 single moves).
+const slideMax = 16
+
+// A sortedWindow keeps the values v[lo:hi] of a slice in ascending order
+// while the window [lo, hi) moves forward. Its median and median absolute
+// deviation are those of the same multiset of values that a copy and a
+// sort give, so they are equal bit for bit: equal float64 values have
+// equal bits, except the two zeros, and a value leaving the window is
+// matched by its bits.
+type sortedWindow struct {
+	lo, hi int
+	v      []float64 // v[lo:hi] of the slice, sorted
+	dev    []float64 // scratch: absolute deviations from the median, sorted
+}
+
+// reset forgets the window (a new slice follows).
+func (w *sortedWindow) reset() { w.lo, w.hi, w.v = 0, 0, w.v[:0] }
+
+// stands reports whether s[i] is more than EventSigmas local scales from
+// the median of s over its window, the window of sample i in a piece of
+// n samples. finite says that every value of s is finite; otherwise the
+// window is copied and sorted, as NaN has no place in a sorted order.
+func (w *sortedWindow) stands(s []float64, i, n int, finite bool) bool {
+	lo, hi := max(2, i-eventBlock), min(n-1, i+eventBlock+1)
+	if !finite {
+		w.reset()
+		win := append(w.dev[:0], s[lo:hi]...)
+		med := median(win)
+		for k := range win {
+			win[k] = math.Abs(win[k] - med)
+		}
+		w.dev = win
+		return math.Abs(s[i]-med) > EventSigmas*madGauss*median(win)
+	}
+	w.move(s, lo, hi)
+	med := medianSorted(w.v)
+	return math.Abs(s[i]-med) > EventSigmas*madGauss*w.madSorted(med)
+}
+
+// move makes the window [lo, hi) of s, with lo and hi not before the
+// window's present bounds.
+func (w *sortedWindow) move(s []float64, lo, hi int) {
+	if len(w.v) == 0 || lo < w.lo || hi < w.hi || lo >= w.hi || lo-w.lo > slideMax || hi-w.hi > slideMax {
+		w.v = append(w.v[:0], s[lo:hi]...)
+		slices.Sort(w.v)
+		w.lo, w.hi = lo, hi
+		return
+	}
+	for k := w.lo; k < lo; k++ {
+		w.remove(s[k])
+	}
+	for k := w.hi; k < hi; k++ {
+		w.insert(s[k])
+	}
+	w.lo, w.hi = lo, hi
+}
+
+// remove takes one value with the bits of x out of the window.
+func (w *sortedWindow) remove(x float64) {
+	i, _ := slices.BinarySearch(w.v, x)
+	for math.Float64bits(w.v[i]) != math.Float64bits(x) {
+		i++ // among equal values: the two zeros
+	}
+	w.v = slices.Delete(w.v, i, i+1)
+}
+
+// insert puts x into the window, in order.
+func (w *sortedWindow) insert(x float64) {
+	i, _ := slices.BinarySearch(w.v, x)
+	w.v = slices.Insert(w.v, i, x)
+}
+
+// madSorted returns the median of |v - med| over the window's values,
+// the median absolute deviation when med is their median.
+func (w *sortedWindow) madSorted(med float64) float64 { return madOfSorted(w.v, med) }
+
+// madOfSorted returns the median of |v[i] - med| over v, sorted ascending
+// and free of NaN, with med finite. The deviations of the values below
+// med (v[:b], read from b-1 down) rise as the values fall, and those of
+// the others (v[b:]) rise with them: two sorted runs, whose order
+// statistics [kthOfTwo] finds by bisection, with no sort and no copy.
+func madOfSorted(v []float64, med float64) float64 {
+	b, _ := slices.BinarySearch(v, med)
+	n := len(v)
+	if n%2 == 1 {
+		return kthOfTwo(v, b, med, n/2)
+	}
+	return (kthOfTwo(v, b, med, n/2-1) + kthOfTwo(v, b, med, n/2)) / 2
+}
+
+// kthOfTwo returns the k-th smallest (from 0) of |v[i] - med| over v,
+// sorted ascending, with v[:b] below med and v[b:] not: the merge of the
+// runs L[t] = |v[b-1-t] - med| and R[t] = |v[b+t] - med|. It bisects on
+// the number i of L among the k+1 smallest; the answer is then the larger
+// of L[i-1] and R[k-i]. The value is that of the k-th element of the
+// sorted deviations, whichever way ties are split.
+func kthOfTwo(v []float64, b int, med float64, k int) float64 {
+	nl, nr := b, len(v)-b
+	lo, hi := max(0, k+1-nr), min(k+1, nl)
+	for lo < hi {
+		i := (lo + hi) / 2 // i < nl, and j = k+1-i > k+1-hi >= 0 so R[j-1] exists
+		if math.Abs(v[b-1-i]-med) < math.Abs(v[b+k-i]-med) {
+			lo = i + 1 // L[i] < R[k-i]: L[i] is among the k+1 smallest
+		} else {
+			hi = i
+		}
+	}
+	i, j := lo, k+1-lo
+	switch {
+	case i == 0:
+		return math.Abs(v[b+j-1] - med)
+	case j == 0:
+		return math.Abs(v[b-i] - med)
+	}
+	return max(math.Abs(v[b-i]-med), math.Abs(v[b+j-1]-med))
 }
 
 // splitAt cuts piece p at the cuts and returns the pieces left, in order,

@@ -303,8 +303,9 @@ func (tb *table) splitGroup(ds *Dataset, g group, opts *Options) error {
 		}
 		if !opts.KeepEvents {
 			var split [][][2]int
+			sc := new(eventScratch)
 			for _, p := range final {
-				cuts := tb.findEvents(ds, g.name, p, noise[:ns])
+				cuts := tb.findEvents(ds, g.name, p, noise[:ns], sc)
 				out, dropped := splitAt(p, cuts)
 				ds.Dropped += dropped
 				events += len(out) - 1
@@ -352,6 +353,12 @@ func gather(src []float64, rgs [][2]int) []float64 {
 // median returns the median of v, reordering v. v must not be empty.
 func median(v []float64) float64 {
 	slices.Sort(v)
+	return medianSorted(v)
+}
+
+// medianSorted returns the median of v, sorted ascending: the middle
+// value, or the mean of the two middle values. v must not be empty.
+func medianSorted(v []float64) float64 {
 	n := len(v)
 	if n%2 == 1 {
 		return v[n/2]
