@@ -9,6 +9,9 @@ import (
 	"basin.example/fit/internal/gram"
 	"basin.example/internal/order"
 	"basin.example/internal/parallel"
+	"gonum.org/v1/gonum/blas"
+	"gonum.org/v1/gonum/blas/blas64"
+	"gonum.org/v1/gonum/lapack/lapack64"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -285,9 +288,11 @@ func (s *solver) thresholdRefit(dst, gh, b []float64, tau, lam float64) int {
 	return cnt
 }
 
-// solve solves (gh_SS + lam I) x_S = b_S on the active set by Cholesky,
-// storing x in dst (zero elsewhere). It reports false when the matrix was
-// not positive definite (then dst holds zeros on the active set).
+// solve solves (gh_SS + lam I) x_S = b_S on the active set by Cholesky
+// (gonum's lapack64.Potrf and Potrs on the lower triangle, in s's
+// buffers: no allocation), storing x in dst (zero elsewhere). It reports
+// false when the matrix was not positive definite (then dst holds zeros
+// on the active set).
 func (s *solver) solve(dst, gh, b []float64, lam float64) bool {
 	p := s.p
 	m := 0
@@ -310,39 +315,12 @@ func (s *solver) solve(dst, gh, b []float64, lam float64) bool {
 		a[i*m+i] += lam
 		s.r[i] = b[ki]
 	}
-	for j := 0; j < m; j++ {
-		d := a[j*m+j]
-		for k := 0; k < j; k++ {
-			d -= a[j*m+k] * a[j*m+k]
-		}
-		if !(d > 0) {
-			return false
-		}
-		d = math.Sqrt(d)
-		a[j*m+j] = d
-		for i := j + 1; i < m; i++ {
-			v := a[i*m+j]
-			for k := 0; k < j; k++ {
-				v -= a[i*m+k] * a[j*m+k]
-			}
-			a[i*m+j] = v / d
-		}
+	l, ok := lapack64.Potrf(blas64.Symmetric{Uplo: blas.Lower, N: m, Stride: m, Data: a})
+	if !ok {
+		return false
 	}
 	r := s.r[:m]
-	for i := 0; i < m; i++ {
-		v := r[i]
-		for k := 0; k < i; k++ {
-			v -= a[i*m+k] * r[k]
-		}
-		r[i] = v / a[i*m+i]
-	}
-	for i := m - 1; i >= 0; i-- {
-		v := r[i]
-		for k := i + 1; k < m; k++ {
-			v -= a[k*m+i] * r[k]
-		}
-		r[i] = v / a[i*m+i]
-	}
+	lapack64.Potrs(l, blas64.General{Rows: m, Cols: 1, Stride: 1, Data: r})
 	for i := 0; i < m; i++ {
 		dst[s.idx[i]] = r[i]
 	}
