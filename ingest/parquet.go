@@ -110,11 +110,58 @@ func readParquet(ctx context.Context, path string, opts *Options) (ds *Dataset, 
 }
 
 func readParquetTable(ctx context.Context, path string, opts *Options) (tb *table, err error) {
+	po, err := openParquet(path, opts)
+	if err != nil {
+		return nil, err
+	}
+	defer po.f.Close()
+	return po.tb, po.readAll(ctx, opts)
+}
+
+// pqFile is a Parquet file opened and checked by openParquet: its footer,
+// the roles of its columns and a table with no data yet.
+type pqFile struct {
+	f      *os.File
+	pr     *file.Reader
+	r      *roles
+	fields []arrow.Field
+	cols   []Column
+	size   int64
+	kinds  []directKind
+	direct bool // every column read goes through readDirect
+	tb     *table
+	store  *colStore // reused column storage for readDirect; nil: fresh slices
+}
+
+// readAll reads every column whole into po.tb.
+func (po *pqFile) readAll(ctx context.Context, opts *Options) (err error) {
+	defer func() {
+		if r := recover(); r != nil {
+			err = &ParseError{File: po.tb.file, Err: fmt.Errorf("%w: corrupt Parquet data (%v)", ErrFormat, r)}
+		}
+	}()
+	tb := po.tb
+	if po.direct {
+		return tb.readDirect(ctx, po.f, po.pr, po.r, po.fields, po.kinds, po.size, po.store)
+	}
+	if err := checkAllChunks(po.f, po.pr, po.r, po.cols, po.size); err != nil {
+		return err
+	}
+	return tb.readArrow(ctx, po.pr, po.r, po.cols)
+}
+
+// openParquet opens path, checks its marks and footer (row counts, chunk
+// extents) and assigns the column roles. The caller closes po.f.
+func openParquet(path string, opts *Options) (po *pqFile, err error) {
 	f, err := os.Open(path)
 	if err != nil {
 		return nil, err
 	}
-	defer f.Close()
+	defer func() {
+		if err != nil {
+			f.Close()
+		}
+	}()
 	st, err := f.Stat()
 	if err != nil {
 		return nil, err
@@ -125,7 +172,7 @@ func readParquetTable(ctx context.Context, path string, opts *Options) (tb *tabl
 	// The Arrow library can panic on corrupt pages; that is bad input.
 	defer func() {
 		if r := recover(); r != nil {
-			tb, err = nil, bad("corrupt Parquet data (%v)", r)
+			po, err = nil, bad("corrupt Parquet data (%v)", r)
 		}
 	}()
 	var head, tail [4]byte
@@ -234,22 +281,14 @@ func readParquetTable(ctx context.Context, path string, opts *Options) (tb *tabl
 	if len(r.states) == r.nInput {
 		return nil, &ParseError{File: path, Err: ErrNoStates}
 	}
-	tb = &table{file: path, states: r.states, stateCol: r.stateCol, nInput: r.nInput, timeCol: r.timeCol, timeIdx: r.timeIdx,
+	tb := &table{file: path, states: r.states, stateCol: r.stateCol, nInput: r.nInput, timeCol: r.timeCol, timeIdx: r.timeIdx,
 		rate: r.rate, ignored: r.ignored, rows: int(nrows), marks: []lineMark{{0, 1}}}
 	tb.x = make([][]float64, len(r.states))
+	po = &pqFile{f: f, pr: pr, r: r, fields: fields, cols: cols, size: st.Size(), tb: tb}
 	if kinds, ok := directKinds(pr, fields, r); ok && !opts.viaArrow {
-		if err := tb.readDirect(ctx, f, pr, r, fields, kinds, st.Size()); err != nil {
-			return nil, err
-		}
-		return tb, nil
+		po.kinds, po.direct = kinds, true
 	}
-	if err := checkAllChunks(f, pr, r, cols, st.Size()); err != nil {
-		return nil, err
-	}
-	if err := tb.readArrow(ctx, pr, r, cols); err != nil {
-		return nil, err
-	}
-	return tb, nil
+	return po, nil
 }
 
 // readArrow reads the columns through pqarrow: the general path, for

@@ -24,7 +24,11 @@ type pageHeader struct {
 	values       int32 // data or dictionary page
 	levels       int32 // v2: definition + repetition level bytes
 	v2Compressed bool  // v2: is_compressed (default true)
+	encoding     int32 // data page (v1 or v2): the values' encoding; -1 if not given
 }
+
+// encPlain is the Parquet PLAIN encoding's number (Encoding.PLAIN).
+const encPlain = 0
 
 // maxThriftDepth bounds the nesting of thrift structs and lists that
 // skipping a field may enter: a page header nests three deep.
@@ -170,6 +174,8 @@ func (r *thriftReader) sub(h *pageHeader) {
 		switch {
 		case id == 1 && t == 5:
 			h.values = r.i32()
+		case id == 2 && t == 5 && h.typ == pageData, id == 4 && t == 5 && h.typ == pageDataV2:
+			h.encoding = r.i32()
 		case (id == 5 || id == 6) && t == 5 && h.typ == pageDataV2:
 			v := r.i32()
 			if v < 0 || h.levels > 1<<30 {
@@ -189,7 +195,7 @@ func (r *thriftReader) sub(h *pageHeader) {
 // with its length in bytes.
 func parsePageHeader(b []byte) (pageHeader, int, error) {
 	r := thriftReader{b: b}
-	h := pageHeader{typ: -1, uncompressed: -1, compressed: -1, values: -1, v2Compressed: true}
+	h := pageHeader{typ: -1, uncompressed: -1, compressed: -1, values: -1, v2Compressed: true, encoding: -1}
 	var last int16
 	for r.err == nil {
 		id, t := r.field(last)

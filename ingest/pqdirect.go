@@ -13,6 +13,7 @@ import (
 	"github.com/apache/arrow/go/v15/arrow"
 	"github.com/apache/arrow/go/v15/arrow/memory"
 	"github.com/apache/arrow/go/v15/parquet"
+	"github.com/apache/arrow/go/v15/parquet/compress"
 	"github.com/apache/arrow/go/v15/parquet/file"
 	"github.com/apache/arrow/go/v15/parquet/metadata"
 )
@@ -115,6 +116,7 @@ type colJob struct {
 	keys []keySpan // run column
 	run  bool      // the --run-col
 	mul  int64     // timestamp: nanoseconds per unit
+	base int       // rows before dst[0] in the file, for errors
 	err  error
 }
 
@@ -135,7 +137,7 @@ type colScratch struct {
 // decoded, and values are decoded into the table's final slices, sized
 // from the row count. Columns are read in parallel.
 func (tb *table) readDirect(ctx context.Context, f *os.File, pr *file.Reader, r *roles, fields []arrow.Field,
-	kinds []directKind, size int64) error {
+	kinds []directKind, size int64, store *colStore) error {
 	n := tb.rows
 	cols := make([]Column, len(fields))
 	units := make([]arrow.TimeUnit, len(fields))
@@ -157,8 +159,10 @@ func (tb *table) readDirect(ctx context.Context, f *os.File, pr *file.Reader, r 
 		case r.role[j] == roleTime && kinds[j] == kindTimestamp:
 			jb.tn = make([]int64, n)
 			jb.mul = int64(units[j].Multiplier())
+		case r.role[j] == roleTime:
+			jb.dst = store.floats(0, n)
 		default:
-			jb.dst = make([]float64, n)
+			jb.dst = store.floats(1+r.stateOf[j], n)
 		}
 		jobs = append(jobs, jb)
 	}
@@ -204,81 +208,105 @@ func (tb *table) readDirect(ctx context.Context, f *os.File, pr *file.Reader, r 
 // decoder (corrupt data that the checks let through) is an error.
 func (tb *table) readColumn(ctx context.Context, f *os.File, pr *file.Reader, jb *colJob, c Column,
 	sc *colScratch, pool *sync.Pool, size int64) (err error) {
-	bad := func(format string, a ...any) error {
-		return &ParseError{File: tb.file, Column: jb.j + 1, Name: c.Name,
-			Err: fmt.Errorf("%w: "+format, append([]any{ErrFormat}, a...)...)}
-	}
 	defer func() {
 		if p := recover(); p != nil {
 			sc.pages = nil // its state is unknown
-			err = bad("corrupt Parquet data (%v)", p)
+			err = jb.bad(tb.file, c, "corrupt Parquet data (%v)", p)
 		}
 	}()
-	md := pr.MetaData()
-	descr := md.Schema.Column(jb.j)
 	off := 0
 	for i := 0; i < pr.NumRowGroups(); i++ {
 		if err := ctx.Err(); err != nil {
 			return err
 		}
-		cc, err := md.RowGroup(i).ColumnChunk(jb.j)
+		n, err := tb.readGroup(f, pr, jb, c, sc, pool, size, i, off)
 		if err != nil {
-			return bad("row group %d: %v", i, err)
-		}
-		rows := int(md.RowGroup(i).NumRows())
-		if cc.NumValues() != int64(rows) {
-			return bad("row group %d: %d values for %d rows", i, cc.NumValues(), rows)
-		}
-		if rows == 0 {
-			continue
-		}
-		start := cc.DataPageOffset()
-		if cc.HasDictionaryPage() && cc.DictionaryPageOffset() > 0 && cc.DictionaryPageOffset() < start {
-			start = cc.DictionaryPageOffset()
-		}
-		clen := cc.TotalCompressedSize() // inside the file: checked from the footer
-		if cap(sc.chunk) < int(clen) {
-			sc.chunk = make([]byte, clen)
-		}
-		buf := sc.chunk[:clen]
-		if _, err := f.ReadAt(buf, start); err != nil && err != io.EOF {
 			return err
 		}
-		lim := chunkLimits{values: int64(rows), uncompressed: int64(rows)*(2*jb.kind.width()+5) + 1<<20}
-		if jb.kind == kindString {
-			lim.uncompressed = maxExpand*size + 1<<20
-		}
-		if err := checkChunk(buf, cc.Compression(), lim); err != nil {
-			return bad("row group %d: %v", i, err)
-		}
-		sc.br = byteReader{b: buf}
-		if sc.pages == nil {
-			sc.pages, err = file.NewPageReader(&sc.br, int64(rows), cc.Compression(), memory.DefaultAllocator, nil)
-			if err != nil {
-				return bad("row group %d: %v", i, err)
-			}
-		} else {
-			sc.pages.Reset(&sc.br, int64(rows), cc.Compression(), nil)
-		}
-		cr := file.NewColumnReader(descr, sc.pages, memory.DefaultAllocator, pool)
-		if descr.MaxDefinitionLevel() > 0 {
-			sc.defs = grow(sc.defs, rows)
-		} else {
-			sc.defs = sc.defs[:0]
-		}
-		if err := tb.readChunk(cr, jb, sc, off, rows); err != nil {
-			if pe, ok := err.(*ParseError); ok {
-				pe.Column, pe.Name = jb.j+1, c.Name
-				return pe
-			}
-			return bad("row group %d: %v", i, err)
-		}
-		off += rows
+		off += n
 	}
 	if off != tb.rows {
-		return bad("%d values, %d rows", off, tb.rows)
+		return jb.bad(tb.file, c, "%d values, %d rows", off, tb.rows)
 	}
 	return nil
+}
+
+// bad is a format error in column jb.j.
+func (jb *colJob) bad(file string, c Column, format string, a ...any) error {
+	return &ParseError{File: file, Column: jb.j + 1, Name: c.Name,
+		Err: fmt.Errorf("%w: "+format, append([]any{ErrFormat}, a...)...)}
+}
+
+// readGroup decodes row group i of column jb.j into jb's slices from
+// index off and returns its row count. Errors name the row as
+// jb.base+off+k+1. It does not recover panics: its callers do.
+func (tb *table) readGroup(f *os.File, pr *file.Reader, jb *colJob, c Column,
+	sc *colScratch, pool *sync.Pool, size int64, i, off int) (int, error) {
+	bad := func(format string, a ...any) error { return jb.bad(tb.file, c, format, a...) }
+	md := pr.MetaData()
+	descr := md.Schema.Column(jb.j)
+	cc, err := md.RowGroup(i).ColumnChunk(jb.j)
+	if err != nil {
+		return 0, bad("row group %d: %v", i, err)
+	}
+	rows := int(md.RowGroup(i).NumRows())
+	if cc.NumValues() != int64(rows) {
+		return 0, bad("row group %d: %d values for %d rows", i, cc.NumValues(), rows)
+	}
+	if rows == 0 {
+		return 0, nil
+	}
+	start := cc.DataPageOffset()
+	if cc.HasDictionaryPage() && cc.DictionaryPageOffset() > 0 && cc.DictionaryPageOffset() < start {
+		start = cc.DictionaryPageOffset()
+	}
+	clen := cc.TotalCompressedSize() // inside the file: checked from the footer
+	if cap(sc.chunk) < int(clen) {
+		sc.chunk = make([]byte, clen)
+	}
+	buf := sc.chunk[:clen]
+	if _, err := f.ReadAt(buf, start); err != nil && err != io.EOF {
+		return 0, err
+	}
+	lim := chunkLimits{values: int64(rows), uncompressed: int64(rows)*(2*jb.kind.width()+5) + 1<<20}
+	if jb.kind == kindString {
+		lim.uncompressed = maxExpand*size + 1<<20
+	}
+	if err := checkChunk(buf, cc.Compression(), lim); err != nil {
+		return 0, bad("row group %d: %v", i, err)
+	}
+	if jb.kind == kindFloat64 && descr.MaxDefinitionLevel() == 0 && cc.Compression() == compress.Codecs.Uncompressed {
+		if ok, err := tb.plainFloats(buf, jb.dst[off:off+rows], jb.base+off); err != nil {
+			pe := err.(*ParseError)
+			pe.Column, pe.Name = jb.j+1, c.Name
+			return 0, pe
+		} else if ok {
+			return rows, nil
+		}
+	}
+	sc.br = byteReader{b: buf}
+	if sc.pages == nil {
+		sc.pages, err = file.NewPageReader(&sc.br, int64(rows), cc.Compression(), memory.DefaultAllocator, nil)
+		if err != nil {
+			return 0, bad("row group %d: %v", i, err)
+		}
+	} else {
+		sc.pages.Reset(&sc.br, int64(rows), cc.Compression(), nil)
+	}
+	cr := file.NewColumnReader(descr, sc.pages, memory.DefaultAllocator, pool)
+	if descr.MaxDefinitionLevel() > 0 {
+		sc.defs = grow(sc.defs, rows)
+	} else {
+		sc.defs = sc.defs[:0]
+	}
+	if err := tb.readChunk(cr, jb, sc, off, rows); err != nil {
+		if pe, ok := err.(*ParseError); ok {
+			pe.Column, pe.Name = jb.j+1, c.Name
+			return 0, pe
+		}
+		return 0, bad("row group %d: %v", i, err)
+	}
+	return rows, nil
 }
 
 func grow[T any](s []T, n int) []T {
@@ -398,7 +426,7 @@ func (tb *table) readChunk(cr file.ColumnChunkReader, jb *colJob, sc *colScratch
 	}
 	for i, x := range jb.dst[off : off+rows] {
 		if math.IsInf(x, 0) {
-			return &ParseError{File: tb.file, Line: off + i + 1, Err: fmt.Errorf("%w: infinite value", ErrNotNumber)}
+			return &ParseError{File: tb.file, Line: jb.base + off + i + 1, Err: fmt.Errorf("%w: infinite value", ErrNotNumber)}
 		}
 	}
 	return nil
@@ -454,7 +482,7 @@ func (tb *table) timestamps(jb *colJob, sc *colScratch, off, rows, nv int, valid
 		v--
 		ns := sc.i64[v]
 		if ns > math.MaxInt64/mul || ns < math.MinInt64/mul+1 {
-			return &ParseError{File: tb.file, Line: off + i + 1, Err: fmt.Errorf("%w: timestamp out of range", ErrNotNumber)}
+			return &ParseError{File: tb.file, Line: jb.base + off + i + 1, Err: fmt.Errorf("%w: timestamp out of range", ErrNotNumber)}
 		}
 		dst[i] = ns * mul
 	}
