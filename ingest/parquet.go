@@ -2,6 +2,7 @@ package ingest
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"math"
 	"os"
@@ -55,6 +56,17 @@ func ReadParquet(ctx context.Context, path string, opts *Options) (*Dataset, err
 
 // readParquet is ReadParquet without the data-set-wide checks of [finish].
 func readParquet(ctx context.Context, path string, opts *Options) (ds *Dataset, err error) {
+	return readParquetStore(ctx, path, opts, nil)
+}
+
+// errBudget is wrapped by the error of a Parquet read that ran out of its
+// time budget.
+var errBudget = errors.New("Parquet decoding did not finish")
+
+// readParquetStore is readParquet decoding into store's columns (nil:
+// fresh ones); the runs alias them. After an error wrapping errBudget
+// the decoder may still be writing into store.
+func readParquetStore(ctx context.Context, path string, opts *Options, store *colStore) (ds *Dataset, err error) {
 	if opts == nil {
 		opts = &Options{}
 	}
@@ -84,7 +96,7 @@ func readParquet(ctx context.Context, path string, opts *Options) (ds *Dataset, 
 	defer stop() // on every return, the time-out included: the decoder stops too
 	done := make(chan result, 1)
 	go func() {
-		tb, err := readParquetTable(dctx, path, opts)
+		tb, err := readParquetTable(dctx, path, opts, store)
 		done <- result{tb, err}
 	}()
 	var tb *table
@@ -94,7 +106,7 @@ func readParquet(ctx context.Context, path string, opts *Options) (ds *Dataset, 
 	case r := <-done:
 		tb, err = r.tb, r.err
 	case <-timer.C:
-		return nil, &ParseError{File: path, Err: fmt.Errorf("%w: Parquet decoding did not finish in %v; the file is probably corrupt", ErrFormat, budget)}
+		return nil, &ParseError{File: path, Err: fmt.Errorf("%w: %w in %v; the file is probably corrupt", ErrFormat, errBudget, budget)}
 	case <-ctx.Done():
 		return nil, ctx.Err()
 	}
@@ -109,11 +121,12 @@ func readParquet(ctx context.Context, path string, opts *Options) (ds *Dataset, 
 	return ds, nil
 }
 
-func readParquetTable(ctx context.Context, path string, opts *Options) (tb *table, err error) {
+func readParquetTable(ctx context.Context, path string, opts *Options, store *colStore) (tb *table, err error) {
 	po, err := openParquet(path, opts)
 	if err != nil {
 		return nil, err
 	}
+	po.store = store
 	defer po.f.Close()
 	return po.tb, po.readAll(ctx, opts)
 }

@@ -1,0 +1,479 @@
+package ingest
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"os"
+	"path/filepath"
+	"strings"
+	"sync"
+	"time"
+)
+
+// DefaultWindow is the default [StreamOptions.Window]: files of at most
+// this many rows are read whole, in one pass, into a [Streamer]'s reused
+// buffers.
+const DefaultWindow = 1 << 16
+
+// StreamOptions controls a [Streamer]. A nil *StreamOptions means all
+// defaults.
+type StreamOptions struct {
+	// Window is the most rows a file may have to be read whole, in one
+	// pass, into the Streamer's buffers (reused from file to file); a
+	// file with more rows is streamed: read once per pass, one Parquet
+	// row group or CSV block at a time. Zero means DefaultWindow; a
+	// negative Window streams every file that can be streamed.
+	Window int
+}
+
+// A Streamer reads log files with the rules of [ReadFile] (the same
+// runs, split at the same gaps, events and resting heads) in memory
+// bounded by a row group or block, not by the file: see [Streamer.Open].
+// It holds buffers reused from file to file; it is not safe for
+// concurrent use (make one per goroutine).
+type Streamer struct {
+	opts   Options
+	window int
+	store  *colStore // reused columns for files read whole in one pass
+	src    streamScratch
+}
+
+// NewStreamer returns a Streamer that reads with opts (nil: defaults)
+// and so (nil: defaults). opts is copied.
+func NewStreamer(opts *Options, so *StreamOptions) *Streamer {
+	s := &Streamer{window: DefaultWindow, store: &colStore{}}
+	if opts != nil {
+		s.opts = *opts
+	}
+	if so != nil && so.Window != 0 {
+		s.window = so.Window
+	}
+	return s
+}
+
+// A StreamFile is one log file opened by [Streamer.Open]: its columns,
+// the runs that [ReadFile] would give, and [StreamFile.Scan] to visit
+// their samples. It is valid until the next Open on the same Streamer or
+// its Close, whichever comes first.
+type StreamFile struct {
+	File    string
+	States  []Column
+	Time    Column
+	Ignored []Column
+	// Warnings are as in [Dataset.Warnings].
+	Warnings []string
+	Runs     []StreamRun
+	// Whole is empty when the file is streamed; otherwise it says why
+	// the file was read whole: "window" (it has at most Window rows, and
+	// is read once into reused buffers), or the reason it cannot be
+	// streamed (a --run-col, a time window, inputs, date-time stamps,
+	// stdin, a Parquet layout only the general decoder reads, a
+	// gap limit that only the whole column decides exactly, ...).
+	Whole string
+	// Passes counts the reads of the file so far (1 when read whole).
+	Passes int
+
+	ds   *Dataset // read whole
+	src  source   // streamed
+	xbuf [][]float64
+}
+
+// A StreamRun is one run of a [StreamFile], as [Run] without the samples.
+type StreamRun struct {
+	Name    string
+	Source  Source
+	Gaps    int
+	Events  int
+	Samples int
+	rows    [2]int // [first, end) rows of the file, when streamed
+}
+
+// Dataset returns the file's data set when it was read whole, nil when
+// it is streamed.
+func (sf *StreamFile) Dataset() *Dataset { return sf.ds }
+
+// Close releases the file. It is safe to call more than once.
+func (sf *StreamFile) Close() error {
+	if sf.src != nil {
+		err := sf.src.close()
+		sf.src = nil
+		return err
+	}
+	return nil
+}
+
+// errFallback says a file cannot be streamed exactly; it is read whole.
+type errFallback struct{ why string }
+
+func (e *errFallback) Error() string { return "read whole: " + e.why }
+
+// Open reads path's header and plans its runs: exactly the runs, names,
+// sample counts and line numbers that [ReadFile] gives, without holding
+// the file's samples. A file of at most Window rows, or one that cannot
+// be streamed (see [StreamFile.Whole]), is read whole instead, and
+// [StreamFile.Dataset] returns it. Planning reads a streamed file two to
+// three times (see the package documentation of the passes). Errors are
+// those of ReadFile, with the same text: a streamed file that turns out
+// bad is read again whole to report its error as ReadFile would.
+func (s *Streamer) Open(ctx context.Context, path string) (*StreamFile, error) {
+	if err := ctx.Err(); err != nil {
+		return nil, err
+	}
+	opts := &s.opts
+	why := s.streamable(path)
+	if why == "" {
+		sf, err := s.openStream(ctx, path)
+		var fb *errFallback
+		switch {
+		case err == nil:
+			return sf, nil
+		case errors.As(err, &fb):
+			why = fb.why
+		case errors.Is(err, context.Canceled), errors.Is(err, context.DeadlineExceeded):
+			return nil, err
+		default:
+			why = "error" // report it exactly as ReadFile does
+		}
+	}
+	var ds *Dataset
+	var err error
+	if why == "window" {
+		ds, err = s.readWindow(ctx, path)
+	} else {
+		ds, err = ReadFile(ctx, path, opts)
+	}
+	if err != nil {
+		return nil, err
+	}
+	sf := &StreamFile{File: path, States: ds.States, Time: ds.Time, Ignored: ds.Ignored, Warnings: ds.Warnings,
+		Whole: why, Passes: 1, ds: ds}
+	for i := range ds.Runs {
+		r := &ds.Runs[i]
+		sf.Runs = append(sf.Runs, StreamRun{Name: r.Name, Source: r.Source, Gaps: r.Gaps, Events: r.Events, Samples: r.Len()})
+	}
+	return sf, nil
+}
+
+// streamable returns "" when path may be streamed with s's options, or
+// why not.
+func (s *Streamer) streamable(path string) string {
+	o := &s.opts
+	switch {
+	case path == "-":
+		return "stdin"
+	case o.RunCol != "":
+		return "a run column"
+	case o.From > 0 || o.To > 0:
+		return "a time window"
+	case len(o.Inputs) > 0:
+		return "input columns"
+	case o.viaArrow:
+		return "the general Parquet decoder"
+	}
+	return ""
+}
+
+// readWindow reads a Parquet file whole into s's reused columns, or a
+// CSV file as ReadFile does.
+func (s *Streamer) readWindow(ctx context.Context, path string) (*Dataset, error) {
+	if !strings.EqualFold(filepath.Ext(path), ".parquet") {
+		return ReadFile(ctx, path, &s.opts)
+	}
+	ds, err := readParquetStore(ctx, path, &s.opts, s.store)
+	if errors.Is(err, errBudget) {
+		s.store = &colStore{} // the stuck decoder may still write into the old one
+	}
+	if err != nil {
+		return nil, err
+	}
+	return ds, finish(ds, &s.opts)
+}
+
+// openStream plans a streamed file; an *errFallback means read it whole.
+func (s *Streamer) openStream(ctx context.Context, path string) (*StreamFile, error) {
+	var src source
+	var err error
+	if strings.EqualFold(filepath.Ext(path), ".parquet") {
+		src, err = s.openParquetSource(path)
+	} else {
+		src, err = s.openCSVSource(path)
+	}
+	if err != nil {
+		return nil, err
+	}
+	sf := &StreamFile{File: path, src: src}
+	ok := false
+	defer func() {
+		if !ok {
+			src.close()
+		}
+	}()
+	if err := src.header(sf); err != nil {
+		return nil, err
+	}
+	if rows := src.rowsHint(); rows >= 0 && s.window > 0 && rows <= s.window {
+		return nil, &errFallback{"window"}
+	}
+	pl := newPlan(sf, src, &s.opts)
+	if err := pl.run(ctx); err != nil {
+		return nil, err
+	}
+	ok = true
+	return sf, nil
+}
+
+// Scan calls fn with the samples of every run of sf, in run order, a
+// block of consecutive samples at a time: k is the run's index in
+// sf.Runs, t the times in seconds and x[j] the values of state j (each
+// as long as t). The slices are valid during the call only. A streamed
+// file is read once more; a file read whole is not. fn's error stops the
+// scan and is returned.
+func (sf *StreamFile) Scan(ctx context.Context, fn func(k int, t []float64, x [][]float64) error) error {
+	if sf.ds != nil {
+		for k := range sf.ds.Runs {
+			if err := ctx.Err(); err != nil {
+				return err
+			}
+			r := &sf.ds.Runs[k]
+			if err := fn(k, r.T, r.X); err != nil {
+				return err
+			}
+		}
+		return nil
+	}
+	if sf.src == nil {
+		return errors.New("ingest: Scan after Close")
+	}
+	sf.Passes++
+	k := 0
+	ns := len(sf.States)
+	if len(sf.xbuf) != ns {
+		sf.xbuf = make([][]float64, ns)
+	}
+	err := sf.src.pass(ctx, func(row0 int, t []float64, x [][]float64) error {
+		end := row0 + len(t)
+		for k < len(sf.Runs) && sf.Runs[k].rows[0] < end {
+			r := sf.Runs[k].rows
+			a, b := max(r[0], row0), min(r[1], end)
+			if a < b {
+				for j := range sf.xbuf {
+					sf.xbuf[j] = x[j][a-row0 : b-row0]
+				}
+				if err := fn(k, t[a-row0:b-row0], sf.xbuf); err != nil {
+					return err
+				}
+			}
+			if r[1] > end {
+				break
+			}
+			k++
+		}
+		return nil
+	})
+	if err != nil {
+		var fb *errFallback
+		if errors.As(err, &fb) {
+			return &ParseError{File: sf.File, Err: fmt.Errorf("%w: the file changed while it was read", ErrFormat)}
+		}
+	}
+	return err
+}
+
+// source is a file read block by block, once per pass.
+type source interface {
+	// header fills sf's columns.
+	header(sf *StreamFile) error
+	// rowsHint is the file's row count when known before reading, else -1.
+	rowsHint() int
+	// pass calls fn with consecutive blocks of rows from the first:
+	// row0 is the block's first row (0-based), t its times in seconds
+	// (converted as ReadFile converts them; NaN when missing) and x[j]
+	// state j's values (NaN when missing). The slices are reused.
+	pass(ctx context.Context, fn func(row0 int, t []float64, x [][]float64) error) error
+	// line returns the source line (CSV) or 1-based row (Parquet) of
+	// row, valid after the first pass.
+	line(row int) int
+	close() error
+}
+
+// streamScratch is a Streamer's buffers for streamed sources.
+type streamScratch struct {
+	t  []float64
+	x  [][]float64
+	sc []colScratch
+}
+
+// timeConv converts a block of numeric times to seconds as
+// [table.convertTime] does, with the same warning.
+type timeConv struct {
+	tb *table
+	ds Dataset
+}
+
+func newTimeConv(tb *table, sf *StreamFile) *timeConv {
+	tc := &timeConv{tb: &table{file: tb.file, timeCol: tb.timeCol}}
+	if tb.dateTime || tb.rate > 0 || tb.timeCol.Unit == "" {
+		sf.Time = tb.timeCol
+		return nil
+	}
+	tc.ds.Time = tb.timeCol
+	tc.tb.t = nil
+	tc.tb.convertTime(&tc.ds) // on no samples: the unit decides
+	sf.Time = tc.ds.Time
+	sf.Warnings = append(sf.Warnings, tc.ds.Warnings...)
+	return tc
+}
+
+func (tc *timeConv) convert(t []float64) {
+	if tc == nil {
+		return
+	}
+	tc.tb.t = t
+	tc.ds.Warnings = tc.ds.Warnings[:0]
+	tc.tb.convertTime(&tc.ds)
+	tc.tb.t = nil
+}
+
+// parquetSource streams a Parquet file read by readDirect's decoder, one
+// row group at a time into reused buffers.
+type parquetSource struct {
+	po    *pqFile
+	s     *streamScratch
+	jobs  []*colJob // time (unless a rate), then the states
+	tIdx  int       // index of the time job, -1 with a rate
+	conv  *timeConv
+	pool  sync.Pool
+	start time.Time
+}
+
+func (s *Streamer) openParquetSource(path string) (source, error) {
+	po, err := openParquet(path, &s.opts)
+	if err != nil {
+		return nil, &errFallback{"error"}
+	}
+	ps := &parquetSource{po: po, s: &s.src, tIdx: -1}
+	if !po.direct {
+		po.f.Close()
+		return nil, &errFallback{"the general Parquet decoder"}
+	}
+	r := po.r
+	for j := range po.fields {
+		switch {
+		case r.role[j] == roleTime && po.kinds[j] == kindTimestamp:
+			po.f.Close()
+			return nil, &errFallback{"date-time stamps"}
+		case r.role[j] == roleTime:
+			ps.tIdx = len(ps.jobs)
+			ps.jobs = append(ps.jobs, &colJob{j: j, kind: po.kinds[j]})
+		}
+	}
+	for k := range r.states {
+		for j := range po.fields {
+			if r.role[j] == roleState && r.stateOf[j] == k {
+				ps.jobs = append(ps.jobs, &colJob{j: j, kind: po.kinds[j]})
+			}
+		}
+	}
+	return ps, nil
+}
+
+func (ps *parquetSource) header(sf *StreamFile) error {
+	tb := ps.po.tb
+	ns := len(tb.states) - tb.nInput
+	sf.States = tb.states[:ns:ns]
+	sf.Ignored = tb.ignored
+	if tb.rows == 0 {
+		return &errFallback{"error"}
+	}
+	ps.conv = newTimeConv(tb, sf)
+	return nil
+}
+
+func (ps *parquetSource) rowsHint() int { return ps.po.tb.rows }
+
+func (ps *parquetSource) line(row int) int { return row + 1 }
+
+func (ps *parquetSource) close() error { return ps.po.f.Close() }
+
+func (ps *parquetSource) pass(ctx context.Context, fn func(row0 int, t []float64, x [][]float64) error) (err error) {
+	po := ps.po
+	tb := po.tb
+	sc := ps.s
+	for len(sc.sc) < len(ps.jobs) {
+		sc.sc = append(sc.sc, colScratch{})
+	}
+	ns := len(tb.states)
+	if len(sc.x) < ns {
+		sc.x = make([][]float64, ns)
+	}
+	x := sc.x[:ns]
+	cur := -1 // the job decoding, for a panic's message
+	defer func() {
+		if p := recover(); p != nil {
+			for i := range sc.sc {
+				sc.sc[i].pages = nil // their state is unknown
+			}
+			jb := ps.jobs[max(cur, 0)]
+			err = jb.bad(tb.file, po.cols[jb.j], "corrupt Parquet data (%v)", p)
+		}
+	}()
+	md := po.pr.MetaData()
+	row0 := 0
+	for i := 0; i < po.pr.NumRowGroups(); i++ {
+		if err := ctx.Err(); err != nil {
+			return err
+		}
+		rows := int(md.RowGroup(i).NumRows())
+		if rows == 0 {
+			continue
+		}
+		if cap(sc.t) < rows {
+			sc.t = make([]float64, rows)
+		}
+		t := sc.t[:rows]
+		for k := range x {
+			if cap(x[k]) < rows {
+				x[k] = make([]float64, rows)
+			}
+			x[k] = x[k][:rows]
+		}
+		for q, jb := range ps.jobs {
+			cur = q
+			if q == ps.tIdx {
+				jb.dst = t
+			} else {
+				jb.dst = x[q-ps.tIdx-1]
+			}
+			jb.base = row0
+			n, err := tb.readGroup(po.f, po.pr, jb, po.cols[jb.j], &sc.sc[q], &ps.pool, po.size, i, 0)
+			if err != nil {
+				return err
+			}
+			if n != rows {
+				return jb.bad(tb.file, po.cols[jb.j], "row group %d: %d values for %d rows", i, n, rows)
+			}
+		}
+		cur = -1
+		if ps.tIdx < 0 {
+			for k := range t {
+				t[k] = float64(row0+k) / tb.rate
+			}
+		} else {
+			ps.conv.convert(t)
+		}
+		if err := fn(row0, t, x); err != nil {
+			return err
+		}
+		row0 += rows
+	}
+	return nil
+}
+
+// openCSVSource: CSV files are read whole (see [StreamFile.Whole]).
+func (s *Streamer) openCSVSource(path string) (source, error) {
+	if _, err := os.Stat(path); err != nil {
+		return nil, err
+	}
+	return nil, &errFallback{"CSV"}
+}

@@ -1,0 +1,353 @@
+package ingest
+
+import (
+	"context"
+	"fmt"
+	"math"
+	"math/rand/v2"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+
+	"github.com/apache/arrow/go/v15/arrow"
+	"github.com/apache/arrow/go/v15/arrow/array"
+	"github.com/apache/arrow/go/v15/arrow/memory"
+	"github.com/apache/arrow/go/v15/parquet"
+	"github.com/apache/arrow/go/v15/parquet/compress"
+	"github.com/apache/arrow/go/v15/parquet/pqarrow"
+)
+
+// rigLog is a logged damped oscillator (two states, displacement and
+// velocity, plus a slow third) with what rigs put in logs: a resting
+// head, hammer hits (a velocity step, a kink in displacement), a spike,
+// a time gap, missing cells, Gaussian noise. The values are invented
+// test data; what is checked is that streaming gives ReadFile's runs.
+type rigLog struct {
+	n       int
+	head    int     // resting samples at the start
+	hits    []int   // samples where the velocity jumps
+	spike   int     // a one-sample spike in displacement (0: none)
+	gapAt   int     // the time jumps before this sample (0: none)
+	missing []int   // rows with a missing displacement
+	sd      float64 // noise
+	dt      float64
+	jitter  float64 // relative jitter of the time step
+}
+
+func (g rigLog) columns(seed uint64) (t, x, v, s []float64) {
+	rng := rand.New(rand.NewPCG(seed, 0))
+	const w, zeta = 2 * math.Pi, 0.05
+	xs, vs := 1.0, 0.0
+	tt := 0.0
+	for i := range g.n {
+		if i > 0 {
+			tt += g.dt * (1 + g.jitter*(rng.Float64()-0.5))
+		}
+		if i == g.gapAt && g.gapAt > 0 {
+			tt += 40 * g.dt
+		}
+		for _, h := range g.hits {
+			if i == h {
+				vs += 8
+			}
+		}
+		xi, vi := xs, vs
+		if i < g.head {
+			xi, vi = 0, 0
+		} else {
+			// semi-implicit Euler step of x'' = -w^2 x - 2 zeta w x'
+			vs += g.dt * (-w*w*xs - 2*zeta*w*vs)
+			xs += g.dt * vs
+		}
+		if i == g.spike && g.spike > 0 {
+			xi += 3
+		}
+		t = append(t, tt)
+		x = append(x, xi+g.sd*rng.NormFloat64())
+		v = append(v, vi+g.sd*rng.NormFloat64())
+		si := 0.1 * math.Sin(0.3*(tt-float64(g.head)*g.dt))
+		if i < g.head {
+			si = 0
+		}
+		s = append(s, si+g.sd*rng.NormFloat64())
+	}
+	for _, m := range g.missing {
+		x[m] = math.NaN()
+	}
+	return t, x, v, s
+}
+
+// writeRigParquet writes the log with Arrow's writer in row groups of rg
+// rows; missing displacements are nulls when nulls is set, NaN values
+// otherwise.
+func writeRigParquet(t testing.TB, path string, g rigLog, seed uint64, rg int64, dict, nulls bool, codec compress.Compression) {
+	t.Helper()
+	tc, x, v, s := g.columns(seed)
+	sc := arrow.NewSchema([]arrow.Field{
+		{Name: "time [s]", Type: arrow.PrimitiveTypes.Float64},
+		{Name: "disp [mm]", Type: arrow.PrimitiveTypes.Float64, Nullable: nulls},
+		{Name: "vel [mm/s]", Type: arrow.PrimitiveTypes.Float64},
+		{Name: "slow", Type: arrow.PrimitiveTypes.Float64},
+	}, nil)
+	b := array.NewRecordBuilder(memory.NewGoAllocator(), sc)
+	defer b.Release()
+	for i := range tc {
+		b.Field(0).(*array.Float64Builder).Append(tc[i])
+		if nulls && math.IsNaN(x[i]) {
+			b.Field(1).(*array.Float64Builder).AppendNull()
+		} else {
+			b.Field(1).(*array.Float64Builder).Append(x[i])
+		}
+		b.Field(2).(*array.Float64Builder).Append(v[i])
+		b.Field(3).(*array.Float64Builder).Append(s[i])
+	}
+	rec := b.NewRecord()
+	defer rec.Release()
+	f, err := os.Create(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	tbl := array.NewTableFromRecords(sc, []arrow.Record{rec})
+	defer tbl.Release()
+	props := parquet.NewWriterProperties(parquet.WithMaxRowGroupLength(rg), parquet.WithDictionaryDefault(dict),
+		parquet.WithCompression(codec))
+	if err := pqarrow.WriteTable(tbl, f, rg, props, pqarrow.DefaultWriterProps()); err != nil {
+		t.Fatal(err)
+	}
+}
+
+// streamRuns opens path with a Streamer and collects its runs' samples
+// through Scan.
+func streamRuns(t *testing.T, path string, opts *Options, so *StreamOptions) (*StreamFile, []Run) {
+	t.Helper()
+	s := NewStreamer(opts, so)
+	sf, err := s.Open(context.Background(), path)
+	if err != nil {
+		t.Fatalf("Open: %v", err)
+	}
+	defer sf.Close()
+	runs := make([]Run, len(sf.Runs))
+	for k, r := range sf.Runs {
+		runs[k] = Run{Name: r.Name, Source: r.Source, Gaps: r.Gaps, Events: r.Events, X: make([][]float64, len(sf.States))}
+	}
+	err = sf.Scan(context.Background(), func(k int, tt []float64, x [][]float64) error {
+		runs[k].T = append(runs[k].T, tt...)
+		for j := range x {
+			runs[k].X[j] = append(runs[k].X[j], x[j]...)
+		}
+		return nil
+	})
+	if err != nil {
+		t.Fatalf("Scan: %v", err)
+	}
+	for k, r := range sf.Runs {
+		if r.Samples != len(runs[k].T) {
+			t.Errorf("run %s: %d samples planned, %d scanned", r.Name, r.Samples, len(runs[k].T))
+		}
+	}
+	return sf, runs
+}
+
+// sameRuns compares runs field by field and sample by sample (bit for
+// bit: the same samples of the same file).
+func sameRuns(t *testing.T, got, want []Run) {
+	t.Helper()
+	if len(got) != len(want) {
+		var gn, wn []string
+		for _, r := range got {
+			gn = append(gn, fmt.Sprintf("%s(%d)", r.Name, r.Len()))
+		}
+		for _, r := range want {
+			wn = append(wn, fmt.Sprintf("%s(%d)", r.Name, r.Len()))
+		}
+		t.Fatalf("%d runs %v, ReadFile %d %v", len(got), gn, len(want), wn)
+	}
+	for k := range want {
+		g, w := &got[k], &want[k]
+		if g.Name != w.Name || g.Source != w.Source || g.Gaps != w.Gaps || g.Events != w.Events || g.Len() != w.Len() {
+			t.Errorf("run %d: %s %+v gaps %d events %d, %d samples; ReadFile %s %+v gaps %d events %d, %d samples",
+				k, g.Name, g.Source, g.Gaps, g.Events, g.Len(), w.Name, w.Source, w.Gaps, w.Events, w.Len())
+			continue
+		}
+		for i := range w.T {
+			if math.Float64bits(g.T[i]) != math.Float64bits(w.T[i]) {
+				t.Errorf("run %s: t[%d] = %v, ReadFile %v", w.Name, i, g.T[i], w.T[i])
+				break
+			}
+		}
+		for j := range w.X {
+			for i := range w.X[j] {
+				if math.Float64bits(g.X[j][i]) != math.Float64bits(w.X[j][i]) {
+					t.Errorf("run %s: x%d[%d] = %v, ReadFile %v", w.Name, j, i, g.X[j][i], w.X[j][i])
+					break
+				}
+			}
+		}
+	}
+}
+
+// TestStreamSameRuns: a streamed Parquet file gives ReadFile's runs
+// (names, first lines, gap and event counts, samples) for logs with
+// resting heads, hammer hits, spikes, gaps and missing cells, in row
+// groups smaller than, across and larger than those features, plain or
+// dictionary encoded, compressed or not.
+func TestStreamSameRuns(t *testing.T) {
+	base := rigLog{n: 30000, dt: 0.001, sd: 1e-3}
+	logs := []struct {
+		name string
+		g    rigLog
+		opts Options
+	}{
+		{"plain decay", base, Options{}},
+		{"head, hits, spike, gap, missing", rigLog{n: 30000, dt: 0.001, sd: 1e-3, head: 3000, hits: []int{9000, 21000},
+			spike: 15000, gapAt: 25000, missing: []int{5000, 5001, 12345, 29999}}, Options{}},
+		{"jittered steps", rigLog{n: 20000, dt: 0.002, sd: 1e-3, jitter: 0.2, head: 500, hits: []int{7000}}, Options{}},
+		{"keep head", rigLog{n: 20000, dt: 0.001, sd: 1e-3, head: 2000, hits: []int{9000}}, Options{KeepHead: true}},
+		{"keep events", rigLog{n: 20000, dt: 0.001, sd: 1e-3, head: 2000, hits: []int{9000}}, Options{KeepEvents: true}},
+		{"keep both", rigLog{n: 20000, dt: 0.001, sd: 1e-3, head: 2000, hits: []int{9000}, gapAt: 15000},
+			Options{KeepHead: true, KeepEvents: true}},
+		{"no noise", rigLog{n: 12000, dt: 0.001, head: 1000, hits: []int{6000}}, Options{}},
+		{"missing at row-group edges", rigLog{n: 20000, dt: 0.001, sd: 1e-3, missing: []int{0, 4095, 4096, 8191, 19999}, gapAt: 8192},
+			Options{}},
+		{"long head", rigLog{n: 100000, dt: 0.001, sd: 1e-3, head: 70000}, Options{}},
+	}
+	layouts := []struct {
+		rg          int64
+		dict, nulls bool
+		codec       compress.Compression
+	}{
+		{517, false, false, compress.Codecs.Uncompressed},
+		{4096, false, true, compress.Codecs.Uncompressed},
+		{4096, true, false, compress.Codecs.Snappy},
+		{1 << 16, false, true, compress.Codecs.Snappy},
+	}
+	dir := t.TempDir()
+	for li, lg := range logs {
+		for _, ly := range layouts {
+			name := fmt.Sprintf("%s/rg=%d,dict=%v,nulls=%v,%v", lg.name, ly.rg, ly.dict, ly.nulls, ly.codec)
+			t.Run(name, func(t *testing.T) {
+				path := filepath.Join(dir, fmt.Sprintf("log%d-%d-%v-%v-%v.parquet", li, ly.rg, ly.dict, ly.nulls, ly.codec))
+				writeRigParquet(t, path, lg.g, uint64(li), ly.rg, ly.dict, ly.nulls, ly.codec)
+				opts := lg.opts
+				want, err := ReadFile(context.Background(), path, &opts)
+				if err != nil {
+					t.Fatal(err)
+				}
+				sf, got := streamRuns(t, path, &opts, &StreamOptions{Window: -1})
+				if sf.Whole != "" {
+					if lg.name == "long head" {
+						t.Skipf("read whole: %s", sf.Whole) // allowed: a head longer than maxStreamHead
+					}
+					t.Fatalf("read whole (%s), not streamed", sf.Whole)
+				}
+				sameRuns(t, got, want.Runs)
+				if len(want.Runs) == 0 {
+					t.Fatal("no runs")
+				}
+				t.Logf("%d runs, %d gaps, %d events, %d heads, %d passes", len(want.Runs), want.Gaps, len(want.Events), len(want.Heads), sf.Passes)
+			})
+		}
+	}
+}
+
+// TestStreamWindow: a file within the window is read whole into the
+// reused buffers, and gives ReadFile's runs, file after file.
+func TestStreamWindow(t *testing.T) {
+	dir := t.TempDir()
+	s := NewStreamer(nil, nil)
+	for i, n := range []int{5000, 3000, 8000} {
+		path := filepath.Join(dir, fmt.Sprintf("w%d.parquet", i))
+		writeRigParquet(t, path, rigLog{n: n, dt: 0.001, sd: 1e-3, head: 500, hits: []int{n / 2}}, uint64(i), 1000, false, false, compress.Codecs.Uncompressed)
+		want, err := ReadFile(context.Background(), path, nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		sf, err := s.Open(context.Background(), path)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if sf.Whole != "window" || sf.Dataset() == nil {
+			t.Fatalf("Whole = %q, want window", sf.Whole)
+		}
+		sameRuns(t, sf.Dataset().Runs, want.Runs)
+	}
+}
+
+// TestStreamErrors: bad input gives ReadFile's error, word for word, and
+// never a panic: a truncated file, a corrupt page, an infinite value, time
+// going back.
+func TestStreamErrors(t *testing.T) {
+	dir := t.TempDir()
+	good := filepath.Join(dir, "good.parquet")
+	writeRigParquet(t, good, rigLog{n: 20000, dt: 0.001, sd: 1e-3}, 1, 4096, false, false, compress.Codecs.Uncompressed)
+	data, err := os.ReadFile(good)
+	if err != nil {
+		t.Fatal(err)
+	}
+	corrupt := func(name string, f func([]byte) []byte) string {
+		b := f(append([]byte(nil), data...))
+		p := filepath.Join(dir, name)
+		if err := os.WriteFile(p, b, 0o644); err != nil {
+			t.Fatal(err)
+		}
+		return p
+	}
+	cases := map[string]string{
+		"truncated": corrupt("truncated.parquet", func(b []byte) []byte { return b[:len(b)/2] }),
+		"page bytes": corrupt("page.parquet", func(b []byte) []byte {
+			for i := 4000; i < 4100; i++ {
+				b[i] ^= 0xff
+			}
+			return b
+		}),
+		"page header": corrupt("header.parquet", func(b []byte) []byte {
+			for i := 4; i < 40; i++ {
+				b[i] = 0xff
+			}
+			return b
+		}),
+	}
+	// an infinite value and time going back, mid-file
+	tc, x, v, s := rigLog{n: 20000, dt: 0.001, sd: 1e-3}.columns(2)
+	x[13000] = math.Inf(1)
+	cases["infinite"] = writeCols(t, filepath.Join(dir, "inf.parquet"), tc, x, v, s)
+	tc2, x2, v2, s2 := rigLog{n: 20000, dt: 0.001, sd: 1e-3}.columns(3)
+	tc2[15000] = tc2[14000]
+	cases["time back"] = writeCols(t, filepath.Join(dir, "back.parquet"), tc2, x2, v2, s2)
+	for name, path := range cases {
+		t.Run(name, func(t *testing.T) {
+			_, want := ReadFile(context.Background(), path, nil)
+			if want == nil {
+				t.Fatal("ReadFile took the bad file")
+			}
+			_, got := NewStreamer(nil, &StreamOptions{Window: -1}).Open(context.Background(), path)
+			if got == nil || got.Error() != want.Error() {
+				t.Fatalf("Open: %v\nReadFile: %v", got, want)
+			}
+			if strings.Contains(got.Error(), "\n") {
+				t.Errorf("error on more than one line: %q", got)
+			}
+		})
+	}
+}
+
+func writeCols(t *testing.T, path string, cols ...[]float64) string {
+	t.Helper()
+	names := []string{"time [s]", "disp [mm]", "vel [mm/s]", "slow"}
+	var fields []arrow.Field
+	for _, n := range names[:len(cols)] {
+		fields = append(fields, arrow.Field{Name: n, Type: arrow.PrimitiveTypes.Float64})
+	}
+	sc := arrow.NewSchema(fields, nil)
+	b := array.NewRecordBuilder(memory.NewGoAllocator(), sc)
+	defer b.Release()
+	for j, c := range cols {
+		b.Field(j).(*array.Float64Builder).AppendValues(c, nil)
+	}
+	rec := b.NewRecord()
+	defer rec.Release()
+	writeArrowParquet(t, path, rec, 4096)
+	return path
+}

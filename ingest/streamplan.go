@@ -1,0 +1,671 @@
+package ingest
+
+import (
+	"context"
+	"fmt"
+	"math"
+	"path/filepath"
+	"slices"
+)
+
+// The plan of a streamed file: the runs [table.dataset] would form, found
+// in passes over the file that each hold one block (a row group) and
+// bounded statistics, never a column:
+//
+//  1. Rows with a missing cell split the recording into pieces; time must
+//     increase; the time steps go into a histogram (dtHist) that brackets
+//     their median, and so the gap limit (GapFactor times it), between
+//     two bounds. When no step lies between the bounds, every step is on
+//     a known side of the limit, whatever the median's exact value, and
+//     the gap splits are those of the whole-column median; otherwise the
+//     file is read whole. The noise statistics of events.go (the jump
+//     statistic at every stride-th sample, the resolution, the span) are
+//     gathered in the same pass on the guess that there is no gap split
+//     and no missing row (the stride then follows from the footer's row
+//     count).
+//  2. Only when that guess fails: the gap splits and the noise statistics
+//     again, now with the pieces known.
+//  3. Resting head and events, from the noise: the head is held (at most
+//     maxStreamHead samples, else the file is read whole) until the first
+//     motion decides it; events are found as in findEvents over a ring
+//     of the last samples, with the candidate loop of each state a
+//     bounded distance behind the newest sample (a cluster of candidates
+//     longer than that reads the file whole). The cuts split the pieces
+//     into the runs.
+//
+// Pass 3 is left out when both the head and the events are kept.
+
+const (
+	// evRing is the samples of one state the event ring holds, and
+	// evLook how far ahead of a candidate the samples must be read
+	// before it is judged (its window reaches eventBlock+2 samples
+	// ahead; the rest is room for a cluster of candidates).
+	evRing = 1 << 13
+	evLook = 1 << 11
+	// evPush is the most samples pushed into the ring at once.
+	evPush = 1 << 10
+	// maxStreamHead bounds the samples a resting head may last before
+	// its first motion, in a streamed file.
+	maxStreamHead = 1 << 16
+	// maxStreamPieces bounds the pieces (rows between missing ones) of a
+	// streamed file.
+	maxStreamPieces = 1 << 16
+)
+
+type plan struct {
+	sf   *StreamFile
+	src  source
+	opts *Options
+	name string
+	ns   int
+
+	// pass 1
+	pieces  [][2]int // rows with no missing cell, split at missing rows
+	total   int
+	hist    dtHist
+	maxDT   float64
+	anyCell []bool // per column: some row has a value
+	lo, hi  []float64
+
+	// noise statistics, for the pieces split at the gaps
+	final  [][2]int
+	stride int
+	acc    []noiseAcc
+
+	noise []stateNoise
+	runs  [][2]int
+	gaps  int
+	evs   int
+}
+
+// noiseAcc gathers what noiseOf computes for one state.
+type noiseAcc struct {
+	all  []float64
+	q    float64
+	prev [3]float64 // the last three values of the piece
+}
+
+func newPlan(sf *StreamFile, src source, opts *Options) *plan {
+	ns := len(sf.States)
+	base := filepath.Base(sf.File)
+	pl := &plan{sf: sf, src: src, opts: opts, name: base, ns: ns,
+		anyCell: make([]bool, ns), lo: make([]float64, ns), hi: make([]float64, ns), acc: make([]noiseAcc, ns)}
+	for j := range pl.lo {
+		pl.lo[j], pl.hi[j] = math.Inf(1), math.Inf(-1)
+	}
+	return pl
+}
+
+func (pl *plan) run(ctx context.Context) error {
+	guess := pl.src.rowsHint()
+	pl.stride = max(1, guess/noiseSubsample)
+	pl.resetAcc()
+	if err := pl.pass1(ctx); err != nil {
+		return err
+	}
+	for _, ok := range pl.anyCell {
+		if !ok {
+			return &errFallback{"error"} // ErrAllMissing, as ReadFile words it
+		}
+	}
+	if pl.total == 0 {
+		return &errFallback{"error"}
+	}
+	a, ok := pl.hist.limitBounds()
+	if !ok {
+		return &errFallback{"a gap limit that only the whole column decides exactly"}
+	}
+	noGap := !(pl.maxDT > a)
+	wantNoise := !pl.opts.KeepHead || !pl.opts.KeepEvents
+	if noGap && max(1, pl.total/noiseSubsample) == pl.stride {
+		pl.final = pl.pieces
+	} else {
+		pl.stride = max(1, pl.total/noiseSubsample)
+		pl.resetAcc()
+		if err := pl.pass2(ctx, a, noGap); err != nil {
+			return err
+		}
+	}
+	pl.gaps = len(pl.final) - 1
+	pl.runs = pl.final
+	if wantNoise && pl.ns > 0 {
+		pl.noise = make([]stateNoise, pl.ns)
+		for j := range pl.acc {
+			pl.noise[j] = stateNoise{s: robustScale(pl.acc[j].all), quant: pl.acc[j].q, span: pl.hi[j] - pl.lo[j]}
+		}
+		if err := pl.pass3(ctx); err != nil {
+			return err
+		}
+	}
+	sf := pl.sf
+	sf.Runs = make([]StreamRun, len(pl.runs))
+	for n, r := range pl.runs {
+		sr := StreamRun{Name: pl.name, Source: Source{File: sf.File, Line: pl.src.line(r[0])}, Gaps: pl.gaps, Events: pl.evs,
+			Samples: r[1] - r[0], rows: r}
+		if n > 0 {
+			sr.Name = fmt.Sprintf("%s~%d", pl.name, n)
+		}
+		sf.Runs[n] = sr
+	}
+	return nil
+}
+
+func (pl *plan) resetAcc() {
+	for j := range pl.acc {
+		a := &pl.acc[j]
+		a.all = a.all[:0]
+		a.q = math.Inf(1)
+	}
+}
+
+// addNoise feeds the noise statistics the sample v of state j at index q
+// of its piece.
+func (a *noiseAcc) add(v float64, q, stride int) {
+	if q >= 1 {
+		if d := math.Abs(v - a.prev[2]); d > 0 && d < a.q {
+			a.q = d
+		}
+	}
+	// the jump statistic at i = q-1 needs x[i-2], x[i-1], x[i], x[i+1]
+	if i := q - 1; i >= 2 && (i-2)%stride == 0 {
+		a.all = append(a.all, 1.5*(a.prev[2]-a.prev[1])+0.5*(a.prev[0]-v))
+	}
+	a.prev[0], a.prev[1], a.prev[2] = a.prev[1], a.prev[2], v
+}
+
+// pass1 finds the pieces, checks time order, fills the step histogram
+// and the noise statistics on the guess of no gap split.
+func (pl *plan) pass1(ctx context.Context) error {
+	prevT := math.Inf(-1)
+	prevRow := -2
+	open := false
+	pl.sf.Passes++
+	return pl.src.pass(ctx, func(row0 int, t []float64, x [][]float64) error {
+		for k, ti := range t {
+			row := row0 + k
+			ok := ti == ti
+			for j := range x {
+				if v := x[j][k]; v != v {
+					ok = false
+				} else {
+					pl.anyCell[j] = true
+				}
+			}
+			if !ok {
+				if open {
+					pl.pieces[len(pl.pieces)-1][1] = row
+					open = false
+				}
+				continue
+			}
+			if ti <= prevT {
+				return &errFallback{"error"} // ErrTimeOrder, as ReadFile words it
+			}
+			if open && prevRow == row-1 {
+				dt := ti - prevT
+				pl.hist.add(dt)
+				pl.maxDT = max(pl.maxDT, dt)
+			} else {
+				if len(pl.pieces) >= maxStreamPieces {
+					return &errFallback{"too many missing rows to hold the pieces between them"}
+				}
+				pl.pieces = append(pl.pieces, [2]int{row, row})
+				open = true
+			}
+			q := row - pl.pieces[len(pl.pieces)-1][0]
+			for j := range x {
+				v := x[j][k]
+				pl.lo[j], pl.hi[j] = min(pl.lo[j], v), max(pl.hi[j], v)
+				pl.acc[j].add(v, q, pl.stride)
+			}
+			prevT, prevRow = ti, row
+			pl.total++
+		}
+		if open {
+			pl.pieces[len(pl.pieces)-1][1] = row0 + len(t)
+		}
+		return nil
+	})
+}
+
+// pass2 splits the pieces at steps above a (the gap limit's lower
+// bound, no step lying between the bounds) and gathers the noise
+// statistics over the split pieces.
+func (pl *plan) pass2(ctx context.Context, a float64, noGap bool) error {
+	pl.final = pl.final[:0]
+	p := 0 // the piece at or after the current row
+	prevT := 0.0
+	pl.sf.Passes++
+	return pl.src.pass(ctx, func(row0 int, t []float64, x [][]float64) error {
+		end := row0 + len(t)
+		for p < len(pl.pieces) && pl.pieces[p][0] < end {
+			pc := pl.pieces[p]
+			ra, rb := max(pc[0], row0), min(pc[1], end)
+			for row := ra; row < rb; row++ {
+				k := row - row0
+				ti := t[k]
+				if row == pc[0] || (!noGap && ti-prevT > a) {
+					pl.final = append(pl.final, [2]int{row, row})
+				}
+				f := &pl.final[len(pl.final)-1]
+				f[1] = row + 1
+				q := row - f[0]
+				for j := range x {
+					pl.acc[j].add(x[j][k], q, pl.stride)
+				}
+				prevT = ti
+			}
+			if pc[1] > end {
+				break
+			}
+			p++
+		}
+		return nil
+	})
+}
+
+// pass3 trims the resting head and splits the pieces at events.
+func (pl *plan) pass3(ctx context.Context) error {
+	ns := pl.ns
+	var runs [][2]int
+	hd := headState{}
+	ed := newEvDetector(ns)
+	p := 0
+	pieceStart := -1 // the first row of piece p given to the detector, or -1
+	startPiece := func(first int) {
+		pieceStart = first
+		ed.reset(pl.final[p][1]-first, pl.noise)
+	}
+	endPiece := func() error {
+		cuts, err := ed.finish()
+		if err != nil {
+			return err
+		}
+		sp := [][2]int{{pieceStart, pl.final[p][1]}}
+		if pl.opts.KeepEvents {
+			cuts = nil
+		}
+		out, _ := splitAt(sp, cuts)
+		pl.evs += len(out) - 1
+		for _, o := range out {
+			runs = append(runs, o[0])
+		}
+		pieceStart = -1
+		return nil
+	}
+	first := true
+	if pl.opts.KeepHead || pl.final[0][1]-pl.final[0][0] < 2*MinHead {
+		first = false
+	} else {
+		hd.init(ns, pl.final[0][1]-pl.final[0][0], pl.noise)
+	}
+	pl.sf.Passes++
+	err := pl.src.pass(ctx, func(row0 int, t []float64, x [][]float64) error {
+		end := row0 + len(t)
+		for p < len(pl.final) && pl.final[p][0] < end {
+			pc := pl.final[p]
+			ra, rb := max(pc[0], row0), min(pc[1], end)
+			if p == 0 && first {
+				k, done, err := hd.push(x, ra-row0, rb-row0)
+				if err != nil {
+					return err
+				}
+				if done {
+					first = false
+					startPiece(pc[0] + k)
+					if pl.opts.KeepEvents {
+						ed.off = true
+					}
+					ed.pushHead(&hd, k)
+				}
+			} else {
+				if pieceStart < 0 {
+					startPiece(pc[0])
+					ed.off = pl.opts.KeepEvents
+				}
+				if err := ed.push(x, ra-row0, rb-row0); err != nil {
+					return err
+				}
+			}
+			if pc[1] > end {
+				break
+			}
+			if p == 0 && first { // the piece ended undecided: no motion, no head
+				first = false
+				startPiece(pc[0])
+				ed.off = pl.opts.KeepEvents
+				ed.pushHead(&hd, 0)
+			}
+			if err := endPiece(); err != nil {
+				return err
+			}
+			p++
+		}
+		return nil
+	})
+	if err != nil {
+		return err
+	}
+	pl.runs = runs
+	return nil
+}
+
+// headState decides the resting head of the first piece as restingHead
+// does, holding its samples until the first motion.
+type headState struct {
+	n     int // the piece's length
+	noise []stateNoise
+	buf   [][]float64
+	bases []float64
+	end   int // first sample that moves, -1 while none
+}
+
+func (hd *headState) init(ns, n int, noise []stateNoise) {
+	hd.n, hd.noise, hd.end = n, noise, -1
+	hd.buf = make([][]float64, ns)
+	hd.bases = make([]float64, ns)
+}
+
+// push adds block samples [a, b) of x. done reports the head decided, k
+// its length (0: none).
+func (hd *headState) push(x [][]float64, a, b int) (k int, done bool, err error) {
+	have := len(hd.buf[0])
+	for j := range hd.buf {
+		hd.buf[j] = append(hd.buf[j], x[j][a:b]...)
+	}
+	m := len(hd.buf[0])
+	if m < MinHead {
+		return 0, false, nil
+	}
+	from := have
+	if have < MinHead { // the levels are known now: check from the first sample
+		head := make([]float64, MinHead)
+		for j := range hd.buf {
+			copy(head, hd.buf[j][:MinHead])
+			hd.bases[j] = median(head)
+		}
+		from = 0
+	}
+	for i := from; i < m && hd.end < 0; i++ {
+		for j, sn := range hd.noise {
+			if math.Abs(hd.buf[j][i]-hd.bases[j]) > RestSigmas*sn.floor() {
+				hd.end = i
+				break
+			}
+		}
+	}
+	if hd.end < 0 {
+		if m > maxStreamHead && m < hd.n {
+			return 0, false, &errFallback{"a resting head too long to hold"}
+		}
+		return 0, false, nil
+	}
+	return hd.decide(), true, nil
+}
+
+// decide is restingHead's verdict once the first motion is known.
+func (hd *headState) decide() int {
+	end := hd.end
+	if end < MinHead || end == hd.n {
+		return 0
+	}
+	h := end / 2
+	for j, sn := range hd.noise {
+		m1, m2 := mean(hd.buf[j][:h]), mean(hd.buf[j][h:end])
+		se := sn.floor() * math.Sqrt(1/float64(h)+1/float64(end-h))
+		if math.Abs(m2-m1) > restDrift*se {
+			return 0
+		}
+	}
+	return end
+}
+
+// evDetector finds the events of one piece as findEvents does, over a
+// ring of its last evRing samples per state.
+type evDetector struct {
+	n     int // the piece's length
+	off   bool
+	ring  [][]float64
+	have  int // samples pushed
+	st    []evLoop
+	noise []stateNoise
+	marks map[int]bool
+	win   []float64
+}
+
+// evLoop is one state's place in findEvents' candidate loop.
+type evLoop struct {
+	skip bool
+	base float64
+	i    int
+}
+
+func newEvDetector(ns int) *evDetector {
+	ed := &evDetector{ring: make([][]float64, ns), st: make([]evLoop, ns), marks: map[int]bool{}}
+	for j := range ed.ring {
+		ed.ring[j] = make([]float64, evRing)
+	}
+	return ed
+}
+
+func (ed *evDetector) reset(n int, noise []stateNoise) {
+	ed.n, ed.have, ed.noise, ed.off = n, 0, noise, false
+	clear(ed.marks)
+	for j, sn := range noise {
+		ed.st[j] = evLoop{skip: math.IsInf(sn.quant, 1), base: sn.jumpFloor(), i: 2}
+	}
+}
+
+// pushHead gives the detector the held head samples from k on.
+func (ed *evDetector) pushHead(hd *headState, k int) error {
+	return ed.push(hd.buf, k, len(hd.buf[0]))
+}
+
+func (ed *evDetector) push(x [][]float64, a, b int) error {
+	if ed.off || ed.n < 5 {
+		ed.have += b - a
+		return nil
+	}
+	for a < b {
+		c := min(b, a+evPush)
+		for j, r := range ed.ring {
+			for i, v := range x[j][a:c] {
+				r[(ed.have+i)&(evRing-1)] = v
+			}
+		}
+		ed.have += c - a
+		a = c
+		if err := ed.advance(); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+// finish judges the candidates left and returns the cuts, sorted.
+func (ed *evDetector) finish() ([]cut, error) {
+	if ed.off || ed.n < 5 {
+		return nil, nil
+	}
+	if err := ed.advance(); err != nil {
+		return nil, err
+	}
+	cuts := make([]cut, 0, len(ed.marks))
+	for k, drop := range ed.marks {
+		cuts = append(cuts, cut{k, drop})
+	}
+	slices.SortFunc(cuts, func(a, b cut) int { return a.k - b.k })
+	return cuts, nil
+}
+
+// advance runs each state's candidate loop as far as the samples read
+// allow: to the piece's end once all are in.
+func (ed *evDetector) advance() error {
+	n := ed.n
+	all := ed.have >= n
+	for j := range ed.st {
+		lp := &ed.st[j]
+		if lp.skip {
+			continue
+		}
+		r := ed.ring[j]
+		x := func(i int) float64 { return r[i&(evRing-1)] }
+		sv := func(i int) float64 { return 1.5*(x(i)-x(i-1)) + 0.5*(x(i-2)-x(i+1)) } // as jumpStat
+		far := func(i int) bool {
+			if math.Abs(sv(i)) <= lp.base {
+				return false
+			}
+			ed.win = ed.win[:0]
+			for k := max(2, i-eventBlock); k < min(n-1, i+eventBlock+1); k++ {
+				ed.win = append(ed.win, sv(k))
+			}
+			med := median(ed.win)
+			for k := range ed.win {
+				ed.win[k] = math.Abs(ed.win[k] - med)
+			}
+			return math.Abs(sv(i)-med) > EventSigmas*madGauss*median(ed.win)
+		}
+		s := func(i int) float64 {
+			if i < 2 || i >= n-1 {
+				return 0
+			}
+			return sv(i)
+		}
+		// needed reports whether sample index i+eventBlock+2 (the
+		// farthest a judgement at i reads) is in; past the piece's end
+		// nothing more comes.
+		ready := func(i int) bool { return all || i+eventBlock+3 <= ed.have }
+		for ; lp.i < n-1; lp.i++ {
+			i := lp.i
+			if !all && i+evLook > ed.have {
+				break
+			}
+			if !far(i) {
+				continue
+			}
+			c, end := i, i
+			for k := i + 1; k < n-1 && k <= end+2; k++ {
+				if !ready(k) {
+					return &errFallback{"a run of event candidates too long to hold"}
+				}
+				if far(k) {
+					end = k
+					if math.Abs(s(k)) > math.Abs(s(c)) {
+						c = k
+					}
+				}
+			}
+			if !ready(c + 3) {
+				return &errFallback{"a run of event candidates too long to hold"}
+			}
+			lp.i = end
+			m := -1
+			switch {
+			case c+1 < n-1 && math.Abs(s(c)+s(c+1)) < spikeMatch*math.Abs(s(c)):
+				m = c
+			case c-1 >= 2 && math.Abs(s(c)+s(c-1)) < spikeMatch*math.Abs(s(c)):
+				m = c - 1
+			}
+			k, spike := c, false
+			if m >= 1 && m+1 < n {
+				kink := false
+				if m-1 >= 2 && m+2 < n-1 {
+					kink = (s(m+2)-s(m-1))/2/s(m) < kinkOuter
+				}
+				if kink {
+					k = m + 1
+				} else {
+					k, spike = m, true
+				}
+			}
+			ed.marks[k] = ed.marks[k] || spike
+		}
+	}
+	return nil
+}
+
+// dtHist counts time steps by the top 12 bits of their mantissa (and
+// their exponent): enough to bracket their median within a relative
+// 2^-12 without holding them.
+type dtHist struct {
+	n     int
+	base  uint64 // dense counts cover keys [base, base+dtDense)
+	dense []int32
+	far   map[uint64]int
+}
+
+const dtDense = 1 << 14
+
+func dtKey(dt float64) uint64 { return math.Float64bits(dt) >> 40 }
+
+func (h *dtHist) add(dt float64) {
+	k := dtKey(dt)
+	if h.dense == nil {
+		h.dense = make([]int32, dtDense)
+		h.base = max(k, dtDense/2) - dtDense/2
+	}
+	h.n++
+	if k-h.base < dtDense {
+		h.dense[k-h.base]++
+		return
+	}
+	if h.far == nil {
+		h.far = map[uint64]int{}
+	}
+	h.far[k]++
+}
+
+// limitBounds returns a, the least value GapFactor times the median step
+// can take given the histogram, when no step lies strictly between a and
+// the greatest value it can take (so a step is a gap exactly when it
+// exceeds a); ok is false otherwise. With no steps a is +Inf.
+func (h *dtHist) limitBounds() (a float64, ok bool) {
+	if h.n == 0 {
+		return math.Inf(1), true
+	}
+	type kc struct {
+		k uint64
+		n int
+	}
+	var keys []kc
+	for i, c := range h.dense {
+		if c > 0 {
+			keys = append(keys, kc{h.base + uint64(i), int(c)})
+		}
+	}
+	for k, c := range h.far {
+		keys = append(keys, kc{k, c})
+	}
+	slices.SortFunc(keys, func(a, b kc) int {
+		switch {
+		case a.k < b.k:
+			return -1
+		case a.k > b.k:
+			return 1
+		}
+		return 0
+	})
+	// the sorted steps' ranks (n-1)/2 and n/2 hold the median
+	r1, r2 := (h.n-1)/2, h.n/2
+	var k1, k2 uint64
+	seen := 0
+	for _, e := range keys {
+		if r1 >= seen && r1 < seen+e.n {
+			k1 = e.k
+		}
+		if r2 >= seen && r2 < seen+e.n {
+			k2 = e.k
+			break
+		}
+		seen += e.n
+	}
+	lo, hi := math.Float64frombits(k1<<40), math.Float64frombits((k2+1)<<40)
+	a, b := GapFactor*lo, GapFactor*hi
+	for _, e := range keys {
+		elo, ehi := math.Float64frombits(e.k<<40), math.Float64frombits((e.k+1)<<40)
+		if ehi > a && elo <= b { // steps of this bucket may lie in (a, b]
+			return 0, false
+		}
+	}
+	return a, true
+}
