@@ -98,6 +98,9 @@ type Screener struct {
 	// slowBound is the decay rate below which a run is slow (0: none).
 	slowBound float64
 	st        runState
+	// tols and stream: ScreenFile's per-run tolerances and noise
+	tols   []float64
+	stream streamNoise
 	// generic disables the specialised kernels (benchmarks compare)
 	generic bool
 }

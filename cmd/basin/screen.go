@@ -10,16 +10,15 @@ import (
 	"fmt"
 	"io"
 	"math"
-	"runtime"
 	"slices"
 	"strconv"
 	"strings"
-	"sync"
 	"text/tabwriter"
 
 	"basin.example/cmd/basin/internal/human"
 	"basin.example/fit"
 	"basin.example/ingest"
+	"basin.example/internal/parallel"
 	"basin.example/validate"
 )
 
@@ -71,8 +70,16 @@ with a note, unless --recursive. --format csv prints one row per run:
 the partition columns, run, file, samples, flagged, rises, leaves,
 unsettled, slow, never_inside and decay_rate.
 
-Files are read one at a time per worker and screened as they arrive, so
-memory stays bounded by one file per worker however many files are given.
+Each worker screens one file at a time, in buffers reused from file to
+file. A Parquet file of more than 65,536 rows is streamed: read a row
+group at a time in three to five passes (the runs' boundaries, their
+noise, then the screen), so memory stays bounded by a row group per
+worker however large the file; the runs, and so the flags, are exactly
+those of reading it whole. Smaller Parquet files are read whole in one
+pass; CSV files, and files that cannot be streamed exactly (with
+--run-col, --from/--to or --inputs, date-time stamps, a gap limit the
+whole column must decide, a resting head longer than 65,536 samples),
+are read whole, so memory then grows with the largest such file.
 The state columns are the certificate's, in its order, unless --states
 says otherwise. Exit status 1 when any run is flagged.`,
 }
@@ -302,81 +309,55 @@ type fileResult struct {
 }
 
 // screenFiles reads and screens files on up to workers goroutines (0: one
-// per CPU), each with its own Screener, holding at most one file's data
-// per worker. Results are stored by file index, so the output order is the
-// input order whatever the timing. The first error in input order is
-// returned, and stops the rest.
+// per CPU) of internal/parallel, each with its own Screener and Streamer
+// (buffers reused from file to file), holding at most one row group (or
+// one window of rows) per worker. Results are stored by file index, so
+// the output order is the input order whatever the timing. The first
+// error in input order is returned, and stops the files after it.
 func screenFiles(ctx context.Context, cert *fit.Certificate, files []string, iopts *ingest.Options,
 	so *validate.ScreenOptions, workers int) ([]fileResult, error) {
-	if workers <= 0 {
-		workers = runtime.GOMAXPROCS(0)
+	type worker struct {
+		s   *validate.Screener
+		st  *ingest.Streamer
+		dst []validate.RunScreen
 	}
-	workers = min(workers, len(files))
-	ctx, cancel := context.WithCancel(ctx)
-	defer cancel()
 	res := make([]fileResult, len(files))
-	next := make(chan int)
-	var wg sync.WaitGroup
-	for range workers {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			s := validate.NewScreener(cert, so)
-			for i := range next {
-				res[i] = screenSafe(func() fileResult { return screenOne(ctx, s, cert, files[i], iopts) }, files[i])
-				if res[i].err != nil {
-					cancel()
-				}
-			}
-		}()
-	}
-feed:
-	for i := range files {
-		select {
-		case next <- i:
-		case <-ctx.Done():
-			break feed
-		}
-	}
-	close(next)
-	wg.Wait()
-	var ctxErr error
-	for i := range res {
-		if err := res[i].err; err != nil {
-			if errors.Is(err, context.Canceled) {
-				ctxErr = err
-				continue
-			}
-			return nil, err
-		}
-	}
-	if ctxErr != nil {
-		return nil, ctxErr
-	}
-	if err := ctx.Err(); err != nil {
+	err := parallel.For(ctx, len(files), workers, func() *worker {
+		return &worker{s: validate.NewScreener(cert, so), st: ingest.NewStreamer(iopts, nil)}
+	}, func(ctx context.Context, i int, w *worker) error {
+		res[i] = screenSafe(func() fileResult { return screenOne(ctx, w.s, w.st, &w.dst, cert, files[i]) }, files[i])
+		return res[i].err
+	})
+	if err != nil {
 		return nil, err
 	}
 	return res, nil
 }
 
 // screenOne reads one file and screens each of its runs.
-func screenOne(ctx context.Context, s *validate.Screener, cert *fit.Certificate, file string, iopts *ingest.Options) fileResult {
-	ds, err := ingest.ReadFile(ctx, file, iopts)
+func screenOne(ctx context.Context, s *validate.Screener, st *ingest.Streamer, dst *[]validate.RunScreen,
+	cert *fit.Certificate, file string) fileResult {
+	sf, err := st.Open(ctx, file)
 	if err != nil {
 		return fileResult{err: err}
 	}
+	defer sf.Close()
 	var r fileResult
-	for j, col := range ds.States {
+	for j, col := range sf.States {
 		if j < len(cert.Units) && col.Unit != "" && cert.Units[j] != "" && col.Unit != cert.Units[j] {
 			r.unitDiffs = append(r.unitDiffs, fmt.Sprintf("%s: column %q has unit %q, the certificate %q",
 				file, col.Name, col.Unit, cert.Units[j]))
 		}
 	}
-	r.runs = make([]validate.RunScreen, len(ds.Runs))
-	for k := range ds.Runs {
-		s.Screen(&r.runs[k], file, &ds.Runs[k])
-		// Screen reuses dst.Flags' storage; keep each run's own copy.
-		r.runs[k].Flags = append([]validate.Flag(nil), r.runs[k].Flags...)
+	*dst, err = s.ScreenFile(ctx, *dst, sf)
+	if err != nil {
+		return fileResult{err: err}
+	}
+	r.runs = make([]validate.RunScreen, len(*dst))
+	for k, rs := range *dst {
+		// ScreenFile reuses each result's Flags storage; keep a copy.
+		rs.Flags = append([]validate.Flag(nil), rs.Flags...)
+		r.runs[k] = rs
 	}
 	return r
 }
