@@ -3,7 +3,6 @@ package fit
 import (
 	"math"
 	"slices"
-	"sort"
 )
 
 // Derivative methods for [FieldOptions.Derivative].
@@ -281,12 +280,7 @@ func noiseStd(runs [][]float64, limit int) float64 {
 	if len(d) == 0 {
 		return 0
 	}
-	sort.Float64s(d)
-	med := d[len(d)/2]
-	if len(d)%2 == 0 {
-		med = (d[len(d)/2-1] + d[len(d)/2]) / 2
-	}
-	return 1.4826 * med / math.Sqrt(70)
+	return 1.4826 * medianSelect(d) / math.Sqrt(70)
 }
 
 // windowCandidates are the Savitzky–Golay half-widths tried (window 2m+1).

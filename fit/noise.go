@@ -2,7 +2,6 @@ package fit
 
 import (
 	"math"
-	"slices"
 
 	"basin.example/ingest"
 )
@@ -62,12 +61,7 @@ func (e *NoiseEstimator) state(x []float64) float64 {
 	for i := 0; i+4 < len(x) && len(d) < cap(d); i += stride {
 		d = append(d, math.Abs(x[i]-4*x[i+1]+6*x[i+2]-4*x[i+3]+x[i+4]))
 	}
-	slices.Sort(d)
-	med := d[len(d)/2]
-	if len(d)%2 == 0 {
-		med = (d[len(d)/2-1] + d[len(d)/2]) / 2
-	}
-	return 1.4826 * med / math.Sqrt(70)
+	return 1.4826 * medianSelect(d) / math.Sqrt(70)
 }
 
 // noiseUpper is the quantile of the per-run noise estimates that
