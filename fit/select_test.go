@@ -8,7 +8,7 @@ import (
 )
 
 // TestSelectSorted checks selectSorted against the standard library's
-// slices.Sort (an independent general-purpose sort): every selected index
+// slices.Sort ([slices], an independent general-purpose sort): every selected index
 // holds the sorted value, NaN first as the sort puts it, on random,
 // constant, sorted, reversed, heavily repeated and NaN- and Inf-holding
 // samples of many sizes; and the entries left before (after) a selected
