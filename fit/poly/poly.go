@@ -26,8 +26,13 @@ type Library struct {
 	parent  []int32 // parent[k] index in the recipe; -1 for the constant
 	factor  []int32 // variable multiplied into the parent
 	pick    []int32 // library term k is recipe entry pick[k]
+	steps   []step  // parent and factor together, for the kernels
+	off     int     // pick[k] == off+k for every k, or -1
 	scratch int
 }
+
+// A step makes recipe entry k from entry parent times variable factor.
+type step struct{ parent, factor int32 }
 
 // NewLibrary returns all monomials of vars variables with total degree
 // lo..hi in graded order. It panics if vars < 1, lo < 0 or hi < lo.
@@ -123,7 +128,64 @@ func FromExponents(vars int, exps [][]int) *Library {
 		lib.pick = append(lib.pick, int32(add(e)))
 	}
 	lib.full = len(lib.parent)
+	lib.order()
 	return lib
+}
+
+// order renumbers the recipe so that the library's own terms come last,
+// in their order, when that keeps every parent before its children (all
+// monomials of degrees lo..hi in graded order qualify): the kernels then
+// copy the results out in one piece. Each entry keeps its parent and
+// factor, so every value is computed by the same operations.
+func (lib *Library) order() {
+	lib.off = -1
+	full := lib.full
+	picked := make([]bool, full)
+	for _, p := range lib.pick {
+		if picked[p] {
+			lib.finish()
+			return // a repeated term
+		}
+		picked[p] = true
+	}
+	perm := make([]int32, 0, full) // new position -> old index
+	for k := range full {
+		if !picked[k] {
+			perm = append(perm, int32(k))
+		}
+	}
+	perm = append(perm, lib.pick...)
+	pos := make([]int32, full) // old index -> new position
+	for i, k := range perm {
+		pos[k] = int32(i)
+	}
+	for i, k := range perm {
+		if p := lib.parent[k]; p >= 0 && pos[p] >= int32(i) {
+			lib.finish()
+			return
+		}
+	}
+	parent, factor := make([]int32, full), make([]int32, full)
+	for i, k := range perm {
+		parent[i], factor[i] = lib.parent[k], lib.factor[k]
+		if parent[i] >= 0 {
+			parent[i] = pos[parent[i]]
+		}
+	}
+	lib.parent, lib.factor = parent, factor
+	lib.off = full - len(lib.pick)
+	for k := range lib.pick {
+		lib.pick[k] = int32(lib.off + k)
+	}
+	lib.finish()
+}
+
+// finish fills steps from parent and factor.
+func (lib *Library) finish() {
+	lib.steps = make([]step, lib.full)
+	for k := range lib.steps {
+		lib.steps[k] = step{lib.parent[k], lib.factor[k]}
+	}
 }
 
 // Vars returns the number of variables.
@@ -192,12 +254,16 @@ func (lib *Library) EvalWorkTo(dst, work, x []float64) []float64 {
 	if len(dst) != len(lib.terms) || len(x) != lib.vars || len(work) != lib.full {
 		panic("poly: length mismatch")
 	}
-	for k, p := range lib.parent {
-		if p < 0 {
+	for k, st := range lib.steps {
+		if st.parent < 0 {
 			work[k] = 1
 		} else {
-			work[k] = work[p] * x[lib.factor[k]]
+			work[k] = work[st.parent] * x[st.factor]
 		}
+	}
+	if lib.off >= 0 {
+		copy(dst, work[lib.off:])
+		return dst
 	}
 	for k, p := range lib.pick {
 		dst[k] = work[p]
@@ -220,23 +286,32 @@ func (lib *Library) GradWorkTo(grad, val, work, x []float64) []float64 {
 	}
 	w := work[:lib.full]
 	g := work[lib.full:]
-	for k, p := range lib.parent {
-		gk := g[k*n : (k+1)*n]
-		if p < 0 {
-			w[k] = 1
-			for j := range gk {
-				gk[j] = 0
+	if n == 2 {
+		lib.grad2(w, g, x)
+	} else {
+		for k, st := range lib.steps {
+			gk := g[k*n : (k+1)*n]
+			if st.parent < 0 {
+				w[k] = 1
+				clear(gk)
+				continue
 			}
-			continue
+			p, f := int(st.parent), int(st.factor)
+			xf := x[f]
+			w[k] = w[p] * xf
+			gp := g[p*n : (p+1)*n]
+			for j := range gk {
+				gk[j] = gp[j] * xf
+			}
+			gk[f] += w[p]
 		}
-		f := int(lib.factor[k])
-		xf := x[f]
-		w[k] = w[p] * xf
-		gp := g[int(p)*n : (int(p)+1)*n]
-		for j := range gk {
-			gk[j] = gp[j] * xf
+	}
+	if lib.off >= 0 {
+		copy(grad, g[lib.off*n:])
+		if val != nil {
+			copy(val, w[lib.off:])
 		}
-		gk[f] += w[p]
+		return grad
 	}
 	for k, p := range lib.pick {
 		copy(grad[k*n:(k+1)*n], g[int(p)*n:(int(p)+1)*n])
@@ -245,6 +320,34 @@ func (lib *Library) GradWorkTo(grad, val, work, x []float64) []float64 {
 		}
 	}
 	return grad
+}
+
+// grad2 is GradWorkTo's recipe for two variables, with the gradient of an
+// entry kept in registers: the same operations in the same order.
+func (lib *Library) grad2(w, g, x []float64) {
+	g = g[:2*len(w)]
+	x0, x1 := x[0], x[1]
+	for k, st := range lib.steps {
+		if st.parent < 0 {
+			w[k] = 1
+			g[2*k], g[2*k+1] = 0, 0
+			continue
+		}
+		p := int(st.parent)
+		wp := w[p]
+		xf := x0
+		if st.factor != 0 {
+			xf = x1
+		}
+		g0, g1 := g[2*p]*xf, g[2*p+1]*xf
+		if st.factor == 0 {
+			g0 += wp
+		} else {
+			g1 += wp
+		}
+		w[k] = wp * xf
+		g[2*k], g[2*k+1] = g0, g1
+	}
 }
 
 // EvalColumnsTo evaluates the library at many points stored column-wise

@@ -180,16 +180,24 @@ func BenchmarkEvalWorkTo(b *testing.B) {
 }
 
 func BenchmarkGradWorkTo(b *testing.B) {
-	lib := poly.NewLibrary(6, 0, 3)
-	grad := make([]float64, lib.Len()*6)
-	val := make([]float64, lib.Len())
-	work := make([]float64, lib.GradWorkLen())
-	x := []float64{0.1, 0.2, 0.3, 0.4, 0.5, 0.6}
-	b.ReportAllocs()
-	for b.Loop() {
-		lib.GradWorkTo(grad, val, work, x)
+	// n2_d2-2 is the demo's quadratic V (degrees 2..2 in two states).
+	for _, tc := range []struct{ n, lo, hi int }{{6, 0, 3}, {2, 2, 2}, {2, 2, 6}, {3, 2, 4}} {
+		b.Run(fmt.Sprintf("n%d_d%d-%d", tc.n, tc.lo, tc.hi), func(b *testing.B) {
+			lib := poly.NewLibrary(tc.n, tc.lo, tc.hi)
+			grad := make([]float64, lib.Len()*tc.n)
+			val := make([]float64, lib.Len())
+			work := make([]float64, lib.GradWorkLen())
+			x := make([]float64, tc.n)
+			for j := range x {
+				x[j] = 0.1 * float64(j+1)
+			}
+			b.ReportAllocs()
+			for b.Loop() {
+				lib.GradWorkTo(grad, val, work, x)
+			}
+			b.ReportMetric(float64(b.Elapsed().Nanoseconds())/float64(b.N)/float64(lib.Len()), "ns/term")
+		})
 	}
-	b.ReportMetric(float64(b.Elapsed().Nanoseconds())/float64(b.N)/float64(lib.Len()), "ns/term")
 }
 
 // TestEvalAllocs: the hot-loop kernels do not allocate.
