@@ -1,10 +1,11 @@
 package fit
 
 import (
+	"context"
 	"math"
 	"math/rand/v2"
-	"runtime"
-	"sync"
+
+	"basin.example/internal/parallel"
 )
 
 // Choosing the derivative method and the threshold by held-out error.
@@ -125,8 +126,10 @@ func (pr *problem) fitEach(xi [][]float64, sv *solver, gh, bh, col []float64, s 
 // selectModel cross-validates every (method, threshold, ridge) candidate
 // over the groups (folds of them, dealt by a permutation from rng) on the
 // yardstick sc, whose groups are index-aligned with every method's, and
-// returns the chosen method and each equation's candidate.
-func selectModel(ms []*method, sc *problem, taus, lams []float64, folds int, rng *rand.Rand) selection {
+// returns the chosen method and each equation's candidate. The fits run
+// in parallel, one (method, fold) pair an iteration; the error is ctx's
+// or a worker's recovered panic (*parallel.PanicError).
+func selectModel(ctx context.Context, ms []*method, sc *problem, taus, lams []float64, folds int, rng *rand.Rand) (selection, error) {
 	p, n := sc.p, sc.n
 	R := len(sc.groups)
 	folds = min(folds, R)
@@ -166,50 +169,46 @@ func selectModel(ms []*method, sc *problem, taus, lams []float64, folds int, rng
 		}
 		terms[mi] = make([]int, C*n)
 	}
-	type job struct{ m, f int } // f == folds: the fits on all data
-	jobs := make(chan job)
-	var wg sync.WaitGroup
-	for w := 0; w < runtime.GOMAXPROCS(0); w++ {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			sv := newSolver(p)
-			gh, bh, col := make([]float64, p*p), make([]float64, p*n), make([]float64, p)
-			beta := make([]float64, p)
-			xi := make([]float64, p)
-			for jb := range jobs {
-				pr := ms[jb.m].pr
-				var train *groupSums
-				if jb.f < folds {
-					train = sub(ms[jb.m].groups, jb.f, false)
-				} else {
-					train = pr.total
-				}
-				pr.normalised(gh, bh, train)
-				for c, cd := range cands {
-					for i := 0; i < n; i++ {
-						for k := 0; k < p; k++ {
-							col[k] = bh[k*n+i]
-						}
-						t := sv.thresholdRefit(xi, gh, col, cd.tau, cd.lam)
-						if jb.f == folds {
-							terms[jb.m][c*n+i] = t
-							continue
-						}
-						pr.unnormalise(beta, xi, i)
-						errs[jb.m][c][jb.f*n+i] = sc.scoreErr(beta, i, tests[jb.f])
-					}
-				}
-			}
-		}()
+	// Iteration j fits method j/(folds+1) on fold f = j%(folds+1)'s
+	// training groups, f == folds meaning all data; each writes its own
+	// slots of errs and terms.
+	type work struct {
+		sv                    *solver
+		gh, bh, col, beta, xi []float64
 	}
-	for mi := range ms {
-		for f := 0; f <= folds; f++ {
-			jobs <- job{mi, f}
+	newWork := func() *work {
+		return &work{sv: newSolver(p), gh: make([]float64, p*p), bh: make([]float64, p*n), col: make([]float64, p),
+			beta: make([]float64, p), xi: make([]float64, p)}
+	}
+	err := parallel.For(ctx, len(ms)*(folds+1), 0, newWork, func(_ context.Context, j int, w *work) error {
+		mi, f := j/(folds+1), j%(folds+1)
+		pr := ms[mi].pr
+		var train *groupSums
+		if f < folds {
+			train = sub(ms[mi].groups, f, false)
+		} else {
+			train = pr.total
 		}
+		pr.normalised(w.gh, w.bh, train)
+		for c, cd := range cands {
+			for i := 0; i < n; i++ {
+				for k := 0; k < p; k++ {
+					w.col[k] = w.bh[k*n+i]
+				}
+				t := w.sv.thresholdRefit(w.xi, w.gh, w.col, cd.tau, cd.lam)
+				if f == folds {
+					terms[mi][c*n+i] = t
+					continue
+				}
+				pr.unnormalise(w.beta, w.xi, i)
+				errs[mi][c][f*n+i] = sc.scoreErr(w.beta, i, tests[f])
+			}
+		}
+		return nil
+	})
+	if err != nil {
+		return selection{}, err
 	}
-	close(jobs)
-	wg.Wait()
 
 	mean := func(mi, c, i int) float64 {
 		s := 0.0
@@ -265,5 +264,5 @@ func selectModel(ms []*method, sc *problem, taus, lams []float64, folds int, rng
 		sel.eq[i] = choice{tau: cands[chosen].tau, lam: cands[chosen].lam, err: mean(mi, chosen, i),
 			dense: mean(mi, ref, i), terms: terms[mi][chosen*n+i]}
 	}
-	return sel
+	return sel, nil
 }

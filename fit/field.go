@@ -6,14 +6,13 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
-	"runtime"
 	"slices"
 	"sort"
-	"sync"
 
 	"basin.example/fit/poly"
 	"basin.example/ingest"
 	"basin.example/internal/order"
+	"basin.example/internal/parallel"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -427,7 +426,10 @@ func Field(ctx context.Context, ds *ingest.Dataset, opts *FieldOptions) (*Model,
 	}
 
 	rng := rand.New(rand.NewPCG(o.Seed, 0))
-	sel := selectModel(ms, score.pr, o.Thresholds, o.Ridges, o.Folds, rng)
+	sel, err := selectModel(ctx, ms, score.pr, o.Thresholds, o.Ridges, o.Folds, rng)
+	if err != nil {
+		return nil, err
+	}
 	md := ms[sel.method]
 	pr := md.pr
 	m.Derivative, m.Window, m.Condition = md.name, md.window, md.cond
@@ -669,97 +671,86 @@ func makeGroups(runs []*ingest.Run, folds int) (func(r, i int) int, int, string)
 }
 
 // accumulate differentiates every run and adds its rows to the groups, in
-// parallel over runs (one goroutine per core; each run's rows go to groups
-// only that run feeds, so no locking).
+// parallel over runs (internal/parallel, one worker per core with its own
+// buffers; each run's rows go to groups only that run feeds, so no
+// locking, and the sums do not depend on scheduling). The error is ctx's
+// or a worker's recovered panic (*parallel.PanicError).
 func accumulate(ctx context.Context, groups []*groupSums, groupOf func(r, i int) int, runs []*ingest.Run,
 	lib *poly.Library, m *Model, sc *varScale, half []int, steps int, method string) error {
 	n, p := len(m.States), lib.Len()
-	jobs := make(chan int)
-	var wg sync.WaitGroup
-	var mu sync.Mutex
-	var firstErr error
-	for w := 0; w < runtime.GOMAXPROCS(0); w++ {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			rb := newRowBuffer(p, n)
-			dw := newDerivWork()
-			work := make([]float64, lib.WorkLen())
-			z := make([]float64, len(sc.centre))
-			theta := make([]float64, p)
-			var xs, dx [][]float64
-			for r := range jobs {
-				if ctx.Err() != nil {
-					continue
-				}
-				run := runs[r]
-				L := run.Len()
-				if len(xs) == 0 || cap(xs[0]) < L {
-					xs, dx = make([][]float64, n), make([][]float64, n)
-					for j := range xs {
-						xs[j], dx[j] = make([]float64, L), make([]float64, L)
-					}
-				}
-				for j := range xs {
-					xs[j], dx[j] = xs[j][:L], dx[j][:L]
-				}
-				lo, hi := 0, L
-				switch method {
-				case DerivFornberg:
-					for j := 0; j < n; j++ {
-						copy(xs[j], run.X[j])
-						dw.fornbergRun(dx[j], run.T, run.X[j])
-					}
-				case DerivSavitzkyGolay:
-					dw.sgRuns(xs, dx, run.T, run.X, half)
-					// Only samples with a full centred window: the slid
-					// windows at a run's ends extrapolate, and a run that
-					// starts with a kick puts its largest errors there (on
-					// the demo they added two spurious terms).
-					edge := 0
-					for _, h := range half {
-						edge = max(edge, h)
-					}
-					lo, hi = min(edge, (L-1)/2), max(L-edge, (L+1)/2)
-				case DerivIntegral:
-					// Raw states: smoothing them first (the widest window
-					// noise explains) made Duffing and Van der Pol at 0.5-2%
-					// noise worse (measured).
-					for j := 0; j < n; j++ {
-						copy(xs[j], run.X[j])
-					}
-					integralRows(rb, groups, groupOf, r, run, xs, lib, m, sc, steps, work, z, theta)
-					continue
-				}
-				for i := lo; i < hi; i++ {
-					phi, y := rb.row(groups[groupOf(r, i)])
-					for j := 0; j < n; j++ {
-						z[j] = (xs[j][i] - m.Centre[j]) / m.Spread[j]
-						y[j] = dx[j][i] / m.Spread[j]
-					}
-					for k, u := range run.U {
-						z[n+k] = (u[i] - sc.centre[n+k]) / sc.spread[n+k]
-					}
-					lib.EvalWorkTo(phi, work, z)
-					if !finite(y...) || !finite(phi...) {
-						rb.unrow()
-					}
-				}
+	type work struct {
+		rb      *rowBuffer
+		dw      *derivWork
+		work, z []float64
+		theta   []float64
+		xs, dx  [][]float64
+	}
+	newWork := func() *work {
+		return &work{rb: newRowBuffer(p, n), dw: newDerivWork(), work: make([]float64, lib.WorkLen()),
+			z: make([]float64, len(sc.centre)), theta: make([]float64, p)}
+	}
+	return parallel.For(ctx, len(runs), 0, newWork, func(_ context.Context, r int, w *work) error {
+		// The rows of run r go only to run r's groups: flushing at the
+		// end of the run adds exactly what flushing when the next run's
+		// first row changes the group would.
+		defer w.rb.flush()
+		rb, dw, work, z, theta := w.rb, w.dw, w.work, w.z, w.theta
+		run := runs[r]
+		L := run.Len()
+		if len(w.xs) == 0 || cap(w.xs[0]) < L {
+			w.xs, w.dx = make([][]float64, n), make([][]float64, n)
+			for j := range w.xs {
+				w.xs[j], w.dx[j] = make([]float64, L), make([]float64, L)
 			}
-			rb.flush()
-		}()
-	}
-	for r := range runs {
-		jobs <- r
-	}
-	close(jobs)
-	wg.Wait()
-	mu.Lock()
-	defer mu.Unlock()
-	if firstErr != nil {
-		return firstErr
-	}
-	return ctx.Err()
+		}
+		xs, dx := w.xs, w.dx
+		for j := range xs {
+			xs[j], dx[j] = xs[j][:L], dx[j][:L]
+		}
+		lo, hi := 0, L
+		switch method {
+		case DerivFornberg:
+			for j := 0; j < n; j++ {
+				copy(xs[j], run.X[j])
+				dw.fornbergRun(dx[j], run.T, run.X[j])
+			}
+		case DerivSavitzkyGolay:
+			dw.sgRuns(xs, dx, run.T, run.X, half)
+			// Only samples with a full centred window: the slid
+			// windows at a run's ends extrapolate, and a run that
+			// starts with a kick puts its largest errors there (on
+			// the demo they added two spurious terms).
+			edge := 0
+			for _, h := range half {
+				edge = max(edge, h)
+			}
+			lo, hi = min(edge, (L-1)/2), max(L-edge, (L+1)/2)
+		case DerivIntegral:
+			// Raw states: smoothing them first (the widest window
+			// noise explains) made Duffing and Van der Pol at 0.5-2%
+			// noise worse (measured).
+			for j := 0; j < n; j++ {
+				copy(xs[j], run.X[j])
+			}
+			integralRows(rb, groups, groupOf, r, run, xs, lib, m, sc, steps, work, z, theta)
+			return nil
+		}
+		for i := lo; i < hi; i++ {
+			phi, y := rb.row(groups[groupOf(r, i)])
+			for j := 0; j < n; j++ {
+				z[j] = (xs[j][i] - m.Centre[j]) / m.Spread[j]
+				y[j] = dx[j][i] / m.Spread[j]
+			}
+			for k, u := range run.U {
+				z[n+k] = (u[i] - sc.centre[n+k]) / sc.spread[n+k]
+			}
+			lib.EvalWorkTo(phi, work, z)
+			if !finite(y...) || !finite(phi...) {
+				rb.unrow()
+			}
+		}
+		return nil
+	})
 }
 
 // integralRows adds the integral-form rows of one run: for consecutive

@@ -11,6 +11,7 @@ import (
 	"basin.example/fit"
 	"basin.example/fit/export"
 	"basin.example/ingest"
+	"basin.example/internal/parallel"
 	"basin.example/validate"
 )
 
@@ -75,7 +76,10 @@ func (e *flagged) Unwrap() error { return e.err }
 func classify(err error, prefix string) error {
 	var ue *usageError
 	var ie *inputError
-	if err == nil || errors.As(err, &ue) || errors.As(err, &ie) || errors.Is(err, errFlagged) {
+	var pp *parallel.PanicError
+	// A recovered panic is a bug whatever its value wraps (a panic with a
+	// sentinel must not pass for bad input): it stays as it is, exit 3.
+	if err == nil || errors.As(err, &ue) || errors.As(err, &ie) || errors.Is(err, errFlagged) || errors.As(err, &pp) {
 		return err
 	}
 	bad := false
@@ -109,6 +113,14 @@ func exitCode(stderr io.Writer, name string, err error) int {
 	msg := printable(strings.ReplaceAll(optionFlags.Replace(err.Error()), "\n", " "))
 	var ue *usageError
 	var ie *inputError
+	var pp *parallel.PanicError
+	if errors.As(err, &pp) { // a worker's panic: a bug, exit 3, never 2
+		fmt.Fprintf(stderr, "basin %s: %s (a bug in basin, not in the input)\n", name, msg)
+		if trace() {
+			stderr.Write(pp.Stack)
+		}
+		return 3
+	}
 	switch {
 	case errors.As(err, &ue), errors.As(err, &ie):
 		fmt.Fprintf(stderr, "basin %s: %s\n", name, msg)

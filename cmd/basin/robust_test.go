@@ -1,11 +1,17 @@
 package main
 
 import (
+	"context"
 	"errors"
+	"fmt"
 	"os"
 	"path/filepath"
 	"strings"
 	"testing"
+
+	"basin.example/fit"
+	"basin.example/ingest"
+	"basin.example/internal/parallel"
 )
 
 // run1 runs basin and returns the exit code and stderr, which must be
@@ -178,6 +184,28 @@ func TestRateRefused(t *testing.T) {
 	}
 	if code, msg := run1(t, "inspect", "--rate", "50", f); code != 0 {
 		t.Errorf("--rate 50: exit %d %q", code, msg)
+	}
+}
+
+// TestWorkerPanicExits3: a panic recovered by internal/parallel in a
+// library's worker exits 3 with one line, even when the panic value is a
+// bad-input sentinel (which would otherwise classify as exit 2).
+func TestWorkerPanicExits3(t *testing.T) {
+	for _, v := range []any{"index out of range [3] with length 3", fit.ErrTooFewSamples, ingest.ErrFormat} {
+		perr := parallel.For(context.Background(), 4, 2, nil, func(_ context.Context, i int, _ struct{}) error {
+			if i == 2 {
+				panic(v)
+			}
+			return nil
+		})
+		err := classify(fmt.Errorf("fit: %w", perr), "logs/")
+		var b strings.Builder
+		if code := exitCode(&b, "run", err); code != 3 {
+			t.Errorf("panic(%v): exit %d, want 3 (%q)", v, code, b.String())
+		}
+		if msg := b.String(); strings.Count(msg, "\n") != 1 || !strings.Contains(msg, "a bug in basin") {
+			t.Errorf("panic(%v): stderr %q, want one line saying it is a bug", v, msg)
+		}
 	}
 }
 
