@@ -1,11 +1,14 @@
 package lp
 
 import (
+	"context"
 	"fmt"
 	"math"
 	"runtime"
 	"slices"
-	"sync"
+	"sync/atomic"
+
+	"basin.example/internal/parallel"
 )
 
 // looseTol is the solver tolerance of the rounds before the last.
@@ -16,10 +19,12 @@ type CutOptions struct {
 	// Solve controls each interior-point solve; nil means defaults.
 	Solve *Options
 	// Initial is the number of rows in the first restricted problem,
-	// spread evenly over the index range; 0 means 20·unknowns.
+	// spread evenly over the index range; 0 means 5·unknowns for the dual
+	// simplex and 20·unknowns for the interior point.
 	Initial int
 	// Batch is the largest number of violated rows added per round, the
-	// most violated first; 0 means 10·unknowns.
+	// most violated first; 0 means 2·unknowns for the dual simplex and
+	// 10·unknowns for the interior point.
 	Batch int
 	// Tol is the tolerance on a row's violation relative to its
 	// magnitude: row i counts as violated by x when
@@ -30,6 +35,36 @@ type CutOptions struct {
 	// Workers is the number of goroutines that evaluate the rows; 0 means
 	// runtime.GOMAXPROCS(0).
 	Workers int
+	// Method solves the restricted problems; the zero value, Auto, is
+	// the dual simplex with the interior point as its fallback.
+	Method Method
+}
+
+// Method is the solver of SolveCuts's restricted problems.
+type Method int
+
+// Methods.
+const (
+	// Auto is the dual simplex method, warm-started across rounds, with
+	// the interior-point method, from scratch, if it fails.
+	Auto Method = iota
+	// DualSimplex is the dual simplex method alone.
+	DualSimplex
+	// InteriorPoint is the interior-point method of Solve alone, each
+	// round from scratch (the rounds before the last to 1e-5).
+	InteriorPoint
+)
+
+func (m Method) String() string {
+	switch m {
+	case Auto:
+		return "auto"
+	case DualSimplex:
+		return "dual simplex"
+	case InteriorPoint:
+		return "interior point"
+	}
+	return "unknown"
 }
 
 func (o *CutOptions) get() CutOptions {
@@ -67,11 +102,17 @@ func (d DenseRows) RowTo(dst []float64, i int) float64 {
 
 // SolveCuts minimises c'x subject to every row of rows and
 // lower <= x <= upper (nil means no bound) by cutting planes: it solves the
-// problem on a subset of the rows with [Solve]'s method, evaluates all
-// rows at the answer in one parallel pass, adds the most violated ones
-// (at most CutOptions.Batch) and repeats until no row is violated beyond
-// CutOptions.Tol. An unbounded restricted problem is cut the same way,
-// with the rows that its ray violates.
+// problem on a subset of the rows, evaluates all rows at the answer in one
+// parallel pass, adds the most violated ones (at most CutOptions.Batch)
+// and repeats until no row is violated beyond CutOptions.Tol. An unbounded
+// restricted problem is cut the same way, with the rows that its ray
+// violates.
+//
+// The restricted problems are solved as CutOptions.Method says: by
+// default with the dual simplex method, each round starting from the
+// previous round's optimal basis, and with [Solve]'s interior-point
+// method, from scratch, if the dual simplex fails (Result.Method says
+// which one answered).
 //
 // The Result is that of the last restricted problem, extended to all rows:
 // Z has one entry per row (zero outside Active) and PrimalResidual is the
@@ -83,10 +124,132 @@ func (d DenseRows) RowTo(dst []float64, i int) float64 {
 func SolveCuts(c []float64, rows Rows, lower, upper []float64, opts *CutOptions) (*Result, error) {
 	o := opts.get()
 	n := len(c)
-	m := rows.Len()
 	if (lower != nil && len(lower) != n) || (upper != nil && len(upper) != n) {
 		panic(fmt.Sprintf("lp: %d unknowns but %d lower and %d upper bounds", n, len(lower), len(upper)))
 	}
+	ev := newEvaluator(rows, n, o.Workers)
+	if o.Method != InteriorPoint {
+		res, err, ok := solveCutsDual(c, rows, lower, upper, o, ev)
+		if ok || o.Method == DualSimplex {
+			return res, err
+		}
+	}
+	return solveCutsIPM(c, rows, lower, upper, o, ev)
+}
+
+// initialRows returns k0 row indices spread evenly over [0, m).
+func initialRows(m, k0 int) []int {
+	k0 = min(m, k0)
+	out := make([]int, k0)
+	for j := range out {
+		out[j] = int((float64(j) + 0.5) * float64(m) / float64(k0))
+	}
+	return out
+}
+
+// solveCutsDual is SolveCuts with the dual simplex method, warm-started
+// across rounds. It reports ok = false when the dual simplex failed
+// (a numerical failure or its pivot limit), so that the interior point
+// can take over.
+func solveCutsDual(c []float64, rows Rows, lower, upper []float64, o CutOptions, ev *evaluator) (res *Result, err error, ok bool) {
+	n := len(c)
+	m := rows.Len()
+	// With warm starts a round costs about one pass over the rows plus a
+	// few pivots per added row, so rounds are cheap and small batches
+	// keep the pool near the rows the optimum needs.
+	if o.Initial <= 0 {
+		o.Initial = dualInitial * max(1, n)
+	}
+	if o.Batch <= 0 {
+		o.Batch = dualBatch * max(1, n)
+	}
+	s, err := newDual(c, lower, upper, min(m, o.Initial+4*o.Batch))
+	if err != nil {
+		return nil, err, true
+	}
+	active := make([]bool, m)
+	buf := make([]float64, n)
+	add := func(i int) error {
+		active[i] = true
+		h := rows.RowTo(buf, i)
+		return s.addRow(buf, h, i)
+	}
+	for _, i := range initialRows(m, o.Initial) {
+		if err := add(i); err != nil {
+			return nil, err, true
+		}
+	}
+	s.start()
+	var st Status
+	round := 0
+	worst := 0.0
+	for {
+		round++
+		st = s.run(dualMaxPivots(n, s.rows()))
+		if st == NumericalFailure || st == IterationLimit {
+			res = &Result{Status: st, Method: DualSimplex, Rounds: round, Iterations: s.iters, Objective: math.NaN()}
+			return res, res.err(), false
+		}
+		if st == Infeasible {
+			break
+		}
+		ray := st == Unbounded
+		probe := s.x
+		if ray {
+			probe = s.ray
+		}
+		w, err := ev.pass(probe, ray)
+		if err != nil {
+			return nil, err, true
+		}
+		cand := ev.violated(o.Tol, active)
+		if !ray {
+			worst = w
+		}
+		if len(cand) == 0 {
+			break
+		}
+		if round >= o.MaxRounds {
+			st = IterationLimit // the restricted answer violates some rows
+			break
+		}
+		if len(cand) > o.Batch {
+			cand = ev.top(cand, o.Batch)
+		}
+		for _, i := range cand {
+			if err := add(i); err != nil {
+				return nil, err, true
+			}
+		}
+	}
+	res = &Result{Method: DualSimplex, Rounds: round, Iterations: s.iters}
+	s.fill(res, st, m, func(i int) ([]float64, float64) {
+		h := rows.RowTo(buf, i)
+		return buf, h
+	})
+	if st == Optimal || st == IterationLimit {
+		res.PrimalResidual = max(res.PrimalResidual, worst)
+	}
+	res.Active = make([]int, len(s.idx))
+	copy(res.Active, s.idx)
+	slices.Sort(res.Active)
+	return res, res.err(), true
+}
+
+// Cut defaults of the dual simplex loop, per unknown.
+const (
+	dualInitial = 5
+	dualBatch   = 2
+)
+
+// dualMaxPivots is the pivot limit of the dual simplex on a pool of rows.
+func dualMaxPivots(n, rows int) int { return 1000 + 50*(n+rows) }
+
+// solveCutsIPM is SolveCuts with the interior-point method, each round
+// from scratch.
+func solveCutsIPM(c []float64, rows Rows, lower, upper []float64, o CutOptions, ev *evaluator) (*Result, error) {
+	n := len(c)
+	m := rows.Len()
 	// Few rows are ever active (on the certificate LPs of the benchmarks
 	// about 15-40 per unknown at the optimum): a small start keeps the
 	// restricted problems small, and batches of 10 per unknown keep the
@@ -112,9 +275,8 @@ func SolveCuts(c []float64, rows Rows, lower, upper []float64, opts *CutOptions)
 		h := rows.RowTo(buf, i)
 		return s.addRow(buf, h, i)
 	}
-	k0 := min(m, o.Initial)
-	for j := 0; j < k0; j++ {
-		if err := add(int((float64(j) + 0.5) * float64(m) / float64(k0))); err != nil {
+	for _, i := range initialRows(m, o.Initial) {
+		if err := add(i); err != nil {
 			return nil, err
 		}
 	}
@@ -127,7 +289,6 @@ func SolveCuts(c []float64, rows Rows, lower, upper []float64, opts *CutOptions)
 	if final.tol() < looseTol {
 		cur = &Options{Tol: looseTol, MaxIter: final.maxIter()}
 	}
-	ev := newEvaluator(rows, n, o.Workers)
 	total := 0
 	var res *Result
 	for round := 1; ; round++ {
@@ -192,6 +353,7 @@ func SolveCuts(c []float64, rows Rows, lower, upper []float64, opts *CutOptions)
 	if status == Optimal || status == IterationLimit {
 		res.PrimalResidual = max(res.PrimalResidual, worst)
 	}
+	res.Method = InteriorPoint
 	res.Iterations = total
 	res.Active = make([]int, len(s.idx))
 	copy(res.Active, s.idx)
@@ -226,25 +388,22 @@ func newEvaluator(rows Rows, n, workers int) *evaluator {
 // pass stores in viol[i] the violation of row i at x relative to the
 // row's magnitude, (g'x - h) / (|h| + sum |g_j x_j|), or for a ray the
 // relative growth g'x / sum |g_j x_j|. It returns the largest absolute
-// violation max(0, g'x - h).
+// violation max(0, g'x - h). The rows are split into one contiguous
+// range per worker (internal/parallel: a panic in RowTo comes back as an
+// error); a bad row gives the error of the lowest such row's range.
 func (ev *evaluator) pass(x []float64, ray bool) (worst float64, err error) {
 	m := len(ev.viol)
 	W := len(ev.rows)
-	type out struct {
-		worst float64
-		bad   int // first row with non-finite data, or -1
-	}
-	outs := make([]out, W)
-	var wg sync.WaitGroup
-	for w := 0; w < W; w++ {
-		lo, hi := w*m/W, (w+1)*m/W
-		wg.Add(1)
-		go func(w, lo, hi int) {
-			defer wg.Done()
-			rows, g := ev.rows[w], ev.scratch[w]
+	outs := make([]float64, W)
+	var next atomic.Int32
+	err = parallel.For(context.Background(), W, W,
+		func() int { return int(next.Add(1) - 1) }, // each worker its own Rows clone and scratch
+		func(_ context.Context, w int, k int) error {
+			lo, hi := w*m/W, (w+1)*m/W
+			rows, g := ev.rows[k], ev.scratch[k]
 			dense, isDense := rows.(DenseRows)
 			n := len(g)
-			o := out{bad: -1}
+			var worst float64
 			for i := lo; i < hi; i++ {
 				var h float64
 				if isDense { // read the row in place
@@ -253,13 +412,11 @@ func (ev *evaluator) pass(x []float64, ray bool) (worst float64, err error) {
 					h = rows.RowTo(g, i)
 				}
 				if math.IsNaN(h) || math.IsInf(h, -1) {
-					o.bad = i
-					break
+					return badRow(i)
 				}
 				dot, mag := dotMag(g, x)
 				if !(mag <= math.MaxFloat64) && !finiteAll(g) { // NaN or ±Inf shows in mag
-					o.bad = i
-					break
+					return badRow(i)
 				}
 				var v float64
 				switch {
@@ -269,7 +426,7 @@ func (ev *evaluator) pass(x []float64, ray bool) (worst float64, err error) {
 					v = dot / mag
 				default:
 					r := dot - h
-					o.worst = max(o.worst, r)
+					worst = max(worst, r)
 					v = r / (math.Abs(h) + mag)
 				}
 				if math.IsNaN(v) { // 0/0: an all-zero row at h = 0, or a zero ray component
@@ -277,17 +434,20 @@ func (ev *evaluator) pass(x []float64, ray bool) (worst float64, err error) {
 				}
 				ev.viol[i] = v
 			}
-			outs[w] = o
-		}(w, lo, hi)
+			outs[w] = worst
+			return nil
+		})
+	if err != nil {
+		return 0, err
 	}
-	wg.Wait()
 	for _, o := range outs {
-		if o.bad >= 0 {
-			return 0, fmt.Errorf("%w: row %d: coefficient or right-hand side is not a finite number", ErrInvalid, o.bad)
-		}
-		worst = max(worst, o.worst)
+		worst = max(worst, o)
 	}
 	return worst, nil
+}
+
+func badRow(i int) error {
+	return fmt.Errorf("%w: row %d: coefficient or right-hand side is not a finite number", ErrInvalid, i)
 }
 
 // dotMag returns g'x and sum_j |g_j x_j|, four products at a time (four

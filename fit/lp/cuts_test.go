@@ -12,6 +12,7 @@ import (
 	"gonum.org/v1/gonum/floats/scalar"
 
 	"basin.example/fit/lp"
+	"basin.example/internal/parallel"
 )
 
 // TestSolveCutsMatchesSolve: on tall random LPs the cutting-plane loop must
@@ -150,5 +151,34 @@ func TestSolveCutsMaxRounds(t *testing.T) {
 	}
 	if r.PrimalResidual <= 0 {
 		t.Errorf("PrimalResidual = %g, want the violation of the rows left out", r.PrimalResidual)
+	}
+}
+
+// panicRows panics when row bad is read.
+type panicRows struct {
+	lp.DenseRows
+	bad int
+}
+
+func (r panicRows) RowTo(dst []float64, i int) float64 {
+	if i == r.bad {
+		panic("row source failed")
+	}
+	return r.DenseRows.RowTo(dst, i)
+}
+
+// TestSolveCutsPanickingRows: a panic in RowTo during the parallel pass
+// comes back as an error (a *parallel.PanicError), not a crash, for both
+// methods.
+func TestSolveCutsPanickingRows(t *testing.T) {
+	rng := rand.New(rand.NewPCG(13, 0))
+	p := randomFeasible(rng, 4, 20000)
+	for _, m := range []lp.Method{lp.DualSimplex, lp.InteriorPoint} {
+		_, err := lp.SolveCuts(p.C, panicRows{lp.DenseRows{G: p.G, H: p.H}, 7}, p.Lower, p.Upper,
+			&lp.CutOptions{Method: m, Initial: 1, Workers: 2})
+		var pe *parallel.PanicError
+		if !errors.As(err, &pe) {
+			t.Errorf("%v: got %v, want a recovered panic", m, err)
+		}
 	}
 }

@@ -1,12 +1,13 @@
 package lp
 
 import (
+	"context"
 	"fmt"
 	"math"
 	"runtime"
-	"sync"
 
 	"basin.example/fit/internal/gram"
+	"basin.example/internal/parallel"
 	"gonum.org/v1/gonum/blas"
 	"gonum.org/v1/gonum/blas/blas64"
 	"gonum.org/v1/gonum/floats"
@@ -51,6 +52,7 @@ func Solve(p *Problem, opts *Options) (*Result, error) {
 		}
 	}
 	res := s.run(opts)
+	res.Method = InteriorPoint
 	s.fill(res, m, func(i int) ([]float64, float64) { return p.G[i*n : (i+1)*n], p.H[i] })
 	return res, res.err()
 }
@@ -594,16 +596,11 @@ func (s *ipm) normal(dst, bw, d []float64) {
 	}
 	if w == 1 {
 		work(0)
-	} else {
-		var wg sync.WaitGroup
-		for k := 0; k < w; k++ {
-			wg.Add(1)
-			go func() {
-				defer wg.Done()
-				work(k)
-			}()
-		}
-		wg.Wait()
+	} else if err := parallel.For(context.Background(), w, w, nil, func(_ context.Context, k int, _ struct{}) error {
+		work(k)
+		return nil
+	}); err != nil {
+		panic(err) // a bug in the kernel: re-raised where the caller can recover it
 	}
 	for k := 0; k < w; k++ {
 		c := s.part[k*ws*ws : (k+1)*ws*ws]

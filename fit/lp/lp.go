@@ -5,7 +5,8 @@
 // by a dense primal–dual interior-point method (Mehrotra's
 // predictor–corrector), with an outer cutting-plane loop for problems with
 // many more rows than unknowns: solve on a subset of the rows, evaluate all
-// of them, add the most violated, repeat.
+// of them, add the most violated, repeat. The loop solves its restricted
+// problems by a dual simplex method, warm-started from round to round.
 //
 // # Method
 //
@@ -35,8 +36,21 @@
 // whenever it is feasible at all.
 //
 // [SolveCuts] is the cutting-plane loop over a [Rows] source that is read
-// on demand, one pass per round, in parallel. Rounds before the last are
-// solved to a loose tolerance (1e-5); the last one, and any certificate of
+// on demand, one pass per round, in parallel. By default its restricted
+// problems are solved by a dual simplex method in row form (the basis is
+// n constraints held at equality, an explicit B⁻¹ updated by a rank-one
+// change per pivot and recomputed by LU every 100 pivots, dual
+// steepest-edge pricing, Harris's ratio test, perturbed costs against
+// stalling, Bland's rule against cycling), each
+// round starting from the previous round's optimal basis: rows added to
+// the pool leave that basis dual feasible, so a round costs a few pivots
+// per added row. Infeasible pools give a Farkas certificate from the
+// pivot that finds them; unknowns without the bound the start needs get
+// an artificial one, and one that binds at the end gives an unbounded
+// ray. If the dual simplex fails (a near-singular basis, its pivot
+// limit), the interior-point method takes over from scratch
+// ([CutOptions.Method]); there the rounds before the last are solved to a
+// loose tolerance (1e-5), the last one, and any certificate of
 // infeasibility, at the requested one. Memory is about twice the active
 // rows times the unknowns, plus a few words per row (violations, the
 // active flags, the candidate list).
@@ -178,8 +192,9 @@ type Result struct {
 	Ray []float64
 
 	// Cutting-plane figures (SolveCuts only).
-	Rounds int   // solves of the restricted problem
-	Active []int // indices of the rows in the last restricted problem, ascending
+	Rounds int    // solves of the restricted problem
+	Method Method // the solver that answered: DualSimplex or InteriorPoint
+	Active []int  // indices of the rows in the last restricted problem, ascending
 }
 
 // Farkas is a certificate of primal infeasibility: Y, YLower, YUpper >= 0
