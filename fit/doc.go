@@ -15,11 +15,14 @@
 // [Certify] fits a Lyapunov function V by linear programming on sampled
 // positivity and decrease constraints (package lp) and finds the largest
 // level set {V <= c} on which they hold inside the model's trust region
-// (regression leverage no larger than at the fit samples; package
-// [lyapunov]): first by a sampled search along the recorded samples and
-// rays from the equilibrium, then by a branch-and-bound bound over the
-// level set's box, with the decrease made robust to the fitted field's
-// standard error.
+// (regression leverage no larger than at the fit samples): first by a
+// sampled search along the recorded samples and rays from the
+// equilibrium, then by a branch-and-bound bound over the level set's box,
+// with the decrease made robust to the fitted field's standard error.
+// That search is package [lyapunov] ([lyapunov.Certify]); Certify checks
+// the model against the data, hands the search the model and the runs in
+// the scaled coordinates z, and turns its result into the certificate,
+// in the states' units, with its reason.
 // The result is a [Certificate], the content of certificate.json; its
 // verdict stays [Inconclusive] until package validate has checked it on
 // held-out runs.

@@ -21,7 +21,6 @@ func TestTrustComparison(t *testing.T) {
 	if os.Getenv("BASIN_TABLES") == "" || raceOn {
 		t.Skip("the closing note's table; set BASIN_TABLES=1 to print it (about 10 s)")
 	}
-	defer func() { trustBalls, skipBound = false, false }()
 	pend := pendulumSystem(t)
 	lin := chainSystem(3)
 	cases := []struct {
@@ -63,8 +62,9 @@ func TestTrustComparison(t *testing.T) {
 			name         string
 			balls, bound bool
 		}{{"leverage, bounded", false, true}, {"leverage, sampled", false, false}, {"balls, sampled", true, false}} {
-			trustBalls, skipBound = arm.balls, !arm.bound
-			c, err := Certify(context.Background(), m, ds, &CertifyOptions{Degree: tc.deg})
+			o := (&CertifyOptions{Degree: tc.deg}).search()
+			o.BallsTrust, o.SampledOnly = arm.balls, !arm.bound
+			c, err := certify(context.Background(), m, ds, o)
 			if err != nil {
 				t.Fatal(err)
 			}

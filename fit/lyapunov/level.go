@@ -26,6 +26,11 @@ const (
 	LimitComponent Limit = "level set not closed"
 	// LimitBudget: the bound needed more boxes than allowed.
 	LimitBudget Limit = "bound budget"
+	// LimitViolated: a recorded pair or sample fails a check (V rises
+	// beyond the noise tolerance, or V or the model decrease fails there).
+	LimitViolated Limit = "violated sample"
+	// LimitGrowth: the growth rounds ran out while the region still grew.
+	LimitGrowth Limit = "growth cap"
 	// LimitNone: nothing stopped it within the search.
 	LimitNone Limit = "none"
 )

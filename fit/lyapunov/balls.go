@@ -1,19 +1,9 @@
-package fit
+package lyapunov
 
 import (
 	"math"
 	"sort"
 )
-
-// trustBalls, when set (tests only), replaces the leverage trust region
-// by the alternative it was compared with: a union of balls around the
-// recorded samples. The bound check keeps using leverage, so with it set
-// only the sampled search sees the balls.
-var trustBalls bool
-
-// skipBound, when set (tests only), keeps the sampled search's level
-// without the bound check, to compare trust regions on equal terms.
-var skipBound bool
 
 // ballsSubsample caps the samples that centre a ball.
 const ballsSubsample = 3000

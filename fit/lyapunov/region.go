@@ -1,28 +1,10 @@
-package fit
+package lyapunov
 
 import (
 	"io"
 	"math"
 
-	"basin.example/fit/lyapunov"
 	"gonum.org/v1/gonum/mat"
-)
-
-// Limits of a region, as reported in Region.Limit.
-const (
-	// LimitTrust: the level set reaches where the model is not trusted
-	// (regression leverage above the fit samples' largest, or the edge of
-	// the samples' box).
-	LimitTrust = "trust region edge"
-	// LimitEnvelope is the former name of the data's edge (older files).
-	LimitEnvelope = "envelope edge"
-	LimitOther    = "other equilibrium"
-	LimitViolated = "violated sample"
-	// LimitDecrease: the model's robust decrease fails at a point that is
-	// not a recorded sample.
-	LimitDecrease = "model decrease fails"
-	LimitGrowth   = "growth cap"
-	LimitNone     = "none"
 )
 
 const (
@@ -67,8 +49,8 @@ type ray struct {
 // checker finds the largest certified level of a given V.
 type checker struct {
 	fam    *vFamily
-	zf     *zField
-	trust  *lyapunov.Trust
+	field  Field // the model's field in z
+	trust  *Trust
 	inside func(z []float64) bool // the trust region's membership
 	runs   []zRun
 	others [][]float64 // other equilibria, in z
@@ -78,7 +60,7 @@ type checker struct {
 	az     []float64   // Jacobian at the equilibrium, in z, row-major
 	kappa  float64     // noise multiplier of the pair tolerance
 	rays   []ray
-	fz     []*lyapunov.Poly // the field in z
+	fz     []*Poly // the field in z
 	// pool holds Monte-Carlo points of the samples' box that are trusted
 	// (n each); poolShare is their share of the box's points.
 	pool      []float64
@@ -88,7 +70,7 @@ type checker struct {
 	// tmax is the longest run's duration.
 	nonRise bool
 	tmax    float64
-	trace   io.Writer // CertifyOptions.Trace
+	trace   io.Writer // Options.Trace
 }
 
 // nonRiseFloor is the relative allowance of V-dot on the non-rise path,
@@ -134,7 +116,7 @@ type levelResult struct {
 	ok        bool
 	reason    string
 	level     float64
-	limit     string
+	limit     Limit
 	limitZ    []float64
 	limitRun  string
 	lo, hi    []float64 // the piece's box, in z
@@ -145,13 +127,13 @@ type levelResult struct {
 	vball     float64 // largest V on the exempt ball
 	exempt    float64 // radius of the exempt ball (noise and model uncertainty)
 	margin    float64 // min of -Vdot/|z|² over checked samples in the region
-	bound     *lyapunov.Verified
+	bound     *Verified
 }
 
 // badMark is a failing check: the level at which it joins the piece.
 type badMark struct {
 	key  float64
-	kind string
+	kind Limit
 	z    []float64
 	run  string
 }
@@ -251,28 +233,44 @@ func rayMax(ve *vEval, z, buf []float64) float64 {
 // pair, no other equilibrium, and the trust region (each ray ends at the
 // first point where the model is not trusted). It is a sampled search,
 // fast enough for every growth round; Certify bounds the final V's level
-// with [lyapunov.Verify].
+// with [Verify].
 func (ck *checker) level(c []float64) levelResult {
-	n := ck.fam.n
 	ve := newVEval(ck.fam, c)
 	hq := ck.quadMax(c)
+	lam, reason := ck.linearCheck(c)
+	if reason != "" {
+		return levelResult{reason: reason}
+	}
+	rex := ck.exemptRadius(c, lam)
+	vals := ck.values(ve)
+	first := badMark{key: math.Inf(1), kind: LimitNone}
+	ck.markSamples(&first, ve, vals, rex, hq)
+	ck.markRays(&first, ve, rex, hq)
+	ck.markOthers(&first, ve)
+	if ck.fam.deg == 2 {
+		ck.markFaces(&first, c)
+	}
+	return ck.levelAt(first, ve, c, vals, rex, hq)
+}
+
+// linearCheck returns lambda_max(A'P + PA) for V's quadratic part, and a
+// reason when V does not decrease along the linearised field (on the
+// non-rise path: when it rises).
+func (ck *checker) linearCheck(c []float64) (lam float64, reason string) {
 	lam, ok := ck.linearDecay(c)
 	if ck.nonRise {
 		if !ck.nonRiseLinear(c, lam) {
-			return levelResult{reason: "V's change along the linearised field is not negative semidefinite at the equilibrium"}
+			return lam, "V's change along the linearised field is not negative semidefinite at the equilibrium"
 		}
 	} else if !ok {
-		return levelResult{reason: "V's decrease along the linearised field is not negative definite at the equilibrium"}
+		return lam, "V's decrease along the linearised field is not negative definite at the equilibrium"
 	}
-	rex := ck.exemptRadius(c, lam)
-	rex2 := rex * rex
-	best := badMark{key: math.Inf(1), kind: LimitNone}
-	mark := func(key float64, kind string, z []float64, run string) {
-		if key < best.key {
-			best = badMark{key: key, kind: kind, z: append([]float64(nil), z...), run: run}
-		}
-	}
-	buf := make([]float64, n)
+	return lam, ""
+}
+
+// values returns V at every recorded sample, per run.
+func (ck *checker) values(ve *vEval) [][]float64 {
+	n := ck.fam.n
 	vals := make([][]float64, len(ck.runs))
 	for ri := range ck.runs {
 		r := &ck.runs[ri]
@@ -282,29 +280,52 @@ func (ck *checker) level(c []float64) levelResult {
 		}
 		vals[ri] = vs
 	}
-	// Recorded samples.
+	return vals
+}
+
+// lower lowers b to the failing check at level key, if below it.
+func (b *badMark) lower(key float64, kind Limit, z []float64, run string) {
+	if key < b.key {
+		*b = badMark{key: key, kind: kind, z: append([]float64(nil), z...), run: run}
+	}
+}
+
+// markSamples lowers first to the recorded samples outside the exempt
+// ball (radius rex) that fail positivity, the robust model decrease or
+// the pair's decrease within the noise tolerance, each at the level at
+// which it joins the piece (along its ray).
+func (ck *checker) markSamples(first *badMark, ve *vEval, vals [][]float64, rex, hq float64) {
+	n := ck.fam.n
+	rex2 := rex * rex
+	buf := make([]float64, n)
 	for ri := range ck.runs {
 		r := &ck.runs[ri]
 		vs := vals[ri]
 		for i := range vs {
 			z := r.z[i*n : (i+1)*n]
 			z2 := norm2(z)
-			if z2 <= rex2 || vs[i] >= best.key {
+			if z2 <= rex2 || vs[i] >= first.key {
 				continue
 			}
-			v, vd := ve.vdot(ck.zf, z)
+			v, vd := ve.vdot(ck.field, z)
 			bad := !(v >= posEps*z2) ||
 				!(vd+ck.robust(ve.gbuf, r.h[i]) < 0 || (ck.nonRise && vd <= ck.vdTol(ve.gbuf, ve.fbuf, hq))) ||
 				(i+1 < len(vs) && vs[i+1]-v > ck.pairTolAt(ve.gbuf, hq, v))
 			if bad {
-				if k := rayMax(ve, z, buf); k < best.key {
-					mark(k, LimitViolated, z, r.name)
+				if k := rayMax(ve, z, buf); k < first.key {
+					first.lower(k, LimitViolated, z, r.name)
 				}
 			}
 		}
 	}
-	// Rays: the model's conditions between the samples, and the trust
-	// region's edge.
+}
+
+// markRays lowers first along the rays: the model's conditions between
+// the samples (positivity and the robust decrease outside the exempt
+// ball), and the trust region's edge where a ray leaves it.
+func (ck *checker) markRays(first *badMark, ve *vEval, rex, hq float64) {
+	n := ck.fam.n
+	rex2 := rex * rex
 	g := make([]float64, n)
 	for ri := range ck.rays {
 		ry := &ck.rays[ri]
@@ -313,11 +334,11 @@ func (ck *checker) level(c []float64) levelResult {
 			z := ry.z[k*n : (k+1)*n]
 			v := ve.valueGrad(g, z)
 			mx = math.Max(mx, v)
-			if mx >= best.key {
+			if mx >= first.key {
 				break
 			}
 			if k == rayPoints-1 && ry.exit {
-				mark(mx, LimitTrust, z, "")
+				first.lower(mx, LimitTrust, z, "")
 				break
 			}
 			z2 := norm2(z)
@@ -331,32 +352,50 @@ func (ck *checker) level(c []float64) levelResult {
 			}
 			okd := vd+ck.robust(g, ry.h[k]) < 0 || (ck.nonRise && vd <= ck.vdTol(g, f, hq))
 			if !(v >= posEps*z2) || !okd {
-				mark(mx, LimitDecrease, z, "")
+				first.lower(mx, LimitDecrease, z, "")
 				break
 			}
 		}
 	}
+}
+
+// markOthers lowers first to the levels at which the other equilibria
+// join the piece.
+func (ck *checker) markOthers(first *badMark, ve *vEval) {
+	buf := make([]float64, ck.fam.n)
 	for _, o := range ck.others {
-		mark(rayMax(ve, o, buf), LimitOther, o, "")
+		first.lower(rayMax(ve, o, buf), LimitOther, o, "")
 	}
-	if ck.fam.deg == 2 {
-		// The samples' box: the least V on each face, exactly (for
-		// z'Pz on z_j = b it is b²/(P^-1)_jj at b·P^-1 e_j/(P^-1)_jj).
-		if inv := symInverse(ck.fam.quadMatrix(c), n); inv != nil {
-			for j := 0; j < n; j++ {
-				for _, b := range []float64{ck.trust.Lo[j], ck.trust.Hi[j]} {
-					z := make([]float64, n)
-					for i := range z {
-						z[i] = b * inv[i*n+j] / inv[j*n+j]
-					}
-					mark(b*b/inv[j*n+j], LimitTrust, z, "")
-				}
+}
+
+// markFaces lowers first, for a quadratic V, to the least V on each face
+// of the samples' box, exactly (for z'Pz on z_j = b it is b²/(P^-1)_jj
+// at b·P^-1 e_j/(P^-1)_jj).
+func (ck *checker) markFaces(first *badMark, c []float64) {
+	n := ck.fam.n
+	inv := symInverse(ck.fam.quadMatrix(c), n)
+	if inv == nil {
+		return
+	}
+	for j := 0; j < n; j++ {
+		for _, b := range []float64{ck.trust.Lo[j], ck.trust.Hi[j]} {
+			z := make([]float64, n)
+			for i := range z {
+				z[i] = b * inv[i*n+j] / inv[j*n+j]
 			}
+			first.lower(b*b/inv[j*n+j], LimitTrust, z, "")
 		}
 	}
-	res := levelResult{ok: true, limit: best.kind, limitZ: best.z, limitRun: best.run, exempt: rex}
-	res.level = best.key - levelShrink*math.Max(1, math.Abs(best.key))
-	if math.IsInf(best.key, 1) {
+}
+
+// levelAt returns the level result just below the first failing check:
+// the level, unless it does not reach beyond the exempt ball (radius
+// rex), with the piece's box and the figures.
+func (ck *checker) levelAt(first badMark, ve *vEval, c []float64, vals [][]float64, rex, hq float64) levelResult {
+	n := ck.fam.n
+	res := levelResult{ok: true, limit: first.kind, limitZ: first.z, limitRun: first.run, exempt: rex}
+	res.level = first.key - levelShrink*math.Max(1, math.Abs(first.key))
+	if math.IsInf(first.key, 1) {
 		// Nothing stopped it along the rays (which all end at the trust
 		// region's edge): cannot happen unless every ray stays trusted.
 		res.level = 0
@@ -368,7 +407,7 @@ func (ck *checker) level(c []float64) levelResult {
 	res.vball = ck.ballMax(ve, rex)
 	if !(res.level > res.vball) {
 		res.ok = false
-		res.reason = "no level set of V reaches beyond the noise ball while passing the checks (limited by " + best.kind + ")"
+		res.reason = "no level set of V reaches beyond the noise ball while passing the checks (limited by " + string(first.kind) + ")"
 		return res
 	}
 	res.lo, res.hi = ck.pieceBox(ve, c, res.level)
@@ -484,7 +523,7 @@ func (ck *checker) figures(res *levelResult, ve *vEval, vals [][]float64, hq flo
 				continue
 			}
 			res.pairs++
-			_, vd := ve.vdot(ck.zf, z0)
+			_, vd := ve.vdot(ck.field, z0)
 			tol := ck.pairTolAt(ve.gbuf, hq, vs[i])
 			res.tolerance = math.Max(res.tolerance, tol)
 			if vs[i+1]-vs[i] <= tol {
@@ -549,8 +588,8 @@ func (ck *checker) linearDecay(c []float64) (float64, bool) {
 
 // ballMax returns an upper bound of V on the ball |z| <= r: exact for a
 // quadratic V (r² lambda_max(P)), a sound term-wise bound otherwise (see
-// [lyapunov.BallMax]). An upper bound is the safe side: the level must
+// [BallMax]). An upper bound is the safe side: the level must
 // exceed every V of the exempt ball.
 func (ck *checker) ballMax(ve *vEval, r float64) float64 {
-	return lyapunov.BallMax(lyapunov.NewPoly(ck.fam.n, ck.fam.lib.Terms(), ve.c), r)
+	return BallMax(NewPoly(ck.fam.n, ck.fam.lib.Terms(), ve.c), r)
 }

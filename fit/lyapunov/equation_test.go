@@ -1,4 +1,4 @@
-package fit
+package lyapunov
 
 import (
 	"math"
@@ -31,7 +31,7 @@ func TestLyapunovReference(t *testing.T) {
 	} {
 		t.Run(tc.name, func(t *testing.T) {
 			q := eye(tc.n)
-			p, err := Lyapunov(tc.a, q, tc.n)
+			p, err := Solve(tc.a, q, tc.n)
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -52,7 +52,7 @@ func TestLyapunovRandomStable(t *testing.T) {
 		n := 2 + trial%5
 		a := randomStable(rng, n)
 		q := eye(n)
-		p, err := Lyapunov(a, q, n)
+		p, err := Solve(a, q, n)
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -93,7 +93,7 @@ func TestLyapunovRandomStable(t *testing.T) {
 
 func TestLyapunovSingular(t *testing.T) {
 	// Eigenvalues ±i sum to zero: no unique solution.
-	if _, err := Lyapunov([]float64{0, 1, -1, 0}, eye(2), 2); err == nil {
+	if _, err := Solve([]float64{0, 1, -1, 0}, eye(2), 2); err == nil {
 		t.Fatal("want an error for a centre")
 	}
 }

@@ -1,4 +1,4 @@
-package fit
+package lyapunov
 
 import (
 	"context"
@@ -7,31 +7,34 @@ import (
 )
 
 // regionSetup builds the checker of the stable chain of n states on
-// about samples samples (runs of 200 samples from the box ±1.5) and the
-// Lyapunov-equation V of its linearisation, for the region benchmarks.
+// about samples samples (runs of 200 samples from the box ±1.5, noise
+// 0.003) in z = x/0.5 and the Lyapunov-equation V of its linearisation,
+// for the region benchmarks.
 func regionSetup(b *testing.B, n, samples int) (*checker, []float64) {
-	sys := chainSystem(n)
+	const spread, noise = 0.5, 0.003
+	x := chainZ(n)
 	box := make([][2]float64, n)
-	spread := make([]float64, n)
 	for j := range box {
 		box[j] = [2]float64{-1.5, 1.5}
-		spread[j] = 0.5
 	}
-	ds := certRuns(sys, box, max(samples/200, 3), 0.01, 799, 4, 0.003, 6, false)
-	m := sys.model(spread)
-	m.Noise = make([]float64, n)
-	for j := range m.Noise {
-		m.Noise[j] = 0.003
+	d := x.runs(box, max(samples/200, 3), 0.01, 799, 4, noise, 6)
+	for i := range d.Z {
+		d.Z[i] /= spread
 	}
-	o := (&CertifyOptions{}).get()
-	ck, _, err := newChecker(context.Background(), m, ds, m.Equilibrium, spread, o)
+	shift, scale := make([]float64, n), make([]float64, n)
+	for j := range scale {
+		scale[j] = spread
+	}
+	z := &testSystem{n: n}
+	for _, p := range x.f {
+		z.f = append(z.f, Sum([]float64{1 / spread}, Affine(p, shift, scale)))
+	}
+	o := (&Options{}).Defaults()
+	ck, err := newChecker(context.Background(), d, z.system(noise/spread), o)
 	if err != nil {
 		b.Fatal(err)
 	}
-	fe := NewFieldEvaluator(m)
-	jac := fe.JacobianTo(make([]float64, n*n), nil, m.Equilibrium)
-	ck.az = jac // spread is uniform, so the scaled Jacobian is the raw one
-	p, err := Lyapunov(jac, eye(n), n)
+	p, err := Solve(ck.az, eye(n), n)
 	if err != nil {
 		b.Fatal(err)
 	}

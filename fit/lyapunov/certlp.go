@@ -1,4 +1,4 @@
-package fit
+package lyapunov
 
 import (
 	"errors"
@@ -192,6 +192,7 @@ type lpOutcome struct {
 	rows   int // active rows in the last restricted problem
 	iters  int
 	err    error
+	res    *lp.Result // the solver's result (its Farkas certificate when infeasible); may be nil
 }
 
 // solveCertLP maximises g over the rows.
@@ -206,7 +207,7 @@ func solveCertLP(fam *vFamily, rows *certRows) lpOutcome {
 	}
 	lower[p], upper[p] = -lpMarginBound, lpMarginBound
 	res, err := lp.SolveCuts(obj, rows, lower, upper, nil)
-	out := lpOutcome{err: err}
+	out := lpOutcome{err: err, res: res}
 	if res != nil {
 		out.status = res.Status
 		out.rounds = res.Rounds

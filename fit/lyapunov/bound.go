@@ -1,9 +1,7 @@
-package fit
+package lyapunov
 
 import (
 	"math"
-
-	"basin.example/fit/lyapunov"
 )
 
 // Bound-check settings (not user-facing): the boxes one check may examine,
@@ -17,37 +15,26 @@ const keepLimit = 0.97
 
 func boundDepth(n int) int { return max(7, 12-n) }
 
-// fieldZ returns the model's field in z as polynomials: f_j(xe + s∘z)/s_j.
-func fieldZ(m *Model, xe, scale []float64) []*lyapunov.Poly {
-	n := len(xe)
-	out := make([]*lyapunov.Poly, n)
-	for j, e := range m.Equations {
-		p := lyapunov.Affine(lyapunov.NewPoly(n, e.Exponents, e.Coefficients), xe, scale)
-		out[j] = lyapunov.Sum([]float64{1 / scale[j]}, p)
-	}
-	return out
-}
-
 // verify bounds the level of V (coefficients c) found by the sampled
-// search r with [lyapunov.Verify] and returns the result with the level,
+// search r with [Verify] and returns the result with the level,
 // box, limit and figures of the bound (r itself when the bound confirms
 // it).
 func (ck *checker) verify(c []float64, r levelResult) levelResult {
 	n := ck.fam.n
 	lib := ck.fam.lib
-	v := lyapunov.NewPoly(n, lib.Terms(), c)
-	grad := make([]*lyapunov.Poly, n)
-	var terms []*lyapunov.Poly
+	v := NewPoly(n, lib.Terms(), c)
+	grad := make([]*Poly, n)
+	var terms []*Poly
 	for j := 0; j < n; j++ {
-		grad[j] = lyapunov.Deriv(v, j)
-		terms = append(terms, lyapunov.Mul(grad[j], ck.fz[j]))
+		grad[j] = Deriv(v, j)
+		terms = append(terms, Mul(grad[j], ck.fz[j]))
 	}
 	ones := make([]float64, n)
 	for j := range ones {
 		ones[j] = 1
 	}
-	p := &lyapunov.Problem{
-		N: n, V: v, VDot: lyapunov.Sum(ones, terms...), Grad: grad,
+	p := &Problem{
+		N: n, V: v, VDot: Sum(ones, terms...), Grad: grad,
 		Trust: ck.trust, Lo: ck.trust.Lo, Hi: ck.trust.Hi,
 		Exempt: r.exempt, PosEps: posEps, Others: ck.others,
 		MaxBoxes: boundBoxes, Depth: boundDepth(n),
@@ -60,7 +47,7 @@ func (ck *checker) verify(c []float64, r levelResult) levelResult {
 	if ck.nonRise {
 		p.Tol = ck.nonRiseTol(ve, r, hq)
 	}
-	vr := lyapunov.Verify(p, r.level, r.lo, r.hi)
+	vr := Verify(p, r.level, r.lo, r.hi)
 	r.bound = &vr
 	tracef(ck.trace, "bound: sampled level %.5g -> %.5g, limit %s at %v, box %v..%v (asked %v..%v), %d boxes, %d rounds, radial %.3g exempt %.3g", r.level, vr.Level, vr.Limit, vr.Point, vr.Lo, vr.Hi, r.lo, r.hi, vr.Boxes, vr.Rounds, vr.Radial, r.exempt)
 	if vr.Level >= r.level {
@@ -76,12 +63,12 @@ func (ck *checker) verify(c []float64, r levelResult) levelResult {
 	case vr.Level >= keepLimit*r.level:
 		// The bound only trimmed the sampled level: what stopped the
 		// sampled search still explains the region.
-	case vr.Limit == lyapunov.LimitTrust:
+	case vr.Limit == LimitTrust:
 		r.limit = LimitTrust
-	case vr.Limit == lyapunov.LimitOther:
+	case vr.Limit == LimitOther:
 		r.limit = LimitOther
-	case vr.Limit == lyapunov.LimitBudget:
-		r.limit = string(lyapunov.LimitBudget)
+	case vr.Limit == LimitBudget:
+		r.limit = LimitBudget
 	default:
 		r.limit = LimitDecrease
 	}
@@ -93,16 +80,7 @@ func (ck *checker) verify(c []float64, r levelResult) levelResult {
 		// the bound's box holds the piece too
 		r.lo[j], r.hi[j] = math.Max(r.lo[j], vr.Lo[j]), math.Min(r.hi[j], vr.Hi[j])
 	}
-	vals := make([][]float64, len(ck.runs))
-	for ri := range ck.runs {
-		rr := &ck.runs[ri]
-		vs := make([]float64, len(rr.t))
-		for i := range vs {
-			vs[i] = ve.value(rr.z[i*n : (i+1)*n])
-		}
-		vals[ri] = vs
-	}
-	ck.figures(&r, ve, vals, hq)
+	ck.figures(&r, ve, ck.values(ve), hq)
 	return r
 }
 
@@ -116,7 +94,7 @@ func (ck *checker) nonRiseTol(ve *vEval, r levelResult, hq float64) float64 {
 		zs := ck.runs[ri].z
 		for k := 0; k+n <= len(zs); k += n {
 			z := zs[k : k+n]
-			if v, _ := ve.vdot(ck.zf, z); v <= r.level {
+			if v, _ := ve.vdot(ck.field, z); v <= r.level {
 				tol = math.Max(tol, ck.vdTol(ve.gbuf, ve.fbuf, hq))
 			}
 		}

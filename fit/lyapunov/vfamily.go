@@ -1,4 +1,4 @@
-package fit
+package lyapunov
 
 import (
 	"math"
@@ -255,33 +255,10 @@ func (e *vEval) valueGrad(g, z []float64) float64 {
 	return s
 }
 
-// zField evaluates the model's field in scaled coordinates:
-// dz/dt = f(xe + s∘z) / s. Not safe for concurrent use.
-type zField struct {
-	fe    *FieldEvaluator
-	xe, s []float64
-	x     []float64
-}
-
-func newZField(m *Model, xe, s []float64) *zField {
-	return &zField{fe: NewFieldEvaluator(m), xe: xe, s: s, x: make([]float64, len(xe))}
-}
-
-func (zf *zField) evalTo(dst, z []float64) []float64 {
-	for j := range z {
-		zf.x[j] = zf.xe[j] + zf.s[j]*z[j]
-	}
-	zf.fe.EvalTo(dst, zf.x)
-	for j := range dst {
-		dst[j] /= zf.s[j]
-	}
-	return dst
-}
-
 // vdot returns V(z), and grad V · f(z) in scaled coordinates.
-func (e *vEval) vdot(zf *zField, z []float64) (v, vd float64) {
+func (e *vEval) vdot(field Field, z []float64) (v, vd float64) {
 	v = e.valueGrad(e.gbuf, z)
-	zf.evalTo(e.fbuf, z)
+	field(e.fbuf, z)
 	for j, g := range e.gbuf {
 		vd += g * e.fbuf[j]
 	}
