@@ -182,7 +182,7 @@ type Options struct {
 // Errors that can be returned in [ParseError.Err], or alone.
 var (
 	ErrNotNumber  = errors.New("not a number")
-	ErrNoTime     = errors.New("no time column (name one with --time-col, or give --rate)")
+	ErrNoTime     = errors.New("no time column (name one with Options.TimeCol, or give Options.Rate)")
 	ErrNoStates   = errors.New("no state columns")
 	ErrTimeOrder  = errors.New("time does not increase")
 	ErrEmpty      = errors.New("no samples")

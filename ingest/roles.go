@@ -67,7 +67,7 @@ func assignRoles(file string, cols []Column, opts *Options) (*roles, error) {
 	if opts.TimeCol != "" {
 		ti = findCol(cols, opts.TimeCol)
 		if ti < 0 {
-			return nil, &ParseError{File: file, Err: fmt.Errorf("%w: --time-col %q is not a column", ErrNoTime, opts.TimeCol)}
+			return nil, &ParseError{File: file, Err: fmt.Errorf("%w: Options.TimeCol %q is not a column", ErrNoTime, opts.TimeCol)}
 		}
 	} else {
 		for j, c := range cols {
@@ -98,10 +98,10 @@ func assignRoles(file string, cols []Column, opts *Options) (*roles, error) {
 	if opts.RunCol != "" {
 		ri = findCol(cols, opts.RunCol)
 		if ri < 0 {
-			return nil, &ParseError{File: file, Err: fmt.Errorf("%w: --run-col %q is not a column", ErrFormat, opts.RunCol)}
+			return nil, &ParseError{File: file, Err: fmt.Errorf("%w: Options.RunCol %q is not a column", ErrFormat, opts.RunCol)}
 		}
 		if ri == ti {
-			return nil, &ParseError{File: file, Err: fmt.Errorf("%w: --run-col %q is the time column", ErrFormat, opts.RunCol)}
+			return nil, &ParseError{File: file, Err: fmt.Errorf("%w: Options.RunCol %q is the time column", ErrFormat, opts.RunCol)}
 		}
 		r.role[ri] = roleRun
 	}
@@ -129,13 +129,13 @@ func assignRoles(file string, cols []Column, opts *Options) (*roles, error) {
 		for _, s := range opts.States {
 			j := findCol(cols, s)
 			if j < 0 {
-				return nil, &ParseError{File: file, Err: fmt.Errorf("%w: --states names %q, which is not a column", ErrNoStates, s)}
+				return nil, &ParseError{File: file, Err: fmt.Errorf("%w: Options.States names %q, which is not a column", ErrNoStates, s)}
 			}
 			if isIn[j] {
 				return nil, &ParseError{File: file, Column: j + 1, Name: cols[j].Name, Err: ErrStateAndInput}
 			}
 			if r.role[j] != roleSkip {
-				return nil, &ParseError{File: file, Err: fmt.Errorf("%w: --states names %q, the time or run column", ErrNoStates, s)}
+				return nil, &ParseError{File: file, Err: fmt.Errorf("%w: Options.States names %q, the time or run column", ErrNoStates, s)}
 			}
 			r.addState(j, cols[j])
 		}
