@@ -120,9 +120,9 @@ type CollinearError struct {
 
 func (e *CollinearError) Error() string {
 	if e.Condition >= math.MaxFloat64 {
-		return fmt.Sprintf("library terms collinear (normal matrix singular); try a lower --degree than %d, or fewer states", e.Degree)
+		return fmt.Sprintf("library terms collinear (normal matrix singular); try a lower FieldOptions.Degree than %d, or fewer states", e.Degree)
 	}
-	return fmt.Sprintf("library terms nearly collinear (condition %.1e); try a lower --degree than %d", e.Condition, e.Degree)
+	return fmt.Sprintf("library terms nearly collinear (condition %.1e); try a lower FieldOptions.Degree than %d", e.Condition, e.Degree)
 }
 
 // inputErr is an error whose text is msg and which unwraps to a sentinel
@@ -616,7 +616,7 @@ func scaleStates(m *Model, runs []*ingest.Run) error {
 		}
 		m.Lower[j], m.Upper[j] = lo, hi
 		if !(hi > lo) {
-			return errorf(ErrConstant, "state %q is constant (%g in every sample); leave it out with --states", m.States[j], lo)
+			return errorf(ErrConstant, "state %q is constant (%g in every sample); leave it out of ingest.Options.States", m.States[j], lo)
 		}
 		m.Centre[j], m.Spread[j] = robustScale(append(tmp[:0], sub[j]...))
 		if !(m.Spread[j] > 0) {
@@ -626,7 +626,7 @@ func scaleStates(m *Model, runs []*ingest.Run) error {
 	for a := 0; a < n; a++ {
 		for b := a + 1; b < n; b++ {
 			if r := correlation(sub[a], sub[b]); math.Abs(r) > stateCorrMax {
-				return errorf(ErrCollinear, "states %q and %q move together (correlation %.5f): two sensors of one quantity, or runs that never move them apart; keep one with --states",
+				return errorf(ErrCollinear, "states %q and %q move together (correlation %.5f): two sensors of one quantity, or runs that never move them apart; keep one in ingest.Options.States",
 					m.States[a], m.States[b], r)
 			}
 		}

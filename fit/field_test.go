@@ -393,7 +393,7 @@ func TestFieldBadInput(t *testing.T) {
 				ds.Runs[i].X = [][]float64{x, y}
 			}
 			return ds
-		}, ErrCollinear, "try a lower --degree"},
+		}, ErrCollinear, "try a lower FieldOptions.Degree"},
 		{"short run", func() *ingest.Dataset {
 			ds := good()
 			r := &ds.Runs[2]

@@ -391,7 +391,7 @@ func decide(cert *fit.Certificate, val *fit.Validation, runs []RunScreen, eig []
 	case val.Pairs == 0:
 		return fit.Inconclusive, fit.NoClaim, fit.ReasonNoHeldoutPairs, fmt.Sprintf("No held-out sample pairs lie inside the region outside the noise ball. Record runs that pass within %s, away from the equilibrium.", where)
 	case val.DecreaseFraction < o.MinDecrease:
-		return fit.Inconclusive, fit.NoClaim, fit.ReasonHeldoutRise, fmt.Sprintf("V did not rise beyond the noise tolerance on only %s of %d held-out pairs inside the region (%.1f%% needed). The model or V does not hold there; try more runs or a different --v-degree.", sharePct(val.DecreaseFraction), val.Pairs, 100*o.MinDecrease)
+		return fit.Inconclusive, fit.NoClaim, fit.ReasonHeldoutRise, fmt.Sprintf("V did not rise beyond the noise tolerance on only %s of %d held-out pairs inside the region (%.1f%% needed). The model or V does not hold there; try more runs or a different fit.CertifyOptions.Degree.", sharePct(val.DecreaseFraction), val.Pairs, 100*o.MinDecrease)
 	case val.InvarianceFraction < 1:
 		return fit.Inconclusive, fit.NoClaim, fit.ReasonLeft, fmt.Sprintf("%d of %d held-out runs that entered the region left it again beyond the noise tolerance. Record more runs near the region's edge.", val.EnteredRuns-int(math.Round(val.InvarianceFraction*float64(val.EnteredRuns))), val.EnteredRuns)
 	case lin == linUnknown && eig != nil:

@@ -93,6 +93,7 @@ func runCertify(ctx context.Context, e *env, args []string) error {
 	if err != nil {
 		return classify(err, f.Model)
 	}
+	cert.Reason = flagNames(cert.Reason)
 	if len(m.Inputs) > 0 {
 		if g, err := fit.FitInputGain(m, fitRuns(ds)); err == nil {
 			cert.InputGain = g

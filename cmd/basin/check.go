@@ -121,6 +121,7 @@ func runCheck(ctx context.Context, e *env, args []string) error {
 	}
 	judged := *cert
 	validate.Decide(&judged, val, runs, nil, opts)
+	judged.Reason = flagNames(judged.Reason)
 	doc := &checkJSON{Certificate: c.Cert, Runs: runs, Validation: val,
 		Options: map[string]float64{"min_decrease": c.MinDecrease, "beta": c.Beta, "rise_tol": c.Tolerance}}
 	for _, s := range ds.States {

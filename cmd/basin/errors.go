@@ -61,6 +61,10 @@ var optionFlags = strings.NewReplacer(
 	"CertifyOptions.Degree", "--v-degree", "CertifyOptions.Growth", "--growth",
 )
 
+// flagNames rewords library prose that is not an error (a certificate's
+// Reason) for the command line, as exitCode does for errors.
+func flagNames(s string) string { return optionFlags.Replace(s) }
+
 // flagged is a library error reworded for the command line: the Go option
 // fields it names become the flags that set them.
 type flagged struct{ err error }

@@ -227,6 +227,11 @@ func runRun(ctx context.Context, e *env, args []string) error {
 	if err != nil {
 		return classify(err, "")
 	}
+	for _, a := range all {
+		if c := a.Result.Certificate; c != nil {
+			c.Reason = flagNames(c.Reason)
+		}
+	}
 	res := all[0].Result
 	if err := ctx.Err(); err != nil {
 		return err
