@@ -347,7 +347,7 @@ func noFindReason(cert *Certificate, res *lyapunov.Result, m *Model, o lyapunov.
 		return "No V was fitted: the Lyapunov equation of the linearisation is singular (two eigenvalues sum to zero). Record runs that settle, so that the damping shows in the fit."
 	}
 	if res.Outcome == lyapunov.TooFewSamples && res.NeedSamples > 0 {
-		return fmt.Sprintf("No V was fitted: V of degree %d has %d coefficients, and %d samples are too few for it (at least %d needed); try a lower --v-degree.",
+		return fmt.Sprintf("No V was fitted: V of degree %d has %d coefficients, and %d samples are too few for it (at least %d needed); try a lower CertifyOptions.Degree.",
 			o.Degree, res.Coefficients, samples, res.NeedSamples)
 	}
 	if res.Contradicted {
@@ -356,10 +356,10 @@ func noFindReason(cert *Certificate, res *lyapunov.Result, m *Model, o lyapunov.
 		cert.Contradiction = fmt.Sprintf("no V of degree %d falls along the recorded runs near the equilibrium (the LP's best margin is %.3g < 0, so V must rise)", o.Degree, cert.Margin)
 		return "No V was found: " + cert.Contradiction + ". Record runs nearer the equilibrium, or with less noise, to tell a real rise from noise."
 	}
-	next := " Record more runs that start near the equilibrium, or try another --v-degree."
+	next := " Record more runs that start near the equilibrium, or try another CertifyOptions.Degree."
 	switch res.Outcome {
 	case lyapunov.TooFewSamples:
-		next = " Record more runs near the equilibrium, or try a lower --v-degree."
+		next = " Record more runs near the equilibrium, or try a lower CertifyOptions.Degree."
 	case lyapunov.NoBound:
 		next = " Record more runs near the equilibrium."
 	}

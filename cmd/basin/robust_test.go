@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"os"
 	"path/filepath"
+	"regexp"
 	"strings"
 	"testing"
 
@@ -348,6 +349,60 @@ func TestExitMessages(t *testing.T) {
 		code, msg := run1(t, tc.args...)
 		if code != 2 || !strings.Contains(msg, tc.want) || strings.Contains(tc.args[0], "screen") && strings.Contains(msg, "--states names") {
 			t.Errorf("%q: exit %d %q, want 2 and %q", tc.args, code, msg, tc.want)
+		}
+	}
+}
+
+// TestOptionFieldsMapped: every Go option field that a library's error or
+// reason text names (a string literal holding "Options.Field") has a flag
+// in optionFlags, so the command line never shows a Go field name; and an
+// error from ingest reads with the flag.
+func TestOptionFieldsMapped(t *testing.T) {
+	field := regexp.MustCompile(`(?:[a-z]+\.)?[A-Z][A-Za-z]*Options\.[A-Z][A-Za-z]*|\bOptions\.[A-Z][A-Za-z]*`)
+	lit := regexp.MustCompile(`"(?:[^"\\\n]|\\.)*"`)
+	seen := 0
+	for _, dir := range []string{"../../ingest", "../../fit", "../../validate", "../../fit/lyapunov", "../../fit/export"} {
+		files, err := filepath.Glob(filepath.Join(dir, "*.go"))
+		if err != nil {
+			t.Fatal(err)
+		}
+		for _, f := range files {
+			if strings.HasSuffix(f, "_test.go") {
+				continue
+			}
+			src, err := os.ReadFile(f)
+			if err != nil {
+				t.Fatal(err)
+			}
+			for _, l := range lit.FindAll(src, -1) {
+				for _, m := range field.FindAll(l, -1) {
+					seen++
+					if got := optionFlags.Replace(string(m)); strings.Contains(got, "Options.") {
+						t.Errorf("%s: %s names %s, which optionFlags does not map to a flag", f, l, m)
+					}
+				}
+			}
+		}
+	}
+	if seen == 0 {
+		t.Fatal("no option field found in the libraries' strings: the scan is broken")
+	}
+	t.Logf("%d option field names in the libraries' strings, all mapped", seen)
+	f := filepath.Join(t.TempDir(), "x.csv")
+	if err := os.WriteFile(f, []byte("t,a\n0,1\n1,2\n2,3\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	for _, tc := range []struct {
+		args []string
+		want string
+	}{
+		{[]string{"inspect", "--time-col", "clock", f}, `--time-col "clock" is not a column`},
+		{[]string{"inspect", "--states", "b", f}, `--states names "b", which is not a column`},
+		{[]string{"inspect", "--run-col", "t", f}, `--run-col "t" is the time column`},
+	} {
+		code, msg := run1(t, tc.args...)
+		if code != 2 || !strings.Contains(msg, tc.want) || strings.Contains(msg, "Options.") {
+			t.Errorf("%v: exit %d %q, want exit 2 with %q and no Go field name", tc.args, code, msg, tc.want)
 		}
 	}
 }
