@@ -261,8 +261,12 @@ func (lib *Library) EvalWorkTo(dst, work, x []float64) []float64 {
 			work[k] = work[st.parent] * x[st.factor]
 		}
 	}
-	if lib.off >= 0 {
-		copy(dst, work[lib.off:])
+	if lib.off >= 0 { // a loop: copy's memmove call costs more on a few terms
+		src := work[lib.off:]
+		src = src[:len(dst)]
+		for k := range dst {
+			dst[k] = src[k]
+		}
 		return dst
 	}
 	for k, p := range lib.pick {
@@ -306,10 +310,18 @@ func (lib *Library) GradWorkTo(grad, val, work, x []float64) []float64 {
 			gk[f] += w[p]
 		}
 	}
-	if lib.off >= 0 {
-		copy(grad, g[lib.off*n:])
+	if lib.off >= 0 { // loops: copy's memmove call costs more on a few terms
+		src := g[lib.off*n:]
+		src = src[:len(grad)]
+		for k := range grad {
+			grad[k] = src[k]
+		}
 		if val != nil {
-			copy(val, w[lib.off:])
+			w = w[lib.off:]
+			w = w[:len(val)]
+			for k := range val {
+				val[k] = w[k]
+			}
 		}
 		return grad
 	}
