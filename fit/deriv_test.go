@@ -462,3 +462,89 @@ func TestSGBlocksMatchSamples(t *testing.T) {
 		})
 	}
 }
+
+// TestSGSmoothing checks the closed-form centred smoothing weights a - b k²
+// against the quadratic/cubic smoothing tables of [SavitzkyGolay1964],
+// "Smoothing and differentiation of data by simplified least squares
+// procedures", Anal. Chem. 36(8), 1964 (Table I): exact rationals, 1e-15.
+func TestSGSmoothing(t *testing.T) {
+	for _, tc := range []struct {
+		m    int
+		want []float64
+	}{
+		{2, scaled([]float64{-3, 12, 17, 12, -3}, 35)},
+		{3, scaled([]float64{-2, 3, 6, 7, 6, 3, -2}, 21)},
+		{4, scaled([]float64{-21, 14, 39, 54, 59, 54, 39, 14, -21}, 231)},
+		{5, scaled([]float64{-36, 9, 44, 69, 84, 89, 84, 69, 44, 9, -36}, 429)},
+	} {
+		a, b := sgSmoothing(tc.m)
+		got := make([]float64, 2*tc.m+1)
+		for k := -tc.m; k <= tc.m; k++ {
+			got[k+tc.m] = a - b*float64(k*k)
+		}
+		if !floats.EqualApprox(got, tc.want, 1e-15) {
+			t.Errorf("m=%d: %v, want %v", tc.m, got, tc.want)
+		}
+	}
+}
+
+// TestSmoothResidual compares the running sums of smoothResidual with the
+// direct convolution by the least-squares weights of SavitzkyGolayTo
+// (itself checked on the tables above) at every candidate half-width and
+// several strides, on noisy signals of a few sizes. The running sums are
+// restarted every 64 updates, so their rounding stays near 1e-14 of the
+// data's size and the residual sums agree to 1e-9 relative (the residuals
+// are noise, 1e-3 of the data here); chooseWindow, which compares them
+// with a 20 % slack, then picks the same window as the direct sums.
+func TestSmoothResidual(t *testing.T) {
+	rng := rand.New(rand.NewPCG(8, 0))
+	direct := func(x []float64, m, stride int) (float64, int) {
+		nodes := centred(m)
+		wt := SavitzkyGolayTo(make([]float64, len(nodes)), nodes, 0, 3, 0)
+		ss, cnt := 0.0, 0
+		for i := m; i+m < len(x); i += stride {
+			s := 0.0
+			for k, c := range wt {
+				s += c * x[i-m+k]
+			}
+			ss += (x[i] - s) * (x[i] - s)
+			cnt++
+		}
+		return ss, cnt
+	}
+	for _, n := range []int{30, 500, 2001} {
+		x := make([]float64, n)
+		for i := range x {
+			s := 0.005 * float64(i)
+			x[i] = 0.3*math.Sin(9.5*s) + 2 + 3e-3*rng.NormFloat64()
+		}
+		for _, m := range windowCandidates {
+			for _, stride := range []int{1, 2, 3, 7, 61, 200} {
+				got, gc := smoothResidual(0, 0, x, m, stride)
+				want, wc := direct(x, m, stride)
+				if gc != wc || !scalar.EqualWithinRel(got, want, 1e-9) && !(want == 0 && got == 0) {
+					t.Fatalf("n=%d m=%d stride %d: %d residuals, sum %.15g; direct %d, %.15g", n, m, stride, gc, got, wc, want)
+				}
+			}
+		}
+		sigma := 3e-3
+		runs := [][]float64{x, x[:n/2]}
+		want := windowCandidates[0]
+		stride := max(1, (n+n/2)/500)
+		for _, m := range windowCandidates { // chooseWindow by the direct sums
+			ss, cnt := 0.0, 0
+			for _, r := range runs {
+				s, c := direct(r, m, stride)
+				ss, cnt = ss+s, cnt+c
+			}
+			a, _ := sgSmoothing(m)
+			if cnt < 20 || ss/float64(cnt) > discrepancySlack*sigma*sigma*(1-a) {
+				break
+			}
+			want = m
+		}
+		if got := chooseWindow(runs, sigma, 500); got != want {
+			t.Errorf("n=%d: window %d, direct sums %d", n, got, want)
+		}
+	}
+}
