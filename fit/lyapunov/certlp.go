@@ -195,8 +195,15 @@ type lpOutcome struct {
 	res    *lp.Result // the solver's result (its Farkas certificate when infeasible); may be nil
 }
 
-// solveCertLP maximises g over the rows.
-func solveCertLP(fam *vFamily, rows *certRows) lpOutcome {
+// solveCertLP maximises g over the rows. On the non-rise path (central)
+// the restricted problems are solved by the interior-point method alone:
+// there the margin's optimum is degenerate (every conserved V has g = 0),
+// and a vertex of the optimal face, as the simplex method returns, sits
+// on the positivity rows (V = posEps|z|² along some direction: the level
+// sets stretch along it and the level search stops at a tiny level),
+// while the interior point's solution lies inside the face, away from
+// them.
+func solveCertLP(fam *vFamily, rows *certRows, central bool) lpOutcome {
 	p := fam.Len()
 	obj := make([]float64, p+1)
 	obj[p] = -1
@@ -206,7 +213,11 @@ func solveCertLP(fam *vFamily, rows *certRows) lpOutcome {
 		lower[k], upper[k] = -lpCoefBound, lpCoefBound
 	}
 	lower[p], upper[p] = -lpMarginBound, lpMarginBound
-	res, err := lp.SolveCuts(obj, rows, lower, upper, nil)
+	var opts *lp.CutOptions
+	if central {
+		opts = &lp.CutOptions{Method: lp.InteriorPoint}
+	}
+	res, err := lp.SolveCuts(obj, rows, lower, upper, opts)
 	out := lpOutcome{err: err, res: res}
 	if res != nil {
 		out.status = res.Status

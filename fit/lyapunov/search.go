@@ -454,7 +454,7 @@ func (ck *checker) grow(ctx context.Context, c0 []float64, nonRise bool, o Optio
 		if len(rows.targets) < 3*fam.Len() {
 			g.lastErr, g.lastKind = "too few samples in the level set for the LP", TooFewSamples
 		} else {
-			out := solveCertLP(fam, rows)
+			out := solveCertLP(fam, rows, nonRise)
 			g.solves++
 			g.rounds += out.rounds
 			g.rows = max(g.rows, out.rows)

@@ -44,7 +44,7 @@ func TestLinearLP(t *testing.T) {
 	// find the decrease itself.
 	prev := ck.fam.quadratic(eye(2))
 	rows := ck.lpRows(prev, 0.5, 0.5, 0, o, rand.New(rand.NewPCG(1, 0)))
-	out := solveCertLP(ck.fam, rows)
+	out := solveCertLP(ck.fam, rows, false)
 	if out.err != nil || !(out.g > 0) {
 		t.Fatalf("LP: %v, margin %g", out.err, out.g)
 	}
