@@ -588,37 +588,48 @@ func prepareMethod(name string, o FieldOptions, cols [][][]float64, noise []floa
 	return md
 }
 
-// scaleStates fills Centre, Spread, Lower and Upper, and refuses constant
-// or collinear states.
-func scaleStates(m *Model, runs []*ingest.Run) error {
-	n := len(m.States)
+// subsample returns every stride-th value of one column of the runs
+// (col(r), the count running on across runs), the stride keeping at most
+// about sampleCap of them, with the smallest and largest of all the
+// values.
+func subsample(runs []*ingest.Run, col func(*ingest.Run) []float64) (sub []float64, lo, hi float64) {
 	total := 0
 	for _, r := range runs {
 		total += r.Len()
 	}
 	stride := max(1, total/sampleCap)
+	sub = make([]float64, 0, total/stride+1)
+	lo, hi = math.Inf(1), math.Inf(-1)
+	i := 0
+	for _, r := range runs {
+		for _, v := range col(r) {
+			lo, hi = math.Min(lo, v), math.Max(hi, v)
+			if i%stride == 0 {
+				sub = append(sub, v)
+			}
+			i++
+		}
+	}
+	return sub, lo, hi
+}
+
+// scaleStates fills Centre, Spread, Lower and Upper, and refuses constant
+// or collinear states.
+func scaleStates(m *Model, runs []*ingest.Run) error {
+	n := len(m.States)
 	m.Centre, m.Spread = make([]float64, n), make([]float64, n)
 	m.Lower, m.Upper = make([]float64, n), make([]float64, n)
-	tmp := make([]float64, 0, total/stride+1)
+	var tmp []float64
 	sub := make([][]float64, n)
 	for j := 0; j < n; j++ {
-		sub[j] = make([]float64, 0, total/stride+1)
-		lo, hi := math.Inf(1), math.Inf(-1)
-		k := 0
-		for _, r := range runs {
-			for _, v := range r.X[j] {
-				lo, hi = math.Min(lo, v), math.Max(hi, v)
-				if k%stride == 0 {
-					sub[j] = append(sub[j], v)
-				}
-				k++
-			}
-		}
+		var lo, hi float64
+		sub[j], lo, hi = subsample(runs, func(r *ingest.Run) []float64 { return r.X[j] })
 		m.Lower[j], m.Upper[j] = lo, hi
 		if !(hi > lo) {
 			return errorf(ErrConstant, "state %q is constant (%g in every sample); leave it out of ingest.Options.States", m.States[j], lo)
 		}
-		m.Centre[j], m.Spread[j] = robustScale(append(tmp[:0], sub[j]...))
+		tmp = append(tmp[:0], sub[j]...) // robustScale reorders; sub[j] stays in time order
+		m.Centre[j], m.Spread[j] = robustScale(tmp)
 		if !(m.Spread[j] > 0) {
 			m.Spread[j] = (hi - lo) / 4
 		}

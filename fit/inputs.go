@@ -131,23 +131,7 @@ type varScale struct {
 // as scaleStates computes them for a state (a spread of a quarter of the
 // range when the robust one is zero).
 func inputScale(runs []*ingest.Run, k int) (centre, spread float64) {
-	total := 0
-	for _, r := range runs {
-		total += r.Len()
-	}
-	stride := max(1, total/sampleCap)
-	sub := make([]float64, 0, total/stride+1)
-	lo, hi := math.Inf(1), math.Inf(-1)
-	i := 0
-	for _, r := range runs {
-		for _, v := range r.U[k] {
-			lo, hi = math.Min(lo, v), math.Max(hi, v)
-			if i%stride == 0 {
-				sub = append(sub, v)
-			}
-			i++
-		}
-	}
+	sub, lo, hi := subsample(runs, func(r *ingest.Run) []float64 { return r.U[k] })
 	centre, spread = robustScale(sub)
 	if !(spread > 0) {
 		spread = (hi - lo) / 4

@@ -106,20 +106,26 @@ func runCertify(ctx context.Context, e *env, args []string) error {
 }
 
 // readModelFile opens and decodes a model.json; any failure is bad input.
-func readModelFile(path string) (*fit.Model, error) {
+func readModelFile(path string) (*fit.Model, error) { return readFile(path, fit.ReadModel) }
+
+// readFile opens path and decodes it with read, after checking that its
+// folder is not a set of outputs left half replaced (mixedSet); a missing
+// or bad file is an input error (exit 2) naming the file.
+func readFile[T any](path string, read func(io.Reader) (T, error)) (T, error) {
+	var zero T
 	if err := mixedSet(path); err != nil {
-		return nil, err
+		return zero, err
 	}
 	f, err := os.Open(path)
 	if err != nil {
-		return nil, &inputError{err}
+		return zero, &inputError{err}
 	}
 	defer f.Close()
-	m, err := fit.ReadModel(f)
+	v, err := read(f)
 	if err != nil {
-		return nil, &inputError{fmt.Errorf("%s: %w", path, err)}
+		return zero, &inputError{fmt.Errorf("%s: %w", path, err)}
 	}
-	return m, nil
+	return v, nil
 }
 
 // zNames returns the names of the scaled coordinates, "z_theta".

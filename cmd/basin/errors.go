@@ -42,24 +42,33 @@ var badInput = []error{
 	validate.ErrOptions, export.ErrNoV, export.ErrOption,
 }
 
-// optionFlags maps the Go option fields the libraries name in their errors
-// to the flags that set them; the longer spellings come first.
-var optionFlags = strings.NewReplacer(
-	"ingest.Options.TimeCol", "--time-col", "ingest.Options.Rate", "--rate", "ingest.Options.RunCol", "--run-col",
-	"ingest.Options.States", "--states", "ingest.Options.Manifest", "--manifest",
-	"fit.FieldOptions.Degree", "--degree", "fit.FieldOptions.Folds", "--select-folds",
-	"fit.FieldOptions.Derivative", "--deriv", "fit.FieldOptions.Bootstrap", "--bootstrap",
-	"fit.FieldOptions.MaxMemory", "--max-memory",
-	"fit.CertifyOptions.Degree", "--v-degree", "fit.CertifyOptions.Growth", "--growth",
-	"export.Options.RiseTolerance", "--rise-tol", "Options.RiseTolerance", "--rise-tol",
-	"validate.Options.Folds", "--folds", "validate.Options.Beta", "--beta", "validate.Options.MinDecrease", "--min-decrease",
-	"Options.TimeCol", "--time-col", "Options.Rate", "--rate", "Options.RunCol", "--run-col",
-	"Options.States", "--states", "Options.Manifest", "--manifest",
-	"FieldOptions.Degree", "--degree", "FieldOptions.Folds", "--select-folds",
-	"FieldOptions.Derivative", "--deriv", "FieldOptions.Bootstrap", "--bootstrap",
-	"FieldOptions.MaxMemory", "--max-memory",
-	"CertifyOptions.Degree", "--v-degree", "CertifyOptions.Growth", "--growth",
-)
+// optionFields are the Go option fields the libraries name in their
+// errors and reasons, with the flags that set them.
+var optionFields = []struct{ pkg, field, flag string }{
+	{"ingest", "Options.TimeCol", "--time-col"}, {"ingest", "Options.Rate", "--rate"},
+	{"ingest", "Options.RunCol", "--run-col"}, {"ingest", "Options.States", "--states"},
+	{"ingest", "Options.Manifest", "--manifest"},
+	{"fit", "FieldOptions.Degree", "--degree"}, {"fit", "FieldOptions.Folds", "--select-folds"},
+	{"fit", "FieldOptions.Derivative", "--deriv"}, {"fit", "FieldOptions.Bootstrap", "--bootstrap"},
+	{"fit", "FieldOptions.MaxMemory", "--max-memory"},
+	{"fit", "CertifyOptions.Degree", "--v-degree"}, {"fit", "CertifyOptions.Growth", "--growth"},
+	{"export", "Options.RiseTolerance", "--rise-tol"},
+	{"validate", "Options.Folds", "--folds"}, {"validate", "Options.Beta", "--beta"},
+	{"validate", "Options.MinDecrease", "--min-decrease"},
+}
+
+// optionFlags rewrites each field of optionFields, with its package
+// ("ingest.Options.States") or without ("Options.States", as a package
+// names its own), as its flag; the qualified spellings come first, so
+// they win.
+var optionFlags = func() *strings.Replacer {
+	var qualified, bare []string
+	for _, o := range optionFields {
+		qualified = append(qualified, o.pkg+"."+o.field, o.flag)
+		bare = append(bare, o.field, o.flag)
+	}
+	return strings.NewReplacer(append(qualified, bare...)...)
+}()
 
 // flagNames rewords library prose that is not an error (a certificate's
 // Reason) for the command line, as exitCode does for errors.

@@ -7,7 +7,6 @@ import (
 	"flag"
 	"go/token"
 	"math"
-	"os"
 
 	"basin.example/fit"
 	"basin.example/fit/export"
@@ -121,18 +120,4 @@ func runExport(ctx context.Context, e *env, args []string) error {
 
 // certFromFile reads and checks a certificate.json; a missing or bad file
 // is an input error (exit 2) naming the file.
-func certFromFile(path string) (*fit.Certificate, error) {
-	if err := mixedSet(path); err != nil {
-		return nil, err
-	}
-	f, err := os.Open(path)
-	if err != nil {
-		return nil, &inputError{err}
-	}
-	defer f.Close()
-	cert, err := fit.ReadCertificate(f)
-	if err != nil {
-		return nil, &inputError{errors.New(path + ": " + err.Error())}
-	}
-	return cert, nil
-}
+func certFromFile(path string) (*fit.Certificate, error) { return readFile(path, fit.ReadCertificate) }

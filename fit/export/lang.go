@@ -43,13 +43,7 @@ func writeGo(b *strings.Builder, cert *fit.Certificate, pkg string) {
 		}
 	}
 	b.WriteString("\tv := 0.0\n\tvar t float64\n")
-	for k, fs := range terms(cert, func(j int) string { return fmt.Sprintf("z%d", j) }) {
-		fmt.Fprintf(b, "\tt = %s\n", num(cert.V.Coefficients[k]))
-		for _, f := range fs {
-			fmt.Fprintf(b, "\tt *= %s\n", f)
-		}
-		b.WriteString("\tv += t\n")
-	}
+	writeTerms(b, cert, "\tt = %s\n", "\tt *= %s\n", "\tv += t\n")
 	b.WriteString("\treturn v\n}\n\n")
 	b.WriteString("// Inside reports whether x (original units) is in the region:\n// V(x) <= Level")
 	if cert.Box != nil {
@@ -98,13 +92,7 @@ func writeC(b *strings.Builder, cert *fit.Certificate, p string) {
 		}
 	}
 	b.WriteString("\tdouble v = 0.0, t;\n")
-	for k, fs := range terms(cert, func(j int) string { return fmt.Sprintf("z%d", j) }) {
-		fmt.Fprintf(b, "\tt = %s;\n", num(cert.V.Coefficients[k]))
-		for _, f := range fs {
-			fmt.Fprintf(b, "\tt *= %s;\n", f)
-		}
-		b.WriteString("\tv += t;\n")
-	}
+	writeTerms(b, cert, "\tt = %s;\n", "\tt *= %s;\n", "\tv += t;\n")
 	b.WriteString("\treturn v;\n}\n\n")
 	fmt.Fprintf(b, "/* 1 when x is in the region (V <= level%s), else 0; 0 when V is NaN. */\n",
 		map[bool]string{true: " and inside the box", false: ""}[cert.Box != nil])
@@ -147,13 +135,7 @@ func writePython(b *strings.Builder, cert *fit.Certificate) {
 		fmt.Fprintf(b, "    z%d = (float(x[%d]) - %s) / %s\n", j, j, num(cert.Equilibrium[j]), num(cert.Scale[j]))
 	}
 	b.WriteString("    s = 0.0\n")
-	for k, fs := range terms(cert, func(j int) string { return fmt.Sprintf("z%d", j) }) {
-		fmt.Fprintf(b, "    t = %s\n", num(cert.V.Coefficients[k]))
-		for _, f := range fs {
-			fmt.Fprintf(b, "    t *= %s\n", f)
-		}
-		b.WriteString("    s += t\n")
-	}
+	writeTerms(b, cert, "    t = %s\n", "    t *= %s\n", "    s += t\n")
 	b.WriteString("    return s\n\n")
 	b.WriteString("def inside(x):\n    \"\"\"True when x is in the region: V(x) <= LEVEL and x inside BOX.\"\"\"\n")
 	b.WriteString("    if not (v(x) <= LEVEL):\n        return False\n")
@@ -161,6 +143,19 @@ func writePython(b *strings.Builder, cert *fit.Certificate) {
 		b.WriteString("    for j, (lo, hi) in enumerate(BOX):\n        if x[j] < lo or x[j] > hi:\n            return False\n")
 	}
 	b.WriteString("    return True\n")
+}
+
+// writeTerms writes V's evaluation term by term in basin's order of
+// operations (see terms), in one language's syntax: per term, set with
+// the coefficient, mul once per factor, then add.
+func writeTerms(b *strings.Builder, cert *fit.Certificate, set, mul, add string) {
+	for k, fs := range terms(cert, func(j int) string { return fmt.Sprintf("z%d", j) }) {
+		fmt.Fprintf(b, set, num(cert.V.Coefficients[k]))
+		for _, f := range fs {
+			fmt.Fprintf(b, mul, f)
+		}
+		b.WriteString(add)
+	}
 }
 
 // usedVars says which states appear in some V term.
