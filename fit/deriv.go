@@ -249,11 +249,23 @@ func SavitzkyGolayTo(dst, nodes []float64, x0 float64, degree, deriv int) []floa
 	if len(dst) != len(nodes) || degree < 0 || deriv < 0 {
 		panic("fit: SavitzkyGolayTo bad arguments")
 	}
-	if !newSGWork(degree).weights(dst, nodes, x0, deriv) {
+	var buf [4*sgSmallDegree + 3 + (sgSmallDegree+1)*(sgSmallDegree+1)]float64
+	var w sgWork
+	if r := degree + 1; degree <= sgSmallDegree { // scratch on the stack: no allocation
+		w = sgWork{q: degree, mom: buf[:2*degree+1], g: buf[2*degree+1 : 2*degree+1+r],
+			g1: buf[2*degree+1+r : 2*degree+1+2*r], a: buf[2*degree+1+2*r : 2*degree+1+2*r+r*r]}
+	} else {
+		w = *newSGWork(degree)
+	}
+	if !w.weights(dst, nodes, x0, deriv) {
 		return nil
 	}
 	return dst
 }
+
+// sgSmallDegree is the largest degree whose SavitzkyGolayTo scratch lives
+// on the stack.
+const sgSmallDegree = 4
 
 // noiseStd estimates the standard deviation of white measurement noise on
 // one state from its fourth differences, pooled over runs: for a smooth

@@ -548,3 +548,16 @@ func TestSmoothResidual(t *testing.T) {
 		}
 	}
 }
+
+// TestSavitzkyGolayToAllocs: the public weights (used per sample by the
+// held-out derivative check) keep their scratch on the stack up to
+// degree sgSmallDegree.
+func TestSavitzkyGolayToAllocs(t *testing.T) {
+	nodes := centred(6)
+	dst := make([]float64, len(nodes))
+	for deg := 0; deg <= sgSmallDegree; deg++ {
+		if a := testing.AllocsPerRun(100, func() { SavitzkyGolayTo(dst, nodes, 0.1, deg, min(deg, 1)) }); a != 0 {
+			t.Errorf("degree %d: %g allocations a call", deg, a)
+		}
+	}
+}
