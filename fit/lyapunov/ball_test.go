@@ -34,6 +34,9 @@ func TestBallMax(t *testing.T) {
 		// indefinite: the maximum on the ball is at z = 0 or along the
 		// positive eigenvector; lambda_max = 1 here.
 		{"indefinite", NewPoly(2, [][]int{{2, 0}, {0, 2}}, []float64{1, -1}), 1, 1, 1e-12},
+		// affine: 3 + z1 + z2 on |z| <= 2 peaks at 3 + 2·sqrt(2), along
+		// (1, 1) (Cauchy–Schwarz; exact).
+		{"affine", NewPoly(2, [][]int{{0, 0}, {1, 0}, {0, 1}}, []float64{3, 1, 1}), 2, 3 + 2*math.Sqrt2, 1e-12},
 		{"quartic", NewPoly(2, [][]int{{2, 0}, {1, 1}, {0, 2}, {4, 0}, {2, 2}, {0, 3}}, []float64{1, 0.4, 0.5, 3, -2, 1}), 0.2, math.NaN(), 0},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
@@ -63,6 +66,20 @@ func TestBallMax(t *testing.T) {
 			}
 			if pts == 0 || !(seen > 0) {
 				t.Fatalf("grid saw %d points, largest %g", pts, seen)
+			}
+			if math.IsNaN(tc.want) {
+				// The bound exceeds the quadratic part's maximum by at most
+				// the higher terms' bound, and the true maximum falls short
+				// of it by at most as much: got - seen <= 2·sum |c| r^d.
+				higher := 0.0
+				for k, e := range tc.p.E {
+					if d := e[0] + e[1]; d > 2 {
+						higher += math.Abs(tc.p.C[k]) * math.Pow(tc.r, float64(d))
+					}
+				}
+				if !(higher > 0) || !(got-seen <= 2*higher*(1+1e-9)) {
+					t.Errorf("bound %.15g, grid %.15g: slack beyond 2·%.3g", got, seen, higher)
+				}
 			}
 			if !math.IsNaN(tc.want) && tc.p.N == 2 && !scalar.EqualWithinRel(seen, tc.want, 1e-4) {
 				// The grid (0.5° steps) reaches the maximum within

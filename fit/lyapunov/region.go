@@ -79,9 +79,9 @@ type checker struct {
 // wide safety factor, still far below any damping the data could show.
 const nonRiseFloor = 1e-6
 
-// setNonRise switches the checks to the non-rise conditions, for a
-// linearisation with an eigenvalue on the imaginary axis where V cannot
-// fall strictly. V-dot may then be positive by at most vdTol: the rise
+// setNonRise (called by newChecker only, before any check) switches the
+// checks to the non-rise conditions, for a linearisation with an
+// eigenvalue on the imaginary axis where V cannot fall strictly. V-dot may then be positive by at most vdTol: the rise
 // that stays within one pair's noise tolerance over the longest recorded
 // run (a drift the data cannot tell from noise), plus nonRiseFloor.
 // Recorded pairs keep their tolerance; the noise ball, envelope, other

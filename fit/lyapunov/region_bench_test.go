@@ -30,7 +30,7 @@ func regionSetup(b *testing.B, n, samples int) (*checker, []float64) {
 		z.f = append(z.f, Sum([]float64{1 / spread}, Affine(p, shift, scale)))
 	}
 	o := (&Options{}).Defaults()
-	ck, err := newChecker(context.Background(), d, z.system(noise/spread), o)
+	ck, err := newChecker(context.Background(), d, z.system(noise/spread), o, false)
 	if err != nil {
 		b.Fatal(err)
 	}

@@ -298,15 +298,12 @@ func Certify(ctx context.Context, d *Data, sys *System, opts *Options) (*Result,
 	if lin.unstable() {
 		return &Result{Outcome: Unstable, MaxRe: lin.maxRe}, nil
 	}
-	ck, err := newChecker(ctx, d, sys, o)
+	ck, err := newChecker(ctx, d, sys, o, lin.nonRise)
 	if errors.Is(err, ErrDegenerate) {
 		return &Result{Outcome: TrustDegenerate, Err: err, MaxRe: lin.maxRe, NonRise: lin.nonRise}, nil
 	}
 	if err != nil {
 		return nil, err
-	}
-	if lin.nonRise {
-		ck.setNonRise()
 	}
 	res := &Result{MaxRe: lin.maxRe, NonRise: lin.nonRise, NoiseRadius: ck.r0}
 	fam := ck.fam
@@ -565,9 +562,10 @@ func tracef(w io.Writer, format string, a ...any) {
 }
 
 // newChecker builds the checker of the runs d: the trust region, the
-// rays and the Monte-Carlo pool. Its error wraps ErrDegenerate for a
-// collinear library, or is ctx's.
-func newChecker(ctx context.Context, d *Data, sys *System, o Options) (*checker, error) {
+// rays and the Monte-Carlo pool, with the non-rise conditions when
+// nonRise is set (see checker.setNonRise). Its error wraps ErrDegenerate
+// for a collinear library, or is ctx's.
+func newChecker(ctx context.Context, d *Data, sys *System, o Options, nonRise bool) (*checker, error) {
 	n := sys.N
 	all := d.Z
 	runs := make([]zRun, 0, len(d.Runs))
@@ -613,6 +611,9 @@ func newChecker(ctx context.Context, d *Data, sys *System, o Options) (*checker,
 	ck.inside = tr.Inside
 	if o.BallsTrust {
 		ck.inside = ballsTrust(all, runs, n)
+	}
+	if nonRise {
+		ck.setNonRise()
 	}
 	ck.makeRays(rand.New(rand.NewPCG(o.Seed, 4)))
 	ck.makePool(o.ShareSamples, rand.New(rand.NewPCG(o.Seed, 2)))

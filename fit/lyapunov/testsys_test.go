@@ -135,7 +135,7 @@ func vdpDataZ() *Data {
 func mustChecker(tb testing.TB, s *testSystem, d *Data, sigma float64, deg int) *checker {
 	tb.Helper()
 	o := (&Options{Degree: deg}).Defaults()
-	ck, err := newChecker(context.Background(), d, s.system(sigma), o)
+	ck, err := newChecker(context.Background(), d, s.system(sigma), o, false)
 	if err != nil {
 		tb.Fatal(err)
 	}
