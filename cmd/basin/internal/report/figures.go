@@ -238,17 +238,8 @@ func planeFigure(in *Input, pl [2]int, closeUp bool) (*figure, error) {
 	}
 	if len(c.V.Exponents) > 0 && c.Level > 0 {
 		f.contour = regionBoundary(c, a, b, x0, x1, y0, y1)
-		for _, line := range f.contour {
-			xy := make(plotter.XYs, len(line))
-			for k, q := range line {
-				xy[k] = plotter.XY{X: q[0], Y: q[1]}
-			}
-			l, err := plotter.NewLine(xy)
-			if err != nil {
-				return nil, err
-			}
-			l.LineStyle = lineStyle(inkRegion, 2.4)
-			p.Add(l)
+		if err := addLines(p, f.contour, lineStyle(inkRegion, 2.4)); err != nil {
+			return nil, err
 		}
 	}
 	// The other rest points' regions, thinner, in the same ink.
@@ -257,17 +248,11 @@ func planeFigure(in *Input, pl [2]int, closeUp bool) (*figure, error) {
 		if o == c || o == nil || len(o.V.Exponents) == 0 || !(o.Level > 0) || len(o.States) != len(c.States) {
 			continue
 		}
-		for _, line := range regionBoundary(o, a, b, x0, x1, y0, y1) {
-			xy := make(plotter.XYs, len(line))
-			for k, q := range line {
-				xy[k] = plotter.XY{X: q[0], Y: q[1]}
-			}
-			l, err := plotter.NewLine(xy)
-			if err != nil {
-				return nil, err
-			}
-			l.LineStyle = lineStyle(inkRegion, 1.6, 5, 2)
-			p.Add(l)
+		lines := regionBoundary(o, a, b, x0, x1, y0, y1)
+		if err := addLines(p, lines, lineStyle(inkRegion, 1.6, 5, 2)); err != nil {
+			return nil, err
+		}
+		if len(lines) > 0 {
 			f.restRegions = true
 		}
 	}
@@ -314,6 +299,24 @@ func planeFigure(in *Input, pl [2]int, closeUp bool) (*figure, error) {
 		return nil, err
 	}
 	return f, nil
+}
+
+// addLines adds each polyline of lines (points in the plot's data units)
+// to p, drawn in st.
+func addLines(p *plot.Plot, lines [][][2]float64, st draw.LineStyle) error {
+	for _, line := range lines {
+		xy := make(plotter.XYs, len(line))
+		for k, q := range line {
+			xy[k] = plotter.XY{X: q[0], Y: q[1]}
+		}
+		l, err := plotter.NewLine(xy)
+		if err != nil {
+			return err
+		}
+		l.LineStyle = st
+		p.Add(l)
+	}
+	return nil
 }
 
 // regionBoundary returns the contour V(z(x)) = level on the plane (a, b),
