@@ -655,15 +655,7 @@ func (ck *checker) makeRays(rng *rand.Rand) {
 			}
 			u[d/2] = 1 - 2*float64(d%2)
 		} else {
-			r := 0.0
-			for j := range u {
-				u[j] = rng.NormFloat64()
-				r += u[j] * u[j]
-			}
-			r = math.Sqrt(r)
-			for j := range u {
-				u[j] /= r
-			}
+			randomUnit(u, rng)
 		}
 		// First untrusted step, then bisect between it and the last
 		// trusted one.

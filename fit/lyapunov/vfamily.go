@@ -182,16 +182,7 @@ func (f *vFamily) radiallyUnbounded(c []float64, rng *rand.Rand) bool {
 	val := make([]float64, f.lib.Len())
 	work := make([]float64, f.lib.WorkLen())
 	for s := 0; s < 500*f.n; s++ {
-		r := 0.0
-		for j := range u {
-			u[j] = rng.NormFloat64()
-			r += u[j] * u[j]
-		}
-		r = math.Sqrt(r)
-		for j := range u {
-			u[j] /= r
-		}
-		f.lib.EvalWorkTo(val, work, u)
+		f.lib.EvalWorkTo(val, work, randomUnit(u, rng))
 		v := 0.0
 		for k, ck := range c {
 			if f.lib.Degree(k) == top {
@@ -263,6 +254,21 @@ func (e *vEval) vdot(field Field, z []float64) (v, vd float64) {
 		vd += g * e.fbuf[j]
 	}
 	return v, vd
+}
+
+// randomUnit stores in u a direction drawn uniformly from the unit
+// sphere (normalised Gaussian draws) and returns u.
+func randomUnit(u []float64, rng *rand.Rand) []float64 {
+	r := 0.0
+	for j := range u {
+		u[j] = rng.NormFloat64()
+		r += u[j] * u[j]
+	}
+	r = math.Sqrt(r)
+	for j := range u {
+		u[j] /= r
+	}
+	return u
 }
 
 func norm2(z []float64) float64 {
