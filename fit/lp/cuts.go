@@ -242,8 +242,9 @@ const (
 	dualBatch   = 2
 )
 
-// dualMaxPivots is the pivot limit of the dual simplex on a pool of rows.
-func dualMaxPivots(n, rows int) int { return 1000 + 50*(n+rows) }
+// dualMaxPivots is the pivot limit of the dual simplex on a pool of rows
+// (a variable so that a test can make the dual simplex give up).
+var dualMaxPivots = func(n, rows int) int { return 1000 + 50*(n+rows) }
 
 // solveCutsIPM is SolveCuts with the interior-point method, each round
 // from scratch.

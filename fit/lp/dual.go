@@ -31,19 +31,20 @@ const (
 //	minimise c'x  subject to  a_k'x <= b_k
 //
 // over the pool rows and the bounds, in the row (active-set) form that
-// suits few unknowns and many rows (the textbook dual simplex applied to
-// the problem's dual in standard form; Chvátal, Linear Programming, 1983,
-// ch. 10). A basis is n linearly independent constraints held at
+// suits few unknowns and many rows (the textbook dual simplex method,
+// with every row's slack in the standard form's basis but its own n
+// constraints). A basis is n linearly independent constraints held at
 // equality: B has their normals as rows, the vertex is x = B⁻¹b_B and
 // their multipliers y = -B⁻ᵀc. The basis stays dual feasible (y >= 0)
 // throughout, so a row added to the pool keeps the previous optimal basis
-// as a warm start: each pivot brings in a violated constraint r (w =
-// B⁻ᵀa_r) and drops the basic constraint the ratio test min y_k/w_k over
+// as a warm start: each pivot brings in a violated constraint r (by dual
+// steepest edge, see price; w = B⁻ᵀa_r) and drops the basic constraint the ratio test min y_k/w_k over
 // w_k > 0 picks (Harris's two-pass test, the larger pivot among near
 // ties), then updates the explicit B⁻¹ by a rank-one change and
 // refactorises it by LU every refactorEvery pivots. After blandAfter
 // degenerate pivots in a row both choices fall back to Bland's
-// smallest-index rule, which cannot cycle (Bland 1977).
+// smallest-index rule, which cannot cycle (Bland 1977). The costs are
+// perturbed during the dual pivots and restored at their end (see run).
 //
 // The start is the basis of bounds that makes y = |c| >= 0: the lower
 // bound of x_j when c_j > 0, the upper when c_j < 0. Where that bound is

@@ -172,7 +172,7 @@ type Result struct {
 	Z              []float64 // row multipliers, one per row (of all rows in SolveCuts)
 	ZLower, ZUpper []float64 // bound multipliers, one per unknown
 
-	Iterations int // interior-point iterations (summed over rounds in SolveCuts)
+	Iterations int // interior-point iterations, or dual simplex pivots (summed over rounds in SolveCuts)
 
 	// PrimalResidual is the largest violation of a row or bound by X,
 	// max(0, g_i'X - h_i) and the bound excess, in the units of the data.
