@@ -700,17 +700,21 @@ func combineFolds(rel *fit.Certificate, certs []*fit.Certificate) {
 	}
 	switch {
 	case cert > 0 && cert+abstain == k:
+		// saysStable: the reason kept is that of a certified fold of
+		// strength stable, which already says so (Decide's wording).
+		saysStable := rel.Verdict == fit.Certified && rel.Strength == fit.Stable
 		if rel.Verdict != fit.Certified {
 			for _, c := range certs {
 				if c.Verdict == fit.Certified {
 					rel.Reason = "Another fold: " + c.Reason
+					saysStable = c.Strength == fit.Stable
 					break
 				}
 			}
 			rel.Verdict, rel.ReasonKind = fit.Certified, fit.ReasonCertified
 		}
 		rel.Strength = strength
-		if strength == fit.Stable && !strings.Contains(rel.Reason, "stability without shown convergence") {
+		if strength == fit.Stable && !saysStable {
 			rel.Reason += " Another fold's certificate claims only stability, so this one does too."
 		}
 	case 2*rej > k:

@@ -2,6 +2,7 @@ package validate
 
 import (
 	"context"
+	"strings"
 	"testing"
 
 	"basin.example/fit"
@@ -74,5 +75,49 @@ func TestVerdictSeeds(t *testing.T) {
 	}
 	if first != fit.Certified {
 		t.Errorf("the damped oscillator: %s, want certified", first)
+	}
+}
+
+// TestCombineFoldsStrength: the combined certificate claims the weakest
+// strength of the certified folds, and its reason says "only stability"
+// exactly once: from the note when the reason kept is an asymptotic
+// fold's, not again when the kept reason is a stable fold's own.
+func TestCombineFoldsStrength(t *testing.T) {
+	const note = "claims only stability"
+	C, As, St := fit.Certified, fit.Asymptotic, fit.Stable
+	for _, tc := range []struct {
+		name      string
+		verdicts  []fit.Verdict
+		strengths []fit.Strength
+		want      fit.Strength
+		notes     int
+	}{
+		{"all asymptotic", []fit.Verdict{C, C, C}, []fit.Strength{As, As, As}, As, 0},
+		{"another fold stable", []fit.Verdict{C, C, C}, []fit.Strength{As, St, As}, St, 1},
+		{"released stable", []fit.Verdict{C, C, C}, []fit.Strength{St, As, As}, St, 0},
+		{"released abstains, first certified stable", []fit.Verdict{fit.Inconclusive, C, C}, []fit.Strength{fit.NoClaim, St, As}, St, 0},
+		{"released abstains, a later fold stable", []fit.Verdict{fit.Inconclusive, C, C}, []fit.Strength{fit.NoClaim, As, St}, St, 1},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			var certs []*fit.Certificate
+			for i, v := range tc.verdicts {
+				c := &fit.Certificate{Verdict: v, Strength: tc.strengths[i], Reason: "fold reason.", Validation: &fit.Validation{}}
+				if v == fit.Inconclusive {
+					c.ReasonKind = fit.ReasonFewEntered
+				}
+				certs = append(certs, c)
+			}
+			combineFolds(certs[0], certs)
+			got := certs[0]
+			if got.Verdict != C || got.Strength != tc.want {
+				t.Fatalf("verdict %s strength %s, want certified %s (reason %q)", got.Verdict, got.Strength, tc.want, got.Reason)
+			}
+			// a stable fold's own reason says so; here "fold reason." does
+			// not, so count the note only where the kept reason is an
+			// asymptotic fold's
+			if n := strings.Count(got.Reason, note); n != tc.notes {
+				t.Errorf("reason %q says %q %d times, want %d", got.Reason, note, n, tc.notes)
+			}
+		})
 	}
 }
