@@ -182,7 +182,7 @@ func readCSVTable(r io.Reader, name string, opts *Options) (*table, error) {
 	}
 	// Parse: the rest of the first block, then further blocks.
 	lay.index()
-	p := &csvParser{lay: lay, tb: tb}
+	p := &csvParser{lay: lay, tb: tb, sink: opts.csvSink}
 	if eof {
 		c := &chunk{data: rest, line: line}
 		p.parse(c)
@@ -203,7 +203,7 @@ func readCSVTable(r io.Reader, name string, opts *Options) (*table, error) {
 	case interface{ Len() int }:
 		total = int64(v.Len() + n)
 	}
-	if lines := bytes.Count(rest, []byte{'\n'}); total > 0 && lines > 0 && len(rest) > 0 {
+	if lines := bytes.Count(rest, []byte{'\n'}); total > 0 && lines > 0 && len(rest) > 0 && p.sink == nil {
 		est := int(float64(lines)*float64(total)/float64(len(rest))*1.01) + 64
 		if tb.timeIdx > 0 && !tb.dateTime {
 			tb.t = make([]float64, 0, est)
@@ -501,6 +501,7 @@ type csvParser struct {
 	lay  *csvLayout
 	tb   *table
 	bufs chan *chunk // parsed-value buffers for reuse (a free list: sync.Pool empties at each GC)
+	sink func(*table, *chunk) // Options.csvSink
 }
 
 // parallel reads r in blocks after the first one (rest, starting on line)
@@ -611,6 +612,10 @@ func (p *csvParser) parallel(r io.Reader, rest []byte, line int) error {
 
 // merge appends a parsed chunk to the table.
 func (p *csvParser) merge(c *chunk) {
+	if p.sink != nil { // streaming: the chunk goes there instead
+		p.sink(p.tb, c)
+		return
+	}
 	tb := p.tb
 	base := tb.rows
 	for _, m := range c.marks {

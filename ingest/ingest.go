@@ -177,6 +177,11 @@ type Options struct {
 	// Test hooks, set only by the package's own tests and benchmarks.
 	viaArrow     bool          // send every Parquet file through pqarrow (the general path)
 	decodeBudget time.Duration // base time to decode one Parquet file; 0 means parquetBudget
+
+	// csvSink, when set, receives each parsed CSV chunk in order instead
+	// of the table (the Streamer's CSV passes); the chunk's buffers are
+	// reused after it returns.
+	csvSink func(*table, *chunk)
 }
 
 // Errors that can be returned in [ParseError.Err], or alone.

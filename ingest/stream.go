@@ -4,7 +4,6 @@ import (
 	"context"
 	"errors"
 	"fmt"
-	"os"
 	"path/filepath"
 	"strings"
 	"sync"
@@ -25,7 +24,16 @@ type StreamOptions struct {
 	// row group or CSV block at a time. Zero means DefaultWindow; a
 	// negative Window streams every file that can be streamed.
 	Window int
+	// CSVWindow is the largest CSV file, in bytes, read whole in one
+	// pass; a larger one is streamed, parsed once per pass (parsing
+	// costs far more than holding the values, so the window is wider
+	// than for Parquet). Zero means DefaultCSVWindow; negative streams
+	// every CSV file that can be streamed.
+	CSVWindow int64
 }
+
+// DefaultCSVWindow is the default [StreamOptions.CSVWindow].
+const DefaultCSVWindow = 64 << 20
 
 // A Streamer reads log files with the rules of [ReadFile] (the same
 // runs, split at the same gaps, events and resting heads) in memory
@@ -33,8 +41,9 @@ type StreamOptions struct {
 // It holds buffers reused from file to file; it is not safe for
 // concurrent use (make one per goroutine).
 type Streamer struct {
-	opts   Options
-	window int
+	opts      Options
+	window    int
+	csvWindow int64
 	store  *colStore // reused columns for files read whole in one pass
 	src    streamScratch
 }
@@ -42,12 +51,15 @@ type Streamer struct {
 // NewStreamer returns a Streamer that reads with opts (nil: defaults)
 // and so (nil: defaults). opts is copied.
 func NewStreamer(opts *Options, so *StreamOptions) *Streamer {
-	s := &Streamer{window: DefaultWindow, store: &colStore{}}
+	s := &Streamer{window: DefaultWindow, csvWindow: DefaultCSVWindow, store: &colStore{}}
 	if opts != nil {
 		s.opts = *opts
 	}
 	if so != nil && so.Window != 0 {
 		s.window = so.Window
+	}
+	if so != nil && so.CSVWindow != 0 {
+		s.csvWindow = so.CSVWindow
 	}
 	return s
 }
@@ -470,10 +482,3 @@ func (ps *parquetSource) pass(ctx context.Context, fn func(row0 int, t []float64
 	return nil
 }
 
-// openCSVSource: CSV files are read whole (see [StreamFile.Whole]).
-func (s *Streamer) openCSVSource(path string) (source, error) {
-	if _, err := os.Stat(path); err != nil {
-		return nil, err
-	}
-	return nil, &errFallback{"CSV"}
-}

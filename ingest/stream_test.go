@@ -252,6 +252,80 @@ func TestStreamSameRuns(t *testing.T) {
 	}
 }
 
+// writeRigCSV writes the log as CSV, with a comment line every lines
+// rows (0: none) and missing displacements as empty cells.
+func writeRigCSV(t testing.TB, path string, g rigLog, seed uint64, comments int) {
+	t.Helper()
+	tc, x, v, s := g.columns(seed)
+	var b strings.Builder
+	b.WriteString("# rig log\ntime [s],disp [mm],vel [mm/s],slow\n")
+	for i := range tc {
+		if comments > 0 && i%comments == comments-1 {
+			b.WriteString("# marker\n")
+		}
+		xs := ftoa(x[i])
+		if math.IsNaN(x[i]) {
+			xs = ""
+		}
+		b.WriteString(ftoa(tc[i]) + "," + xs + "," + ftoa(v[i]) + "," + ftoa(s[i]) + "\n")
+	}
+	if err := os.WriteFile(path, []byte(b.String()), 0o644); err != nil {
+		t.Fatal(err)
+	}
+}
+
+// TestStreamSameRunsCSV: a streamed CSV file (parsed once per pass, in
+// blocks) gives ReadFile's runs, line numbers included, with comment
+// lines, a time unit to convert and a rate instead of a time column.
+func TestStreamSameRunsCSV(t *testing.T) {
+	g := rigLog{n: 60000, dt: 0.001, sd: 1e-3, head: 3000, hits: []int{9000, 41000}, spike: 15000, gapAt: 25000,
+		missing: []int{5000, 5001, 12345, 59999}}
+	dir := t.TempDir()
+	for _, tc := range []struct {
+		name     string
+		comments int
+		edit     func(string) string
+		opts     Options
+	}{
+		{"plain", 0, nil, Options{}},
+		{"comments", 7777, nil, Options{}},
+		{"milliseconds", 0, func(s string) string { return strings.Replace(s, "time [s]", "time [ms]", 1) }, Options{}},
+		{"rate", 0, func(s string) string { return strings.Replace(s, "time [s]", "clock", 1) },
+			Options{Rate: 1000, States: []string{"disp", "vel", "slow"}}},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			path := filepath.Join(dir, tc.name+".csv")
+			writeRigCSV(t, path, g, 5, tc.comments)
+			if tc.edit != nil {
+				b, err := os.ReadFile(path)
+				if err != nil {
+					t.Fatal(err)
+				}
+				if err := os.WriteFile(path, []byte(tc.edit(string(b))), 0o644); err != nil {
+					t.Fatal(err)
+				}
+			}
+			opts := tc.opts
+			want, err := ReadFile(context.Background(), path, &opts)
+			if err != nil {
+				t.Fatal(err)
+			}
+			sf, got := streamRuns(t, path, &opts, &StreamOptions{CSVWindow: -1})
+			if sf.Whole != "" {
+				t.Fatalf("read whole (%s), not streamed", sf.Whole)
+			}
+			sameRuns(t, got, want.Runs)
+			if len(want.Runs) < 3 {
+				t.Fatalf("%d runs: the log lost its features", len(want.Runs))
+			}
+			if sf.Time != want.Time {
+				t.Errorf("time column %+v, ReadFile %+v", sf.Time, want.Time)
+			}
+			t.Logf("%d runs, %d passes", len(want.Runs), sf.Passes)
+		})
+	}
+}
+
 // TestStreamWindow: a file within the window is read whole into the
 // reused buffers, and gives ReadFile's runs, file after file.
 func TestStreamWindow(t *testing.T) {
@@ -316,13 +390,24 @@ func TestStreamErrors(t *testing.T) {
 	tc2, x2, v2, s2 := rigLog{n: 20000, dt: 0.001, sd: 1e-3}.columns(3)
 	tc2[15000] = tc2[14000]
 	cases["time back"] = writeCols(t, filepath.Join(dir, "back.parquet"), tc2, x2, v2, s2)
+	bad := filepath.Join(dir, "bad.csv")
+	writeRigCSV(t, bad, rigLog{n: 40000, dt: 0.001, sd: 1e-3}, 4, 0)
+	b, err := os.ReadFile(bad)
+	if err != nil {
+		t.Fatal(err)
+	}
+	b = []byte(strings.Replace(string(b), "\n30.", "\n30.0.1", 1)) // a bad number mid-file
+	if err := os.WriteFile(bad, b, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	cases["csv bad number"] = bad
 	for name, path := range cases {
 		t.Run(name, func(t *testing.T) {
 			_, want := ReadFile(context.Background(), path, nil)
 			if want == nil {
 				t.Fatal("ReadFile took the bad file")
 			}
-			_, got := NewStreamer(nil, &StreamOptions{Window: -1}).Open(context.Background(), path)
+			_, got := NewStreamer(nil, &StreamOptions{Window: -1, CSVWindow: -1}).Open(context.Background(), path)
 			if got == nil || got.Error() != want.Error() {
 				t.Fatalf("Open: %v\nReadFile: %v", got, want)
 			}

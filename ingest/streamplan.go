@@ -67,10 +67,11 @@ type plan struct {
 	anyCell []bool // per column: some row has a value
 	lo, hi  []float64
 
-	// noise statistics, for the pieces split at the gaps
-	final  [][2]int
-	stride int
-	acc    []noiseAcc
+	// noise statistics, for the pieces split at the gaps, at each of
+	// the strides
+	final   [][2]int
+	strides []int
+	acc     []noiseAcc
 
 	noise []stateNoise
 	runs  [][2]int
@@ -78,30 +79,46 @@ type plan struct {
 	evs   int
 }
 
-// noiseAcc gathers what noiseOf computes for one state.
+// noiseAcc gathers what noiseOf computes for one state: the jump
+// statistic at every stride-th sample (one list per stride tried), the
+// resolution.
 type noiseAcc struct {
-	all  []float64
+	all  [][]float64
 	q    float64
 	prev [3]float64 // the last three values of the piece
 }
 
 func newPlan(sf *StreamFile, src source, opts *Options) *plan {
-	ns := len(sf.States)
-	base := filepath.Base(sf.File)
-	pl := &plan{sf: sf, src: src, opts: opts, name: base, ns: ns,
-		anyCell: make([]bool, ns), lo: make([]float64, ns), hi: make([]float64, ns), acc: make([]noiseAcc, ns)}
+	return &plan{sf: sf, src: src, opts: opts, name: filepath.Base(sf.File), ns: -1}
+}
+
+// setup sizes the plan for ns states, on the first block of pass 1 (a
+// CSV file's columns are known once its first block is parsed), and
+// picks the strides the noise statistics are gathered at on the guess
+// that no row is missing and no gap splits: the stride for the row count
+// given, or when the count is an estimate, for counts near it.
+func (pl *plan) setup(ns int) {
+	pl.ns = ns
+	pl.anyCell, pl.lo, pl.hi, pl.acc = make([]bool, ns), make([]float64, ns), make([]float64, ns), make([]noiseAcc, ns)
 	for j := range pl.lo {
 		pl.lo[j], pl.hi[j] = math.Inf(1), math.Inf(-1)
 	}
-	return pl
+	g := max(1, pl.src.rowsHint()/noiseSubsample)
+	pl.strides = pl.strides[:0]
+	for d := -2; d <= 2; d++ {
+		if g+d >= 1 {
+			pl.strides = append(pl.strides, g+d)
+		}
+	}
+	pl.resetAcc()
 }
 
 func (pl *plan) run(ctx context.Context) error {
-	guess := pl.src.rowsHint()
-	pl.stride = max(1, guess/noiseSubsample)
-	pl.resetAcc()
 	if err := pl.pass1(ctx); err != nil {
 		return err
+	}
+	if pl.ns < 0 {
+		return &errFallback{"error"} // no data rows
 	}
 	for _, ok := range pl.anyCell {
 		if !ok {
@@ -117,10 +134,13 @@ func (pl *plan) run(ctx context.Context) error {
 	}
 	noGap := !(pl.maxDT > a)
 	wantNoise := !pl.opts.KeepHead || !pl.opts.KeepEvents
-	if noGap && max(1, pl.total/noiseSubsample) == pl.stride {
+	stride := max(1, pl.total/noiseSubsample)
+	pick := slices.Index(pl.strides, stride)
+	if noGap && (pick >= 0 || !wantNoise) {
 		pl.final = pl.pieces
 	} else {
-		pl.stride = max(1, pl.total/noiseSubsample)
+		pl.strides = append(pl.strides[:0], stride)
+		pick = 0
 		pl.resetAcc()
 		if err := pl.pass2(ctx, a, noGap); err != nil {
 			return err
@@ -131,7 +151,7 @@ func (pl *plan) run(ctx context.Context) error {
 	if wantNoise && pl.ns > 0 {
 		pl.noise = make([]stateNoise, pl.ns)
 		for j := range pl.acc {
-			pl.noise[j] = stateNoise{s: robustScale(pl.acc[j].all), quant: pl.acc[j].q, span: pl.hi[j] - pl.lo[j]}
+			pl.noise[j] = stateNoise{s: robustScale(pl.acc[j].all[pick]), quant: pl.acc[j].q, span: pl.hi[j] - pl.lo[j]}
 		}
 		if err := pl.pass3(ctx); err != nil {
 			return err
@@ -153,22 +173,32 @@ func (pl *plan) run(ctx context.Context) error {
 func (pl *plan) resetAcc() {
 	for j := range pl.acc {
 		a := &pl.acc[j]
-		a.all = a.all[:0]
+		for len(a.all) < len(pl.strides) {
+			a.all = append(a.all, nil)
+		}
+		a.all = a.all[:len(pl.strides)]
+		for c := range a.all {
+			a.all[c] = a.all[c][:0]
+		}
 		a.q = math.Inf(1)
 	}
 }
 
 // addNoise feeds the noise statistics the sample v of state j at index q
 // of its piece.
-func (a *noiseAcc) add(v float64, q, stride int) {
+func (a *noiseAcc) add(v float64, q int, strides []int) {
 	if q >= 1 {
 		if d := math.Abs(v - a.prev[2]); d > 0 && d < a.q {
 			a.q = d
 		}
 	}
 	// the jump statistic at i = q-1 needs x[i-2], x[i-1], x[i], x[i+1]
-	if i := q - 1; i >= 2 && (i-2)%stride == 0 {
-		a.all = append(a.all, 1.5*(a.prev[2]-a.prev[1])+0.5*(a.prev[0]-v))
+	if i := q - 1; i >= 2 {
+		for c, stride := range strides {
+			if (i-2)%stride == 0 {
+				a.all[c] = append(a.all[c], 1.5*(a.prev[2]-a.prev[1])+0.5*(a.prev[0]-v))
+			}
+		}
 	}
 	a.prev[0], a.prev[1], a.prev[2] = a.prev[1], a.prev[2], v
 }
@@ -181,6 +211,9 @@ func (pl *plan) pass1(ctx context.Context) error {
 	open := false
 	pl.sf.Passes++
 	return pl.src.pass(ctx, func(row0 int, t []float64, x [][]float64) error {
+		if pl.ns < 0 {
+			pl.setup(len(x))
+		}
 		for k, ti := range t {
 			row := row0 + k
 			ok := ti == ti
@@ -216,7 +249,7 @@ func (pl *plan) pass1(ctx context.Context) error {
 			for j := range x {
 				v := x[j][k]
 				pl.lo[j], pl.hi[j] = min(pl.lo[j], v), max(pl.hi[j], v)
-				pl.acc[j].add(v, q, pl.stride)
+				pl.acc[j].add(v, q, pl.strides)
 			}
 			prevT, prevRow = ti, row
 			pl.total++
@@ -245,13 +278,16 @@ func (pl *plan) pass2(ctx context.Context, a float64, noGap bool) error {
 				k := row - row0
 				ti := t[k]
 				if row == pc[0] || (!noGap && ti-prevT > a) {
+					if len(pl.final) >= maxStreamPieces {
+						return &errFallback{"too many gaps to hold the pieces between them"}
+					}
 					pl.final = append(pl.final, [2]int{row, row})
 				}
 				f := &pl.final[len(pl.final)-1]
 				f[1] = row + 1
 				q := row - f[0]
 				for j := range x {
-					pl.acc[j].add(x[j][k], q, pl.stride)
+					pl.acc[j].add(x[j][k], q, pl.strides)
 				}
 				prevT = ti
 			}
