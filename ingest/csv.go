@@ -501,7 +501,8 @@ type csvParser struct {
 	lay  *csvLayout
 	tb   *table
 	bufs chan *chunk // parsed-value buffers for reuse (a free list: sync.Pool empties at each GC)
-	sink func(*table, *chunk) // Options.csvSink
+	// sink is Options.csvSink
+	sink func(*table, *chunk)
 }
 
 // parallel reads r in blocks after the first one (rest, starting on line)

@@ -44,8 +44,8 @@ type Streamer struct {
 	opts      Options
 	window    int
 	csvWindow int64
-	store  *colStore // reused columns for files read whole in one pass
-	src    streamScratch
+	store     *colStore // reused columns for files read whole in one pass
+	src       streamScratch
 }
 
 // NewStreamer returns a Streamer that reads with opts (nil: defaults)
@@ -481,4 +481,3 @@ func (ps *parquetSource) pass(ctx context.Context, fn func(row0 int, t []float64
 	}
 	return nil
 }
-
