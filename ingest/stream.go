@@ -46,6 +46,7 @@ type Streamer struct {
 	csvWindow int64
 	store     *colStore // reused columns for files read whole in one pass
 	src       streamScratch
+	plan      *plan // the last plan, whose buffers the next one reuses
 }
 
 // NewStreamer returns a Streamer that reads with opts (nil: defaults)
@@ -227,7 +228,8 @@ func (s *Streamer) openStream(ctx context.Context, path string) (*StreamFile, er
 	if rows := src.rowsHint(); rows >= 0 && s.window > 0 && rows <= s.window {
 		return nil, &errFallback{"window"}
 	}
-	pl := newPlan(sf, src, &s.opts)
+	pl := newPlan(sf, src, &s.opts, s.plan)
+	s.plan = pl
 	if err := pl.run(ctx); err != nil {
 		return nil, err
 	}

@@ -326,6 +326,55 @@ func TestStreamSameRunsCSV(t *testing.T) {
 	}
 }
 
+// TestStreamReuse: one Streamer over files of every kind in turn (its
+// buffers reused from plan to plan) gives each file ReadFile's runs.
+func TestStreamReuse(t *testing.T) {
+	dir := t.TempDir()
+	logs := []rigLog{
+		{n: 20000, dt: 0.001, sd: 1e-3},
+		{n: 30000, dt: 0.001, sd: 1e-3, head: 3000, hits: []int{9000, 21000}, spike: 15000, gapAt: 25000, missing: []int{5000, 12345}},
+		{n: 25000, dt: 0.001, sd: 1e-3, gapAt: 8000, missing: []int{3}},
+		{n: 20000, dt: 0.002, sd: 1e-3, jitter: 0.2, head: 500, hits: []int{7000}},
+		{n: 30000, dt: 0.001, sd: 1e-3, head: 3000, hits: []int{9000, 21000}, gapAt: 11000},
+	}
+	s := NewStreamer(nil, &StreamOptions{Window: -1})
+	for round := range 2 {
+		for i, g := range logs {
+			path := filepath.Join(dir, fmt.Sprintf("r%d.parquet", i))
+			if round == 0 {
+				writeRigParquet(t, path, g, uint64(i), 4096, false, false, compress.Codecs.Uncompressed)
+			}
+			want, err := ReadFile(context.Background(), path, nil)
+			if err != nil {
+				t.Fatal(err)
+			}
+			sf, err := s.Open(context.Background(), path)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if sf.Whole != "" {
+				t.Fatalf("%s read whole: %s", path, sf.Whole)
+			}
+			got := make([]Run, len(sf.Runs))
+			for k, r := range sf.Runs {
+				got[k] = Run{Name: r.Name, Source: r.Source, Gaps: r.Gaps, Events: r.Events, X: make([][]float64, len(sf.States))}
+			}
+			err = sf.Scan(context.Background(), func(k int, tt []float64, x [][]float64) error {
+				got[k].T = append(got[k].T, tt...)
+				for j := range x {
+					got[k].X[j] = append(got[k].X[j], x[j]...)
+				}
+				return nil
+			})
+			sf.Close()
+			if err != nil {
+				t.Fatal(err)
+			}
+			sameRuns(t, got, want.Runs)
+		}
+	}
+}
+
 // TestStreamWindow: a file within the window is read whole into the
 // reused buffers, and gives ReadFile's runs, file after file.
 func TestStreamWindow(t *testing.T) {

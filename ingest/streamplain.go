@@ -4,7 +4,12 @@ import (
 	"encoding/binary"
 	"fmt"
 	"math"
+	"unsafe"
 )
+
+// littleEndian says float64 values are stored little-endian in memory,
+// as PLAIN pages hold them.
+var littleEndian = binary.NativeEndian.Uint16([]byte{1, 0}) == 1
 
 // plainFloats is the fast path for a float64 column chunk without
 // definition levels, uncompressed and PLAIN encoded on every page (what
@@ -36,13 +41,18 @@ func (tb *table) plainFloats(buf []byte, dst []float64, row0 int) (ok bool, err 
 		body := buf[pos : pos+int(h.compressed)]
 		pos += int(h.compressed)
 		out := dst[k : k+int(h.values)]
-		for i := range out {
-			out[i] = math.Float64frombits(binary.LittleEndian.Uint64(body[8*i:]))
+		if littleEndian && len(out) > 0 {
+			// the page holds the values' little-endian bytes, as memory does
+			copy(unsafe.Slice((*byte)(unsafe.Pointer(&out[0])), 8*len(out)), body)
+		} else {
+			for i := range out {
+				out[i] = math.Float64frombits(binary.LittleEndian.Uint64(body[8*i:]))
+			}
 		}
 		k += len(out)
 	}
 	for i, x := range dst {
-		if math.IsInf(x, 0) {
+		if x-x != 0 && x == x { // infinite (NaN is a missing sample)
 			return true, &ParseError{File: tb.file, Line: row0 + i + 1, Err: fmt.Errorf("%w: infinite value", ErrNotNumber)}
 		}
 	}

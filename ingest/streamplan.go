@@ -77,6 +77,11 @@ type plan struct {
 	runs  [][2]int
 	gaps  int
 	evs   int
+
+	ed *evDetector
+	hd headState
+	// pass 2's and pass 3's outputs (final may alias pieces, runs final)
+	finalBuf, runBuf [][2]int
 }
 
 // noiseAcc gathers what noiseOf computes for one state: the jump
@@ -88,8 +93,18 @@ type noiseAcc struct {
 	prev [3]float64 // the last three values of the piece
 }
 
-func newPlan(sf *StreamFile, src source, opts *Options) *plan {
-	return &plan{sf: sf, src: src, opts: opts, name: filepath.Base(sf.File), ns: -1}
+// newPlan starts the plan of sf, reusing the buffers of prev (the
+// Streamer's previous plan; nil for none).
+func newPlan(sf *StreamFile, src source, opts *Options, prev *plan) *plan {
+	pl := &plan{sf: sf, src: src, opts: opts, name: filepath.Base(sf.File), ns: -1}
+	if prev != nil {
+		pl.pieces, pl.finalBuf, pl.runBuf = prev.pieces[:0], prev.finalBuf[:0], prev.runBuf[:0]
+		pl.acc, pl.strides, pl.ed, pl.hd = prev.acc, prev.strides[:0], prev.ed, prev.hd
+		pl.anyCell, pl.lo, pl.hi, pl.noise = prev.anyCell, prev.lo, prev.hi, prev.noise
+		pl.hist = dtHist{dense: prev.hist.dense}
+		clear(pl.hist.dense)
+	}
+	return pl
 }
 
 // setup sizes the plan for ns states, on the first block of pass 1 (a
@@ -99,7 +114,10 @@ func newPlan(sf *StreamFile, src source, opts *Options) *plan {
 // given, or when the count is an estimate, for counts near it.
 func (pl *plan) setup(ns int) {
 	pl.ns = ns
-	pl.anyCell, pl.lo, pl.hi, pl.acc = make([]bool, ns), make([]float64, ns), make([]float64, ns), make([]noiseAcc, ns)
+	if len(pl.acc) != ns {
+		pl.anyCell, pl.lo, pl.hi, pl.acc = make([]bool, ns), make([]float64, ns), make([]float64, ns), make([]noiseAcc, ns)
+	}
+	clear(pl.anyCell)
 	for j := range pl.lo {
 		pl.lo[j], pl.hi[j] = math.Inf(1), math.Inf(-1)
 	}
@@ -149,7 +167,9 @@ func (pl *plan) run(ctx context.Context) error {
 	pl.gaps = len(pl.final) - 1
 	pl.runs = pl.final
 	if wantNoise && pl.ns > 0 {
-		pl.noise = make([]stateNoise, pl.ns)
+		if len(pl.noise) != pl.ns {
+			pl.noise = make([]stateNoise, pl.ns)
+		}
 		for j := range pl.acc {
 			pl.noise[j] = stateNoise{s: robustScale(pl.acc[j].all[pick]), quant: pl.acc[j].q, span: pl.hi[j] - pl.lo[j]}
 		}
@@ -203,6 +223,38 @@ func (a *noiseAcc) add(v float64, q int, strides []int) {
 	a.prev[0], a.prev[1], a.prev[2] = a.prev[1], a.prev[2], v
 }
 
+// addSeg is add for the consecutive samples x of one piece, x[0] at
+// index q0 of the piece.
+func (a *noiseAcc) addSeg(x []float64, q0 int, strides []int) {
+	n := len(x)
+	head := min(n, 3)
+	for k := range head {
+		a.add(x[k], q0+k, strides)
+	}
+	if n <= 3 {
+		return
+	}
+	q := a.q
+	for k := 3; k < n; k++ {
+		if d := math.Abs(x[k] - x[k-1]); d > 0 && d < q {
+			q = d
+		}
+	}
+	a.q = q
+	// the jump statistic at piece index i uses x[k-3..k], k = i-q0+1,
+	// for k >= 3 (the first three were added above)
+	for c, stride := range strides {
+		i := q0 + 2 // k = 3
+		if r := (i - 2) % stride; r != 0 {
+			i += stride - r
+		}
+		for k := i - q0 + 1; k < n; k, i = k+stride, i+stride {
+			a.all[c] = append(a.all[c], 1.5*(x[k-1]-x[k-2])+0.5*(x[k-3]-x[k]))
+		}
+	}
+	a.prev[0], a.prev[1], a.prev[2] = x[n-3], x[n-2], x[n-1]
+}
+
 // pass1 finds the pieces, checks time order, fills the step histogram
 // and the noise statistics on the guess of no gap split.
 func (pl *plan) pass1(ctx context.Context) error {
@@ -213,6 +265,59 @@ func (pl *plan) pass1(ctx context.Context) error {
 	return pl.src.pass(ctx, func(row0 int, t []float64, x [][]float64) error {
 		if pl.ns < 0 {
 			pl.setup(len(x))
+		}
+		if len(t) == 0 {
+			return nil
+		}
+		whole := true // no missing cell in the block
+		for _, v := range t {
+			if v != v {
+				whole = false
+				break
+			}
+		}
+		for j := range x {
+			for _, v := range x[j] {
+				if v != v {
+					whole = false
+					break
+				}
+			}
+		}
+		if whole {
+			// the block is one segment of valid rows: column by column
+			for k, ti := range t {
+				if !(ti > prevT) {
+					return &errFallback{"error"} // ErrTimeOrder, as ReadFile words it
+				}
+				if k > 0 || (open && prevRow == row0-1) {
+					dt := ti - prevT
+					pl.hist.add(dt)
+					pl.maxDT = max(pl.maxDT, dt)
+				}
+				prevT = ti
+			}
+			if !(open && prevRow == row0-1) {
+				if len(pl.pieces) >= maxStreamPieces {
+					return &errFallback{"too many missing rows to hold the pieces between them"}
+				}
+				pl.pieces = append(pl.pieces, [2]int{row0, row0})
+			}
+			open = true
+			q0 := row0 - pl.pieces[len(pl.pieces)-1][0]
+			for j := range x {
+				pl.anyCell[j] = true
+				lo, hi := pl.lo[j], pl.hi[j]
+				for _, v := range x[j] {
+					lo, hi = min(lo, v), max(hi, v)
+				}
+				pl.lo[j], pl.hi[j] = lo, hi
+				pl.acc[j].addSeg(x[j], q0, pl.strides)
+			}
+			prevRow = row0 + len(t) - 1
+			pl.total += len(t)
+			pl.pieces[len(pl.pieces)-1][1] = row0 + len(t)
+			return nil
 		}
 		for k, ti := range t {
 			row := row0 + k
@@ -265,7 +370,8 @@ func (pl *plan) pass1(ctx context.Context) error {
 // bound, no step lying between the bounds) and gathers the noise
 // statistics over the split pieces.
 func (pl *plan) pass2(ctx context.Context, a float64, noGap bool) error {
-	pl.final = pl.final[:0]
+	pl.final = pl.finalBuf[:0]
+	defer func() { pl.finalBuf = pl.final }()
 	p := 0 // the piece at or after the current row
 	prevT := 0.0
 	pl.sf.Passes++
@@ -303,9 +409,12 @@ func (pl *plan) pass2(ctx context.Context, a float64, noGap bool) error {
 // pass3 trims the resting head and splits the pieces at events.
 func (pl *plan) pass3(ctx context.Context) error {
 	ns := pl.ns
-	var runs [][2]int
-	hd := headState{}
-	ed := newEvDetector(ns)
+	runs := pl.runBuf[:0]
+	if pl.ed == nil || len(pl.ed.ring) != ns {
+		pl.ed = newEvDetector(ns)
+	}
+	ed := pl.ed
+	hd := &pl.hd
 	p := 0
 	pieceStart := -1 // the first row of piece p given to the detector, or -1
 	startPiece := func(first int) {
@@ -352,7 +461,7 @@ func (pl *plan) pass3(ctx context.Context) error {
 					if pl.opts.KeepEvents {
 						ed.off = true
 					}
-					ed.pushHead(&hd, k)
+					ed.pushHead(hd, k)
 				}
 			} else {
 				if pieceStart < 0 {
@@ -370,7 +479,7 @@ func (pl *plan) pass3(ctx context.Context) error {
 				first = false
 				startPiece(pc[0])
 				ed.off = pl.opts.KeepEvents
-				ed.pushHead(&hd, 0)
+				ed.pushHead(hd, 0)
 			}
 			if err := endPiece(); err != nil {
 				return err
@@ -382,7 +491,7 @@ func (pl *plan) pass3(ctx context.Context) error {
 	if err != nil {
 		return err
 	}
-	pl.runs = runs
+	pl.runs, pl.runBuf = runs, runs
 	return nil
 }
 
@@ -398,8 +507,13 @@ type headState struct {
 
 func (hd *headState) init(ns, n int, noise []stateNoise) {
 	hd.n, hd.noise, hd.end = n, noise, -1
-	hd.buf = make([][]float64, ns)
-	hd.bases = make([]float64, ns)
+	if len(hd.buf) != ns {
+		hd.buf = make([][]float64, ns)
+		hd.bases = make([]float64, ns)
+	}
+	for j := range hd.buf {
+		hd.buf[j] = hd.buf[j][:0]
+	}
 }
 
 // push adds block samples [a, b) of x. done reports the head decided, k
@@ -504,10 +618,10 @@ func (ed *evDetector) push(x [][]float64, a, b int) error {
 	}
 	for a < b {
 		c := min(b, a+evPush)
+		at := ed.have & (evRing - 1)
 		for j, r := range ed.ring {
-			for i, v := range x[j][a:c] {
-				r[(ed.have+i)&(evRing-1)] = v
-			}
+			k := copy(r[at:], x[j][a:c])
+			copy(r, x[j][a+k:c])
 		}
 		ed.have += c - a
 		a = c
@@ -571,10 +685,15 @@ func (ed *evDetector) advance() error {
 		// farthest a judgement at i reads) is in; past the piece's end
 		// nothing more comes.
 		ready := func(i int) bool { return all || i+eventBlock+3 <= ed.have }
+		const m = evRing - 1
 		for ; lp.i < n-1; lp.i++ {
 			i := lp.i
 			if !all && i+evLook > ed.have {
 				break
+			}
+			// far's first test, inline: most samples stop here
+			if v := 1.5*(r[i&m]-r[(i-1)&m]) + 0.5*(r[(i-2)&m]-r[(i+1)&m]); math.Abs(v) <= lp.base {
+				continue
 			}
 			if !far(i) {
 				continue
@@ -636,8 +755,10 @@ func dtKey(dt float64) uint64 { return math.Float64bits(dt) >> 40 }
 
 func (h *dtHist) add(dt float64) {
 	k := dtKey(dt)
-	if h.dense == nil {
-		h.dense = make([]int32, dtDense)
+	if h.n == 0 {
+		if h.dense == nil {
+			h.dense = make([]int32, dtDense)
+		}
 		h.base = max(k, dtDense/2) - dtDense/2
 	}
 	h.n++

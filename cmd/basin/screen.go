@@ -316,6 +316,13 @@ type fileResult struct {
 // error in input order is returned, and stops the files after it.
 func screenFiles(ctx context.Context, cert *fit.Certificate, files []string, iopts *ingest.Options,
 	so *validate.ScreenOptions, workers int) ([]fileResult, error) {
+	return screenFilesWith(ctx, cert, files, iopts, so, workers, nil)
+}
+
+// screenFilesWith is screenFiles with the Streamers' options (nil:
+// defaults), for benchmarks.
+func screenFilesWith(ctx context.Context, cert *fit.Certificate, files []string, iopts *ingest.Options,
+	so *validate.ScreenOptions, workers int, sto *ingest.StreamOptions) ([]fileResult, error) {
 	type worker struct {
 		s   *validate.Screener
 		st  *ingest.Streamer
@@ -323,7 +330,7 @@ func screenFiles(ctx context.Context, cert *fit.Certificate, files []string, iop
 	}
 	res := make([]fileResult, len(files))
 	err := parallel.For(ctx, len(files), workers, func() *worker {
-		return &worker{s: validate.NewScreener(cert, so), st: ingest.NewStreamer(iopts, nil)}
+		return &worker{s: validate.NewScreener(cert, so), st: ingest.NewStreamer(iopts, sto)}
 	}, func(ctx context.Context, i int, w *worker) error {
 		res[i] = screenSafe(func() fileResult { return screenOne(ctx, w.s, w.st, &w.dst, cert, files[i]) }, files[i])
 		return res[i].err

@@ -3,6 +3,7 @@ package main
 import (
 	"context"
 	"fmt"
+	"io"
 	"math"
 	"math/rand/v2"
 	"os"
@@ -23,6 +24,8 @@ import (
 
 	"basin.example/fit"
 	"basin.example/ingest"
+	"basin.example/internal/parallel"
+	"basin.example/validate"
 )
 
 const (
@@ -177,12 +180,51 @@ func writeParquetCols(b *testing.B, path string, dict bool, names []string, cols
 	}
 }
 
+// screenWhole is the screen before streaming, kept for comparison: each
+// file read whole by ingest.ReadFile (a data set per file), then its
+// runs screened, files on workers goroutines.
+func screenWhole(ctx context.Context, cert *fit.Certificate, files []string, iopts *ingest.Options, workers int) (int, error) {
+	var n atomic.Int64
+	err := parallel.For(ctx, len(files), workers, func() *validate.Screener { return validate.NewScreener(cert, nil) },
+		func(ctx context.Context, i int, s *validate.Screener) error {
+			ds, err := ingest.ReadFile(ctx, files[i], iopts)
+			if err != nil {
+				return err
+			}
+			var r validate.RunScreen
+			for k := range ds.Runs {
+				s.Screen(&r, files[i], &ds.Runs[k])
+				n.Add(int64(r.Samples))
+			}
+			return nil
+		})
+	return int(n.Load()), err
+}
+
+// catFiles reads the files' bytes as cat does (io.Copy to io.Discard).
+func catFiles(b *testing.B, paths []string) {
+	for _, p := range paths {
+		f, err := os.Open(p)
+		if err != nil {
+			b.Fatal(err)
+		}
+		if _, err := io.Copy(io.Discard, f); err != nil {
+			b.Fatal(err)
+		}
+		f.Close()
+	}
+}
+
 // BenchmarkScreen measures basin screen end to end (read the files, screen
-// every run) on a quadratic V of 2 and 6 states, Parquet and CSV input,
-// with one and two workers, beside a read of the same files by ingest
-// (read-only) and a plain read of their bytes (cat: os.ReadFile, what cat
-// does), in one run so the ratios are on the same load. The target is at
-// most 10 times cat's time.
+// every run) on a quadratic V of 2 and 6 states, Parquet (Arrow's default
+// dictionary encoding, and plain) and CSV (read whole below the CSV
+// window, and streamed), on GOMAXPROCS workers (run with -cpu 1,2),
+// streamed ("stream") beside the whole-file screen it replaces ("whole")
+// and a cat of the same files (io.Copy to io.Discard). Each reports
+// samples/s, samples per CPU-second (on a shared machine CPU time does
+// not depend on the other load), and x-cat: its CPU time over cat's on
+// the same files, measured in the same benchmark (the target is at
+// most 10).
 func BenchmarkScreen(b *testing.B) {
 	for _, states := range []int{2, 6} {
 		c := benchCert(b, states)
@@ -190,35 +232,49 @@ func BenchmarkScreen(b *testing.B) {
 			dir := b.TempDir()
 			paths, size := benchData(b, dir, format, states, benchFiles, benchRows)
 			n := float64(benchFiles * benchRows)
-			report := func(b *testing.B, cpu0 float64) {
-				b.ReportMetric(n*float64(b.N)/b.Elapsed().Seconds(), "samples/s")
-				// On a shared machine wall time depends on the other load;
-				// samples per CPU-second (user+system, whole process) do
-				// not, and times the cores used give the idle-machine rate.
-				b.ReportMetric(n*float64(b.N)/(cpuSeconds()-cpu0), "samples/cpu-s")
+			// catCPU returns cat's CPU seconds per read of all the files.
+			catCPU := func(b *testing.B) float64 {
+				const reps = 20
+				cpu0 := cpuSeconds()
+				for range reps {
+					catFiles(b, paths)
+				}
+				return (cpuSeconds() - cpu0) / reps
 			}
+			report := func(b *testing.B, cpu0 float64) {
+				cpu := (cpuSeconds() - cpu0) / float64(b.N)
+				b.ReportMetric(n*float64(b.N)/b.Elapsed().Seconds(), "samples/s")
+				b.ReportMetric(n/cpu, "samples/cpu-s")
+				b.ReportMetric(cpu/catCPU(b), "x-cat")
+			}
+			opts, _ := (&inputFlags{}).options()
+			opts.States = c.States
 			name := fmt.Sprintf("states=%d/%s", states, format)
 			b.Run(name+"/cat", func(b *testing.B) {
 				b.SetBytes(size)
 				cpu0 := cpuSeconds()
 				for b.Loop() {
-					for _, p := range paths {
-						if _, err := os.ReadFile(p); err != nil {
-							b.Fatal(err)
-						}
-					}
+					catFiles(b, paths)
 				}
 				report(b, cpu0)
 			})
-			for _, workers := range []int{1, 2} {
-				b.Run(fmt.Sprintf("%s/workers=%d", name, workers), func(b *testing.B) {
-					opts, _ := (&inputFlags{}).options()
-					opts.States = c.States
+			modes := []struct {
+				name string
+				sto  *ingest.StreamOptions
+			}{{"stream", nil}, {"window", &ingest.StreamOptions{Window: 1 << 20}}}
+			if format == "csv" {
+				modes = append(modes, struct {
+					name string
+					sto  *ingest.StreamOptions
+				}{"stream-csv", &ingest.StreamOptions{CSVWindow: -1}})
+			}
+			for _, m := range modes {
+				b.Run(name+"/"+m.name, func(b *testing.B) {
 					b.SetBytes(size)
 					b.ReportAllocs()
 					cpu0 := cpuSeconds()
 					for b.Loop() {
-						res, err := screenFiles(context.Background(), c, paths, opts, nil, workers)
+						res, err := screenFilesWith(context.Background(), c, paths, opts, nil, 0, m.sto)
 						if err != nil {
 							b.Fatal(err)
 						}
@@ -229,19 +285,17 @@ func BenchmarkScreen(b *testing.B) {
 					report(b, cpu0)
 				})
 			}
-			// The same files only read (no screening), one worker: the
-			// share of the time that is ingest's.
-			b.Run(name+"/read-only", func(b *testing.B) {
-				opts, _ := (&inputFlags{}).options()
-				opts.States = c.States
+			b.Run(name+"/whole", func(b *testing.B) {
 				b.SetBytes(size)
 				b.ReportAllocs()
 				cpu0 := cpuSeconds()
 				for b.Loop() {
-					for _, p := range paths {
-						if _, err := ingest.ReadFile(context.Background(), p, opts); err != nil {
-							b.Fatal(err)
-						}
+					got, err := screenWhole(context.Background(), c, paths, opts, 0)
+					if err != nil {
+						b.Fatal(err)
+					}
+					if got != benchFiles*benchRows {
+						b.Fatalf("screened %d samples", got)
 					}
 				}
 				report(b, cpu0)
@@ -250,48 +304,57 @@ func BenchmarkScreen(b *testing.B) {
 	}
 }
 
-// BenchmarkScreenMemory screens one Parquet file of growing size with one
-// worker and reports the peak heap in use (sampled every millisecond)
-// and its ratio to the file's size: the memory a screen needs per file.
+// BenchmarkScreenMemory screens one plain Parquet file of growing size
+// (row groups of 64 Ki rows) with one worker, streamed and whole, and
+// reports the peak heap in use above the start (sampled every
+// millisecond) and its ratio to the file's size.
 func BenchmarkScreenMemory(b *testing.B) {
 	c := benchCert(b, 2)
 	for _, rows := range []int{100_000, 400_000, 1_600_000} {
 		dir := b.TempDir()
 		paths, size := benchData(b, dir, "parquet-plain", 2, 1, rows)
-		b.Run(fmt.Sprintf("rows=%d", rows), func(b *testing.B) {
-			opts, _ := (&inputFlags{}).options()
-			opts.States = c.States
-			runtime.GC()
-			var base runtime.MemStats
-			runtime.ReadMemStats(&base)
-			var peak atomic.Uint64
-			stop := make(chan struct{})
-			done := make(chan struct{})
-			go func() {
-				defer close(done)
-				var ms runtime.MemStats
-				for {
-					select {
-					case <-stop:
-						return
-					case <-time.After(time.Millisecond):
+		opts, _ := (&inputFlags{}).options()
+		opts.States = c.States
+		for _, mode := range []string{"stream", "whole"} {
+			b.Run(fmt.Sprintf("rows=%d/%s", rows, mode), func(b *testing.B) {
+				runtime.GC()
+				var base runtime.MemStats
+				runtime.ReadMemStats(&base)
+				var peak atomic.Uint64
+				stop := make(chan struct{})
+				done := make(chan struct{})
+				go func() {
+					defer close(done)
+					var ms runtime.MemStats
+					for {
+						select {
+						case <-stop:
+							return
+						case <-time.After(time.Millisecond):
+						}
+						runtime.ReadMemStats(&ms)
+						if h := ms.HeapInuse; h > peak.Load() {
+							peak.Store(h)
+						}
 					}
-					runtime.ReadMemStats(&ms)
-					if h := ms.HeapInuse; h > peak.Load() {
-						peak.Store(h)
+				}()
+				for b.Loop() {
+					var err error
+					if mode == "stream" {
+						_, err = screenFiles(context.Background(), c, paths, opts, nil, 1)
+					} else {
+						_, err = screenWhole(context.Background(), c, paths, opts, 1)
+					}
+					if err != nil {
+						b.Fatal(err)
 					}
 				}
-			}()
-			for b.Loop() {
-				if _, err := screenFiles(context.Background(), c, paths, opts, nil, 1); err != nil {
-					b.Fatal(err)
-				}
-			}
-			close(stop)
-			<-done
-			grow := float64(peak.Load()) - float64(base.HeapInuse)
-			b.ReportMetric(grow/1e6, "peak-heap-MB")
-			b.ReportMetric(grow/float64(size), "peak-heap/file-size")
-		})
+				close(stop)
+				<-done
+				grow := float64(peak.Load()) - float64(base.HeapInuse)
+				b.ReportMetric(grow/1e6, "peak-heap-MB")
+				b.ReportMetric(grow/float64(size), "peak-heap/file-size")
+			})
+		}
 	}
 }
