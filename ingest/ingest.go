@@ -10,6 +10,11 @@
 //
 // Bad input is reported as a [*ParseError] naming file, line and column,
 // wrapping one of the sentinel errors below; I/O errors stay *fs.PathError.
+//
+// A [Streamer] gives the runs [ReadFile] gives without holding a file's
+// samples: it plans them in passes over the file, a Parquet row group or
+// CSV block at a time, in memory bounded by a row group, and
+// [StreamFile.Scan] visits their samples.
 package ingest
 
 import (

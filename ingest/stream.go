@@ -7,7 +7,6 @@ import (
 	"path/filepath"
 	"strings"
 	"sync"
-	"time"
 )
 
 // DefaultWindow is the default [StreamOptions.Window]: files of at most
@@ -352,14 +351,19 @@ func (tc *timeConv) convert(t []float64) {
 // parquetSource streams a Parquet file read by readDirect's decoder, one
 // row group at a time into reused buffers.
 type parquetSource struct {
-	po    *pqFile
-	s     *streamScratch
-	jobs  []*colJob // time (unless a rate), then the states
-	tIdx  int       // index of the time job, -1 with a rate
-	conv  *timeConv
-	pool  sync.Pool
-	start time.Time
+	po   *pqFile
+	s    *streamScratch
+	jobs []*colJob // time (unless a rate), then the states
+	tIdx int       // index of the time job, -1 with a rate
+	conv *timeConv
+	pool sync.Pool
+	// noTime leaves the time column out of a pass (see skipTime)
+	noTime bool
 }
+
+// skipTime says the next passes do not read the times (pass 3 of the
+// plan): their column is not decoded, and t holds stale values.
+func (ps *parquetSource) skipTime(on bool) { ps.noTime = on }
 
 func (s *Streamer) openParquetSource(path string) (source, error) {
 	po, err := openParquet(path, &s.opts)
@@ -454,6 +458,9 @@ func (ps *parquetSource) pass(ctx context.Context, fn func(row0 int, t []float64
 		}
 		for q, jb := range ps.jobs {
 			cur = q
+			if q == ps.tIdx && ps.noTime {
+				continue // t keeps stale values: the pass does not read them
+			}
 			if q == ps.tIdx {
 				jb.dst = t
 			} else {
@@ -469,11 +476,13 @@ func (ps *parquetSource) pass(ctx context.Context, fn func(row0 int, t []float64
 			}
 		}
 		cur = -1
-		if ps.tIdx < 0 {
+		switch {
+		case ps.noTime:
+		case ps.tIdx < 0:
 			for k := range t {
 				t[k] = float64(row0+k) / tb.rate
 			}
-		} else {
+		default:
 			ps.conv.convert(t)
 		}
 		if err := fn(row0, t, x); err != nil {

@@ -445,6 +445,10 @@ func (pl *plan) pass3(ctx context.Context) error {
 		hd.init(ns, pl.final[0][1]-pl.final[0][0], pl.noise)
 	}
 	pl.sf.Passes++
+	if ts, ok := pl.src.(interface{ skipTime(bool) }); ok {
+		ts.skipTime(true) // heads and events need the states only
+		defer ts.skipTime(false)
+	}
 	err := pl.src.pass(ctx, func(row0 int, t []float64, x [][]float64) error {
 		end := row0 + len(t)
 		for p < len(pl.final) && pl.final[p][0] < end {

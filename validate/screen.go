@@ -3,12 +3,11 @@ package validate
 import (
 	"context"
 	"math"
-	"runtime"
-	"sync"
 
 	"basin.example/fit"
 	"basin.example/fit/poly"
 	"basin.example/ingest"
+	"basin.example/internal/parallel"
 )
 
 // tailMax is the largest number of samples averaged at each end of a run
@@ -693,42 +692,15 @@ func (s *Screener) grad(z []float64) []float64 {
 }
 
 // ScreenRuns screens every run of ds against cert on up to GOMAXPROCS
-// goroutines and returns the results in run order. It stops early with
-// ctx's error when ctx is done.
+// goroutines (internal/parallel, a Screener each) and returns the results
+// in run order. It stops early with ctx's error when ctx is done.
 func ScreenRuns(ctx context.Context, cert *fit.Certificate, ds *ingest.Dataset, opts *ScreenOptions) ([]RunScreen, error) {
 	out := make([]RunScreen, len(ds.Runs))
-	workers := min(runtime.GOMAXPROCS(0), len(ds.Runs))
-	if workers <= 1 {
-		s := NewScreener(cert, opts)
-		for i := range ds.Runs {
-			if err := ctx.Err(); err != nil {
-				return nil, err
-			}
+	err := parallel.For(ctx, len(ds.Runs), 0, func() *Screener { return NewScreener(cert, opts) },
+		func(ctx context.Context, i int, s *Screener) error {
 			s.Screen(&out[i], ds.Runs[i].Source.File, &ds.Runs[i])
-		}
-		return out, nil
-	}
-	var wg sync.WaitGroup
-	next := make(chan int)
-	for k := 0; k < workers; k++ {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			s := NewScreener(cert, opts)
-			for i := range next {
-				s.Screen(&out[i], ds.Runs[i].Source.File, &ds.Runs[i])
-			}
-		}()
-	}
-	var err error
-	for i := range ds.Runs {
-		if err = ctx.Err(); err != nil {
-			break
-		}
-		next <- i
-	}
-	close(next)
-	wg.Wait()
+			return nil
+		})
 	if err != nil {
 		return nil, err
 	}

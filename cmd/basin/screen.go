@@ -71,15 +71,16 @@ the partition columns, run, file, samples, flagged, rises, leaves,
 unsettled, slow, never_inside and decay_rate.
 
 Each worker screens one file at a time, in buffers reused from file to
-file. A Parquet file of more than 65,536 rows is streamed: read a row
-group at a time in three to five passes (the runs' boundaries, their
-noise, then the screen), so memory stays bounded by a row group per
-worker however large the file; the runs, and so the flags, are exactly
-those of reading it whole. Smaller Parquet files are read whole in one
-pass; CSV files, and files that cannot be streamed exactly (with
---run-col, --from/--to or --inputs, date-time stamps, a gap limit the
-whole column must decide, a resting head longer than 65,536 samples),
-are read whole, so memory then grows with the largest such file.
+file. A Parquet file of more than 65,536 rows, or a CSV file above
+64 MiB, is streamed: read a row group (or CSV block) at a time in three
+to five passes (the runs' boundaries, their noise, then the screen), so
+memory stays bounded by a row group per worker however large the file;
+the runs, and so the flags, are exactly those of reading it whole.
+Smaller files are read whole in one pass; files that cannot be streamed
+exactly (with --run-col, --from/--to or --inputs, date-time stamps,
+stdin, a gap limit only the whole column decides, a resting head longer
+than 65,536 samples) are read whole, so memory then grows with the
+largest such file.
 The state columns are the certificate's, in its order, unless --states
 says otherwise. Exit status 1 when any run is flagged.`,
 }

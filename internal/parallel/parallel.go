@@ -12,9 +12,8 @@
 // otherwise end the process with exit code 2, the contract's code for bad
 // input).
 //
-// The screen pool in validate/screen.go is being rewritten for streaming
-// by its owners and does not use this package yet; it should, once that
-// rewrite lands.
+// basin screen's file pool (cmd/basin/screen.go) and validate.ScreenRuns
+// use it too.
 package parallel
 
 import (
