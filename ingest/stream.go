@@ -23,6 +23,11 @@ type StreamOptions struct {
 	// row group or CSV block at a time. Zero means DefaultWindow; a
 	// negative Window streams every file that can be streamed.
 	Window int
+	// Prefetch decodes a streamed Parquet file's next row group on
+	// another goroutine while the current one is processed: parallel
+	// over row groups, for when there are fewer files than cores. False
+	// means one goroutine per file.
+	Prefetch bool
 	// CSVWindow is the largest CSV file, in bytes, read whole in one
 	// pass; a larger one is streamed, parsed once per pass (parsing
 	// costs far more than holding the values, so the window is wider
@@ -40,6 +45,7 @@ const DefaultCSVWindow = 64 << 20
 // It holds buffers reused from file to file; it is not safe for
 // concurrent use (make one per goroutine).
 type Streamer struct {
+	prefetch  bool
 	opts      Options
 	window    int
 	csvWindow int64
@@ -57,6 +63,9 @@ func NewStreamer(opts *Options, so *StreamOptions) *Streamer {
 	}
 	if so != nil && so.Window != 0 {
 		s.window = so.Window
+	}
+	if so != nil {
+		s.prefetch = so.Prefetch
 	}
 	if so != nil && so.CSVWindow != 0 {
 		s.csvWindow = so.CSVWindow
@@ -312,9 +321,8 @@ type source interface {
 
 // streamScratch is a Streamer's buffers for streamed sources.
 type streamScratch struct {
-	t  []float64
-	x  [][]float64
-	sc []colScratch
+	bufs [2]groupBuf
+	sc   []colScratch
 }
 
 // timeConv converts a block of numeric times to seconds as
@@ -359,6 +367,8 @@ type parquetSource struct {
 	pool sync.Pool
 	// noTime leaves the time column out of a pass (see skipTime)
 	noTime bool
+	// prefetch decodes the next row group while fn runs on this one
+	prefetch bool
 }
 
 // skipTime says the next passes do not read the times (pass 3 of the
@@ -370,7 +380,7 @@ func (s *Streamer) openParquetSource(path string) (source, error) {
 	if err != nil {
 		return nil, &errFallback{"error"}
 	}
-	ps := &parquetSource{po: po, s: &s.src, tIdx: -1}
+	ps := &parquetSource{po: po, s: &s.src, tIdx: -1, prefetch: s.prefetch}
 	if !po.direct {
 		po.f.Close()
 		return nil, &errFallback{"the general Parquet decoder"}
@@ -414,81 +424,156 @@ func (ps *parquetSource) line(row int) int { return row + 1 }
 
 func (ps *parquetSource) close() error { return ps.po.f.Close() }
 
-func (ps *parquetSource) pass(ctx context.Context, fn func(row0 int, t []float64, x [][]float64) error) (err error) {
-	po := ps.po
-	tb := po.tb
+func (ps *parquetSource) pass(ctx context.Context, fn func(row0 int, t []float64, x [][]float64) error) error {
 	sc := ps.s
 	for len(sc.sc) < len(ps.jobs) {
 		sc.sc = append(sc.sc, colScratch{})
 	}
-	ns := len(tb.states)
-	if len(sc.x) < ns {
-		sc.x = make([][]float64, ns)
+	ng := ps.po.pr.NumRowGroups()
+	if !ps.prefetch {
+		row0 := 0
+		for i := 0; i < ng; i++ {
+			if err := ctx.Err(); err != nil {
+				return err
+			}
+			g := &sc.bufs[0]
+			rows, err := ps.decode(i, row0, g)
+			if err != nil {
+				return err
+			}
+			if rows > 0 {
+				if err := fn(row0, g.t, g.x); err != nil {
+					return err
+				}
+			}
+			row0 += rows
+		}
+		return nil
 	}
-	x := sc.x[:ns]
-	cur := -1 // the job decoding, for a panic's message
+	// Row groups are decoded one ahead on another goroutine, into two
+	// buffers taken in turn.
+	type group struct {
+		row0, rows int
+		g          *groupBuf
+		err        error
+	}
+	done := make(chan struct{})
+	out := make(chan group, 1)
+	free := make(chan *groupBuf, 2)
+	free <- &sc.bufs[0]
+	free <- &sc.bufs[1]
+	var wg sync.WaitGroup
+	wg.Add(1)
+	go func() {
+		defer wg.Done()
+		defer close(out)
+		row0 := 0
+		for i := 0; i < ng; i++ {
+			var g *groupBuf
+			select {
+			case g = <-free:
+			case <-done:
+				return
+			}
+			rows, err := 0, ctx.Err()
+			if err == nil {
+				rows, err = ps.decode(i, row0, g)
+			}
+			select {
+			case out <- group{row0, rows, g, err}:
+			case <-done:
+				return
+			}
+			if err != nil {
+				return
+			}
+			row0 += rows
+		}
+	}()
+	defer wg.Wait() // the decoder's scratch is free for the next pass
+	defer close(done)
+	for r := range out {
+		if r.err != nil {
+			return r.err
+		}
+		if r.rows > 0 {
+			if err := fn(r.row0, r.g.t, r.g.x); err != nil {
+				return err
+			}
+		}
+		free <- r.g
+	}
+	return nil
+}
+
+// groupBuf holds one decoded row group: times and states.
+type groupBuf struct {
+	t []float64
+	x [][]float64
+}
+
+// decode decodes row group i, whose first row is row0, into g and
+// returns its row count. A panic in the decoder (corrupt data that the
+// checks let through) is an error.
+func (ps *parquetSource) decode(i, row0 int, g *groupBuf) (rows int, err error) {
+	po := ps.po
+	tb := po.tb
+	sc := ps.s
+	cur := 0 // the job decoding, for a panic's message
 	defer func() {
 		if p := recover(); p != nil {
 			for i := range sc.sc {
 				sc.sc[i].pages = nil // their state is unknown
 			}
-			jb := ps.jobs[max(cur, 0)]
-			err = jb.bad(tb.file, po.cols[jb.j], "corrupt Parquet data (%v)", p)
+			jb := ps.jobs[cur]
+			rows, err = 0, jb.bad(tb.file, po.cols[jb.j], "corrupt Parquet data (%v)", p)
 		}
 	}()
-	md := po.pr.MetaData()
-	row0 := 0
-	for i := 0; i < po.pr.NumRowGroups(); i++ {
-		if err := ctx.Err(); err != nil {
-			return err
-		}
-		rows := int(md.RowGroup(i).NumRows())
-		if rows == 0 {
-			continue
-		}
-		if cap(sc.t) < rows {
-			sc.t = make([]float64, rows)
-		}
-		t := sc.t[:rows]
-		for k := range x {
-			if cap(x[k]) < rows {
-				x[k] = make([]float64, rows)
-			}
-			x[k] = x[k][:rows]
-		}
-		for q, jb := range ps.jobs {
-			cur = q
-			if q == ps.tIdx && ps.noTime {
-				continue // t keeps stale values: the pass does not read them
-			}
-			if q == ps.tIdx {
-				jb.dst = t
-			} else {
-				jb.dst = x[q-ps.tIdx-1]
-			}
-			jb.base = row0
-			n, err := tb.readGroup(po.f, po.pr, jb, po.cols[jb.j], &sc.sc[q], &ps.pool, po.size, i, 0)
-			if err != nil {
-				return err
-			}
-			if n != rows {
-				return jb.bad(tb.file, po.cols[jb.j], "row group %d: %d values for %d rows", i, n, rows)
-			}
-		}
-		cur = -1
-		switch {
-		case ps.noTime:
-		case ps.tIdx < 0:
-			for k := range t {
-				t[k] = float64(row0+k) / tb.rate
-			}
-		default:
-			ps.conv.convert(t)
-		}
-		if err := fn(row0, t, x); err != nil {
-			return err
-		}
-		row0 += rows
+	rows = int(po.pr.MetaData().RowGroup(i).NumRows())
+	if rows == 0 {
+		return 0, nil
 	}
-	return nil
+	ns := len(tb.states)
+	if len(g.x) != ns {
+		g.x = make([][]float64, ns)
+	}
+	if cap(g.t) < rows {
+		g.t = make([]float64, rows)
+	}
+	g.t = g.t[:rows]
+	for k := range g.x {
+		if cap(g.x[k]) < rows {
+			g.x[k] = make([]float64, rows)
+		}
+		g.x[k] = g.x[k][:rows]
+	}
+	for q, jb := range ps.jobs {
+		cur = q
+		if q == ps.tIdx && ps.noTime {
+			continue // t keeps stale values: the pass does not read them
+		}
+		if q == ps.tIdx {
+			jb.dst = g.t
+		} else {
+			jb.dst = g.x[q-ps.tIdx-1]
+		}
+		jb.base = row0
+		n, err := tb.readGroup(po.f, po.pr, jb, po.cols[jb.j], &sc.sc[q], &ps.pool, po.size, i, 0)
+		if err != nil {
+			return 0, err
+		}
+		if n != rows {
+			return 0, jb.bad(tb.file, po.cols[jb.j], "row group %d: %d values for %d rows", i, n, rows)
+		}
+	}
+	switch {
+	case ps.noTime:
+	case ps.tIdx < 0:
+		for k := range g.t {
+			g.t[k] = float64(row0+k) / tb.rate
+		}
+	default:
+		ps.conv.convert(g.t)
+	}
+	return rows, nil
 }

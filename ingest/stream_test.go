@@ -246,6 +246,9 @@ func TestStreamSameRuns(t *testing.T) {
 				if len(want.Runs) == 0 {
 					t.Fatal("no runs")
 				}
+				// decoding one row group ahead on another goroutine
+				_, got = streamRuns(t, path, &opts, &StreamOptions{Window: -1, Prefetch: true})
+				sameRuns(t, got, want.Runs)
 				t.Logf("%d runs, %d gaps, %d events, %d heads, %d passes", len(want.Runs), want.Gaps, len(want.Events), len(want.Heads), sf.Passes)
 			})
 		}
@@ -456,7 +459,7 @@ func TestStreamErrors(t *testing.T) {
 			if want == nil {
 				t.Fatal("ReadFile took the bad file")
 			}
-			_, got := NewStreamer(nil, &StreamOptions{Window: -1, CSVWindow: -1}).Open(context.Background(), path)
+			_, got := NewStreamer(nil, &StreamOptions{Window: -1, CSVWindow: -1, Prefetch: name == "infinite"}).Open(context.Background(), path)
 			if got == nil || got.Error() != want.Error() {
 				t.Fatalf("Open: %v\nReadFile: %v", got, want)
 			}

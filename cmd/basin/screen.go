@@ -329,6 +329,10 @@ func screenFilesWith(ctx context.Context, cert *fit.Certificate, files []string,
 		st  *ingest.Streamer
 		dst []validate.RunScreen
 	}
+	if sto == nil && len(files) < parallel.Workers(workers) {
+		// spare cores: decode each file's next row group on one of them
+		sto = &ingest.StreamOptions{Prefetch: true}
+	}
 	res := make([]fileResult, len(files))
 	err := parallel.For(ctx, len(files), workers, func() *worker {
 		return &worker{s: validate.NewScreener(cert, so), st: ingest.NewStreamer(iopts, sto)}
