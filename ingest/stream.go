@@ -293,11 +293,10 @@ func (sf *StreamFile) Scan(ctx context.Context, fn func(k int, t []float64, x []
 		}
 		return nil
 	})
-	if err != nil {
-		var fb *errFallback
-		if errors.As(err, &fb) {
-			return &ParseError{File: sf.File, Err: fmt.Errorf("%w: the file changed while it was read", ErrFormat)}
-		}
+	var fb *errFallback
+	if (err == nil && k != len(sf.Runs)) || errors.As(err, &fb) {
+		// fewer rows than planned, or a source that now refuses to stream
+		return &ParseError{File: sf.File, Err: fmt.Errorf("%w: the file changed while it was read", ErrFormat)}
 	}
 	return err
 }

@@ -488,3 +488,27 @@ func writeCols(t *testing.T, path string, cols ...[]float64) string {
 	writeArrowParquet(t, path, rec, 4096)
 	return path
 }
+
+// TestStreamFileChanged: a streamed file cut short between the plan and
+// the scan is an error, not a screen of fewer samples.
+func TestStreamFileChanged(t *testing.T) {
+	path := filepath.Join(t.TempDir(), "log.csv")
+	writeRigCSV(t, path, rigLog{n: 20000, dt: 0.001, sd: 1e-3}, 3, 0)
+	sf, err := NewStreamer(nil, &StreamOptions{CSVWindow: -1}).Open(context.Background(), path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer sf.Close()
+	b, err := os.ReadFile(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	cut := strings.LastIndexByte(string(b[:len(b)/2]), '\n') + 1 // whole lines
+	if err := os.WriteFile(path, b[:cut], 0o644); err != nil {
+		t.Fatal(err)
+	}
+	err = sf.Scan(context.Background(), func(int, []float64, [][]float64) error { return nil })
+	if err == nil || !strings.Contains(err.Error(), "changed while it was read") {
+		t.Fatalf("Scan of a file cut short: %v", err)
+	}
+}
