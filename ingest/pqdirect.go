@@ -122,6 +122,7 @@ type colJob struct {
 
 // colScratch is one worker's reused buffers.
 type colScratch struct {
+	dict  []float64 // plainFloats' dictionary
 	chunk []byte
 	defs  []int16
 	i32   []int32
@@ -276,7 +277,7 @@ func (tb *table) readGroup(f *os.File, pr *file.Reader, jb *colJob, c Column,
 		return 0, bad("row group %d: %v", i, err)
 	}
 	if jb.kind == kindFloat64 && descr.MaxDefinitionLevel() == 0 && cc.Compression() == compress.Codecs.Uncompressed {
-		if ok, err := tb.plainFloats(buf, jb.dst[off:off+rows], jb.base+off); err != nil {
+		if ok, err := tb.plainFloats(buf, jb.dst[off:off+rows], jb.base+off, &sc.dict); err != nil {
 			pe := err.(*ParseError)
 			pe.Column, pe.Name = jb.j+1, c.Name
 			return 0, pe

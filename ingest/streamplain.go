@@ -4,6 +4,7 @@ import (
 	"encoding/binary"
 	"fmt"
 	"math"
+	"slices"
 	"unsafe"
 )
 
@@ -12,42 +13,72 @@ import (
 var littleEndian = binary.NativeEndian.Uint16([]byte{1, 0}) == 1
 
 // plainFloats is the fast path for a float64 column chunk without
-// definition levels, uncompressed and PLAIN encoded on every page (what
-// writers produce when dictionary encoding is off, or once it has given
-// up on noisy data): the values are copied straight from the pages into
-// dst, whose length is the chunk's value count. ok is false, and dst
-// unspecified, when a page is of another kind (a dictionary page, another
-// encoding, v2 levels): the caller then decodes the chunk in full. The
-// page headers have been checked by checkChunk. An infinite value is a
-// *ParseError on row row0+k+1.
-func (tb *table) plainFloats(buf []byte, dst []float64, row0 int) (ok bool, err error) {
+// definition levels and uncompressed (what writers produce for logged
+// numbers with compression off): PLAIN pages are copied straight into
+// dst, whose length is the chunk's value count, and dictionary-encoded
+// pages (a PLAIN dictionary page, then RLE_DICTIONARY or PLAIN_DICTIONARY
+// data pages: Arrow's default until its dictionary fills) are looked up
+// in the dictionary as they are unpacked. ok is false, and dst
+// unspecified, on anything else or anything inconsistent (another
+// encoding, v2 levels, an index outside the dictionary): the caller then
+// decodes the chunk with Arrow's reader, which reports what is wrong.
+// The page headers have been checked by checkChunk. An infinite value is
+// a *ParseError on row row0+k+1.
+func (tb *table) plainFloats(buf []byte, dst []float64, row0 int, dict *[]float64) (ok bool, err error) {
 	pos, k := 0, 0
+	*dict = (*dict)[:0]
 	for k < len(dst) {
 		h, n, err := parsePageHeader(buf[pos:])
 		if err != nil {
 			return false, nil
 		}
 		pos += n
-		if h.encoding != encPlain || h.compressed != h.uncompressed || h.values < 0 ||
-			int64(h.compressed) != 8*int64(h.values) || int64(h.compressed) > int64(len(buf)-pos) || int(h.values) > len(dst)-k {
+		if h.compressed != h.uncompressed || h.values < 0 || int64(h.compressed) > int64(len(buf)-pos) {
 			return false, nil
 		}
+		body := buf[pos : pos+int(h.compressed)]
+		pos += int(h.compressed)
 		switch {
+		case h.typ == pageDictionary:
+			// encoding is not parsed for dictionary pages: it is PLAIN
+			// (or PLAIN_DICTIONARY, the same bytes) for float64
+			if len(*dict) > 0 || int64(len(body)) != 8*int64(h.values) {
+				return false, nil
+			}
+			d := slices.Grow((*dict)[:0], int(h.values))[:h.values]
+			for i := range d {
+				d[i] = math.Float64frombits(binary.LittleEndian.Uint64(body[8*i:]))
+			}
+			*dict = d
+			continue
 		case h.typ == pageData:
 		case h.typ == pageDataV2 && h.levels == 0 && !h.v2Compressed:
 		default:
 			return false, nil
 		}
-		body := buf[pos : pos+int(h.compressed)]
-		pos += int(h.compressed)
+		if int(h.values) > len(dst)-k {
+			return false, nil
+		}
 		out := dst[k : k+int(h.values)]
-		if littleEndian && len(out) > 0 {
-			// the page holds the values' little-endian bytes, as memory does
-			copy(unsafe.Slice((*byte)(unsafe.Pointer(&out[0])), 8*len(out)), body)
-		} else {
-			for i := range out {
-				out[i] = math.Float64frombits(binary.LittleEndian.Uint64(body[8*i:]))
+		switch h.encoding {
+		case encPlain:
+			if int64(len(body)) != 8*int64(h.values) {
+				return false, nil
 			}
+			if littleEndian && len(out) > 0 {
+				// the page holds the values' little-endian bytes, as memory does
+				copy(unsafe.Slice((*byte)(unsafe.Pointer(&out[0])), 8*len(out)), body)
+			} else {
+				for i := range out {
+					out[i] = math.Float64frombits(binary.LittleEndian.Uint64(body[8*i:]))
+				}
+			}
+		case encPlainDict, encRLEDict:
+			if len(*dict) == 0 || !unpackDict(out, body, *dict) {
+				return false, nil
+			}
+		default:
+			return false, nil
 		}
 		k += len(out)
 	}
@@ -57,6 +88,90 @@ func (tb *table) plainFloats(buf []byte, dst []float64, row0 int) (ok bool, err 
 		}
 	}
 	return true, nil
+}
+
+// Dictionary encodings (Encoding.PLAIN_DICTIONARY, RLE_DICTIONARY).
+const (
+	encPlainDict = 2
+	encRLEDict   = 8
+)
+
+// unpackDict fills out from a dictionary-encoded data page body: a byte
+// giving the bit width, then the indices in the RLE / bit-packed hybrid
+// of the Parquet format (runs whose varint header says, in its low bit,
+// bit-packed groups of 8 or one repeated value), each looked up in dict.
+// It returns false on anything inconsistent.
+func unpackDict(out []float64, body []byte, dict []float64) bool {
+	if len(body) < 1 {
+		return false
+	}
+	bw := int(body[0])
+	if bw > 32 {
+		return false
+	}
+	p := 1
+	k := 0
+	nd := uint64(len(dict))
+	for k < len(out) {
+		hdr, n := binary.Uvarint(body[p:])
+		if n <= 0 {
+			return false
+		}
+		p += n
+		if hdr&1 == 0 { // a run of one value, in ceil(bw/8) bytes
+			cnt := hdr >> 1
+			nb := (bw + 7) / 8
+			if p+nb > len(body) || cnt > uint64(len(out)-k) {
+				return false
+			}
+			var v uint64
+			for i := range nb {
+				v |= uint64(body[p+i]) << (8 * i)
+			}
+			p += nb
+			if v >= nd {
+				return false
+			}
+			x := dict[v]
+			for i := range int(cnt) {
+				out[k+i] = x
+			}
+			k += int(cnt)
+			continue
+		}
+		groups := hdr >> 1 // of 8 values, bw bits each, least significant bit first
+		if groups > uint64(len(body)) {
+			return false
+		}
+		nbytes := int(groups) * bw
+		if p+nbytes > len(body) {
+			return false
+		}
+		vals := int(groups) * 8
+		var acc uint64
+		bits := 0
+		q := p
+		mask := uint64(1)<<bw - 1
+		for i := 0; i < vals; i++ {
+			for bits < bw {
+				acc |= uint64(body[q]) << bits
+				q++
+				bits += 8
+			}
+			v := acc & mask
+			acc >>= bw
+			bits -= bw
+			if k < len(out) { // the last group may pad past the page's values
+				if v >= nd {
+					return false
+				}
+				out[k] = dict[v]
+				k++
+			}
+		}
+		p += nbytes
+	}
+	return true
 }
 
 // colStore is column storage reused from file to file: slot 0 for time,
