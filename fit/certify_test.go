@@ -13,6 +13,7 @@ import (
 
 	"gonum.org/v1/gonum/floats"
 	"gonum.org/v1/gonum/floats/scalar"
+	"gonum.org/v1/gonum/mat"
 	"gonum.org/v1/gonum/stat"
 
 	"basin.example/ingest"
@@ -257,20 +258,20 @@ func TestCertifyVanDerPol(t *testing.T) {
 // ±pi. The model is a least-squares odd polynomial for sin on
 // [-4.5, 4.5] (degree 7), whose zeros near ±pi are its other equilibria.
 func pendulumSystem(t *testing.T) *certSystem {
-	// Least squares for sin x ~ a1 x + a3 x³ + a5 x⁵ + a7 x⁷ on a grid.
-	var ata [4][4]float64
-	var atb [4]float64
-	for i := -900; i <= 900; i++ {
-		x := 4.5 * float64(i) / 900
-		phi := [4]float64{x, x * x * x, math.Pow(x, 5), math.Pow(x, 7)}
-		for a := 0; a < 4; a++ {
-			for b := 0; b < 4; b++ {
-				ata[a][b] += phi[a] * phi[b]
-			}
-			atb[a] += phi[a] * math.Sin(x)
-		}
+	// Least squares for sin x ~ a1 x + a3 x³ + a5 x⁵ + a7 x⁷ on a grid,
+	// solved by gonum's QR (mat.Dense.Solve on the tall design matrix).
+	const n = 1801
+	design, rhs := mat.NewDense(n, 4, nil), mat.NewVecDense(n, nil)
+	for i := 0; i < n; i++ {
+		x := 4.5 * float64(i-900) / 900
+		design.SetRow(i, []float64{x, x * x * x, math.Pow(x, 5), math.Pow(x, 7)})
+		rhs.SetVec(i, math.Sin(x))
 	}
-	k := solve4(ata, atb)
+	var sol mat.VecDense
+	if err := sol.SolveVec(design, rhs); err != nil {
+		t.Fatalf("least squares for sin: %v", err)
+	}
+	k := sol.RawVector().Data
 	poly7 := func(x float64) float64 { return k[0]*x + k[1]*x*x*x + k[2]*math.Pow(x, 5) + k[3]*math.Pow(x, 7) }
 	// Newton for the zeros near ±pi.
 	root := math.Pi
@@ -293,34 +294,6 @@ func pendulumSystem(t *testing.T) *certSystem {
 		eq:     []float64{0, 0},
 		others: [][]float64{{root, 0}, {-root, 0}},
 	}
-}
-
-func solve4(a [4][4]float64, b [4]float64) [4]float64 {
-	for c := 0; c < 4; c++ {
-		p := c
-		for r := c + 1; r < 4; r++ {
-			if math.Abs(a[r][c]) > math.Abs(a[p][c]) {
-				p = r
-			}
-		}
-		a[c], a[p] = a[p], a[c]
-		b[c], b[p] = b[p], b[c]
-		for r := 0; r < 4; r++ {
-			if r == c {
-				continue
-			}
-			f := a[r][c] / a[c][c]
-			for j := c; j < 4; j++ {
-				a[r][j] -= f * a[c][j]
-			}
-			b[r] -= f * b[c]
-		}
-	}
-	var x [4]float64
-	for i := range x {
-		x[i] = b[i] / a[i][i]
-	}
-	return x
 }
 
 // The double-well oscillator x1' = x2, x2' = x1 - x1³ - 0.5 x2: wells at
