@@ -128,17 +128,7 @@ func streamRuns(t *testing.T, path string, opts *Options, so *StreamOptions) (*S
 		t.Fatalf("Open: %v", err)
 	}
 	defer sf.Close()
-	runs := make([]Run, len(sf.Runs))
-	for k, r := range sf.Runs {
-		runs[k] = Run{Name: r.Name, Source: r.Source, Gaps: r.Gaps, Events: r.Events, X: make([][]float64, len(sf.States))}
-	}
-	err = sf.Scan(context.Background(), func(k int, tt []float64, x [][]float64) error {
-		runs[k].T = append(runs[k].T, tt...)
-		for j := range x {
-			runs[k].X[j] = append(runs[k].X[j], x[j]...)
-		}
-		return nil
-	})
+	runs, err := scanRuns(sf)
 	if err != nil {
 		t.Fatalf("Scan: %v", err)
 	}
@@ -148,6 +138,22 @@ func streamRuns(t *testing.T, path string, opts *Options, so *StreamOptions) (*S
 		}
 	}
 	return sf, runs
+}
+
+// scanRuns collects the samples of sf's planned runs through Scan.
+func scanRuns(sf *StreamFile) ([]Run, error) {
+	runs := make([]Run, len(sf.Runs))
+	for k, r := range sf.Runs {
+		runs[k] = Run{Name: r.Name, Source: r.Source, Gaps: r.Gaps, Events: r.Events, X: make([][]float64, len(sf.States))}
+	}
+	err := sf.Scan(context.Background(), func(k int, tt []float64, x [][]float64) error {
+		runs[k].T = append(runs[k].T, tt...)
+		for j := range x {
+			runs[k].X[j] = append(runs[k].X[j], x[j]...)
+		}
+		return nil
+	})
+	return runs, err
 }
 
 // sameRuns compares runs field by field and sample by sample (bit for
@@ -358,17 +364,7 @@ func TestStreamReuse(t *testing.T) {
 			if sf.Whole != "" {
 				t.Fatalf("%s read whole: %s", path, sf.Whole)
 			}
-			got := make([]Run, len(sf.Runs))
-			for k, r := range sf.Runs {
-				got[k] = Run{Name: r.Name, Source: r.Source, Gaps: r.Gaps, Events: r.Events, X: make([][]float64, len(sf.States))}
-			}
-			err = sf.Scan(context.Background(), func(k int, tt []float64, x [][]float64) error {
-				got[k].T = append(got[k].T, tt...)
-				for j := range x {
-					got[k].X[j] = append(got[k].X[j], x[j]...)
-				}
-				return nil
-			})
+			got, err := scanRuns(sf)
 			sf.Close()
 			if err != nil {
 				t.Fatal(err)

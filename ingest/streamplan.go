@@ -190,6 +190,16 @@ func (pl *plan) run(ctx context.Context) error {
 	return nil
 }
 
+// openPiece starts a piece of consecutive rows at row, or gives up
+// streaming when there are too many pieces to hold.
+func (pl *plan) openPiece(row int) error {
+	if len(pl.pieces) >= maxStreamPieces {
+		return &errFallback{"too many missing rows to hold the pieces between them"}
+	}
+	pl.pieces = append(pl.pieces, [2]int{row, row})
+	return nil
+}
+
 func (pl *plan) resetAcc() {
 	for j := range pl.acc {
 		a := &pl.acc[j]
@@ -298,10 +308,9 @@ func (pl *plan) pass1(ctx context.Context) error {
 				prevT = ti
 			}
 			if !(open && prevRow == row0-1) {
-				if len(pl.pieces) >= maxStreamPieces {
-					return &errFallback{"too many missing rows to hold the pieces between them"}
+				if err := pl.openPiece(row0); err != nil {
+					return err
 				}
-				pl.pieces = append(pl.pieces, [2]int{row0, row0})
 			}
 			open = true
 			q0 := row0 - pl.pieces[len(pl.pieces)-1][0]
@@ -344,10 +353,9 @@ func (pl *plan) pass1(ctx context.Context) error {
 				pl.hist.add(dt)
 				pl.maxDT = max(pl.maxDT, dt)
 			} else {
-				if len(pl.pieces) >= maxStreamPieces {
-					return &errFallback{"too many missing rows to hold the pieces between them"}
+				if err := pl.openPiece(row); err != nil {
+					return err
 				}
-				pl.pieces = append(pl.pieces, [2]int{row, row})
 				open = true
 			}
 			q := row - pl.pieces[len(pl.pieces)-1][0]
