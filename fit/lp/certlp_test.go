@@ -52,28 +52,36 @@ func TestCertLPCutsMatchWhole(t *testing.T) {
 
 // BenchmarkCertificateLP runs SolveCuts on the certificate LP shapes of
 // the side-by-side comparison (make bench-lp, which also times HiGHS on
-// the same rows), and the whole LP solved at once by Solve. SetBytes is
+// the same rows), with the dual simplex and with the interior point, and
+// the whole LP solved at once by Solve. SetBytes is
 // the size of the whole dense LP, so MB/s compares shapes.
 func BenchmarkCertificateLP(b *testing.B) {
 	for _, bc := range certlp.Cases {
 		c := bc.LP()
 		obj, lo, up := c.Bounds()
 		size := int64(c.Len()) * int64(c.Unknowns()) * 8
-		b.Run(bc.Name()+"/cuts", func(b *testing.B) {
-			b.SetBytes(size)
-			b.ReportAllocs()
-			var r *lp.Result
-			for b.Loop() {
-				var err error
-				if r, err = lp.SolveCuts(obj, c, lo, up, nil); err != nil {
-					b.Fatal(err)
+		// The dual simplex (the default) and the interior point in the
+		// same cutting-plane loop, side by side.
+		for _, m := range []struct {
+			name   string
+			method lp.Method
+		}{{"cuts", lp.Auto}, {"cuts-ipm", lp.InteriorPoint}} {
+			b.Run(bc.Name()+"/"+m.name, func(b *testing.B) {
+				b.SetBytes(size)
+				b.ReportAllocs()
+				var r *lp.Result
+				for b.Loop() {
+					var err error
+					if r, err = lp.SolveCuts(obj, c, lo, up, &lp.CutOptions{Method: m.method}); err != nil {
+						b.Fatal(err)
+					}
 				}
-			}
-			b.ReportMetric(float64(r.Rounds), "rounds")
-			b.ReportMetric(float64(r.Iterations), "iters")
-			b.ReportMetric(float64(len(r.Active)), "active")
-			b.ReportMetric(-r.Objective, "g")
-		})
+				b.ReportMetric(float64(r.Rounds), "rounds")
+				b.ReportMetric(float64(r.Iterations), "iters")
+				b.ReportMetric(float64(len(r.Active)), "active")
+				b.ReportMetric(-r.Objective, "g")
+			})
+		}
 		// The whole LP at once with Solve (the rows are generated outside
 		// the timed loop).
 		b.Run(bc.Name()+"/whole", func(b *testing.B) {

@@ -241,3 +241,103 @@ func TestDualInfeasibleUnbounded(t *testing.T) {
 		})
 	}
 }
+
+// TestDualBadInput: NaN or misplaced infinities give ErrInvalid from the
+// dual simplex loop as from Solve, whether the bad row is in the first
+// restricted problem or only met in a pass; a row with h = +Inf is no
+// constraint.
+func TestDualBadInput(t *testing.T) {
+	nan, inf := math.NaN(), math.Inf(1)
+	for _, tc := range []struct {
+		name    string
+		p       *lp.Problem
+		initial int
+	}{
+		{"NaN in G, first rows", &lp.Problem{C: []float64{1}, G: []float64{nan}, H: []float64{1}}, 1},
+		{"NaN in H, met in a pass", &lp.Problem{C: []float64{-1}, G: []float64{1, 1, 1}, H: []float64{nan, 3, 2}}, 1},
+		// Initial 1 of 3 rows starts with row 1 (x <= 3); row 0 is met in the first pass.
+		{"NaN in G, met in a pass", &lp.Problem{C: []float64{-1}, G: []float64{nan, 1, 1}, H: []float64{1, 3, 2}}, 1},
+		{"NaN in C", &lp.Problem{C: []float64{nan}}, 0},
+		{"-Inf in H", &lp.Problem{C: []float64{1}, G: []float64{1}, H: []float64{-inf}}, 1},
+		{"+Inf lower bound", &lp.Problem{C: []float64{1}, Lower: []float64{inf}}, 0},
+		{"-Inf upper bound", &lp.Problem{C: []float64{1}, Upper: []float64{-inf}}, 0},
+		{"Inf in G, met in a pass", &lp.Problem{C: []float64{-1}, G: []float64{-inf, 1, 1}, H: []float64{1, 3, 2}}, 1},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			r, err := lp.SolveCuts(tc.p.C, lp.DenseRows{G: tc.p.G, H: tc.p.H}, tc.p.Lower, tc.p.Upper, dualOnly(tc.initial, 1))
+			if !errors.Is(err, lp.ErrInvalid) || r != nil {
+				t.Fatalf("got %v, %v; want ErrInvalid", r, err)
+			}
+		})
+	}
+	r, err := lp.SolveCuts([]float64{-1}, lp.DenseRows{G: []float64{1, 1}, H: []float64{inf, 2}}, nil, nil, dualOnly(0, 0))
+	if err != nil || !scalar.EqualWithinAbs(r.X[0], 2, 1e-12) || r.Z[0] != 0 || r.Method != lp.DualSimplex {
+		t.Errorf("h = +Inf row: %v %v", r, err)
+	}
+}
+
+// degenerateRandom is a random LP built to be degenerate: every row
+// passes through x0 (so x0 is a vertex of many more than n tight rows),
+// some rows repeat, and the objective is a non-negative combination of
+// a few rows' normals, so the optimum is x0 with several optimal bases
+// (by construction: c = -sum y_i g_i with y >= 0 on rows tight at x0).
+func degenerateRandom(rng *rand.Rand, n, m int) *lp.Problem {
+	x0 := make([]float64, n)
+	for j := range x0 {
+		x0[j] = rng.NormFloat64()
+	}
+	p := &lp.Problem{C: make([]float64, n), Lower: make([]float64, n), Upper: make([]float64, n)}
+	for j := range p.Lower {
+		p.Lower[j], p.Upper[j] = x0[j]-2, x0[j]+2
+	}
+	for i := 0; i < m; i++ {
+		g := make([]float64, n)
+		if i > 0 && rng.IntN(5) == 0 { // a repeated row
+			copy(g, p.G[(i-1)*n:i*n])
+		} else {
+			for j := range g {
+				g[j] = rng.NormFloat64()
+			}
+		}
+		p.G = append(p.G, g...)
+		p.H = append(p.H, floats.Dot(g, x0))
+		if i < 2*n && rng.IntN(2) == 0 {
+			floats.AddScaled(p.C, -rng.Float64(), g)
+		}
+	}
+	return p
+}
+
+// TestDualDegenerate: on degenerate LPs (many rows tight at the optimum,
+// repeated rows, several optimal bases; and a zero objective, where every
+// feasible point is optimal) the dual simplex ends at the optimum the
+// construction gives, c'x0, and passes the KKT check.
+func TestDualDegenerate(t *testing.T) {
+	rng := rand.New(rand.NewPCG(23, 0))
+	for _, sz := range [][2]int{{3, 200}, {10, 2000}, {30, 3000}} {
+		p := degenerateRandom(rng, sz[0], sz[1])
+		// The optimum: x0 is feasible (every row tight), and c = -G'y with
+		// y >= 0, so c'x >= c'x0 on the feasible set.
+		x0 := make([]float64, sz[0])
+		for j := range x0 {
+			x0[j] = p.Lower[j] + 2
+		}
+		want := floats.Dot(p.C, x0)
+		zero := &lp.Problem{C: make([]float64, sz[0]), G: p.G, H: p.H, Lower: p.Lower, Upper: p.Upper}
+		for _, q := range []*lp.Problem{p, zero} {
+			r, err := lp.SolveCuts(q.C, lp.DenseRows{G: q.G, H: q.H}, q.Lower, q.Upper, dualOnly(0, 0))
+			if err != nil {
+				t.Fatalf("%dx%d: %v", sz[1], sz[0], err)
+			}
+			w := want
+			if q == zero {
+				w = 0
+			}
+			// A vertex: rounding error of the data's size.
+			if !scalar.EqualWithinAbsOrRel(r.Objective, w, 1e-10, 1e-10) {
+				t.Errorf("%dx%d: objective %.15g, want %.15g", sz[1], sz[0], r.Objective, w)
+			}
+			checkKKT(t, q, r, 1e-9)
+		}
+	}
+}
