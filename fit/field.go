@@ -63,6 +63,12 @@ type FieldOptions struct {
 // kept.
 const DefaultDerivative = DerivAuto
 
+// MinRunSamples is the fewest samples a run must have for its
+// derivatives (the derivative window): [Field] refuses a shorter run
+// (ErrShortRun), and readers can leave out shorter pieces of split
+// recordings with it (ingest.Options.MinPiece).
+const MinRunSamples = minWindow
+
 // constantShare: an equation whose held-out error is at least this share
 // of its rate's spread explains under 1 - 0.95² ≈ 10% of the variance:
 // no better than a constant, and it is flagged.

@@ -98,6 +98,9 @@ type Dataset struct {
 	// Dropped counts samples dropped at events: spikes, and pieces of
 	// fewer than 3 samples between two event cuts.
 	Dropped int
+	// ShortPieces counts the pieces of split recordings left out for
+	// having fewer than Options.MinPiece samples.
+	ShortPieces int
 	// Window counts, when Options.From or Options.To is set, the
 	// recordings left out because no sample fell in the time window.
 	Window int
@@ -176,6 +179,13 @@ type Options struct {
 	// KeepEvents keeps a run whole across a one-sample jump far beyond
 	// the noise (see [Event]). False means the run is split there.
 	KeepEvents bool
+	// MinPiece leaves out the pieces of a split recording (cut at a gap
+	// or an event, see [Run.Gaps] and [Run.Events]) that have fewer than
+	// MinPiece samples: a piece the split made too short to use is not
+	// the logger's fault. Their samples are counted in
+	// [Dataset.ShortPieces], with one warning. A recording that was never
+	// split is kept whatever its length. Zero means keep every piece.
+	MinPiece int
 	// Stdin is read for the input "-". Nil means os.Stdin.
 	Stdin io.Reader `json:"-"`
 

@@ -251,8 +251,41 @@ func finish(ds *Dataset, opts *Options) error {
 			ds.Window, ds.Window+ds.recordings(), windowText(opts.From, opts.To)))
 	}
 	warnEvents(ds)
+	dropShortPieces(ds, opts.MinPiece)
 	warnConstantInputs(ds)
 	return nil
+}
+
+// dropShortPieces leaves out the pieces of split recordings with fewer
+// than minLen samples, with one warning naming the first.
+func dropShortPieces(ds *Dataset, minLen int) {
+	if minLen <= 0 {
+		return
+	}
+	kept := ds.Runs[:0]
+	var first *Run
+	samples := 0
+	for _, r := range ds.Runs {
+		if r.Len() < minLen && r.Len() > 0 && r.Gaps+r.Events > 0 {
+			if first == nil {
+				first = &Run{Name: r.Name, Source: r.Source, T: r.T}
+			}
+			ds.ShortPieces++
+			samples += r.Len()
+			continue
+		}
+		kept = append(kept, r)
+	}
+	clear(ds.Runs[len(kept):])
+	ds.Runs = kept
+	switch {
+	case ds.ShortPieces == 1:
+		ds.Warnings = append(ds.Warnings, fmt.Sprintf("a piece of a split recording has %d samples, fewer than %d, and is left out: %s from %g s",
+			samples, minLen, first.Name, first.T[0]))
+	case ds.ShortPieces > 1:
+		ds.Warnings = append(ds.Warnings, fmt.Sprintf("%d pieces of split recordings have fewer than %d samples and are left out (%d samples; %s from %g s first)",
+			ds.ShortPieces, minLen, samples, first.Name, first.T[0]))
+	}
 }
 
 // warnEvents sums up the events and resting heads in one warning line

@@ -9,6 +9,7 @@ import (
 	"time"
 
 	"basin.example/cmd/basin/internal/human"
+	"basin.example/fit"
 	"basin.example/ingest"
 )
 
@@ -45,6 +46,9 @@ func loadInputs(ctx context.Context, e *env, f *inputFlags, quiet bool, args []s
 		return nil, err
 	}
 	opts.Stdin = e.stdin
+	// a piece too short for a derivative, made by splitting at a gap or
+	// an event, is left out with a warning rather than failing the fit
+	opts.MinPiece = fit.MinRunSamples
 	ds, err := ingest.Load(ctx, args, opts)
 	if err != nil {
 		return nil, classify(err, "")
