@@ -115,19 +115,55 @@ type Head struct {
 }
 
 // jumpStat stores in dst[i], for 2 <= i < len(x)-1, the jump statistic
-// s_i = d_i - (d_{i-1} + d_{i+1})/2 with d_i = x_i - x_{i-1}: the step
-// between two samples less the mean step on either side. Smooth motion
-// gives s near h^3 x”'/2 (h the time step); a step of J at i gives J at
-// i and -J/2 beside it; white noise of deviation sigma gives deviation
-// sqrt(5) sigma (coefficients 3/2, -3/2, 1/2, -1/2). The ends are 0.
-func jumpStat(dst, x []float64) []float64 {
+// of [jumpAt] at sample i of x, sampled at times t. The ends are 0.
+func jumpStat(dst, x, t []float64) []float64 {
 	n := len(x)
 	dst = slices.Grow(dst[:0], n)[:n]
 	clear(dst)
 	for i := 2; i < n-1; i++ {
-		dst[i] = 1.5*(x[i]-x[i-1]) + 0.5*(x[i-2]-x[i+1])
+		dst[i] = jumpAt(x[i-2], x[i-1], x[i], x[i+1], t[i-2], t[i-1], t[i], t[i+1])
 	}
 	return dst
+}
+
+// jumpAt is the jump statistic s at sample 2 of the four samples x0..x3
+// taken at times t0..t3: the step x2 - x1 less the step that the mean of
+// the slopes on either side predicts for its duration,
+//
+//	s = d2 - (a d1 + b d3)/2,  d_k = x_k - x_{k-1},  a = h2/h1,  b = h2/h3
+//
+// (h_k = t_k - t_{k-1}), scaled by sqrt(5/v), v = (1+b/2)^2 + (1+a/2)^2 +
+// (a^2+b^2)/4 the variance of s under white noise of unit deviation, so
+// that white noise of deviation sigma gives s the deviation sqrt(5) sigma
+// on any clock. On an even clock (a = b = 1) it is the plain
+// d2 - (d1+d3)/2 = 3/2 (x2-x1) + 1/2 (x0-x3): smooth motion gives s near
+// h^3 x3/2 (x3 the third derivative), and a step of J at 2 gives J there
+// and -J/2 beside it. On an uneven clock, motion at a constant slope
+// gives 0 and a constant curvature x2 gives h2 (h1-h3) x2/2, where the
+// index-based statistic gave the slope times the step's departure from
+// its neighbours' mean: on a logger whose clock jitters by 30 % the fast
+// start of a run looked like a jump.
+func jumpAt(x0, x1, x2, x3, t0, t1, t2, t3 float64) float64 {
+	h1, h2, h3 := t1-t0, t2-t1, t3-t2
+	if h1 == h2 && h2 == h3 {
+		return 1.5*(x2-x1) + 0.5*(x0-x3)
+	}
+	a, b := h2/h1, h2/h3
+	s := (x2 - x1) - 0.5*(a*(x1-x0)+b*(x3-x2))
+	v := (1+b/2)*(1+b/2) + (1+a/2)*(1+a/2) + (a*a+b*b)/4
+	return s * math.Sqrt(5/v)
+}
+
+// stepSize is the size of a step at sample i of x, sampled at t, whose
+// jump statistic is s: s itself on an even clock, else s unscaled (see
+// [jumpAt]), so that a step of J gives J on any clock.
+func stepSize(s float64, x, t []float64, i int) float64 {
+	h1, h2, h3 := t[i-1]-t[i-2], t[i]-t[i-1], t[i+1]-t[i]
+	if h1 == h2 && h2 == h3 {
+		return s
+	}
+	a, b := h2/h1, h2/h3
+	return (x[i] - x[i-1]) - 0.5*(a*(x[i-1]-x[i-2])+b*(x[i+1]-x[i]))
 }
 
 // robustScale returns madGauss times the median absolute deviation of v
@@ -184,7 +220,7 @@ func (tb *table) noiseOf(pieces [][][2]int, ns int) []stateNoise {
 		q := math.Inf(1)
 		lo, hi := math.Inf(1), math.Inf(-1)
 		for _, p := range pieces {
-			x := pieceValues(tb.x[j], p)
+			x, t := pieceValues(tb.x[j], p), pieceValues(tb.t, p)
 			// the span and the resolution in one pass (minMax's order)
 			a, b := x[0], x[0]
 			for i := 1; i < len(x); i++ {
@@ -196,7 +232,7 @@ func (tb *table) noiseOf(pieces [][][2]int, ns int) []stateNoise {
 			}
 			lo, hi = min(lo, a), max(hi, b)
 			for i := 2; i < len(x)-1; i += stride {
-				all = append(all, 1.5*(x[i]-x[i-1])+0.5*(x[i-2]-x[i+1]))
+				all = append(all, jumpAt(x[i-2], x[i-1], x[i], x[i+1], t[i-2], t[i-1], t[i], t[i+1]))
 			}
 		}
 		out[j] = stateNoise{s: robustScale(all), quant: q, span: hi - lo}
@@ -230,12 +266,13 @@ func (tb *table) findEvents(ds *Dataset, name string, p [][2]int, noise []stateN
 		sc = new(eventScratch)
 	}
 	var cuts []cut
+	t := pieceValues(tb.t, p)
 	for j, sn := range noise {
 		if math.IsInf(sn.quant, 1) { // constant state
 			continue
 		}
 		x := pieceValues(tb.x[j], p)
-		s, finite := jumpStatFinite(sc.s, x)
+		s, finite := jumpStatFinite(sc.s, x, t)
 		sc.s = s
 		base := sn.jumpFloor()
 		// the event samples, in increasing order
@@ -259,7 +296,7 @@ func (tb *table) findEvents(ds *Dataset, name string, p [][2]int, noise []stateN
 				}
 			}
 			a = b
-			ev := Event{Run: name, State: ds.States[j].Name, Kind: EventStep, Size: s[c], Noise: sn.s / math.Sqrt(5)}
+			ev := Event{Run: name, State: ds.States[j].Name, Kind: EventStep, Size: stepSize(s[c], x, t, c), Noise: sn.s / math.Sqrt(5)}
 			m := -1 // the spike's sample, or the kink's corner
 			switch {
 			case c+1 < n-1 && math.Abs(s[c]+s[c+1]) < spikeMatch*math.Abs(s[c]):
@@ -316,7 +353,7 @@ type eventScratch struct {
 
 // jumpStatFinite is jumpStat, and reports whether every value is finite
 // (values near the float64 limit can make s infinite or NaN).
-func jumpStatFinite(dst, x []float64) ([]float64, bool) {
+func jumpStatFinite(dst, x, t []float64) ([]float64, bool) {
 	n := len(x)
 	dst = slices.Grow(dst[:0], n)[:n]
 	if n < 4 {
@@ -326,7 +363,7 @@ func jumpStatFinite(dst, x []float64) ([]float64, bool) {
 	dst[0], dst[1], dst[n-1] = 0, 0, 0
 	acc := 0.0
 	for i := 2; i < n-1; i++ {
-		v := 1.5*(x[i]-x[i-1]) + 0.5*(x[i-2]-x[i+1]) // as jumpStat
+		v := jumpAt(x[i-2], x[i-1], x[i], x[i+1], t[i-2], t[i-1], t[i], t[i+1])
 		dst[i] = v
 		acc += v - v // NaN once any v is NaN or infinite
 	}

@@ -249,7 +249,7 @@ func TestEventThreshold(t *testing.T) {
 	for i := range x {
 		x[i] = rng.NormFloat64()
 	}
-	s := jumpStat(nil, x)
+	s := jumpStat(nil, x, evenClock(len(x)))
 	// The MAD of 2^16 values (the subsample) has a relative standard
 	// error near 1.166/sqrt(2^16) = 0.5 %; s is a moving sum of four
 	// values, which correlates neighbours and about doubles that: 3 %

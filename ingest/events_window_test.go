@@ -168,7 +168,7 @@ func TestFindEventsSlidingEqualsSorted(t *testing.T) {
 			events, cand := 0, 0
 			for _, p := range pieces {
 				for j, sn := range noise {
-					for _, v := range jumpStat(nil, pieceValues(tb.x[j], p)) {
+					for _, v := range jumpStat(nil, pieceValues(tb.x[j], p), pieceValues(tb.t, p)) {
 						if !(math.Abs(v) <= sn.jumpFloor()) {
 							cand++
 						}
@@ -212,8 +212,8 @@ func (tb *table) findEventsSorted(ds *Dataset, name string, p [][2]int, noise []
 		if math.IsInf(sn.quant, 1) { // constant state
 			continue
 		}
-		x := pieceValues(tb.x[j], p)
-		sv := func(i int) float64 { return 1.5*(x[i]-x[i-1]) + 0.5*(x[i-2]-x[i+1]) } // as jumpStat
+		x, tp := pieceValues(tb.x[j], p), pieceValues(tb.t, p)
+		sv := func(i int) float64 { return jumpAt(x[i-2], x[i-1], x[i], x[i+1], tp[i-2], tp[i-1], tp[i], tp[i+1]) }
 		base := sn.jumpFloor()
 		var win []float64
 		// far says whether s_i stands out of the s around it
@@ -254,7 +254,7 @@ func (tb *table) findEventsSorted(ds *Dataset, name string, p [][2]int, noise []
 				}
 			}
 			i = end
-			ev := Event{Run: name, State: ds.States[j].Name, Kind: EventStep, Size: s(c), Noise: sn.s / math.Sqrt(5)}
+			ev := Event{Run: name, State: ds.States[j].Name, Kind: EventStep, Size: stepSize(s(c), x, tp, c), Noise: sn.s / math.Sqrt(5)}
 			m := -1 // the spike's sample, or the kink's corner
 			switch {
 			case c+1 < n-1 && math.Abs(s(c)+s(c+1)) < spikeMatch*math.Abs(s(c)):
@@ -299,13 +299,19 @@ func TestJumpStatFinite(t *testing.T) {
 		for i := range x {
 			x[i] = rng.NormFloat64()
 		}
-		got, finite := jumpStatFinite(nil, x)
-		if want := jumpStat(nil, x); !slices.Equal(got, want) || !finite {
+		tm := evenClock(n)
+		if n%2 == 1 { // and an uneven clock
+			for i := range tm {
+				tm[i] += 0.3 * rng.Float64()
+			}
+		}
+		got, finite := jumpStatFinite(nil, x, tm)
+		if want := jumpStat(nil, x, tm); !slices.Equal(got, want) || !finite {
 			t.Errorf("n=%d: %v (finite %v), want %v", n, got, finite, want)
 		}
 		if n >= 4 {
 			x[n/2] = math.Inf(1)
-			if _, finite := jumpStatFinite(nil, x); finite {
+			if _, finite := jumpStatFinite(nil, x, tm); finite {
 				t.Errorf("n=%d: an infinite sample gave a finite statistic", n)
 			}
 		}

@@ -364,15 +364,9 @@ type parquetSource struct {
 	tIdx int       // index of the time job, -1 with a rate
 	conv *timeConv
 	pool sync.Pool
-	// noTime leaves the time column out of a pass (see skipTime)
-	noTime bool
 	// prefetch decodes the next row group while fn runs on this one
 	prefetch bool
 }
-
-// skipTime says the next passes do not read the times (pass 3 of the
-// plan): their column is not decoded, and t holds stale values.
-func (ps *parquetSource) skipTime(on bool) { ps.noTime = on }
 
 func (s *Streamer) openParquetSource(path string) (source, error) {
 	po, err := openParquet(path, &s.opts)
@@ -548,9 +542,6 @@ func (ps *parquetSource) decode(i, row0 int, g *groupBuf) (rows int, err error) 
 	}
 	for q, jb := range ps.jobs {
 		cur = q
-		if q == ps.tIdx && ps.noTime {
-			continue // t keeps stale values: the pass does not read them
-		}
 		if q == ps.tIdx {
 			jb.dst = g.t
 		} else {
@@ -566,7 +557,6 @@ func (ps *parquetSource) decode(i, row0 int, g *groupBuf) (rows int, err error) 
 		}
 	}
 	switch {
-	case ps.noTime:
 	case ps.tIdx < 0:
 		for k := range g.t {
 			g.t[k] = float64(row0+k) / tb.rate

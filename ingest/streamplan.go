@@ -88,9 +88,10 @@ type plan struct {
 // statistic at every stride-th sample (one list per stride tried), the
 // resolution.
 type noiseAcc struct {
-	all  [][]float64
-	q    float64
-	prev [3]float64 // the last three values of the piece
+	all   [][]float64
+	q     float64
+	prev  [3]float64 // the last three values of the piece
+	prevT [3]float64 // and their times
 }
 
 // newPlan starts the plan of sf, reusing the buffers of prev (the
@@ -214,9 +215,9 @@ func (pl *plan) resetAcc() {
 	}
 }
 
-// addNoise feeds the noise statistics the sample v of state j at index q
-// of its piece.
-func (a *noiseAcc) add(v float64, q int, strides []int) {
+// add feeds the noise statistics the sample v, at time t, of state j at
+// index q of its piece.
+func (a *noiseAcc) add(v, t float64, q int, strides []int) {
 	if q >= 1 {
 		if d := math.Abs(v - a.prev[2]); d > 0 && d < a.q {
 			a.q = d
@@ -226,20 +227,21 @@ func (a *noiseAcc) add(v float64, q int, strides []int) {
 	if i := q - 1; i >= 2 {
 		for c, stride := range strides {
 			if (i-2)%stride == 0 {
-				a.all[c] = append(a.all[c], 1.5*(a.prev[2]-a.prev[1])+0.5*(a.prev[0]-v))
+				a.all[c] = append(a.all[c], jumpAt(a.prev[0], a.prev[1], a.prev[2], v, a.prevT[0], a.prevT[1], a.prevT[2], t))
 			}
 		}
 	}
 	a.prev[0], a.prev[1], a.prev[2] = a.prev[1], a.prev[2], v
+	a.prevT[0], a.prevT[1], a.prevT[2] = a.prevT[1], a.prevT[2], t
 }
 
-// addSeg is add for the consecutive samples x of one piece, x[0] at
-// index q0 of the piece.
-func (a *noiseAcc) addSeg(x []float64, q0 int, strides []int) {
+// addSeg is add for the consecutive samples x, at times t, of one
+// piece, x[0] at index q0 of the piece.
+func (a *noiseAcc) addSeg(x, t []float64, q0 int, strides []int) {
 	n := len(x)
 	head := min(n, 3)
 	for k := range head {
-		a.add(x[k], q0+k, strides)
+		a.add(x[k], t[k], q0+k, strides)
 	}
 	if n <= 3 {
 		return
@@ -259,10 +261,11 @@ func (a *noiseAcc) addSeg(x []float64, q0 int, strides []int) {
 			i += stride - r
 		}
 		for k := i - q0 + 1; k < n; k, i = k+stride, i+stride {
-			a.all[c] = append(a.all[c], 1.5*(x[k-1]-x[k-2])+0.5*(x[k-3]-x[k]))
+			a.all[c] = append(a.all[c], jumpAt(x[k-3], x[k-2], x[k-1], x[k], t[k-3], t[k-2], t[k-1], t[k]))
 		}
 	}
 	a.prev[0], a.prev[1], a.prev[2] = x[n-3], x[n-2], x[n-1]
+	a.prevT[0], a.prevT[1], a.prevT[2] = t[n-3], t[n-2], t[n-1]
 }
 
 // pass1 finds the pieces, checks time order, fills the step histogram
@@ -321,7 +324,7 @@ func (pl *plan) pass1(ctx context.Context) error {
 					lo, hi = min(lo, v), max(hi, v)
 				}
 				pl.lo[j], pl.hi[j] = lo, hi
-				pl.acc[j].addSeg(x[j], q0, pl.strides)
+				pl.acc[j].addSeg(x[j], t, q0, pl.strides)
 			}
 			prevRow = row0 + len(t) - 1
 			pl.total += len(t)
@@ -362,7 +365,7 @@ func (pl *plan) pass1(ctx context.Context) error {
 			for j := range x {
 				v := x[j][k]
 				pl.lo[j], pl.hi[j] = min(pl.lo[j], v), max(pl.hi[j], v)
-				pl.acc[j].add(v, q, pl.strides)
+				pl.acc[j].add(v, ti, q, pl.strides)
 			}
 			prevT, prevRow = ti, row
 			pl.total++
@@ -401,7 +404,7 @@ func (pl *plan) pass2(ctx context.Context, a float64, noGap bool) error {
 				f[1] = row + 1
 				q := row - f[0]
 				for j := range x {
-					pl.acc[j].add(x[j][k], q, pl.strides)
+					pl.acc[j].add(x[j][k], ti, q, pl.strides)
 				}
 				prevT = ti
 			}
@@ -453,17 +456,13 @@ func (pl *plan) pass3(ctx context.Context) error {
 		hd.init(ns, pl.final[0][1]-pl.final[0][0], pl.noise)
 	}
 	pl.sf.Passes++
-	if ts, ok := pl.src.(interface{ skipTime(bool) }); ok {
-		ts.skipTime(true) // heads and events need the states only
-		defer ts.skipTime(false)
-	}
 	err := pl.src.pass(ctx, func(row0 int, t []float64, x [][]float64) error {
 		end := row0 + len(t)
 		for p < len(pl.final) && pl.final[p][0] < end {
 			pc := pl.final[p]
 			ra, rb := max(pc[0], row0), min(pc[1], end)
 			if p == 0 && first {
-				k, done, err := hd.push(x, ra-row0, rb-row0)
+				k, done, err := hd.push(x, t, ra-row0, rb-row0)
 				if err != nil {
 					return err
 				}
@@ -480,7 +479,7 @@ func (pl *plan) pass3(ctx context.Context) error {
 					startPiece(pc[0])
 					ed.off = pl.opts.KeepEvents
 				}
-				if err := ed.push(x, ra-row0, rb-row0); err != nil {
+				if err := ed.push(x, t, ra-row0, rb-row0); err != nil {
 					return err
 				}
 			}
@@ -513,6 +512,7 @@ type headState struct {
 	n     int // the piece's length
 	noise []stateNoise
 	buf   [][]float64
+	tbuf  []float64 // the times of buf's samples
 	bases []float64
 	end   int // first sample that moves, -1 while none
 }
@@ -526,15 +526,17 @@ func (hd *headState) init(ns, n int, noise []stateNoise) {
 	for j := range hd.buf {
 		hd.buf[j] = hd.buf[j][:0]
 	}
+	hd.tbuf = hd.tbuf[:0]
 }
 
-// push adds block samples [a, b) of x. done reports the head decided, k
-// its length (0: none).
-func (hd *headState) push(x [][]float64, a, b int) (k int, done bool, err error) {
+// push adds block samples [a, b) of x, at times t. done reports the
+// head decided, k its length (0: none).
+func (hd *headState) push(x [][]float64, t []float64, a, b int) (k int, done bool, err error) {
 	have := len(hd.buf[0])
 	for j := range hd.buf {
 		hd.buf[j] = append(hd.buf[j], x[j][a:b]...)
 	}
+	hd.tbuf = append(hd.tbuf, t[a:b]...)
 	m := len(hd.buf[0])
 	if m < MinHead {
 		return 0, false, nil
@@ -588,7 +590,8 @@ type evDetector struct {
 	n     int // the piece's length
 	off   bool
 	ring  [][]float64
-	have  int // samples pushed
+	tring []float64 // the times of the ring's samples
+	have  int       // samples pushed
 	st    []evLoop
 	noise []stateNoise
 	marks map[int]bool
@@ -603,7 +606,7 @@ type evLoop struct {
 }
 
 func newEvDetector(ns int) *evDetector {
-	ed := &evDetector{ring: make([][]float64, ns), st: make([]evLoop, ns), marks: map[int]bool{}}
+	ed := &evDetector{ring: make([][]float64, ns), tring: make([]float64, evRing), st: make([]evLoop, ns), marks: map[int]bool{}}
 	for j := range ed.ring {
 		ed.ring[j] = make([]float64, evRing)
 	}
@@ -620,10 +623,11 @@ func (ed *evDetector) reset(n int, noise []stateNoise) {
 
 // pushHead gives the detector the held head samples from k on.
 func (ed *evDetector) pushHead(hd *headState, k int) error {
-	return ed.push(hd.buf, k, len(hd.buf[0]))
+	return ed.push(hd.buf, hd.tbuf, k, len(hd.buf[0]))
 }
 
-func (ed *evDetector) push(x [][]float64, a, b int) error {
+// push gives the detector samples [a, b) of x, at times t.
+func (ed *evDetector) push(x [][]float64, t []float64, a, b int) error {
 	if ed.off || ed.n < 5 {
 		ed.have += b - a
 		return nil
@@ -635,6 +639,8 @@ func (ed *evDetector) push(x [][]float64, a, b int) error {
 			k := copy(r[at:], x[j][a:c])
 			copy(r, x[j][a+k:c])
 		}
+		k := copy(ed.tring[at:], t[a:c])
+		copy(ed.tring, t[a+k:c])
 		ed.have += c - a
 		a = c
 		if err := ed.advance(); err != nil {
@@ -670,9 +676,10 @@ func (ed *evDetector) advance() error {
 		if lp.skip {
 			continue
 		}
-		r := ed.ring[j]
+		r, tr := ed.ring[j], ed.tring
 		x := func(i int) float64 { return r[i&(evRing-1)] }
-		sv := func(i int) float64 { return 1.5*(x(i)-x(i-1)) + 0.5*(x(i-2)-x(i+1)) } // as jumpStat
+		tt := func(i int) float64 { return tr[i&(evRing-1)] }
+		sv := func(i int) float64 { return jumpAt(x(i-2), x(i-1), x(i), x(i+1), tt(i-2), tt(i-1), tt(i), tt(i+1)) }
 		far := func(i int) bool {
 			if math.Abs(sv(i)) <= lp.base {
 				return false
@@ -704,7 +711,7 @@ func (ed *evDetector) advance() error {
 				break
 			}
 			// far's first test, inline: most samples stop here
-			if v := 1.5*(r[i&m]-r[(i-1)&m]) + 0.5*(r[(i-2)&m]-r[(i+1)&m]); math.Abs(v) <= lp.base {
+			if v := jumpAt(r[(i-2)&m], r[(i-1)&m], r[i&m], r[(i+1)&m], tr[(i-2)&m], tr[(i-1)&m], tr[i&m], tr[(i+1)&m]); math.Abs(v) <= lp.base {
 				continue
 			}
 			if !far(i) {
