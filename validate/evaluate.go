@@ -6,11 +6,13 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"slices"
 	"sort"
 	"strings"
 
 	"basin.example/fit"
 	"basin.example/ingest"
+	"basin.example/internal/parallel"
 )
 
 // Options controls Evaluate and Check. A nil *Options means defaults.
@@ -51,14 +53,20 @@ type Options struct {
 	// every fold is held out once and the verdict is combined over the
 	// folds (see combineFolds).
 	OneFold bool
+	// Workers is the most folds fitted and checked at once; 0 means
+	// GOMAXPROCS. The result does not depend on it, bit for bit: each
+	// fold's work is the same whichever goroutine does it, and the folds
+	// are combined in fold order.
+	Workers int
 	Field   *fit.FieldOptions
 	Certify *fit.CertifyOptions
 	// Progress, when not nil, is called by Evaluate as each stage starts,
 	// with the stage's name and the share of the whole job done before it
 	// (0 to 1, by fixed weights per stage measured on logs of a million
 	// samples: fitting about a third of a fold, certifying most of the
-	// rest); and with 1 at the end. It is called from Evaluate's
-	// goroutine. Nil means no calls.
+	// rest); and with 1 at the end. When folds run at once, done is the
+	// sum of the folds' shares and stage is the latest fold's. It is
+	// called from Evaluate's goroutine. Nil means no calls.
 	Progress func(stage string, done float64)
 }
 
@@ -509,15 +517,17 @@ func Evaluate(ctx context.Context, ds *ingest.Dataset, opts *Options) (*Result, 
 	if every {
 		nFits = o.Folds
 	}
-	one := func(f int) (*fit.Model, *fit.Certificate, []RunScreen, error) {
-		base, of := float64(f)/float64(nFits), ""
+	// one fits and checks fold f, reporting its progress through
+	// report(stage, w), w the share of the fold done (0 to 1).
+	one := func(ctx context.Context, f int, report func(stage string, w float64)) (*fit.Model, *fit.Certificate, []RunScreen, error) {
+		of := ""
 		if nFits > 1 {
 			of = fmt.Sprintf(" (fold %d of %d)", f+1, nFits)
 		}
-		at := func(w float64) float64 { return base + w/float64(nFits) }
+		progress := func(stage string, w float64) { report(stage+of, w) }
 		fitDS := subset(ds, func(i int) bool { return fold[i] != f })
 		hoDS := subset(ds, func(i int) bool { return fold[i] == f })
-		o.progress("fitting the field"+of, at(0))
+		progress("fitting the field", 0)
 		m, err := fit.Field(ctx, fitDS, o.Field)
 		if err != nil {
 			return nil, nil, nil, err
@@ -534,7 +544,7 @@ func Evaluate(ctx context.Context, ds *ingest.Dataset, opts *Options) (*Result, 
 		if len(m.Inputs) > 0 { // held-out runs are checked where the inputs rest
 			hoDS = fit.RestSegments(hoDS, m.RestInput)
 		}
-		o.progress("certifying"+of, at(progressField))
+		progress("certifying", progressField)
 		cert, err := fit.Certify(ctx, m, fitDS, o.Certify)
 		if err != nil {
 			return nil, nil, nil, err
@@ -544,7 +554,7 @@ func Evaluate(ctx context.Context, ds *ingest.Dataset, opts *Options) (*Result, 
 				cert.InputGain = g
 			}
 		}
-		o.progress("checking held-out runs"+of, at(progressField+progressCertify))
+		progress("checking held-out runs", progressField+progressCertify)
 		val, runs, err := Check(ctx, cert, hoDS, &o)
 		if err != nil {
 			return nil, nil, nil, err
@@ -558,35 +568,84 @@ func Evaluate(ctx context.Context, ds *ingest.Dataset, opts *Options) (*Result, 
 		}
 		return m, cert, runs, nil
 	}
-	m, cert, runs, err := one(0)
+	folds := []int{0}
+	if every {
+		for f := 1; f < o.Folds; f++ {
+			if slices.Contains(fold, f) {
+				folds = append(folds, f)
+			}
+		}
+	}
+	outs, err := evaluateFolds(ctx, folds, &o, nFits, one)
 	if err != nil {
 		return nil, err
 	}
+	m, cert, runs := outs[0].m, outs[0].cert, outs[0].runs
 	for i := range ds.Runs {
 		res.Heldout[i] = fold[i] == 0
 	}
 	res.FoldVerdicts = []fit.Verdict{cert.Verdict}
 	if every {
 		certs := []*fit.Certificate{cert}
-		for f := 1; f < o.Folds; f++ {
-			has := false
-			for _, k := range fold {
-				has = has || k == f
-			}
-			if !has {
-				continue
-			}
-			_, c, _, err := one(f)
-			if err != nil {
-				return nil, err
-			}
-			res.FoldVerdicts = append(res.FoldVerdicts, c.Verdict)
-			certs = append(certs, c)
+		for _, out := range outs[1:] {
+			res.FoldVerdicts = append(res.FoldVerdicts, out.cert.Verdict)
+			certs = append(certs, out.cert)
 		}
 		combineFolds(cert, certs)
 	}
 	res.Model, res.Certificate, res.Runs = m, cert, runs
 	return res, nil
+}
+
+// foldOut is one fold's model, certificate and held-out checks.
+type foldOut struct {
+	m    *fit.Model
+	cert *fit.Certificate
+	runs []RunScreen
+}
+
+// evaluateFolds runs one for each fold of folds, at most o.Workers at
+// once (internal/parallel), and returns their outputs in the order of
+// folds. The error is that of the first failing fold in that order (or a
+// recovered panic, *parallel.PanicError), whatever the timing. Progress
+// reaches o.Progress on the calling goroutine only: the folds send their
+// shares over a channel that this goroutine drains while they run.
+func evaluateFolds(ctx context.Context, folds []int, o *Options, nFits int,
+	one func(ctx context.Context, f int, report func(string, float64)) (*fit.Model, *fit.Certificate, []RunScreen, error)) ([]foldOut, error) {
+	type step struct {
+		k     int // index into folds
+		stage string
+		w     float64
+	}
+	// The channel never blocks a fold for long: the loop below drains it
+	// until every fold has returned.
+	steps := make(chan step, 4*len(folds))
+	type result struct {
+		outs []foldOut
+		err  error
+	}
+	done := make(chan result, 1)
+	go func() {
+		outs, err := parallel.Map(ctx, len(folds), o.Workers, func(ctx context.Context, k int) (foldOut, error) {
+			m, cert, runs, err := one(ctx, folds[k], func(stage string, w float64) { steps <- step{k, stage, w} })
+			return foldOut{m, cert, runs}, err
+		})
+		done <- result{outs, err}
+	}()
+	share := make([]float64, len(folds))
+	for {
+		select {
+		case s := <-steps:
+			share[s.k] = s.w
+			total := 0.0
+			for _, w := range share {
+				total += w
+			}
+			o.progress(s.stage, total/float64(nFits))
+		case r := <-done:
+			return r.outs, r.err
+		}
+	}
 }
 
 // sameStartShare: runs whose starting states spread less than this share
