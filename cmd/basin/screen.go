@@ -464,7 +464,7 @@ func screenCSV(w io.Writer, out *screenJSON) error {
 // and leaves, the distance per state with its unit.
 func flagText(f validate.Flag, states []screenState) string {
 	if f.Kind == validate.FlagSlow {
-		return fmt.Sprintf("%s: decay rate of V %s 1/s below the bound", f.Kind, human.Sig(f.Excess, 3)) // Excess is bound - rate
+		return fmt.Sprintf("%s: decay rate of V %s 1/s short of the bound", f.Kind, human.Sig(f.Excess, 3)) // Excess is bound - rate; the rate is its own column
 	}
 	var t string
 	switch f.Kind {
