@@ -60,12 +60,13 @@ type plan struct {
 	ns   int
 
 	// pass 1
-	pieces  [][2]int // rows with no missing cell, split at missing rows
-	total   int
-	hist    dtHist
-	maxDT   float64
-	anyCell []bool // per column: some row has a value
-	lo, hi  []float64
+	pieces   [][2]int // rows with no missing cell, split at missing rows
+	total    int
+	hist     dtHist
+	maxDT    float64
+	anyCell  []bool // per column: some row has a value
+	lo, hi   []float64
+	blo, bhi []float64 // a block's range per state
 
 	// noise statistics, for the pieces split at the gaps, at each of
 	// the strides
@@ -82,6 +83,7 @@ type plan struct {
 	hd headState
 	// pass 2's and pass 3's outputs (final may alias pieces, runs final)
 	finalBuf, runBuf [][2]int
+	selBuf           []float64 // scaleOf's scratch
 }
 
 // noiseAcc gathers what noiseOf computes for one state: the jump
@@ -102,6 +104,7 @@ func newPlan(sf *StreamFile, src source, opts *Options, prev *plan) *plan {
 		pl.pieces, pl.finalBuf, pl.runBuf = prev.pieces[:0], prev.finalBuf[:0], prev.runBuf[:0]
 		pl.acc, pl.strides, pl.ed, pl.hd = prev.acc, prev.strides[:0], prev.ed, prev.hd
 		pl.anyCell, pl.lo, pl.hi, pl.noise = prev.anyCell, prev.lo, prev.hi, prev.noise
+		pl.selBuf, pl.blo, pl.bhi = prev.selBuf, prev.blo, prev.bhi
 		pl.hist = dtHist{dense: prev.hist.dense}
 		clear(pl.hist.dense)
 	}
@@ -172,7 +175,9 @@ func (pl *plan) run(ctx context.Context) error {
 			pl.noise = make([]stateNoise, pl.ns)
 		}
 		for j := range pl.acc {
-			pl.noise[j] = stateNoise{s: robustScale(pl.acc[j].all[pick]), quant: pl.acc[j].q, span: pl.hi[j] - pl.lo[j]}
+			var sc float64
+			pl.selBuf, sc = scaleOf(pl.selBuf, pl.acc[j].all[pick])
+			pl.noise[j] = stateNoise{s: sc, quant: pl.acc[j].q, span: pl.hi[j] - pl.lo[j]}
 		}
 		if err := pl.pass3(ctx); err != nil {
 			return err
@@ -289,28 +294,58 @@ func (pl *plan) pass1(ctx context.Context) error {
 				break
 			}
 		}
-		for j := range x {
+		// each state's range over the block, taken only if no cell is
+		// missing (comparisons, not min and max: no NaN can be in it)
+		if len(pl.blo) != len(x) {
+			pl.blo, pl.bhi = make([]float64, len(x)), make([]float64, len(x))
+		}
+		for j := 0; j < len(x) && whole; j++ {
+			lo, hi := math.Inf(1), math.Inf(-1)
 			for _, v := range x[j] {
+				if v < lo {
+					lo = v
+				}
+				if v > hi {
+					hi = v
+				}
 				if v != v {
 					whole = false
 					break
 				}
 			}
+			pl.blo[j], pl.bhi[j] = lo, hi
 		}
 		if whole {
 			// the block is one segment of valid rows: column by column
+			cont := open && prevRow == row0-1
+			maxDT := pl.maxDT
+			// equal keys in a row are counted at once
+			var key uint64
+			cnt := 0
 			for k, ti := range t {
 				if !(ti > prevT) {
 					return &errFallback{"error"} // ErrTimeOrder, as ReadFile words it
 				}
-				if k > 0 || (open && prevRow == row0-1) {
+				if k > 0 || cont {
 					dt := ti - prevT
-					pl.hist.add(dt)
-					pl.maxDT = max(pl.maxDT, dt)
+					if kk := dtKey(dt); kk != key || cnt == 0 {
+						if cnt > 0 {
+							pl.hist.addKey(key, cnt)
+						}
+						key, cnt = kk, 0
+					}
+					cnt++
+					if dt > maxDT {
+						maxDT = dt
+					}
 				}
 				prevT = ti
 			}
-			if !(open && prevRow == row0-1) {
+			if cnt > 0 {
+				pl.hist.addKey(key, cnt)
+			}
+			pl.maxDT = maxDT
+			if !cont {
 				if err := pl.openPiece(row0); err != nil {
 					return err
 				}
@@ -319,11 +354,12 @@ func (pl *plan) pass1(ctx context.Context) error {
 			q0 := row0 - pl.pieces[len(pl.pieces)-1][0]
 			for j := range x {
 				pl.anyCell[j] = true
-				lo, hi := pl.lo[j], pl.hi[j]
-				for _, v := range x[j] {
-					lo, hi = min(lo, v), max(hi, v)
+				if pl.blo[j] < pl.lo[j] {
+					pl.lo[j] = pl.blo[j]
 				}
-				pl.lo[j], pl.hi[j] = lo, hi
+				if pl.bhi[j] > pl.hi[j] {
+					pl.hi[j] = pl.bhi[j]
+				}
 				pl.acc[j].addSeg(x[j], t, q0, pl.strides)
 			}
 			prevRow = row0 + len(t) - 1
@@ -772,23 +808,25 @@ const dtDense = 1 << 14
 
 func dtKey(dt float64) uint64 { return math.Float64bits(dt) >> 40 }
 
-func (h *dtHist) add(dt float64) {
-	k := dtKey(dt)
+func (h *dtHist) add(dt float64) { h.addKey(dtKey(dt), 1) }
+
+// addKey counts c steps of key k.
+func (h *dtHist) addKey(k uint64, c int) {
 	if h.n == 0 {
 		if h.dense == nil {
 			h.dense = make([]int32, dtDense)
 		}
 		h.base = max(k, dtDense/2) - dtDense/2
 	}
-	h.n++
+	h.n += c
 	if k-h.base < dtDense {
-		h.dense[k-h.base]++
+		h.dense[k-h.base] += int32(c)
 		return
 	}
 	if h.far == nil {
 		h.far = map[uint64]int{}
 	}
-	h.far[k]++
+	h.far[k] += c
 }
 
 // limitBounds returns a, the least value GapFactor times the median step

@@ -1,0 +1,136 @@
+package ingest
+
+import (
+	"math"
+	"math/rand/v2"
+	"sort"
+	"testing"
+)
+
+// madBySort is the scale by its definition, with the standard library's
+// sort (sort.Float64s) standing outside the code under test: madGauss
+// times the median of |v_i - median(v)| over robustScale's strided
+// subsample, each median the middle value or the mean of the two middle
+// values (the MAD; common practice).
+func madBySort(v []float64) float64 {
+	step := max(1, len(v)/noiseSubsample)
+	var w []float64
+	for i := 0; i < len(v); i += step {
+		w = append(w, v[i])
+	}
+	med := func(s []float64) float64 {
+		sort.Float64s(s)
+		n := len(s)
+		if n%2 == 1 {
+			return s[n/2]
+		}
+		return (s[n/2-1] + s[n/2]) / 2
+	}
+	m := med(w)
+	for i := range w {
+		w[i] = math.Abs(w[i] - m)
+	}
+	return madGauss * med(w)
+}
+
+// TestScaleOf checks that the selection gives the sorted definition's
+// scale to the bit (both are order statistics of the same values, so no
+// tolerance applies), on odd and even counts, ties, signed zeros, a
+// count above noiseSubsample (strided), sorted and reversed input (the
+// pivot's worst cases), and values that are not finite (robustScale's
+// order settles those).
+func TestScaleOf(t *testing.T) {
+	rng := rand.New(rand.NewPCG(12, 1))
+	gauss := func(n int) []float64 {
+		v := make([]float64, n)
+		for i := range v {
+			v[i] = rng.NormFloat64()
+		}
+		return v
+	}
+	rounded := func(n int) []float64 {
+		v := gauss(n)
+		for i := range v {
+			v[i] = math.Round(v[i] * 3)
+		}
+		return v
+	}
+	ramp := func(n int, dir float64) []float64 {
+		v := make([]float64, n)
+		for i := range v {
+			v[i] = dir * float64(i)
+		}
+		return v
+	}
+	cases := []struct {
+		name string
+		v    []float64
+	}{
+		{"one", []float64{3}},
+		{"two", []float64{3, -1}},
+		{"three", []float64{3, -1, 7}},
+		{"odd 17", gauss(17)},
+		{"even 1000", gauss(1000)},
+		{"odd 16383", gauss(16383)},
+		{"strided 40001", gauss(40001)},
+		{"ties", rounded(5000)},
+		{"all equal", make([]float64, 999)},
+		{"signed zeros", []float64{0, math.Copysign(0, -1), 0, math.Copysign(0, -1), 1, -1}},
+		{"sorted", ramp(10000, 1)},
+		{"reversed", ramp(10001, -1)},
+		{"with Inf", append(gauss(100), math.Inf(1))},
+		{"with NaN", append(gauss(100), math.NaN())},
+	}
+	var w []float64
+	for _, tc := range cases {
+		t.Run(tc.name, func(t *testing.T) {
+			keep := append([]float64(nil), tc.v...)
+			var got float64
+			w, got = scaleOf(w, tc.v)
+			want := robustScale(tc.v)
+			if math.Float64bits(got) != math.Float64bits(want) && !(math.IsNaN(got) && math.IsNaN(want)) {
+				t.Errorf("scaleOf = %v, robustScale %v", got, want)
+			}
+			if def := madBySort(append([]float64(nil), tc.v...)); !math.IsNaN(def) && got != def {
+				t.Errorf("scaleOf = %v, the sorted definition %v", got, def)
+			}
+			for i := range keep {
+				if math.Float64bits(keep[i]) != math.Float64bits(tc.v[i]) {
+					t.Fatalf("scaleOf modified its input at %d", i)
+				}
+			}
+		})
+	}
+}
+
+// TestSelectKth checks every rank of small random arrays with ties
+// against the standard library's sort (sort.Float64s), and the
+// partition left behind.
+func TestSelectKth(t *testing.T) {
+	rng := rand.New(rand.NewPCG(7, 7))
+	for _, n := range []int{1, 2, 15, 16, 17, 40, 257} {
+		for rep := range 20 {
+			v := make([]float64, n)
+			for i := range v {
+				v[i] = float64(rng.IntN(n/2 + 1)) // ties
+				if rep%2 == 1 {
+					v[i] = rng.NormFloat64()
+				}
+			}
+			sorted := append([]float64(nil), v...)
+			sort.Float64s(sorted)
+			for k := range n {
+				a := append([]float64(nil), v...)
+				got := selectKth(a, k)
+				if got != sorted[k] {
+					t.Fatalf("n=%d k=%d: %v, want %v", n, k, got, sorted[k])
+				}
+				for i, x := range a {
+					if (i < k && x > got) || (i > k && x < got) {
+						t.Fatalf("n=%d k=%d: a[%d] = %v on the wrong side of %v", n, k, i, x, got)
+					}
+				}
+			}
+		}
+	}
+}
