@@ -33,12 +33,12 @@ func madBySort(v []float64) float64 {
 	return madGauss * med(w)
 }
 
-// TestScaleOf checks that the selection gives the sorted definition's
-// scale to the bit (both are order statistics of the same values, so no
-// tolerance applies), on odd and even counts, ties, signed zeros, a
-// count above noiseSubsample (strided), sorted and reversed input (the
-// pivot's worst cases), and values that are not finite (robustScale's
-// order settles those).
+// TestScaleOf checks that the selection (Hoare's FIND [Hoare1961]) gives
+// the sorted definition's scale to the bit (both are order statistics of
+// the same values, so no tolerance applies), on odd and even counts,
+// ties, signed zeros, a count above noiseSubsample (strided), sorted and
+// reversed input (the pivot's worst cases), and values that are not
+// finite (robustScale's order settles those).
 func TestScaleOf(t *testing.T) {
 	rng := rand.New(rand.NewPCG(12, 1))
 	gauss := func(n int) []float64 {

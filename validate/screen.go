@@ -5,6 +5,7 @@ import (
 	"math"
 
 	"basin.example/fit"
+	"basin.example/fit/lyapunov"
 	"basin.example/fit/poly"
 	"basin.example/ingest"
 	"basin.example/internal/parallel"
@@ -282,20 +283,27 @@ func (s *Screener) quadV(z []float64) float64 {
 // V at most this is settled.
 func (s *Screener) SettleLevel() float64 { return s.settle }
 
-// ballMax returns the largest V on the ball |z| <= r, by deterministic
-// sampling of the sphere (the axes, their diagonals and a fixed
-// quasi-random set) and of the centre; exact for a V with V(0) = 0 that
-// is a positive semidefinite quadratic form only when the largest
-// eigenvector is sampled, so for the quadratic case the eigenvalue bound
-// (the largest Gershgorin disc edge, an upper bound) is used instead.
+// ballMax returns the largest V on the ball |z| <= r, or a sound upper
+// bound of it: [lyapunov.BallMax], exactly r²·max(lambda_max(P), 0) +
+// V(0) for a quadratic V z'Pz + V(0) (the Rayleigh quotient's maximum over
+// the sphere), plus |q|·r for a linear part q'z, and for higher degrees
+// the sum of each degree's bound. A V that lyapunov cannot hold (more
+// than eight states) is bounded by the largest Gershgorin disc edge of P
+// when quadratic, else by sampling the sphere (the axes, their
+// diagonals, a fixed quasi-random set). A NaN radius gives NaN: nothing
+// is settled.
 func (s *Screener) ballMax(r float64) float64 {
 	n := s.n
 	z := make([]float64, n)
-	if r <= 0 {
+	switch {
+	case math.IsNaN(r):
+		return math.NaN()
+	case r <= 0:
 		return s.V(z)
-	}
-	if s.quad {
-		// max over |z|<=r of z'Pz + q'z + c <= lambda_max+ r^2 + |q| r + c,
+	case n <= 8 && len(s.cert.V.Exponents) > 0:
+		return lyapunov.BallMax(lyapunov.NewPoly(n, s.cert.V.Exponents, s.cert.V.Coefficients), r)
+	case s.quad:
+		// max over |z|<=r of z'Pz + q'z + c <= lambda_max r^2 + |q| r + c,
 		// with lambda_max bounded by Gershgorin.
 		lam := math.Inf(-1)
 		for i := 0; i < n; i++ {

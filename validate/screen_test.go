@@ -7,6 +7,7 @@ import (
 	"testing"
 
 	"gonum.org/v1/gonum/floats/scalar"
+	"gonum.org/v1/gonum/mat"
 
 	"basin.example/fit"
 	"basin.example/fit/poly"
@@ -372,4 +373,122 @@ func TestScreenLeavesNoise(t *testing.T) {
 			}
 		}
 	}
+}
+
+// TestSettleLevelBall checks the settle level (the largest V on the noise
+// ball |z| <= r) against outside values. For a quadratic V = z'Pz it is
+// r²·lambda_max(P), the Rayleigh quotient's maximum over the sphere
+// (Golub and Van Loan, Matrix Computations, 4th ed., 2013, §8.1
+// [GolubVanLoan2013]; Rayleigh–Ritz [HornJohnson2013]; common
+// practice), with
+// lambda_max from gonum's mat.EigenSym, an independent eigensolver; 1e-12
+// relative covers both solvers' rounding on matrices of norm ~1. The
+// Gershgorin bound it replaces overestimated every case but the one
+// with equal row sums (checked: the old figure is larger there). For a quartic V the level is
+// an upper bound: no point of a dense polar grid of the ball exceeds it.
+func TestSettleLevelBall(t *testing.T) {
+	rng := rand.New(rand.NewPCG(3, 9))
+	random := func(n int) []float64 { // a random symmetric positive definite P, row-major
+		a := make([]float64, n*n)
+		for i := range a {
+			a[i] = rng.NormFloat64()
+		}
+		p := make([]float64, n*n)
+		for i := range n {
+			for j := range n {
+				for k := range n {
+					p[i*n+j] += a[k*n+i] * a[k*n+j] / float64(n)
+				}
+			}
+			p[i*n+i] += 0.1
+		}
+		return p
+	}
+	for _, tc := range []struct {
+		name string
+		n    int
+		p    []float64
+		r    float64
+		// gersh: Gershgorin's bound is exact (equal rows' sums)
+		gersh bool
+	}{
+		{"2x2 [[2,1],[1,2]]", 2, []float64{2, 1, 1, 2}, 0.05, true},
+		{"2x2 skewed", 2, []float64{1, 0.3, 0.3, 0.2}, 0.1, false},
+		{"2x2 indefinite", 2, []float64{1, -2, -2, 0.5}, 0.2, false},
+		{"3x3 random", 3, random(3), 0.05, false},
+		{"6x6 random", 6, random(6), 0.3, false},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			n := tc.n
+			var v poly.Poly
+			for i := range n {
+				for j := i; j < n; j++ {
+					e := make([]int, n)
+					e[i]++
+					e[j]++
+					c := tc.p[i*n+j]
+					if i != j {
+						c *= 2
+					}
+					v.Exponents = append(v.Exponents, e)
+					v.Coefficients = append(v.Coefficients, c)
+				}
+			}
+			c := &fit.Certificate{States: make([]string, n), Equilibrium: make([]float64, n), Scale: make([]float64, n),
+				V: v, Level: 1, NoiseRadius: tc.r}
+			for j := range c.Scale {
+				c.Scale[j] = 1
+			}
+			var es mat.EigenSym
+			if !es.Factorize(mat.NewSymDense(n, append([]float64(nil), tc.p...)), false) {
+				t.Fatal("EigenSym failed")
+			}
+			ev := es.Values(nil)
+			want := tc.r * tc.r * max(ev[n-1], 0)
+			s := NewScreener(c, nil)
+			if !s.quad {
+				t.Fatal("not on the quadratic path")
+			}
+			if got := s.SettleLevel(); !scalar.EqualWithinRel(got, want, 1e-12) {
+				t.Errorf("settle level %.17g, want r²·lambda_max = %.17g", got, want)
+			}
+			gersh := math.Inf(-1)
+			for i := range n {
+				g := tc.p[i*n+i]
+				for j := range n {
+					if j != i {
+						g += math.Abs(tc.p[i*n+j])
+					}
+				}
+				gersh = max(gersh, g)
+			}
+			if old := tc.r * tc.r * max(gersh, 0); !tc.gersh && !(old > want*(1+1e-9)) {
+				t.Errorf("Gershgorin's %.6g not above the exact %.6g: the case tests nothing", old, want)
+			}
+		})
+	}
+	t.Run("quartic bound", func(t *testing.T) {
+		c := circleCert(false)
+		c.V = poly.Poly{Exponents: [][]int{{2, 0}, {1, 1}, {0, 2}, {4, 0}, {2, 2}, {0, 3}},
+			Coefficients: []float64{1, 0.4, 0.5, 3, -2, 1}}
+		c.NoiseRadius = 0.2
+		s := NewScreener(c, nil)
+		got := s.SettleLevel()
+		seen := math.Inf(-1)
+		z := make([]float64, 2)
+		for i := 0; i <= 40; i++ {
+			for k := range 720 {
+				rho, a := c.NoiseRadius*float64(i)/40, 2*math.Pi*float64(k)/720
+				z[0], z[1] = rho*math.Cos(a), rho*math.Sin(a)
+				v := c.V.Eval(z)
+				seen = max(seen, v)
+				if !(v <= got) {
+					t.Fatalf("V(%v) = %.15g above the settle level %.15g", z, v, got)
+				}
+			}
+		}
+		if !(seen > 0) {
+			t.Fatalf("grid maximum %g", seen)
+		}
+	})
 }
