@@ -2,7 +2,8 @@
 # basin): reads commands as JSON lines on stdin, solves the named LP file
 # with HiGHS's dual simplex from SciPy, whole or in a row-generation loop,
 # and answers one JSON line per command on stdout. Timing covers the
-# solves and the row evaluations, not the loading of the file.
+# solves, the row evaluations and the cut selection, not the loading of
+# the file; "solve" in the answer is the part spent inside linprog.
 import json
 import sys
 import time
@@ -30,7 +31,7 @@ def load(name):
     h = rows[:, w] / s
     bounds = [(None if np.isinf(l) else l, None if np.isinf(u) else u) for l, u in zip(lo, up)]
     cache.clear()
-    cache[name] = (G, np.abs(G), h, c, bounds)
+    cache[name] = (G, h, c, bounds)
     return cache[name]
 
 
@@ -39,28 +40,60 @@ def whole(G, h, c, bounds):
     return r, 1, G.shape[0]
 
 
-def cuts(G, aG, h, c, bounds, k0, batch, tol):
-    # The loop of fit/lp's SolveCuts: rows spread evenly over the index
-    # range first, then at most batch of the most violated rows per
-    # round, violation relative to the row's magnitude at x.
+def diverse(G, cand, v, k, max_cos):
+    # fit/lp's selection: the 8k most violated candidates, most violated
+    # first (ties by index), leaving out a row within |cos| > max_cos of
+    # one already taken, at most k rows.
+    if len(cand) > 8 * k:
+        cand = cand[np.argpartition(-v[cand], 8 * k - 1)[:8 * k]]
+    cand = cand[np.lexsort((cand, -v[cand]))]
+    U = G[cand]
+    U = U / np.maximum(np.linalg.norm(U, axis=1), 1e-300)[:, None]
+    taken = []
+    for q in range(len(cand)):
+        if len(taken) == k:
+            break
+        if taken and np.max(np.abs(U[taken] @ U[q])) > max_cos:
+            continue
+        taken.append(q)
+    return cand[taken]
+
+
+def cuts(G, h, c, bounds, k0, batch, tol, select, max_cos):
+    # A row-generation loop around linprog: k0 rows spread evenly over
+    # the index range first, then at most batch violated rows per round,
+    # violation relative to the row's magnitude at x (the rule of fit/lp's
+    # SolveCuts), chosen as fit/lp chooses them ("diverse") or simply the
+    # most violated ("top"). Only the rows with g'x > h get their
+    # magnitude computed, as in fit/lp.
     m = G.shape[0]
     k0 = min(m, k0)
     active = np.zeros(m, bool)
     active[((np.arange(k0) + 0.5) * m / k0).astype(np.int64)] = True
     rounds = 0
+    spent = 0.0
+    r = np.empty(m)
     while True:
         rounds += 1
         A = np.flatnonzero(active)
-        r = linprog(c, A_ub=G[A], b_ub=h[A], bounds=bounds, method="highs-ds")
-        if r.status != 0:
-            return r, rounds, len(A)
-        x = r.x
-        v = (G @ x - h) / (np.abs(h) + aG @ np.abs(x))
-        v[active] = -np.inf
-        cand = np.flatnonzero(v > tol)
+        t0 = time.process_time()
+        res = linprog(c, A_ub=G[A], b_ub=h[A], bounds=bounds, method="highs-ds")
+        spent += time.process_time() - t0
+        if res.status != 0:
+            return res, rounds, len(A), spent
+        x = res.x
+        np.matmul(G, x, out=r)
+        r -= h
+        cand = np.flatnonzero(r > 0)
+        cand = cand[~active[cand]]
+        v = np.full(m, -np.inf)
+        v[cand] = r[cand] / (np.abs(h[cand]) + np.abs(G[cand]) @ np.abs(x))
+        cand = cand[v[cand] > tol]
         if len(cand) == 0:
-            return r, rounds, len(A)
-        if len(cand) > batch:
+            return res, rounds, len(A), spent
+        if select == "diverse":
+            cand = diverse(G, cand, v, batch, max_cos)
+        elif len(cand) > batch:
             cand = cand[np.argpartition(-v[cand], batch - 1)[:batch]]
         active[cand] = True
 
@@ -68,14 +101,16 @@ def cuts(G, aG, h, c, bounds, k0, batch, tol):
 def main():
     for line in sys.stdin:
         cmd = json.loads(line)
-        G, aG, h, c, bounds = load(cmd["file"])
+        G, h, c, bounds = load(cmd["file"])
         c0, w0 = time.process_time(), time.perf_counter()
         if cmd["op"] == "whole":
             r, rounds, active = whole(G, h, c, bounds)
+            spent = time.process_time() - c0
         else:
-            r, rounds, active = cuts(G, aG, h, c, bounds, cmd["initial"], cmd["batch"], cmd["tol"])
+            r, rounds, active, spent = cuts(G, h, c, bounds, cmd["initial"], cmd["batch"], cmd["tol"],
+                                            cmd["select"], cmd["maxcos"])
         cpu, wall = time.process_time() - c0, time.perf_counter() - w0
-        out = {"cpu": cpu, "wall": wall, "status": int(r.status), "message": str(r.message),
+        out = {"cpu": cpu, "wall": wall, "solve": spent, "status": int(r.status), "message": str(r.message),
                "objective": float(r.fun) if r.status == 0 else None, "rounds": rounds, "active": active}
         print(json.dumps(out), flush=True)
 

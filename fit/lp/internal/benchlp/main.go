@@ -3,14 +3,25 @@
 // interleaved sequence, solves each file with fit/lp (SolveCuts, and Solve
 // on the whole LP) and with HiGHS's dual simplex from SciPy (a
 // row-generation loop, and the whole LP) in a Python process fed the same
-// files, and prints the times, their ratios and whether the optima agree.
+// files, and prints the CPU times (medians), their ratios and whether
+// every run's optimum agrees with HiGHS's to 1e-9 relative.
+//
+// HiGHS runs in two loops: its own (the most violated rows, 10 rows per
+// unknown at the start and 2 per round) and fit/lp's (the same start,
+// batch and selection of nearly parallel rows as SolveCuts's dual
+// simplex), so that the second one differs from fit/lp's only in the LP
+// solver and the row evaluation. Both evaluate the rows as fit/lp does:
+// one matrix-vector product, and the magnitude only of the rows it finds
+// violated. SciPy's linprog cannot start from a basis, so every HiGHS
+// round solves from scratch; that is the anchor's loop as SciPy offers
+// it.
 //
 // HiGHS is only a yardstick here; basin never calls it. Run it with
 // make bench-lp, which installs Debian's python3-scipy when missing.
 //
 // Usage:
 //
-//	go run ./fit/lp/internal/benchlp [-dir DIR] [-reps N] [-whole] [-python PATH]
+//	go run ./fit/lp/internal/benchlp [-dir DIR] [-reps N] [-whole=false] [-cases LIST] [-python PATH]
 package main
 
 import (
@@ -47,6 +58,7 @@ const violTol = 1e-7
 
 type timing struct {
 	cpu, wall float64
+	solve     float64 // HiGHS: CPU inside linprog
 	obj       float64
 	rounds    int
 	active    int
@@ -91,8 +103,18 @@ func startHighs(python, dir string) (*highs, error) {
 	return &highs{cmd: cmd, in: in, out: sc}, nil
 }
 
-func (h *highs) run(op, file string, initial, batch int) timing {
-	b, _ := json.Marshal(map[string]any{"op": op, "file": file, "initial": initial, "batch": batch, "tol": violTol})
+// loop is a row-generation loop around HiGHS: initial rows, rows added
+// per round, and the selection ("top": the most violated; "diverse":
+// fit/lp's, which leaves out rows nearly parallel to one taken).
+type loop struct {
+	name           string
+	initial, batch int
+	sel            string
+}
+
+func (h *highs) run(op, file string, l loop) timing {
+	b, _ := json.Marshal(map[string]any{"op": op, "file": file, "initial": l.initial, "batch": l.batch,
+		"tol": violTol, "select": l.sel, "maxcos": diverseCos})
 	if _, err := h.in.Write(append(b, '\n')); err != nil {
 		return timing{err: err.Error()}
 	}
@@ -100,17 +122,17 @@ func (h *highs) run(op, file string, initial, batch int) timing {
 		return timing{err: fmt.Sprintf("no answer from HiGHS (%v)", h.out.Err())}
 	}
 	var r struct {
-		CPU, Wall float64
-		Status    int
-		Message   string
-		Objective *float64
-		Rounds    int
-		Active    int
+		CPU, Wall, Solve float64
+		Status           int
+		Message          string
+		Objective        *float64
+		Rounds           int
+		Active           int
 	}
 	if err := json.Unmarshal(h.out.Bytes(), &r); err != nil {
 		return timing{err: err.Error()}
 	}
-	t := timing{cpu: r.CPU, wall: r.Wall, rounds: r.Rounds, active: r.Active, obj: math.NaN()}
+	t := timing{cpu: r.CPU, wall: r.Wall, solve: r.Solve, rounds: r.Rounds, active: r.Active, obj: math.NaN()}
 	if r.Objective != nil {
 		t.obj = *r.Objective
 	} else {
@@ -156,16 +178,36 @@ func median(v []float64) float64 {
 	return (s[len(s)/2-1] + s[len(s)/2]) / 2
 }
 
-type series struct{ ours, theirs []timing }
+// series holds the interleaved runs of one case: fit/lp's and, per
+// HiGHS loop, HiGHS's.
+type series struct {
+	ours   []timing
+	theirs [][]timing // per loop
+}
+
+// relDiff is |a - b| / |b|, the relative difference of two optima (+Inf
+// when either is not a number).
+func relDiff(a, b float64) float64 {
+	d := math.Abs(a-b) / math.Abs(b)
+	if math.IsNaN(d) {
+		return math.Inf(1)
+	}
+	return d
+}
+
+func fail(err error) {
+	fmt.Fprintln(os.Stderr, "benchlp:", err)
+	os.Exit(1)
+}
 
 func main() {
 	dir := flag.String("dir", filepath.Join(os.TempDir(), "basin-bench-lp"), "write the LP files to `DIR`")
-	reps := flag.Int("reps", 3, "interleaved repetitions `N` of each row-generation solve")
+	reps := flag.Int("reps", 5, "interleaved repetitions `N` of each row-generation solve")
 	whole := flag.Bool("whole", true, "also solve each whole LP once with both solvers")
 	python := flag.String("python", "/usr/bin/python3", "Python with SciPy, `PATH`")
 	only := flag.String("cases", "", "comma-separated case names to run (default all)")
-	hInit := flag.Int("highs-initial", 0, "initial rows of HiGHS's loop (0: 10 x unknowns)")
-	hBatch := flag.Int("highs-batch", 0, "rows added per round in HiGHS's loop (0: 2 x unknowns)")
+	hInit := flag.Int("highs-initial", 0, "initial rows of HiGHS's own loop (0: 10 x unknowns)")
+	hBatch := flag.Int("highs-batch", 0, "rows added per round in HiGHS's own loop (0: 2 x unknowns)")
 	oInit := flag.Int("initial", 0, "fit/lp's initial rows (0: SolveCuts's default)")
 	oBatch := flag.Int("batch", 0, "fit/lp's rows added per round (0: SolveCuts's default)")
 	flag.Parse()
@@ -174,8 +216,7 @@ func main() {
 		copts = &lp.CutOptions{Initial: *oInit, Batch: *oBatch}
 	}
 	if err := os.MkdirAll(*dir, 0o755); err != nil {
-		fmt.Fprintln(os.Stderr, "benchlp:", err)
-		os.Exit(1)
+		fail(err)
 	}
 	var cases []certlp.Case
 	for _, c := range certlp.Cases {
@@ -183,29 +224,26 @@ func main() {
 			cases = append(cases, c)
 		}
 	}
+	// The files are written afresh each time, so that they always hold
+	// the generator's current rows.
 	files := make([]string, len(cases))
 	for k, c := range cases {
 		files[k] = filepath.Join(*dir, c.Name()+".lpf64")
-		if _, err := os.Stat(files[k]); err == nil {
-			continue
-		}
 		if err := c.LP().Dense().WriteFile(files[k]); err != nil {
-			fmt.Fprintln(os.Stderr, "benchlp:", err)
-			os.Exit(1)
+			fail(err)
 		}
 	}
 	h, err := startHighs(*python, *dir)
 	if err != nil {
-		fmt.Fprintln(os.Stderr, "benchlp: HiGHS:", err)
-		os.Exit(1)
+		fail(fmt.Errorf("HiGHS: %w", err))
 	}
 	cut := make([]series, len(cases))
 	whl := make([]series, len(cases))
+	loopsOf := make([][]loop, len(cases))
 	for k, c := range cases {
 		d, err := certlp.ReadFile(files[k])
 		if err != nil {
-			fmt.Fprintln(os.Stderr, "benchlp:", err)
-			os.Exit(1)
+			fail(err)
 		}
 		w := len(d.C)
 		ini, bat := *hInit, *hBatch
@@ -215,68 +253,125 @@ func main() {
 		if bat <= 0 {
 			bat = 2 * w
 		}
+		sameIni, sameBat := dualInitial*w, dualBatch*w
+		if *oInit > 0 {
+			sameIni = *oInit
+		}
+		if *oBatch > 0 {
+			sameBat = *oBatch
+		}
+		loops := []loop{
+			{"HiGHS, top", ini, bat, "top"},
+			{"HiGHS, fit/lp's", sameIni, sameBat, "diverse"},
+		}
+		loopsOf[k] = loops
+		cut[k].theirs = make([][]timing, len(loops))
 		for r := 0; r < *reps; r++ {
-			// Alternate which solver goes first.
-			if r%2 == 0 {
-				cut[k].ours = append(cut[k].ours, goCuts(d, copts))
-				cut[k].theirs = append(cut[k].theirs, h.run("cuts", files[k], ini, bat))
-			} else {
-				cut[k].theirs = append(cut[k].theirs, h.run("cuts", files[k], ini, bat))
-				cut[k].ours = append(cut[k].ours, goCuts(d, copts))
+			// Rotate which solver goes first.
+			for q := 0; q <= len(loops); q++ {
+				switch j := (q + r) % (len(loops) + 1); j {
+				case 0:
+					cut[k].ours = append(cut[k].ours, goCuts(d, copts))
+				default:
+					cut[k].theirs[j-1] = append(cut[k].theirs[j-1], h.run("cuts", files[k], loops[j-1]))
+				}
 			}
-			fmt.Fprintf(os.Stderr, "%s cuts %d: ours %.3fs, HiGHS %.3fs (CPU)\n", c.Name(), r+1,
-				cut[k].ours[r].cpu, cut[k].theirs[r].cpu)
+			fmt.Fprintf(os.Stderr, "%s cuts %d: fit/lp %.3fs", c.Name(), r+1, cut[k].ours[r].cpu)
+			for j, l := range loops {
+				fmt.Fprintf(os.Stderr, ", %s %.3fs", l.name, cut[k].theirs[j][r].cpu)
+			}
+			fmt.Fprintln(os.Stderr, " (CPU)")
 		}
 		if *whole {
-			whl[k].theirs = append(whl[k].theirs, h.run("whole", files[k], 0, 0))
+			whl[k].theirs = [][]timing{{h.run("whole", files[k], loop{})}}
 			whl[k].ours = append(whl[k].ours, goWhole(d, nil))
-			fmt.Fprintf(os.Stderr, "%s whole: ours %.3fs, HiGHS %.3fs (CPU)\n", c.Name(),
-				whl[k].ours[0].cpu, whl[k].theirs[0].cpu)
+			fmt.Fprintf(os.Stderr, "%s whole: fit/lp %.3fs, HiGHS %.3fs (CPU)\n", c.Name(),
+				whl[k].ours[0].cpu, whl[k].theirs[0][0].cpu)
 		}
 	}
 	h.in.Close()
 	h.cmd.Wait()
 
 	tw := tabwriter.NewWriter(os.Stdout, 2, 8, 2, ' ', tabwriter.AlignRight)
-	fmt.Fprintf(tw, "case\tsolve\trows\tunknowns\tfit/lp CPU s\tHiGHS CPU s\tratio CPU\tratio wall\tfit/lp rows\tHiGHS rows\tfit/lp rounds\tHiGHS rounds\tg fit/lp\tg HiGHS\trel diff\tagree 1e-9\t\n")
-	print := func(c certlp.Case, kind string, s series, rows, w int) {
-		if len(s.ours) == 0 {
-			return
+	fmt.Fprintf(tw, "case\tsolve\tanchor\tfit/lp CPU s\tanchor CPU s\tin linprog\tratio CPU\tratio wall\tfit/lp rows\tanchor rows\tfit/lp rounds\tanchor rounds\tg fit/lp\tg anchor\tmax rel diff\tagree 1e-9\t\n")
+	cpu := func(t []timing) []float64 {
+		v := make([]float64, len(t))
+		for i := range t {
+			v[i] = t[i].cpu
 		}
-		cpu := func(t []timing) []float64 {
-			v := make([]float64, len(t))
-			for i := range t {
-				v[i] = t[i].cpu
+		return v
+	}
+	wall := func(t []timing) []float64 {
+		v := make([]float64, len(t))
+		for i := range t {
+			v[i] = t[i].wall
+		}
+		return v
+	}
+	solve := func(t []timing) []float64 {
+		v := make([]float64, len(t))
+		for i := range t {
+			v[i] = t[i].solve
+		}
+		return v
+	}
+	worst := 0.0 // the largest row-generation CPU ratio
+	allAgree := true
+	print := func(c certlp.Case, kind, anchor string, ours, theirs []timing) float64 {
+		if len(ours) == 0 || len(theirs) == 0 {
+			return math.NaN()
+		}
+		// Every run's optimum against HiGHS's first one.
+		ref := -theirs[0].obj
+		rel := 0.0
+		var errs []string
+		for _, t := range append(slices.Clone(ours), theirs...) {
+			rel = max(rel, relDiff(-t.obj, ref))
+			if t.err != "" {
+				errs = append(errs, t.err)
 			}
-			return v
 		}
-		wall := func(t []timing) []float64 {
-			v := make([]float64, len(t))
-			for i := range t {
-				v[i] = t[i].wall
-			}
-			return v
-		}
-		o, t := s.ours[len(s.ours)-1], s.theirs[len(s.theirs)-1]
-		go_, hi := -o.obj, -t.obj
-		rel := math.Abs(go_-hi) / max(1, math.Abs(hi))
 		agree := "yes"
 		if !(rel <= agreeTol) {
 			agree = "NO"
+			allAgree = false
 		}
-		if o.err != "" || t.err != "" {
-			agree = "error: " + o.err + " / " + t.err
+		if len(errs) > 0 {
+			agree = "error: " + strings.Join(errs, " / ")
+			allAgree = false
 		}
-		fmt.Fprintf(tw, "%s\t%s\t%d\t%d\t%.3f\t%.3f\t%.2f\t%.2f\t%d\t%d\t%d\t%d\t%.10g\t%.10g\t%.1e\t%s\t\n",
-			c.Name(), kind, rows, w, median(cpu(s.ours)), median(cpu(s.theirs)),
-			median(cpu(s.ours))/median(cpu(s.theirs)), median(wall(s.ours))/median(wall(s.theirs)),
-			o.active, t.active, o.rounds, t.rounds, go_, hi, rel, agree)
+		o, t := ours[len(ours)-1], theirs[len(theirs)-1]
+		ratio := median(cpu(ours)) / median(cpu(theirs))
+		fmt.Fprintf(tw, "%s\t%s\t%s\t%.4f\t%.4f\t%.4f\t%.2f\t%.2f\t%d\t%d\t%d\t%d\t%.10g\t%.10g\t%.1e\t%s\t\n",
+			c.Name(), kind, anchor, median(cpu(ours)), median(cpu(theirs)), median(solve(theirs)),
+			ratio, median(wall(ours))/median(wall(theirs)),
+			o.active, t.active, o.rounds, t.rounds, -o.obj, -t.obj, rel, agree)
+		return ratio
 	}
 	for k, c := range cases {
-		lpc := c.LP()
-		print(c, "cuts", cut[k], lpc.Len(), lpc.Unknowns())
-		print(c, "whole", whl[k], lpc.Len(), lpc.Unknowns())
+		for j, l := range loopsOf[k] {
+			worst = max(worst, print(c, "cuts", l.name, cut[k].ours, cut[k].theirs[j]))
+		}
+		if len(whl[k].theirs) > 0 {
+			print(c, "whole", "HiGHS", whl[k].ours, whl[k].theirs[0])
+		}
 	}
 	tw.Flush()
-	fmt.Printf("medians of %d interleaved runs (whole LPs: one run); ratio = fit/lp over HiGHS (below 1: fit/lp faster); g = the optimum (largest decrease rate)\n", *reps)
+	fmt.Printf("medians of %d interleaved runs (whole LPs: one run); ratio = fit/lp over the anchor (below 1: fit/lp faster); "+
+		"anchors: HiGHS's dual simplex (SciPy linprog, highs-ds) in a row-generation loop, with the most violated rows (top; -highs-initial, -highs-batch: default 10 and 2 rows per unknown) "+
+		"or with fit/lp's own selection and sizes; \"in linprog\": the anchor's CPU inside linprog; g = the optimum (largest decrease rate); rel diff over every run\n",
+		*reps)
+	fmt.Printf("largest row-generation CPU ratio: %.2f; optima agree to %g: %v\n", worst, agreeTol, allAgree)
+	if !allAgree {
+		os.Exit(1)
+	}
 }
+
+// SolveCuts's dual-simplex defaults and cut selection (fit/lp/cuts.go:
+// dualInitial, dualBatch, diverseCos), repeated for the HiGHS loop that
+// runs fit/lp's own selection.
+const (
+	dualInitial = 5
+	dualBatch   = 2
+	diverseCos  = 0.99
+)
