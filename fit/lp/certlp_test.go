@@ -82,6 +82,24 @@ func BenchmarkCertificateLP(b *testing.B) {
 				b.ReportMetric(-r.Objective, "g")
 			})
 		}
+		// The dual simplex loop on the rows held as a dense matrix, as
+		// make bench-lp times it (the rows are generated outside the
+		// timed loop).
+		b.Run(bc.Name()+"/cuts-dense", func(b *testing.B) {
+			d := c.Dense()
+			b.SetBytes(size)
+			b.ReportAllocs()
+			var r *lp.Result
+			for b.Loop() {
+				var err error
+				if r, err = lp.SolveCuts(d.C, lp.DenseRows{G: d.G, H: d.H}, d.Lower, d.Upper, nil); err != nil {
+					b.Fatal(err)
+				}
+			}
+			b.ReportMetric(float64(r.Rounds), "rounds")
+			b.ReportMetric(float64(len(r.Active)), "active")
+			b.ReportMetric(-r.Objective, "g")
+		})
 		// The whole LP at once with Solve (the rows are generated outside
 		// the timed loop).
 		b.Run(bc.Name()+"/whole", func(b *testing.B) {

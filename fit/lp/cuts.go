@@ -106,7 +106,8 @@ func (d DenseRows) RowTo(dst []float64, i int) float64 {
 // lower <= x <= upper (nil means no bound) by cutting planes: it solves the
 // problem on a subset of the rows, evaluates all rows at the answer in one
 // parallel pass, adds the most violated ones (at most CutOptions.Batch)
-// and repeats until no row is violated beyond CutOptions.Tol. An unbounded
+// and repeats until no row is violated beyond CutOptions.Tol (Kelley's
+// cutting-plane method [Kelley1960]). An unbounded
 // restricted problem is cut the same way, with the rows that its ray
 // violates.
 //

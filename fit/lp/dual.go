@@ -40,10 +40,10 @@ const (
 // as a warm start: each pivot brings in a violated constraint r (by dual
 // steepest edge, see price; w = B⁻ᵀa_r) and drops the basic constraint the ratio test min y_k/w_k over
 // w_k > 0 picks (Harris's two-pass test, the larger pivot among near
-// ties), then updates the explicit B⁻¹ by a rank-one change and
+// ties [Harris1973]), then updates the explicit B⁻¹ by a rank-one change and
 // refactorises it by LU every refactorEvery pivots. After blandAfter
 // degenerate pivots in a row both choices fall back to Bland's
-// smallest-index rule, which cannot cycle (Bland 1977). The costs are
+// smallest-index rule, which cannot cycle [Bland1977]. The costs are
 // perturbed during the dual pivots and restored at their end (see run).
 //
 // The start is the basis of bounds that makes y = |c| >= 0: the lower
@@ -294,7 +294,7 @@ func (s *dual) dot(k int, x []float64) float64 {
 
 // price returns the violated constraint to bring in and its violation,
 // or -1: by dual steepest edge, the largest violation² / ||B⁻ᵀa_k||²
-// (Forrest and Goldfarb, Math. Programming 57, 1992), or with bland the
+// [ForrestGoldfarb1992], or with bland the
 // lowest-numbered violated constraint.
 func (s *dual) price(bland bool) (int, float64) {
 	n := s.n
@@ -375,7 +375,8 @@ func (s *dual) sync() {
 // the ratio test, and the stalling they cause on these highly degenerate
 // problems, unlikely. At their optimum the true costs come back; a
 // multiplier that turns negative then is removed by primal simplex
-// pivots (primal), as HiGHS does after its own cost perturbation.
+// pivots (primal), as HiGHS does after its own cost perturbation
+// [HuangfuHall2018].
 func (s *dual) run(maxIter int) Status {
 	dtol := dualOptTol * (1 + s.cn)
 	for {
@@ -659,7 +660,7 @@ func (s *dual) ratio(dtol float64, bland bool) int {
 // u = B⁻¹e_l, tau = B⁻¹w, alpha_k = a_k'u and a = alpha_k/w_l, each
 // nonbasic constraint's B⁻ᵀa_k changes by -a (w - e_l), so its residual
 // by -a·viol and its weight by -2a(a_k'tau - alpha_k) + a²||w - e_l||²
-// (Forrest and Goldfarb 1992, in this row form).
+// ([ForrestGoldfarb1992], in this row form).
 func (s *dual) pivot(r, l int, viol float64) {
 	n, m := s.n, len(s.h)
 	wl := s.w[l]

@@ -195,6 +195,14 @@ func relDiff(a, b float64) float64 {
 	return d
 }
 
+func caseNames() string {
+	var s []string
+	for _, c := range certlp.Cases {
+		s = append(s, c.Name())
+	}
+	return strings.Join(s, ", ")
+}
+
 func fail(err error) {
 	fmt.Fprintln(os.Stderr, "benchlp:", err)
 	os.Exit(1)
@@ -223,6 +231,16 @@ func main() {
 		if *only == "" || slices.Contains(strings.Split(*only, ","), c.Name()) {
 			cases = append(cases, c)
 		}
+	}
+	if *only != "" {
+		for _, name := range strings.Split(*only, ",") {
+			if !slices.ContainsFunc(cases, func(c certlp.Case) bool { return c.Name() == name }) {
+				fail(fmt.Errorf("no case %q (cases: %s)", name, caseNames()))
+			}
+		}
+	}
+	if *reps < 1 {
+		fail(fmt.Errorf("-reps %d: need at least 1", *reps))
 	}
 	// The files are written afresh each time, so that they always hold
 	// the generator's current rows.
