@@ -91,10 +91,10 @@ func (ck *checker) nonRiseTol(ve *vEval, r levelResult, hq float64) float64 {
 	n := ck.fam.n
 	tol := 0.0
 	for ri := range ck.runs {
-		zs := ck.runs[ri].z
-		for k := 0; k+n <= len(zs); k += n {
-			z := zs[k : k+n]
-			if v, _ := ve.vdot(ck.field, z); v <= r.level {
+		rr := &ck.runs[ri]
+		for i := range rr.t {
+			z := rr.z[i*n : (i+1)*n]
+			if v, _ := ck.samples.vdot(ve, ck.field, rr.off+i, z); v <= r.level {
 				tol = math.Max(tol, ck.vdTol(ve.gbuf, ve.fbuf, hq))
 			}
 		}

@@ -176,6 +176,28 @@ func (r *certRows) RowTo(dst []float64, i int) float64 {
 	}
 }
 
+// denseRowsMax caps the entries of the certificate LP's rows held as a
+// dense matrix (32 MB of float64s): lp.SolveCuts reads every row on
+// each of its rounds, so rows computed once and read in place cost one
+// evaluation of the monomials per row instead of one a round. Larger row
+// sets are generated on demand.
+const denseRowsMax = 1 << 22
+
+// solverRows returns the rows for lp.SolveCuts: r itself, or when they
+// fit within denseRowsMax, the same rows computed once into an
+// lp.DenseRows (RowTo's values bit for bit, so the LP is the same).
+func (r *certRows) solverRows() lp.Rows {
+	m, w := r.Len(), r.p+1
+	if m == 0 || m*w > denseRowsMax {
+		return r
+	}
+	d := lp.DenseRows{G: make([]float64, m*w), H: make([]float64, m)}
+	for i := 0; i < m; i++ {
+		d.H[i] = r.RowTo(d.G[i*w:(i+1)*w], i)
+	}
+	return d
+}
+
 // LP bounds (not user-facing): a box on V's coefficients that V <= 1 on
 // targets of size ~1 in z never reaches, and on the margin.
 const (
@@ -217,7 +239,7 @@ func solveCertLP(fam *vFamily, rows *certRows, central bool) lpOutcome {
 	if central {
 		opts = &lp.CutOptions{Method: lp.InteriorPoint}
 	}
-	res, err := lp.SolveCuts(obj, rows, lower, upper, opts)
+	res, err := lp.SolveCuts(obj, rows.solverRows(), lower, upper, opts)
 	out := lpOutcome{err: err, res: res}
 	if res != nil {
 		out.status = res.Status

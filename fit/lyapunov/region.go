@@ -33,6 +33,7 @@ const (
 // zRun is one recorded run in scaled coordinates.
 type zRun struct {
 	name string
+	off  int // index of the run's first sample among all samples
 	t    []float64
 	z    []float64 // n a sample, row-major
 	h    []float64 // leverage of each sample
@@ -61,6 +62,10 @@ type checker struct {
 	kappa  float64     // noise multiplier of the pair tolerance
 	rays   []ray
 	fz     []*Poly // the field in z
+	// The V-independent parts of the checks at the recorded samples (in
+	// run order, with the field), the ray points (ray by ray) and the
+	// pool (see pointCache).
+	samples, rayPts, poolPts *pointCache
 	// pool holds Monte-Carlo points of the samples' box that are trusted
 	// (n each); poolShare is their share of the box's points.
 	pool      []float64
@@ -276,7 +281,7 @@ func (ck *checker) values(ve *vEval) [][]float64 {
 		r := &ck.runs[ri]
 		vs := make([]float64, len(r.t))
 		for i := range vs {
-			vs[i] = ve.value(r.z[i*n : (i+1)*n])
+			vs[i] = ck.samples.value(ve, r.off+i, r.z[i*n:(i+1)*n])
 		}
 		vals[ri] = vs
 	}
@@ -307,7 +312,7 @@ func (ck *checker) markSamples(first *badMark, ve *vEval, vals [][]float64, rex,
 			if z2 <= rex2 || vs[i] >= first.key {
 				continue
 			}
-			v, vd := ve.vdot(ck.field, z)
+			v, vd := ck.samples.vdot(ve, ck.field, r.off+i, z)
 			bad := !(v >= posEps*z2) ||
 				!(vd+ck.robust(ve.gbuf, r.h[i]) < 0 || (ck.nonRise && vd <= ck.vdTol(ve.gbuf, ve.fbuf, hq))) ||
 				(i+1 < len(vs) && vs[i+1]-v > ck.pairTolAt(ve.gbuf, hq, v))
@@ -332,7 +337,7 @@ func (ck *checker) markRays(first *badMark, ve *vEval, rex, hq float64) {
 		mx := 0.0
 		for k := 0; k < rayPoints; k++ {
 			z := ry.z[k*n : (k+1)*n]
-			v := ve.valueGrad(g, z)
+			v := ck.rayPts.valueGrad(ve, g, ri*rayPoints+k, z)
 			mx = math.Max(mx, v)
 			if mx >= first.key {
 				break
@@ -401,7 +406,7 @@ func (ck *checker) levelAt(first badMark, ve *vEval, c []float64, vals [][]float
 		res.level = 0
 		for ri := range ck.rays {
 			ry := &ck.rays[ri]
-			res.level = math.Max(res.level, ve.value(ry.z[(rayPoints-1)*n:]))
+			res.level = math.Max(res.level, ck.rayPts.value(ve, ri*rayPoints+rayPoints-1, ry.z[(rayPoints-1)*n:]))
 		}
 	}
 	res.vball = ck.ballMax(ve, rex)
@@ -462,7 +467,7 @@ func (ck *checker) pieceBox(ve *vEval, c []float64, level float64) (lo, hi []flo
 		mx := 0.0
 		for k := 0; k < rayPoints; k++ {
 			z := ry.z[k*n : (k+1)*n]
-			mx = math.Max(mx, ve.value(z))
+			mx = math.Max(mx, ck.rayPts.value(ve, ri*rayPoints+k, z))
 			if mx > level {
 				break
 			}
@@ -471,10 +476,10 @@ func (ck *checker) pieceBox(ve *vEval, c []float64, level float64) (lo, hi []flo
 	}
 	buf := make([]float64, n)
 	for ri := range ck.runs {
-		zs := ck.runs[ri].z
-		for k := 0; k+n <= len(zs); k += n {
-			z := zs[k : k+n]
-			if ve.value(z) <= level && rayMax(ve, z, buf) <= level {
+		r := &ck.runs[ri]
+		for i := range r.t {
+			z := r.z[i*n : (i+1)*n]
+			if ck.samples.value(ve, r.off+i, z) <= level && rayMax(ve, z, buf) <= level {
 				add(z)
 			}
 		}
@@ -502,7 +507,7 @@ func (ck *checker) figures(res *levelResult, ve *vEval, vals [][]float64, hq flo
 	in, np := 0, len(ck.pool)/n
 	for k := 0; k < np; k++ {
 		z := ck.pool[k*n : (k+1)*n]
-		if inBox(z) && ve.value(z) <= level {
+		if inBox(z) && ck.poolPts.value(ve, k, z) <= level {
 			in++
 		}
 	}
@@ -523,7 +528,7 @@ func (ck *checker) figures(res *levelResult, ve *vEval, vals [][]float64, hq flo
 				continue
 			}
 			res.pairs++
-			_, vd := ve.vdot(ck.field, z0)
+			_, vd := ck.samples.vdot(ve, ck.field, r.off+i, z0)
 			tol := ck.pairTolAt(ve.gbuf, hq, vs[i])
 			res.tolerance = math.Max(res.tolerance, tol)
 			if vs[i+1]-vs[i] <= tol {

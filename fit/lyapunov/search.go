@@ -575,7 +575,7 @@ func newChecker(ctx context.Context, d *Data, sys *System, o Options, nonRise bo
 			return nil, err
 		}
 		k := len(r.T)
-		runs = append(runs, zRun{name: r.Name, t: r.T, z: all[off*n : (off+k)*n : (off+k)*n]})
+		runs = append(runs, zRun{name: r.Name, off: off, t: r.T, z: all[off*n : (off+k)*n : (off+k)*n]})
 		off += k
 	}
 	if off*n != len(all) {
@@ -617,6 +617,13 @@ func newChecker(ctx context.Context, d *Data, sys *System, o Options, nonRise bo
 	}
 	ck.makeRays(rand.New(rand.NewPCG(o.Seed, 4)))
 	ck.makePool(o.ShareSamples, rand.New(rand.NewPCG(o.Seed, 2)))
+	ck.samples = newPointCache(ck.fam, all, ck.field, true)
+	rz := make([]float64, 0, len(ck.rays)*rayPoints*n)
+	for i := range ck.rays {
+		rz = append(rz, ck.rays[i].z...)
+	}
+	ck.rayPts = newPointCache(ck.fam, rz, nil, true)
+	ck.poolPts = newPointCache(ck.fam, ck.pool, nil, false)
 	return ck, nil
 }
 
@@ -746,12 +753,12 @@ func (ck *checker) lpRows(prev []float64, target, outer, lambda float64, o Optio
 			if norm2(z) <= r02 {
 				continue
 			}
-			v := ve.valueGrad(g, z)
+			v := ck.samples.valueGrad(ve, g, r.off+k, z)
 			if !(v <= outer) {
 				continue
 			}
 			in := v <= target
-			rows.addPoint(z, ck.field(f, z), in)
+			rows.addPoint(z, ck.samples.fieldAt(f, ck.field, r.off+k, z), in)
 			if in && k+1 < m {
 				rows.addPair(z, r.z[(k+1)*n:(k+2)*n], r.t[k+1]-r.t[k], ck.pairTolAt(g, hq, v)/target)
 			}
@@ -764,7 +771,7 @@ func (ck *checker) lpRows(prev []float64, target, outer, lambda float64, o Optio
 		if norm2(z) <= r02 {
 			continue
 		}
-		v := ve.value(z)
+		v := ck.poolPts.value(ve, k, z)
 		if !(v <= outer) {
 			continue
 		}
@@ -800,13 +807,13 @@ func (ck *checker) extent(c []float64, r levelResult) [2][]float64 {
 	for j := range lo {
 		lo[j], hi[j] = math.Inf(1), math.Inf(-1)
 	}
-	add := func(z []float64) {
+	add := func(pc *pointCache, i int, z []float64) {
 		for j, v := range z {
 			if v < r.lo[j] || v > r.hi[j] {
 				return
 			}
 		}
-		if ve.value(z) > r.level {
+		if pc.value(ve, i, z) > r.level {
 			return
 		}
 		for j, v := range z {
@@ -814,13 +821,13 @@ func (ck *checker) extent(c []float64, r levelResult) [2][]float64 {
 		}
 	}
 	for ri := range ck.runs {
-		zs := ck.runs[ri].z
-		for k := 0; k+n <= len(zs); k += n {
-			add(zs[k : k+n])
+		r := &ck.runs[ri]
+		for i := range r.t {
+			add(ck.samples, r.off+i, r.z[i*n:(i+1)*n])
 		}
 	}
 	for k := 0; k+n <= len(ck.pool); k += n {
-		add(ck.pool[k : k+n])
+		add(ck.poolPts, k/n, ck.pool[k:k+n])
 	}
 	for j := range lo {
 		if lo[j] > hi[j] {
@@ -839,11 +846,11 @@ func (ck *checker) quantile(c []float64, share float64, atLeast int) float64 {
 	r02 := ck.r0 * ck.r0
 	var vs []float64
 	for ri := range ck.runs {
-		zs := ck.runs[ri].z
-		for k := 0; k+n <= len(zs); k += n {
-			z := zs[k : k+n]
+		r := &ck.runs[ri]
+		for i := range r.t {
+			z := r.z[i*n : (i+1)*n]
 			if norm2(z) > r02 {
-				vs = append(vs, ve.value(z))
+				vs = append(vs, ck.samples.value(ve, r.off+i, z))
 			}
 		}
 	}

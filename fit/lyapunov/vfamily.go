@@ -217,9 +217,13 @@ func newVEval(fam *vFamily, c []float64) *vEval {
 
 // value returns V(z).
 func (e *vEval) value(z []float64) float64 {
-	e.fam.lib.EvalWorkTo(e.val, e.work, z)
+	return e.valueFrom(e.fam.lib.EvalWorkTo(e.val, e.work, z))
+}
+
+// valueFrom returns V from the family's monomials val at a point.
+func (e *vEval) valueFrom(val []float64) float64 {
 	s := 0.0
-	for k, v := range e.val {
+	for k, v := range val {
 		s += e.c[k] * v
 	}
 	return s
@@ -227,8 +231,15 @@ func (e *vEval) value(z []float64) float64 {
 
 // valueGrad returns V(z) and stores grad V(z) in g.
 func (e *vEval) valueGrad(g, z []float64) float64 {
-	n := e.n
 	e.fam.lib.GradWorkTo(e.grad, e.val, e.gwork, z)
+	return e.valueGradFrom(g, e.val, e.grad)
+}
+
+// valueGradFrom returns V from the family's monomials val at a point and
+// stores grad V in g, from the monomials' gradients grad (row-major, as
+// poly.Library.GradWorkTo stores them).
+func (e *vEval) valueGradFrom(g, val, grad []float64) float64 {
+	n := e.n
 	s := 0.0
 	for j := range g {
 		g[j] = 0
@@ -237,8 +248,8 @@ func (e *vEval) valueGrad(g, z []float64) float64 {
 		if ck == 0 {
 			continue
 		}
-		s += ck * e.val[k]
-		gk := e.grad[k*n : (k+1)*n]
+		s += ck * val[k]
+		gk := grad[k*n : (k+1)*n]
 		for j := range g {
 			g[j] += ck * gk[j]
 		}

@@ -1,0 +1,98 @@
+package lyapunov
+
+// pointCacheMax caps the float64s one point set's cache holds (32 MB).
+// A part that does not fit (the monomials, their gradients, the field,
+// in that order of need) is not kept, and the checks compute it at the
+// point when they need it, as without a cache.
+const pointCacheMax = 1 << 22
+
+// pointCache holds what the checks of every V need at a fixed set of
+// points and that does not depend on V: the monomials of V's family
+// there (p a point, as poly.Library.GradWorkTo stores them), their
+// gradients (p·n a point, row-major) and the model's field (n a point).
+// The level search evaluates many V of one family on the same recorded
+// samples, rays and Monte-Carlo points; with the cache each V costs a
+// dot product per point instead of the monomials and the field again.
+// Each part is nil when it is not kept. The values are the very numbers
+// vEval computes at the point, so a V evaluated from the cache is the
+// same, bit for bit, as one evaluated at the point.
+type pointCache struct {
+	p, n         int
+	phi, grad, f []float64
+}
+
+// newPointCache computes the cache of the points z (n each): the field
+// when field is not nil, then the monomials, with their gradients when
+// grad is set, each part as far as it fits.
+func newPointCache(fam *vFamily, z []float64, field Field, grad bool) *pointCache {
+	n, p := fam.n, fam.Len()
+	m := len(z) / n
+	pc := &pointCache{p: p, n: n}
+	budget := pointCacheMax
+	if field != nil && m*n <= budget {
+		pc.f = make([]float64, m*n)
+		budget -= m * n
+	}
+	switch {
+	case grad && m*p*(n+1) <= budget:
+		pc.phi, pc.grad = make([]float64, m*p), make([]float64, m*p*n)
+	case !grad && m*p <= budget:
+		pc.phi = make([]float64, m*p)
+	}
+	if pc.phi == nil && pc.f == nil {
+		return pc
+	}
+	lib := fam.lib
+	work := make([]float64, lib.GradWorkLen())
+	for i := 0; i < m; i++ {
+		x := z[i*n : (i+1)*n]
+		switch {
+		case pc.grad != nil:
+			lib.GradWorkTo(pc.grad[i*p*n:(i+1)*p*n], pc.phi[i*p:(i+1)*p], work, x)
+		case pc.phi != nil:
+			lib.EvalWorkTo(pc.phi[i*p:(i+1)*p], work[:lib.WorkLen()], x)
+		}
+		if pc.f != nil {
+			field(pc.f[i*n:(i+1)*n], x)
+		}
+	}
+	return pc
+}
+
+// value returns V at point i (z its coordinates).
+func (pc *pointCache) value(ve *vEval, i int, z []float64) float64 {
+	if pc == nil || pc.phi == nil {
+		return ve.value(z)
+	}
+	return ve.valueFrom(pc.phi[i*pc.p : (i+1)*pc.p])
+}
+
+// valueGrad returns V at point i and stores its gradient in g.
+func (pc *pointCache) valueGrad(ve *vEval, g []float64, i int, z []float64) float64 {
+	if pc == nil || pc.grad == nil {
+		return ve.valueGrad(g, z)
+	}
+	p, n := pc.p, pc.n
+	return ve.valueGradFrom(g, pc.phi[i*p:(i+1)*p], pc.grad[i*p*n:(i+1)*p*n])
+}
+
+// fieldAt returns the model's field at point i, into dst when it is not
+// cached.
+func (pc *pointCache) fieldAt(dst []float64, field Field, i int, z []float64) []float64 {
+	if pc == nil || pc.f == nil {
+		return field(dst, z)
+	}
+	return pc.f[i*pc.n : (i+1)*pc.n]
+}
+
+// vdot is vEval.vdot at point i: it returns V and grad V · f, with the
+// gradient in ve.gbuf and the field in ve.fbuf.
+func (pc *pointCache) vdot(ve *vEval, field Field, i int, z []float64) (v, vd float64) {
+	v = pc.valueGrad(ve, ve.gbuf, i, z)
+	f := pc.fieldAt(ve.fbuf, field, i, z)
+	copy(ve.fbuf, f)
+	for j, g := range ve.gbuf {
+		vd += g * ve.fbuf[j]
+	}
+	return v, vd
+}

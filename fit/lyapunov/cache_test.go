@@ -1,0 +1,121 @@
+package lyapunov
+
+import (
+	"context"
+	"math"
+	"math/rand/v2"
+	"reflect"
+	"testing"
+
+	"basin.example/fit/lp"
+)
+
+// TestCacheSame: the checks evaluated from the point caches give the
+// same growth rounds, level and bound as the checks evaluated at each
+// point, bit for bit (reflect.DeepEqual on the results, which compares
+// float64s exactly and fails on NaN), and the certificate LP read as a
+// dense matrix gives the same optimum bit for bit as its rows generated
+// on demand. A property of the implementation (the cache holds the
+// numbers vEval computes at the point), not of an outside source; the
+// systems are the search's own test systems.
+func TestCacheSame(t *testing.T) {
+	cases := []struct {
+		name     string
+		sys      *testSystem
+		d        *Data
+		sigma    float64
+		deg      int
+		nonRise  bool
+		wantSome bool // the search must find a V, so the comparison covers the level and the bound
+	}{
+		{"vdp deg 2", vdpReverseZ(), vdpDataZ(), 0, 2, false, true},
+		{"vdp deg 4 noisy", vdpReverseZ(), vdpReverseZ().runs([][2]float64{{-2.2, 2.2}, {-3, 3}}, 40, 0.005, 2000, 10, 0.01, 3), 0.01, 4, false, true},
+		{"chain 3 deg 2", chainZ(3), chainZ(3).runs([][2]float64{{-1, 1}, {-1, 1}, {-1, 1}}, 30, 0.01, 600, 5, 0.002, 2), 0.002, 2, false, true},
+		{"vdp non-rise path", vdpReverseZ(), vdpDataZ(), 0, 2, true, false},
+	}
+	for _, tc := range cases {
+		t.Run(tc.name, func(t *testing.T) {
+			o := (&Options{Degree: tc.deg}).Defaults()
+			build := func(cached bool) *checker {
+				ck, err := newChecker(context.Background(), tc.d, tc.sys.system(tc.sigma), o, tc.nonRise)
+				if err != nil {
+					t.Fatal(err)
+				}
+				if ck.samples == nil || ck.samples.phi == nil || ck.samples.f == nil || ck.rayPts.grad == nil || ck.poolPts.phi == nil {
+					t.Fatal("the test cases must fit in the caches")
+				}
+				if !cached {
+					ck.samples, ck.rayPts, ck.poolPts = nil, nil, nil
+				}
+				return ck
+			}
+			var outs [2]growth
+			var levels [2]levelResult
+			for i, cached := range []bool{true, false} {
+				ck := build(cached)
+				lin, _ := linearise(ck.az, ck.fam.n)
+				c0, err := startV(ck.fam, lin)
+				if err != nil {
+					t.Fatal(err)
+				}
+				g, err := ck.grow(context.Background(), c0, tc.nonRise, o)
+				if err != nil {
+					t.Fatal(err)
+				}
+				outs[i] = g
+				if g.best.res.ok {
+					levels[i] = ck.verify(g.best.c, g.best.res)
+				}
+			}
+			if tc.wantSome && !(outs[0].best.res.ok && levels[0].ok && levels[0].level > 0) {
+				t.Fatalf("no certified level (%s): the comparison would cover nothing", outs[0].best.res.reason)
+			}
+			if !reflect.DeepEqual(outs[0], outs[1]) {
+				t.Errorf("growth differs:\ncached   %+v\nuncached %+v", outs[0].best, outs[1].best)
+			}
+			if !reflect.DeepEqual(levels[0], levels[1]) {
+				t.Errorf("bounded level differs: cached %+v, uncached %+v", levels[0], levels[1])
+			}
+		})
+	}
+}
+
+// TestDenseRowsSame: the certificate LP's rows computed once into an
+// lp.DenseRows are RowTo's rows, and the LP over them has the same
+// optimum bit for bit as over the rows generated on demand (the solver
+// reads the same numbers). A property of the implementation.
+func TestDenseRowsSame(t *testing.T) {
+	for _, deg := range []int{2, 4} {
+		ck := mustChecker(t, vdpReverseZ(), vdpDataZ(), 0, deg)
+		o := (&Options{Degree: deg}).Defaults()
+		lin, _ := linearise(ck.az, ck.fam.n)
+		c0, err := startV(ck.fam, lin)
+		if err != nil {
+			t.Fatal(err)
+		}
+		rows := ck.lpRows(c0, 0.5, 0.5*growOuter, 0, o, rand.New(rand.NewPCG(1, 0)))
+		dense, ok := rows.solverRows().(lp.DenseRows)
+		if !ok || dense.Len() != rows.Len() || rows.Len() == 0 {
+			t.Fatalf("degree %d: dense rows %v (%d of %d)", deg, ok, dense.Len(), rows.Len())
+		}
+		p := ck.fam.Len()
+		obj := make([]float64, p+1)
+		obj[p] = -1
+		lower, upper := make([]float64, p+1), make([]float64, p+1)
+		for k := 0; k < p; k++ {
+			lower[k], upper[k] = -lpCoefBound, lpCoefBound
+		}
+		lower[p], upper[p] = -lpMarginBound, lpMarginBound
+		a, errA := lp.SolveCuts(obj, rows, lower, upper, nil)
+		b, errB := lp.SolveCuts(obj, dense, lower, upper, nil)
+		if errA != nil || errB != nil {
+			t.Fatalf("degree %d: %v, %v", deg, errA, errB)
+		}
+		if a.Status != lp.Optimal || !(math.Abs(a.X[p]) < lpMarginBound) {
+			t.Fatalf("degree %d: status %v margin %g", deg, a.Status, a.X[p])
+		}
+		if !reflect.DeepEqual(a.X, b.X) || a.Rounds != b.Rounds {
+			t.Errorf("degree %d: on demand %v (%d rounds), dense %v (%d rounds)", deg, a.X, a.Rounds, b.X, b.Rounds)
+		}
+	}
+}
