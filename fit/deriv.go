@@ -3,6 +3,11 @@ package fit
 import (
 	"math"
 	"slices"
+	"strconv"
+	"strings"
+	"sync"
+
+	"basin.example/ingest"
 )
 
 // Derivative methods for [FieldOptions.Derivative].
@@ -719,4 +724,119 @@ func (f *ldl4) solve(b0, b1, b2, b3 float64) (c0, c1, c2, c3 float64) {
 	c1 = y1*f.r1 - f.l21*c2 - f.l31*c3
 	c0 = b0*f.r0 - f.l10*c1 - f.l20*c2 - f.l30*c3
 	return
+}
+
+// derivCacheMax caps the float64s a DerivativeCache holds (64 MB); runs
+// beyond it are differentiated afresh each time.
+const derivCacheMax = 1 << 23
+
+// A DerivativeCache keeps the derivatives [Field] computes for each run
+// (the states it regresses on and their slopes, per method and window),
+// so that fits on overlapping sets of the same runs differentiate each
+// run once: validate.Evaluate's folds share one. A run is known by its
+// samples' storage (the same slices, as subsets of one data set share),
+// so the samples must not change while the cache is in use. The
+// derivatives are the ones Field would compute, bit for bit. The zero
+// value is ready to use; it is safe for concurrent use.
+type DerivativeCache struct {
+	mu     sync.Mutex
+	runs   map[derivKey]*derivEntry
+	floats int
+	hits   int // for the tests
+}
+
+// derivKey names one run's derivatives by a method and windows.
+type derivKey struct {
+	t      *float64 // the run's first time stamp
+	length int
+	method string
+	half   string // the windows' half-widths, per state
+}
+
+// derivEntry is one run's derivatives, with the storage of its states
+// (checked on every hit: same time stamps, same states).
+type derivEntry struct {
+	x      []*float64
+	xs, dx [][]float64
+}
+
+func keyOf(run *ingest.Run, method string, half []int) (derivKey, bool) {
+	if run.Len() == 0 || len(run.X) == 0 {
+		return derivKey{}, false
+	}
+	var b strings.Builder
+	for _, h := range half {
+		b.WriteString(strconv.Itoa(h))
+		b.WriteByte(',')
+	}
+	return derivKey{t: &run.T[0], length: run.Len(), method: method, half: b.String()}, true
+}
+
+// statesOf returns the storage of run's states; false when a state has
+// no samples.
+func statesOf(run *ingest.Run) ([]*float64, bool) {
+	out := make([]*float64, len(run.X))
+	for j, x := range run.X {
+		if len(x) == 0 {
+			return nil, false
+		}
+		out[j] = &x[0]
+	}
+	return out, true
+}
+
+func sameStates(e *derivEntry, run *ingest.Run) bool {
+	x, ok := statesOf(run)
+	return ok && slices.Equal(x, e.x)
+}
+
+// get returns the cached derivatives of run (nil when c is nil or has
+// none). They are shared: read only.
+func (c *DerivativeCache) get(run *ingest.Run, method string, half []int) (xs, dx [][]float64) {
+	if c == nil {
+		return nil, nil
+	}
+	k, ok := keyOf(run, method, half)
+	if !ok {
+		return nil, nil
+	}
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	e := c.runs[k]
+	if e == nil || !sameStates(e, run) {
+		return nil, nil
+	}
+	c.hits++
+	return e.xs, e.dx
+}
+
+// put keeps a copy of run's derivatives xs, dx, within derivCacheMax.
+func (c *DerivativeCache) put(run *ingest.Run, method string, half []int, xs, dx [][]float64) {
+	if c == nil {
+		return
+	}
+	k, ok := keyOf(run, method, half)
+	if !ok {
+		return
+	}
+	size := 0
+	for j := range xs {
+		size += len(xs[j]) + len(dx[j])
+	}
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	if c.runs == nil {
+		c.runs = map[derivKey]*derivEntry{}
+	}
+	x, ok := statesOf(run)
+	if _, had := c.runs[k]; had || !ok || c.floats+size > derivCacheMax {
+		return
+	}
+	e := &derivEntry{x: x}
+	for j := range xs {
+		e.xs = append(e.xs, slices.Clone(xs[j]))
+		e.dx = append(e.dx, slices.Clone(dx[j]))
+	}
+	c.runs[k] = e
+	c.floats += size
 }

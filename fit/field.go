@@ -50,6 +50,10 @@ type FieldOptions struct {
 	// settled tails (the rig idle), or over every sample when no run
 	// settles (see restInput).
 	RestInput []float64
+	// Derivatives, when not nil, keeps each run's derivatives for the
+	// next Field on the same runs (see [DerivativeCache]); nil means
+	// none kept. It changes no result.
+	Derivatives *DerivativeCache `json:"-"`
 }
 
 // DefaultDerivative is the derivative method used when
@@ -332,7 +336,7 @@ func Field(ctx context.Context, ds *ingest.Dataset, opts *FieldOptions) (*Model,
 		for g := range groups {
 			groups[g] = newGroupSums(p, n)
 		}
-		if err := accumulate(ctx, groups, groupOf, runs, lib, m, sc, md.half, md.steps, md.name); err != nil {
+		if err := accumulate(ctx, groups, groupOf, runs, lib, m, sc, md.half, md.steps, md.name, o.Derivatives); err != nil {
 			return nil, err
 		}
 		for _, g := range groups {
@@ -693,7 +697,7 @@ func makeGroups(runs []*ingest.Run, folds int) (func(r, i int) int, int, string)
 // locking, and the sums do not depend on scheduling). The error is ctx's
 // or a worker's recovered panic (*parallel.PanicError).
 func accumulate(ctx context.Context, groups []*groupSums, groupOf func(r, i int) int, runs []*ingest.Run,
-	lib *poly.Library, m *Model, sc *varScale, half []int, steps int, method string) error {
+	lib *poly.Library, m *Model, sc *varScale, half []int, steps int, method string, cache *DerivativeCache) error {
 	n, p := len(m.States), lib.Len()
 	type work struct {
 		rb      *rowBuffer
@@ -727,12 +731,22 @@ func accumulate(ctx context.Context, groups []*groupSums, groupOf func(r, i int)
 		lo, hi := 0, L
 		switch method {
 		case DerivFornberg:
+			if cx, cd := cache.get(run, method, half); cx != nil {
+				xs, dx = cx, cd
+				break
+			}
 			for j := 0; j < n; j++ {
 				copy(xs[j], run.X[j])
 				dw.fornbergRun(dx[j], run.T, run.X[j])
 			}
+			cache.put(run, method, half, xs, dx)
 		case DerivSavitzkyGolay:
-			dw.sgRuns(xs, dx, run.T, run.X, half)
+			if cx, cd := cache.get(run, method, half); cx != nil {
+				xs, dx = cx, cd
+			} else {
+				dw.sgRuns(xs, dx, run.T, run.X, half)
+				cache.put(run, method, half, xs, dx)
+			}
 			// Only samples with a full centred window: the slid
 			// windows at a run's ends extrapolate, and a run that
 			// starts with a kick puts its largest errors there (on

@@ -21,7 +21,7 @@ func TestWorkerPanics(t *testing.T) {
 	sc := &varScale{centre: []float64{0}, spread: []float64{1}}
 	groups := []*groupSums{newGroupSums(lib.Len(), 1)}
 	bad := func(r, i int) int { return i } // group index out of range from the second sample on
-	err := accumulate(context.Background(), groups, bad, []*ingest.Run{run, run}, lib, m, sc, nil, 0, DerivFornberg)
+	err := accumulate(context.Background(), groups, bad, []*ingest.Run{run, run}, lib, m, sc, nil, 0, DerivFornberg, nil)
 	var pe *parallel.PanicError
 	if !errors.As(err, &pe) {
 		t.Errorf("accumulate with a panicking worker: err = %v, want a *parallel.PanicError", err)

@@ -512,6 +512,14 @@ func Evaluate(ctx context.Context, ds *ingest.Dataset, opts *Options) (*Result, 
 		return res, nil
 	}
 	fold := Split(ds.Runs, o.Folds, o.Seed)
+	// The folds share the runs, so each run is differentiated once.
+	var fo fit.FieldOptions
+	if o.Field != nil {
+		fo = *o.Field
+	}
+	if fo.Derivatives == nil {
+		fo.Derivatives = &fit.DerivativeCache{}
+	}
 	every := o.AllFolds || !o.OneFold
 	nFits := 1
 	if every {
@@ -528,7 +536,7 @@ func Evaluate(ctx context.Context, ds *ingest.Dataset, opts *Options) (*Result, 
 		fitDS := subset(ds, func(i int) bool { return fold[i] != f })
 		hoDS := subset(ds, func(i int) bool { return fold[i] == f })
 		progress("fitting the field", 0)
-		m, err := fit.Field(ctx, fitDS, o.Field)
+		m, err := fit.Field(ctx, fitDS, &fo)
 		if err != nil {
 			return nil, nil, nil, err
 		}

@@ -41,6 +41,14 @@ type RestSkip struct {
 func EvaluateAll(ctx context.Context, ds *ingest.Dataset, opts *Options) ([]RestResult, []RestSkip, error) {
 	rps := ingest.RestPoints(ds)
 	o := opts.get()
+	if o.Field == nil || o.Field.Derivatives == nil { // every Evaluate below fits the same runs
+		var fo fit.FieldOptions
+		if o.Field != nil {
+			fo = *o.Field
+		}
+		fo.Derivatives = &fit.DerivativeCache{}
+		o.Field = &fo
+	}
 	first := o
 	if first.Equilibrium == nil && len(rps) > 0 {
 		first.Equilibrium = rps[0].Point
