@@ -83,7 +83,8 @@ type plan struct {
 	hd headState
 	// pass 2's and pass 3's outputs (final may alias pieces, runs final)
 	finalBuf, runBuf [][2]int
-	selBuf           []float64 // scaleOf's scratch
+	selBuf           []float64    // scaleOf's scratch
+	jc               [][]jumpCoef // segCoef's, per stride
 }
 
 // noiseAcc gathers what noiseOf computes for one state: the jump
@@ -104,7 +105,7 @@ func newPlan(sf *StreamFile, src source, opts *Options, prev *plan) *plan {
 		pl.pieces, pl.finalBuf, pl.runBuf = prev.pieces[:0], prev.finalBuf[:0], prev.runBuf[:0]
 		pl.acc, pl.strides, pl.ed, pl.hd = prev.acc, prev.strides[:0], prev.ed, prev.hd
 		pl.anyCell, pl.lo, pl.hi, pl.noise = prev.anyCell, prev.lo, prev.hi, prev.noise
-		pl.selBuf, pl.blo, pl.bhi = prev.selBuf, prev.blo, prev.bhi
+		pl.selBuf, pl.blo, pl.bhi, pl.jc = prev.selBuf, prev.blo, prev.bhi, prev.jc
 		pl.hist = dtHist{dense: prev.hist.dense}
 		clear(pl.hist.dense)
 	}
@@ -114,8 +115,9 @@ func newPlan(sf *StreamFile, src source, opts *Options, prev *plan) *plan {
 // setup sizes the plan for ns states, on the first block of pass 1 (a
 // CSV file's columns are known once its first block is parsed), and
 // picks the strides the noise statistics are gathered at on the guess
-// that no row is missing and no gap splits: the stride for the row count
-// given, or when the count is an estimate, for counts near it.
+// that no gap splits: the stride for the row count given and for a few
+// missing rows (lower strides), and when the count is an estimate, for
+// counts near it.
 func (pl *plan) setup(ns int) {
 	pl.ns = ns
 	if len(pl.acc) != ns {
@@ -127,7 +129,11 @@ func (pl *plan) setup(ns int) {
 	}
 	g := max(1, pl.src.rowsHint()/noiseSubsample)
 	pl.strides = pl.strides[:0]
-	for d := -2; d <= 2; d++ {
+	top := 2
+	if _, exact := pl.src.(*parquetSource); exact {
+		top = 0 // the footer's count: missing rows can only lower the stride
+	}
+	for d := -2; d <= top; d++ {
 		if g+d >= 1 {
 			pl.strides = append(pl.strides, g+d)
 		}
@@ -240,9 +246,35 @@ func (a *noiseAcc) add(v, t float64, q int, strides []int) {
 	a.prevT[0], a.prevT[1], a.prevT[2] = a.prevT[1], a.prevT[2], t
 }
 
+// segCoef stores in jc[c], for each stride c, the clock coefficients
+// (see jumpCoef) of the samples that addSeg gives the jump statistic,
+// for the consecutive times t of one piece, t[0] at index q0: the states
+// share them.
+func segCoef(jc [][]jumpCoef, t []float64, q0 int, strides []int) [][]jumpCoef {
+	for len(jc) < len(strides) {
+		jc = append(jc, nil)
+	}
+	jc = jc[:len(strides)]
+	n := len(t)
+	for c, stride := range strides {
+		jc[c] = jc[c][:0]
+		if n <= 3 {
+			continue
+		}
+		i := q0 + 2 // k = 3
+		if r := (i - 2) % stride; r != 0 {
+			i += stride - r
+		}
+		for k := i - q0 + 1; k < n; k += stride {
+			jc[c] = append(jc[c], clockCoef(t[k-3], t[k-2], t[k-1], t[k]))
+		}
+	}
+	return jc
+}
+
 // addSeg is add for the consecutive samples x, at times t, of one
-// piece, x[0] at index q0 of the piece.
-func (a *noiseAcc) addSeg(x, t []float64, q0 int, strides []int) {
+// piece, x[0] at index q0 of the piece; jc is segCoef's for t.
+func (a *noiseAcc) addSeg(x, t []float64, q0 int, strides []int, jc [][]jumpCoef) {
 	n := len(x)
 	head := min(n, 3)
 	for k := range head {
@@ -265,9 +297,11 @@ func (a *noiseAcc) addSeg(x, t []float64, q0 int, strides []int) {
 		if r := (i - 2) % stride; r != 0 {
 			i += stride - r
 		}
-		for k := i - q0 + 1; k < n; k, i = k+stride, i+stride {
-			a.all[c] = append(a.all[c], jumpAt(x[k-3], x[k-2], x[k-1], x[k], t[k-3], t[k-2], t[k-1], t[k]))
+		all := a.all[c]
+		for m, k := 0, i-q0+1; k < n; m, k = m+1, k+stride {
+			all = append(all, jc[c][m].jump(x[k-3], x[k-2], x[k-1], x[k]))
 		}
+		a.all[c] = all
 	}
 	a.prev[0], a.prev[1], a.prev[2] = x[n-3], x[n-2], x[n-1]
 	a.prevT[0], a.prevT[1], a.prevT[2] = t[n-3], t[n-2], t[n-1]
@@ -352,6 +386,7 @@ func (pl *plan) pass1(ctx context.Context) error {
 			}
 			open = true
 			q0 := row0 - pl.pieces[len(pl.pieces)-1][0]
+			pl.jc = segCoef(pl.jc, t, q0, pl.strides)
 			for j := range x {
 				pl.anyCell[j] = true
 				if pl.blo[j] < pl.lo[j] {
@@ -360,7 +395,7 @@ func (pl *plan) pass1(ctx context.Context) error {
 				if pl.bhi[j] > pl.hi[j] {
 					pl.hi[j] = pl.bhi[j]
 				}
-				pl.acc[j].addSeg(x[j], t, q0, pl.strides)
+				pl.acc[j].addSeg(x[j], t, q0, pl.strides, pl.jc)
 			}
 			prevRow = row0 + len(t) - 1
 			pl.total += len(t)
@@ -628,6 +663,10 @@ type evDetector struct {
 	ring  [][]float64
 	tring []float64 // the times of the ring's samples
 	have  int       // samples pushed
+	// the jump statistic's clock coefficients (see jumpCoef) of each
+	// sample of the ring, shared by the states, computed up to cdone
+	coef  []jumpCoef
+	cdone int
 	st    []evLoop
 	noise []stateNoise
 	marks map[int]bool
@@ -642,7 +681,8 @@ type evLoop struct {
 }
 
 func newEvDetector(ns int) *evDetector {
-	ed := &evDetector{ring: make([][]float64, ns), tring: make([]float64, evRing), st: make([]evLoop, ns), marks: map[int]bool{}}
+	ed := &evDetector{ring: make([][]float64, ns), tring: make([]float64, evRing), coef: make([]jumpCoef, evRing),
+		st: make([]evLoop, ns), marks: map[int]bool{}}
 	for j := range ed.ring {
 		ed.ring[j] = make([]float64, evRing)
 	}
@@ -650,7 +690,7 @@ func newEvDetector(ns int) *evDetector {
 }
 
 func (ed *evDetector) reset(n int, noise []stateNoise) {
-	ed.n, ed.have, ed.noise, ed.off = n, 0, noise, false
+	ed.n, ed.have, ed.noise, ed.off, ed.cdone = n, 0, noise, false, 2
 	clear(ed.marks)
 	for j, sn := range noise {
 		ed.st[j] = evLoop{skip: math.IsInf(sn.quant, 1), base: sn.jumpFloor(), i: 2}
@@ -679,6 +719,14 @@ func (ed *evDetector) push(x [][]float64, t []float64, a, b int) error {
 		copy(ed.tring, t[a+k:c])
 		ed.have += c - a
 		a = c
+		// sample i's coefficients need the times of i-2 .. i+1
+		const m = evRing - 1
+		tr := ed.tring
+		i := ed.cdone
+		for ; i+1 < ed.have; i++ {
+			ed.coef[i&m] = clockCoef(tr[(i-2)&m], tr[(i-1)&m], tr[i&m], tr[(i+1)&m])
+		}
+		ed.cdone = i
 		if err := ed.advance(); err != nil {
 			return err
 		}
@@ -712,10 +760,9 @@ func (ed *evDetector) advance() error {
 		if lp.skip {
 			continue
 		}
-		r, tr := ed.ring[j], ed.tring
+		r, co := ed.ring[j], ed.coef
 		x := func(i int) float64 { return r[i&(evRing-1)] }
-		tt := func(i int) float64 { return tr[i&(evRing-1)] }
-		sv := func(i int) float64 { return jumpAt(x(i-2), x(i-1), x(i), x(i+1), tt(i-2), tt(i-1), tt(i), tt(i+1)) }
+		sv := func(i int) float64 { return co[i&(evRing-1)].jump(x(i-2), x(i-1), x(i), x(i+1)) }
 		far := func(i int) bool {
 			if math.Abs(sv(i)) <= lp.base {
 				return false
@@ -747,7 +794,7 @@ func (ed *evDetector) advance() error {
 				break
 			}
 			// far's first test, inline: most samples stop here
-			if v := jumpAt(r[(i-2)&m], r[(i-1)&m], r[i&m], r[(i+1)&m], tr[(i-2)&m], tr[(i-1)&m], tr[i&m], tr[(i+1)&m]); math.Abs(v) <= lp.base {
+			if v := co[i&m].jump(r[(i-2)&m], r[(i-1)&m], r[i&m], r[(i+1)&m]); math.Abs(v) <= lp.base {
 				continue
 			}
 			if !far(i) {
@@ -792,6 +839,35 @@ func (ed *evDetector) advance() error {
 		}
 	}
 	return nil
+}
+
+// jumpCoef is the part of [jumpAt] that depends on the clock only, for
+// one sample: jump gives jumpAt's value, to the bit, from the four
+// values (the same operations in the same order), without its divisions
+// and square root for each state.
+type jumpCoef struct {
+	even     bool
+	a, b, sc float64
+}
+
+// clockCoef returns the coefficients of the sample at t2 of the samples
+// at times t0 .. t3.
+func clockCoef(t0, t1, t2, t3 float64) jumpCoef {
+	h1, h2, h3 := t1-t0, t2-t1, t3-t2
+	if h1 == h2 && h2 == h3 {
+		return jumpCoef{even: true}
+	}
+	a, b := h2/h1, h2/h3
+	v := (1+b/2)*(1+b/2) + (1+a/2)*(1+a/2) + (a*a+b*b)/4
+	return jumpCoef{a: a, b: b, sc: math.Sqrt(5 / v)}
+}
+
+func (c *jumpCoef) jump(x0, x1, x2, x3 float64) float64 {
+	if c.even {
+		return 1.5*(x2-x1) + 0.5*(x0-x3)
+	}
+	s := (x2 - x1) - 0.5*(c.a*(x1-x0)+c.b*(x3-x2))
+	return s * c.sc
 }
 
 // dtHist counts time steps by the top 12 bits of their mantissa (and

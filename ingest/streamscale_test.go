@@ -134,3 +134,32 @@ func TestSelectKth(t *testing.T) {
 		}
 	}
 }
+
+// TestClockCoef checks that the event ring's split of the jump statistic
+// (the clock's coefficients once per sample, then the values per state)
+// gives jumpAt's value to the bit, on even, jittered and rounded clocks:
+// the streamed events must be those of the whole file.
+func TestClockCoef(t *testing.T) {
+	rng := rand.New(rand.NewPCG(5, 5))
+	for _, clock := range []string{"even", "jittered", "rounded"} {
+		tt := make([]float64, 4)
+		for rep := range 2000 {
+			for k := range tt {
+				switch clock {
+				case "even":
+					tt[k] = float64(k) * 0.25
+				case "jittered":
+					tt[k] = float64(k)*0.002 + 0.0006*rng.Float64()
+				default:
+					tt[k] = float64(rep+k) * 0.001 // steps differ in their last bits
+				}
+			}
+			x0, x1, x2, x3 := rng.NormFloat64(), rng.NormFloat64(), rng.NormFloat64(), rng.NormFloat64()
+			c := clockCoef(tt[0], tt[1], tt[2], tt[3])
+			got, want := c.jump(x0, x1, x2, x3), jumpAt(x0, x1, x2, x3, tt[0], tt[1], tt[2], tt[3])
+			if math.Float64bits(got) != math.Float64bits(want) {
+				t.Fatalf("%s clock %v: %v, jumpAt %v", clock, tt, got, want)
+			}
+		}
+	}
+}
