@@ -257,8 +257,7 @@ func (in *certInputs) certificate(res *lyapunov.Result, m *Model, o lyapunov.Opt
 		Empirical: true, Caveat: Caveat,
 		States: append([]string(nil), m.States...), Units: append([]string(nil), m.Units...),
 		Equilibrium: xe, Scale: scale,
-		Settings: map[string]any{"v_degree": o.Degree, "seed": o.Seed, "growth": o.Growth,
-			"lp_samples": o.LPSamples, "fill": o.Fill, "kappa": o.Kappa},
+		Settings: &Settings{Search: searchSettings(o)},
 	}
 	cert.Region.Limit = LimitNone
 	cert.NoiseRadius = res.NoiseRadius

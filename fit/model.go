@@ -378,8 +378,9 @@ type Certificate struct {
 	RadiallyUnbounded bool `json:"radially_unbounded"`
 	// InSample holds the figures on the fit runs.
 	InSample InSample `json:"in_sample"`
-	// Settings records the options used.
-	Settings map[string]any `json:"settings,omitempty"`
+	// Settings records the options used, each part by the code that used
+	// them (see [Settings]).
+	Settings *Settings `json:"settings,omitempty"`
 	// Contradicted says the data contradict stability of the equilibrium
 	// (an unstable linearisation, or no V of the family can fall along
 	// the recorded runs near it: the LP's best margin is negative), so

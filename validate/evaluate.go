@@ -509,6 +509,7 @@ func Evaluate(ctx context.Context, ds *ingest.Dataset, opts *Options) (*Result, 
 		cert.Reason = fmt.Sprintf("Only %d run(s): at least %d are needed to hold runs out, so there is no held-out verdict. Record at least %d runs.", len(ds.Runs), MinRuns, MinRuns*2)
 		cert.Validation = &fit.Validation{Note: "no held-out runs", Confidence: 1 - o.Beta}
 		res.Model, res.Certificate = m, cert
+		recordSettings(cert, &o)
 		return res, nil
 	}
 	fold := Split(ds.Runs, o.Folds, o.Seed)
@@ -602,6 +603,7 @@ func Evaluate(ctx context.Context, ds *ingest.Dataset, opts *Options) (*Result, 
 		combineFolds(cert, certs)
 	}
 	res.Model, res.Certificate, res.Runs = m, cert, runs
+	recordSettings(cert, &o)
 	return res, nil
 }
 

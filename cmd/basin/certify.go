@@ -102,6 +102,7 @@ func runCertify(ctx context.Context, e *env, args []string) error {
 	if cert.V.Exponents == nil {
 		cert.V = poly.Poly{Exponents: [][]int{}, Coefficients: []float64{}}
 	}
+	setCommand(cert, fit.CommandSettings{Inputs: strings.Join(args, " "), Model: f.Model})
 	return writeOutput(e, f.Out, &f.outputFlags, "certificate.json", cert, func(w io.Writer) { printCertificate(w, cert) })
 }
 

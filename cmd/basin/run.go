@@ -164,21 +164,13 @@ func (c *runFlags) plane(states []ingest.Column) ([]int, error) {
 	return idx, nil
 }
 
-// settings lists the options used, for the report and the certificate.
-func (c *runFlags) settings(args []string) map[string]any {
-	return map[string]any{
-		"degree": c.Degree, "v_degree": c.VDegree, "folds": c.Folds, "select_folds": c.SelectFolds, "seed": c.Seed,
-		"derivative": orDefault(c.Deriv, fit.DefaultDerivative), "bootstrap": c.Bootstrap,
-		"growth": c.Growth, "min_decrease": c.MinDecrease, "beta": c.Beta,
-		"all_folds": c.AllFolds, "inputs": strings.Join(args, " "),
+// setCommand adds the facts only the command line knows (the INPUTS as
+// typed) to cert's settings; the libraries have recorded their options.
+func setCommand(cert *fit.Certificate, cs fit.CommandSettings) {
+	if cert.Settings == nil {
+		cert.Settings = &fit.Settings{}
 	}
-}
-
-func orDefault(s, d string) string {
-	if s == "" {
-		return d
-	}
-	return s
+	cert.Settings.Command = &cs
 }
 
 func runRun(ctx context.Context, e *env, args []string) error {
@@ -241,10 +233,8 @@ func runRun(ctx context.Context, e *env, args []string) error {
 	if cert.V.Exponents == nil {
 		cert.V = poly.Poly{Exponents: [][]int{}, Coefficients: []float64{}}
 	}
-	settings := c.settings(args)
-	cert.Settings = settings
-	in := &report.Input{Model: m, Cert: cert, Data: ds, Heldout: res.Heldout, Checks: res.Runs,
-		Settings: settings, Plane: plane}
+	setCommand(cert, fit.CommandSettings{Inputs: strings.Join(args, " ")})
+	in := &report.Input{Model: m, Cert: cert, Data: ds, Heldout: res.Heldout, Checks: res.Runs, Plane: plane}
 	// Several rest points: certificate-2.json, ... for the others.
 	files := []atomicFile{
 		{Name: "model.json", Write: jsonWriter(m)},
@@ -258,7 +248,7 @@ func runRun(ctx context.Context, e *env, args []string) error {
 			if ci.V.Exponents == nil {
 				ci.V = poly.Poly{Exponents: [][]int{}, Coefficients: []float64{}}
 			}
-			ci.Settings = settings
+			setCommand(ci, fit.CommandSettings{Inputs: strings.Join(args, " ")})
 			name := fmt.Sprintf("certificate-%d.json", i+2)
 			files = append(files, atomicFile{Name: name, Write: jsonWriter(ci)})
 			names = append(names, name)

@@ -33,9 +33,6 @@ type Input struct {
 	// Checks are the per-run checks of the held-out runs, matched to the
 	// runs of Data by run name.
 	Checks []validate.RunScreen
-	// Settings are the settings used, shown sorted by key. Nil shows the
-	// certificate's own Settings.
-	Settings map[string]any
 	// Plane names two state indices for the phase plane. Nil means the two
 	// states with most variance in the certificate's scaled coordinates
 	// (so that units do not decide).
@@ -150,21 +147,50 @@ func (in *Input) checkFor(name string) *validate.RunScreen {
 	return nil
 }
 
-// settings returns the settings to show, sorted by key.
+// settings returns the certificate's recorded settings to show, sorted
+// by key: each recorded part's options (of a file read, the keys it
+// had) and any keys of an older file this version does not know.
 func (in *Input) settings() []kv {
-	m := in.Settings
-	if m == nil {
-		m = in.Cert.Settings
+	s := in.Cert.Settings
+	if s == nil {
+		return nil
 	}
-	keys := make([]string, 0, len(m))
-	for k := range m {
-		keys = append(keys, k)
+	var out []kv
+	add := func(k string, v any) {
+		if s.Recorded(k) {
+			out = append(out, kv{k, fmt.Sprint(v)})
+		}
 	}
-	sort.Strings(keys)
-	out := make([]kv, len(keys))
-	for i, k := range keys {
-		out[i] = kv{k, fmt.Sprint(m[k])}
+	if p := s.Search; p != nil {
+		add("v_degree", p.VDegree)
+		add("seed", p.Seed)
+		add("growth", p.Growth)
+		add("lp_samples", p.LPSamples)
+		add("fill", p.Fill)
+		add("kappa", p.Kappa)
 	}
+	if p := s.Field; p != nil {
+		add("degree", p.Degree)
+		add("derivative", p.Derivative)
+		add("bootstrap", p.Bootstrap)
+		add("select_folds", p.SelectFolds)
+		add("field_seed", p.Seed)
+	}
+	if p := s.Holdout; p != nil {
+		add("folds", p.Folds)
+		add("split_seed", p.Seed)
+		add("min_decrease", p.MinDecrease)
+		add("beta", p.Beta)
+		add("all_folds", p.AllFolds)
+	}
+	if p := s.Command; p != nil {
+		add("inputs", p.Inputs)
+		add("model", p.Model)
+	}
+	for k, v := range s.Other {
+		out = append(out, kv{k, string(v)})
+	}
+	sort.Slice(out, func(i, j int) bool { return out[i].Key < out[j].Key })
 	return out
 }
 
