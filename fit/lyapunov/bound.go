@@ -80,6 +80,8 @@ func (ck *checker) verify(c []float64, r levelResult) levelResult {
 		// the bound's box holds the piece too
 		r.lo[j], r.hi[j] = math.Max(r.lo[j], vr.Lo[j]), math.Min(r.hi[j], vr.Hi[j])
 	}
+	ck.dots.reset(len(ck.trust.HSamples)) // V may not be the last one checked
+	ck.shareOf(&r, ve)
 	ck.figures(&r, ve, ck.values(ve), hq)
 	return r
 }

@@ -96,3 +96,45 @@ func (pc *pointCache) vdot(ve *vEval, field Field, i int, z []float64) (v, vd fl
 	}
 	return v, vd
 }
+
+// sampleDots memoises, for the one V being checked, V-dot and the pair
+// tolerance (checker.pairTolAt) at each recorded sample: the level
+// search's marks compute them, and the figures of the level found reuse
+// them instead of evaluating the gradient again. reset starts a new V.
+type sampleDots struct {
+	gen     uint32
+	at      []uint32 // at[k] == gen: vd[k] and tol[k] are the current V's
+	vd, tol []float64
+	off     bool // keep nothing (the tests' reference path)
+}
+
+// reset forgets every value, for a new V over total samples.
+func (sd *sampleDots) reset(total int) {
+	if sd.off {
+		return
+	}
+	if len(sd.at) < total {
+		sd.at, sd.vd, sd.tol = make([]uint32, total), make([]float64, total), make([]float64, total)
+		sd.gen = 0
+	}
+	sd.gen++
+	if sd.gen == 0 { // wrapped: no stale stamp may match
+		clear(sd.at)
+		sd.gen = 1
+	}
+}
+
+// get returns sample k's V-dot and pair tolerance when known.
+func (sd *sampleDots) get(k int) (vd, tol float64, ok bool) {
+	if k >= len(sd.at) || sd.at[k] != sd.gen {
+		return 0, 0, false
+	}
+	return sd.vd[k], sd.tol[k], true
+}
+
+// set records sample k's V-dot and pair tolerance.
+func (sd *sampleDots) set(k int, vd, tol float64) {
+	if k < len(sd.at) {
+		sd.at[k], sd.vd[k], sd.tol[k] = sd.gen, vd, tol
+	}
+}

@@ -10,9 +10,10 @@ import (
 	"basin.example/fit/lp"
 )
 
-// TestCacheSame: the checks evaluated from the point caches give the
-// same growth rounds, level and bound as the checks evaluated at each
-// point, bit for bit (reflect.DeepEqual on the results, which compares
+// TestCacheSame: the checks evaluated from the point caches (and with
+// V-dot memoised per sample) give the same growth rounds, level and
+// bound as the checks evaluated at each point, and the kept V's level
+// result is the one level computes in full, bit for bit (reflect.DeepEqual on the results, which compares
 // float64s exactly and fails on NaN), and the certificate LP read as a
 // dense matrix gives the same optimum bit for bit as its rows generated
 // on demand. A property of the implementation (the cache holds the
@@ -46,6 +47,7 @@ func TestCacheSame(t *testing.T) {
 				}
 				if !cached {
 					ck.samples, ck.rayPts, ck.poolPts = nil, nil, nil
+					ck.dots.off = true
 				}
 				return ck
 			}
@@ -64,6 +66,12 @@ func TestCacheSame(t *testing.T) {
 				}
 				outs[i] = g
 				if g.best.res.ok {
+					// The rounds leave a candidate's in-sample figures
+					// out until it is kept: the kept one's must be
+					// level's in full.
+					if full := ck.level(g.best.c); !reflect.DeepEqual(full, g.best.res) {
+						t.Errorf("cached %v: the kept V's level result %+v, level's in full %+v", cached, g.best.res, full)
+					}
 					levels[i] = ck.verify(g.best.c, g.best.res)
 				}
 			}
@@ -116,6 +124,26 @@ func TestDenseRowsSame(t *testing.T) {
 		}
 		if !reflect.DeepEqual(a.X, b.X) || a.Rounds != b.Rounds {
 			t.Errorf("degree %d: on demand %v (%d rounds), dense %v (%d rounds)", deg, a.X, a.Rounds, b.X, b.Rounds)
+		}
+	}
+}
+
+// TestTrustSampleLeverage: the samples' leverage NewTrust computes from
+// the columns it kept is Leverage at each sample, bit for bit. A
+// property of the implementation.
+func TestTrustSampleLeverage(t *testing.T) {
+	sys := vdpReverseZ().system(0)
+	d := vdpDataZ()
+	tr, err := NewTrust(2, sys.Terms, d.Z)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(tr.HSamples) != len(d.Z)/2 || len(tr.HSamples) == 0 {
+		t.Fatalf("%d leverages for %d samples", len(tr.HSamples), len(d.Z)/2)
+	}
+	for i, h := range tr.HSamples {
+		if want := tr.Leverage(d.Z[2*i : 2*i+2]); h != want || !(h > 0) {
+			t.Fatalf("sample %d: leverage %v, Leverage %v", i, h, want)
 		}
 	}
 }

@@ -66,6 +66,7 @@ type checker struct {
 	// run order, with the field), the ray points (ray by ray) and the
 	// pool (see pointCache).
 	samples, rayPts, poolPts *pointCache
+	dots                     sampleDots // of the V being checked
 	// pool holds Monte-Carlo points of the samples' box that are trusted
 	// (n each); poolShare is their share of the box's points.
 	pool      []float64
@@ -132,6 +133,7 @@ type levelResult struct {
 	vball     float64 // largest V on the exempt ball
 	exempt    float64 // radius of the exempt ball (noise and model uncertainty)
 	margin    float64 // min of -Vdot/|z|² over checked samples in the region
+	figured   bool    // pairs, tolerance, decrease and margin are set
 	bound     *Verified
 }
 
@@ -240,6 +242,13 @@ func rayMax(ve *vEval, z, buf []float64) float64 {
 // fast enough for every growth round; Certify bounds the final V's level
 // with [Verify].
 func (ck *checker) level(c []float64) levelResult {
+	return ck.levelOf(c, true)
+}
+
+// levelOf is level; without inSample it leaves the in-sample figures
+// (pairs, tolerance, decrease, margin) out, for a candidate that may not
+// be kept (see completeFigures).
+func (ck *checker) levelOf(c []float64, inSample bool) levelResult {
 	ve := newVEval(ck.fam, c)
 	hq := ck.quadMax(c)
 	lam, reason := ck.linearCheck(c)
@@ -248,6 +257,7 @@ func (ck *checker) level(c []float64) levelResult {
 	}
 	rex := ck.exemptRadius(c, lam)
 	vals := ck.values(ve)
+	ck.dots.reset(len(ck.trust.HSamples))
 	first := badMark{key: math.Inf(1), kind: LimitNone}
 	ck.markSamples(&first, ve, vals, rex, hq)
 	ck.markRays(&first, ve, rex, hq)
@@ -255,7 +265,7 @@ func (ck *checker) level(c []float64) levelResult {
 	if ck.fam.deg == 2 {
 		ck.markFaces(&first, c)
 	}
-	return ck.levelAt(first, ve, c, vals, rex, hq)
+	return ck.levelAt(first, ve, c, vals, rex, hq, inSample)
 }
 
 // linearCheck returns lambda_max(A'P + PA) for V's quadratic part, and a
@@ -313,9 +323,11 @@ func (ck *checker) markSamples(first *badMark, ve *vEval, vals [][]float64, rex,
 				continue
 			}
 			v, vd := ck.samples.vdot(ve, ck.field, r.off+i, z)
+			tol := ck.pairTolAt(ve.gbuf, hq, v)
+			ck.dots.set(r.off+i, vd, tol)
 			bad := !(v >= posEps*z2) ||
 				!(vd+ck.robust(ve.gbuf, r.h[i]) < 0 || (ck.nonRise && vd <= ck.vdTol(ve.gbuf, ve.fbuf, hq))) ||
-				(i+1 < len(vs) && vs[i+1]-v > ck.pairTolAt(ve.gbuf, hq, v))
+				(i+1 < len(vs) && vs[i+1]-v > tol)
 			if bad {
 				if k := rayMax(ve, z, buf); k < first.key {
 					first.lower(k, LimitViolated, z, r.name)
@@ -396,7 +408,7 @@ func (ck *checker) markFaces(first *badMark, c []float64) {
 // levelAt returns the level result just below the first failing check:
 // the level, unless it does not reach beyond the exempt ball (radius
 // rex), with the piece's box and the figures.
-func (ck *checker) levelAt(first badMark, ve *vEval, c []float64, vals [][]float64, rex, hq float64) levelResult {
+func (ck *checker) levelAt(first badMark, ve *vEval, c []float64, vals [][]float64, rex, hq float64, inSample bool) levelResult {
 	n := ck.fam.n
 	res := levelResult{ok: true, limit: first.kind, limitZ: first.z, limitRun: first.run, exempt: rex}
 	res.level = first.key - levelShrink*math.Max(1, math.Abs(first.key))
@@ -416,8 +428,22 @@ func (ck *checker) levelAt(first badMark, ve *vEval, c []float64, vals [][]float
 		return res
 	}
 	res.lo, res.hi = ck.pieceBox(ve, c, res.level)
-	ck.figures(&res, ve, vals, hq)
+	ck.shareOf(&res, ve)
+	if inSample {
+		ck.figures(&res, ve, vals, hq)
+	}
 	return res
+}
+
+// completeFigures fills the in-sample figures of a level result of V
+// (coefficients c) that levelOf left out, as level would have.
+func (ck *checker) completeFigures(res *levelResult, c []float64) {
+	if !res.ok || res.figured {
+		return
+	}
+	ve := newVEval(ck.fam, c)
+	ck.dots.reset(len(ck.trust.HSamples))
+	ck.figures(res, ve, ck.values(ve), ck.quadMax(c))
 }
 
 // nonRiseLinear checks, on the non-rise path, that A'P + PA is negative
@@ -491,29 +517,38 @@ func (ck *checker) pieceBox(ve *vEval, c []float64, level float64) (lo, hi []flo
 	return lo, hi
 }
 
-// figures fills the share of the trust region, the in-sample figures and
-// the tolerance of a level result.
-func (ck *checker) figures(res *levelResult, ve *vEval, vals [][]float64, hq float64) {
+// inBox reports whether z lies in the box lo..hi.
+func inBox(z, lo, hi []float64) bool {
+	for j, v := range z {
+		if v < lo[j] || v > hi[j] {
+			return false
+		}
+	}
+	return true
+}
+
+// shareOf fills the share of the trust region of a level result.
+func (ck *checker) shareOf(res *levelResult, ve *vEval) {
 	n := ck.fam.n
 	lo, hi, level := res.lo, res.hi, res.level
-	inBox := func(z []float64) bool {
-		for j, v := range z {
-			if v < lo[j] || v > hi[j] {
-				return false
-			}
-		}
-		return true
-	}
 	in, np := 0, len(ck.pool)/n
 	for k := 0; k < np; k++ {
 		z := ck.pool[k*n : (k+1)*n]
-		if inBox(z) && ck.poolPts.value(ve, k, z) <= level {
+		if inBox(z, lo, hi) && ck.poolPts.value(ve, k, z) <= level {
 			in++
 		}
 	}
 	if np > 0 {
 		res.share = float64(in) / float64(np)
 	}
+}
+
+// figures fills the in-sample figures and the tolerance of a level
+// result (vals: V at the samples, hq: see pairTol).
+func (ck *checker) figures(res *levelResult, ve *vEval, vals [][]float64, hq float64) {
+	n := ck.fam.n
+	lo, hi, level := res.lo, res.hi, res.level
+	res.figured = true
 	r02 := res.exempt * res.exempt
 	res.margin = math.Inf(1)
 	res.pairs, res.tolerance, res.decrease = 0, 0, 0
@@ -524,12 +559,16 @@ func (ck *checker) figures(res *levelResult, ve *vEval, vals [][]float64, hq flo
 		for i := 0; i+1 < len(r.t); i++ {
 			z0 := r.z[i*n : (i+1)*n]
 			z1 := r.z[(i+1)*n : (i+2)*n]
-			if !(vs[i] <= level && vs[i+1] <= level && inBox(z0) && inBox(z1)) {
+			if !(vs[i] <= level && vs[i+1] <= level && inBox(z0, lo, hi) && inBox(z1, lo, hi)) {
 				continue
 			}
 			res.pairs++
-			_, vd := ck.samples.vdot(ve, ck.field, r.off+i, z0)
-			tol := ck.pairTolAt(ve.gbuf, hq, vs[i])
+			vd, tol, ok := ck.dots.get(r.off + i)
+			if !ok {
+				_, vd = ck.samples.vdot(ve, ck.field, r.off+i, z0)
+				tol = ck.pairTolAt(ve.gbuf, hq, vs[i])
+				ck.dots.set(r.off+i, vd, tol)
+			}
 			res.tolerance = math.Max(res.tolerance, tol)
 			if vs[i+1]-vs[i] <= tol {
 				dec++

@@ -467,7 +467,7 @@ func (ck *checker) grow(ctx context.Context, c0 []float64, nonRise bool, o Optio
 				}
 				g.lastErr = fmt.Sprintf("best margin %.3g <= 0", out.g)
 			default:
-				res := ck.level(out.c)
+				res := ck.levelOf(out.c, false) // the in-sample figures only if kept
 				tracef(o.Trace, "round %d gamma %.3g target %.4g np %d g %.4g -> ok %v level %.4g share %.4f limit %s at %v (best %.4f)", round, gamma, target, rows.np, out.g, res.ok, res.level, res.share, res.limit, res.limitZ, best.res.share)
 				if res.ok && (!best.res.ok || res.share > best.res.share*(1+minGain)+1e-12) {
 					best = cand{c: out.c, g: out.g, res: res, source: "LP"}
@@ -490,6 +490,7 @@ func (ck *checker) grow(ctx context.Context, c0 []float64, nonRise bool, o Optio
 			break
 		}
 	}
+	ck.completeFigures(&best.res, best.c)
 	g.best = best
 	return g, nil
 }

@@ -118,8 +118,17 @@ func NewTrust(n int, terms [][]int, z []float64) (*Trust, error) {
 	}
 	ata := mat.NewSymDense(p, nil)
 	raw := ata.RawSymmetric().Data
+	// The columns at every sample, kept for the samples' leverage below
+	// when they fit in pointCacheMax (the same numbers Leverage computes).
+	var keep []float64
+	if ns*p <= pointCacheMax {
+		keep = make([]float64, ns*p)
+	}
 	for i := 0; i < ns; i++ {
 		zi := z[i*n : (i+1)*n]
+		if keep != nil {
+			phi = keep[i*p : (i+1)*p]
+		}
 		for k, c := range cols {
 			phi[k] = c.Eval(zi)
 		}
@@ -151,7 +160,12 @@ func NewTrust(n int, terms [][]int, z []float64) (*Trust, error) {
 	t.cols = cols
 	t.HSamples = make([]float64, ns)
 	for i := 0; i < ns; i++ {
-		h := t.Leverage(z[i*n : (i+1)*n])
+		var h float64
+		if keep != nil {
+			h = t.leverageOf(keep[i*p : (i+1)*p])
+		} else {
+			h = t.Leverage(z[i*n : (i+1)*n])
+		}
 		t.HSamples[i] = h
 		t.HMax = math.Max(t.HMax, h)
 	}
@@ -183,6 +197,12 @@ func (t *Trust) Leverage(z []float64) float64 {
 	for _, c := range t.cols {
 		phi = append(phi, c.Eval(z))
 	}
+	return t.leverageOf(phi)
+}
+
+// leverageOf returns h from the normalised columns phi at a point.
+func (t *Trust) leverageOf(phi []float64) float64 {
+	p := len(t.cols)
 	h := 0.0
 	for a := 0; a < p; a++ {
 		s := 0.0
