@@ -12,7 +12,10 @@
 // held-out runs only. With [Options.AllFolds] it also refits with each
 // other fold held out and reports how many folds reach the same verdict
 // (fit.Validation.FoldsAgree). With fewer than 3 runs there is no held-out
-// verdict: the result is inconclusive and says why.
+// verdict: the result is inconclusive and says why. The folds are fitted
+// and checked at once ([Options.Workers] at a time, on internal/parallel)
+// and share one fit.DerivativeCache, so each run is differentiated once;
+// the result is the same, bit for bit, whatever the number of workers.
 //
 // [EvaluateAll] evaluates every stable rest point the runs settle at
 // (clusters of ingest.RestPoints), one Evaluate each, the one most runs
