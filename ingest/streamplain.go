@@ -152,6 +152,22 @@ func unpackDict(out []float64, body []byte, dict []float64) bool {
 		bits := 0
 		q := p
 		mask := uint64(1)<<bw - 1
+		// whole groups of 8 values with 8 readable bytes past their
+		// last value's first byte: value i of a group starts at bit
+		// i·bw of its bw bytes, read with one 64-bit load
+		for ; vals >= 8 && len(out)-k >= 8 && q+bw+8 <= len(body); vals -= 8 {
+			o := out[k : k+8]
+			for i := range o {
+				bit := i * bw
+				v := binary.LittleEndian.Uint64(body[q+bit>>3:]) >> (bit & 7) & mask
+				if v >= nd {
+					return false
+				}
+				o[i] = dict[v]
+			}
+			k += 8
+			q += bw
+		}
 		for i := 0; i < vals; i++ {
 			for bits < bw {
 				acc |= uint64(body[q]) << bits
