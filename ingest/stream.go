@@ -191,6 +191,8 @@ func (s *Streamer) streamable(path string) string {
 		return "input columns"
 	case o.viaArrow:
 		return "the general Parquet decoder"
+	case o.MinPiece > 0:
+		return "a minimum piece length" // its warning names the first short piece's time
 	}
 	return ""
 }

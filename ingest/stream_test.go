@@ -218,6 +218,7 @@ func TestStreamSameRuns(t *testing.T) {
 		{"missing at row-group edges", rigLog{n: 20000, dt: 0.001, sd: 1e-3, missing: []int{0, 4095, 4096, 8191, 19999}, gapAt: 8192},
 			Options{}},
 		{"long head", rigLog{n: 100000, dt: 0.001, sd: 1e-3, head: 70000}, Options{}},
+		{"min piece", rigLog{n: 20000, dt: 0.001, sd: 1e-3, gapAt: 300}, Options{MinPiece: 500}},
 	}
 	layouts := []struct {
 		rg          int64
@@ -242,13 +243,15 @@ func TestStreamSameRuns(t *testing.T) {
 					t.Fatal(err)
 				}
 				sf, got := streamRuns(t, path, &opts, &StreamOptions{Window: -1})
-				if sf.Whole != "" {
-					if lg.name == "long head" {
-						t.Skipf("read whole: %s", sf.Whole) // allowed: a head longer than maxStreamHead
-					}
+				// allowed to read whole: a head longer than maxStreamHead, a
+				// minimum piece length (the runs must still be ReadFile's)
+				if sf.Whole != "" && lg.name != "long head" && lg.opts.MinPiece == 0 {
 					t.Fatalf("read whole (%s), not streamed", sf.Whole)
 				}
 				sameRuns(t, got, want.Runs)
+				if lg.opts.MinPiece > 0 && (want.ShortPieces != 1 || len(sf.Warnings) != len(want.Warnings)) {
+					t.Errorf("%d short pieces, warnings %q, want 1 and %q", want.ShortPieces, sf.Warnings, want.Warnings)
+				}
 				if len(want.Runs) == 0 {
 					t.Fatal("no runs")
 				}
