@@ -271,13 +271,7 @@ func main() {
 		if bat <= 0 {
 			bat = 2 * w
 		}
-		sameIni, sameBat := dualInitial*w, dualBatch*w
-		if *oInit > 0 {
-			sameIni = *oInit
-		}
-		if *oBatch > 0 {
-			sameBat = *oBatch
-		}
+		sameIni, sameBat := copts.Sizes(w, len(d.H))
 		loops := []loop{
 			{"HiGHS, top", ini, bat, "top"},
 			{"HiGHS, fit/lp's", sameIni, sameBat, "diverse"},
@@ -385,11 +379,7 @@ func main() {
 	}
 }
 
-// SolveCuts's dual-simplex defaults and cut selection (fit/lp/cuts.go:
-// dualInitial, dualBatch, diverseCos), repeated for the HiGHS loop that
-// runs fit/lp's own selection.
-const (
-	dualInitial = 5
-	dualBatch   = 2
-	diverseCos  = 0.99
-)
+// diverseCos is the cut selection's largest |cosine| between two rows of
+// one round (fit/lp/cuts.go's diverseCos), repeated for the HiGHS loop
+// that runs fit/lp's own selection.
+const diverseCos = 0.99
