@@ -1,10 +1,10 @@
 package lyapunov
 
-// pointCacheMax caps the float64s one point set's cache holds (32 MB).
+// pointCacheMax caps the float64s one point set's cache holds (16 MB).
 // A part that does not fit (the monomials, their gradients, the field,
 // in that order of need) is not kept, and the checks compute it at the
 // point when they need it, as without a cache.
-const pointCacheMax = 1 << 22
+const pointCacheMax = 1 << 21
 
 // pointCache holds what the checks of every V need at a fixed set of
 // points and that does not depend on V: the monomials of V's family
