@@ -90,6 +90,9 @@ type Screener struct {
 	obuf [screenBlock]bool
 	// wbuf: outside the box widened by the noise radius (loW, hiW)
 	wbuf [screenBlock]bool
+	// evalQuadCols' scratch: the block's z per state, the partial sums
+	zcol []float64
+	abuf [screenBlock]float64
 	loW  []float64
 	hiW  []float64
 	g    []float64
@@ -130,6 +133,10 @@ func (s *Screener) evalBlock(X [][]float64, i0, i1 int) {
 		}
 		return
 	}
+	if s.quad && !s.generic {
+		s.evalQuadCols(X, i0, i1)
+		return
+	}
 	z := s.z
 	n := s.n
 	for k := range vb {
@@ -154,6 +161,61 @@ func (s *Screener) evalBlock(X [][]float64, i0, i1 int) {
 			vb[k] = s.comp.Eval(z)
 		}
 		rb[k], ob[k], wb[k] = r2, out, wide
+	}
+}
+
+// evalQuadCols is evalBlock's generic loop for a quadratic V, turned
+// inside out: each state's column of the block at a time. Every sample
+// gets the same operations in the same order as quadV and the per-sample
+// loop (|z|² summed over j ascending; V = r, then + (q_i + Σ_j p_ij z_j)
+// z_i over i ascending), so the values are the same to the bit; the
+// samples' independent sums keep the pipeline full.
+func (s *Screener) evalQuadCols(X [][]float64, i0, i1 int) {
+	m := i1 - i0
+	vb, rb, ob, wb := s.vbuf[:m], s.rbuf[:m], s.obuf[:m], s.wbuf[:m]
+	n := s.n
+	if len(s.zcol) < n*screenBlock {
+		s.zcol = make([]float64, n*screenBlock)
+	}
+	clear(rb)
+	clear(ob)
+	clear(wb)
+	for j := 0; j < n; j++ {
+		zc := s.zcol[j*screenBlock : j*screenBlock+m]
+		xs := X[j][i0:i1]
+		xs = xs[:len(zc)]
+		lo, hi, loW, hiW, e, c := s.lo[j], s.hi[j], s.loW[j], s.hiW[j], s.eq[j], s.inv[j]
+		for k, xj := range xs {
+			if xj < lo || xj > hi {
+				ob[k] = true
+			}
+			if xj < loW || xj > hiW {
+				wb[k] = true
+			}
+			zj := (xj - e) * c
+			zc[k] = zj
+			rb[k] += zj * zj
+		}
+	}
+	for k := range vb {
+		vb[k] = s.r
+	}
+	a := s.abuf[:m]
+	for i := 0; i < n; i++ {
+		qi := s.q[i]
+		for k := range a {
+			a[k] = qi
+		}
+		for j, pj := range s.p[i*n : i*n+n] {
+			zc := s.zcol[j*screenBlock : j*screenBlock+m]
+			for k, zj := range zc {
+				a[k] += pj * zj
+			}
+		}
+		zi := s.zcol[i*screenBlock : i*screenBlock+m]
+		for k, ak := range a {
+			vb[k] += ak * zi[k]
+		}
 	}
 }
 
