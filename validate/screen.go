@@ -90,9 +90,8 @@ type Screener struct {
 	obuf [screenBlock]bool
 	// wbuf: outside the box widened by the noise radius (loW, hiW)
 	wbuf [screenBlock]bool
-	// evalQuadCols' scratch: the block's z per state, the partial sums
+	// evalQuadCols' scratch: the block's z per state
 	zcol []float64
-	abuf [screenBlock]float64
 	loW  []float64
 	hiW  []float64
 	g    []float64
@@ -200,22 +199,39 @@ func (s *Screener) evalQuadCols(X [][]float64, i0, i1 int) {
 	for k := range vb {
 		vb[k] = s.r
 	}
-	a := s.abuf[:m]
-	for i := 0; i < n; i++ {
-		qi := s.q[i]
-		for k := range a {
-			a[k] = qi
-		}
-		for j, pj := range s.p[i*n : i*n+n] {
-			zc := s.zcol[j*screenBlock : j*screenBlock+m]
-			for k, zj := range zc {
-				a[k] += pj * zj
+	zcol := s.zcol
+	k := 0
+	// four samples at a time, their sums in registers
+	for ; k+4 <= m; k += 4 {
+		v0, v1, v2, v3 := vb[k], vb[k+1], vb[k+2], vb[k+3]
+		for i := 0; i < n; i++ {
+			qi := s.q[i]
+			a0, a1, a2, a3 := qi, qi, qi, qi
+			for j, pj := range s.p[i*n : i*n+n] {
+				z := zcol[j*screenBlock+k : j*screenBlock+k+4]
+				a0 += pj * z[0]
+				a1 += pj * z[1]
+				a2 += pj * z[2]
+				a3 += pj * z[3]
 			}
+			zi := zcol[i*screenBlock+k : i*screenBlock+k+4]
+			v0 += a0 * zi[0]
+			v1 += a1 * zi[1]
+			v2 += a2 * zi[2]
+			v3 += a3 * zi[3]
 		}
-		zi := s.zcol[i*screenBlock : i*screenBlock+m]
-		for k, ak := range a {
-			vb[k] += ak * zi[k]
+		vb[k], vb[k+1], vb[k+2], vb[k+3] = v0, v1, v2, v3
+	}
+	for ; k < m; k++ {
+		v := vb[k]
+		for i := 0; i < n; i++ {
+			a := s.q[i]
+			for j, pj := range s.p[i*n : i*n+n] {
+				a += pj * zcol[j*screenBlock+k]
+			}
+			v += a * zcol[i*screenBlock+k]
 		}
+		vb[k] = v
 	}
 }
 
