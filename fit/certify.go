@@ -263,6 +263,7 @@ func (in *certInputs) certificate(res *lyapunov.Result, m *Model, o lyapunov.Opt
 	cert.NoiseRadius = res.NoiseRadius
 	cert.Region.LPRounds, cert.Region.LPRows, cert.Region.Solves = res.LPRounds, res.LPRows, res.Solves
 	cert.ReasonKind = reasonKinds[res.Outcome]
+	cert.LPConflict = lpConflict(res.Conflict, xe, scale, o.Degree)
 	if res.Outcome != lyapunov.Found {
 		cert.Reason = noFindReason(cert, res, m, o, len(in.data.Z)/max(n, 1))
 		return cert

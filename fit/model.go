@@ -387,6 +387,11 @@ type Certificate struct {
 	// validation can say rejected; Contradiction says why.
 	Contradicted  bool   `json:"contradicted"`
 	Contradiction string `json:"contradiction,omitempty"`
+	// LPConflict summarises the certificate LP's proof that no V of the
+	// family falls along the rows (an infeasible LP, a negative best
+	// margin, or the one LP posed for an unstable linearisation); absent
+	// when there is none.
+	LPConflict *LPConflict `json:"lp_conflict,omitempty"`
 }
 
 // Region describes the certified level set.

@@ -183,6 +183,10 @@ type Result struct {
 	// it holds the Farkas certificate.
 	LPErr error
 	LP    *lp.Result
+	// Conflict summarises, for LPInfeasible and for Unstable (whose one
+	// LP is posed only for it), the LP's proof that no V of the family
+	// falls along the rows; nil when there is none.
+	Conflict *Conflict
 	// Err is TrustDegenerate's cause, wrapping ErrDegenerate.
 	Err error
 	// MaxRe is the largest real part of the Jacobian's eigenvalues (set
@@ -296,7 +300,11 @@ func Certify(ctx context.Context, d *Data, sys *System, opts *Options) (*Result,
 		return &Result{Outcome: EigenFailed}, nil
 	}
 	if lin.unstable() {
-		return &Result{Outcome: Unstable, MaxRe: lin.maxRe}, nil
+		conflict, err := unstableConflict(ctx, d, sys, o)
+		if err != nil {
+			return nil, err
+		}
+		return &Result{Outcome: Unstable, MaxRe: lin.maxRe, Conflict: conflict}, nil
 	}
 	ck, err := newChecker(ctx, d, sys, o, lin.nonRise)
 	if errors.Is(err, ErrDegenerate) {
@@ -425,6 +433,7 @@ type growth struct {
 	lastKind     Outcome    // its kind, "" when it has none
 	lpErr        error      // the last LP error
 	lpRes        *lp.Result // its result
+	conflict     *Conflict  // the infeasible or contradicted LP's proof
 	degree       int
 }
 
@@ -459,11 +468,11 @@ func (ck *checker) grow(ctx context.Context, c0 []float64, nonRise bool, o Optio
 			case out.err != nil:
 				g.lastErr, g.lastKind, g.lpErr, g.lpRes = out.err.Error(), LPFailed, out.err, out.res
 				if errors.Is(out.err, lp.ErrInfeasible) {
-					g.lastKind = LPInfeasible
+					g.lastKind, g.conflict = LPInfeasible, ck.conflict(rows, out)
 				}
 			case !(out.g > 0) && !(nonRise && out.g > -lpMarginBound):
 				if g.solves == 1 && out.g < 0 && !best.res.ok {
-					g.contra, g.contraMargin = true, out.g
+					g.contra, g.contraMargin, g.conflict = true, out.g, ck.conflict(rows, out)
 				}
 				g.lastErr = fmt.Sprintf("best margin %.3g <= 0", out.g)
 			default:
@@ -513,6 +522,7 @@ func (ck *checker) roundBase(res levelResult, c []float64, first bool) float64 {
 
 // failure fills res for growth rounds that found no V with a level.
 func (g *growth) failure(res *Result) {
+	res.Conflict = g.conflict
 	if g.contra {
 		res.Outcome, res.Contradicted, res.Margin = LPInfeasible, true, g.contraMargin
 		return

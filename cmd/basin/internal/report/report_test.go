@@ -336,3 +336,40 @@ func TestDeterministic(t *testing.T) {
 		t.Fatal("two renderings of the same input differ")
 	}
 }
+
+// TestSummaryConflict: a certificate with an LP conflict gets one line
+// saying who contradicts every V, how many rows and samples carry it and
+// where the strongest lies; one without gets none.
+func TestSummaryConflict(t *testing.T) {
+	for _, tc := range []struct {
+		name, conflict string
+		want           []string
+	}{
+		{"none", ``, nil},
+		{"field", `"lp_conflict": {"kind": "negative_margin", "v_degree": 2, "margin": -0.01, "lp_rows": 900, "rows": 5, "samples": 3,
+			"families": [{"family": "positivity", "rows": 2, "share": 0.84}, {"family": "model decrease", "rows": 2, "share": 0.16}],
+			"strongest": [{"family": "positivity", "share": 0.83, "point": [-0.0307, -0.0887], "run": "run-06.csv", "sample": 133}]},`,
+			[]string{"LP conflict: the fitted field contradicts every V of degree 2: 5 rows carry the contradiction (positivity 84%, model decrease 16%), 3 of them at recorded samples; the strongest near theta = -0.031 rad, omega = -0.089 rad/s (run run-06.csv, sample 133)."}},
+		{"data", `"lp_conflict": {"kind": "infeasible", "v_degree": 4, "lp_rows": 900, "rows": 7, "samples": 6,
+			"families": [{"family": "data decrease", "rows": 6, "share": 0.7}, {"family": "target", "rows": 1, "share": 0.3}],
+			"strongest": [{"family": "margin", "share": 0.5}, {"family": "data decrease", "share": 0.2, "point": [0.5, 0.25]}]},`,
+			[]string{"the recorded runs contradict every V of degree 4", "the strongest near theta = 0.5 rad, omega = 0.25 rad/s."}},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			cj := strings.Replace(fixtureCertJSON, `"settings":`, tc.conflict+`"settings":`, 1)
+			var b bytes.Buffer
+			if err := Summary(&b, fixture(mustCert(cj), nil)); err != nil {
+				t.Fatal(err)
+			}
+			s := b.String()
+			if n := strings.Count(s, "LP conflict"); n != min(len(tc.want), 1) {
+				t.Errorf("%d conflict lines:\n%s", n, s)
+			}
+			for _, w := range tc.want {
+				if !strings.Contains(s, w) {
+					t.Errorf("summary lacks %q:\n%s", w, s)
+				}
+			}
+		})
+	}
+}

@@ -29,6 +29,9 @@ func Summary(w io.Writer, in *Input) error {
 	if c.Reason != "" {
 		fmt.Fprintf(&b, "  %s\n", c.Reason)
 	}
+	if line := conflictLine(c); line != "" {
+		fmt.Fprintf(&b, "  %s\n", line)
+	}
 	fmt.Fprintf(&b, "equilibrium: %s\n", statePoint(c, c.Equilibrium))
 	if m := in.Model; m != nil {
 		b.WriteString("model (original units):\n")
@@ -418,4 +421,40 @@ func equationErrors(b *strings.Builder, m *fit.Model) {
 			fmt.Fprintf(b, "  warning: d(%s)/dt: %s\n", e.State, e.Warning)
 		}
 	}
+}
+
+// conflictLine says in one line what the certificate LP's conflict
+// proves and where (empty when there is none).
+func conflictLine(c *fit.Certificate) string {
+	lc := c.LPConflict
+	if lc == nil || len(lc.Families) == 0 {
+		return ""
+	}
+	who := "the fitted field contradicts"
+	data := 0.0
+	var parts []string
+	for i, f := range lc.Families {
+		if f.Family == "data decrease" {
+			data += f.Share
+		}
+		if i < 3 {
+			parts = append(parts, fmt.Sprintf("%s %s%%", f.Family, human.Sig(100*f.Share, 2)))
+		}
+	}
+	if data >= 0.5 {
+		who = "the recorded runs contradict"
+	}
+	line := fmt.Sprintf("LP conflict: %s every V of degree %d: %d rows carry the contradiction (%s), %d of them at recorded samples",
+		who, lc.VDegree, lc.Rows, strings.Join(parts, ", "), lc.Samples)
+	for _, r := range lc.Strongest {
+		if len(r.Point) != len(c.States) {
+			continue
+		}
+		line += "; the strongest near " + statePoint(c, r.Point)
+		if r.Sample != nil {
+			line += fmt.Sprintf(" (run %s, sample %d)", r.Run, *r.Sample)
+		}
+		break
+	}
+	return line + "."
 }
