@@ -19,6 +19,7 @@ const pointCacheMax = 1 << 21
 type pointCache struct {
 	p, n         int
 	phi, grad, f []float64
+	z2           []float64 // |z|² a point
 }
 
 // newPointCache computes the cache of the points z (n each): the field
@@ -29,6 +30,13 @@ func newPointCache(fam *vFamily, z []float64, field Field, grad bool) *pointCach
 	m := len(z) / n
 	pc := &pointCache{p: p, n: n}
 	budget := pointCacheMax
+	if m <= budget {
+		pc.z2 = make([]float64, m)
+		for i := range pc.z2 {
+			pc.z2[i] = norm2(z[i*n : (i+1)*n])
+		}
+		budget -= m
+	}
 	if field != nil && m*n <= budget {
 		pc.f = make([]float64, m*n)
 		budget -= m * n
@@ -57,6 +65,14 @@ func newPointCache(fam *vFamily, z []float64, field Field, grad bool) *pointCach
 		}
 	}
 	return pc
+}
+
+// norm2 returns |z|² at point i (z its coordinates).
+func (pc *pointCache) norm2(i int, z []float64) float64 {
+	if pc == nil || pc.z2 == nil {
+		return norm2(z)
+	}
+	return pc.z2[i]
 }
 
 // value returns V at point i (z its coordinates).

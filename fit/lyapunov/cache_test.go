@@ -147,3 +147,28 @@ func TestTrustSampleLeverage(t *testing.T) {
 		}
 	}
 }
+
+// TestColumnEval: a trust region column evaluates to Poly.Eval's value
+// bit for bit (signed zeros included), on random points with exact
+// zeros and negative entries. A property of the implementation.
+func TestColumnEval(t *testing.T) {
+	rng := rand.New(rand.NewPCG(5, 0))
+	exps := [][]int{{0, 0, 0}, {1, 0, 0}, {0, 2, 1}, {3, 0, 2}, {1, 1, 1}}
+	z := make([]float64, 3)
+	for _, e := range exps {
+		p := NewPoly(3, [][]int{e}, []float64{rng.NormFloat64()})
+		col := newColumn(p)
+		for k := 0; k < 200; k++ {
+			for j := range z {
+				z[j] = rng.NormFloat64()
+				if rng.IntN(5) == 0 {
+					z[j] = math.Copysign(0, z[j])
+				}
+			}
+			got, want := col.eval(z), p.Eval(z)
+			if math.Float64bits(got) != math.Float64bits(want) {
+				t.Fatalf("%v at %v: column %v, Eval %v", e, z, got, want)
+			}
+		}
+	}
+}

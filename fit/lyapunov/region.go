@@ -318,7 +318,7 @@ func (ck *checker) markSamples(first *badMark, ve *vEval, vals [][]float64, rex,
 		vs := vals[ri]
 		for i := range vs {
 			z := r.z[i*n : (i+1)*n]
-			z2 := norm2(z)
+			z2 := ck.samples.norm2(r.off+i, z)
 			if z2 <= rex2 || vs[i] >= first.key {
 				continue
 			}
@@ -358,7 +358,7 @@ func (ck *checker) markRays(first *badMark, ve *vEval, rex, hq float64) {
 				first.lower(mx, LimitTrust, z, "")
 				break
 			}
-			z2 := norm2(z)
+			z2 := ck.rayPts.norm2(ri*rayPoints+k, z)
 			if z2 <= rex2 {
 				continue
 			}
@@ -573,7 +573,7 @@ func (ck *checker) figures(res *levelResult, ve *vEval, vals [][]float64, hq flo
 			if vs[i+1]-vs[i] <= tol {
 				dec++
 			}
-			if z2 := norm2(z0); z2 > r02 {
+			if z2 := ck.samples.norm2(r.off+i, z0); z2 > r02 {
 				res.margin = math.Min(res.margin, -vd/z2)
 			}
 		}

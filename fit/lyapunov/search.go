@@ -761,7 +761,7 @@ func (ck *checker) lpRows(prev []float64, target, outer, lambda float64, o Optio
 				continue
 			}
 			z := r.z[k*n : (k+1)*n]
-			if norm2(z) <= r02 {
+			if ck.samples.norm2(r.off+k, z) <= r02 {
 				continue
 			}
 			v := ck.samples.valueGrad(ve, g, r.off+k, z)
@@ -779,7 +779,7 @@ func (ck *checker) lpRows(prev []float64, target, outer, lambda float64, o Optio
 	for tries, added := 0, 0; np > 0 && tries < 20*o.Fill && added < o.Fill; tries++ {
 		k := rng.IntN(np)
 		z := ck.pool[k*n : (k+1)*n]
-		if norm2(z) <= r02 {
+		if ck.poolPts.norm2(k, z) <= r02 {
 			continue
 		}
 		v := ck.poolPts.value(ve, k, z)
@@ -860,7 +860,7 @@ func (ck *checker) quantile(c []float64, share float64, atLeast int) float64 {
 		r := &ck.runs[ri]
 		for i := range r.t {
 			z := r.z[i*n : (i+1)*n]
-			if norm2(z) > r02 {
+			if ck.samples.norm2(r.off+i, z) > r02 {
 				vs = append(vs, ck.samples.value(ve, r.off+i, z))
 			}
 		}

@@ -49,6 +49,7 @@ type Trust struct {
 	Lo, Hi   []float64 // samples' bounding box, z
 	H        *Poly     // h as a polynomial in z (for bounds)
 	cols     []*Poly   // normalised library columns in z
+	fast     []column  // the same columns, for evaluation
 	m        []float64 // (Phi'Phi)^-1, p×p row-major
 	Samples  int
 	Terms    int
@@ -93,8 +94,10 @@ func NewTrust(n int, terms [][]int, z []float64) (*Trust, error) {
 	}
 	one := []float64{1}
 	cols := make([]*Poly, p)
+	fast := make([]column, p)
 	for k, e := range all {
 		cols[k] = NewPoly(n, [][]int{e}, one)
+		fast[k] = newColumn(cols[k])
 	}
 	// Column norms, then the normal matrix.
 	phi := make([]float64, p)
@@ -104,8 +107,8 @@ func NewTrust(n int, terms [][]int, z []float64) (*Trust, error) {
 		for j, v := range zi {
 			t.Lo[j], t.Hi[j] = math.Min(t.Lo[j], v), math.Max(t.Hi[j], v)
 		}
-		for k, c := range cols {
-			v := c.Eval(zi)
+		for k := range fast {
+			v := fast[k].eval(zi)
 			norm[k] += v * v
 		}
 	}
@@ -115,6 +118,7 @@ func NewTrust(n int, terms [][]int, z []float64) (*Trust, error) {
 			return nil, fmt.Errorf("%w: library term %d is zero or not finite on every sample", ErrDegenerate, k)
 		}
 		cols[k] = Sum([]float64{1 / norm[k]}, cols[k])
+		fast[k] = newColumn(cols[k])
 	}
 	ata := mat.NewSymDense(p, nil)
 	raw := ata.RawSymmetric().Data
@@ -129,8 +133,8 @@ func NewTrust(n int, terms [][]int, z []float64) (*Trust, error) {
 		if keep != nil {
 			phi = keep[i*p : (i+1)*p]
 		}
-		for k, c := range cols {
-			phi[k] = c.Eval(zi)
+		for k := range fast {
+			phi[k] = fast[k].eval(zi)
 		}
 		for a := 0; a < p; a++ {
 			row := raw[a*p : (a+1)*p]
@@ -157,7 +161,7 @@ func NewTrust(n int, terms [][]int, z []float64) (*Trust, error) {
 			t.m[a*p+b] = inv.At(a, b)
 		}
 	}
-	t.cols = cols
+	t.cols, t.fast = cols, fast
 	t.HSamples = make([]float64, ns)
 	for i := 0; i < ns; i++ {
 		var h float64
@@ -194,10 +198,42 @@ func (t *Trust) Leverage(z []float64) float64 {
 	if p > len(buf) {
 		phi = make([]float64, 0, p)
 	}
-	for _, c := range t.cols {
-		phi = append(phi, c.Eval(z))
+	for k := range t.fast {
+		phi = append(phi, t.fast[k].eval(z))
 	}
 	return t.leverageOf(phi)
+}
+
+// column is a one-term polynomial (a library column) for evaluation:
+// its coefficient times z_j for each j in idx, in the order of
+// [Poly.Eval], so the value is Eval's bit for bit.
+type column struct {
+	c   float64
+	idx []int
+}
+
+// newColumn returns the column of p, which must have one term.
+func newColumn(p *Poly) column {
+	if len(p.E) != 1 {
+		panic("lyapunov: newColumn: not one term")
+	}
+	col := column{c: p.C[0]}
+	for j, q := range p.E[0] {
+		for ; q > 0; q-- {
+			col.idx = append(col.idx, j)
+		}
+	}
+	return col
+}
+
+func (col *column) eval(z []float64) float64 {
+	v := col.c
+	for _, j := range col.idx {
+		v *= z[j]
+	}
+	s := 0.0 // as Eval's sum: 0 + v (turns -0 into +0)
+	s += v
+	return s
 }
 
 // leverageOf returns h from the normalised columns phi at a point.
