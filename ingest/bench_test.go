@@ -2,6 +2,7 @@ package ingest
 
 import (
 	"bufio"
+	"bytes"
 	"context"
 	"encoding/csv"
 	"fmt"
@@ -283,29 +284,34 @@ func BenchmarkScanFast(b *testing.B) {
 // BenchmarkReadCSVSideBySide times ReadCSV and the naive reader on the
 // same file alternately in one loop (the order swapped every iteration),
 // so that both see the same machine load; x-naive is the naive reader's
-// total time over ReadCSV's. Run it with -cpu 1,2 to see the ratio with
-// one core and with two.
+// total time over ReadCSV's, x-naive-cpu the same for the CPU time the
+// process used during each (on a busy machine the wall-clock ratio
+// depends on how many cores the other processes leave; the CPU ratio
+// does not). Run it with -cpu 1,2 to see the ratio with one core and
+// with two.
 func BenchmarkReadCSVSideBySide(b *testing.B) {
 	path, _ := benchFiles(b)
-	var naive, basin time.Duration
+	var naive, basin, naiveCPU, basinCPU time.Duration
 	readNaive := func() {
 		f, _ := os.Open(path)
 		defer f.Close()
-		t0 := time.Now()
+		t0, c0 := time.Now(), cpuTime()
 		if _, err := naiveRead(f); err != nil {
 			b.Fatal(err)
 		}
 		naive += time.Since(t0)
+		naiveCPU += cpuTime() - c0
 	}
 	readBasin := func() {
 		f, _ := os.Open(path)
 		defer f.Close()
-		t0 := time.Now()
+		t0, c0 := time.Now(), cpuTime()
 		ds, err := ReadCSV(f, path, nil)
 		if err != nil || ds.Samples() != benchRows {
 			b.Fatal(err)
 		}
 		basin += time.Since(t0)
+		basinCPU += cpuTime() - c0
 	}
 	i := 0
 	for b.Loop() {
@@ -319,6 +325,7 @@ func BenchmarkReadCSVSideBySide(b *testing.B) {
 		i++
 	}
 	b.ReportMetric(naive.Seconds()/basin.Seconds(), "x-naive")
+	b.ReportMetric(naiveCPU.Seconds()/basinCPU.Seconds(), "x-naive-cpu")
 	b.ReportMetric(basin.Seconds()/float64(b.N), "basin-s")
 	b.ReportMetric(naive.Seconds()/float64(b.N), "naive-s")
 }
@@ -413,5 +420,97 @@ func BenchmarkNoise(b *testing.B) {
 	b.SetBytes(n * 3 * 8)
 	for b.Loop() {
 		tb.noiseOf(pieces, 3)
+	}
+}
+
+// benchText is rows of the benchmark file's format (a time column and
+// six noisy states printed with 9 significant digits), made in memory.
+func benchText(rows int) []byte {
+	rng := rand.New(rand.NewPCG(1, 0))
+	buf := []byte("t,x1,x2,x3,x4,x5,x6\n")
+	for i := range rows {
+		buf = strconv.AppendFloat(buf, float64(i)*0.005, 'f', 4, 64)
+		for j := 1; j < benchCols; j++ {
+			buf = append(buf, ',')
+			buf = strconv.AppendFloat(buf, rng.NormFloat64(), 'g', 9, 64)
+		}
+		buf = append(buf, '\n')
+	}
+	return buf
+}
+
+// BenchmarkParseBlocks parses 10^5 rows of the benchmark file's format
+// block by block on one goroutine: the scanner alone, with no reading,
+// merging or run forming. cpu-ns/row is the process's CPU time a row.
+func BenchmarkParseBlocks(b *testing.B) {
+	const rows = 100_000
+	data := benchText(rows)
+	nl := bytes.IndexByte(data, '\n')
+	lay, tb, err := newLayout("bench.csv", data[:nl], 1, &Options{})
+	if err != nil {
+		b.Fatal(err)
+	}
+	rest := data[nl+1:]
+	if err := lay.sniff(tb, rest, 2, &Options{}); err != nil {
+		b.Fatal(err)
+	}
+	lay.index()
+	var blocks [][]byte
+	for len(rest) > 0 {
+		k := min(len(rest), blockSize)
+		if j := bytes.LastIndexByte(rest[:k], '\n'); j >= 0 && k < len(rest) {
+			k = j + 1
+		}
+		blocks = append(blocks, rest[:k])
+		rest = rest[k:]
+	}
+	p := &csvParser{lay: lay, tb: tb}
+	b.SetBytes(int64(len(data) - nl - 1))
+	b.ReportAllocs()
+	c0 := cpuTime()
+	for b.Loop() {
+		tb.rows, tb.t, tb.marks = 0, tb.t[:0], tb.marks[:0]
+		for j := range tb.x {
+			tb.x[j] = tb.x[j][:0]
+		}
+		for _, blk := range blocks {
+			if err := p.parseBlocks([]*chunk{{data: blk, line: 2}}); err != nil {
+				b.Fatal(err)
+			}
+		}
+		if tb.rows != rows {
+			b.Fatalf("%d rows", tb.rows)
+		}
+	}
+	b.ReportMetric(float64(b.Elapsed().Nanoseconds())/float64(b.N)/rows, "ns/row")
+	b.ReportMetric(float64((cpuTime()-c0).Nanoseconds())/float64(b.N)/rows, "cpu-ns/row")
+}
+
+// BenchmarkReadCSVMem reads 10^5 rows of the benchmark file's format from
+// memory with the naive reader and with ReadCSV (the whole pass: events,
+// resting head, runs), as sub-benchmarks of one run: small enough to run
+// under an instruction counter (valgrind --tool=cachegrind), whose counts
+// do not depend on the machine's load.
+func BenchmarkReadCSVMem(b *testing.B) {
+	const rows = 100_000
+	data := benchText(rows)
+	for _, via := range []string{"naive", "basin"} {
+		b.Run(via, func(b *testing.B) {
+			b.SetBytes(int64(len(data)))
+			c0 := cpuTime()
+			for b.Loop() {
+				if via == "naive" {
+					if _, err := naiveRead(bytes.NewReader(data)); err != nil {
+						b.Fatal(err)
+					}
+					continue
+				}
+				ds, err := ReadCSV(bytes.NewReader(data), "bench.csv", nil)
+				if err != nil || ds.Samples() != rows {
+					b.Fatal(err)
+				}
+			}
+			b.ReportMetric(float64((cpuTime()-c0).Nanoseconds())/float64(b.N)/rows, "cpu-ns/row")
+		})
 	}
 }

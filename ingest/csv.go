@@ -2,19 +2,20 @@ package ingest
 
 import (
 	"bytes"
+	"context"
 	"errors"
 	"fmt"
 	"io"
 	"io/fs"
 	"math"
-	"runtime"
+	"slices"
 	"strconv"
 	"strings"
-	"sync"
-	"sync/atomic"
 	"time"
 	"unicode"
 	"unicode/utf8"
+
+	"basin.example/internal/parallel"
 )
 
 // blockSize is how much of a CSV file one worker parses at a time. About a
@@ -42,30 +43,36 @@ type csvLayout struct {
 	dateTime bool
 	nstate   int
 	hasRun   bool
-	timeAt   int   // header column of time, for the fast path
-	stateAt  []int // header column of each state, for the fast path
+	// slot is, by header column, where the fast path stores a cell: 0 for
+	// time, 1+k for state k, -1 for a column it skips
+	slot []int
 }
 
-// index fills the fast path's column lists from role and stateOf.
+// index fills the fast path's slots from role and stateOf.
 func (lay *csvLayout) index() {
-	lay.stateAt = make([]int, lay.nstate)
+	lay.slot = make([]int, len(lay.role))
 	lay.hasRun = false
 	for j, r := range lay.role {
+		lay.slot[j] = -1
 		switch r {
 		case roleTime:
-			lay.timeAt = j
+			lay.slot[j] = 0
 		case roleRun:
 			lay.hasRun = true
 		case roleState:
-			lay.stateAt[lay.stateOf[j]] = j
+			lay.slot[j] = 1 + lay.stateOf[j]
 		}
 	}
 }
 
-// chunk is a block of whole lines and what was parsed from it.
+// chunk is a block of whole lines and what was parsed from it. Its rows
+// go straight into the table's columns: t, tn and x are windows of them
+// holding room for lines rows from row off.
 type chunk struct {
 	data  []byte
 	line  int // line number of data's first line
+	lines int // its line ends, plus one for a last line without one: the most rows it can hold
+	off   int // the table row where its room starts
 	rows  int
 	t     []float64
 	tn    []int64
@@ -73,7 +80,6 @@ type chunk struct {
 	keys  []keySpan
 	marks []lineMark
 	err   error
-	done  chan struct{}
 }
 
 // ReadCSV reads one CSV file of logged samples from r. name is used in
@@ -184,12 +190,9 @@ func readCSVTable(r io.Reader, name string, opts *Options) (*table, error) {
 	lay.index()
 	p := &csvParser{lay: lay, tb: tb, sink: opts.csvSink}
 	if eof {
-		c := &chunk{data: rest, line: line}
-		p.parse(c)
-		if c.err != nil {
-			return nil, c.err
+		if err := p.parseBlocks([]*chunk{{data: rest, line: line}}); err != nil {
+			return nil, err
 		}
-		p.merge(c)
 		return tb, nil
 	}
 	// Size the columns from the input's size, when known, so that they are
@@ -498,176 +501,248 @@ var isoLayouts = []string{
 
 // csvParser parses blocks of lines into a table.
 type csvParser struct {
-	lay  *csvLayout
-	tb   *table
-	bufs chan *chunk // parsed-value buffers for reuse (a free list: sync.Pool empties at each GC)
-	// sink is Options.csvSink
+	lay *csvLayout
+	tb  *table
+	// sink is Options.csvSink: when set, each wave's blocks are parsed
+	// into the table's columns as scratch and handed over in order, and
+	// the columns start empty again for the next wave.
 	sink func(*table, *chunk)
 }
 
+// wavePerWorker is how many blocks a wave of [csvParser.parallel] reads
+// per worker: enough that the workers rarely wait on an unlucky block,
+// few enough that the read buffers stay a few megabytes.
+const wavePerWorker = 4
+
 // parallel reads r in blocks after the first one (rest, starting on line)
-// and parses them on GOMAXPROCS workers; results are merged in order.
+// and parses them in waves: a wave's blocks are read, then parsed on the
+// workers of [parallel.For] straight into the table (see
+// [csvParser.parseBlocks]). The read buffers are reused from wave to wave.
 func (p *csvParser) parallel(r io.Reader, rest []byte, line int) error {
-	workers := runtime.GOMAXPROCS(0)
-	jobs := make(chan *chunk, workers)
-	order := make(chan *chunk, 2*workers)
-	var stop atomic.Bool
-	var wg sync.WaitGroup
-	for range workers {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			for c := range jobs {
-				if !stop.Load() {
-					p.parse(c)
+	wave := wavePerWorker * parallel.Workers(0)
+	ring := make([][]byte, wave) // read buffers; block k of a wave uses ring[k]
+	cs := make([]*chunk, 0, wave)
+	carry := rest // the partial line after the last block
+	for {
+		cs = cs[:0]
+		var pending error // a read or line-length error, after the blocks before it
+		eof := false
+		for len(cs) < wave && !eof && pending == nil {
+			buf := ring[len(cs)]
+			if buf == nil {
+				buf = make([]byte, 0, blockSize+blockSize/4)
+			}
+			buf = append(buf[:0], carry...) // carry is in another buffer of the ring (or rest)
+			for {
+				if cap(buf)-len(buf) < blockSize/2 {
+					nb := make([]byte, len(buf), 2*cap(buf))
+					copy(nb, buf)
+					buf = nb
 				}
-				close(c.done)
+				n, err := io.ReadFull(r, buf[len(buf):cap(buf)])
+				buf = buf[:len(buf)+n]
+				eof = errors.Is(err, io.EOF) || errors.Is(err, io.ErrUnexpectedEOF)
+				if err != nil && !eof {
+					pending = err
+					break
+				}
+				if eof || bytes.LastIndexByte(buf, '\n') >= 0 {
+					break
+				}
+				if len(buf) > MaxLineLength {
+					pending = &ParseError{File: p.lay.file, Line: line,
+						Err: fmt.Errorf("%w: line %d longer than the limit of %d bytes", ErrFormat, line, MaxLineLength)}
+					break
+				}
+				// a line longer than the buffer: grow and read on
 			}
-		}()
-	}
-	p.bufs = make(chan *chunk, 4*workers)
-	free := make(chan []byte, 4*workers) // read buffers
-	getBuf := func() []byte {
-		select {
-		case b := <-free:
-			return b[:0]
-		default:
-			return make([]byte, 0, blockSize+blockSize/4)
-		}
-	}
-	var readErr, lineErr error
-	go func() {
-		defer close(order)
-		defer close(jobs)
-		carry := append(getBuf(), rest...)
-		for !stop.Load() {
-			buf := carry
-			if cap(buf)-len(buf) < blockSize/2 {
-				nb := make([]byte, len(buf), 2*cap(buf))
-				copy(nb, buf)
-				buf = nb
-			}
-			n, err := io.ReadFull(r, buf[len(buf):cap(buf)])
-			buf = buf[:len(buf)+n]
-			eof := errors.Is(err, io.EOF) || errors.Is(err, io.ErrUnexpectedEOF)
-			if err != nil && !eof {
-				readErr = err
-				stop.Store(true)
-				return
+			if pending != nil {
+				break
 			}
 			cut := len(buf)
 			if !eof {
-				nl := bytes.LastIndexByte(buf, '\n')
-				if nl < 0 && len(buf) > MaxLineLength {
-					lineErr = &ParseError{File: p.lay.file, Line: line,
-						Err: fmt.Errorf("%w: line %d longer than the limit of %d bytes", ErrFormat, line, MaxLineLength)}
-					stop.Store(true)
-					return
-				}
-				if nl < 0 { // a line longer than the buffer: grow and read on
-					carry = buf
-					continue
-				}
-				cut = nl + 1
+				cut = bytes.LastIndexByte(buf, '\n') + 1
 			}
-			carry = append(getBuf(), buf[cut:]...)
-			c := &chunk{data: buf[:cut], line: line, done: make(chan struct{})}
+			if cap(buf) <= blockSize+blockSize/4 {
+				ring[len(cs)] = buf // keep it for the next wave; a grown one is let go
+			}
+			c := &chunk{data: buf[:cut], line: line}
 			line += bytes.Count(c.data, []byte{'\n'})
-			jobs <- c
-			order <- c
-			if eof {
-				return
-			}
+			cs = append(cs, c)
+			carry = buf[cut:]
 		}
-	}()
-	var firstErr error
-	for c := range order {
-		<-c.done
-		if firstErr == nil && c.err != nil {
-			firstErr = c.err
-			stop.Store(true)
+		if err := p.parseBlocks(cs); err != nil {
+			return err
 		}
-		if firstErr == nil {
-			p.merge(c)
-			select {
-			case p.bufs <- &chunk{x: c.x, t: c.t, tn: c.tn}:
-			default:
-			}
+		if pending != nil {
+			return pending
 		}
-		if cap(c.data) <= blockSize+blockSize/4 {
-			select {
-			case free <- c.data[:0]:
-			default:
-			}
+		if eof {
+			return nil
+		}
+		// the next wave reuses ring[0] first: keep the carry out of it
+		if len(cs) == 1 {
+			carry = append([]byte(nil), carry...)
 		}
 	}
-	wg.Wait()
-	if firstErr != nil {
-		return firstErr
-	}
-	if lineErr != nil {
-		return lineErr
-	}
-	return readErr
 }
 
-// merge appends a parsed chunk to the table.
-func (p *csvParser) merge(c *chunk) {
-	if p.sink != nil { // streaming: the chunk goes there instead
-		p.sink(p.tb, c)
-		return
+// parseBlocks parses consecutive blocks into the table. Each block's rows
+// go straight into the table's columns, at room reserved for as many rows
+// as it has lines; the blocks are parsed on the workers of
+// [parallel.For]; then the rows are closed up in order (blank and comment
+// lines leave room unused) and the line marks and run keys appended. The
+// error is that of the first bad block.
+func (p *csvParser) parseBlocks(cs []*chunk) error {
+	if len(cs) == 0 {
+		return nil
 	}
-	tb := p.tb
-	base := tb.rows
-	for _, m := range c.marks {
-		tb.marks = append(tb.marks, lineMark{row: base + m.row, line: m.line})
+	tb, lay := p.tb, p.lay
+	timed := tb.timeIdx > 0
+	end := tb.rows
+	width := 8 * (len(tb.x) + 1) // bytes of a row in the columns, at most
+	for _, c := range cs {
+		c.lines = bytes.Count(c.data, []byte{'\n'})
+		if n := len(c.data); n > 0 && c.data[n-1] != '\n' {
+			c.lines++
+		}
+		if c.lines*width > 4*len(c.data)+64 {
+			// Shorter lines than rows of one-digit cells: blank lines,
+			// most likely. Count the rows so that the room stays small.
+			c.lines = countRows(c.data)
+		}
+		c.off = end
+		end += c.lines
 	}
-	if p.lay.dateTime {
-		tb.tn = append(tb.tn, c.tn...)
-	} else if tb.timeIdx > 0 {
-		tb.t = append(tb.t, c.t...)
+	switch {
+	case timed && lay.dateTime:
+		tb.tn = slices.Grow(tb.tn, end-len(tb.tn))[:end]
+	case timed:
+		tb.t = slices.Grow(tb.t, end-len(tb.t))[:end]
 	}
 	for j := range tb.x {
-		tb.x[j] = append(tb.x[j], c.x[j]...)
+		tb.x[j] = slices.Grow(tb.x[j], end-len(tb.x[j]))[:end]
 	}
-	if tb.keys != nil {
-		for _, k := range c.keys {
-			if n := len(tb.keys); n > 0 && tb.keys[n-1].key == k.key {
-				tb.keys[n-1].n += k.n
-			} else {
-				tb.keys = append(tb.keys, k)
-			}
+	for _, c := range cs {
+		a, b := c.off, c.off+c.lines
+		switch {
+		case timed && lay.dateTime:
+			c.tn = tb.tn[a:a:b]
+		case timed:
+			c.t = tb.t[a:a:b]
+		}
+		c.x = make([][]float64, len(tb.x))
+		for j := range tb.x {
+			c.x[j] = tb.x[j][a:a:b]
 		}
 	}
-	tb.rows += c.rows
+	var err error
+	if len(cs) == 1 {
+		p.parse(cs[0])
+		err = cs[0].err
+	} else {
+		err = parallel.For(context.Background(), len(cs), 0, nil, func(_ context.Context, i int, _ struct{}) error {
+			p.parse(cs[i])
+			return cs[i].err
+		})
+	}
+	if p.sink != nil {
+		return p.handOver(cs, err)
+	}
+	if err != nil {
+		return err
+	}
+	row := tb.rows
+	for _, c := range cs {
+		if c.off != row { // close up the room the blocks before left
+			switch {
+			case timed && lay.dateTime:
+				copy(tb.tn[row:], tb.tn[c.off:c.off+c.rows])
+			case timed:
+				copy(tb.t[row:], tb.t[c.off:c.off+c.rows])
+			}
+			for j := range tb.x {
+				copy(tb.x[j][row:], tb.x[j][c.off:c.off+c.rows])
+			}
+		}
+		for _, m := range c.marks {
+			tb.marks = append(tb.marks, lineMark{row: row + m.row, line: m.line})
+		}
+		if tb.keys != nil {
+			for _, k := range c.keys {
+				if n := len(tb.keys); n > 0 && tb.keys[n-1].key == k.key {
+					tb.keys[n-1].n += k.n
+				} else {
+					tb.keys = append(tb.keys, k)
+				}
+			}
+		}
+		row += c.rows
+	}
+	tb.rows = row
+	switch {
+	case timed && lay.dateTime:
+		tb.tn = tb.tn[:row]
+	case timed:
+		tb.t = tb.t[:row]
+	}
+	for j := range tb.x {
+		tb.x[j] = tb.x[j][:row]
+	}
+	return nil
+}
+
+// handOver gives the parsed blocks to p.sink in order, up to the first bad
+// one (whose error it returns, err), then empties the table's columns for
+// the next wave; their room is kept. The table's rows stay 0.
+func (p *csvParser) handOver(cs []*chunk, err error) error {
+	n := len(cs)
+	var pe *parallel.PanicError
+	if errors.As(err, &pe) {
+		n = min(n, max(pe.Index, 0))
+	}
+	for _, c := range cs[:n] {
+		if c.err != nil {
+			break
+		}
+		p.sink(p.tb, c)
+	}
+	tb := p.tb
+	tb.t, tb.tn = tb.t[:0], tb.tn[:0]
+	for j := range tb.x {
+		tb.x[j] = tb.x[j][:0]
+	}
+	return err
+}
+
+// skipLine reports a line (without its line end) that is not a row: blank
+// or a comment.
+func skipLine(l []byte) bool {
+	return len(l) == 0 || l[0] == '#' || ((l[0] == ' ' || l[0] == '\t') && isBlankOrComment(l))
+}
+
+// countRows returns the number of lines of data that [csvParser.parse]
+// takes for rows: those neither blank nor a comment.
+func countRows(data []byte) int {
+	n := 0
+	for len(data) > 0 {
+		l := data
+		if nl := bytes.IndexByte(data, '\n'); nl >= 0 {
+			l, data = data[:nl], data[nl+1:]
+		} else {
+			data = nil
+		}
+		if !skipLine(trimCR(l)) {
+			n++
+		}
+	}
+	return n
 }
 
 // parse parses the lines of c.data. It stops at the first bad cell.
 func (p *csvParser) parse(c *chunk) {
 	lay := p.lay
-	est := len(c.data)/(8*lay.ncol+1) + 1
-	var bufs *chunk
-	select {
-	case bufs = <-p.bufs:
-	default:
-	}
-	if bufs != nil {
-		c.x, c.t, c.tn = bufs.x, bufs.t[:0], bufs.tn[:0]
-		for j := range c.x {
-			c.x[j] = c.x[j][:0]
-		}
-	} else {
-		c.x = make([][]float64, lay.nstate)
-		for j := range c.x {
-			c.x[j] = make([]float64, 0, est)
-		}
-	}
 	timed := p.tb.timeIdx > 0
-	if timed && lay.dateTime && c.tn == nil {
-		c.tn = make([]int64, 0, est)
-	} else if timed && c.t == nil {
-		c.t = make([]float64, 0, est)
-	}
 	var cells [][]byte
 	data := c.data
 	line := c.line
@@ -677,9 +752,37 @@ func (p *csvParser) parse(c *chunk) {
 	}
 	// The fast row path: numbers only, no quotes anywhere in the block.
 	fast := !lay.dateTime && !lay.hasRun && bytes.IndexByte(data, '"') < 0
-	vals := make([]float64, lay.ncol)
+	var cols [][]float64 // the fast path's view of the room, by slot
+	if fast {
+		cols = make([][]float64, 1+len(c.x))
+		cols[0] = c.t[:cap(c.t)]
+		for k, x := range c.x {
+			cols[1+k] = x[:cap(x)]
+		}
+	}
 	contiguous := false
 	for len(data) > 0 {
+		if fast {
+			if rows, used := p.fastRows(c, cols, data); rows > 0 {
+				if !contiguous {
+					c.marks = append(c.marks, lineMark{row: c.rows, line: line})
+					contiguous = true
+				}
+				c.rows += rows
+				if timed {
+					c.t = c.t[:c.rows]
+				}
+				for k := range c.x {
+					c.x[k] = c.x[k][:c.rows]
+				}
+				line += rows
+				data = data[used:]
+				if len(data) == 0 {
+					break
+				}
+			}
+		}
+		// one line the fast path refused (or any line when it is off)
 		nl := bytes.IndexByte(data, '\n')
 		var l []byte
 		if nl < 0 {
@@ -688,7 +791,7 @@ func (p *csvParser) parse(c *chunk) {
 			l, data = data[:nl], data[nl+1:]
 		}
 		l = trimCR(l)
-		if len(l) == 0 || l[0] == '#' || ((l[0] == ' ' || l[0] == '\t') && isBlankOrComment(l)) {
+		if skipLine(l) {
 			line++
 			contiguous = false
 			continue
@@ -696,17 +799,6 @@ func (p *csvParser) parse(c *chunk) {
 		if !contiguous {
 			c.marks = append(c.marks, lineMark{row: c.rows, line: line})
 			contiguous = true
-		}
-		if fast && p.fastRow(l, vals) {
-			if timed {
-				c.t = append(c.t, vals[lay.timeAt])
-			}
-			for k, j := range lay.stateAt {
-				c.x[k] = append(c.x[k], vals[j])
-			}
-			c.rows++
-			line++
-			continue
 		}
 		if bytes.IndexByte(l, '"') >= 0 {
 			var ok bool
@@ -787,38 +879,57 @@ func (p *csvParser) parse(c *chunk) {
 	}
 }
 
-// fastRow parses a row whose cells are all plain numbers (or skipped
-// columns) into vals, by header column. It returns false, having changed
-// nothing that matters, on anything else: the general path then parses
-// the row and reports what is wrong with it.
-func (p *csvParser) fastRow(l []byte, vals []float64) bool {
-	lay := p.lay
-	d := lay.delim
-	pos := 0
-	for j, r := range lay.role {
-		if j > 0 {
-			if pos >= len(l) || l[pos] != d {
-				return false
+// fastRows parses the rows at the start of data whose cells are all plain
+// numbers (or skipped columns), each row ended by "\n", "\r\n" or the end
+// of data, and stores them by index after c's rows in cols (c.t and c.x
+// to their capacity, the block's room, by slot: see [csvLayout.slot]).
+// It stops before the first line it cannot take whole, having changed
+// nothing that matters, and returns the rows taken and the bytes they
+// used; the general path then parses that line and reports what is wrong
+// with it.
+func (p *csvParser) fastRows(c *chunk, cols [][]float64, data []byte) (rows, used int) {
+	d := p.lay.delim
+	slot := p.lay.slot
+	r := c.rows
+	for used < len(data) {
+		i := used
+		for j, s := range slot {
+			if j > 0 {
+				if i >= len(data) || data[i] != d {
+					return rows, used
+				}
+				i++
 			}
-			pos++
-		}
-		if r == roleSkip {
-			k := bytes.IndexByte(l[pos:], d)
-			if k < 0 {
-				pos = len(l)
-			} else {
-				pos += k
+			if s < 0 {
+				for i < len(data) && data[i] != d && data[i] != '\n' {
+					i++
+				}
+				continue
 			}
-			continue
+			v, n, ok := scanFast(data[i:])
+			if !ok {
+				return rows, used
+			}
+			cols[s][r] = v
+			i += n
 		}
-		v, n, ok := scanFast(l[pos:])
-		if !ok {
-			return false
+		if i < len(data) {
+			switch {
+			case data[i] == '\n':
+				i++
+			case data[i] == '\r' && i+1 == len(data):
+				i++
+			case data[i] == '\r' && data[i+1] == '\n':
+				i += 2
+			default:
+				return rows, used
+			}
 		}
-		vals[j] = v
-		pos += n
+		rows++
+		r++
+		used = i
 	}
-	return pos == len(l)
+	return rows, used
 }
 
 // cellSlow handles what the fast path refused: blanks around a number,

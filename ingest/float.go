@@ -17,110 +17,14 @@ var exactPow10 = [...]float64{
 // returns the same bits. ok is false when b is not a number (ParseFloat's
 // syntax error) or is out of range.
 //
-// The fast path takes a mantissa m <= 2^53 and a decimal exponent e with
-// |e| <= 22: both m and 10^|e| are exact float64 values, so m*10^e (or
-// m/10^-e) is one correctly rounded IEEE 754 operation and gives the
-// nearest float64 to the decimal value, the same answer ParseFloat's
-// round-to-nearest-even must give. Anything else (long mantissas, large
-// exponents, hex, inf, nan, underscores) goes to strconv.ParseFloat.
+// A cell that [scanFast] takes whole is done there, exactly; anything else
+// (long mantissas, large exponents, hex, inf, nan, underscores, junk) goes
+// to strconv.ParseFloat.
 func parseFloat(b []byte) (f float64, ok bool) {
-	i := 0
-	n := len(b)
-	neg := false
-	if i < n && (b[i] == '-' || b[i] == '+') {
-		neg = b[i] == '-'
-		i++
+	if f, n, ok := scanFast(b); ok && n == len(b) {
+		return f, true
 	}
-	var mant uint64
-	digits := 0 // significant digits accumulated in mant
-	exp := 0    // decimal exponent to apply to mant
-	sawDigit := false
-	// integer part
-	for ; i < n; i++ {
-		c := b[i] - '0'
-		if c > 9 {
-			break
-		}
-		sawDigit = true
-		if mant == 0 && c == 0 {
-			continue // leading zeros are not significant
-		}
-		if digits >= 19 {
-			return slowFloat(b)
-		}
-		mant = mant*10 + uint64(c)
-		digits++
-	}
-	if i < n && b[i] == '.' {
-		i++
-		for ; i < n; i++ {
-			c := b[i] - '0'
-			if c > 9 {
-				break
-			}
-			sawDigit = true
-			if mant == 0 && c == 0 {
-				exp--
-				continue
-			}
-			if digits >= 19 {
-				return slowFloat(b)
-			}
-			mant = mant*10 + uint64(c)
-			digits++
-			exp--
-		}
-	}
-	if !sawDigit {
-		return slowFloat(b) // inf, nan, hex, or not a number
-	}
-	if i < n && (b[i] == 'e' || b[i] == 'E') {
-		i++
-		eneg := false
-		if i < n && (b[i] == '-' || b[i] == '+') {
-			eneg = b[i] == '-'
-			i++
-		}
-		if i == n {
-			return 0, false
-		}
-		e := 0
-		for ; i < n; i++ {
-			c := b[i] - '0'
-			if c > 9 {
-				return slowFloat(b)
-			}
-			if e < 10000 {
-				e = e*10 + int(c)
-			}
-		}
-		if eneg {
-			e = -e
-		}
-		exp += e
-	}
-	if i != n {
-		return slowFloat(b) // underscores, trailing junk: let strconv decide
-	}
-	if mant == 0 {
-		if neg {
-			return negZero, true
-		}
-		return 0, true
-	}
-	if mant > 1<<53 || exp > 22 || exp < -22 {
-		return slowFloat(b)
-	}
-	f = float64(mant)
-	if exp >= 0 {
-		f *= exactPow10[exp]
-	} else {
-		f /= exactPow10[-exp]
-	}
-	if neg {
-		f = -f
-	}
-	return f, true
+	return slowFloat(b)
 }
 
 var negZero = func() float64 { z := 0.0; return -z }()
@@ -136,18 +40,24 @@ func slowFloat(b []byte) (float64, bool) {
 }
 
 // scanFast parses the plain decimal number at the start of b, as far as it
-// goes, when the exact fast path of parseFloat applies to it (digits, an
-// optional sign, point and exponent; at most 19 digits, leading zeros
-// included, so the mantissa cannot overflow; mantissa <= 2^53; |exponent|
-// <= 22). n is the number of bytes used. ok is false when b does not
+// goes, when the exact fast path applies to it (digits, an optional sign,
+// point and exponent; at most 19 digits, leading zeros included, so the
+// mantissa cannot overflow; mantissa m <= 2^53; decimal exponent e with
+// |e| <= 22). n is the number of bytes used. ok is false when b does not
 // start with such a number; the caller then parses the cell with
 // parseFloat, which agrees with strconv.ParseFloat everywhere.
+//
+// Both m and 10^|e| are exact float64 values, so m*10^e (or m/10^-e) is
+// one correctly rounded IEEE 754 operation and gives the nearest float64
+// to the decimal value, the same answer ParseFloat's round-to-nearest-even
+// must give (the fast path of Clinger, "How to read floating point numbers
+// accurately", PLDI 1990).
 func scanFast(b []byte) (f float64, n int, ok bool) {
 	i := 0
 	neg := false
-	if i < len(b) && (b[i] == '-' || b[i] == '+') {
-		neg = b[i] == '-'
-		i++
+	if len(b) > 0 && (b[0] == '-' || b[0] == '+') {
+		neg = b[0] == '-'
+		i = 1
 	}
 	var mant uint64
 	start := i
@@ -159,35 +69,39 @@ func scanFast(b []byte) (f float64, n int, ok bool) {
 		mant = mant*100000000 + eightValue(x)
 		i += 8
 	}
-	for ; i < len(b); i++ {
+	for i < len(b) {
 		c := b[i] - '0'
 		if c > 9 {
 			break
 		}
 		mant = mant*10 + uint64(c)
+		i++
 	}
 	digits := i - start
 	exp := 0
 	if i < len(b) && b[i] == '.' {
 		i++
 		fs := i
-		for i+8 <= len(b) && digits+(i-fs)+8 <= 19 {
+		for digits <= 11 && i+8 <= len(b) { // 8 more digits keep 19 or fewer
 			x := binary.LittleEndian.Uint64(b[i:])
 			if !eightDigits(x) {
 				break
 			}
 			mant = mant*100000000 + eightValue(x)
 			i += 8
+			digits += 8
 		}
-		for ; i < len(b); i++ {
+		k := i
+		for i < len(b) {
 			c := b[i] - '0'
 			if c > 9 {
 				break
 			}
 			mant = mant*10 + uint64(c)
+			i++
 		}
+		digits += i - k
 		exp = fs - i
-		digits += i - fs
 	}
 	if digits == 0 || digits > 19 {
 		return 0, 0, false
@@ -229,7 +143,7 @@ func scanFast(b []byte) (f float64, n int, ok bool) {
 		}
 		return 0, i, true
 	}
-	f = float64(mant)
+	f = float64(int64(mant)) // mant <= 2^53: exact, and one signed conversion
 	if exp >= 0 {
 		f *= exactPow10[exp]
 	} else {
