@@ -8,6 +8,7 @@ import (
 	"math"
 	"math/rand/v2"
 	"runtime"
+	"slices"
 	"strconv"
 	"strings"
 	"testing"
@@ -217,6 +218,46 @@ func TestReadCSVWaves(t *testing.T) {
 		// the line of every row: a bad cell far in names it
 		if k := len(tb.marks); k < 10 {
 			t.Errorf("GOMAXPROCS %d: %d line marks for a file with comments throughout", procs, k)
+		}
+		// The same through the streaming hook: the blocks come in order,
+		// their rows and line marks the table's.
+		prev = runtime.GOMAXPROCS(procs)
+		sunk := make([][]float64, 3)
+		var marks []lineMark
+		blocks := 0
+		opts := &Options{csvSink: func(_ *table, c *chunk) {
+			for _, m := range c.marks {
+				marks = append(marks, lineMark{row: len(sunk[0]) + m.row, line: m.line})
+			}
+			sunk[0] = append(sunk[0], c.t[:c.rows]...)
+			for j := range 2 {
+				sunk[j+1] = append(sunk[j+1], c.x[j][:c.rows]...)
+			}
+			blocks++
+		}}
+		stb, err := readCSVTable(bytes.NewReader(append([]byte("t,a,b\n"), body...)), "w.csv", opts)
+		runtime.GOMAXPROCS(prev)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if stb.rows != 0 || len(stb.x[0]) != 0 {
+			t.Errorf("GOMAXPROCS %d: streamed table kept %d rows, %d values", procs, stb.rows, len(stb.x[0]))
+		}
+		if blocks < 2 {
+			t.Errorf("GOMAXPROCS %d: %d blocks handed over", procs, blocks)
+		}
+		for j := range sunk {
+			if len(sunk[j]) != n {
+				t.Fatalf("GOMAXPROCS %d, streamed: column %d has %d rows, want %d", procs, j, len(sunk[j]), n)
+			}
+			for i := range sunk[j] {
+				if !sameFloat(sunk[j][i], want[j][i]) {
+					t.Fatalf("GOMAXPROCS %d, streamed: column %d row %d = %v, want %v", procs, j, i, sunk[j][i], want[j][i])
+				}
+			}
+		}
+		if !slices.Equal(marks, tb.marks) {
+			t.Errorf("GOMAXPROCS %d, streamed: %d line marks, the table's %d differ", procs, len(marks), len(tb.marks))
 		}
 	}
 }
