@@ -62,7 +62,10 @@ func checkAgainstStdlib(t *testing.T, header string, ncol int, body []byte) (com
 		if !errors.As(err, &pe) || pe.File != "f.csv" || strings.ContainsAny(err.Error(), "\n\r") || !strings.HasPrefix(err.Error(), "f.csv:") {
 			t.Fatalf("error %q is not a one-line *ParseError naming the file", err)
 		}
-		if valid && len(want[0]) > 0 && pe.Line < 2 {
+		// A NUL byte refuses the whole file (binary data), its line
+		// named in the text rather than in Line.
+		binary := strings.Contains(err.Error(), "a NUL byte on line ")
+		if valid && len(want[0]) > 0 && pe.Line < 2 && !binary {
 			t.Fatalf("error %q without the line of a row", err)
 		}
 		if valid && len(want[0]) > 0 && !bytes.ContainsAny(body, " \t\r\"\x00") && !bytes.HasPrefix(body, []byte("\ufeff")) {
