@@ -66,7 +66,8 @@ type checker struct {
 	// run order, with the field), the ray points (ray by ray) and the
 	// pool (see pointCache).
 	samples, rayPts, poolPts *pointCache
-	dots                     sampleDots // of the V being checked
+	dots                     sampleDots  // of the V being checked
+	vals                     [][]float64 // V at the samples, per run (see values)
 	// pool holds Monte-Carlo points of the samples' box that are trusted
 	// (n each); poolShare is their share of the box's points.
 	pool      []float64
@@ -284,12 +285,23 @@ func (ck *checker) linearCheck(c []float64) (lam float64, reason string) {
 }
 
 // values returns V at every recorded sample, per run.
+// The slices are the checker's, reused by the next call: valid until
+// then.
 func (ck *checker) values(ve *vEval) [][]float64 {
 	n := ck.fam.n
-	vals := make([][]float64, len(ck.runs))
+	if len(ck.vals) != len(ck.runs) {
+		total := len(ck.trust.HSamples)
+		buf := make([]float64, total)
+		ck.vals = make([][]float64, len(ck.runs))
+		for ri := range ck.runs {
+			r := &ck.runs[ri]
+			ck.vals[ri] = buf[r.off : r.off+len(r.t) : r.off+len(r.t)]
+		}
+	}
+	vals := ck.vals
 	for ri := range ck.runs {
 		r := &ck.runs[ri]
-		vs := make([]float64, len(r.t))
+		vs := vals[ri]
 		for i := range vs {
 			vs[i] = ck.samples.value(ve, r.off+i, r.z[i*n:(i+1)*n])
 		}
