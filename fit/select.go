@@ -1,97 +1,19 @@
 package fit
 
-import (
-	"math"
-	"slices"
-)
+import "basin.example/internal/order"
 
-// selectSorted reorders d so that d[k], for every k in ks, holds the
-// value slices.Sort(d) would leave at index k, and every other entry lies
-// on the side of each d[k] that the sort would put it (NaN counting as the
-// smallest value, as slices.Sort orders it). The entries of ks must be
-// ascending and in [0, len(d)). It costs O(len(d)) comparisons on average
-// for a few order statistics, against O(len(d) log len(d)) for the sort:
-// Hoare's selection (FIND, Comm. ACM 4(7), 1961) with a median-of-three
-// pivot and a three-way partition (so runs of equal values cost no
-// extra), falling back to slices.Sort on a part that needed more than
-// 2 log2(len(d)) + 8 partitions, which bounds the worst case.
-func selectSorted(d []float64, ks ...int) {
-	nan := 0
-	for i, v := range d {
-		if v != v {
-			d[i], d[nan] = d[nan], d[i]
-			nan++
-		}
-	}
-	for len(ks) > 0 && ks[0] < nan { // d[:nan] are the NaNs the sort puts first
-		ks = ks[1:]
-	}
-	depth := 8
-	for m := len(d) - nan; m > 1; m >>= 1 {
-		depth += 2
-	}
-	selectRange(d, nan, len(d), ks, depth)
-}
-
-// selectRange is selectSorted on d[lo:hi], free of NaN, for the ks
-// (absolute indices into d) in [lo, hi).
-func selectRange(d []float64, lo, hi int, ks []int, depth int) {
-	for len(ks) > 0 && hi-lo > 1 {
-		if hi-lo <= 12 || depth == 0 {
-			slices.Sort(d[lo:hi])
-			return
-		}
-		depth--
-		lt, gt := partition3(d, lo, hi)
-		// d[lo:lt] < pivot, d[lt:gt] == pivot, d[gt:hi] > pivot.
-		i := 0
-		for i < len(ks) && ks[i] < lt {
-			i++
-		}
-		j := i
-		for j < len(ks) && ks[j] < gt {
-			j++
-		}
-		if i > 0 {
-			selectRange(d, lo, lt, ks[:i], depth)
-		}
-		lo, ks = gt, ks[j:]
-	}
-}
-
-// partition3 partitions d[lo:hi] (no NaN, hi-lo >= 3) around the median
-// of its first, middle and last values and returns the bounds of the
-// pivot's run: d[lo:lt] < p, d[lt:gt] == p, d[gt:hi] > p.
-func partition3(d []float64, lo, hi int) (lt, gt int) {
-	a, b, c := d[lo], d[lo+(hi-lo)/2], d[hi-1]
-	p := math.Max(math.Min(a, b), math.Min(math.Max(a, b), c))
-	lt, gt = lo, hi
-	for i := lo; i < gt; {
-		switch v := d[i]; {
-		case v < p:
-			d[i], d[lt] = d[lt], d[i]
-			lt++
-			i++
-		case v > p:
-			gt--
-			d[i], d[gt] = d[gt], d[i]
-		default:
-			i++
-		}
-	}
-	return lt, gt
-}
-
-// medianSelect returns the median of d as noiseStd's sort gave it: the
-// middle value of slices.Sort(d) for odd length, the mean of the two
-// middle ones for even length (NaN when the sort puts a NaN there). It
-// reorders d.
+// medianSelect returns the median of d as slices.Sort(d) would give it
+// ([order.Median] of the sorted d: the middle value for odd length, the
+// mean of the two middle ones for even length; NaN when the sort puts a
+// NaN there), without sorting: [order.Select] puts the middle values in
+// place, and the window they form is sorted. It reorders d and panics
+// when d is empty.
 func medianSelect(d []float64) float64 {
 	n := len(d)
-	if n%2 == 1 {
-		selectSorted(d, n/2)
-		return d[n/2]
+	if n == 0 {
+		panic("fit: median of no values")
 	}
-	selectSorted(d, n/2-1, n/2)
-	return (d[n/2-1] + d[n/2]) / 2
+	lo, hi := (n-1)/2, n/2
+	order.Select(d, lo, hi)
+	return order.Median(d[lo : hi+1])
 }

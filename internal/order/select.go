@@ -1,0 +1,93 @@
+package order
+
+import (
+	"math"
+	"slices"
+)
+
+// Select reorders d so that d[k], for every k in ks, holds the value
+// [slices.Sort] would leave at index k (NaN counting as the smallest
+// value, as slices.Sort orders it), and every other entry lies on the
+// side of each d[k] that the sort would put it. So a window d[i:j] of
+// consecutive selected indices is sorted, and the statistics of this
+// package apply to it: after Select(d, (n-1)/2, n/2), Median(d[(n-1)/2 :
+// n/2+1]) is Median of the sorted d, bit for bit.
+//
+// It costs O(len(d)) comparisons on average for a few order statistics,
+// against O(len(d) log len(d)) for the sort: Hoare's selection (FIND,
+// Comm. ACM 4(7), 1961) with a median-of-three pivot and a three-way
+// partition (so runs of equal values cost no extra), falling back to
+// slices.Sort on a part that needed more than 2 log2(len(d)) + 8
+// partitions, which bounds the worst case. It does not allocate. It
+// panics when ks is not ascending or holds an index outside [0, len(d)).
+func Select(d []float64, ks ...int) {
+	for i, k := range ks {
+		if k < 0 || k >= len(d) || i > 0 && k < ks[i-1] {
+			panic("order: Select: indices not ascending within the slice")
+		}
+	}
+	nan := 0
+	for i, v := range d {
+		if v != v {
+			d[i], d[nan] = d[nan], d[i]
+			nan++
+		}
+	}
+	for len(ks) > 0 && ks[0] < nan { // d[:nan] are the NaNs the sort puts first
+		ks = ks[1:]
+	}
+	depth := 8
+	for m := len(d) - nan; m > 1; m >>= 1 {
+		depth += 2
+	}
+	selectRange(d, nan, len(d), ks, depth)
+}
+
+// selectRange is Select on d[lo:hi], free of NaN, for the ks (absolute
+// indices into d) in [lo, hi).
+func selectRange(d []float64, lo, hi int, ks []int, depth int) {
+	for len(ks) > 0 && hi-lo > 1 {
+		if hi-lo <= 12 || depth == 0 {
+			slices.Sort(d[lo:hi])
+			return
+		}
+		depth--
+		lt, gt := partition3(d, lo, hi)
+		// d[lo:lt] < pivot, d[lt:gt] == pivot, d[gt:hi] > pivot.
+		i := 0
+		for i < len(ks) && ks[i] < lt {
+			i++
+		}
+		j := i
+		for j < len(ks) && ks[j] < gt {
+			j++
+		}
+		if i > 0 {
+			selectRange(d, lo, lt, ks[:i], depth)
+		}
+		lo, ks = gt, ks[j:]
+	}
+}
+
+// partition3 partitions d[lo:hi] (no NaN, hi-lo >= 3) around the median
+// of its first, middle and last values and returns the bounds of the
+// pivot's run: d[lo:lt] < p, d[lt:gt] == p, d[gt:hi] > p.
+func partition3(d []float64, lo, hi int) (lt, gt int) {
+	a, b, c := d[lo], d[lo+(hi-lo)/2], d[hi-1]
+	p := math.Max(math.Min(a, b), math.Min(math.Max(a, b), c))
+	lt, gt = lo, hi
+	for i := lo; i < gt; {
+		switch v := d[i]; {
+		case v < p:
+			d[i], d[lt] = d[lt], d[i]
+			lt++
+			i++
+		case v > p:
+			gt--
+			d[i], d[gt] = d[gt], d[i]
+		default:
+			i++
+		}
+	}
+	return lt, gt
+}
