@@ -4,6 +4,8 @@ import (
 	"math"
 	"slices"
 	"time"
+
+	"basin.example/internal/order"
 )
 
 // Settling thresholds for [Summarise].
@@ -164,22 +166,13 @@ func rateJitter(dt []float64) (rate, jitter float64) {
 		return 0, 0
 	}
 	slices.Sort(dt)
-	med := quantile(dt, 0.5)
+	// Quantile at 1/2 rather than Median: the same definition, rounded as
+	// the rate always was (a+(b-a)/2 and (a+b)/2 can differ in the last bit).
+	med := order.Quantile(dt, 0.5)
 	if med <= 0 {
 		return 0, 0
 	}
-	return 1 / med, (quantile(dt, 0.75) - quantile(dt, 0.25)) / med
-}
-
-// quantile of sorted v by linear interpolation between order statistics
-// (the common "type 7" definition).
-func quantile(v []float64, p float64) float64 {
-	h := p * float64(len(v)-1)
-	lo := int(math.Floor(h))
-	if lo+1 >= len(v) {
-		return v[len(v)-1]
-	}
-	return v[lo] + (h-float64(lo))*(v[lo+1]-v[lo])
+	return 1 / med, (order.Quantile(dt, 0.75) - order.Quantile(dt, 0.25)) / med
 }
 
 func settle(r *Run, lo, hi []float64) (bool, []float64) {

@@ -8,6 +8,8 @@ import (
 	"sort"
 	"strings"
 	"time"
+
+	"basin.example/internal/order"
 )
 
 // noTime marks a missing date-time cell in table.tn.
@@ -350,20 +352,30 @@ func gather(src []float64, rgs [][2]int) []float64 {
 	return dst
 }
 
-// median returns the median of v, reordering v. v must not be empty.
+// median returns the median of v, reordering v (see [medianSorted]). v
+// must not be empty.
 func median(v []float64) float64 {
 	slices.Sort(v)
 	return medianSorted(v)
 }
 
-// medianSorted returns the median of v, sorted ascending: the middle
-// value, or the mean of the two middle values. v must not be empty.
+// medianSorted returns the median of v, sorted ascending as [slices.Sort]
+// leaves it: [order.Median], the middle value or the mean of the two
+// middle values. A NaN (sorted first) counts as a value below every
+// number rather than making the median NaN, as the event pass and the
+// streamed screen's selection ([scaleOf]) have always ranked it: with k
+// NaN, the median is that of v[k:n-k] (taking k values off both ends
+// keeps the middle), and NaN when the NaN reach the middle. v must not be
+// empty.
 func medianSorted(v []float64) float64 {
-	n := len(v)
-	if n%2 == 1 {
-		return v[n/2]
+	k := 0
+	for k < len(v) && math.IsNaN(v[k]) {
+		k++
 	}
-	return (v[n/2-1] + v[n/2]) / 2
+	if len(v)-2*k <= 0 {
+		return math.NaN()
+	}
+	return order.Median(v[k : len(v)-k])
 }
 
 // window keeps, of a recording's pieces, the rows with time in
