@@ -266,7 +266,10 @@ func (tb *table) readGroup(f *os.File, pr *file.Reader, jb *colJob, c Column,
 		sc.chunk = make([]byte, clen)
 	}
 	buf := sc.chunk[:clen]
-	if _, err := f.ReadAt(buf, start); err != nil && err != io.EOF {
+	if n, err := f.ReadAt(buf, start); n < len(buf) {
+		if err == nil || err == io.EOF { // the footer's chunk lies past the end now
+			return 0, &ParseError{File: tb.file, Err: fmt.Errorf("%w: the file changed while it was read", ErrFormat)}
+		}
 		return 0, err
 	}
 	lim := chunkLimits{values: int64(rows), uncompressed: int64(rows)*(2*jb.kind.width()+5) + 1<<20}

@@ -1,11 +1,17 @@
 package ingest
 
 import (
+	"context"
 	"encoding/binary"
 	"math"
 	"math/rand/v2"
+	"os"
+	"path/filepath"
 	"sort"
+	"strings"
 	"testing"
+
+	"github.com/apache/arrow/go/v15/parquet/compress"
 )
 
 // madBySort is the scale by its definition, with the standard library's
@@ -229,5 +235,42 @@ func TestUnpackDict(t *testing.T) {
 			// drawn above nd/2 with near certainty: 50+ values)
 			t.Errorf("bw=%d: accepted indices past the dictionary", bw)
 		}
+	}
+}
+
+// TestStreamParquetCut: a streamed Parquet file cut short between the
+// plan and the scan, or between two scans, is an error naming the file
+// and saying it changed, not a decode of what the short read left in
+// the buffer.
+func TestStreamParquetCut(t *testing.T) {
+	for _, cutAt := range []string{"before the scan", "between scans"} {
+		t.Run(cutAt, func(t *testing.T) {
+			path := filepath.Join(t.TempDir(), "log.parquet")
+			writeRigParquet(t, path, rigLog{n: 40000, dt: 0.001, sd: 1e-3}, 4, 4096, false, false, compress.Codecs.Uncompressed)
+			sf, err := NewStreamer(nil, &StreamOptions{Window: -1}).Open(context.Background(), path)
+			if err != nil {
+				t.Fatal(err)
+			}
+			defer sf.Close()
+			if sf.Whole != "" {
+				t.Fatalf("read whole: %s", sf.Whole)
+			}
+			scan := func() error {
+				return sf.Scan(context.Background(), func(int, []float64, [][]float64) error { return nil })
+			}
+			if cutAt == "between scans" {
+				if err := scan(); err != nil {
+					t.Fatal(err)
+				}
+			}
+			if err := os.Truncate(path, 4096); err != nil {
+				t.Fatal(err)
+			}
+			err = scan()
+			if err == nil || !strings.Contains(err.Error(), "log.parquet") || !strings.Contains(err.Error(), "changed while it was read") {
+				t.Fatalf("Scan of a file cut short: %v", err)
+			}
+			t.Log(err)
+		})
 	}
 }
