@@ -172,3 +172,31 @@ func TestColumnEval(t *testing.T) {
 		}
 	}
 }
+
+// TestFirstStrided: lpRows's strided walk over the runs visits exactly
+// the samples whose count over all runs (from 1) is a multiple of the
+// stride, as a count over every sample does. A property of the
+// implementation, checked by brute force.
+func TestFirstStrided(t *testing.T) {
+	for _, lens := range [][]int{{7}, {5, 0, 9, 3}, {1, 1, 1, 40}, {17, 23, 31}} {
+		for stride := 1; stride <= 12; stride++ {
+			var want, got []int
+			idx, off := 0, 0
+			for _, m := range lens {
+				for k := 0; k < m; k++ {
+					idx++
+					if idx%stride == 0 {
+						want = append(want, off+k)
+					}
+				}
+				for k := firstStrided(off, stride); k < m; k += stride {
+					got = append(got, off+k)
+				}
+				off += m
+			}
+			if !reflect.DeepEqual(got, want) {
+				t.Errorf("runs %v stride %d: visits %v, want %v", lens, stride, got, want)
+			}
+		}
+	}
+}

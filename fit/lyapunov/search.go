@@ -751,15 +751,10 @@ func (ck *checker) lpRows(prev []float64, target, outer, lambda float64, o Optio
 	f := make([]float64, n)
 	g := make([]float64, n)
 	r02 := ck.r0 * ck.r0
-	idx := 0
 	for ri := range ck.runs {
 		r := &ck.runs[ri]
 		m := len(r.t)
-		for k := 0; k < m; k++ {
-			idx++
-			if idx%stride != 0 {
-				continue
-			}
+		for k := firstStrided(r.off, stride); k < m; k += stride {
 			z := r.z[k*n : (k+1)*n]
 			if ck.samples.norm2(r.off+k, z) <= r02 {
 				continue
@@ -807,6 +802,13 @@ func (ck *checker) lpRows(prev []float64, target, outer, lambda float64, o Optio
 		}
 	}
 	return rows
+}
+
+// firstStrided returns the first k >= 0 such that off+k+1 is a multiple
+// of stride: lpRows takes every stride-th sample over all runs (counted
+// from 1), and a run's sample k is sample off+k overall.
+func firstStrided(off, stride int) int {
+	return (stride - (off+1)%stride) % stride
 }
 
 // extent returns the bounds, in z, of the checked points (samples and
