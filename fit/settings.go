@@ -174,7 +174,18 @@ func (s *Settings) UnmarshalJSON(b []byte) error {
 	}
 	var raw map[string]json.RawMessage
 	if err := json.Unmarshal(b, &raw); err != nil {
-		return fmt.Errorf("settings: %w", err)
+		kind := "a number"
+		switch t := bytes.TrimSpace(b); {
+		case len(t) == 0:
+			kind = "nothing"
+		case t[0] == '[':
+			kind = "an array"
+		case t[0] == '"':
+			kind = "a string"
+		case t[0] == 't' || t[0] == 'f':
+			kind = "a boolean"
+		}
+		return fmt.Errorf("settings: want a JSON object, got %s", kind)
 	}
 	*s = Settings{}
 	for _, p := range s.parts() {

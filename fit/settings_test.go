@@ -99,8 +99,8 @@ func TestSettingsJSON(t *testing.T) {
 	}
 	// Not an object: the certificate is refused, like any mistyped field.
 	var s Settings
-	if err := json.Unmarshal([]byte(`[1, 2]`), &s); err == nil {
-		t.Error("a settings array was accepted")
+	if err := json.Unmarshal([]byte(`[1, 2]`), &s); err == nil || !strings.Contains(err.Error(), "settings: want a JSON object, got an array") {
+		t.Errorf("a settings array: err %v", err)
 	}
 }
 

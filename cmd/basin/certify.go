@@ -145,6 +145,9 @@ func printCertificate(w io.Writer, c *fit.Certificate) {
 	if c.Contradicted {
 		fmt.Fprintf(w, "the data contradict stability: %s\n\n", c.Contradiction)
 	}
+	if line := report.ConflictLine(c); line != "" {
+		fmt.Fprintf(w, "%s\n\n", line)
+	}
 	if !c.Found {
 		fmt.Fprintf(w, "%s\n", c.Caveat)
 		return

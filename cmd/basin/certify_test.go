@@ -100,3 +100,65 @@ func TestCertifyCommandBadInput(t *testing.T) {
 		})
 	}
 }
+
+// TestCertifyCommandConflict: basin certify records its settings once
+// (the search's by fit.Certify, the model file and INPUTS by the
+// command; no field or held-out keys, it did neither), and for a model
+// turned into a saddle (omega' = +4 theta - 0.8 omega: an eigenvalue
+// (-0.8 + sqrt(0.64 + 16))/2 > 0) prints the LP conflict's line and
+// writes lp_conflict.
+func TestCertifyCommandConflict(t *testing.T) {
+	data, out := certifyFixture(t)
+	model := filepath.Join(out, "model.json")
+	f, err := os.Open(model)
+	if err != nil {
+		t.Fatal(err)
+	}
+	m, err := fit.ReadModel(f)
+	f.Close()
+	if err != nil {
+		t.Fatal(err)
+	}
+	flipped := false
+	for k, e := range m.Equations[1].Exponents {
+		if e[0] == 1 && e[1] == 0 && m.Equations[1].Coefficients[k] < 0 {
+			m.Equations[1].Coefficients[k] *= -1
+			flipped = true
+		}
+	}
+	if !flipped {
+		t.Fatalf("no theta term to flip in %+v", m.Equations[1])
+	}
+	b, err := json.Marshal(m)
+	if err != nil {
+		t.Fatal(err)
+	}
+	saddle := filepath.Join(out, "saddle.json")
+	if err := os.WriteFile(saddle, b, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	var o, e bytes.Buffer
+	if code := basinMain(context.Background(), []string{"certify", "--model", saddle, data, "--out", out}, &o, &e); code != 0 {
+		t.Fatalf("exit %d: %s", code, e.String())
+	}
+	if !strings.Contains(o.String(), "LP conflict: the fitted field contradicts every V of degree 2") {
+		t.Errorf("output lacks the LP conflict:\n%s", o.String())
+	}
+	f, err = os.Open(filepath.Join(out, "certificate.json"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	c, err := fit.ReadCertificate(f)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if c.ReasonKind != fit.ReasonUnstableLinearisation || c.LPConflict == nil || c.LPConflict.Rows == 0 {
+		t.Errorf("kind %s conflict %+v", c.ReasonKind, c.LPConflict)
+	}
+	s := c.Settings
+	if s == nil || s.Search == nil || s.Search.VDegree != 2 || s.Command == nil || s.Command.Model != saddle ||
+		s.Command.Inputs != data || s.Field != nil || s.Holdout != nil {
+		t.Errorf("settings %+v", s)
+	}
+}

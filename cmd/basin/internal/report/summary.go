@@ -29,7 +29,7 @@ func Summary(w io.Writer, in *Input) error {
 	if c.Reason != "" {
 		fmt.Fprintf(&b, "  %s\n", c.Reason)
 	}
-	if line := conflictLine(c); line != "" {
+	if line := ConflictLine(c); line != "" {
 		fmt.Fprintf(&b, "  %s\n", line)
 	}
 	fmt.Fprintf(&b, "equilibrium: %s\n", statePoint(c, c.Equilibrium))
@@ -423,9 +423,9 @@ func equationErrors(b *strings.Builder, m *fit.Model) {
 	}
 }
 
-// conflictLine says in one line what the certificate LP's conflict
-// proves and where (empty when there is none).
-func conflictLine(c *fit.Certificate) string {
+// ConflictLine says in one line what the certificate LP's conflict
+// (Certificate.LPConflict) proves and where; empty when there is none.
+func ConflictLine(c *fit.Certificate) string {
 	lc := c.LPConflict
 	if lc == nil || len(lc.Families) == 0 {
 		return ""
