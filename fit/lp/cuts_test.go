@@ -6,12 +6,14 @@ import (
 	"math/rand/v2"
 	"slices"
 	"strings"
+	"sync/atomic"
 	"testing"
 
 	"gonum.org/v1/gonum/floats"
 	"gonum.org/v1/gonum/floats/scalar"
 
 	"basin.example/fit/lp"
+	"basin.example/fit/lp/internal/certlp"
 	"basin.example/internal/parallel"
 )
 
@@ -180,5 +182,84 @@ func TestSolveCutsPanickingRows(t *testing.T) {
 		if !errors.As(err, &pe) {
 			t.Errorf("%v: got %v, want a recovered panic", m, err)
 		}
+	}
+}
+
+// countRows counts the rows it hands out (RowTo calls), across clones.
+type countRows struct {
+	lp.Rows
+	n *atomic.Int64
+}
+
+func (r countRows) RowTo(dst []float64, i int) float64 {
+	r.n.Add(1)
+	return r.Rows.RowTo(dst, i)
+}
+
+func (r countRows) Clone() lp.Rows {
+	if cl, ok := r.Rows.(lp.Cloner); ok {
+		return countRows{cl.Clone(), r.n}
+	}
+	return r
+}
+
+// TestSolveCutsSkipSame: the passes that skip the rows which surely hold
+// (their distance from x exceeds x's move since they were evaluated)
+// give bit for bit the answer of full passes, with fewer row
+// evaluations. The polygon's first restricted problems are unbounded
+// (a ray pass before the point passes); the certificate LPs are those of
+// the benchmarks, smaller.
+func TestSolveCutsSkipSame(t *testing.T) {
+	polyG := make([]float64, 2*4000)
+	polyH := make([]float64, 4000)
+	for i := range polyH {
+		th := 2 * math.Pi * float64(i) / 4000
+		polyG[2*i], polyG[2*i+1], polyH[i] = math.Cos(th), math.Sin(th), 1
+	}
+	rng := rand.New(rand.NewPCG(12, 0))
+	feas := randomFeasible(rng, 5, 8000)
+	duff := certlp.New(2, 4, 5000, 2, certlp.Duffing2, 1)
+	dObj, dLo, dUp := duff.Bounds()
+	poly3 := certlp.New(3, 4, 3000, 1, certlp.Poly3, 1)
+	pObj, pLo, pUp := poly3.Bounds()
+	for _, tc := range []struct {
+		name   string
+		c      []float64
+		rows   func() lp.Rows
+		lo, up []float64
+		opts   lp.CutOptions
+	}{
+		{"polygon", []float64{-1, -0.5}, func() lp.Rows { return lp.DenseRows{G: polyG, H: polyH} }, nil, nil, lp.CutOptions{Initial: 2, Batch: 4}},
+		{"random", feas.C, func() lp.Rows { return lp.DenseRows{G: feas.G, H: feas.H} }, feas.Lower, feas.Upper, lp.CutOptions{Initial: 20, Batch: 10}},
+		{"duffing", dObj, func() lp.Rows { return duff }, dLo, dUp, lp.CutOptions{}},
+		{"duffing-ipm", dObj, func() lp.Rows { return duff }, dLo, dUp, lp.CutOptions{Method: lp.InteriorPoint}},
+		{"poly3", pObj, func() lp.Rows { return poly3 }, pLo, pUp, lp.CutOptions{}},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			var res [2]*lp.Result
+			var evals [2]int64
+			for k, on := range []bool{false, true} {
+				old := lp.SetSkipRows(on)
+				var n atomic.Int64
+				o := tc.opts
+				r, err := lp.SolveCuts(tc.c, countRows{tc.rows(), &n}, tc.lo, tc.up, &o)
+				lp.SetSkipRows(old)
+				if err != nil {
+					t.Fatalf("skip %v: %v", on, err)
+				}
+				res[k], evals[k] = r, n.Load()
+			}
+			full, skip := res[0], res[1]
+			if skip.Status != full.Status || skip.Rounds != full.Rounds || !slices.Equal(skip.Active, full.Active) ||
+				!floats.Equal(skip.X, full.X) || skip.PrimalResidual != full.PrimalResidual {
+				t.Errorf("with skipping: %v, %d rounds, %d rows, x %v, residual %g; full passes: %v, %d rounds, %d rows, x %v, residual %g",
+					skip.Status, skip.Rounds, len(skip.Active), skip.X, skip.PrimalResidual,
+					full.Status, full.Rounds, len(full.Active), full.X, full.PrimalResidual)
+			}
+			if !(evals[1] < evals[0]) {
+				t.Errorf("row evaluations: %d with skipping, %d without", evals[1], evals[0])
+			}
+			t.Logf("%d rounds; row evaluations %d with skipping, %d without", full.Rounds, evals[1], evals[0])
+		})
 	}
 }
