@@ -37,6 +37,7 @@ func mkNear(x, scale float64) num {
 type pageData struct {
 	Title, Caveat, CertCaveat string
 	Verdict, Strength, Reason string
+	Conflict                  string // the LP conflict's line, "" when none
 	VerdictClass              string
 	Level                     num
 	Found                     bool
@@ -154,6 +155,7 @@ func build(in *Input, pl [2]int) (*pageData, error) {
 		Caveat:     fit.Caveat,
 		CertCaveat: c.Caveat,
 		Verdict:    string(c.Verdict), Strength: string(c.Strength), Reason: c.Reason,
+		Conflict:     ConflictLine(c),
 		VerdictClass: map[fit.Verdict]string{fit.Certified: "v-ok", fit.Rejected: "v-no", fit.Inconclusive: "v-open"}[c.Verdict],
 		Level:        mk(c.Level), Found: c.Found,
 		Limit:         limitText(c),

@@ -370,6 +370,11 @@ func TestSummaryConflict(t *testing.T) {
 					t.Errorf("summary lacks %q:\n%s", w, s)
 				}
 			}
+			// The page's finding carries the same line.
+			page := renderPage(t, fixture(mustCert(cj), nil))
+			if got := strings.Contains(page, `data-k="lp-conflict"`); got != (len(tc.want) > 0) {
+				t.Errorf("page has the conflict line: %v, want %v", got, len(tc.want) > 0)
+			}
 		})
 	}
 }
