@@ -200,3 +200,84 @@ func TestFirstStrided(t *testing.T) {
 		}
 	}
 }
+
+// pieceBoxRef is pieceBox as it was before its shortcuts (every sample's
+// ray checked in full), the reference of TestPieceBoxSame.
+func (ck *checker) pieceBoxRef(ve *vEval, c []float64, level float64) (lo, hi []float64) {
+	n := ck.fam.n
+	lo, hi = make([]float64, n), make([]float64, n)
+	tl, th := ck.trust.Lo, ck.trust.Hi
+	add := func(z []float64) {
+		for j, v := range z {
+			lo[j], hi[j] = math.Min(lo[j], v), math.Max(hi[j], v)
+		}
+	}
+	for ri := range ck.rays {
+		ry := &ck.rays[ri]
+		mx := 0.0
+		for k := 0; k < rayPoints; k++ {
+			z := ry.z[k*n : (k+1)*n]
+			mx = math.Max(mx, ve.value(z))
+			if mx > level {
+				break
+			}
+			add(z)
+		}
+	}
+	buf := make([]float64, n)
+	for ri := range ck.runs {
+		zs := ck.runs[ri].z
+		for k := 0; k+n <= len(zs); k += n {
+			z := zs[k : k+n]
+			if ve.value(z) <= level && rayMax(ve, z, buf) <= level {
+				add(z)
+			}
+		}
+	}
+	for j := range lo {
+		w := hi[j] - lo[j]
+		lo[j], hi[j] = math.Max(lo[j]-w*boxMargin, tl[j]), math.Min(hi[j]+w*boxMargin, th[j])
+	}
+	return lo, hi
+}
+
+// TestPieceBoxSame: the piece's box of a V of degree 4 (its samples
+// checked only outside the box so far, their rays stopped at the first
+// point above the level) is the box of checking every sample's whole
+// ray, bit for bit, at levels from a tenth of the found one to ten times
+// it; and rayMaxBelow says below exactly when rayMax is below the
+// limit, with rayMax's value then. Properties of the implementation.
+func TestPieceBoxSame(t *testing.T) {
+	d := vdpReverseZ().runs([][2]float64{{-2.2, 2.2}, {-3, 3}}, 40, 0.005, 2000, 10, 0.01, 3)
+	ck := mustChecker(t, vdpReverseZ(), d, 0.01, 4)
+	o := (&Options{Degree: 4}).Defaults()
+	lin, _ := linearise(ck.az, ck.fam.n)
+	c0, err := startV(ck.fam, lin)
+	if err != nil {
+		t.Fatal(err)
+	}
+	g, err := ck.grow(context.Background(), c0, false, o)
+	if err != nil || !g.best.res.ok {
+		t.Fatalf("no V of degree 4: %v %s", err, g.best.res.reason)
+	}
+	ve := newVEval(ck.fam, g.best.c)
+	for _, f := range []float64{0.1, 0.5, 1, 2, 10} {
+		level := f * g.best.res.level
+		lo, hi := ck.pieceBox(ve, g.best.c, level)
+		wlo, whi := ck.pieceBoxRef(ve, g.best.c, level)
+		if !reflect.DeepEqual(lo, wlo) || !reflect.DeepEqual(hi, whi) || !(hi[0] > lo[0]) {
+			t.Errorf("level %g: box %v..%v, full check %v..%v", level, lo, hi, wlo, whi)
+		}
+	}
+	buf := make([]float64, 2)
+	rng := rand.New(rand.NewPCG(8, 0))
+	for k := 0; k < 2000; k++ {
+		z := []float64{4 * (rng.Float64() - 0.5), 6 * (rng.Float64() - 0.5)}
+		limit := g.best.res.level * 3 * rng.Float64()
+		full := rayMax(ve, z, buf)
+		mx, below := rayMaxBelow(ve, z, buf, limit)
+		if below != (full < limit) || (below && mx != full) {
+			t.Fatalf("at %v limit %g: rayMaxBelow %g %v, rayMax %g", z, limit, mx, below, full)
+		}
+	}
+}

@@ -50,3 +50,41 @@ func BenchmarkCertify(b *testing.B) {
 		})
 	}
 }
+
+// BenchmarkLevelCache: the growth rounds' level search of one V (the
+// sampled search, in-sample figures left out) with the point caches and
+// without them (each point's monomials, gradients and field computed when
+// needed), interleaved in one loop on demo-sized data (as
+// BenchmarkCertify); it reports both times and their ratio.
+func BenchmarkLevelCache(b *testing.B) {
+	vdp := vdpReverseZ()
+	d := vdp.runs([][2]float64{{-2.2, 2.2}, {-3, 3}}, 40, 0.005, 1999, 1, 0.01, 1)
+	for _, deg := range []int{2, 4} {
+		b.Run("deg"+string(rune('0'+deg)), func(b *testing.B) {
+			cached := mustChecker(b, vdp, d, 0.01, deg)
+			plain := mustChecker(b, vdp, d, 0.01, deg)
+			plain.samples, plain.rayPts, plain.poolPts = nil, nil, nil
+			plain.dots.off = true
+			lin, _ := linearise(cached.az, cached.fam.n)
+			c, err := startV(cached.fam, lin)
+			if err != nil {
+				b.Fatal(err)
+			}
+			var tc, tp time.Duration
+			for b.Loop() {
+				t0 := time.Now()
+				rc := cached.levelOf(c, false)
+				t1 := time.Now()
+				rp := plain.levelOf(c, false)
+				tp += time.Since(t1)
+				tc += t1.Sub(t0)
+				if !rc.ok || rc.level != rp.level {
+					b.Fatalf("levels %v (%v), %v (%v)", rc.level, rc.ok, rp.level, rp.ok)
+				}
+			}
+			b.ReportMetric(tc.Seconds()/float64(b.N), "cached-s")
+			b.ReportMetric(tp.Seconds()/float64(b.N), "plain-s")
+			b.ReportMetric(tp.Seconds()/tc.Seconds(), "speedup")
+		})
+	}
+}

@@ -234,6 +234,26 @@ func rayMax(ve *vEval, z, buf []float64) float64 {
 	return mx
 }
 
+// rayMaxBelow is rayMax, stopped at the first point where the running
+// maximum is not below limit: it returns the maximum and true when it
+// stays below limit, else false (and the maximum so far). It says true
+// exactly when rayMax(ve, z, buf) < limit (math.Max keeps a NaN, which
+// is below nothing).
+func rayMaxBelow(ve *vEval, z, buf []float64, limit float64) (float64, bool) {
+	mx := 0.0
+	for k := 1; k <= rayPoints; k++ {
+		t := float64(k) / rayPoints
+		for j := range buf {
+			buf[j] = t * z[j]
+		}
+		mx = math.Max(mx, ve.value(buf))
+		if !(mx < limit) {
+			return mx, false
+		}
+	}
+	return mx, true
+}
+
 // level returns the largest c such that the piece of {V <= c} holding
 // the equilibrium (as seen along rays from it) passes every check at the
 // recorded samples and along the rays: positivity, the robust model
@@ -341,7 +361,7 @@ func (ck *checker) markSamples(first *badMark, ve *vEval, vals [][]float64, rex,
 				!(vd+ck.robust(ve.gbuf, r.h[i]) < 0 || (ck.nonRise && vd <= ck.vdTol(ve.gbuf, ve.fbuf, hq))) ||
 				(i+1 < len(vs) && vs[i+1]-v > tol)
 			if bad {
-				if k := rayMax(ve, z, buf); k < first.key {
+				if k, below := rayMaxBelow(ve, z, buf, first.key); below {
 					first.lower(k, LimitViolated, z, r.name)
 				}
 			}
@@ -513,12 +533,26 @@ func (ck *checker) pieceBox(ve *vEval, c []float64, level float64) (lo, hi []flo
 		}
 	}
 	buf := make([]float64, n)
+	// rayMax <= level is rayMax < the next float64 above a finite level.
+	above := math.Nextafter(level, math.Inf(1))
+	finite := !math.IsInf(level, 0) && !math.IsNaN(level)
 	for ri := range ck.runs {
 		r := &ck.runs[ri]
 		for i := range r.t {
 			z := r.z[i*n : (i+1)*n]
-			if ck.samples.value(ve, r.off+i, z) <= level && rayMax(ve, z, buf) <= level {
-				add(z)
+			if inside(z, lo, hi) {
+				continue // adding it would not change the box
+			}
+			if ck.samples.value(ve, r.off+i, z) <= level {
+				var join bool
+				if finite {
+					_, join = rayMaxBelow(ve, z, buf, above)
+				} else {
+					join = rayMax(ve, z, buf) <= level
+				}
+				if join {
+					add(z)
+				}
 			}
 		}
 	}
@@ -533,6 +567,18 @@ func (ck *checker) pieceBox(ve *vEval, c []float64, level float64) (lo, hi []flo
 func inBox(z, lo, hi []float64) bool {
 	for j, v := range z {
 		if v < lo[j] || v > hi[j] {
+			return false
+		}
+	}
+	return true
+}
+
+// inside reports whether z lies strictly inside the box lo..hi, where
+// widening the box to hold z changes none of its bounds (not even the
+// sign of a zero one).
+func inside(z, lo, hi []float64) bool {
+	for j, v := range z {
+		if !(lo[j] < v && v < hi[j]) {
 			return false
 		}
 	}
