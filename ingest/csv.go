@@ -41,8 +41,12 @@ type csvLayout struct {
 	role     []int8
 	stateOf  []int // header column -> state index (roleState)
 	dateTime bool
-	nstate   int
-	hasRun   bool
+	// decimalComma: the first data row wrote numbers with a decimal
+	// comma (a ';' or tab file: the dialect of spreadsheets and loggers
+	// set to a European locale); every ',' of the data is read as '.'
+	decimalComma bool
+	nstate       int
+	hasRun       bool
 	// slot is, by header column, where the fast path stores a cell: 0 for
 	// time, 1+k for state k, -1 for a column it skips
 	slot []int
@@ -409,6 +413,11 @@ func (lay *csvLayout) sniff(tb *table, rest []byte, line int, opts *Options) err
 		if !ok || len(cells) != lay.ncol {
 			return nil // the parser reports it with its line
 		}
+		if lay.delim != ',' && bytes.IndexByte(l, ',') >= 0 && lay.commaDecimals(cells) {
+			lay.decimalComma = true
+			l = bytes.ReplaceAll(l, []byte(","), []byte("."))
+			cells, _ = splitQuoted(l, lay.delim, cells[:0])
+		}
 		break
 	}
 	if cells == nil {
@@ -435,12 +444,6 @@ func (lay *csvLayout) sniff(tb *table, rest []byte, line int, opts *Options) err
 				continue
 			}
 			if _, ok := parseFloat(c); !ok {
-				if comma := bytes.ReplaceAll(c, []byte(","), []byte(".")); bytes.Count(c, []byte(",")) == 1 {
-					if _, ok := parseFloat(comma); ok {
-						return &ParseError{File: lay.file, Line: line, Column: j + 1, Name: lay.names[j],
-							Err: fmt.Errorf("%w: %q has a decimal comma; write decimals with a point", ErrNotNumber, c)}
-					}
-				}
 				if r.isInput(j) { // named, so it must be numeric
 					p := &csvParser{lay: lay, tb: tb}
 					return p.cellError(line, j, c)
@@ -463,6 +466,49 @@ func (lay *csvLayout) sniff(tb *table, rest []byte, line int, opts *Options) err
 	lay.nstate = len(tb.states)
 	tb.x = make([][]float64, lay.nstate)
 	return nil
+}
+
+// commaDecimals reports whether the first data row's cells (time,
+// states and inputs) write their numbers with a decimal comma: no such
+// cell is a number as it stands, and at least one is a number, or an ISO
+// 8601 time with a comma before its fraction of a second, once its one
+// comma is read as a point; a cell with two commas is no decimal.
+func (lay *csvLayout) commaDecimals(cells [][]byte) bool {
+	found := false
+	for j, c := range cells {
+		if lay.role[j] != roleTime && lay.role[j] != roleState {
+			continue
+		}
+		c = trimBlank(c, lay.delim)
+		k := bytes.IndexByte(c, ',')
+		if k < 0 || bytes.IndexByte(c[k+1:], ',') >= 0 {
+			continue
+		}
+		pt := bytes.ReplaceAll(c, []byte(","), []byte("."))
+		if _, ok := parseFloat(pt); ok {
+			found = true
+			continue
+		}
+		if _, ok := parseISO(c); !ok && lay.role[j] == roleTime {
+			if _, ok := parseISO(pt); ok {
+				found = true
+			}
+		}
+	}
+	return found
+}
+
+// commaToPoint replaces every ',' of data by '.' in place (the data of a
+// decimal-comma file, whose delimiter is not ',').
+func commaToPoint(data []byte) {
+	for {
+		k := bytes.IndexByte(data, ',')
+		if k < 0 {
+			return
+		}
+		data[k] = '.'
+		data = data[k+1:]
+	}
 }
 
 func trimBlank(c []byte, delim byte) []byte {
@@ -600,6 +646,11 @@ func (p *csvParser) parseBlocks(cs []*chunk) error {
 	tb, lay := p.tb, p.lay
 	timed := tb.timeIdx > 0
 	end := tb.rows
+	if lay.decimalComma {
+		for _, c := range cs {
+			commaToPoint(c.data)
+		}
+	}
 	width := 8 * (len(tb.x) + 1) // bytes of a row in the columns, at most
 	for _, c := range cs {
 		c.lines = bytes.Count(c.data, []byte{'\n'})
@@ -970,6 +1021,9 @@ func (p *csvParser) cellError(line, j int, cell []byte) error {
 		msg = fmt.Errorf("%w: %q is infinite or out of range", ErrNotNumber, s)
 	} else if !utf8.Valid(cell) {
 		msg = fmt.Errorf("%w: not text (binary data?)", ErrNotNumber)
+	}
+	if p.lay.decimalComma {
+		msg = fmt.Errorf("%w (the file's decimal commas read as points)", msg)
 	}
 	return &ParseError{File: p.lay.file, Line: line, Column: j + 1, Name: p.lay.names[j], Err: msg}
 }

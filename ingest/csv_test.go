@@ -147,7 +147,7 @@ func TestReadCSVErrors(t *testing.T) {
 		{"unknown state", "t,a\n1,2\n", &Options{States: []string{"b"}}, ErrNoStates, `x.csv: no state columns: Options.States names "b", which is not a column`},
 		{"binary", "t,a\n\x00\x01\x02\xff", nil, ErrFormat, "x.csv: not a readable log file: binary data, not text (a NUL byte on line 2): not a text log"},
 		{"bad utf8 header", "t,\xff\xfe\n1,2\n", nil, ErrFormat, "x.csv:1: not a readable log file: header is not UTF-8 text"},
-		{"decimal comma", "t;a\n0;1,5\n", nil, ErrNotNumber, `x.csv:2:2: column "a": not a number: "1,5" has a decimal comma; write decimals with a point`},
+		{"decimal comma, then a bad cell", "t;a\n0;1,5\n1;2,5,1\n", nil, ErrNotNumber, `x.csv:3:2: column "a": not a number "2.5.1" (the file's decimal commas read as points)`},
 		{"unbalanced quote", "t,a\n0,\"1\n", nil, ErrFormat, "x.csv:2: not a readable log file: unbalanced quote"},
 		{"bad date", "time,a\n2026-03-01T10:00:00Z,1\nyesterday,2\n", nil, ErrNotNumber, `x.csv:3:1: column "time": not a number: "yesterday" is not an ISO 8601 date-time`},
 		{"duplicate column", "t,a,a\n0,1,2\n", nil, ErrFormat, `x.csv:1:3: column "a": not a readable log file: name repeats column 2`},

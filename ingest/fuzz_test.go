@@ -58,6 +58,8 @@ func FuzzReadCSV(f *testing.F) {
 		"run,t,a\nA,0,1\nB,0,2\nA,1,3\n",
 		"t,a,note\n0,\"1.5\",\"a, b\"\n1,2,x\n",
 		"t,a\n0,1\n0,2\n",
+		"timestamp;a [mm, raw];b\n2026-11-30 08:00:00,5;1,5;\"2,25\"\n2026-11-30 08:00:01,5;1;NaN\n",
+		"t\ta\n0\t1,5\n0,5\t2,5,1\n",
 	} {
 		f.Add([]byte(s), uint8(0))
 	}
