@@ -1,9 +1,9 @@
 package lyapunov
 
 // pointCacheMax caps the float64s one point set's cache holds (16 MB).
-// A part that does not fit (the monomials, their gradients, the field,
-// in that order of need) is not kept, and the checks compute it at the
-// point when they need it, as without a cache.
+// A part that does not fit (see newPointCache for the order) is not
+// kept, and the checks compute it at the point when they need it, as
+// without a cache.
 const pointCacheMax = 1 << 21
 
 // pointCache holds what the checks of every V need at a fixed set of
@@ -22,9 +22,9 @@ type pointCache struct {
 	z2           []float64 // |z|² a point
 }
 
-// newPointCache computes the cache of the points z (n each): the field
-// when field is not nil, then the monomials, with their gradients when
-// grad is set, each part as far as it fits.
+// newPointCache computes the cache of the points z (n each): |z|², the
+// field when field is not nil, the monomials, and their gradients when
+// grad is set, each part in that order as far as it fits.
 func newPointCache(fam *vFamily, z []float64, field Field, grad bool) *pointCache {
 	n, p := fam.n, fam.Len()
 	m := len(z) / n
@@ -41,11 +41,12 @@ func newPointCache(fam *vFamily, z []float64, field Field, grad bool) *pointCach
 		pc.f = make([]float64, m*n)
 		budget -= m * n
 	}
-	switch {
-	case grad && m*p*(n+1) <= budget:
-		pc.phi, pc.grad = make([]float64, m*p), make([]float64, m*p*n)
-	case !grad && m*p <= budget:
+	if m*p <= budget {
 		pc.phi = make([]float64, m*p)
+		budget -= m * p
+		if grad && m*p*n <= budget {
+			pc.grad = make([]float64, m*p*n)
+		}
 	}
 	if pc.phi == nil && pc.f == nil {
 		return pc
