@@ -503,7 +503,17 @@ func (ev *evaluator) pass(x []float64, ray bool) (worst float64, err error) {
 					g, h = dense.G[i*n:(i+1)*n], dense.H[i]
 					if r := dot4(g, x) - h; !ray && !(r > 0) && r > math.Inf(-1) {
 						ev.viol[i] = r // satisfied (the common case; NaN and -Inf go the long way)
-						ev.key[i], ev.at[i] = ev.holds(i, g, r, h, xn), cur
+						// holds, inline (h is finite here)
+						nrm := ev.nrm[i]
+						if nrm < 0 {
+							nrm = norm2(g)
+							ev.nrm[i] = nrm
+						}
+						key := math.Inf(-1)
+						if s := -r - skipMargin*(math.Abs(h)+nrm*xn); s > 0 {
+							key = s / (nrm * (1 + skipMargin)) // +Inf for an all-zero row
+						}
+						ev.key[i], ev.at[i] = key, cur
 						continue
 					}
 				} else {
