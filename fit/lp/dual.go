@@ -71,6 +71,7 @@ type dual struct {
 	w, u, ax, bb  []float64
 	bm            *mat.Dense
 	res           []float64 // pool rows' a_i'x - b_i
+	al            []float64 // scratch of pivot: a_i'u and a_i'tau per pool row
 	beta          []float64 // steepest-edge weights, per constraint
 	tau           []float64
 	weighted      int       // pool rows with a weight
@@ -697,13 +698,25 @@ func (s *dual) pivot(r, l int, viol float64) {
 			upd(2*j+1, s.u[j], s.tau[j])
 		}
 	}
-	for i := 0; i < m; i++ {
-		if s.inB[2*n+i] {
-			continue
+	if m > 0 {
+		// alpha = G u and rho = G tau over the pool, by two
+		// matrix-vector products (gonum's assembly kernels: 1.5x the
+		// speed of one fused loop per row on the 204-unknown LP of
+		// make bench-lp).
+		if cap(s.al) < 2*m {
+			s.al = make([]float64, 2*m, 4*m)
 		}
-		alpha, rho := dot2(s.g[i*n:(i+1)*n], s.u, s.tau)
-		s.res[i] -= step * alpha
-		upd(2*n+i, alpha, rho)
+		al, rh := s.al[:m], s.al[m:2*m]
+		G := blas64.General{Rows: m, Cols: n, Stride: n, Data: s.g}
+		blas64.Gemv(blas.NoTrans, 1, G, blas64.Vector{N: n, Inc: 1, Data: s.u}, 0, blas64.Vector{N: m, Inc: 1, Data: al})
+		blas64.Gemv(blas.NoTrans, 1, G, blas64.Vector{N: n, Inc: 1, Data: s.tau}, 0, blas64.Vector{N: m, Inc: 1, Data: rh})
+		for i := 0; i < m; i++ {
+			if s.inB[2*n+i] {
+				continue
+			}
+			s.res[i] -= step * al[i]
+			upd(2*n+i, al[i], rh[i])
+		}
 	}
 	q := s.basis[l]
 	s.beta[q] = max((ww-wl*wl+1)/(wl*wl), minWeight)
@@ -715,24 +728,6 @@ func (s *dual) pivot(r, l int, viol float64) {
 	}
 	floats.AddScaled(s.x, -step, s.u)
 	s.swap(r, l)
-}
-
-// dot2 returns g'u and g'v.
-func dot2(g, u, v []float64) (float64, float64) {
-	u, v = u[:len(g)], v[:len(g)]
-	var a0, a1, b0, b1 float64
-	j := 0
-	for ; j+2 <= len(g); j += 2 {
-		a0 += g[j] * u[j]
-		b0 += g[j] * v[j]
-		a1 += g[j+1] * u[j+1]
-		b1 += g[j+1] * v[j+1]
-	}
-	for ; j < len(g); j++ {
-		a0 += g[j] * u[j]
-		b0 += g[j] * v[j]
-	}
-	return a0 + a1, b0 + b1
 }
 
 // swap puts constraint r at basis position l, given w = B⁻ᵀa_r (w_l != 0):
