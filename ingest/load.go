@@ -157,7 +157,9 @@ func Load(ctx context.Context, paths []string, opts *Options) (*Dataset, error) 
 		}
 	}
 	if man != nil {
-		applyManifest(out, man)
+		if err := applyManifest(out, man, opts.Manifest); err != nil {
+			return nil, err
+		}
 	}
 	return out, finish(out, opts)
 }

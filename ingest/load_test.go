@@ -77,6 +77,9 @@ func TestLoadErrors(t *testing.T) {
 		"m1.csv":     "path,run,split\nnowhere.csv,,\n",
 		"m2.csv":     "path,run,split\none.csv,,test\n",
 		"m3.csv":     "file,split\none.csv,fit\n",
+		"m4.csv":     "path,run,split\none.csv,one.csv,fit\none.csv,R9,holdout\n",
+		"long.csv":   "run,t,a\nA,0,1\nA,1,2\nB,0,3\nB,1,4\n",
+		"m5.csv":     "path,run,split\nlong.csv,A,holdout\nlong.csv,C,holdout\n",
 	})
 	p := func(n string) string { return filepath.Join(dir, n) }
 	for _, tc := range []struct {
@@ -94,6 +97,8 @@ func TestLoadErrors(t *testing.T) {
 		{"manifest names a missing file", []string{p("one.csv")}, &Options{Manifest: p("m1.csv")}, ErrManifest, p("m1.csv") + `:2: column "path": bad manifest entry: ` + p("nowhere.csv") + ": no such file or directory"},
 		{"manifest bad split", []string{p("one.csv")}, &Options{Manifest: p("m2.csv")}, ErrManifest, p("m2.csv") + `:2: column "split": bad manifest entry: split "test" (want fit, holdout or empty)`},
 		{"manifest bad header", []string{p("one.csv")}, &Options{Manifest: p("m3.csv")}, ErrManifest, ""},
+		{"manifest names no run of its file", []string{p("one.csv")}, &Options{Manifest: p("m4.csv")}, ErrManifest, p("m4.csv") + `:3: column "run": bad manifest entry: no run "R9" in ` + p("one.csv")},
+		{"manifest names no run value of a long file", []string{p("long.csv")}, &Options{Manifest: p("m5.csv"), RunCol: "run"}, ErrManifest, p("m5.csv") + `:3: column "run": bad manifest entry: no run "C" in ` + p("long.csv")},
 		{"stdin twice", []string{"-", "-"}, nil, ErrFormat, ""},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
@@ -155,5 +160,43 @@ func TestSummarise(t *testing.T) {
 	}
 	if s.States[1].Min != -1 || s.States[1].Max != 1 {
 		t.Errorf("y range %v..%v", s.States[1].Min, s.States[1].Max)
+	}
+}
+
+// TestLoadManifestRuns checks which runs a manifest's run entries reach:
+// a run value of a long file, and an entry about a file that is not among
+// the inputs (left alone, not an error).
+func TestLoadManifestRuns(t *testing.T) {
+	dir := t.TempDir()
+	writeFiles(t, dir, map[string]string{
+		"one.csv":  "t,a\n0,1\n1,2\n",
+		"long.csv": "run,t,a\nA,0,1\nA,1,2\nB,0,3\nB,1,4\n",
+		"m1.csv":   "path,run,split\nlong.csv,A,holdout\nlong.csv,B,fit\n",
+		"m2.csv":   "path,run,split\nlong.csv,C,holdout\none.csv,,holdout\n",
+	})
+	p := func(n string) string { return filepath.Join(dir, n) }
+	for _, tc := range []struct {
+		name     string
+		paths    []string
+		manifest string
+		runCol   string
+		want     []string
+	}{
+		{"run values of a long file", []string{p("long.csv")}, p("m1.csv"), "run", []string{"long.csv#A:holdout", "long.csv#B:fit"}},
+		{"entry about a file not read", []string{p("one.csv")}, p("m2.csv"), "", []string{"one.csv:holdout"}},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			ds, err := Load(context.Background(), tc.paths, &Options{Manifest: tc.manifest, RunCol: tc.runCol})
+			if err != nil {
+				t.Fatal(err)
+			}
+			var got []string
+			for _, r := range ds.Runs {
+				got = append(got, r.Name+":"+r.Split)
+			}
+			if !slices.Equal(got, tc.want) {
+				t.Errorf("runs %v, want %v", got, tc.want)
+			}
+		})
 	}
 }

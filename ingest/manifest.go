@@ -97,18 +97,24 @@ func ReadManifest(path string) ([]ManifestEntry, error) {
 // applyManifest sets Run.Split from the entries. A run matches an entry
 // when it comes from the entry's file and the entry's run is empty, the
 // run's name, its name without a "~N" gap suffix, or its --run-col value.
-func applyManifest(ds *Dataset, es []ManifestEntry) {
+// An entry that names a run of a file that was read, but that matches no
+// run of it, is an error naming the manifest's line (a misspelt run would
+// otherwise leave the run in the automatic split without a word), unless
+// the time window left whole recordings out (the run may be one of them).
+// Entries whose file is not among the inputs read are left alone.
+func applyManifest(ds *Dataset, es []ManifestEntry, manifest string) error {
 	abs := func(p string) string {
 		if a, err := filepath.Abs(p); err == nil {
 			return a
 		}
 		return filepath.Clean(p)
 	}
-	byFile := map[string][]ManifestEntry{}
-	for _, e := range es {
+	byFile := map[string][]int{}
+	for i, e := range es {
 		k := abs(e.Path)
-		byFile[k] = append(byFile[k], e)
+		byFile[k] = append(byFile[k], i)
 	}
+	matched := make([]bool, len(es))
 	for i := range ds.Runs {
 		r := &ds.Runs[i]
 		name := r.Name
@@ -119,12 +125,27 @@ func applyManifest(ds *Dataset, es []ManifestEntry) {
 		if k := strings.LastIndexByte(name, '#'); k >= 0 {
 			value = name[k+1:]
 		}
-		for _, e := range byFile[abs(r.Source.File)] {
-			if e.Run == "" || e.Run == r.Name || e.Run == name || (value != "" && e.Run == value) {
+		for _, k := range byFile[abs(r.Source.File)] {
+			if e := es[k]; e.Run == "" || e.Run == r.Name || e.Run == name || (value != "" && e.Run == value) {
 				r.Split = e.Split
+				matched[k] = true
 			}
 		}
 	}
+	if ds.Window > 0 {
+		return nil
+	}
+	read := map[string]bool{}
+	for _, f := range ds.files {
+		read[abs(f)] = true
+	}
+	for k, e := range es {
+		if !matched[k] && e.Run != "" && read[abs(e.Path)] {
+			return &ParseError{File: manifest, Line: e.Line, Name: "run",
+				Err: fmt.Errorf("%w: no run %q in %s", ErrManifest, e.Run, pathText(e.Path))}
+		}
+	}
+	return nil
 }
 
 // pathText is p as it is, or quoted Go-style when it holds a control
