@@ -22,6 +22,8 @@ import (
 	"github.com/apache/arrow/go/v15/arrow"
 	"github.com/apache/arrow/go/v15/arrow/array"
 	"github.com/apache/arrow/go/v15/arrow/memory"
+
+	"basin.example/internal/order"
 )
 
 const benchRows, benchCols = 1_000_000, 7
@@ -281,37 +283,42 @@ func BenchmarkScanFast(b *testing.B) {
 	_ = sink
 }
 
-// BenchmarkReadCSVSideBySide times ReadCSV and the naive reader on the
-// same file alternately in one loop (the order swapped every iteration),
-// so that both see the same machine load; x-naive is the naive reader's
-// total time over ReadCSV's, x-naive-cpu the same for the CPU time the
-// process used during each (on a busy machine the wall-clock ratio
-// depends on how many cores the other processes leave; the CPU ratio
-// does not). Run it with -cpu 1,2 to see the ratio with one core and
-// with two.
+// BenchmarkReadCSVSideBySide times ReadCSV and the naive reader
+// (encoding/csv and strconv.ParseFloat) on the same file alternately in
+// one loop (A, B, then B, A: the order swapped every iteration), so that
+// both see the same machine load. It reports medians over the
+// iterations: x-naive is the median of the per-pair ratios naive/basin
+// of wall-clock time, x-naive-cpu the same for the CPU time the process
+// used during each (on a busy machine the wall-clock ratio depends on how
+// many cores the other processes leave; the CPU ratio does not), and
+// basin-s, naive-s the median times. Each read starts after a collection
+// (outside the timing), so that neither pays for the other's garbage.
+// Run it with -cpu 1,2 to see the ratio with one core and with two, and
+// -benchtime Nx for N pairs.
 func BenchmarkReadCSVSideBySide(b *testing.B) {
 	path, _ := benchFiles(b)
-	var naive, basin, naiveCPU, basinCPU time.Duration
+	var naive, basin, wall, cpu []float64
+	var dNaive, cNaive, dBasin, cBasin time.Duration
 	readNaive := func() {
 		f, _ := os.Open(path)
 		defer f.Close()
+		runtime.GC()
 		t0, c0 := time.Now(), cpuTime()
 		if _, err := naiveRead(f); err != nil {
 			b.Fatal(err)
 		}
-		naive += time.Since(t0)
-		naiveCPU += cpuTime() - c0
+		dNaive, cNaive = time.Since(t0), cpuTime()-c0
 	}
 	readBasin := func() {
 		f, _ := os.Open(path)
 		defer f.Close()
+		runtime.GC()
 		t0, c0 := time.Now(), cpuTime()
 		ds, err := ReadCSV(f, path, nil)
 		if err != nil || ds.Samples() != benchRows {
 			b.Fatal(err)
 		}
-		basin += time.Since(t0)
-		basinCPU += cpuTime() - c0
+		dBasin, cBasin = time.Since(t0), cpuTime()-c0
 	}
 	i := 0
 	for b.Loop() {
@@ -322,12 +329,17 @@ func BenchmarkReadCSVSideBySide(b *testing.B) {
 			readBasin()
 			readNaive()
 		}
+		naive = append(naive, dNaive.Seconds())
+		basin = append(basin, dBasin.Seconds())
+		wall = append(wall, dNaive.Seconds()/dBasin.Seconds())
+		cpu = append(cpu, cNaive.Seconds()/cBasin.Seconds())
 		i++
 	}
-	b.ReportMetric(naive.Seconds()/basin.Seconds(), "x-naive")
-	b.ReportMetric(naiveCPU.Seconds()/basinCPU.Seconds(), "x-naive-cpu")
-	b.ReportMetric(basin.Seconds()/float64(b.N), "basin-s")
-	b.ReportMetric(naive.Seconds()/float64(b.N), "naive-s")
+	med := func(v []float64) float64 { return order.Median(order.Sorted(nil, v)) }
+	b.ReportMetric(med(wall), "x-naive")
+	b.ReportMetric(med(cpu), "x-naive-cpu")
+	b.ReportMetric(med(basin), "basin-s")
+	b.ReportMetric(med(naive), "naive-s")
 }
 
 // BenchmarkEventsSideBySide reads the benchmark file with the event and
@@ -392,7 +404,10 @@ func BenchmarkFindEvents(b *testing.B) {
 	} {
 		tb, ds := eventCase(n, 3, tc.gen(rand.New(rand.NewPCG(1, 0))))
 		pieces := [][][2]int{{{0, n}}}
-		noise := tb.noiseOf(pieces, 3)
+		noise, err := tb.noiseOf(pieces, 3)
+		if err != nil {
+			b.Fatal(err)
+		}
 		for _, via := range []string{"sorted", "sliding"} {
 			b.Run(tc.name+"/"+via, func(b *testing.B) {
 				sc := new(eventScratch)
@@ -402,7 +417,9 @@ func BenchmarkFindEvents(b *testing.B) {
 					if via == "sorted" {
 						tb.findEventsSorted(ds, "r", pieces[0], noise)
 					} else {
-						tb.findEvents(ds, "r", pieces[0], noise, sc)
+						if _, err := tb.findEvents(ds, "r", pieces[0], noise, sc); err != nil {
+							b.Fatal(err)
+						}
 					}
 				}
 			})
@@ -419,7 +436,9 @@ func BenchmarkNoise(b *testing.B) {
 	pieces := [][][2]int{{{0, n}}}
 	b.SetBytes(n * 3 * 8)
 	for b.Loop() {
-		tb.noiseOf(pieces, 3)
+		if _, err := tb.noiseOf(pieces, 3); err != nil {
+			b.Fatal(err)
+		}
 	}
 }
 
