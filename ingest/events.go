@@ -1,8 +1,12 @@
 package ingest
 
 import (
+	"context"
 	"math"
 	"slices"
+	"sync/atomic"
+
+	"basin.example/internal/parallel"
 )
 
 // Thresholds for events and resting heads (see [Event] and [Head]).
@@ -206,17 +210,18 @@ func (sn stateNoise) jumpFloor() float64 {
 	return max(EventSigmas*sn.s, EventSigmas*sn.quant, eventSpan*sn.span)
 }
 
-// noiseOf estimates the noise of every state over a recording's pieces.
-func (tb *table) noiseOf(pieces [][][2]int, ns int) []stateNoise {
+// noiseOf estimates the noise of every state over a recording's pieces,
+// the states on the workers of [parallel.For]. The error is a recovered
+// panic's.
+func (tb *table) noiseOf(pieces [][][2]int, ns int) ([]stateNoise, error) {
 	out := make([]stateNoise, ns)
 	total := 0
 	for _, p := range pieces {
 		total += pieceLen(p)
 	}
 	stride := max(1, total/noiseSubsample)
-	var all []float64
-	for j := range ns {
-		all = all[:0]
+	err := parallel.For(context.Background(), ns, 0, func() *[]float64 { return new([]float64) }, func(_ context.Context, j int, buf *[]float64) error {
+		all := (*buf)[:0]
 		q := math.Inf(1)
 		lo, hi := math.Inf(1), math.Inf(-1)
 		for _, p := range pieces {
@@ -235,9 +240,14 @@ func (tb *table) noiseOf(pieces [][][2]int, ns int) []stateNoise {
 				all = append(all, jumpAt(x[i-2], x[i-1], x[i], x[i+1], t[i-2], t[i-1], t[i], t[i+1]))
 			}
 		}
+		*buf = all
 		out[j] = stateNoise{s: robustScale(all), quant: q, span: hi - lo}
+		return nil
+	})
+	if err != nil {
+		return nil, err
 	}
-	return out
+	return out, nil
 }
 
 // cut is a place to split a piece: before sample k (a step), or around
@@ -248,7 +258,8 @@ type cut struct {
 }
 
 // findEvents finds the events of one piece (flat sample indices) for
-// every state, appends them to ds.Events, and returns the cuts, sorted.
+// every state, appends them to ds.Events (in the order of the states),
+// and returns the cuts, sorted.
 //
 // A sample i is a candidate when |s_i| exceeds the state's jump floor;
 // a candidate is an event sample ("far") when it also stands EventSigmas
@@ -257,75 +268,126 @@ type cut struct {
 // times the window's median absolute deviation. The window is kept
 // sorted as it moves from candidate to candidate (see [sortedWindow]), so
 // a run of candidates costs a few insertions each, not a sort.
-func (tb *table) findEvents(ds *Dataset, name string, p [][2]int, noise []stateNoise, sc *eventScratch) []cut {
+//
+// The states are done on the workers of [parallel.For], each with its own
+// scratch; with two or more states the part of s that depends on the
+// clock only is computed once for all of them (see [clockCoefs]). The
+// error is a recovered panic's.
+func (tb *table) findEvents(ds *Dataset, name string, p [][2]int, noise []stateNoise, sc *eventScratch) ([]cut, error) {
 	n := pieceLen(p)
 	if n < 5 {
-		return nil
+		return nil, nil
 	}
 	if sc == nil {
 		sc = new(eventScratch)
 	}
-	var cuts []cut
 	t := pieceValues(tb.t, p)
+	var live []int // the states that are not constant
 	for j, sn := range noise {
-		if math.IsInf(sn.quant, 1) { // constant state
-			continue
-		}
-		x := pieceValues(tb.x[j], p)
-		s, finite := jumpStatFinite(sc.s, x, t)
-		sc.s = s
-		base := sn.jumpFloor()
-		// the event samples, in increasing order
-		far := sc.far[:0]
-		sc.win.reset()
-		for i := 2; i < n-1; i++ {
-			if !(math.Abs(s[i]) <= base) && sc.win.stands(s, i, n, finite) {
-				far = append(far, i)
-			}
-		}
-		sc.far = far
-		// clusters: event samples no more than 2 apart; the largest |s|
-		// of each is its event
-		for a := 0; a < len(far); {
-			c, end := far[a], far[a]
-			b := a + 1
-			for ; b < len(far) && far[b] <= end+2; b++ {
-				end = far[b]
-				if math.Abs(s[end]) > math.Abs(s[c]) {
-					c = end
-				}
-			}
-			a = b
-			ev := Event{Run: name, State: ds.States[j].Name, Kind: EventStep, Size: stepSize(s[c], x, t, c), Noise: sn.s / math.Sqrt(5)}
-			m := -1 // the spike's sample, or the kink's corner
-			switch {
-			case c+1 < n-1 && math.Abs(s[c]+s[c+1]) < spikeMatch*math.Abs(s[c]):
-				m = c
-			case c-1 >= 2 && math.Abs(s[c]+s[c-1]) < spikeMatch*math.Abs(s[c]):
-				m = c - 1
-			}
-			k, at := c, c // the cut (before k), and the sample whose time is reported
-			if m >= 1 && m+1 < n {
-				kink := false
-				if m-1 >= 2 && m+2 < n-1 {
-					kink = (s[m+2]-s[m-1])/2/s[m] < kinkOuter
-				}
-				if kink {
-					h := tb.t[pieceRow(p, m+1)] - tb.t[pieceRow(p, m)]
-					ev.Kind, ev.Size, k, at = EventKink, (x[m+1]-2*x[m]+x[m-1])/h, m+1, m
-				} else {
-					ev.Kind, ev.Size, k, at = EventSpike, x[m]-(x[m-1]+x[m+1])/2, m, m
-				}
-			}
-			ev.Time = tb.t[pieceRow(p, at)]
-			if sn.s > 0 {
-				ev.Sigmas = math.Abs(s[c]) / sn.s
-			}
-			ds.Events = append(ds.Events, ev)
-			cuts = append(cuts, cut{k, ev.Kind == EventSpike})
+		if !math.IsInf(sn.quant, 1) {
+			live = append(live, j)
 		}
 	}
-	return mergeCuts(cuts)
+	var co *clockCoefs
+	if len(live) >= 2 {
+		sc.clock.set(t)
+		co = &sc.clock
+	}
+	w := min(parallel.Workers(0), len(live))
+	for len(sc.per) < w {
+		sc.per = append(sc.per, new(stateScratch))
+	}
+	found := make([]stateEvents, len(live))
+	var next atomic.Int32
+	err := parallel.For(context.Background(), len(live), w, func() *stateScratch {
+		return sc.per[next.Add(1)-1]
+	}, func(_ context.Context, k int, ss *stateScratch) error {
+		j := live[k]
+		found[k] = tb.stateEvents(ds.States[j].Name, name, p, pieceValues(tb.x[j], p), t, co, noise[j], ss)
+		return nil
+	})
+	if err != nil {
+		return nil, err
+	}
+	var cuts []cut
+	for _, f := range found {
+		ds.Events = append(ds.Events, f.events...)
+		cuts = append(cuts, f.cuts...)
+	}
+	return mergeCuts(cuts), nil
+}
+
+// stateEvents is what [findEvents] finds for one state.
+type stateEvents struct {
+	events []Event
+	cuts   []cut
+}
+
+// stateEvents finds the events of one state (named state) over a piece p
+// of the run run, its values x at times t; co, when not nil, holds the
+// clock's part of the jump statistic.
+func (tb *table) stateEvents(state, run string, p [][2]int, x, t []float64, co *clockCoefs, sn stateNoise, ss *stateScratch) stateEvents {
+	n := len(x)
+	var s []float64
+	var finite bool
+	if co != nil {
+		s, finite = co.jumpStat(ss.s, x)
+	} else {
+		s, finite = jumpStatFinite(ss.s, x, t)
+	}
+	ss.s = s
+	base := sn.jumpFloor()
+	// the event samples, in increasing order
+	far := ss.far[:0]
+	ss.win.reset()
+	for i := 2; i < n-1; i++ {
+		if !(math.Abs(s[i]) <= base) && ss.win.stands(s, i, n, finite) {
+			far = append(far, i)
+		}
+	}
+	ss.far = far
+	var out stateEvents
+	// clusters: event samples no more than 2 apart; the largest |s| of
+	// each is its event
+	for a := 0; a < len(far); {
+		c, end := far[a], far[a]
+		b := a + 1
+		for ; b < len(far) && far[b] <= end+2; b++ {
+			end = far[b]
+			if math.Abs(s[end]) > math.Abs(s[c]) {
+				c = end
+			}
+		}
+		a = b
+		ev := Event{Run: run, State: state, Kind: EventStep, Size: stepSize(s[c], x, t, c), Noise: sn.s / math.Sqrt(5)}
+		m := -1 // the spike's sample, or the kink's corner
+		switch {
+		case c+1 < n-1 && math.Abs(s[c]+s[c+1]) < spikeMatch*math.Abs(s[c]):
+			m = c
+		case c-1 >= 2 && math.Abs(s[c]+s[c-1]) < spikeMatch*math.Abs(s[c]):
+			m = c - 1
+		}
+		k, at := c, c // the cut (before k), and the sample whose time is reported
+		if m >= 1 && m+1 < n {
+			kink := false
+			if m-1 >= 2 && m+2 < n-1 {
+				kink = (s[m+2]-s[m-1])/2/s[m] < kinkOuter
+			}
+			if kink {
+				h := tb.t[pieceRow(p, m+1)] - tb.t[pieceRow(p, m)]
+				ev.Kind, ev.Size, k, at = EventKink, (x[m+1]-2*x[m]+x[m-1])/h, m+1, m
+			} else {
+				ev.Kind, ev.Size, k, at = EventSpike, x[m]-(x[m-1]+x[m+1])/2, m, m
+			}
+		}
+		ev.Time = tb.t[pieceRow(p, at)]
+		if sn.s > 0 {
+			ev.Sigmas = math.Abs(s[c]) / sn.s
+		}
+		out.events = append(out.events, ev)
+		out.cuts = append(out.cuts, cut{k, ev.Kind == EventSpike})
+	}
+	return out
 }
 
 // mergeCuts sorts cuts by sample and makes one of the cuts at the same
@@ -344,11 +406,71 @@ func mergeCuts(cuts []cut) []cut {
 }
 
 // eventScratch holds the buffers of the event pass, reused across the
-// states and pieces of a recording.
+// pieces of a recording: the clock's coefficients and one state's
+// buffers per worker.
 type eventScratch struct {
+	clock clockCoefs
+	per   []*stateScratch
+}
+
+// stateScratch holds one worker's buffers of the event pass.
+type stateScratch struct {
 	s   []float64 // the jump statistic of one state over a piece
 	far []int     // its event samples
 	win sortedWindow
+}
+
+// clockCoefs holds, for every sample i of a piece, the part of [jumpAt]
+// that depends on the clock only: a[i] = h2/h1, b[i] = h2/h3 and sc[i] =
+// sqrt(5/v), or sc[i] = -1 where the three steps are equal (jumpAt's even
+// case; sc is never negative otherwise). [clockCoefs.jumpStat] then gives
+// jumpAt's values, to the bit (the same operations in the same order),
+// without its divisions and square root for every state.
+type clockCoefs struct {
+	a, b, sc []float64
+}
+
+// set computes the coefficients of the clock t.
+func (c *clockCoefs) set(t []float64) {
+	n := len(t)
+	c.a = slices.Grow(c.a[:0], n)[:n]
+	c.b = slices.Grow(c.b[:0], n)[:n]
+	c.sc = slices.Grow(c.sc[:0], n)[:n]
+	for i := 2; i < n-1; i++ {
+		h1, h2, h3 := t[i-1]-t[i-2], t[i]-t[i-1], t[i+1]-t[i]
+		if h1 == h2 && h2 == h3 {
+			c.sc[i] = -1
+			continue
+		}
+		a, b := h2/h1, h2/h3
+		v := (1+b/2)*(1+b/2) + (1+a/2)*(1+a/2) + (a*a+b*b)/4
+		c.a[i], c.b[i], c.sc[i] = a, b, math.Sqrt(5/v)
+	}
+}
+
+// jumpStat is [jumpStatFinite] of x on the clock of c.
+func (c *clockCoefs) jumpStat(dst, x []float64) ([]float64, bool) {
+	n := len(x)
+	dst = slices.Grow(dst[:0], n)[:n]
+	if n < 4 {
+		clear(dst)
+		return dst, true
+	}
+	dst[0], dst[1], dst[n-1] = 0, 0, 0
+	ca, cb, cs := c.a[:n], c.b[:n], c.sc[:n]
+	acc := 0.0
+	for i := 2; i < n-1; i++ {
+		x0, x1, x2, x3 := x[i-2], x[i-1], x[i], x[i+1]
+		var v float64
+		if sc := cs[i]; sc < 0 {
+			v = 1.5*(x2-x1) + 0.5*(x0-x3)
+		} else {
+			v = ((x2 - x1) - 0.5*(ca[i]*(x1-x0)+cb[i]*(x3-x2))) * sc
+		}
+		dst[i] = v
+		acc += v - v // NaN once any v is NaN or infinite
+	}
+	return dst, acc == 0
 }
 
 // jumpStatFinite is jumpStat, and reports whether every value is finite

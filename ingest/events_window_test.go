@@ -162,7 +162,10 @@ func TestFindEventsSlidingEqualsSorted(t *testing.T) {
 			if pieces == nil {
 				pieces = [][][2]int{{{0, 1800}}, {{1800, n}}}
 			}
-			noise := tb.noiseOf(pieces, 3)
+			noise, err := tb.noiseOf(pieces, 3)
+			if err != nil {
+				t.Fatal(err)
+			}
 			ref := &Dataset{States: ds.States}
 			sc := new(eventScratch)
 			events, cand := 0, 0
@@ -175,7 +178,10 @@ func TestFindEventsSlidingEqualsSorted(t *testing.T) {
 					}
 				}
 				want := tb.findEventsSorted(ref, "r", p, noise)
-				got := tb.findEvents(ds, "r", p, noise, sc)
+				got, err := tb.findEvents(ds, "r", p, noise, sc)
+				if err != nil {
+					t.Fatal(err)
+				}
 				if len(want) != len(got) || (len(want) > 0 && !slices.Equal(want, got)) {
 					t.Fatalf("cuts %v, want %v", got, want)
 				}
@@ -313,6 +319,56 @@ func TestJumpStatFinite(t *testing.T) {
 			x[n/2] = math.Inf(1)
 			if _, finite := jumpStatFinite(nil, x, tm); finite {
 				t.Errorf("n=%d: an infinite sample gave a finite statistic", n)
+			}
+		}
+	}
+}
+
+// TestClockCoefs: the jump statistic from the clock's coefficients,
+// computed once for all states, is jumpAt's to the bit (the same
+// operations in the same order), with the same finiteness, on an even
+// clock, a clock of decimal steps (0.01 is not a binary fraction, so the
+// steps differ in their last bits), a jittered clock, a clock even in
+// stretches, and values near the float64 limit.
+func TestClockCoefs(t *testing.T) {
+	rng := rand.New(rand.NewPCG(5, 5))
+	const n = 3000
+	clocks := map[string][]float64{"even": evenClock(n)}
+	dec, jit, part := make([]float64, n), make([]float64, n), make([]float64, n)
+	for i := range n {
+		dec[i] = float64(i) * 0.01
+		jit[i] = float64(i) + 0.3*rng.Float64()
+		part[i] = float64(i)
+		if (i/200)%2 == 1 {
+			part[i] = float64(i) + 0.25*rng.Float64()
+		}
+	}
+	clocks["decimal"], clocks["jittered"], clocks["in stretches"] = dec, jit, part
+	var co clockCoefs
+	for name, tm := range clocks {
+		for _, huge := range []bool{false, true} {
+			x := make([]float64, n)
+			for i := range x {
+				x[i] = rng.NormFloat64()
+				if huge && i%500 == 7 {
+					x[i] = math.Copysign(math.MaxFloat64, x[i])
+				}
+			}
+			for _, m := range []int{0, 3, 4, 5, n} { // pieces of every small length, and the whole
+				co.set(tm[:m])
+				got, gf := co.jumpStat(nil, x[:m])
+				want, wf := jumpStatFinite(nil, x[:m], tm[:m])
+				if gf != wf || len(got) != len(want) {
+					t.Fatalf("%s (huge %v), %d samples: finite %v, %d values; want %v, %d", name, huge, m, gf, len(got), wf, len(want))
+				}
+				for i := range want {
+					if math.Float64bits(got[i]) != math.Float64bits(want[i]) && !(math.IsNaN(got[i]) && math.IsNaN(want[i])) {
+						t.Fatalf("%s (huge %v), %d samples: s[%d] = %v, jumpAt %v", name, huge, m, i, got[i], want[i])
+					}
+				}
+				if m == n && huge == wf {
+					t.Errorf("%s: huge values %v, finite statistic %v", name, huge, wf)
+				}
 			}
 		}
 	}

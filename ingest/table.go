@@ -180,6 +180,15 @@ func (tb *table) splitGroup(ds *Dataset, g group, opts *Options) error {
 	missing := 0
 	for _, sp := range g.spans {
 		ra := -1 // start of the open range
+		// Most spans have no missing cell: then the rows need no look at
+		// the columns (checked a column at a time, not a row at a time).
+		holes := false
+		for _, c := range tb.x {
+			if !allFinite(c[sp[0]:sp[1]]) {
+				holes = true
+				break
+			}
+		}
 		for i := sp[0]; i < sp[1]; i++ {
 			var ti float64
 			switch {
@@ -203,8 +212,8 @@ func (tb *table) splitGroup(ds *Dataset, g group, opts *Options) error {
 			}
 			local++
 			ok := ti == ti
-			for _, c := range tb.x {
-				if c[i] != c[i] {
+			for k := 0; holes && k < len(tb.x); k++ {
+				if c := tb.x[k]; c[i] != c[i] {
 					ok = false
 					break
 				}
@@ -266,8 +275,11 @@ func (tb *table) splitGroup(ds *Dataset, g group, opts *Options) error {
 		}
 	}
 	var limit = math.Inf(1)
-	if len(dts) > 0 {
-		limit = GapFactor * median(dts)
+	if n := len(dts); n > 0 {
+		// the middle of dts by selection, not a sort: the same order
+		// statistics (dts has no NaN: its times are not missing)
+		order.Select(dts, (n-1)/2, n/2)
+		limit = GapFactor * order.Median(dts[(n-1)/2:n/2+1])
 	}
 	dts = nil
 	var final [][][2]int
@@ -294,7 +306,10 @@ func (tb *table) splitGroup(ds *Dataset, g group, opts *Options) error {
 	ds.Gaps += gaps
 	events := 0
 	if ns := len(tb.x) - tb.nInput; ns > 0 && len(final) > 0 && (!opts.KeepHead || !opts.KeepEvents) {
-		noise := tb.noiseOf(final, len(tb.x)) // the inputs too: a head ends when the drive starts
+		noise, err := tb.noiseOf(final, len(tb.x)) // the inputs too: a head ends when the drive starts
+		if err != nil {
+			return err
+		}
 		if !opts.KeepHead {
 			if k := tb.restingHead(final[0], noise); k > 0 {
 				p := final[0]
@@ -307,7 +322,10 @@ func (tb *table) splitGroup(ds *Dataset, g group, opts *Options) error {
 			var split [][][2]int
 			sc := new(eventScratch)
 			for _, p := range final {
-				cuts := tb.findEvents(ds, g.name, p, noise[:ns], sc)
+				cuts, err := tb.findEvents(ds, g.name, p, noise[:ns], sc)
+				if err != nil {
+					return err
+				}
 				out, dropped := splitAt(p, cuts)
 				ds.Dropped += dropped
 				events += len(out) - 1
@@ -342,6 +360,24 @@ func (tb *table) splitGroup(ds *Dataset, g group, opts *Options) error {
 		ds.Runs = append(ds.Runs, r)
 	}
 	return nil
+}
+
+// allFinite reports whether every value of v is finite (neither NaN nor
+// infinite). x - x is 0 for a finite x and NaN otherwise: four sums, to
+// keep the additions independent, stay 0 unless some value is not.
+func allFinite(v []float64) bool {
+	var a0, a1, a2, a3 float64
+	i := 0
+	for ; i+4 <= len(v); i += 4 {
+		a0 += v[i] - v[i]
+		a1 += v[i+1] - v[i+1]
+		a2 += v[i+2] - v[i+2]
+		a3 += v[i+3] - v[i+3]
+	}
+	for ; i < len(v); i++ {
+		a0 += v[i] - v[i]
+	}
+	return a0 == 0 && a1 == 0 && a2 == 0 && a3 == 0
 }
 
 func gather(src []float64, rgs [][2]int) []float64 {
