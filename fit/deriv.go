@@ -790,27 +790,28 @@ func sameStates(e *derivEntry, run *ingest.Run) bool {
 	return ok && slices.Equal(x, e.x)
 }
 
-// get returns the cached derivatives of run (nil when c is nil or has
-// none). They are shared: read only.
-func (c *DerivativeCache) get(run *ingest.Run, method string, half []int) (xs, dx [][]float64) {
+// get returns the cached derivatives of run, and false when c is nil or
+// has none. They are shared: read only. xs is nil when it was put nil.
+func (c *DerivativeCache) get(run *ingest.Run, method string, half []int) (xs, dx [][]float64, ok bool) {
 	if c == nil {
-		return nil, nil
+		return nil, nil, false
 	}
 	k, ok := keyOf(run, method, half)
 	if !ok {
-		return nil, nil
+		return nil, nil, false
 	}
 	c.mu.Lock()
 	defer c.mu.Unlock()
 	e := c.runs[k]
 	if e == nil || !sameStates(e, run) {
-		return nil, nil
+		return nil, nil, false
 	}
 	c.hits++
-	return e.xs, e.dx
+	return e.xs, e.dx, true
 }
 
-// put keeps a copy of run's derivatives xs, dx, within derivCacheMax.
+// put keeps a copy of run's derivatives xs (nil when they are the states
+// themselves), dx, within derivCacheMax.
 func (c *DerivativeCache) put(run *ingest.Run, method string, half []int, xs, dx [][]float64) {
 	if c == nil {
 		return
@@ -820,8 +821,11 @@ func (c *DerivativeCache) put(run *ingest.Run, method string, half []int, xs, dx
 		return
 	}
 	size := 0
-	for j := range xs {
-		size += len(xs[j]) + len(dx[j])
+	for j := range dx {
+		size += len(dx[j])
+		if xs != nil {
+			size += len(xs[j])
+		}
 	}
 	c.mu.Lock()
 	defer c.mu.Unlock()
@@ -833,8 +837,10 @@ func (c *DerivativeCache) put(run *ingest.Run, method string, half []int, xs, dx
 		return
 	}
 	e := &derivEntry{x: x}
-	for j := range xs {
-		e.xs = append(e.xs, slices.Clone(xs[j]))
+	for j := range dx {
+		if xs != nil {
+			e.xs = append(e.xs, slices.Clone(xs[j]))
+		}
 		e.dx = append(e.dx, slices.Clone(dx[j]))
 	}
 	c.runs[k] = e

@@ -731,17 +731,17 @@ func accumulate(ctx context.Context, groups []*groupSums, groupOf func(r, i int)
 		lo, hi := 0, L
 		switch method {
 		case DerivFornberg:
-			if cx, cd := cache.get(run, method, half); cx != nil {
-				xs, dx = cx, cd
+			if _, cd, ok := cache.get(run, method, half); ok {
+				xs, dx = run.X, cd // the states themselves: read only
 				break
 			}
 			for j := 0; j < n; j++ {
 				copy(xs[j], run.X[j])
 				dw.fornbergRun(dx[j], run.T, run.X[j])
 			}
-			cache.put(run, method, half, xs, dx)
+			cache.put(run, method, half, nil, dx) // xs is a copy of run.X
 		case DerivSavitzkyGolay:
-			if cx, cd := cache.get(run, method, half); cx != nil {
+			if cx, cd, ok := cache.get(run, method, half); ok {
 				xs, dx = cx, cd
 			} else {
 				dw.sgRuns(xs, dx, run.T, run.X, half)
