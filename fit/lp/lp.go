@@ -36,7 +36,9 @@
 // whenever it is feasible at all.
 //
 // [SolveCuts] is the cutting-plane loop over a [Rows] source that is read
-// on demand, one pass per round, in parallel. By default its restricted
+// on demand, one pass per round, in parallel; a pass skips the rows that
+// surely still hold (their distance from the point they were last
+// evaluated at exceeds the point's move since). By default its restricted
 // problems are solved by a dual simplex method in row form (the basis is
 // n constraints held at equality, an explicit B⁻¹ updated by a rank-one
 // change per pivot and recomputed by LU every 100 pivots, dual
@@ -53,7 +55,8 @@
 // loose tolerance (1e-5), the last one, and any certificate of
 // infeasibility, at the requested one. Memory is about twice the active
 // rows times the unknowns, plus a few words per row (violations, the
-// active flags, the candidate list).
+// skip test's distance, point and norm, the active flags, the candidate
+// list).
 package lp
 
 import (
