@@ -34,7 +34,20 @@ type StreamOptions struct {
 	// than for Parquet). Zero means DefaultCSVWindow; negative streams
 	// every CSV file that can be streamed.
 	CSVWindow int64
+	// LateRuns leaves the last planning pass (resting heads and events)
+	// of a streamed file to its first Scan, which then finds the runs as
+	// it gives their samples, in one read of the file instead of two:
+	// StreamFile.Runs is empty after Open and complete after that Scan
+	// (or [StreamFile.FindRuns]). The runs are the same.
+	LateRuns bool
 }
+
+// ErrRescan is returned by the first Scan of a file opened with
+// [StreamOptions.LateRuns] when the file turned out, part way, to need
+// reading whole (see [StreamFile.Whole]): the samples given so far are
+// void, the file is now held whole with its runs, and a new Scan gives
+// them.
+var ErrRescan = errors.New("ingest: the file is read whole now: scan it again")
 
 // DefaultCSVWindow is the default [StreamOptions.CSVWindow].
 const DefaultCSVWindow = 64 << 20
@@ -50,6 +63,7 @@ type Streamer struct {
 	window    int
 	csvWindow int64
 	store     *colStore // reused columns for files read whole in one pass
+	late      bool      // StreamOptions.LateRuns
 	src       streamScratch
 	plan      *plan // the last plan, whose buffers the next one reuses
 }
@@ -65,7 +79,7 @@ func NewStreamer(opts *Options, so *StreamOptions) *Streamer {
 		s.window = so.Window
 	}
 	if so != nil {
-		s.prefetch = so.Prefetch
+		s.prefetch, s.late = so.Prefetch, so.LateRuns
 	}
 	if so != nil && so.CSVWindow != 0 {
 		s.csvWindow = so.CSVWindow
@@ -98,6 +112,7 @@ type StreamFile struct {
 	ds   *Dataset // read whole
 	src  source   // streamed
 	xbuf [][]float64
+	late *plan // the plan whose pass 3 is left to the first Scan
 }
 
 // A StreamRun is one run of a [StreamFile], as [Run] without the samples.
@@ -240,7 +255,7 @@ func (s *Streamer) openStream(ctx context.Context, path string) (*StreamFile, er
 	}
 	pl := newPlan(sf, src, &s.opts, s.plan)
 	s.plan = pl
-	if err := pl.run(ctx); err != nil {
+	if err := pl.run(ctx, s.late); err != nil {
 		return nil, err
 	}
 	ok = true
@@ -268,6 +283,9 @@ func (sf *StreamFile) Scan(ctx context.Context, fn func(k int, t []float64, x []
 	}
 	if sf.src == nil {
 		return errors.New("ingest: Scan after Close")
+	}
+	if sf.late != nil {
+		return sf.lateScan(ctx, fn)
 	}
 	sf.Passes++
 	k := 0
@@ -301,6 +319,77 @@ func (sf *StreamFile) Scan(ctx context.Context, fn func(k int, t []float64, x []
 		return &ParseError{File: sf.File, Err: fmt.Errorf("%w: the file changed while it was read", ErrFormat)}
 	}
 	return err
+}
+
+// Late reports whether sf's runs are still to be found: opened with
+// [StreamOptions.LateRuns], before the first Scan or FindRuns.
+func (sf *StreamFile) Late() bool { return sf.late != nil }
+
+// FindRuns finds the runs of a file whose Open left them to later (see
+// [StreamOptions.LateRuns]), by one more read of it, without giving
+// their samples; it does nothing otherwise. A file that turns out to
+// need reading whole is read whole (sf.Dataset is then not nil).
+func (sf *StreamFile) FindRuns(ctx context.Context) error {
+	pl := sf.late
+	if pl == nil {
+		return nil
+	}
+	sf.late = nil
+	err := pl.pass3(ctx, nil)
+	var fb *errFallback
+	if errors.As(err, &fb) {
+		return sf.readWhole(ctx, pl.opts, fb.why)
+	}
+	if err != nil {
+		return err
+	}
+	pl.setRuns()
+	return nil
+}
+
+// lateScan is Scan's first read of a file whose runs are found on the
+// way (see StreamOptions.LateRuns).
+func (sf *StreamFile) lateScan(ctx context.Context, fn func(k int, t []float64, x [][]float64) error) error {
+	pl := sf.late
+	sf.late = nil
+	sf.Runs = sf.Runs[:0]
+	err := pl.pass3(ctx, &lateEmit{fn: fn})
+	var fb *errFallback
+	if errors.As(err, &fb) && fb.why == "error" { // fewer rows than planned
+		return &ParseError{File: sf.File, Err: fmt.Errorf("%w: the file changed while it was read", ErrFormat)}
+	}
+	if errors.As(err, &fb) {
+		if err := sf.readWhole(ctx, pl.opts, fb.why); err != nil {
+			return err
+		}
+		return ErrRescan
+	}
+	if err != nil {
+		return err
+	}
+	pl.setRuns()
+	return nil
+}
+
+// readWhole reads sf's file whole, as Open does a file it cannot stream.
+func (sf *StreamFile) readWhole(ctx context.Context, opts *Options, why string) error {
+	ds, err := ReadFile(ctx, sf.File, opts)
+	if err != nil {
+		return err
+	}
+	sf.src.close()
+	sf.src = nil
+	if why == "error" {
+		why = "the file changed while it was read"
+	}
+	sf.States, sf.Time, sf.Ignored, sf.Warnings, sf.Whole, sf.ds = ds.States, ds.Time, ds.Ignored, ds.Warnings, why, ds
+	sf.Passes++
+	sf.Runs = sf.Runs[:0]
+	for i := range ds.Runs {
+		r := &ds.Runs[i]
+		sf.Runs = append(sf.Runs, StreamRun{Name: r.Name, Source: r.Source, Gaps: r.Gaps, Events: r.Events, Samples: r.Len()})
+	}
+	return nil
 }
 
 // source is a file read block by block, once per pass.

@@ -15,7 +15,9 @@ import (
 // FuzzStreamParquet: a streamed read of any bytes either fails with
 // ReadFile's error, word for word, or gives ReadFile's runs; it never
 // panics. The seeds are small plain and dictionary-encoded rig logs
-// (streamed, not read whole: Window is negative).
+// (streamed, not read whole: Window is negative); every input is read
+// with the runs found at Open and as the first Scan gives them
+// (StreamOptions.LateRuns).
 func FuzzStreamParquet(f *testing.F) {
 	opts := &Options{decodeBudget: time.Second}
 	dir := f.TempDir()
@@ -35,7 +37,15 @@ func FuzzStreamParquet(f *testing.F) {
 			t.Fatal(err)
 		}
 		want, werr := ReadFile(context.Background(), p, opts)
-		s := NewStreamer(opts, &StreamOptions{Window: -1})
+		for _, late := range []bool{false, true} {
+			fuzzStreamOnce(t, p, opts, late, want, werr)
+		}
+	})
+}
+
+func fuzzStreamOnce(t *testing.T, p string, opts *Options, late bool, want *Dataset, werr error) {
+	{
+		s := NewStreamer(opts, &StreamOptions{Window: -1, LateRuns: late})
 		sf, err := s.Open(context.Background(), p)
 		if err != nil {
 			var pe *ParseError
@@ -52,11 +62,22 @@ func FuzzStreamParquet(f *testing.F) {
 		if werr != nil {
 			t.Fatalf("Open took what ReadFile refuses: %v", werr)
 		}
-		n := make([]int, len(sf.Runs))
-		if err := sf.Scan(context.Background(), func(k int, tt []float64, x [][]float64) error {
-			n[k] += len(tt)
-			return nil
-		}); err != nil {
+		var n []int
+		scan := func() error {
+			n = make([]int, len(sf.Runs))
+			return sf.Scan(context.Background(), func(k int, tt []float64, x [][]float64) error {
+				for k >= len(n) { // late runs: found as they come
+					n = append(n, 0)
+				}
+				n[k] += len(tt)
+				return nil
+			})
+		}
+		err = scan()
+		if errors.Is(err, ErrRescan) {
+			err = scan()
+		}
+		if err != nil {
 			t.Fatalf("Scan: %v", err)
 		}
 		if len(sf.Runs) != len(want.Runs) {
@@ -67,5 +88,5 @@ func FuzzStreamParquet(f *testing.F) {
 				t.Fatalf("run %d: %s %d samples %+v, ReadFile %s %d %+v", k, sf.Runs[k].Name, n[k], sf.Runs[k].Source, r.Name, r.Len(), r.Source)
 			}
 		}
-	})
+	}
 }

@@ -2,6 +2,7 @@ package ingest
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"math"
 	"math/rand/v2"
@@ -140,19 +141,45 @@ func streamRuns(t *testing.T, path string, opts *Options, so *StreamOptions) (*S
 	return sf, runs
 }
 
-// scanRuns collects the samples of sf's planned runs through Scan.
+// scanRuns collects the samples of sf's planned runs through Scan; for
+// a file whose runs come late (StreamOptions.LateRuns) as Scan gives
+// them, checking that each run is in sf.Runs by its first sample and
+// that the runs come in order, and scanning again after ErrRescan.
 func scanRuns(sf *StreamFile) ([]Run, error) {
+	late := sf.Late()
 	runs := make([]Run, len(sf.Runs))
 	for k, r := range sf.Runs {
 		runs[k] = Run{Name: r.Name, Source: r.Source, Gaps: r.Gaps, Events: r.Events, X: make([][]float64, len(sf.States))}
 	}
 	err := sf.Scan(context.Background(), func(k int, tt []float64, x [][]float64) error {
+		if late {
+			if k != len(runs) && k != len(runs)-1 {
+				return fmt.Errorf("run %d given after %d runs", k, len(runs))
+			}
+			if k >= len(sf.Runs) {
+				return fmt.Errorf("run %d given before it is in the file's runs", k)
+			}
+			if k == len(runs) {
+				runs = append(runs, Run{X: make([][]float64, len(x))})
+			}
+		}
 		runs[k].T = append(runs[k].T, tt...)
 		for j := range x {
 			runs[k].X[j] = append(runs[k].X[j], x[j]...)
 		}
 		return nil
 	})
+	if errors.Is(err, ErrRescan) {
+		return scanRuns(sf)
+	}
+	if late && err == nil {
+		if len(runs) != len(sf.Runs) {
+			return nil, fmt.Errorf("%d runs given, %d in the file's runs", len(runs), len(sf.Runs))
+		}
+		for k, r := range sf.Runs {
+			runs[k].Name, runs[k].Source, runs[k].Gaps, runs[k].Events = r.Name, r.Source, r.Gaps, r.Events
+		}
+	}
 	return runs, err
 }
 
@@ -258,6 +285,28 @@ func TestStreamSameRuns(t *testing.T) {
 				// decoding one row group ahead on another goroutine
 				_, got = streamRuns(t, path, &opts, &StreamOptions{Window: -1, Prefetch: true})
 				sameRuns(t, got, want.Runs)
+				// the runs found as the first Scan gives them, then a
+				// second Scan of the runs found
+				for _, pre := range []bool{false, true} {
+					lsf, err := NewStreamer(&opts, &StreamOptions{Window: -1, LateRuns: true, Prefetch: pre}).Open(context.Background(), path)
+					if err != nil {
+						t.Fatal(err)
+					}
+					if lsf.Whole == "" && len(want.Runs) > 0 && !lsf.Late() && !(opts.KeepHead && opts.KeepEvents) {
+						t.Errorf("streamed with late runs, but the runs are found at Open (%d passes)", lsf.Passes)
+					}
+					for range 2 {
+						got, err := scanRuns(lsf)
+						if err != nil {
+							t.Fatal(err)
+						}
+						sameRuns(t, got, want.Runs)
+					}
+					if lsf.Whole == "" && !(opts.KeepHead && opts.KeepEvents) && lsf.Passes != sf.Passes {
+						t.Errorf("late runs: %d passes for 2 scans, runs found at Open: %d for 1 (one pass saved)", lsf.Passes, sf.Passes)
+					}
+					lsf.Close()
+				}
 				t.Logf("%d runs, %d gaps, %d events, %d heads, %d passes", len(want.Runs), want.Gaps, len(want.Events), len(want.Heads), sf.Passes)
 			})
 		}
@@ -332,6 +381,11 @@ func TestStreamSameRunsCSV(t *testing.T) {
 			}
 			if sf.Time != want.Time {
 				t.Errorf("time column %+v, ReadFile %+v", sf.Time, want.Time)
+			}
+			lsf, got := streamRuns(t, path, &opts, &StreamOptions{CSVWindow: -1, LateRuns: true})
+			sameRuns(t, got, want.Runs)
+			if lsf.Whole != "" || lsf.Passes != sf.Passes-1 {
+				t.Errorf("late runs: read whole %q, %d passes; runs found at Open: %d", lsf.Whole, lsf.Passes, sf.Passes)
 			}
 			t.Logf("%d runs, %d passes", len(want.Runs), sf.Passes)
 		})
@@ -491,9 +545,15 @@ func writeCols(t *testing.T, path string, cols ...[]float64) string {
 // TestStreamFileChanged: a streamed file cut short between the plan and
 // the scan is an error, not a screen of fewer samples.
 func TestStreamFileChanged(t *testing.T) {
+	for _, late := range []bool{false, true} {
+		t.Run(fmt.Sprintf("late=%v", late), func(t *testing.T) { testStreamFileChanged(t, late) })
+	}
+}
+
+func testStreamFileChanged(t *testing.T, late bool) {
 	path := filepath.Join(t.TempDir(), "log.csv")
 	writeRigCSV(t, path, rigLog{n: 20000, dt: 0.001, sd: 1e-3}, 3, 0)
-	sf, err := NewStreamer(nil, &StreamOptions{CSVWindow: -1}).Open(context.Background(), path)
+	sf, err := NewStreamer(nil, &StreamOptions{CSVWindow: -1, LateRuns: late}).Open(context.Background(), path)
 	if err != nil {
 		t.Fatal(err)
 	}

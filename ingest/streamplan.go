@@ -141,7 +141,10 @@ func (pl *plan) setup(ns int) {
 	pl.resetAcc()
 }
 
-func (pl *plan) run(ctx context.Context) error {
+// run plans the file's runs: passes 1 to 3. With late, pass 3 (when
+// needed) is left to the first Scan, which gives the runs' samples as it
+// finds them (see lateScan).
+func (pl *plan) run(ctx context.Context, late bool) error {
 	if err := pl.pass1(ctx); err != nil {
 		return err
 	}
@@ -185,21 +188,34 @@ func (pl *plan) run(ctx context.Context) error {
 			pl.selBuf, sc = scaleOf(pl.selBuf, pl.acc[j].all[pick])
 			pl.noise[j] = stateNoise{s: sc, quant: pl.acc[j].q, span: pl.hi[j] - pl.lo[j]}
 		}
-		if err := pl.pass3(ctx); err != nil {
+		if late {
+			pl.sf.late = pl // pass 3 comes with the first Scan (see lateScan)
+			return nil
+		}
+		if err := pl.pass3(ctx, nil); err != nil {
 			return err
 		}
 	}
-	sf := pl.sf
-	sf.Runs = make([]StreamRun, len(pl.runs))
-	for n, r := range pl.runs {
-		sr := StreamRun{Name: pl.name, Source: Source{File: sf.File, Line: pl.src.line(r[0])}, Gaps: pl.gaps, Events: pl.evs,
-			Samples: r[1] - r[0], rows: r}
-		if n > 0 {
-			sr.Name = fmt.Sprintf("%s~%d", pl.name, n)
-		}
-		sf.Runs[n] = sr
-	}
+	pl.setRuns()
 	return nil
+}
+
+// runName is the name of run n of the file.
+func (pl *plan) runName(n int) string {
+	if n == 0 {
+		return pl.name
+	}
+	return fmt.Sprintf("%s~%d", pl.name, n)
+}
+
+// setRuns sets the file's runs from pl.runs.
+func (pl *plan) setRuns() {
+	sf := pl.sf
+	sf.Runs = slices.Grow(sf.Runs[:0], len(pl.runs))[:len(pl.runs)]
+	for n, r := range pl.runs {
+		sf.Runs[n] = StreamRun{Name: pl.runName(n), Source: Source{File: sf.File, Line: pl.src.line(r[0])}, Gaps: pl.gaps,
+			Events: pl.evs, Samples: r[1] - r[0], rows: r}
+	}
 }
 
 // openPiece starts a piece of consecutive rows at row, or gives up
@@ -489,24 +505,41 @@ func (pl *plan) pass2(ctx context.Context, a float64, noGap bool) error {
 }
 
 // pass3 trims the resting head and splits the pieces at events.
-func (pl *plan) pass3(ctx context.Context) error {
+//
+// With em, the runs' samples are given to em.fn as the cuts become
+// final, from the detector's ring (see lateEmit), and the runs are
+// added to the file's as they start.
+func (pl *plan) pass3(ctx context.Context, em *lateEmit) error {
 	ns := pl.ns
 	runs := pl.runBuf[:0]
 	if pl.ed == nil || len(pl.ed.ring) != ns {
 		pl.ed = newEvDetector(ns)
 	}
 	ed := pl.ed
+	ed.emit = nil
+	if em != nil {
+		em.pl, em.ed, em.runs = pl, ed, &runs
+		ed.emit = em.advance
+		defer func() { ed.emit = nil }()
+	}
 	hd := &pl.hd
 	p := 0
 	pieceStart := -1 // the first row of piece p given to the detector, or -1
 	startPiece := func(first int) {
 		pieceStart = first
 		ed.reset(pl.final[p][1]-first, pl.noise)
+		if em != nil {
+			em.start(first)
+		}
 	}
 	endPiece := func() error {
 		cuts, err := ed.finish()
 		if err != nil {
 			return err
+		}
+		if em != nil {
+			pieceStart = -1
+			return em.end()
 		}
 		sp := [][2]int{{pieceStart, pl.final[p][1]}}
 		if pl.opts.KeepEvents {
@@ -543,7 +576,9 @@ func (pl *plan) pass3(ctx context.Context) error {
 					if pl.opts.KeepEvents {
 						ed.off = true
 					}
-					ed.pushHead(hd, k)
+					if err := ed.pushHead(hd, k); err != nil {
+						return err
+					}
 				}
 			} else {
 				if pieceStart < 0 {
@@ -561,7 +596,9 @@ func (pl *plan) pass3(ctx context.Context) error {
 				first = false
 				startPiece(pc[0])
 				ed.off = pl.opts.KeepEvents
-				ed.pushHead(hd, 0)
+				if err := ed.pushHead(hd, 0); err != nil {
+					return err
+				}
 			}
 			if err := endPiece(); err != nil {
 				return err
@@ -573,7 +610,144 @@ func (pl *plan) pass3(ctx context.Context) error {
 	if err != nil {
 		return err
 	}
+	if p != len(pl.final) {
+		return &errFallback{"error"} // fewer rows than pass 1 read: the file changed
+	}
 	pl.runs, pl.runBuf = runs, runs
+	return nil
+}
+
+// lateEmit gives the samples of each run to fn as pass 3 finds the runs
+// (see [StreamOptions.LateRuns]): the samples of a piece below the
+// detector's frontier have their cuts final, so they are given (or
+// dropped) as [splitAt] would split the piece, from the detector's ring,
+// which holds them until then (the frontier trails the newest sample by
+// at most evLook+evPush samples).
+type lateEmit struct {
+	fn   func(k int, t []float64, x [][]float64) error
+	pl   *plan
+	ed   *evDetector
+	runs *[][2]int // the runs so far, file rows
+	base int       // the file row of the piece's first sample
+	emit int       // the piece's samples below emit are given or dropped
+	segA int       // the first sample of the current segment
+	open bool      // the current segment is a run, the last of runs
+	cuts int       // cuts applied in the piece
+	kept int       // runs kept from the piece
+	xs   [][]float64
+	ks   []cut
+}
+
+// start starts a piece whose first sample is file row first.
+func (em *lateEmit) start(first int) {
+	em.base, em.emit, em.segA, em.open, em.cuts, em.kept = first, 0, 0, false, 0, 0
+}
+
+// advance gives or drops the piece's samples below f, applying the cuts
+// below f in order, as splitAt does.
+func (em *lateEmit) advance(f int, last bool) error {
+	if f <= em.emit {
+		return nil
+	}
+	em.ks = em.ks[:0]
+	for k, drop := range em.ed.marks {
+		if k >= em.emit && k < f {
+			em.ks = append(em.ks, cut{k, drop})
+		}
+	}
+	slices.SortFunc(em.ks, func(a, b cut) int { return a.k - b.k })
+	pos := em.emit
+	for _, c := range em.ks {
+		if err := em.give(pos, c.k); err != nil {
+			return err
+		}
+		if em.open { // splitAt's keep(start, c.k): the run ends at the cut
+			em.open = false
+			em.kept++
+		}
+		em.cuts++
+		em.segA = max(em.segA, c.k)
+		if c.drop {
+			em.segA = max(em.segA, c.k+1)
+		}
+		pos = max(pos, c.k, em.segA)
+	}
+	if err := em.give(pos, f); err != nil {
+		return err
+	}
+	em.emit = f
+	return nil
+}
+
+// give gives samples [a, b) of the current segment, once the segment is
+// known to be kept (minEventPiece samples before any cut).
+func (em *lateEmit) give(a, b int) error {
+	a = max(a, em.segA)
+	if b <= a {
+		return nil
+	}
+	if !em.open {
+		if b-em.segA < minEventPiece {
+			return nil // not known yet: the samples wait in the ring
+		}
+		em.openRun()
+		a = em.segA
+	}
+	return em.send(a, b)
+}
+
+func (em *lateEmit) openRun() {
+	pl, sf := em.pl, em.pl.sf
+	row := em.base + em.segA
+	*em.runs = append(*em.runs, [2]int{row, row})
+	n := len(*em.runs) - 1
+	sf.Runs = append(sf.Runs, StreamRun{Name: pl.runName(n), Source: Source{File: sf.File, Line: pl.src.line(row)},
+		Gaps: pl.gaps, rows: [2]int{row, row}})
+	em.open = true
+}
+
+// send calls fn with samples [a, b) of the open run, from the ring.
+func (em *lateEmit) send(a, b int) error {
+	ed := em.ed
+	if len(em.xs) != len(ed.ring) {
+		em.xs = make([][]float64, len(ed.ring))
+	}
+	k := len(*em.runs) - 1
+	(*em.runs)[k][1] = em.base + b
+	sr := &em.pl.sf.Runs[k]
+	sr.Samples += b - a
+	sr.rows[1] = em.base + b
+	for a < b {
+		p := a & (evRing - 1)
+		l := min(b-a, evRing-p)
+		for j, r := range ed.ring {
+			em.xs[j] = r[p : p+l]
+		}
+		if err := em.fn(k, ed.tring[p:p+l], em.xs); err != nil {
+			return err
+		}
+		a += l
+	}
+	return nil
+}
+
+// end finishes the piece, all of whose samples advance has seen: with no
+// cut at all the piece is one run whatever its length (splitAt).
+func (em *lateEmit) end() error {
+	n := em.ed.n
+	switch {
+	case em.open:
+		em.open = false
+		em.kept++
+	case em.cuts == 0 && em.segA < n:
+		em.openRun()
+		if err := em.send(em.segA, n); err != nil {
+			return err
+		}
+		em.open = false
+		em.kept++
+	}
+	em.pl.evs += em.kept - 1
 	return nil
 }
 
@@ -667,6 +841,9 @@ type evDetector struct {
 	// sample of the ring, shared by the states, computed up to cdone
 	coef  []jumpCoef
 	cdone int
+	// emit, when not nil, is called with the frontier after each
+	// advance (see lateEmit); the ring then always holds the samples
+	emit  func(f int, last bool) error
 	st    []evLoop
 	noise []stateNoise
 	marks map[int]bool
@@ -704,7 +881,7 @@ func (ed *evDetector) pushHead(hd *headState, k int) error {
 
 // push gives the detector samples [a, b) of x, at times t.
 func (ed *evDetector) push(x [][]float64, t []float64, a, b int) error {
-	if ed.off || ed.n < 5 {
+	if (ed.off || ed.n < 5) && ed.emit == nil {
 		ed.have += b - a
 		return nil
 	}
@@ -719,28 +896,56 @@ func (ed *evDetector) push(x [][]float64, t []float64, a, b int) error {
 		copy(ed.tring, t[a+k:c])
 		ed.have += c - a
 		a = c
-		// sample i's coefficients need the times of i-2 .. i+1
-		const m = evRing - 1
-		tr := ed.tring
-		i := ed.cdone
-		for ; i+1 < ed.have; i++ {
-			ed.coef[i&m] = clockCoef(tr[(i-2)&m], tr[(i-1)&m], tr[i&m], tr[(i+1)&m])
-		}
-		ed.cdone = i
-		if err := ed.advance(); err != nil {
-			return err
+		if !ed.off && ed.n >= 5 {
+			// sample i's coefficients need the times of i-2 .. i+1
+			const m = evRing - 1
+			tr := ed.tring
+			i := ed.cdone
+			for ; i+1 < ed.have; i++ {
+				ed.coef[i&m] = clockCoef(tr[(i-2)&m], tr[(i-1)&m], tr[i&m], tr[(i+1)&m])
+			}
+			ed.cdone = i
+			if err := ed.advance(); err != nil {
+				return err
+			}
+		} // else no events to find: the ring only holds the samples to emit
+		if ed.emit != nil {
+			if err := ed.emit(ed.frontier(), false); err != nil {
+				return err
+			}
 		}
 	}
 	return nil
 }
 
+// frontier returns the piece index below which the cuts are final: a
+// state's candidate loop at i marks no sample below i-1 from then on.
+func (ed *evDetector) frontier() int {
+	f := ed.have
+	if ed.off || ed.n < 5 {
+		return f
+	}
+	for j := range ed.st {
+		if lp := &ed.st[j]; !lp.skip {
+			f = min(f, lp.i-1)
+		}
+	}
+	return max(f, 0)
+}
+
 // finish judges the candidates left and returns the cuts, sorted.
 func (ed *evDetector) finish() ([]cut, error) {
 	if ed.off || ed.n < 5 {
+		if ed.emit != nil {
+			return nil, ed.emit(ed.n, true)
+		}
 		return nil, nil
 	}
 	if err := ed.advance(); err != nil {
 		return nil, err
+	}
+	if ed.emit != nil {
+		return nil, ed.emit(ed.n, true)
 	}
 	cuts := make([]cut, 0, len(ed.marks))
 	for k, drop := range ed.marks {

@@ -2,6 +2,8 @@ package validate
 
 import (
 	"context"
+	"errors"
+	"fmt"
 	"math"
 	"slices"
 
@@ -17,6 +19,15 @@ import (
 // result's Flags must be copied before dst is reused. It stops with
 // ctx's error when ctx is done, and returns the file's read errors.
 func (s *Screener) ScreenFile(ctx context.Context, dst []RunScreen, sf *ingest.StreamFile) ([]RunScreen, error) {
+	if sf.Late() && len(sf.States) == s.n {
+		if !s.noise.on {
+			return s.screenLate(ctx, dst, sf)
+		}
+		// the runs' own noise needs their lengths first
+		if err := sf.FindRuns(ctx); err != nil {
+			return nil, err
+		}
+	}
 	n := len(sf.Runs)
 	if cap(dst) < n {
 		dst = append(dst[:cap(dst)], make([]RunScreen, n-cap(dst))...)
@@ -83,6 +94,43 @@ func (s *Screener) ScreenFile(ctx context.Context, dst []RunScreen, sf *ingest.S
 	}
 	if cur >= 0 {
 		s.End()
+	}
+	return dst, nil
+}
+
+// screenLate screens a file whose runs its Scan finds (see
+// ingest.StreamOptions.LateRuns): in one pass that finds them and
+// screens them, with the certificate's tolerance (no noise widening).
+func (s *Screener) screenLate(ctx context.Context, dst []RunScreen, sf *ingest.StreamFile) ([]RunScreen, error) {
+	dst = dst[:0]
+	cur := -1
+	err := sf.Scan(ctx, func(k int, t []float64, x [][]float64) error {
+		if k != cur {
+			if cur >= 0 {
+				s.End()
+			}
+			cur = k
+			if k < cap(dst) {
+				dst = dst[:k+1] // keeps the Flags storage
+			} else {
+				dst = append(dst[:cap(dst)], make([]RunScreen, k+1-cap(dst))...)
+			}
+			s.Begin(&dst[k], sf.File, sf.Runs[k].Name)
+		}
+		s.Feed(x, t)
+		return nil
+	})
+	if cur >= 0 {
+		s.End()
+	}
+	if errors.Is(err, ingest.ErrRescan) { // now read whole
+		return s.ScreenFile(ctx, dst, sf)
+	}
+	if err != nil {
+		return nil, err
+	}
+	if len(dst) != len(sf.Runs) {
+		return nil, fmt.Errorf("validate: %s: %d runs screened of %d found", sf.File, len(dst), len(sf.Runs))
 	}
 	return dst, nil
 }

@@ -333,6 +333,13 @@ func screenFilesWith(ctx context.Context, cert *fit.Certificate, files []string,
 		// spare cores: decode each file's next row group on one of them
 		sto = &ingest.StreamOptions{Prefetch: true}
 	}
+	// the runs found as they are screened: one read of each file fewer
+	lsto := ingest.StreamOptions{LateRuns: true}
+	if sto != nil {
+		lsto = *sto
+		lsto.LateRuns = true
+	}
+	sto = &lsto
 	res := make([]fileResult, len(files))
 	err := parallel.For(ctx, len(files), workers, func() *worker {
 		return &worker{s: validate.NewScreener(cert, so), st: ingest.NewStreamer(iopts, sto)}

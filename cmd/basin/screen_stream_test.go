@@ -125,7 +125,9 @@ func writeRigRun(t *testing.T, path string, g rigRun, seed uint64, rg int64, dic
 // screening ReadFile's data set gives (same runs, flags, times, excesses,
 // distances, counts), for settling, rising, slow and noisy runs with
 // resting heads, hammer hits, gaps and missing cells, in several row-group
-// sizes, with and without the run-noise tolerance.
+// sizes, with and without the run-noise tolerance, the runs found at
+// Open or as they are screened (StreamOptions.LateRuns, with the results'
+// storage reused from file to file).
 func TestScreenStreamed(t *testing.T) {
 	runs := []rigRun{
 		{n: 40000, z0: [2]float64{0.5, 0.3}, rate: -1, sd: 1e-3},
@@ -140,67 +142,79 @@ func TestScreenStreamed(t *testing.T) {
 			t.Fatal(err)
 		}
 		for _, rg := range []int64{1000, 8192, 1 << 16} {
-			t.Run(fmt.Sprintf("noise=%v/rg=%d", len(c.Noise) > 0, rg), func(t *testing.T) {
-				dir := t.TempDir()
-				var files []string
-				for i, g := range runs {
-					p := filepath.Join(dir, fmt.Sprintf("r%d.parquet", i))
-					writeRigRun(t, p, g, uint64(i), rg, i%2 == 1)
-					files = append(files, p)
-				}
-				opts := &ingest.Options{States: c.States}
-				s := validate.NewScreener(c, nil)
-				st := ingest.NewStreamer(opts, &ingest.StreamOptions{Window: -1})
-				flagged, nruns, widened, slow := 0, 0, 0, 0
-				for _, f := range files {
-					ds, err := ingest.ReadFile(context.Background(), f, opts)
-					if err != nil {
-						t.Fatal(err)
+			for _, late := range []bool{false, true} {
+				t.Run(fmt.Sprintf("noise=%v/rg=%d/late=%v", len(c.Noise) > 0, rg, late), func(t *testing.T) {
+					dir := t.TempDir()
+					var files []string
+					for i, g := range runs {
+						p := filepath.Join(dir, fmt.Sprintf("r%d.parquet", i))
+						writeRigRun(t, p, g, uint64(i), rg, i%2 == 1)
+						files = append(files, p)
 					}
-					want := make([]validate.RunScreen, len(ds.Runs))
-					for k := range ds.Runs {
-						if len(c.Noise) > 0 && fit.RunNoise(&ds.Runs[k])[0] > c.Noise[0] {
-							widened++
+					opts := &ingest.Options{States: c.States}
+					s := validate.NewScreener(c, nil)
+					st := ingest.NewStreamer(opts, &ingest.StreamOptions{Window: -1, LateRuns: late})
+					flagged, nruns, widened, slow := 0, 0, 0, 0
+					var dst []validate.RunScreen
+					for _, f := range files {
+						ds, err := ingest.ReadFile(context.Background(), f, opts)
+						if err != nil {
+							t.Fatal(err)
 						}
-						s.Screen(&want[k], f, &ds.Runs[k])
-						want[k].Flags = append([]validate.Flag(nil), want[k].Flags...)
-					}
-					sf, err := st.Open(context.Background(), f)
-					if err != nil {
-						t.Fatal(err)
-					}
-					if sf.Whole != "" {
-						t.Fatalf("%s read whole: %s", f, sf.Whole)
-					}
-					got, err := s.ScreenFile(context.Background(), nil, sf)
-					sf.Close()
-					if err != nil {
-						t.Fatal(err)
-					}
-					if len(got) != len(want) {
-						t.Fatalf("%s: %d runs, want %d", f, len(got), len(want))
-					}
-					for k := range want {
-						if !reflect.DeepEqual(got[k], want[k]) {
-							t.Errorf("%s run %d:\n got %+v\nwant %+v", f, k, got[k], want[k])
-						}
-						if want[k].Flagged {
-							flagged++
-						}
-						for _, fl := range want[k].Flags {
-							if fl.Kind == validate.FlagSlow {
-								slow++
+						want := make([]validate.RunScreen, len(ds.Runs))
+						for k := range ds.Runs {
+							if len(c.Noise) > 0 && fit.RunNoise(&ds.Runs[k])[0] > c.Noise[0] {
+								widened++
 							}
+							s.Screen(&want[k], f, &ds.Runs[k])
+							want[k].Flags = append([]validate.Flag(nil), want[k].Flags...)
 						}
-						nruns++
+						sf, err := st.Open(context.Background(), f)
+						if err != nil {
+							t.Fatal(err)
+						}
+						if sf.Whole != "" {
+							t.Fatalf("%s read whole: %s", f, sf.Whole)
+						}
+						if sf.Late() != late {
+							t.Fatalf("%s: runs left to the scan %v, asked %v", f, sf.Late(), late)
+						}
+						var got []validate.RunScreen
+						if late {
+							dst, err = s.ScreenFile(context.Background(), dst, sf)
+							got = dst
+						} else {
+							got, err = s.ScreenFile(context.Background(), nil, sf)
+						}
+						sf.Close()
+						if err != nil {
+							t.Fatal(err)
+						}
+						if len(got) != len(want) {
+							t.Fatalf("%s: %d runs, want %d", f, len(got), len(want))
+						}
+						for k := range want {
+							if !reflect.DeepEqual(got[k], want[k]) {
+								t.Errorf("%s run %d:\n got %+v\nwant %+v", f, k, got[k], want[k])
+							}
+							if want[k].Flagged {
+								flagged++
+							}
+							for _, fl := range want[k].Flags {
+								if fl.Kind == validate.FlagSlow {
+									slow++
+								}
+							}
+							nruns++
+						}
 					}
-				}
-				if flagged == 0 || nruns <= len(files) || (len(c.Noise) > 0 && (widened == 0 || slow == 0)) {
-					t.Errorf("%d flagged of %d runs from %d files, %d widened, %d slow: the comparison does not see what it checks",
-						flagged, nruns, len(files), widened, slow)
-				}
-				t.Logf("%d flagged of %d runs from %d files, %d widened, %d slow", flagged, nruns, len(files), widened, slow)
-			})
+					if flagged == 0 || nruns <= len(files) || (len(c.Noise) > 0 && (widened == 0 || slow == 0)) {
+						t.Errorf("%d flagged of %d runs from %d files, %d widened, %d slow: the comparison does not see what it checks",
+							flagged, nruns, len(files), widened, slow)
+					}
+					t.Logf("%d flagged of %d runs from %d files, %d widened, %d slow", flagged, nruns, len(files), widened, slow)
+				})
+			}
 		}
 	}
 }
