@@ -2,15 +2,18 @@ package main
 
 import (
 	"context"
+	"errors"
 	"flag"
 	"fmt"
 	"math"
+	"slices"
 	"strings"
 	"text/tabwriter"
 
 	"basin.example/cmd/basin/internal/human"
 	"basin.example/cmd/basin/internal/report"
 	"basin.example/fit"
+	"basin.example/ingest"
 	"basin.example/validate"
 )
 
@@ -43,6 +46,9 @@ overall the decrease and invariance fractions, the worst violation, and
 the scenario bound on the chance that a new sample from the same envelope
 violates the decrease condition (counting only samples one decorrelation
 time apart). The verdict on these runs follows the same rules as 'run'.
+Without --states the certificate's states are read by name, in any column
+order, other columns left out; a state missing, or a state column in other
+units than the certificate's, is an input error.
 
 The exit status is 0 whatever the verdict, rejected included (status 1
 belongs to 'screen'): read the verdict line, or summary.verdict with
@@ -103,7 +109,26 @@ func runCheck(ctx context.Context, e *env, args []string) error {
 	if err != nil {
 		return err
 	}
+	// Without --states the certificate's states are read by name, as
+	// screen reads them: a file may hold them in any order, and other
+	// columns (a temperature, a status word) are left out.
+	fromCert := c.States == "" && !slices.ContainsFunc(cert.States, func(s string) bool { return strings.Contains(s, ",") })
+	if fromCert {
+		c.States = strings.Join(cert.States, ",")
+	}
 	ds, err := loadInputs(ctx, e, &c.inputFlags, c.Quiet, args)
+	var pe *ingest.ParseError
+	if err != nil && fromCert && errors.Is(err, ingest.ErrNoStates) && errors.As(err, &pe) {
+		missing := ""
+		for _, s := range cert.States {
+			if strings.Contains(pe.Err.Error(), fmt.Sprintf("names %q,", s)) { // ingest names the first one missing
+				missing = fmt.Sprintf(" (no column %q)", s)
+				break
+			}
+		}
+		return &inputError{fmt.Errorf("%s: the certificate's states %s are not all columns of this file%s; name the file's columns with --states",
+			printable(pe.File), printable(c.States), printable(missing))}
+	}
 	if err != nil {
 		return err
 	}

@@ -103,6 +103,10 @@ func TestCheckCommandErrors(t *testing.T) {
 	other := writeTestCert(t, strings.Replace(checkCertJSON, `"states": ["a", "b"]`, `"states": ["a", "c"]`, 1))
 	bad := filepath.Join(t.TempDir(), "bad.csv")
 	os.WriteFile(bad, []byte("t,a,b\n0,1,2\n0.1,x,3\n"), 0o644)
+	onlyA := filepath.Join(t.TempDir(), "only-a.csv")
+	os.WriteFile(onlyA, []byte("t [s],a [m]\n0,0.5\n0.1,0.4\n"), 0o644)
+	inMM := filepath.Join(t.TempDir(), "mm.csv")
+	os.WriteFile(inMM, []byte("t [s],a [mm],b [m/s]\n0,500,0\n0.1,400,0\n"), 0o644)
 	for _, tc := range []struct {
 		name string
 		args []string
@@ -116,11 +120,78 @@ func TestCheckCommandErrors(t *testing.T) {
 		{"states differ", []string{"check", "--cert", other, dir}, "\"c\""},
 		{"bad cell", []string{"check", "--cert", cert, bad}, "bad.csv:3:2"},
 		{"no inputs", []string{"check", "--cert", cert}, "INPUTS"},
+		{"a state missing", []string{"check", "--cert", cert, onlyA}, `only-a.csv: the certificate's states a,b are not all columns of this file (no column "b")`},
+		{"other units", []string{"check", "--cert", cert, inMM}, `mm.csv:1: column "a": in mm in the data but in m in ` + cert},
 	} {
 		var out, errb bytes.Buffer
 		code := basinMain(context.Background(), tc.args, &out, &errb)
 		if code != 2 || !strings.Contains(errb.String(), tc.want) || strings.Count(strings.TrimSpace(errb.String()), "\n") > 0 || out.Len() > 0 {
 			t.Errorf("%s: exit %d, stderr %q, stdout %d bytes; want exit 2 naming %q", tc.name, code, errb.String(), out.Len(), tc.want)
 		}
+	}
+}
+
+// TestCheckColumnsByName: without --states, check reads the certificate's
+// states by name, as screen does: the same runs with the columns in
+// another order, or with a column that is not a state, give the same
+// verdict and the same flags as the plain files.
+func TestCheckColumnsByName(t *testing.T) {
+	cert := writeTestCert(t, checkCertJSON)
+	plain := writeCheckRuns(t)
+	reorder := func(line string) string { // t,a,b -> b,t,a
+		f := strings.Split(line, ",")
+		return f[2] + "," + f[0] + "," + f[1]
+	}
+	extra := func(line string) string {
+		if strings.HasPrefix(line, "t") {
+			return line + ",temp [C]"
+		}
+		return line + ",21.5"
+	}
+	summary := func(dir string) string {
+		var out, errb bytes.Buffer
+		if code := basinMain(context.Background(), []string{"check", "--json", "--cert", cert, dir}, &out, &errb); code != 0 {
+			t.Fatalf("%s: exit %d: %s", dir, code, errb.String())
+		}
+		var doc struct {
+			Summary struct {
+				Runs, Flagged int
+				Verdict       string
+			}
+		}
+		if err := json.Unmarshal(out.Bytes(), &doc); err != nil {
+			t.Fatal(err)
+		}
+		return fmt.Sprintf("%+v", doc.Summary)
+	}
+	want := summary(plain)
+	for _, tc := range []struct {
+		name string
+		edit func(string) string
+	}{
+		{"columns in another order", reorder},
+		{"a column that is not a state", extra},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			dir := t.TempDir()
+			ents, err := os.ReadDir(plain)
+			if err != nil {
+				t.Fatal(err)
+			}
+			for _, en := range ents {
+				b, err := os.ReadFile(filepath.Join(plain, en.Name()))
+				if err != nil {
+					t.Fatal(err)
+				}
+				lines := strings.Split(strings.TrimSpace(string(b)), "\n")
+				for i := range lines {
+					lines[i] = tc.edit(lines[i])
+				}
+				os.WriteFile(filepath.Join(dir, en.Name()), []byte(strings.Join(lines, "\n")+"\n"), 0o644)
+			}
+			if got := summary(dir); got != want {
+				t.Errorf("summary %s, want %s (the plain files')", got, want)
+			}
+		})
 	}
 }

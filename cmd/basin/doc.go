@@ -152,6 +152,9 @@ inside, stays inside, settles, and on how many pairs V did not rise beyond
 the noise tolerance; overall the decrease and invariance fractions and the
 scenario bound. The exit status is 0 whatever the verdict, rejected
 included (status 1 belongs to screen); the verdict is in the output.
+Without --states the certificate's states are read by name, in any column
+order, other columns left out; a state missing, or a state column in other
+units than the certificate's, is an input error (exit 2).
 
 	--cert FILE         the certificate (required)
 	--min-decrease F    as for run (default 0.99)

@@ -108,7 +108,8 @@ func checkDemoOut(out string) error {
 }
 
 // sameUnits refuses data whose state columns carry other units than the
-// model's or certificate's in file (names are compared by the libraries):
+// model's or certificate's in file (names are compared by the libraries),
+// naming the first data file, its header line and the column:
 // a certificate in deg and deg/s says nothing about logs in rad. A column
 // or a file without a unit is not compared.
 func sameUnits(file string, names, units []string, ds *ingest.Dataset) error {
@@ -117,8 +118,13 @@ func sameUnits(file string, names, units []string, ds *ingest.Dataset) error {
 			return nil // a name mismatch: the library says which
 		}
 		if c.Unit != "" && units[j] != "" && c.Unit != units[j] {
-			return &inputError{fmt.Errorf("%s: state %q is in %s in the data but in %s in %s; convert the logs or refit",
-				printable(file), printable(c.Name), printable(c.Unit), printable(units[j]), printable(file))}
+			// Every file of ds has the same units: the first one is named.
+			data := "the data"
+			if len(ds.Runs) > 0 && ds.Runs[0].Source.File != "" {
+				data = ds.Runs[0].Source.File
+			}
+			return &inputError{fmt.Errorf("%s:1: column %q: in %s in the data but in %s in %s; convert the logs or refit",
+				printable(data), printable(c.Name), printable(c.Unit), printable(units[j]), printable(file))}
 		}
 	}
 	return nil

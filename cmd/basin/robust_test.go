@@ -295,7 +295,7 @@ func TestUnitsAndCopies(t *testing.T) {
 	os.Mkdir(deg, 0o755)
 	os.WriteFile(filepath.Join(deg, "run-01.csv"), []byte(strings.Replace(string(src), "[rad]", "[deg]", 1)), 0o644)
 	code, msg := run1(t, "check", "--cert", cert, deg)
-	if code != 2 || !strings.Contains(msg, `state "theta" is in deg in the data but in rad`) {
+	if code != 2 || !strings.Contains(msg, `run-01.csv:1: column "theta": in deg in the data but in rad`) {
 		t.Errorf("check on logs in deg: exit %d %q", code, msg)
 	}
 	cp := filepath.Join(dir, "copies")
