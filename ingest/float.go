@@ -61,21 +61,32 @@ func scanFast(b []byte) (f float64, n int, ok bool) {
 	}
 	var mant uint64
 	start := i
-	for i+8 <= len(b) {
-		x := binary.LittleEndian.Uint64(b[i:])
-		if !eightDigits(x) {
-			break
-		}
-		mant = mant*100000000 + eightValue(x)
-		i += 8
-	}
-	for i < len(b) {
+	// the integer part: most often short, so byte by byte first
+	for i < len(b) && i-start < 8 {
 		c := b[i] - '0'
 		if c > 9 {
 			break
 		}
 		mant = mant*10 + uint64(c)
 		i++
+	}
+	if i-start == 8 { // a long one: on 8 at a time
+		for i+8 <= len(b) {
+			x := binary.LittleEndian.Uint64(b[i:])
+			if !eightDigits(x) {
+				break
+			}
+			mant = mant*100000000 + eightValue(x)
+			i += 8
+		}
+		for i < len(b) {
+			c := b[i] - '0'
+			if c > 9 {
+				break
+			}
+			mant = mant*10 + uint64(c)
+			i++
+		}
 	}
 	digits := i - start
 	exp := 0
