@@ -563,74 +563,103 @@ const wavePerWorker = 4
 // parallel reads r in blocks after the first one (rest, starting on line)
 // and parses them in waves: a wave's blocks are read, then parsed on the
 // workers of [parallel.For] straight into the table (see
-// [csvParser.parseBlocks]). The read buffers are reused from wave to wave.
+// [csvParser.parseBlocks]), while the next wave is read (into the other
+// of two sets of read buffers, each reused every other wave).
 func (p *csvParser) parallel(r io.Reader, rest []byte, line int) error {
 	wave := wavePerWorker * parallel.Workers(0)
-	ring := make([][]byte, wave) // read buffers; block k of a wave uses ring[k]
-	cs := make([]*chunk, 0, wave)
-	carry := rest // the partial line after the last block
-	for {
-		cs = cs[:0]
-		var pending error // a read or line-length error, after the blocks before it
-		eof := false
-		for len(cs) < wave && !eof && pending == nil {
-			buf := ring[len(cs)]
-			if buf == nil {
-				buf = make([]byte, 0, blockSize+blockSize/4)
-			}
-			buf = append(buf[:0], carry...) // carry is in another buffer of the ring (or rest)
-			for {
-				if cap(buf)-len(buf) < blockSize/2 {
-					nb := make([]byte, len(buf), 2*cap(buf))
-					copy(nb, buf)
-					buf = nb
-				}
-				n, err := io.ReadFull(r, buf[len(buf):cap(buf)])
-				buf = buf[:len(buf)+n]
-				eof = errors.Is(err, io.EOF) || errors.Is(err, io.ErrUnexpectedEOF)
-				if err != nil && !eof {
-					pending = err
-					break
-				}
-				if eof || bytes.LastIndexByte(buf, '\n') >= 0 {
-					break
-				}
-				if len(buf) > MaxLineLength {
-					pending = &ParseError{File: p.lay.file, Line: line,
-						Err: fmt.Errorf("%w: line %d longer than the limit of %d bytes", ErrFormat, line, MaxLineLength)}
-					break
-				}
-				// a line longer than the buffer: grow and read on
-			}
-			if pending != nil {
-				break
-			}
-			cut := len(buf)
-			if !eof {
-				cut = bytes.LastIndexByte(buf, '\n') + 1
-			}
-			if cap(buf) <= blockSize+blockSize/4 {
-				ring[len(cs)] = buf // keep it for the next wave; a grown one is let go
-			}
-			c := &chunk{data: buf[:cut], line: line}
-			line += bytes.Count(c.data, []byte{'\n'})
-			cs = append(cs, c)
-			carry = buf[cut:]
+	rings := [2][][]byte{make([][]byte, wave), make([][]byte, wave)}
+	cur := p.readWave(r, rings[0], rest, line)
+	for k := 1; ; k++ {
+		var next csvWave
+		var done chan struct{}
+		if cur.pending == nil && !cur.eof {
+			done = make(chan struct{})
+			go func() {
+				defer close(done)
+				next = p.readWave(r, rings[k%2], cur.carry, cur.line)
+			}()
 		}
-		if err := p.parseBlocks(cs); err != nil {
+		err := p.parseBlocks(cur.cs)
+		if done != nil {
+			<-done
+		}
+		switch {
+		case err != nil:
 			return err
-		}
-		if pending != nil {
-			return pending
-		}
-		if eof {
+		case cur.pending != nil:
+			return cur.pending
+		case cur.eof:
 			return nil
 		}
-		// the next wave reuses ring[0] first: keep the carry out of it
-		if len(cs) == 1 {
-			carry = append([]byte(nil), carry...)
-		}
+		cur = next
 	}
+}
+
+// csvWave is one wave of blocks read by [csvParser.readWave].
+type csvWave struct {
+	cs      []*chunk
+	pending error  // a read or line-length error, after the blocks before it
+	eof     bool   // r is read to its end
+	carry   []byte // the partial line after the last block (in ring)
+	line    int    // the line number of carry's line
+}
+
+// readWave reads up to len(ring) blocks of whole lines from r, the first
+// one starting with carry (the partial line left by the wave before, on
+// line), block k in ring[k] (kept there unless it had to grow for a long
+// line). carry must not lie in ring. A panic of r is returned as an error.
+func (p *csvParser) readWave(r io.Reader, ring [][]byte, carry []byte, line int) (w csvWave) {
+	defer func() {
+		if v := recover(); v != nil {
+			w.pending = fmt.Errorf("reading %s: internal error: %v", p.lay.file, v)
+		}
+	}()
+	for len(w.cs) < len(ring) && !w.eof && w.pending == nil {
+		buf := ring[len(w.cs)]
+		if buf == nil {
+			buf = make([]byte, 0, blockSize+blockSize/4)
+		}
+		buf = append(buf[:0], carry...) // carry is in another buffer (or rest)
+		for {
+			if cap(buf)-len(buf) < blockSize/2 {
+				nb := make([]byte, len(buf), 2*cap(buf))
+				copy(nb, buf)
+				buf = nb
+			}
+			n, err := io.ReadFull(r, buf[len(buf):cap(buf)])
+			buf = buf[:len(buf)+n]
+			w.eof = errors.Is(err, io.EOF) || errors.Is(err, io.ErrUnexpectedEOF)
+			if err != nil && !w.eof {
+				w.pending = err
+				break
+			}
+			if w.eof || bytes.LastIndexByte(buf, '\n') >= 0 {
+				break
+			}
+			if len(buf) > MaxLineLength {
+				w.pending = &ParseError{File: p.lay.file, Line: line,
+					Err: fmt.Errorf("%w: line %d longer than the limit of %d bytes", ErrFormat, line, MaxLineLength)}
+				break
+			}
+			// a line longer than the buffer: grow and read on
+		}
+		if w.pending != nil {
+			break
+		}
+		cut := len(buf)
+		if !w.eof {
+			cut = bytes.LastIndexByte(buf, '\n') + 1
+		}
+		if cap(buf) <= blockSize+blockSize/4 {
+			ring[len(w.cs)] = buf // kept for the wave after next; a grown one is let go
+		}
+		c := &chunk{data: buf[:cut], line: line}
+		line += bytes.Count(c.data, []byte{'\n'})
+		w.cs = append(w.cs, c)
+		carry = buf[cut:]
+	}
+	w.carry, w.line = carry, line
+	return w
 }
 
 // parseBlocks parses consecutive blocks into the table. Each block's rows
