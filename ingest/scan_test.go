@@ -264,3 +264,40 @@ func TestReadCSVWaves(t *testing.T) {
 		}
 	}
 }
+
+// failingReader gives n bytes of rows, then err.
+type failingReader struct {
+	n   int
+	err error
+	row []byte
+	off int
+}
+
+func (f *failingReader) Read(b []byte) (int, error) {
+	if f.n <= 0 {
+		return 0, f.err
+	}
+	k := 0
+	for k < len(b) && f.n > 0 {
+		b[k] = f.row[f.off]
+		f.off = (f.off + 1) % len(f.row)
+		k++
+		f.n--
+	}
+	return k, nil
+}
+
+// TestReadCSVReadError: a read error in the first block, in the first
+// wave and many waves in is returned as it is (the blocks read ahead of
+// it notwithstanding), with nothing else.
+func TestReadCSVReadError(t *testing.T) {
+	gone := errors.New("device gone")
+	row := []byte("1.5,-0.25,3e-3\n")
+	for _, n := range []int{1000, 3 << 20, 40 << 20} {
+		r := &failingReader{n: n, err: gone, row: row}
+		_, err := readCSVTable(io.MultiReader(strings.NewReader("t,a,b\n"), r), "r.csv", &Options{})
+		if !errors.Is(err, gone) {
+			t.Errorf("error after %d bytes: %v, want %v", n, err, gone)
+		}
+	}
+}
