@@ -254,6 +254,13 @@ func TestInterrupt(t *testing.T) {
 			}
 			exited := make(chan error, 1)
 			go func() { exited <- cmd.Wait() }()
+			if !tc.stdin {
+				// Count tc.after from the first log file opened, not
+				// from the start: on a loaded machine (and under -race)
+				// the process can take longer than tc.after to reach
+				// main, and a SIGINT before main's handler kills it.
+				waitOpens(cmd.Process.Pid, data, 10*time.Second)
+			}
 			select {
 			case err := <-exited:
 				t.Fatalf("finished before the interrupt (%v): the data set is too small; stderr %s", err, e.String())
@@ -291,6 +298,27 @@ func TestInterrupt(t *testing.T) {
 				}
 			}
 		})
+	}
+}
+
+// waitOpens waits until process pid has a file under dir open (read
+// from /proc/PID/fd), or until timeout; where /proc is missing it
+// returns at once.
+func waitOpens(pid int, dir string, timeout time.Duration) {
+	if _, err := os.Stat("/proc/self/fd"); err != nil {
+		return
+	}
+	fds := fmt.Sprintf("/proc/%d/fd", pid)
+	for end := time.Now().Add(timeout); time.Now().Before(end); time.Sleep(2 * time.Millisecond) {
+		es, err := os.ReadDir(fds)
+		if err != nil {
+			return // the process has ended
+		}
+		for _, e := range es {
+			if l, err := os.Readlink(filepath.Join(fds, e.Name())); err == nil && strings.HasPrefix(l, dir+string(filepath.Separator)) {
+				return
+			}
+		}
 	}
 }
 
