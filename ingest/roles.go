@@ -87,6 +87,12 @@ func assignRoles(file string, cols []Column, opts *Options) (*roles, error) {
 	if ti < 0 && !(opts.Rate > 0) {
 		return nil, &ParseError{File: file, Err: ErrNoTime}
 	}
+	if ti >= 0 && opts.Rate > 0 {
+		// Both say when the samples were taken: one would be ignored
+		// without a word, and they need not agree.
+		return nil, &ParseError{File: file, Line: 1, Column: ti + 1, Name: cols[ti].Name,
+			Err: fmt.Errorf("%w: Options.Rate %g is given, but this is a time column; leave out one of the two", ErrFormat, opts.Rate)}
+	}
 	if ti >= 0 {
 		r.role[ti] = roleTime
 		r.timeCol, r.timeIdx = cols[ti], ti+1

@@ -164,3 +164,55 @@ func TestInputsParquet(t *testing.T) {
 		t.Fatalf("runs %+v", ds.Runs)
 	}
 }
+
+// TestRateWithTimeColumn: a rate and a time column both say when the
+// samples were taken; given both, the read is refused naming the time
+// column (the rate was ignored without a word before), in CSV and in
+// Parquet alike. A rate without a time column still reads.
+func TestRateWithTimeColumn(t *testing.T) {
+	for _, tc := range []struct {
+		name string
+		in   string
+		opts *Options
+		want string // the whole message; "" means no error
+	}{
+		{"time column found by name", "time [s],a\n0,1\n0.01,2\n", &Options{Rate: 100}, `r.csv:1:1: column "time": not a readable log file: Options.Rate 100 is given, but this is a time column; leave out one of the two`},
+		{"time column named", "a,clock [s]\n1,0\n2,0.01\n", &Options{Rate: 100, TimeCol: "clock"}, `r.csv:1:2: column "clock": not a readable log file: Options.Rate 100 is given, but this is a time column; leave out one of the two`},
+		{"no time column", "a,b\n1,2\n2,3\n", &Options{Rate: 100}, ""},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			ds, err := ReadCSV(strings.NewReader(tc.in), "r.csv", tc.opts)
+			switch {
+			case tc.want == "" && err != nil:
+				t.Fatal(err)
+			case tc.want == "":
+				if got := ds.Runs[0].T; !slices.Equal(got, []float64{0, 0.01}) {
+					t.Errorf("times %v, want [0 0.01]", got)
+				}
+			case err == nil || !errors.Is(err, ErrFormat) || err.Error() != tc.want:
+				t.Errorf("err = %v, want %s", err, tc.want)
+			}
+		})
+	}
+}
+
+// TestRateWithTimeColumnParquet: the same refusal for a Parquet file.
+func TestRateWithTimeColumnParquet(t *testing.T) {
+	mem := memory.NewGoAllocator()
+	sc := arrow.NewSchema([]arrow.Field{
+		{Name: "t [s]", Type: arrow.PrimitiveTypes.Float64},
+		{Name: "disp [mm]", Type: arrow.PrimitiveTypes.Float64},
+	}, nil)
+	b := array.NewRecordBuilder(mem, sc)
+	defer b.Release()
+	b.Field(0).(*array.Float64Builder).AppendValues([]float64{0, 1, 2}, nil)
+	b.Field(1).(*array.Float64Builder).AppendValues([]float64{4, 5, 6}, nil)
+	rec := b.NewRecord()
+	defer rec.Release()
+	path := filepath.Join(t.TempDir(), "rig.parquet")
+	writeArrowParquet(t, path, rec, 1)
+	_, err := ReadParquet(context.Background(), path, &Options{Rate: 100})
+	if want := path + `:1:1: column "t": not a readable log file: Options.Rate 100 is given, but this is a time column; leave out one of the two`; err == nil || !errors.Is(err, ErrFormat) || err.Error() != want {
+		t.Errorf("err = %v, want %s", err, want)
+	}
+}

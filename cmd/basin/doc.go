@@ -30,6 +30,7 @@ Every command that reads logs takes:
 	--time-col NAME     the time column (default: the first named t, time,
 	                    timestamp or time_s, any case, without its unit)
 	--rate HZ           no time column: the rows are evenly sampled at HZ
+	                    (a file with a time column and --rate: exit 2)
 	--run-col NAME      split each file into runs by the value of NAME
 	--states a,b,c      the state columns (default: every numeric column
 	                    other than time, run and inputs)
