@@ -21,7 +21,9 @@ error (one line on stderr naming the file, line and column where there is
 one; nothing written); 3 internal failure. Human text goes to stdout,
 progress and warnings to stderr (progress only on a terminal: the stage,
 and on long work a bar with the share done and the time left); --quiet
-silences both and --json prints the machine-readable result on stdout.
+silences both (fit, certify and run then print nothing at all: their
+results are the files they write, run's summary in summary.txt) and --json
+prints the machine-readable result on stdout.
 
 # Reading logs
 
