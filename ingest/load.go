@@ -157,7 +157,7 @@ func Load(ctx context.Context, paths []string, opts *Options) (*Dataset, error) 
 		}
 	}
 	if man != nil {
-		if err := applyManifest(out, man, opts.Manifest); err != nil {
+		if err := applyManifest(out, man, opts.Manifest, opts.RunCol); err != nil {
 			return nil, err
 		}
 	}

@@ -80,6 +80,8 @@ func TestLoadErrors(t *testing.T) {
 		"m4.csv":     "path,run,split\none.csv,one.csv,fit\none.csv,R9,holdout\n",
 		"long.csv":   "run,t,a\nA,0,1\nA,1,2\nB,0,3\nB,1,4\n",
 		"m5.csv":     "path,run,split\nlong.csv,A,holdout\nlong.csv,C,holdout\n",
+		"long2.csv":  "run,t,a\nA,0,1\nA,1,2\nB,2,3\nB,3,4\n",
+		"m6.csv":     "path,run,split\nlong2.csv,A,holdout\n",
 	})
 	p := func(n string) string { return filepath.Join(dir, n) }
 	for _, tc := range []struct {
@@ -97,7 +99,8 @@ func TestLoadErrors(t *testing.T) {
 		{"manifest names a missing file", []string{p("one.csv")}, &Options{Manifest: p("m1.csv")}, ErrManifest, p("m1.csv") + `:2: column "path": bad manifest entry: ` + p("nowhere.csv") + ": no such file or directory"},
 		{"manifest bad split", []string{p("one.csv")}, &Options{Manifest: p("m2.csv")}, ErrManifest, p("m2.csv") + `:2: column "split": bad manifest entry: split "test" (want fit, holdout or empty)`},
 		{"manifest bad header", []string{p("one.csv")}, &Options{Manifest: p("m3.csv")}, ErrManifest, ""},
-		{"manifest names no run of its file", []string{p("one.csv")}, &Options{Manifest: p("m4.csv")}, ErrManifest, p("m4.csv") + `:3: column "run": bad manifest entry: no run "R9" in ` + p("one.csv")},
+		{"manifest names no run of its file", []string{p("one.csv")}, &Options{Manifest: p("m4.csv")}, ErrManifest, p("m4.csv") + `:3: column "run": bad manifest entry: no run "R9" in ` + p("one.csv") + ` (without Options.RunCol the file is one run, "one.csv")`},
+		{"manifest names run values, no run column", []string{p("long2.csv")}, &Options{Manifest: p("m6.csv")}, ErrManifest, p("m6.csv") + `:2: column "run": bad manifest entry: no run "A" in ` + p("long2.csv") + ` (without Options.RunCol the file is one run, "long2.csv")`},
 		{"manifest names no run value of a long file", []string{p("long.csv")}, &Options{Manifest: p("m5.csv"), RunCol: "run"}, ErrManifest, p("m5.csv") + `:3: column "run": bad manifest entry: no run "C" in ` + p("long.csv")},
 		{"stdin twice", []string{"-", "-"}, nil, ErrFormat, ""},
 	} {

@@ -102,7 +102,7 @@ func ReadManifest(path string) ([]ManifestEntry, error) {
 // otherwise leave the run in the automatic split without a word), unless
 // the time window left whole recordings out (the run may be one of them).
 // Entries whose file is not among the inputs read are left alone.
-func applyManifest(ds *Dataset, es []ManifestEntry, manifest string) error {
+func applyManifest(ds *Dataset, es []ManifestEntry, manifest string, runCol string) error {
 	abs := func(p string) string {
 		if a, err := filepath.Abs(p); err == nil {
 			return a
@@ -115,8 +115,12 @@ func applyManifest(ds *Dataset, es []ManifestEntry, manifest string) error {
 		byFile[k] = append(byFile[k], i)
 	}
 	matched := make([]bool, len(es))
+	first := map[string]string{} // a file's first run's name
 	for i := range ds.Runs {
 		r := &ds.Runs[i]
+		if k := abs(r.Source.File); first[k] == "" {
+			first[k] = r.Name
+		}
 		name := r.Name
 		if k := strings.LastIndexByte(name, '~'); k >= 0 {
 			name = name[:k]
@@ -141,8 +145,13 @@ func applyManifest(ds *Dataset, es []ManifestEntry, manifest string) error {
 	}
 	for k, e := range es {
 		if !matched[k] && e.Run != "" && read[abs(e.Path)] {
+			hint := ""
+			if n := first[abs(e.Path)]; runCol == "" && n != "" {
+				// a long-format file read without its run column
+				hint = fmt.Sprintf(" (without Options.RunCol the file is one run, %q)", n)
+			}
 			return &ParseError{File: manifest, Line: e.Line, Name: "run",
-				Err: fmt.Errorf("%w: no run %q in %s", ErrManifest, e.Run, pathText(e.Path))}
+				Err: fmt.Errorf("%w: no run %q in %s%s", ErrManifest, e.Run, pathText(e.Path), hint)}
 		}
 	}
 	return nil
