@@ -109,7 +109,7 @@ func fitModel(ctx context.Context, ds *ingest.Dataset, opts *fit.FieldOptions) (
 	}
 	m, err := fit.Field(ctx, fitRuns(ds), opts)
 	if err != nil {
-		return nil, classify(err, "")
+		return nil, classify(levelsHint(err, ds, opts.Degree), "")
 	}
 	return m, nil
 }

@@ -217,7 +217,7 @@ func runRun(ctx context.Context, e *env, args []string) error {
 	opts.Progress = prog.Share
 	all, skips, err := validate.EvaluateAll(ctx, ds, opts)
 	if err != nil {
-		return classify(err, "")
+		return classify(levelsHint(err, ds, c.Degree), "")
 	}
 	for _, a := range all {
 		if c := a.Result.Certificate; c != nil {
