@@ -294,6 +294,16 @@ func dropShortPieces(ds *Dataset, minLen int) {
 	}
 }
 
+// timesText writes a multiple of the noise as a whole number up to a
+// million and with three significant digits beyond (a spike of 1e300 in
+// a logger's overflow value would otherwise print 300 digits).
+func timesText(x float64) string {
+	if x < 1e6 {
+		return fmt.Sprintf("%.0f", x)
+	}
+	return fmt.Sprintf("%.3g", x)
+}
+
 // warnEvents sums up the events and resting heads in one warning line
 // each.
 func warnEvents(ds *Dataset) {
@@ -311,7 +321,7 @@ func warnEvents(ds *Dataset) {
 		}
 		far := "in data with no noise"
 		if ev.Sigmas > 0 {
-			far = fmt.Sprintf("%.0f times the noise", ev.Sigmas)
+			far = fmt.Sprintf("%s times the noise", timesText(ev.Sigmas))
 		}
 		if ev.Kind == EventKink {
 			unit += "/s"

@@ -216,3 +216,18 @@ func TestRateWithTimeColumnParquet(t *testing.T) {
 		t.Errorf("err = %v, want %s", err, want)
 	}
 }
+
+// TestTimesText: the noise multiple of an event's warning stays short
+// whatever the spike (written out by hand; common practice).
+func TestTimesText(t *testing.T) {
+	for _, tc := range []struct {
+		x    float64
+		want string
+	}{
+		{8, "8"}, {12.6, "13"}, {999999, "999999"}, {1e6, "1e+06"}, {5.78e301, "5.78e+301"},
+	} {
+		if got := timesText(tc.x); got != tc.want {
+			t.Errorf("timesText(%g) = %q, want %q", tc.x, got, tc.want)
+		}
+	}
+}
