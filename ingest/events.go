@@ -147,15 +147,58 @@ func jumpStat(dst, x, t []float64) []float64 {
 // index-based statistic gave the slope times the step's departure from
 // its neighbours' mean: on a logger whose clock jitters by 30 % the fast
 // start of a run looked like a jump.
+//
+// Steps that agree within a relative [evenStepTol] count as equal.
 func jumpAt(x0, x1, x2, x3, t0, t1, t2, t3 float64) float64 {
+	c := clockCoef(t0, t1, t2, t3)
+	return c.jump(x0, x1, x2, x3)
+}
+
+// evenStepTol is the relative difference below which three time steps
+// count as equal for the jump statistic. Times logged as i·dt, or read
+// from decimal text, give steps that differ in their last bits (0.03 -
+// 0.02 is 0.009999999999999998); taken as uneven they would cost every
+// sample two divisions and a square root for a change of the statistic
+// near 1e-16 of a step. At 1e-9 the plain formula's error is at most a
+// billionth of the step's slope term, far below any logged noise, and a
+// clock that jitters at all (even by a microsecond in a millisecond) is
+// still uneven.
+const evenStepTol = 1e-9
+
+// evenSteps reports whether the steps h1, h2, h3 are equal within
+// evenStepTol of h2.
+func evenSteps(h1, h2, h3 float64) bool {
+	tol := evenStepTol * h2
+	return math.Abs(h1-h2) <= tol && math.Abs(h3-h2) <= tol
+}
+
+// jumpCoef is the part of [jumpAt] that depends on the clock only, for
+// one sample: jump gives jumpAt's value from the four values, without the
+// divisions and square root for each state.
+type jumpCoef struct {
+	even     bool
+	a, b, sc float64
+}
+
+// clockCoef returns the coefficients of the sample at t2 of the samples
+// at times t0 .. t3.
+func clockCoef(t0, t1, t2, t3 float64) jumpCoef {
 	h1, h2, h3 := t1-t0, t2-t1, t3-t2
-	if h1 == h2 && h2 == h3 {
-		return 1.5*(x2-x1) + 0.5*(x0-x3)
+	if evenSteps(h1, h2, h3) {
+		return jumpCoef{even: true}
 	}
 	a, b := h2/h1, h2/h3
-	s := (x2 - x1) - 0.5*(a*(x1-x0)+b*(x3-x2))
 	v := (1+b/2)*(1+b/2) + (1+a/2)*(1+a/2) + (a*a+b*b)/4
-	return s * math.Sqrt(5/v)
+	return jumpCoef{a: a, b: b, sc: math.Sqrt(5 / v)}
+}
+
+// jump is the jump statistic of the values x0 .. x3 on c's clock.
+func (c *jumpCoef) jump(x0, x1, x2, x3 float64) float64 {
+	if c.even {
+		return 1.5*(x2-x1) + 0.5*(x0-x3)
+	}
+	s := (x2 - x1) - 0.5*(c.a*(x1-x0)+c.b*(x3-x2))
+	return s * c.sc
 }
 
 // stepSize is the size of a step at sample i of x, sampled at t, whose
@@ -163,7 +206,7 @@ func jumpAt(x0, x1, x2, x3, t0, t1, t2, t3 float64) float64 {
 // [jumpAt]), so that a step of J gives J on any clock.
 func stepSize(s float64, x, t []float64, i int) float64 {
 	h1, h2, h3 := t[i-1]-t[i-2], t[i]-t[i-1], t[i+1]-t[i]
-	if h1 == h2 && h2 == h3 {
+	if evenSteps(h1, h2, h3) {
 		return s
 	}
 	a, b := h2/h1, h2/h3
@@ -437,14 +480,12 @@ func (c *clockCoefs) set(t []float64) {
 	c.b = slices.Grow(c.b[:0], n)[:n]
 	c.sc = slices.Grow(c.sc[:0], n)[:n]
 	for i := 2; i < n-1; i++ {
-		h1, h2, h3 := t[i-1]-t[i-2], t[i]-t[i-1], t[i+1]-t[i]
-		if h1 == h2 && h2 == h3 {
+		k := clockCoef(t[i-2], t[i-1], t[i], t[i+1])
+		if k.even {
 			c.sc[i] = -1
 			continue
 		}
-		a, b := h2/h1, h2/h3
-		v := (1+b/2)*(1+b/2) + (1+a/2)*(1+a/2) + (a*a+b*b)/4
-		c.a[i], c.b[i], c.sc[i] = a, b, math.Sqrt(5/v)
+		c.a[i], c.b[i], c.sc[i] = k.a, k.b, k.sc
 	}
 }
 

@@ -110,3 +110,31 @@ func TestJumpUnevenClock(t *testing.T) {
 		})
 	}
 }
+
+// TestEvenSteps: steps of decimal times and of i·dt count as even (they
+// differ in their last bits only); a microsecond of jitter in a
+// millisecond step does not.
+func TestEvenSteps(t *testing.T) {
+	for _, tc := range []struct {
+		name       string
+		t0, t1, t2 float64
+		t3         float64
+		even       bool
+	}{
+		{"decimal text", 0.01, 0.02, 0.03, 0.04, true},
+		{"i times dt", 7 * 0.1, 8 * 0.1, 9 * 0.1, 10 * 0.1, true},
+		{"exact", 0, 1, 2, 3, true},
+		{"1 us jitter in 1 ms", 0, 0.001, 0.002001, 0.003, false},
+		{"30 % jitter", 0, 0.05, 0.115, 0.16, false},
+	} {
+		h1, h2, h3 := tc.t1-tc.t0, tc.t2-tc.t1, tc.t3-tc.t2
+		if got := evenSteps(h1, h2, h3); got != tc.even {
+			t.Errorf("%s: steps %v %v %v even %v, want %v", tc.name, h1, h2, h3, got, tc.even)
+		}
+	}
+	// an even clock's statistic is the plain formula's
+	x := []float64{0.3, -1.2, 2.5, 0.7}
+	if got, want := jumpAt(x[0], x[1], x[2], x[3], 0.01, 0.02, 0.03, 0.04), 1.5*(x[2]-x[1])+0.5*(x[0]-x[3]); got != want {
+		t.Errorf("jumpAt on decimal times %v, want the plain %v", got, want)
+	}
+}

@@ -1046,35 +1046,6 @@ func (ed *evDetector) advance() error {
 	return nil
 }
 
-// jumpCoef is the part of [jumpAt] that depends on the clock only, for
-// one sample: jump gives jumpAt's value, to the bit, from the four
-// values (the same operations in the same order), without its divisions
-// and square root for each state.
-type jumpCoef struct {
-	even     bool
-	a, b, sc float64
-}
-
-// clockCoef returns the coefficients of the sample at t2 of the samples
-// at times t0 .. t3.
-func clockCoef(t0, t1, t2, t3 float64) jumpCoef {
-	h1, h2, h3 := t1-t0, t2-t1, t3-t2
-	if h1 == h2 && h2 == h3 {
-		return jumpCoef{even: true}
-	}
-	a, b := h2/h1, h2/h3
-	v := (1+b/2)*(1+b/2) + (1+a/2)*(1+a/2) + (a*a+b*b)/4
-	return jumpCoef{a: a, b: b, sc: math.Sqrt(5 / v)}
-}
-
-func (c *jumpCoef) jump(x0, x1, x2, x3 float64) float64 {
-	if c.even {
-		return 1.5*(x2-x1) + 0.5*(x0-x3)
-	}
-	s := (x2 - x1) - 0.5*(c.a*(x1-x0)+c.b*(x3-x2))
-	return s * c.sc
-}
-
 // dtHist counts time steps by the top 12 bits of their mantissa (and
 // their exponent): enough to bracket their median within a relative
 // 2^-12 without holding them.
