@@ -110,38 +110,6 @@ func TestScaleOf(t *testing.T) {
 	}
 }
 
-// TestSelectKth checks every rank of small random arrays with ties
-// against the standard library's sort (sort.Float64s), and the
-// partition left behind.
-func TestSelectKth(t *testing.T) {
-	rng := rand.New(rand.NewPCG(7, 7))
-	for _, n := range []int{1, 2, 15, 16, 17, 40, 257} {
-		for rep := range 20 {
-			v := make([]float64, n)
-			for i := range v {
-				v[i] = float64(rng.IntN(n/2 + 1)) // ties
-				if rep%2 == 1 {
-					v[i] = rng.NormFloat64()
-				}
-			}
-			sorted := append([]float64(nil), v...)
-			sort.Float64s(sorted)
-			for k := range n {
-				a := append([]float64(nil), v...)
-				got := selectKth(a, k)
-				if got != sorted[k] {
-					t.Fatalf("n=%d k=%d: %v, want %v", n, k, got, sorted[k])
-				}
-				for i, x := range a {
-					if (i < k && x > got) || (i > k && x < got) {
-						t.Fatalf("n=%d k=%d: a[%d] = %v on the wrong side of %v", n, k, i, x, got)
-					}
-				}
-			}
-		}
-	}
-}
-
 // TestClockCoef checks that the event ring's split of the jump statistic
 // (the clock's coefficients once per sample, then the values per state)
 // gives jumpAt's value to the bit, on even, jittered and rounded clocks:
