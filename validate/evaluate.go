@@ -343,6 +343,11 @@ func Decide(cert *fit.Certificate, val *fit.Validation, runs []RunScreen, eig []
 	cert.Validation = val
 }
 
+// growthSE is how many standard errors below zero the held-out runs'
+// mean decay rate must lie for V to be said to trend up (about a one-sided
+// 5% level for a handful of runs under a normal model; common practice).
+const growthSE = 2
+
 func decide(cert *fit.Certificate, val *fit.Validation, runs []RunScreen, eig [][2]float64, o Options) (fit.Verdict, fit.Strength, fit.ReasonKind, string) {
 	lin, top := classify(eig, o.LinearTol)
 	if eig == nil {
@@ -425,6 +430,35 @@ func decide(cert *fit.Certificate, val *fit.Validation, runs []RunScreen, eig []
 	for _, r := range runs {
 		if r.EverInside && r.VEnd-r.vEnter > tol {
 			return fit.Inconclusive, fit.NoClaim, fit.ReasonHeldoutRise, fmt.Sprintf("V rose along held-out run %s from %.4g where it entered the region to %.4g at its end (tolerance %.3g): growth, not stability. Record longer runs to tell.", r.Run, r.vEnter, r.VEnd, tol)
+		}
+	}
+	// Nor may V trend up along the runs: a slowly growing oscillation
+	// rises by less than the tolerance over a run, but its decay rate
+	// (minus the slope of log V over many samples) is below zero on most
+	// of them, with their mean more than two standard errors below zero;
+	// a stable one's scatter about zero or above.
+	var rates []float64
+	for _, r := range runs {
+		if r.EverInside && r.DecaySamples > 0 {
+			rates = append(rates, r.DecayRate)
+		}
+	}
+	if n := len(rates); n >= 3 {
+		neg, mean := 0, 0.0
+		for _, x := range rates {
+			if x < 0 {
+				neg++
+			}
+			mean += x / float64(n)
+		}
+		ss := 0.0
+		for _, x := range rates {
+			ss += (x - mean) * (x - mean)
+		}
+		se := math.Sqrt(ss / float64(n-1) / float64(n))
+		if 2*neg > n && mean+growthSE*se < 0 {
+			slices.Sort(rates)
+			return fit.Inconclusive, fit.NoClaim, fit.ReasonHeldoutRise, fmt.Sprintf("V trends up along %d of the %d held-out runs that entered the region (mean decay rate %.3g ± %.2g 1/s, below zero): slow growth cannot be told from stability. Record longer runs to tell.", neg, n, mean, se)
 		}
 	}
 	why := "not all settled"

@@ -2,9 +2,12 @@ package validate
 
 import (
 	"context"
+	"fmt"
 	"math"
 	"strings"
 	"testing"
+
+	"gonum.org/v1/gonum/floats/scalar"
 
 	"basin.example/fit"
 	"basin.example/ingest"
@@ -167,5 +170,56 @@ func TestEvaluateAllFolds(t *testing.T) {
 	}
 	if held != 6 || len(res.Runs) != 6 {
 		t.Errorf("held out %d runs, %d checked; want 6 of 24", held, len(res.Runs))
+	}
+}
+
+// TestDecideSlowGrowth: with a marginal linearisation (V fitted only not
+// to rise), held-out runs whose amplitude grows by 10% over their length
+// rise by less than the tolerance from entry to end, yet their decay rate
+// (minus the slope of log V, here -2g) is below zero on every run: not
+// certified. The same runs decaying at the same rate stay certified with
+// strength stable. For z = a e^{g t}(cos, sin), V = a^2 e^{2 g t}, so the
+// decay rate is -2g exactly (textbook: the envelope of a linear
+// oscillator with modal damping -g; common practice).
+func TestDecideSlowGrowth(t *testing.T) {
+	marginal := [][2]float64{{0, 2}, {0, -2}}
+	for _, tc := range []struct {
+		name     string
+		g        float64 // amplitude growth rate, 1/s
+		verdict  fit.Verdict
+		strength fit.Strength
+	}{
+		{"slowly growing", 0.02, fit.Inconclusive, fit.NoClaim},
+		{"slowly decaying", -0.02, fit.Certified, fit.Stable},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			c := circleCert(false)
+			c.NonRise = true
+			ds := &ingest.Dataset{States: []ingest.Column{{Name: "a"}, {Name: "b"}}}
+			for i := 0; i < 4; i++ {
+				ph := float64(i)
+				ds.Runs = append(ds.Runs, makeRun(fmt.Sprintf("r%d", i), 500, 0.01, func(t float64) (float64, float64) {
+					a := 0.5 * math.Exp(tc.g*t)
+					return a * math.Cos(2*t+ph), a * math.Sin(2*t+ph)
+				}))
+			}
+			// A rise of V from entry to end of 0.25*(e^{0.2}-1) = 0.055
+			// stays below this tolerance: the end-versus-entry test alone
+			// does not see the growth.
+			o := &Options{Tolerance: 0.2}
+			val, runs, err := Check(context.Background(), c, ds, o)
+			if err != nil {
+				t.Fatal(err)
+			}
+			for _, r := range runs {
+				if r.DecaySamples == 0 || !scalar.EqualWithinAbsOrRel(r.DecayRate, -2*tc.g, 1e-9, 1e-6) {
+					t.Fatalf("run %s: decay rate %g on %d samples, want %g", r.Run, r.DecayRate, r.DecaySamples, -2*tc.g)
+				}
+			}
+			Decide(c, val, runs, marginal, o)
+			if c.Verdict != tc.verdict || c.Strength != tc.strength {
+				t.Errorf("%s/%s: %s; want %s/%s", c.Verdict, c.Strength, c.Reason, tc.verdict, tc.strength)
+			}
+		})
 	}
 }
