@@ -298,6 +298,12 @@ func TestUnitsAndCopies(t *testing.T) {
 	if code != 2 || !strings.Contains(msg, `run-01.csv:1: column "theta": in deg in the data but in rad`) {
 		t.Errorf("check on logs in deg: exit %d %q", code, msg)
 	}
+	// screen refuses them the same way (it used to warn, then flag every
+	// run with distances of degrees read as radians)
+	code, msg = run1(t, "screen", "--cert", cert, deg)
+	if code != 2 || !strings.Contains(msg, `run-01.csv:1: column "theta": in deg in the data but in rad in the certificate`) {
+		t.Errorf("screen on logs in deg: exit %d %q", code, msg)
+	}
 	cp := filepath.Join(dir, "copies")
 	os.Mkdir(cp, 0o755)
 	for _, n := range []string{"a.csv", "b.csv", "c.csv"} {

@@ -266,9 +266,6 @@ func runScreen(ctx context.Context, e *env, args []string) error {
 				}
 			}
 		}
-		for _, u := range rs.unitDiffs {
-			warnf(e, c.Quiet, "%s", u)
-		}
 	}
 	if cert.Verdict != fit.Certified {
 		warnf(e, c.Quiet, "%s: verdict is %s; screening against a region that claims nothing", c.Cert, cert.Verdict)
@@ -304,9 +301,8 @@ func asInputError(err error) error { return classify(err, "") }
 
 // fileResult is the screening of one file.
 type fileResult struct {
-	runs      []validate.RunScreen
-	unitDiffs []string
-	err       error
+	runs []validate.RunScreen
+	err  error
 }
 
 // screenFiles reads and screens files on up to workers goroutines (0: one
@@ -362,10 +358,12 @@ func screenOne(ctx context.Context, s *validate.Screener, st *ingest.Streamer, d
 	}
 	defer sf.Close()
 	var r fileResult
+	// A log in other units than the certificate's is refused, as check
+	// refuses it: V of degrees read as radians flags every run.
 	for j, col := range sf.States {
 		if j < len(cert.Units) && col.Unit != "" && cert.Units[j] != "" && col.Unit != cert.Units[j] {
-			r.unitDiffs = append(r.unitDiffs, fmt.Sprintf("%s: column %q has unit %q, the certificate %q",
-				file, col.Name, col.Unit, cert.Units[j]))
+			return fileResult{err: &inputError{fmt.Errorf("%s:1: column %q: in %s in the data but in %s in the certificate; convert the logs or refit",
+				printable(file), printable(col.Name), printable(col.Unit), printable(cert.Units[j]))}}
 		}
 	}
 	*dst, err = s.ScreenFile(ctx, *dst, sf)
