@@ -378,3 +378,30 @@ func TestSummaryConflict(t *testing.T) {
 		})
 	}
 }
+
+// TestNoEquilibriumLine: a model without an equilibrium in the data's box
+// (a state that drifts) is said to have none, naming the state whose rate
+// is farthest from zero at the settle point; a model with one says
+// nothing more. The rate is worked by hand: d(theta)/dt = 0.3 + omega at
+// omega = -0.1 is 0.2.
+func TestNoEquilibriumLine(t *testing.T) {
+	in := fixture(mustCert(fixtureCertJSON), nil)
+	var b strings.Builder
+	if err := Summary(&b, in); err != nil {
+		t.Fatal(err)
+	}
+	if strings.Contains(b.String(), "no equilibrium") {
+		t.Errorf("a model with an equilibrium is said to have none:\n%s", b.String())
+	}
+	in.Model.Equilibria = nil
+	in.Model.Spread = []float64{1, 1}
+	in.Model.Equations[0].Coefficients[0] = 0.3
+	b.Reset()
+	if err := Summary(&b, in); err != nil {
+		t.Fatal(err)
+	}
+	want := "  the fitted model has no equilibrium in the data's box: the point above is where the runs settle, and d(theta)/dt is 0.2 rad/s there"
+	if !strings.Contains(b.String(), want) {
+		t.Errorf("summary lacks %q:\n%s", want, b.String())
+	}
+}

@@ -33,6 +33,9 @@ func Summary(w io.Writer, in *Input) error {
 		fmt.Fprintf(&b, "  %s\n", line)
 	}
 	fmt.Fprintf(&b, "equilibrium: %s\n", statePoint(c, c.Equilibrium))
+	if line := noEquilibriumLine(in.Model, c.Equilibrium); line != "" {
+		fmt.Fprintf(&b, "  %s\n", line)
+	}
 	if m := in.Model; m != nil {
 		b.WriteString("model (original units):\n")
 		for i, e := range m.Equations {
@@ -457,4 +460,35 @@ func ConflictLine(c *fit.Certificate) string {
 		break
 	}
 	return line + "."
+}
+
+// noEquilibriumLine says, when the fitted model has no equilibrium in the
+// data's box (Model.Equilibria empty), that the point above is only where
+// the runs settle, and names the state whose rate is farthest from zero
+// there (as a share of its spread over the box): a state that drifts
+// steadily (a temperature that keeps rising) has no rest point, and the
+// certificate cannot claim one. Empty otherwise.
+func noEquilibriumLine(m *fit.Model, at []float64) string {
+	if m == nil || len(m.Equilibria) > 0 || len(at) != len(m.States) {
+		return ""
+	}
+	f := fit.NewFieldEvaluator(m).EvalTo(make([]float64, len(m.States)), at)
+	worst, share := -1, 0.0
+	for j, v := range f {
+		if j >= len(m.Spread) || !(m.Spread[j] > 0) {
+			continue
+		}
+		if s := math.Abs(v) / m.Spread[j]; s > share || worst < 0 {
+			worst, share = j, s
+		}
+	}
+	if worst < 0 {
+		return "the fitted model has no equilibrium in the data's box: the point above is where the runs settle, not a rest point of the model"
+	}
+	u := ""
+	if worst < len(m.Units) && m.Units[worst] != "" {
+		u = " " + m.Units[worst] + "/s"
+	}
+	return fmt.Sprintf("the fitted model has no equilibrium in the data's box: the point above is where the runs settle, and d(%s)/dt is %s%s there; a state that drifts has no rest point (leave it out with --states, or log it at rest)",
+		m.States[worst], human.Sig(f[worst], 3), u)
 }
