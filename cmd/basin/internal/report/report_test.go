@@ -405,3 +405,19 @@ func TestNoEquilibriumLine(t *testing.T) {
 		t.Errorf("summary lacks %q:\n%s", want, b.String())
 	}
 }
+
+// TestBoundTextNoRegion: with no held-out pair inside a region the bound
+// says there is nothing to bound, instead of "at most 100%".
+func TestBoundTextNoRegion(t *testing.T) {
+	for _, tc := range []struct {
+		v    fit.Validation
+		want string
+	}{
+		{fit.Validation{ViolationBound: 1, Confidence: 0.999999}, "none: no held-out sample lay inside a region, so there is nothing to bound"},
+		{fit.Validation{ViolationBound: 0.115, Confidence: 0.999999, Pairs: 4194, ScenarioSamples: 176}, "with confidence 99.9999%, a new sample inside the region breaks the decrease with probability at most 11.5% (from 176 effectively independent samples, 0 violations)"},
+	} {
+		if got := BoundText(&tc.v); got != tc.want {
+			t.Errorf("BoundText = %q, want %q", got, tc.want)
+		}
+	}
+}

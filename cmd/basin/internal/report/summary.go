@@ -297,6 +297,9 @@ func checkedRuns(v *fit.Validation) (int, string) {
 // boundText states the scenario bound as a probability with its
 // confidence and what it rests on.
 func boundText(v *fit.Validation) string {
+	if v.ScenarioSamples == 0 && v.Pairs == 0 {
+		return "none: no held-out sample lay inside a region, so there is nothing to bound"
+	}
 	s := fmt.Sprintf("with confidence %s, a new sample inside the region breaks the decrease with probability at most %s",
 		human.Confidence(v.Confidence), boundPercent(v.ViolationBound))
 	if v.ScenarioSamples > 0 {
