@@ -59,7 +59,8 @@ type RunSummary struct {
 	// Min and Max are per state, over the run.
 	Min, Max []float64
 	// Settled says whether every state's span over the last
-	// TailFraction of the run (at least 5 samples) is at most
+	// TailFraction of the run (at least 5 samples: a shorter run is
+	// not judged) is at most
 	// SettleSpread times its span over the run. Settle holds, per state,
 	// the median over that tail; nil when not settled.
 	Settled bool
@@ -177,8 +178,11 @@ func rateJitter(dt []float64) (rate, jitter float64) {
 
 func settle(r *Run, lo, hi []float64) (bool, []float64) {
 	n := r.Len()
-	k := max(int(math.Ceil(TailFraction*float64(n))), minTail)
-	if k*2 > n { // the tail would be most of the run: no judgement
+	k := int(math.Ceil(TailFraction * float64(n)))
+	if k < minTail {
+		// too short to judge: its last minTail samples would be more than
+		// TailFraction of it (a 36-sample run still diverging passed a
+		// 5-sample tail check and made up a rest point)
 		return false, nil
 	}
 	pt := make([]float64, len(r.X))

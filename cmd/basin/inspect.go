@@ -25,8 +25,9 @@ var cmdInspect = &command{
 	Long: `Reads the logs and says what it found: per run and in total, samples,
 start and duration, median sampling rate and its jitter (interquartile
 range of the time steps over their median), gaps, per-column ranges and
-units, inputs, and the rest points the runs settle on: a run settles when
-its last 5% spans at most a tenth of its range, its settle point is the
+units, inputs, and the rest points the runs settle on: a run (of at least
+81 samples, so that its last 5% holds 5) settles when its last 5% spans
+at most a tenth of its range, its settle point is the
 median of that tail, and settle points within a tenth of each state's
 range over all runs are one rest point, reported with its count of runs
 (most first). Also lists the one-sample jumps runs were split at, the
@@ -284,7 +285,7 @@ func inspectTable(w io.Writer, ds *ingest.Dataset, s *ingest.Summary) error {
 		}
 		fmt.Fprintln(w)
 	}
-	fmt.Fprintln(w, "jitter: interquartile range of the time steps over their median; settled: the last 5% of a run spans at most 10% of its range")
+	fmt.Fprintln(w, "jitter: interquartile range of the time steps over their median; settled: the last 5% of a run (of 81 samples or more) spans at most 10% of its range")
 	return nil
 }
 
