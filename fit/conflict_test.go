@@ -9,6 +9,8 @@ import (
 
 	"basin.example/fit/lyapunov"
 	"basin.example/ingest"
+
+	"gonum.org/v1/gonum/floats/scalar"
 )
 
 // TestCertifyConflictSaddle: an inverted pendulum's saddle (theta” =
@@ -45,7 +47,7 @@ func TestCertifyConflictSaddle(t *testing.T) {
 		}
 		sum += f.Share
 	}
-	if math.Abs(sum-1) > 1e-9 {
+	if !scalar.EqualWithinAbs(sum, 1, 1e-9) {
 		t.Errorf("shares sum to %g, want 1", sum)
 	}
 	if len(lc.Strongest) == 0 {
@@ -58,7 +60,7 @@ func TestCertifyConflictSaddle(t *testing.T) {
 		if r.Sample != nil {
 			run := ds.Runs[runIndex(t, ds.Runs, r.Run)]
 			k := *r.Sample - 1
-			if k >= len(run.T) || math.Abs(run.X[0][k]-r.Point[0]) > 1e-12 || math.Abs(run.X[1][k]-r.Point[1]) > 1e-12 {
+			if k >= len(run.T) || !scalar.EqualWithinAbs(run.X[0][k], r.Point[0], 1e-12) || !scalar.EqualWithinAbs(run.X[1][k], r.Point[1], 1e-12) {
 				t.Errorf("row %+v is not the run's sample", r)
 			}
 		}

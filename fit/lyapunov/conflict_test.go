@@ -7,6 +7,8 @@ import (
 	"testing"
 
 	"basin.example/fit/lp"
+
+	"gonum.org/v1/gonum/floats/scalar"
 )
 
 // saddleRuns samples the linear saddle z1' = z1, z2' = -2 z2 from its
@@ -94,7 +96,7 @@ func checkFarkas(t *testing.T, c *Conflict) {
 	if !(res <= 1e-9*scale) {
 		t.Errorf("|G'y - yl + yu| = %g, above 1e-9 of %g", res, scale)
 	}
-	if !(yh < 0) || math.Abs(yh+1) > 1e-9 {
+	if !(yh < 0) || !scalar.EqualWithinAbs(yh, -1, 1e-9) {
 		t.Errorf("y'h = %.12g, want -1 (< 0)", yh)
 	}
 	t.Logf("%s: %d of %d rows weighted, |G'y| %.2g (of %.3g), y'h %.12g", c.Kind, c.Rows, m, res, scale, yh)
@@ -127,7 +129,7 @@ func TestConflictSaddle(t *testing.T) {
 			}
 			share += f.Share
 		}
-		if math.Abs(share-1) > 1e-9 {
+		if !scalar.EqualWithinAbs(share, 1, 1e-9) {
 			t.Errorf("family shares sum to %g, want 1", share)
 		}
 		for i, r := range c.Top {
