@@ -82,19 +82,8 @@ func (tb *table) plainFloats(buf []byte, dst []float64, row0 int, dict *[]float6
 		}
 		k += len(out)
 	}
-	// x - x is 0 for a finite x and NaN otherwise: four sums (to keep
-	// the adds independent) stay 0 unless some value is not finite
-	var a0, a1, a2, a3 float64
-	i := 0
-	for ; i+4 <= len(dst); i += 4 {
-		a0 += dst[i] - dst[i]
-		a1 += dst[i+1] - dst[i+1]
-		a2 += dst[i+2] - dst[i+2]
-		a3 += dst[i+3] - dst[i+3]
-	}
-	if a0 == 0 && a1 == 0 && a2 == 0 && a3 == 0 {
-		dst = dst[i:] // the rest is checked below
-		row0 += i
+	if allFinite(dst) {
+		return true, nil
 	}
 	for i, x := range dst {
 		if x-x != 0 && x == x { // infinite (NaN is a missing sample)
