@@ -269,12 +269,12 @@ func dropShortPieces(ds *Dataset, minLen int) {
 		return
 	}
 	kept := ds.Runs[:0]
-	var first *Run
+	first, from := "", 0.0 // the first piece left out and its start
 	samples := 0
 	for _, r := range ds.Runs {
 		if r.Len() < minLen && r.Len() > 0 && r.Gaps+r.Events > 0 {
-			if first == nil {
-				first = &Run{Name: r.Name, Source: r.Source, T: r.T}
+			if samples == 0 {
+				first, from = r.Name, r.T[0]
 			}
 			ds.ShortPieces++
 			samples += r.Len()
@@ -287,10 +287,10 @@ func dropShortPieces(ds *Dataset, minLen int) {
 	switch {
 	case ds.ShortPieces == 1:
 		ds.Warnings = append(ds.Warnings, fmt.Sprintf("a piece of a split recording has %d samples, fewer than %d, and is left out: %s from %g s",
-			samples, minLen, first.Name, first.T[0]))
+			samples, minLen, first, from))
 	case ds.ShortPieces > 1:
 		ds.Warnings = append(ds.Warnings, fmt.Sprintf("%d pieces of split recordings have fewer than %d samples and are left out (%d samples; %s from %g s first)",
-			ds.ShortPieces, minLen, samples, first.Name, first.T[0]))
+			ds.ShortPieces, minLen, samples, first, from))
 	}
 }
 
