@@ -2,6 +2,7 @@ package ingest
 
 import (
 	"encoding/binary"
+	"math"
 	"strconv"
 	"unsafe"
 )
@@ -52,13 +53,19 @@ func slowFloat(b []byte) (float64, bool) {
 // to the decimal value, the same answer ParseFloat's round-to-nearest-even
 // must give (the fast path of Clinger, "How to read floating point numbers
 // accurately", PLDI 1990).
+//
+// The sign is read without a branch (logged signs are random, and a
+// mispredicted branch costs as much as the rest of a short number); the
+// digits of the fraction, 8 at a time where there are 8.
 func scanFast(b []byte) (f float64, n int, ok bool) {
-	i := 0
-	neg := false
-	if len(b) > 0 && (b[0] == '-' || b[0] == '+') {
-		neg = b[0] == '-'
-		i = 1
+	if len(b) == 0 {
+		return 0, 0, false
 	}
+	// The sign without a branch: a logged column's signs are random, and
+	// a mispredicted branch costs more than the rest of a short number.
+	s := b[0]
+	i := int((uint64(uint8(s-'+')&^2) - 1) >> 63) // 1 for '+' or '-' ('+'+2)
+	neg := (uint64(s^'-') - 1) >> 63
 	var mant uint64
 	start := i
 	// the integer part: most often short, so byte by byte first
@@ -93,14 +100,12 @@ func scanFast(b []byte) (f float64, n int, ok bool) {
 	if i < len(b) && b[i] == '.' {
 		i++
 		fs := i
-		for digits <= 11 && i+8 <= len(b) { // 8 more digits keep 19 or fewer
-			x := binary.LittleEndian.Uint64(b[i:])
-			if !eightDigits(x) {
-				break
+		if digits <= 11 && i+8 <= len(b) { // 8 more digits keep 19 or fewer
+			if x := binary.LittleEndian.Uint64(b[i:]); eightDigits(x) {
+				mant = mant*100000000 + eightValue(x)
+				i += 8
+				digits += 8
 			}
-			mant = mant*100000000 + eightValue(x)
-			i += 8
-			digits += 8
 		}
 		k := i
 		for i < len(b) {
@@ -148,22 +153,14 @@ func scanFast(b []byte) (f float64, n int, ok bool) {
 			return 0, 0, false
 		}
 	}
-	if mant == 0 {
-		if neg {
-			return negZero, i, true
-		}
-		return 0, i, true
-	}
 	f = float64(int64(mant)) // mant <= 2^53: exact, and one signed conversion
 	if exp >= 0 {
 		f *= exactPow10[exp]
 	} else {
 		f /= exactPow10[-exp]
 	}
-	if neg {
-		f = -f
-	}
-	return f, i, true
+	// the sign bit set without a branch (a zero mantissa gives -0)
+	return math.Float64frombits(math.Float64bits(f) | neg<<63), i, true
 }
 
 // eightDigits reports whether the 8 bytes of x (little-endian) are all

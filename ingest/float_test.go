@@ -1,10 +1,13 @@
 package ingest
 
 import (
+	"bytes"
 	"math"
 	"math/rand/v2"
+	"slices"
 	"strconv"
 	"testing"
+	"time"
 )
 
 // floatCorpus holds decimal strings whose float64 value is fixed by the
@@ -44,6 +47,15 @@ func checkScanFast(t *testing.T, s string) {
 		v2, n2, ok2 := scanFast([]byte(s + tail))
 		if ok && n == len(s) && (!ok2 || n2 != n || math.Float64bits(v2) != math.Float64bits(v)) {
 			t.Errorf("scanFast(%q) = %v, %d, %v; alone %v, %d", s+tail, v2, n2, ok2, v, n)
+		}
+	}
+	// the code before takes the same numbers, and so the same cells go to
+	// the slow path as before
+	for _, tail := range []string{"", ",12345678", "\n"} {
+		v2, n2, ok2 := scanFast([]byte(s + tail))
+		v3, n3, ok3 := scanFastBefore([]byte(s + tail))
+		if ok2 != ok3 || (ok2 && (n2 != n3 || math.Float64bits(v2) != math.Float64bits(v3))) {
+			t.Errorf("scanFast(%q) = %v, %d, %v; before %v, %d, %v", s+tail, v2, n2, ok2, v3, n3, ok3)
 		}
 	}
 	if !ok || n != len(s) {
@@ -146,4 +158,55 @@ func FuzzParseFloat(f *testing.F) {
 			t.Fatalf("parseFloat(%q) = %v (%#x), %v; strconv %v (%#x), %v", s, got, math.Float64bits(got), ok, want, math.Float64bits(want), werr)
 		}
 	})
+}
+
+// benchCells is a block of rows like the benchmark file's (a time column
+// printed with 4 decimals, six states with 9 significant digits), about
+// 1 MB: what fastRows sees.
+func benchCells() []byte {
+	rng := rand.New(rand.NewPCG(1, 0))
+	var buf []byte
+	for i := 0; len(buf) < 1<<20; i++ {
+		buf = strconv.AppendFloat(buf, float64(i)*0.005, 'f', 4, 64)
+		for range benchCols - 1 {
+			buf = append(buf, ',')
+			buf = strconv.AppendFloat(buf, rng.NormFloat64(), 'g', 9, 64)
+		}
+		buf = append(buf, '\n')
+	}
+	return buf
+}
+
+// BenchmarkScanCells scans a block of rows cell by cell with scanFast
+// and with scanFastBefore (the code before), alternately in one loop (so that both see the same
+// machine load), and reports the fastest ns/cell of each and the median
+// of the per-pair ratios narrow/fast.
+func BenchmarkScanCells(b *testing.B) {
+	data := benchCells()
+	cells := float64(bytes.Count(data, []byte{','}) + bytes.Count(data, []byte{'\n'}))
+	run := func(scan func([]byte) (float64, int, bool)) float64 {
+		t0 := time.Now()
+		var sink float64
+		for i := 0; i < len(data); {
+			v, n, ok := scan(data[i:])
+			if !ok {
+				b.Fatalf("refused %q", data[i:min(i+20, len(data))])
+			}
+			sink += v
+			i += n + 1
+		}
+		if sink == 1 {
+			b.Log(sink)
+		}
+		return float64(time.Since(t0).Nanoseconds()) / cells
+	}
+	var fast, narrow, ratio []float64
+	for b.Loop() {
+		f, n := run(scanFast), run(scanFastBefore)
+		fast, narrow, ratio = append(fast, f), append(narrow, n), append(ratio, n/f)
+	}
+	b.ReportMetric(slices.Min(fast), "fast-ns/cell")
+	b.ReportMetric(slices.Min(narrow), "narrow-ns/cell")
+	slices.Sort(ratio)
+	b.ReportMetric(ratio[len(ratio)/2], "x-narrow")
 }
