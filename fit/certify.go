@@ -419,6 +419,7 @@ func certScale(m *Model, ds *ingest.Dataset) []float64 {
 	}
 	if ok {
 		copy(s, m.Spread)
+		balanceNoise(s, m.Noise)
 		return s
 	}
 	for j := 0; j < n; j++ {
@@ -432,7 +433,54 @@ func certScale(m *Model, ds *ingest.Dataset) []float64 {
 		}
 		s[j] = sd
 	}
+	balanceNoise(s, m.Noise)
 	return s
+}
+
+// noiseBalanceMax caps how far balanceNoise moves a state's scale from
+// its spread (a factor, either way): states measured far more precisely
+// than others keep a z spread within noiseBalanceMax² of the rest, so
+// the certificate's polynomials stay well conditioned.
+const noiseBalanceMax = 4
+
+// noiseBalanceMin: noise within this factor across states (in spreads)
+// is left as it is: the ball then reaches at most that far beyond the
+// quieter states' noise, and a certificate of evenly noisy data keeps
+// its spreads as scale.
+const noiseBalanceMin = 2
+
+// balanceNoise rescales scale (the states' spreads) so that the
+// measurement noise noise (per state, the states' units) is the same in
+// every direction of z, as far as noiseBalanceMax allows: scale_j is
+// multiplied by r_j = (noise_j/scale_j) / g, g the geometric mean of the
+// noise_j/scale_j, so the product of the scales (the size of z) is kept.
+// The certificate's noise ball is a ball in z: with the noise balanced it
+// is the noise's own ellipsoid in the states' units, not a ball as wide
+// in every direction as the noisiest state's (in spreads) in one. It does
+// nothing unless every state has a positive, finite noise.
+func balanceNoise(scale, noise []float64) {
+	n := len(scale)
+	if len(noise) != n || n < 2 {
+		return
+	}
+	logs := make([]float64, n)
+	mean, lo, hi := 0.0, math.Inf(1), math.Inf(-1)
+	for j := range scale {
+		r := noise[j] / scale[j]
+		if !(r > 0) || math.IsInf(r, 0) {
+			return
+		}
+		logs[j] = math.Log(r)
+		mean += logs[j] / float64(n)
+		lo, hi = math.Min(lo, logs[j]), math.Max(hi, logs[j])
+	}
+	if hi-lo <= math.Log(noiseBalanceMin) {
+		return
+	}
+	for j := range scale {
+		f := math.Exp(logs[j] - mean)
+		scale[j] *= math.Min(math.Max(f, 1/float64(noiseBalanceMax)), noiseBalanceMax)
+	}
 }
 
 // fieldSigma returns the residual standard deviation of the fitted field

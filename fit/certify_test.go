@@ -592,3 +592,63 @@ func TestPopSD(t *testing.T) {
 		t.Errorf("popSD() = %g, want 0", got)
 	}
 }
+
+// TestCertifyTwoWellsNoisy: the double well x” = x - x³ - 0.6 x' logged
+// from starts over both wells with 1% noise per state (of its range), the
+// model fitted from the logs and certified around the right well at V
+// degree 2. Most samples rest near a well, so the velocity's spread is
+// small next to its noise while the position's is wide: in units of the
+// spreads the velocity is four times noisier. A noise ball as wide in z
+// as the velocity's noise reached half-way to the saddle along the
+// position, and no quadratic V held there (no V was found). The region
+// must now exist, hold no point past the saddle, and lie where the
+// energy E = v²/2 - x²/2 + x⁴/4 is below its saddle value 0: that piece
+// of {E < 0} is positively invariant (dE/dt = -0.6 v² <= 0) with the
+// well its only equilibrium, so every start there settles in the well
+// (LaSalle's invariance principle, [Khalil2002] §4.2, from memory); its
+// points are also simulated.
+func TestCertifyTwoWellsNoisy(t *testing.T) {
+	heavy(t)
+	sys := &certSystem{
+		name: "two-wells", states: []string{"pos", "vel"},
+		f:  func(dst, x []float64) { dst[0] = x[1]; dst[1] = x[0] - x[0]*x[0]*x[0] - 0.6*x[1] },
+		eq: []float64{1, 0},
+	}
+	ds := certRuns(sys, [][2]float64{{-1.8, 1.8}, {-1.5, 1.5}}, 40, 0.01, 1500, 1, 0, 7, true)
+	rng := rand.New(rand.NewPCG(7, 1))
+	lo, hi := dataBox(ds)
+	for _, r := range ds.Runs {
+		for j := range r.X {
+			for i := range r.X[j] {
+				r.X[j][i] += 0.01 * (hi[j] - lo[j]) * rng.NormFloat64()
+			}
+		}
+	}
+	m := mustFit(t, ds, nil)
+	k, d := m.Nearest([]float64{1, 0})
+	if k < 0 || d > 0.1 {
+		t.Fatalf("no fitted equilibrium near the right well (nearest %d at %.3g spreads)", k, d)
+	}
+	m = m.AtEquilibrium(k)
+	c, err := Certify(context.Background(), m, ds, &CertifyOptions{Degree: 2})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !c.Found {
+		t.Fatalf("no certificate: %s", c.Reason)
+	}
+	t.Logf("level %.4g, %.1f%% of the trust region, box %v, noise radius %.3g", c.Level, 100*c.Region.EnvelopeShare, c.Box, c.NoiseRadius)
+	if c.Box[0][0] <= 0 {
+		t.Errorf("region box reaches pos = %.4g, at or past the saddle at 0", c.Box[0][0])
+	}
+	pts := regionPoints(c, lo, hi, 300, 9)
+	if len(pts) < 50 {
+		t.Fatalf("only %d region points", len(pts))
+	}
+	for _, x := range pts {
+		if e := x[1]*x[1]/2 - x[0]*x[0]/2 + x[0]*x[0]*x[0]*x[0]/4; !(e < 0) || !(x[0] > 0) {
+			t.Errorf("region point %v outside the well's piece of {E < 0} (E = %.4g)", x, e)
+		}
+	}
+	checkConverges(t, sys, pts, 0.05)
+}
