@@ -257,6 +257,17 @@ const (
 	growStart = 1.6
 	growOuter = 1.0
 	growStale = 5
+	// ballStart: with no level yet, a round's target set is the level
+	// set at ballStart times V's largest value on the exempt ball (three
+	// exempt radii for a round V), halved after each round that gains
+	// nothing, down to ballMin: a set too wide for the LP (reaching a
+	// saddle, say) shrinks towards the equilibrium.
+	ballStart = 9.0
+	ballMin   = 1.5
+	// othersShare caps a round's target at this share of the level at
+	// which another equilibrium joins the piece: decrease cannot hold at
+	// an equilibrium, nor with a positive margin near it.
+	othersShare = 0.5
 	// minGain: a round must add this share of the best volume to count.
 	minGain = 0.01
 	// unstableTol: a Jacobian eigenvalue with real part above
@@ -425,8 +436,9 @@ type growth struct {
 	best                 cand
 	solves, rounds, rows int
 	capped               bool // the last round still gained
-	// contra: the first LP's margin was negative while no V had a level
-	// (contraMargin): V must rise near the equilibrium.
+	// contra: an LP's margin was negative while no V had a level
+	// (contraMargin, the latest such LP's): V must rise near the
+	// equilibrium.
 	contra       bool
 	contraMargin float64
 	lastErr      string     // why the last round failed
@@ -446,11 +458,19 @@ func (ck *checker) grow(ctx context.Context, c0 []float64, nonRise bool, o Optio
 	rng := rand.New(rand.NewPCG(o.Seed, 0))
 	stale := 0
 	gamma := growStart
+	ballMul := float64(ballStart)
 	for round := 0; round < o.Growth; round++ {
 		if err := ctx.Err(); err != nil {
 			return g, err
 		}
-		target := gamma * ck.roundBase(best.res, best.c, nonRise && round == 0)
+		target := gamma * ck.roundBase(best.res, best.c, ballMul, nonRise && round == 0)
+		if oth := ck.othersLevel(best.c); !best.res.ok && target > othersShare*oth {
+			// Decrease cannot hold up to another equilibrium (V-dot is
+			// zero there): a first target set reaching it makes every
+			// margin negative. (A V with a level stops below the others
+			// already; its rounds shrink gamma when they reach too far.)
+			target = othersShare * oth
+		}
 		lambda := math.Max(best.g, 0) / target
 		if nonRise {
 			lambda = 0 // no decrease to relax outside the target set
@@ -471,7 +491,9 @@ func (ck *checker) grow(ctx context.Context, c0 []float64, nonRise bool, o Optio
 					g.lastKind, g.conflict = LPInfeasible, ck.conflict(rows, out)
 				}
 			case !(out.g > 0) && !(nonRise && out.g > -lpMarginBound):
-				if g.solves == 1 && out.g < 0 && !best.res.ok {
+				if out.g < 0 && !best.res.ok {
+					// The latest such LP, on the smallest set tried so
+					// far, is the one nearest the equilibrium.
 					g.contra, g.contraMargin, g.conflict = true, out.g, ck.conflict(rows, out)
 				}
 				g.lastErr = fmt.Sprintf("best margin %.3g <= 0", out.g)
@@ -495,6 +517,11 @@ func (ck *checker) grow(ctx context.Context, c0 []float64, nonRise bool, o Optio
 		g.capped = false
 		stale++
 		gamma = 1 + (gamma-1)/2
+		if !best.res.ok {
+			// No level yet: the next round tries a smaller set around the
+			// noise ball, where the linearisation rules.
+			ballMul = math.Max(ballMul/2, ballMin)
+		}
 		if stale >= growStale {
 			break
 		}
@@ -505,19 +532,36 @@ func (ck *checker) grow(ctx context.Context, c0 []float64, nonRise bool, o Optio
 }
 
 // roundBase returns the level a growth round grows from: the best V's
-// level, or, when it has none, a small ellipse a few noise radii wide;
+// level, or, when it has none, ballMul times V's largest value on the
+// exempt ball (a small ellipse a few noise radii wide);
 // on the non-rise path's first round (first), at least the level set of
 // V holding the innermost tenth of the samples (runs of a lossless
 // system circle the equilibrium and rarely pass near it).
-func (ck *checker) roundBase(res levelResult, c []float64, first bool) float64 {
+func (ck *checker) roundBase(res levelResult, c []float64, ballMul float64, first bool) float64 {
 	base := res.level
 	if !res.ok {
-		base = math.Max(res.vball*9, res.level)
+		base = math.Max(res.vball*ballMul, res.level)
 	}
 	if first {
 		base = math.Max(base, ck.quantile(c, nonRiseStartShare, 6*ck.fam.Len()))
 	}
 	return base
+}
+
+// othersLevel returns the level of V (coefficients c) at which the
+// first other equilibrium joins the piece of the level set holding the
+// equilibrium (along the segment to it); +Inf when there is none.
+func (ck *checker) othersLevel(c []float64) float64 {
+	if len(ck.others) == 0 {
+		return math.Inf(1)
+	}
+	ve := newVEval(ck.fam, c)
+	buf := make([]float64, ck.fam.n)
+	lv := math.Inf(1)
+	for _, o := range ck.others {
+		lv = math.Min(lv, rayMax(ve, o, buf))
+	}
+	return lv
 }
 
 // failure fills res for growth rounds that found no V with a level.

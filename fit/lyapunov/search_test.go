@@ -1,6 +1,7 @@
 package lyapunov
 
 import (
+	"context"
 	"math/rand/v2"
 	"testing"
 
@@ -59,5 +60,49 @@ func TestLinearLP(t *testing.T) {
 	// directions only: 1e-3 slack).
 	if lam > -out.g*(1-1e-3) {
 		t.Errorf("lambda_max(A'P+PA) = %g, margin %g: want <= -margin", lam, out.g)
+	}
+}
+
+// twoWellsZ is the double well x” = x - x³ - 0.6 x' about its right well
+// (1, 0) in z = ((x - 1)/s1, v/s2): z1' = (s2/s1) z2, z2' = (-2 s1 z1 -
+// 3 s1² z1² - s1³ z1³)/s2 - 0.6 z2, with the saddle at z1 = -1/s1 and
+// the left well at z1 = -2/s1.
+func twoWellsZ(s1, s2 float64) *testSystem {
+	return &testSystem{n: 2, f: []*Poly{
+		NewPoly(2, [][]int{{0, 1}}, []float64{s2 / s1}),
+		NewPoly(2, [][]int{{1, 0}, {2, 0}, {3, 0}, {0, 1}}, []float64{-2 * s1 / s2, -3 * s1 * s1 / s2, -s1 * s1 * s1 / s2, -0.6}),
+	}, others: [][]float64{{-1 / s1, 0}, {-2 / s1, 0}}}
+}
+
+func TestGrowFirstTargetShrinks(t *testing.T) {
+	// The double well in the z of a certificate whose scales are the
+	// spreads of logs over both wells (position 1.45, velocity 0.285:
+	// most samples rest, so the velocity's spread is small), with 0.3%
+	// noise per state's range (z noise 0.0077 and 0.032). The quadratic
+	// of the Lyapunov equation has no level beyond the noise ball, and
+	// every growth round's target stayed at nine times V's largest value
+	// on the ball or more, a set on which no quadratic falls: every LP's
+	// margin was negative (no V was found). The region found must stay
+	// short of the saddle.
+	s1, s2 := 1.45, 0.285
+	sys := twoWellsZ(s1, s2)
+	d := sys.runs([][2]float64{{-0.55, 0.55}, {-5, 5}}, 40, 0.01, 1500, 1, 0, 3)
+	rng := rand.New(rand.NewPCG(3, 1))
+	sigma := []float64{0.0077, 0.032}
+	for i := range d.Z {
+		d.Z[i] += sigma[i%2] * rng.NormFloat64()
+	}
+	s := sys.system(0)
+	copy(s.Noise, sigma)
+	res, err := Certify(context.Background(), d, s, &Options{Degree: 2})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if res.Outcome != Found {
+		t.Fatalf("outcome %s: %s", res.Outcome, res.Detail)
+	}
+	t.Logf("level %.4g, share %.3f, box %v..%v, limit %s", res.Level, res.Share, res.Lo, res.Hi, res.Limit)
+	if res.Lo[0] <= -1/s1 {
+		t.Errorf("region reaches z1 = %.4g, at or past the saddle at %.4g", res.Lo[0], -1/s1)
 	}
 }
