@@ -378,3 +378,60 @@ func (ds *Dataset) recordings() int {
 	}
 	return n
 }
+
+// steppedShare: a state column whose value repeats exactly on at least
+// this share of consecutive sample pairs holds still between jumps, as a
+// commanded drive or a setpoint does; a measured state carries noise that
+// changes its last digit from sample to sample.
+const steppedShare = 0.9
+
+// Stepped is a state column that holds its value exactly from sample to
+// sample except at a few jumps (see [Dataset.SteppedStates]).
+type Stepped struct {
+	// State is the column's index into [Dataset.States].
+	State int
+	// Held is the share of consecutive sample pairs, within runs, where
+	// the value repeated exactly (0 to 1).
+	Held float64
+	// Levels counts the distinct values the column takes, up to 1000.
+	Levels int
+}
+
+// SteppedStates returns the state columns that look like inputs rather
+// than states: their value repeats exactly on at least 90% of
+// consecutive sample pairs, and they take more than one value. A
+// commanded drive or a setpoint logged as a column does that; a measured
+// state rarely does (its noise moves it), unless its sensor is far
+// coarser than its noise. Fitting such a column as a state gives it an
+// equation of zero and the model a line of equilibria; it belongs among
+// the inputs ([Options.Inputs]). Pairs are counted within runs, so a
+// column that jumps only where a run was split still counts as held.
+func (ds *Dataset) SteppedStates() []Stepped {
+	const maxLevels = 1000
+	var out []Stepped
+	for j := range ds.States {
+		pairs, held := 0, 0
+		levels := make(map[float64]bool)
+		for i := range ds.Runs {
+			x := ds.Runs[i].X[j]
+			for k, v := range x {
+				if len(levels) < maxLevels {
+					levels[v] = true
+				}
+				if k > 0 {
+					pairs++
+					if v == x[k-1] {
+						held++
+					}
+				}
+			}
+		}
+		if pairs == 0 || len(levels) < 2 {
+			continue
+		}
+		if share := float64(held) / float64(pairs); share >= steppedShare {
+			out = append(out, Stepped{State: j, Held: share, Levels: len(levels)})
+		}
+	}
+	return out
+}

@@ -60,7 +60,33 @@ func loadInputs(ctx context.Context, e *env, f *inputFlags, quiet bool, args []s
 	for _, w := range ingest.CollapseCopies(ds) {
 		warnf(e, quiet, "%s", w)
 	}
+	warnStepped(e, quiet, ds, f.Inputs)
 	return ds, nil
+}
+
+// warnStepped warns of each state column that holds its value exactly
+// between jumps (see [ingest.Dataset.SteppedStates]): a drive or setpoint
+// read as a state gets an equation of zero, and the fitted model a line
+// of equilibria instead of a rest point. inputs is --inputs as given, so
+// the hint names the whole flag to type.
+func warnStepped(e *env, quiet bool, ds *ingest.Dataset, inputs string) {
+	for _, s := range ds.SteppedStates() {
+		name := ds.States[s.State].Name
+		flag := name
+		if inputs != "" {
+			flag = inputs + "," + name
+		}
+		warnf(e, quiet, "state %q holds its value exactly between jumps (on %.0f%% of sample pairs, %s): it looks like a drive or a setpoint, not a state; if it is one, give --inputs %s",
+			name, math.Floor(100*s.Held), levelsText(s.Levels), flag)
+	}
+}
+
+// levelsText says how many distinct values a stepped column takes.
+func levelsText(n int) string {
+	if n >= 1000 {
+		return "1000 or more levels"
+	}
+	return fmt.Sprintf("%d levels", n)
 }
 
 // inspectJSON is the contract's inspect --json shape (plus extra fields).
