@@ -40,6 +40,24 @@ type StreamOptions struct {
 	// StreamFile.Runs is empty after Open and complete after that Scan
 	// (or [StreamFile.FindRuns]). The runs are the same.
 	LateRuns bool
+	// Tap, when not nil, is shown every block of a streamed file's first
+	// read (see [BlockTap]): a caller's statistic over the whole file
+	// gathered without a read of its own.
+	Tap BlockTap
+}
+
+// A BlockTap is shown the rows of each streamed file in its first read,
+// before the runs are known: Start once per file (rows is the file's
+// row count when exact, else an estimate; states the number of state
+// columns), then Block with consecutive blocks of rows from the first,
+// as a Scan gives them but with every row of the file (NaN where a cell
+// is missing). The slices are valid during the call only. A file that
+// is read whole is not shown. The rows of a run that covers the file
+// from its first row to its last (see [StreamRun.Rows]) are exactly the
+// rows shown.
+type BlockTap interface {
+	Start(file string, rows int, exact bool, states int)
+	Block(row0 int, t []float64, x [][]float64)
 }
 
 // ErrRescan is returned by the first Scan of a file opened with
@@ -64,6 +82,7 @@ type Streamer struct {
 	csvWindow int64
 	store     *colStore // reused columns for files read whole in one pass
 	late      bool      // StreamOptions.LateRuns
+	tap       BlockTap  // StreamOptions.Tap
 	src       streamScratch
 	plan      *plan // the last plan, whose buffers the next one reuses
 }
@@ -79,7 +98,7 @@ func NewStreamer(opts *Options, so *StreamOptions) *Streamer {
 		s.window = so.Window
 	}
 	if so != nil {
-		s.prefetch, s.late = so.Prefetch, so.LateRuns
+		s.prefetch, s.late, s.tap = so.Prefetch, so.LateRuns, so.Tap
 	}
 	if so != nil && so.CSVWindow != 0 {
 		s.csvWindow = so.CSVWindow
@@ -124,6 +143,11 @@ type StreamRun struct {
 	Samples int
 	rows    [2]int // [first, end) rows of the file, when streamed
 }
+
+// Rows returns the rows of a streamed file that hold the run's samples:
+// first .. end-1, counted from 0 as [BlockTap] counts them. Both are 0
+// for a file read whole.
+func (r *StreamRun) Rows() (first, end int) { return r.rows[0], r.rows[1] }
 
 // Dataset returns the file's data set when it was read whole, nil when
 // it is streamed.
@@ -254,6 +278,7 @@ func (s *Streamer) openStream(ctx context.Context, path string) (*StreamFile, er
 		return nil, &errFallback{"window"}
 	}
 	pl := newPlan(sf, src, &s.opts, s.plan)
+	pl.tap = s.tap
 	s.plan = pl
 	if err := pl.run(ctx, s.late); err != nil {
 		return nil, err

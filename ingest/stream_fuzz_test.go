@@ -3,7 +3,9 @@ package ingest
 import (
 	"context"
 	"errors"
+	"fmt"
 	"io/fs"
+	"math"
 	"os"
 	"path/filepath"
 	"testing"
@@ -45,7 +47,8 @@ func FuzzStreamParquet(f *testing.F) {
 
 func fuzzStreamOnce(t *testing.T, p string, opts *Options, late bool, want *Dataset, werr error) {
 	{
-		s := NewStreamer(opts, &StreamOptions{Window: -1, LateRuns: late})
+		tap := &recTap{}
+		s := NewStreamer(opts, &StreamOptions{Window: -1, LateRuns: late, Tap: tap})
 		sf, err := s.Open(context.Background(), p)
 		if err != nil {
 			var pe *ParseError
@@ -63,13 +66,19 @@ func fuzzStreamOnce(t *testing.T, p string, opts *Options, late bool, want *Data
 			t.Fatalf("Open took what ReadFile refuses: %v", werr)
 		}
 		var n []int
+		var xs [][]float64 // each run's samples, state by state after one another
 		scan := func() error {
-			n = make([]int, len(sf.Runs))
+			n, xs = make([]int, len(sf.Runs)), make([][]float64, len(sf.Runs))
 			return sf.Scan(context.Background(), func(k int, tt []float64, x [][]float64) error {
 				for k >= len(n) { // late runs: found as they come
-					n = append(n, 0)
+					n, xs = append(n, 0), append(xs, nil)
 				}
 				n[k] += len(tt)
+				for i := range tt {
+					for j := range x {
+						xs[k] = append(xs[k], x[j][i])
+					}
+				}
 				return nil
 			})
 		}
@@ -88,5 +97,49 @@ func fuzzStreamOnce(t *testing.T, p string, opts *Options, late bool, want *Data
 				t.Fatalf("run %d: %s %d samples %+v, ReadFile %s %d %+v", k, sf.Runs[k].Name, n[k], sf.Runs[k].Source, r.Name, r.Len(), r.Source)
 			}
 		}
+		if sf.Dataset() != nil {
+			return // read whole: not streamed, shown to no tap
+		}
+		// the tap saw the file's rows, and a run's samples are its rows
+		if tap.starts != 1 || tap.bad != "" {
+			t.Fatalf("tap started %d times: %s", tap.starts, tap.bad)
+		}
+		for k := range sf.Runs {
+			a, b := sf.Runs[k].Rows()
+			if a < 0 || b > len(tap.rows) || b-a != n[k] {
+				t.Fatalf("run %d: rows %d..%d of %d shown, %d samples", k, a, b, len(tap.rows), n[k])
+			}
+			var w []float64
+			for _, row := range tap.rows[a:b] {
+				w = append(w, row...)
+			}
+			for i := range w {
+				if math.Float64bits(w[i]) != math.Float64bits(xs[k][i]) {
+					t.Fatalf("run %d: value %d is %v, %v in the rows shown", k, i, xs[k][i], w[i])
+				}
+			}
+		}
+	}
+}
+
+// recTap is a BlockTap that keeps the rows shown (each row's states).
+type recTap struct {
+	starts int
+	rows   [][]float64
+	bad    string
+}
+
+func (r *recTap) Start(file string, rows int, exact bool, states int) { r.starts++; r.rows = r.rows[:0] }
+
+func (r *recTap) Block(row0 int, t []float64, x [][]float64) {
+	if row0 != len(r.rows) {
+		r.bad = fmt.Sprintf("block at row %d after %d rows", row0, len(r.rows))
+	}
+	for i := range t {
+		row := make([]float64, len(x))
+		for j := range x {
+			row[j] = x[j][i]
+		}
+		r.rows = append(r.rows, row)
 	}
 }

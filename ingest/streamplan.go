@@ -79,8 +79,9 @@ type plan struct {
 	gaps  int
 	evs   int
 
-	ed *evDetector
-	hd headState
+	ed  *evDetector
+	hd  headState
+	tap BlockTap // shown pass 1's blocks
 	// pass 2's and pass 3's outputs (final may alias pieces, runs final)
 	finalBuf, runBuf [][2]int
 	selBuf           []float64    // scaleOf's scratch
@@ -139,6 +140,9 @@ func (pl *plan) setup(ns int) {
 		}
 	}
 	pl.resetAcc()
+	if pl.tap != nil {
+		pl.tap.Start(pl.sf.File, pl.src.rowsHint(), top == 0, ns)
+	}
 }
 
 // run plans the file's runs: passes 1 to 3. With late, pass 3 (when
@@ -336,6 +340,9 @@ func (pl *plan) pass1(ctx context.Context) error {
 		}
 		if len(t) == 0 {
 			return nil
+		}
+		if pl.tap != nil {
+			pl.tap.Block(row0, t, x)
 		}
 		whole := true // no missing cell in the block
 		for _, v := range t {

@@ -103,6 +103,7 @@ type Screener struct {
 	// tols and stream: ScreenFile's per-run tolerances and noise
 	tols   []float64
 	stream streamNoise
+	tap    noiseTap
 	// generic disables the specialised kernels (benchmarks compare)
 	generic bool
 }

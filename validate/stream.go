@@ -15,16 +15,31 @@ import (
 // are those [Screener.Screen] gives on the runs of [ingest.ReadFile]. A
 // file read whole is screened from its data set; a streamed one in one
 // pass over its samples, after a first pass for the runs' own noise when
-// the certificate's noise widens the tolerance (see runNoise.go). Each
+// the certificate's noise widens the tolerance (see runNoise.go) unless
+// the file is one run whose noise [Screener.Tap] took. Each
 // result's Flags must be copied before dst is reused. It stops with
 // ctx's error when ctx is done, and returns the file's read errors.
 func (s *Screener) ScreenFile(ctx context.Context, dst []RunScreen, sf *ingest.StreamFile) ([]RunScreen, error) {
 	if sf.Late() && len(sf.States) == s.n {
 		if !s.noise.on {
-			return s.screenLate(ctx, dst, sf)
+			return s.screenLate(ctx, dst, sf, s.baseTol)
 		}
-		// the runs' own noise needs their lengths first
-		if err := sf.FindRuns(ctx); err != nil {
+		// The runs' own noise needs their lengths first, unless the file
+		// is one run of all its rows, whose noise the tap took in the
+		// first read: screened with it as its runs are found, the result
+		// stands when that is what they turn out to be.
+		if v, rows, ok := s.tap.guess(sf.File); ok {
+			got, err := s.screenLate(ctx, dst, sf, s.tolFor(v))
+			if err != nil || sf.Dataset() != nil { // an error, or read whole and screened from it
+				return got, err
+			}
+			if len(sf.Runs) == 1 {
+				if a, b := sf.Runs[0].Rows(); a == 0 && b == rows {
+					return got, nil
+				}
+			}
+			dst = got // the runs are known now: screen them again with their own noise
+		} else if err := sf.FindRuns(ctx); err != nil {
 			return nil, err
 		}
 	}
@@ -100,8 +115,8 @@ func (s *Screener) ScreenFile(ctx context.Context, dst []RunScreen, sf *ingest.S
 
 // screenLate screens a file whose runs its Scan finds (see
 // ingest.StreamOptions.LateRuns): in one pass that finds them and
-// screens them, with the certificate's tolerance (no noise widening).
-func (s *Screener) screenLate(ctx context.Context, dst []RunScreen, sf *ingest.StreamFile) ([]RunScreen, error) {
+// screens them, each with the tolerance tol.
+func (s *Screener) screenLate(ctx context.Context, dst []RunScreen, sf *ingest.StreamFile, tol float64) ([]RunScreen, error) {
 	dst = dst[:0]
 	cur := -1
 	err := sf.Scan(ctx, func(k int, t []float64, x [][]float64) error {
@@ -116,6 +131,7 @@ func (s *Screener) screenLate(ctx context.Context, dst []RunScreen, sf *ingest.S
 				dst = append(dst[:cap(dst)], make([]RunScreen, k+1-cap(dst))...)
 			}
 			s.Begin(&dst[k], sf.File, sf.Runs[k].Name)
+			s.tol = tol
 		}
 		s.Feed(x, t)
 		return nil
@@ -133,6 +149,18 @@ func (s *Screener) screenLate(ctx context.Context, dst []RunScreen, sf *ingest.S
 		return nil, fmt.Errorf("validate: %s: %d runs screened of %d found", sf.File, len(dst), len(sf.Runs))
 	}
 	return dst, nil
+}
+
+// Tap returns the [ingest.BlockTap] to give the Streamer whose files s
+// screens ([ingest.StreamOptions.Tap]; one Streamer per Screener), or
+// nil when the certificate's noise does not widen the tolerance: with
+// it, a streamed file that is one run is screened in one read after the
+// Streamer's first, as without the widening.
+func (s *Screener) Tap() ingest.BlockTap {
+	if !s.noise.on {
+		return nil
+	}
+	return &s.tap
 }
 
 // tolFor is runTol's tolerance for a run whose noise per state is v.
@@ -153,6 +181,9 @@ func (s *Screener) tolFor(v []float64) float64 {
 // white noise has variance 70 sigma^2). TestStreamNoise keeps the two
 // equal.
 const runNoiseCap = 4096
+
+// noiseStride is the stride of the noise estimate of a run of m samples.
+func noiseStride(m int) int { return max(1, (m-4)/runNoiseCap) }
 
 // streamNoise computes a run's noise per state from its samples in
 // order, holding the last four and at most runNoiseCap+1 differences per
@@ -181,29 +212,49 @@ func (a *streamNoise) init(n int) {
 
 func (a *streamNoise) begin(m int) {
 	a.m, a.q = m, 0
-	a.stride = max(1, (m-4)/runNoiseCap)
+	a.stride = noiseStride(m)
 	for j := range a.d {
 		a.d[j] = a.d[j][:0]
 	}
 }
 
 func (a *streamNoise) add(x [][]float64) {
-	for i := range x[0] {
-		q := a.q
-		// the difference at q-4 needs samples q-4 .. q
-		if i0 := q - 4; i0 >= 0 && i0%a.stride == 0 && len(a.d[0]) < runNoiseCap+1 {
-			for j := range a.d {
-				l := &a.last[j]
-				v := x[j][i]
-				a.d[j] = append(a.d[j], math.Abs(l[0]-4*l[1]+6*l[2]-4*l[3]+v))
-			}
-		}
-		for j := range a.last {
-			l := &a.last[j]
-			l[0], l[1], l[2], l[3] = l[1], l[2], l[3], x[j][i]
-		}
-		a.q++
+	n := len(x[0])
+	q, stride := a.q, a.stride
+	// the differences at i (a multiple of stride) need samples i .. i+4:
+	// the first not yet taken is at or after q-4
+	i0 := max(0, q-4)
+	if r := i0 % stride; r != 0 {
+		i0 += stride - r
 	}
+	for j, xj := range x {
+		d := a.d[j]
+		l := &a.last[j] // samples q-4 .. q-1
+		i := i0
+		// those reaching back into the last block's samples
+		for ; i < q && i+4 < q+n && len(d) < runNoiseCap+1; i += stride {
+			var w [5]float64
+			for k := range w {
+				if g := i + k; g < q {
+					w[k] = l[g-(q-4)]
+				} else {
+					w[k] = xj[g-q]
+				}
+			}
+			d = append(d, math.Abs(w[0]-4*w[1]+6*w[2]-4*w[3]+w[4]))
+		}
+		for k := i - q; k+4 < n && len(d) < runNoiseCap+1; k += stride {
+			d = append(d, math.Abs(xj[k]-4*xj[k+1]+6*xj[k+2]-4*xj[k+3]+xj[k+4]))
+		}
+		a.d[j] = d
+		if n >= 4 {
+			copy(l[:], xj[n-4:])
+		} else {
+			copy(l[:], l[n:])
+			copy(l[4-n:], xj)
+		}
+	}
+	a.q += n
 }
 
 func (a *streamNoise) noise() []float64 {
@@ -220,4 +271,66 @@ func (a *streamNoise) noise() []float64 {
 		a.out[j] = 1.4826 * med / math.Sqrt(70)
 	}
 	return a.out
+}
+
+// noiseTap is a Screener's [ingest.BlockTap]: the noise estimate of a
+// streamed file's first read taken as one run (every row, from the
+// first), at each stride its estimated row count allows. When the file
+// turns out to be one run of all its rows, that is the run's own noise
+// (the same samples at the same stride, so the same value to the bit),
+// known before the run is screened: the screen then needs no read for
+// it (see ScreenFile).
+type noiseTap struct {
+	file string
+	ok   bool // Start was called and guess not yet
+	rows int  // rows shown
+	acc  []streamNoise
+}
+
+func (tp *noiseTap) Start(file string, rows int, exact bool, states int) {
+	tp.file, tp.ok, tp.rows = file, true, 0
+	g := noiseStride(max(rows, 0))
+	lo, hi := g, g
+	if !exact { // an estimate: the strides of counts near it
+		lo, hi = max(1, g-g/16-2), g+g/16+2
+	}
+	n := hi - lo + 1
+	for len(tp.acc) < n {
+		tp.acc = append(tp.acc, streamNoise{})
+	}
+	tp.acc = tp.acc[:n]
+	for c := range tp.acc {
+		a := &tp.acc[c]
+		a.init(states)
+		a.begin(0)
+		a.stride = lo + c
+	}
+}
+
+func (tp *noiseTap) Block(row0 int, t []float64, x [][]float64) {
+	if !tp.ok || row0 != tp.rows || len(x) == 0 || (len(tp.acc) > 0 && len(x) != tp.acc[0].n) {
+		tp.ok = false
+		return
+	}
+	for c := range tp.acc {
+		tp.acc[c].add(x)
+	}
+	tp.rows += len(t)
+}
+
+// guess returns the noise per state of file's rows taken as one run, and
+// their count, when the tap saw the file's first read and gathered the
+// estimate at the stride of that count. It can be taken once per read.
+func (tp *noiseTap) guess(file string) (noise []float64, rows int, ok bool) {
+	if !tp.ok || tp.file != file || tp.rows < 5 {
+		return nil, 0, false
+	}
+	tp.ok = false
+	stride := noiseStride(tp.rows)
+	for c := range tp.acc {
+		if a := &tp.acc[c]; a.stride == stride && a.q == tp.rows {
+			return a.noise(), tp.rows, true
+		}
+	}
+	return nil, 0, false
 }

@@ -23,7 +23,7 @@ func TestStreamNoise(t *testing.T) {
 			run.X[1][i] = 0.01 * rng.NormFloat64()
 		}
 		want := fit.RunNoise(run)
-		for _, block := range []int{1, 3, 256, 1 << 20} {
+		for _, block := range []int{1, 2, 3, 4, 5, 7, 256, 1 << 20} {
 			var a streamNoise
 			a.init(2)
 			a.begin(m)

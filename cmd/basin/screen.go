@@ -338,7 +338,10 @@ func screenFilesWith(ctx context.Context, cert *fit.Certificate, files []string,
 	sto = &lsto
 	res := make([]fileResult, len(files))
 	err := parallel.For(ctx, len(files), workers, func() *worker {
-		return &worker{s: validate.NewScreener(cert, so), st: ingest.NewStreamer(iopts, sto)}
+		s := validate.NewScreener(cert, so)
+		wsto := *sto
+		wsto.Tap = s.Tap() // a one-run file's noise from the Streamer's first read
+		return &worker{s: s, st: ingest.NewStreamer(iopts, &wsto)}
 	}, func(ctx context.Context, i int, w *worker) error {
 		res[i] = screenSafe(func() fileResult { return screenOne(ctx, w.s, w.st, &w.dst, cert, files[i]) }, files[i])
 		return res[i].err

@@ -218,7 +218,9 @@ func catFiles(b *testing.B, paths []string) {
 // BenchmarkScreen measures basin screen end to end (read the files, screen
 // every run) on a quadratic V of 2 and 6 states, Parquet (Arrow's default
 // dictionary encoding, and plain) and CSV (read whole below the CSV
-// window, and streamed), on GOMAXPROCS workers (run with -cpu 1,2),
+// window, and streamed), with a certificate without and with the noise
+// per state ("-noise": each run's own noise widens the tolerance), on
+// GOMAXPROCS workers (run with -cpu 1,2),
 // streamed ("stream") beside the whole-file screen it replaces ("whole")
 // and a cat of the same files (io.Copy to io.Discard). Each reports
 // samples/s, samples per CPU-second (on a shared machine CPU time does
@@ -258,15 +260,22 @@ func BenchmarkScreen(b *testing.B) {
 				}
 				report(b, cpu0)
 			})
-			modes := []struct {
+			// the certificate with the noise per state it was fitted at:
+			// each run's own noise then widens the tolerance
+			cn := *c
+			cn.Noise = make([]float64, states)
+			for j := range cn.Noise {
+				cn.Noise[j] = 1e-4
+			}
+			type mode struct {
 				name string
 				sto  *ingest.StreamOptions
-			}{{"stream", nil}, {"window", &ingest.StreamOptions{Window: 1 << 20}}}
+				cert *fit.Certificate
+			}
+			modes := []mode{{"stream", nil, c}, {"stream-noise", nil, &cn}, {"window", &ingest.StreamOptions{Window: 1 << 20}, c}}
 			if format == "csv" {
-				modes = append(modes, struct {
-					name string
-					sto  *ingest.StreamOptions
-				}{"stream-csv", &ingest.StreamOptions{CSVWindow: -1}})
+				modes = append(modes, mode{"stream-csv", &ingest.StreamOptions{CSVWindow: -1}, c},
+					mode{"stream-csv-noise", &ingest.StreamOptions{CSVWindow: -1}, &cn})
 			}
 			for _, m := range modes {
 				b.Run(name+"/"+m.name, func(b *testing.B) {
@@ -274,7 +283,7 @@ func BenchmarkScreen(b *testing.B) {
 					b.ReportAllocs()
 					cpu0 := cpuSeconds()
 					for b.Loop() {
-						res, err := screenFilesWith(context.Background(), c, paths, opts, nil, 0, m.sto)
+						res, err := screenFilesWith(context.Background(), m.cert, paths, opts, nil, 0, m.sto)
 						if err != nil {
 							b.Fatal(err)
 						}

@@ -121,6 +121,13 @@ func writeRigRun(t *testing.T, path string, g rigRun, seed uint64, rg int64, dic
 	}
 }
 
+func btoi(b bool) int {
+	if b {
+		return 1
+	}
+	return 0
+}
+
 // TestScreenStreamed: screening a streamed file gives, run by run, what
 // screening ReadFile's data set gives (same runs, flags, times, excesses,
 // distances, counts), for settling, rising, slow and noisy runs with
@@ -135,28 +142,37 @@ func TestScreenStreamed(t *testing.T) {
 			missing: []int{100, 101, 25000}},
 		{n: 30000, z0: [2]float64{0.1, 0.1}, rate: 0.08, sd: 5e-4, hits: []int{10000}},
 		{n: 30000, z0: [2]float64{0.6, 0}, rate: -0.02, sd: 1e-2},
+		// one run, after a resting head: not the file's rows from the first
+		{n: 30000, head: 2000, z0: [2]float64{0.3, -0.3}, rate: -0.8, sd: 1e-3},
 	}
 	for _, certBody := range []string{screenCert, streamCert} {
 		c, err := fit.ReadCertificate(strings.NewReader(certBody))
 		if err != nil {
 			t.Fatal(err)
 		}
-		for _, rg := range []int64{1000, 8192, 1 << 16} {
+		for _, rg := range []int64{1000, 8192, 1 << 16, 0} { // 0: CSV
 			for _, late := range []bool{false, true} {
+				ext := "parquet"
+				if rg == 0 {
+					ext = "csv"
+				}
 				t.Run(fmt.Sprintf("noise=%v/rg=%d/late=%v", len(c.Noise) > 0, rg, late), func(t *testing.T) {
 					dir := t.TempDir()
 					var files []string
 					for i, g := range runs {
-						p := filepath.Join(dir, fmt.Sprintf("r%d.parquet", i))
+						p := filepath.Join(dir, fmt.Sprintf("r%d.%s", i, ext))
 						writeRigRun(t, p, g, uint64(i), rg, i%2 == 1)
 						files = append(files, p)
 					}
 					opts := &ingest.Options{States: c.States}
 					s := validate.NewScreener(c, nil)
-					st := ingest.NewStreamer(opts, &ingest.StreamOptions{Window: -1, LateRuns: late})
-					flagged, nruns, widened, slow := 0, 0, 0, 0
+					st := ingest.NewStreamer(opts, &ingest.StreamOptions{Window: -1, CSVWindow: -1, LateRuns: late, Tap: s.Tap()})
+					if (s.Tap() != nil) != (len(c.Noise) > 0) {
+						t.Fatalf("tap %v with noise %v", s.Tap(), c.Noise)
+					}
+					flagged, nruns, widened, slow, oneRead := 0, 0, 0, 0, 0
 					var dst []validate.RunScreen
-					for _, f := range files {
+					for fi, f := range files {
 						ds, err := ingest.ReadFile(context.Background(), f, opts)
 						if err != nil {
 							t.Fatal(err)
@@ -190,6 +206,14 @@ func TestScreenStreamed(t *testing.T) {
 						if err != nil {
 							t.Fatal(err)
 						}
+						// pass 1, then the screen that finds the runs: a file of
+						// one run needs no read for its noise
+						if late && len(want) == 1 && want[0].Samples == runs[fi].n && ds.Runs[0].Source.Line == 2-btoi(ext == "parquet") {
+							if sf.Passes != 2 {
+								t.Errorf("%s: one run read %d times, want 2", f, sf.Passes)
+							}
+							oneRead++
+						}
 						if len(got) != len(want) {
 							t.Fatalf("%s: %d runs, want %d", f, len(got), len(want))
 						}
@@ -207,6 +231,9 @@ func TestScreenStreamed(t *testing.T) {
 							}
 							nruns++
 						}
+					}
+					if late && oneRead == 0 {
+						t.Errorf("no file of one run from its first row: the one-read screen is not checked")
 					}
 					if flagged == 0 || nruns <= len(files) || (len(c.Noise) > 0 && (widened == 0 || slow == 0)) {
 						t.Errorf("%d flagged of %d runs from %d files, %d widened, %d slow: the comparison does not see what it checks",
