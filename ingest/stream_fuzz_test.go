@@ -129,7 +129,10 @@ type recTap struct {
 	bad    string
 }
 
-func (r *recTap) Start(file string, rows int, exact bool, states int) { r.starts++; r.rows = r.rows[:0] }
+func (r *recTap) Start(file string, rows int, exact bool, states int) {
+	r.starts++
+	r.rows = r.rows[:0]
+}
 
 func (r *recTap) Block(row0 int, t []float64, x [][]float64) {
 	if row0 != len(r.rows) {
