@@ -67,6 +67,7 @@ type plan struct {
 	anyCell  []bool // per column: some row has a value
 	lo, hi   []float64
 	blo, bhi []float64 // a block's range per state
+	bres     []float64 // and its resolution (see rangeRes)
 
 	// noise statistics, for the pieces split at the gaps, at each of
 	// the strides
@@ -293,8 +294,10 @@ func segCoef(jc [][]jumpCoef, t []float64, q0 int, strides []int) [][]jumpCoef {
 }
 
 // addSeg is add for the consecutive samples x, at times t, of one
-// piece, x[0] at index q0 of the piece; jc is segCoef's for t.
-func (a *noiseAcc) addSeg(x, t []float64, q0 int, strides []int, jc [][]jumpCoef) {
+// piece, x[0] at index q0 of the piece; jc is segCoef's for t, res is
+// the least nonzero |x[k]-x[k-1]| over k >= 1 (or more: +Inf) as
+// rangeRes gives it.
+func (a *noiseAcc) addSeg(x, t []float64, q0 int, strides []int, jc [][]jumpCoef, res float64) {
 	n := len(x)
 	head := min(n, 3)
 	for k := range head {
@@ -303,13 +306,7 @@ func (a *noiseAcc) addSeg(x, t []float64, q0 int, strides []int, jc [][]jumpCoef
 	if n <= 3 {
 		return
 	}
-	q := a.q
-	for k := 3; k < n; k++ {
-		if d := math.Abs(x[k] - x[k-1]); d > 0 && d < q {
-			q = d
-		}
-	}
-	a.q = q
+	a.q = min(a.q, res) // the pairs from k = 3 on, in res
 	// the jump statistic at piece index i uses x[k-3..k], k = i-q0+1,
 	// for k >= 3 (the first three were added above)
 	for c, stride := range strides {
@@ -325,6 +322,34 @@ func (a *noiseAcc) addSeg(x, t []float64, q0 int, strides []int, jc [][]jumpCoef
 	}
 	a.prev[0], a.prev[1], a.prev[2] = x[n-3], x[n-2], x[n-1]
 	a.prevT[0], a.prevT[1], a.prevT[2] = t[n-3], t[n-2], t[n-1]
+}
+
+// rangeRes returns the least and greatest of x and the least nonzero
+// |x[k]-x[k-1]| (+Inf when none), in one pass; ok is false when x holds
+// a NaN (the three are then void).
+func rangeRes(x []float64) (lo, hi, res float64, ok bool) {
+	lo, hi, res = math.Inf(1), math.Inf(-1), math.Inf(1)
+	if len(x) == 0 {
+		return lo, hi, res, true
+	}
+	prev := x[0]
+	nan := prev != prev
+	lo, hi = prev, prev
+	for _, v := range x[1:] {
+		// comparisons, not min and max: a NaN is caught below
+		if v < lo {
+			lo = v
+		}
+		if v > hi {
+			hi = v
+		}
+		if d := math.Abs(v - prev); d > 0 && d < res {
+			res = d
+		}
+		nan = nan || v != v
+		prev = v
+	}
+	return lo, hi, res, !nan
 }
 
 // pass1 finds the pieces, checks time order, fills the step histogram
@@ -356,21 +381,11 @@ func (pl *plan) pass1(ctx context.Context) error {
 		if len(pl.blo) != len(x) {
 			pl.blo, pl.bhi = make([]float64, len(x)), make([]float64, len(x))
 		}
+		if len(pl.bres) != len(x) {
+			pl.bres = make([]float64, len(x))
+		}
 		for j := 0; j < len(x) && whole; j++ {
-			lo, hi := math.Inf(1), math.Inf(-1)
-			for _, v := range x[j] {
-				if v < lo {
-					lo = v
-				}
-				if v > hi {
-					hi = v
-				}
-				if v != v {
-					whole = false
-					break
-				}
-			}
-			pl.blo[j], pl.bhi[j] = lo, hi
+			pl.blo[j], pl.bhi[j], pl.bres[j], whole = rangeRes(x[j])
 		}
 		if whole {
 			// the block is one segment of valid rows: column by column
@@ -418,7 +433,7 @@ func (pl *plan) pass1(ctx context.Context) error {
 				if pl.bhi[j] > pl.hi[j] {
 					pl.hi[j] = pl.bhi[j]
 				}
-				pl.acc[j].addSeg(x[j], t, q0, pl.strides, pl.jc)
+				pl.acc[j].addSeg(x[j], t, q0, pl.strides, pl.jc, pl.bres[j])
 			}
 			prevRow = row0 + len(t) - 1
 			pl.total += len(t)
@@ -845,8 +860,11 @@ type evDetector struct {
 	tring []float64 // the times of the ring's samples
 	have  int       // samples pushed
 	// the jump statistic's clock coefficients (see jumpCoef) of each
-	// sample of the ring, shared by the states, computed up to cdone
+	// sample of the ring, shared by the states, computed up to cdone:
+	// even[p] says sample p's clock is even, and coef[p] holds them only
+	// when it is not
 	coef  []jumpCoef
+	even  []bool
 	cdone int
 	// emit, when not nil, is called with the frontier after each
 	// advance (see lateEmit); the ring then always holds the samples
@@ -866,6 +884,7 @@ type evLoop struct {
 
 func newEvDetector(ns int) *evDetector {
 	ed := &evDetector{ring: make([][]float64, ns), tring: make([]float64, evRing), coef: make([]jumpCoef, evRing),
+		even: make([]bool, evRing),
 		st: make([]evLoop, ns), marks: map[int]bool{}}
 	for j := range ed.ring {
 		ed.ring[j] = make([]float64, evRing)
@@ -905,13 +924,7 @@ func (ed *evDetector) push(x [][]float64, t []float64, a, b int) error {
 		a = c
 		if !ed.off && ed.n >= 5 {
 			// sample i's coefficients need the times of i-2 .. i+1
-			const m = evRing - 1
-			tr := ed.tring
-			i := ed.cdone
-			for ; i+1 < ed.have; i++ {
-				ed.coef[i&m] = clockCoef(tr[(i-2)&m], tr[(i-1)&m], tr[i&m], tr[(i+1)&m])
-			}
-			ed.cdone = i
+			ed.cdone = ed.setCoef(ed.cdone, ed.have-1)
 			if err := ed.advance(); err != nil {
 				return err
 			}
@@ -923,6 +936,87 @@ func (ed *evDetector) push(x [][]float64, t []float64, a, b int) error {
 		}
 	}
 	return nil
+}
+
+// setCoef computes the clock coefficients of samples [i, e) (each needs
+// the times of i-2 .. i+1 in the ring) and returns e: evenSteps' test on
+// the ring's times, contiguous where the window does not wrap, and
+// clockCoef's divisions only for a sample whose steps are uneven.
+func (ed *evDetector) setCoef(i, e int) int {
+	const m = evRing - 1
+	tr, ev := ed.tring, ed.even
+	for i < e {
+		p := i & m
+		if p < 2 || p+1 >= evRing { // the window wraps
+			c := clockCoef(tr[(i-2)&m], tr[(i-1)&m], tr[p], tr[(i+1)&m])
+			ev[p] = c.even
+			if !c.even {
+				ed.coef[p] = c
+			}
+			i++
+			continue
+		}
+		l := min(e-i, evRing-1-p)
+		t := tr[p-2 : p+l+1]
+		evs := ev[p : p+l]
+		for k := range evs {
+			h1, h2, h3 := t[k+1]-t[k], t[k+2]-t[k+1], t[k+3]-t[k+2]
+			even := evenSteps(h1, h2, h3)
+			evs[k] = even
+			if !even {
+				ed.coef[p+k] = clockCoef(t[k], t[k+1], t[k+2], t[k+3])
+			}
+		}
+		i += l
+	}
+	return i
+}
+
+// jumpAt is the jump statistic of state j at piece index i, from the
+// ring: the value of clockCoef(..).jump(..), to the bit.
+func (ed *evDetector) jumpAt(j, i int) float64 {
+	const m = evRing - 1
+	r := ed.ring[j]
+	x0, x1, x2, x3 := r[(i-2)&m], r[(i-1)&m], r[i&m], r[(i+1)&m]
+	if ed.even[i&m] {
+		return 1.5*(x2-x1) + 0.5*(x0-x3)
+	}
+	return ed.coef[i&m].jump(x0, x1, x2, x3)
+}
+
+// quietTo returns the first piece index in [i, lim) whose jump statistic
+// of state j is not within base (|s| <= base false: NaN is not), or lim:
+// the test findEvents' candidate loop stops at, over the ring's samples
+// in contiguous stretches. An i at or past lim is returned as it is.
+func (ed *evDetector) quietTo(j, i, lim int, base float64) int {
+	const m = evRing - 1
+	r, ev := ed.ring[j], ed.even
+	for i < lim {
+		p := i & m
+		if p < 2 || p+1 >= evRing { // the window wraps
+			if !(math.Abs(ed.jumpAt(j, i)) <= base) {
+				return i
+			}
+			i++
+			continue
+		}
+		l := min(lim-i, evRing-1-p)
+		x := r[p-2 : p+l+1]
+		evs := ev[p : p+l]
+		for k, even := range evs {
+			var v float64
+			if even {
+				v = 1.5*(x[k+2]-x[k+1]) + 0.5*(x[k]-x[k+3])
+			} else {
+				v = ed.coef[p+k].jump(x[k], x[k+1], x[k+2], x[k+3])
+			}
+			if !(math.Abs(v) <= base) {
+				return i + k
+			}
+		}
+		i += l
+	}
+	return i // lim, or i when it started past lim
 }
 
 // frontier returns the piece index below which the cuts are final: a
@@ -972,9 +1066,7 @@ func (ed *evDetector) advance() error {
 		if lp.skip {
 			continue
 		}
-		r, co := ed.ring[j], ed.coef
-		x := func(i int) float64 { return r[i&(evRing-1)] }
-		sv := func(i int) float64 { return co[i&(evRing-1)].jump(x(i-2), x(i-1), x(i), x(i+1)) }
+		sv := func(i int) float64 { return ed.jumpAt(j, i) }
 		far := func(i int) bool {
 			if math.Abs(sv(i)) <= lp.base {
 				return false
@@ -999,16 +1091,17 @@ func (ed *evDetector) advance() error {
 		// farthest a judgement at i reads) is in; past the piece's end
 		// nothing more comes.
 		ready := func(i int) bool { return all || i+eventBlock+3 <= ed.have }
-		const m = evRing - 1
+		lim := n - 1
+		if !all {
+			lim = min(lim, ed.have-evLook+1) // i+evLook <= have
+		}
 		for ; lp.i < n-1; lp.i++ {
-			i := lp.i
-			if !all && i+evLook > ed.have {
+			// far's first test, over a stretch: most samples stop there
+			lp.i = ed.quietTo(j, lp.i, lim, lp.base)
+			if lp.i >= lim {
 				break
 			}
-			// far's first test, inline: most samples stop here
-			if v := co[i&m].jump(r[(i-2)&m], r[(i-1)&m], r[i&m], r[(i+1)&m]); math.Abs(v) <= lp.base {
-				continue
-			}
+			i := lp.i
 			if !far(i) {
 				continue
 			}
