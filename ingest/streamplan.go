@@ -885,7 +885,7 @@ type evLoop struct {
 func newEvDetector(ns int) *evDetector {
 	ed := &evDetector{ring: make([][]float64, ns), tring: make([]float64, evRing), coef: make([]jumpCoef, evRing),
 		even: make([]bool, evRing),
-		st: make([]evLoop, ns), marks: map[int]bool{}}
+		st:   make([]evLoop, ns), marks: map[int]bool{}}
 	for j := range ed.ring {
 		ed.ring[j] = make([]float64, evRing)
 	}
