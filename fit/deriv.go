@@ -27,8 +27,7 @@ const (
 	DerivSavitzkyGolay = "savitzky-golay"
 	// DerivIntegral avoids differentiating: it regresses x(t_b) - x(t_a)
 	// on the time integrals of the library over consecutive windows
-	// [t_a, t_b] (Simpson's rule on even uniform windows, else the
-	// trapezoid rule).
+	// [t_a, t_b] (composite Simpson's rule, uneven steps allowed).
 	DerivIntegral = "integral"
 )
 

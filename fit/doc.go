@@ -6,8 +6,10 @@
 // [Field] fits dx/dt = f(x) by sequentially thresholded ridge least squares
 // on a monomial library (package [poly]), choosing the derivative method
 // and each equation's threshold by held-out error over runs (every
-// candidate scored on the held-out runs' integral form; a threshold may
-// cost at most 5% of the unthresholded model's held-out error), and finds
+// candidate scored on the held-out runs' integral form; the sparsest
+// candidate is kept whose held-out error is within the standard error of
+// the best candidate's, and within 1% of it or 1.5 standard errors of the
+// paired difference), and finds
 // the equilibria and their linearisations. The result is a [Model], the content of model.json.
 //
 // # The certificate

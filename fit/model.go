@@ -43,7 +43,8 @@ type Equation struct {
 	HeldoutRMS   float64 `json:"heldout_rms"`
 	HeldoutShare float64 `json:"heldout_share"`
 	// DenseError is HeldoutError of the unthresholded model (every library
-	// term); the chosen model's is within one paired standard error of it.
+	// term), for comparison; the sparsity rule compares candidates with
+	// the best one, not with it (an overfitting dense model is far worse).
 	DenseError float64 `json:"dense_error"`
 	// Threshold and Ridge are this equation's chosen values.
 	Threshold float64 `json:"threshold"`
