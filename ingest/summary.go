@@ -8,18 +8,35 @@ import (
 	"basin.example/internal/order"
 )
 
-// Settling thresholds for [Summarise].
+// Settling thresholds for [Summarise] (see [RunSummary.Settled]).
 const (
-	// TailFraction is the share of a run, at its end, that is examined
-	// for settling.
+	// TailFraction is the share of a run, at its end, whose median is
+	// the run's settle point; the settle tests look at twice as much,
+	// the run's last tenth.
 	TailFraction = 0.05
 	// SettleSpread is the largest span (max - min) of every state over a
-	// run's tail, relative to the state's span over the whole run, for
-	// the run to count as settled. A run that only wanders in noise has a
-	// tail span close to its whole span and does not count.
+	// run's last tenth, less its fitted trend, relative to the state's
+	// span over the whole run, that passes for settled whatever the
+	// noise: a run that comes to rest from a large excursion may keep a
+	// small wobble.
 	SettleSpread = 0.1
-	// minTail is the fewest tail samples a settle judgement uses.
+	// minTail is the fewest tail samples a settle judgement uses: runs
+	// of fewer than 81 samples are not judged.
 	minTail = 5
+	// settleAlpha is the chance, per state, that the trend test calls
+	// white Gaussian noise about a constant a trend (its level).
+	settleAlpha = 1e-3
+	// DriftFloor is the share of a state's span over the run that a
+	// trend may move the state across the run's last tenth and still
+	// count as rest, however significant: on noise-free logs the end of
+	// an exponential decay is a significant trend, and at rest.
+	DriftFloor = 0.01
+	// wobbleSigmas is how many noise standard deviations the robust
+	// spread of the last tenth (about its trend) may reach before the
+	// run counts as still moving: white noise gives about 1, noise
+	// correlated from sample to sample (a filtered sensor, AR(1) with
+	// coefficient 0.8) about 2.8.
+	wobbleSigmas = 3
 )
 
 // Summary is what [Summarise] finds in a data set.
@@ -58,11 +75,19 @@ type RunSummary struct {
 	Gaps   int
 	// Min and Max are per state, over the run.
 	Min, Max []float64
-	// Settled says whether every state's span over the last
-	// TailFraction of the run (at least 5 samples: a shorter run is
-	// not judged) is at most
-	// SettleSpread times its span over the run. Settle holds, per state,
-	// the median over that tail; nil when not settled.
+	// Settled says whether the run comes to rest, judged against its
+	// noise rather than its span: for every state, over the run's last
+	// tenth (twice TailFraction; a run of fewer than 81 samples is not
+	// judged), a fitted quadratic trend is either not significant (F
+	// test of regression at level 1e-3) or moves the state by at most
+	// DriftFloor of its span over the run or one noise standard
+	// deviation, and what is left about the trend either spans at most
+	// SettleSpread of the run's span or spreads no wider than 3 times
+	// the noise (estimated from the run's fourth differences). White
+	// noise about a constant passes at any level, and so does a rest
+	// with one outlier; a drift, a ramp, a decay or a ringing still in
+	// progress beyond the noise does not. Settle holds, per state, the
+	// median over the last TailFraction; nil when not settled.
 	Settled bool
 	Settle  []float64
 }
@@ -176,6 +201,8 @@ func rateJitter(dt []float64) (rate, jitter float64) {
 	return 1 / med, (order.Quantile(dt, 0.75) - order.Quantile(dt, 0.25)) / med
 }
 
+// settle judges whether run r, whose states range over [lo, hi], comes
+// to rest (see settleScratch.rests) and returns its settle point when it does.
 func settle(r *Run, lo, hi []float64) (bool, []float64) {
 	n := r.Len()
 	k := int(math.Ceil(TailFraction * float64(n)))
@@ -185,15 +212,237 @@ func settle(r *Run, lo, hi []float64) (bool, []float64) {
 		// 5-sample tail check and made up a rest point)
 		return false, nil
 	}
+	var sc settleScratch
+	for j, x := range r.X {
+		if !sc.rests(r.T, x, k, hi[j]-lo[j]) {
+			return false, nil
+		}
+	}
 	pt := make([]float64, len(r.X))
 	tail := make([]float64, k)
 	for j, x := range r.X {
 		copy(tail, x[n-k:])
-		tlo, thi := minMax(tail)
-		if span := hi[j] - lo[j]; span > 0 && thi-tlo > SettleSpread*span {
-			return false, nil
-		}
 		pt[j] = median(tail)
 	}
 	return true, pt
 }
+
+// settleScratch holds the buffers of one settle judgement.
+type settleScratch struct {
+	buf []float64
+}
+
+// quadFit is a least-squares quadratic in orthogonal polynomials over a
+// window: fitted(t) = mean + b1 p1(t) + b2 p2(t) with p1 = t - tc and
+// p2 = p1² - g p1 - h orthogonal to 1 and p1 over the window's times.
+type quadFit struct {
+	tc, g, h     float64
+	mean, b1, b2 float64
+	ssTot, ssReg float64
+	s11, s22     float64 // sums of p1² and p2²
+	lo, hi       float64 // the window's first and last time
+}
+
+// fitQuad fits x at t (len >= 3, times not all equal).
+func fitQuad(t, x []float64) quadFit {
+	m := float64(len(t))
+	var q quadFit
+	q.lo, q.hi = t[0], t[len(t)-1]
+	for i := range t {
+		q.tc += t[i]
+		q.mean += x[i]
+	}
+	q.tc /= m
+	q.mean /= m
+	// p2 = p1² - g p1 - h: h = mean(p1²) makes it orthogonal to 1, and
+	// g = sum(p1³)/sum(p1²) (after h) orthogonal to p1
+	var s2, s3 float64
+	for i := range t {
+		p := t[i] - q.tc
+		s2 += p * p
+		s3 += p * p * p
+	}
+	q.h = s2 / m
+	if s2 > 0 {
+		q.g = s3 / s2
+	}
+	var sx1, sx2 float64
+	for i := range t {
+		p1 := t[i] - q.tc
+		p2 := p1*p1 - q.g*p1 - q.h
+		d := x[i] - q.mean
+		q.ssTot += d * d
+		q.s11 += p1 * p1
+		q.s22 += p2 * p2
+		sx1 += p1 * d
+		sx2 += p2 * d
+	}
+	if q.s11 > 0 {
+		q.b1 = sx1 / q.s11
+	}
+	if q.s22 > 0 {
+		q.b2 = sx2 / q.s22
+	}
+	q.ssReg = q.b1*sx1 + q.b2*sx2
+	return q
+}
+
+// at returns the fitted value at time t.
+func (q *quadFit) at(t float64) float64 {
+	p1 := t - q.tc
+	return q.mean + q.b1*p1 + q.b2*(p1*p1-q.g*p1-q.h)
+}
+
+// travel returns max - min of the fitted curve over the window.
+func (q *quadFit) travel() float64 {
+	a, b := q.at(q.lo), q.at(q.hi)
+	lo, hi := min(a, b), max(a, b)
+	if q.b2 != 0 {
+		// the vertex: d/dt (b1 p1 + b2 (p1² - g p1)) = 0 at p1 = g/2 - b1/(2 b2)
+		if tv := q.tc + q.g/2 - q.b1/(2*q.b2); tv > q.lo && tv < q.hi {
+			v := q.at(tv)
+			lo, hi = min(lo, v), max(hi, v)
+		}
+	}
+	return hi - lo
+}
+
+// fQuantile2 returns the 1-alpha quantile of the F distribution with 2
+// and nu degrees of freedom, whose upper tail has the closed form
+// P(F > f) = (1 + 2f/nu)^(-nu/2).
+func fQuantile2(alpha, nu float64) float64 {
+	return nu / 2 * (math.Pow(alpha, -2/nu) - 1)
+}
+
+// rests reports whether one state of a run, sampled at times t
+// (strictly increasing) with values x, comes to rest, judged over its
+// last 2k samples (its last tenth, k the TailFraction tail) and the two
+// tenths before; span is the state's range over the run and n >= 6k. It
+// is the per-state test behind [RunSummary.Settled].
+//
+// A least-squares quadratic a + b t + c t² is fitted to the last tenth.
+// Its trend is real when the F statistic of the fit against a constant,
+// (SS_reg/2) / (SS_res/(m-3)), deflated for noise correlated from sample
+// to sample, exceeds the 1 - settleAlpha quantile of F(2, m-3) (the
+// test of significance of regression; the one-slope case is the t test
+// of b against its standard error sqrt(MS_res/S_tt), whose square is
+// F(1, m-2)), and the fitted curve moves across the window by more than
+// DriftFloor of span and more than the residual standard deviation (a
+// trend smaller than one sample's noise is invisible). The state rests
+// when either
+//
+//   - it rests within its noise: no real trend, and the residuals about
+//     the curve span at most SettleSpread of span or spread, robustly
+//     (1.4826 times their median absolute deviation), within
+//     wobbleSigmas times the noise (1.4826 median|Δ⁴x| / √70 over the
+//     run, which a smooth signal hardly touches); or
+//   - it rests within its excursion: its last tenth spans at most
+//     SettleSpread of span (a ringing that has died down to a few
+//     percent of the run's range), and a real trend is not an approach
+//     still in progress. An approach is a trend in the same direction
+//     over the two tenths before (fitted the same way; a ringing about
+//     the point turns within three tenths unless it is slow beside the
+//     run) whose geometric extrapolation, d r / (1 - r) with d the last
+//     tenth's change and r its ratio to the one before (exact for an
+//     exponential approach), goes on beyond SettleSpread of span, or
+//     which does not slow down (r >= 1: a ramp).
+//
+// White Gaussian noise about a constant rests at any level; a single
+// outlier cannot fail the F test (its leverage bounds the share of SS_reg
+// it can take) nor the medians, so a rest with one spike rests. A drift
+// or a decay still in progress fails once its change over the tenth
+// stands above the noise; a ringing beyond SettleSpread and the noise
+// fails, and so does a slow oscillation beyond it, unless its crest sits
+// in the last tenth: seen from there, a slow crest spanning less than
+// SettleSpread is at rest within its excursion (in about one case in
+// ten at 1% noise, for a crest at the middle of the tenth).
+func (sc *settleScratch) rests(t, x []float64, k int, span float64) bool {
+	n := len(x)
+	m := 2 * k
+	tw, xw := t[n-m:], x[n-m:]
+	q := fitQuad(tw, xw)
+	sc.buf = slices.Grow(sc.buf[:0], m)
+	res := sc.buf[:m]
+	var s0, s1 float64
+	for i := range xw {
+		res[i] = xw[i] - q.at(tw[i])
+		s0 += res[i] * res[i]
+		if i > 0 {
+			s1 += res[i] * res[i-1]
+		}
+	}
+	// noise correlated from sample to sample (AR(1) with coefficient
+	// phi) carries fewer independent samples, m (1-phi)/(1+phi), and
+	// inflates F by about (1+phi)/(1-phi): deflate it by the residuals'
+	// lag-1 autocorrelation (white noise gives about 0)
+	phi := 0.0
+	if s0 > 0 {
+		phi = min(max(s1/s0, 0), 0.99)
+	}
+	df := float64(m - 3)
+	sres := math.Sqrt(s0 / df)
+	trend := q.ssReg > 0 && q.ssReg/2*(1-phi)/(1+phi) > fQuantile2(settleAlpha, df)*s0/df
+	if trend {
+		d := q.travel()
+		trend = d > DriftFloor*span && d > sres
+	}
+	if !trend {
+		// the residuals' range and robust spread against the noise
+		rlo, rhi := minMax(res)
+		if rhi-rlo <= SettleSpread*span {
+			return true
+		}
+		med := median(res)
+		for i := range res {
+			res[i] = math.Abs(res[i] - med)
+		}
+		if madGauss*median(res) <= wobbleSigmas*sc.noise(x) {
+			return true
+		}
+	}
+	if lo, hi := minMax(xw); !(hi-lo <= SettleSpread*span) {
+		return false
+	}
+	if !trend {
+		return true
+	}
+	// an approach still in progress: the same way over the two tenths
+	// before (a ringing about the point turns within three tenths)
+	change := func(lo, hi int) float64 {
+		p := fitQuad(t[lo:hi], x[lo:hi])
+		return p.at(p.hi) - p.at(p.lo)
+	}
+	d2 := q.at(q.hi) - q.at(q.lo)
+	d1 := change(n-2*m, n-m)
+	if !(d1*d2 > 0) || !(change(n-3*m, n-2*m)*d2 > 0) {
+		return true // it turned: an oscillation about the point
+	}
+	r := d2 / d1
+	if r >= 1 {
+		return false
+	}
+	return math.Abs(d2*r/(1-r)) <= SettleSpread*span
+}
+
+// noise estimates the standard deviation of white noise on x from its
+// fourth differences: 1.4826 median|Δ⁴x| / √70 (white noise gives Δ⁴ a
+// variance of 70σ², C(8,4)), over at most noiseDiffs differences evenly
+// strided. Fewer than five samples give 0.
+func (sc *settleScratch) noise(x []float64) float64 {
+	total := len(x) - 4
+	if total <= 0 {
+		return 0
+	}
+	stride := max(1, total/noiseDiffs)
+	sc.buf = sc.buf[:0]
+	for i := 0; i+4 < len(x) && len(sc.buf) <= noiseDiffs; i += stride {
+		sc.buf = append(sc.buf, math.Abs(x[i]-4*x[i+1]+6*x[i+2]-4*x[i+3]+x[i+4]))
+	}
+	return madGauss * median(sc.buf) / math.Sqrt(70)
+}
+
+// noiseDiffs bounds the fourth differences a noise estimate uses: the
+// median of 4,096 is within about 2% of the whole run's (the relative
+// standard error of a median-based σ is about 1.17/√N for Gaussian
+// noise, common practice).
+const noiseDiffs = 4096

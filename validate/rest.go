@@ -103,7 +103,9 @@ func placeRests(m *fit.Model, rps []ingest.RestPoint) (primary int, rest []int, 
 	for i, rp := range rps {
 		k, d := m.Nearest(rp.Point)
 		switch {
-		case k < 0 || d > farEquilibrium:
+		case k < 0:
+			skips = append(skips, RestSkip{rp, "the fitted model has no equilibrium in the data's box"})
+		case d > farEquilibrium:
 			skips = append(skips, RestSkip{rp, fmt.Sprintf("no equilibrium of the fitted model near it (the nearest is %.3g spreads away)", d)})
 		case k == 0 && primary < 0:
 			primary = i

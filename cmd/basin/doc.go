@@ -123,8 +123,10 @@ median sampling rate and its jitter, gaps, ranges and units, the inputs,
 the one-sample jumps runs were split at and the resting starts trimmed, and
 the rest points the runs settle on, each with its count of runs, most first
 (settle points within a tenth of each state's range are one rest point; the
-settle column and --json's settle are the first). Flags: those of
-Reading logs, --quiet and --json.
+settle column and --json's settle are the first). A run settles when,
+over its last tenth, it neither trends nor spreads beyond its noise (runs
+of fewer than 81 samples are not judged); its settle point is the median
+of its last 5%. Flags: those of Reading logs, --quiet and --json.
 
 # basin fit
 

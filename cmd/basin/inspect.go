@@ -311,7 +311,7 @@ func inspectTable(w io.Writer, ds *ingest.Dataset, s *ingest.Summary) error {
 		}
 		fmt.Fprintln(w)
 	}
-	fmt.Fprintln(w, "jitter: interquartile range of the time steps over their median; settled: the last 5% of a run (of 81 samples or more) spans at most 10% of its range")
+	fmt.Fprintln(w, "jitter: interquartile range of the time steps over their median; settled: over the last tenth of a run (of 81 samples or more), no trend and no spread beyond the noise")
 	return nil
 }
 
