@@ -2,9 +2,11 @@ package main
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"io"
 	"math"
+	"strings"
 	"text/tabwriter"
 	"time"
 
@@ -52,7 +54,7 @@ func loadInputs(ctx context.Context, e *env, f *inputFlags, quiet bool, args []s
 	opts.MinPiece = fit.MinRunSamples
 	ds, err := ingest.Load(ctx, args, opts)
 	if err != nil {
-		return nil, classify(err, "")
+		return nil, classify(runColHint(err, f.RunCol), "")
 	}
 	for _, w := range ds.Warnings {
 		warnf(e, quiet, "%s", w)
@@ -62,6 +64,16 @@ func loadInputs(ctx context.Context, e *env, f *inputFlags, quiet bool, args []s
 	}
 	warnStepped(e, quiet, ds, f.Inputs)
 	return ds, nil
+}
+
+// runColHint adds to an error of time going back, when no --run-col
+// was given, that a file holding several runs one after another needs
+// one: its time restarts at each new run, which reads as going back.
+func runColHint(err error, runCol string) error {
+	if runCol != "" || !errors.Is(err, ingest.ErrTimeOrder) || !strings.Contains(err.Error(), "goes back") {
+		return err
+	}
+	return fmt.Errorf("%w; if the file holds several runs one after another, give --run-col NAME, the column that tells them apart", err)
 }
 
 // warnStepped warns of each state column that holds its value exactly

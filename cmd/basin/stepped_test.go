@@ -52,3 +52,41 @@ func TestInspectSteppedState(t *testing.T) {
 		})
 	}
 }
+
+// TestRunColHint: time going back in a file read without --run-col (two
+// runs one after another) is an input error whose one line says to give
+// --run-col; with --run-col, or for a repeated time, the error is as
+// ingest words it.
+func TestRunColHint(t *testing.T) {
+	dir := t.TempDir()
+	write := func(name, text string) string {
+		p := filepath.Join(dir, name)
+		if err := os.WriteFile(p, []byte(text), 0o644); err != nil {
+			t.Fatal(err)
+		}
+		return p
+	}
+	const hint = "give --run-col NAME"
+	long := write("long.csv", "unit,t,x\nA,0,1\nA,1,2\nB,0,3\nB,1,4\n")
+	back := write("back.csv", "unit,t,x\nA,0,1\nA,2,2\nA,1,3\n")
+	rep := write("rep.csv", "t,x\n0,1\n1,2\n1,3\n")
+	for _, tc := range []struct {
+		name string
+		args []string
+		want string // in the one line
+		hint bool
+	}{
+		{"runs one after another", []string{long}, "long.csv:4:2: column \"t\": time does not increase: goes back", true},
+		{"back within a run", []string{"--run-col", "unit", back}, "back.csv:4:2: column \"t\": time does not increase: goes back", false},
+		{"repeat", []string{rep}, "rep.csv:4:1: column \"t\": time does not increase: repeats", false},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			var stdout, stderr bytes.Buffer
+			code := basinMainIn(context.Background(), append([]string{"inspect"}, tc.args...), &stdout, &stderr, nil)
+			msg := stderr.String()
+			if code != 2 || strings.Count(msg, "\n") != 1 || !strings.Contains(msg, tc.want) || strings.Contains(msg, hint) != tc.hint {
+				t.Errorf("exit %d, stderr %q; want 2, one line with %q, hint %v", code, msg, tc.want, tc.hint)
+			}
+		})
+	}
+}
