@@ -254,7 +254,7 @@ func build(in *Input, pl [2]int) (*pageData, error) {
 		}
 	}
 	if v := c.Validation; v != nil {
-		d.ValRows = valRows(v)
+		d.ValRows = valRows(v, in.heldoutCount(v))
 		for j, e := range v.DerivativeError {
 			if j < len(c.States) {
 				d.ValDerivErr = append(d.ValDerivErr, stateNum{c.States[j], num{human.Percent(e), strconv.FormatFloat(e, 'g', -1, 64)}})
@@ -294,34 +294,42 @@ func planeKeys(f *figure) []keyItem {
 // valRows are the held-out figures as people read them, each with the
 // certificate's exact value alongside. Shares come with their counts; a
 // share of nothing says so instead of "0.0% of 0".
-func valRows(v *fit.Validation) []valRow {
+func valRows(v *fit.Validation, hc heldoutCount) []valRow {
 	exact := func(x float64) string { return strconv.FormatFloat(x, 'g', -1, 64) }
 	count := func(n int) string { return strconv.Itoa(n) }
+	// with inputs, the checks are on the pieces of the held-out runs where
+	// the inputs rest: the rows count pieces and say so
+	u, held := "run", "held-out runs (not used to fit)"
+	if hc.Pieces {
+		u = "piece"
+		held = fmt.Sprintf("held-out pieces where the inputs rest (not used to fit), from %s", human.Count(hc.Runs, "held-out run"))
+	}
 	decreased := int(math.Round(v.DecreaseFraction * float64(v.Pairs)))
 	base, how := checkedRuns(v)
 	stayed := int(math.Round(v.InvarianceFraction * float64(base)))
-	inv := human.Share(stayed, base, "run")
+	inv := human.Share(stayed, base, u)
 	settled := fmt.Sprintf("%d of %d", v.Settled, base)
 	if base == 0 {
-		inv, settled = "no run entered the region", "no run entered the region"
+		inv = "no " + u + " entered the region"
+		settled = inv
 	}
 	dec := human.Share(decreased, v.Pairs, "pair")
 	if v.Pairs == 0 {
 		dec = "no pair inside the region"
 	}
 	rows := []valRow{
-		{"heldout_runs", "held-out runs (not used to fit)", exact(float64(v.HeldoutRuns)), count(v.HeldoutRuns)},
+		{"heldout_runs", held, exact(float64(v.HeldoutRuns)), count(v.HeldoutRuns)},
 		{"pairs", "consecutive sample pairs inside the region", exact(float64(v.Pairs)), count(v.Pairs)},
 		{"decrease_fraction", "of those, pairs where V did not rise beyond the noise tolerance", exact(v.DecreaseFraction), dec},
-		{"runs_started_inside", "held-out runs that started inside the region", exact(float64(v.StartInside)), count(v.StartInside)},
-		{"entered_runs", "held-out runs that entered the region (each checked from its first sample inside)", exact(float64(v.EnteredRuns)), count(v.EnteredRuns)},
-		{"invariance_fraction", "of the runs that " + how + ", those that stayed inside", exact(v.InvarianceFraction), inv},
-		{"runs_settled", "of the runs that " + how + ", those that settled", exact(float64(v.Settled)), settled},
+		{"runs_started_inside", "held-out " + u + "s that started inside the region", exact(float64(v.StartInside)), count(v.StartInside)},
+		{"entered_runs", "held-out " + u + "s that entered the region (each checked from its first sample inside)", exact(float64(v.EnteredRuns)), count(v.EnteredRuns)},
+		{"invariance_fraction", "of the " + u + "s that " + how + ", those that stayed inside", exact(v.InvarianceFraction), inv},
+		{"runs_settled", "of the " + u + "s that " + how + ", those that settled", exact(float64(v.Settled)), settled},
 		{"violation_bound", "scenario bound: chance that a new sample inside the region breaks the decrease, at most", exact(v.ViolationBound), boundPercent(v.ViolationBound)},
 		{"confidence", "confidence of that bound", exact(v.Confidence), human.Confidence(v.Confidence)},
 		{"scenario_samples", "effectively independent samples the bound rests on", exact(float64(v.ScenarioSamples)),
 			fmt.Sprintf("%d (at least %s s apart), %s", v.ScenarioSamples, human.Num(v.Decorrelation), human.Count(v.ScenarioViolations, "violation"))},
-		{"runs_diverged", "held-out runs where the fitted model, simulated from the run's first sample, ran away", exact(float64(v.Diverged)), count(v.Diverged)},
+		{"runs_diverged", "held-out " + u + "s where the fitted model, simulated from the " + u + "'s first sample, ran away", exact(float64(v.Diverged)), count(v.Diverged)},
 	}
 	return rows
 }

@@ -112,7 +112,7 @@ func Summary(w io.Writer, in *Input) error {
 		b.WriteString("region: none certified\n")
 	}
 	if v := c.Validation; v != nil {
-		fmt.Fprintf(&b, "held-out: %s\n", heldoutText(c, v))
+		fmt.Fprintf(&b, "held-out: %s\n", heldoutPieces(c, v, in.heldoutCount(v)))
 		fmt.Fprintf(&b, "scenario bound: %s\n", boundText(v))
 	} else {
 		b.WriteString("held-out: none, so the verdict cannot be certified: hold out runs (split holdout in a manifest) or record more runs\n")
@@ -259,8 +259,52 @@ func limitText(c *fit.Certificate) string {
 // heldoutText describes the held-out figures without contradicting the
 // run table: settled counts are of the runs that started inside.
 func heldoutText(c *fit.Certificate, v *fit.Validation) string {
+	return heldoutPieces(c, v, heldoutCount{Runs: v.HeldoutRuns})
+}
+
+// heldoutCount is what the held-out figures count: Runs held-out runs,
+// checked as themselves or, when Pieces is set, as the pieces of them
+// where the inputs rest (v.HeldoutRuns of them).
+type heldoutCount struct {
+	Runs   int
+	Pieces bool
+}
+
+// heldoutCount counts the held-out runs of in's data and says whether
+// the checks were on pieces of them: a model with inputs is checked only
+// where the inputs rest, so a run may give several pieces or none.
+func (in *Input) heldoutCount(v *fit.Validation) heldoutCount {
+	hc := heldoutCount{Runs: v.HeldoutRuns}
+	if in.Data == nil || in.Heldout == nil {
+		return hc
+	}
+	names := map[string]bool{}
+	hc.Runs = 0
+	for i, r := range in.Data.Runs {
+		if in.Heldout[i] {
+			hc.Runs++
+			names[r.Name] = true
+		}
+	}
+	hc.Pieces = hc.Runs != v.HeldoutRuns
+	for _, r := range in.Checks {
+		if !names[r.Run] {
+			hc.Pieces = true // a piece of a run, named "run@t"
+		}
+	}
+	return hc
+}
+
+// heldoutPieces is heldoutText with the runs counted by hc: "6 runs (18
+// pieces where the inputs rest)", the later counts in pieces.
+func heldoutPieces(c *fit.Certificate, v *fit.Validation, hc heldoutCount) string {
 	var b strings.Builder
-	b.WriteString(human.Count(v.HeldoutRuns, "run"))
+	unit := "run"
+	b.WriteString(human.Count(hc.Runs, "run"))
+	if hc.Pieces {
+		unit = "piece"
+		fmt.Fprintf(&b, " (%s where the inputs rest)", human.Count(v.HeldoutRuns, "piece"))
+	}
 	if v.Pairs > 0 {
 		fmt.Fprintf(&b, "; V did not rise beyond the noise tolerance on %s inside the region",
 			human.Share(int(math.Round(v.DecreaseFraction*float64(v.Pairs))), v.Pairs, "sample pair"))
@@ -270,12 +314,12 @@ func heldoutText(c *fit.Certificate, v *fit.Validation) string {
 	base, how := checkedRuns(v)
 	switch {
 	case base == 0 && len(c.Region.Extent) == len(c.States):
-		fmt.Fprintf(&b, "; no run entered the region, so none could show that it stays inside: record held-out runs that start or pass within %s", stateRanges(c))
+		fmt.Fprintf(&b, "; no %s entered the region, so none could show that it stays inside: record held-out runs that start or pass within %s", unit, stateRanges(c))
 	case base == 0:
-		b.WriteString("; no run entered the region")
+		fmt.Fprintf(&b, "; no %s entered the region", unit)
 	default:
 		stayed := int(math.Round(v.InvarianceFraction * float64(base)))
-		fmt.Fprintf(&b, "; of the %s that %s, %d stayed inside and %d settled", human.Count(base, "run"), how, stayed, v.Settled)
+		fmt.Fprintf(&b, "; of the %s that %s, %d stayed inside and %d settled", human.Count(base, unit), how, stayed, v.Settled)
 		if how == "entered the region" && v.StartInside > 0 {
 			fmt.Fprintf(&b, " (%d started inside)", v.StartInside)
 		}
