@@ -367,7 +367,10 @@ type Certificate struct {
 	// proportion when it is checked or screened.
 	Noise []float64 `json:"noise,omitempty"`
 	// NoiseRadius is the radius, in z, of the ball around the equilibrium
-	// where noise dominates and no decrease is required.
+	// where noise dominates and no decrease is required: it holds 99.73%
+	// of the measurement noise (k times the largest noise in z, k² the
+	// chi-square quantile for as many degrees of freedom as states: 3 for
+	// one state, 3.44 for two, 4.27 for five).
 	NoiseRadius float64 `json:"noise_radius"`
 	// Tolerance is the noise tolerance on V differences along recorded
 	// pairs, in units of V.

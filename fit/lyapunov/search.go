@@ -12,6 +12,7 @@ import (
 	"basin.example/fit/lp"
 	"basin.example/fit/poly"
 	"gonum.org/v1/gonum/mat"
+	"gonum.org/v1/gonum/stat/distuv"
 )
 
 // Field evaluates a model's field in the scaled coordinates z: it stores
@@ -245,11 +246,13 @@ type Result struct {
 
 // Tunables of the search (not user-facing).
 const (
-	// noiseRadiusSigmas: the noise ball has radius noiseRadiusSigmas·|σ_z|
-	// (3σ of the measurement noise, common practice), at least
-	// minNoiseRadius in z (1% of the data's spread).
-	noiseRadiusSigmas = 3
-	minNoiseRadius    = 0.01
+	// noiseContent: the noise ball holds this share of the measurement
+	// noise (the two-sided 3σ share of one normal variable, 0.9973, the
+	// "3 sigma" of common practice, now for the noise of all N states
+	// at once; see noiseRadius), and is at least minNoiseRadius in z (1%
+	// of the data's spread).
+	noiseContent   = 0.9973
+	minNoiseRadius = 0.01
 	// growStart: a growth round solves the LP with targets V_best <=
 	// gamma·c_best (gamma starts at growStart and halves its excess over 1
 	// after a round that gains nothing) and decrease rows on V_best <=
@@ -636,19 +639,17 @@ func newChecker(ctx context.Context, d *Data, sys *System, o Options, nonRise bo
 	if off*n != len(all) {
 		panic("lyapunov: Certify: runs and samples disagree")
 	}
-	s2 := 0.0
 	sigma := make([]float64, n)
 	for j := 0; j < n; j++ {
 		if j < len(sys.Noise) {
 			sigma[j] = sys.Noise[j]
 		}
-		s2 += sigma[j] * sigma[j]
 	}
 	ck := &checker{
 		fam: newVFamily(n, o.Degree), field: sys.Field, runs: runs,
 		others: sys.Others, sigma: sigma, sigmaF: sys.FieldSigma, az: sys.Jacobian,
 		fz:    sys.Poly,
-		r0:    math.Max(noiseRadiusSigmas*math.Sqrt(s2), minNoiseRadius),
+		r0:    noiseRadius(sigma),
 		kappa: o.Kappa, trace: o.Trace,
 	}
 	// The trust region: leverage over the model's terms.
@@ -680,6 +681,29 @@ func newChecker(ctx context.Context, d *Data, sys *System, o Options, nonRise bo
 	ck.rayPts = newPointCache(ck.fam, rz, nil, true)
 	ck.poolPts = newPointCache(ck.fam, ck.pool, nil, false)
 	return ck, nil
+}
+
+// noiseRadius returns the radius, in z, of the noise ball for
+// independent normal measurement noise of standard deviation sigma[j] in
+// state j: k·max_j sigma[j], k² the noiseContent quantile of the
+// chi-square distribution with N degrees of freedom, so that the ball
+// holds the ellipsoid sum_j (e_j/sigma_j)² <= k², which holds that share
+// of the noise e (3 for one state, 3.44 for two, 4.27 for five), and at
+// least minNoiseRadius. (Three times |sigma|, the norm over all states,
+// grew as 3·sqrt(N) for equal noise: 6.7 sigma for five states, where
+// noise beyond 4.27 sigma has chance 0.0027.)
+func noiseRadius(sigma []float64) float64 {
+	mx := 0.0
+	for _, s := range sigma {
+		if s > mx && !math.IsInf(s, 1) {
+			mx = s
+		}
+	}
+	if len(sigma) == 0 || !(mx > 0) {
+		return minNoiseRadius
+	}
+	k := math.Sqrt(distuv.ChiSquared{K: float64(len(sigma))}.Quantile(noiseContent))
+	return math.Max(k*mx, minNoiseRadius)
 }
 
 // Rays and Monte-Carlo points (not user-facing): raysPerState·n random
