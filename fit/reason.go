@@ -38,13 +38,17 @@ const (
 
 // Reason kinds set by package validate's verdict.
 const (
-	ReasonCertified      ReasonKind = "certified"
-	ReasonNoHeldout      ReasonKind = "no_heldout_runs"
-	ReasonNoneEntered    ReasonKind = "no_run_entered"
-	ReasonFewEntered     ReasonKind = "too_few_runs_entered"
-	ReasonLeft           ReasonKind = "heldout_run_left"
-	ReasonHeldoutRise    ReasonKind = "heldout_rise"
-	ReasonLinearUnknown  ReasonKind = "linearisation_unknown"
+	ReasonCertified     ReasonKind = "certified"
+	ReasonNoHeldout     ReasonKind = "no_heldout_runs"
+	ReasonNoneEntered   ReasonKind = "no_run_entered"
+	ReasonFewEntered    ReasonKind = "too_few_runs_entered"
+	ReasonLeft          ReasonKind = "heldout_run_left"
+	ReasonHeldoutRise   ReasonKind = "heldout_rise"
+	ReasonLinearUnknown ReasonKind = "linearisation_unknown"
+	// ReasonLinearMarginal: no V was fitted because the fitted Jacobian
+	// has an eigenvalue with a real part above zero but within
+	// Options.LinearTol of its size: neither growth nor decay is shown.
+	ReasonLinearMarginal ReasonKind = "linearisation_marginal"
 	ReasonFewRuns        ReasonKind = "too_few_runs"
 	ReasonNoHeldoutPairs ReasonKind = "no_heldout_pairs"
 	ReasonSameStart      ReasonKind = "runs_start_at_one_state"

@@ -367,6 +367,14 @@ func decide(cert *fit.Certificate, val *fit.Validation, runs []RunScreen, eig []
 		return fit.Rejected, fit.NoClaim, fit.ReasonUnstableLinearisation, fmt.Sprintf("The linearisation at the equilibrium is unstable (largest eigenvalue real part %+.3g 1/s).", top)
 	}
 	if !cert.Found || len(cert.V.Exponents) == 0 || !(cert.Level > 0) {
+		if cert.ReasonKind == fit.ReasonUnstableLinearisation && lin == linMarginal {
+			// The search saw a real part above zero, but within LinearTol
+			// of the eigenvalue's size: too near the imaginary axis for
+			// the fit to tell slow growth from light damping, so the data
+			// do not contradict stability and the verdict says so.
+			cert.Contradicted, cert.Contradiction = false, ""
+			return fit.Inconclusive, fit.NoClaim, fit.ReasonLinearMarginal, fmt.Sprintf("No V was fitted: the fitted linearisation at the equilibrium has an eigenvalue with real part %+.3g 1/s, within %.2g%% of its size, too near the imaginary axis to tell slow growth from light damping. Record longer runs, or runs that settle, to tell.", top, 100*o.LinearTol)
+		}
 		why := cert.Reason
 		if why == "" {
 			why = "No Lyapunov function was found on the fit runs."

@@ -223,3 +223,37 @@ func TestDecideSlowGrowth(t *testing.T) {
 		})
 	}
 }
+
+// TestDecideMarginalUnstable: the certificate search found the fitted
+// Jacobian's largest real part above zero, and no V. When that real part
+// is within LinearTol of the eigenvalue's size (+0.009 1/s on a 3.14
+// rad/s oscillation, 0.29%), the verdict is inconclusive and its reason
+// must not say the data contradict stability (it did: the search's text
+// was kept); beyond LinearTol it is rejected. The classification is the
+// eigenvalue's real part against its modulus (linear systems theory,
+// common practice).
+func TestDecideMarginalUnstable(t *testing.T) {
+	for _, tc := range []struct {
+		name    string
+		re      float64
+		verdict fit.Verdict
+		kind    fit.ReasonKind
+	}{
+		{"within tolerance", 0.009, fit.Inconclusive, fit.ReasonLinearMarginal},
+		{"beyond tolerance", 0.05, fit.Rejected, fit.ReasonUnstableLinearisation},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			c := &fit.Certificate{Verdict: fit.Rejected, ReasonKind: fit.ReasonUnstableLinearisation, Contradicted: true,
+				Contradiction: "the fitted linearisation at the equilibrium is unstable",
+				Reason:        "No V was fitted: the fitted linearisation at the equilibrium is unstable. The data contradict stability there."}
+			eig := [][2]float64{{tc.re, 3.14}, {tc.re, -3.14}, {-2, 0}}
+			Decide(c, &fit.Validation{}, nil, eig, &Options{})
+			if c.Verdict != tc.verdict || c.ReasonKind != tc.kind {
+				t.Fatalf("%s (%s): %s; want %s (%s)", c.Verdict, c.ReasonKind, c.Reason, tc.verdict, tc.kind)
+			}
+			if says := strings.Contains(c.Reason, "contradict"); (says && tc.verdict != fit.Rejected) || c.Contradicted != (tc.verdict == fit.Rejected) {
+				t.Errorf("verdict %s with contradicted=%v and reason %q", c.Verdict, c.Contradicted, c.Reason)
+			}
+		})
+	}
+}
