@@ -833,12 +833,16 @@ func (p *csvParser) parse(c *chunk) {
 	}
 	// The fast row path: numbers only, no quotes anywhere in the block.
 	fast := !lay.dateTime && !lay.hasRun && bytes.IndexByte(data, '"') < 0
-	var cols [][]float64 // the fast path's view of the room, by slot
+	var cols [][]float64 // the fast path's view of the room, by header column
 	if fast {
-		cols = make([][]float64, 1+len(c.x))
-		cols[0] = c.t[:cap(c.t)]
-		for k, x := range c.x {
-			cols[1+k] = x[:cap(x)]
+		cols = make([][]float64, len(lay.slot))
+		for j, s := range lay.slot {
+			switch {
+			case s == 0:
+				cols[j] = c.t[:cap(c.t)]
+			case s > 0:
+				cols[j] = c.x[s-1][:cap(c.x[s-1])]
+			}
 		}
 	}
 	contiguous := false
@@ -962,26 +966,25 @@ func (p *csvParser) parse(c *chunk) {
 
 // fastRows parses the rows at the start of data whose cells are all plain
 // numbers (or skipped columns), each row ended by "\n", "\r\n" or the end
-// of data, and stores them by index after c's rows in cols (c.t and c.x
-// to their capacity, the block's room, by slot: see [csvLayout.slot]).
-// It stops before the first line it cannot take whole, having changed
-// nothing that matters, and returns the rows taken and the bytes they
-// used; the general path then parses that line and reports what is wrong
-// with it.
+// of data, and stores them by index after c's rows in cols (by header
+// column: c.t or c.x to their capacity, the block's room, or nil for a
+// column it skips). It stops before the first line it cannot take whole,
+// having changed nothing that matters, and returns the rows taken and the
+// bytes they used; the general path then parses that line and reports
+// what is wrong with it.
 func (p *csvParser) fastRows(c *chunk, cols [][]float64, data []byte) (rows, used int) {
 	d := p.lay.delim
-	slot := p.lay.slot
 	r := c.rows
 	for used < len(data) {
 		i := used
-		for j, s := range slot {
+		for j, col := range cols {
 			if j > 0 {
 				if i >= len(data) || data[i] != d {
-					return rows, used
+					return r - c.rows, used
 				}
 				i++
 			}
-			if s < 0 {
+			if col == nil {
 				for i < len(data) && data[i] != d && data[i] != '\n' {
 					i++
 				}
@@ -990,16 +993,15 @@ func (p *csvParser) fastRows(c *chunk, cols [][]float64, data []byte) (rows, use
 			// The number at i: the common case (digits, a point, at most
 			// 19 digits, mantissa <= 2^53, no exponent) inlined here, as
 			// scanFast does it and to the same bits; anything else is
-			// scanFast's. Inlined, the loop's registers are not saved
-			// around a call for each cell.
+			// scanFast's. Inlined, the loop's values are not saved around
+			// a call for each cell; and few are live at once, so that the
+			// digit loops keep theirs in registers (the sign is read
+			// again at the end).
 			cs := i
 			if i >= len(data) {
-				return rows, used
+				return r - c.rows, used
 			}
-			c0 := data[i]
-			i += int((uint64(uint8(c0-'+')&^2) - 1) >> 63) // a sign: see scanFast
-			neg := (uint64(c0^'-') - 1) >> 63
-			start := i
+			i += int((uint64(uint8(data[i]-'+')&^2) - 1) >> 63) // a sign: see scanFast
 			var mant uint64
 			for i < len(data) {
 				c := data[i] - '0'
@@ -1009,19 +1011,24 @@ func (p *csvParser) fastRows(c *chunk, cols [][]float64, data []byte) (rows, use
 				mant = mant*10 + uint64(c)
 				i++
 			}
-			digits := i - start
-			exp := 0
+			fs := 0 // where the fraction starts, if there is a point
 			if i < len(data) && data[i] == '.' {
 				i++
-				fs := i
-				if digits <= 11 && i+8 <= len(data) {
+				fs = i
+				if i-cs <= 13 && i+8 <= len(data) { // 8 more digits keep 19 or fewer
 					if x := binary.LittleEndian.Uint64(data[i:]); eightDigits(x) {
 						mant = mant*100000000 + eightValue(x)
 						i += 8
-						digits += 8
+						// one more digit, or none, without a branch: after
+						// 8 digits, a 9th is there about as often as not
+						if i < len(data) {
+							c := uint64(data[i] - '0')
+							more := (c - 10) >> 63 // 1 for a digit
+							mant = mant*(1+9*more) + c&-more
+							i += int(more)
+						}
 					}
 				}
-				k := i
 				for i < len(data) {
 					c := data[i] - '0'
 					if c > 9 {
@@ -1030,22 +1037,26 @@ func (p *csvParser) fastRows(c *chunk, cols [][]float64, data []byte) (rows, use
 					mant = mant*10 + uint64(c)
 					i++
 				}
-				digits += i - k
-				exp = fs - i
+			}
+			sign := int((uint64(uint8(data[cs]-'+')&^2) - 1) >> 63)
+			exp, digits := 0, i-cs-sign
+			if fs > 0 {
+				exp, digits = fs-i, digits-1
 			}
 			var v float64
 			if uint(digits-1) < 19 && mant <= 1<<53 && exp >= -22 && (i >= len(data) || data[i]|0x20 != 'e') {
 				// exp <= 0, and a division by 10^0 = 1 is exact
+				neg := (uint64(data[cs]^'-') - 1) >> 63
 				v = math.Float64frombits(math.Float64bits(float64(int64(mant))/exactPow10[-exp]) | neg<<63)
 			} else {
 				var n int
 				var ok bool
 				if v, n, ok = scanFast(data[cs:]); !ok {
-					return rows, used
+					return r - c.rows, used
 				}
 				i = cs + n
 			}
-			cols[s][r] = v
+			col[r] = v
 		}
 		if i < len(data) {
 			switch {
@@ -1056,14 +1067,13 @@ func (p *csvParser) fastRows(c *chunk, cols [][]float64, data []byte) (rows, use
 			case data[i] == '\r' && data[i+1] == '\n':
 				i += 2
 			default:
-				return rows, used
+				return r - c.rows, used
 			}
 		}
-		rows++
 		r++
 		used = i
 	}
-	return rows, used
+	return r - c.rows, used
 }
 
 // cellSlow handles what the fast path refused: blanks around a number,

@@ -3,6 +3,7 @@ package ingest
 import (
 	"encoding/binary"
 	"math"
+	"math/bits"
 	"strconv"
 	"unsafe"
 )
@@ -161,6 +162,31 @@ func scanFast(b []byte) (f float64, n int, ok bool) {
 	}
 	// the sign bit set without a branch (a zero mantissa gives -0)
 	return math.Float64frombits(math.Float64bits(f) | neg<<63), i, true
+}
+
+// pow10u holds 10^0 .. 10^8 (and room, so that an index masked with 15
+// needs no bounds check).
+var pow10u = [16]uint64{1, 10, 100, 1000, 10000, 100000, 1000000, 10000000, 100000000}
+
+// leadingDigits returns how many of the 8 bytes of x (little-endian: the
+// first byte lowest) are ASCII digits before the first one that is not:
+// [eightDigits]' test byte by byte. A byte of 0xFA or more carries into
+// the next one when 6 is added, but only into a byte after the first
+// non-digit, which does not change the count.
+func leadingDigits(x uint64) int {
+	nd := ((x & 0xF0F0F0F0F0F0F0F0) | (((x + 0x0606060606060606) & 0xF0F0F0F0F0F0F0F0) >> 4)) ^ 0x3333333333333333
+	return bits.TrailingZeros64(nd) >> 3
+}
+
+// digitsValue is the value of the first k (0..8) bytes of x, ASCII
+// digits, the first most significant. The bytes after them are shifted
+// out (subtracting '0' from them borrows only upwards, away from the
+// digits); the zero bytes shifted in are leading zeros to [eightValue]'s
+// conversion.
+func digitsValue(x uint64, k int) uint64 {
+	x = (x - 0x3030303030303030) << (64 - 8*uint(k)) // k = 0: a shift by 64 gives 0
+	x = x*10 + x>>8
+	return ((x&0x000000FF000000FF)*(100+(1000000<<32)) + ((x>>16)&0x000000FF000000FF)*(1+(10000<<32))) >> 32
 }
 
 // eightDigits reports whether the 8 bytes of x (little-endian) are all
