@@ -504,6 +504,9 @@ func regionWords(cert *fit.Certificate) string {
 			e = cert.Equilibrium[j]
 		}
 		lo, hi := b[0]-e, b[1]-e
+		if math.Abs(e) < 1e-9*math.Max(-lo, hi) {
+			e = 0 // rounding left by the equilibrium's solve, not a place
+		}
 		if scalarClose(-lo, hi) {
 			parts[j] = fmt.Sprintf("%s %.4g ±%.3g%s", cert.States[j], e, hi, u)
 		} else {

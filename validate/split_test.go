@@ -257,3 +257,22 @@ func TestDecideMarginalUnstable(t *testing.T) {
 		})
 	}
 }
+
+// TestRegionWordsRounding: an equilibrium coordinate that is rounding
+// left by the solve (1.968e-44 against a half-width of 0.594) prints as
+// 0, not as a denormal; a real offset still prints.
+func TestRegionWordsRounding(t *testing.T) {
+	for _, tc := range []struct {
+		eq   float64
+		want string
+	}{
+		{1.968e-44, "y 0 ±0.594 V"},
+		{0.25, "y 0.25 ±0.594 V"},
+	} {
+		c := &fit.Certificate{States: []string{"y"}, Units: []string{"V"}, Equilibrium: []float64{tc.eq},
+			Box: [][2]float64{{tc.eq - 0.594, tc.eq + 0.594}}}
+		if got := regionWords(c); got != tc.want {
+			t.Errorf("equilibrium %g: %q, want %q", tc.eq, got, tc.want)
+		}
+	}
+}
