@@ -56,6 +56,7 @@ type figure struct {
 	offFigure int  // other equilibria outside the figure
 	clipped   bool // runs reach beyond the view
 	wide      bool // the data reach beyond viewBoxes box widths (a close-up helps)
+	box       bool // the box bounding the region is drawn
 	// others lists the classes of the other equilibria drawn, in order
 	// of first appearance, for the key.
 	others []string
@@ -225,7 +226,7 @@ func planeFigure(in *Input, pl [2]int, closeUp bool) (*figure, error) {
 	}
 	x0, x1 := sx.padded(c.Equilibrium[a])
 	y0, y1 := sy.padded(c.Equilibrium[b])
-	f := &figure{clipped: clip, wide: wide}
+	f := &figure{clipped: clip, wide: wide, box: c.Box != nil}
 	if c.Box != nil {
 		bx := c.Box
 		l, err := plotter.NewLine(plotter.XYs{{X: bx[a][0], Y: bx[b][0]}, {X: bx[a][1], Y: bx[b][0]},

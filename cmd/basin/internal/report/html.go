@@ -59,6 +59,8 @@ type pageData struct {
 	Equations                 []eqRow
 	VTerms                    []vTerm
 	VDropped                  string // "2 more terms" of V left out of the table (zero or below 1e-4 of the largest)
+	NoV                       string // in place of the V table when it has no term to list
+	PlaneRegion               bool   // the phase plane draws the region's boundary
 	Val                       *fit.Validation
 	ValRows                   []valRow
 	Runs                      []runRow
@@ -194,19 +196,28 @@ func build(in *Input, pl [2]int) (*pageData, error) {
 	if dropped > 0 {
 		d.VDropped = human.Count(dropped, "more term")
 	}
+	switch {
+	case len(d.VTerms) > 0:
+	case len(c.V.Exponents) == 0:
+		d.NoV = "No V was found, so there are no terms to list; the finding above says why."
+	default:
+		d.NoV = "Every coefficient of V is zero, so there are no terms to list."
+	}
 	if len(c.States) >= 2 && pl[0] != pl[1] {
 		f, err := planeFigure(in, pl, false)
 		if err != nil {
 			return nil, err
 		}
-		d.Plane, d.OtherOff = f, f.offFigure
+		d.Plane, d.OtherOff, d.PlaneRegion = f, f.offFigure, len(f.contour) > 0
 		if f.wide {
 			cf, err := planeFigure(in, pl, true)
 			if err != nil {
 				return nil, err
 			}
-			d.CloseUp, d.Clipped = cf, cf.clipped
-			d.CloseKeys = planeKeys(cf)
+			if closer(cf, f) {
+				d.CloseUp, d.Clipped = cf, cf.clipped
+				d.CloseKeys = planeKeys(cf)
+			}
 		}
 		d.PlaneA, d.PlaneB = c.States[pl[0]], c.States[pl[1]]
 		if len(c.States) > 2 {
@@ -278,10 +289,15 @@ func planeKeys(f *figure) []keyItem {
 	keys := []keyItem{
 		{Label: "fit run (used to fit the model and V)", Colour: hex(inkFit), Width: 0.7},
 		{Label: "held-out run (checked, not fitted)", Colour: hex(inkHeldout), Width: 1.3, Dash: "4 2"},
-		{Label: "boundary of the certified region, V = level", Colour: hex(inkRegion), Width: 2.4},
-		{Label: "box bounding the region", Colour: hex(inkBox), Width: 0.8, Dash: "1 2.5"},
-		{Label: "equilibrium the runs settle on", Colour: hex(inkEquil), Mark: "square"},
 	}
+	// the region's keys only for what is drawn
+	if len(f.contour) > 0 {
+		keys = append(keys, keyItem{Label: "boundary of the certified region, V = level", Colour: hex(inkRegion), Width: 2.4})
+	}
+	if f.box {
+		keys = append(keys, keyItem{Label: "box bounding the region", Colour: hex(inkBox), Width: 0.8, Dash: "1 2.5"})
+	}
+	keys = append(keys, keyItem{Label: "equilibrium the runs settle on", Colour: hex(inkEquil), Mark: "square"})
 	if f.restRegions {
 		keys = append(keys, keyItem{Label: "boundary of another rest point's certified region (certificate-2.json, ...)", Colour: hex(inkRegion), Width: 1.6, Dash: "5 2"})
 	}
@@ -289,6 +305,21 @@ func planeKeys(f *figure) []keyItem {
 		keys = append(keys, keyItem{Label: otherMarks[k].label, Colour: hex(inkOther), Mark: otherMarks[k].swatch})
 	}
 	return keys
+}
+
+// closeUpShare is the largest share of the full view's width, along
+// one axis at least, that a close-up may keep and still be drawn: one
+// that keeps more of both axes (the model's equilibria at the edge of the
+// data pull the view back out, or the runs barely reach beyond the box)
+// shows little the full view does not. The demo's close-up keeps 57% of
+// the height.
+const closeUpShare = 2.0 / 3
+
+// closer reports whether the close-up cf narrows the full view f to at
+// most closeUpShare along some axis.
+func closer(cf, f *figure) bool {
+	w := func(r [2]float64) float64 { return r[1] - r[0] }
+	return w(cf.xr) <= closeUpShare*w(f.xr) || w(cf.yr) <= closeUpShare*w(f.yr)
 }
 
 // valRows are the held-out figures as people read them, each with the
@@ -313,6 +344,10 @@ func valRows(v *fit.Validation, hc heldoutCount) []valRow {
 		inv = "no " + u + " entered the region"
 		settled = inv
 	}
+	bound := boundPercent(v.ViolationBound)
+	if v.ScenarioSamples == 0 && v.Pairs == 0 {
+		bound = "none: no held-out sample lay inside a region" // not "at most 100%"
+	}
 	dec := human.Share(decreased, v.Pairs, "pair")
 	if v.Pairs == 0 {
 		dec = "no pair inside the region"
@@ -325,7 +360,7 @@ func valRows(v *fit.Validation, hc heldoutCount) []valRow {
 		{"entered_runs", "held-out " + u + "s that entered the region (each checked from its first sample inside)", exact(float64(v.EnteredRuns)), count(v.EnteredRuns)},
 		{"invariance_fraction", "of the " + u + "s that " + how + ", those that stayed inside", exact(v.InvarianceFraction), inv},
 		{"runs_settled", "of the " + u + "s that " + how + ", those that settled", exact(float64(v.Settled)), settled},
-		{"violation_bound", "scenario bound: chance that a new sample inside the region breaks the decrease, at most", exact(v.ViolationBound), boundPercent(v.ViolationBound)},
+		{"violation_bound", "scenario bound: chance that a new sample inside the region breaks the decrease, at most", exact(v.ViolationBound), bound},
 		{"confidence", "confidence of that bound", exact(v.Confidence), human.Confidence(v.Confidence)},
 		{"scenario_samples", "effectively independent samples the bound rests on", exact(float64(v.ScenarioSamples)),
 			fmt.Sprintf("%d (at least %s s apart), %s", v.ScenarioSamples, human.Num(v.Decorrelation), human.Count(v.ScenarioViolations, "violation"))},
