@@ -58,6 +58,23 @@ func findCol(cols []Column, name string) int {
 	return -1
 }
 
+// timeUnitCol returns the first column whose header unit is a time unit
+// (see [TimeUnits]), or -1.
+func timeUnitCol(cols []Column) int {
+	for j, c := range cols {
+		if c.Unit == "" {
+			continue
+		}
+		if _, ok := TimeUnits[c.Unit]; ok {
+			return j
+		}
+		if _, ok := TimeUnits[strings.ToLower(c.Unit)]; ok {
+			return j
+		}
+	}
+	return -1
+}
+
 // assignRoles picks the time, run, state and input columns per the
 // contract: time by name (or none with a rate), the run column, the
 // inputs, then the states named, or else every other column.
@@ -85,6 +102,11 @@ func assignRoles(file string, cols []Column, opts *Options) (*roles, error) {
 			ErrFormat, opts.Rate, MinRate, MaxRate)}
 	}
 	if ti < 0 && !(opts.Rate > 0) {
+		if j := timeUnitCol(cols); j >= 0 {
+			// a time column under another name ("elapsed [s]"): say which
+			return nil, &ParseError{File: file, Line: 1, Column: j + 1, Name: cols[j].Name,
+				Err: fmt.Errorf("%w; this column has the time unit %q: if it is the time, name it with Options.TimeCol %s", ErrNoTime, cols[j].Unit, cols[j].Name)}
+		}
 		return nil, &ParseError{File: file, Err: ErrNoTime}
 	}
 	if ti >= 0 && opts.Rate > 0 {
