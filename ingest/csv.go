@@ -74,17 +74,19 @@ func (lay *csvLayout) index() {
 // go straight into the table's columns: t, tn and x are windows of them
 // holding room for lines rows from row off.
 type chunk struct {
-	data  []byte
-	line  int // line number of data's first line
-	lines int // its line ends, plus one for a last line without one: the most rows it can hold
-	off   int // the table row where its room starts
-	rows  int
-	t     []float64
-	tn    []int64
-	x     [][]float64
-	keys  []keySpan
-	marks []lineMark
-	err   error
+	data    []byte
+	line    int // line number of data's first line
+	lines   int // its line ends, plus one for a last line without one: the most rows it can hold
+	nl      int // its line ends, when counted already (nlKnown)
+	nlKnown bool
+	off     int // the table row where its room starts
+	rows    int
+	t       []float64
+	tn      []int64
+	x       [][]float64
+	keys    []keySpan
+	marks   []lineMark
+	err     error
 }
 
 // ReadCSV reads one CSV file of logged samples from r. name is used in
@@ -655,7 +657,8 @@ func (p *csvParser) readWave(r io.Reader, ring [][]byte, carry []byte, line int)
 			ring[len(w.cs)] = buf // kept for the wave after next; a grown one is let go
 		}
 		c := &chunk{data: buf[:cut], line: line}
-		line += bytes.Count(c.data, []byte{'\n'})
+		c.nl, c.nlKnown = bytes.Count(c.data, []byte{'\n'}), true
+		line += c.nl
 		w.cs = append(w.cs, c)
 		carry = buf[cut:]
 	}
@@ -683,7 +686,10 @@ func (p *csvParser) parseBlocks(cs []*chunk) error {
 	}
 	width := 8 * (len(tb.x) + 1) // bytes of a row in the columns, at most
 	for _, c := range cs {
-		c.lines = bytes.Count(c.data, []byte{'\n'})
+		if !c.nlKnown {
+			c.nl, c.nlKnown = bytes.Count(c.data, []byte{'\n'}), true
+		}
+		c.lines = c.nl
 		if n := len(c.data); n > 0 && c.data[n-1] != '\n' {
 			c.lines++
 		}
@@ -831,8 +837,9 @@ func (p *csvParser) parse(c *chunk) {
 		c.err = &ParseError{File: lay.file, Err: binaryError(line + bytes.Count(data[:k], []byte{'\n'}))}
 		return
 	}
-	// The fast row path: numbers only, no quotes anywhere in the block.
-	fast := !lay.dateTime && !lay.hasRun && bytes.IndexByte(data, '"') < 0
+	// The fast row path: numbers only (it leaves a line with a quote to
+	// the general path).
+	fast := !lay.dateTime && !lay.hasRun
 	var cols [][]float64 // the fast path's view of the room, by header column
 	if fast {
 		cols = make([][]float64, len(lay.slot))
@@ -986,6 +993,9 @@ func (p *csvParser) fastRows(c *chunk, cols [][]float64, data []byte) (rows, use
 			}
 			if col == nil {
 				for i < len(data) && data[i] != d && data[i] != '\n' {
+					if data[i] == '"' { // a quoted cell may hold the delimiter
+						return r - c.rows, used
+					}
 					i++
 				}
 				continue
@@ -1003,13 +1013,17 @@ func (p *csvParser) fastRows(c *chunk, cols [][]float64, data []byte) (rows, use
 			}
 			i += int((uint64(uint8(data[i]-'+')&^2) - 1) >> 63) // a sign: see scanFast
 			var mant uint64
-			for i < len(data) {
-				c := data[i] - '0'
-				if c > 9 {
-					break
-				}
-				mant = mant*10 + uint64(c)
+			if i < len(data) && data[i]-'0' <= 9 { // the first digit, out of the loop
+				mant = uint64(data[i] - '0')
 				i++
+				for i < len(data) {
+					c := data[i] - '0'
+					if c > 9 {
+						break
+					}
+					mant = mant*10 + uint64(c)
+					i++
+				}
 			}
 			fs := 0 // where the fraction starts, if there is a point
 			if i < len(data) && data[i] == '.' {

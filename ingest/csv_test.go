@@ -149,6 +149,9 @@ func TestReadCSVErrors(t *testing.T) {
 		{"bad utf8 header", "t,\xff\xfe\n1,2\n", nil, ErrFormat, "x.csv:1: not a readable log file: header is not UTF-8 text"},
 		{"decimal comma, then a bad cell", "t;a\n0;1,5\n1;2,5,1\n", nil, ErrNotNumber, `x.csv:3:2: column "a": not a number "2.5.1" (the file's decimal commas read as points)`},
 		{"unbalanced quote", "t,a\n0,\"1\n", nil, ErrFormat, "x.csv:2: not a readable log file: unbalanced quote"},
+		// a quoted delimiter in a text column: 3 fields, not the 4 the
+		// commas count (the row loop must not take the line by its commas)
+		{"ragged with a quoted delimiter", "t,note,tag,a\n0,x,y,1\n1,\"p,q\",2\n", nil, ErrRagged, "x.csv:3:3: wrong number of fields: 3, the header has 4"},
 		{"bad date", "time,a\n2026-03-01T10:00:00Z,1\nyesterday,2\n", nil, ErrNotNumber, `x.csv:3:1: column "time": not a number: "yesterday" is not an ISO 8601 date-time`},
 		{"duplicate column", "t,a,a\n0,1,2\n", nil, ErrFormat, `x.csv:1:3: column "a": not a readable log file: name repeats column 2`},
 	} {
@@ -222,5 +225,41 @@ func TestReadCSVBlocks(t *testing.T) {
 	_, err = ReadCSV(strings.NewReader(bad), "big.csv", nil)
 	if want := fmt.Sprintf(`big.csv:%d:2: column "a": not a number "x`, line); err == nil || !strings.HasPrefix(err.Error(), want) {
 		t.Errorf("err = %v, want prefix %s", err, want)
+	}
+}
+
+// TestReadCSVQuotedNote: a text column (ignored) whose cells are now and
+// then quoted and hold the delimiter or a doubled quote. The rows around
+// them are plain and taken by the fast row path; the quoted ones go to
+// the general path, which reads the quotes (RFC 4180, section 2, rules 6
+// and 7).
+func TestReadCSVQuotedNote(t *testing.T) {
+	var sb strings.Builder
+	sb.WriteString("t,a,note,b\n")
+	const n = 3000
+	for i := range n {
+		note := "ok"
+		switch i % 500 {
+		case 7:
+			note = `"rig, bumped"`
+		case 8:
+			note = `"said ""stop"", then, went on"`
+		case 9:
+			note = `""`
+		}
+		fmt.Fprintf(&sb, "%s,%s,%s,%d\n", ftoa(float64(i)/100), ftoa(math.Sin(float64(i))), note, i%5)
+	}
+	ds, err := ReadCSV(strings.NewReader(sb.String()), "notes.csv", &Options{KeepEvents: true, KeepHead: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(ds.Runs) != 1 || ds.Runs[0].Len() != n || len(ds.States) != 2 {
+		t.Fatalf("runs %d, samples %d, states %v; want 1, %d, [a b]", len(ds.Runs), ds.Samples(), ds.States, n)
+	}
+	r := ds.Runs[0]
+	for i := range n {
+		if r.T[i] != atof(ftoa(float64(i)/100)) || r.X[0][i] != atof(ftoa(math.Sin(float64(i)))) || r.X[1][i] != float64(i%5) {
+			t.Fatalf("row %d = %v %v %v", i, r.T[i], r.X[0][i], r.X[1][i])
+		}
 	}
 }
