@@ -103,6 +103,8 @@ earlier run with more rest points left in --out is removed.
 	--all-folds         hold every fold out once and certify only when all
 	                    folds certify (default true; --all-folds=false fits
 	                    only the released split: faster, seed-dependent)
+	--workers N         folds fitted and checked at once, 0..1024 (default
+	                    0: the CPUs); the outputs do not depend on it
 	--equilibrium name=value,...
 	                    certify the fitted equilibrium nearest this point
 	                    (every state named) for certificate.json instead of

@@ -34,6 +34,7 @@ type runFlags struct {
 	Plane       string
 	Equilibrium string
 	AllFolds    bool
+	Workers     int
 }
 
 func (f *runFlags) register(fs *flag.FlagSet) {
@@ -49,6 +50,7 @@ func (f *runFlags) register(fs *flag.FlagSet) {
 	fs.Float64Var(&f.Beta, "beta", defaultBeta, "scenario bound holds with confidence 1-`B`")
 	fs.StringVar(&f.Equilibrium, "equilibrium", "", "certify in certificate.json the fitted equilibrium nearest `name=value,...` (every state named; default: the one most runs settle on)")
 	fs.StringVar(&f.Plane, "plane", "", "states `a,b` of the report's phase plane (default: the two with most variance)")
+	fs.IntVar(&f.Workers, "workers", 0, "folds fitted and checked at once `N` (default: the number of CPUs; the outputs do not depend on it)")
 	fs.BoolVar(&f.AllFolds, "all-folds", true, "hold every fold out once and certify only when all folds agree (false: fit only the released split; faster, but the verdict may depend on --seed)")
 }
 
@@ -93,9 +95,11 @@ func (f *runFlags) options() (*validate.Options, error) {
 		return nil, usagef("--min-decrease must be in (0, 1], got %g", f.MinDecrease)
 	case !(f.Beta > 0 && f.Beta < 1):
 		return nil, usagef("--beta must be in (0, 1), got %g", f.Beta)
+	case f.Workers < 0 || f.Workers > 1024:
+		return nil, usagef("--workers must be 0..1024, got %d", f.Workers)
 	}
 	return &validate.Options{
-		Folds: f.Folds, Seed: f.Seed, Beta: f.Beta, MinDecrease: f.MinDecrease, AllFolds: f.AllFolds, OneFold: !f.AllFolds,
+		Folds: f.Folds, Seed: f.Seed, Beta: f.Beta, MinDecrease: f.MinDecrease, AllFolds: f.AllFolds, OneFold: !f.AllFolds, Workers: f.Workers,
 		Field: fo, Certify: co,
 	}, nil
 }
