@@ -491,7 +491,10 @@ func TestStreamErrors(t *testing.T) {
 	// an infinite value and time going back, mid-file
 	tc, x, v, s := rigLog{n: 20000, dt: 0.001, sd: 1e-3}.columns(2)
 	x[13000] = math.Inf(1)
-	cases["infinite"] = writeCols(t, filepath.Join(dir, "inf.parquet"), tc, x, v, s)
+	cases["infinite"] = writeCols(t, filepath.Join(dir, "inf.parquet"), tc, x, v, s) // dictionary pages
+	plainInf := filepath.Join(dir, "inf-plain.parquet")
+	writePlainCols(t, plainInf, tc, x, v, s)
+	cases["infinite, plain pages"] = plainInf
 	tc2, x2, v2, s2 := rigLog{n: 20000, dt: 0.001, sd: 1e-3}.columns(3)
 	tc2[15000] = tc2[14000]
 	cases["time back"] = writeCols(t, filepath.Join(dir, "back.parquet"), tc2, x2, v2, s2)
@@ -515,6 +518,9 @@ func TestStreamErrors(t *testing.T) {
 			_, got := NewStreamer(nil, &StreamOptions{Window: -1, CSVWindow: -1, Prefetch: name == "infinite"}).Open(context.Background(), path)
 			if got == nil || got.Error() != want.Error() {
 				t.Fatalf("Open: %v\nReadFile: %v", got, want)
+			}
+			if strings.HasPrefix(name, "infinite") && !strings.Contains(got.Error(), ":13001:") {
+				t.Errorf("%v: not the infinite value's row", got)
 			}
 			if strings.Contains(got.Error(), "\n") {
 				t.Errorf("error on more than one line: %q", got)
@@ -540,6 +546,36 @@ func writeCols(t *testing.T, path string, cols ...[]float64) string {
 	defer rec.Release()
 	writeArrowParquet(t, path, rec, 4096)
 	return path
+}
+
+// writePlainCols writes float64 columns named as writeCols does, with
+// plain encoding (no dictionary) in row groups of 4096 rows.
+func writePlainCols(t *testing.T, path string, cols ...[]float64) {
+	t.Helper()
+	names := []string{"time [s]", "disp [mm]", "vel [mm/s]", "slow"}
+	var fields []arrow.Field
+	for _, n := range names[:len(cols)] {
+		fields = append(fields, arrow.Field{Name: n, Type: arrow.PrimitiveTypes.Float64})
+	}
+	sc := arrow.NewSchema(fields, nil)
+	b := array.NewRecordBuilder(memory.NewGoAllocator(), sc)
+	defer b.Release()
+	for j, c := range cols {
+		b.Field(j).(*array.Float64Builder).AppendValues(c, nil)
+	}
+	rec := b.NewRecord()
+	defer rec.Release()
+	f, err := os.Create(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	tbl := array.NewTableFromRecords(sc, []arrow.Record{rec})
+	defer tbl.Release()
+	props := parquet.NewWriterProperties(parquet.WithMaxRowGroupLength(4096), parquet.WithDictionaryDefault(false))
+	if err := pqarrow.WriteTable(tbl, f, 4096, props, pqarrow.DefaultWriterProps()); err != nil {
+		t.Fatal(err)
+	}
 }
 
 // TestStreamFileChanged: a streamed file cut short between the plan and

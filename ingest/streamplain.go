@@ -27,6 +27,9 @@ var littleEndian = binary.NativeEndian.Uint16([]byte{1, 0}) == 1
 func (tb *table) plainFloats(buf []byte, dst []float64, row0 int, dict *[]float64) (ok bool, err error) {
 	pos, k := 0, 0
 	*dict = (*dict)[:0]
+	// every value finite: the dictionary's (a dictionary-encoded value
+	// is one of them) and the plain pages' values, each checked once
+	finite := true
 	for k < len(dst) {
 		h, n, err := parsePageHeader(buf[pos:])
 		if err != nil {
@@ -50,6 +53,7 @@ func (tb *table) plainFloats(buf []byte, dst []float64, row0 int, dict *[]float6
 				d[i] = math.Float64frombits(binary.LittleEndian.Uint64(body[8*i:]))
 			}
 			*dict = d
+			finite = allFinite(d)
 			continue
 		case h.typ == pageData:
 		case h.typ == pageDataV2 && h.levels == 0 && !h.v2Compressed:
@@ -73,6 +77,9 @@ func (tb *table) plainFloats(buf []byte, dst []float64, row0 int, dict *[]float6
 					out[i] = math.Float64frombits(binary.LittleEndian.Uint64(body[8*i:]))
 				}
 			}
+			if !allFinite(out) {
+				finite = false
+			}
 		case encPlainDict, encRLEDict:
 			if len(*dict) == 0 || !unpackDict(out, body, *dict) {
 				return false, nil
@@ -82,7 +89,7 @@ func (tb *table) plainFloats(buf []byte, dst []float64, row0 int, dict *[]float6
 		}
 		k += len(out)
 	}
-	if allFinite(dst) {
+	if finite {
 		return true, nil
 	}
 	for i, x := range dst {
