@@ -102,6 +102,8 @@ type Screener struct {
 	st        runState
 	// tols and stream: ScreenFile's per-run tolerances and noise
 	tols   []float64
+	known  []bool // the run's tolerance in tols is its own
+	done   []bool // the run's result from the first Scan stands
 	stream streamNoise
 	tap    noiseTap
 	// generic disables the specialised kernels (benchmarks compare)

@@ -20,27 +20,40 @@ import (
 // result's Flags must be copied before dst is reused. It stops with
 // ctx's error when ctx is done, and returns the file's read errors.
 func (s *Screener) ScreenFile(ctx context.Context, dst []RunScreen, sf *ingest.StreamFile) ([]RunScreen, error) {
+	pre := false // the runs' tolerances (s.tols, s.known) from the first Scan
 	if sf.Late() && len(sf.States) == s.n {
 		if !s.noise.on {
-			return s.screenLate(ctx, dst, sf, s.baseTol)
+			return s.screenLate(ctx, dst, sf, s.baseTol, -1)
 		}
-		// The runs' own noise needs their lengths first, unless the file
-		// is one run of all its rows, whose noise the tap took in the
-		// first read: screened with it as its runs are found, the result
-		// stands when that is what they turn out to be.
-		if v, rows, ok := s.tap.guess(sf.File); ok {
-			got, err := s.screenLate(ctx, dst, sf, s.tolFor(v))
+		rows, ok := s.tap.rowsOf(sf.File)
+		if !ok {
+			// the runs' own noise needs their lengths first
+			if err := sf.FindRuns(ctx); err != nil {
+				return nil, err
+			}
+		} else {
+			// Screened as their runs are found with the tolerance of the
+			// file's noise taken as one run (the tap's, from the first
+			// read), while each run's own noise is taken on the guess
+			// that it ends at the file's last row: a run whose guess
+			// holds and whose tolerance is the one screened with is done.
+			tol := s.baseTol
+			if v, ok := s.tap.guess(rows); ok {
+				tol = s.tolFor(v)
+			}
+			got, err := s.screenLate(ctx, dst, sf, tol, rows)
 			if err != nil || sf.Dataset() != nil { // an error, or read whole and screened from it
 				return got, err
 			}
-			if len(sf.Runs) == 1 {
-				if a, b := sf.Runs[0].Rows(); a == 0 && b == rows {
-					return got, nil
-				}
+			dst, pre = got, true
+			all := true
+			for k := range sf.Runs {
+				s.done[k] = s.known[k] && s.tols[k] == tol
+				all = all && s.done[k]
 			}
-			dst = got // the runs are known now: screen them again with their own noise
-		} else if err := sf.FindRuns(ctx); err != nil {
-			return nil, err
+			if all {
+				return dst, nil
+			}
 		}
 	}
 	n := len(sf.Runs)
@@ -60,12 +73,14 @@ func (s *Screener) ScreenFile(ctx context.Context, dst []RunScreen, sf *ingest.S
 		}
 		return dst, nil
 	}
-	tols := s.tols[:0]
-	for range n {
-		tols = append(tols, s.baseTol)
+	if !pre {
+		s.runSlots(n)
+		for k := range n {
+			s.tols[k], s.known[k], s.done[k] = s.baseTol, !s.noise.on, false
+		}
 	}
-	s.tols = tols
-	if s.noise.on {
+	tols, known, done := s.tols, s.known, s.done
+	if slices.Contains(known, false) {
 		acc := &s.stream
 		acc.init(s.n)
 		cur := -1
@@ -75,6 +90,9 @@ func (s *Screener) ScreenFile(ctx context.Context, dst []RunScreen, sf *ingest.S
 			}
 		}
 		err := sf.Scan(ctx, func(k int, t []float64, x [][]float64) error {
+			if known[k] {
+				return nil
+			}
 			if k != cur {
 				finish()
 				cur = k
@@ -90,6 +108,9 @@ func (s *Screener) ScreenFile(ctx context.Context, dst []RunScreen, sf *ingest.S
 	}
 	cur := -1
 	err := sf.Scan(ctx, func(k int, t []float64, x [][]float64) error {
+		if done[k] {
+			return nil
+		}
 		if k != cur {
 			if cur >= 0 {
 				s.End()
@@ -113,16 +134,57 @@ func (s *Screener) ScreenFile(ctx context.Context, dst []RunScreen, sf *ingest.S
 	return dst, nil
 }
 
+// runSlots sizes the per-run tolerances and flags for n runs, keeping
+// the first ones' values.
+func (s *Screener) runSlots(n int) {
+	s.tols = resize(s.tols, n)
+	s.known = resize(s.known, n)
+	s.done = resize(s.done, n)
+}
+
+// resize returns v with length n, its first min(n, len(v)) elements
+// kept.
+func resize[T any](v []T, n int) []T {
+	if n <= len(v) {
+		return v[:n]
+	}
+	return append(v, make([]T, n-len(v))...)
+}
+
 // screenLate screens a file whose runs its Scan finds (see
 // ingest.StreamOptions.LateRuns): in one pass that finds them and
-// screens them, each with the tolerance tol.
-func (s *Screener) screenLate(ctx context.Context, dst []RunScreen, sf *ingest.StreamFile, tol float64) ([]RunScreen, error) {
+// screens them, each with the tolerance tol. With rows >= 0 (the file's
+// row count) it also takes each run's own noise on the guess that the
+// run ends at the last row, and stores in s.tols the run's tolerance
+// and in s.known whether it is known: the guess held, or the run is too
+// short for its noise to count.
+func (s *Screener) screenLate(ctx context.Context, dst []RunScreen, sf *ingest.StreamFile, tol float64, rows int) ([]RunScreen, error) {
 	dst = dst[:0]
 	cur := -1
+	acc := &s.stream
+	acc.init(s.n)
+	s.runSlots(0)
+	finish := func() { // the noise of run cur, all of whose samples came
+		if rows < 0 {
+			return
+		}
+		r := &sf.Runs[cur]
+		a, _ := r.Rows()
+		s.runSlots(cur + 1)
+		s.tols[cur], s.known[cur] = s.baseTol, true
+		switch {
+		case r.Samples < 5:
+		case r.Samples == rows-a:
+			s.tols[cur] = s.tolFor(acc.noise())
+		default:
+			s.known[cur] = false
+		}
+	}
 	err := sf.Scan(ctx, func(k int, t []float64, x [][]float64) error {
 		if k != cur {
 			if cur >= 0 {
 				s.End()
+				finish()
 			}
 			cur = k
 			if k < cap(dst) {
@@ -132,12 +194,22 @@ func (s *Screener) screenLate(ctx context.Context, dst []RunScreen, sf *ingest.S
 			}
 			s.Begin(&dst[k], sf.File, sf.Runs[k].Name)
 			s.tol = tol
+			if rows >= 0 {
+				a, _ := sf.Runs[k].Rows()
+				acc.begin(rows - a)
+			}
+		}
+		if rows >= 0 {
+			acc.add(x)
 		}
 		s.Feed(x, t)
 		return nil
 	})
 	if cur >= 0 {
 		s.End()
+		if err == nil {
+			finish()
+		}
 	}
 	if errors.Is(err, ingest.ErrRescan) { // now read whole
 		return s.ScreenFile(ctx, dst, sf)
@@ -145,7 +217,7 @@ func (s *Screener) screenLate(ctx context.Context, dst []RunScreen, sf *ingest.S
 	if err != nil {
 		return nil, err
 	}
-	if len(dst) != len(sf.Runs) {
+	if len(dst) != len(sf.Runs) || (rows >= 0 && len(s.known) != len(sf.Runs)) {
 		return nil, fmt.Errorf("validate: %s: %d runs screened of %d found", sf.File, len(dst), len(sf.Runs))
 	}
 	return dst, nil
@@ -318,19 +390,27 @@ func (tp *noiseTap) Block(row0 int, t []float64, x [][]float64) {
 	tp.rows += len(t)
 }
 
-// guess returns the noise per state of file's rows taken as one run, and
-// their count, when the tap saw the file's first read and gathered the
-// estimate at the stride of that count. It can be taken once per read.
-func (tp *noiseTap) guess(file string) (noise []float64, rows int, ok bool) {
-	if !tp.ok || tp.file != file || tp.rows < 5 {
-		return nil, 0, false
+// rowsOf returns the rows the tap saw of file's first read, when it saw
+// it whole; it can be taken once per read.
+func (tp *noiseTap) rowsOf(file string) (rows int, ok bool) {
+	if !tp.ok || tp.file != file {
+		return 0, false
 	}
 	tp.ok = false
-	stride := noiseStride(tp.rows)
+	return tp.rows, true
+}
+
+// guess returns the noise per state of the file's rows taken as one run,
+// when the tap gathered it at the stride of their count, rows.
+func (tp *noiseTap) guess(rows int) (noise []float64, ok bool) {
+	if rows < 5 {
+		return nil, false
+	}
+	stride := noiseStride(rows)
 	for c := range tp.acc {
-		if a := &tp.acc[c]; a.stride == stride && a.q == tp.rows {
-			return a.noise(), tp.rows, true
+		if a := &tp.acc[c]; a.stride == stride && a.q == rows {
+			return a.noise(), true
 		}
 	}
-	return nil, 0, false
+	return nil, false
 }
