@@ -150,7 +150,8 @@ func TestReadCSVErrors(t *testing.T) {
 		{"decimal comma, then a bad cell", "t;a\n0;1,5\n1;2,5,1\n", nil, ErrNotNumber, `x.csv:3:2: column "a": not a number "2.5.1" (the file's decimal commas read as points)`},
 		{"unbalanced quote", "t,a\n0,\"1\n", nil, ErrFormat, "x.csv:2: not a readable log file: unbalanced quote"},
 		// a quoted delimiter in a text column: 3 fields, not the 4 the
-		// commas count (the row loop must not take the line by its commas)
+		// commas count ([RFC4180] section 2, rule 6); the row loop must
+		// not take the line by its commas
 		{"ragged with a quoted delimiter", "t,note,tag,a\n0,x,y,1\n1,\"p,q\",2\n", nil, ErrRagged, "x.csv:3:3: wrong number of fields: 3, the header has 4"},
 		{"bad date", "time,a\n2026-03-01T10:00:00Z,1\nyesterday,2\n", nil, ErrNotNumber, `x.csv:3:1: column "time": not a number: "yesterday" is not an ISO 8601 date-time`},
 		{"duplicate column", "t,a,a\n0,1,2\n", nil, ErrFormat, `x.csv:1:3: column "a": not a readable log file: name repeats column 2`},
@@ -231,8 +232,8 @@ func TestReadCSVBlocks(t *testing.T) {
 // TestReadCSVQuotedNote: a text column (ignored) whose cells are now and
 // then quoted and hold the delimiter or a doubled quote. The rows around
 // them are plain and taken by the fast row path; the quoted ones go to
-// the general path, which reads the quotes (RFC 4180, section 2, rules 6
-// and 7).
+// the general path, which reads the quotes ([RFC4180] section 2, rules
+// 6 and 7).
 func TestReadCSVQuotedNote(t *testing.T) {
 	var sb strings.Builder
 	sb.WriteString("t,a,note,b\n")
