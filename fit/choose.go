@@ -94,6 +94,10 @@ type choice struct {
 	err      float64 // mean held-out error on the yardstick (share of variance)
 	dense    float64 // the same for the unthresholded model (the reference)
 	terms    int
+	// groupErr is the chosen candidate's held-out error on each group
+	// (its own rows, the same share of variance as err), index-aligned
+	// with the yardstick's groups: err = Σ_g selection.weight[g]·groupErr[g].
+	groupErr []float64
 }
 
 // selection is the outcome of selectModel.
@@ -101,6 +105,7 @@ type selection struct {
 	method int      // index of the chosen method
 	eq     []choice // per equation
 	scores []float64
+	weight []float64 // each group's share of the mean held-out error (sum 1)
 }
 
 // unnormalise stores in beta the coefficients of equation i in the
@@ -270,7 +275,7 @@ func selectModel(ctx context.Context, ms []*method, sc *problem, taus, lams []fl
 		}
 		return s / float64(folds)
 	}
-	sel := selection{method: 0, scores: make([]float64, len(ms))}
+	sel := selection{method: 0, scores: make([]float64, len(ms)), weight: weight}
 	for mi := range ms {
 		s := 0.0
 		for i := 0; i < n; i++ {
@@ -341,8 +346,12 @@ func selectModel(ctx context.Context, ms []*method, sc *problem, taus, lams []fl
 				chosen = c
 			}
 		}
+		ge := make([]float64, R)
+		for g := range ge {
+			ge[g] = gerrs[mi][chosen][g*n+i]
+		}
 		sel.eq[i] = choice{tau: cands[chosen].tau, lam: cands[chosen].lam, err: mean(mi, chosen, i),
-			dense: mean(mi, ref, i), terms: terms[mi][chosen*n+i]}
+			dense: mean(mi, ref, i), terms: terms[mi][chosen*n+i], groupErr: ge}
 	}
 	return sel, nil
 }

@@ -469,6 +469,11 @@ func Field(ctx context.Context, ds *ingest.Dataset, opts *FieldOptions) (*Model,
 	}
 	raw := make([][]float64, n)
 	m.Equations = make([]Equation, n)
+	var floor [][]float64
+	var runOf []int
+	if score.steps > 0 {
+		floor, runOf = yardstickFloor(runs, groupOf, keep, score.steps, m.Spread, score.pr.ySD)
+	}
 	for i := range m.Equations {
 		raw[i] = toRaw(make([]float64, p), i, xi[i])
 		c := sel.eq[i]
@@ -488,6 +493,9 @@ func Field(ctx context.Context, ds *ingest.Dataset, opts *FieldOptions) (*Model,
 			eq.Warning = "empty: no term explains this state's rate of change"
 		case eq.HeldoutShare >= constantShare:
 			eq.Warning = fmt.Sprintf("no better than a constant on held-out runs (error %.0f%% of the spread of d%s/dt)", 100*eq.HeldoutShare, names[i])
+		}
+		if w := lackOfFit(&eq, c, sel.weight, floor, runOf, runs, i, sd, m.Units[i]); w != "" && eq.Warning == "" {
+			eq.Warning = w
 		}
 		m.Equations[i] = eq
 		m.HeldoutError += c.err / float64(n)
@@ -920,7 +928,7 @@ func modelFinite(m *Model) bool {
 		finite(m.Centre...) && finite(m.Spread...) && finite(m.Lower...) && finite(m.Upper...) &&
 		finite(m.Noise...) && finite(m.Settle...)
 	for _, e := range m.Equations {
-		ok = ok && finite(e.Coefficients...) && finite(e.HeldoutError)
+		ok = ok && finite(e.Coefficients...) && finite(e.HeldoutError, e.NoiseFloorRMS, e.LackOfFit)
 		for _, t := range e.Terms {
 			ok = ok && finite(t.Interval[0], t.Interval[1], t.KeptShare)
 		}

@@ -49,7 +49,17 @@ type Equation struct {
 	// Threshold and Ridge are this equation's chosen values.
 	Threshold float64 `json:"threshold"`
 	Ridge     float64 `json:"ridge"`
-	// Warning says the equation is empty or no better than a constant.
+	// NoiseFloorRMS is the held-out RMS error (as HeldoutRMS, in the
+	// state's unit per second) that a correct model would leave: the
+	// measurement noise of the yardstick windows' end samples, from each
+	// run's noise estimate. LackOfFit is HeldoutRMS over it (about 1 for a
+	// correct model; see [Equation.Warning]). Both are 0 when unknown.
+	NoiseFloorRMS float64 `json:"noise_floor_rms,omitempty"`
+	LackOfFit     float64 `json:"lack_of_fit,omitempty"`
+	// Warning says the equation is empty, no better than a constant, or
+	// that its held-out error is far above what the noise leaves (a lack
+	// of fit: LackOfFit at least 2 and the error at least 5% of the
+	// rate's spread).
 	Warning string `json:"warning,omitempty"`
 }
 

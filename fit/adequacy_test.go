@@ -1,0 +1,116 @@
+package fit
+
+import (
+	"math"
+	"math/rand/v2"
+	"slices"
+	"strings"
+	"testing"
+
+	"basin.example/ingest"
+)
+
+// pulsed is the damped oscillator x' = v, v' = -4x - 0.8v; in the runs
+// listed in kicked, an unlogged force of 3 (in v's unit per second) acts
+// from t = 3 s to t = 4.5 s: a disturbance the library cannot represent.
+func pulsedRuns(runs int, kicked []int, noise float64, seed uint64) *ingest.Dataset {
+	// The time is a third state of the simulation (τ' = 1), dropped from
+	// the dataset, so that the force can switch on and off.
+	sys := system{name: "pulsed", states: []string{"x", "v", "tau"}, f: func(d, x []float64) {
+		d[0] = x[1]
+		d[1] = -4*x[0] - 0.8*x[1]
+		if x[3] > 0 && x[2] >= 3 && x[2] < 4.5 {
+			d[1] += 3
+		}
+		d[2] = 1
+		d[3] = 0
+	}}
+	sys.states = append(sys.states, "on")
+	rng := rand.New(rand.NewPCG(seed, 1))
+	var starts [][]float64
+	for r := 0; r < runs; r++ {
+		on := 0.0
+		if slices.Contains(kicked, r) {
+			on = 1
+		}
+		starts = append(starts, []float64{4*rng.Float64() - 2, 4*rng.Float64() - 2, 0, on})
+	}
+	ds := simulate(sys, starts, 10, 0.02, 4, 0, 0)
+	ds.States = ds.States[:2]
+	for r := range ds.Runs {
+		ds.Runs[r].X = ds.Runs[r].X[:2]
+	}
+	// Noise as simulate adds it: a share of each state's range.
+	nr := rand.New(rand.NewPCG(seed, 7))
+	for j := 0; j < 2; j++ {
+		lo, hi := math.Inf(1), math.Inf(-1)
+		for _, r := range ds.Runs {
+			for _, v := range r.X[j] {
+				lo, hi = math.Min(lo, v), math.Max(hi, v)
+			}
+		}
+		for _, r := range ds.Runs {
+			for i := range r.X[j] {
+				r.X[j][i] += noise * (hi - lo) * nr.NormFloat64()
+			}
+		}
+	}
+	return ds
+}
+
+// TestLackOfFit: the held-out error of a correct model is about what the
+// noise leaves (ratio near 1), whatever the noise level, and it is not
+// warned about; an unlogged disturbance in some runs makes the ratio
+// large and warns.
+//
+// The floor is the variance of the difference of two independent noisy
+// samples, 2σ², over the window's length squared (common practice); the
+// comparison of residual error with pure error is the classical
+// lack-of-fit test (Draper and Smith, Applied Regression Analysis, 3rd
+// ed., 1998, §2.1, from memory: [DraperSmith1998]).
+func TestLackOfFit(t *testing.T) {
+	var third []int
+	for r := 0; r < 24; r += 3 {
+		third = append(third, r)
+	}
+	tests := []struct {
+		name   string
+		noise  float64
+		kicked []int
+		lo, hi float64 // range of d(v)/dt's LackOfFit
+		warn   bool
+	}{
+		// A correct model at 1% and 3% noise: the mean of about 1,000
+		// squared window errors has a relative standard deviation of
+		// √(3/1000) ≈ 5.5% (consecutive windows share a sample), so the
+		// RMS ratio is 1 within about 3%; the band allows the model's
+		// own coefficient error and the quadrature of noisy samples.
+		{name: "correct/1%", noise: 0.01, lo: 0.85, hi: 1.25},
+		{name: "correct/3%", noise: 0.03, lo: 0.85, hi: 1.25},
+		// A third of the runs disturbed.
+		{name: "kicked-third/1%", noise: 0.01, kicked: third, lo: lackOfFitRatio, hi: math.Inf(1), warn: true},
+	}
+	for _, tc := range tests {
+		t.Run(tc.name, func(t *testing.T) {
+			ds := pulsedRuns(24, tc.kicked, tc.noise, 5)
+			m := mustFit(t, ds, nil)
+			for _, eq := range m.Equations {
+				t.Logf("d(%s)/dt: lack of fit %.3g (rms %.4g floor %.4g), share %.3g, warning %q", eq.State, eq.LackOfFit, eq.HeldoutRMS, eq.NoiseFloorRMS, eq.HeldoutShare, eq.Warning)
+			}
+			eq := m.Equations[1]
+			if !(eq.LackOfFit >= tc.lo && eq.LackOfFit <= tc.hi) {
+				t.Errorf("d(v)/dt: lack of fit %.3g, want in [%g, %g]", eq.LackOfFit, tc.lo, tc.hi)
+			}
+			if got := strings.Contains(eq.Warning, "times what the measurement noise leaves"); got != tc.warn {
+				t.Errorf("d(v)/dt: warning %q, want a lack-of-fit warning %v", eq.Warning, tc.warn)
+			}
+			if !tc.warn {
+				for _, e := range m.Equations {
+					if e.Warning != "" {
+						t.Errorf("d(%s)/dt: warning %q on a correct model", e.State, e.Warning)
+					}
+				}
+			}
+		})
+	}
+}
