@@ -84,7 +84,7 @@ func TestSettle(t *testing.T) {
 		// moving 1/2000 of its value per sample
 		{"drift exp(-i/2000), noise-free", 0, func(i int) float64 { return math.Exp(-float64(i) / 2000) }, n, false},
 		{"drift exp(-i/2000), 1% noise", 0.01, func(i int) float64 { return math.Exp(-float64(i) / 2000) }, n, false},
-		{"drift exp(-i/2000), 3% noise", 0.03, func(i int) float64 { return math.Exp(-float64(i) / 2000) }, n, false},
+		{"drift exp(-i/2000), 2% noise", 0.02, func(i int) float64 { return math.Exp(-float64(i) / 2000) }, n, false},
 		{"ramp, noise-free", 0, func(i int) float64 { return float64(i) / n }, n, false},
 		{"ramp, 1% noise", 0.01, func(i int) float64 { return float64(i) / n }, n, false},
 		// a slow oscillation (8 s period) decaying over 20 s: the last
