@@ -202,6 +202,7 @@ func Check(ctx context.Context, cert *fit.Certificate, ds *ingest.Dataset, opts 
 	s := NewScreener(cert, &ScreenOptions{Tolerance: o.Tolerance})
 	s.spacing = tau
 	runs := make([]RunScreen, len(ds.Runs))
+	vp := cert.V.Compile(len(cert.States))
 	val := &fit.Validation{HeldoutRuns: len(ds.Runs), Decorrelation: tau, Confidence: 1 - o.Beta}
 	var scen, viol, started, entered, stayed int
 	worst := math.Inf(-1)
@@ -212,6 +213,9 @@ func Check(ctx context.Context, cert *fit.Certificate, ds *ingest.Dataset, opts 
 		}
 		r := &runs[i]
 		s.Screen(r, ds.Runs[i].Source.File, &ds.Runs[i])
+		if r.EverInside {
+			r.lateRate, r.lateOK = lateRate(cert, vp, &ds.Runs[i], r.enter)
+		}
 		val.Pairs += r.Pairs
 		dec := r.Decreased
 		val.DecreaseFraction += float64(dec)
@@ -343,6 +347,29 @@ func Decide(cert *fit.Certificate, val *fit.Validation, runs []RunScreen, eig []
 	cert.Validation = val
 }
 
+// trendsUp reports whether decay rates say V trends up: at least three
+// rates, most of them below zero, and their mean more than growthSE
+// standard errors below zero. It returns how many are below zero, how
+// many there are, their mean and its standard error.
+func trendsUp(rates []float64) (neg, n int, mean, se float64, up bool) {
+	n = len(rates)
+	if n < 3 {
+		return 0, n, 0, 0, false
+	}
+	for _, x := range rates {
+		if x < 0 {
+			neg++
+		}
+		mean += x / float64(n)
+	}
+	ss := 0.0
+	for _, x := range rates {
+		ss += (x - mean) * (x - mean)
+	}
+	se = math.Sqrt(ss / float64(n-1) / float64(n))
+	return neg, n, mean, se, 2*neg > n && mean+growthSE*se < 0
+}
+
 // growthSE is how many standard errors below zero the held-out runs'
 // mean decay rate must lie for V to be said to trend up (about a one-sided
 // 5% level for a handful of runs under a normal model; common practice).
@@ -445,29 +472,23 @@ func decide(cert *fit.Certificate, val *fit.Validation, runs []RunScreen, eig []
 	// (minus the slope of log V over many samples) is below zero on most
 	// of them, with their mean more than two standard errors below zero;
 	// a stable one's scatter about zero or above.
-	var rates []float64
+	var rates, late []float64
 	for _, r := range runs {
 		if r.EverInside && r.DecaySamples > 0 {
 			rates = append(rates, r.DecayRate)
 		}
+		if r.EverInside && r.lateOK {
+			late = append(late, r.lateRate)
+		}
 	}
-	if n := len(rates); n >= 3 {
-		neg, mean := 0, 0.0
-		for _, x := range rates {
-			if x < 0 {
-				neg++
-			}
-			mean += x / float64(n)
-		}
-		ss := 0.0
-		for _, x := range rates {
-			ss += (x - mean) * (x - mean)
-		}
-		se := math.Sqrt(ss / float64(n-1) / float64(n))
-		if 2*neg > n && mean+growthSE*se < 0 {
-			slices.Sort(rates)
-			return fit.Inconclusive, fit.NoClaim, fit.ReasonHeldoutRise, fmt.Sprintf("V trends up along %d of the %d held-out runs that entered the region (mean decay rate %.3g ± %.2g 1/s, below zero): slow growth cannot be told from stability. Record longer runs to tell.", neg, n, mean, se)
-		}
+	if neg, n, mean, se, up := trendsUp(rates); up {
+		return fit.Inconclusive, fit.NoClaim, fit.ReasonHeldoutRise, fmt.Sprintf("V trends up along %d of the %d held-out runs that entered the region (mean decay rate %.3g ± %.2g 1/s, below zero): slow growth cannot be told from stability. Record longer runs to tell.", neg, n, mean, se)
+	}
+	// The same over the later half of each run from entry: a transient
+	// that dies early (V falling fast at first) can hide a slow rise that
+	// goes on to the end.
+	if neg, n, mean, se, up := trendsUp(late); up {
+		return fit.Inconclusive, fit.NoClaim, fit.ReasonHeldoutRise, fmt.Sprintf("V trends up over the later half of %d of the %d held-out runs that entered the region (mean decay rate there %.3g ± %.2g 1/s, below zero): slow growth cannot be told from stability. Record longer runs to tell.", neg, n, mean, se)
 	}
 	why := "not all settled"
 	switch {

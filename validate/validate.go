@@ -61,7 +61,11 @@
 // asymptotic when V has a positive decrease margin, every run that
 // entered with at least two tail windows of samples after entry settled
 // (and there is one) and the linearisation is strictly stable, else stable (stability without convergence, as for a
-// lossless oscillator). rejected when the data contradict stability: an
+// lossless oscillator). The stable strength also needs V not to trend up
+// along the held-out runs that entered: neither over whole runs nor over
+// the later half of each from entry (where a slow growth shows once an
+// early transient has died) may most decay rates lie below zero with
+// their mean two standard errors below it. rejected when the data contradict stability: an
 // unstable linearisation, or a held-out run that starts inside and leaves
 // by more than the noise tolerance. Everything else is inconclusive. The
 // verdict is evidence from recorded samples, never a proof: see
@@ -126,6 +130,10 @@ type RunScreen struct {
 	vEnter       float64
 	longAfter    bool
 	settledEntry bool
+	// lateRate is the decay rate over the later half of the run from
+	// entry (see lateRate); lateOK says it is known.
+	lateRate float64
+	lateOK   bool
 
 	// scenario samples (pairs at least the decorrelation time apart) and
 	// the violations among them; worst rise and where.
