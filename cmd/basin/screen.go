@@ -106,6 +106,11 @@ type screenJSON struct {
 type screenRun struct {
 	validate.RunScreen
 	Partition partition `json:"partition,omitempty"`
+	// JumpSplits is how many one-sample jumps far beyond the noise (a
+	// hit, a step) split the recording this run was cut from; each piece
+	// is screened apart, and a piece that starts outside the region after
+	// a hit is not flagged for it.
+	JumpSplits int `json:"jump_splits,omitempty"`
 }
 
 // partition is a file's key=value folders, written as a JSON object in
@@ -162,6 +167,10 @@ type screenSummary struct {
 	Slow      int `json:"slow"`
 	// NeverInside counts runs that never entered the region.
 	NeverInside int `json:"never_inside"`
+	// JumpSplits counts the splits at one-sample jumps far beyond the
+	// noise over all files, and JumpFiles the files that had one.
+	JumpSplits int `json:"jump_splits"`
+	JumpFiles  int `json:"jump_files"`
 }
 
 func runScreen(ctx context.Context, e *env, args []string) error {
@@ -242,11 +251,15 @@ func runScreen(ctx context.Context, e *env, args []string) error {
 		out.States = append(out.States, screenState{s, cert.Units[j]})
 	}
 	for i, rs := range res {
-		for _, r := range rs.runs {
+		if j := fileJumps(rs.runs, rs.jumps); j > 0 {
+			out.Summary.JumpSplits += j
+			out.Summary.JumpFiles++
+		}
+		for k, r := range rs.runs {
 			if r.Flags == nil {
 				r.Flags = []validate.Flag{}
 			}
-			out.Runs = append(out.Runs, screenRun{RunScreen: r, Partition: inputs[i].Partition})
+			out.Runs = append(out.Runs, screenRun{RunScreen: r, Partition: inputs[i].Partition, JumpSplits: rs.jumps[k]})
 			out.Summary.Runs++
 			out.Summary.Samples += r.Samples
 			if r.Flagged {
@@ -303,8 +316,9 @@ func asInputError(err error) error { return classify(err, "") }
 
 // fileResult is the screening of one file.
 type fileResult struct {
-	runs []validate.RunScreen
-	err  error
+	runs  []validate.RunScreen
+	jumps []int // per run, its recording's splits at jumps
+	err   error
 }
 
 // screenFiles reads and screens files on up to workers goroutines (0: one
@@ -376,12 +390,49 @@ func screenOne(ctx context.Context, s *validate.Screener, st *ingest.Streamer, d
 		return fileResult{err: err}
 	}
 	r.runs = make([]validate.RunScreen, len(*dst))
+	r.jumps = make([]int, len(*dst))
+	byName := make(map[string]int, len(sf.Runs))
+	for _, sr := range sf.Runs {
+		byName[sr.Name] = sr.Events
+	}
+	for k := range *dst {
+		r.jumps[k] = byName[(*dst)[k].Run]
+	}
 	for k, rs := range *dst {
 		// ScreenFile reuses each result's Flags storage; keep a copy.
 		rs.Flags = append([]validate.Flag(nil), rs.Flags...)
 		r.runs[k] = rs
 	}
 	return r
+}
+
+// fileJumps counts one file's splits at jumps: every piece of a
+// recording carries its recording's count, so each recording (a run name
+// without its "~N" piece suffix) is counted once.
+func fileJumps(runs []validate.RunScreen, jumps []int) int {
+	seen := map[string]bool{}
+	n := 0
+	for k, r := range runs {
+		stem := r.Run
+		if i := strings.LastIndexByte(stem, '~'); i > 0 && isDigits(stem[i+1:]) {
+			stem = stem[:i]
+		}
+		if !seen[stem] {
+			seen[stem] = true
+			n += jumps[k]
+		}
+	}
+	return n
+}
+
+// isDigits says s is one or more ASCII digits.
+func isDigits(s string) bool {
+	for _, c := range []byte(s) {
+		if c < '0' || c > '9' {
+			return false
+		}
+	}
+	return s != ""
 }
 
 // screenTable prints the runs in input order, then a summary line.
@@ -420,6 +471,10 @@ func screenTable(w io.Writer, out *screenJSON) error {
 		human.Count(s.Runs, "run"), human.Count(s.Files, "file"), human.Count(s.Samples, "sample"), s.Flagged, s.Rises, s.Leaves, s.Unsettled, s.Slow, s.NeverInside)
 	if err == nil && out.SlowBound > 0 {
 		_, err = fmt.Fprintf(w, "slow: decay rate of V below %.3g 1/s (half the slowest held-out run's)\n", out.SlowBound)
+	}
+	if err == nil && s.JumpSplits > 0 {
+		_, err = fmt.Fprintf(w, "jumps: %s split at %s far beyond the noise (a hit or a step from outside); the pieces were screened apart, and a piece that starts outside the region after one is not flagged for it (--keep-events screens each recording whole)\n",
+			human.Count(s.JumpFiles, "file"), human.Count(s.JumpSplits, "one-sample jump"))
 	}
 	if err == nil {
 		_, err = fmt.Fprintln(w, fit.Caveat)

@@ -7,6 +7,7 @@ import (
 	"encoding/json"
 	"fmt"
 	"math"
+	"math/rand/v2"
 	"os"
 	"path/filepath"
 	"strings"
@@ -315,3 +316,62 @@ func TestScreenPartitions(t *testing.T) {
 }
 
 func csvRows(s string) ([][]string, error) { return csv.NewReader(strings.NewReader(s)).ReadAll() }
+
+// TestScreenJumpSplits: a log hit once (at 5 s the state jumps from near
+// the equilibrium to well outside the region, then settles again) is
+// split there as inspect and run split it; screen says so in the table
+// and in --json (jump_splits per run and in the summary), and neither
+// piece is flagged: the hit came from outside the system, and the piece
+// after it starts outside the region and comes back in.
+func TestScreenJumpSplits(t *testing.T) {
+	dir := t.TempDir()
+	cert := writeTestCert(t, screenCert)
+	rng := rand.New(rand.NewPCG(3, 4))
+	var b strings.Builder
+	b.WriteString("time [s],pitch [deg],rate [deg/s]\n")
+	for i := 0; i <= 750; i++ {
+		tt := float64(i) * 0.02
+		z0, s := [2]float64{0.5, 0.3}, tt
+		if tt >= 5 {
+			z0, s = [2]float64{1.2, 0}, tt-5
+		}
+		e := math.Exp(-s)
+		fmt.Fprintf(&b, "%g,%.17g,%.17g\n", tt, 1.5+2*z0[0]*e+1e-4*rng.NormFloat64(), 10*z0[1]*e+1e-3*rng.NormFloat64())
+	}
+	hit := filepath.Join(dir, "hit.csv")
+	if err := os.WriteFile(hit, []byte(b.String()), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	calm := writeRun(t, dir, "calm.csv", [2]float64{0.5, 0.3}, -1, 10)
+	var out, errb bytes.Buffer
+	if code := basinMain(context.Background(), []string{"screen", "--json", "--cert", cert, hit, calm}, &out, &errb); code != 0 {
+		t.Fatalf("exit %d, want 0; stderr %s\n%s", code, errb.String(), out.String())
+	}
+	var got struct {
+		Runs []struct {
+			Run        string `json:"run"`
+			Flagged    bool   `json:"flagged"`
+			JumpSplits int    `json:"jump_splits"`
+		} `json:"runs"`
+		Summary map[string]int `json:"summary"`
+	}
+	if err := json.Unmarshal(out.Bytes(), &got); err != nil {
+		t.Fatal(err)
+	}
+	if len(got.Runs) != 3 || got.Summary["jump_splits"] != 1 || got.Summary["jump_files"] != 1 || got.Summary["flagged"] != 0 {
+		t.Fatalf("runs %+v, summary %v", got.Runs, got.Summary)
+	}
+	for i, want := range []struct {
+		run   string
+		jumps int
+	}{{"hit.csv", 1}, {"hit.csv~1", 1}, {"calm.csv", 0}} {
+		if r := got.Runs[i]; r.Run != want.run || r.JumpSplits != want.jumps {
+			t.Errorf("run %d: %+v, want %s with %d jump splits", i, r, want.run, want.jumps)
+		}
+	}
+	out.Reset()
+	if code := basinMain(context.Background(), []string{"screen", "--cert", cert, hit, calm}, &out, &errb); code != 0 ||
+		!strings.Contains(out.String(), "jumps: 1 file split at 1 one-sample jump far beyond the noise") {
+		t.Errorf("exit %d, table:\n%s", code, out.String())
+	}
+}
