@@ -291,13 +291,13 @@ func BenchmarkScanFast(b *testing.B) {
 // of wall-clock time, x-naive-cpu the same for the CPU time the process
 // used during each (on a busy machine the wall-clock ratio depends on how
 // many cores the other processes leave; the CPU ratio does not), and
-// basin-s, naive-s the median times. Each read starts after a collection
+// basin-s, naive-s, basin-cpu-s, naive-cpu-s the median times. Each read starts after a collection
 // (outside the timing), so that neither pays for the other's garbage.
 // Run it with -cpu 1,2 to see the ratio with one core and with two, and
 // -benchtime Nx for N pairs.
 func BenchmarkReadCSVSideBySide(b *testing.B) {
 	path, _ := benchFiles(b)
-	var naive, basin, wall, cpu []float64
+	var naive, basin, naiveCPU, basinCPU, wall, cpu []float64
 	var dNaive, cNaive, dBasin, cBasin time.Duration
 	readNaive := func() {
 		f, _ := os.Open(path)
@@ -331,6 +331,8 @@ func BenchmarkReadCSVSideBySide(b *testing.B) {
 		}
 		naive = append(naive, dNaive.Seconds())
 		basin = append(basin, dBasin.Seconds())
+		naiveCPU = append(naiveCPU, cNaive.Seconds())
+		basinCPU = append(basinCPU, cBasin.Seconds())
 		wall = append(wall, dNaive.Seconds()/dBasin.Seconds())
 		cpu = append(cpu, cNaive.Seconds()/cBasin.Seconds())
 		i++
@@ -340,6 +342,8 @@ func BenchmarkReadCSVSideBySide(b *testing.B) {
 	b.ReportMetric(med(cpu), "x-naive-cpu")
 	b.ReportMetric(med(basin), "basin-s")
 	b.ReportMetric(med(naive), "naive-s")
+	b.ReportMetric(med(basinCPU), "basin-cpu-s")
+	b.ReportMetric(med(naiveCPU), "naive-cpu-s")
 }
 
 // BenchmarkEventsSideBySide reads the benchmark file with the event and
