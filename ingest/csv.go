@@ -79,7 +79,8 @@ type chunk struct {
 	lines   int // its line ends, plus one for a last line without one: the most rows it can hold
 	nl      int // its line ends, when counted already (nlKnown)
 	nlKnown bool
-	off     int // the table row where its room starts
+	general bool // some row came from the general path (which gives NaN for a missing cell)
+	off     int  // the table row where its room starts
 	rows    int
 	t       []float64
 	tn      []int64
@@ -196,6 +197,7 @@ func readCSVTable(r io.Reader, name string, opts *Options) (*table, error) {
 	// Parse: the rest of the first block, then further blocks.
 	lay.index()
 	p := &csvParser{lay: lay, tb: tb, sink: opts.csvSink}
+	tb.finite = true // until a row from the general path (see parseBlocks)
 	if eof {
 		if err := p.parseBlocks([]*chunk{{data: rest, line: line}}); err != nil {
 			return nil, err
@@ -733,6 +735,9 @@ func (p *csvParser) parseBlocks(cs []*chunk) error {
 			return cs[i].err
 		})
 	}
+	for _, c := range cs {
+		tb.finite = tb.finite && !c.general
+	}
 	if p.sink != nil {
 		return p.handOver(cs, err)
 	}
@@ -967,6 +972,7 @@ func (p *csvParser) parse(c *chunk) {
 			}
 		}
 		c.rows++
+		c.general = true
 		line++
 	}
 }

@@ -43,6 +43,10 @@ type table struct {
 	marks    []lineMark
 	rows     int
 	ignored  []Column
+	// finite: every cell of x is known to be finite, with no missing
+	// cell (the CSV reader's fast row path took every row: it takes
+	// finite numbers only), so that the runs need no look for holes
+	finite bool
 }
 
 // line returns the source line (CSV) or 1-based row (Parquet) of row i.
@@ -184,7 +188,7 @@ func (tb *table) splitGroup(ds *Dataset, g group, opts *Options) error {
 		// the columns (checked a column at a time, not a row at a time).
 		holes := false
 		for _, c := range tb.x {
-			if !allFinite(c[sp[0]:sp[1]]) {
+			if !tb.finite && !allFinite(c[sp[0]:sp[1]]) {
 				holes = true
 				break
 			}
