@@ -102,9 +102,49 @@ func (c *command) parse(e *env, fs *flag.FlagSet, args []string) ([]string, erro
 	}
 	if err != nil {
 		// The flag package spells the flag with one dash; basin's help uses two.
-		return nil, &usageError{strings.Replace(err.Error(), ": -", ": --", 1)}
+		msg := strings.Replace(err.Error(), ": -", ": --", 1)
+		msg = strings.Replace(msg, " for flag -", " for flag --", 1)
+		msg = strings.Replace(msg, "invalid boolean value", "invalid value", 1)
+		msg = strings.Replace(msg, " for -", " for flag --", 1)
+		return nil, &usageError{msg + wantText(fs, err)}
 	}
 	return pos, nil
+}
+
+// wantText says what a flag whose value did not parse takes (the flag
+// package says only "parse error"), from the type of its value.
+func wantText(fs *flag.FlagSet, err error) string {
+	m := err.Error()
+	if !strings.HasPrefix(m, "invalid ") {
+		return ""
+	}
+	_, rest, ok := strings.Cut(m, " for flag -")
+	if !ok {
+		_, rest, ok = strings.Cut(m, " for -") // a boolean flag's wording
+	}
+	if !ok {
+		return ""
+	}
+	name, _, _ := strings.Cut(rest, ":")
+	f := fs.Lookup(name)
+	if f == nil {
+		return ""
+	}
+	g, ok := f.Value.(flag.Getter)
+	if !ok {
+		return ""
+	}
+	switch g.Get().(type) {
+	case uint, uint64:
+		return " (a whole number, 0 or more)"
+	case int, int64:
+		return " (a whole number)"
+	case float64:
+		return " (a number)"
+	case bool:
+		return " (true or false)"
+	}
+	return ""
 }
 
 // printHelp writes c's usage, description and flags (with their defaults).

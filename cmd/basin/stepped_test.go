@@ -6,6 +6,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"regexp"
 	"strings"
 	"testing"
 )
@@ -86,6 +87,34 @@ func TestRunColHint(t *testing.T) {
 			msg := stderr.String()
 			if code != 2 || strings.Count(msg, "\n") != 1 || !strings.Contains(msg, tc.want) || strings.Contains(msg, hint) != tc.hint {
 				t.Errorf("exit %d, stderr %q; want 2, one line with %q, hint %v", code, msg, tc.want, tc.hint)
+			}
+		})
+	}
+}
+
+// singleDash matches a flag spelt with one dash after "flag" or "for".
+var singleDash = regexp.MustCompile(`(flag|for) -[a-z]`)
+
+// TestFlagValueErrors: a flag value that does not parse is a usage error
+// (exit 2, one line) that spells the flag with two dashes, as the help
+// does, and says what the flag takes.
+func TestFlagValueErrors(t *testing.T) {
+	for _, tc := range []struct {
+		args []string
+		want string
+	}{
+		{[]string{"run", "--seed", "-1", "x.csv"}, `invalid value "-1" for flag --seed: parse error (a whole number, 0 or more)`},
+		{[]string{"run", "--degree=x", "x.csv"}, `invalid value "x" for flag --degree: parse error (a whole number)`},
+		{[]string{"inspect", "--rate", "fast", "x.csv"}, `invalid value "fast" for flag --rate: parse error (a number)`},
+		{[]string{"run", "--all-folds=maybe", "x.csv"}, `invalid value "maybe" for flag --all-folds: parse error (true or false)`},
+		{[]string{"inspect", "--bogus", "x.csv"}, "flag provided but not defined: --bogus"},
+	} {
+		t.Run(strings.Join(tc.args, " "), func(t *testing.T) {
+			var stdout, stderr bytes.Buffer
+			code := basinMainIn(context.Background(), tc.args, &stdout, &stderr, nil)
+			msg := stderr.String()
+			if code != 2 || strings.Count(msg, "\n") != 1 || !strings.Contains(msg, tc.want) || singleDash.MatchString(msg) {
+				t.Errorf("exit %d, stderr %q; want 2 and one line with %q", code, msg, tc.want)
 			}
 		})
 	}
