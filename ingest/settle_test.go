@@ -87,6 +87,10 @@ func TestSettle(t *testing.T) {
 		{"drift exp(-i/2000), 2% noise", 0.02, func(i int) float64 { return math.Exp(-float64(i) / 2000) }, n, false},
 		{"ramp, noise-free", 0, func(i int) float64 { return float64(i) / n }, n, false},
 		{"ramp, 1% noise", 0.01, func(i int) float64 { return float64(i) / n }, n, false},
+		// a ramp under the noise: it moves the state one noise standard
+		// deviation a tenth, too little to show within one, 2 across
+		// three (a temperature creeping up while the mechanics rest)
+		{"ramp under the noise", 0.1, func(i int) float64 { return float64(i) / n }, n, false},
 		// a slow oscillation (8 s period) decaying over 20 s: the last
 		// tenth sees a stretch of it, a trend the quadratic catches
 		{"slow oscillation decaying, 1% noise", 0.01, func(i int) float64 {
@@ -155,7 +159,8 @@ func TestSettleFalseRefusals(t *testing.T) {
 }
 
 // TestSettleFit checks the settle test's pieces against independent
-// computations: the F(2, nu) quantile against gonum's distuv.F, and the
+// computations: the F(2, nu) quantile against gonum's distuv.F, the
+// normal point of the drift test against distuv.UnitNormal, and the
 // orthogonal-polynomial quadratic fit's regression sum of squares and
 // fitted values against a least-squares solve of [1 t t²] by gonum's QR
 // (the sums of squares of the F test of significance of regression,
@@ -168,6 +173,11 @@ func TestSettleFit(t *testing.T) {
 				t.Errorf("F(2, %g) quantile at %g: %v, want %v", nu, 1-alpha, got, want)
 			}
 		}
+	}
+	// the drift test's level: the two-sided 1e-3 point of the normal
+	// [AbramowitzStegun1964]
+	if want := distuv.UnitNormal.Quantile(1 - 5e-4); !scalar.EqualWithinRel(driftZ, want, 1e-12) {
+		t.Errorf("driftZ %v, want %v", driftZ, want)
 	}
 	rng := rand.New(rand.NewPCG(7, 8))
 	m := 50

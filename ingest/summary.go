@@ -90,9 +90,13 @@ type RunSummary struct {
 	// judged), a fitted quadratic trend is either not significant (F
 	// test of regression at level 1e-3) or moves the state by at most
 	// DriftFloor of its span over the run or 1.5 noise standard
-	// deviations, and what is left about the trend either spans at most
+	// deviations, what is left about the trend either spans at most
 	// SettleSpread of the run's span or spreads no wider than 3 times
-	// the noise (estimated from the run's fourth differences). White
+	// the noise (estimated from the run's fourth differences), and the
+	// means of its last three tenths do not drift one way by more than
+	// their standard errors allow and one noise standard deviation.
+	// Runs still ringing within SettleSpread of their span settle too,
+	// unless a trend there is an approach still in progress. White
 	// noise about a constant passes at any level, and so does a rest
 	// with one outlier; a drift, a ramp, a decay or a ringing still in
 	// progress beyond the noise does not. Settle holds, per state, the
@@ -316,6 +320,95 @@ func (q *quadFit) travel() float64 {
 	return hi - lo
 }
 
+// trend fits a quadratic to x at t (see rests), leaves its residuals in
+// sc.buf[:len(x)] and reports whether its trend is real: significant by
+// the F test, deflated for correlated noise, and moving the state across
+// the window by more than DriftFloor of span and trendSigmas residual
+// standard deviations.
+func (sc *settleScratch) trend(t, x []float64, span float64) (quadFit, bool) {
+	m := len(x)
+	q := fitQuad(t, x)
+	sc.buf = slices.Grow(sc.buf[:0], m)
+	res := sc.buf[:m]
+	var s0, s1 float64
+	for i := range x {
+		res[i] = x[i] - q.at(t[i])
+		s0 += res[i] * res[i]
+		if i > 0 {
+			s1 += res[i] * res[i-1]
+		}
+	}
+	// noise correlated from sample to sample (AR(1) with coefficient
+	// phi) carries fewer independent samples, m (1-phi)/(1+phi), and
+	// inflates F by about (1+phi)/(1-phi): deflate it by the residuals'
+	// lag-1 autocorrelation (white noise gives about 0)
+	phi := 0.0
+	if s0 > 0 {
+		phi = min(max(s1/s0, 0), 0.99)
+	}
+	df := float64(m - 3)
+	if !(q.ssReg > 0 && q.ssReg/2*(1-phi)/(1+phi) > fQuantile2(settleAlpha, df)*s0/df) {
+		return q, false
+	}
+	d := q.travel()
+	return q, d > DriftFloor*span && d > trendSigmas*math.Sqrt(s0/df)
+}
+
+// driftZ is the two-sided 1 - 1e-3 point of the standard normal
+// distribution, 3.2905 (AbramowitzStegun1964, table 26.1; checked against
+// gonum's distuv): the level of the test of drifts.
+const driftZ = 3.2905267314919255
+
+// drifts reports whether x, three windows of m samples, drifts one way
+// across them: the windows' means rise (or fall) from each to the next,
+// and the last differs from the first by more than driftZ standard
+// errors (each window's variance over m, inflated by (1+phi)/(1-phi) for
+// its lag-1 autocorrelation phi, the two added), by more than DriftFloor
+// of span, and by more than trendSigmas of the windows' pooled standard
+// deviation: the comparison of means of two windows with their standard
+// errors (Welch's, the variances unpooled), for a drift too slow to show
+// within one. A ringing about the point turns between the windows.
+func drifts(x []float64, m int, span float64) bool {
+	var mu, v [3]float64
+	for w := range 3 {
+		mu[w], v[w] = meanVarAR(x[w*m : (w+1)*m])
+	}
+	if !((mu[1]-mu[0])*(mu[2]-mu[1]) > 0) {
+		return false
+	}
+	d := math.Abs(mu[2] - mu[0])
+	se := math.Sqrt(v[0]/float64(m) + v[2]/float64(m))
+	sd := math.Sqrt((v[0] + v[2]) / 2)
+	return d > driftZ*se && d > DriftFloor*span && d > sd
+}
+
+// meanVarAR returns the mean of x and its variance inflated by
+// (1+phi)/(1-phi), phi the lag-1 autocorrelation (clamped to [0, 0.99]),
+// so that variance/len(x) is the variance of the mean under AR(1) noise.
+// The variance of a ringing or a trend inside x counts as noise, which
+// only makes a drift harder to show.
+func meanVarAR(x []float64) (float64, float64) {
+	m := float64(len(x))
+	mu := 0.0
+	for _, v := range x {
+		mu += v
+	}
+	mu /= m
+	var s0, s1 float64
+	for i, v := range x {
+		d := v - mu
+		s0 += d * d
+		if i > 0 {
+			s1 += d * (x[i-1] - mu)
+		}
+	}
+	phi := 0.0
+	if s0 > 0 {
+		phi = min(max(s1/s0, 0), 0.99)
+	}
+	return mu, s0 / (m - 1) * (1 + phi) / (1 - phi)
+}
+
 // fQuantile2 returns the 1-alpha quantile of the F distribution with 2
 // and nu degrees of freedom, whose upper tail has the closed form
 // P(F > f) = (1 + 2f/nu)^(-nu/2).
@@ -340,11 +433,13 @@ func fQuantile2(alpha, nu float64) float64 {
 // deviations (a smaller trend is invisible beside the noise). The state rests
 // when either
 //
-//   - it rests within its noise: no real trend, and the residuals about
-//     the curve span at most SettleSpread of span or spread, robustly
+//   - it rests within its noise: no real trend, the residuals about the
+//     curve span at most SettleSpread of span or spread, robustly
 //     (1.4826 times their median absolute deviation), within
 //     wobbleSigmas times the noise (1.4826 median|Δ⁴x| / √70 over the
-//     run, which a smooth signal hardly touches); or
+//     run, which a smooth signal hardly touches), and the last three
+//     tenths do not drift one way (see drifts: a drift too slow to
+//     stand out within one tenth shows across three); or
 //   - it rests within its excursion: its last tenth spans at most
 //     SettleSpread of span (a ringing that has died down to a few
 //     percent of the run's range), and a real trend is not an approach
@@ -369,44 +464,25 @@ func (sc *settleScratch) rests(t, x []float64, k int, span float64) bool {
 	n := len(x)
 	m := 2 * k
 	tw, xw := t[n-m:], x[n-m:]
-	q := fitQuad(tw, xw)
-	sc.buf = slices.Grow(sc.buf[:0], m)
-	res := sc.buf[:m]
-	var s0, s1 float64
-	for i := range xw {
-		res[i] = xw[i] - q.at(tw[i])
-		s0 += res[i] * res[i]
-		if i > 0 {
-			s1 += res[i] * res[i-1]
-		}
-	}
-	// noise correlated from sample to sample (AR(1) with coefficient
-	// phi) carries fewer independent samples, m (1-phi)/(1+phi), and
-	// inflates F by about (1+phi)/(1-phi): deflate it by the residuals'
-	// lag-1 autocorrelation (white noise gives about 0)
-	phi := 0.0
-	if s0 > 0 {
-		phi = min(max(s1/s0, 0), 0.99)
-	}
-	df := float64(m - 3)
-	sres := math.Sqrt(s0 / df)
-	trend := q.ssReg > 0 && q.ssReg/2*(1-phi)/(1+phi) > fQuantile2(settleAlpha, df)*s0/df
-	if trend {
-		d := q.travel()
-		trend = d > DriftFloor*span && d > trendSigmas*sres
-	}
+	q, trend := sc.trend(tw, xw, span)
 	if !trend {
 		// the residuals' range and robust spread against the noise
+		res := sc.buf[:m]
 		rlo, rhi := minMax(res)
-		if rhi-rlo <= SettleSpread*span {
-			return true
+		quiet := rhi-rlo <= SettleSpread*span
+		if !quiet {
+			med := median(res)
+			for i := range res {
+				res[i] = math.Abs(res[i] - med)
+			}
+			quiet = madGauss*median(res) <= wobbleSigmas*sc.noise(x)
 		}
-		med := median(res)
-		for i := range res {
-			res[i] = math.Abs(res[i] - med)
-		}
-		if madGauss*median(res) <= wobbleSigmas*sc.noise(x) {
+		// a drift too slow to stand out of the noise within a tenth
+		// shows over three
+		if long := drifts(x[n-3*m:], m, span); quiet && !long {
 			return true
+		} else if long {
+			trend = true
 		}
 	}
 	if lo, hi := minMax(xw); !(hi-lo <= SettleSpread*span) {

@@ -12,6 +12,7 @@ import (
 	"strconv"
 	"strings"
 
+	"basin.example/cmd/basin/internal/human"
 	"basin.example/cmd/basin/internal/report"
 	"basin.example/fit"
 	"basin.example/fit/poly"
@@ -259,8 +260,12 @@ func runRun(ctx context.Context, e *env, args []string) error {
 			in.Rests = append(in.Rests, report.Rest{File: name, Cert: ci, Runs: r.Rest.Runs})
 		}
 		for _, s := range skips {
-			in.Skipped = append(in.Skipped, fmt.Sprintf("the rest point at %s (%d runs settle there): %s",
-				report.StatePoint(cert, s.Rest.Point), s.Rest.Runs, s.Why))
+			settle := "settle"
+			if s.Rest.Runs == 1 {
+				settle = "settles"
+			}
+			in.Skipped = append(in.Skipped, fmt.Sprintf("the rest point at %s (%s %s there): %s",
+				report.StatePoint(cert, s.Rest.Point), human.Count(s.Rest.Runs, "run"), settle, s.Why))
 		}
 	}
 	// Render everything in memory first: a failure leaves nothing behind.
