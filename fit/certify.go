@@ -440,8 +440,9 @@ func certScale(m *Model, ds *ingest.Dataset) []float64 {
 // noiseBalanceMax caps how far balanceNoise moves a state's scale from
 // its spread (a factor, either way): states measured far more precisely
 // than others keep a z spread within noiseBalanceMax² of the rest, so
-// the certificate's polynomials stay well conditioned.
-const noiseBalanceMax = 4
+// the certificate's polynomials stay well conditioned (a degree-8 V's
+// terms then span at most 2^8 more than with the spreads).
+const noiseBalanceMax = 2
 
 // noiseBalanceMin: noise within this factor across states (in spreads)
 // is left as it is: the ball then reaches at most that far beyond the

@@ -652,3 +652,34 @@ func TestCertifyTwoWellsNoisy(t *testing.T) {
 	}
 	checkConverges(t, sys, pts, 0.05)
 }
+
+// TestBalanceNoise checks the certificate's scales against their
+// definition (exact arithmetic): noise within a factor 2 across states
+// (in spreads) keeps the spreads; beyond it each scale is multiplied by
+// its noise-to-spread ratio over their geometric mean, capped at a
+// factor 2 either way, so the product of the scales is kept when no cap
+// bites, and the noise in z is then the same in every state.
+func TestBalanceNoise(t *testing.T) {
+	for _, tc := range []struct {
+		name         string
+		scale, noise []float64
+		want         []float64
+	}{
+		{"even", []float64{1, 2}, []float64{0.01, 0.03}, []float64{1, 2}},
+		{"three times noisier", []float64{1.45, 0.285}, []float64{0.027 * 1.45, 0.081 * 0.285},
+			[]float64{1.45 / math.Sqrt(3), 0.285 * math.Sqrt(3)}},
+		{"four times noisier, capped", []float64{1.45, 0.285}, []float64{0.027 * 1.45, 0.109 * 0.285},
+			[]float64{1.45 / 2, 0.285 * 2}},
+		{"capped", []float64{1, 1, 1}, []float64{1e-9, 0.01, 0.01}, []float64{0.5, 2, 2}},
+		{"zero noise", []float64{1, 1}, []float64{0, 0.01}, []float64{1, 1}},
+		{"one state", []float64{3}, []float64{0.1}, []float64{3}},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			got := append([]float64(nil), tc.scale...)
+			balanceNoise(got, tc.noise)
+			if !floats.EqualApprox(got, tc.want, 1e-12) {
+				t.Errorf("scales %v, want %v", got, tc.want)
+			}
+		})
+	}
+}
