@@ -471,8 +471,9 @@ func Field(ctx context.Context, ds *ingest.Dataset, opts *FieldOptions) (*Model,
 	m.Equations = make([]Equation, n)
 	var floor [][]float64
 	var runOf []int
+	ad := &adequacy{runs: runs, lib: lib, m: m, vs: sc, steps: score.steps}
 	if score.steps > 0 {
-		floor, runOf = yardstickFloor(runs, groupOf, keep, score.steps, m.Spread, score.pr.ySD)
+		floor, runOf, ad.sigma = yardstickFloor(runs, groupOf, keep, score.steps, m.Spread, score.pr.ySD)
 	}
 	for i := range m.Equations {
 		raw[i] = toRaw(make([]float64, p), i, xi[i])
@@ -494,7 +495,7 @@ func Field(ctx context.Context, ds *ingest.Dataset, opts *FieldOptions) (*Model,
 		case eq.HeldoutShare >= constantShare:
 			eq.Warning = fmt.Sprintf("no better than a constant on held-out runs (error %.0f%% of the spread of d%s/dt)", 100*eq.HeldoutShare, names[i])
 		}
-		if w := lackOfFit(&eq, c, sel.weight, floor, runOf, runs, i, sd, m.Units[i]); w != "" && eq.Warning == "" {
+		if w := lackOfFit(&eq, ad, score.pr, c, sel.weight, floor, runOf, runs, i, sd, m.Units[i]); w != "" && eq.Warning == "" {
 			eq.Warning = w
 		}
 		m.Equations[i] = eq

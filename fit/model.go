@@ -56,10 +56,16 @@ type Equation struct {
 	// correct model; see [Equation.Warning]). Both are 0 when unknown.
 	NoiseFloorRMS float64 `json:"noise_floor_rms,omitempty"`
 	LackOfFit     float64 `json:"lack_of_fit,omitempty"`
+	// ExcessRuns names the runs a lack-of-fit warning names: those whose
+	// yardstick windows a robust refit of the equation rejects as far
+	// beyond the noise, while the windows it keeps fit to within 1.5
+	// times theirs (at most a third of the runs); empty otherwise.
+	ExcessRuns []string `json:"excess_runs,omitempty"`
 	// Warning says the equation is empty, no better than a constant, or
-	// that its held-out error is far above what the noise leaves (a lack
-	// of fit: LackOfFit at least 2 and the error at least 5% of the
-	// rate's spread).
+	// that it lacks something the data have: its held-out error is at
+	// least twice what the noise leaves (LackOfFit >= 2) and at least 5%
+	// of the rate's spread, or some runs' windows lie far beyond the noise
+	// where the others fit; it names ExcessRuns when there are some.
 	Warning string `json:"warning,omitempty"`
 }
 
