@@ -1047,6 +1047,9 @@ func (p *csvParser) fastRows(c *chunk, cols [][]float64, data []byte) (rows, use
 							mant = mant*(1+9*more) + c&-more
 							i += int(more)
 						}
+					} else if x := uint64(uint32(x)); fourDigits(x) {
+						mant = mant*10000 + fourValue(x)
+						i += 4
 					}
 				}
 				for i < len(data) {

@@ -198,6 +198,20 @@ func eightDigits(x uint64) bool {
 	return (x&0xF0F0F0F0F0F0F0F0)|(((x+0x0606060606060606)&0xF0F0F0F0F0F0F0F0)>>4) == 0x3333333333333333
 }
 
+// fourDigits reports whether the low 4 bytes of x (the high 4 zero) are
+// all ASCII digits: [eightDigits]' test on half a word.
+func fourDigits(x uint64) bool {
+	return (x&0xF0F0F0F0)|(((x+0x06060606)&0xF0F0F0F0)>>4) == 0x33333333
+}
+
+// fourValue is the value of the 4 ASCII digits in the low bytes of x, the
+// first byte most significant: [eightValue]'s steps on half a word.
+func fourValue(x uint64) uint64 {
+	x -= 0x30303030
+	x = x*10 + x>>8 // pairs in bytes 0 and 2
+	return (x&0xFF)*100 + (x>>16)&0xFF
+}
+
 // eightValue is the value of 8 ASCII digits in x, the first byte most
 // significant: pairs, then quads, then the whole, by multiply-and-shift
 // (the eight-digit SWAR conversion of Lemire, "Number parsing at a
