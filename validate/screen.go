@@ -511,67 +511,78 @@ func (s *Screener) Feed(X [][]float64, T []float64) {
 	}
 }
 
-// feed screens samples i0..i1-1 (at most screenBlock of them).
+// feed screens samples i0..i1-1 (at most screenBlock of them). The
+// run's running sums and counts are held in locals over the block and
+// stored back at its end: the same operations in the same order per
+// sample as one sample at a time through the run's state.
 func (s *Screener) feed(X [][]float64, T []float64, i0, i1 int) {
+	if i1 <= i0 {
+		return
+	}
 	st := &s.st
 	dst := st.dst
 	level := s.level
 	tol := s.tol
 	leaveLevel := level + s.tol
+	r2lim, spacing := s.r2, s.spacing
 	s.evalBlock(X, i0, i1)
-	vb, rb, ob, wb := s.vbuf[:], s.rbuf[:], s.obuf[:], s.wbuf[:]
-	for i := i0; i < i1; i++ {
-		k := i - i0
+	T = T[i0:i1]
+	vb, rb, ob, wb := s.vbuf[:len(T)], s.rbuf[:len(T)], s.obuf[:len(T)], s.wbuf[:len(T)]
+	m := st.m
+	tp := m % tailMax // m's place in the tail ring
+	prevV, prevIn, prevOut, entered := st.prevV, st.prevIn, st.prevOut, st.entered
+	dn, t0, sdt, sdy, sdtt, sdty := st.dn, st.t0, st.dt, st.dy, st.dtt, st.dty
+	pairs, decreased, scen, scenViol := dst.Pairs, dst.Decreased, dst.scen, dst.scenViol
+	lastScen, worst := st.lastScen, dst.worstExcess
+	for k, t := range T {
 		v, r2, inBox := vb[k], rb[k], !ob[k]
 		in := inBox && v <= level // NaN V is outside
-		idx := st.m
-		if idx < tailMax {
-			st.head[idx] = v
+		if m < tailMax {
+			st.head[m] = v
 		}
-		st.tail[idx%tailMax] = v
-		if idx == 0 {
+		st.tail[tp] = v
+		if m == 0 {
 			dst.StartInside = in
 		}
 		if in {
-			if !st.entered {
-				dst.enter, dst.vEnter = idx, v
+			if !entered {
+				dst.enter, dst.vEnter = m, v
 			}
-			st.entered = true
-			if r2 > s.r2 && v > 0 {
-				t := T[i]
-				if st.dn == 0 {
-					st.t0 = t
+			entered = true
+			if r2 > r2lim && v > 0 {
+				if dn == 0 {
+					t0 = t
 				}
-				dt, y := t-st.t0, math.Log(v)
-				st.dn++
-				st.dt += dt
-				st.dy += y
-				st.dtt += dt * dt
-				st.dty += dt * y
+				dt, y := t-t0, math.Log(v)
+				dn++
+				sdt += dt
+				sdy += y
+				sdtt += dt * dt
+				sdty += dt * y
 			}
-			if st.prevIn && st.prevOut {
-				d := v - st.prevV - tol
-				dst.Pairs++
+			if prevIn && prevOut {
+				d := v - prevV - tol
+				pairs++
 				bad := !(d <= 0)
 				if !bad {
-					dst.Decreased++
+					decreased++
 				}
-				if T[i]-st.lastScen >= s.spacing {
-					dst.scen++
-					st.lastScen = T[i]
+				if t-lastScen >= spacing {
+					scen++
+					lastScen = t
 					if bad {
-						dst.scenViol++
+						scenViol++
 					}
 				}
-				if d > dst.worstExcess {
-					dst.worstExcess, dst.worstTime = d, T[i]
+				if d > worst {
+					worst, dst.worstTime = d, t
 					for j := range s.worstX {
-						s.worstX[j] = X[j][i]
+						s.worstX[j] = X[j][i0+k]
 					}
 				}
 				if bad {
 					if !st.hasRise {
-						st.rise.Time = T[i]
+						st.rise.Time = t
 						st.hasRise = true
 					}
 					if !(d <= math.MaxFloat64) {
@@ -580,12 +591,12 @@ func (s *Screener) feed(X [][]float64, T []float64, i0, i1 int) {
 					st.rise.Excess = max(st.rise.Excess, d)
 				}
 			}
-		} else if st.entered && (wb[k] || !(v <= leaveLevel)) {
+		} else if entered && (wb[k] || !(v <= leaveLevel)) {
 			// Outside the region by more than the noise: V above the level
 			// by more than the tolerance, or outside the box widened by
 			// the noise radius.
 			if !st.hasLeave {
-				st.leave.Time = T[i]
+				st.leave.Time = t
 				st.hasLeave = true
 			}
 			e := 0.0
@@ -596,17 +607,24 @@ func (s *Screener) feed(X [][]float64, T []float64, i0, i1 int) {
 				e = math.MaxFloat64
 			}
 			st.leave.Excess = max(st.leave.Excess, e)
-			if w := s.leaveMeasure(X, i, e); w > st.leaveWrst {
+			if w := s.leaveMeasure(X, i0+k, e); w > st.leaveWrst {
 				st.leaveWrst = w
 				for j := range st.leaveX {
-					st.leaveX[j] = X[j][i]
+					st.leaveX[j] = X[j][i0+k]
 				}
 			}
 		}
-		st.prevV, st.prevIn, st.prevOut = v, in, r2 > s.r2
-		st.lastT = T[i]
-		st.m++
+		prevV, prevIn, prevOut = v, in, r2 > r2lim
+		m++
+		if tp++; tp == tailMax {
+			tp = 0
+		}
 	}
+	st.m, st.lastT = m, T[len(T)-1]
+	st.prevV, st.prevIn, st.prevOut, st.entered = prevV, prevIn, prevOut, entered
+	st.dn, st.t0, st.dt, st.dy, st.dtt, st.dty = dn, t0, sdt, sdy, sdtt, sdty
+	dst.Pairs, dst.Decreased, dst.scen, dst.scenViol = pairs, decreased, scen, scenViol
+	st.lastScen, dst.worstExcess = lastScen, worst
 }
 
 // leaveMeasure orders leaving samples: by V's excess e, then by how far
