@@ -529,6 +529,18 @@ func (ps *parquetSource) header(sf *StreamFile) error {
 
 func (ps *parquetSource) rowsHint() int { return ps.po.tb.rows }
 
+// noNulls reports whether no column read can hold a null (none has
+// definition levels).
+func (ps *parquetSource) noNulls() bool {
+	sc := ps.po.pr.MetaData().Schema
+	for _, jb := range ps.jobs {
+		if sc.Column(jb.j).MaxDefinitionLevel() > 0 {
+			return false
+		}
+	}
+	return true
+}
+
 func (ps *parquetSource) line(row int) int { return row + 1 }
 
 func (ps *parquetSource) close() error { return ps.po.f.Close() }

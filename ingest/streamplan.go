@@ -131,11 +131,16 @@ func (pl *plan) setup(ns int) {
 	}
 	g := max(1, pl.src.rowsHint()/noiseSubsample)
 	pl.strides = pl.strides[:0]
-	top := 2
-	if _, exact := pl.src.(*parquetSource); exact {
+	bottom, top := -2, 2
+	if ps, exact := pl.src.(*parquetSource); exact {
 		top = 0 // the footer's count: missing rows can only lower the stride
+		if ps.noNulls() {
+			// only a NaN value can make a row missing: rare enough that
+			// pass 2 may take the noise again when it lowers the stride
+			bottom = 0
+		}
 	}
-	for d := -2; d <= top; d++ {
+	for d := bottom; d <= top; d++ {
 		if g+d >= 1 {
 			pl.strides = append(pl.strides, g+d)
 		}
