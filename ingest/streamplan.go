@@ -66,6 +66,12 @@ type plan struct {
 	maxDT    float64
 	anyCell  []bool // per column: some row has a value
 	lo, hi   []float64
+	// even: every three consecutive steps of pass 1's pieces are equal
+	// (evenSteps), so every sample's jump statistic is on an even clock;
+	// h1, h2 the piece's last two steps, nh how many it had (at most 2)
+	even   bool
+	h1, h2 float64
+	nh     int
 	blo, bhi []float64 // a block's range per state
 	bres     []float64 // and its resolution (see rangeRes)
 
@@ -122,6 +128,7 @@ func newPlan(sf *StreamFile, src source, opts *Options, prev *plan) *plan {
 // counts near it.
 func (pl *plan) setup(ns int) {
 	pl.ns = ns
+	pl.even, pl.nh = true, 0
 	if len(pl.acc) != ns {
 		pl.anyCell, pl.lo, pl.hi, pl.acc = make([]bool, ns), make([]float64, ns), make([]float64, ns), make([]noiseAcc, ns)
 	}
@@ -399,6 +406,11 @@ func (pl *plan) pass1(ctx context.Context) error {
 			// equal keys in a row are counted at once
 			var key uint64
 			cnt := 0
+			// the last two steps of the piece, and how many it has had
+			h1, h2, nh, even := pl.h1, pl.h2, pl.nh, pl.even
+			if !cont {
+				nh = 0
+			}
 			for k, ti := range t {
 				if !(ti > prevT) {
 					return &errFallback{"error"} // ErrTimeOrder, as ReadFile words it
@@ -415,9 +427,16 @@ func (pl *plan) pass1(ctx context.Context) error {
 					if dt > maxDT {
 						maxDT = dt
 					}
+					if nh == 2 {
+						even = even && evenSteps(h1, h2, dt)
+					} else {
+						nh++
+					}
+					h1, h2 = h2, dt
 				}
 				prevT = ti
 			}
+			pl.h1, pl.h2, pl.nh, pl.even = h1, h2, nh, even
 			if cnt > 0 {
 				pl.hist.addKey(key, cnt)
 			}
@@ -445,6 +464,7 @@ func (pl *plan) pass1(ctx context.Context) error {
 			pl.pieces[len(pl.pieces)-1][1] = row0 + len(t)
 			return nil
 		}
+		pl.even = false // (not followed row by row: the detector computes the clock)
 		for k, ti := range t {
 			row := row0 + k
 			ok := ti == ti
@@ -544,6 +564,7 @@ func (pl *plan) pass3(ctx context.Context, em *lateEmit) error {
 	}
 	ed := pl.ed
 	ed.emit = nil
+	ed.allEven = pl.even
 	if em != nil {
 		em.pl, em.ed, em.runs = pl, ed, &runs
 		ed.emit = em.advance
@@ -868,9 +889,10 @@ type evDetector struct {
 	// sample of the ring, shared by the states, computed up to cdone:
 	// even[p] says sample p's clock is even, and coef[p] holds them only
 	// when it is not
-	coef  []jumpCoef
-	even  []bool
-	cdone int
+	coef    []jumpCoef
+	even    []bool
+	cdone   int
+	allEven bool // every sample's clock is even (pass 1 saw it)
 	// emit, when not nil, is called with the frontier after each
 	// advance (see lateEmit); the ring then always holds the samples
 	emit  func(f int, last bool) error
@@ -950,6 +972,12 @@ func (ed *evDetector) push(x [][]float64, t []float64, a, b int) error {
 func (ed *evDetector) setCoef(i, e int) int {
 	const m = evRing - 1
 	tr, ev := ed.tring, ed.even
+	if ed.allEven {
+		for ; i < e; i++ {
+			ev[i&m] = true
+		}
+		return i
+	}
 	for i < e {
 		p := i & m
 		if p < 2 || p+1 >= evRing { // the window wraps
