@@ -60,18 +60,18 @@ type plan struct {
 	ns   int
 
 	// pass 1
-	pieces   [][2]int // rows with no missing cell, split at missing rows
-	total    int
-	hist     dtHist
-	maxDT    float64
-	anyCell  []bool // per column: some row has a value
-	lo, hi   []float64
+	pieces  [][2]int // rows with no missing cell, split at missing rows
+	total   int
+	hist    dtHist
+	maxDT   float64
+	anyCell []bool // per column: some row has a value
+	lo, hi  []float64
 	// even: every three consecutive steps of pass 1's pieces are equal
 	// (evenSteps), so every sample's jump statistic is on an even clock;
 	// h1, h2 the piece's last two steps, nh how many it had (at most 2)
-	even   bool
-	h1, h2 float64
-	nh     int
+	even     bool
+	h1, h2   float64
+	nh       int
 	blo, bhi []float64 // a block's range per state
 	bres     []float64 // and its resolution (see rangeRes)
 
