@@ -124,6 +124,7 @@ type colJob struct {
 type colScratch struct {
 	dict  []float64 // plainFloats' dictionary
 	chunk []byte
+	hdr   []byte // readPlainInto's page header
 	defs  []int16
 	i32   []int32
 	i64   []int64
@@ -262,6 +263,17 @@ func (tb *table) readGroup(f *os.File, pr *file.Reader, jb *colJob, c Column,
 		start = cc.DictionaryPageOffset()
 	}
 	clen := cc.TotalCompressedSize() // inside the file: checked from the footer
+	if jb.kind == kindFloat64 && descr.MaxDefinitionLevel() == 0 && cc.Compression() == compress.Codecs.Uncompressed &&
+		littleEndian && !cc.HasDictionaryPage() {
+		if ok, err := tb.readPlainInto(f, start, clen, jb.dst[off:off+rows], jb.base+off, sc); err != nil {
+			if pe, isPE := err.(*ParseError); isPE && pe.Line > 0 { // an infinite value: name its column
+				pe.Column, pe.Name = jb.j+1, c.Name
+			}
+			return 0, err
+		} else if ok {
+			return rows, nil
+		}
+	}
 	if cap(sc.chunk) < int(clen) {
 		sc.chunk = make([]byte, clen)
 	}

@@ -3,7 +3,9 @@ package ingest
 import (
 	"encoding/binary"
 	"fmt"
+	"io"
 	"math"
+	"os"
 	"slices"
 	"unsafe"
 )
@@ -90,6 +92,71 @@ func (tb *table) plainFloats(buf []byte, dst []float64, row0 int, dict *[]float6
 		k += len(out)
 	}
 	if finite {
+		return true, nil
+	}
+	for i, x := range dst {
+		if x-x != 0 && x == x { // infinite (NaN is a missing sample)
+			return true, &ParseError{File: tb.file, Line: row0 + i + 1, Err: fmt.Errorf("%w: infinite value", ErrNotNumber)}
+		}
+	}
+	return true, nil
+}
+
+// plainHeaderMax is the most bytes of a page header readPlainInto reads
+// ahead of the page: a longer header (page statistics with long values)
+// is read by the general path.
+const plainHeaderMax = 256
+
+// readPlainInto reads a float64 column chunk of PLAIN data pages only,
+// uncompressed and without levels or dictionary, at [start, start+clen)
+// of f, each page's values read straight into their place in dst (one
+// copy, the read's, instead of a read into a buffer and a copy out). It
+// takes exactly the chunks that checkChunk and plainFloats take as PLAIN
+// pages, with the same values: pages whose values add up to len(dst),
+// each inside the chunk; ok is false, having read nothing it keeps, on
+// anything else (the caller then reads the chunk the general way, which
+// reports what is wrong). A chunk read short says the file changed; an
+// infinite value is a *ParseError on row row0+k+1.
+func (tb *table) readPlainInto(f *os.File, start, clen int64, dst []float64, row0 int, sc *colScratch) (ok bool, err error) {
+	if cap(sc.hdr) < plainHeaderMax {
+		sc.hdr = make([]byte, plainHeaderMax)
+	}
+	changed := func(n, want int, err error) error {
+		if n < want {
+			if err == nil || err == io.EOF { // the footer's chunk lies past the end now
+				return &ParseError{File: tb.file, Err: fmt.Errorf("%w: the file changed while it was read", ErrFormat)}
+			}
+			return err
+		}
+		return nil
+	}
+	pos, end := start, start+clen
+	k := 0
+	for k < len(dst) {
+		hb := sc.hdr[:min(int64(plainHeaderMax), end-pos)]
+		if len(hb) == 0 {
+			return false, nil
+		}
+		n, rerr := f.ReadAt(hb, pos)
+		if err := changed(n, len(hb), rerr); err != nil {
+			return false, err
+		}
+		h, hn, err := parsePageHeader(hb)
+		if err != nil || h.typ != pageData || h.encoding != encPlain || h.compressed != h.uncompressed ||
+			h.values <= 0 || int(h.values) > len(dst)-k || int64(h.compressed) != 8*int64(h.values) ||
+			int64(h.compressed) > end-pos-int64(hn) {
+			return false, nil
+		}
+		out := dst[k : k+int(h.values)]
+		b := unsafe.Slice((*byte)(unsafe.Pointer(&out[0])), 8*len(out))
+		n, rerr = f.ReadAt(b, pos+int64(hn))
+		if err := changed(n, len(b), rerr); err != nil {
+			return false, err
+		}
+		k += len(out)
+		pos += int64(hn) + int64(h.compressed)
+	}
+	if allFinite(dst) {
 		return true, nil
 	}
 	for i, x := range dst {
