@@ -12,13 +12,13 @@ import (
 const (
 	// TailFraction is the share of a run, at its end, whose median is
 	// the run's settle point; the settle tests look at twice as much,
-	// the run's last tenth.
+	// the run's last tenth, and the drift test at its last three tenths.
 	TailFraction = 0.05
 	// SettleSpread is the largest span (max - min) of every state over a
-	// run's last tenth, less its fitted trend, relative to the state's
-	// span over the whole run, that passes for settled whatever the
-	// noise: a run that comes to rest from a large excursion may keep a
-	// small wobble.
+	// run's last tenth (about its fitted trend, when the trend is not
+	// real), relative to the state's span over the whole run, that
+	// passes for settled whatever the noise: a run that comes to rest
+	// from a large excursion may keep a small wobble.
 	SettleSpread = 0.1
 	// minTail is the fewest tail samples a settle judgement uses: runs
 	// of fewer than 81 samples are not judged.

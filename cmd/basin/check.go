@@ -135,9 +135,18 @@ func runCheck(ctx context.Context, e *env, args []string) error {
 	if err := sameUnits(c.Cert, cert.States, cert.Units, ds); err != nil {
 		return err
 	}
+	recorded, pieces := len(ds.Runs), false
 	if g := cert.InputGain; g != nil && len(ds.Inputs) > 0 && len(ds.Inputs) == len(g.RestInput) {
 		// A certificate at rest input is checked where the inputs rest.
+		whole := map[string]bool{}
+		for _, r := range ds.Runs {
+			whole[r.Name] = true
+		}
 		ds = fit.RestSegments(ds, g.RestInput)
+		pieces = len(ds.Runs) != recorded
+		for _, r := range ds.Runs {
+			pieces = pieces || !whole[r.Name] // a piece is named "run@t"
+		}
 	}
 	opts := &validate.Options{Beta: c.Beta, MinDecrease: c.MinDecrease, Tolerance: c.Tolerance}
 	val, runs, err := validate.Check(ctx, cert, ds, opts)
@@ -166,10 +175,12 @@ func runCheck(ctx context.Context, e *env, args []string) error {
 	if c.JSON {
 		return writeJSON(e.stdout, doc)
 	}
-	return checkTable(e, doc, cert)
+	return checkTable(e, doc, cert, recorded, pieces)
 }
 
-func checkTable(e *env, doc *checkJSON, cert *fit.Certificate) error {
+// checkTable prints doc as a table and its figures; the runs were
+// recorded runs, checked as pieces where the inputs rest when pieces.
+func checkTable(e *env, doc *checkJSON, cert *fit.Certificate, recorded int, pieces bool) error {
 	tw := tabwriter.NewWriter(e.stdout, 0, 4, 2, ' ', 0)
 	fmt.Fprintln(tw, "run\tsamples\tstarts inside\tsettled\tpairs inside\tV did not rise\tflags")
 	for i := range doc.Runs {
@@ -193,8 +204,12 @@ func checkTable(e *env, doc *checkJSON, cert *fit.Certificate) error {
 	}
 	v, s := doc.Validation, doc.Summary
 	w := e.stdout
-	fmt.Fprintf(w, "\n%s checked, %d flagged\n", human.Count(s.Runs, "run"), s.Flagged)
-	fmt.Fprintf(w, "%s\n", report.HeldoutText(cert, v))
+	if pieces {
+		fmt.Fprintf(w, "\n%s checked (%s where the inputs rest), %d flagged\n", human.Count(recorded, "run"), human.Count(s.Runs, "piece"), s.Flagged)
+	} else {
+		fmt.Fprintf(w, "\n%s checked, %d flagged\n", human.Count(s.Runs, "run"), s.Flagged)
+	}
+	fmt.Fprintf(w, "%s\n", report.HeldoutRunsText(cert, v, recorded, pieces))
 	if v.Worst != nil {
 		fmt.Fprintf(w, "worst violation, in run %s at %s: %s\n", printable(v.Worst.Run), report.StatePoint(cert, v.Worst.State),
 			report.FlagText(cert, validate.Flag{Kind: v.Worst.Kind, Time: v.Worst.Time, Excess: v.Worst.Excess}, nil))

@@ -171,6 +171,13 @@ func StatePoint(c *fit.Certificate, x []float64) string { return statePoint(c, x
 // the runs that started inside did (or what to record when none did).
 func HeldoutText(c *fit.Certificate, v *fit.Validation) string { return heldoutText(c, v) }
 
+// HeldoutRunsText is [HeldoutText] for checks made on the pieces of runs
+// runs where the inputs rest (when pieces; v counts the pieces): "6 runs
+// (18 pieces where the inputs rest); ...", the later counts in pieces.
+func HeldoutRunsText(c *fit.Certificate, v *fit.Validation, runs int, pieces bool) string {
+	return heldoutPieces(c, v, heldoutCount{Runs: runs, Pieces: pieces})
+}
+
 // BoundText states the scenario bound of v with its confidence and what
 // it rests on.
 func BoundText(v *fit.Validation) string { return boundText(v) }
