@@ -2,6 +2,7 @@ package ingest
 
 import (
 	"bytes"
+	"fmt"
 	"math"
 	"math/rand/v2"
 	"slices"
@@ -289,4 +290,84 @@ func BenchmarkFastRows(b *testing.B) {
 	b.ReportMetric(slices.Min(before), "before-ns/cell")
 	slices.Sort(ratio)
 	b.ReportMetric(ratio[len(ratio)/2], "x-before")
+}
+
+// TestReadCSVAgainstStrconv reads files of numbers printed the ways
+// loggers print them (shortest, 9 and 17 significant digits, fixed
+// decimals, exponent form, a '+' sign, leading zeros, subnormal and huge
+// magnitudes), with a ',' delimiter and points and with a ';' delimiter
+// and decimal commas, and checks every cell bit for bit against
+// strconv.ParseFloat of its point form ([IEEE754] correct rounding, which
+// [strconv] implements). The rows go through the fast row path, the
+// cells it leaves through the general one.
+func TestReadCSVAgainstStrconv(t *testing.T) {
+	rng := rand.New(rand.NewPCG(3, 0))
+	const rows, ns = 4000, 5
+	cell := func(i int) string {
+		v := rng.NormFloat64() * math.Pow(10, float64(rng.IntN(9)-4))
+		switch i % 11 {
+		case 0:
+			return strconv.FormatFloat(v, 'g', -1, 64)
+		case 1:
+			return strconv.FormatFloat(v, 'g', 17, 64)
+		case 2:
+			return strconv.FormatFloat(v, 'f', rng.IntN(12), 64)
+		case 3:
+			return strconv.FormatFloat(v, 'e', rng.IntN(10), 64)
+		case 4:
+			return "+" + strconv.FormatFloat(math.Abs(v), 'f', 6, 64)
+		case 5:
+			return "000" + strconv.FormatFloat(math.Abs(v), 'f', 3, 64)
+		case 6:
+			return strconv.FormatFloat(math.Float64frombits(rng.Uint64()&0x000FFFFFFFFFFFFF), 'g', -1, 64) // subnormal
+		case 7:
+			return strconv.FormatFloat(v*1e290, 'g', 9, 64)
+		default:
+			return strconv.FormatFloat(v, 'g', 9, 64)
+		}
+	}
+	want := make([][]string, ns)
+	var pt, cm strings.Builder
+	pt.WriteString("t")
+	cm.WriteString("t")
+	for j := range ns {
+		fmt.Fprintf(&pt, ",x%d", j)
+		fmt.Fprintf(&cm, ";x%d", j)
+	}
+	pt.WriteString("\n")
+	cm.WriteString("\n")
+	for i := range rows {
+		ts := strconv.FormatFloat(float64(i)*0.0025, 'f', 4, 64)
+		pt.WriteString(ts)
+		cm.WriteString(strings.ReplaceAll(ts, ".", ","))
+		for j := range ns {
+			s := cell(i + j)
+			want[j] = append(want[j], s)
+			pt.WriteString("," + s)
+			cm.WriteString(";" + strings.ReplaceAll(s, ".", ","))
+		}
+		pt.WriteString("\n")
+		cm.WriteString("\n")
+	}
+	for _, in := range []string{pt.String(), cm.String()} {
+		ds, err := ReadCSV(strings.NewReader(in), "x.csv", &Options{KeepEvents: true, KeepHead: true})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if len(ds.Runs) != 1 || ds.Runs[0].Len() != rows {
+			t.Fatalf("%d runs, %d samples; want 1, %d", len(ds.Runs), ds.Samples(), rows)
+		}
+		r := ds.Runs[0]
+		for j := range ns {
+			for i, s := range want[j] {
+				w, err := strconv.ParseFloat(s, 64)
+				if err != nil {
+					t.Fatal(err)
+				}
+				if got := r.X[j][i]; math.Float64bits(got) != math.Float64bits(w) {
+					t.Fatalf("row %d, x%d: %q read as %v (%#x), strconv %v (%#x)", i, j, s, got, math.Float64bits(got), w, math.Float64bits(w))
+				}
+			}
+		}
+	}
 }
