@@ -600,3 +600,24 @@ func quantileSelect(d []float64, q float64) float64 {
 	order.Select(d, k, k)
 	return d[k]
 }
+
+// Misfit returns, when some equation of m fails the lack-of-fit check as
+// a whole (Equation.LackOfFit at least 2 and its held-out error at least
+// 5% of its rate's spread), a sentence saying so for a verdict's reason,
+// naming the worst such equation; "" otherwise. A model that lacks
+// something the data have is no ground for a certificate, whatever the
+// held-out runs of V say: the runs V was checked on are the ones the
+// model misses.
+func (m *Model) Misfit() string {
+	worst := -1
+	for i, e := range m.Equations {
+		if e.LackOfFit >= lackOfFitRatio && e.HeldoutShare >= lackOfFitShare && (worst < 0 || e.LackOfFit > m.Equations[worst].LackOfFit) {
+			worst = i
+		}
+	}
+	if worst < 0 {
+		return ""
+	}
+	e := m.Equations[worst]
+	return fmt.Sprintf("The fitted model lacks something the data have: the held-out error of d(%s)/dt is %.3g times what the measurement noise leaves, so the runs V was checked on are not the model's. Log the missing input or disturbance (or trim the runs it hits) and fit again.", e.State, e.LackOfFit)
+}

@@ -52,6 +52,9 @@ const (
 	ReasonFewRuns        ReasonKind = "too_few_runs"
 	ReasonNoHeldoutPairs ReasonKind = "no_heldout_pairs"
 	ReasonSameStart      ReasonKind = "runs_start_at_one_state"
+	// ReasonLackOfFit: the certificate would be certified, but the model
+	// fails the lack-of-fit check ([Model.Misfit]).
+	ReasonLackOfFit ReasonKind = "model_lacks_fit"
 	// ReasonFoldsDisagree: the folds (each run held out once) did not all
 	// certify, nor did most reject.
 	ReasonFoldsDisagree ReasonKind = "folds_disagree"

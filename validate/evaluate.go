@@ -637,6 +637,9 @@ func Evaluate(ctx context.Context, ds *ingest.Dataset, opts *Options) (*Result, 
 		val.Folds = o.Folds
 		modelChecks(m, hoDS, val, o)
 		Decide(cert, val, runs, eigenvalues(m), &o)
+		if why := m.Misfit(); why != "" && cert.Verdict == fit.Certified {
+			cert.Verdict, cert.Strength, cert.ReasonKind, cert.Reason = fit.Inconclusive, fit.NoClaim, fit.ReasonLackOfFit, why
+		}
 		if sameStart(ds) && cert.Verdict == fit.Certified {
 			cert.Verdict, cert.Strength, cert.ReasonKind = fit.Inconclusive, fit.NoClaim, fit.ReasonSameStart
 			cert.Reason = "Every run starts at the same state, so the held-out runs repeat the fit runs and check nothing new. Record runs that start from different states."
