@@ -363,6 +363,9 @@ func noFindReason(cert *Certificate, res *lyapunov.Result, m *Model, o lyapunov.
 	case lyapunov.NoBound:
 		next = " Record more runs near the equilibrium."
 	}
+	if res.BallShare >= 0.5 && (res.Outcome == lyapunov.NoLevel || res.Outcome == lyapunov.NoBound) {
+		next = " Record with less noise, or runs that move farther from the equilibrium than the noise does."
+	}
 	return "No V was found: " + res.Detail + "." + next
 }
 

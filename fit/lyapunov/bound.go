@@ -56,7 +56,9 @@ func (ck *checker) verify(c []float64, r levelResult) levelResult {
 	r.level = vr.Level
 	if !(r.level > r.vball) {
 		r.ok = false
-		r.reason = "the bound over the region found no level set of V beyond the noise ball (limited by " + string(vr.Limit) + ")"
+		note, share := ck.ballFill(r.exempt)
+		r.reason = "the bound over the region found no level set of V beyond the noise ball (limited by " + string(vr.Limit) + ")" + note
+		r.ballShare = share
 		return r
 	}
 	switch {

@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"strings"
 	"testing"
 
 	"gonum.org/v1/gonum/floats/scalar"
@@ -85,4 +86,30 @@ func unitBox(n int) [][2]float64 {
 		b[j] = [2]float64{-1, 1}
 	}
 	return b
+}
+
+// TestNoiseBallFillsData: a stable chain logged from starts within ±1
+// with noise so large (σ = 0.3 in z) that the noise ball, 3.44σ = 1.03
+// wide for two states (the chi-square quantile above), reaches the edge
+// of the data: no level set can hold it inside the trust region, and the
+// result must say that the ball is the reason, not only that no level
+// was found.
+func TestNoiseBallFillsData(t *testing.T) {
+	sys := chainZ(2)
+	d := sys.runs(unitBox(2), 20, 0.01, 1000, 5, 0, 4)
+	s := sys.system(0.3)
+	res, err := Certify(t.Context(), d, s, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if res.Outcome == Found {
+		t.Fatalf("found a region of level %.3g with a noise ball of radius %.3g", res.Level, res.NoiseRadius)
+	}
+	if !strings.Contains(res.Detail, "nearest edge of the trust region") {
+		t.Errorf("outcome %s, detail %q: does not say the noise ball fills the data", res.Outcome, res.Detail)
+	}
+	if !(res.BallShare >= 1) {
+		t.Errorf("ball share %.3g, want at least 1 (radius %.3g)", res.BallShare, res.NoiseRadius)
+	}
+	t.Logf("%s (ball share %.3g): %s", res.Outcome, res.BallShare, res.Detail)
 }

@@ -1,6 +1,7 @@
 package lyapunov
 
 import (
+	"fmt"
 	"io"
 	"math"
 
@@ -133,6 +134,7 @@ type levelResult struct {
 	decrease  float64
 	vball     float64 // largest V on the exempt ball
 	exempt    float64 // radius of the exempt ball (noise and model uncertainty)
+	ballShare float64 // without a level: exempt over the distance to the trust region's nearest edge
 	margin    float64 // min of -Vdot/|z|² over checked samples in the region
 	figured   bool    // pairs, tolerance, decrease and margin are set
 	bound     *Verified
@@ -456,7 +458,9 @@ func (ck *checker) levelAt(first badMark, ve *vEval, c []float64, vals [][]float
 	res.vball = ck.ballMax(ve, rex)
 	if !(res.level > res.vball) {
 		res.ok = false
-		res.reason = "no level set of V reaches beyond the noise ball while passing the checks (limited by " + string(first.kind) + ")"
+		note, share := ck.ballFill(rex)
+		res.reason = "no level set of V reaches beyond the noise ball while passing the checks (limited by " + string(first.kind) + ")" + note
+		res.ballShare = share
 		return res
 	}
 	res.lo, res.hi = ck.pieceBox(ve, c, res.level)
@@ -686,6 +690,47 @@ func (ck *checker) linearDecay(c []float64) (float64, bool) {
 	}
 	lam := ev[n-1]
 	return lam, lam < 0
+}
+
+// ballNoteShare: ballNote speaks when the exempt ball reaches this share
+// of the way to the trust region's nearest edge.
+const ballNoteShare = 0.5
+
+// ballNote returns, when the exempt ball (radius rex) reaches at least
+// ballNoteShare of the way from the equilibrium to the nearest point
+// where a ray leaves the trust region, a clause saying so (from "; "),
+// else "": a level set must hold the whole ball, so such a ball leaves
+// it little room inside the data.
+func (ck *checker) ballNote(rex float64) string {
+	note, _ := ck.ballFill(rex)
+	return note
+}
+
+// ballFill is ballNote with the exempt ball's radius as a share of the
+// distance to the trust region's nearest edge (0 when no ray leaves it).
+func (ck *checker) ballFill(rex float64) (string, float64) {
+	n := ck.fam.n
+	edge := math.Inf(1)
+	for i := range ck.rays {
+		if ry := &ck.rays[i]; ry.exit {
+			edge = math.Min(edge, math.Sqrt(norm2(ry.z[(rayPoints-1)*n:])))
+		}
+	}
+	if math.IsInf(edge, 1) || !(edge > 0) {
+		return "", 0
+	}
+	share := rex / edge
+	if !(share >= ballNoteShare) {
+		return "", share
+	}
+	what := "the noise outweighs"
+	if rex > ck.r0 {
+		what = "the noise and the model's uncertainty outweigh"
+	}
+	if rex >= edge {
+		return fmt.Sprintf("; the ball around the equilibrium where %s any decrease (radius %.3g in z) reaches past the nearest edge of the trust region (%.3g away), so no level set holding it fits inside the data", what, rex, edge), share
+	}
+	return fmt.Sprintf("; the ball around the equilibrium where %s any decrease (radius %.3g in z) reaches %.0f%% of the way to the nearest edge of the trust region, so a level set holding it has little room inside the data", what, rex, 100*share), share
 }
 
 // ballMax returns an upper bound of V on the ball |z| <= r: exact for a

@@ -205,6 +205,12 @@ type Result struct {
 	Coefficients, NeedSamples int
 	// NoiseRadius is the radius, in z, of the noise ball.
 	NoiseRadius float64
+	// BallShare is, for NoLevel and NoBound, the radius of the ball
+	// exempt from the decrease checks (noise, and the model's
+	// uncertainty) over the distance from the equilibrium to the trust
+	// region's nearest edge: at 0.5 or more Detail says the ball leaves
+	// a level set little room (at 1 or more, none).
+	BallShare float64
 	// Solves counts the LPs solved, LPRounds their cutting-plane rounds,
 	// LPRows the most active rows of one.
 	Solves, LPRounds, LPRows int
@@ -356,7 +362,7 @@ func Certify(ctx context.Context, d *Data, sys *System, opts *Options) (*Result,
 		r = ck.verify(g.best.c, g.best.res)
 	}
 	if !r.ok {
-		res.Outcome, res.Detail = NoBound, r.reason
+		res.Outcome, res.Detail, res.BallShare = NoBound, r.reason, r.ballShare
 		return res, nil
 	}
 	ck.found(res, g, r, o)
@@ -574,7 +580,7 @@ func (g *growth) failure(res *Result) {
 		res.Outcome, res.Contradicted, res.Margin = LPInfeasible, true, g.contraMargin
 		return
 	}
-	res.Outcome, res.Detail = NoLevel, g.best.res.reason
+	res.Outcome, res.Detail, res.BallShare = NoLevel, g.best.res.reason, g.best.res.ballShare
 	if g.lastErr != "" {
 		res.Detail += "; the LP found none either (" + g.lastErr + ")"
 		if g.lastKind != "" {
