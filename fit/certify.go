@@ -83,7 +83,9 @@ const (
 // Inconclusive until package validate has checked it on held-out runs.
 //
 // V is a polynomial in z = (x - equilibrium)/scale, scale = m.Spread (or
-// the data's standard deviation), of the family of [CertifyOptions.Degree];
+// the data's standard deviation) rebalanced, within a factor 2, towards
+// equal measurement noise in every state of z (see balanceNoise), of the
+// family of [CertifyOptions.Degree];
 // the search is [lyapunov.Certify], which Certify feeds with the model
 // and the runs in z and whose result it turns into the certificate, in
 // the states' units.
@@ -412,7 +414,8 @@ func formatPoint(x []float64, names, units []string) string {
 }
 
 // certScale returns the per-state scale of z: the model's Spread when it
-// is usable, else the data's standard deviation (1 for a constant state).
+// is usable, else the data's standard deviation (1 for a constant state),
+// rebalanced by balanceNoise for the model's noise.
 func certScale(m *Model, ds *ingest.Dataset) []float64 {
 	n := len(m.States)
 	s := make([]float64, n)
