@@ -294,6 +294,27 @@ func (s *Streamer) openStream(ctx context.Context, path string) (*StreamFile, er
 // file is read once more; a file read whole is not. fn's error stops the
 // scan and is returned.
 func (sf *StreamFile) Scan(ctx context.Context, fn func(k int, t []float64, x [][]float64) error) error {
+	return sf.ScanRuns(ctx, nil, fn)
+}
+
+// ScanRuns is Scan for the runs k with need(k) true (nil: every run):
+// the others are not given, and a streamed Parquet file's row groups
+// outside the rows from the first run needed to the last are not read.
+// The runs' samples are those Scan gives. With runs still to be found
+// (see [StreamFile.Late]) need must be nil.
+func (sf *StreamFile) ScanRuns(ctx context.Context, need func(k int) bool, fn func(k int, t []float64, x [][]float64) error) error {
+	if need != nil && sf.late != nil {
+		return errors.New("ingest: ScanRuns with a selection before the runs are found")
+	}
+	if need != nil {
+		inner := fn
+		fn = func(k int, t []float64, x [][]float64) error {
+			if !need(k) {
+				return nil
+			}
+			return inner(k, t, x)
+		}
+	}
 	if sf.ds != nil {
 		for k := range sf.ds.Runs {
 			if err := ctx.Err(); err != nil {
@@ -318,6 +339,28 @@ func (sf *StreamFile) Scan(ctx context.Context, fn func(k int, t []float64, x []
 	if len(sf.xbuf) != ns {
 		sf.xbuf = make([][]float64, ns)
 	}
+	// the rows of the runs needed (the row groups outside are skipped),
+	// and the last run needed
+	var lim [2]int // all
+	last := len(sf.Runs) - 1
+	if need != nil {
+		last = -1
+		for k, r := range sf.Runs {
+			if need(k) {
+				if last < 0 {
+					lim[0] = r.rows[0]
+				}
+				lim[1], last = r.rows[1], k
+			}
+		}
+		if last < 0 {
+			return nil // no run needed: nothing to read
+		}
+	}
+	if ps, ok := sf.src.(*parquetSource); ok {
+		ps.lim = lim
+		defer func() { ps.lim = [2]int{} }()
+	}
 	err := sf.src.pass(ctx, func(row0 int, t []float64, x [][]float64) error {
 		end := row0 + len(t)
 		for k < len(sf.Runs) && sf.Runs[k].rows[0] < end {
@@ -339,7 +382,7 @@ func (sf *StreamFile) Scan(ctx context.Context, fn func(k int, t []float64, x []
 		return nil
 	})
 	var fb *errFallback
-	if (err == nil && k != len(sf.Runs)) || errors.As(err, &fb) {
+	if (err == nil && k <= last) || errors.As(err, &fb) {
 		// fewer rows than planned, or a source that now refuses to stream
 		return &ParseError{File: sf.File, Err: fmt.Errorf("%w: the file changed while it was read", ErrFormat)}
 	}
@@ -482,6 +525,16 @@ type parquetSource struct {
 	pool sync.Pool
 	// prefetch decodes the next row group while fn runs on this one
 	prefetch bool
+	// lim: pass reads only the row groups holding rows lim[0] ..
+	// lim[1]-1 (all when lim[1] is 0), the others skipped by their row
+	// counts
+	lim [2]int
+}
+
+// skip reports whether the row group of rows rows from row0 lies
+// outside ps.lim.
+func (ps *parquetSource) skip(row0, rows int) bool {
+	return ps.lim[1] > 0 && (row0+rows <= ps.lim[0] || row0 >= ps.lim[1])
 }
 
 func (s *Streamer) openParquetSource(path string) (source, error) {
@@ -557,6 +610,10 @@ func (ps *parquetSource) pass(ctx context.Context, fn func(row0 int, t []float64
 			if err := ctx.Err(); err != nil {
 				return err
 			}
+			if n := ps.groupRows(i); ps.skip(row0, n) {
+				row0 += n
+				continue
+			}
 			g := &sc.bufs[0]
 			rows, err := ps.decode(i, row0, g)
 			if err != nil {
@@ -590,6 +647,10 @@ func (ps *parquetSource) pass(ctx context.Context, fn func(row0 int, t []float64
 		defer close(out)
 		row0 := 0
 		for i := 0; i < ng; i++ {
+			if n := ps.groupRows(i); ps.skip(row0, n) {
+				row0 += n
+				continue
+			}
 			var g *groupBuf
 			select {
 			case g = <-free:
@@ -625,6 +686,12 @@ func (ps *parquetSource) pass(ctx context.Context, fn func(row0 int, t []float64
 		free <- r.g
 	}
 	return nil
+}
+
+// groupRows returns row group i's row count from the footer (0 when it
+// claims fewer than none).
+func (ps *parquetSource) groupRows(i int) int {
+	return max(0, int(ps.po.pr.MetaData().RowGroup(i).NumRows()))
 }
 
 // groupBuf holds one decoded row group: times and states.

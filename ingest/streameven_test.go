@@ -6,6 +6,8 @@ import (
 	"path/filepath"
 	"strconv"
 	"testing"
+
+	"github.com/apache/arrow/go/v15/parquet/compress"
 )
 
 // TestStreamEvenClock: pass 1 finds the clock even exactly when every
@@ -67,6 +69,75 @@ func TestStreamEvenClock(t *testing.T) {
 		}
 		if c.name == "i*dt" && !want || c.name == "one late step" && want {
 			t.Errorf("%s: evenSteps says %v: the case does not check what it names", c.name, want)
+		}
+		sf.Close()
+	}
+}
+
+// TestStreamScanRuns: ScanRuns gives exactly the samples Scan gives of
+// the runs selected, and none of the others, for Parquet (whose row
+// groups outside the runs are not read) and CSV, for each single run,
+// the first and last, and none.
+func TestStreamScanRuns(t *testing.T) {
+	dir := t.TempDir()
+	g := rigLog{n: 30000, dt: 0.001, sd: 1e-3, hits: []int{9000, 21000}}
+	pq := filepath.Join(dir, "r.parquet")
+	writeRigParquet(t, pq, g, 5, 4096, false, false, compress.Codecs.Uncompressed)
+	cs := filepath.Join(dir, "r.csv")
+	writeRigCSV(t, cs, g, 5, 0)
+	for _, p := range []string{pq, cs} {
+		sf, err := NewStreamer(nil, &StreamOptions{Window: -1, CSVWindow: -1}).Open(context.Background(), p)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if sf.Whole != "" || len(sf.Runs) < 3 {
+			t.Fatalf("%s: read whole (%q) or %d runs: not the case checked", p, sf.Whole, len(sf.Runs))
+		}
+		all := make([][]float64, len(sf.Runs))
+		collect := func(dst [][]float64) func(k int, tt []float64, x [][]float64) error {
+			return func(k int, tt []float64, x [][]float64) error {
+				dst[k] = append(dst[k], tt...)
+				for j := range x {
+					dst[k] = append(dst[k], x[j]...)
+				}
+				return nil
+			}
+		}
+		if err := sf.Scan(context.Background(), collect(all)); err != nil {
+			t.Fatal(err)
+		}
+		n := len(sf.Runs)
+		sels := [][]int{{}, {0, n - 1}}
+		for k := range n {
+			sels = append(sels, []int{k})
+		}
+		for _, sel := range sels {
+			want := map[int]bool{}
+			for _, k := range sel {
+				want[k] = true
+			}
+			got := make([][]float64, n)
+			before := sf.Passes
+			if err := sf.ScanRuns(context.Background(), func(k int) bool { return want[k] }, collect(got)); err != nil {
+				t.Fatalf("%s %v: %v", p, sel, err)
+			}
+			if len(sel) > 0 && sf.Passes != before+1 {
+				t.Errorf("%s %v: %d reads", p, sel, sf.Passes-before)
+			}
+			for k := range n {
+				w := all[k]
+				if !want[k] {
+					w = nil
+				}
+				if len(got[k]) != len(w) {
+					t.Fatalf("%s %v run %d: %d values, want %d", p, sel, k, len(got[k]), len(w))
+				}
+				for i := range w {
+					if math.Float64bits(got[k][i]) != math.Float64bits(w[i]) {
+						t.Fatalf("%s %v run %d value %d: %v, want %v", p, sel, k, i, got[k][i], w[i])
+					}
+				}
+			}
 		}
 		sf.Close()
 	}

@@ -89,10 +89,7 @@ func (s *Screener) ScreenFile(ctx context.Context, dst []RunScreen, sf *ingest.S
 				tols[cur] = s.tolFor(acc.noise())
 			}
 		}
-		err := sf.Scan(ctx, func(k int, t []float64, x [][]float64) error {
-			if known[k] {
-				return nil
-			}
+		err := sf.ScanRuns(ctx, func(k int) bool { return !known[k] }, func(k int, t []float64, x [][]float64) error {
 			if k != cur {
 				finish()
 				cur = k
@@ -107,10 +104,7 @@ func (s *Screener) ScreenFile(ctx context.Context, dst []RunScreen, sf *ingest.S
 		finish()
 	}
 	cur := -1
-	err := sf.Scan(ctx, func(k int, t []float64, x [][]float64) error {
-		if done[k] {
-			return nil
-		}
+	err := sf.ScanRuns(ctx, func(k int) bool { return !done[k] }, func(k int, t []float64, x [][]float64) error {
 		if k != cur {
 			if cur >= 0 {
 				s.End()
