@@ -56,6 +56,12 @@ included (the work partitions by run). Identifiers are quoted, so names
 match exactly, case included. --rise-tol DV sets the tolerated rise of V
 between samples as basin screen --rise-tol does (default: the
 certificate's), so the query flags what screen flags with the same flag.
+A row with a missing state (NULL, or NaN) splits its run there, as
+screen splits a log at an empty or NaN cell, and the run is flagged when
+any piece is. The query does not split a run at a one-sample jump (a
+hammer hit) nor trim a resting start, as screen does by default: it
+flags what basin screen --keep-events --keep-head flags, unless those
+pieces are stored as runs of their own.
 
 A certificate that is not certified still exports, with a warning in the
 code and on standard error: its region claims nothing.`,

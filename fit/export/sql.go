@@ -33,7 +33,10 @@ var tableName = regexp.MustCompile(`^[A-Za-z_][A-Za-z0-9_]*(\.[A-Za-z_][A-Za-z0-
 // certificate records held-out decay rates, slow (booleans; 1 and 0 in
 // engines without a boolean type). Every identifier is written as a
 // quoted (delimited) identifier, so names are matched exactly, case
-// included. It returns an error wrapping [ErrNoV] for a certificate
+// included. A row with a missing state (NULL, or NaN where the engine
+// has one) splits its run there, as basin's ingest does, and the run's
+// row holds the flags of its pieces; a row whose time is missing is left
+// out. It returns an error wrapping [ErrNoV] for a certificate
 // without V and [ErrName] for a table name that is not one to three
 // identifiers joined by dots or a state name holding a control character.
 func writeSQL(b *strings.Builder, cert *fit.Certificate, opts *Options) error {
@@ -72,8 +75,12 @@ func writeSQL(b *strings.Builder, cert *fit.Certificate, opts *Options) error {
 -- One row per run: run, flagged, rises, leaves, unsettled` + map[bool]string{true: ", slow", false: ""}[ru.SlowBound > 0] + `,
 -- by the rules of basin screen with the certificate's tolerances. The
 -- table has columns "run", "t" (seconds, increasing within a run) and one
--- DOUBLE PRECISION column per state, named as in the certificate; a run
--- with a gap should be split into runs first, as basin does.
+-- DOUBLE PRECISION column per state, named as in the certificate. A row
+-- with a missing state (NULL or NaN) splits its run there, as basin does,
+-- and the run is flagged when a piece is; a row without a time is left
+-- out. Runs are not split at one-sample jumps (a hammer hit) nor trimmed
+-- of a resting start: store those pieces as runs, or compare with
+-- basin screen --keep-events --keep-head.
 `)
 	if so.Tolerance > 0 {
 		fmt.Fprintf(b, "-- Except the tolerated rise of V between samples: %s (the certificate's: %s).\n",
@@ -85,13 +92,37 @@ func writeSQL(b *strings.Builder, cert *fit.Certificate, opts *Options) error {
 	for j := range z {
 		z[j] = fmt.Sprintf("z%d", j)
 	}
-	b.WriteString("WITH\nx AS (\n  SELECT \"run\", CAST(\"t\" AS DOUBLE PRECISION) AS t")
+	// A row whose time is missing (NULL, NaN) is left out; a row with a
+	// missing state splits its run there, as basin's ingest splits a run
+	// at a missing sample: pc numbers the pieces (the missing rows before
+	// a row), and every window and group below is over ("run", pc).
+	// BETWEEN the largest finite doubles is false for NULL, for
+	// PostgreSQL's NaN (which sorts above every number) and for a
+	// non-numeric text cell in SQLite, whose CAST would read it as 0.
+	const maxFinite = "1.7976931348623157e308"
+	finite := func(col string) string {
+		return fmt.Sprintf("%s BETWEEN (-%s) AND %s", col, maxFinite, maxFinite)
+	}
+	b.WriteString("WITH\nxr AS (\n  SELECT \"run\", CAST(\"t\" AS DOUBLE PRECISION) AS t")
+	var ok []string
 	for j, s := range cert.States {
 		fmt.Fprintf(b, ",\n    CAST(%s AS DOUBLE PRECISION) AS x%d", qid(s), j)
+		ok = append(ok, finite(qid(s)))
 	}
-	fmt.Fprintf(b, "\n  FROM %s\n),\n", strings.Join(parts, "."))
+	fmt.Fprintf(b, ",\n    CASE WHEN %s THEN 0 ELSE 1 END AS gap", strings.Join(ok, " AND "))
+	fmt.Fprintf(b, "\n  FROM %s\n  WHERE %s\n),\n", strings.Join(parts, "."), finite(`"t"`))
+	b.WriteString("xs AS (\n  SELECT \"run\", t, gap")
+	for j := range cert.States {
+		fmt.Fprintf(b, ", x%d", j)
+	}
+	b.WriteString(",\n    SUM(gap) OVER (PARTITION BY \"run\" ORDER BY t ROWS BETWEEN UNBOUNDED PRECEDING AND CURRENT ROW) AS pc\n  FROM xr\n),\n")
+	b.WriteString("x AS (\n  SELECT \"run\", pc, t")
+	for j := range cert.States {
+		fmt.Fprintf(b, ", x%d", j)
+	}
+	b.WriteString("\n  FROM xs\n  WHERE gap = 0\n),\n")
 	writeSQLNoise(b, &ru)
-	b.WriteString("s AS (\n  SELECT \"run\", t")
+	b.WriteString("s AS (\n  SELECT \"run\", pc, t")
 	for j := range z {
 		fmt.Fprintf(b, ", x%d", j)
 	}
@@ -104,7 +135,7 @@ func writeSQL(b *strings.Builder, cert *fit.Certificate, opts *Options) error {
 	for j := range z {
 		r2[j] = z[j] + " * " + z[j]
 	}
-	fmt.Fprintf(b, "v AS (\n  SELECT \"run\", t")
+	fmt.Fprintf(b, "v AS (\n  SELECT \"run\", pc, t")
 	for j := range z {
 		fmt.Fprintf(b, ", x%d", j)
 	}
@@ -138,31 +169,31 @@ func writeSQL(b *strings.Builder, cert *fit.Certificate, opts *Options) error {
 		// V above the level by more than the run's tolerance
 		leaveV = "v > (" + sq(ru.Level) + " + tol)"
 	}
-	fmt.Fprintf(b, "f AS (\n  SELECT \"run\", t, v, r2,\n    CASE WHEN %s THEN 1 ELSE 0 END AS inside,\n    CASE WHEN %s THEN 1 ELSE 0 END AS beyond\n  FROM v\n),\n", inside, beyond)
+	fmt.Fprintf(b, "f AS (\n  SELECT \"run\", pc, t, v, r2,\n    CASE WHEN %s THEN 1 ELSE 0 END AS inside,\n    CASE WHEN %s THEN 1 ELSE 0 END AS beyond\n  FROM v\n),\n", inside, beyond)
 	r02 := sq(ru.NoiseR2)
-	const win = `PARTITION BY "run" ORDER BY t`
+	const win = `PARTITION BY "run", pc ORDER BY t`
 	fmt.Fprintf(b, `w AS (
-  SELECT "run", t, v, r2, inside, beyond,
+  SELECT "run", pc, t, v, r2, inside, beyond,
     CASE WHEN inside = 1 AND r2 > %[1]s AND v > 0 THEN 1 ELSE 0 END AS q,
     LAG(v) OVER (%[2]s) AS pv,
     LAG(inside) OVER (%[2]s) AS pin,
     LAG(r2) OVER (%[2]s) AS pr2,
     MAX(inside) OVER (%[2]s ROWS BETWEEN UNBOUNDED PRECEDING AND CURRENT ROW) AS entered,
     ROW_NUMBER() OVER (%[2]s) AS rn,
-    COUNT(*) OVER (PARTITION BY "run") AS m
+    COUNT(*) OVER (PARTITION BY "run", pc) AS m
   FROM f
 ),
 d AS (
-  SELECT w."run", t, v, r2, inside, beyond, q, pv, pin, pr2, entered, rn, m,
-    MIN(CASE WHEN q = 1 THEN t END) OVER (PARTITION BY w."run") AS t0,
+  SELECT w."run", w.pc, t, v, r2, inside, beyond, q, pv, pin, pr2, entered, rn, m,
+    MIN(CASE WHEN q = 1 THEN t END) OVER (PARTITION BY w."run", w.pc) AS t0,
     COALESCE(nt.tol, %[3]s) AS tol
-  FROM w LEFT JOIN nt ON w."run" = nt."run"
+  FROM w LEFT JOIN nt ON w."run" = nt."run" AND w.pc = nt.pc
 ),
 `, r02, win, sq(ru.Tolerance))
 	// w = min(max(m/share, 1), max): sample rn is in the head when
 	// rn <= w, in the tail when m - rn + 1 <= w, written without division.
 	fmt.Fprintf(b, `r AS (
-  SELECT "run",
+  SELECT "run", pc,
     MAX(tol) AS tol,
     MAX(CASE WHEN inside = 1 AND pin = 1 AND pr2 > %[1]s AND v - pv - tol > 0 THEN 1 ELSE 0 END) AS rises,
     MAX(CASE WHEN inside = 0 AND entered = 1 AND (beyond = 1 OR %[2]s) THEN 1 ELSE 0 END) AS leaves,
@@ -175,10 +206,10 @@ d AS (
     SUM(CASE WHEN q = 1 THEN (t - t0) * (t - t0) END) AS stt,
     SUM(CASE WHEN q = 1 THEN (t - t0) * LN(v) END) AS sty
   FROM d
-  GROUP BY "run"
+  GROUP BY "run", pc
 ),
 k AS (
-  SELECT "run", rises, leaves,
+  SELECT "run", pc, rises, leaves,
     CASE WHEN last_inside = 1 AND (tail <= %[5]s OR tail < head - tol) THEN 0 ELSE 1 END AS unsettled,
 `, r02, leaveV, ru.TailMax, ru.TailShare, sq(ru.Settle))
 	if ru.SlowBound > 0 {
@@ -188,17 +219,19 @@ k AS (
 	} else {
 		b.WriteString("    0 AS slow\n")
 	}
+	// one row per run: a run split at missing samples is flagged when
+	// any of its pieces is, with each flag any piece has
 	b.WriteString("  FROM r\n)\nSELECT \"run\",\n")
 	if ru.SlowBound > 0 {
-		b.WriteString("  (rises = 1 OR leaves = 1 OR unsettled = 1 OR slow = 1) AS flagged,\n")
+		b.WriteString("  (MAX(rises) = 1 OR MAX(leaves) = 1 OR MAX(unsettled) = 1 OR MAX(slow) = 1) AS flagged,\n")
 	} else {
-		b.WriteString("  (rises = 1 OR leaves = 1 OR unsettled = 1) AS flagged,\n")
+		b.WriteString("  (MAX(rises) = 1 OR MAX(leaves) = 1 OR MAX(unsettled) = 1) AS flagged,\n")
 	}
-	b.WriteString("  (rises = 1) AS rises,\n  (leaves = 1) AS leaves,\n  (unsettled = 1) AS unsettled")
+	b.WriteString("  (MAX(rises) = 1) AS rises,\n  (MAX(leaves) = 1) AS leaves,\n  (MAX(unsettled) = 1) AS unsettled")
 	if ru.SlowBound > 0 {
-		b.WriteString(",\n  (slow = 1) AS slow")
+		b.WriteString(",\n  (MAX(slow) = 1) AS slow")
 	}
-	b.WriteString("\nFROM k\nORDER BY \"run\";\n")
+	b.WriteString("\nFROM k\nGROUP BY \"run\"\nORDER BY \"run\";\n")
 	return nil
 }
 
@@ -209,13 +242,13 @@ k AS (
 // certificate's noise, nt is empty and every run has the certificate's
 // tolerance.
 func writeSQLNoise(b *strings.Builder, ru *validate.Rules) {
-	const win = `PARTITION BY "run" ORDER BY t`
+	const win = `PARTITION BY "run", pc ORDER BY t`
 	if ru.NoiseRef == nil {
-		b.WriteString("nt AS (\n  SELECT \"run\", CAST(NULL AS DOUBLE PRECISION) AS tol FROM x WHERE 1 = 0\n),\n")
+		b.WriteString("nt AS (\n  SELECT \"run\", pc, CAST(NULL AS DOUBLE PRECISION) AS tol FROM x WHERE 1 = 0\n),\n")
 		return
 	}
 	n := ru.N
-	b.WriteString("n1 AS (\n  SELECT \"run\", ROW_NUMBER() OVER (" + win + ") - 1 AS i,\n    COUNT(*) OVER (PARTITION BY \"run\") AS m")
+	b.WriteString("n1 AS (\n  SELECT \"run\", pc, ROW_NUMBER() OVER (" + win + ") - 1 AS i,\n    COUNT(*) OVER (PARTITION BY \"run\", pc) AS m")
 	for j := range n {
 		x := fmt.Sprintf("x%d", j)
 		fmt.Fprintf(b, ",\n    %[1]s - 4 * LEAD(%[1]s, 1) OVER (%[2]s) + 6 * LEAD(%[1]s, 2) OVER (%[2]s)"+
@@ -225,31 +258,31 @@ func writeSQLNoise(b *strings.Builder, ru *validate.Rules) {
 	// stride = max(1, floor((m - 4)/4096)); every stride-th difference
 	// from the first, at most RunNoiseSamples of them.
 	cap := fit.RunNoiseSamples - 1
-	fmt.Fprintf(b, "n2 AS (\n  SELECT \"run\", i, m,\n    CASE WHEN m - 4 < %d THEN 1 ELSE CAST(FLOOR((m - 4) / %d.0) AS INTEGER) END AS stride", 2*cap, cap)
+	fmt.Fprintf(b, "n2 AS (\n  SELECT \"run\", pc, i, m,\n    CASE WHEN m - 4 < %d THEN 1 ELSE CAST(FLOOR((m - 4) / %d.0) AS INTEGER) END AS stride", 2*cap, cap)
 	for j := range n {
 		fmt.Fprintf(b, ",\n    ABS(e%d) AS d%d", j, j)
 	}
 	fmt.Fprintf(b, "\n  FROM n1\n  WHERE i + 4 < m\n),\n")
-	b.WriteString("n3 AS (\n  SELECT \"run\", COUNT(*) OVER (PARTITION BY \"run\") AS c")
+	b.WriteString("n3 AS (\n  SELECT \"run\", pc, COUNT(*) OVER (PARTITION BY \"run\", pc) AS c")
 	for j := range n {
-		fmt.Fprintf(b, ",\n    d%[1]d, ROW_NUMBER() OVER (PARTITION BY \"run\" ORDER BY d%[1]d) AS k%[1]d", j)
+		fmt.Fprintf(b, ",\n    d%[1]d, ROW_NUMBER() OVER (PARTITION BY \"run\", pc ORDER BY d%[1]d) AS k%[1]d", j)
 	}
 	fmt.Fprintf(b, "\n  FROM n2\n  WHERE MOD(i, stride) = 0 AND i < %d * stride\n),\n", fit.RunNoiseSamples)
 	// the median: the middle row, or the mean of the middle two
-	b.WriteString("n4 AS (\n  SELECT \"run\"")
+	b.WriteString("n4 AS (\n  SELECT \"run\", pc")
 	for j := range n {
 		fmt.Fprintf(b, ",\n    %s * AVG(CASE WHEN 2 * k%[2]d >= c AND 2 * k%[2]d <= c + 2 THEN d%[2]d END) / %[3]s / %[4]s AS r%[2]d",
 			sqlNum(1.4826), j, sqlNum(math.Sqrt(70)), sqlNum(ru.NoiseRef[j]))
 	}
-	b.WriteString("\n  FROM n3\n  GROUP BY \"run\"\n),\n")
+	b.WriteString("\n  FROM n3\n  GROUP BY \"run\", pc\n),\n")
 	// ratio = max(1, r_0, r_1, ...) (MAX is exact, so the order does not
 	// matter); tol = base * ratio
 	var u []string
 	for j := range n {
-		u = append(u, fmt.Sprintf("SELECT \"run\", r%d AS r FROM n4", j))
+		u = append(u, fmt.Sprintf("SELECT \"run\", pc, r%d AS r FROM n4", j))
 	}
-	u = append(u, "SELECT \"run\", CAST(1 AS DOUBLE PRECISION) AS r FROM n4")
-	fmt.Fprintf(b, "nt AS (\n  SELECT \"run\", %s * MAX(r) AS tol\n  FROM (\n    %s\n  ) AS nr\n  GROUP BY \"run\"\n),\n",
+	u = append(u, "SELECT \"run\", pc, CAST(1 AS DOUBLE PRECISION) AS r FROM n4")
+	fmt.Fprintf(b, "nt AS (\n  SELECT \"run\", pc, %s * MAX(r) AS tol\n  FROM (\n    %s\n  ) AS nr\n  GROUP BY \"run\", pc\n),\n",
 		sqlNum(ru.Tolerance), strings.Join(u, "\n    UNION ALL "))
 }
 

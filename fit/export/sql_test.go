@@ -111,6 +111,60 @@ func sqlRuns(c *fit.Certificate) []ingest.Run {
 	return runs
 }
 
+// gapped adds to runs a copy of the first with missing samples (NaN) at
+// rows 10, 20 and 21, and returns the table's runs and the runs screen
+// sees: basin's ingest splits a run at a missing sample into pieces named
+// run, run~1, run~2 [common practice: a gap is not interpolated across],
+// here the copy's three pieces. The middle piece, nine samples, has not
+// settled by its end, so screen flags it; the query, which must split the
+// run as ingest does, then flags the run.
+func gapped(runs []ingest.Run) (table, pieces []ingest.Run) {
+	src := runs[0]
+	g := ingest.Run{Name: "gapped", T: append([]float64(nil), src.T...), X: make([][]float64, len(src.X))}
+	for j := range src.X {
+		g.X[j] = append([]float64(nil), src.X[j]...)
+	}
+	missing := []int{10, 20, 21}
+	for _, i := range missing {
+		g.X[i%len(g.X)][i] = math.NaN()
+	}
+	table = append(append([]ingest.Run(nil), runs...), g)
+	pieces = append([]ingest.Run(nil), runs...)
+	for k, r := range [][2]int{{0, 10}, {11, 20}, {22, len(g.T)}} {
+		p := ingest.Run{Name: g.Name, T: g.T[r[0]:r[1]], X: make([][]float64, len(g.X))}
+		if k > 0 {
+			p.Name = fmt.Sprintf("%s~%d", g.Name, k)
+		}
+		for j := range g.X {
+			p.X[j] = g.X[j][r[0]:r[1]]
+		}
+		pieces = append(pieces, p)
+	}
+	return table, pieces
+}
+
+// byRun folds the flags of a run's pieces (run~N) into the run's: the
+// query's one row per run.
+func byRun(f map[string]flagRow) map[string]flagRow {
+	out := map[string]flagRow{}
+	for name, r := range f {
+		if i := strings.IndexByte(name, '~'); i >= 0 {
+			name = name[:i]
+		}
+		o := out[name]
+		out[name] = flagRow{o.flagged || r.flagged, o.rises || r.rises, o.leaves || r.leaves, o.unsettled || r.unsettled, o.slow || r.slow}
+	}
+	return out
+}
+
+// sqlValue is a sample as a value to insert: nil (NULL) for a missing one.
+func sqlValue(x float64) any {
+	if x != x {
+		return nil
+	}
+	return x
+}
+
 // flagRow is one run's flags, as screen gives them or a query returns.
 type flagRow struct {
 	flagged, rises, leaves, unsettled, slow bool
@@ -222,11 +276,37 @@ func checkVariety(t *testing.T, name string, want map[string]flagRow, slow bool)
 	}
 }
 
+// TestSQLGapExercised makes sure screen flags a gapped run split into
+// pieces otherwise than joined, for some certificate, so a query that ran
+// across the gap would differ from screen on it.
+func TestSQLGapExercised(t *testing.T) {
+	differ := 0
+	for _, c := range sqlCerts() {
+		table, pieces := gapped(sqlRuns(c))
+		g := table[len(table)-1]
+		var joined ingest.Run
+		joined.Name = g.Name
+		joined.X = make([][]float64, len(g.X))
+		for _, p := range pieces[len(table)-1:] {
+			joined.T = append(joined.T, p.T...)
+			for j := range p.X {
+				joined.X[j] = append(joined.X[j], p.X[j]...)
+			}
+		}
+		if byRun(screenFlags(c, pieces, 0))[g.Name] != screenFlags(c, []ingest.Run{joined}, 0)[g.Name] {
+			differ++
+		}
+	}
+	if differ == 0 {
+		t.Fatal("the gapped run has the same flags split and joined under every certificate: the gap is not exercised")
+	}
+}
+
 func TestSQLSQLite(t *testing.T) {
 	for name, c := range sqlCerts() {
-		runs := sqlRuns(c)
-		checkVariety(t, name, screenFlags(c, runs, 0), name == "two")
-		tolChanges(t, name, c, runs)
+		runs, pieces := gapped(sqlRuns(c))
+		checkVariety(t, name, screenFlags(c, pieces, 0), name == "two")
+		tolChanges(t, name, c, pieces)
 		db, err := sql.Open("sqlite", ":memory:")
 		if err != nil {
 			t.Fatal(err)
@@ -253,7 +333,7 @@ func TestSQLSQLite(t *testing.T) {
 			for i := range r.T {
 				args := []any{r.Name, r.T[i]}
 				for j := range r.X {
-					args = append(args, r.X[j][i])
+					args = append(args, sqlValue(r.X[j][i]))
 				}
 				if _, err := st.Exec(args...); err != nil {
 					t.Fatal(err)
@@ -284,7 +364,7 @@ func TestSQLSQLite(t *testing.T) {
 			if err := rows.Err(); err != nil {
 				t.Fatal(err)
 			}
-			compare(t, fmt.Sprintf("sqlite %s rise-tol %g", name, tol), screenFlags(c, runs, tol), got)
+			compare(t, fmt.Sprintf("sqlite %s rise-tol %g", name, tol), byRun(screenFlags(c, pieces, tol)), got)
 		}
 	}
 }
@@ -399,9 +479,9 @@ func (pg *postgres) psql(t *testing.T, sql string, stdin []byte) string {
 func TestSQLPostgreSQL(t *testing.T) {
 	pg := startPostgres(t)
 	for name, c := range sqlCerts() {
-		runs := sqlRuns(c)
-		checkVariety(t, name, screenFlags(c, runs, 0), name == "two")
-		tolChanges(t, name, c, runs)
+		runs, pieces := gapped(sqlRuns(c))
+		checkVariety(t, name, screenFlags(c, pieces, 0), name == "two")
+		tolChanges(t, name, c, pieces)
 		table := "fleet_" + name
 		cols := []string{`"run" TEXT`, `"t" DOUBLE PRECISION`}
 		for _, s := range c.States {
@@ -413,7 +493,16 @@ func TestSQLPostgreSQL(t *testing.T) {
 			for i := range r.T {
 				csv.WriteString(r.Name + "," + strconv.FormatFloat(r.T[i], 'g', -1, 64))
 				for j := range r.X {
-					csv.WriteString("," + strconv.FormatFloat(r.X[j][i], 'g', -1, 64))
+					// a missing sample as PostgreSQL's NaN in the
+					// first state, as an empty cell (NULL) in the others
+					switch x := r.X[j][i]; {
+					case x == x:
+						csv.WriteString("," + strconv.FormatFloat(x, 'g', -1, 64))
+					case j == 0:
+						csv.WriteString(",NaN")
+					default:
+						csv.WriteString(",")
+					}
 				}
 				csv.WriteByte('\n')
 			}
@@ -430,7 +519,7 @@ func TestSQLPostgreSQL(t *testing.T) {
 				b := func(k int) bool { return k < len(f) && f[k] == "t" }
 				got[f[0]] = flagRow{b(1), b(2), b(3), b(4), b(5)}
 			}
-			compare(t, fmt.Sprintf("postgresql %s rise-tol %g", name, tol), screenFlags(c, runs, tol), got)
+			compare(t, fmt.Sprintf("postgresql %s rise-tol %g", name, tol), byRun(screenFlags(c, pieces, tol)), got)
 		}
 	}
 }
