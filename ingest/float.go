@@ -3,6 +3,7 @@ package ingest
 import (
 	"encoding/binary"
 	"math"
+	"math/big"
 	"math/bits"
 	"strconv"
 	"unsafe"
@@ -53,7 +54,9 @@ func slowFloat(b []byte) (float64, bool) {
 // one correctly rounded IEEE 754 operation and gives the nearest float64
 // to the decimal value, the same answer ParseFloat's round-to-nearest-even
 // must give (the fast path of Clinger, "How to read floating point numbers
-// accurately", PLDI 1990).
+// accurately", PLDI 1990). A mantissa above 2^53 (16 to 19 digits, as
+// shortest and 17-digit printing write) or a larger exponent goes to
+// [eiselLemire], which is correctly rounded too or declines.
 //
 // The sign is read without a branch (logged signs are random, and a
 // mispredicted branch costs as much as the rest of a short number); the
@@ -150,6 +153,8 @@ func scanFast(b []byte) (f float64, n int, ok bool) {
 	if mant > 1<<53 || exp > 22 || exp < -22 {
 		if mant == 0 && exp >= -400 && exp <= 400 {
 			exp = 0 // zero with any exponent is zero
+		} else if f, ok := eiselLemire(mant, exp, neg != 0); ok {
+			return f, i, true
 		} else {
 			return 0, 0, false
 		}
@@ -162,31 +167,6 @@ func scanFast(b []byte) (f float64, n int, ok bool) {
 	}
 	// the sign bit set without a branch (a zero mantissa gives -0)
 	return math.Float64frombits(math.Float64bits(f) | neg<<63), i, true
-}
-
-// pow10u holds 10^0 .. 10^8 (and room, so that an index masked with 15
-// needs no bounds check).
-var pow10u = [16]uint64{1, 10, 100, 1000, 10000, 100000, 1000000, 10000000, 100000000}
-
-// leadingDigits returns how many of the 8 bytes of x (little-endian: the
-// first byte lowest) are ASCII digits before the first one that is not:
-// [eightDigits]' test byte by byte. A byte of 0xFA or more carries into
-// the next one when 6 is added, but only into a byte after the first
-// non-digit, which does not change the count.
-func leadingDigits(x uint64) int {
-	nd := ((x & 0xF0F0F0F0F0F0F0F0) | (((x + 0x0606060606060606) & 0xF0F0F0F0F0F0F0F0) >> 4)) ^ 0x3333333333333333
-	return bits.TrailingZeros64(nd) >> 3
-}
-
-// digitsValue is the value of the first k (0..8) bytes of x, ASCII
-// digits, the first most significant. The bytes after them are shifted
-// out (subtracting '0' from them borrows only upwards, away from the
-// digits); the zero bytes shifted in are leading zeros to [eightValue]'s
-// conversion.
-func digitsValue(x uint64, k int) uint64 {
-	x = (x - 0x3030303030303030) << (64 - 8*uint(k)) // k = 0: a shift by 64 gives 0
-	x = x*10 + x>>8
-	return ((x&0x000000FF000000FF)*(100+(1000000<<32)) + ((x>>16)&0x000000FF000000FF)*(1+(10000<<32))) >> 32
 }
 
 // eightDigits reports whether the 8 bytes of x (little-endian) are all
@@ -221,4 +201,92 @@ func eightValue(x uint64) uint64 {
 	x = x*10 + x>>8
 	x = ((x&0x000000FF000000FF)*(100+(1000000<<32)) + ((x>>16)&0x000000FF000000FF)*(1+(10000<<32))) >> 32
 	return x
+}
+
+// pow10Min and pow10Max are the decimal exponents of the first and last
+// rows of pow10Table.
+const pow10Min, pow10Max = -348, 347
+
+// pow10Table holds, for q = pow10Min .. pow10Max, 10^q to 128 bits,
+// rounded down, normalized so that the top bit is set: {low, high}
+// words of m with 10^q ~ m * 2^(floor(log2 10^q) - 127). Computed once,
+// exactly, with math/big.
+var pow10Table = func() (t [pow10Max - pow10Min + 1][2]uint64) {
+	mask := new(big.Int).SetUint64(^uint64(0))
+	for q := pow10Min; q <= pow10Max; q++ {
+		m := new(big.Int)
+		if q >= 0 {
+			m.Exp(big.NewInt(10), big.NewInt(int64(q)), nil)
+			if n := m.BitLen(); n > 128 {
+				m.Rsh(m, uint(n-128))
+			} else {
+				m.Lsh(m, uint(128-n))
+			}
+		} else {
+			d := new(big.Int).Exp(big.NewInt(10), big.NewInt(int64(-q)), nil)
+			m.Lsh(big.NewInt(1), uint(d.BitLen()+127)) // 2^k / d in (2^127, 2^128): d is no power of 2
+			m.Quo(m, d)
+		}
+		lo := new(big.Int).And(m, mask)
+		t[q-pow10Min] = [2]uint64{lo.Uint64(), new(big.Int).Rsh(m, 64).Uint64()}
+	}
+	return t
+}()
+
+// eiselLemire returns the float64 nearest to man * 10^exp10 (ties to
+// even), neg for a negative one, when it can tell it from a 128-bit
+// product of man and the power of ten: ok is false when the product is too
+// close to halfway between two float64 values to decide (the caller then
+// uses strconv), or the result is zero, subnormal, infinite or out of the
+// table. The algorithm of Lemire, "Number parsing at a gigabyte per
+// second", 2021, section 5 (after Eisel), with Go's math/bits for the
+// 64x64 -> 128-bit multiply; fuzzed bit for bit against strconv.ParseFloat.
+func eiselLemire(man uint64, exp10 int, neg bool) (float64, bool) {
+	if man == 0 || exp10 < pow10Min || exp10 > pow10Max {
+		return 0, false
+	}
+	// normalize the mantissa: top bit set
+	clz := bits.LeadingZeros64(man)
+	man <<= uint(clz)
+	// 217706 / 2^16 ~ log2(10): the binary exponent of 10^exp10, exact
+	// over the table's range, biased for float64
+	retExp2 := uint64(217706*exp10>>16+64+1023) - uint64(clz)
+	pw := &pow10Table[exp10-pow10Min]
+	xHi, xLo := bits.Mul64(man, pw[1])
+	// the low bits may decide the rounding: take the next 64 bits of the
+	// power too
+	if xHi&0x1FF == 0x1FF && xLo+man < man {
+		yHi, yLo := bits.Mul64(man, pw[0])
+		mHi, mLo := xHi, xLo+yHi
+		if mLo < xLo {
+			mHi++
+		}
+		if mHi&0x1FF == 0x1FF && mLo+1 == 0 && yLo+man < man {
+			return 0, false
+		}
+		xHi, xLo = mHi, mLo
+	}
+	// 54 bits of the product, the top one at bit 63 or 62
+	msb := xHi >> 63
+	mant := xHi >> (msb + 9)
+	retExp2 -= 1 ^ msb
+	// exactly halfway: undecided
+	if xLo == 0 && xHi&0x1FF == 0 && mant&3 == 1 {
+		return 0, false
+	}
+	// round to 53 bits, ties to even
+	mant += mant & 1
+	mant >>= 1
+	if mant>>53 > 0 {
+		mant >>= 1
+		retExp2++
+	}
+	if retExp2-1 >= 0x7FF-1 { // subnormal, zero, or infinite
+		return 0, false
+	}
+	b := retExp2<<52 | mant&(1<<52-1)
+	if neg {
+		b |= 1 << 63
+	}
+	return math.Float64frombits(b), true
 }

@@ -51,12 +51,13 @@ func checkScanFast(t *testing.T, s string) {
 			t.Errorf("scanFast(%q) = %v, %d, %v; alone %v, %d", s+tail, v2, n2, ok2, v, n)
 		}
 	}
-	// the code before takes the same numbers, and so the same cells go to
-	// the slow path as before
+	// what the code before took, scanFast takes, to the same bits (it
+	// takes more: mantissas above 2^53 and larger exponents, by
+	// eiselLemire, checked against strconv below)
 	for _, tail := range []string{"", ",12345678", "\n"} {
 		v2, n2, ok2 := scanFast([]byte(s + tail))
 		v3, n3, ok3 := scanFastBefore([]byte(s + tail))
-		if ok2 != ok3 || (ok2 && (n2 != n3 || math.Float64bits(v2) != math.Float64bits(v3))) {
+		if ok3 && (!ok2 || n2 != n3 || math.Float64bits(v2) != math.Float64bits(v3)) {
 			t.Errorf("scanFast(%q) = %v, %d, %v; before %v, %d, %v", s+tail, v2, n2, ok2, v3, n3, ok3)
 		}
 	}
