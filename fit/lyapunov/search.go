@@ -360,6 +360,17 @@ func Certify(ctx context.Context, d *Data, sys *System, opts *Options) (*Result,
 	r := g.best.res
 	if !o.SampledOnly {
 		r = ck.verify(g.best.c, g.best.res)
+		// A bound that finds no level for the best V (its level set's
+		// box reaching where V is not positive, say) falls back on the
+		// V each round improved on, latest first.
+		for i := len(g.prev) - 1; !r.ok && i >= 0; i-- {
+			h := g.prev[i]
+			ck.completeFigures(&h.res, h.c)
+			if hr := ck.verify(h.c, h.res); hr.ok {
+				tracef(o.Trace, "bound: fell back on the V of share %.4f", h.res.share)
+				g.best, r = h, hr
+			}
+		}
 	}
 	if !r.ok {
 		res.Outcome, res.Detail, res.BallShare = NoBound, r.reason, r.ballShare
@@ -456,6 +467,10 @@ type growth struct {
 	lpRes        *lp.Result // its result
 	conflict     *Conflict  // the infeasible or contradicted LP's proof
 	degree       int
+	// prev holds the candidates with a level that a later round
+	// improved on, in the order they were replaced (the bound's
+	// fallbacks).
+	prev []cand
 }
 
 // grow runs the growth rounds from the start V c0.
@@ -510,6 +525,9 @@ func (ck *checker) grow(ctx context.Context, c0 []float64, nonRise bool, o Optio
 				res := ck.levelOf(out.c, false) // the in-sample figures only if kept
 				tracef(o.Trace, "round %d gamma %.3g target %.4g np %d g %.4g -> ok %v level %.4g share %.4f limit %s at %v (best %.4f)", round, gamma, target, rows.np, out.g, res.ok, res.level, res.share, res.limit, res.limitZ, best.res.share)
 				if res.ok && (!best.res.ok || res.share > best.res.share*(1+minGain)+1e-12) {
+					if best.res.ok {
+						g.prev = append(g.prev, best)
+					}
 					best = cand{c: out.c, g: out.g, res: res, source: "LP"}
 					improved = true
 				}
