@@ -48,7 +48,10 @@ violates the decrease condition (counting only samples one decorrelation
 time apart). The verdict on these runs follows the same rules as 'run'.
 Without --states the certificate's states are read by name, in any column
 order, other columns left out; a state missing, or a state column in other
-units than the certificate's, is an input error.
+units than the certificate's, is an input error. Folders are read with
+their key=value subfolders, as screen reads them; the table has a column
+per partition key and the file of each run, and --json gives each run's
+partition.
 
 The exit status is 0 whatever the verdict, rejected included (status 1
 belongs to 'screen'): read the verdict line, or summary.verdict with
@@ -59,12 +62,19 @@ func init() { cmdCheck.Run = runCheck }
 
 // checkJSON is the contract's check --json shape.
 type checkJSON struct {
-	Certificate string               `json:"certificate"`
-	Runs        []validate.RunScreen `json:"runs"`
-	States      []stateJSON          `json:"states"`
-	Summary     checkSummary         `json:"summary"`
-	Validation  *fit.Validation      `json:"validation"`
-	Options     map[string]float64   `json:"options"`
+	Certificate string             `json:"certificate"`
+	Runs        []checkRun         `json:"runs"`
+	States      []stateJSON        `json:"states"`
+	Summary     checkSummary       `json:"summary"`
+	Validation  *fit.Validation    `json:"validation"`
+	Options     map[string]float64 `json:"options"`
+}
+
+// checkRun is one run's check and the partition of its file (its
+// key=value folders), as screen reports it.
+type checkRun struct {
+	validate.RunScreen
+	Partition partition `json:"partition,omitempty"`
 }
 
 type stateJSON struct {
@@ -156,8 +166,22 @@ func runCheck(ctx context.Context, e *env, args []string) error {
 	judged := *cert
 	validate.Decide(&judged, val, runs, nil, opts)
 	judged.Reason = flagNames(judged.Reason)
-	doc := &checkJSON{Certificate: c.Cert, Runs: runs, Validation: val,
+	doc := &checkJSON{Certificate: c.Cert, Validation: val,
 		Options: map[string]float64{"min_decrease": c.MinDecrease, "beta": c.Beta, "rise_tol": c.Tolerance}}
+	// the partition of each file, from its key=value folders (the files
+	// were read, so the folders expand as they did for the read)
+	parts := map[string]partition{}
+	if in, _, err := ingest.ExpandTree(args, nil); err == nil {
+		for _, f := range in {
+			parts[f.Path] = f.Partition
+		}
+	}
+	for _, r := range runs {
+		doc.Runs = append(doc.Runs, checkRun{RunScreen: r, Partition: parts[r.File]})
+	}
+	if doc.Runs == nil {
+		doc.Runs = []checkRun{}
+	}
 	for _, s := range ds.States {
 		doc.States = append(doc.States, stateJSON{s.Name, s.Unit})
 	}
@@ -182,22 +206,40 @@ func runCheck(ctx context.Context, e *env, args []string) error {
 // recorded runs, checked as pieces where the inputs rest when pieces.
 func checkTable(e *env, doc *checkJSON, cert *fit.Certificate, recorded int, pieces bool) error {
 	tw := tabwriter.NewWriter(e.stdout, 0, 4, 2, ' ', 0)
-	fmt.Fprintln(tw, "run\tsamples\tstarts inside\tsettled\tpairs inside\tV did not rise\tflags")
+	// partition keys in order of first appearance, a column each, then
+	// the file: in a partitioned fleet base names repeat across folders
+	var keys []string
+	seen := map[string]bool{}
+	for _, r := range doc.Runs {
+		for _, kv := range r.Partition {
+			if !seen[kv.Key] {
+				seen[kv.Key] = true
+				keys = append(keys, kv.Key)
+			}
+		}
+	}
+	for _, k := range keys {
+		fmt.Fprintf(tw, "%s\t", printable(k))
+	}
+	fmt.Fprintln(tw, "run\tfile\tsamples\tstarts inside\tsettled\tpairs inside\tV did not rise\tflags")
 	for i := range doc.Runs {
 		r := &doc.Runs[i]
+		for _, k := range keys {
+			fmt.Fprintf(tw, "%s\t", printable(r.Partition.value(k)))
+		}
 		kept := "-"
 		if r.Pairs > 0 {
 			kept = human.Percent(float64(r.Decreased) / float64(r.Pairs))
 		}
 		var fl []string
 		for _, f := range r.Flags {
-			fl = append(fl, report.FlagText(cert, f, r))
+			fl = append(fl, report.FlagText(cert, f, &r.RunScreen))
 		}
 		flags := strings.Join(fl, "; ")
 		if flags == "" {
 			flags = "-"
 		}
-		fmt.Fprintf(tw, "%s\t%d\t%s\t%s\t%d\t%s\t%s\n", printable(r.Run), r.Samples, checkYesNo(r.StartInside), checkYesNo(r.Settled), r.Pairs, kept, printable(flags))
+		fmt.Fprintf(tw, "%s\t%s\t%d\t%s\t%s\t%d\t%s\t%s\n", printable(r.Run), printable(r.File), r.Samples, checkYesNo(r.StartInside), checkYesNo(r.Settled), r.Pairs, kept, printable(flags))
 	}
 	if err := tw.Flush(); err != nil {
 		return err

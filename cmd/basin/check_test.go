@@ -195,3 +195,61 @@ func TestCheckColumnsByName(t *testing.T) {
 		})
 	}
 }
+
+// TestCheckPartitions: in a partitioned fleet two vehicles' logs may
+// share a base name; check tells them apart as screen does, by a file
+// column in the table and the partition values in --json.
+func TestCheckPartitions(t *testing.T) {
+	cert := writeTestCert(t, checkCertJSON)
+	src := writeCheckRuns(t)
+	root := t.TempDir()
+	for v, r := range []string{"r0.csv", "r4.csv"} { // r4 spirals out
+		d := filepath.Join(root, fmt.Sprintf("vehicle=%d", v+1))
+		if err := os.MkdirAll(d, 0o755); err != nil {
+			t.Fatal(err)
+		}
+		b, err := os.ReadFile(filepath.Join(src, r))
+		if err != nil {
+			t.Fatal(err)
+		}
+		if err := os.WriteFile(filepath.Join(d, "log.csv"), b, 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	var out, errb bytes.Buffer
+	if code := basinMain(context.Background(), []string{"check", "--cert", cert, root, "--json"}, &out, &errb); code != 0 {
+		t.Fatalf("exit %d: %s", code, errb.String())
+	}
+	var doc struct {
+		Runs []struct {
+			File, Run string
+			Flagged   bool
+			Partition map[string]string
+		}
+	}
+	if err := json.Unmarshal(out.Bytes(), &doc); err != nil {
+		t.Fatal(err)
+	}
+	if len(doc.Runs) != 2 {
+		t.Fatalf("%d runs, want 2: %s", len(doc.Runs), out.String())
+	}
+	for i, r := range doc.Runs {
+		want := fmt.Sprint(i + 1)
+		if r.Partition["vehicle"] != want || r.Flagged != (i == 1) {
+			t.Errorf("run %d (%s): partition %v flagged %v, want vehicle=%s flagged %v", i, r.File, r.Partition, r.Flagged, want, i == 1)
+		}
+	}
+	out.Reset()
+	if code := basinMain(context.Background(), []string{"check", "--cert", cert, root}, &out, &errb); code != 0 {
+		t.Fatalf("exit %d: %s", code, errb.String())
+	}
+	lines := strings.Split(out.String(), "\n")
+	if h := strings.Fields(lines[0]); len(h) < 3 || h[0] != "vehicle" || h[1] != "run" || h[2] != "file" {
+		t.Errorf("table header %q, want vehicle, run, file first", lines[0])
+	}
+	for i, v := range []string{"1", "2"} {
+		if f := strings.Fields(lines[1+i]); len(f) < 3 || f[0] != v || !strings.HasSuffix(f[2], filepath.Join("vehicle="+v, "log.csv")) {
+			t.Errorf("table row %q, want vehicle %s and its file", lines[1+i], v)
+		}
+	}
+}
