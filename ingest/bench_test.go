@@ -537,3 +537,45 @@ func BenchmarkReadCSVMem(b *testing.B) {
 		})
 	}
 }
+
+// BenchmarkReadCSVFormats reads 200,000 rows (a time column and six
+// states) printed three ways, 9 significant digits ("g9"), 17 ("g17")
+// and shortest ("shortest", 16 or 17 digits for most values: mantissas
+// above 2^53), with ReadCSV and the naive reader alternately, from
+// memory, and reports the median per-pair ratio of CPU time naive/basin.
+func BenchmarkReadCSVFormats(b *testing.B) {
+	for _, tc := range []struct {
+		name string
+		prec int
+	}{{"g9", 9}, {"g17", 17}, {"shortest", -1}} {
+		rng := rand.New(rand.NewPCG(1, 0))
+		buf := []byte("t,x1,x2,x3,x4,x5,x6\n")
+		for i := range 200_000 {
+			buf = strconv.AppendFloat(buf, float64(i)*0.005, 'f', 4, 64)
+			for range 6 {
+				buf = append(buf, ',')
+				buf = strconv.AppendFloat(buf, rng.NormFloat64(), 'g', tc.prec, 64)
+			}
+			buf = append(buf, '\n')
+		}
+		b.Run(tc.name, func(b *testing.B) {
+			b.SetBytes(int64(len(buf)))
+			var ratio []float64
+			for b.Loop() {
+				runtime.GC()
+				c0 := cpuTime()
+				if _, err := ReadCSV(bytes.NewReader(buf), "x.csv", nil); err != nil {
+					b.Fatal(err)
+				}
+				basin := cpuTime() - c0
+				runtime.GC()
+				c1 := cpuTime()
+				if _, err := naiveRead(bytes.NewReader(buf)); err != nil {
+					b.Fatal(err)
+				}
+				ratio = append(ratio, (cpuTime()-c1).Seconds()/basin.Seconds())
+			}
+			b.ReportMetric(order.Median(order.Sorted(nil, ratio)), "x-naive-cpu")
+		})
+	}
+}
