@@ -51,8 +51,13 @@ func (tb *table) plainFloats(buf []byte, dst []float64, row0 int, dict *[]float6
 				return false, nil
 			}
 			d := slices.Grow((*dict)[:0], int(h.values))[:h.values]
-			for i := range d {
-				d[i] = math.Float64frombits(binary.LittleEndian.Uint64(body[8*i:]))
+			if littleEndian && len(d) > 0 {
+				// the page holds the values' little-endian bytes, as memory does
+				copy(unsafe.Slice((*byte)(unsafe.Pointer(&d[0])), 8*len(d)), body)
+			} else {
+				for i := range d {
+					d[i] = math.Float64frombits(binary.LittleEndian.Uint64(body[8*i:]))
+				}
 			}
 			*dict = d
 			finite = allFinite(d)
