@@ -74,9 +74,10 @@ Each worker screens one file at a time, in buffers reused from file to
 file. A Parquet file of more than 65,536 rows, or a CSV file above
 64 MiB, is streamed: read a row group (or CSV block) at a time in two
 passes (the runs' boundaries, then the heads, events and screen; with a
-certificate's noise, two more for a file of several runs: their noise,
-then the screen), so
-memory stays bounded by a row group per worker however large the file;
+certificate's noise, up to two more for a file that is not one run of
+all its rows: the noise of the runs that end before its last row, then
+the runs whose own noise changed their tolerance, each reading only the
+row groups of the runs it needs), so memory stays bounded by a row group per worker however large the file;
 the runs, and so the flags, are exactly those of reading it whole.
 Smaller files are read whole in one pass; files that cannot be streamed
 exactly (with --run-col, --from/--to or --inputs, date-time stamps,
