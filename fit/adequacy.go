@@ -72,16 +72,17 @@ const runScreenRatio = 2.0
 const outlierMass = 0.25
 
 // restRatio is the ratio of RMS error to noise floor that the runs
-// excessRuns keeps must reach for the runs it left out to be named: the
-// top of what correct models reached (1.35 measured), so that the runs
-// kept fit as a correct model would.
+// excessRuns keeps must reach for the runs it rejects to be named: a
+// little above what correct models reached (1.22 measured), so that the
+// windows kept fit as a correct model's would.
 const restRatio = 1.5
 
-// excessNamed is the most runs excessRuns leaves out; excessShown the
-// most a warning names (the rest are counted).
+// excessRunsShare is the largest share of the runs that may be named
+// (more is not a concentration); excessShown the most a warning names
+// (the rest are counted).
 const (
-	excessNamed = 12
-	excessShown = 5
+	excessRunsShare = 0.5
+	excessShown     = 5
 	// excessShare is the share of the rejected windows' squared
 	// residuals that the runs named carry.
 	excessShare = 0.9
@@ -152,12 +153,14 @@ func yardstickFloor(runs []*ingest.Run, groupOf func(r, i int) int, keep []bool,
 //
 // Two findings warn. The whole equation's held-out error is at least
 // [lackOfFitRatio] times its floor (and at least [lackOfFitShare] of its
-// spread); then the runs that carry it are named when refitting without
-// a few of them (at most a third, [excessNamed]) leaves the others within
-// lackOfFitRatio of their floor (see excessRuns). Or the equation passes
-// as a whole but some runs' own held-out error is at least
-// [runLackRatio] times theirs (at most a third of the runs): something
-// happened in those runs that the model does not have.
+// spread); then the runs that carry it are named when a robust refit
+// (see excessRuns) rejects windows of at most half the runs and fits the
+// rest to within [restRatio] of their noise. Or the equation passes as a
+// whole, but some run's own held-out error is at least [runScreenRatio]
+// times its floor, and the robust refit finds windows of at most half
+// the runs far beyond the noise, carrying at least [outlierMass] of the
+// floor's weight, while it fits the others: something happened in those
+// runs that the model does not have.
 func lackOfFit(eq *Equation, ad *adequacy, sc *problem, c choice, weight []float64, floor [][]float64, runOf []int, runs []*ingest.Run, i int, sd float64, unit string) string {
 	if len(floor) != len(c.groupErr) || len(weight) != len(floor) || len(sc.groups) != len(floor) {
 		return ""
@@ -200,7 +203,7 @@ func lackOfFit(eq *Equation, ad *adequacy, sc *problem, c choice, weight []float
 	if eq.LackOfFit >= lackOfFitRatio && eq.HeldoutShare >= lackOfFitShare {
 		w := fmt.Sprintf("held-out error %.3g times what the measurement noise leaves (%.4g against %.4g %s): the model lacks something the data have",
 			eq.LackOfFit, eq.HeldoutRMS, eq.NoiseFloorRMS, rate)
-		rb := ad.excessRuns(i, c.tau, c.lam, min(excessNamed, R/3))
+		rb := ad.excessRuns(i, math.Min(c.tau, robustTau), c.lam, int(excessRunsShare*float64(R)))
 		out, rest := rb.runs, rb.rest
 		if len(out) == 0 {
 			return w + " in most runs (a term outside the library, an unlogged input, saturation?)"
@@ -233,7 +236,7 @@ func lackOfFit(eq *Equation, ad *adequacy, sc *problem, c choice, weight []float
 	if !look {
 		return ""
 	}
-	rb := ad.excessRuns(i, c.tau, c.lam, R/3)
+	rb := ad.excessRuns(i, math.Min(c.tau, robustTau), c.lam, int(excessRunsShare*float64(R)))
 	if len(rb.runs) == 0 || rb.mass < outlierMass*float64(rb.windows) {
 		return ""
 	}
@@ -268,9 +271,12 @@ type adequacy struct {
 	sigma [][]float64 // per run, per state
 }
 
-// robustRowsMax bounds the values (rows × library terms) the robust
-// refit holds: past it every k-th window is taken (32 MB of float64).
-const robustRowsMax = 4 << 20
+// robustWork bounds one reweighted fit of the robust refit, windows ×
+// library terms² (the weighted normal matrix): past it every k-th window
+// is taken, so a sweep costs at most about 10⁷ multiply-adds (a 6-state
+// degree-3 library of 84 terms keeps about 1,400 windows, 12 states'
+// 455 terms 48).
+const robustWork = 10_000_000
 
 // windows computes state i's yardstick rows as integralRows does (in the
 // centred basis of accumulate), every stride-th window.
@@ -280,7 +286,7 @@ func (ad *adequacy) windows(i int) *windows {
 	for _, r := range ad.runs {
 		total += (r.Len()-1)/ad.steps + 1
 	}
-	stride := max(1, total*p/robustRowsMax+1)
+	stride := max(1, (total*p*p+robustWork-1)/robustWork)
 	w := &windows{p: p}
 	work, z, theta := make([]float64, ad.lib.WorkLen()), make([]float64, len(ad.vs.centre)), make([]float64, p)
 	var qw []float64
@@ -342,10 +348,17 @@ const (
 // tries as its start.
 const robustStarts = 100
 
+// robustTau caps the threshold of the robust refit: the equation's own
+// threshold, chosen by cross-validation on every window, can be so high
+// that nothing is left (the disturbed windows make every term look
+// useless), and the robust refit wants a model of the other windows, not
+// a sparse one. 0.05 drops terms worth under 5% of the equation.
+const robustTau = 0.05
+
 // robustRefined is the number of the best random starts (by their
 // median residual) that the robust refit refines, besides the fit on
 // all windows.
-const robustRefined = 5
+const robustRefined = 3
 
 // robustSweeps bounds the reweighting sweeps of excessRuns.
 const robustSweeps = 30

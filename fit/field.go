@@ -495,7 +495,10 @@ func Field(ctx context.Context, ds *ingest.Dataset, opts *FieldOptions) (*Model,
 		case eq.HeldoutShare >= constantShare:
 			eq.Warning = fmt.Sprintf("no better than a constant on held-out runs (error %.0f%% of the spread of d%s/dt)", 100*eq.HeldoutShare, names[i])
 		}
-		if w := lackOfFit(&eq, ad, score.pr, c, sel.weight, floor, runOf, runs, i, sd, m.Units[i]); w != "" && eq.Warning == "" {
+		if w := lackOfFit(&eq, ad, score.pr, c, sel.weight, floor, runOf, runs, i, sd, m.Units[i]); w != "" {
+			if eq.Warning != "" {
+				w = eq.Warning + "; " + w
+			}
 			eq.Warning = w
 		}
 		m.Equations[i] = eq

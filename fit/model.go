@@ -59,7 +59,7 @@ type Equation struct {
 	// ExcessRuns names the runs a lack-of-fit warning names: those whose
 	// yardstick windows a robust refit of the equation rejects as far
 	// beyond the noise, while the windows it keeps fit to within 1.5
-	// times theirs (at most a third of the runs); empty otherwise.
+	// times theirs (at most half the runs); empty otherwise.
 	ExcessRuns []string `json:"excess_runs,omitempty"`
 	// Warning says the equation is empty, no better than a constant, or
 	// that it lacks something the data have: its held-out error is at
