@@ -139,3 +139,28 @@ func TestLackOfFit(t *testing.T) {
 		})
 	}
 }
+
+// TestMisfit: the verdict's reason is given only for an equation that
+// fails the check as a whole, ratio and share together, and names the
+// worst one.
+func TestMisfit(t *testing.T) {
+	tests := []struct {
+		name string
+		eqs  []Equation
+		want string // the state named, "" for none
+	}{
+		{"fits", []Equation{{State: "x", LackOfFit: 1.1, HeldoutShare: 0.3}}, ""},
+		{"below the share", []Equation{{State: "x", LackOfFit: 40, HeldoutShare: 0.01}}, ""},
+		{"unknown floor", []Equation{{State: "x", LackOfFit: 0, HeldoutShare: 0.9}}, ""},
+		{"one fails", []Equation{{State: "x", LackOfFit: 1.1, HeldoutShare: 0.3}, {State: "v", LackOfFit: 2.5, HeldoutShare: 0.4}}, "v"},
+		{"worst of two", []Equation{{State: "x", LackOfFit: 3, HeldoutShare: 0.3}, {State: "v", LackOfFit: 9, HeldoutShare: 0.4}}, "v"},
+	}
+	for _, tc := range tests {
+		t.Run(tc.name, func(t *testing.T) {
+			got := (&Model{Equations: tc.eqs}).Misfit()
+			if (got != "") != (tc.want != "") || tc.want != "" && !strings.Contains(got, "d("+tc.want+")/dt") {
+				t.Errorf("Misfit() = %q, want one naming %q", got, tc.want)
+			}
+		})
+	}
+}
