@@ -253,7 +253,7 @@ func checkTable(e *env, doc *checkJSON, cert *fit.Certificate, recorded int, pie
 	}
 	fmt.Fprintf(w, "%s\n", report.HeldoutRunsText(cert, v, recorded, pieces))
 	if v.Worst != nil {
-		fmt.Fprintf(w, "worst violation, in run %s at %s: %s\n", printable(v.Worst.Run), report.StatePoint(cert, v.Worst.State),
+		fmt.Fprintf(w, "worst violation, in run %s%s at %s: %s\n", printable(v.Worst.Run), worstFile(doc.Runs, v.Worst), report.StatePoint(cert, v.Worst.State),
 			report.FlagText(cert, validate.Flag{Kind: v.Worst.Kind, Time: v.Worst.Time, Excess: v.Worst.Excess}, nil))
 	}
 	fmt.Fprintf(w, "scenario bound: %s\n", report.BoundText(v))
@@ -269,4 +269,27 @@ func checkYesNo(b bool) string {
 		return "yes"
 	}
 	return "no"
+}
+
+// worstFile names, as " (FILE)", the file of the run that holds the
+// worst violation when its run name is shared by runs of other files (a
+// partitioned fleet's vehicle=1/log.csv and vehicle=2/log.csv): the one
+// run of that name with a flag of the violation's kind, or "" when the
+// name is unique or no single run fits.
+func worstFile(runs []checkRun, worst *fit.Violation) string {
+	var named, fits []string
+	for i := range runs {
+		r := &runs[i]
+		if r.Run != worst.Run {
+			continue
+		}
+		named = append(named, r.File)
+		if slices.ContainsFunc(r.Flags, func(f validate.Flag) bool { return string(f.Kind) == worst.Kind }) {
+			fits = append(fits, r.File)
+		}
+	}
+	if len(named) < 2 || len(fits) != 1 {
+		return ""
+	}
+	return " (" + printable(fits[0]) + ")"
 }

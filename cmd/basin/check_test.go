@@ -243,6 +243,9 @@ func TestCheckPartitions(t *testing.T) {
 	if code := basinMain(context.Background(), []string{"check", "--cert", cert, root}, &out, &errb); code != 0 {
 		t.Fatalf("exit %d: %s", code, errb.String())
 	}
+	if want := "worst violation, in run log.csv (" + filepath.Join(root, "vehicle=2", "log.csv") + ") at"; !strings.Contains(out.String(), want) {
+		t.Errorf("the worst violation does not say which vehicle's log.csv (want %q):\n%s", want, out.String())
+	}
 	lines := strings.Split(out.String(), "\n")
 	if h := strings.Fields(lines[0]); len(h) < 3 || h[0] != "vehicle" || h[1] != "run" || h[2] != "file" {
 		t.Errorf("table header %q, want vehicle, run, file first", lines[0])
