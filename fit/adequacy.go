@@ -384,7 +384,8 @@ type robust struct {
 // reweighted least squares with Tukey's bisquare on each window's
 // residual over its own noise sd, scaled by the residuals' robust spread
 // (1.4826 × their median absolute value), on the equation's own terms
-// (support, raw exponents) with ridge lam: windows that a disturbance, saturation or an unlogged input hits
+// (support, raw exponents; the linear terms when it is empty) with ridge
+// lam: windows that a disturbance, saturation or an unlogged input hits
 // get weight zero, and the fit follows the others (M-estimation: Huber,
 // Robust Statistics, 1981, from memory). When the windows kept fit to
 // within restRatio of their noise (RMS), the runs whose rejected windows
@@ -399,10 +400,22 @@ func (ad *adequacy) excessRuns(i int, support [][]int, lam float64, most int) ro
 	// real term dropped by a threshold leaves windows far beyond the
 	// noise in a correct model. In the centred basis of the windows a raw
 	// monomial is the sum of the monomials that divide it, so those are
-	// the columns kept; an empty equation keeps every column. Spurious
-	// terms that a disturbance put in the support come out near zero
-	// once its windows are rejected.
-	if len(support) > 0 {
+	// the columns kept. An empty equation (the threshold chosen so high
+	// that nothing is left) gets the linear terms: every column would fit
+	// the slow windows with large cubic terms and reject the runs' fast
+	// starts instead of the disturbed windows (measured on a thermal
+	// chamber, where the first window of 22 of 30 runs was rejected).
+	// Spurious terms that a disturbance put in the support come out near
+	// zero once its windows are rejected.
+	if len(support) == 0 {
+		nv := len(ad.lib.Exponents(0))
+		for j := 0; j < nv; j++ {
+			e := make([]int, nv)
+			e[j] = 1
+			support = append(support, e)
+		}
+	}
+	{
 		for k := 0; k < w.p; k++ {
 			in := false
 			ek := ad.lib.Exponents(k)
