@@ -637,6 +637,11 @@ func Evaluate(ctx context.Context, ds *ingest.Dataset, opts *Options) (*Result, 
 		val.Folds = o.Folds
 		modelChecks(m, hoDS, val, o)
 		Decide(cert, val, runs, eigenvalues(m), &o)
+		if cert.Verdict == fit.Certified {
+			if why := centreGrowth(m, hoDS, o.LinearTol); why != "" {
+				cert.Verdict, cert.Strength, cert.ReasonKind, cert.Reason = fit.Inconclusive, fit.NoClaim, fit.ReasonHeldoutRise, why
+			}
+		}
 		if why := m.Misfit(); why != "" && cert.Verdict == fit.Certified {
 			cert.Verdict, cert.Strength, cert.ReasonKind, cert.Reason = fit.Inconclusive, fit.NoClaim, fit.ReasonLackOfFit, why
 		}
