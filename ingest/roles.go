@@ -407,6 +407,19 @@ func (ds *Dataset) recordings() int {
 // changes its last digit from sample to sample.
 const steppedShare = 0.9
 
+// A coarse sensor (an encoder whose step is larger than the noise) also
+// repeats its value, but it moves one quantum at a time through many
+// levels: a column with at least quantumLevels levels whose changes are
+// one quantum (the smallest change, within quantumTol of it) on at least
+// quantumShare of them is taken for such a sensor. A drive's steps have
+// sizes of their own. (A staircase setpoint of ten or more equal steps
+// looks the same and is not reported.)
+const (
+	quantumLevels = 10
+	quantumShare  = 0.5
+	quantumTol    = 1e-6 // relative: decimals read back differ in the last bits
+)
+
 // Stepped is a state column that holds its value exactly from sample to
 // sample except at a few jumps (see [Dataset.SteppedStates]).
 type Stepped struct {
@@ -424,15 +437,18 @@ type Stepped struct {
 // consecutive sample pairs, and they take more than one value. A
 // commanded drive or a setpoint logged as a column does that; a measured
 // state rarely does (its noise moves it), unless its sensor is far
-// coarser than its noise. Fitting such a column as a state gives it an
-// equation of zero and the model a line of equilibria; it belongs among
-// the inputs ([Options.Inputs]). Pairs are counted within runs, so a
-// column that jumps only where a run was split still counts as held.
+// coarser than its noise, and such a sensor, which moves one quantum at a
+// time through ten or more levels, is not reported. Fitting a drive as a
+// state gives it an equation of zero and the model a line of
+// equilibria; it belongs among the inputs ([Options.Inputs]). Pairs are
+// counted within runs, so a column that jumps only where a run was split
+// still counts as held.
 func (ds *Dataset) SteppedStates() []Stepped {
 	const maxLevels = 1000
 	var out []Stepped
 	for j := range ds.States {
 		pairs, held := 0, 0
+		quantum := math.Inf(1) // the smallest change
 		levels := make(map[float64]bool)
 		for i := range ds.Runs {
 			x := ds.Runs[i].X[j]
@@ -442,8 +458,10 @@ func (ds *Dataset) SteppedStates() []Stepped {
 				}
 				if k > 0 {
 					pairs++
-					if v == x[k-1] {
+					if d := math.Abs(v - x[k-1]); d == 0 {
 						held++
+					} else {
+						quantum = min(quantum, d)
 					}
 				}
 			}
@@ -451,9 +469,33 @@ func (ds *Dataset) SteppedStates() []Stepped {
 		if pairs == 0 || len(levels) < 2 {
 			continue
 		}
-		if share := float64(held) / float64(pairs); share >= steppedShare {
-			out = append(out, Stepped{State: j, Held: share, Levels: len(levels)})
+		share := float64(held) / float64(pairs)
+		if share < steppedShare || len(levels) >= quantumLevels && ds.quantumShare(j, quantum) >= quantumShare {
+			continue
 		}
+		out = append(out, Stepped{State: j, Held: share, Levels: len(levels)})
 	}
 	return out
+}
+
+// quantumShare returns the share of state j's changes between
+// consecutive samples that are one quantum q (within quantumTol), 0
+// when it never changes within a run.
+func (ds *Dataset) quantumShare(j int, q float64) float64 {
+	changes, unit := 0, 0
+	for i := range ds.Runs {
+		x := ds.Runs[i].X[j]
+		for k := 1; k < len(x); k++ {
+			if d := math.Abs(x[k] - x[k-1]); d != 0 {
+				changes++
+				if d-q <= quantumTol*q {
+					unit++
+				}
+			}
+		}
+	}
+	if changes == 0 {
+		return 0
+	}
+	return float64(unit) / float64(changes)
 }

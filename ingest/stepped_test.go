@@ -42,6 +42,20 @@ func TestSteppedStates(t *testing.T) {
 	for i := range tt {
 		tt[i] = float64(i)
 	}
+	// 144 samples: enc climbs 0, 0.01, ..., 0.11, one step every 12
+	// samples (11 changes, all of 0.01, read back from decimals); drv
+	// visits 12 levels with steps that grow with the level
+	ramp := make([]float64, 144)
+	xr := make([]float64, 144)
+	enc := make([]float64, 144)
+	drv := make([]float64, 144)
+	for i := range ramp {
+		ramp[i] = float64(i)
+		xr[i] = math.Cos(float64(i) / 7)
+		enc[i] = atof(ftoa(float64(i/12) / 100))
+		lv := float64(i / 12)
+		drv[i] = lv * (lv + 1) / 20
+	}
 	states := []Column{{"x", "m"}, {"u", "V"}, {"half", ""}, {"c", ""}}
 	for _, tc := range []struct {
 		name string
@@ -55,6 +69,12 @@ func TestSteppedStates(t *testing.T) {
 		{"levels only between runs", []Run{{T: tt, X: [][]float64{x, ones, half, ones}}, {T: tt, X: [][]float64{x, twos, half, twos}}},
 			[]Stepped{{State: 1, Held: 1, Levels: 2}, {State: 3, Held: 1, Levels: 2}}},
 		{"one value throughout is not stepped", []Run{{T: tt, X: [][]float64{x, ones, x, ones}}}, nil},
+		// an encoder of step 0.01 on a slow ramp over 12 levels: it holds on
+		// 11 of every 12 pairs (91.7%) but every change is one step
+		{"a coarse sensor is not stepped", []Run{{T: ramp, X: [][]float64{xr, enc, xr, xr}}}, nil},
+		// the same holds and levels, but steps of sizes of their own: a drive
+		{"a drive through as many levels is", []Run{{T: ramp, X: [][]float64{xr, drv, xr, xr}}},
+			[]Stepped{{State: 1, Held: 132.0 / 143, Levels: 12}}},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
 			ds := &Dataset{States: states, Runs: tc.runs}
