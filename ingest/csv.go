@@ -397,6 +397,59 @@ func splitQuoted(l []byte, delim byte, dst [][]byte) ([][]byte, bool) {
 	}
 }
 
+// sniffLines is how many lines after the first data row sniffLater
+// looks through for a column's first cell that is not empty.
+const sniffLines = 4096
+
+// sniffLater drops, as text, each unnamed state column whose cell in the
+// first data row (first) is empty and whose first non-empty cell in the
+// following lines of rest (at most sniffLines) is not a number. Lines
+// that do not split into the header's columns are left to the parser.
+func (lay *csvLayout) sniffLater(first [][]byte, rest []byte, r *roles) {
+	var pending []int
+	for j, c := range first {
+		if lay.role[j] == roleState && !r.isInput(j) && len(trimBlank(c, lay.delim)) == 0 {
+			pending = append(pending, j)
+		}
+	}
+	var cells [][]byte
+	for n := 0; len(pending) > 0 && len(rest) > 0 && n < sniffLines; n++ {
+		nl := bytes.IndexByte(rest, '\n')
+		if nl < 0 {
+			nl = len(rest)
+		}
+		l := trimCR(rest[:nl])
+		rest = rest[min(nl+1, len(rest)):]
+		if isBlankOrComment(l) {
+			continue
+		}
+		if lay.decimalComma {
+			l = bytes.ReplaceAll(l, []byte(","), []byte("."))
+		}
+		var ok bool
+		if cells, ok = splitQuoted(l, lay.delim, cells[:0]); !ok || len(cells) != lay.ncol {
+			continue
+		}
+		keep := pending[:0]
+		for _, j := range pending {
+			c := trimBlank(cells[j], lay.delim)
+			switch {
+			case len(c) == 0:
+				keep = append(keep, j)
+			case !isNumberCell(c):
+				r.dropState(j)
+			}
+		}
+		pending = keep
+	}
+}
+
+// isNumberCell says c parses as a number.
+func isNumberCell(c []byte) bool {
+	_, ok := parseFloat(c)
+	return ok
+}
+
 // sniff looks at the first data row: with no --states, a state column
 // whose cell there is text (not a number, not empty) is ignored; the time
 // column's cell says whether time is in seconds or ISO 8601.
@@ -430,6 +483,12 @@ func (lay *csvLayout) sniff(tb *table, rest []byte, line int, opts *Options) err
 	}
 	r := &roles{role: lay.role, stateOf: lay.stateOf, states: tb.states, stateCol: tb.stateCol, ignored: tb.ignored, nInput: tb.nInput}
 	firstText, textCell := -1, []byte(nil)
+	// A column empty in the first row (a notes column a logger fills now
+	// and then) is judged by its first cell that is not empty, within the
+	// next sniffLines lines of the first block.
+	if opts.States == nil {
+		lay.sniffLater(cells, rest, r)
+	}
 	for j, c := range cells {
 		c = trimBlank(c, lay.delim)
 		switch lay.role[j] {

@@ -264,3 +264,40 @@ func TestReadCSVQuotedNote(t *testing.T) {
 		}
 	}
 }
+
+// TestReadCSVSparseNote: a notes column the logger leaves empty until an
+// operator types something (here at row 2000, with a delimiter inside
+// quotes) is a text column, as it would be had the first row held the
+// note: it is ignored, the states are read whole. Before, the empty first
+// cell made it a state and the note stopped the read ("not a number").
+// A column that stays empty through the look-ahead and a column of
+// numbers that starts empty are still states.
+func TestReadCSVSparseNote(t *testing.T) {
+	var sb strings.Builder
+	sb.WriteString("t,a,note,b,c\n")
+	const n = 3000
+	for i := range n {
+		note, c := "", ""
+		if i == 2000 {
+			note = `"kick, hammer"`
+		}
+		if i >= 10 {
+			c = ftoa(float64(i % 7))
+		}
+		fmt.Fprintf(&sb, "%s,%s,%s,%d,%s\n", ftoa(float64(i)/100), ftoa(math.Sin(float64(i))), note, i%5, c)
+	}
+	ds, err := ReadCSV(strings.NewReader(sb.String()), "sparse.csv", &Options{KeepEvents: true, KeepHead: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	var names []string
+	for _, s := range ds.States {
+		names = append(names, s.Name)
+	}
+	if strings.Join(names, ",") != "a,b,c" || len(ds.Ignored) != 1 || ds.Ignored[0].Name != "note" {
+		t.Fatalf("states %v, ignored %v; want a,b,c and note", names, ds.Ignored)
+	}
+	if ds.Samples() != n-10 {
+		t.Errorf("%d samples, want %d (the rows where c is empty split off as missing)", ds.Samples(), n-10)
+	}
+}
