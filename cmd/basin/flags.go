@@ -88,7 +88,7 @@ type outputFlags struct {
 }
 
 func (f *outputFlags) register(fs *flag.FlagSet) {
-	fs.BoolVar(&f.Quiet, "quiet", false, "no progress or warnings")
+	fs.BoolVar(&f.Quiet, "quiet", false, "no progress or warnings (fit, certify and run then print nothing: their results are the files they write)")
 	fs.BoolVar(&f.JSON, "json", false, "print JSON on stdout instead of a table")
 }
 

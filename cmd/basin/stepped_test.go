@@ -119,3 +119,16 @@ func TestFlagValueErrors(t *testing.T) {
 		})
 	}
 }
+
+// TestQuietHelpTrue: the help of --quiet says that fit, certify and run
+// then print nothing at all, as the manual does (it said only "no
+// progress or warnings", and a user of run --quiet got no summary).
+func TestQuietHelpTrue(t *testing.T) {
+	var stdout, stderr bytes.Buffer
+	if code := basinMainIn(context.Background(), []string{"help", "run"}, &stdout, &stderr, nil); code != 0 {
+		t.Fatalf("help run: exit %d: %s", code, stderr.String())
+	}
+	if !strings.Contains(stdout.String(), "fit, certify and run then print nothing") {
+		t.Errorf("help run does not say what --quiet leaves out:\n%s", stdout.String())
+	}
+}
