@@ -129,15 +129,7 @@ func runCheck(ctx context.Context, e *env, args []string) error {
 	ds, err := loadInputs(ctx, e, &c.inputFlags, c.Quiet, args)
 	var pe *ingest.ParseError
 	if err != nil && fromCert && errors.Is(err, ingest.ErrNoStates) && errors.As(err, &pe) {
-		missing := ""
-		for _, s := range cert.States {
-			if strings.Contains(pe.Err.Error(), fmt.Sprintf("names %q,", s)) { // ingest names the first one missing
-				missing = fmt.Sprintf(" (no column %q)", s)
-				break
-			}
-		}
-		return &inputError{fmt.Errorf("%s: the certificate's states %s are not all columns of this file%s; name the file's columns with --states",
-			printable(pe.File), printable(c.States), printable(missing))}
+		return missingStates(pe, cert.States)
 	}
 	if err != nil {
 		return err
@@ -292,4 +284,19 @@ func worstFile(runs []checkRun, worst *fit.Violation) string {
 		return ""
 	}
 	return " (" + printable(fits[0]) + ")"
+}
+
+// missingStates is the error for a file that lacks some of the
+// certificate's states (read by name, without --states): it names the
+// file and the first state missing.
+func missingStates(pe *ingest.ParseError, states []string) error {
+	missing := ""
+	for _, s := range states {
+		if strings.Contains(pe.Err.Error(), fmt.Sprintf("names %q,", s)) { // ingest names the first one missing
+			missing = fmt.Sprintf(" (no column %q)", s)
+			break
+		}
+	}
+	return &inputError{fmt.Errorf("%s: the certificate's states %s are not all columns of this file%s; name the file's columns with --states",
+		printable(pe.File), printable(strings.Join(states, ",")), printable(missing))}
 }

@@ -232,8 +232,7 @@ func runScreen(ctx context.Context, e *env, args []string) error {
 	var pe *ingest.ParseError
 	if err != nil && c.States == "" && errors.Is(err, ingest.ErrNoStates) && errors.As(err, &pe) {
 		// The states came from the certificate, not from --states.
-		return &inputError{fmt.Errorf("%s: the certificate's states %s are not all columns of this file; name the file's columns with --states",
-			printable(pe.File), printable(strings.Join(cert.States, ",")))}
+		return missingStates(pe, cert.States)
 	}
 	if err != nil {
 		return asInputError(err)

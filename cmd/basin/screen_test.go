@@ -114,7 +114,7 @@ func TestScreenBadInput(t *testing.T) {
 		{"no cert", []string{"screen", good}, "--cert FILE is required"},
 		{"no inputs", []string{"screen", "--cert", cert}, "no INPUTS"},
 		{"bad cell", []string{"screen", "--cert", cert, good, bad}, "bad.csv:3:3"},
-		{"wrong columns", []string{"screen", "--cert", cert, other}, "other.csv"},
+		{"wrong columns", []string{"screen", "--cert", cert, other}, `other.csv: the certificate's states pitch,rate are not all columns of this file (no column "pitch")`},
 		{"missing file", []string{"screen", "--cert", cert, filepath.Join(dir, "nope.csv")}, "nope.csv"},
 		{"bad cert", []string{"screen", "--cert", writeTestCert(t, `{"format": "basin.model/1"}`), good}, "certificate.json"},
 		{"negative tolerance", []string{"screen", "--cert", cert, "--rise-tol", "-1", good}, "--rise-tol"},
