@@ -4,6 +4,7 @@ import (
 	"strings"
 	"testing"
 
+	"basin.example/fit"
 	"basin.example/fit/poly"
 	"basin.example/ingest"
 )
@@ -81,5 +82,22 @@ func TestNoVTable(t *testing.T) {
 	page = renderPage(t, fixture(mustCert(fixtureCertJSON), nil))
 	if !strings.Contains(page, `<table id="v-terms">`) || strings.Contains(page, "No V was found") {
 		t.Error("page with a V lacks its table of terms")
+	}
+}
+
+// TestInconclusiveRegionWords: a certificate whose V and level were found
+// on the fit runs but whose held-out check did not pass draws its level
+// set, and calls it the region checked, never the certified region; a
+// certified one keeps the words.
+func TestInconclusiveRegionWords(t *testing.T) {
+	for _, v := range []fit.Verdict{fit.Inconclusive, fit.Rejected, fit.Certified} {
+		c := mustCert(fixtureCertJSON)
+		c.Verdict = v
+		page := renderPage(t, fixture(c, nil))
+		certified := strings.Contains(page, "boundary of the certified region") || strings.Contains(page, "Trajectories and the certified region")
+		checked := strings.Contains(page, "boundary of the region checked") && strings.Contains(page, "Trajectories and the region checked")
+		if certified != (v == fit.Certified) || checked != (v != fit.Certified) {
+			t.Errorf("%s: says certified region %v, region checked %v", v, certified, checked)
+		}
 	}
 }

@@ -216,7 +216,7 @@ func build(in *Input, pl [2]int) (*pageData, error) {
 			}
 			if closer(cf, f) {
 				d.CloseUp, d.Clipped = cf, cf.clipped
-				d.CloseKeys = planeKeys(cf)
+				d.CloseKeys = planeKeys(cf, c.Verdict == fit.Certified)
 			}
 		}
 		d.PlaneA, d.PlaneB = c.States[pl[0]], c.States[pl[1]]
@@ -236,7 +236,7 @@ func build(in *Input, pl [2]int) (*pageData, error) {
 	}
 	d.VFig = vf
 	if d.Plane != nil {
-		d.Keys = planeKeys(d.Plane)
+		d.Keys = planeKeys(d.Plane, c.Verdict == fit.Certified)
 	}
 	d.VKeys = []keyItem{
 		{Label: "held-out run, not flagged", Colour: hex(inkCalm), Width: 0.9},
@@ -284,15 +284,22 @@ func build(in *Input, pl [2]int) (*pageData, error) {
 }
 
 // planeKeys is the key of a phase-plane figure: the lines, the
-// equilibrium, and one entry per kind of other equilibrium drawn.
-func planeKeys(f *figure) []keyItem {
+// equilibrium, and one entry per kind of other equilibrium drawn. A region
+// drawn for a certificate that is not certified (its V and level were
+// found on the fit runs, the held-out check did not pass) is called what
+// it is: checked, not certified.
+func planeKeys(f *figure, certified bool) []keyItem {
 	keys := []keyItem{
 		{Label: "fit run (used to fit the model and V)", Colour: hex(inkFit), Width: 0.7},
 		{Label: "held-out run (checked, not fitted)", Colour: hex(inkHeldout), Width: 1.3, Dash: "4 2"},
 	}
 	// the region's keys only for what is drawn
 	if len(f.contour) > 0 {
-		keys = append(keys, keyItem{Label: "boundary of the certified region, V = level", Colour: hex(inkRegion), Width: 2.4})
+		label := "boundary of the certified region, V = level"
+		if !certified {
+			label = "boundary of the region checked, V = level (not certified: see the finding)"
+		}
+		keys = append(keys, keyItem{Label: label, Colour: hex(inkRegion), Width: 2.4})
 	}
 	if f.box {
 		keys = append(keys, keyItem{Label: "box bounding the region", Colour: hex(inkBox), Width: 0.8, Dash: "1 2.5"})
