@@ -8,6 +8,7 @@ import (
 	"math/rand/v2"
 	"slices"
 	"sort"
+	"strconv"
 	"strings"
 
 	"basin.example/fit"
@@ -68,6 +69,10 @@ type Options struct {
 	// sum of the folds' shares and stage is the latest fold's. It is
 	// called from Evaluate's goroutine. Nil means no calls.
 	Progress func(stage string, done float64)
+
+	// cutShort names the runs that end where a gap or a one-sample jump
+	// split their recording (set by Evaluate; see cutShortRuns).
+	cutShort map[string]bool
 }
 
 // Weights of the stages of one fold in Evaluate's progress.
@@ -449,7 +454,7 @@ func decide(cert *fit.Certificate, val *fit.Validation, runs []RunScreen, eig []
 	// after entry to tell (two tail windows); at least one must.
 	long, settled := 0, 0
 	for _, r := range runs {
-		if r.EverInside && r.longAfter {
+		if r.EverInside && r.longAfter && !o.cutShort[r.Run] {
 			long++
 			if r.settledEntry {
 				settled++
@@ -559,6 +564,7 @@ func Evaluate(ctx context.Context, ds *ingest.Dataset, opts *Options) (*Result, 
 	}
 	res := &Result{Heldout: make([]bool, len(ds.Runs))}
 	defer o.progress("done", 1)
+	o.cutShort = cutShortRuns(ds)
 	if len(ds.Runs) < MinRuns {
 		o.progress("fitting the field", 0)
 		m, err := fit.Field(ctx, ds, o.Field)
@@ -616,8 +622,13 @@ func Evaluate(ctx context.Context, ds *ingest.Dataset, opts *Options) (*Result, 
 				m = m.AtEquilibrium(k)
 			}
 		}
+		do := &o               // the verdict's options: o, or a copy naming cut-short segments
 		if len(m.Inputs) > 0 { // held-out runs are checked where the inputs rest
+			whole := hoDS
 			hoDS = fit.RestSegments(hoDS, m.RestInput)
+			fo := o
+			fo.cutShort = cutShortSegments(o.cutShort, whole, hoDS)
+			do = &fo
 		}
 		progress("certifying", progressField)
 		cert, err := fit.Certify(ctx, m, fitDS, o.Certify)
@@ -636,7 +647,7 @@ func Evaluate(ctx context.Context, ds *ingest.Dataset, opts *Options) (*Result, 
 		}
 		val.Folds = o.Folds
 		modelChecks(m, hoDS, val, o)
-		Decide(cert, val, runs, eigenvalues(m), &o)
+		Decide(cert, val, runs, eigenvalues(m), do)
 		if cert.Verdict == fit.Certified {
 			if why := centreGrowth(m, hoDS, o.LinearTol); why != "" {
 				cert.Verdict, cert.Strength, cert.ReasonKind, cert.Reason = fit.Inconclusive, fit.NoClaim, fit.ReasonHeldoutRise, why
@@ -883,4 +894,70 @@ func combineFolds(rel *fit.Certificate, certs []*fit.Certificate) {
 		rel.Validation.FoldsAgree = agree
 		rel.Validation.FoldVerdicts = verdicts
 	}
+}
+
+// cutShortRuns names the runs of ds that end where a gap or a one-sample
+// jump (a hit) split their recording: every piece but the last, by the
+// readers' naming (the first piece keeps the recording's name, the n-th
+// after it is name~n, and each piece carries its recording's counts of
+// gap and jump splits). Such a piece stops before it could settle, so
+// settling is not judged on it: a rig hit every few seconds would
+// otherwise never show asymptotic stability. Decrease and invariance are
+// still checked on it.
+func cutShortRuns(ds *ingest.Dataset) map[string]bool {
+	var cut map[string]bool
+	for i := range ds.Runs {
+		r := &ds.Runs[i]
+		splits := r.Gaps + r.Events
+		if splits == 0 {
+			continue
+		}
+		k := 0
+		if j := strings.LastIndexByte(r.Name, '~'); j >= 0 {
+			n, err := strconv.Atoi(r.Name[j+1:])
+			if err != nil || n < 1 {
+				continue // not a reader's piece name
+			}
+			k = n
+		}
+		if k < splits {
+			if cut == nil {
+				cut = map[string]bool{}
+			}
+			cut[r.Name] = true
+		}
+	}
+	return cut
+}
+
+// cutShortSegments returns cut (see cutShortRuns) with the segments of
+// seg (fit.RestSegments of whole: name@t, t where the segment starts)
+// added that end before their run does (the inputs became active) or at
+// the end of a run that is itself cut short. cut itself is not changed.
+func cutShortSegments(cut map[string]bool, whole, seg *ingest.Dataset) map[string]bool {
+	end := make(map[string]float64, len(whole.Runs))
+	for i := range whole.Runs {
+		r := &whole.Runs[i]
+		if n := r.Len(); n > 0 {
+			end[r.Name] = r.T[n-1]
+		}
+	}
+	out := make(map[string]bool, len(cut))
+	for k, v := range cut {
+		out[k] = v
+	}
+	for i := range seg.Runs {
+		s := &seg.Runs[i]
+		j := strings.LastIndexByte(s.Name, '@')
+		n := s.Len()
+		if j < 0 || n == 0 {
+			continue
+		}
+		parent := s.Name[:j]
+		e, ok := end[parent]
+		if ok && (s.T[n-1] < e || cut[parent]) {
+			out[s.Name] = true
+		}
+	}
+	return out
 }

@@ -276,3 +276,36 @@ func TestRegionWordsRounding(t *testing.T) {
 		}
 	}
 }
+
+// TestCutShortRuns: the pieces of a recording split at gaps or jumps are
+// named name, name~1, ..., and each carries the recording's split
+// counts; every piece but the last ends at a split. Rest segments
+// (name@t) end early when their run continues after them.
+func TestCutShortRuns(t *testing.T) {
+	mk := func(name string, gaps, events int, t0, t1 float64) ingest.Run {
+		return ingest.Run{Name: name, Gaps: gaps, Events: events, T: []float64{t0, t1}, X: [][]float64{{0, 0}}}
+	}
+	ds := &ingest.Dataset{Runs: []ingest.Run{
+		mk("a", 0, 0, 0, 10),                                               // whole
+		mk("b", 1, 1, 0, 3), mk("b~1", 1, 1, 3, 6), mk("b~2", 1, 1, 6, 10), // two splits
+		mk("c~x", 1, 0, 0, 1), // not a reader's piece name
+	}}
+	cut := cutShortRuns(ds)
+	for name, want := range map[string]bool{"a": false, "b": true, "b~1": true, "b~2": false, "c~x": false} {
+		if cut[name] != want {
+			t.Errorf("%s: cut short %v, want %v", name, cut[name], want)
+		}
+	}
+	seg := &ingest.Dataset{Runs: []ingest.Run{
+		mk("a@0", 0, 0, 0, 4), mk("a@6", 0, 0, 6, 10), mk("b~2@6", 1, 1, 6, 10), mk("b@0", 1, 1, 0, 3),
+	}}
+	got := cutShortSegments(cut, ds, seg)
+	for name, want := range map[string]bool{"a@0": true, "a@6": false, "b~2@6": false, "b@0": true, "b": true} {
+		if got[name] != want {
+			t.Errorf("segment %s: cut short %v, want %v", name, got[name], want)
+		}
+	}
+	if len(cut) != 2 {
+		t.Errorf("cutShortSegments changed its argument: %v", cut)
+	}
+}
