@@ -487,8 +487,9 @@ type Validation struct {
 
 // Decay is the distribution of V's decay rate over the held-out runs:
 // per run, minus the least-squares slope of log V against time over its
-// samples inside the region and outside the noise ball (package validate
-// computes it).
+// approach, its samples inside the region and outside the noise ball up
+// to its first sample inside the ball (package validate computes it and
+// screen uses the same rule).
 type Decay struct {
 	// Runs counts the held-out runs with a rate; Rates holds them, in
 	// 1/s, in increasing order.

@@ -9,7 +9,8 @@ import (
 )
 
 // DecayMinSamples is the fewest samples inside the region and outside the
-// noise ball that a run needs for a decay rate.
+// noise ball that a run's approach needs for a decay rate; a stretch
+// between noise-ball samples with fewer is skipped (see [Screener]).
 const DecayMinSamples = 10
 
 // Bound on the decay rate: a run is slow when its rate is below

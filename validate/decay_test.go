@@ -189,3 +189,65 @@ func TestScreenSlow(t *testing.T) {
 		}
 	}
 }
+
+// TestScreenSlowLongRest: a healthy run that decays and then rests in
+// noise for hundreds of times its approach is not slow, and its decay
+// rate is the true one; a genuinely slow run, as long, is still slow.
+// The system is a decaying rotation x' = A x, A = [-a ω; -ω -a] (normal,
+// eigenvalues -a ± iω), with V = |x|², so log V falls at exactly 2a
+// [LinearDecay] (from memory); a and ω are the demo mount's (damping
+// ratio 0.15 at 1.51 Hz: a = 0.15·2π·1.51, ω = a·√(1-0.15²)/0.15). The
+// noise, 0.003 per state against a noise radius of 0.01, leaves about
+// 0.4% of the rest's samples outside the ball (e^(-0.01²/(2·0.003²)),
+// a Rayleigh tail): fitted with the approach, those excursions flatten
+// the slope towards 0.
+func TestScreenSlowLongRest(t *testing.T) {
+	const (
+		dt    = 0.005 // 200 Hz
+		m     = 200000
+		sigma = 0.003
+	)
+	zeta, wn := 0.15, 2*math.Pi*1.51
+	rotation := func(a, w float64) *mat.Dense { return mat.NewDense(2, 2, []float64{-a, w, -w, -a}) }
+	healthy := rotation(zeta*wn, wn*math.Sqrt(1-zeta*zeta))
+	c := identityCert(2)
+	// the bound the certificate sets from such runs: half their rate
+	bound := zeta * wn
+	c.Validation = &fit.Validation{Decay: &fit.Decay{Runs: 5, LowerBound: bound}}
+	rng := rand.New(rand.NewPCG(3, 0))
+	long := linearRun(healthy, []float64{0.8, 0}, m, dt, sigma, rng)
+	// at rest (in noise) for 100 s, then kicked: the rest's excursions
+	// before the kick are too short to fit and are dropped
+	kicked := linearRun(healthy, []float64{0, 0}, m, dt, sigma, rng)
+	after := linearRun(healthy, []float64{0.8, 0}, m-20000, dt, sigma, rng)
+	for j := range kicked.X {
+		copy(kicked.X[j][20000:], after.X[j])
+	}
+	slowRun := linearRun(rotation(0.1, wn), []float64{0.8, 0}, m, dt, sigma, rng)
+	for _, tc := range []struct {
+		name string
+		run  *ingest.Run
+		rate float64
+		slow bool
+	}{
+		{"decays, then rests", &long, 2 * zeta * wn, false},
+		{"rests, kicked, rests", &kicked, 2 * zeta * wn, false},
+		{"slow", &slowRun, 0.2, true},
+	} {
+		var got RunScreen
+		NewScreener(c, nil).Screen(&got, "f", tc.run)
+		if got.DecaySamples < DecayMinSamples {
+			t.Fatalf("%s: %d decay samples", tc.name, got.DecaySamples)
+		}
+		// 5%: the noise adds 2σ² to V on average, 18% of V at the ball
+		// (V = 1e-4), raising log V there by at most ln 1.18 = 0.17 of
+		// the approach's span of ln(0.64/1e-4) = 8.8 (2%), plus the
+		// scatter of log V near the ball.
+		if !scalar.EqualWithinAbsOrRel(got.DecayRate, tc.rate, 0, 0.05) {
+			t.Errorf("%s: rate %g over %d samples, want %g within 5%%", tc.name, got.DecayRate, got.DecaySamples, tc.rate)
+		}
+		if hasFlag(&got, FlagSlow) != tc.slow {
+			t.Errorf("%s: flags %+v, want slow %v", tc.name, got.Flags, tc.slow)
+		}
+	}
+}

@@ -43,12 +43,18 @@ const (
 //     Excess the end's mean V minus the settle level. A run that never
 //     enters the region is flagged so too: runs that leave a basin start
 //     outside any sound region.
-//   - slow: the run's decay rate (minus the least-squares slope of log V
-//     against time over its samples inside the region and outside the
-//     noise ball, at least DecayMinSamples of them) is below the
-//     certificate's validation.decay.lower_bound (see [DecayOf]). Excess
-//     is the bound minus the rate, in 1/s. Certificates without the
-//     bound give no slow flag.
+//   - slow: the run's decay rate is below the certificate's
+//     validation.decay.lower_bound (see [DecayOf]). The rate is minus the
+//     least-squares slope of log V against time over the run's approach:
+//     its samples inside the region and outside the noise ball (decay
+//     samples) up to its first sample inside the noise ball, or, when
+//     that stretch holds fewer than DecayMinSamples decay samples (a
+//     noise excursion of a run at rest), over the first stretch between
+//     noise-ball samples that holds enough. Once a run has settled, its
+//     noise's excursions just outside the ball over a long rest would
+//     flatten the slope to nothing; the approach is where V decays.
+//     Excess is the bound minus the rate, in 1/s. Certificates without
+//     the bound give no slow flag.
 //
 // A rises flag's Distance is the smallest move of the worst rise's sample,
 // to first order in the scaled coordinates, that accounts for the excess.
@@ -474,9 +480,12 @@ type runState struct {
 	// last tailMax.
 	head [tailMax]float64
 	tail [tailMax]float64
-	// decay fit: log V against t - t0 over the samples inside the region
-	// and outside the noise ball with V > 0
+	// decay fit: log V against t - t0 over the approach, the first
+	// stretch between samples inside the noise ball that holds at least
+	// DecayMinSamples samples inside the region and outside the noise
+	// ball with V > 0 (decay samples); dDone once that stretch has ended
 	dn                      int
+	dDone                   bool
 	t0, dt, dy, dtt, dty, d float64
 }
 
@@ -531,7 +540,7 @@ func (s *Screener) feed(X [][]float64, T []float64, i0, i1 int) {
 	m := st.m
 	tp := m % tailMax // m's place in the tail ring
 	prevV, prevIn, prevOut, entered := st.prevV, st.prevIn, st.prevOut, st.entered
-	dn, t0, sdt, sdy, sdtt, sdty := st.dn, st.t0, st.dt, st.dy, st.dtt, st.dty
+	dn, dDone, t0, sdt, sdy, sdtt, sdty := st.dn, st.dDone, st.t0, st.dt, st.dy, st.dtt, st.dty
 	pairs, decreased, scen, scenViol := dst.Pairs, dst.Decreased, dst.scen, dst.scenViol
 	lastScen, worst := st.lastScen, dst.worstExcess
 	for k, t := range T {
@@ -549,7 +558,7 @@ func (s *Screener) feed(X [][]float64, T []float64, i0, i1 int) {
 				dst.enter, dst.vEnter = m, v
 			}
 			entered = true
-			if r2 > r2lim && v > 0 {
+			if r2 > r2lim && v > 0 && !dDone {
 				if dn == 0 {
 					t0 = t
 				}
@@ -614,6 +623,16 @@ func (s *Screener) feed(X [][]float64, T []float64, i0, i1 int) {
 				}
 			}
 		}
+		if r2 <= r2lim && !dDone {
+			// A sample inside the noise ball ends a stretch: the approach
+			// when it holds enough decay samples, else a noise excursion
+			// (or a brief pass) that is dropped.
+			if dn >= DecayMinSamples {
+				dDone = true
+			} else {
+				dn, sdt, sdy, sdtt, sdty = 0, 0, 0, 0, 0
+			}
+		}
 		prevV, prevIn, prevOut = v, in, r2 > r2lim
 		m++
 		if tp++; tp == tailMax {
@@ -622,7 +641,7 @@ func (s *Screener) feed(X [][]float64, T []float64, i0, i1 int) {
 	}
 	st.m, st.lastT = m, T[len(T)-1]
 	st.prevV, st.prevIn, st.prevOut, st.entered = prevV, prevIn, prevOut, entered
-	st.dn, st.t0, st.dt, st.dy, st.dtt, st.dty = dn, t0, sdt, sdy, sdtt, sdty
+	st.dn, st.dDone, st.t0, st.dt, st.dy, st.dtt, st.dty = dn, dDone, t0, sdt, sdy, sdtt, sdty
 	dst.Pairs, dst.Decreased, dst.scen, dst.scenViol = pairs, decreased, scen, scenViol
 	st.lastScen, dst.worstExcess = lastScen, worst
 }
@@ -704,7 +723,7 @@ func (s *Screener) End() {
 }
 
 // rate returns the decay rate: minus the least-squares slope of log V
-// against time over the run's decay samples, in 1/s; ok is false with
+// against time over the run's approach (see [Screener]), in 1/s; ok is false with
 // fewer than DecayMinSamples of them or no spread in time.
 func (st *runState) rate() (float64, bool) {
 	if st.dn < DecayMinSamples {

@@ -114,8 +114,9 @@ type RunScreen struct {
 	VStart float64 `json:"v_start"`
 	VEnd   float64 `json:"v_end"`
 	// DecayRate is minus the least-squares slope of log V against time
-	// over the samples inside the region and outside the noise ball, in
-	// 1/s; DecaySamples counts them, and is 0 when there were fewer than
+	// over the run's approach (see [Screener]: the samples inside the
+	// region and outside the noise ball up to the first sample inside the
+	// ball), in 1/s; DecaySamples counts them, and is 0 when there were fewer than
 	// DecayMinSamples (the rate is then 0 and unknown).
 	DecayRate    float64 `json:"decay_rate"`
 	DecaySamples int     `json:"decay_samples"`

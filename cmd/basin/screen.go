@@ -54,8 +54,10 @@ above the level by more than the tolerance, or outside the box by more
 than the noise radius), when it entered the region and does not settle,
 or ends outside the region (unsettled), or when V decays more slowly than
 the certificate's held-out runs allow (slow: the run's decay rate, minus
-the slope of log V against time inside the region and outside the noise
-ball, is below half the slowest held-out run's). Per run it reports each
+the slope of log V against time over its approach, inside the region and
+outside the noise ball up to its first sample inside the ball, is below
+half the slowest held-out run's; a long rest after settling does not
+count). Per run it reports each
 flag with the first time it happened and the worst excess, in units of V;
 rises and leaves also say how far past the boundary, per state in the
 states' units; and the run's decay rate. A run that starts outside and

@@ -172,9 +172,15 @@ func writeSQL(b *strings.Builder, cert *fit.Certificate, opts *Options) error {
 	fmt.Fprintf(b, "f AS (\n  SELECT \"run\", pc, t, v, r2,\n    CASE WHEN %s THEN 1 ELSE 0 END AS inside,\n    CASE WHEN %s THEN 1 ELSE 0 END AS beyond\n  FROM v\n),\n", inside, beyond)
 	r02 := sq(ru.NoiseR2)
 	const win = `PARTITION BY "run", pc ORDER BY t`
+	// The decay rate's samples (q = 1): the decay samples (q0 = 1: inside,
+	// outside the noise ball, V > 0) of the run's approach, the first
+	// stretch between noise-ball samples (seg numbers the stretches: the
+	// noise-ball samples up to each row) that holds at least
+	// DecayMinSamples of them, as the Screener fits.
 	fmt.Fprintf(b, `w AS (
   SELECT "run", pc, t, v, r2, inside, beyond,
-    CASE WHEN inside = 1 AND r2 > %[1]s AND v > 0 THEN 1 ELSE 0 END AS q,
+    CASE WHEN inside = 1 AND r2 > %[1]s AND v > 0 THEN 1 ELSE 0 END AS q0,
+    SUM(CASE WHEN r2 <= %[1]s THEN 1 ELSE 0 END) OVER (%[2]s ROWS BETWEEN UNBOUNDED PRECEDING AND CURRENT ROW) AS seg,
     LAG(v) OVER (%[2]s) AS pv,
     LAG(inside) OVER (%[2]s) AS pin,
     LAG(r2) OVER (%[2]s) AS pr2,
@@ -183,13 +189,28 @@ func writeSQL(b *strings.Builder, cert *fit.Certificate, opts *Options) error {
     COUNT(*) OVER (PARTITION BY "run", pc) AS m
   FROM f
 ),
-d AS (
-  SELECT w."run", w.pc, t, v, r2, inside, beyond, q, pv, pin, pr2, entered, rn, m,
-    MIN(CASE WHEN q = 1 THEN t END) OVER (PARTITION BY w."run", w.pc) AS t0,
-    COALESCE(nt.tol, %[3]s) AS tol
-  FROM w LEFT JOIN nt ON w."run" = nt."run" AND w.pc = nt.pc
+ws AS (
+  SELECT "run", pc, t, v, r2, inside, beyond, q0, seg, pv, pin, pr2, entered, rn, m,
+    SUM(q0) OVER (PARTITION BY "run", pc, seg) AS segq
+  FROM w
 ),
-`, r02, win, sq(ru.Tolerance))
+wa AS (
+  SELECT "run", pc, t, v, r2, inside, beyond, q0, seg, pv, pin, pr2, entered, rn, m,
+    MIN(CASE WHEN segq >= %[4]d THEN seg END) OVER (PARTITION BY "run", pc) AS aseg
+  FROM ws
+),
+wq AS (
+  SELECT "run", pc, t, v, r2, inside, beyond, pv, pin, pr2, entered, rn, m,
+    CASE WHEN q0 = 1 AND seg = aseg THEN 1 ELSE 0 END AS q
+  FROM wa
+),
+d AS (
+  SELECT wq."run", wq.pc, t, v, r2, inside, beyond, q, pv, pin, pr2, entered, rn, m,
+    MIN(CASE WHEN q = 1 THEN t END) OVER (PARTITION BY wq."run", wq.pc) AS t0,
+    COALESCE(nt.tol, %[3]s) AS tol
+  FROM wq LEFT JOIN nt ON wq."run" = nt."run" AND wq.pc = nt.pc
+),
+`, r02, win, sq(ru.Tolerance), ru.DecayMinSamples)
 	// w = min(max(m/share, 1), max): sample rn is in the head when
 	// rn <= w, in the tail when m - rn + 1 <= w, written without division.
 	fmt.Fprintf(b, `r AS (
