@@ -73,6 +73,9 @@ func TestNoVTable(t *testing.T) {
 			t.Errorf("page without a V has %q", bad)
 		}
 	}
+	if !strings.Contains(page, "<h2>Trajectories</h2>") {
+		t.Error("the phase plane's heading names a region it does not draw")
+	}
 	if !strings.Contains(page, "No region is drawn: none was certified.") || strings.Contains(page, "The region is the part of") {
 		t.Error("the phase plane's caption describes a region it does not draw")
 	}
