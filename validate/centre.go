@@ -113,30 +113,15 @@ func centreGrowth(m *fit.Model, ds *ingest.Dataset, tol float64) string {
 			continue
 		}
 		if b, ok := slope(ts, ls); ok {
-			rates = append(rates, b)
+			rates = append(rates, -b) // a decay rate, as trendsUp takes them
 		}
 	}
-	k := len(rates)
-	if k < 3 {
-		return ""
-	}
-	pos, mean := 0, 0.0
-	for _, b := range rates {
-		if b > 0 {
-			pos++
-		}
-		mean += b / float64(k)
-	}
-	ss := 0.0
-	for _, b := range rates {
-		ss += (b - mean) * (b - mean)
-	}
-	se := math.Sqrt(ss / float64(k-1) / float64(k))
-	if 2*pos <= k || !(mean-growthSE*se > 0) {
+	grow, k, mean, se, up := trendsUp(rates)
+	if !up {
 		return ""
 	}
 	return fmt.Sprintf("The fitted linearisation has modes on the imaginary axis (a centre, about %.3g rad/s), and their amplitude grows along %d of the %d held-out runs that tell (|c|² at %.3g ± %.2g 1/s): slow growth a dropped damping term may hide, so no stability is claimed. Record longer runs, or runs with less noise, to tell.",
-		top, pos, k, mean, se)
+		top, grow, k, -mean, se)
 }
 
 // slope returns the least-squares slope of y against t (false when t
