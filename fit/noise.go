@@ -1,16 +1,12 @@
 package fit
 
 import (
-	"math"
-
 	"basin.example/ingest"
 )
 
 // runNoiseCap bounds the fourth differences one run's estimate uses
-// (evenly strided): the median of 4,096 is within about 2% of the whole
-// run's (the relative standard error of a median-based σ is about
-// 1.17/√N for Gaussian noise, common practice).
-const runNoiseCap = 4096
+// (evenly strided; see [ingest.NoiseDiffs]).
+const runNoiseCap = ingest.NoiseDiffs
 
 // RunNoiseSamples is the most fourth differences [RunNoise] uses per
 // state: every stride-th from the first, stride = max(1, (m-4)/4096) for
@@ -52,16 +48,9 @@ func (e *NoiseEstimator) RunTo(dst []float64, run *ingest.Run) []float64 {
 }
 
 func (e *NoiseEstimator) state(x []float64) float64 {
-	total := len(x) - 4
-	if total <= 0 {
-		return 0
-	}
-	stride := max(1, total/runNoiseCap)
-	d := e.buf[:0]
-	for i := 0; i+4 < len(x) && len(d) < cap(d); i += stride {
-		d = append(d, math.Abs(x[i]-4*x[i+1]+6*x[i+2]-4*x[i+3]+x[i+4]))
-	}
-	return 1.4826 * medianSelect(d) / math.Sqrt(70)
+	var sd float64
+	sd, e.buf = ingest.FourthDiffNoise(e.buf, x)
+	return sd
 }
 
 // noiseUpper is the quantile of the per-run noise estimates that

@@ -509,25 +509,10 @@ func (sc *settleScratch) rests(t, x []float64, k int, span float64) bool {
 	return math.Abs(d2*r/(1-r)) <= SettleSpread*span
 }
 
-// noise estimates the standard deviation of white noise on x from its
-// fourth differences: 1.4826 median|Δ⁴x| / √70 (white noise gives Δ⁴ a
-// variance of 70σ², C(8,4)), over at most noiseDiffs differences evenly
-// strided. Fewer than five samples give 0.
+// noise estimates the standard deviation of white noise on x
+// ([FourthDiffNoise]).
 func (sc *settleScratch) noise(x []float64) float64 {
-	total := len(x) - 4
-	if total <= 0 {
-		return 0
-	}
-	stride := max(1, total/noiseDiffs)
-	sc.buf = sc.buf[:0]
-	for i := 0; i+4 < len(x) && len(sc.buf) <= noiseDiffs; i += stride {
-		sc.buf = append(sc.buf, math.Abs(x[i]-4*x[i+1]+6*x[i+2]-4*x[i+3]+x[i+4]))
-	}
-	return madGauss * median(sc.buf) / math.Sqrt(70)
+	var sd float64
+	sd, sc.buf = FourthDiffNoise(sc.buf, x)
+	return sd
 }
-
-// noiseDiffs bounds the fourth differences a noise estimate uses: the
-// median of 4,096 is within about 2% of the whole run's (the relative
-// standard error of a median-based σ is about 1.17/√N for Gaussian
-// noise, common practice).
-const noiseDiffs = 4096

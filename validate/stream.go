@@ -246,7 +246,7 @@ func (s *Screener) tolFor(v []float64) float64 {
 // max(1, (m-4)/runNoiseCap), over sqrt(70) (the fourth difference of
 // white noise has variance 70 sigma^2). TestStreamNoise keeps the two
 // equal.
-const runNoiseCap = 4096
+const runNoiseCap = ingest.NoiseDiffs
 
 // noiseStride is the stride of the noise estimate of a run of m samples.
 func noiseStride(m int) int { return max(1, (m-4)/runNoiseCap) }
