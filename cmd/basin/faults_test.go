@@ -217,23 +217,42 @@ func TestInterrupt(t *testing.T) {
 	for range 200 {
 		many = append(many, data) // 6,000 files: far more than 0.5 s of work
 	}
+	// How long an uninterrupted run takes here, from its first open of a
+	// log file to its exit: the run cases interrupt at a share of it, so
+	// they land in the fit and in a later fold on a quiet machine as on
+	// a loaded one (fixed delays finished before the interrupt once the
+	// run got faster).
+	full := func() time.Duration {
+		cmd := exec.Command(bin, "run", "--all-folds", "--out", filepath.Join(dir, "out-full"), data)
+		if err := cmd.Start(); err != nil {
+			t.Fatal(err)
+		}
+		waitOpens(cmd.Process.Pid, data, 10*time.Second)
+		start := time.Now()
+		if err := cmd.Wait(); err != nil {
+			t.Fatalf("uninterrupted run: %v", err)
+		}
+		return time.Since(start)
+	}()
+	t.Logf("uninterrupted run: %v", full.Round(time.Millisecond))
 	for _, tc := range []struct {
 		name  string
 		args  []string
 		stdin bool // a pipe that stays open and silent
 		after time.Duration
+		// share, when not 0, sets after to that share of full.
+		share float64
 		// limit bounds the time from SIGINT to exit: a context check
 		// per run, fold or file answers in well under a second; a read
 		// that no context reaches waits out main's interruptGrace.
 		limit time.Duration
 	}{
-		// Uninterrupted, this run takes about 3 s (0.8 s without
-		// --all-folds), 6,000 files of screening about 3 s: the
-		// interrupts land in the fit, in a later fold and mid-screening.
-		{"run early", []string{"run", "--all-folds", "--out", filepath.Join(dir, "out-early"), data}, false, 300 * time.Millisecond, 2 * time.Second},
-		{"run later", []string{"run", "--all-folds", "--out", filepath.Join(dir, "out-later"), data}, false, 1500 * time.Millisecond, 2 * time.Second},
-		{"screen", many, false, 500 * time.Millisecond, 2 * time.Second},
-		{"screen stdin", []string{"screen", "--cert", cert, "-"}, true, 500 * time.Millisecond, interruptGrace + 2*time.Second},
+		// 6,000 files of screening take about 3 s: the interrupts land
+		// in the fit, in a later fold and mid-screening.
+		{"run early", []string{"run", "--all-folds", "--out", filepath.Join(dir, "out-early"), data}, false, 0, 0.1, 2 * time.Second},
+		{"run later", []string{"run", "--all-folds", "--out", filepath.Join(dir, "out-later"), data}, false, 0, 0.6, 2 * time.Second},
+		{"screen", many, false, 500 * time.Millisecond, 0, 2 * time.Second},
+		{"screen stdin", []string{"screen", "--cert", cert, "-"}, true, 500 * time.Millisecond, 0, interruptGrace + 2*time.Second},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
 			cmd := exec.Command(bin, tc.args...)
@@ -254,6 +273,10 @@ func TestInterrupt(t *testing.T) {
 			}
 			exited := make(chan error, 1)
 			go func() { exited <- cmd.Wait() }()
+			after := tc.after
+			if tc.share > 0 {
+				after = time.Duration(tc.share * float64(full))
+			}
 			if !tc.stdin {
 				// Count tc.after from the first log file opened, not
 				// from the start: on a loaded machine (and under -race)
@@ -264,7 +287,7 @@ func TestInterrupt(t *testing.T) {
 			select {
 			case err := <-exited:
 				t.Fatalf("finished before the interrupt (%v): the data set is too small; stderr %s", err, e.String())
-			case <-time.After(tc.after):
+			case <-time.After(after):
 			}
 			sent := time.Now()
 			cmd.Process.Signal(os.Interrupt)
