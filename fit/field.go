@@ -859,20 +859,16 @@ func equilibria(m *Model, runs []*ingest.Run) {
 		k := max(3, int(math.Ceil(settleShare*float64(L))))
 		k = min(k, L)
 		med := make([]float64, n)
-		still := true
 		for j := 0; j < n; j++ {
 			seg := append([]float64(nil), r.X[j][L-k:]...)
 			sort.Float64s(seg)
 			med[j] = seg[len(seg)/2]
-			// Settled: the tail moves less than a tenth of the state's
-			// spread beyond what the noise explains (4 sigma either way).
-			if seg[len(seg)-1]-seg[0] > 0.1*m.Spread[j]+8*m.Noise[j] {
-				still = false
-			}
 		}
 		tails = append(tails, med)
-		if still {
-			settled = append(settled, med)
+		// Settled by ingest's rule, the one inspect counts by: judged
+		// against the run's noise, not a share of the spread.
+		if ok, pt := ingest.Settles(r); ok {
+			settled = append(settled, pt)
 		}
 	}
 	m.SettledRuns = len(settled)

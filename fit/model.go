@@ -215,7 +215,8 @@ type Model struct {
 	// mean over equations of Equation.HeldoutError.
 	HeldoutError float64 `json:"heldout_error"`
 	// Settle is where the runs settle (median over settled runs of the
-	// median of their last 5%), SettledRuns how many did.
+	// median of their last 5%), SettledRuns how many did, by the settle
+	// rule inspect reports (ingest.Settles).
 	Settle      []float64 `json:"settle,omitempty"`
 	SettledRuns int       `json:"settled_runs"`
 	// Note says what to be careful about, e.g. "no equilibrium found".

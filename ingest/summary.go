@@ -214,6 +214,21 @@ func rateJitter(dt []float64) (rate, jitter float64) {
 	return 1 / med, (order.Quantile(dt, 0.75) - order.Quantile(dt, 0.25)) / med
 }
 
+// Settles judges whether run r comes to rest, by the rule
+// RunSummary.Settled describes, and returns its settle point (per state,
+// the median over the last TailFraction) when it does. Summarise and the
+// fitted model's count of settled runs use this one rule.
+func Settles(r *Run) (bool, []float64) {
+	if r.Len() == 0 {
+		return false, nil
+	}
+	lo, hi := make([]float64, len(r.X)), make([]float64, len(r.X))
+	for j, x := range r.X {
+		lo[j], hi[j] = minMax(x)
+	}
+	return settle(r, lo, hi)
+}
+
 // settle judges whether run r, whose states range over [lo, hi], comes
 // to rest (see settleScratch.rests) and returns its settle point when it does.
 func settle(r *Run, lo, hi []float64) (bool, []float64) {
