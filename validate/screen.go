@@ -42,7 +42,18 @@ const (
 //     first by more than the tolerance). Time is the run's last time,
 //     Excess the end's mean V minus the settle level. A run that never
 //     enters the region is flagged so too: runs that leave a basin start
-//     outside any sound region.
+//     outside any sound region. The settle level is scaled by the square
+//     of the run's noise ratio (tolerance over the certificate's), and a
+//     run still on its way must also end below every earlier chunk of
+//     tailMax samples (counted from the first, ending before the last
+//     samples) by more than that level: a run at rest off the
+//     equilibrium is flagged. A piece with no such chunk whose two ends
+//     lie within the tolerance is not.
+//   - rises also when, after entering, the end's mean V exceeds the
+//     least earlier chunk's by more than the tolerance (a slow growth).
+//   - stuck: a state whose certificate noise is positive held one
+//     reading over the run's last tailMax samples or more; State names
+//     it, Time is where the value began to hold, Excess how long (s).
 //   - slow: the run's decay rate is below the certificate's
 //     validation.decay.lower_bound (see [DecayOf]). The rate is minus the
 //     least-squares slope of log V against time over the run's approach:
@@ -487,6 +498,16 @@ type runState struct {
 	dn                      int
 	dDone                   bool
 	t0, dt, dy, dtt, dty, d float64
+	// chunks: csum sums V over the current chunk of tailMax samples
+	// (chunks aligned at the run's first sample); lowBefore is the least
+	// mean V of the full chunks before the last one, lastChunk the last
+	// full chunk's (+Inf: none)
+	csum, lowBefore, lastChunk float64
+	// stuck: per state, the index and time from which its reading has
+	// held the value stuckVal (see [Screener.stuckScan])
+	stuckFrom []int
+	stuckT    []float64
+	stuckVal  []float64
 }
 
 // Begin starts screening a run named run of file into dst, reusing
@@ -498,12 +519,16 @@ func (s *Screener) Begin(dst *RunScreen, file, run string) {
 	*dst = RunScreen{File: file, Run: run, Flags: flags, enter: -1}
 	dst.worstExcess = math.Inf(-1)
 	st := &s.st
-	lx := st.leaveX
-	*st = runState{dst: dst, leaveX: lx, lastScen: math.Inf(-1),
+	lx, sf, stt, sv := st.leaveX, st.stuckFrom, st.stuckT, st.stuckVal
+	*st = runState{dst: dst, leaveX: lx, stuckFrom: sf, stuckT: stt, stuckVal: sv, lastScen: math.Inf(-1),
+		lowBefore: math.Inf(1), lastChunk: math.Inf(1),
 		rise:  Flag{Kind: FlagRises, Time: math.NaN(), Excess: math.Inf(-1)},
 		leave: Flag{Kind: FlagLeaves, Time: math.NaN(), Excess: math.Inf(-1)}, leaveWrst: math.Inf(-1)}
 	if len(st.leaveX) != s.n {
 		st.leaveX = make([]float64, s.n)
+	}
+	if len(st.stuckFrom) != s.n {
+		st.stuckFrom, st.stuckT, st.stuckVal = make([]int, s.n), make([]float64, s.n), make([]float64, s.n)
 	}
 }
 
@@ -543,6 +568,8 @@ func (s *Screener) feed(X [][]float64, T []float64, i0, i1 int) {
 	dn, dDone, t0, sdt, sdy, sdtt, sdty := st.dn, st.dDone, st.t0, st.dt, st.dy, st.dtt, st.dty
 	pairs, decreased, scen, scenViol := dst.Pairs, dst.Decreased, dst.scen, dst.scenViol
 	lastScen, worst := st.lastScen, dst.worstExcess
+	csum := st.csum
+	s.stuckScan(X, T, i0, i1)
 	for k, t := range T {
 		v, r2, inBox := vb[k], rb[k], !ob[k]
 		in := inBox && v <= level // NaN V is outside
@@ -635,15 +662,49 @@ func (s *Screener) feed(X [][]float64, T []float64, i0, i1 int) {
 		}
 		prevV, prevIn, prevOut = v, in, r2 > r2lim
 		m++
+		csum += v
 		if tp++; tp == tailMax {
 			tp = 0
+			if st.lastChunk < st.lowBefore { // false for NaN, and for +Inf (none yet)
+				st.lowBefore = st.lastChunk
+			}
+			st.lastChunk, csum = csum/tailMax, 0
+			if !(st.lastChunk <= math.MaxFloat64) { // NaN or +Inf: no level known
+				st.lastChunk = math.Inf(1)
+			}
 		}
 	}
-	st.m, st.lastT = m, T[len(T)-1]
+	st.m, st.lastT, st.csum = m, T[len(T)-1], csum
 	st.prevV, st.prevIn, st.prevOut, st.entered = prevV, prevIn, prevOut, entered
 	st.dn, st.dDone, st.t0, st.dt, st.dy, st.dtt, st.dty = dn, dDone, t0, sdt, sdy, sdtt, sdty
 	dst.Pairs, dst.Decreased, dst.scen, dst.scenViol = pairs, decreased, scen, scenViol
 	st.lastScen, dst.worstExcess = lastScen, worst
+}
+
+// stuckScan updates, per state, where the run's trailing stretch of one
+// repeated reading began, from samples i0..i1-1 (T holds their times,
+// from i0). It scans each block's column back from its end to the first
+// change: one comparison a block for a moving reading.
+func (s *Screener) stuckScan(X [][]float64, T []float64, i0, i1 int) {
+	st := &s.st
+	for j := range st.stuckFrom {
+		xs := X[j][i0:i1]
+		last := xs[len(xs)-1]
+		k := len(xs) - 1
+		for k > 0 && xs[k-1] == last {
+			k--
+		}
+		if k > 0 || st.m == 0 || st.stuckVal[j] != last {
+			st.stuckFrom[j], st.stuckT[j] = st.m+k, T[k]
+		}
+		st.stuckVal[j] = last
+	}
+}
+
+// stuckOn says state j can be found stuck: the certificate records a
+// positive noise for it (its sensor's readings moved on the fit runs).
+func (s *Screener) stuckOn(j int) bool {
+	return len(s.cert.Noise) == s.n && s.cert.Noise[j] > 0
 }
 
 // leaveMeasure orders leaving samples: by V's excess e, then by how far
@@ -687,7 +748,43 @@ func (s *Screener) End() {
 	head := headSum / float64(w)
 	tail := tailSum / float64(w)
 	dst.VStart, dst.VEnd = clampFinite(head), clampFinite(tail)
-	dst.Settled = tail <= s.settle || tail < head-tol
+	// The settle level follows the run's noise: V is quadratic to lowest
+	// order at the equilibrium, so the noise ball's V scales with the
+	// square of the ratio that widened the tolerance.
+	settle := s.settle
+	if tol > s.baseTol && settle > 0 {
+		rho := tol / s.baseTol
+		settle = settle * rho * rho
+	}
+	// lowPre: the least mean V over the full chunks of tailMax samples
+	// that end before the tail window (+Inf: none).
+	lowPre := st.lowBefore
+	if tailMax*(m/tailMax) <= m-w && st.lastChunk < lowPre {
+		lowPre = st.lastChunk
+	}
+	hasPre := lowPre <= math.MaxFloat64
+	// Still on its way (a run cut short): its end is below its start by
+	// more than the tolerance and below every earlier chunk by more than
+	// the noise ball's V (a run at rest off the equilibrium is not: its
+	// end is as low as its chunks before). A piece too short to hold a
+	// chunk before its tail whose both ends lie within the tolerance has
+	// not shown anything but rest.
+	approaching := tail < head-tol && (!hasPre || tail < lowPre-settle)
+	quiet := !hasPre && head <= tol && tail <= tol
+	dst.Settled = tail <= settle || approaching || quiet
+	// V grew over the run: its end above its lowest chunk by more than
+	// the tolerance (a slow growth no pair's rise shows).
+	if st.entered && hasPre && tail-lowPre > tol {
+		d := clampFinite(tail - lowPre - tol)
+		if !st.hasRise {
+			st.rise.Time = st.lastT
+			st.hasRise = true
+			for j := range s.worstX {
+				s.worstX[j] = st.stuckVal[j] // the last sample
+			}
+		}
+		st.rise.Excess = max(st.rise.Excess, d)
+	}
 	dst.DecaySamples = st.dn
 	if rate, ok := st.rate(); ok {
 		dst.DecayRate = rate
@@ -717,6 +814,12 @@ func (s *Screener) End() {
 	}
 	if s.slowBound > 0 && dst.DecaySamples > 0 && dst.DecayRate < s.slowBound {
 		dst.Flags = append(dst.Flags, Flag{Kind: FlagSlow, Time: st.lastT, Excess: s.slowBound - dst.DecayRate})
+	}
+	for j, from := range st.stuckFrom {
+		if s.stuckOn(j) && m-from >= tailMax {
+			dst.Flags = append(dst.Flags, Flag{Kind: FlagStuck, Time: st.stuckT[j], Excess: clampFinite(st.lastT - st.stuckT[j]), State: s.cert.States[j]})
+			break
+		}
 	}
 	dst.Flagged = len(dst.Flags) > 0
 	st.dst = nil
@@ -874,6 +977,9 @@ type Rules struct {
 	// TailMax and TailShare fix the samples w averaged at each end of a
 	// run of m samples: w = min(max(m/TailShare, 1), TailMax).
 	TailMax, TailShare int
+	// Stuck says, per state, that its reading can be found stuck: one
+	// value over the run's last TailMax samples or more.
+	Stuck []bool
 	// NoiseRef, when not nil, is the certificate's noise per state: a run
 	// of at least 5 samples whose own noise ([fit.RunNoise]) exceeds it
 	// has Tolerance (and LeaveLevel's share of it) multiplied by the
@@ -891,6 +997,10 @@ func (s *Screener) Rules() Rules {
 		SlowBound: s.slowBound, DecayMinSamples: DecayMinSamples, TailMax: tailMax, TailShare: tailShare}
 	if s.noise.on {
 		r.NoiseRef = c(s.noise.ref)
+	}
+	r.Stuck = make([]bool, s.n)
+	for j := range r.Stuck {
+		r.Stuck[j] = s.stuckOn(j)
 	}
 	return r
 }

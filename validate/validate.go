@@ -78,6 +78,7 @@ const (
 	FlagLeaves    = "leaves"    // the run left the region after entering it
 	FlagUnsettled = "unsettled" // the run did not settle
 	FlagSlow      = "slow"      // V decayed slower than the held-out runs allow
+	FlagStuck     = "stuck"     // a state's reading held one value over the run's end
 )
 
 // Flag is one finding on a run.
@@ -90,6 +91,9 @@ type Flag struct {
 	// region's boundary, for rises the smallest move of the worst
 	// sample that accounts for the rise (see [Screener]).
 	Distance []float64 `json:"distance,omitempty"`
+	// State names, for stuck, the state whose reading held one value
+	// (the first in the certificate's order when several did).
+	State string `json:"state,omitempty"`
 }
 
 // RunScreen is the result of screening one run.

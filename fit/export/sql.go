@@ -30,8 +30,8 @@ var tableName = regexp.MustCompile(`^[A-Za-z_][A-Za-z0-9_]*(\.[A-Za-z_][A-Za-z0-
 // run, t and one DOUBLE PRECISION column per state named as in the
 // certificate; the query returns one row per run, ordered by run, with
 // columns run, flagged, rises, leaves, unsettled and, when the
-// certificate records held-out decay rates, slow (booleans; 1 and 0 in
-// engines without a boolean type). Every identifier is written as a
+// certificate records held-out decay rates, slow, and stuck (booleans; 1
+// and 0 in engines without a boolean type). Every identifier is written as a
 // quoted (delimited) identifier, so names are matched exactly, case
 // included. A row with a missing state (NULL, or NaN where the engine
 // has one) splits its run there, as basin's ingest does, and the run's
@@ -72,7 +72,7 @@ func writeSQL(b *strings.Builder, cert *fit.Certificate, opts *Options) error {
 		b.WriteString(strings.TrimRight("-- "+l, " ") + "\n")
 	}
 	b.WriteString(`--
--- One row per run: run, flagged, rises, leaves, unsettled` + map[bool]string{true: ", slow", false: ""}[ru.SlowBound > 0] + `,
+-- One row per run: run, flagged, rises, leaves, unsettled` + map[bool]string{true: ", slow", false: ""}[ru.SlowBound > 0] + `, stuck,
 -- by the rules of basin screen with the certificate's tolerances. The
 -- table has columns "run", "t" (seconds, increasing within a run) and one
 -- DOUBLE PRECISION column per state, named as in the certificate. A row
@@ -211,6 +211,36 @@ d AS (
   FROM wq LEFT JOIN nt ON wq."run" = nt."run" AND wq.pc = nt.pc
 ),
 `, r02, win, sq(ru.Tolerance), ru.DecayMinSamples)
+	// Chunks of TailMax samples from each piece's first (c), their mean V
+	// and the least of those that end before the tail window (lowpre);
+	// and, per state, the row from which its reading held one value (a
+	// change is a row whose value differs from the row before).
+	win2 := `PARTITION BY "run", pc ORDER BY t`
+	fmt.Fprintf(b, `ck AS (
+  SELECT "run", pc, CAST(FLOOR((rn - 1) / %[1]d.0) AS INTEGER) AS c, COUNT(*) AS cn, AVG(v) AS cv, MAX(m) AS m
+  FROM d
+  GROUP BY "run", pc, CAST(FLOOR((rn - 1) / %[1]d.0) AS INTEGER)
+),
+lp AS (
+  SELECT "run", pc,
+    MIN(CASE WHEN cn = %[1]d AND %[1]d * (c + 1) <= m - (CASE WHEN m >= %[1]d * %[2]d THEN %[1]d WHEN m < %[2]d THEN 1 ELSE CAST(FLOOR(m / %[2]d.0) AS INTEGER) END) THEN cv END) AS lowpre
+  FROM ck
+  GROUP BY "run", pc
+),
+sk AS (
+  SELECT "run", pc, ROW_NUMBER() OVER (%[3]s) AS rn, COUNT(*) OVER (PARTITION BY "run", pc) AS m`, ru.TailMax, ru.TailShare, win2)
+	var stuck []string
+	for j := 0; j < n; j++ {
+		fmt.Fprintf(b, ",\n    CASE WHEN x%[1]d = LAG(x%[1]d) OVER (%[2]s) THEN 0 ELSE 1 END AS c%[1]d", j, win2)
+		if !ru.Stuck[j] {
+			continue
+		}
+		stuck = append(stuck, fmt.Sprintf("MAX(CASE WHEN c%d = 1 THEN rn END) <= MAX(m) - %d", j, ru.TailMax-1))
+	}
+	if len(stuck) == 0 {
+		stuck = []string{"1 = 0"}
+	}
+	fmt.Fprintf(b, "\n  FROM x\n),\nsu AS (\n  SELECT \"run\", pc, CASE WHEN %s THEN 1 ELSE 0 END AS stuck\n  FROM sk\n  GROUP BY \"run\", pc\n),\n", strings.Join(stuck, " OR "))
 	// w = min(max(m/share, 1), max): sample rn is in the head when
 	// rn <= w, in the tail when m - rn + 1 <= w, written without division.
 	fmt.Fprintf(b, `r AS (
@@ -219,6 +249,7 @@ d AS (
     MAX(CASE WHEN inside = 1 AND pin = 1 AND pr2 > %[1]s AND v - pv - tol > 0 THEN 1 ELSE 0 END) AS rises,
     MAX(CASE WHEN inside = 0 AND entered = 1 AND (beyond = 1 OR %[2]s) THEN 1 ELSE 0 END) AS leaves,
     MAX(CASE WHEN rn = m THEN inside ELSE 0 END) AS last_inside,
+    MAX(inside) AS ever_inside,
     AVG(CASE WHEN rn <= %[3]d AND (%[4]d * rn <= m OR rn = 1) THEN v END) AS head,
     AVG(CASE WHEN m - rn < %[3]d AND (%[4]d * (m - rn + 1) <= m OR rn = m) THEN v END) AS tail,
     SUM(q) AS dn,
@@ -229,10 +260,18 @@ d AS (
   FROM d
   GROUP BY "run", pc
 ),
+rl AS (
+  SELECT r.*, lp.lowpre, su.stuck, %[5]s AS sl
+  FROM r JOIN lp ON r."run" = lp."run" AND r.pc = lp.pc JOIN su ON r."run" = su."run" AND r.pc = su.pc
+),
 k AS (
-  SELECT "run", pc, rises, leaves,
-    CASE WHEN last_inside = 1 AND (tail <= %[5]s OR tail < head - tol) THEN 0 ELSE 1 END AS unsettled,
-`, r02, leaveV, ru.TailMax, ru.TailShare, sq(ru.Settle))
+  SELECT "run", pc,
+    CASE WHEN rises = 1 OR (ever_inside = 1 AND tail - lowpre > tol) THEN 1 ELSE 0 END AS rises,
+    leaves, stuck,
+    CASE WHEN last_inside = 1 AND (tail <= sl
+      OR (tail < head - tol AND (lowpre IS NULL OR tail < lowpre - sl))
+      OR (lowpre IS NULL AND head <= tol AND tail <= tol)) THEN 0 ELSE 1 END AS unsettled,
+`, r02, leaveV, ru.TailMax, ru.TailShare, settleSQL(&ru))
 	if ru.SlowBound > 0 {
 		fmt.Fprintf(b, `    CASE WHEN dn >= %d AND dn * stt - st * st > 0
       AND -(dn * sty - st * sy) / (dn * stt - st * st) < %s THEN 1 ELSE 0 END AS slow
@@ -242,16 +281,17 @@ k AS (
 	}
 	// one row per run: a run split at missing samples is flagged when
 	// any of its pieces is, with each flag any piece has
-	b.WriteString("  FROM r\n)\nSELECT \"run\",\n")
+	b.WriteString("  FROM rl\n)\nSELECT \"run\",\n")
 	if ru.SlowBound > 0 {
-		b.WriteString("  (MAX(rises) = 1 OR MAX(leaves) = 1 OR MAX(unsettled) = 1 OR MAX(slow) = 1) AS flagged,\n")
+		b.WriteString("  (MAX(rises) = 1 OR MAX(leaves) = 1 OR MAX(unsettled) = 1 OR MAX(slow) = 1 OR MAX(stuck) = 1) AS flagged,\n")
 	} else {
-		b.WriteString("  (MAX(rises) = 1 OR MAX(leaves) = 1 OR MAX(unsettled) = 1) AS flagged,\n")
+		b.WriteString("  (MAX(rises) = 1 OR MAX(leaves) = 1 OR MAX(unsettled) = 1 OR MAX(stuck) = 1) AS flagged,\n")
 	}
 	b.WriteString("  (MAX(rises) = 1) AS rises,\n  (MAX(leaves) = 1) AS leaves,\n  (MAX(unsettled) = 1) AS unsettled")
 	if ru.SlowBound > 0 {
 		b.WriteString(",\n  (MAX(slow) = 1) AS slow")
 	}
+	b.WriteString(",\n  (MAX(stuck) = 1) AS stuck")
 	b.WriteString("\nFROM k\nGROUP BY \"run\"\nORDER BY \"run\";\n")
 	return nil
 }
@@ -305,6 +345,17 @@ func writeSQLNoise(b *strings.Builder, ru *validate.Rules) {
 	u = append(u, "SELECT \"run\", pc, CAST(1 AS DOUBLE PRECISION) AS r FROM n4")
 	fmt.Fprintf(b, "nt AS (\n  SELECT \"run\", pc, %s * MAX(r) AS tol\n  FROM (\n    %s\n  ) AS nr\n  GROUP BY \"run\", pc\n),\n",
 		sqlNum(ru.Tolerance), strings.Join(u, "\n    UNION ALL "))
+}
+
+// settleSQL is the settle level of a run with tolerance tol: the
+// certificate's, scaled by the square of the run's noise ratio
+// tol/Tolerance when that exceeds 1, as the Screener's End does.
+func settleSQL(ru *validate.Rules) string {
+	if !(ru.Settle > 0) {
+		return sqlNum(ru.Settle)
+	}
+	base := sqlNum(ru.Tolerance)
+	return fmt.Sprintf("CASE WHEN tol > %[1]s THEN %[2]s * (tol / %[1]s) * (tol / %[1]s) ELSE %[2]s END", base, sqlNum(ru.Settle))
 }
 
 // sqlV writes V(z) in the order of operations of the Screener's kernel.

@@ -120,6 +120,31 @@ func sqlRuns(c *fit.Certificate) []ingest.Run {
 		}
 		runs = append(runs, r)
 	}
+	// faults the per-pair test misses: a run that rests off the
+	// equilibrium (its end is outside the noise ball but as low as its
+	// chunks before: unsettled), one whose V grows slowly after it has
+	// decayed (rises over the run, not between pairs), and one whose
+	// first state's reading sticks at one value (stuck)
+	for _, f := range []string{"off-rest", "grows-late", "stuck"} {
+		src := runs[0]
+		r := ingest.Run{Name: f, T: src.T, X: make([][]float64, n)}
+		for j := range r.X {
+			r.X[j] = append([]float64(nil), src.X[j]...)
+		}
+		for i, t := range r.T {
+			switch f {
+			case "off-rest":
+				r.X[0][i] += c.Scale[0] * 0.25 * (1 - math.Exp(-2*t))
+			case "grows-late":
+				r.X[0][i] += c.Scale[0] * 0.004 * math.Exp(0.5*t) * math.Cos(3*t)
+			case "stuck":
+				if i >= 500 {
+					r.X[0][i] = r.X[0][500]
+				}
+			}
+		}
+		runs = append(runs, r)
+	}
 	return runs
 }
 
@@ -164,7 +189,7 @@ func byRun(f map[string]flagRow) map[string]flagRow {
 			name = name[:i]
 		}
 		o := out[name]
-		out[name] = flagRow{o.flagged || r.flagged, o.rises || r.rises, o.leaves || r.leaves, o.unsettled || r.unsettled, o.slow || r.slow}
+		out[name] = flagRow{o.flagged || r.flagged, o.rises || r.rises, o.leaves || r.leaves, o.unsettled || r.unsettled, o.slow || r.slow, o.stuck || r.stuck}
 	}
 	return out
 }
@@ -179,11 +204,11 @@ func sqlValue(x float64) any {
 
 // flagRow is one run's flags, as screen gives them or a query returns.
 type flagRow struct {
-	flagged, rises, leaves, unsettled, slow bool
+	flagged, rises, leaves, unsettled, slow, stuck bool
 }
 
 func (f flagRow) String() string {
-	return fmt.Sprintf("flagged %v rises %v leaves %v unsettled %v slow %v", f.flagged, f.rises, f.leaves, f.unsettled, f.slow)
+	return fmt.Sprintf("flagged %v rises %v leaves %v unsettled %v slow %v stuck %v", f.flagged, f.rises, f.leaves, f.unsettled, f.slow, f.stuck)
 }
 
 // screenFlags screens runs as basin screen --rise-tol tol does (0: the
@@ -206,6 +231,8 @@ func screenFlags(c *fit.Certificate, runs []ingest.Run, tol float64) map[string]
 				f.unsettled = true
 			case validate.FlagSlow:
 				f.slow = true
+			case validate.FlagStuck:
+				f.stuck = true
 			}
 		}
 		out[runs[i].Name] = f
@@ -264,7 +291,7 @@ func tolChanges(t *testing.T, name string, c *fit.Certificate, runs []ingest.Run
 // so the comparison cannot pass on all-false columns.
 func checkVariety(t *testing.T, name string, want map[string]flagRow, slow bool) {
 	t.Helper()
-	var clean, rises, leaves, unsettled, slows int
+	var clean, rises, leaves, unsettled, slows, stucks int
 	for _, f := range want {
 		if !f.flagged {
 			clean++
@@ -281,10 +308,13 @@ func checkVariety(t *testing.T, name string, want map[string]flagRow, slow bool)
 		if f.slow {
 			slows++
 		}
+		if f.stuck {
+			stucks++
+		}
 	}
-	if clean == 0 || rises == 0 || leaves == 0 || unsettled == 0 || (slow && slows == 0) {
-		t.Fatalf("%s: the data do not exercise every flag: clean %d rises %d leaves %d unsettled %d slow %d",
-			name, clean, rises, leaves, unsettled, slows)
+	if clean == 0 || rises == 0 || leaves == 0 || unsettled == 0 || (slow && slows == 0) || (slow && stucks == 0) {
+		t.Fatalf("%s: the data do not exercise every flag: clean %d rises %d leaves %d unsettled %d slow %d stuck %d",
+			name, clean, rises, leaves, unsettled, slows, stucks)
 	}
 }
 
@@ -317,7 +347,7 @@ func TestSQLGapExercised(t *testing.T) {
 func TestSQLSQLite(t *testing.T) {
 	for name, c := range sqlCerts() {
 		runs, pieces := gapped(sqlRuns(c))
-		checkVariety(t, name, screenFlags(c, pieces, 0), name == "two")
+		checkVariety(t, name, screenFlags(c, pieces, 0), name == "two") // two: slow and stuck
 		tolChanges(t, name, c, pieces)
 		db, err := sql.Open("sqlite", ":memory:")
 		if err != nil {
@@ -363,15 +393,16 @@ func TestSQLSQLite(t *testing.T) {
 			got := map[string]flagRow{}
 			for rows.Next() {
 				var run string
-				var v [5]int64
+				var v [6]int64
 				dst := []any{&run, &v[0], &v[1], &v[2], &v[3]}
 				if name == "two" {
 					dst = append(dst, &v[4])
 				}
+				dst = append(dst, &v[5])
 				if err := rows.Scan(dst...); err != nil {
 					t.Fatal(err)
 				}
-				got[run] = flagRow{v[0] == 1, v[1] == 1, v[2] == 1, v[3] == 1, v[4] == 1}
+				got[run] = flagRow{v[0] == 1, v[1] == 1, v[2] == 1, v[3] == 1, v[4] == 1, v[5] == 1}
 			}
 			if err := rows.Err(); err != nil {
 				t.Fatal(err)
@@ -492,7 +523,7 @@ func TestSQLPostgreSQL(t *testing.T) {
 	pg := startPostgres(t)
 	for name, c := range sqlCerts() {
 		runs, pieces := gapped(sqlRuns(c))
-		checkVariety(t, name, screenFlags(c, pieces, 0), name == "two")
+		checkVariety(t, name, screenFlags(c, pieces, 0), name == "two") // two: slow and stuck
 		tolChanges(t, name, c, pieces)
 		table := "fleet_" + name
 		cols := []string{`"run" TEXT`, `"t" DOUBLE PRECISION`}
@@ -529,7 +560,11 @@ func TestSQLPostgreSQL(t *testing.T) {
 					t.Fatalf("%s: row %q", name, line)
 				}
 				b := func(k int) bool { return k < len(f) && f[k] == "t" }
-				got[f[0]] = flagRow{b(1), b(2), b(3), b(4), b(5)}
+				if name == "two" {
+					got[f[0]] = flagRow{b(1), b(2), b(3), b(4), b(5), b(6)}
+				} else {
+					got[f[0]] = flagRow{b(1), b(2), b(3), b(4), false, b(5)}
+				}
 			}
 			compare(t, fmt.Sprintf("postgresql %s rise-tol %g", name, tol), byRun(screenFlags(c, pieces, tol)), got)
 		}
