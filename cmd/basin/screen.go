@@ -63,6 +63,10 @@ rises and leaves also say how far past the boundary, per state in the
 states' units; and the run's decay rate. A run that starts outside and
 comes in to settle is not flagged. A certificate without held-out decay
 rates (an older file) screens without the slow flag, with one warning.
+A run whose V grows over it (its end above its lowest earlier 50-sample
+stretch by more than the tolerance) is flagged rises too; one at rest off
+the equilibrium is unsettled; a state whose reading holds one value over
+the run's last 50 samples or more is stuck (state names it).
 
 Folders are read with their key=value subfolders (the partition layout of
 data lakes and Parquet writers: logs/vehicle=17/day=2026-11-30/run.parquet),
@@ -70,7 +74,7 @@ and each run reports its partition values (partition in --json, a column
 per key in the table and in --format csv); other subfolders are skipped,
 with a note, unless --recursive. --format csv prints one row per run:
 the partition columns, run, file, samples, flagged, rises, leaves,
-unsettled, slow, never_inside and decay_rate.
+unsettled, slow, never_inside, decay_rate and stuck.
 
 Each worker screens one file at a time, in buffers reused from file to
 file. A Parquet file of more than 65,536 rows, or a CSV file above
@@ -168,6 +172,7 @@ type screenSummary struct {
 	Leaves    int `json:"leaves"`
 	Unsettled int `json:"unsettled"`
 	Slow      int `json:"slow"`
+	Stuck     int `json:"stuck"`
 	// NeverInside counts runs that never entered the region.
 	NeverInside int `json:"never_inside"`
 	// JumpSplits counts the splits at one-sample jumps far beyond the
@@ -280,6 +285,8 @@ func runScreen(ctx context.Context, e *env, args []string) error {
 					out.Summary.Unsettled++
 				case validate.FlagSlow:
 					out.Summary.Slow++
+				case validate.FlagStuck:
+					out.Summary.Stuck++
 				}
 			}
 		}
@@ -471,6 +478,9 @@ func screenTable(w io.Writer, out *screenJSON) error {
 	s := out.Summary
 	_, err := fmt.Fprintf(w, "%s in %s, %s: %d flagged (%d rises, %d leaves, %d unsettled, %d slow), %d never inside the region\n",
 		human.Count(s.Runs, "run"), human.Count(s.Files, "file"), human.Count(s.Samples, "sample"), s.Flagged, s.Rises, s.Leaves, s.Unsettled, s.Slow, s.NeverInside)
+	if err == nil && s.Stuck > 0 {
+		_, err = fmt.Fprintf(w, "stuck: %d run(s) whose reading of a state held one value over their last 50 samples or more\n", s.Stuck)
+	}
 	if err == nil && out.SlowBound > 0 {
 		_, err = fmt.Fprintf(w, "slow: decay rate of V below %.3g 1/s (half the slowest held-out run's)\n", out.SlowBound)
 	}
@@ -487,9 +497,9 @@ func screenTable(w io.Writer, out *screenJSON) error {
 // screenCSV prints one CSV row per run: the partition columns (a key
 // that repeats a fixed column's name gets a "partition." prefix), then
 // run, file, samples, the flags as true or false, never_inside and the
-// decay rate (empty when the run has none).
+// decay rate (empty when the run has none), then stuck.
 func screenCSV(w io.Writer, out *screenJSON) error {
-	fixed := []string{"run", "file", "samples", "flagged", "rises", "leaves", "unsettled", "slow", "never_inside", "decay_rate"}
+	fixed := []string{"run", "file", "samples", "flagged", "rises", "leaves", "unsettled", "slow", "never_inside", "decay_rate", "stuck"}
 	var head []string
 	for _, k := range out.Partitions {
 		k = printable(k)
@@ -518,7 +528,7 @@ func screenCSV(w io.Writer, out *screenJSON) error {
 		}
 		row = append(row, printable(r.Run), printable(r.File), strconv.Itoa(r.Samples), tf(r.Flagged),
 			tf(kinds[validate.FlagRises]), tf(kinds[validate.FlagLeaves]), tf(kinds[validate.FlagUnsettled]),
-			tf(kinds[validate.FlagSlow]), tf(!r.EverInside), rate)
+			tf(kinds[validate.FlagSlow]), tf(!r.EverInside), rate, tf(kinds[validate.FlagStuck]))
 		if err := cw.Write(row); err != nil {
 			return err
 		}
@@ -530,6 +540,9 @@ func screenCSV(w io.Writer, out *screenJSON) error {
 // flagText is one flag in the table: kind, time, excess and, for rises
 // and leaves, the distance per state with its unit.
 func flagText(f validate.Flag, states []screenState) string {
+	if f.Kind == validate.FlagStuck {
+		return fmt.Sprintf("%s: %s held one value from %s s for %s s", f.Kind, printable(f.State), human.Sig(f.Time, 4), human.Sig(f.Excess, 3))
+	}
 	if f.Kind == validate.FlagSlow {
 		return fmt.Sprintf("%s: decay rate of V %s 1/s short of the bound", f.Kind, human.Sig(f.Excess, 3)) // Excess is bound - rate; the rate is its own column
 	}

@@ -283,7 +283,7 @@ func TestScreenPartitions(t *testing.T) {
 	if code != 1 || err != nil || len(rows) != 5 {
 		t.Fatalf("csv: exit %d, %v, %q; %s", code, err, out.String(), errb.String())
 	}
-	if strings.Join(rows[0], ",") != "vehicle,day,run,file,samples,flagged,rises,leaves,unsettled,slow,never_inside,decay_rate" {
+	if strings.Join(rows[0], ",") != "vehicle,day,run,file,samples,flagged,rises,leaves,unsettled,slow,never_inside,decay_rate,stuck" {
 		t.Errorf("csv header %v", rows[0])
 	}
 	if rows[1][2] != "d.csv" || rows[1][0] != "" || rows[4][0] != `x,y "q"` || rows[3][5] != "true" || rows[2][5] != "false" {
