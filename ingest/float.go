@@ -100,11 +100,19 @@ func scanFast(b []byte) (f float64, n int, ok bool) {
 		}
 	}
 	digits := i - start
+	lead := 0 // zeros before the first nonzero digit: none of the mantissa's
 	exp := 0
 	if i < len(b) && b[i] == '.' {
 		i++
 		fs := i
-		if digits <= 11 && i+8 <= len(b) { // 8 more digits keep 19 or fewer
+		if mant == 0 && digits <= 19 { // 0.000123: shortest printing's 17 digits after the zeros (19 digits or fewer: no overflow)
+			for i < len(b) && b[i] == '0' {
+				i++
+			}
+			lead = digits + i - fs
+			digits = lead
+		}
+		if digits-lead <= 11 && i+8 <= len(b) { // 8 more digits keep 19 or fewer
 			if x := binary.LittleEndian.Uint64(b[i:]); eightDigits(x) {
 				mant = mant*100000000 + eightValue(x)
 				i += 8
@@ -123,7 +131,7 @@ func scanFast(b []byte) (f float64, n int, ok bool) {
 		digits += i - k
 		exp = fs - i
 	}
-	if digits == 0 || digits > 19 {
+	if digits == 0 || digits-lead > 19 {
 		return 0, 0, false
 	}
 	if i < len(b) && (b[i] == 'e' || b[i] == 'E') {

@@ -39,6 +39,10 @@ var floatCorpus = []string{
 	"1234567890123456789e-19", "9999999999999999999", "9999999999999999999e-340", "1e-348", "1e-349", "1e347",
 	"1e300", "1e-300", "123456789012345678e-300", "4.9406564584124654e-324", "2.2250738585072012e-308",
 	"1.7976931348623158e308", "1.7976931348623159e308", "0.12345678901234567", "-0.30000000000000004e-5",
+	// zeros after the point before shortest printing's 17 digits
+	"0.0025325903623972584", "-0.0002980853905575681", "00.000123", "-.00012345678901234567", "0.000",
+	"0.00000000000000000000000001234567890123456789", "0.000000000000000000001234567890123456789e-330",
+	"0.00012345678901234567890", "0.0000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000000001",
 }
 
 // floatBad is refused by strconv.ParseFloat, and so must be by parseFloat.
@@ -376,6 +380,24 @@ func TestReadCSVAgainstStrconv(t *testing.T) {
 					t.Fatalf("row %d, x%d: %q read as %v (%#x), strconv %v (%#x)", i, j, s, got, math.Float64bits(got), w, math.Float64bits(w))
 				}
 			}
+		}
+	}
+}
+
+// TestScanFastLeadingZeros: the shortest decimal that reads back as the
+// same float64 (strconv.FormatFloat's 'g', -1, as Go and Python's repr
+// print logged values) of a small value has zeros after the point before
+// its up to 17 digits; they are no digits of the mantissa, so scanFast
+// takes it (instead of leaving it to strconv.ParseFloat, several times
+// slower), to strconv's bits.
+func TestScanFastLeadingZeros(t *testing.T) {
+	rng := rand.New(rand.NewPCG(3, 0))
+	for range 10000 {
+		v := (rng.Float64() - 0.5) * math.Pow(10, -float64(rng.IntN(4)+1)) // |v| in [0, 0.05)
+		s := strconv.FormatFloat(v, 'g', -1, 64)
+		got, n, ok := scanFast([]byte(s))
+		if !ok || n != len(s) || !sameFloat(got, v) {
+			t.Fatalf("scanFast(%q) = %v, %d, %v; want %v, %d, true", s, got, n, ok, v, len(s))
 		}
 	}
 }
