@@ -8,6 +8,7 @@ import (
 	"slices"
 
 	"basin.example/ingest"
+	"basin.example/internal/order"
 )
 
 // ScreenFile screens every run of sf into dst, grown to one result per
@@ -329,7 +330,12 @@ func (a *streamNoise) noise() []float64 {
 			a.out[j] = 0
 			continue
 		}
-		slices.Sort(d)
+		// the middle values as the sort would leave them (NaN first)
+		if len(d)%2 == 0 {
+			order.Select(d, len(d)/2-1, len(d)/2)
+		} else {
+			order.Select(d, len(d)/2)
+		}
 		med := d[len(d)/2]
 		if len(d)%2 == 0 {
 			med = (d[len(d)/2-1] + d[len(d)/2]) / 2

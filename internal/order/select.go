@@ -16,7 +16,9 @@ import (
 // It costs O(len(d)) comparisons on average for a few order statistics,
 // against O(len(d) log len(d)) for the sort: Hoare's selection (FIND,
 // Comm. ACM 4(7), 1961) with a median-of-three pivot and a three-way
-// partition (so runs of equal values cost no extra), falling back to
+// split (so runs of equal values cost no extra) made of two branchless
+// Lomuto partitions (below the pivot; then, only when an index lies past
+// those, at most the pivot), falling back to
 // slices.Sort on a part that needed more than 2 log2(len(d)) + 8
 // partitions, which bounds the worst case. It does not allocate. It
 // panics when ks is not ascending or holds an index outside [0, len(d)).
@@ -52,42 +54,67 @@ func selectRange(d []float64, lo, hi int, ks []int, depth int) {
 			return
 		}
 		depth--
-		lt, gt := partition3(d, lo, hi)
-		// d[lo:lt] < pivot, d[lt:gt] == pivot, d[gt:hi] > pivot.
+		p := pivot(d, lo, hi)
+		// d[lo:lt] < p, d[lt:gt] == p, d[gt:hi] > p, the second split
+		// made only when an index lies at or past lt.
+		lt := partitionBelow(d[lo:hi], p) + lo
 		i := 0
 		for i < len(ks) && ks[i] < lt {
 			i++
 		}
-		j := i
-		for j < len(ks) && ks[j] < gt {
-			j++
-		}
 		if i > 0 {
 			selectRange(d, lo, lt, ks[:i], depth)
+		}
+		ks = ks[i:]
+		if len(ks) == 0 {
+			return
+		}
+		gt := partitionAtMost(d[lt:hi], p) + lt
+		j := 0
+		for j < len(ks) && ks[j] < gt {
+			j++
 		}
 		lo, ks = gt, ks[j:]
 	}
 }
 
-// partition3 partitions d[lo:hi] (no NaN, hi-lo >= 3) around the median
-// of its first, middle and last values and returns the bounds of the
-// pivot's run: d[lo:lt] < p, d[lt:gt] == p, d[gt:hi] > p.
-func partition3(d []float64, lo, hi int) (lt, gt int) {
+// pivot returns the median of d[lo]'s, the middle's and d[hi-1]'s
+// values (no NaN, hi-lo >= 3): a value of d[lo:hi].
+func pivot(d []float64, lo, hi int) float64 {
 	a, b, c := d[lo], d[lo+(hi-lo)/2], d[hi-1]
-	p := math.Max(math.Min(a, b), math.Min(math.Max(a, b), c))
-	lt, gt = lo, hi
-	for i := lo; i < gt; {
-		switch v := d[i]; {
-		case v < p:
-			d[i], d[lt] = d[lt], d[i]
-			lt++
-			i++
-		case v > p:
-			gt--
-			d[i], d[gt] = d[gt], d[i]
-		default:
-			i++
+	return math.Max(math.Min(a, b), math.Min(math.Max(a, b), c))
+}
+
+// partitionBelow moves the values of d (no NaN) below p to its front and
+// returns how many there are. It is Lomuto's partition without a branch
+// on the comparison (every value is swapped, the boundary moves by the
+// comparison's outcome): the outcome of comparisons against a median is
+// a coin toss that a branch predictor loses half the time.
+func partitionBelow(d []float64, p float64) int {
+	lt := 0
+	for i, v := range d {
+		d[i] = d[lt]
+		d[lt] = v
+		b := 0
+		if v < p {
+			b = 1
 		}
+		lt += b
 	}
-	return lt, gt
+	return lt
+}
+
+// partitionAtMost is partitionBelow for the values at most p.
+func partitionAtMost(d []float64, p float64) int {
+	le := 0
+	for i, v := range d {
+		d[i] = d[le]
+		d[le] = v
+		b := 0
+		if v <= p {
+			b = 1
+		}
+		le += b
+	}
+	return le
 }
