@@ -727,7 +727,16 @@ func accumulate(ctx context.Context, groups []*groupSums, groupOf func(r, i int)
 		// The rows of run r go only to run r's groups: flushing at the
 		// end of the run adds exactly what flushing when the next run's
 		// first row changes the group would.
-		defer w.rb.flush()
+		// A panicking run flushes nothing: its half-added rows are
+		// dropped (the fit fails anyway), and two panicking workers
+		// must not add to shared groups at once.
+		defer func() {
+			if p := recover(); p != nil {
+				w.rb.cnt = 0
+				panic(p)
+			}
+			w.rb.flush()
+		}()
 		rb, dw, work, z, theta := w.rb, w.dw, w.work, w.z, w.theta
 		run := runs[r]
 		L := run.Len()
