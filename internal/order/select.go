@@ -104,17 +104,11 @@ func partitionBelow(d []float64, p float64) int {
 	return lt
 }
 
-// partitionAtMost is partitionBelow for the values at most p.
+// partitionAtMost is partitionBelow for the values at most p: those
+// below the next float above p (none is above +Inf: all are at most it).
 func partitionAtMost(d []float64, p float64) int {
-	le := 0
-	for i, v := range d {
-		d[i] = d[le]
-		d[le] = v
-		b := 0
-		if v <= p {
-			b = 1
-		}
-		le += b
+	if math.IsInf(p, 1) {
+		return len(d)
 	}
-	return le
+	return partitionBelow(d, math.Nextafter(p, math.Inf(1)))
 }
