@@ -96,7 +96,7 @@ func fixture(cert *fit.Certificate, names []string) *Input {
 			{State: cert.States[1], Exponents: [][]int{{0, 0}, {1, 0}, {0, 1}, {3, 0}}, Coefficients: []float64{0.15, -1, -1, 0.001},
 				Terms: []fit.Term{{KeptShare: 1}, {KeptShare: 1}, {KeptShare: 1}, {Interval: [2]float64{-0.01, 0.01}, KeptShare: 0.2, RarelyKept: true}}},
 		},
-		Equilibrium: fixtureEquil,
+		Equilibrium: fixtureEquil, SettledRuns: len(starts),
 		Equilibria: []fit.Equilibrium{{Point: fixtureEquil, Class: "stable focus", InEnvelope: true},
 			{Point: []float64{1.3, 0.05}, Class: "saddle", InEnvelope: true},
 			{Point: []float64{40, 0}, Class: "outside envelope"}},

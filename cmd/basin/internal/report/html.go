@@ -216,7 +216,7 @@ func build(in *Input, pl [2]int) (*pageData, error) {
 			}
 			if closer(cf, f) {
 				d.CloseUp, d.Clipped = cf, cf.clipped
-				d.CloseKeys = planeKeys(cf, c.Verdict == fit.Certified)
+				d.CloseKeys = planeKeys(cf, c, in.Model)
 			}
 		}
 		d.PlaneA, d.PlaneB = c.States[pl[0]], c.States[pl[1]]
@@ -236,7 +236,7 @@ func build(in *Input, pl [2]int) (*pageData, error) {
 	}
 	d.VFig = vf
 	if d.Plane != nil {
-		d.Keys = planeKeys(d.Plane, c.Verdict == fit.Certified)
+		d.Keys = planeKeys(d.Plane, c, in.Model)
 	}
 	d.VKeys = []keyItem{
 		{Label: "held-out run, not flagged", Colour: hex(inkCalm), Width: 0.9},
@@ -287,8 +287,10 @@ func build(in *Input, pl [2]int) (*pageData, error) {
 // equilibrium, and one entry per kind of other equilibrium drawn. A region
 // drawn for a certificate that is not certified (its V and level were
 // found on the fit runs, the held-out check did not pass) is called what
-// it is: checked, not certified.
-func planeKeys(f *figure, certified bool) []keyItem {
+// it is: checked, not certified. The equilibrium's entry says what m,
+// the fitted model (nil when there is none), makes of c's equilibrium.
+func planeKeys(f *figure, c *fit.Certificate, m *fit.Model) []keyItem {
+	certified := c.Verdict == fit.Certified
 	keys := []keyItem{
 		{Label: "fit run (used to fit the model and V)", Colour: hex(inkFit), Width: 0.7},
 		{Label: "held-out run (checked, not fitted)", Colour: hex(inkHeldout), Width: 1.3, Dash: "4 2"},
@@ -304,7 +306,7 @@ func planeKeys(f *figure, certified bool) []keyItem {
 	if f.box {
 		keys = append(keys, keyItem{Label: "box bounding the region", Colour: hex(inkBox), Width: 0.8, Dash: "1 2.5"})
 	}
-	keys = append(keys, keyItem{Label: "equilibrium the runs settle on", Colour: hex(inkEquil), Mark: "square"})
+	keys = append(keys, keyItem{Label: equilibriumLabel(c, m), Colour: hex(inkEquil), Mark: "square"})
 	if f.restRegions {
 		keys = append(keys, keyItem{Label: "boundary of another rest point's certified region (certificate-2.json, ...)", Colour: hex(inkRegion), Width: 1.6, Dash: "5 2"})
 	}
@@ -312,6 +314,55 @@ func planeKeys(f *figure, certified bool) []keyItem {
 		keys = append(keys, keyItem{Label: otherMarks[k].label, Colour: hex(inkOther), Mark: otherMarks[k].swatch})
 	}
 	return keys
+}
+
+// equilibriumLabel names c's equilibrium in the phase plane's key: the
+// rest point the runs settle on when the fitted model m calls it stable
+// and some run settles, else what the model calls it (an unstable focus,
+// a saddle) and, when no run settles, that none does: a rejected system's
+// runs spiral away from the mark, not into it.
+func equilibriumLabel(c *fit.Certificate, m *fit.Model) string {
+	if m == nil || len(m.Equilibria) == 0 {
+		return "equilibrium of the certificate"
+	}
+	// the model's equilibrium nearest c's, in c's scaled coordinates
+	// (the primary one unless --equilibrium picked another)
+	class, best := "", math.Inf(1)
+	for _, e := range m.Equilibria {
+		if len(e.Point) != len(c.Equilibrium) {
+			continue
+		}
+		d := 0.0
+		for j, x := range e.Point {
+			d += math.Pow((x-c.Equilibrium[j])/c.Scale[j], 2)
+		}
+		if d < best {
+			class, best = e.Class, d
+		}
+	}
+	if class == "" {
+		return "equilibrium of the certificate"
+	}
+	if strings.HasPrefix(class, "stable") && m.SettledRuns > 0 {
+		return "equilibrium the runs settle on"
+	}
+	words := map[string]string{
+		"saddle":           "a saddle",
+		"unstable node":    "an unstable node",
+		"unstable focus":   "an unstable focus",
+		"stable node":      "a stable node",
+		"stable focus":     "a stable focus",
+		"non-hyperbolic":   "an eigenvalue on the imaginary axis",
+		"outside envelope": "outside the data's envelope",
+	}[class]
+	if words == "" {
+		words = class
+	}
+	label := "fitted equilibrium (" + words
+	if m.SettledRuns == 0 {
+		label += "; no run settles on it"
+	}
+	return label + ")"
 }
 
 // closeUpShare is the largest share of the full view's width, along

@@ -24,6 +24,10 @@ func FlagText(c *fit.Certificate, f validate.Flag, r *validate.RunScreen) string
 		}
 		return fmt.Sprintf("left the region at %s: V reached %s, beyond the region's edge at V = %s", at, human.Num(c.Level+f.Excess), level)
 	case validate.FlagUnsettled:
+		if !c.Found {
+			// no V: its value and the level (both 0) say nothing
+			return fmt.Sprintf("had not settled by its end at %s", at)
+		}
 		if r != nil {
 			return fmt.Sprintf("had not settled by its end at %s: V over its last samples was %s (region's edge at V = %s)", at, human.Num(r.VEnd), level)
 		}
