@@ -28,12 +28,13 @@ var cmdInspect = &command{
 start and duration, median sampling rate and its jitter (interquartile
 range of the time steps over their median), gaps, per-column ranges and
 units, inputs, and the rest points the runs settle on: a run (of at least
-81 samples, so that its last 5% holds 5) settles when its last 5% spans
-at most a tenth of its range, its settle point is the
-median of that tail, and settle points within a tenth of each state's
-range over all runs are one rest point, reported with its count of runs
-(most first). Also lists the one-sample jumps runs were split at, the
-resting starts trimmed and the recordings a --from/--to window left out.`,
+81 samples) settles when, over its last tenth, it neither trends nor
+spreads beyond its own noise (README.md, Input, Settled, has the rule),
+its settle point is the median of its last 5%, and settle points within
+a tenth of each state's range over all runs are one rest point, reported
+with its count of runs (most first). Also lists the one-sample jumps
+runs were split at, the resting starts trimmed and the recordings a
+--from/--to window left out.`,
 }
 
 func init() { cmdInspect.Run = runInspect }
