@@ -15,6 +15,7 @@ import (
 	"gonum.org/v1/plot/vg/vgsvg"
 
 	"basin.example/fit"
+	"basin.example/ingest"
 )
 
 // The report's visual language. Colours come in clearly different
@@ -357,8 +358,60 @@ func regionBoundary(c *fit.Certificate, a, b int, x0, x1, y0, y1 float64) [][][2
 	return out
 }
 
-// vFigure draws V against time along each held-out run, log scale, with
-// the level and a cross at the first time of each flag.
+// trace is a stretch of samples drawn in the V figure: a held-out run,
+// or with inputs one of its pieces where the inputs rest, and t0, the
+// time of its run's first sample (the figure's zero).
+type trace struct {
+	run *ingest.Run
+	t0  float64
+}
+
+// heldoutTraces returns what the held-out checks were made on: the
+// held-out runs, or for a model with inputs the pieces of them where the
+// inputs rest (fit.RestSegments over the held-out runs together, as the
+// held-out check cuts them), each named as its check. Drawing the whole
+// runs instead showed V climbing while a heater drove the rig, in blue
+// as "not flagged", and missed the flags of the pieces.
+func (in *Input) heldoutTraces() []trace {
+	ds := in.Data
+	var out []trace
+	held := &ingest.Dataset{States: ds.States, Inputs: ds.Inputs}
+	for ri := range ds.Runs {
+		if in.heldout(ri) {
+			held.Runs = append(held.Runs, ds.Runs[ri])
+		}
+	}
+	m := in.Model
+	if len(ds.Inputs) == 0 || m == nil || len(m.RestInput) != len(ds.Inputs) {
+		for ri := range held.Runs {
+			r := &held.Runs[ri]
+			if r.Len() > 0 {
+				out = append(out, trace{r, r.T[0]})
+			}
+		}
+		return out
+	}
+	pieces := fit.RestSegments(held, m.RestInput)
+	k := 0
+	for ri := range held.Runs {
+		r := &held.Runs[ri]
+		// RestSegments keeps the runs' order and names a piece "run@t"
+		for ; k < len(pieces.Runs); k++ {
+			p := &pieces.Runs[k]
+			if p.Name != r.Name && !strings.HasPrefix(p.Name, r.Name+"@") {
+				break
+			}
+			if r.Len() > 0 {
+				out = append(out, trace{p, r.T[0]})
+			}
+		}
+	}
+	return out
+}
+
+// vFigure draws V against time along each held-out run (with inputs,
+// its pieces where the inputs rest), log scale, with the level and a
+// cross at the first time of each flag.
 func vFigure(in *Input) (*figure, error) {
 	c, ds := in.Cert, in.Data
 	if ds == nil || len(c.V.Exponents) == 0 {
@@ -377,11 +430,8 @@ func vFigure(in *Input) (*figure, error) {
 	tmax := 0.0
 	var marks plotter.XYs
 	drawn := 0
-	for ri := range ds.Runs {
-		if !in.heldout(ri) {
-			continue
-		}
-		r := &ds.Runs[ri]
+	for _, hr := range in.heldoutTraces() {
+		r := hr.run
 		if r.Len() < 2 {
 			continue
 		}
@@ -394,10 +444,10 @@ func vFigure(in *Input) (*figure, error) {
 		idx := decimate(r.Len())
 		xy := make(plotter.XYs, len(idx))
 		for k, i := range idx {
-			xy[k] = plotter.XY{X: r.T[i] - r.T[0], Y: vAtI(i)}
+			xy[k] = plotter.XY{X: r.T[i] - hr.t0, Y: vAtI(i)}
 			sy.add(xy[k].Y)
 		}
-		tmax = math.Max(tmax, r.T[r.Len()-1]-r.T[0])
+		tmax = math.Max(tmax, r.T[r.Len()-1]-hr.t0)
 		l, err := plotter.NewLine(xy)
 		if err != nil {
 			return nil, err
@@ -410,7 +460,7 @@ func vFigure(in *Input) (*figure, error) {
 				if fl.Time >= r.T[0] && fl.Time <= r.T[r.Len()-1] {
 					i = nearest(r.T, fl.Time) // flag times given in the run's own clock
 				}
-				marks = append(marks, plotter.XY{X: r.T[i] - r.T[0], Y: vAtI(i)})
+				marks = append(marks, plotter.XY{X: r.T[i] - hr.t0, Y: vAtI(i)})
 			}
 		} else {
 			l.LineStyle = lineStyle(inkCalm, 0.9)

@@ -55,6 +55,7 @@ type pageData struct {
 	VFig                      *figure
 	Keys                      []keyItem
 	VKeys                     []keyItem
+	VPieces                   bool // the V figure draws the pieces where the inputs rest
 	Model                     bool
 	Equations                 []eqRow
 	VTerms                    []vTerm
@@ -235,6 +236,7 @@ func build(in *Input, pl [2]int) (*pageData, error) {
 		return nil, err
 	}
 	d.VFig = vf
+	d.VPieces = in.Data != nil && len(in.Data.Inputs) > 0 && in.Model != nil && len(in.Model.RestInput) == len(in.Data.Inputs)
 	if d.Plane != nil {
 		d.Keys = planeKeys(d.Plane, c, in.Model)
 	}
