@@ -13,6 +13,7 @@ import (
 	"errors"
 	"fmt"
 	"sort"
+	"strings"
 
 	"basin.example/cmd/basin/internal/human"
 	"basin.example/fit"
@@ -184,8 +185,26 @@ func (in *Input) settings() []kv {
 		add("all_folds", p.AllFolds)
 	}
 	if p := s.Command; p != nil {
-		add("inputs", p.Inputs)
+		// the INPUTS as typed (files and folders), not the input columns
+		// of --inputs, which get a row of their own below
+		if s.Recorded("inputs") {
+			out = append(out, kv{"inputs (INPUTS as typed)", fmt.Sprint(p.Inputs)})
+		}
 		add("model", p.Model)
+	}
+	if m := in.Model; m != nil && len(m.Inputs) > 0 {
+		var cols []string
+		for k, u := range m.Inputs {
+			col := u.Name
+			if u.Unit != "" {
+				col += " [" + u.Unit + "]"
+			}
+			if k < len(m.RestInput) {
+				col += fmt.Sprintf(" (at rest %s)", human.Num(m.RestInput[k]))
+			}
+			cols = append(cols, col)
+		}
+		out = append(out, kv{"input columns (--inputs)", strings.Join(cols, ", ")})
 	}
 	for k, v := range s.Other {
 		out = append(out, kv{k, string(v)})

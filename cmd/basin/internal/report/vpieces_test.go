@@ -2,7 +2,9 @@ package report
 
 import (
 	"fmt"
+	"html"
 	"math"
+	"regexp"
 	"strings"
 	"testing"
 
@@ -102,5 +104,45 @@ func TestVFigurePieces(t *testing.T) {
 	page := renderPage(t, in)
 	if !strings.Contains(page, "Only the stretches where the inputs rest are drawn") {
 		t.Error("the caption does not say that only the stretches at rest are drawn")
+	}
+}
+
+// TestSettingsInputs: the settings table tells the INPUTS as typed (the
+// certificate's settings key "inputs", the folder of a trial thermal
+// loop's logs: "thermal") from the input columns --inputs named (the
+// heater), which it lists with their units and rest values. Before, the
+// one row "inputs thermal" read as if "thermal" were the input column.
+func TestSettingsInputs(t *testing.T) {
+	tests := []struct {
+		name      string
+		inputs    []fit.Input
+		want, not []string
+	}{
+		{"with an input", []fit.Input{{Name: "heater", Unit: "W"}},
+			[]string{"inputs (INPUTS as typed) thermal", "input columns (--inputs) heater [W] (at rest 0)"}, []string{"inputs thermal"}},
+		{"without", nil,
+			[]string{"inputs (INPUTS as typed) thermal"}, []string{"input columns", "inputs thermal"}},
+	}
+	tags := regexp.MustCompile(`(?s)<[^>]*>`)
+	for _, tt := range tests {
+		t.Run(tt.name, func(t *testing.T) {
+			c := mustCert(fixtureCertJSON)
+			c.Settings.Command = &fit.CommandSettings{Inputs: "thermal"}
+			in := fixture(c, nil)
+			if tt.inputs != nil {
+				in.Model.Inputs, in.Model.RestInput = tt.inputs, []float64{0}
+			}
+			page := strings.Join(strings.Fields(html.UnescapeString(tags.ReplaceAllString(renderPage(t, in), " "))), " ")
+			for _, w := range tt.want {
+				if !strings.Contains(page, w) {
+					t.Errorf("page lacks %q", w)
+				}
+			}
+			for _, w := range tt.not {
+				if strings.Contains(page, w) {
+					t.Errorf("page says %q", w)
+				}
+			}
+		})
 	}
 }
