@@ -9,6 +9,7 @@ import (
 	"basin.example/cmd/basin/internal/human"
 	"basin.example/fit"
 	"basin.example/fit/poly"
+	"basin.example/validate"
 )
 
 // Summary writes the plain-text summary of in to w: verdict and reason,
@@ -117,19 +118,62 @@ func Summary(w io.Writer, in *Input) error {
 	} else {
 		b.WriteString("held-out: none, so the verdict cannot be certified: hold out runs (split holdout in a manifest) or record more runs\n")
 	}
-	flagged := 0
-	for _, r := range in.Checks {
-		if r.Flagged {
-			flagged++
-		}
-	}
 	if len(in.Checks) > 0 {
-		fmt.Fprintf(&b, "checked runs: %d, flagged: %d\n", len(in.Checks), flagged)
+		fmt.Fprintf(&b, "checked runs: %s\n", checkedLine(c, in.Checks))
 	}
 	restSections(&b, in)
 	fmt.Fprintf(&b, "caveat: %s\n", fit.Caveat)
 	_, err := io.WriteString(w, b.String())
 	return err
+}
+
+// checkedLine counts the held-out checks and the flagged ones, and says
+// what the flags were and which of them bear on the claim: a flagged run
+// that never entered the region (one settling at another rest point)
+// lies outside it, and unsettled runs do not contradict a certificate of
+// strength stable, which claims no settling. "flagged: 4" alone beside a
+// certified verdict read as four failures.
+func checkedLine(c *fit.Certificate, checks []validate.RunScreen) string {
+	flagged, never := 0, 0
+	kinds := map[string]int{}
+	var order []string
+	for _, r := range checks {
+		if !r.Flagged {
+			continue
+		}
+		flagged++
+		if !r.EverInside {
+			never++
+		}
+		seen := map[string]bool{}
+		for _, f := range r.Flags {
+			k := string(f.Kind)
+			if seen[k] {
+				continue
+			}
+			seen[k] = true
+			if kinds[k] == 0 {
+				order = append(order, k)
+			}
+			kinds[k]++
+		}
+	}
+	line := fmt.Sprintf("%d, flagged: %d", len(checks), flagged)
+	if flagged == 0 {
+		return line
+	}
+	var parts []string
+	for _, k := range order {
+		parts = append(parts, fmt.Sprintf("%d %s", kinds[k], k))
+	}
+	notes := []string{strings.Join(parts, ", ")}
+	if never > 0 {
+		notes = append(notes, fmt.Sprintf("%d of the flagged never entered the region, so they lie outside its claim", never))
+	}
+	if c.Strength == fit.Stable && kinds[string(validate.FlagUnsettled)] > 0 {
+		notes = append(notes, "strength stable claims no settling, so unsettled runs do not contradict it")
+	}
+	return line + " (" + strings.Join(notes, "; ") + ")"
 }
 
 // restSections writes a section per rest point when there are several.
