@@ -234,6 +234,16 @@ func unpackDict(out []float64, body []byte, dict []float64) bool {
 		bits := 0
 		q := p
 		mask := uint64(1)<<bw - 1
+		if bw >= 1 && bw <= 16 {
+			// whole groups of 8 values in two 64-bit loads: values 0-3
+			// in the low 4·bw bits at q, values 4-7 from bit 4·bw, that
+			// is byte bw/2 and bit 4·(bw odd), at most 4 + 4·15 bits on
+			var ok bool
+			k, q, vals, ok = unpackNarrow(out, k, body, q, vals, uint(bw), dict)
+			if !ok {
+				return false
+			}
+		}
 		// whole groups of 8 values with 8 readable bytes past their
 		// last value's first byte: value i of a group starts at bit
 		// i·bw of its bw bytes, read with one 64-bit load
@@ -270,6 +280,35 @@ func unpackDict(out []float64, body []byte, dict []float64) bool {
 		p += nbytes
 	}
 	return true
+}
+
+// unpackNarrow is unpackDict's loop over the whole groups of 8 values of
+// bw bits, 1 <= bw <= 16, of a bit-packed run at body[q:] (vals values
+// left in the run) that have 8 readable bytes past the start of their
+// second half and 8 values to fill at out[k:]: two 64-bit loads a group
+// instead of a load per value. It returns k, q and vals past the groups
+// done, and false on an index outside dict.
+func unpackNarrow(out []float64, k int, body []byte, q, vals int, bw uint, dict []float64) (int, int, int, bool) {
+	half := int(bw >> 1)
+	s1 := (4 * bw) & 7
+	b1, b2, b3 := bw&63, (2*bw)&63, (3*bw)&63
+	mask := uint64(1)<<bw - 1
+	nd := uint64(len(dict))
+	for ; vals >= 8 && len(out)-k >= 8 && q+half+8 <= len(body); vals -= 8 {
+		w0 := binary.LittleEndian.Uint64(body[q:])
+		w1 := binary.LittleEndian.Uint64(body[q+half:]) >> s1
+		i0, i1, i2, i3 := w0&mask, w0>>b1&mask, w0>>b2&mask, w0>>b3&mask
+		i4, i5, i6, i7 := w1&mask, w1>>b1&mask, w1>>b2&mask, w1>>b3&mask
+		if i0 >= nd || i1 >= nd || i2 >= nd || i3 >= nd || i4 >= nd || i5 >= nd || i6 >= nd || i7 >= nd {
+			return k, q, vals, false
+		}
+		o := out[k : k+8 : k+8]
+		o[0], o[1], o[2], o[3] = dict[i0], dict[i1], dict[i2], dict[i3]
+		o[4], o[5], o[6], o[7] = dict[i4], dict[i5], dict[i6], dict[i7]
+		k += 8
+		q += int(bw)
+	}
+	return k, q, vals, true
 }
 
 // colStore is column storage reused from file to file: slot 0 for time,

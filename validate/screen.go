@@ -153,7 +153,9 @@ func (s *Screener) evalBlock(X [][]float64, i0, i1 int) {
 		return
 	}
 	if s.quad && !s.generic {
-		s.evalQuadCols(X, i0, i1)
+		if !s.evalQuadUnrolled(X, i0, i1) {
+			s.evalQuadCols(X, i0, i1)
+		}
 		return
 	}
 	z := s.z
@@ -183,7 +185,10 @@ func (s *Screener) evalBlock(X [][]float64, i0, i1 int) {
 	}
 }
 
-// evalQuadCols is evalBlock's generic loop for a quadratic V, turned
+//go:generate go run gen_quadkern.go
+
+// evalQuadCols is evalBlock's loop for a quadratic V of 1 or more than
+// maxUnrolled states (evalQuadUnrolled takes 3 to maxUnrolled), turned
 // inside out: each state's column of the block at a time. Every sample
 // gets the same operations in the same order as quadV and the per-sample
 // loop (|z|² summed over j ascending; V = r, then + (q_i + Σ_j p_ij z_j)

@@ -2,6 +2,7 @@ package validate
 
 import (
 	"context"
+	"fmt"
 	"math"
 	"math/rand/v2"
 	"testing"
@@ -493,16 +494,18 @@ func TestSettleLevelBall(t *testing.T) {
 	})
 }
 
-// TestEvalQuadCols checks the column-wise quadratic kernel against the
-// per-sample loop (quadV, the reference kept for benchmarks): the same
+// TestEvalQuadCols checks the quadratic kernels (evalBlock's choice:
+// unrolled for 3 to maxUnrolled states; and the column-wise one, called
+// directly, for every count) against the per-sample loop (quadV, the
+// reference kept for benchmarks): the same
 // operations in the same order, so V, |z|² and both box flags must agree
-// to the bit, on random quadratics of 1 and 3 to 6 states (2 states have
-// their own kernel) with cross terms,
+// to the bit, on random quadratics of 1 and 3 to maxUnrolled+2 states (2
+// states have their own kernel) with cross terms,
 // linear and constant parts, and samples inside and outside the box,
 // NaN and infinite ones among them.
 func TestEvalQuadCols(t *testing.T) {
 	rng := rand.New(rand.NewPCG(11, 4))
-	for _, n := range []int{1, 3, 4, 5, 6} {
+	for _, n := range []int{1, 3, 4, 5, 6, 7, 8, 9, 10} {
 		lib := poly.NewLibrary(n, 0, 2)
 		p := poly.Poly{Exponents: lib.Terms(), Coefficients: make([]float64, lib.Len())}
 		for k := range p.Coefficients {
@@ -511,9 +514,11 @@ func TestEvalQuadCols(t *testing.T) {
 		c := &fit.Certificate{States: make([]string, n), Equilibrium: make([]float64, n), Scale: make([]float64, n), V: p,
 			Level: 1, NoiseRadius: 0.05, Box: make([][2]float64, n)}
 		for j := range c.Scale {
-			c.Scale[j], c.Equilibrium[j], c.Box[j] = 0.5+rng.Float64(), rng.NormFloat64(), [2]float64{-1.5, 1.5}
+			// a wider box for more states: some samples inside it
+			w := max(1.5, 0.35*float64(n))
+			c.Scale[j], c.Equilibrium[j], c.Box[j] = 0.5+rng.Float64(), rng.NormFloat64(), [2]float64{-w, w}
 		}
-		cols, ref := NewScreener(c, nil), NewScreener(c, nil)
+		kern, cols, ref := NewScreener(c, nil), NewScreener(c, nil), NewScreener(c, nil)
 		ref.generic = true
 		const m = screenBlock - 3
 		X := make([][]float64, n)
@@ -524,18 +529,22 @@ func TestEvalQuadCols(t *testing.T) {
 			}
 		}
 		X[0][9], X[n-1][20] = math.NaN(), math.Inf(-1)
+		X[n/2][30], X[n-1][31], X[0][32] = math.Inf(1), math.NaN(), math.Inf(-1)
 		for _, i0 := range []int{0, 7} {
-			cols.evalBlock(X, i0, i0+m)
+			kern.evalBlock(X, i0, i0+m)
+			cols.evalQuadCols(X, i0, i0+m)
 			ref.evalBlock(X, i0, i0+m)
 			outs := 0
 			for k := range m {
 				same := func(a, b float64) bool {
 					return math.Float64bits(a) == math.Float64bits(b) || (math.IsNaN(a) && math.IsNaN(b))
 				}
-				if !same(cols.vbuf[k], ref.vbuf[k]) || !same(cols.rbuf[k], ref.rbuf[k]) ||
-					cols.obuf[k] != ref.obuf[k] || cols.wbuf[k] != ref.wbuf[k] {
-					t.Fatalf("n=%d sample %d: V %v |z|² %v out %v wide %v, per sample %v %v %v %v", n, i0+k,
-						cols.vbuf[k], cols.rbuf[k], cols.obuf[k], cols.wbuf[k], ref.vbuf[k], ref.rbuf[k], ref.obuf[k], ref.wbuf[k])
+				for _, got := range []*Screener{kern, cols} {
+					if !same(got.vbuf[k], ref.vbuf[k]) || !same(got.rbuf[k], ref.rbuf[k]) ||
+						got.obuf[k] != ref.obuf[k] || got.wbuf[k] != ref.wbuf[k] {
+						t.Fatalf("n=%d sample %d (kernel %v): V %v |z|² %v out %v wide %v, per sample %v %v %v %v", n, i0+k, got == kern,
+							got.vbuf[k], got.rbuf[k], got.obuf[k], got.wbuf[k], ref.vbuf[k], ref.rbuf[k], ref.obuf[k], ref.wbuf[k])
+					}
 				}
 				if ref.obuf[k] {
 					outs++
@@ -544,6 +553,44 @@ func TestEvalQuadCols(t *testing.T) {
 			if outs == 0 || outs == m {
 				t.Fatalf("n=%d: %d of %d samples outside the box: the flags are not tested", n, outs, m)
 			}
+		}
+	}
+}
+
+// BenchmarkEvalQuad measures evalBlock's quadratic kernels on full
+// blocks of 3 and 6 states with cross terms: the unrolled one (evalBlock's
+// choice), the column-wise one and the per-sample loop.
+func BenchmarkEvalQuad(b *testing.B) {
+	rng := rand.New(rand.NewPCG(3, 3))
+	for _, n := range []int{3, 6} {
+		lib := poly.NewLibrary(n, 0, 2)
+		p := poly.Poly{Exponents: lib.Terms(), Coefficients: make([]float64, lib.Len())}
+		for k := range p.Coefficients {
+			p.Coefficients[k] = rng.NormFloat64()
+		}
+		c := &fit.Certificate{States: make([]string, n), Equilibrium: make([]float64, n), Scale: make([]float64, n), V: p,
+			Level: 1, NoiseRadius: 0.05, Box: make([][2]float64, n)}
+		X := make([][]float64, n)
+		for j := range X {
+			c.Scale[j], c.Box[j] = 1, [2]float64{-3, 3}
+			X[j] = make([]float64, screenBlock)
+			for i := range X[j] {
+				X[j][i] = rng.NormFloat64()
+			}
+		}
+		for _, kind := range []string{"unrolled", "columns", "per-sample"} {
+			s := NewScreener(c, nil)
+			s.generic = kind == "per-sample"
+			b.Run(fmt.Sprintf("n=%d/%s", n, kind), func(b *testing.B) {
+				for b.Loop() {
+					if kind == "columns" {
+						s.evalQuadCols(X, 0, screenBlock)
+					} else {
+						s.evalBlock(X, 0, screenBlock)
+					}
+				}
+				b.ReportMetric(b.Elapsed().Seconds()*1e9/float64(b.N)/screenBlock, "ns/sample")
+			})
 		}
 	}
 }
