@@ -130,17 +130,55 @@ func readCSV(r io.Reader, name string, opts *Options) (*Dataset, error) {
 }
 
 func readCSVTable(r io.Reader, name string, opts *Options) (*table, error) {
+	p, err := readCSVBlocks(r, name, opts, nil)
+	if err != nil {
+		return nil, err
+	}
+	return p.tb, nil
+}
+
+// csvBufs holds the buffers of one CSV read for the next to reuse (a
+// streamed file's passes, and the files after it: see csvSource), and
+// how many workers parse its blocks.
+type csvBufs struct {
+	workers int         // 0: GOMAXPROCS
+	first   []byte      // the first block
+	rings   [2][][]byte // the read buffers of csvParser.parallel's waves
+	// the table's columns: with a csvSink, scratch for one wave's rows
+	t  []float64
+	x  [][]float64
+	rt []float64 // times from a rate (csvSource)
+}
+
+// readCSVBlocks reads r as readCSVTable does, with bufs' buffers (nil:
+// new ones), and returns its parser, whose table holds the rows (none
+// with a csvSink). With bufs, the buffers are left in bufs for the next
+// read once this one is done.
+func readCSVBlocks(r io.Reader, name string, opts *Options, bufs *csvBufs) (*csvParser, error) {
 	if opts == nil {
 		opts = &Options{}
 	}
-	// Read the first block: 64 KiB first, so that small files stay cheap.
-	first := make([]byte, 64<<10)
+	// Read the first block: 64 KiB first, so that small files stay cheap
+	// (unless a buffer of a read before is there).
+	var first []byte
+	if bufs != nil && cap(bufs.first) >= blockSize {
+		first = bufs.first[:64<<10]
+	} else {
+		first = make([]byte, 64<<10)
+	}
 	n, err := io.ReadFull(r, first)
 	if err == nil {
-		first = append(first, make([]byte, blockSize-len(first))...)
+		if cap(first) >= blockSize {
+			first = first[:blockSize]
+		} else {
+			first = append(first, make([]byte, blockSize-len(first))...)
+		}
 		var m int
 		m, err = io.ReadFull(r, first[n:])
 		n += m
+	}
+	if bufs != nil && cap(first) >= blockSize {
+		bufs.first = first[:0]
 	}
 	eof := false
 	switch {
@@ -196,13 +234,20 @@ func readCSVTable(r io.Reader, name string, opts *Options) (*table, error) {
 	}
 	// Parse: the rest of the first block, then further blocks.
 	lay.index()
-	p := &csvParser{lay: lay, tb: tb, sink: opts.csvSink}
+	p := &csvParser{lay: lay, tb: tb, sink: opts.csvSink, bufs: bufs}
+	if bufs != nil {
+		p.workers = bufs.workers
+		if p.sink != nil { // the columns are a wave's scratch: take those of the read before
+			p.takeCols()
+			defer p.keepCols()
+		}
+	}
 	tb.finite = true // until a row from the general path (see parseBlocks)
 	if eof {
 		if err := p.parseBlocks([]*chunk{{data: rest, line: line}}); err != nil {
 			return nil, err
 		}
-		return tb, nil
+		return p, nil
 	}
 	// Size the columns from the input's size, when known, so that they are
 	// not regrown (each regrowth briefly holds two copies).
@@ -229,7 +274,35 @@ func readCSVTable(r io.Reader, name string, opts *Options) (*table, error) {
 	if err := p.parallel(r, rest, line); err != nil {
 		return nil, err
 	}
-	return tb, nil
+	return p, nil
+}
+
+// takeCols starts the table's columns on the buffers' (emptied).
+func (p *csvParser) takeCols() {
+	tb, b := p.tb, p.bufs
+	if tb.timeIdx > 0 && !tb.dateTime {
+		tb.t = b.t[:0]
+	}
+	for len(b.x) < len(tb.x) {
+		b.x = append(b.x, nil)
+	}
+	for j := range tb.x {
+		tb.x[j] = b.x[j][:0]
+	}
+}
+
+// keepCols leaves the table's columns (their room) in the buffers for
+// the next read.
+func (p *csvParser) keepCols() {
+	tb, b := p.tb, p.bufs
+	if cap(tb.t) > cap(b.t) {
+		b.t = tb.t[:0]
+	}
+	for j := range tb.x {
+		if cap(tb.x[j]) > cap(b.x[j]) {
+			b.x[j] = tb.x[j][:0]
+		}
+	}
 }
 
 // binaryError is the error for a NUL byte on a line of a CSV file.
@@ -617,6 +690,10 @@ type csvParser struct {
 	// into the table's columns as scratch and handed over in order, and
 	// the columns start empty again for the next wave.
 	sink func(*table, *chunk)
+	// workers parse a wave's blocks (0: GOMAXPROCS); bufs, when not
+	// nil, holds read buffers to reuse
+	workers int
+	bufs    *csvBufs
 }
 
 // wavePerWorker is how many blocks a wave of [csvParser.parallel] reads
@@ -630,9 +707,33 @@ const wavePerWorker = 4
 // [csvParser.parseBlocks]), while the next wave is read (into the other
 // of two sets of read buffers, each reused every other wave).
 func (p *csvParser) parallel(r io.Reader, rest []byte, line int) error {
-	wave := wavePerWorker * parallel.Workers(0)
-	rings := [2][][]byte{make([][]byte, wave), make([][]byte, wave)}
-	cur := p.readWave(r, rings[0], rest, line)
+	wave := wavePerWorker * parallel.Workers(p.workers)
+	if p.workers == 1 {
+		wave = 1 // no worker to wait: the next block is read while this one is parsed
+	}
+	var rings [2][][]byte
+	if p.bufs != nil {
+		rings = p.bufs.rings
+	}
+	for k := range rings {
+		if len(rings[k]) != wave {
+			rings[k] = make([][]byte, wave)
+		}
+	}
+	if p.bufs != nil {
+		p.bufs.rings = rings
+	}
+	// the first wave: the whole lines of rest, parsed where they are (a
+	// copy into a ring buffer would grow it past reuse: rest is nearly
+	// a block)
+	var cur csvWave
+	if cut := bytes.LastIndexByte(rest, '\n') + 1; cut > 0 {
+		c := &chunk{data: rest[:cut], line: line}
+		c.nl, c.nlKnown = bytes.Count(c.data, []byte{'\n'}), true
+		cur = csvWave{cs: []*chunk{c}, carry: rest[cut:], line: line + c.nl}
+	} else {
+		cur = p.readWave(r, rings[0], rest, line)
+	}
 	for k := 1; ; k++ {
 		var next csvWave
 		var done chan struct{}
@@ -789,7 +890,7 @@ func (p *csvParser) parseBlocks(cs []*chunk) error {
 		p.parse(cs[0])
 		err = cs[0].err
 	} else {
-		err = parallel.For(context.Background(), len(cs), 0, nil, func(_ context.Context, i int, _ struct{}) error {
+		err = parallel.For(context.Background(), len(cs), p.workers, nil, func(_ context.Context, i int, _ struct{}) error {
 			p.parse(cs[i])
 			return cs[i].err
 		})

@@ -85,6 +85,8 @@ type Streamer struct {
 	tap       BlockTap  // StreamOptions.Tap
 	src       streamScratch
 	plan      *plan // the last plan, whose buffers the next one reuses
+
+	csv csvBufs // a streamed CSV file's read buffers (see csvSource)
 }
 
 // NewStreamer returns a Streamer that reads with opts (nil: defaults)

@@ -46,9 +46,18 @@ func FuzzStreamParquet(f *testing.F) {
 }
 
 func fuzzStreamOnce(t *testing.T, p string, opts *Options, late bool, want *Dataset, werr error) {
+	fuzzStreamWith(NewStreamer, t, p, opts, &StreamOptions{Window: -1, LateRuns: late}, want, werr)
+}
+
+// fuzzStreamWith is fuzzStreamOnce with the Streamer made by newS from
+// opts and so (so.Tap is set here).
+func fuzzStreamWith(newS func(*Options, *StreamOptions) *Streamer, t *testing.T, p string, opts *Options, so *StreamOptions,
+	want *Dataset, werr error) {
 	{
 		tap := &recTap{}
-		s := NewStreamer(opts, &StreamOptions{Window: -1, LateRuns: late, Tap: tap})
+		so := *so
+		so.Tap = tap
+		s := newS(opts, &so)
 		sf, err := s.Open(context.Background(), p)
 		if err != nil {
 			var pe *ParseError

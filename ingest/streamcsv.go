@@ -16,8 +16,8 @@ type csvSource struct {
 	ns    int // -1 until the first block
 	conv  *timeConv
 	hint  int
-	lines table // marks, for line numbers
-	t     []float64
+	lines table    // marks, for line numbers
+	bufs  *csvBufs // the Streamer's, reused from pass to pass and file to file
 }
 
 func (s *Streamer) openCSVSource(path string) (source, error) {
@@ -28,7 +28,13 @@ func (s *Streamer) openCSVSource(path string) (source, error) {
 	if s.csvWindow > 0 && st.Size() <= s.csvWindow {
 		return nil, &errFallback{"window"}
 	}
-	return &csvSource{path: path, opts: s.opts, size: st.Size(), ns: -1, hint: -1}, nil
+	// one worker per file, as a Parquet file without Prefetch: the
+	// files are on the other cores (and the read buffers stay one wave's)
+	s.csv.workers = 1
+	if s.prefetch {
+		s.csv.workers = 0
+	}
+	return &csvSource{path: path, opts: s.opts, size: st.Size(), ns: -1, hint: -1, bufs: &s.csv}, nil
 }
 
 func (cs *csvSource) header(sf *StreamFile) error {
@@ -85,10 +91,11 @@ func (cs *csvSource) pass(ctx context.Context, fn func(row0 int, t []float64, x 
 		}
 		t := c.t
 		if tb.rate > 0 {
-			if cap(cs.t) < c.rows {
-				cs.t = make([]float64, c.rows)
+			b := cs.bufs
+			if cap(b.rt) < c.rows {
+				b.rt = make([]float64, c.rows)
 			}
-			t = cs.t[:c.rows]
+			t = b.rt[:c.rows]
 			for k := range t {
 				t[k] = float64(row+k) / tb.rate
 			}
@@ -98,7 +105,7 @@ func (cs *csvSource) pass(ctx context.Context, fn func(row0 int, t []float64, x 
 		ferr = fn(row, t[:c.rows], c.x[:cs.ns])
 		row += c.rows
 	}
-	if _, err := readCSVTable(f, cs.path, &o); err != nil {
+	if _, err := readCSVBlocks(f, cs.path, &o, cs.bufs); err != nil {
 		return err
 	}
 	return ferr

@@ -321,63 +321,80 @@ func BenchmarkScreen(b *testing.B) {
 	}
 }
 
-// BenchmarkScreenMemory screens one plain Parquet file of growing size
-// (row groups of 64 Ki rows) with one worker, streamed (with a
-// certificate without and with the noise per state) and whole, and
-// reports the peak heap in use above the start (sampled every
-// millisecond) and its ratio to the file's size.
+// BenchmarkScreenMemory screens one file of growing size with one
+// worker and reports the peak heap in use above the start (sampled every
+// millisecond) and its ratio to the file's size: a plain Parquet file
+// (row groups of 64 Ki rows) streamed (with a certificate without and
+// with the noise per state) and whole; a CSV file with the default
+// options ("stream"), streamed whatever its size ("stream-csv", with
+// and without the noise per state) and whole.
 func BenchmarkScreenMemory(b *testing.B) {
 	c := benchCert(b, 2)
 	cn := *c // with the noise per state: each run's own noise widens the tolerance
 	cn.Noise = []float64{1e-4, 1e-4}
-	for _, rows := range []int{100_000, 400_000, 1_600_000} {
-		dir := b.TempDir()
-		paths, size := benchData(b, dir, "parquet-plain", 2, 1, rows)
-		opts, _ := (&inputFlags{}).options()
-		opts.States = c.States
-		for _, mode := range []string{"stream", "stream-noise", "whole"} {
-			b.Run(fmt.Sprintf("rows=%d/%s", rows, mode), func(b *testing.B) {
-				runtime.GC()
-				var base runtime.MemStats
-				runtime.ReadMemStats(&base)
-				var peak atomic.Uint64
-				stop := make(chan struct{})
-				done := make(chan struct{})
-				go func() {
-					defer close(done)
-					var ms runtime.MemStats
-					for {
-						select {
-						case <-stop:
-							return
-						case <-time.After(time.Millisecond):
-						}
-						runtime.ReadMemStats(&ms)
-						if h := ms.HeapInuse; h > peak.Load() {
-							peak.Store(h)
-						}
-					}
-				}()
-				for b.Loop() {
-					var err error
-					switch mode {
-					case "stream":
-						_, err = screenFiles(context.Background(), c, paths, opts, nil, 1)
-					case "stream-noise":
-						_, err = screenFiles(context.Background(), &cn, paths, opts, nil, 1)
-					default:
-						_, err = screenWhole(context.Background(), c, paths, opts, 1)
-					}
-					if err != nil {
-						b.Fatal(err)
-					}
+	streamCSV := &ingest.StreamOptions{CSVWindow: -1}
+	for _, format := range []string{"parquet-plain", "csv"} {
+		modes := []string{"stream", "stream-noise", "whole"}
+		if format == "csv" {
+			modes = []string{"stream", "stream-csv", "stream-csv-noise", "whole"}
+		}
+		for _, rows := range []int{100_000, 400_000, 1_600_000} {
+			dir := b.TempDir()
+			paths, size := benchData(b, dir, format, 2, 1, rows)
+			opts, _ := (&inputFlags{}).options()
+			opts.States = c.States
+			for _, mode := range modes {
+				name := fmt.Sprintf("rows=%d/%s", rows, mode)
+				if format == "csv" {
+					name = "csv/" + name
 				}
-				close(stop)
-				<-done
-				grow := float64(peak.Load()) - float64(base.HeapInuse)
-				b.ReportMetric(grow/1e6, "peak-heap-MB")
-				b.ReportMetric(grow/float64(size), "peak-heap/file-size")
-			})
+				b.Run(name, func(b *testing.B) {
+					runtime.GC()
+					var base runtime.MemStats
+					runtime.ReadMemStats(&base)
+					var peak atomic.Uint64
+					stop := make(chan struct{})
+					done := make(chan struct{})
+					go func() {
+						defer close(done)
+						var ms runtime.MemStats
+						for {
+							select {
+							case <-stop:
+								return
+							case <-time.After(time.Millisecond):
+							}
+							runtime.ReadMemStats(&ms)
+							if h := ms.HeapInuse; h > peak.Load() {
+								peak.Store(h)
+							}
+						}
+					}()
+					for b.Loop() {
+						var err error
+						switch mode {
+						case "stream":
+							_, err = screenFiles(context.Background(), c, paths, opts, nil, 1)
+						case "stream-noise":
+							_, err = screenFiles(context.Background(), &cn, paths, opts, nil, 1)
+						case "stream-csv":
+							_, err = screenFilesWith(context.Background(), c, paths, opts, nil, 1, streamCSV)
+						case "stream-csv-noise":
+							_, err = screenFilesWith(context.Background(), &cn, paths, opts, nil, 1, streamCSV)
+						default:
+							_, err = screenWhole(context.Background(), c, paths, opts, 1)
+						}
+						if err != nil {
+							b.Fatal(err)
+						}
+					}
+					close(stop)
+					<-done
+					grow := float64(peak.Load()) - float64(base.HeapInuse)
+					b.ReportMetric(grow/1e6, "peak-heap-MB")
+					b.ReportMetric(grow/float64(size), "peak-heap/file-size")
+				})
+			}
 		}
 	}
 }
