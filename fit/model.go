@@ -417,7 +417,10 @@ type Certificate struct {
 
 // Region describes the certified level set.
 type Region struct {
-	// EnvelopeShare is the region's volume as a share of the envelope's.
+	// EnvelopeShare is the region's volume as a share of the model's
+	// trust region's (the part of the samples' box where the fitted
+	// model is believed), not of the whole box. The key keeps its first
+	// name.
 	EnvelopeShare float64 `json:"envelope_share"`
 	// Extent is the region's extent along each state, original units.
 	Extent [][2]float64 `json:"extent"`

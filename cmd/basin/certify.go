@@ -167,7 +167,7 @@ func printCertificate(w io.Writer, c *fit.Certificate) {
 	}
 	fmt.Fprintf(w, "level: V <= %s (margin %s, noise radius %s in z, pair tolerance %s)\n",
 		human.Sig(c.Level, 6), human.Sig(c.Margin, 3), human.Sig(c.NoiseRadius, 3), human.Sig(c.Tolerance, 3))
-	fmt.Fprintf(w, "region: %s of the envelope the data cover\n", human.Percent(c.Region.EnvelopeShare))
+	fmt.Fprintf(w, "region: %s of the model's trust region (where the data support the fit)\n", human.Percent(c.Region.EnvelopeShare))
 	for j, s := range c.States {
 		u := ""
 		if c.Units[j] != "" {

@@ -61,3 +61,16 @@ func TestCheckedLine(t *testing.T) {
 		})
 	}
 }
+
+// TestPageShareWords: the page gives the region's share as the trust
+// region's (fit.TestEnvelopeShareIsTrustShare shows that it is), not as
+// "the envelope the recorded data span".
+func TestPageShareWords(t *testing.T) {
+	page := renderPage(t, fixture(mustCert(fixtureCertJSON), nil))
+	if !strings.Contains(page, "of the model's trust region") {
+		t.Error("the page does not give the share as the trust region's")
+	}
+	if strings.Contains(page, "of the envelope the recorded data span") {
+		t.Error("the page gives the share as the envelope's")
+	}
+}
