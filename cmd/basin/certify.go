@@ -138,6 +138,31 @@ func zNames(states []string) []string {
 	return out
 }
 
+// zDefinition says how the scaled coordinate of state s (unit u) is
+// made: z_s = (s - x*)/scale, each number with its unit, the sign of the
+// equilibrium folded in ("(latch + 1 mm)/(0.737 mm)", not "(latch - -1)/
+// 0.737 mm") and a zero one left out.
+func zDefinition(s, u string, eq, scale float64) string {
+	with := func(v string) string {
+		if u == "" {
+			return v
+		}
+		return v + " " + u
+	}
+	sc := with(human.Num(scale))
+	if u != "" {
+		sc = "(" + sc + ")"
+	}
+	e := human.Near(eq, scale)
+	switch {
+	case e == "0":
+		return fmt.Sprintf("z_%s = %s/%s", s, s, sc)
+	case strings.HasPrefix(e, "-"):
+		return fmt.Sprintf("z_%s = (%s + %s)/%s", s, s, with(e[1:]), sc)
+	}
+	return fmt.Sprintf("z_%s = (%s - %s)/%s", s, s, with(e), sc)
+}
+
 // printCertificate writes the readable form of a certificate.
 func printCertificate(w io.Writer, c *fit.Certificate) {
 	fmt.Fprintf(w, "verdict: %s (strength %s)\n", c.Verdict, c.Strength)
@@ -154,11 +179,7 @@ func printCertificate(w io.Writer, c *fit.Certificate) {
 	}
 	var zs []string
 	for j, s := range c.States {
-		u := ""
-		if c.Units[j] != "" {
-			u = " " + c.Units[j]
-		}
-		zs = append(zs, fmt.Sprintf("z_%s = (%s - %s)/%s%s", s, s, human.Near(c.Equilibrium[j], c.Scale[j]), human.Num(c.Scale[j]), u))
+		zs = append(zs, zDefinition(s, c.Units[j], c.Equilibrium[j], c.Scale[j]))
 	}
 	text, dropped := report.VText(c)
 	fmt.Fprintf(w, "V = %s\n  with %s\n", text, strings.Join(zs, ", "))
