@@ -224,8 +224,12 @@ func Field(ctx context.Context, ds *ingest.Dataset, opts *FieldOptions) (*Model,
 			if o.SkipShort {
 				continue
 			}
-			return nil, errorf(ErrShortRun, "%s: run %q has %d samples, fewer than the derivative window of %d; drop the run or the gap that split it",
-				r.Source.File, r.Name, r.Len(), minWindow)
+			noun := "samples"
+			if r.Len() == 1 {
+				noun = "sample"
+			}
+			return nil, errorf(ErrShortRun, "%s: run %q has %d %s, fewer than the derivative window of %d; drop the run or the gap that split it",
+				r.Source.File, r.Name, r.Len(), noun, minWindow)
 		}
 		runs = append(runs, r)
 	}

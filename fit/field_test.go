@@ -400,6 +400,13 @@ func TestFieldBadInput(t *testing.T) {
 			r.T, r.X = r.T[:3], [][]float64{r.X[0][:3], r.X[1][:3]}
 			return ds
 		}, ErrShortRun, `run "run02" has 3 samples`},
+		// a one-row file (a logger stopped at once): one sample, not "1 samples"
+		{"one-sample run", func() *ingest.Dataset {
+			ds := good()
+			r := &ds.Runs[2]
+			r.T, r.X = r.T[:1], [][]float64{r.X[0][:1], r.X[1][:1]}
+			return ds
+		}, ErrShortRun, `run "run02" has 1 sample, fewer than`},
 		{"all missing", func() *ingest.Dataset {
 			ds := good()
 			for i := range ds.Runs {
