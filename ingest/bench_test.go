@@ -90,6 +90,53 @@ func benchFiles(b *testing.B) (string, string) {
 	return benchCSV, benchPQ
 }
 
+// bench2CSV is the two-state benchmark file (written once, by
+// benchFile): 10^6 rows of a time column and two states of the same kind
+// as benchFiles' (other draws), about 32 MB.
+var (
+	bench2Once sync.Once
+	bench2CSV  string
+)
+
+// benchFile returns the 10^6-row benchmark CSV file with ns states: 6
+// (benchFiles') or 2.
+func benchFile(b *testing.B, ns int) string {
+	path, _ := benchFiles(b)
+	if ns == benchCols-1 {
+		return path
+	}
+	if ns != 2 {
+		b.Fatalf("no benchmark file with %d states", ns)
+	}
+	bench2Once.Do(func() {
+		bench2CSV = filepath.Join(benchDir, "bench2.csv")
+		f, err := os.Create(bench2CSV)
+		if err != nil {
+			b.Fatal(err)
+		}
+		w := bufio.NewWriterSize(f, 1<<20)
+		rng := rand.New(rand.NewPCG(2, 0))
+		w.WriteString("t,x1,x2\n")
+		var buf []byte
+		for i := range benchRows {
+			buf = strconv.AppendFloat(buf[:0], float64(i)*0.005, 'f', 4, 64)
+			for range 2 {
+				buf = append(buf, ',')
+				buf = strconv.AppendFloat(buf, rng.NormFloat64(), 'g', 9, 64)
+			}
+			buf = append(buf, '\n')
+			w.Write(buf)
+		}
+		if err := w.Flush(); err != nil {
+			b.Fatal(err)
+		}
+		if err := f.Close(); err != nil {
+			b.Fatal(err)
+		}
+	})
+	return bench2CSV
+}
+
 func TestMain(m *testing.M) {
 	code := m.Run()
 	if benchDir != "" {
@@ -99,14 +146,15 @@ func TestMain(m *testing.M) {
 }
 
 // naiveRead is the baseline: encoding/csv with ReuseRecord and
-// strconv.ParseFloat into column slices.
+// strconv.ParseFloat into column slices, one per header field.
 func naiveRead(r io.Reader) ([][]float64, error) {
 	cr := csv.NewReader(bufio.NewReaderSize(r, 1<<16))
 	cr.ReuseRecord = true
-	if _, err := cr.Read(); err != nil {
+	head, err := cr.Read()
+	if err != nil {
 		return nil, err
 	}
-	cols := make([][]float64, benchCols)
+	cols := make([][]float64, len(head))
 	for {
 		rec, err := cr.Read()
 		if err == io.EOF {
@@ -286,17 +334,30 @@ func BenchmarkScanFast(b *testing.B) {
 // BenchmarkReadCSVSideBySide times ReadCSV and the naive reader
 // (encoding/csv and strconv.ParseFloat) on the same file alternately in
 // one loop (A, B, then B, A: the order swapped every iteration), so that
-// both see the same machine load. It reports medians over the
-// iterations: x-naive is the median of the per-pair ratios naive/basin
-// of wall-clock time, x-naive-cpu the same for the CPU time the process
-// used during each (on a busy machine the wall-clock ratio depends on how
-// many cores the other processes leave; the CPU ratio does not), and
-// basin-s, naive-s, basin-cpu-s, naive-cpu-s the median times. Each read starts after a collection
-// (outside the timing), so that neither pays for the other's garbage.
-// Run it with -cpu 1,2 to see the ratio with one core and with two, and
-// -benchtime Nx for N pairs.
+// both see the same machine load, on 10^6 rows of six states (the 84 MB
+// file of benchFiles, "states=6") and of two ("states=2", 32 MB). It
+// reports medians over the iterations: x-naive is the median of the
+// per-pair ratios naive/basin of wall-clock time, x-naive-cpu the same
+// for the CPU time the process used during each (on a busy machine the
+// wall-clock ratio depends on how many cores the other processes leave;
+// the CPU ratio does not), and basin-s, naive-s, basin-cpu-s,
+// naive-cpu-s the median times; Msamples/s and MB/s are ReadCSV's
+// throughput at its median wall-clock time (samples are rows: a time
+// and every state). Each read starts after a collection (outside the
+// timing), so that neither pays for the other's garbage. Run it with
+// -cpu 1,2 to see the ratio with one core and with two, and -benchtime
+// Nx for N pairs.
 func BenchmarkReadCSVSideBySide(b *testing.B) {
-	path, _ := benchFiles(b)
+	for _, ns := range []int{2, 6} {
+		b.Run(fmt.Sprintf("states=%d", ns), func(b *testing.B) { readCSVSideBySide(b, benchFile(b, ns)) })
+	}
+}
+
+func readCSVSideBySide(b *testing.B, path string) {
+	st, err := os.Stat(path)
+	if err != nil {
+		b.Fatal(err)
+	}
 	var naive, basin, naiveCPU, basinCPU, wall, cpu []float64
 	var dNaive, cNaive, dBasin, cBasin time.Duration
 	readNaive := func() {
@@ -344,6 +405,8 @@ func BenchmarkReadCSVSideBySide(b *testing.B) {
 	b.ReportMetric(med(naive), "naive-s")
 	b.ReportMetric(med(basinCPU), "basin-cpu-s")
 	b.ReportMetric(med(naiveCPU), "naive-cpu-s")
+	b.ReportMetric(benchRows/med(basin)/1e6, "Msamples/s")
+	b.ReportMetric(float64(st.Size())/med(basin)/1e6, "MB/s")
 }
 
 // BenchmarkEventsSideBySide reads the benchmark file with the event and
