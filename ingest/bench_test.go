@@ -642,3 +642,65 @@ func BenchmarkReadCSVFormats(b *testing.B) {
 		})
 	}
 }
+
+// BenchmarkKernelsSideBySide times each rewritten kernel of the whole
+// read against the loop it replaced (kept in kernels_test.go), on the
+// same 10^6 samples (Gaussian noise; a clock of 0.005 s steps),
+// alternately in one loop (the order swapped every iteration): x-plain is
+// the median of the per-pair ratios plain/new of wall-clock time, and
+// ns/sample the new kernel's median time a sample.
+func BenchmarkKernelsSideBySide(b *testing.B) {
+	const n = 1_000_000
+	rng := rand.New(rand.NewPCG(4, 4))
+	x, tm := make([]float64, n), make([]float64, n)
+	for i := range x {
+		x[i] = rng.NormFloat64()
+		tm[i] = float64(i) * 0.005
+	}
+	sub := make([]float64, 0, n/(n/noiseSubsample)+1) // noiseOf's subsample
+	for i := 0; i < n; i += n / noiseSubsample {
+		sub = append(sub, x[i])
+	}
+	var co clockCoefs
+	co.set(tm)
+	var dst []float64
+	var sink float64
+	for _, k := range []struct {
+		name       string
+		plain, new func()
+	}{
+		{"span", func() { lo, hi, q := spanStepPlain(x, math.Inf(1)); sink += hi - lo + q },
+			func() { lo, hi, q := spanStep(x, math.Inf(1)); sink += hi - lo + q }},
+		{"scale", func() { sink += robustScalePlain(sub) }, func() { sink += robustScale(sub) }},
+		{"jump-even", func() { dst, _ = clockJumpStatPlain(&co, dst, x) }, func() { dst, _ = co.jumpStat(dst, x) }},
+		{"clock-set", func() { clockSetPlain(&co, tm) }, func() { co.set(tm) }},
+		{"head", func() { sink += float64(firstBeyondPlain(x, 0, 6)) }, func() { sink += float64(firstBeyond(x, 0, 6)) }},
+	} {
+		b.Run(k.name, func(b *testing.B) {
+			var ratio, per []float64
+			i := 0
+			for b.Loop() {
+				var dp, dn time.Duration
+				run := func(f func(), d *time.Duration) {
+					t0 := time.Now()
+					f()
+					*d = time.Since(t0)
+				}
+				if i%2 == 0 {
+					run(k.plain, &dp)
+					run(k.new, &dn)
+				} else {
+					run(k.new, &dn)
+					run(k.plain, &dp)
+				}
+				ratio = append(ratio, dp.Seconds()/dn.Seconds())
+				per = append(per, float64(dn.Nanoseconds())/n)
+				i++
+			}
+			med := func(v []float64) float64 { return order.Median(order.Sorted(nil, v)) }
+			b.ReportMetric(med(ratio), "x-plain")
+			b.ReportMetric(med(per), "ns/sample")
+		})
+	}
+	_ = sink
+}

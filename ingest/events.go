@@ -6,6 +6,7 @@ import (
 	"slices"
 	"sync/atomic"
 
+	"basin.example/internal/order"
 	"basin.example/internal/parallel"
 )
 
@@ -183,7 +184,11 @@ type jumpCoef struct {
 // clockCoef returns the coefficients of the sample at t2 of the samples
 // at times t0 .. t3.
 func clockCoef(t0, t1, t2, t3 float64) jumpCoef {
-	h1, h2, h3 := t1-t0, t2-t1, t3-t2
+	return stepCoef(t1-t0, t2-t1, t3-t2)
+}
+
+// stepCoef is [clockCoef] from the three time steps h1, h2, h3.
+func stepCoef(h1, h2, h3 float64) jumpCoef {
 	if evenSteps(h1, h2, h3) {
 		return jumpCoef{even: true}
 	}
@@ -216,6 +221,10 @@ func stepSize(s float64, x, t []float64, i int) float64 {
 // robustScale returns madGauss times the median absolute deviation of v
 // about its median, over a strided subsample of at most noiseSubsample
 // values. v is not modified.
+//
+// Both medians are [median]'s (a NaN ranks below every number), taken by
+// selection ([selectMedian]) rather than a sort: order statistics, so
+// the same float64 values whatever the method.
 func robustScale(v []float64) float64 {
 	if len(v) == 0 {
 		return 0
@@ -225,14 +234,36 @@ func robustScale(v []float64) float64 {
 	for i := 0; i < len(v); i += step {
 		w = append(w, v[i])
 	}
-	m := median(w)
-	if math.IsNaN(w[0]) || math.IsInf(m, 0) { // no order to merge by
-		for i := range w {
-			w[i] = math.Abs(w[i] - m)
-		}
-		return madGauss * median(w)
+	m := selectMedian(w)
+	for i := range w {
+		w[i] = math.Abs(w[i] - m)
 	}
-	return madGauss * madOfSorted(w, m)
+	return madGauss * selectMedian(w)
+}
+
+// selectMedian returns [median] of v, reordering v, by [order.Select]
+// (Hoare's FIND) instead of a sort: with k NaN, which the sort puts
+// first, the median of the sorted v[k:n-k], NaN when that is empty. The
+// value is median's to the bit (the same order statistics, averaged the
+// same way: [order.Median] on the middle one or two), but for the sign of
+// a zero: -0 and +0 compare equal, and neither the sort nor the
+// selection orders them. robustScale does not see that sign: its
+// deviations are absolute values, and |v - 0| is the same for either
+// zero.
+func selectMedian(v []float64) float64 {
+	k := 0
+	for _, x := range v {
+		if x != x {
+			k++
+		}
+	}
+	m := len(v) - 2*k
+	if m <= 0 {
+		return math.NaN()
+	}
+	lo, hi := k+(m-1)/2, k+m/2
+	order.Select(v, lo, hi)
+	return order.Median(v[lo : hi+1])
 }
 
 // stateNoise is what event and head detection know about one state of a
@@ -269,15 +300,8 @@ func (tb *table) noiseOf(pieces [][][2]int, ns int) ([]stateNoise, error) {
 		lo, hi := math.Inf(1), math.Inf(-1)
 		for _, p := range pieces {
 			x, t := pieceValues(tb.x[j], p), pieceValues(tb.t, p)
-			// the span and the resolution in one pass (minMax's order)
-			a, b := x[0], x[0]
-			for i := 1; i < len(x); i++ {
-				v := x[i]
-				a, b = min(a, v), max(b, v)
-				if d := math.Abs(v - x[i-1]); d > 0 && d < q {
-					q = d
-				}
-			}
+			var a, b float64
+			a, b, q = spanStep(x, q)
 			lo, hi = min(lo, a), max(hi, b)
 			for i := 2; i < len(x)-1; i += stride {
 				all = append(all, jumpAt(x[i-2], x[i-1], x[i], x[i+1], t[i-2], t[i-1], t[i], t[i+1]))
@@ -291,6 +315,63 @@ func (tb *table) noiseOf(pieces [][][2]int, ns int) ([]stateNoise, error) {
 		return nil, err
 	}
 	return out, nil
+}
+
+// spanStep returns the least and the greatest of x (not empty), as Go's
+// min and max give them (-0 below +0; NaN when any value is NaN), and
+// the smaller of q (> 0) and the smallest nonzero |x[i] - x[i-1]|: the
+// span and the resolution of a state in one pass.
+//
+// It makes two lanes (even and odd i) of independent minima, and takes
+// them on integers: the key of [orderKey] orders float64 values as
+// min and max do, and the bits of a nonnegative float64 less one order
+// its nonzero values with 0 wrapped above everything (and NaN above
+// +Inf, so never below q), so each step is an integer compare and move,
+// not the several instructions Go's float min takes for its NaN and
+// signed-zero rules. Every statistic is a minimum or a maximum, which no
+// order of the lanes changes, so the values are those of the plain loop
+// (spanStepPlain in a test file) to the bit.
+func spanStep(x []float64, q float64) (lo, hi, qmin float64) {
+	l0 := orderKey(x[0])
+	l1, h0, h1 := l0, l0, l0
+	q0 := math.Float64bits(q) - 1
+	q1 := q0
+	i := 1
+	for ; i+2 <= len(x); i += 2 {
+		w := x[i-1 : i+2 : i+2]
+		p, v0, v1 := w[0], w[1], w[2]
+		k0, k1 := orderKey(v0), orderKey(v1)
+		l0, h0 = min(l0, k0), max(h0, k0)
+		l1, h1 = min(l1, k1), max(h1, k1)
+		q0 = min(q0, math.Float64bits(math.Abs(v0-p))-1)
+		q1 = min(q1, math.Float64bits(math.Abs(v1-v0))-1)
+	}
+	if i < len(x) {
+		v := x[i]
+		k := orderKey(v)
+		l0, h0 = min(l0, k), max(h0, k)
+		q0 = min(q0, math.Float64bits(math.Abs(v-x[i-1]))-1)
+	}
+	lo, hi = keyValue(min(l0, l1)), keyValue(max(h0, h1))
+	if lo != lo || hi != hi {
+		// a NaN sorts to one end by its sign bit; min and max give NaN
+		lo, hi = math.NaN(), math.NaN()
+	}
+	return lo, hi, math.Float64frombits(min(q0, q1) + 1)
+}
+
+// orderKey maps x to an integer that orders as x does under Go's min and
+// max for numbers (-0 below +0): the bits of a positive x, and those of
+// a negative x with all but the sign flipped. NaN maps beyond ±Inf by
+// its sign.
+func orderKey(x float64) int64 {
+	b := math.Float64bits(x)
+	return int64(b ^ uint64(int64(b)>>63)>>1)
+}
+
+// keyValue is the float64 whose [orderKey] is k.
+func keyValue(k int64) float64 {
+	return math.Float64frombits(uint64(k) ^ uint64(k>>63)>>1)
 }
 
 // cut is a place to split a piece: before sample k (a step), or around
@@ -466,30 +547,61 @@ type stateScratch struct {
 // clockCoefs holds, for every sample i of a piece, the part of [jumpAt]
 // that depends on the clock only: a[i] = h2/h1, b[i] = h2/h3 and sc[i] =
 // sqrt(5/v), or sc[i] = -1 where the three steps are equal (jumpAt's even
-// case; sc is never negative otherwise). [clockCoefs.jumpStat] then gives
-// jumpAt's values, to the bit (the same operations in the same order),
-// without its divisions and square root for every state.
+// case; sc is never negative otherwise); even says that every sample is
+// of the even case. [clockCoefs.jumpStat] then gives jumpAt's values, to
+// the bit (the same operations in the same order), without its
+// divisions and square root for every state.
 type clockCoefs struct {
 	a, b, sc []float64
+	even     bool
 }
 
-// set computes the coefficients of the clock t.
+// set computes the coefficients of the clock t. Each step is taken once
+// and slid along (h1, h2, h3 of sample i are h2, h3 and the next step of
+// sample i-1): the same differences of the same times as [clockCoef]'s.
+// The samples up to the first uneven one store nothing until it is
+// found, so that an even clock stores nothing at all.
 func (c *clockCoefs) set(t []float64) {
 	n := len(t)
 	c.a = slices.Grow(c.a[:0], n)[:n]
 	c.b = slices.Grow(c.b[:0], n)[:n]
 	c.sc = slices.Grow(c.sc[:0], n)[:n]
-	for i := 2; i < n-1; i++ {
-		k := clockCoef(t[i-2], t[i-1], t[i], t[i+1])
-		if k.even {
-			c.sc[i] = -1
-			continue
+	c.even = true
+	if n < 4 {
+		return
+	}
+	h1, h2 := t[1]-t[0], t[2]-t[1]
+	i := 2
+	for ; i < n-1; i++ {
+		h3 := t[i+1] - t[i]
+		if !evenSteps(h1, h2, h3) {
+			break
 		}
-		c.a[i], c.b[i], c.sc[i] = k.a, k.b, k.sc
+		h1, h2 = h2, h3
+	}
+	if i == n-1 {
+		return
+	}
+	c.even = false
+	for k := 2; k < i; k++ {
+		c.sc[k] = -1
+	}
+	for ; i < n-1; i++ {
+		h3 := t[i+1] - t[i]
+		if evenSteps(h1, h2, h3) { // stepCoef's first test, inlined
+			c.sc[i] = -1
+		} else {
+			k := stepCoef(h1, h2, h3)
+			c.a[i], c.b[i], c.sc[i] = k.a, k.b, k.sc
+		}
+		h1, h2 = h2, h3
 	}
 }
 
-// jumpStat is [jumpStatFinite] of x on the clock of c.
+// jumpStat is [jumpStatFinite] of x on the clock of c. On an even clock
+// (c.even) it takes four samples a step, with four sums for the finite
+// test (x - x is 0 for a finite x and NaN otherwise), so that no chain
+// of additions paces the loop; elsewhere two.
 func (c *clockCoefs) jumpStat(dst, x []float64) ([]float64, bool) {
 	n := len(x)
 	dst = slices.Grow(dst[:0], n)[:n]
@@ -498,20 +610,49 @@ func (c *clockCoefs) jumpStat(dst, x []float64) ([]float64, bool) {
 		return dst, true
 	}
 	dst[0], dst[1], dst[n-1] = 0, 0, 0
-	ca, cb, cs := c.a[:n], c.b[:n], c.sc[:n]
-	acc := 0.0
-	for i := 2; i < n-1; i++ {
-		x0, x1, x2, x3 := x[i-2], x[i-1], x[i], x[i+1]
-		var v float64
-		if sc := cs[i]; sc < 0 {
-			v = 1.5*(x2-x1) + 0.5*(x0-x3)
-		} else {
-			v = ((x2 - x1) - 0.5*(ca[i]*(x1-x0)+cb[i]*(x3-x2))) * sc
+	var a0, a1, a2, a3 float64
+	i := 2
+	if c.even {
+		for ; i+4 <= n-1; i += 4 {
+			w := x[i-2 : i+5 : i+5]
+			d := dst[i : i+4 : i+4]
+			v0 := 1.5*(w[2]-w[1]) + 0.5*(w[0]-w[3])
+			v1 := 1.5*(w[3]-w[2]) + 0.5*(w[1]-w[4])
+			v2 := 1.5*(w[4]-w[3]) + 0.5*(w[2]-w[5])
+			v3 := 1.5*(w[5]-w[4]) + 0.5*(w[3]-w[6])
+			d[0], d[1], d[2], d[3] = v0, v1, v2, v3
+			a0 += v0 - v0
+			a1 += v1 - v1
+			a2 += v2 - v2
+			a3 += v3 - v3
 		}
-		dst[i] = v
-		acc += v - v // NaN once any v is NaN or infinite
+		for ; i < n-1; i++ {
+			v := 1.5*(x[i]-x[i-1]) + 0.5*(x[i-2]-x[i+1])
+			dst[i] = v
+			a0 += v - v
+		}
+		return dst, a0+a1+a2+a3 == 0
 	}
-	return dst, acc == 0
+	ca, cb, cs := c.a[:n], c.b[:n], c.sc[:n]
+	at := func(i int) float64 {
+		x0, x1, x2, x3 := x[i-2], x[i-1], x[i], x[i+1]
+		if cs[i] < 0 {
+			return 1.5*(x2-x1) + 0.5*(x0-x3)
+		}
+		return ((x2 - x1) - 0.5*(ca[i]*(x1-x0)+cb[i]*(x3-x2))) * cs[i]
+	}
+	for ; i+2 <= n-1; i += 2 {
+		v0, v1 := at(i), at(i+1)
+		dst[i], dst[i+1] = v0, v1
+		a0 += v0 - v0
+		a1 += v1 - v1
+	}
+	if i < n-1 {
+		v := at(i)
+		dst[i] = v
+		a0 += v - v
+	}
+	return dst, a0+a1 == 0
 }
 
 // jumpStatFinite is jumpStat, and reports whether every value is finite
@@ -698,13 +839,7 @@ func (tb *table) restingHead(p [][2]int, noise []stateNoise) int {
 		xs[j] = x
 		copy(head, x[:MinHead])
 		bases[j] = median(head)
-		lim := RestSigmas * sn.floor()
-		for i := 0; i < end; i++ {
-			if math.Abs(x[i]-bases[j]) > lim {
-				end = i
-				break
-			}
-		}
+		end = firstBeyond(x[:end], bases[j], RestSigmas*sn.floor())
 	}
 	if end < MinHead || end == n {
 		return 0 // too short to be rest, or no motion at all
@@ -718,6 +853,29 @@ func (tb *table) restingHead(p [][2]int, noise []stateNoise) int {
 		}
 	}
 	return end
+}
+
+// firstBeyond returns the first i with |x[i] - base| > lim, or len(x)
+// when there is none. It tests four values a step, so that the loop's
+// own count and test are paid once for four, and each as d > lim || d <
+// -lim (d = x[i] - base; the same test, NaN failing both, as negation is
+// exact); the block that holds a hit is searched again by the plain
+// test, so the index is the plain loop's.
+func firstBeyond(x []float64, base, lim float64) int {
+	i, nlim := 0, -lim
+	for ; i+4 <= len(x); i += 4 {
+		w := x[i : i+4 : i+4]
+		d0, d1, d2, d3 := w[0]-base, w[1]-base, w[2]-base, w[3]-base
+		if d0 > lim || d0 < nlim || d1 > lim || d1 < nlim || d2 > lim || d2 < nlim || d3 > lim || d3 < nlim {
+			break
+		}
+	}
+	for ; i < len(x); i++ {
+		if math.Abs(x[i]-base) > lim {
+			return i
+		}
+	}
+	return len(x)
 }
 
 func mean(v []float64) float64 {
