@@ -1,6 +1,7 @@
 package validate
 
 import (
+	"fmt"
 	"math"
 	"math/rand/v2"
 	"testing"
@@ -58,18 +59,29 @@ func TestScreenFaults(t *testing.T) {
 			return 0.08 * math.Cos(3*t), 0.08 * math.Sin(3*t)
 		})), 0.01, nil},
 	}
-	stuck := cases[1].run
-	stuck.Name = "stuck"
-	stuck.X = [][]float64{append([]float64(nil), stuck.X[0]...), stuck.X[1]}
-	for i := 600; i < len(stuck.T); i++ {
-		stuck.X[0][i] = stuck.X[0][600]
+	// the healthy run's first reading held from sample 100 (t = 1 s,
+	// |z| = 0.13, V = 0.018 above the settle level 0.0025: mid-approach)
+	// is stuck, and its end, held off the equilibrium, unsettled; held
+	// from sample 600 (t = 6 s, |z| = 7e-5: at rest) it is what a coarse
+	// quantised sensor at rest shows, and not flagged
+	for _, at := range []int{100, 600} {
+		stuck := cases[1].run
+		stuck.Name = fmt.Sprintf("stuck-%d", at)
+		stuck.X = [][]float64{append([]float64(nil), stuck.X[0]...), stuck.X[1]}
+		for i := at; i < len(stuck.T); i++ {
+			stuck.X[0][i] = stuck.X[0][at]
+		}
+		want := []string{FlagUnsettled, FlagStuck}
+		if at == 600 {
+			want = nil
+		}
+		cases = append(cases, struct {
+			name string
+			run  ingest.Run
+			tol  float64
+			want []string
+		}{stuck.Name, stuck, 0, want})
 	}
-	cases = append(cases, struct {
-		name string
-		run  ingest.Run
-		tol  float64
-		want []string
-	}{"stuck", stuck, 0, []string{FlagStuck}})
 	for _, c := range cases {
 		cert := circleCert(false)
 		cert.Noise = []float64{0.0002, 0.0004} // the run's own: the tolerance stays

@@ -52,8 +52,14 @@ const (
 //   - rises also when, after entering, the end's mean V exceeds the
 //     least earlier chunk's by more than the tolerance (a slow growth).
 //   - stuck: a state whose certificate noise is positive held one
-//     reading over the run's last tailMax samples or more; State names
-//     it, Time is where the value began to hold, Excess how long (s).
+//     reading over the run's last tailMax samples or more, the held
+//     stretch having begun away from rest: V at its first sample above
+//     the run's settle level (noise-scaled, as for unsettled). A
+//     quantised sensor at rest holds its reading for long stretches and
+//     is not flagged; a reading that freezes mid-approach is (one that
+//     dies after the run has settled is not told from a quantised one).
+//     State names it, Time is where the value began to hold, Excess how
+//     long (s).
 //   - slow: the run's decay rate is below the certificate's
 //     validation.decay.lower_bound (see [DecayOf]). The rate is minus the
 //     least-squares slope of log V against time over the run's approach:
@@ -509,10 +515,12 @@ type runState struct {
 	// full chunk's (+Inf: none)
 	csum, lowBefore, lastChunk float64
 	// stuck: per state, the index and time from which its reading has
-	// held the value stuckVal (see [Screener.stuckScan])
+	// held the value stuckVal, and V at that sample (see
+	// [Screener.stuckScan])
 	stuckFrom []int
 	stuckT    []float64
 	stuckVal  []float64
+	stuckV    []float64
 }
 
 // Begin starts screening a run named run of file into dst, reusing
@@ -524,8 +532,8 @@ func (s *Screener) Begin(dst *RunScreen, file, run string) {
 	*dst = RunScreen{File: file, Run: run, Flags: flags, enter: -1}
 	dst.worstExcess = math.Inf(-1)
 	st := &s.st
-	lx, sf, stt, sv := st.leaveX, st.stuckFrom, st.stuckT, st.stuckVal
-	*st = runState{dst: dst, leaveX: lx, stuckFrom: sf, stuckT: stt, stuckVal: sv, lastScen: math.Inf(-1),
+	lx, sf, stt, sv, svv := st.leaveX, st.stuckFrom, st.stuckT, st.stuckVal, st.stuckV
+	*st = runState{dst: dst, leaveX: lx, stuckFrom: sf, stuckT: stt, stuckVal: sv, stuckV: svv, lastScen: math.Inf(-1),
 		lowBefore: math.Inf(1), lastChunk: math.Inf(1),
 		rise:  Flag{Kind: FlagRises, Time: math.NaN(), Excess: math.Inf(-1)},
 		leave: Flag{Kind: FlagLeaves, Time: math.NaN(), Excess: math.Inf(-1)}, leaveWrst: math.Inf(-1)}
@@ -534,6 +542,7 @@ func (s *Screener) Begin(dst *RunScreen, file, run string) {
 	}
 	if len(st.stuckFrom) != s.n {
 		st.stuckFrom, st.stuckT, st.stuckVal = make([]int, s.n), make([]float64, s.n), make([]float64, s.n)
+		st.stuckV = make([]float64, s.n)
 	}
 }
 
@@ -687,9 +696,10 @@ func (s *Screener) feed(X [][]float64, T []float64, i0, i1 int) {
 }
 
 // stuckScan updates, per state, where the run's trailing stretch of one
-// repeated reading began, from samples i0..i1-1 (T holds their times,
-// from i0). It scans each block's column back from its end to the first
-// change: one comparison a block for a moving reading.
+// repeated reading began and V there, from samples i0..i1-1 (T holds
+// their times, from i0; the block buffers hold their V). It scans each
+// block's column back from its end to the first change: one comparison a
+// block for a moving reading.
 func (s *Screener) stuckScan(X [][]float64, T []float64, i0, i1 int) {
 	st := &s.st
 	for j := range st.stuckFrom {
@@ -700,7 +710,7 @@ func (s *Screener) stuckScan(X [][]float64, T []float64, i0, i1 int) {
 			k--
 		}
 		if k > 0 || st.m == 0 || st.stuckVal[j] != last {
-			st.stuckFrom[j], st.stuckT[j] = st.m+k, T[k]
+			st.stuckFrom[j], st.stuckT[j], st.stuckV[j] = st.m+k, T[k], s.vbuf[k]
 		}
 		st.stuckVal[j] = last
 	}
@@ -820,8 +830,11 @@ func (s *Screener) End() {
 	if s.slowBound > 0 && dst.DecaySamples > 0 && dst.DecayRate < s.slowBound {
 		dst.Flags = append(dst.Flags, Flag{Kind: FlagSlow, Time: st.lastT, Excess: s.slowBound - dst.DecayRate})
 	}
+	// A reading held at rest is a quantised sensor's, not a dead one's:
+	// stuck needs the held stretch to begin away from rest, with V at its
+	// first sample above the run's settle level.
 	for j, from := range st.stuckFrom {
-		if s.stuckOn(j) && m-from >= tailMax {
+		if s.stuckOn(j) && m-from >= tailMax && st.stuckV[j] > settle {
 			dst.Flags = append(dst.Flags, Flag{Kind: FlagStuck, Time: st.stuckT[j], Excess: clampFinite(st.lastT - st.stuckT[j]), State: s.cert.States[j]})
 			break
 		}
@@ -983,7 +996,8 @@ type Rules struct {
 	// run of m samples: w = min(max(m/TailShare, 1), TailMax).
 	TailMax, TailShare int
 	// Stuck says, per state, that its reading can be found stuck: one
-	// value over the run's last TailMax samples or more.
+	// value over the run's last TailMax samples or more, with V at the
+	// held stretch's first sample above the run's settle level.
 	Stuck []bool
 	// NoiseRef, when not nil, is the certificate's noise per state: a run
 	// of at least 5 samples whose own noise ([fit.RunNoise]) exceeds it

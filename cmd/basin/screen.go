@@ -66,7 +66,9 @@ rates (an older file) screens without the slow flag, with one warning.
 A run whose V grows over it (its end above its lowest earlier 50-sample
 stretch by more than the tolerance) is flagged rises too; one at rest off
 the equilibrium is unsettled; a state whose reading holds one value over
-the run's last 50 samples or more is stuck (state names it).
+the run's last 50 samples or more, from a sample where the run was away
+from rest (V above the settle level), is stuck (state names it): a
+quantised sensor holding its reading at rest is not.
 
 Folders are read with their key=value subfolders (the partition layout of
 data lakes and Parquet writers: logs/vehicle=17/day=2026-11-30/run.parquet),

@@ -214,7 +214,7 @@ d AS (
 	// Chunks of TailMax samples from each piece's first (c), their mean V
 	// and the least of those that end before the tail window (lowpre);
 	// and, per state, the row from which its reading held one value (a
-	// change is a row whose value differs from the row before).
+	// change is a row whose value differs from the row before) and V there.
 	win2 := `PARTITION BY "run", pc ORDER BY t`
 	fmt.Fprintf(b, `ck AS (
   SELECT "run", pc, CAST(FLOOR((rn - 1) / %[1]d.0) AS INTEGER) AS c, COUNT(*) AS cn, AVG(v) AS cv, MAX(m) AS m
@@ -228,19 +228,33 @@ lp AS (
   GROUP BY "run", pc
 ),
 sk AS (
-  SELECT "run", pc, ROW_NUMBER() OVER (%[3]s) AS rn, COUNT(*) OVER (PARTITION BY "run", pc) AS m`, ru.TailMax, ru.TailShare, win2)
-	var stuck []string
+  SELECT "run", pc, v, ROW_NUMBER() OVER (%[3]s) AS rn, COUNT(*) OVER (PARTITION BY "run", pc) AS m`, ru.TailMax, ru.TailShare, win2)
+	// A state is stuck when its reading held one value over the piece's
+	// last TailMax samples or more (b: the row of its last change) and V
+	// at the held stretch's first row (sv) lies above the settle level:
+	// a reading held at rest is a quantised sensor's.
+	var stuck, sb, sv []string
 	for j := 0; j < n; j++ {
 		fmt.Fprintf(b, ",\n    CASE WHEN x%[1]d = LAG(x%[1]d) OVER (%[2]s) THEN 0 ELSE 1 END AS c%[1]d", j, win2)
 		if !ru.Stuck[j] {
 			continue
 		}
-		stuck = append(stuck, fmt.Sprintf("MAX(CASE WHEN c%d = 1 THEN rn END) <= MAX(m) - %d", j, ru.TailMax-1))
+		sb = append(sb, fmt.Sprintf("MAX(CASE WHEN c%[1]d = 1 THEN rn END) OVER (PARTITION BY \"run\", pc) AS b%[1]d", j))
+		sv = append(sv, fmt.Sprintf("MAX(CASE WHEN rn = b%[1]d AND b%[1]d <= m - %[2]d THEN v END) AS sv%[1]d", j, ru.TailMax-1))
+		stuck = append(stuck, fmt.Sprintf("sv%d > sl", j))
 	}
+	b.WriteString("\n  FROM v\n),\n")
 	if len(stuck) == 0 {
 		stuck = []string{"1 = 0"}
+		sv = []string{"0 AS sv"}
+		sb = []string{"0 AS b"}
 	}
-	fmt.Fprintf(b, "\n  FROM x\n),\nsu AS (\n  SELECT \"run\", pc, CASE WHEN %s THEN 1 ELSE 0 END AS stuck\n  FROM sk\n  GROUP BY \"run\", pc\n),\n", strings.Join(stuck, " OR "))
+	fmt.Fprintf(b, "sb AS (\n  SELECT \"run\", pc, v, rn, m,\n    %s\n  FROM sk\n),\n", strings.Join(sb, ",\n    "))
+	var svCols []string
+	for _, c := range sv {
+		svCols = append(svCols, "su."+c[strings.LastIndex(c, " ")+1:])
+	}
+	fmt.Fprintf(b, "su AS (\n  SELECT \"run\", pc,\n    %s\n  FROM sb\n  GROUP BY \"run\", pc\n),\n", strings.Join(sv, ",\n    "))
 	// w = min(max(m/share, 1), max): sample rn is in the head when
 	// rn <= w, in the tail when m - rn + 1 <= w, written without division.
 	fmt.Fprintf(b, `r AS (
@@ -261,17 +275,18 @@ sk AS (
   GROUP BY "run", pc
 ),
 rl AS (
-  SELECT r.*, lp.lowpre, su.stuck, %[5]s AS sl
+  SELECT r.*, lp.lowpre, %[7]s, %[5]s AS sl
   FROM r JOIN lp ON r."run" = lp."run" AND r.pc = lp.pc JOIN su ON r."run" = su."run" AND r.pc = su.pc
 ),
 k AS (
   SELECT "run", pc,
     CASE WHEN rises = 1 OR (ever_inside = 1 AND tail - lowpre > tol) THEN 1 ELSE 0 END AS rises,
-    leaves, stuck,
+    leaves,
+    CASE WHEN %[6]s THEN 1 ELSE 0 END AS stuck,
     CASE WHEN last_inside = 1 AND (tail <= sl
       OR (tail < head - tol AND (lowpre IS NULL OR tail < lowpre - sl))
       OR (lowpre IS NULL AND head <= tol AND tail <= tol)) THEN 0 ELSE 1 END AS unsettled,
-`, r02, leaveV, ru.TailMax, ru.TailShare, settleSQL(&ru))
+`, r02, leaveV, ru.TailMax, ru.TailShare, settleSQL(&ru), strings.Join(stuck, " OR "), strings.Join(svCols, ", "))
 	if ru.SlowBound > 0 {
 		fmt.Fprintf(b, `    CASE WHEN dn >= %d AND dn * stt - st * st > 0
       AND -(dn * sty - st * sy) / (dn * stt - st * st) < %s THEN 1 ELSE 0 END AS slow

@@ -124,8 +124,11 @@ func sqlRuns(c *fit.Certificate) []ingest.Run {
 	// equilibrium (its end is outside the noise ball but as low as its
 	// chunks before: unsettled), one whose V grows slowly after it has
 	// decayed (rises over the run, not between pairs), and one whose
-	// first state's reading sticks at one value (stuck)
-	for _, f := range []string{"off-rest", "grows-late", "stuck"} {
+	// first state's reading sticks at one value mid-approach (stuck: at
+	// t = 1 s, |z| = 0.15, V far above the settle level; a reading held
+	// at rest is a quantised sensor's and not flagged: held-at-rest, from
+	// t = 5 s, |z| = 0.003)
+	for _, f := range []string{"off-rest", "grows-late", "stuck", "held-at-rest"} {
 		src := runs[0]
 		r := ingest.Run{Name: f, T: src.T, X: make([][]float64, n)}
 		for j := range r.X {
@@ -138,6 +141,10 @@ func sqlRuns(c *fit.Certificate) []ingest.Run {
 			case "grows-late":
 				r.X[0][i] += c.Scale[0] * 0.004 * math.Exp(0.5*t) * math.Cos(3*t)
 			case "stuck":
+				if i >= 100 {
+					r.X[0][i] = r.X[0][100]
+				}
+			case "held-at-rest":
 				if i >= 500 {
 					r.X[0][i] = r.X[0][500]
 				}
