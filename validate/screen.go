@@ -50,7 +50,10 @@ const (
 //     equilibrium is flagged. A piece with no such chunk whose two ends
 //     lie within the tolerance is not.
 //   - rises also when, after entering, the end's mean V exceeds the
-//     least earlier chunk's by more than the tolerance (a slow growth).
+//     least earlier chunk's by more than the tolerance and the largest V
+//     over the last samples exceeds the settle level (a slow growth; a
+//     run that undershot its rest point and rests in the noise ball has
+//     not grown).
 //   - stuck: a state whose certificate noise is positive held one
 //     reading over the run's last tailMax samples or more, the held
 //     stretch having begun away from rest: V at its first sample above
@@ -756,8 +759,13 @@ func (s *Screener) End() {
 	for i := 0; i < w; i++ {
 		headSum += st.head[i]
 	}
+	tailTop := math.Inf(-1) // the largest V over the tail window
 	for i := m - w; i < m; i++ {
-		tailSum += st.tail[i%tailMax]
+		v := st.tail[i%tailMax]
+		tailSum += v
+		if v > tailTop || v != v {
+			tailTop = v
+		}
 	}
 	dst.EverInside = st.entered
 	head := headSum / float64(w)
@@ -788,8 +796,11 @@ func (s *Screener) End() {
 	quiet := !hasPre && head <= tol && tail <= tol
 	dst.Settled = tail <= settle || approaching || quiet
 	// V grew over the run: its end above its lowest chunk by more than
-	// the tolerance (a slow growth no pair's rise shows).
-	if st.entered && hasPre && tail-lowPre > tol {
+	// the tolerance (a slow growth no pair's rise shows), and V over the
+	// tail window reaching above the settle level. A healthy run whose
+	// underdamped mode undershot its rest point, with V in some chunk
+	// below the rest's, ends in the noise ball and has not grown.
+	if st.entered && hasPre && tail-lowPre > tol && tailTop > settle {
 		d := clampFinite(tail - lowPre - tol)
 		if !st.hasRise {
 			st.rise.Time = st.lastT

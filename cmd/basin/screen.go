@@ -64,7 +64,8 @@ states' units; and the run's decay rate. A run that starts outside and
 comes in to settle is not flagged. A certificate without held-out decay
 rates (an older file) screens without the slow flag, with one warning.
 A run whose V grows over it (its end above its lowest earlier 50-sample
-stretch by more than the tolerance) is flagged rises too; one at rest off
+stretch by more than the tolerance, and V over its last samples above the
+settle level) is flagged rises too; one at rest off
 the equilibrium is unsettled; a state whose reading holds one value over
 the run's last 50 samples or more, from a sample where the run was away
 from rest (V above the settle level), is stuck (state names it): a

@@ -266,6 +266,7 @@ sk AS (
     MAX(inside) AS ever_inside,
     AVG(CASE WHEN rn <= %[3]d AND (%[4]d * rn <= m OR rn = 1) THEN v END) AS head,
     AVG(CASE WHEN m - rn < %[3]d AND (%[4]d * (m - rn + 1) <= m OR rn = m) THEN v END) AS tail,
+    MAX(CASE WHEN m - rn < %[3]d AND (%[4]d * (m - rn + 1) <= m OR rn = m) THEN v END) AS tailtop,
     SUM(q) AS dn,
     SUM(CASE WHEN q = 1 THEN t - t0 END) AS st,
     SUM(CASE WHEN q = 1 THEN LN(v) END) AS sy,
@@ -280,7 +281,7 @@ rl AS (
 ),
 k AS (
   SELECT "run", pc,
-    CASE WHEN rises = 1 OR (ever_inside = 1 AND tail - lowpre > tol) THEN 1 ELSE 0 END AS rises,
+    CASE WHEN rises = 1 OR (ever_inside = 1 AND tail - lowpre > tol AND tailtop > sl) THEN 1 ELSE 0 END AS rises,
     leaves,
     CASE WHEN %[6]s THEN 1 ELSE 0 END AS stuck,
     CASE WHEN last_inside = 1 AND (tail <= sl
