@@ -46,9 +46,14 @@ const (
 //     of the run's noise ratio (tolerance over the certificate's), and a
 //     run still on its way must also end below every earlier chunk of
 //     tailMax samples (counted from the first, ending before the last
-//     samples) by more than that level: a run at rest off the
-//     equilibrium is flagged. A piece with no such chunk whose two ends
-//     lie within the tolerance is not.
+//     samples) by more than a margin: that level, or ¼·√(end's mean V ·
+//     that level) when less (an end below 16 times the level), so a
+//     healthy run decaying slowly towards the noise ball is on its way
+//     while a run at rest off the equilibrium, its chunks as low as its
+//     end, is flagged. A piece with no such chunk whose two ends lie
+//     within the tolerance is not. The held-out check (see [Evaluate])
+//     judges settling from entry by the same rule, from V at the
+//     run's first sample inside the region in place of its start.
 //   - rises also when, after entering, the end's mean V exceeds the
 //     least earlier chunk's by more than the tolerance and the largest V
 //     over the last samples exceeds the settle level (a slow growth; a
@@ -788,13 +793,23 @@ func (s *Screener) End() {
 	hasPre := lowPre <= math.MaxFloat64
 	// Still on its way (a run cut short): its end is below its start by
 	// more than the tolerance and below every earlier chunk by more than
-	// the noise ball's V (a run at rest off the equilibrium is not: its
-	// end is as low as its chunks before). A piece too short to hold a
-	// chunk before its tail whose both ends lie within the tolerance has
-	// not shown anything but rest.
-	approaching := tail < head-tol && (!hasPre || tail < lowPre-settle)
+	// a margin (a run at rest off the equilibrium is not: its end is as
+	// low as its chunks before). The margin is the settle level, or
+	// ¼·√(tail·settle) when less (an end below 16 times the settle
+	// level): a healthy run decaying slowly towards the noise ball ends
+	// below its last chunk by less than the settle level, while a rest's
+	// chunks differ by the noise of their means, far less than either.
+	// Written as tail < lowPre - settle, or tail < lowPre and
+	// 16(lowPre - tail)² > tail·settle, in the SQL query's order of
+	// operations. A piece too short to hold a chunk before its tail
+	// whose both ends lie within the tolerance has not shown anything
+	// but rest.
+	approaching := func(from float64) bool {
+		return tail < from-tol && (!hasPre || tail < lowPre-settle ||
+			(tail < lowPre && 16*(lowPre-tail)*(lowPre-tail) > tail*settle))
+	}
 	quiet := !hasPre && head <= tol && tail <= tol
-	dst.Settled = tail <= settle || approaching || quiet
+	dst.Settled = tail <= settle || approaching(head) || quiet
 	// V grew over the run: its end above its lowest chunk by more than
 	// the tolerance (a slow growth no pair's rise shows), and V over the
 	// tail window reaching above the settle level. A healthy run whose
@@ -833,7 +848,8 @@ func (s *Screener) End() {
 	}
 	if st.entered {
 		dst.longAfter = m-dst.enter >= 2*w
-		dst.settledEntry = st.prevIn && (tail <= s.settle || tail < dst.vEnter-tol)
+		// settled from entry by screen's rule, from V at entry
+		dst.settledEntry = st.prevIn && (tail <= settle || approaching(dst.vEnter))
 	}
 	if !dst.Settled {
 		dst.Flags = append(dst.Flags, Flag{Kind: FlagUnsettled, Time: st.lastT, Excess: clampFinite(tail - s.settle)})

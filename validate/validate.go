@@ -36,8 +36,10 @@
 // region: entered_runs counts the runs with a sample inside,
 // invariance_fraction the share of them that never left again by more
 // than the noise tolerance, runs_settled those that settled from there
-// (ended inside, at the settle level or below V at entry by more than the
-// tolerance; see [Screener]); runs that never enter lie outside the claim
+// (ended inside, at the run's settle level, or still on its way: below V
+// at entry by more than the tolerance and below every earlier chunk by
+// the margin of screen's unsettled; see [Screener]); runs that never
+// enter lie outside the claim
 // and are only counted. The worst violation is given with run, time and
 // state.
 //
@@ -128,9 +130,10 @@ type RunScreen struct {
 	// From the first sample inside the region (validation from entry):
 	// its index (-1 when the run never enters) and V there; whether the
 	// part after it is long enough to judge settling (at least two tail
-	// windows); and whether the run settled from there (ends inside with
-	// its end at the settle level, or below V at entry by more than the
-	// tolerance).
+	// windows); and whether the run settled from there by screen's
+	// unsettled rule with V at entry for its start (ends inside with its
+	// end at the run's settle level, or below V at entry by more than the
+	// tolerance and below every earlier chunk by the margin).
 	enter        int
 	vEnter       float64
 	longAfter    bool

@@ -65,8 +65,10 @@ comes in to settle is not flagged. A certificate without held-out decay
 rates (an older file) screens without the slow flag, with one warning.
 A run whose V grows over it (its end above its lowest earlier 50-sample
 stretch by more than the tolerance, and V over its last samples above the
-settle level) is flagged rises too; one at rest off
-the equilibrium is unsettled; a state whose reading holds one value over
+settle level) is flagged rises too; one at rest off the equilibrium is
+unsettled (a run still on its way must end below every earlier stretch by
+the settle level, or by a quarter of the geometric mean of its end's V
+and that level when less); a state whose reading holds one value over
 the run's last 50 samples or more, from a sample where the run was away
 from rest (V above the settle level), is stuck (state names it): a
 quantised sensor holding its reading at rest is not.

@@ -285,7 +285,8 @@ k AS (
     leaves,
     CASE WHEN %[6]s THEN 1 ELSE 0 END AS stuck,
     CASE WHEN last_inside = 1 AND (tail <= sl
-      OR (tail < head - tol AND (lowpre IS NULL OR tail < lowpre - sl))
+      OR (tail < head - tol AND (lowpre IS NULL OR tail < lowpre - sl
+        OR (tail < lowpre AND 16 * (lowpre - tail) * (lowpre - tail) > tail * sl)))
       OR (lowpre IS NULL AND head <= tol AND tail <= tol)) THEN 0 ELSE 1 END AS unsettled,
 `, r02, leaveV, ru.TailMax, ru.TailShare, settleSQL(&ru), strings.Join(stuck, " OR "), strings.Join(svCols, ", "))
 	if ru.SlowBound > 0 {
