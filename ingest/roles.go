@@ -3,6 +3,7 @@ package ingest
 import (
 	"fmt"
 	"math"
+	"strconv"
 	"strings"
 )
 
@@ -308,11 +309,11 @@ func dropShortPieces(ds *Dataset, minLen int) {
 	ds.Runs = kept
 	switch {
 	case ds.ShortPieces == 1:
-		ds.Warnings = append(ds.Warnings, fmt.Sprintf("a piece of a split recording has %d samples, fewer than %d, and is left out: %s from %g s",
-			samples, minLen, first, from))
+		ds.Warnings = append(ds.Warnings, fmt.Sprintf("a piece of a split recording has %d samples, fewer than %d, and is left out: %s from %s s",
+			samples, minLen, first, secondsText(from)))
 	case ds.ShortPieces > 1:
-		ds.Warnings = append(ds.Warnings, fmt.Sprintf("%d pieces of split recordings have fewer than %d samples and are left out (%d samples; %s from %g s first)",
-			ds.ShortPieces, minLen, samples, first, from))
+		ds.Warnings = append(ds.Warnings, fmt.Sprintf("%d pieces of split recordings have fewer than %d samples and are left out (%d samples; %s from %s s first)",
+			ds.ShortPieces, minLen, samples, first, secondsText(from)))
 	}
 }
 
@@ -324,6 +325,24 @@ func timesText(x float64) string {
 		return fmt.Sprintf("%.0f", x)
 	}
 	return fmt.Sprintf("%.3g", x)
+}
+
+// secondsText writes a time in seconds as the warnings write their
+// durations (%.4g: four significant digits, "12.34" for the
+// 12.340000000000002 that 1234 steps of 0.01 s add up to), but in fixed
+// point for times of 10^4 s and more, to the whole second, so that a
+// clock counting from an epoch (1.7e9 s) still names its sample.
+func secondsText(t float64) string {
+	if math.IsNaN(t) || math.IsInf(t, 0) || t == 0 {
+		return fmt.Sprintf("%g", t)
+	}
+	d := 3 - int(math.Floor(math.Log10(math.Abs(t))))
+	if d <= 0 {
+		return strconv.FormatFloat(t, 'f', 0, 64)
+	}
+	x := strconv.FormatFloat(t, 'f', d, 64)
+	x = strings.TrimRight(x, "0")
+	return strings.TrimSuffix(x, ".")
 }
 
 // warnEvents sums up the events and resting heads in one warning line
@@ -352,8 +371,8 @@ func warnEvents(ds *Dataset) {
 		if n == 1 {
 			what = "jump"
 		}
-		ds.Warnings = append(ds.Warnings, fmt.Sprintf("%d one-sample %s far beyond the noise split runs: %s at %g s, %s %s of %+.4g%s, %s%s",
-			n, what, ev.Run, ev.Time, ev.State, ev.Kind, ev.Size, unit, far, more))
+		ds.Warnings = append(ds.Warnings, fmt.Sprintf("%d one-sample %s far beyond the noise split runs: %s at %s s, %s %s of %+.4g%s, %s%s",
+			n, what, ev.Run, secondsText(ev.Time), ev.State, ev.Kind, ev.Size, unit, far, more))
 	}
 	if n := len(ds.Heads); n > 0 {
 		total := 0.0
