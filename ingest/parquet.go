@@ -295,7 +295,7 @@ func openParquet(path string, opts *Options) (po *pqFile, err error) {
 		return nil, &ParseError{File: path, Err: ErrNoStates}
 	}
 	tb := &table{file: path, states: r.states, stateCol: r.stateCol, nInput: r.nInput, timeCol: r.timeCol, timeIdx: r.timeIdx,
-		rate: r.rate, ignored: r.ignored, rows: int(nrows), marks: []lineMark{{0, 1}}}
+		rate: r.rate, ignored: r.ignored, rows: int(nrows), marks: []lineMark{{0, 1}}, byRow: true}
 	tb.x = make([][]float64, len(r.states))
 	po = &pqFile{f: f, pr: pr, r: r, fields: fields, cols: cols, size: st.Size(), tb: tb}
 	if kinds, ok := directKinds(pr, fields, r); ok && !opts.viaArrow {

@@ -41,6 +41,7 @@ type table struct {
 	x        [][]float64
 	keys     []keySpan // nil without --run-col
 	marks    []lineMark
+	byRow    bool // line numbers are 1-based rows (Parquet), not lines
 	rows     int
 	ignored  []Column
 	// finite: every cell of x is known to be finite, with no missing
@@ -56,6 +57,15 @@ func (tb *table) line(i int) int {
 		return i + 1
 	}
 	return tb.marks[k].line + (i - tb.marks[k].row)
+}
+
+// lineWord is what tb.line counts: "line" in a CSV file, "row" in a
+// Parquet file.
+func (tb *table) lineWord() string {
+	if tb.byRow {
+		return "row"
+	}
+	return "line"
 }
 
 // group is one recording before gap splitting: its rows in order.
@@ -240,7 +250,7 @@ func (tb *table) splitGroup(ds *Dataset, g group, opts *Options) error {
 					what = "goes back"
 				}
 				return &ParseError{File: tb.file, Line: tb.line(i), Column: tb.timeIdx, Name: tb.timeCol.Name,
-					Err: fmt.Errorf("%w: %s (%g after %g on line %d)", ErrTimeOrder, what, ti, prevT, tb.line(prevRow))}
+					Err: fmt.Errorf("%w: %s (%g after %g on %s %d)", ErrTimeOrder, what, ti, prevT, tb.lineWord(), tb.line(prevRow))}
 			}
 			prevT, prevRow = ti, i
 			if ra < 0 {

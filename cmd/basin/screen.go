@@ -247,7 +247,7 @@ func runScreen(ctx context.Context, e *env, args []string) error {
 		return missingStates(pe, cert.States)
 	}
 	if err != nil {
-		return asInputError(err)
+		return asInputError(runColHint(err, iopts.RunCol))
 	}
 	out := screenJSON{Runs: []screenRun{}, Summary: screenSummary{Files: len(files)}}
 	seen := map[string]bool{}

@@ -153,7 +153,7 @@ func cpuSeconds() float64 {
 
 // writeParquetCols writes float64 columns with Arrow's writer, with its
 // default dictionary encoding or plain encoding.
-func writeParquetCols(b *testing.B, path string, dict bool, names []string, cols ...[]float64) {
+func writeParquetCols(b testing.TB, path string, dict bool, names []string, cols ...[]float64) {
 	mem := memory.NewGoAllocator()
 	var fields []arrow.Field
 	for _, n := range names {

@@ -3,6 +3,7 @@ package main
 import (
 	"bytes"
 	"context"
+	"fmt"
 	"math"
 	"os"
 	"path/filepath"
@@ -87,6 +88,52 @@ func TestRunColHint(t *testing.T) {
 			msg := stderr.String()
 			if code != 2 || strings.Count(msg, "\n") != 1 || !strings.Contains(msg, tc.want) || strings.Contains(msg, hint) != tc.hint {
 				t.Errorf("exit %d, stderr %q; want 2, one line with %q, hint %v", code, msg, tc.want, tc.hint)
+			}
+		})
+	}
+}
+
+// TestScreenRunColHint: screen, which streams its files, gives the same
+// one-line error with the --run-col hint as the readers that load whole,
+// for a CSV file and a Parquet file of two runs one after another (the
+// Parquet error counts rows, the CSV error lines); with --run-col no hint.
+func TestScreenRunColHint(t *testing.T) {
+	dir := t.TempDir()
+	cert := writeTestCert(t, screenCert)
+	tt := []float64{0, 0.02, 0.04, 0, 0.02, 0.04}
+	pitch := []float64{1.6, 1.58, 1.56, 1.4, 1.42, 1.44}
+	rate := []float64{-1, -0.9, -0.8, 1, 0.9, 0.8}
+	var b strings.Builder
+	b.WriteString("unit,time [s],pitch [deg],rate [deg/s]\n")
+	for i := range tt {
+		fmt.Fprintf(&b, "%d,%g,%g,%g\n", 1+i/3, tt[i], pitch[i], rate[i])
+	}
+	csvPath := filepath.Join(dir, "two.csv")
+	if err := os.WriteFile(csvPath, []byte(b.String()), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	pqPath := filepath.Join(dir, "two.parquet")
+	writeParquetCols(t, pqPath, false, []string{"unit", "time [s]", "pitch [deg]", "rate [deg/s]"}, []float64{1, 1, 1, 2, 2, 2}, tt, pitch, rate)
+	const hint = "; if the file holds several runs one after another, give --run-col NAME, the column that tells them apart\n"
+	for _, tc := range []struct {
+		name string
+		args []string
+		want string // the whole line
+	}{
+		{"csv", []string{csvPath}, csvPath + `:5:2: column "time": time does not increase: goes back (0 after 0.04 on line 4)` + hint},
+		{"parquet", []string{pqPath}, pqPath + `:4:2: column "time": time does not increase: goes back (0 after 0.04 on row 3)` + hint},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			var stdout, stderr bytes.Buffer
+			code := basinMain(context.Background(), append([]string{"screen", "--cert", cert}, tc.args...), &stdout, &stderr)
+			if got, want := stderr.String(), "basin screen: "+tc.want; code != 2 || got != want || stdout.Len() != 0 {
+				t.Errorf("exit %d, stdout %q, stderr\n%q\nwant exit 2, nothing on stdout, stderr\n%q", code, stdout.String(), got, want)
+			}
+			stdout.Reset()
+			stderr.Reset()
+			code = basinMain(context.Background(), append([]string{"screen", "--cert", cert, "--run-col", "unit"}, tc.args...), &stdout, &stderr)
+			if code == 2 || strings.Contains(stderr.String(), "--run-col") {
+				t.Errorf("with --run-col: exit %d, stderr %q", code, stderr.String())
 			}
 		})
 	}
