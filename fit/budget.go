@@ -51,7 +51,30 @@ func LibraryTerms(vars, degree int) float64 {
 // augmented library (terms plus targets) per group, one per worker and a
 // few for the threshold search and the bootstrap, and the exponents.
 func FieldMemory(vars, degree, groups int) float64 {
-	p := LibraryTerms(vars, degree)
+	return termsMemory(LibraryTerms(vars, degree), vars, groups)
+}
+
+// FieldTerms returns the number of terms of the field's library over n
+// states and q inputs (see FieldOptions.InputDegree): the monomials of
+// total degree 0..degree whose degree in the inputs is at most inDeg,
+// the sum over k of C(q+k-1, k)·C(n+degree-k, degree-k). It is
+// LibraryTerms(n+q, degree) when q is 0 or inDeg >= degree.
+func FieldTerms(n, q, degree, inDeg int) float64 {
+	if q == 0 || inDeg >= degree {
+		return LibraryTerms(n+q, degree)
+	}
+	var p float64
+	for k := 0; k <= inDeg; k++ {
+		// monomials of degree exactly k in q inputs times those of
+		// degree at most degree-k in n states
+		exact := LibraryTerms(q, k) - LibraryTerms(q, k-1)
+		p += exact * LibraryTerms(n, degree-k)
+	}
+	return p
+}
+
+// termsMemory is FieldMemory for a library of p terms.
+func termsMemory(p float64, vars, groups int) float64 {
 	w := p + float64(vars)
 	mats := float64(groups + runtime.GOMAXPROCS(0) + 8)
 	return 8*mats*w*w + 8*p*float64(vars+blockRows)
@@ -60,8 +83,9 @@ func FieldMemory(vars, degree, groups int) float64 {
 // checkBudget refuses, in closed form and before any allocation that
 // grows with the library, a fit with too few samples for its library or
 // one over the memory budget.
-func (o *FieldOptions) checkBudget(vars, samples, runs int) error {
-	p := LibraryTerms(vars, o.Degree)
+func (o *FieldOptions) checkBudget(n, q, samples, runs int) error {
+	vars := n + q
+	p := FieldTerms(n, q, o.Degree, o.InputDegree)
 	if need := rowsPerTerm * p; float64(samples) < need {
 		return errorf(ErrTooFewSamples, "too few samples: %d, need at least %.0f for a degree-%d library of %.4g terms in %d variables",
 			samples, need, o.Degree, p, vars)
@@ -74,7 +98,7 @@ func (o *FieldOptions) checkBudget(vars, samples, runs int) error {
 	if budget == 0 {
 		budget = DefaultMaxMemory
 	}
-	if need := FieldMemory(vars, o.Degree, groups); need > float64(budget) {
+	if need := termsMemory(p, vars, groups); need > float64(budget) {
 		return &BudgetError{Terms: p, Vars: vars, Degree: o.Degree, Groups: groups, Need: need, Budget: budget}
 	}
 	return nil

@@ -18,9 +18,19 @@ import (
 
 // FieldOptions controls Field. A nil *FieldOptions means all defaults.
 type FieldOptions struct {
-	Degree int    // total degree of the monomial library; 0 means 3
-	Folds  int    // cross-validation folds over runs; 0 means 5
-	Seed   uint64 // random seed for folds and bootstrap; 0 means 1
+	Degree int // total degree of the monomial library; 0 means 3
+	// InputDegree is the highest total degree of the inputs
+	// (Dataset.Inputs) in a library term; 0 means 1, the control-affine
+	// form f(x) + g(x)·u: input terms u and x^e·u with |e| < Degree.
+	// A logged drive or setpoint most often takes a few levels (steps,
+	// pulses), and on a few levels u, u², u³ are nearly collinear, so
+	// the full polynomial in (x, u) is singular on ordinary rig logs.
+	// Raise it (at most Degree) for a response that is nonlinear in u
+	// and logs that sweep u over many levels. Without inputs it does
+	// nothing.
+	InputDegree int
+	Folds       int    // cross-validation folds over runs; 0 means 5
+	Seed        uint64 // random seed for folds and bootstrap; 0 means 1
 	// Derivative is DerivAuto, DerivFornberg, DerivSavitzkyGolay or
 	// DerivIntegral; empty means DefaultDerivative.
 	Derivative string
@@ -91,6 +101,9 @@ func (o *FieldOptions) withDefaults() FieldOptions {
 	if r.Degree == 0 {
 		r.Degree = 3
 	}
+	if r.InputDegree == 0 {
+		r.InputDegree = 1
+	}
 	if r.Folds == 0 {
 		r.Folds = 5
 	}
@@ -126,13 +139,21 @@ var (
 type CollinearError struct {
 	Condition float64
 	Degree    int
+	// InputDegree is the library's degree in the inputs when it has
+	// inputs and that degree is above 1; 0 otherwise.
+	InputDegree int
 }
 
 func (e *CollinearError) Error() string {
-	if e.Condition >= math.MaxFloat64 {
-		return fmt.Sprintf("library terms collinear (normal matrix singular); try a lower FieldOptions.Degree than %d, or fewer states", e.Degree)
+	try := fmt.Sprintf("try a lower FieldOptions.Degree than %d", e.Degree)
+	if e.InputDegree > 1 {
+		// a logged input on a few levels makes u, u², ... collinear
+		try = fmt.Sprintf("try a lower FieldOptions.InputDegree than %d (an input logged on a few levels cannot tell its powers apart), or a lower FieldOptions.Degree than %d", e.InputDegree, e.Degree)
 	}
-	return fmt.Sprintf("library terms nearly collinear (condition %.1e); try a lower FieldOptions.Degree than %d", e.Condition, e.Degree)
+	if e.Condition >= math.MaxFloat64 {
+		return fmt.Sprintf("library terms collinear (normal matrix singular); %s, or fewer states", try)
+	}
+	return fmt.Sprintf("library terms nearly collinear (condition %.1e); %s", e.Condition, try)
 }
 
 // inputErr is an error whose text is msg and which unwraps to a sentinel
@@ -240,14 +261,17 @@ func Field(ctx context.Context, ds *ingest.Dataset, opts *FieldOptions) (*Model,
 	if samples == 0 {
 		return nil, errorf(ErrTooFewSamples, "no usable samples: every cell missing, or no runs")
 	}
-	if err := o.checkBudget(n+len(ds.Inputs), samples, len(runs)); err != nil {
+	if o.InputDegree < 1 || o.InputDegree > o.Degree && len(ds.Inputs) > 0 {
+		return nil, fmt.Errorf("fit: input degree %d outside 1..%d (the library's degree)", o.InputDegree, o.Degree)
+	}
+	if err := o.checkBudget(n, len(ds.Inputs), samples, len(runs)); err != nil {
 		return nil, err
 	}
-	// The library is over the states and the inputs together: the general
-	// polynomial form x' = f(x, u). At degree >= 2 it contains the
-	// control-affine form f(x) + g(x)·u (every x^e·u term with |e| <
-	// degree), and thresholding it costs nothing beyond the extra columns:
-	// terms in u that the data do not support are dropped like any other.
+	// The library is over the states and the inputs together: x' =
+	// f(x, u) with the inputs' total degree at most o.InputDegree in each
+	// term (1: the control-affine form f(x) + g(x)·u, every x^e·u term
+	// with |e| < degree); terms in u that the data do not support are
+	// dropped by the thresholding like any other.
 	q := len(ds.Inputs)
 	for _, r := range runs {
 		if len(r.U) != q {
@@ -260,7 +284,7 @@ func Field(ctx context.Context, ds *ingest.Dataset, opts *FieldOptions) (*Model,
 	if !finite(o.RestInput...) {
 		return nil, fmt.Errorf("fit: non-finite rest input")
 	}
-	lib := poly.NewLibrary(n+q, 0, o.Degree)
+	lib := fieldLibrary(n, q, o.Degree, o.InputDegree)
 	p := lib.Len()
 	vnames := append([]string(nil), names...)
 	for _, c := range ds.Inputs {
@@ -430,7 +454,11 @@ func Field(ctx context.Context, ds *ingest.Dataset, opts *FieldOptions) (*Model,
 			if math.IsInf(cond, 0) || math.IsNaN(cond) {
 				cond = math.MaxFloat64
 			}
-			return nil, &CollinearError{Condition: cond, Degree: o.Degree}
+			ce := &CollinearError{Condition: cond, Degree: o.Degree}
+			if q > 0 && o.InputDegree > 1 {
+				ce.InputDegree = o.InputDegree
+			}
+			return nil, ce
 		}
 	}
 	if err := ctx.Err(); err != nil {
@@ -722,6 +750,7 @@ func accumulate(ctx context.Context, groups []*groupSums, groupOf func(r, i int)
 		work, z []float64
 		theta   []float64
 		xs, dx  [][]float64
+		steps   []int // the run's input steps (see inputSteps)
 	}
 	newWork := func() *work {
 		return &work{rb: newRowBuffer(p, n), dw: newDerivWork(), work: make([]float64, lib.WorkLen()),
@@ -755,6 +784,14 @@ func accumulate(ctx context.Context, groups []*groupSums, groupOf func(r, i int)
 			xs[j], dx[j] = xs[j][:L], dx[j][:L]
 		}
 		lo, hi := 0, L
+		reach := minWindow / 2 // the samples a row's derivative reads on each side
+		for _, h := range half {
+			reach = max(reach, h)
+		}
+		if method == DerivIntegral {
+			reach = 0
+		}
+		w.steps = inputSteps(w.steps[:0], run, reach, steps)
 		switch method {
 		case DerivFornberg:
 			if _, cd, ok := cache.get(run, method, half); ok {
@@ -789,10 +826,19 @@ func accumulate(ctx context.Context, groups []*groupSums, groupOf func(r, i int)
 			for j := 0; j < n; j++ {
 				copy(xs[j], run.X[j])
 			}
-			integralRows(rb, groups, groupOf, r, run, xs, lib, m, sc, steps, work, z, theta)
+			integralRows(rb, groups, groupOf, r, run, xs, lib, m, sc, steps, work, z, theta, w.steps)
 			return nil
 		}
+		st := w.steps
 		for i := lo; i < hi; i++ {
+			// a row whose derivative window holds an input step: the
+			// state's slope jumps there and the window smears it
+			for len(st) > 0 && st[0] <= i-reach {
+				st = st[1:]
+			}
+			if len(st) > 0 && st[0] <= i+reach {
+				continue
+			}
 			phi, y := rb.row(groups[groupOf(r, i)])
 			for j := 0; j < n; j++ {
 				z[j] = (xs[j][i] - m.Centre[j]) / m.Spread[j]
@@ -819,12 +865,23 @@ func accumulate(ctx context.Context, groups []*groupSums, groupOf func(r, i int)
 // error of order h² that spurious terms fitted: scored with it, the demo's
 // dθ/dt = ω gained four terms of a few parts in a thousand each.
 func integralRows(rb *rowBuffer, groups []*groupSums, groupOf func(r, i int) int, r int, run *ingest.Run, xs [][]float64,
-	lib *poly.Library, m *Model, sc *varScale, steps int, work, z, theta []float64) {
+	lib *poly.Library, m *Model, sc *varScale, steps int, work, z, theta []float64, inSteps []int) {
 	n := len(m.States)
 	L := run.Len()
 	var qw []float64 // the window's quadrature weights
 	for a := 0; a+2 <= L-1; a += steps {
 		b := min(a+steps, L-1)
+		// a window with an input step inside: Simpson's rule on a
+		// jump is off by a share of the jump (see inputSteps)
+		for len(inSteps) > 0 && inSteps[0] <= a {
+			inSteps = inSteps[1:]
+		}
+		if len(inSteps) > 0 && inSteps[0] <= b {
+			if b == L-1 {
+				break
+			}
+			continue
+		}
 		phi, y := rb.row(groups[groupOf(r, a)])
 		for k := range phi {
 			phi[k] = 0
@@ -996,6 +1053,89 @@ func simpsonWeights(dst, t []float64) []float64 {
 			dst[N-1] += (h1*h1 + 3*h0*h1) / (6 * h0)
 			dst[N-2] -= h1 * h1 * h1 / (6 * h0 * (h0 + h1))
 		}
+	}
+	return dst
+}
+
+// fieldLibrary returns the monomials of n states and q inputs (the last
+// q variables) of total degree at most degree whose degree in the inputs
+// is at most inDeg, in graded order. The set is closed under division
+// (a divisor of a term has no more degree in anything), as shiftMatrix
+// needs.
+func fieldLibrary(n, q, degree, inDeg int) *poly.Library {
+	all := poly.NewLibrary(n+q, 0, degree)
+	if q == 0 || inDeg >= degree {
+		return all
+	}
+	var keep [][]int
+	for _, e := range all.Terms() {
+		d := 0
+		for _, x := range e[n:] {
+			d += x
+		}
+		if d <= inDeg {
+			keep = append(keep, e)
+		}
+	}
+	return poly.FromExponents(n+q, keep)
+}
+
+// stepFactor: an input's change between two samples is a step when it
+// exceeds stepFactor times the run's median absolute change of that
+// input (a drive logged as levels, steps and pulses has median change 0,
+// so every change is a step; a swept drive's steady change is not).
+// Eight medians of a noisy input's |Δu| is about 7.5 of its noise's
+// standard deviations (median |Δu| = 0.954 σ for Gaussian noise; common
+// practice for an outlier cut).
+const stepFactor = 8
+
+// inputSteps appends to dst, ascending, the sample indices k of run at
+// which an input steps between samples k-1 and k (see stepFactor): the
+// state's slope jumps there, so a derivative whose window holds a step
+// (k-reach <= i-1 and i+reach >= k for row i, or an integral window
+// (a, b] that holds k) is biased by a share of the jump times the
+// input's gain, and on a rig log of pulses that bias fitted spurious
+// x·u terms and cut the drive's gain by a quarter (TestInputDegreePulse).
+// Rows are left out only while that keeps at least half of the run: an
+// input switching every few samples leaves no clean window, and then
+// every row is kept and its bias with it. reach and steps (the
+// integral form's window) size the rows a step spoils.
+func inputSteps(dst []int, run *ingest.Run, reach, steps int) []int {
+	L := run.Len()
+	if len(run.U) == 0 || L < 3 {
+		return dst
+	}
+	var d []float64
+	for _, u := range run.U {
+		if len(u) != L {
+			continue
+		}
+		d = d[:0]
+		for k := 1; k < L; k++ {
+			if c := math.Abs(u[k] - u[k-1]); c == c {
+				d = append(d, c)
+			}
+		}
+		if len(d) == 0 {
+			continue
+		}
+		cut := stepFactor * order.HighMedian(order.Sorted(d, d))
+		for k := 1; k < L; k++ {
+			if c := math.Abs(u[k] - u[k-1]); c > cut {
+				dst = append(dst, k)
+			}
+		}
+	}
+	slices.Sort(dst)
+	dst = slices.Compact(dst)
+	// the rows left out, at most (2·reach+1 rows a step, or one integral
+	// window of steps+1 samples)
+	span := 2*reach + 1
+	if reach == 0 {
+		span = max(steps, 1)
+	}
+	if len(dst)*span > L/2 {
+		return dst[:0]
 	}
 	return dst
 }

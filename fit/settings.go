@@ -86,8 +86,11 @@ type SearchSettings struct {
 // FieldSettings are the field fit's options, defaults filled in (see
 // [FieldOptions]).
 type FieldSettings struct {
-	Degree     int    `json:"degree,omitempty"`
-	Derivative string `json:"derivative,omitempty"`
+	Degree int `json:"degree,omitempty"`
+	// InputDegree is FieldOptions.InputDegree when above its default 1;
+	// 0 (absent) means 1.
+	InputDegree int    `json:"input_degree,omitempty"`
+	Derivative  string `json:"derivative,omitempty"`
 	// Bootstrap is the number of bootstrap refits; 0 means none.
 	Bootstrap int `json:"bootstrap"`
 	// SelectFolds is FieldOptions.Folds: the threshold's inner
@@ -126,8 +129,12 @@ func searchSettings(o lyapunov.Options) *SearchSettings {
 // a certificate records them. A nil o gives the defaults.
 func (o *FieldOptions) Settings() *FieldSettings {
 	r := o.withDefaults()
-	return &FieldSettings{Degree: r.Degree, Derivative: r.Derivative, Bootstrap: max(r.Bootstrap, 0),
+	fs := &FieldSettings{Degree: r.Degree, Derivative: r.Derivative, Bootstrap: max(r.Bootstrap, 0),
 		SelectFolds: r.Folds, Seed: r.Seed}
+	if r.InputDegree > 1 {
+		fs.InputDegree = r.InputDegree
+	}
+	return fs
 }
 
 // parts returns pointers to the part fields of s, in a fixed order.

@@ -84,6 +84,10 @@ earlier run with more rest points left in --out is removed.
 	--out DIR           the output folder (default basin-out)
 	--degree N          highest degree of the field's polynomial terms, 1..8
 	                    (default 3)
+	--input-degree K    highest degree of the --inputs in a term, 1..N
+	                    (default 1: the field is affine in the inputs,
+	                    f(x) + g(x)·u; a drive logged at a few levels
+	                    cannot tell u from u²)
 	--select-folds K    folds over the fit runs that choose the sparsity
 	                    threshold (default 5)
 	--deriv METHOD      auto (default: each method tried, the least held-out
@@ -135,7 +139,7 @@ of its last 5%. Flags: those of Reading logs, --quiet and --json.
 	basin fit [flags] INPUTS...
 
 Fits the vector field only, on the runs a manifest does not hold out, and
-writes DIR/model.json. Flags: --out, --degree, --select-folds, --deriv,
+writes DIR/model.json. Flags: --out, --degree, --input-degree, --select-folds, --deriv,
 --bootstrap, --max-memory, --seed, --quiet and --json as for run, and those of
 Reading logs.
 

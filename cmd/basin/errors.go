@@ -48,7 +48,7 @@ var optionFields = []struct{ pkg, field, flag string }{
 	{"ingest", "Options.TimeCol", "--time-col"}, {"ingest", "Options.Rate", "--rate"},
 	{"ingest", "Options.RunCol", "--run-col"}, {"ingest", "Options.States", "--states"},
 	{"ingest", "Options.Manifest", "--manifest"},
-	{"fit", "FieldOptions.Degree", "--degree"}, {"fit", "FieldOptions.Folds", "--select-folds"},
+	{"fit", "FieldOptions.Degree", "--degree"}, {"fit", "FieldOptions.InputDegree", "--input-degree"}, {"fit", "FieldOptions.Folds", "--select-folds"},
 	{"fit", "FieldOptions.Derivative", "--deriv"}, {"fit", "FieldOptions.Bootstrap", "--bootstrap"},
 	{"fit", "FieldOptions.MaxMemory", "--max-memory"},
 	{"fit", "CertifyOptions.Degree", "--v-degree"}, {"fit", "CertifyOptions.Growth", "--growth"},

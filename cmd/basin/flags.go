@@ -95,6 +95,7 @@ func (f *outputFlags) register(fs *flag.FlagSet) {
 // fieldFlags set the vector field fit (fit and run).
 type fieldFlags struct {
 	Degree      int
+	InputDegree int
 	SelectFolds int
 	Deriv       string
 	Bootstrap   int
@@ -125,6 +126,7 @@ func (f *memFlags) checkV(n, degree int) error {
 
 func (f *fieldFlags) register(fs *flag.FlagSet) {
 	fs.IntVar(&f.Degree, "degree", defaultDegree, "highest degree `N` of the field's polynomial terms")
+	fs.IntVar(&f.InputDegree, "input-degree", 1, "highest degree `K` of the --inputs in a term (1: the field is affine in the inputs, f(x) + g(x)·u; at most --degree)")
 	fs.IntVar(&f.SelectFolds, "select-folds", defaultSelect, "folds `K` over the fit runs that choose the sparsity threshold")
 	fs.StringVar(&f.Deriv, "deriv", "", "derivative `METHOD`: auto (each tried, least held-out error kept), savitzky-golay, fornberg or integral (default "+fit.DefaultDerivative+")")
 	fs.IntVar(&f.Bootstrap, "bootstrap", defaultBootstrap, "bootstrap refits over runs `N` (0: none)")
@@ -135,6 +137,8 @@ func (f *fieldFlags) options(seed uint64, mem *memFlags) (*fit.FieldOptions, err
 	switch {
 	case f.Degree < 1 || f.Degree > 8:
 		return nil, usagef("--degree must be 1..8, got %d", f.Degree)
+	case f.InputDegree < 1 || f.InputDegree > f.Degree:
+		return nil, usagef("--input-degree must be 1..%d (--degree), got %d", f.Degree, f.InputDegree)
 	case f.SelectFolds < 2 || f.SelectFolds > 100:
 		return nil, usagef("--select-folds must be 2..100, got %d", f.SelectFolds)
 	}
@@ -150,7 +154,7 @@ func (f *fieldFlags) options(seed uint64, mem *memFlags) (*fit.FieldOptions, err
 	if b == 0 {
 		b = -1
 	}
-	return &fit.FieldOptions{Degree: f.Degree, Folds: f.SelectFolds, Seed: seed, Derivative: f.Deriv, Bootstrap: b,
+	return &fit.FieldOptions{Degree: f.Degree, InputDegree: f.InputDegree, Folds: f.SelectFolds, Seed: seed, Derivative: f.Deriv, Bootstrap: b,
 		MaxMemory: int64(mem.MaxMemory)}, nil
 }
 
