@@ -371,6 +371,9 @@ func warnEvents(ds *Dataset) {
 		if n == 1 {
 			what = "jump"
 		}
+		if k := EventPlaces(ds.Events); k < n {
+			what += fmt.Sprintf(" (at %d %s: several states jumped at once)", k, plural(k, "place", "places"))
+		}
 		ds.Warnings = append(ds.Warnings, fmt.Sprintf("%d one-sample %s far beyond the noise split runs: %s at %s s, %s %s of %+.4g%s, %s%s",
 			n, what, ev.Run, secondsText(ev.Time), ev.State, ev.Kind, ev.Size, unit, far, more))
 	}
@@ -517,4 +520,27 @@ func (ds *Dataset) quantumShare(j int, q float64) float64 {
 		return 0
 	}
 	return float64(unit) / float64(changes)
+}
+
+// EventPlaces returns the number of distinct places (run and time) of
+// events: a hammer hit on a rig moves several states at one sample, one
+// event a state, and splits the run once.
+func EventPlaces(events []Event) int {
+	type place struct {
+		run string
+		t   float64
+	}
+	seen := make(map[place]bool, len(events))
+	for _, ev := range events {
+		seen[place{ev.Run, ev.Time}] = true
+	}
+	return len(seen)
+}
+
+// plural returns one when k is 1, else many.
+func plural(k int, one, many string) string {
+	if k == 1 {
+		return one
+	}
+	return many
 }

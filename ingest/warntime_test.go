@@ -71,3 +71,39 @@ func TestEventWarningTime(t *testing.T) {
 		t.Errorf("warning %q, want the spike at 12.34 s (stamp %s)", got, at)
 	}
 }
+
+// TestEventPlacesWarning: a hammer hit moves a rig's two rates at one
+// sample, two events and one split; the warning says 2 jumps at 1 place,
+// and EventPlaces counts places (run and time), not states.
+func TestEventPlacesWarning(t *testing.T) {
+	var b strings.Builder
+	b.WriteString("t,x,v\n")
+	x, v := 0.8, 0.0
+	const h = 0.01
+	for i := range 2000 {
+		if i == 900 {
+			v += 3 // the hit: a step in the rate
+			x += 0.4
+		}
+		// x' = v, v' = -4x - 0.6v, one Euler step (small at h = 0.01)
+		fmt.Fprintf(&b, "%.2f,%.6f,%.6f\n", float64(i)*h, x+4e-4*math.Sin(1.7*float64(i*i)), v+4e-4*math.Cos(2.3*float64(i*i)))
+		x, v = x+h*v, v+h*(-4*x-0.6*v)
+	}
+	path := writeFile(t, t.TempDir(), "hit.csv", b.String())
+	ds, err := Load(context.Background(), []string{path}, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(ds.Events) != 2 || EventPlaces(ds.Events) != 1 {
+		t.Fatalf("%d events at %d places, want 2 at 1: %+v", len(ds.Events), EventPlaces(ds.Events), ds.Events)
+	}
+	var got string
+	for _, w := range ds.Warnings {
+		if strings.Contains(w, "one-sample") {
+			got = w
+		}
+	}
+	if !strings.HasPrefix(got, "2 one-sample jumps (at 1 place:") {
+		t.Errorf("warning %q, want it to count 2 jumps at 1 place", got)
+	}
+}

@@ -339,7 +339,14 @@ func inspectEvents(w io.Writer, ds *ingest.Dataset) {
 		unit[c.Name] = c.Unit
 	}
 	if n := len(ds.Events); n > 0 {
-		fmt.Fprintf(w, "\n%d one-sample jumps far beyond the noise split runs (a step or kink splits there, a spike's sample is dropped; %d samples dropped):\n", n, ds.Dropped)
+		places := ""
+		if k := ingest.EventPlaces(ds.Events); k < n {
+			places = fmt.Sprintf(" at %d place", k)
+			if k > 1 {
+				places += "s"
+			}
+		}
+		fmt.Fprintf(w, "\n%d one-sample jumps far beyond the noise%s split runs (a step or kink splits there, a spike's sample is dropped; %d samples dropped):\n", n, places, ds.Dropped)
 		tw := tabwriter.NewWriter(w, 0, 4, 2, ' ', 0)
 		fmt.Fprintln(tw, "  run\ttime s\tstate\tkind\tsize\tnoise\ttimes the noise")
 		for _, ev := range ds.Events[:min(n, maxListed)] {
