@@ -100,7 +100,10 @@ func Summary(w io.Writer, in *Input) error {
 		b.WriteString("\n")
 	}
 	inside := c.Level > 0 && len(c.Region.Extent) == len(c.States)
-	if inside {
+	noV := !hasV(c)
+	if noV {
+		fmt.Fprintf(&b, "V: none found, so no region is claimed: %s\n", noVWhy(c))
+	} else if inside {
 		fmt.Fprintf(&b, "region {V <= %s}:\n", human.Num(c.Level))
 		for j, s := range c.States {
 			e := c.Region.Extent[j]
@@ -112,7 +115,10 @@ func Summary(w io.Writer, in *Input) error {
 	} else {
 		b.WriteString("region: none certified\n")
 	}
-	if v := c.Validation; v != nil {
+	if v := c.Validation; v != nil && noV {
+		fmt.Fprintf(&b, "held-out: %s; with no V there is no region to check them against\n", human.Count(in.heldoutCount(v).Runs, "run"))
+		b.WriteString("scenario bound: none: with no V there is no region, so nothing to bound\n")
+	} else if v != nil {
 		fmt.Fprintf(&b, "held-out: %s\n", heldoutPieces(c, v, in.heldoutCount(v)))
 		fmt.Fprintf(&b, "scenario bound: %s\n", boundText(v))
 	} else {
@@ -167,13 +173,49 @@ func checkedLine(c *fit.Certificate, checks []validate.RunScreen) string {
 		parts = append(parts, fmt.Sprintf("%d %s", kinds[k], k))
 	}
 	notes := []string{strings.Join(parts, ", ")}
-	if never > 0 {
+	if !hasV(c) {
+		notes = append(notes, "no V, so no region: they contradict no claim")
+	} else if never > 0 {
 		notes = append(notes, fmt.Sprintf("%d of the flagged never entered the region, so they lie outside its claim", never))
 	}
 	if c.Strength == fit.Stable && kinds[string(validate.FlagUnsettled)] > 0 {
 		notes = append(notes, "strength stable claims no settling, so unsettled runs do not contradict it")
 	}
 	return line + " (" + strings.Join(notes, "; ") + ")"
+}
+
+// hasV reports whether c holds a V (terms; a file from before "found"
+// was written reads Found false, so the terms decide). A certificate
+// without one claims no region.
+func hasV(c *fit.Certificate) bool { return len(c.V.Exponents) > 0 }
+
+// noVWhy says in a few words why c has no V, from its reason kind; the
+// verdict's reason above it says more.
+func noVWhy(c *fit.Certificate) string {
+	switch c.ReasonKind {
+	case fit.ReasonUnstableLinearisation:
+		return "the fitted linearisation at the equilibrium is unstable (an eigenvalue with positive real part), so no V can show it stable"
+	case fit.ReasonLinearMarginal:
+		return "the fitted linearisation has an eigenvalue too near the imaginary axis to tell slow growth from light damping, so no V was fitted"
+	case fit.ReasonLPInfeasible:
+		return "no V of the degree tried falls along the fitted field on the fit runs"
+	case fit.ReasonLPFailed:
+		return "the LP solver failed on the certificate's LP"
+	case fit.ReasonTooFewSamples:
+		return "too few samples for the V family"
+	case fit.ReasonOutsideData:
+		return "the equilibrium lies outside the part of the state space the model is trusted in"
+	case fit.ReasonTrustDegenerate:
+		return "the model's trust region could not be computed (a collinear library over the samples)"
+	case fit.ReasonEigenvalues:
+		return "the Jacobian's eigenvalues could not be computed"
+	case fit.ReasonLyapunovSingular:
+		return "the Lyapunov equation of the linearisation has no unique solution"
+	}
+	if c.Contradicted {
+		return "the data contradict stability of the equilibrium"
+	}
+	return "see the reason under the verdict"
 }
 
 // restSections writes a section per rest point when there are several.
@@ -197,6 +239,8 @@ func restSections(b *strings.Builder, in *Input) {
 				fmt.Fprintf(b, " %s from %s to %s%s", s, human.Near(e[0], c.Scale[j]), human.Near(e[1], c.Scale[j]), spaceUnit(c.Units[j]))
 			}
 			b.WriteString("\n")
+		} else if !hasV(c) {
+			fmt.Fprintf(b, "    V: none found, so no region is claimed: %s\n", noVWhy(c))
 		} else {
 			b.WriteString("    region: none certified\n")
 		}
