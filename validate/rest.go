@@ -1,9 +1,11 @@
 package validate
 
 import (
+	"cmp"
 	"context"
 	"errors"
 	"fmt"
+	"slices"
 	"strings"
 
 	"basin.example/fit"
@@ -33,8 +35,8 @@ type RestSkip struct {
 // the fitted equilibrium nearest opts.Equilibrium when it is set, else
 // the one nearest the rest point most runs settle at (falling back to
 // Evaluate's own choice when no fitted equilibrium lies near it). The
-// others follow in falling order of the runs that settle there. A
-// cluster is skipped, with the reason, when the primary's model has no
+// others follow in falling order of the runs that settle there, and so
+// do the skipped clusters. A cluster is skipped, with the reason, when the primary's model has no
 // equilibrium within farEquilibrium spreads of it, when that equilibrium
 // is not a stable one, or when it is one already evaluated. Errors are
 // those of Evaluate.
@@ -81,6 +83,9 @@ func EvaluateAll(ctx context.Context, ds *ingest.Dataset, opts *Options) ([]Rest
 		}
 		out = append(out, RestResult{Result: r, Rest: rps[i]})
 	}
+	// The skips in falling order of their runs, as the certificates: a
+	// fold's skip comes after placeRests's, whatever its count.
+	slices.SortStableFunc(skips, func(a, b RestSkip) int { return cmp.Compare(b.Rest.Runs, a.Rest.Runs) })
 	return out, skips, nil
 }
 

@@ -77,8 +77,10 @@ one most runs settle at (or the one --equilibrium names), and each other
 stable rest point runs settle at gets its own complete certificate in the
 same set, certificate-2.json, certificate-3.json, ..., in falling order of
 the runs settling there; the summary has a section per rest point (file,
-verdict, runs settling there, region) and says which got none and why,
-and the report's phase plane draws every region. A certificate-N.json an
+verdict, runs settling there, region) and says which got none and why
+(after the certificates, in falling order of their runs; the first line
+counts both and gives the order), and the report's phase plane draws
+every region. A certificate-N.json an
 earlier run with more rest points left in --out is removed.
 
 	--out DIR           the output folder (default basin-out)

@@ -184,6 +184,53 @@ func checkedLine(c *fit.Certificate, checks []validate.RunScreen) string {
 	return line + " (" + strings.Join(notes, "; ") + ")"
 }
 
+// restHeader heads the rest-point sections: how many are listed, how
+// many have a certificate and how many not, and the order, true to the
+// list below it (the certificates first, in their files' order, then the
+// rest points without one). The files are in falling order of the runs
+// settling there, except that certificate.json may come first with fewer
+// (--equilibrium picked it, or no fitted equilibrium lay near the rest
+// point most runs settle at).
+func restHeader(in *Input) string {
+	with, without := len(in.Rests), len(in.Skipped)
+	const falling = "in falling order of the runs settling there"
+	order := "as the files are numbered"
+	if with > 1 {
+		down := true
+		for i := 2; i < with; i++ {
+			down = down && in.Rests[i].Runs <= in.Rests[i-1].Runs
+		}
+		switch {
+		case down && in.Rests[1].Runs <= in.Rests[0].Runs:
+			order = falling + " (as the files are numbered)"
+		case down:
+			order = in.Rests[0].File + " first, then the others " + falling + " (as the files are numbered)"
+		}
+	}
+	var certs string
+	switch {
+	case with == 0:
+		certs = "none with a certificate"
+	case with == 1:
+		certs = fmt.Sprintf("1 with a certificate (%s)", in.Rests[0].File)
+	case without == 0:
+		certs = "each with a certificate, " + order
+	default:
+		certs = fmt.Sprintf("%d with a certificate, %s", with, order)
+	}
+	if without == 0 {
+		return fmt.Sprintf("%d, %s", with, certs)
+	}
+	skips := fmt.Sprintf("then %d without one", without)
+	if without > 1 {
+		skips += ", " + falling
+	}
+	if with == 0 {
+		return fmt.Sprintf("%d, %s", without, certs)
+	}
+	return fmt.Sprintf("%d: %s; %s", with+without, certs, skips)
+}
+
 // hasV reports whether c holds a V (terms; a file from before "found"
 // was written reads Found false, so the terms decide). A certificate
 // without one claims no region.
@@ -223,7 +270,7 @@ func restSections(b *strings.Builder, in *Input) {
 	if len(in.Rests) == 0 && len(in.Skipped) == 0 {
 		return
 	}
-	fmt.Fprintf(b, "rest points: %d certificate(s), in falling order of the runs settling there\n", len(in.Rests))
+	fmt.Fprintf(b, "rest points: %s\n", restHeader(in))
 	for _, r := range in.Rests {
 		c := r.Cert
 		fmt.Fprintf(b, "  %s: rest point %s\n", r.File, statePoint(c, c.Equilibrium))
