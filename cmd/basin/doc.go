@@ -137,7 +137,12 @@ of its last 5%. Flags: those of Reading logs, --quiet and --json.
 	basin fit [flags] INPUTS...
 
 Fits the vector field only, on the runs a manifest does not hold out, and
-writes DIR/model.json. Flags: --out, --degree, --select-folds, --deriv,
+writes DIR/model.json. It prints the equations and the equilibria, the
+first the one nearest where the runs settle (or end, when none settles);
+an equilibrium with an eigenvalue of positive real part is never called
+where the runs settle: the output says runs near it leave it, and how
+many runs settle within the data, or that none does (run's summary says
+the same under its equilibrium). Flags: --out, --degree, --select-folds, --deriv,
 --bootstrap, --max-memory, --seed, --quiet and --json as for run, and those of
 Reading logs.
 

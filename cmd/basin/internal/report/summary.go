@@ -34,6 +34,9 @@ func Summary(w io.Writer, in *Input) error {
 		fmt.Fprintf(&b, "  %s\n", line)
 	}
 	fmt.Fprintf(&b, "equilibrium: %s\n", statePoint(c, c.Equilibrium))
+	if line := UnstableRuns(in.Model, NearestEquilibrium(in.Model, c.Equilibrium)); line != "" {
+		fmt.Fprintf(&b, "  %s\n", line)
+	}
 	if line := noEquilibriumLine(in.Model, c.Equilibrium); line != "" {
 		fmt.Fprintf(&b, "  %s\n", line)
 	}
