@@ -111,6 +111,27 @@ func TestUnstableFocusWords(t *testing.T) {
 	if strings.Contains(sum, "where the runs settle") {
 		t.Errorf("summary says the unstable focus is where the runs settle:\n%s", sum)
 	}
+
+	// No V was found: check describes no region.
+	if len(c.V.Exponents) != 0 {
+		t.Fatalf("a V of %d terms for an unstable focus", len(c.V.Exponents))
+	}
+	so.Reset()
+	se.Reset()
+	code := basinMain(context.Background(), []string{"check", "--cert", filepath.Join(out, "certificate.json"), data}, &so, &se)
+	if code != 0 && code != 1 {
+		t.Fatalf("check: exit %d: %s", code, se.String())
+	}
+	chk := so.String()
+	if !strings.Contains(chk, "12 runs; with no V there is no region to check them against\n") ||
+		!strings.Contains(chk, "scenario bound: none: with no V there is no region, so nothing to bound\n") {
+		t.Errorf("check output does not say there is no V and no region:\n%s", chk)
+	}
+	for _, bad := range []string{"inside the region", "entered the region", "inside a region"} {
+		if strings.Contains(chk, bad) {
+			t.Errorf("check output without a V has %q:\n%s", bad, chk)
+		}
+	}
 }
 
 func mustOpen(t *testing.T, path string) *os.File {

@@ -118,12 +118,9 @@ func Summary(w io.Writer, in *Input) error {
 	} else {
 		b.WriteString("region: none certified\n")
 	}
-	if v := c.Validation; v != nil && noV {
-		fmt.Fprintf(&b, "held-out: %s; with no V there is no region to check them against\n", human.Count(in.heldoutCount(v).Runs, "run"))
-		b.WriteString("scenario bound: none: with no V there is no region, so nothing to bound\n")
-	} else if v != nil {
+	if v := c.Validation; v != nil {
 		fmt.Fprintf(&b, "held-out: %s\n", heldoutPieces(c, v, in.heldoutCount(v)))
-		fmt.Fprintf(&b, "scenario bound: %s\n", boundText(v))
+		fmt.Fprintf(&b, "scenario bound: %s\n", CertBoundText(c, v))
 	} else {
 		b.WriteString("held-out: none, so the verdict cannot be certified: hold out runs (split holdout in a manifest) or record more runs\n")
 	}
@@ -320,6 +317,19 @@ func HeldoutRunsText(c *fit.Certificate, v *fit.Validation, runs int, pieces boo
 // it rests on.
 func BoundText(v *fit.Validation) string { return boundText(v) }
 
+// CertBoundText is [BoundText] for the held-out figures v of c: without
+// a V there is no region and nothing to bound.
+func CertBoundText(c *fit.Certificate, v *fit.Validation) string {
+	if !hasV(c) {
+		return "none: with no V there is no region, so nothing to bound"
+	}
+	return boundText(v)
+}
+
+// HasV reports whether c holds a V; a certificate without one claims no
+// region.
+func HasV(c *fit.Certificate) bool { return hasV(c) }
+
 // LimitText says what stopped the certificate's region growing, where,
 // and what would let it grow, in the states' units ("" when nothing did).
 func LimitText(c *fit.Certificate) string { return limitText(c) }
@@ -449,6 +459,10 @@ func heldoutPieces(c *fit.Certificate, v *fit.Validation, hc heldoutCount) strin
 	if hc.Pieces {
 		unit = "piece"
 		fmt.Fprintf(&b, " (%s where the inputs rest)", human.Count(v.HeldoutRuns, "piece"))
+	}
+	if !hasV(c) {
+		b.WriteString("; with no V there is no region to check them against")
+		return b.String()
 	}
 	if v.Pairs > 0 {
 		fmt.Fprintf(&b, "; V did not rise beyond the noise tolerance on %s inside the region",
