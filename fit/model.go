@@ -160,7 +160,9 @@ type Model struct {
 	// inputs.
 	Inputs    []Input   `json:"inputs,omitempty"`
 	RestInput []float64 `json:"rest_input,omitempty"`
-	// Equilibrium is the primary equilibrium (the one the runs settle on);
+	// Equilibrium is the primary equilibrium (the one nearest where the
+	// runs settle, or end when none settles: an unstable one is not where
+	// they settle);
 	// JacobianEigenvalues its linearisation's eigenvalues.
 	Equilibrium         []float64    `json:"equilibrium"`
 	JacobianEigenvalues [][2]float64 `json:"jacobian_eigenvalues"`

@@ -375,6 +375,40 @@ func trendsUp(rates []float64) (neg, n int, mean, se float64, up bool) {
 	return neg, n, mean, se, 2*neg > n && mean+growthSE*se < 0
 }
 
+// clearGrowthSE is how many standard errors below zero the held-out
+// runs' mean decay rate must lie for the reason to say V grows rather
+// than that slow growth cannot be told from stability: a z-score of -5,
+// the "five sigma" convention (one-sided normal tail 2.9e-7; common
+// practice). With few runs the mean's t distribution has heavier tails
+// (3 runs, 2 degrees of freedom: P(t < -5) = 0.019; 6 runs: 0.0021), so
+// it is still far stronger evidence than growthSE's. The verdict stays
+// inconclusive either way: growth of this V along the runs shows that
+// V is no Lyapunov function there, not that every V must rise, so it is
+// not the contract's rejected.
+const clearGrowthSE = 5
+
+// trendWords is the reason for a trend up of V (trendsUp's figures):
+// "along" the whole runs or "over the later half of" them, where says
+// " there" for the latter. Below clearGrowthSE standard errors the data
+// show growth; nearer zero slow growth cannot be told from stability.
+func trendWords(span, where string, neg, n int, mean, se float64) string {
+	if mean < -clearGrowthSE*se {
+		return fmt.Sprintf("V grows %s %d of the %d held-out runs that entered the region (mean decay rate%s %.3g ± %.2g 1/s, %s standard errors below zero): the data show growth, not stability. This V is no Lyapunov function there, and the runs may be leaving the equilibrium, as a growing oscillation does: look at those runs before recording more.", span, neg, n, where, mean, se, zText(mean, se))
+	}
+	return fmt.Sprintf("V trends up %s %d of the %d held-out runs that entered the region (mean decay rate%s %.3g ± %.2g 1/s, below zero): slow growth cannot be told from stability. Record longer runs to tell.", span, neg, n, where, mean, se)
+}
+
+// zText writes how many standard errors se the mean lies below zero, to
+// two significant digits, or "over 100" beyond that (every rate alike
+// gives a standard error at round-off, and a z-score of 10^14 says no
+// more than 100 does).
+func zText(mean, se float64) string {
+	if z := -mean / se; z <= 100 {
+		return fmt.Sprintf("%.2g", z)
+	}
+	return "over 100"
+}
+
 // growthSE is how many standard errors below zero the held-out runs'
 // mean decay rate must lie for V to be said to trend up (about a one-sided
 // 5% level for a handful of runs under a normal model; common practice).
@@ -487,13 +521,13 @@ func decide(cert *fit.Certificate, val *fit.Validation, runs []RunScreen, eig []
 		}
 	}
 	if neg, n, mean, se, up := trendsUp(rates); up {
-		return fit.Inconclusive, fit.NoClaim, fit.ReasonHeldoutRise, fmt.Sprintf("V trends up along %d of the %d held-out runs that entered the region (mean decay rate %.3g ± %.2g 1/s, below zero): slow growth cannot be told from stability. Record longer runs to tell.", neg, n, mean, se)
+		return fit.Inconclusive, fit.NoClaim, fit.ReasonHeldoutRise, trendWords("along", "", neg, n, mean, se)
 	}
 	// The same over the later half of each run from entry: a transient
 	// that dies early (V falling fast at first) can hide a slow rise that
 	// goes on to the end.
 	if neg, n, mean, se, up := trendsUp(late); up {
-		return fit.Inconclusive, fit.NoClaim, fit.ReasonHeldoutRise, fmt.Sprintf("V trends up over the later half of %d of the %d held-out runs that entered the region (mean decay rate there %.3g ± %.2g 1/s, below zero): slow growth cannot be told from stability. Record longer runs to tell.", neg, n, mean, se)
+		return fit.Inconclusive, fit.NoClaim, fit.ReasonHeldoutRise, trendWords("over the later half of", " there", neg, n, mean, se)
 	}
 	why := "not all settled"
 	switch {

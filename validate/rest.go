@@ -1,9 +1,11 @@
 package validate
 
 import (
+	"cmp"
 	"context"
 	"errors"
 	"fmt"
+	"slices"
 	"strings"
 
 	"basin.example/fit"
@@ -25,6 +27,10 @@ type RestResult struct {
 type RestSkip struct {
 	Rest ingest.RestPoint
 	Why  string
+	// Unstable says the fitted equilibrium there has an eigenvalue with
+	// positive real part: runs near it leave it, so the runs that end near
+	// it are not said to settle there.
+	Unstable bool
 }
 
 // EvaluateAll evaluates every stable rest point the runs of ds settle at
@@ -33,8 +39,8 @@ type RestSkip struct {
 // the fitted equilibrium nearest opts.Equilibrium when it is set, else
 // the one nearest the rest point most runs settle at (falling back to
 // Evaluate's own choice when no fitted equilibrium lies near it). The
-// others follow in falling order of the runs that settle there. A
-// cluster is skipped, with the reason, when the primary's model has no
+// others follow in falling order of the runs that settle there, and so
+// do the skipped clusters. A cluster is skipped, with the reason, when the primary's model has no
 // equilibrium within farEquilibrium spreads of it, when that equilibrium
 // is not a stable one, or when it is one already evaluated. Errors are
 // those of Evaluate.
@@ -73,7 +79,7 @@ func EvaluateAll(ctx context.Context, ds *ingest.Dataset, opts *Options) ([]Rest
 		r, err := Evaluate(ctx, ds, &oi)
 		if errors.Is(err, ErrOptions) {
 			// A fold's model has no equilibrium there.
-			skips = append(skips, RestSkip{rps[i], "some fold's fitted model has no equilibrium near it"})
+			skips = append(skips, RestSkip{Rest: rps[i], Why: "some fold's fitted model has no equilibrium near it"})
 			continue
 		}
 		if err != nil {
@@ -81,6 +87,9 @@ func EvaluateAll(ctx context.Context, ds *ingest.Dataset, opts *Options) ([]Rest
 		}
 		out = append(out, RestResult{Result: r, Rest: rps[i]})
 	}
+	// The skips in falling order of their runs, as the certificates: a
+	// fold's skip comes after placeRests's, whatever its count.
+	slices.SortStableFunc(skips, func(a, b RestSkip) int { return cmp.Compare(b.Rest.Runs, a.Rest.Runs) })
 	return out, skips, nil
 }
 
@@ -104,15 +113,22 @@ func placeRests(m *fit.Model, rps []ingest.RestPoint) (primary int, rest []int, 
 		k, d := m.Nearest(rp.Point)
 		switch {
 		case k < 0:
-			skips = append(skips, RestSkip{rp, "the fitted model has no equilibrium in the data's box"})
+			skips = append(skips, RestSkip{Rest: rp, Why: "the fitted model has no equilibrium in the data's box"})
 		case d > farEquilibrium:
-			skips = append(skips, RestSkip{rp, fmt.Sprintf("no equilibrium of the fitted model near it (the nearest is %.3g spreads away)", d)})
+			skips = append(skips, RestSkip{Rest: rp, Why: fmt.Sprintf("no equilibrium of the fitted model near it (the nearest is %.3g spreads away)", d)})
 		case k == 0 && primary < 0:
 			primary = i
 		case done[k]:
-			skips = append(skips, RestSkip{rp, "the same fitted equilibrium as an earlier rest point"})
+			skips = append(skips, RestSkip{Rest: rp, Why: "the same fitted equilibrium as an earlier rest point"})
 		case !strings.HasPrefix(m.Equilibria[k].Class, "stable"):
-			skips = append(skips, RestSkip{rp, fmt.Sprintf("the fitted equilibrium there is a %s", m.Equilibria[k].Class)})
+			sk := RestSkip{Rest: rp, Why: fmt.Sprintf("the fitted equilibrium there is a %s", m.Equilibria[k].Class)}
+			for _, l := range m.Equilibria[k].Eigenvalues {
+				sk.Unstable = sk.Unstable || l[0] > 0
+			}
+			if sk.Unstable {
+				sk.Why += ", which runs near it leave"
+			}
+			skips = append(skips, sk)
 		default:
 			done[k] = true
 			rest = append(rest, i)

@@ -95,7 +95,8 @@ func TestEvaluateAllWells(t *testing.T) {
 func TestPlaceRests(t *testing.T) {
 	m := &fit.Model{Spread: []float64{1, 1}, Equilibria: []fit.Equilibrium{
 		{Point: []float64{1, 0}, Class: "stable focus"},
-		{Point: []float64{0, 0}, Class: "saddle"},
+		// the Jacobian at the saddle [[0, 1], [1, -0.5]]: λ = (-0.5 ± √4.25)/2
+		{Point: []float64{0, 0}, Class: "saddle", Eigenvalues: [][2]float64{{0.7808, 0}, {-1.2808, 0}}},
 		{Point: []float64{-1, 0}, Class: "stable focus"},
 	}}
 	rp := func(x float64, n int) ingest.RestPoint { return ingest.RestPoint{Point: []float64{x, 0}, Runs: n} }
@@ -127,6 +128,12 @@ func TestPlaceRests(t *testing.T) {
 			for i, s := range skips {
 				if !strings.HasPrefix(s.Why, tc.skips[i]) {
 					t.Errorf("skip %d: %q, want %q...", i, s.Why, tc.skips[i])
+				}
+				// an eigenvalue with positive real part: runs near it
+				// leave it ([Strogatz1994] §5.2), and the skip says so
+				saddle := strings.HasPrefix(tc.skips[i], "the fitted equilibrium there is a saddle")
+				if s.Unstable != saddle || strings.Contains(s.Why, "which runs near it leave") != saddle {
+					t.Errorf("skip %d: %q, unstable %v; want unstable %v", i, s.Why, s.Unstable, saddle)
 				}
 			}
 		})

@@ -4,9 +4,12 @@ import (
 	"context"
 	"fmt"
 	"math"
+	"strings"
 	"testing"
 
 	"gonum.org/v1/gonum/floats/scalar"
+	"gonum.org/v1/gonum/stat"
+	"gonum.org/v1/gonum/stat/distuv"
 
 	"basin.example/fit"
 	"basin.example/ingest"
@@ -63,4 +66,111 @@ func TestDecideLateGrowth(t *testing.T) {
 			t.Logf("%s/%s: %s", c.Verdict, c.Strength, c.Reason)
 		})
 	}
+}
+
+// TestTrendWords: the reason for a trend up of V says the data show
+// growth when the mean decay rate lies more than clearGrowthSE standard
+// errors below zero, and that slow growth cannot be told from stability
+// between growthSE and that. The mean and its standard error are
+// checked against gonum's stat.Mean and stat.StdDev (the sample
+// standard deviation, n-1) over √n [gonum]; the tail probabilities the
+// threshold's comment quotes against gonum's distuv.Normal and
+// distuv.StudentsT [FiveSigma], to the two digits quoted.
+func TestTrendWords(t *testing.T) {
+	for _, tc := range []struct {
+		name  string
+		rates []float64
+		up    bool   // trendsUp's answer
+		want  string // a phrase the reason must hold
+		avoid string // a phrase it must not
+	}{
+		// mean -0.04, sample sd 6.2e-4, n 4: se 3.1e-4, z 129.
+		{"clear growth", []float64{-0.0393, -0.0407, -0.0397, -0.0403}, true, "standard errors below zero): the data show growth, not stability", "cannot be told"},
+		// mean -0.001, sd 8.2e-4, n 4: se 4.1e-4, z 2.4: above
+		// growthSE, below clearGrowthSE.
+		{"weak growth", []float64{-0.0002, -0.0018, -0.0016, -0.0004}, true, "slow growth cannot be told from stability", "data show growth"},
+		{"scatter about zero", []float64{-0.001, 0.002, -0.0005, 0.001}, false, "", ""},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			neg, n, mean, se, up := trendsUp(tc.rates)
+			if up != tc.up {
+				t.Fatalf("trendsUp = %v, want %v (mean %g, se %g)", up, tc.up, mean, se)
+			}
+			wantMean := stat.Mean(tc.rates, nil)
+			wantSE := stat.StdDev(tc.rates, nil) / math.Sqrt(float64(len(tc.rates)))
+			// a sum of four numbers near 0.04: round-off near 1e-17
+			if n != len(tc.rates) || !scalar.EqualWithinAbsOrRel(mean, wantMean, 1e-15, 1e-12) || !scalar.EqualWithinAbsOrRel(se, wantSE, 1e-15, 1e-12) {
+				t.Fatalf("n %d, mean %g ± %g; want %d, %g ± %g", n, mean, se, len(tc.rates), wantMean, wantSE)
+			}
+			if !up {
+				return
+			}
+			got := trendWords("along", "", neg, n, mean, se)
+			if !strings.Contains(got, tc.want) || strings.Contains(got, tc.avoid) {
+				t.Errorf("reason %q: want %q in it and not %q", got, tc.want, tc.avoid)
+			}
+			t.Log(got)
+		})
+	}
+	// The figures in clearGrowthSE's comment.
+	for _, tc := range []struct {
+		name string
+		p    float64
+		want float64
+		tol  float64 // half a unit of the last digit quoted
+	}{
+		{"normal", distuv.UnitNormal.CDF(-clearGrowthSE), 2.9e-7, 0.05e-7},
+		{"t, 2 dof", distuv.StudentsT{Mu: 0, Sigma: 1, Nu: 2}.CDF(-clearGrowthSE), 0.019, 0.0005},
+		{"t, 5 dof", distuv.StudentsT{Mu: 0, Sigma: 1, Nu: 5}.CDF(-clearGrowthSE), 0.0021, 0.00005},
+	} {
+		if !scalar.EqualWithinAbs(tc.p, tc.want, tc.tol) {
+			t.Errorf("%s: P(below -%d) = %.3g, the comment says %g", tc.name, clearGrowthSE, tc.p, tc.want)
+		}
+	}
+}
+
+// TestDecideClearGrowth: held-out runs whose V grows steadily along a
+// rotation, V(t) = 0.1 e^(2gt) with g between 0.019 and 0.021 1/s per
+// run (so the rates scatter and their standard error is not round-off),
+// give an inconclusive verdict whose reason says the data show growth,
+// never certified and never "cannot be told". The decay rate of each run
+// is -2g exactly (log V is linear in t); the mean -0.04, its standard
+// error 7.1e-4 (rates -0.038, -0.039, ..., -0.042: sd 1.58e-3 over √5),
+// 57 standard errors below zero.
+func TestDecideClearGrowth(t *testing.T) {
+	marginal := [][2]float64{{0, 2}, {0, -2}}
+	c := circleCert(false)
+	c.NonRise = true
+	ds := &ingest.Dataset{States: []ingest.Column{{Name: "a"}, {Name: "b"}}}
+	for i := 0; i < 5; i++ {
+		ph, g := float64(i), 0.019+0.0005*float64(i)
+		ds.Runs = append(ds.Runs, makeRun(fmt.Sprintf("r%d", i), 301, 0.01, func(t float64) (float64, float64) {
+			a := math.Sqrt(0.1) * math.Exp(g*t)
+			return a * math.Cos(2*t+ph), a * math.Sin(2*t+ph)
+		}))
+	}
+	o := &Options{Tolerance: 0.2} // V rises by 0.1(e^0.126 - 1) = 0.013 at most: below it
+	val, runs, err := Check(context.Background(), c, ds, o)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var rates []float64
+	for _, r := range runs {
+		if r.EverInside && r.DecaySamples > 0 {
+			rates = append(rates, r.DecayRate)
+		}
+	}
+	if len(rates) != 5 {
+		t.Fatalf("%d runs with a decay rate, want 5", len(rates))
+	}
+	// -2g per run: log V is linear in t, so the least-squares slope is
+	// exact up to round-off
+	if m := stat.Mean(rates, nil); !scalar.EqualWithinAbs(m, -0.04, 1e-6) {
+		t.Fatalf("mean decay rate %g, want -0.04", m)
+	}
+	Decide(c, val, runs, marginal, o)
+	if c.Verdict != fit.Inconclusive || !strings.Contains(c.Reason, "the data show growth") {
+		t.Errorf("%s/%s: %s; want inconclusive, the data show growth", c.Verdict, c.Strength, c.Reason)
+	}
+	t.Logf("%s/%s: %s", c.Verdict, c.Strength, c.Reason)
 }

@@ -248,8 +248,8 @@ func checkTable(e *env, doc *checkJSON, cert *fit.Certificate, recorded int, pie
 		fmt.Fprintf(w, "worst violation, in run %s%s at %s: %s\n", printable(v.Worst.Run), worstFile(doc.Runs, v.Worst), report.StatePoint(cert, v.Worst.State),
 			report.FlagText(cert, validate.Flag{Kind: v.Worst.Kind, Time: v.Worst.Time, Excess: v.Worst.Excess}, nil))
 	}
-	fmt.Fprintf(w, "scenario bound: %s\n", report.BoundText(v))
-	if v.Note != "" {
+	fmt.Fprintf(w, "scenario bound: %s\n", report.CertBoundText(cert, v))
+	if v.Note != "" && report.HasV(cert) {
 		fmt.Fprintf(w, "  (%s)\n", v.Note)
 	}
 	fmt.Fprintf(w, "verdict on these runs: %s (strength %s): %s\n%s\n", s.Verdict, s.Strength, s.Reason, s.Caveat)

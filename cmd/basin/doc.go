@@ -77,8 +77,10 @@ one most runs settle at (or the one --equilibrium names), and each other
 stable rest point runs settle at gets its own complete certificate in the
 same set, certificate-2.json, certificate-3.json, ..., in falling order of
 the runs settling there; the summary has a section per rest point (file,
-verdict, runs settling there, region) and says which got none and why,
-and the report's phase plane draws every region. A certificate-N.json an
+verdict, runs settling there, region) and says which got none and why
+(after the certificates, in falling order of their runs; the first line
+counts both and gives the order), and the report's phase plane draws
+every region. A certificate-N.json an
 earlier run with more rest points left in --out is removed.
 
 	--out DIR           the output folder (default basin-out)
@@ -139,7 +141,12 @@ of its last 5%. Flags: those of Reading logs, --quiet and --json.
 	basin fit [flags] INPUTS...
 
 Fits the vector field only, on the runs a manifest does not hold out, and
-writes DIR/model.json. Flags: --out, --degree, --input-degree, --select-folds, --deriv,
+writes DIR/model.json. It prints the equations and the equilibria, the
+first the one nearest where the runs settle (or end, when none settles);
+an equilibrium with an eigenvalue of positive real part is never called
+where the runs settle: the output says runs near it leave it, and how
+many runs settle within the data, or that none does (run's summary says
+the same under its equilibrium). Flags: --out, --degree, --input-degree, --select-folds, --deriv,
 --bootstrap, --max-memory, --seed, --quiet and --json as for run, and those of
 Reading logs.
 

@@ -42,8 +42,10 @@ sequentially thresholded ridge regression on all monomials up to --degree,
 threshold chosen by cross-validation over runs (--select-folds), a
 bootstrap over runs for the share of fits that keep each term and its
 interval, and the equilibria of the fitted field with their linearisation. Writes
-DIR/model.json and prints the equations in the logs' units; --json prints
-the model instead.`,
+DIR/model.json and prints the equations in the logs' units and the
+equilibria, the first the one nearest where the runs settle (or end, when
+none settles); at an unstable one it says that runs near it leave it and
+what the runs do instead. --json prints the model instead.`,
 }
 
 func init() { cmdFit.Run = runFit } // runFit mentions cmdFit: break the init cycle
@@ -189,12 +191,15 @@ func printModel(w io.Writer, m *fit.Model) {
 		}
 		fmt.Fprintf(w, "\nequilibria and certificate at rest input %s\n", strings.Join(at, ", "))
 	}
-	fmt.Fprintf(w, "\nequilibria (the first is where the runs settle):\n")
+	fmt.Fprintf(w, "\nequilibria (%s):\n", report.FirstEquilibrium(m))
 	if len(m.Equilibria) == 0 {
 		fmt.Fprintf(w, "  none found; %s\n", m.Note)
 	}
-	for _, q := range m.Equilibria {
+	for i, q := range m.Equilibria {
 		fmt.Fprintf(w, "  %s: %s; eigenvalues %s 1/s\n", q.Class, point(q.Point, m), eigenText(q.Eigenvalues))
+		if line := report.UnstableRuns(m, &m.Equilibria[i]); i == 0 && line != "" {
+			fmt.Fprintf(w, "    %s\n", line)
+		}
 	}
 	if m.Note != "" && len(m.Equilibria) > 0 {
 		fmt.Fprintf(w, "  note: %s\n", m.Note)

@@ -92,9 +92,10 @@ func TestRunTwoWells(t *testing.T) {
 		name    string
 		args    []string
 		primary float64 // x of the well in certificate.json
+		order   string  // the rest-point header's order, as the files are
 	}{
-		{"most settled", nil, most},
-		{"picked", []string{"--equilibrium", fmt.Sprintf("x=%g,v=0", -most)}, -most},
+		{"most settled", nil, most, "each with a certificate, in falling order of the runs settling there (as the files are numbered)"},
+		{"picked", []string{"--equilibrium", fmt.Sprintf("x=%g,v=0", -most)}, -most, "each with a certificate, certificate.json first, then the others in falling order of the runs settling there (as the files are numbered)"},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
 			out := filepath.Join(t.TempDir(), "out")
@@ -130,7 +131,7 @@ func TestRunTwoWells(t *testing.T) {
 			if err != nil {
 				t.Fatal(err)
 			}
-			for _, want := range []string{"rest points: 2 certificate(s)", "certificate-2.json: rest point", fmt.Sprintf("runs settling there: %d", 30-fewer), fmt.Sprintf("runs settling there: %d", fewer)} {
+			for _, want := range []string{"rest points: 2, " + tc.order + "\n", "certificate-2.json: rest point", fmt.Sprintf("runs settling there: %d", 30-fewer), fmt.Sprintf("runs settling there: %d", fewer)} {
 				if !strings.Contains(string(sum), want) {
 					t.Errorf("summary.txt lacks %q:\n%s", want, sum)
 				}

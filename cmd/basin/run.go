@@ -260,11 +260,17 @@ func runRun(ctx context.Context, e *env, args []string) error {
 			in.Rests = append(in.Rests, report.Rest{File: name, Cert: ci, Runs: r.Rest.Runs})
 		}
 		for _, s := range skips {
-			settle := "settle"
+			settle := "settle there"
 			if s.Rest.Runs == 1 {
-				settle = "settles"
+				settle = "settles there"
 			}
-			in.Skipped = append(in.Skipped, fmt.Sprintf("the rest point at %s (%s %s there): %s",
+			if s.Unstable { // runs near an unstable equilibrium leave it: never "settle there"
+				settle = "end near it"
+				if s.Rest.Runs == 1 {
+					settle = "ends near it"
+				}
+			}
+			in.Skipped = append(in.Skipped, fmt.Sprintf("the rest point at %s (%s %s): %s",
 				report.StatePoint(cert, s.Rest.Point), human.Count(s.Rest.Runs, "run"), settle, s.Why))
 		}
 	}

@@ -68,6 +68,12 @@ func TestNoVTable(t *testing.T) {
 	if !strings.Contains(page, "No V was found, so there are no terms to list") {
 		t.Error("page does not say that no V was found")
 	}
+	if !strings.Contains(page, "No V was found, so no region is claimed: see the reason under the verdict.") || strings.Contains(page, "No certified region.") {
+		t.Error("the region section does not say that no V was found, so no region is claimed")
+	}
+	if !strings.Contains(page, "With no V there is no region: the figures below count nothing inside one") {
+		t.Error("the held-out section does not say its figures count nothing inside a region")
+	}
 	for _, bad := range []string{"Noise ball radius", "boundary of the certified region", "box bounding the region", `data-k="violation_bound" data-v="1">100%`} {
 		if strings.Contains(page, bad) {
 			t.Errorf("page without a V has %q", bad)

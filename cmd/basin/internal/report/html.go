@@ -61,6 +61,8 @@ type pageData struct {
 	VTerms                    []vTerm
 	VDropped                  string // "2 more terms" of V left out of the table (zero or below 1e-4 of the largest)
 	NoV                       string // in place of the V table when it has no term to list
+	NoRegion                  string // in place of the extent table when there is none
+	HeldoutNoV                string // before the held-out figures when there is no V
 	PlaneRegion               bool   // the phase plane draws the region's boundary
 	Val                       *fit.Validation
 	ValRows                   []valRow
@@ -178,7 +180,9 @@ func build(in *Input, pl [2]int) (*pageData, error) {
 		d.Equilibrium = append(d.Equilibrium, stateVal{s, c.Units[j], mkNear(c.Equilibrium[j], c.Scale[j]), mk(c.Scale[j])})
 	}
 	for j, e := range c.Region.Extent {
-		if j < len(c.States) {
+		// as the summary: a region needs a V and a level (a file may keep
+		// an extent without them)
+		if j < len(c.States) && hasV(c) && c.Level > 0 {
 			d.Extent = append(d.Extent, extentRow{c.States[j], c.Units[j], mkNear(e[0], c.Scale[j]), mkNear(e[1], c.Scale[j])})
 		}
 	}
@@ -203,6 +207,11 @@ func build(in *Input, pl [2]int) (*pageData, error) {
 		d.NoV = "No V was found, so there are no terms to list; the finding above says why."
 	default:
 		d.NoV = "Every coefficient of V is zero, so there are no terms to list."
+	}
+	d.NoRegion = "No certified region."
+	if !hasV(c) {
+		d.NoRegion = "No V was found, so no region is claimed: " + noVWhy(c) + "."
+		d.HeldoutNoV = "With no V there is no region: the figures below count nothing inside one, and the runs' flags contradict no claim."
 	}
 	if len(c.States) >= 2 && pl[0] != pl[1] {
 		f, err := planeFigure(in, pl, false)

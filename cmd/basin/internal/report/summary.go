@@ -34,6 +34,9 @@ func Summary(w io.Writer, in *Input) error {
 		fmt.Fprintf(&b, "  %s\n", line)
 	}
 	fmt.Fprintf(&b, "equilibrium: %s\n", statePoint(c, c.Equilibrium))
+	if line := UnstableRuns(in.Model, NearestEquilibrium(in.Model, c.Equilibrium)); line != "" {
+		fmt.Fprintf(&b, "  %s\n", line)
+	}
 	if line := noEquilibriumLine(in.Model, c.Equilibrium); line != "" {
 		fmt.Fprintf(&b, "  %s\n", line)
 	}
@@ -100,7 +103,10 @@ func Summary(w io.Writer, in *Input) error {
 		b.WriteString("\n")
 	}
 	inside := c.Level > 0 && len(c.Region.Extent) == len(c.States)
-	if inside {
+	noV := !hasV(c)
+	if noV {
+		fmt.Fprintf(&b, "V: none found, so no region is claimed: %s\n", noVWhy(c))
+	} else if inside {
 		fmt.Fprintf(&b, "region {V <= %s}:\n", human.Num(c.Level))
 		for j, s := range c.States {
 			e := c.Region.Extent[j]
@@ -114,7 +120,7 @@ func Summary(w io.Writer, in *Input) error {
 	}
 	if v := c.Validation; v != nil {
 		fmt.Fprintf(&b, "held-out: %s\n", heldoutPieces(c, v, in.heldoutCount(v)))
-		fmt.Fprintf(&b, "scenario bound: %s\n", boundText(v))
+		fmt.Fprintf(&b, "scenario bound: %s\n", CertBoundText(c, v))
 	} else {
 		b.WriteString("held-out: none, so the verdict cannot be certified: hold out runs (split holdout in a manifest) or record more runs\n")
 	}
@@ -167,7 +173,9 @@ func checkedLine(c *fit.Certificate, checks []validate.RunScreen) string {
 		parts = append(parts, fmt.Sprintf("%d %s", kinds[k], k))
 	}
 	notes := []string{strings.Join(parts, ", ")}
-	if never > 0 {
+	if !hasV(c) {
+		notes = append(notes, "no V, so no region: they contradict no claim")
+	} else if never > 0 {
 		notes = append(notes, fmt.Sprintf("%d of the flagged never entered the region, so they lie outside its claim", never))
 	}
 	if c.Strength == fit.Stable && kinds[string(validate.FlagUnsettled)] > 0 {
@@ -176,12 +184,93 @@ func checkedLine(c *fit.Certificate, checks []validate.RunScreen) string {
 	return line + " (" + strings.Join(notes, "; ") + ")"
 }
 
+// restHeader heads the rest-point sections: how many are listed, how
+// many have a certificate and how many not, and the order, true to the
+// list below it (the certificates first, in their files' order, then the
+// rest points without one). The files are in falling order of the runs
+// settling there, except that certificate.json may come first with fewer
+// (--equilibrium picked it, or no fitted equilibrium lay near the rest
+// point most runs settle at).
+func restHeader(in *Input) string {
+	with, without := len(in.Rests), len(in.Skipped)
+	const falling = "in falling order of the runs settling there"
+	order := "as the files are numbered"
+	if with > 1 {
+		down := true
+		for i := 2; i < with; i++ {
+			down = down && in.Rests[i].Runs <= in.Rests[i-1].Runs
+		}
+		switch {
+		case down && in.Rests[1].Runs <= in.Rests[0].Runs:
+			order = falling + " (as the files are numbered)"
+		case down:
+			order = in.Rests[0].File + " first, then the others " + falling + " (as the files are numbered)"
+		}
+	}
+	var certs string
+	switch {
+	case with == 0:
+		certs = "none with a certificate"
+	case with == 1:
+		certs = fmt.Sprintf("1 with a certificate (%s)", in.Rests[0].File)
+	case without == 0:
+		certs = "each with a certificate, " + order
+	default:
+		certs = fmt.Sprintf("%d with a certificate, %s", with, order)
+	}
+	if without == 0 {
+		return fmt.Sprintf("%d, %s", with, certs)
+	}
+	skips := fmt.Sprintf("then %d without one", without)
+	if without > 1 {
+		skips += ", " + falling
+	}
+	if with == 0 {
+		return fmt.Sprintf("%d, %s", without, certs)
+	}
+	return fmt.Sprintf("%d: %s; %s", with+without, certs, skips)
+}
+
+// hasV reports whether c holds a V (terms; a file from before "found"
+// was written reads Found false, so the terms decide). A certificate
+// without one claims no region.
+func hasV(c *fit.Certificate) bool { return len(c.V.Exponents) > 0 }
+
+// noVWhy says in a few words why c has no V, from its reason kind; the
+// verdict's reason above it says more.
+func noVWhy(c *fit.Certificate) string {
+	switch c.ReasonKind {
+	case fit.ReasonUnstableLinearisation:
+		return "the fitted linearisation at the equilibrium is unstable (an eigenvalue with positive real part), so no V can show it stable"
+	case fit.ReasonLinearMarginal:
+		return "the fitted linearisation has an eigenvalue too near the imaginary axis to tell slow growth from light damping, so no V was fitted"
+	case fit.ReasonLPInfeasible:
+		return "no V of the degree tried falls along the fitted field on the fit runs"
+	case fit.ReasonLPFailed:
+		return "the LP solver failed on the certificate's LP"
+	case fit.ReasonTooFewSamples:
+		return "too few samples for the V family"
+	case fit.ReasonOutsideData:
+		return "the equilibrium lies outside the part of the state space the model is trusted in"
+	case fit.ReasonTrustDegenerate:
+		return "the model's trust region could not be computed (a collinear library over the samples)"
+	case fit.ReasonEigenvalues:
+		return "the Jacobian's eigenvalues could not be computed"
+	case fit.ReasonLyapunovSingular:
+		return "the Lyapunov equation of the linearisation has no unique solution"
+	}
+	if c.Contradicted {
+		return "the data contradict stability of the equilibrium"
+	}
+	return "see the reason under the verdict"
+}
+
 // restSections writes a section per rest point when there are several.
 func restSections(b *strings.Builder, in *Input) {
 	if len(in.Rests) == 0 && len(in.Skipped) == 0 {
 		return
 	}
-	fmt.Fprintf(b, "rest points: %d certificate(s), in falling order of the runs settling there\n", len(in.Rests))
+	fmt.Fprintf(b, "rest points: %s\n", restHeader(in))
 	for _, r := range in.Rests {
 		c := r.Cert
 		fmt.Fprintf(b, "  %s: rest point %s\n", r.File, statePoint(c, c.Equilibrium))
@@ -197,6 +286,8 @@ func restSections(b *strings.Builder, in *Input) {
 				fmt.Fprintf(b, " %s from %s to %s%s", s, human.Near(e[0], c.Scale[j]), human.Near(e[1], c.Scale[j]), spaceUnit(c.Units[j]))
 			}
 			b.WriteString("\n")
+		} else if !hasV(c) {
+			fmt.Fprintf(b, "    V: none found, so no region is claimed: %s\n", noVWhy(c))
 		} else {
 			b.WriteString("    region: none certified\n")
 		}
@@ -225,6 +316,19 @@ func HeldoutRunsText(c *fit.Certificate, v *fit.Validation, runs int, pieces boo
 // BoundText states the scenario bound of v with its confidence and what
 // it rests on.
 func BoundText(v *fit.Validation) string { return boundText(v) }
+
+// CertBoundText is [BoundText] for the held-out figures v of c: without
+// a V there is no region and nothing to bound.
+func CertBoundText(c *fit.Certificate, v *fit.Validation) string {
+	if !hasV(c) {
+		return "none: with no V there is no region, so nothing to bound"
+	}
+	return boundText(v)
+}
+
+// HasV reports whether c holds a V; a certificate without one claims no
+// region.
+func HasV(c *fit.Certificate) bool { return hasV(c) }
 
 // LimitText says what stopped the certificate's region growing, where,
 // and what would let it grow, in the states' units ("" when nothing did).
@@ -355,6 +459,10 @@ func heldoutPieces(c *fit.Certificate, v *fit.Validation, hc heldoutCount) strin
 	if hc.Pieces {
 		unit = "piece"
 		fmt.Fprintf(&b, " (%s where the inputs rest)", human.Count(v.HeldoutRuns, "piece"))
+	}
+	if !hasV(c) {
+		b.WriteString("; with no V there is no region to check them against")
+		return b.String()
 	}
 	if v.Pairs > 0 {
 		fmt.Fprintf(&b, "; V did not rise beyond the noise tolerance on %s inside the region",

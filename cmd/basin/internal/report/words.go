@@ -2,6 +2,8 @@ package report
 
 import (
 	"fmt"
+	"math"
+	"strings"
 
 	"basin.example/cmd/basin/internal/human"
 	"basin.example/fit"
@@ -34,4 +36,121 @@ func FlagText(c *fit.Certificate, f validate.Flag, r *validate.RunScreen) string
 		return fmt.Sprintf("had not settled by its end at %s: V over its last samples was %s above settled", at, human.Num(f.Excess))
 	}
 	return fmt.Sprintf("%s at %s (excess %s in V)", f.Kind, at, human.Num(f.Excess))
+}
+
+// UnstableRuns says what the runs do at the fitted equilibrium e of m
+// when its Jacobian has an eigenvalue with positive real part, and ""
+// when none has: such an equilibrium is never where runs settle (an
+// eigenvalue with positive real part makes runs near it leave it
+// [Strogatz1994] §5.2, §6.3). It gives the largest real part, then how
+// many of m's fit runs settle within the data and where (the median of
+// their settle points), or that none does.
+func UnstableRuns(m *fit.Model, e *fit.Equilibrium) string {
+	if m == nil || e == nil {
+		return ""
+	}
+	top, any := 0.0, false
+	for _, l := range e.Eigenvalues {
+		if l[0] > 0 && (!any || l[0] > top) {
+			top, any = l[0], true
+		}
+	}
+	if !any {
+		return ""
+	}
+	var b strings.Builder
+	if e.Class == fit.ClassNonHyperbolic {
+		fmt.Fprintf(&b, "its linearisation has an eigenvalue on the imaginary axis (largest real part %s 1/s), so it does not show runs settling there", signedSig(top))
+	} else {
+		fmt.Fprintf(&b, "runs near it leave it (an eigenvalue with real part %s 1/s)", signedSig(top))
+	}
+	switch {
+	case m.Runs == 0:
+	case m.SettledRuns == 0:
+		fmt.Fprintf(&b, "; none of the %s settles within the data: they end still moving (circling, drifting or on their way elsewhere)", human.Count(m.Runs, "fit run"))
+	case len(m.Settle) == len(m.States):
+		fmt.Fprintf(&b, "; %d of the %s settle within the data, the median of their settle points at %s", m.SettledRuns, human.Count(m.Runs, "fit run"), modelPoint(m, m.Settle))
+	default:
+		fmt.Fprintf(&b, "; %d of the %s settle within the data", m.SettledRuns, human.Count(m.Runs, "fit run"))
+	}
+	return b.String()
+}
+
+// NearestEquilibrium returns the equilibrium of m nearest x in m's
+// spreads (nil when m has none of x's length).
+func NearestEquilibrium(m *fit.Model, x []float64) *fit.Equilibrium {
+	if m == nil {
+		return nil
+	}
+	var best *fit.Equilibrium
+	bd := math.Inf(1)
+	for i := range m.Equilibria {
+		e := &m.Equilibria[i]
+		if len(e.Point) != len(x) {
+			continue
+		}
+		d := 0.0
+		for j, v := range e.Point {
+			s := 1.0
+			if j < len(m.Spread) && m.Spread[j] > 0 {
+				s = m.Spread[j]
+			}
+			d += math.Pow((v-x[j])/s, 2)
+		}
+		if d < bd {
+			best, bd = e, d
+		}
+	}
+	return best
+}
+
+// modelPoint writes x as "x = 0.1 rad, y = 0", each coordinate to a
+// thousandth of its state's spread in m.
+func modelPoint(m *fit.Model, x []float64) string {
+	s := make([]string, 0, len(x))
+	for j, v := range x {
+		if j >= len(m.States) {
+			break
+		}
+		sp := math.NaN()
+		if j < len(m.Spread) {
+			sp = m.Spread[j]
+		}
+		u := ""
+		if j < len(m.Units) {
+			u = spaceUnit(m.Units[j])
+		}
+		s = append(s, m.States[j]+" = "+human.Near(v, sp)+u)
+	}
+	return strings.Join(s, ", ")
+}
+
+// signedSig writes x to 3 significant digits with its sign ("+0.2").
+func signedSig(x float64) string {
+	if x < 0 {
+		return human.Sig(x, 3)
+	}
+	return "+" + human.Sig(x, 3)
+}
+
+// FirstEquilibrium says what the first of m's equilibria is, for the
+// heading of a list of them: where the runs settle only when every
+// eigenvalue there has a negative real part and some run settles, else
+// the one nearest where the runs end (the median of their settle points,
+// or of their last samples when none settles).
+func FirstEquilibrium(m *fit.Model) string {
+	if m == nil || len(m.Equilibria) == 0 {
+		return "none"
+	}
+	stable := len(m.Equilibria[0].Eigenvalues) > 0
+	for _, l := range m.Equilibria[0].Eigenvalues {
+		stable = stable && l[0] < 0
+	}
+	switch {
+	case stable && m.SettledRuns > 0:
+		return "the first is where the runs settle"
+	case m.SettledRuns > 0:
+		return "the first is the one nearest where the runs settle"
+	}
+	return "the first is the one nearest where the runs end; none settles"
 }
