@@ -503,7 +503,7 @@ func decide(cert *fit.Certificate, val *fit.Validation, runs []RunScreen, eig []
 	// grows (slowly enough to stay inside this time).
 	for _, r := range runs {
 		if r.EverInside && r.VEnd-r.vEnter > tol {
-			return fit.Inconclusive, fit.NoClaim, fit.ReasonHeldoutRise, fmt.Sprintf("V rose along held-out run %s from %.4g where it entered the region to %.4g at its end (tolerance %.3g): growth, not stability. Record longer runs to tell.", r.Run, r.vEnter, r.VEnd, tol)
+			return fit.Inconclusive, fit.NoClaim, fit.ReasonHeldoutRise, fmt.Sprintf("V rose along held-out run %s from %.4g where it entered the region to %.4g at its end (tolerance %.3g): growth, not stability, so this V is no Lyapunov function along that run. Look at that run (a growing oscillation, a drift, a fault) before recording more.", r.Run, r.vEnter, r.VEnd, tol)
 		}
 	}
 	// Nor may V trend up along the runs: a slowly growing oscillation
