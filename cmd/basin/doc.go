@@ -161,7 +161,10 @@ scenario bound. The exit status is 0 whatever the verdict, rejected
 included (status 1 belongs to screen); the verdict is in the output.
 Without --states the certificate's states are read by name, in any column
 order, other columns left out; a state missing, or a state column in other
-units than the certificate's, is an input error (exit 2).
+units than the certificate's, is an input error (exit 2). With --inputs
+and a certificate at rest input the runs are checked in pieces where the
+inputs rest, and a piece that ends where an input comes on is not judged
+on settling (settled reads "cut: drive on at T s"; --json gives its cut).
 
 	--cert FILE         the certificate (required)
 	--min-decrease F    as for run (default 0.99)

@@ -371,6 +371,9 @@ func heldoutPieces(c *fit.Certificate, v *fit.Validation, hc heldoutCount) strin
 	default:
 		stayed := int(math.Round(v.InvarianceFraction * float64(base)))
 		fmt.Fprintf(&b, "; of the %s that %s, %d stayed inside and %d settled", human.Count(base, unit), how, stayed, v.Settled)
+		if v.CutShort > 0 {
+			fmt.Fprintf(&b, ", %d cut short where an input left rest before they could settle", v.CutShort)
+		}
 		if how == "entered the region" && v.StartInside > 0 {
 			fmt.Fprintf(&b, " (%d started inside)", v.StartInside)
 		}

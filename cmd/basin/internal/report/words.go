@@ -35,3 +35,18 @@ func FlagText(c *fit.Certificate, f validate.Flag, r *validate.RunScreen) string
 	}
 	return fmt.Sprintf("%s at %s (excess %s in V)", f.Kind, at, human.Num(f.Excess))
 }
+
+// SettledText is a run's entry in a table's settled column: yes, no, or,
+// for a piece that ends where an input left rest (r.Cut), that it was
+// cut short there, which input and when: "cut: drive on at 11.6 s".
+func SettledText(r *validate.RunScreen) string {
+	switch {
+	case r.Settled:
+		return "yes"
+	case r.Cut != nil && r.Cut.Input != "":
+		return fmt.Sprintf("cut: %s on at %s s", r.Cut.Input, human.Num(r.Cut.Time))
+	case r.Cut != nil:
+		return fmt.Sprintf("cut: an input on at %s s", human.Num(r.Cut.Time))
+	}
+	return "no"
+}
