@@ -214,6 +214,7 @@ func Check(ctx context.Context, cert *fit.Certificate, ds *ingest.Dataset, opts 
 	tau := Decorrelation(ds.Runs)
 	s := NewScreener(cert, &ScreenOptions{Tolerance: o.Tolerance})
 	s.spacing = tau
+	s.noSettle = false // settling decides the strength, whatever the certificate claimed
 	runs := make([]RunScreen, len(ds.Runs))
 	vp := cert.V.Compile(len(cert.States))
 	val := &fit.Validation{HeldoutRuns: len(ds.Runs), Decorrelation: tau, Confidence: 1 - o.Beta}

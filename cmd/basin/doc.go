@@ -182,7 +182,9 @@ Flags runs whose V rises (rises), that leave the region after entering it
 by more than the noise (leaves), that do not settle (unsettled), or whose
 V decays below half the slowest held-out run's rate (slow; only with a
 certificate that records the held-out decay rates); exit status 1 when any
-run is flagged. Rises and leaves say how far past the boundary, per state
+run is flagged. A certificate of strength stable does not claim that runs
+settle, so against it no run is flagged unsettled or slow (one warning says
+so). Rises and leaves say how far past the boundary, per state
 in the states' units; every run reports its decay rate. Files are read one
 at a time per worker, so memory stays bounded however many are given.
 Folders are read with their key=value subfolders (logs/vehicle=17/
