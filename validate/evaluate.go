@@ -231,6 +231,12 @@ func Check(ctx context.Context, cert *fit.Certificate, ds *ingest.Dataset, opts 
 		}
 		r := &runs[i]
 		s.Screen(r, ds.Runs[i].Source.File, &ds.Runs[i])
+		if k := slices.IndexFunc(r.Flags, func(f Flag) bool { return f.Kind == FlagUnsettled }); k >= 0 {
+			// came to rest outside the region: at another rest point
+			if ok, pt := ingest.Settles(&ds.Runs[i]); ok && !s.Inside(pt) {
+				r.Flags[k].RestPoint = pt
+			}
+		}
 		if cuts != nil && cuts[i] != nil {
 			// cut by an input's onset: no chance to settle, so no unsettled flag
 			r.Cut = cuts[i]
@@ -950,6 +956,46 @@ func cutShortRuns(ds *ingest.Dataset) map[string]bool {
 		}
 	}
 	return cut
+}
+
+// NameRests names the rest points that runs' unsettled flags came to
+// rest at (Flag.RestPoint): the nearest of points (per state, in the
+// states' units, as the certificate's equilibrium) by the largest
+// per-state distance in units of cert.Scale, named names[k], when it
+// lies within RestLink of the distance from the flag's rest point to
+// cert's equilibrium: a tenth, as ingest.RestLink tells two rest points
+// apart. Flags already named keep their name.
+func NameRests(runs []RunScreen, cert *fit.Certificate, names []string, points [][]float64) {
+	dist := func(a, b []float64) float64 {
+		d := 0.0
+		for j := range a {
+			if j < len(b) && j < len(cert.Scale) && cert.Scale[j] != 0 {
+				d = max(d, math.Abs(a[j]-b[j])/math.Abs(cert.Scale[j]))
+			}
+		}
+		return d
+	}
+	for i := range runs {
+		for k := range runs[i].Flags {
+			f := &runs[i].Flags[k]
+			if f.RestPoint == nil || f.RestName != "" {
+				continue
+			}
+			far := dist(f.RestPoint, cert.Equilibrium)
+			best, at := math.Inf(1), -1
+			for c, p := range points {
+				if len(p) != len(f.RestPoint) || c >= len(names) {
+					continue
+				}
+				if d := dist(f.RestPoint, p); d < best {
+					best, at = d, c
+				}
+			}
+			if at >= 0 && best <= ingest.RestLink*far {
+				f.RestName = names[at]
+			}
+		}
+	}
 }
 
 // InputCuts finds the pieces of seg (fit.RestSegments of whole: each

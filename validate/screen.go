@@ -405,6 +405,22 @@ func (s *Screener) quadV(z []float64) float64 {
 	return v
 }
 
+// Inside says the state x (in the states' units) lies in the region:
+// inside the box and V <= level. It panics if len(x) is not the number of
+// states.
+func (s *Screener) Inside(x []float64) bool {
+	if len(x) != s.n {
+		panic("validate: Inside with the wrong number of states")
+	}
+	for j, xj := range x {
+		if !(xj >= s.lo[j] && xj <= s.hi[j]) {
+			return false
+		}
+		s.z[j] = (xj - s.eq[j]) * s.inv[j]
+	}
+	return s.V(s.z) <= s.level
+}
+
 // SettleLevel returns the largest V on the noise ball: a run whose end has
 // V at most this is settled.
 func (s *Screener) SettleLevel() float64 { return s.settle }

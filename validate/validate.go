@@ -96,6 +96,16 @@ type Flag struct {
 	// State names, for stuck, the state whose reading held one value
 	// (the first in the certificate's order when several did).
 	State string `json:"state,omitempty"`
+	// RestPoint is, for unsettled, where the run came to rest when it
+	// did so outside the region (per state in the states' units: the
+	// median of its tail, by ingest.Settles' rule): it settled at
+	// another rest point, not this certificate's equilibrium, and so
+	// lies outside the certificate's claim. Set by [Check]; nil when the
+	// run did not come to rest, or came to rest inside the region (at
+	// rest off the equilibrium). RestName, when not empty, names that
+	// rest point (see [NameRests]).
+	RestPoint []float64 `json:"rest_point,omitempty"`
+	RestName  string    `json:"rest_name,omitempty"`
 }
 
 // RunScreen is the result of screening one run.

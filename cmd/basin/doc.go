@@ -165,6 +165,8 @@ units than the certificate's, is an input error (exit 2). With --inputs
 and a certificate at rest input the runs are checked in pieces where the
 inputs rest, and a piece that ends where an input comes on is not judged
 on settling (settled reads "cut: drive on at T s"; --json gives its cut).
+A run that came to rest outside the region settled at another rest point,
+named from the certificates and model.json beside --cert when they know it.
 
 	--cert FILE         the certificate (required)
 	--min-decrease F    as for run (default 0.99)

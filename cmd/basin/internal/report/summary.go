@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"slices"
 	"strings"
 
 	"basin.example/cmd/basin/internal/human"
@@ -134,7 +135,7 @@ func Summary(w io.Writer, in *Input) error {
 // strength stable, which claims no settling. "flagged: 4" alone beside a
 // certified verdict read as four failures.
 func checkedLine(c *fit.Certificate, checks []validate.RunScreen) string {
-	flagged, never := 0, 0
+	flagged, never, elsewhere := 0, 0, 0
 	kinds := map[string]int{}
 	var order []string
 	for _, r := range checks {
@@ -144,6 +145,9 @@ func checkedLine(c *fit.Certificate, checks []validate.RunScreen) string {
 		flagged++
 		if !r.EverInside {
 			never++
+		}
+		if slices.ContainsFunc(r.Flags, func(f validate.Flag) bool { return f.RestPoint != nil }) {
+			elsewhere++
 		}
 		seen := map[string]bool{}
 		for _, f := range r.Flags {
@@ -167,6 +171,9 @@ func checkedLine(c *fit.Certificate, checks []validate.RunScreen) string {
 		parts = append(parts, fmt.Sprintf("%d %s", kinds[k], k))
 	}
 	notes := []string{strings.Join(parts, ", ")}
+	if elsewhere > 0 {
+		notes = append(notes, fmt.Sprintf("%d settled at another rest point, outside this certificate's region", elsewhere))
+	}
 	if never > 0 {
 		notes = append(notes, fmt.Sprintf("%d of the flagged never entered the region, so they lie outside its claim", never))
 	}
