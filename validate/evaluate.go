@@ -75,7 +75,8 @@ type Options struct {
 	// rest, so it is not judged on settling (no unsettled flag, RunScreen.Cut
 	// says why, and fit.Validation.CutShort counts it when it did not
 	// settle); its rises and leaves are still checked. Nil means Check's
-	// runs are whole recordings. Evaluate sets it for its held-out pieces.
+	// runs are whole recordings. Evaluate ignores it and sets it for its
+	// own held-out pieces.
 	Whole *ingest.Dataset
 
 	// cutShort names the runs that end where a gap or a one-sample jump
@@ -592,6 +593,7 @@ func Evaluate(ctx context.Context, ds *ingest.Dataset, opts *Options) (*Result, 
 	res := &Result{Heldout: make([]bool, len(ds.Runs))}
 	defer o.progress("done", 1)
 	o.cutShort = cutShortRuns(ds)
+	o.Whole = nil // Evaluate's held-out pieces are its own (see one below)
 	if len(ds.Runs) < MinRuns {
 		o.progress("fitting the field", 0)
 		m, err := fit.Field(ctx, ds, o.Field)
