@@ -461,8 +461,13 @@ type Validation struct {
 	StartInside int `json:"runs_started_inside"`
 	// EnteredRuns counts held-out runs with at least one sample inside
 	// the region; each is checked from its first sample inside.
-	EnteredRuns     int        `json:"entered_runs"`
-	Settled         int        `json:"runs_settled"`
+	EnteredRuns int `json:"entered_runs"`
+	Settled     int `json:"runs_settled"`
+	// CutShort counts, of the entered runs that did not settle, the
+	// pieces that end where an input left rest (the next sample of their
+	// recording has it active): they were cut before they could settle,
+	// so settling is not judged on them. Absent (0) without inputs.
+	CutShort        int        `json:"runs_cut_short,omitempty"`
 	ScenarioSamples int        `json:"scenario_samples"`
 	Decorrelation   float64    `json:"decorrelation_s"`
 	DecisionVars    int        `json:"decision_variables"`

@@ -69,6 +69,15 @@ type Options struct {
 	// sum of the folds' shares and stage is the latest fold's. It is
 	// called from Evaluate's goroutine. Nil means no calls.
 	Progress func(stage string, done float64)
+	// Whole, when not nil, is the data set that Check's runs were cut
+	// from by fit.RestSegments (the pieces where the inputs rest): a
+	// piece that ends before its recording does ends where an input left
+	// rest, so it is not judged on settling (no unsettled flag, RunScreen.Cut
+	// says why, and fit.Validation.CutShort counts it when it did not
+	// settle); its rises and leaves are still checked. Nil means Check's
+	// runs are whole recordings. Evaluate ignores it and sets it for its
+	// own held-out pieces.
+	Whole *ingest.Dataset
 
 	// cutShort names the runs that end where a gap or a one-sample jump
 	// split their recording (set by Evaluate; see cutShortRuns).
@@ -206,18 +215,35 @@ func Check(ctx context.Context, cert *fit.Certificate, ds *ingest.Dataset, opts 
 	tau := Decorrelation(ds.Runs)
 	s := NewScreener(cert, &ScreenOptions{Tolerance: o.Tolerance})
 	s.spacing = tau
+	s.noSettle = false // settling decides the strength, whatever the certificate claimed
 	runs := make([]RunScreen, len(ds.Runs))
 	vp := cert.V.Compile(len(cert.States))
 	val := &fit.Validation{HeldoutRuns: len(ds.Runs), Decorrelation: tau, Confidence: 1 - o.Beta}
 	var scen, viol, started, entered, stayed int
 	worst := math.Inf(-1)
 	settleRatio := 0.0
+	var cuts []*Cut
+	if o.Whole != nil {
+		cuts = InputCuts(o.Whole, ds)
+	}
 	for i := range ds.Runs {
 		if err := ctx.Err(); err != nil {
 			return nil, nil, err
 		}
 		r := &runs[i]
 		s.Screen(r, ds.Runs[i].Source.File, &ds.Runs[i])
+		if k := slices.IndexFunc(r.Flags, func(f Flag) bool { return f.Kind == FlagUnsettled }); k >= 0 {
+			// came to rest outside the region: at another rest point
+			if ok, pt := ingest.Settles(&ds.Runs[i]); ok && !s.Inside(pt) {
+				r.Flags[k].RestPoint = pt
+			}
+		}
+		if cuts != nil && cuts[i] != nil {
+			// cut by an input's onset: no chance to settle, so no unsettled flag
+			r.Cut = cuts[i]
+			r.Flags = slices.DeleteFunc(r.Flags, func(f Flag) bool { return f.Kind == FlagUnsettled })
+			r.Flagged = len(r.Flags) > 0
+		}
 		if r.EverInside {
 			r.lateRate, r.lateOK = lateRate(cert, vp, &ds.Runs[i], r.enter)
 		}
@@ -249,6 +275,8 @@ func Check(ctx context.Context, cert *fit.Certificate, ds *ingest.Dataset, opts 
 			}
 			if r.settledEntry {
 				val.Settled++
+			} else if r.Cut != nil {
+				val.CutShort++
 			}
 			if r.vEnter > 0 {
 				settleRatio = max(settleRatio, r.VEnd/r.vEnter)
@@ -488,7 +516,7 @@ func decide(cert *fit.Certificate, val *fit.Validation, runs []RunScreen, eig []
 	// after entry to tell (two tail windows); at least one must.
 	long, settled := 0, 0
 	for _, r := range runs {
-		if r.EverInside && r.longAfter && !o.cutShort[r.Run] {
+		if r.EverInside && r.longAfter && !o.cutShort[r.Run] && r.Cut == nil {
 			long++
 			if r.settledEntry {
 				settled++
@@ -599,6 +627,7 @@ func Evaluate(ctx context.Context, ds *ingest.Dataset, opts *Options) (*Result, 
 	res := &Result{Heldout: make([]bool, len(ds.Runs))}
 	defer o.progress("done", 1)
 	o.cutShort = cutShortRuns(ds)
+	o.Whole = nil // Evaluate's held-out pieces are its own (see one below)
 	if len(ds.Runs) < MinRuns {
 		o.progress("fitting the field", 0)
 		m, err := fit.Field(ctx, ds, o.Field)
@@ -662,6 +691,7 @@ func Evaluate(ctx context.Context, ds *ingest.Dataset, opts *Options) (*Result, 
 			hoDS = fit.RestSegments(hoDS, m.RestInput)
 			fo := o
 			fo.cutShort = cutShortSegments(o.cutShort, whole, hoDS)
+			fo.Whole = whole
 			do = &fo
 		}
 		progress("certifying", progressField)
@@ -675,7 +705,7 @@ func Evaluate(ctx context.Context, ds *ingest.Dataset, opts *Options) (*Result, 
 			}
 		}
 		progress("checking held-out runs", progressField+progressCertify)
-		val, runs, err := Check(ctx, cert, hoDS, &o)
+		val, runs, err := Check(ctx, cert, hoDS, do)
 		if err != nil {
 			return nil, nil, nil, err
 		}
@@ -962,6 +992,97 @@ func cutShortRuns(ds *ingest.Dataset) map[string]bool {
 		}
 	}
 	return cut
+}
+
+// NameRests names the rest points that runs' unsettled flags came to
+// rest at (Flag.RestPoint): the nearest of points (per state, in the
+// states' units, as the certificate's equilibrium) by the largest
+// per-state distance in units of cert.Scale, named names[k], when it
+// lies within RestLink of the distance from the flag's rest point to
+// cert's equilibrium: a tenth, as ingest.RestLink tells two rest points
+// apart. Flags already named keep their name.
+func NameRests(runs []RunScreen, cert *fit.Certificate, names []string, points [][]float64) {
+	dist := func(a, b []float64) float64 {
+		d := 0.0
+		for j := range a {
+			if j < len(b) && j < len(cert.Scale) && cert.Scale[j] != 0 {
+				d = max(d, math.Abs(a[j]-b[j])/math.Abs(cert.Scale[j]))
+			}
+		}
+		return d
+	}
+	for i := range runs {
+		for k := range runs[i].Flags {
+			f := &runs[i].Flags[k]
+			if f.RestPoint == nil || f.RestName != "" {
+				continue
+			}
+			far := dist(f.RestPoint, cert.Equilibrium)
+			best, at := math.Inf(1), -1
+			for c, p := range points {
+				if len(p) != len(f.RestPoint) || c >= len(names) {
+					continue
+				}
+				if d := dist(f.RestPoint, p); d < best {
+					best, at = d, c
+				}
+			}
+			if at >= 0 && best <= ingest.RestLink*far {
+				f.RestName = names[at]
+			}
+		}
+	}
+}
+
+// InputCuts finds the pieces of seg (fit.RestSegments of whole: each
+// named "run@t" by its recording's name and its first time) that end
+// before their recording does: the recording's next sample has an input
+// away from rest. It returns one entry per run of seg, nil for a run
+// not cut: a cut piece's Cut is at that next sample's time and names
+// the input that moved most there, relative to its spread over the
+// recording. A piece that runs to its recording's last sample is not
+// cut, whatever its recording's own gaps.
+func InputCuts(whole, seg *ingest.Dataset) []*Cut {
+	type key struct{ file, name string }
+	byName := make(map[key]*ingest.Run, len(whole.Runs))
+	for i := range whole.Runs {
+		r := &whole.Runs[i]
+		byName[key{r.Source.File, r.Name}] = r
+	}
+	out := make([]*Cut, len(seg.Runs))
+	for i := range seg.Runs {
+		p := &seg.Runs[i]
+		j := strings.LastIndexByte(p.Name, '@')
+		n := p.Len()
+		if j < 0 || n == 0 {
+			continue
+		}
+		r := byName[key{p.Source.File, p.Name[:j]}]
+		if r == nil || r.Len() == 0 || !(p.T[n-1] < r.T[r.Len()-1]) {
+			continue
+		}
+		k := sort.SearchFloat64s(r.T, p.T[n-1]) + 1 // the sample after the piece
+		if k >= r.Len() || k < 1 {
+			continue
+		}
+		c := &Cut{Reason: CutInput, Time: r.T[k]}
+		best := -1.0
+		for q, u := range r.U {
+			if q >= len(whole.Inputs) || len(u) != r.Len() {
+				continue
+			}
+			lo, hi := slices.Min(u), slices.Max(u)
+			d := math.Abs(u[k] - u[k-1])
+			if hi > lo {
+				d /= hi - lo
+			}
+			if d > best {
+				best, c.Input = d, whole.Inputs[q].Name
+			}
+		}
+		out[i] = c
+	}
+	return out
 }
 
 // cutShortSegments returns cut (see cutShortRuns) with the segments of

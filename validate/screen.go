@@ -81,6 +81,10 @@ const (
 //     Excess is the bound minus the rate, in 1/s. Certificates without
 //     the bound give no slow flag.
 //
+// A certificate of strength stable claims that V does not rise and runs
+// stay inside, not that they settle: against it no run is flagged
+// unsettled or slow (RunScreen.Settled still says whether it settled).
+//
 // A rises flag's Distance is the smallest move of the worst rise's sample,
 // to first order in the scaled coordinates, that accounts for the excess.
 //
@@ -130,7 +134,11 @@ type Screener struct {
 	level float64
 	// slowBound is the decay rate below which a run is slow (0: none).
 	slowBound float64
-	st        runState
+	// noSettle: the certificate claims no settling (strength stable), so
+	// runs get no unsettled and no slow flag (Check still judges
+	// settling: it decides the strength).
+	noSettle bool
+	st       runState
 	// tols and stream: ScreenFile's per-run tolerances and noise
 	tols   []float64
 	known  []bool // the run's tolerance in tols is its own
@@ -324,6 +332,7 @@ func NewScreener(cert *fit.Certificate, opts *ScreenOptions) *Screener {
 	if v := cert.Validation; v != nil && v.Decay != nil && v.Decay.LowerBound > 0 && !s.opts.NoSlow {
 		s.slowBound = v.Decay.LowerBound
 	}
+	s.noSettle = cert.Strength == fit.Stable
 	s.z = make([]float64, n)
 	s.g = make([]float64, n)
 	s.x = make([]float64, n)
@@ -394,6 +403,22 @@ func (s *Screener) quadV(z []float64) float64 {
 		v += a * zi
 	}
 	return v
+}
+
+// Inside says the state x (in the states' units) lies in the region:
+// inside the box and V <= level. It panics if len(x) is not the number of
+// states.
+func (s *Screener) Inside(x []float64) bool {
+	if len(x) != s.n {
+		panic("validate: Inside with the wrong number of states")
+	}
+	for j, xj := range x {
+		if !(xj >= s.lo[j] && xj <= s.hi[j]) {
+			return false
+		}
+		s.z[j] = (xj - s.eq[j]) * s.inv[j]
+	}
+	return s.V(s.z) <= s.level
 }
 
 // SettleLevel returns the largest V on the noise ball: a run whose end has
@@ -851,10 +876,10 @@ func (s *Screener) End() {
 		// settled from entry by screen's rule, from V at entry
 		dst.settledEntry = st.prevIn && (tail <= settle || approaching(dst.vEnter))
 	}
-	if !dst.Settled {
+	if !dst.Settled && !s.noSettle {
 		dst.Flags = append(dst.Flags, Flag{Kind: FlagUnsettled, Time: st.lastT, Excess: clampFinite(tail - s.settle)})
 	}
-	if s.slowBound > 0 && dst.DecaySamples > 0 && dst.DecayRate < s.slowBound {
+	if s.slowBound > 0 && !s.noSettle && dst.DecaySamples > 0 && dst.DecayRate < s.slowBound {
 		dst.Flags = append(dst.Flags, Flag{Kind: FlagSlow, Time: st.lastT, Excess: s.slowBound - dst.DecayRate})
 	}
 	// A reading held at rest is a quantised sensor's, not a dead one's:
@@ -1016,8 +1041,11 @@ type Rules struct {
 	P, Q           []float64
 	R              float64
 	// SlowBound is the decay rate below which a run is slow (0: no slow
-	// flag); DecayMinSamples the samples a rate needs.
-	SlowBound       float64
+	// flag, and so when NoSettle); DecayMinSamples the samples a rate needs.
+	SlowBound float64
+	// NoSettle says the certificate claims no settling (strength
+	// stable): no run is flagged unsettled or slow.
+	NoSettle        bool
 	DecayMinSamples int
 	// TailMax and TailShare fix the samples w averaged at each end of a
 	// run of m samples: w = min(max(m/TailShare, 1), TailMax).
@@ -1040,7 +1068,10 @@ func (s *Screener) Rules() Rules {
 		Lo: c(s.lo), Hi: c(s.hi), LoWide: c(s.loW), HiWide: c(s.hiW),
 		Tolerance: s.baseTol, NoiseR2: s.r2, Settle: s.settle,
 		Quad: s.quad, TwoState: s.quad && s.n == 2 && !s.generic, P: c(s.p), Q: c(s.q), R: s.r,
-		SlowBound: s.slowBound, DecayMinSamples: DecayMinSamples, TailMax: tailMax, TailShare: tailShare}
+		SlowBound: s.slowBound, NoSettle: s.noSettle, DecayMinSamples: DecayMinSamples, TailMax: tailMax, TailShare: tailShare}
+	if s.noSettle {
+		r.SlowBound = 0
+	}
 	if s.noise.on {
 		r.NoiseRef = c(s.noise.ref)
 	}

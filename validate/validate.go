@@ -96,6 +96,16 @@ type Flag struct {
 	// State names, for stuck, the state whose reading held one value
 	// (the first in the certificate's order when several did).
 	State string `json:"state,omitempty"`
+	// RestPoint is, for unsettled, where the run came to rest when it
+	// did so outside the region (per state in the states' units: the
+	// median of its tail, by ingest.Settles' rule): it settled at
+	// another rest point, not this certificate's equilibrium, and so
+	// lies outside the certificate's claim. Set by [Check]; nil when the
+	// run did not come to rest, or came to rest inside the region (at
+	// rest off the equilibrium). RestName, when not empty, names that
+	// rest point (see [NameRests]).
+	RestPoint []float64 `json:"rest_point,omitempty"`
+	RestName  string    `json:"rest_name,omitempty"`
 }
 
 // RunScreen is the result of screening one run.
@@ -126,6 +136,10 @@ type RunScreen struct {
 	// DecayMinSamples (the rate is then 0 and unknown).
 	DecayRate    float64 `json:"decay_rate"`
 	DecaySamples int     `json:"decay_samples"`
+	// Cut, when not nil, says the run is a piece of a recording that
+	// ends where an input left rest (see [Options.Whole]): it had no
+	// chance to settle, so it carries no unsettled flag.
+	Cut *Cut `json:"cut,omitempty"`
 
 	// From the first sample inside the region (validation from entry):
 	// its index (-1 when the run never enters) and V there; whether the
@@ -149,6 +163,19 @@ type RunScreen struct {
 	worstExcess    float64
 	worstTime      float64
 }
+
+// Cut says why a run was cut short before it could settle.
+type Cut struct {
+	// Reason is "input": an input left rest at Time, right after the
+	// piece's last sample; Input names it (the one farthest from rest,
+	// relative to its spread over the recording, when several did).
+	Reason string  `json:"reason"`
+	Time   float64 `json:"time"`
+	Input  string  `json:"input,omitempty"`
+}
+
+// CutInput is Cut.Reason for a piece that ends where an input left rest.
+const CutInput = "input"
 
 // ScreenOptions controls screening. A nil *ScreenOptions means defaults.
 type ScreenOptions struct {

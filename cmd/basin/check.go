@@ -6,6 +6,8 @@ import (
 	"flag"
 	"fmt"
 	"math"
+	"os"
+	"path/filepath"
 	"slices"
 	"strings"
 	"text/tabwriter"
@@ -46,6 +48,14 @@ overall the decrease and invariance fractions, the worst violation, and
 the scenario bound on the chance that a new sample from the same envelope
 violates the decrease condition (counting only samples one decorrelation
 time apart). The verdict on these runs follows the same rules as 'run'.
+With --inputs and a certificate at rest input, the runs are checked in
+pieces where the inputs rest; a piece that ends where an input comes on
+is not judged on settling (settled reads "cut: drive on at T s", --json
+gives the run's cut), its rises and leaves still are.
+A run that came to rest outside the region settled at another rest point:
+its unsettled flag says where (rest_point in --json) and, when a
+certificate-N.json or model.json beside the certificate has an
+equilibrium there, names it (rest_name); it lies outside the claim.
 Without --states the certificate's states are read by name, in any column
 order, other columns left out; a state missing, or a state column in other
 units than the certificate's, is an input error. Folders are read with
@@ -87,6 +97,7 @@ type checkSummary struct {
 	Flagged            int          `json:"flagged"`
 	StartedInside      int          `json:"runs_started_inside"`
 	Settled            int          `json:"runs_settled"`
+	CutShort           int          `json:"runs_cut_short,omitempty"`
 	DecreaseFraction   float64      `json:"decrease_fraction"`
 	InvarianceFraction float64      `json:"invariance_fraction"`
 	ViolationBound     float64      `json:"violation_bound"`
@@ -138,23 +149,27 @@ func runCheck(ctx context.Context, e *env, args []string) error {
 		return err
 	}
 	recorded, pieces := len(ds.Runs), false
+	var recording *ingest.Dataset // the runs before the pieces were cut
 	if g := cert.InputGain; g != nil && len(ds.Inputs) > 0 && len(ds.Inputs) == len(g.RestInput) {
 		// A certificate at rest input is checked where the inputs rest.
 		whole := map[string]bool{}
 		for _, r := range ds.Runs {
 			whole[r.Name] = true
 		}
+		recording = ds
 		ds = fit.RestSegments(ds, g.RestInput)
 		pieces = len(ds.Runs) != recorded
 		for _, r := range ds.Runs {
 			pieces = pieces || !whole[r.Name] // a piece is named "run@t"
 		}
 	}
-	opts := &validate.Options{Beta: c.Beta, MinDecrease: c.MinDecrease, Tolerance: c.Tolerance}
+	opts := &validate.Options{Beta: c.Beta, MinDecrease: c.MinDecrease, Tolerance: c.Tolerance, Whole: recording}
 	val, runs, err := validate.Check(ctx, cert, ds, opts)
 	if err != nil {
 		return classify(err, c.Cert)
 	}
+	names, points := restsBeside(c.Cert, cert)
+	validate.NameRests(runs, cert, names, points)
 	judged := *cert
 	validate.Decide(&judged, val, runs, nil, opts)
 	judged.Reason = flagNames(judged.Reason)
@@ -184,7 +199,7 @@ func runCheck(ctx context.Context, e *env, args []string) error {
 			sum.Flagged++
 		}
 	}
-	sum.StartedInside, sum.Settled = val.StartInside, val.Settled
+	sum.StartedInside, sum.Settled, sum.CutShort = val.StartInside, val.Settled, val.CutShort
 	sum.DecreaseFraction, sum.InvarianceFraction = val.DecreaseFraction, val.InvarianceFraction
 	sum.ViolationBound, sum.Confidence = val.ViolationBound, val.Confidence
 	sum.Verdict, sum.Strength, sum.Reason, sum.Caveat = judged.Verdict, judged.Strength, judged.Reason, fit.Caveat
@@ -231,7 +246,7 @@ func checkTable(e *env, doc *checkJSON, cert *fit.Certificate, recorded int, pie
 		if flags == "" {
 			flags = "-"
 		}
-		fmt.Fprintf(tw, "%s\t%s\t%d\t%s\t%s\t%d\t%s\t%s\n", printable(r.Run), printable(r.File), r.Samples, checkYesNo(r.StartInside), checkYesNo(r.Settled), r.Pairs, kept, printable(flags))
+		fmt.Fprintf(tw, "%s\t%s\t%d\t%s\t%s\t%d\t%s\t%s\n", printable(r.Run), printable(r.File), r.Samples, checkYesNo(r.StartInside), report.SettledText(&r.RunScreen), r.Pairs, kept, printable(flags))
 	}
 	if err := tw.Flush(); err != nil {
 		return err
@@ -254,6 +269,47 @@ func checkTable(e *env, doc *checkJSON, cert *fit.Certificate, recorded int, pie
 	}
 	fmt.Fprintf(w, "verdict on these runs: %s (strength %s): %s\n%s\n", s.Verdict, s.Strength, s.Reason, s.Caveat)
 	return nil
+}
+
+// restsBeside lists the rest points that the files beside certFile (as
+// basin run writes them) know, for naming where a checked run came to
+// rest: the equilibria of the other certificates (certificate.json,
+// certificate-N.json), named "certificate-2.json's rest point", then
+// the model's (model.json) equilibria, named by their class
+// ("model.json's stable focus"). Files that are missing, unreadable or of other states are
+// left out: they only name what check found.
+func restsBeside(certFile string, cert *fit.Certificate) (names []string, points [][]float64) {
+	dir := filepath.Dir(certFile)
+	self, _ := filepath.Abs(certFile)
+	files, _ := filepath.Glob(filepath.Join(dir, "certificate-*.json"))
+	files = append([]string{filepath.Join(dir, "certificate.json")}, files...)
+	for _, f := range files {
+		if a, _ := filepath.Abs(f); a == self {
+			continue
+		}
+		fh, err := os.Open(f)
+		if err != nil {
+			continue
+		}
+		o, err := fit.ReadCertificate(fh)
+		fh.Close()
+		if err != nil || !slices.Equal(o.States, cert.States) {
+			continue
+		}
+		names = append(names, filepath.Base(f)+"'s rest point")
+		points = append(points, o.Equilibrium)
+	}
+	if fh, err := os.Open(filepath.Join(dir, "model.json")); err == nil {
+		m, err := fit.ReadModel(fh)
+		fh.Close()
+		if err == nil && slices.Equal(m.States, cert.States) {
+			for _, q := range m.Equilibria {
+				names = append(names, "model.json's "+q.Class)
+				points = append(points, q.Point)
+			}
+		}
+	}
+	return names, points
 }
 
 func checkYesNo(b bool) string {

@@ -172,7 +172,12 @@ scenario bound. The exit status is 0 whatever the verdict, rejected
 included (status 1 belongs to screen); the verdict is in the output.
 Without --states the certificate's states are read by name, in any column
 order, other columns left out; a state missing, or a state column in other
-units than the certificate's, is an input error (exit 2).
+units than the certificate's, is an input error (exit 2). With --inputs
+and a certificate at rest input the runs are checked in pieces where the
+inputs rest, and a piece that ends where an input comes on is not judged
+on settling (settled reads "cut: drive on at T s"; --json gives its cut).
+A run that came to rest outside the region settled at another rest point,
+named from the certificates and model.json beside --cert when they know it.
 
 	--cert FILE         the certificate (required)
 	--min-decrease F    as for run (default 0.99)
@@ -190,7 +195,9 @@ Flags runs whose V rises (rises), that leave the region after entering it
 by more than the noise (leaves), that do not settle (unsettled), or whose
 V decays below half the slowest held-out run's rate (slow; only with a
 certificate that records the held-out decay rates); exit status 1 when any
-run is flagged. Rises and leaves say how far past the boundary, per state
+run is flagged. A certificate of strength stable does not claim that runs
+settle, so against it no run is flagged unsettled or slow (one warning says
+so). Rises and leaves say how far past the boundary, per state
 in the states' units; every run reports its decay rate. Files are read one
 at a time per worker, so memory stays bounded however many are given.
 Folders are read with their key=value subfolders (logs/vehicle=17/

@@ -3,12 +3,14 @@ package main
 import (
 	"bytes"
 	"context"
+	"encoding/json"
 	"fmt"
 	"math"
 	"math/rand/v2"
 	"os"
 	"path/filepath"
 	"regexp"
+	"strconv"
 	"strings"
 	"testing"
 )
@@ -19,6 +21,12 @@ import (
 // held-out line likewise. The rig is x” + 0.8 x' + 4 x = 2 u, u a burst
 // of 1.5 Hz on 2-4 s and 6-8 s of each 10 s run (RK4, 100 Hz, noise
 // 1e-3).
+//
+// A piece that ends where the drive comes on (at 2 s or 6 s) was cut
+// before it could settle: with ζ = 0.4/(2·2) = 0.2 and ω = 2 rad/s its
+// 2% settling time is 4/(ζω) = 10 s [Ogata], five times the 2 s a piece
+// has. Check gives it a cut (input drive, at the onset) and no unsettled
+// flag; the pieces from 8 s run to the log's end and keep the rule.
 func TestCheckPieces(t *testing.T) {
 	if testing.Short() {
 		t.Skip("runs the whole job")
@@ -80,5 +88,58 @@ func TestCheckPieces(t *testing.T) {
 		if !strings.Contains(o.String(), want) {
 			t.Errorf("check's output lacks %q:\n%s", want, o.String())
 		}
+	}
+	o.Reset()
+	e.Reset()
+	code = basinMain(context.Background(), []string{"check", "--json", "--cert", filepath.Join(out, "certificate.json"), "--inputs", "drive", data}, &o, &e)
+	if code != 0 && code != 1 {
+		t.Fatalf("check --json: exit %d: %s", code, e.String())
+	}
+	var doc struct {
+		Runs []struct {
+			Run   string
+			Flags []struct{ Kind string }
+			Cut   *struct {
+				Reason, Input string
+				Time          float64
+			}
+		}
+	}
+	if err := json.Unmarshal(o.Bytes(), &doc); err != nil {
+		t.Fatal(err)
+	}
+	cut, last := 0, 0
+	for _, r := range doc.Runs {
+		// the pieces start after a resting head is trimmed, or where a
+		// burst ends (4 s, 8 s): the onset that ends a piece is the next
+		// burst's, 2 s or 6 s (one sample, 0.01 s, of slack)
+		start, err := strconv.ParseFloat(r.Run[strings.LastIndexByte(r.Run, '@')+1:], 64)
+		if err != nil {
+			t.Fatalf("piece %q: %v", r.Run, err)
+		}
+		switch {
+		case start < 7:
+			cut++
+			onset := 2.0
+			if start > 3 {
+				onset = 6
+			}
+			if r.Cut == nil || r.Cut.Reason != "input" || r.Cut.Input != "drive" || !(math.Abs(r.Cut.Time-onset) <= 0.011) {
+				t.Errorf("%s: cut %+v, want input drive at %g s", r.Run, r.Cut, onset)
+			}
+			for _, f := range r.Flags {
+				if f.Kind == "unsettled" {
+					t.Errorf("%s: cut short by the drive, yet flagged unsettled", r.Run)
+				}
+			}
+		default:
+			last++
+			if r.Cut != nil {
+				t.Errorf("%s runs to the log's end, yet cut %+v", r.Run, r.Cut)
+			}
+		}
+	}
+	if cut != 24 || last != 12 {
+		t.Errorf("%d pieces cut by the drive and %d to the log's end, want 24 and 12", cut, last)
 	}
 }

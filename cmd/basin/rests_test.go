@@ -13,6 +13,7 @@ import (
 	"testing"
 
 	"basin.example/fit"
+	"basin.example/validate"
 )
 
 // writeTwoWell writes runs of the two-well Duffing oscillator
@@ -21,9 +22,10 @@ import (
 // 50 Hz for 20 s each, with Gaussian noise of sd noise on every cell.
 // Starts are uniform in [-2, 2]²; the first left runs start at x < 0,
 // the rest at x > 0, with v of the same sign. It returns how many runs
-// end (noise-free) at x > 0. With linear set the system is instead the
+// end (noise-free) at x > 0, and each run's last noise-free x in
+// ends. With linear set the system is instead the
 // damped oscillator x” + 0.5 x' + x = 0, one rest point at the origin.
-func writeTwoWell(t *testing.T, dir string, runs, left int, noise float64, linear bool) (right int) {
+func writeTwoWell(t *testing.T, dir string, runs, left int, noise float64, linear bool) (right int, ends []float64) {
 	t.Helper()
 	rng := rand.New(rand.NewPCG(11, 0))
 	f := func(x []float64) []float64 { return []float64{x[1], x[0] - 0.5*x[1] - x[0]*x[0]*x[0]} }
@@ -51,8 +53,9 @@ func writeTwoWell(t *testing.T, dir string, runs, left int, noise float64, linea
 		if x[0] > 0 {
 			right++
 		}
+		ends = append(ends, x[0])
 	}
-	return right
+	return right, ends
 }
 
 func readCert(t *testing.T, path string) *fit.Certificate {
@@ -78,7 +81,7 @@ func TestRunTwoWells(t *testing.T) {
 		t.Skip("four evaluations of five folds each")
 	}
 	data := t.TempDir()
-	right := writeTwoWell(t, data, 30, 12, 0.002, false)
+	right, ends := writeTwoWell(t, data, 30, 12, 0.002, false)
 	most, fewer := 1.0, right
 	if right < 30-right {
 		most, fewer = -1, right
@@ -136,7 +139,62 @@ func TestRunTwoWells(t *testing.T) {
 					t.Errorf("summary.txt lacks %q:\n%s", want, sum)
 				}
 			}
+			checkOtherWell(t, out, data, ends, tc.primary)
 		})
+	}
+}
+
+// checkOtherWell: basin check against certificate.json of out, on every
+// run of data, says of each run whose noise-free end (ends) lies in the
+// other well (x of the sign of -primary; the wells at x = ±1
+// [GuckenheimerHolmes1983]) that it settled at another rest point, at
+// that well (within 0.05: noise 0.002 against a unit well distance), and
+// names certificate-2.json's rest point; it never says so of a run of
+// its own well, and the table does not say the others had not settled.
+func checkOtherWell(t *testing.T, out, data string, ends []float64, primary float64) {
+	t.Helper()
+	cert := filepath.Join(out, "certificate.json")
+	var so, se bytes.Buffer
+	if code := basinMain(context.Background(), []string{"check", "--json", "--cert", cert, data}, &so, &se); code != 0 {
+		t.Fatalf("check --json: exit %d: %s", code, se.String())
+	}
+	var doc struct {
+		Runs []struct {
+			Run   string
+			Flags []validate.Flag
+		}
+	}
+	if err := json.Unmarshal(so.Bytes(), &doc); err != nil || len(doc.Runs) != len(ends) {
+		t.Fatalf("check --json: %v, %d runs for %d written", err, len(doc.Runs), len(ends))
+	}
+	other := 0
+	for i, r := range doc.Runs {
+		var rest *validate.Flag
+		for k := range r.Flags {
+			if r.Flags[k].RestPoint != nil {
+				rest = &r.Flags[k]
+			}
+		}
+		if ends[i]*primary > 0 {
+			if rest != nil {
+				t.Errorf("%s ends in the certificate's well, yet %+v", r.Run, rest)
+			}
+			continue
+		}
+		other++
+		if rest == nil || rest.Kind != validate.FlagUnsettled || !(math.Abs(rest.RestPoint[0]+primary) <= 0.05) || !(math.Abs(rest.RestPoint[1]) <= 0.05) ||
+			rest.RestName != "certificate-2.json's rest point" {
+			t.Errorf("%s ends in the other well (x = %.3g): flags %+v; want unsettled at (%g, 0), named certificate-2.json's rest point", r.Run, ends[i], r.Flags, -primary)
+		}
+	}
+	if other == 0 {
+		t.Fatal("no run ends in the other well: nothing checked")
+	}
+	so.Reset()
+	se.Reset()
+	basinMain(context.Background(), []string{"check", "--cert", cert, data}, &so, &se)
+	if n := strings.Count(so.String(), "settled at another rest point by its end"); n != other || strings.Contains(so.String(), "had not settled") {
+		t.Errorf("check's table says %d runs settled at another rest point, want %d, and never 'had not settled':\n%s", n, other, so.String())
 	}
 }
 
@@ -148,7 +206,7 @@ func TestRunOneRest(t *testing.T) {
 		t.Skip("an evaluation of five folds")
 	}
 	data := t.TempDir()
-	writeTwoWell(t, data, 12, 6, 0.002, true)
+	_, _ = writeTwoWell(t, data, 12, 6, 0.002, true)
 	out := filepath.Join(t.TempDir(), "out")
 	// An earlier run's extra certificate goes; a user's file stays.
 	if err := os.MkdirAll(out, 0o755); err != nil {

@@ -274,6 +274,19 @@ func runRun(ctx context.Context, e *env, args []string) error {
 				report.StatePoint(cert, s.Rest.Point), human.Count(s.Rest.Runs, "run"), settle, s.Why))
 		}
 	}
+	// A held-out run that came to rest at another rest point is named by
+	// that rest point's certificate, or the model's equilibrium there.
+	var restNames []string
+	var restPoints [][]float64
+	for _, r := range in.Rests[min(1, len(in.Rests)):] {
+		restNames, restPoints = append(restNames, r.File+"'s rest point"), append(restPoints, r.Cert.Equilibrium)
+	}
+	if m != nil {
+		for _, q := range m.Equilibria {
+			restNames, restPoints = append(restNames, "model.json's "+q.Class), append(restPoints, q.Point)
+		}
+	}
+	validate.NameRests(res.Runs, cert, restNames, restPoints)
 	// Render everything in memory first: a failure leaves nothing behind.
 	var html, summary bytes.Buffer
 	if err := report.HTML(&html, in); err != nil {

@@ -62,7 +62,11 @@ flag with the first time it happened and the worst excess, in units of V;
 rises and leaves also say how far past the boundary, per state in the
 states' units; and the run's decay rate. A run that starts outside and
 comes in to settle is not flagged. A certificate without held-out decay
-rates (an older file) screens without the slow flag, with one warning.
+rates (an older file, or too few held-out runs with a positive rate)
+screens without the slow flag, with one warning saying why. A certificate
+of strength stable does not claim that runs settle: against it no run is
+flagged unsettled or slow (rises, leaves and stuck only), with one
+warning, and --json has settling_unclaimed.
 A run whose V grows over it (its end above its lowest earlier 50-sample
 stretch by more than the tolerance, and V over its last samples above the
 settle level) is flagged rises too; one at rest off the equilibrium is
@@ -110,8 +114,12 @@ type screenJSON struct {
 	// appearance.
 	Partitions []string `json:"partition_keys,omitempty"`
 	// SlowBound is the decay rate (1/s) below which a run is slow, 0
-	// when the certificate records no held-out decay rates.
+	// when the certificate records no held-out decay rates or claims no
+	// settling.
 	SlowBound float64 `json:"slow_bound"`
+	// SettleUnclaimed says the certificate's strength is stable: it does
+	// not claim that runs settle, so no run is flagged unsettled or slow.
+	SettleUnclaimed bool `json:"settling_unclaimed,omitempty"`
 }
 
 // screenRun is one run's screening and the partition of its file.
@@ -299,10 +307,12 @@ func runScreen(ctx context.Context, e *env, args []string) error {
 	if cert.Verdict != fit.Certified {
 		warnf(e, c.Quiet, "%s: verdict is %s; screening against a region that claims nothing", c.Cert, cert.Verdict)
 	}
-	if v := cert.Validation; v != nil && v.Decay != nil && v.Decay.LowerBound > 0 {
+	if v := cert.Validation; cert.Strength != fit.Stable && v != nil && v.Decay != nil && v.Decay.LowerBound > 0 {
 		out.SlowBound = v.Decay.LowerBound
-	} else {
-		warnf(e, c.Quiet, "%s: no held-out decay rates recorded (an older certificate, or too few held-out runs); screening without the slow flag", c.Cert)
+	}
+	out.SettleUnclaimed = cert.Strength == fit.Stable
+	if w := settleWarning(cert, "runs are not checked for settling (no unsettled or slow flag)", "screening without the slow flag"); w != "" {
+		warnf(e, c.Quiet, "%s: %s", c.Cert, w)
 	}
 	switch {
 	case c.JSON:
@@ -322,6 +332,28 @@ func runScreen(ctx context.Context, e *env, args []string) error {
 		return errFlagged
 	}
 	return nil
+}
+
+// settleWarning says, when screening against cert leaves a settling
+// check out, which and why: a certificate of strength stable does not
+// claim that runs settle, so they are not checked for it (no unsettled,
+// no slow flag); otherwise, without a slow bound, why there is none, and
+// then what is done (noSlow); noSettle says what is done under stable.
+// It is "" when every check is made.
+func settleWarning(cert *fit.Certificate, noSettle, noSlow string) string {
+	if cert.Strength == fit.Stable {
+		return "strength stable: the certificate does not claim that runs settle, so " + noSettle
+	}
+	v := cert.Validation
+	switch {
+	case v != nil && v.Decay != nil && v.Decay.LowerBound > 0:
+		return ""
+	case v == nil || v.Decay == nil:
+		return "no held-out decay rates recorded (an older certificate, or no held-out run had a rate); " + noSlow
+	case strings.HasPrefix(v.Decay.Rule, "no bound: "):
+		return "no slow bound recorded (" + strings.TrimPrefix(v.Decay.Rule, "no bound: ") + "); " + noSlow
+	}
+	return fmt.Sprintf("no slow bound recorded (%d held-out runs with a decay rate, smallest %.3g 1/s); %s", v.Decay.Runs, v.Decay.Min, noSlow)
 }
 
 // asInputError marks bad input (a file that cannot be read or parsed) so

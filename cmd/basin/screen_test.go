@@ -221,6 +221,100 @@ func TestScreenSlowCommand(t *testing.T) {
 	}
 }
 
+// TestScreenStableCommand: against a certificate of strength stable, which
+// claims that V does not rise and runs stay inside but not that they
+// settle, screen flags no run unsettled or slow and says so in one
+// warning, giving that reason and not a missing decay record; --json
+// has settling_unclaimed. The run rests off the equilibrium (z = (0.3,
+// 0.2) held, V constant as a lossless oscillator's energy is [Ogata],
+// from memory): unsettled and slow (rate 0 below the bound 1.5) against
+// the asymptotic twin, checked first so the stable case can fail; the
+// decaying run (rate 2) is clean against both. export --lang sql gives
+// the same warning.
+func TestScreenStableCommand(t *testing.T) {
+	dir := t.TempDir()
+	writeRun(t, dir, "a.csv", [2]float64{0.5, 0.3}, -1, 10)
+	writeRun(t, dir, "rest.csv", [2]float64{0.3, 0.2}, 0, 10)
+	withDecay := strings.Replace(screenCert, `"confidence": 0.999999}`,
+		`"confidence": 0.999999, "decay": {"runs": 4, "rates": [3, 3.2, 3.4, 3.5], "min": 3, "median": 3.3, "max": 3.5, "lower_bound": 1.5, "false_alarm": 0, "rule": "test"}}`, 1)
+	stable := strings.Replace(withDecay, `"strength": "asymptotic"`, `"strength": "stable"`, 1)
+	if withDecay == screenCert || stable == withDecay {
+		t.Fatal("certificate fixture changed: no validation object or strength to edit")
+	}
+	for _, tc := range []struct {
+		name      string
+		cert      string
+		rest      []string // the resting run's flag kinds
+		unclaimed bool
+	}{
+		{"asymptotic", withDecay, []string{"unsettled", "slow"}, false},
+		{"stable", stable, nil, true},
+	} {
+		var out, errb bytes.Buffer
+		code := basinMain(context.Background(), []string{"screen", dir, "--cert", writeTestCert(t, tc.cert), "--json"}, &out, &errb)
+		var got struct {
+			Runs      []validate.RunScreen `json:"runs"`
+			Unclaimed bool                 `json:"settling_unclaimed"`
+			SlowBound float64              `json:"slow_bound"`
+		}
+		if err := json.Unmarshal(out.Bytes(), &got); err != nil || len(got.Runs) != 2 {
+			t.Fatalf("%s: exit %d, %v\n%s%s", tc.name, code, err, out.String(), errb.String())
+		}
+		var kinds []string
+		for _, f := range got.Runs[1].Flags {
+			kinds = append(kinds, f.Kind)
+		}
+		if got.Runs[0].Flagged || strings.Join(kinds, ",") != strings.Join(tc.rest, ",") || got.Unclaimed != tc.unclaimed {
+			t.Errorf("%s: decaying run flags %+v, resting run kinds %v, settling_unclaimed %v; want none, %v, %v",
+				tc.name, got.Runs[0].Flags, kinds, got.Unclaimed, tc.rest, tc.unclaimed)
+		}
+		if wantCode := map[bool]int{true: 0, false: 1}[tc.unclaimed]; code != wantCode {
+			t.Errorf("%s: exit %d, want %d", tc.name, code, wantCode)
+		}
+		warn := "strength stable: the certificate does not claim that runs settle, so runs are not checked for settling"
+		n := 0
+		if tc.unclaimed {
+			n = 1
+		}
+		if c := strings.Count(errb.String(), warn); c != n || strings.Contains(errb.String(), "decay rates") {
+			t.Errorf("%s: warnings %q; want %d of %q and none about decay rates", tc.name, errb.String(), n, warn)
+		}
+		if tc.unclaimed && got.SlowBound != 0 {
+			t.Errorf("%s: slow_bound %g, want 0", tc.name, got.SlowBound)
+		}
+	}
+	var out, errb bytes.Buffer
+	if code := basinMain(context.Background(), []string{"export", "--lang", "sql", "--cert", writeTestCert(t, stable)}, &out, &errb); code != 0 {
+		t.Fatalf("export: exit %d: %s", code, errb.String())
+	}
+	if w := "strength stable: the certificate does not claim that runs settle, so the query does not check for it"; !strings.Contains(errb.String(), w) ||
+		strings.Contains(errb.String(), "decay rates") || !strings.Contains(out.String(), "0 AS unsettled") {
+		t.Errorf("export: warnings %q, want %q and no word of decay rates; query has a constant unsettled: %v", errb.String(), w, strings.Contains(out.String(), "0 AS unsettled"))
+	}
+}
+
+// TestSlowWarningReason: without a slow bound, screen's one warning
+// gives the reason the certificate records.
+func TestSlowWarningReason(t *testing.T) {
+	c := &fit.Certificate{Strength: fit.Asymptotic, Validation: &fit.Validation{Decay: &fit.Decay{Runs: 2, Min: 0.4,
+		Rule: "no bound: 2 held-out run(s) with a rate, smallest 0.4 1/s (a bound needs 3 runs and a positive smallest rate)"}}}
+	for _, tc := range []struct {
+		name string
+		v    *fit.Validation
+		want string
+	}{
+		{"rule", c.Validation, "no slow bound recorded (2 held-out run(s) with a rate, smallest 0.4 1/s (a bound needs 3 runs and a positive smallest rate)); X"},
+		{"older", nil, "no held-out decay rates recorded (an older certificate, or no held-out run had a rate); X"},
+		{"bound", &fit.Validation{Decay: &fit.Decay{Runs: 4, LowerBound: 1}}, ""},
+	} {
+		cc := *c
+		cc.Validation = tc.v
+		if got := settleWarning(&cc, "S", "X"); got != tc.want {
+			t.Errorf("%s: %q, want %q", tc.name, got, tc.want)
+		}
+	}
+}
+
 func scalarClose(a, b, tol float64) bool { return scalar.EqualWithinAbsOrRel(a, b, tol, tol) }
 
 // TestScreenPartitions: runs under key=value folders report their

@@ -31,7 +31,9 @@ var tableName = regexp.MustCompile(`^[A-Za-z_][A-Za-z0-9_]*(\.[A-Za-z_][A-Za-z0-
 // certificate; the query returns one row per run, ordered by run, with
 // columns run, flagged, rises, leaves, unsettled and, when the
 // certificate records held-out decay rates, slow, and stuck (booleans; 1
-// and 0 in engines without a boolean type). Every identifier is written as a
+// and 0 in engines without a boolean type). Against a certificate of
+// strength stable, which claims no settling, unsettled is always false
+// and there is no slow column, as screen flags neither. Every identifier is written as a
 // quoted (delimited) identifier, so names are matched exactly, case
 // included. A row with a missing state (NULL, or NaN where the engine
 // has one) splits its run there, as basin's ingest does, and the run's
@@ -82,6 +84,10 @@ func writeSQL(b *strings.Builder, cert *fit.Certificate, opts *Options) error {
 -- of a resting start: store those pieces as runs, or compare with
 -- basin screen --keep-events --keep-head.
 `)
+	if ru.NoSettle {
+		b.WriteString("-- The certificate's strength is stable: it does not claim that runs settle,\n" +
+			"-- so, as in basin screen, no run is checked for it: unsettled is always false.\n")
+	}
 	if so.Tolerance > 0 {
 		fmt.Fprintf(b, "-- Except the tolerated rise of V between samples: %s (the certificate's: %s).\n",
 			num(so.Tolerance), num(cert.Tolerance))
@@ -284,11 +290,7 @@ k AS (
     CASE WHEN rises = 1 OR (ever_inside = 1 AND tail - lowpre > tol AND tailtop > sl) THEN 1 ELSE 0 END AS rises,
     leaves,
     CASE WHEN %[6]s THEN 1 ELSE 0 END AS stuck,
-    CASE WHEN last_inside = 1 AND (tail <= sl
-      OR (tail < head - tol AND (lowpre IS NULL OR tail < lowpre - sl
-        OR (tail < lowpre AND 16 * (lowpre - tail) * (lowpre - tail) > tail * sl)))
-      OR (lowpre IS NULL AND head <= tol AND tail <= tol)) THEN 0 ELSE 1 END AS unsettled,
-`, r02, leaveV, ru.TailMax, ru.TailShare, settleSQL(&ru), strings.Join(stuck, " OR "), strings.Join(svCols, ", "))
+%[8]s`, r02, leaveV, ru.TailMax, ru.TailShare, settleSQL(&ru), strings.Join(stuck, " OR "), strings.Join(svCols, ", "), unsettledSQL(ru.NoSettle))
 	if ru.SlowBound > 0 {
 		fmt.Fprintf(b, `    CASE WHEN dn >= %d AND dn * stt - st * st > 0
       AND -(dn * sty - st * sy) / (dn * stt - st * st) < %s THEN 1 ELSE 0 END AS slow
@@ -311,6 +313,20 @@ k AS (
 	b.WriteString(",\n  (MAX(stuck) = 1) AS stuck")
 	b.WriteString("\nFROM k\nGROUP BY \"run\"\nORDER BY \"run\";\n")
 	return nil
+}
+
+// unsettledSQL is the unsettled column of CTE k: screen's rule, or 0 for
+// a certificate that claims no settling (strength stable), against which
+// screen flags no run unsettled.
+func unsettledSQL(noSettle bool) string {
+	if noSettle {
+		return "    0 AS unsettled,\n"
+	}
+	return `    CASE WHEN last_inside = 1 AND (tail <= sl
+      OR (tail < head - tol AND (lowpre IS NULL OR tail < lowpre - sl
+        OR (tail < lowpre AND 16 * (lowpre - tail) * (lowpre - tail) > tail * sl)))
+      OR (lowpre IS NULL AND head <= tol AND tail <= tol)) THEN 0 ELSE 1 END AS unsettled,
+`
 }
 
 // writeSQLNoise writes the CTEs n1..n4 and nt: each run's tolerance,

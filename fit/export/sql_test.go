@@ -36,7 +36,11 @@ import (
 // sqlCerts are hand-made certificates: two states with a cross term, a
 // state name holding a double quote and held-out decay rates (so the
 // query has a slow column), and three states with a quartic V (the
-// term-by-term path) without decay rates.
+// term-by-term path) without decay rates; and two's twin of strength
+// stable, which claims no settling: screen flags no run unsettled or
+// slow against it, so its query has no slow column and unsettled is
+// false on runs that two flags unsettled (checkVariety makes sure two
+// flags some, so the twin's comparison can fail).
 func sqlCerts() map[string]*fit.Certificate {
 	two := &fit.Certificate{Format: fit.CertificateFormat, Verdict: fit.Certified,
 		States: []string{"pitch", `rate "fast"`}, Units: []string{"rad", "rad/s"},
@@ -53,7 +57,9 @@ func sqlCerts() map[string]*fit.Certificate {
 		V: poly.Poly{Exponents: [][]int{{2, 0, 0}, {0, 2, 0}, {0, 0, 2}, {4, 0, 0}, {1, 1, 2}},
 			Coefficients: []float64{1, 1, 1, 0.5, 0.1}},
 		Level: 0.8, Found: true, NoiseRadius: 0.03, Tolerance: 1e-3}
-	return map[string]*fit.Certificate{"two": two, "three": three}
+	stable := *two
+	stable.Strength = fit.Stable
+	return map[string]*fit.Certificate{"two": two, "three": three, "stable": &stable}
 }
 
 // sqlRuns makes runs in z coordinates: decaying rotations at healthy and
@@ -83,6 +89,11 @@ func sqlRuns(c *fit.Certificate) []ingest.Run {
 		shape{name: "from-outside", r0: 1.6, k: 1.2, w: 2},
 		shape{name: "outside", r0: 3, k: 0, w: 0},
 		shape{name: "kicked", r0: 0.5, k: 1.5, w: 3, kick: true},
+		// a lossless oscillation inside the region: |z| stays at 0.5 (the
+		// undamped harmonic oscillator conserves its energy [Ogata], from
+		// memory), V swinging with the phase: unsettled by screen's rule,
+		// not so against a certificate of strength stable
+		shape{name: "lossless", r0: 0.5, k: 0, w: 2},
 		// healthy decays that rest for a long time in noise reaching just
 		// past the noise ball (0.05 against 0.015 per state: about 0.4% of
 		// the rest's samples lie outside): the decay rate is fitted over
@@ -324,8 +335,10 @@ func tolChanges(t *testing.T, name string, c *fit.Certificate, runs []ingest.Run
 }
 
 // checkVariety makes sure the data exercise every flag and a clean run,
-// so the comparison cannot pass on all-false columns.
-func checkVariety(t *testing.T, name string, want map[string]flagRow, slow bool) {
+// so the comparison cannot pass on all-false columns: slow and stuck
+// when slow, unsettled when settle, and when not settle (a certificate
+// of strength stable) that no run is unsettled or slow.
+func checkVariety(t *testing.T, name string, want map[string]flagRow, slow, settle bool) {
 	t.Helper()
 	var clean, rises, leaves, unsettled, slows, stucks int
 	for _, f := range want {
@@ -348,7 +361,10 @@ func checkVariety(t *testing.T, name string, want map[string]flagRow, slow bool)
 			stucks++
 		}
 	}
-	if clean == 0 || rises == 0 || leaves == 0 || unsettled == 0 || (slow && slows == 0) || (slow && stucks == 0) {
+	if !settle && (unsettled > 0 || slows > 0) {
+		t.Fatalf("%s: claims no settling, yet screen flags %d runs unsettled and %d slow", name, unsettled, slows)
+	}
+	if clean == 0 || rises == 0 || leaves == 0 || (settle && unsettled == 0) || (slow && slows == 0) || (slow && stucks == 0) {
 		t.Fatalf("%s: the data do not exercise every flag: clean %d rises %d leaves %d unsettled %d slow %d stuck %d",
 			name, clean, rises, leaves, unsettled, slows, stucks)
 	}
@@ -383,7 +399,8 @@ func TestSQLGapExercised(t *testing.T) {
 func TestSQLSQLite(t *testing.T) {
 	for name, c := range sqlCerts() {
 		runs, pieces := gapped(sqlRuns(c))
-		checkVariety(t, name, screenFlags(c, pieces, 0), name == "two") // two: slow and stuck
+		slow := name == "two" // slow and stuck
+		checkVariety(t, name, screenFlags(c, pieces, 0), slow, name != "stable")
 		tolChanges(t, name, c, pieces)
 		db, err := sql.Open("sqlite", ":memory:")
 		if err != nil {
@@ -431,7 +448,7 @@ func TestSQLSQLite(t *testing.T) {
 				var run string
 				var v [6]int64
 				dst := []any{&run, &v[0], &v[1], &v[2], &v[3]}
-				if name == "two" {
+				if slow {
 					dst = append(dst, &v[4])
 				}
 				dst = append(dst, &v[5])
@@ -559,7 +576,8 @@ func TestSQLPostgreSQL(t *testing.T) {
 	pg := startPostgres(t)
 	for name, c := range sqlCerts() {
 		runs, pieces := gapped(sqlRuns(c))
-		checkVariety(t, name, screenFlags(c, pieces, 0), name == "two") // two: slow and stuck
+		slow := name == "two" // slow and stuck
+		checkVariety(t, name, screenFlags(c, pieces, 0), slow, name != "stable")
 		tolChanges(t, name, c, pieces)
 		table := "fleet_" + name
 		cols := []string{`"run" TEXT`, `"t" DOUBLE PRECISION`}
@@ -596,7 +614,7 @@ func TestSQLPostgreSQL(t *testing.T) {
 					t.Fatalf("%s: row %q", name, line)
 				}
 				b := func(k int) bool { return k < len(f) && f[k] == "t" }
-				if name == "two" {
+				if slow {
 					got[f[0]] = flagRow{b(1), b(2), b(3), b(4), b(5), b(6)}
 				} else {
 					got[f[0]] = flagRow{b(1), b(2), b(3), b(4), false, b(5)}
@@ -649,5 +667,31 @@ func TestSQLTableNames(t *testing.T) {
 		if !tc.ok && b.Len() != 0 {
 			t.Errorf("table %q: wrote %d bytes on error", tc.table, b.Len())
 		}
+	}
+}
+
+// TestSQLStableClaim: the lossless run is unsettled by screen's rule
+// under two (asymptotic) and neither unsettled nor slow under its stable
+// twin (its rises, V's ellipse against the circle, stay), and the
+// twin's query says why its unsettled column is always false and has no
+// slow column, though the twin records the same decay bound.
+func TestSQLStableClaim(t *testing.T) {
+	cs := sqlCerts()
+	two, stable := cs["two"], cs["stable"]
+	runs := sqlRuns(two)
+	if f := screenFlags(two, runs, 0)["lossless"]; !f.unsettled {
+		t.Fatalf("lossless under two: %v; want unsettled", f)
+	}
+	if f := screenFlags(stable, runs, 0)["lossless"]; f.unsettled || f.slow {
+		t.Errorf("lossless under the stable twin: %v; want neither unsettled nor slow", f)
+	}
+	q := query(t, stable, "samples", 0)
+	for _, want := range []string{"unsettled is always false", "    0 AS unsettled,\n"} {
+		if !strings.Contains(q, want) {
+			t.Errorf("stable query lacks %q", want)
+		}
+	}
+	if strings.Contains(q, "AS slow") && !strings.Contains(q, "0 AS slow") || strings.Contains(q, "(MAX(slow) = 1) AS slow") {
+		t.Errorf("stable query has a slow column:\n%s", q)
 	}
 }

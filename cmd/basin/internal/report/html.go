@@ -124,7 +124,7 @@ type runRow struct {
 	Run, File   string
 	Samples     int
 	StartInside bool
-	Settled     bool
+	Settled     string // SettledText
 	Flagged     bool
 	Flags       string
 }
@@ -289,7 +289,7 @@ func build(in *Input, pl [2]int) (*pageData, error) {
 		for _, f := range r.Flags {
 			fl = append(fl, FlagText(c, f, r))
 		}
-		d.Runs = append(d.Runs, runRow{r.Run, r.File, r.Samples, r.StartInside, r.Settled, r.Flagged, strings.Join(fl, "; ")})
+		d.Runs = append(d.Runs, runRow{r.Run, r.File, r.Samples, r.StartInside, SettledText(r), r.Flagged, strings.Join(fl, "; ")})
 	}
 	return d, nil
 }
@@ -409,6 +409,9 @@ func valRows(v *fit.Validation, hc heldoutCount) []valRow {
 	stayed := int(math.Round(v.InvarianceFraction * float64(base)))
 	inv := human.Share(stayed, base, u)
 	settled := fmt.Sprintf("%d of %d", v.Settled, base)
+	if v.CutShort > 0 {
+		settled += fmt.Sprintf(" (%d more cut short where an input left rest, not judged on settling)", v.CutShort)
+	}
 	if base == 0 {
 		inv = "no " + u + " entered the region"
 		settled = inv

@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"slices"
 	"strings"
 
 	"basin.example/cmd/basin/internal/human"
@@ -140,7 +141,7 @@ func Summary(w io.Writer, in *Input) error {
 // strength stable, which claims no settling. "flagged: 4" alone beside a
 // certified verdict read as four failures.
 func checkedLine(c *fit.Certificate, checks []validate.RunScreen) string {
-	flagged, never := 0, 0
+	flagged, never, elsewhere := 0, 0, 0
 	kinds := map[string]int{}
 	var order []string
 	for _, r := range checks {
@@ -150,6 +151,9 @@ func checkedLine(c *fit.Certificate, checks []validate.RunScreen) string {
 		flagged++
 		if !r.EverInside {
 			never++
+		}
+		if slices.ContainsFunc(r.Flags, func(f validate.Flag) bool { return f.RestPoint != nil }) {
+			elsewhere++
 		}
 		seen := map[string]bool{}
 		for _, f := range r.Flags {
@@ -173,6 +177,9 @@ func checkedLine(c *fit.Certificate, checks []validate.RunScreen) string {
 		parts = append(parts, fmt.Sprintf("%d %s", kinds[k], k))
 	}
 	notes := []string{strings.Join(parts, ", ")}
+	if elsewhere > 0 {
+		notes = append(notes, fmt.Sprintf("%d settled at another rest point, outside this certificate's region", elsewhere))
+	}
 	if !hasV(c) {
 		notes = append(notes, "no V, so no region: they contradict no claim")
 	} else if never > 0 {
@@ -479,6 +486,9 @@ func heldoutPieces(c *fit.Certificate, v *fit.Validation, hc heldoutCount) strin
 	default:
 		stayed := int(math.Round(v.InvarianceFraction * float64(base)))
 		fmt.Fprintf(&b, "; of the %s that %s, %d stayed inside and %d settled", human.Count(base, unit), how, stayed, v.Settled)
+		if v.CutShort > 0 {
+			fmt.Fprintf(&b, ", %d cut short where an input left rest before they could settle", v.CutShort)
+		}
 		if how == "entered the region" && v.StartInside > 0 {
 			fmt.Fprintf(&b, " (%d started inside)", v.StartInside)
 		}

@@ -3,6 +3,7 @@ package report
 import (
 	"fmt"
 	"math"
+	"slices"
 	"strings"
 
 	"basin.example/cmd/basin/internal/human"
@@ -26,6 +27,14 @@ func FlagText(c *fit.Certificate, f validate.Flag, r *validate.RunScreen) string
 		}
 		return fmt.Sprintf("left the region at %s: V reached %s, beyond the region's edge at V = %s", at, human.Num(c.Level+f.Excess), level)
 	case validate.FlagUnsettled:
+		if f.RestPoint != nil {
+			// came to rest outside the region: another rest point
+			where := statePoint(c, f.RestPoint)
+			if f.RestName != "" {
+				where += " (" + f.RestName + ")"
+			}
+			return fmt.Sprintf("settled at another rest point by its end at %s, at %s: outside this certificate's region, so outside its claim", at, where)
+		}
 		if !c.Found {
 			// no V: its value and the level (both 0) say nothing
 			return fmt.Sprintf("had not settled by its end at %s", at)
@@ -153,4 +162,22 @@ func FirstEquilibrium(m *fit.Model) string {
 		return "the first is the one nearest where the runs settle"
 	}
 	return "the first is the one nearest where the runs end; none settles"
+}
+
+// SettledText is a run's entry in a table's settled column: yes, no,
+// "another rest point" for a run that came to rest at another rest point (an
+// unsettled flag's RestPoint), or, for a piece that ends where an input left rest (r.Cut), that it was
+// cut short there, which input and when: "cut: drive on at 11.6 s".
+func SettledText(r *validate.RunScreen) string {
+	switch {
+	case r.Settled:
+		return "yes"
+	case slices.ContainsFunc(r.Flags, func(f validate.Flag) bool { return f.RestPoint != nil }):
+		return "another rest point"
+	case r.Cut != nil && r.Cut.Input != "":
+		return fmt.Sprintf("cut: %s on at %s s", r.Cut.Input, human.Num(r.Cut.Time))
+	case r.Cut != nil:
+		return fmt.Sprintf("cut: an input on at %s s", human.Num(r.Cut.Time))
+	}
+	return "no"
 }

@@ -8,6 +8,7 @@ import (
 	"testing"
 
 	"basin.example/fit"
+	"basin.example/validate"
 )
 
 // wordCases are fixed inputs whose rendering must read cleanly: the
@@ -93,6 +94,43 @@ func TestWords(t *testing.T) {
 					t.Errorf("page lacks %q", want)
 				}
 			}
+		}
+	}
+}
+
+// TestRestAndCutWords: an unsettled flag that came to rest at another
+// rest point says so, where, and which, not that the run had not
+// settled; the settled column reads "another rest point" for it and
+// "cut: drive on at 11.6 s" for a piece cut short by an input's onset
+// (common practice: a table cell says what happened, the flag why).
+func TestRestAndCutWords(t *testing.T) {
+	c := mustCert(fixtureCertJSON)
+	rest := validate.Flag{Kind: validate.FlagUnsettled, Time: 14.99, Excess: 33, RestPoint: []float64{-1, 0.0003}, RestName: "certificate-2.json's rest point"}
+	r := &validate.RunScreen{Flags: []validate.Flag{rest}, Flagged: true}
+	got := FlagText(c, rest, r)
+	for _, want := range []string{"settled at another rest point by its end at 14.99 s, at ", "(certificate-2.json's rest point)", "outside this certificate's region"} {
+		if !strings.Contains(got, want) {
+			t.Errorf("flag text %q lacks %q", got, want)
+		}
+	}
+	if strings.Contains(got, "not settled") {
+		t.Errorf("flag text %q says the run had not settled", got)
+	}
+	plain := validate.Flag{Kind: validate.FlagUnsettled, Time: 9.99, Excess: 1}
+	if got := FlagText(c, plain, &validate.RunScreen{Flags: []validate.Flag{plain}}); !strings.HasPrefix(got, "had not settled by its end at 9.99 s") {
+		t.Errorf("plain unsettled: %q", got)
+	}
+	for _, tc := range []struct {
+		r    validate.RunScreen
+		want string
+	}{
+		{*r, "another rest point"},
+		{validate.RunScreen{Settled: true}, "yes"},
+		{validate.RunScreen{Flags: []validate.Flag{plain}}, "no"},
+		{validate.RunScreen{Cut: &validate.Cut{Reason: validate.CutInput, Time: 11.6, Input: "drive"}}, "cut: drive on at 11.6 s"},
+	} {
+		if got := SettledText(&tc.r); got != tc.want {
+			t.Errorf("settled column %q, want %q", got, tc.want)
 		}
 	}
 }
