@@ -476,7 +476,8 @@ const sniffLines = 4096
 
 // sniffLater drops, as text, each unnamed state column whose cell in the
 // first data row (first) is empty and whose first non-empty cell in the
-// following lines of rest (at most sniffLines) is not a number. Lines
+// following lines of rest (at most sniffLines) is not a number; a number
+// out of float64's range is no text, and the parser reports it. Lines
 // that do not split into the header's columns are left to the parser.
 func (lay *csvLayout) sniffLater(first [][]byte, rest []byte, r *roles) {
 	var pending []int
@@ -509,8 +510,8 @@ func (lay *csvLayout) sniffLater(first [][]byte, rest []byte, r *roles) {
 			switch {
 			case len(c) == 0:
 				keep = append(keep, j)
-			case !isNumberCell(c):
-				r.dropState(j)
+			case !isNumberCell(c) && !outOfRange(c):
+				r.dropState(j) // a number too large is a bad value, which the parser reports at its line
 			}
 		}
 		pending = keep
@@ -523,8 +524,18 @@ func isNumberCell(c []byte) bool {
 	return ok
 }
 
+// outOfRange says c is written as a number but is too large in magnitude
+// for a float64 ("1e400", "-1.8e308": strconv.ParseFloat's ErrRange, which
+// it gives for overflow only; an underflow rounds to zero without error).
+// Such a cell is a bad value in a numeric column, not text.
+func outOfRange(c []byte) bool {
+	_, err := strconv.ParseFloat(string(c), 64)
+	return errors.Is(err, strconv.ErrRange)
+}
+
 // sniff looks at the first data row: with no --states, a state column
-// whose cell there is text (not a number, not empty) is ignored; the time
+// whose cell there is text (not a number, not empty) is ignored, and one
+// whose cell is a number out of float64's range is an error there; the time
 // column's cell says whether time is in seconds or ISO 8601.
 func (lay *csvLayout) sniff(tb *table, rest []byte, line int, opts *Options) error {
 	var cells [][]byte
@@ -581,7 +592,7 @@ func (lay *csvLayout) sniff(tb *table, rest []byte, line int, opts *Options) err
 				continue
 			}
 			if _, ok := parseFloat(c); !ok {
-				if r.isInput(j) { // named, so it must be numeric
+				if r.isInput(j) || outOfRange(c) { // named, so it must be numeric; or a number, too large
 					p := &csvParser{lay: lay, tb: tb}
 					return p.cellError(line, j, c)
 				}
