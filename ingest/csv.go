@@ -94,7 +94,8 @@ type chunk struct {
 // errors and as the run's file ("-" for stdin). The dialect is detected:
 // a ',' ';' or tab delimiter (the most frequent one in the header), '#'
 // comment lines, a UTF-8 BOM, CRLF line ends, quoted cells (a quoted cell
-// may not span lines). Empty and NaN cells are missing samples. The time
+// may not span lines). Empty and NaN cells are missing samples ("-nan"
+// and "nan(ind)", as C writes them, too). The time
 // column holds seconds or ISO 8601 date-times (RFC 3339, 'T' or a space
 // between date and time; no zone means UTC); date-times become seconds
 // from the recording's first sample and set [Run.Epoch].
@@ -518,10 +519,11 @@ func (lay *csvLayout) sniffLater(first [][]byte, rest []byte, r *roles) {
 	}
 }
 
-// isNumberCell says c parses as a number.
+// isNumberCell says c parses as a number, or is a NaN in a form C's
+// printf writes ([isNaNText]).
 func isNumberCell(c []byte) bool {
 	_, ok := parseFloat(c)
-	return ok
+	return ok || isNaNText(c)
 }
 
 // outOfRange says c is written as a number but is too large in magnitude
@@ -591,7 +593,7 @@ func (lay *csvLayout) sniff(tb *table, rest []byte, line int, opts *Options) err
 			if (opts.States != nil && !r.isInput(j)) || len(c) == 0 {
 				continue
 			}
-			if _, ok := parseFloat(c); !ok {
+			if !isNumberCell(c) {
 				if r.isInput(j) || outOfRange(c) { // named, so it must be numeric; or a number, too large
 					p := &csvParser{lay: lay, tb: tb}
 					return p.cellError(line, j, c)
@@ -1271,13 +1273,14 @@ func (p *csvParser) fastRows(c *chunk, cols [][]float64, data []byte) (rows, use
 }
 
 // cellSlow handles what the fast path refused: blanks around a number,
-// empty and NaN cells (missing: NaN). Infinities are refused, and so are
+// empty and NaN cells (missing: NaN; "-nan" and "nan(ind)" too, see
+// [isNaNText]). Infinities are refused, and so are
 // Go's digit separators and hexadecimal floats ("1_000", "0x1p-2"), which
 // strconv accepts but no logger writes: such a cell is a typo or not a
 // number at all.
 func (p *csvParser) cellSlow(cell []byte) (float64, bool) {
 	cell = trimBlank(cell, p.lay.delim)
-	if len(cell) == 0 {
+	if len(cell) == 0 || isNaNText(cell) {
 		return math.NaN(), true
 	}
 	if notDecimal(cell) {
@@ -1290,7 +1293,33 @@ func (p *csvParser) cellSlow(cell []byte) (float64, bool) {
 	return v, true
 }
 
-func isNaNText(c []byte) bool { return len(c) == 3 && strings.EqualFold(string(c), "nan") }
+// isNaNText says c is a NaN as C's printf writes one: "nan" in any case,
+// with an optional sign and an optional parenthesised tail of letters,
+// digits and '_' ("-nan" from glibc for a NaN whose sign bit is set,
+// "-nan(ind)" from Microsoft's C library), the forms C's strtod reads as
+// NaN. strconv.ParseFloat reads only the bare "nan"; IEEE 754 gives a
+// NaN's sign no meaning, so every form is a missing sample.
+func isNaNText(c []byte) bool {
+	if len(c) > 0 && (c[0] == '-' || c[0] == '+') {
+		c = c[1:]
+	}
+	if len(c) < 3 || !strings.EqualFold(string(c[:3]), "nan") {
+		return false
+	}
+	c = c[3:]
+	if len(c) == 0 {
+		return true
+	}
+	if len(c) < 2 || c[0] != '(' || c[len(c)-1] != ')' {
+		return false
+	}
+	for _, b := range c[1 : len(c)-1] {
+		if !(b >= '0' && b <= '9' || b >= 'a' && b <= 'z' || b >= 'A' && b <= 'Z' || b == '_') {
+			return false
+		}
+	}
+	return true
+}
 
 func (p *csvParser) cellError(line, j int, cell []byte) error {
 	cell = trimBlank(cell, p.lay.delim)

@@ -62,6 +62,7 @@ func FuzzReadCSV(f *testing.F) {
 		"t\ta\n0\t1,5\n0,5\t2,5,1\n",
 		"t,a,b\n0,1,-1e400\n1,2,3\n",
 		"t,a,b,c\n0,1,,NaN\n1,2,1e309,inf\n",
+		"t,a,b\n0,-nan,nan(ind)\n-nan,2,3\n2,nan(,4\n",
 	} {
 		f.Add([]byte(s), uint8(0))
 	}

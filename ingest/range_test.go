@@ -150,3 +150,53 @@ func halfUlpAboveMax() string {
 	v.Sub(v, new(big.Int).Lsh(big.NewInt(1), 970))
 	return v.String()
 }
+
+// TestNaNForms: a NaN as C's printf writes it ("-nan" from glibc for a
+// NaN with its sign bit set, "-nan(ind)" from Microsoft's C library) is
+// a missing sample, as "NaN" is, in the first data row (where it made the
+// column text, silently), in a later row (where it stopped the read: "not
+// a number") and in a column that starts empty. The forms are those of
+// the C standard's strtod and fprintf [C99]; whether strtod reads a cell
+// whole as NaN was checked, cell by cell, with glibc 2.36's strtod (the
+// "whole" column, pasted here; Microsoft's "-nan(ind)" is from memory).
+// Near misses stay what they were: text where the column's kind is
+// decided (the first row, or the first filled cell), an error later.
+func TestNaNForms(t *testing.T) {
+	const tail = "0.1,0.9,-0.4\n0.2,0.8,-0.3\n0.3,0.7,-0.2\n"
+	for _, tc := range []struct {
+		cell  string
+		whole bool // glibc's strtod reads the whole cell as a NaN
+	}{
+		{"nan", true}, {"NaN", true}, {"-nan", true}, {"+nan", true}, {"-NAN", true},
+		{"-nan(ind)", true}, {"nan(0x8000)", true}, {"NaN()", true}, {"nan(_A9)", true},
+		{"nan(", false}, {"nan(a b)", false}, {"nanx", false}, {"--nan", false}, {"-nan)", false},
+	} {
+		first := "t,x,v\n0,1," + tc.cell + "\n" + tail
+		later := "t,x,v\n0,1,-0.5\n" + tail[:13] + "0.2,0.8," + tc.cell + "\n0.3,0.7,-0.2\n"
+		empty := "t,x,v\n0,1,\n0.1,0.9," + tc.cell + "\n0.2,0.8,-0.3\n0.3,0.7,-0.2\n"
+		for _, in := range []string{first, later, empty} {
+			ds, err := ReadCSV(strings.NewReader(in), "x.csv", &Options{KeepEvents: true, KeepHead: true})
+			switch {
+			case tc.whole:
+				n := 3 // one row missing
+				if in == empty {
+					n = 2 // two
+				}
+				if err != nil {
+					t.Errorf("%q: %v", in, err)
+				} else if len(ds.States) != 2 || ds.Samples() != n {
+					t.Errorf("%q: states %v, %d samples; want x and v, %d", in, ds.States, ds.Samples(), n)
+				}
+			case in != later: // a word where the column's kind is decided: text
+				if err != nil || len(ds.States) != 1 || len(ds.Ignored) != 1 {
+					t.Errorf("%q: err %v; want v ignored", in, err)
+				}
+			default:
+				want := `x.csv:4:3: column "v": not a number "` + tc.cell + `"`
+				if err == nil || err.Error() != want {
+					t.Errorf("%q: err = %v, want %s", in, err, want)
+				}
+			}
+		}
+	}
+}
