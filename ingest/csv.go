@@ -94,7 +94,8 @@ type chunk struct {
 // errors and as the run's file ("-" for stdin). The dialect is detected:
 // a ',' ';' or tab delimiter (the most frequent one in the header), '#'
 // comment lines, a UTF-8 BOM, CRLF line ends, quoted cells (a quoted cell
-// may not span lines). Empty and NaN cells are missing samples. The time
+// may not span lines). Empty and NaN cells are missing samples ("-nan"
+// and "nan(ind)", as C writes them, too). The time
 // column holds seconds or ISO 8601 date-times (RFC 3339, 'T' or a space
 // between date and time; no zone means UTC); date-times become seconds
 // from the recording's first sample and set [Run.Epoch].
@@ -476,7 +477,8 @@ const sniffLines = 4096
 
 // sniffLater drops, as text, each unnamed state column whose cell in the
 // first data row (first) is empty and whose first non-empty cell in the
-// following lines of rest (at most sniffLines) is not a number. Lines
+// following lines of rest (at most sniffLines) is not a number; a number
+// out of float64's range is no text, and the parser reports it. Lines
 // that do not split into the header's columns are left to the parser.
 func (lay *csvLayout) sniffLater(first [][]byte, rest []byte, r *roles) {
 	var pending []int
@@ -509,22 +511,33 @@ func (lay *csvLayout) sniffLater(first [][]byte, rest []byte, r *roles) {
 			switch {
 			case len(c) == 0:
 				keep = append(keep, j)
-			case !isNumberCell(c):
-				r.dropState(j)
+			case !isNumberCell(c) && !outOfRange(c):
+				r.dropState(j) // a number too large is a bad value, which the parser reports at its line
 			}
 		}
 		pending = keep
 	}
 }
 
-// isNumberCell says c parses as a number.
+// isNumberCell says c parses as a number, or is a NaN in a form C's
+// printf writes ([isNaNText]).
 func isNumberCell(c []byte) bool {
 	_, ok := parseFloat(c)
-	return ok
+	return ok || isNaNText(c)
+}
+
+// outOfRange says c is written as a number but is too large in magnitude
+// for a float64 ("1e400", "-1.8e308": strconv.ParseFloat's ErrRange, which
+// it gives for overflow only; an underflow rounds to zero without error).
+// Such a cell is a bad value in a numeric column, not text.
+func outOfRange(c []byte) bool {
+	_, err := strconv.ParseFloat(string(c), 64)
+	return errors.Is(err, strconv.ErrRange)
 }
 
 // sniff looks at the first data row: with no --states, a state column
-// whose cell there is text (not a number, not empty) is ignored; the time
+// whose cell there is text (not a number, not empty) is ignored, and one
+// whose cell is a number out of float64's range is an error there; the time
 // column's cell says whether time is in seconds or ISO 8601.
 func (lay *csvLayout) sniff(tb *table, rest []byte, line int, opts *Options) error {
 	var cells [][]byte
@@ -580,8 +593,8 @@ func (lay *csvLayout) sniff(tb *table, rest []byte, line int, opts *Options) err
 			if (opts.States != nil && !r.isInput(j)) || len(c) == 0 {
 				continue
 			}
-			if _, ok := parseFloat(c); !ok {
-				if r.isInput(j) { // named, so it must be numeric
+			if !isNumberCell(c) {
+				if r.isInput(j) || outOfRange(c) { // named, so it must be numeric; or a number, too large
 					p := &csvParser{lay: lay, tb: tb}
 					return p.cellError(line, j, c)
 				}
@@ -1260,13 +1273,14 @@ func (p *csvParser) fastRows(c *chunk, cols [][]float64, data []byte) (rows, use
 }
 
 // cellSlow handles what the fast path refused: blanks around a number,
-// empty and NaN cells (missing: NaN). Infinities are refused, and so are
+// empty and NaN cells (missing: NaN; "-nan" and "nan(ind)" too, see
+// [isNaNText]). Infinities are refused, and so are
 // Go's digit separators and hexadecimal floats ("1_000", "0x1p-2"), which
 // strconv accepts but no logger writes: such a cell is a typo or not a
 // number at all.
 func (p *csvParser) cellSlow(cell []byte) (float64, bool) {
 	cell = trimBlank(cell, p.lay.delim)
-	if len(cell) == 0 {
+	if len(cell) == 0 || isNaNText(cell) {
 		return math.NaN(), true
 	}
 	if notDecimal(cell) {
@@ -1279,7 +1293,33 @@ func (p *csvParser) cellSlow(cell []byte) (float64, bool) {
 	return v, true
 }
 
-func isNaNText(c []byte) bool { return len(c) == 3 && strings.EqualFold(string(c), "nan") }
+// isNaNText says c is a NaN as C's printf writes one: "nan" in any case,
+// with an optional sign and an optional parenthesised tail of letters,
+// digits and '_' ("-nan" from glibc for a NaN whose sign bit is set,
+// "-nan(ind)" from Microsoft's C library), the forms C's strtod reads as
+// NaN. strconv.ParseFloat reads only the bare "nan"; IEEE 754 gives a
+// NaN's sign no meaning, so every form is a missing sample.
+func isNaNText(c []byte) bool {
+	if len(c) > 0 && (c[0] == '-' || c[0] == '+') {
+		c = c[1:]
+	}
+	if len(c) < 3 || !strings.EqualFold(string(c[:3]), "nan") {
+		return false
+	}
+	c = c[3:]
+	if len(c) == 0 {
+		return true
+	}
+	if len(c) < 2 || c[0] != '(' || c[len(c)-1] != ')' {
+		return false
+	}
+	for _, b := range c[1 : len(c)-1] {
+		if !(b >= '0' && b <= '9' || b >= 'a' && b <= 'z' || b >= 'A' && b <= 'Z' || b == '_') {
+			return false
+		}
+	}
+	return true
+}
 
 func (p *csvParser) cellError(line, j int, cell []byte) error {
 	cell = trimBlank(cell, p.lay.delim)

@@ -60,6 +60,9 @@ func FuzzReadCSV(f *testing.F) {
 		"t,a\n0,1\n0,2\n",
 		"timestamp;a [mm, raw];b\n2026-11-30 08:00:00,5;1,5;\"2,25\"\n2026-11-30 08:00:01,5;1;NaN\n",
 		"t\ta\n0\t1,5\n0,5\t2,5,1\n",
+		"t,a,b\n0,1,-1e400\n1,2,3\n",
+		"t,a,b,c\n0,1,,NaN\n1,2,1e309,inf\n",
+		"t,a,b\n0,-nan,nan(ind)\n-nan,2,3\n2,nan(,4\n",
 	} {
 		f.Add([]byte(s), uint8(0))
 	}

@@ -35,6 +35,8 @@ func FuzzStreamCSV(f *testing.F) {
 		"t\ta\n0\t1,5\n0,5\t2,5\n1\t3\n",
 		"t,a,b\n0,1,2\n1,2,2\n2,3,\n3,4,2\n",
 		"clock,a\n1,2\n3,4\n",
+		"t,a,b\n0,1,1e400\n1,2,3\n",
+		"t,a,b\n0,-nan,1\n1,2,nan(ind)\n2,3,4\n3,4,5\n",
 	} {
 		f.Add([]byte(s), uint8(2))
 	}

@@ -49,8 +49,9 @@ Every command that reads logs takes:
 	                    split there)
 
 A header cell "name [unit]" or "name (unit)" carries a unit, reported back
-wherever the column appears. Empty cells and NaN are missing samples: a run
-is split at a gap, not interpolated across it.
+wherever the column appears. Empty cells and NaN (in any case, or as C's
+printf writes it: -nan, nan(ind)) are missing samples: a run is split at a
+gap, not interpolated across it.
 
 A one-sample jump far beyond the noise (a hammer hit, a relay, a dropped
 packet) splits a run there like a gap; a spike, one sample that departs

@@ -24,6 +24,7 @@ func TestInspectBadInput(t *testing.T) {
 		{"empty file", []string{"empty.csv"}, "empty.csv: no samples: no header line"},
 		{"header only", []string{"header-only.csv"}, "header-only.csv: no samples: a header but no data rows"},
 		{"non-numeric cell", []string{"not-a-number.csv"}, `not-a-number.csv:4:2: column "theta": not a number "0.1O"`},
+		{"number beyond float64 in the first row", []string{"out-of-range.csv"}, `out-of-range.csv:2:3: column "v": not a number: "1e400" is infinite or out of range`},
 		{"ragged rows", []string{"ragged.csv"}, "ragged.csv:3:2: wrong number of fields: 2, the header has 3"},
 		{"time repeats", []string{"time-repeats.csv"}, `time-repeats.csv:4:1: column "t": time does not increase: repeats`},
 		{"time reverses", []string{"time-reverses.csv"}, `time-reverses.csv:4:1: column "t": time does not increase: goes back`},
@@ -66,6 +67,24 @@ func TestInspectBadInput(t *testing.T) {
 				t.Errorf("files written: %s", after)
 			}
 		})
+	}
+}
+
+// TestRunOutOfRange: run, like inspect, refuses a log whose first data
+// row holds a number beyond float64's range (1e400; the largest float64
+// is about 1.798e308 [IEEE754]) with one line naming file, line and
+// column, exit 2 and no output folder; the column was taken for text and
+// the run went on without that state.
+func TestRunOutOfRange(t *testing.T) {
+	out := filepath.Join(t.TempDir(), "out")
+	in := filepath.Join("..", "..", "testdata", "bad", "out-of-range.csv")
+	code, msg := run1(t, "run", "--out", out, in)
+	want := `basin run: ` + in + `:2:3: column "v": not a number: "1e400" is infinite or out of range`
+	if code != 2 || msg != want {
+		t.Errorf("exit %d %q, want 2 and %q", code, msg, want)
+	}
+	if _, err := os.Stat(out); !os.IsNotExist(err) {
+		t.Errorf("%s written (stat: %v)", out, err)
 	}
 }
 
