@@ -30,6 +30,10 @@ func TestCheckedLine(t *testing.T) {
 			{Run: "b", Flagged: true, Flags: unsettled},
 			{Run: "c", Flagged: true, Flags: unsettled}},
 			"checked runs: 3, flagged: 2 (2 unsettled; 2 of the flagged never entered the region, so they lie outside its claim)\n"},
+		{"one outside", fit.Asymptotic, []validate.RunScreen{
+			{Run: "a", EverInside: true},
+			{Run: "b", Flagged: true, Flags: unsettled}},
+			"checked runs: 2, flagged: 1 (1 unsettled; 1 of the flagged never entered the region, so it lies outside its claim)\n"},
 		{"oscillator: strength stable", fit.Stable, []validate.RunScreen{
 			{Run: "a", EverInside: true, Flagged: true, Flags: unsettled},
 			{Run: "b", EverInside: true, Flagged: true, Flags: unsettled}},

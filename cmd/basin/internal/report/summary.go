@@ -183,7 +183,11 @@ func checkedLine(c *fit.Certificate, checks []validate.RunScreen) string {
 	if !hasV(c) {
 		notes = append(notes, "no V, so no region: they contradict no claim")
 	} else if never > 0 {
-		notes = append(notes, fmt.Sprintf("%d of the flagged never entered the region, so they lie outside its claim", never))
+		they := "they lie"
+		if never == 1 {
+			they = "it lies"
+		}
+		notes = append(notes, fmt.Sprintf("%d of the flagged never entered the region, so %s outside its claim", never, they))
 	}
 	if c.Strength == fit.Stable && kinds[string(validate.FlagUnsettled)] > 0 {
 		notes = append(notes, "strength stable claims no settling, so unsettled runs do not contradict it")
