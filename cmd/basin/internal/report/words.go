@@ -86,31 +86,15 @@ func UnstableRuns(m *fit.Model, e *fit.Equilibrium) string {
 }
 
 // NearestEquilibrium returns the equilibrium of m nearest x in m's
-// spreads (nil when m has none of x's length).
+// spreads (nil when m has none of x's length), by [fit.Model.Nearest].
 func NearestEquilibrium(m *fit.Model, x []float64) *fit.Equilibrium {
 	if m == nil {
 		return nil
 	}
-	var best *fit.Equilibrium
-	bd := math.Inf(1)
-	for i := range m.Equilibria {
-		e := &m.Equilibria[i]
-		if len(e.Point) != len(x) {
-			continue
-		}
-		d := 0.0
-		for j, v := range e.Point {
-			s := 1.0
-			if j < len(m.Spread) && m.Spread[j] > 0 {
-				s = m.Spread[j]
-			}
-			d += math.Pow((v-x[j])/s, 2)
-		}
-		if d < bd {
-			best, bd = e, d
-		}
+	if k, _ := m.Nearest(x); k >= 0 {
+		return &m.Equilibria[k]
 	}
-	return best
+	return nil
 }
 
 // modelPoint writes x as "x = 0.1 rad, y = 0", each coordinate to a
