@@ -51,7 +51,11 @@ time apart). The verdict on these runs follows the same rules as 'run'.
 With --inputs and a certificate at rest input, the runs are checked in
 pieces where the inputs rest; a piece that ends where an input comes on
 is not judged on settling (settled reads "cut: drive on at T s", --json
-gives the run's cut), its rises and leaves still are.
+gives the run's cut), its rises and leaves still are. So is a piece that
+ends where a one-sample jump (a hit) or a gap split its recording, every
+piece but the recording's last: settled reads "cut: jump in v at T s" or
+"cut: gap from T1 s to T2 s", and --json's cut has reason jump (time,
+state) or gap (time, until).
 A run that came to rest outside the region settled at another rest point:
 its unsettled flag says where (rest_point in --json) and, when a
 certificate-N.json or model.json beside the certificate has an
