@@ -293,7 +293,7 @@ func TestSplitCuts(t *testing.T) {
 		mk("a.csv", "a.csv", 0, 0, 0, 10), // whole
 		// a gap from 3 s to 4 s, then a hit at 6.01 s
 		mk("rig=1/b.csv", "b.csv", 1, 1, 0, 3), mk("rig=1/b.csv", "b.csv~1", 1, 1, 4, 6), mk("rig=1/b.csv", "b.csv~2", 1, 1, 6.01, 10),
-		mk("rig=2/b.csv", "b.csv", 0, 0, 0, 10), // the same base name, never split
+		mk("rig=2/b.csv", "b.csv", 0, 0, 0, 10),                                      // the same base name, never split
 		mk("c~x.csv", "c~x.csv", 1, 0, 0, 1), mk("c~x.csv", "c~x.csv~1", 1, 0, 2, 3), // a '~' in the base name
 		mk("d.csv", "d.csv", 2, 0, 0, 1), mk("d.csv", "d.csv~2", 2, 0, 5, 6), // d.csv~1 left out (MinPiece)
 	},
