@@ -194,13 +194,13 @@ func SettledText(r *validate.RunScreen) string {
 }
 
 // cutWhere says where the held-out runs that v counts as cut short
-// (CutShort) were cut, for the held-out lines: "at a one-sample jump
-// (a hit)", or, for several reasons, "(2 at a one-sample jump, 1 at a
+// (CutShort) were cut, for the held-out lines: "at a one-sample jump"
+// (a hit), or, for several reasons, "(2 at a one-sample jump, 1 at a
 // gap in the log)". A certificate written before CutShortBy counted only
 // pieces cut where an input left rest.
 func cutWhere(v *fit.Validation) string {
 	words := []struct{ reason, where string }{
-		{validate.CutJump, "at a one-sample jump (a hit)"},
+		{validate.CutJump, "at a one-sample jump"},
 		{validate.CutGap, "at a gap in the log"},
 		{validate.CutInput, "where an input left rest"},
 	}

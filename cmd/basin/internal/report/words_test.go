@@ -2,6 +2,7 @@ package report
 
 import (
 	"bytes"
+	"fmt"
 	"html"
 	"regexp"
 	"strings"
@@ -152,12 +153,33 @@ func TestCutWhere(t *testing.T) {
 		want string
 	}{
 		{fit.Validation{CutShort: 2}, "where an input left rest"},
-		{fit.Validation{CutShort: 2, CutShortBy: map[string]int{"jump": 2}}, "at a one-sample jump (a hit)"},
+		{fit.Validation{CutShort: 2, CutShortBy: map[string]int{"jump": 2}}, "at a one-sample jump"},
 		{fit.Validation{CutShort: 1, CutShortBy: map[string]int{"gap": 1}}, "at a gap in the log"},
-		{fit.Validation{CutShort: 3, CutShortBy: map[string]int{"gap": 1, "jump": 2}}, "(2 at a one-sample jump (a hit), 1 at a gap in the log)"},
+		{fit.Validation{CutShort: 3, CutShortBy: map[string]int{"gap": 1, "jump": 2}}, "(2 at a one-sample jump, 1 at a gap in the log)"},
 	} {
 		if got := cutWhere(&tc.v); got != tc.want {
 			t.Errorf("%+v: %q, want %q", tc.v.CutShortBy, got, tc.want)
 		}
+	}
+}
+
+// TestHeldoutCutLines: the summary's held-out line and the page's
+// settled row say how many entered runs were cut short and where, after
+// the count that settled (common practice: a count says what it leaves
+// out).
+func TestHeldoutCutLines(t *testing.T) {
+	c := mustCert(fixtureCertJSON)
+	v := &fit.Validation{HeldoutRuns: 6, EnteredRuns: 6, Settled: 3, InvarianceFraction: 1, Pairs: 100, DecreaseFraction: 1,
+		CutShort: 3, CutShortBy: map[string]int{"jump": 2, "gap": 1}}
+	line := heldoutPieces(c, v, heldoutCount{Runs: 6})
+	if want := "of the 6 runs that entered the region, 6 stayed inside and 3 settled, 3 cut short (2 at a one-sample jump, 1 at a gap in the log) before they could settle"; !strings.Contains(line, want) {
+		t.Errorf("held-out line %q lacks %q", line, want)
+	}
+	found := false
+	for _, r := range valRows(v, heldoutCount{Runs: 6}) {
+		found = found || strings.Contains(fmt.Sprint(r), "3 of 6; 3 more cut short (2 at a one-sample jump, 1 at a gap in the log), not judged on settling")
+	}
+	if !found {
+		t.Errorf("no settled row names the cut pieces: %+v", valRows(v, heldoutCount{Runs: 6}))
 	}
 }
