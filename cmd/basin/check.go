@@ -188,6 +188,9 @@ func runCheck(ctx context.Context, e *env, args []string) error {
 		}
 	}
 	for _, r := range runs {
+		if r.Flags == nil {
+			r.Flags = []validate.Flag{} // the contract's list, as screen writes it: [] not null
+		}
 		doc.Runs = append(doc.Runs, checkRun{RunScreen: r, Partition: parts[r.File]})
 	}
 	if doc.Runs == nil {

@@ -78,6 +78,10 @@ func TestCheckHitsAndGaps(t *testing.T) {
 	if code := basinMain(context.Background(), []string{"check", "--json", "--cert", cert, hoDir}, &o, &e); code != 0 {
 		t.Fatalf("check --json: exit %d: %s", code, e.String())
 	}
+	// every run's flags is a list, [] when it has none (the contract)
+	if bytes.Contains(o.Bytes(), []byte(`"flags": null`)) || bytes.Contains(o.Bytes(), []byte(`"flags":null`)) {
+		t.Errorf("check --json gives a run flags null, not a list")
+	}
 	var doc struct {
 		Runs []struct {
 			Run     string
