@@ -97,19 +97,20 @@ type stateJSON struct {
 }
 
 type checkSummary struct {
-	Runs               int          `json:"runs"`
-	Flagged            int          `json:"flagged"`
-	StartedInside      int          `json:"runs_started_inside"`
-	Settled            int          `json:"runs_settled"`
-	CutShort           int          `json:"runs_cut_short,omitempty"`
-	DecreaseFraction   float64      `json:"decrease_fraction"`
-	InvarianceFraction float64      `json:"invariance_fraction"`
-	ViolationBound     float64      `json:"violation_bound"`
-	Confidence         float64      `json:"confidence"`
-	Verdict            fit.Verdict  `json:"verdict"`
-	Strength           fit.Strength `json:"strength"`
-	Reason             string       `json:"reason"`
-	Caveat             string       `json:"caveat"`
+	Runs               int            `json:"runs"`
+	Flagged            int            `json:"flagged"`
+	StartedInside      int            `json:"runs_started_inside"`
+	Settled            int            `json:"runs_settled"`
+	CutShort           int            `json:"runs_cut_short,omitempty"`
+	CutShortBy         map[string]int `json:"runs_cut_short_by,omitempty"`
+	DecreaseFraction   float64        `json:"decrease_fraction"`
+	InvarianceFraction float64        `json:"invariance_fraction"`
+	ViolationBound     float64        `json:"violation_bound"`
+	Confidence         float64        `json:"confidence"`
+	Verdict            fit.Verdict    `json:"verdict"`
+	Strength           fit.Strength   `json:"strength"`
+	Reason             string         `json:"reason"`
+	Caveat             string         `json:"caveat"`
 }
 
 func runCheck(ctx context.Context, e *env, args []string) error {
@@ -206,7 +207,7 @@ func runCheck(ctx context.Context, e *env, args []string) error {
 			sum.Flagged++
 		}
 	}
-	sum.StartedInside, sum.Settled, sum.CutShort = val.StartInside, val.Settled, val.CutShort
+	sum.StartedInside, sum.Settled, sum.CutShort, sum.CutShortBy = val.StartInside, val.Settled, val.CutShort, val.CutShortBy
 	sum.DecreaseFraction, sum.InvarianceFraction = val.DecreaseFraction, val.InvarianceFraction
 	sum.ViolationBound, sum.Confidence = val.ViolationBound, val.Confidence
 	sum.Verdict, sum.Strength, sum.Reason, sum.Caveat = judged.Verdict, judged.Strength, judged.Reason, fit.Caveat

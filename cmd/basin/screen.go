@@ -64,8 +64,9 @@ states' units; and the run's decay rate. A run that starts outside and
 comes in to settle is not flagged. Each piece of a recording split at a
 gap or a one-sample jump (a hit) is screened as a run of its own, those
 before a split included: one that had not settled when the split came is
-flagged unsettled, as the SQL of export --lang sql flags it (check does
-not judge such a piece on settling). A certificate without held-out decay
+flagged unsettled (check does not judge such a piece on settling; the
+SQL of export --lang sql judges each piece it splits at a missing cell as
+screen does, and splits at no jump). A certificate without held-out decay
 rates (an older file, or too few held-out runs with a positive rate)
 screens without the slow flag, with one warning saying why. A certificate
 of strength stable does not claim that runs settle: against it no run is
