@@ -40,7 +40,12 @@
 // at entry by more than the tolerance and below every earlier chunk by
 // the margin of screen's unsettled; see [Screener]); runs that never
 // enter lie outside the claim
-// and are only counted. The worst violation is given with run, time and
+// and are only counted. A piece cut short before its recording ends
+// (every piece of a recording split at a gap or a one-sample jump but
+// the last, [SplitCuts]; or one that ends where an input left rest,
+// [InputCuts]) had no chance to settle: it carries a [Cut] and no
+// unsettled flag, runs_cut_short counts those that entered and had not
+// settled, and its rises and leaves are still checked. The worst violation is given with run, time and
 // state.
 //
 // # Scenario bound
@@ -62,7 +67,7 @@
 // invariance 1 and a linearisation that is not unstable; its strength is
 // asymptotic when V has a positive decrease margin, every run that
 // entered with at least two tail windows of samples after entry settled
-// (and there is one) and the linearisation is strictly stable, else stable (stability without convergence, as for a
+// (and there is one; pieces cut short are left out) and the linearisation is strictly stable, else stable (stability without convergence, as for a
 // lossless oscillator). The stable strength also needs V not to trend up
 // along the held-out runs that entered: neither over whole runs nor over
 // the later half of each from entry (where a slow growth shows once an
