@@ -464,15 +464,20 @@ type Validation struct {
 	EnteredRuns int `json:"entered_runs"`
 	Settled     int `json:"runs_settled"`
 	// CutShort counts, of the entered runs that did not settle, the
-	// pieces that end where an input left rest (the next sample of their
-	// recording has it active): they were cut before they could settle,
-	// so settling is not judged on them. Absent (0) without inputs.
-	CutShort        int        `json:"runs_cut_short,omitempty"`
-	ScenarioSamples int        `json:"scenario_samples"`
-	Decorrelation   float64    `json:"decorrelation_s"`
-	DecisionVars    int        `json:"decision_variables"`
-	Worst           *Violation `json:"worst_violation,omitempty"`
-	Folds           int        `json:"folds"`
+	// pieces cut short before their recording ends: where a gap or a
+	// one-sample jump (a hit) split the recording, or where an input
+	// left rest (the next sample of their recording has it active). They
+	// were cut before they could settle, so settling is not judged on
+	// them. Absent (0) when no such piece entered unsettled. CutShortBy
+	// counts them by reason ("gap", "jump", "input"; see
+	// validate.Cut), absent when CutShort is 0.
+	CutShort        int            `json:"runs_cut_short,omitempty"`
+	CutShortBy      map[string]int `json:"runs_cut_short_by,omitempty"`
+	ScenarioSamples int            `json:"scenario_samples"`
+	Decorrelation   float64        `json:"decorrelation_s"`
+	DecisionVars    int            `json:"decision_variables"`
+	Worst           *Violation     `json:"worst_violation,omitempty"`
+	Folds           int            `json:"folds"`
 	// Model checks on held-out runs.
 	DerivativeError []float64 `json:"derivative_error,omitempty"`
 	TrajectoryError []float64 `json:"trajectory_error,omitempty"`

@@ -77,11 +77,19 @@ type Options struct {
 	// settle); its rises and leaves are still checked. Nil means Check's
 	// runs are whole recordings. Evaluate ignores it and sets it for its
 	// own held-out pieces.
+	//
+	// Either way, a run that ends where a gap or a one-sample jump split
+	// its recording (every piece of a split recording but the last; see
+	// [SplitCuts]) is not judged on settling either: the recordings'
+	// splits are read from Whole when it is set, else from Check's data
+	// set, whose Events must then be the readers' (ingest.Dataset.Events).
 	Whole *ingest.Dataset
 
-	// cutShort names the runs that end where a gap or a one-sample jump
-	// split their recording (set by Evaluate; see cutShortRuns).
-	cutShort map[string]bool
+	// splits, when not nil, are the gap and jump cuts of the runs of the
+	// data set Evaluate was given (SplitCuts), found before the folds
+	// took their subsets (which keep neither the other pieces of a
+	// recording nor its events).
+	splits map[RunKey]*Cut
 }
 
 // Weights of the stages of one fold in Evaluate's progress.
@@ -223,8 +231,20 @@ func Check(ctx context.Context, cert *fit.Certificate, ds *ingest.Dataset, opts 
 	worst := math.Inf(-1)
 	settleRatio := 0.0
 	var cuts []*Cut
+	var parents map[RunKey]*ingest.Run // the recordings of the pieces, by file and name
+	splits := o.splits
 	if o.Whole != nil {
 		cuts = InputCuts(o.Whole, ds)
+		parents = make(map[RunKey]*ingest.Run, len(o.Whole.Runs))
+		for i := range o.Whole.Runs {
+			r := &o.Whole.Runs[i]
+			parents[RunKey{r.Source.File, r.Name}] = r
+		}
+		if splits == nil {
+			splits = SplitCuts(o.Whole)
+		}
+	} else if splits == nil {
+		splits = SplitCuts(ds)
 	}
 	for i := range ds.Runs {
 		if err := ctx.Err(); err != nil {
@@ -238,9 +258,17 @@ func Check(ctx context.Context, cert *fit.Certificate, ds *ingest.Dataset, opts 
 				r.Flags[k].RestPoint = pt
 			}
 		}
-		if cuts != nil && cuts[i] != nil {
-			// cut by an input's onset: no chance to settle, so no unsettled flag
-			r.Cut = cuts[i]
+		var cut *Cut
+		if cuts != nil {
+			cut = cuts[i]
+		}
+		if cut == nil {
+			cut = splitCutOf(splits, parents, &ds.Runs[i])
+		}
+		if cut != nil {
+			// cut by a gap, a jump or an input's onset: no chance to
+			// settle, so no unsettled flag
+			r.Cut = cut
 			r.Flags = slices.DeleteFunc(r.Flags, func(f Flag) bool { return f.Kind == FlagUnsettled })
 			r.Flagged = len(r.Flags) > 0
 		}
@@ -277,6 +305,10 @@ func Check(ctx context.Context, cert *fit.Certificate, ds *ingest.Dataset, opts 
 				val.Settled++
 			} else if r.Cut != nil {
 				val.CutShort++
+				if val.CutShortBy == nil {
+					val.CutShortBy = map[string]int{}
+				}
+				val.CutShortBy[r.Cut.Reason]++
 			}
 			if r.vEnter > 0 {
 				settleRatio = max(settleRatio, r.VEnd/r.vEnter)
@@ -516,7 +548,7 @@ func decide(cert *fit.Certificate, val *fit.Validation, runs []RunScreen, eig []
 	// after entry to tell (two tail windows); at least one must.
 	long, settled := 0, 0
 	for _, r := range runs {
-		if r.EverInside && r.longAfter && !o.cutShort[r.Run] && r.Cut == nil {
+		if r.EverInside && r.longAfter && r.Cut == nil { // a piece cut short had no chance to settle
 			long++
 			if r.settledEntry {
 				settled++
@@ -626,7 +658,7 @@ func Evaluate(ctx context.Context, ds *ingest.Dataset, opts *Options) (*Result, 
 	}
 	res := &Result{Heldout: make([]bool, len(ds.Runs))}
 	defer o.progress("done", 1)
-	o.cutShort = cutShortRuns(ds)
+	o.splits = SplitCuts(ds)
 	o.Whole = nil // Evaluate's held-out pieces are its own (see one below)
 	if len(ds.Runs) < MinRuns {
 		o.progress("fitting the field", 0)
@@ -685,12 +717,11 @@ func Evaluate(ctx context.Context, ds *ingest.Dataset, opts *Options) (*Result, 
 				m = m.AtEquilibrium(k)
 			}
 		}
-		do := &o               // the verdict's options: o, or a copy naming cut-short segments
+		do := &o               // the verdict's options: o, or a copy naming the recordings of the pieces
 		if len(m.Inputs) > 0 { // held-out runs are checked where the inputs rest
 			whole := hoDS
 			hoDS = fit.RestSegments(hoDS, m.RestInput)
 			fo := o
-			fo.cutShort = cutShortSegments(o.cutShort, whole, hoDS)
 			fo.Whole = whole
 			do = &fo
 		}
@@ -960,38 +991,116 @@ func combineFolds(rel *fit.Certificate, certs []*fit.Certificate) {
 	}
 }
 
-// cutShortRuns names the runs of ds that end where a gap or a one-sample
+// RunKey names a run by its file (ingest.Source.File) and its name: two
+// files of one base name (a partitioned fleet: rig=1/log.csv,
+// rig=2/log.csv) give runs of one name.
+type RunKey struct{ File, Name string }
+
+// SplitCuts finds the runs of ds that end where a gap or a one-sample
 // jump (a hit) split their recording: every piece but the last, by the
 // readers' naming (the first piece keeps the recording's name, the n-th
 // after it is name~n, and each piece carries its recording's counts of
-// gap and jump splits). Such a piece stops before it could settle, so
-// settling is not judged on it: a rig hit every few seconds would
-// otherwise never show asymptotic stability. Decrease and invariance are
-// still checked on it.
-func cutShortRuns(ds *ingest.Dataset) map[string]bool {
-	var cut map[string]bool
+// gap and jump splits; see ingest.Run). Such a piece stops before it
+// could settle, so Check does not judge it on settling: a rig hit every
+// few seconds would otherwise never show asymptotic stability. Decrease
+// and invariance are still checked on it. The last piece of a recording
+// runs to the recording's end and is judged as any run.
+//
+// A cut piece's Cut is CutJump when one of ds.Events of its recording
+// lies after its last sample and no later than the next kept piece's
+// first (State is the event's; of several at that time, the one of the
+// most noise scales), else CutGap from its last sample to the next
+// piece's first (Until 0 when no later piece was kept). The map holds
+// the cut runs only.
+func SplitCuts(ds *ingest.Dataset) map[RunKey]*Cut {
+	type rec struct{ file, name string }
+	type piece struct {
+		k int
+		r *ingest.Run
+	}
+	// pieceOf splits a reader's piece name into its recording's name and
+	// its number; ok is false for a name that is not one.
+	pieceOf := func(r *ingest.Run) (string, int, bool) {
+		j := strings.LastIndexByte(r.Name, '~')
+		if j < 0 {
+			return r.Name, 0, true
+		}
+		n, err := strconv.Atoi(r.Name[j+1:])
+		if err != nil || n < 1 || strconv.Itoa(n) != r.Name[j+1:] {
+			return r.Name, 0, true // a base name holding '~': the whole recording's first piece
+		}
+		return r.Name[:j], n, true
+	}
+	pieces := map[rec][]piece{}
 	for i := range ds.Runs {
 		r := &ds.Runs[i]
-		splits := r.Gaps + r.Events
-		if splits == 0 {
+		if r.Gaps+r.Events == 0 || r.Len() == 0 {
 			continue
 		}
-		k := 0
-		if j := strings.LastIndexByte(r.Name, '~'); j >= 0 {
-			n, err := strconv.Atoi(r.Name[j+1:])
-			if err != nil || n < 1 {
-				continue // not a reader's piece name
+		name, k, _ := pieceOf(r)
+		key := rec{r.Source.File, name}
+		pieces[key] = append(pieces[key], piece{k, r})
+	}
+	out := map[RunKey]*Cut{}
+	for key, ps := range pieces {
+		for _, p := range ps {
+			r := p.r
+			if p.k >= r.Gaps+r.Events {
+				continue // the last piece: it runs to the recording's end
 			}
-			k = n
-		}
-		if k < splits {
-			if cut == nil {
-				cut = map[string]bool{}
+			end := r.T[r.Len()-1]
+			next := math.Inf(1) // the next kept piece's first sample
+			for _, q := range ps {
+				if q.k > p.k && q.r.T[0] > end {
+					next = min(next, q.r.T[0])
+				}
 			}
-			cut[r.Name] = true
+			var ev *ingest.Event
+			for e := range ds.Events {
+				x := &ds.Events[e]
+				if x.Run != key.name || !(x.Time > end && x.Time <= next) {
+					continue
+				}
+				if ev == nil || x.Time < ev.Time || (x.Time == ev.Time && x.Sigmas > ev.Sigmas) {
+					ev = x
+				}
+			}
+			c := &Cut{Reason: CutGap, Time: end}
+			switch {
+			case ev != nil:
+				c = &Cut{Reason: CutJump, Time: ev.Time, State: ev.State}
+			case r.Gaps == 0: // only jumps split it, but its events are not in ds
+				c.Reason = CutJump
+				if !math.IsInf(next, 1) {
+					c.Time = next
+				}
+			case !math.IsInf(next, 1):
+				c.Until = next
+			}
+			out[RunKey{r.Source.File, r.Name}] = c
 		}
 	}
-	return cut
+	return out
+}
+
+// splitCutOf returns run's gap or jump cut from splits (SplitCuts of its
+// data set), or, for a piece where the inputs rest (named "name@t" by
+// fit.RestSegments, its recording in parents), its recording's cut when
+// the piece runs to its recording's end. Nil when it was not cut.
+func splitCutOf(splits map[RunKey]*Cut, parents map[RunKey]*ingest.Run, run *ingest.Run) *Cut {
+	if c := splits[RunKey{run.Source.File, run.Name}]; c != nil {
+		return c
+	}
+	j := strings.LastIndexByte(run.Name, '@')
+	n := run.Len()
+	if parents == nil || j < 0 || n == 0 {
+		return nil
+	}
+	p := parents[RunKey{run.Source.File, run.Name[:j]}]
+	if p == nil || p.Len() == 0 || run.T[n-1] < p.T[p.Len()-1] {
+		return nil
+	}
+	return splits[RunKey{p.Source.File, p.Name}]
 }
 
 // NameRests names the rest points that runs' unsettled flags came to
@@ -1081,38 +1190,6 @@ func InputCuts(whole, seg *ingest.Dataset) []*Cut {
 			}
 		}
 		out[i] = c
-	}
-	return out
-}
-
-// cutShortSegments returns cut (see cutShortRuns) with the segments of
-// seg (fit.RestSegments of whole: name@t, t where the segment starts)
-// added that end before their run does (the inputs became active) or at
-// the end of a run that is itself cut short. cut itself is not changed.
-func cutShortSegments(cut map[string]bool, whole, seg *ingest.Dataset) map[string]bool {
-	end := make(map[string]float64, len(whole.Runs))
-	for i := range whole.Runs {
-		r := &whole.Runs[i]
-		if n := r.Len(); n > 0 {
-			end[r.Name] = r.T[n-1]
-		}
-	}
-	out := make(map[string]bool, len(cut))
-	for k, v := range cut {
-		out[k] = v
-	}
-	for i := range seg.Runs {
-		s := &seg.Runs[i]
-		j := strings.LastIndexByte(s.Name, '@')
-		n := s.Len()
-		if j < 0 || n == 0 {
-			continue
-		}
-		parent := s.Name[:j]
-		e, ok := end[parent]
-		if ok && (s.T[n-1] < e || cut[parent]) {
-			out[s.Name] = true
-		}
 	}
 	return out
 }

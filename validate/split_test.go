@@ -277,35 +277,57 @@ func TestRegionWordsRounding(t *testing.T) {
 	}
 }
 
-// TestCutShortRuns: the pieces of a recording split at gaps or jumps are
-// named name, name~1, ..., and each carries the recording's split
-// counts; every piece but the last ends at a split. Rest segments
-// (name@t) end early when their run continues after them.
-func TestCutShortRuns(t *testing.T) {
-	mk := func(name string, gaps, events int, t0, t1 float64) ingest.Run {
-		return ingest.Run{Name: name, Gaps: gaps, Events: events, T: []float64{t0, t1}, X: [][]float64{{0, 0}}}
+// TestSplitCuts: the pieces of a recording split at gaps or jumps are
+// named name, name~1, ... (ingest.Run's naming), and each carries the
+// recording's split counts; every piece but the last ends at a split,
+// at a jump when one of the recording's events lies between it and the
+// next kept piece, else at a gap. Rest segments (name@t) inherit their
+// recording's cut when they run to its end. The bookkeeping is checked
+// against ingest's documented naming, not against a computation.
+func TestSplitCuts(t *testing.T) {
+	mk := func(file, name string, gaps, events int, t0, t1 float64) ingest.Run {
+		return ingest.Run{Name: name, Source: ingest.Source{File: file}, Gaps: gaps, Events: events,
+			T: []float64{t0, t1}, X: [][]float64{{0, 0}}}
 	}
 	ds := &ingest.Dataset{Runs: []ingest.Run{
-		mk("a", 0, 0, 0, 10),                                               // whole
-		mk("b", 1, 1, 0, 3), mk("b~1", 1, 1, 3, 6), mk("b~2", 1, 1, 6, 10), // two splits
-		mk("c~x", 1, 0, 0, 1), // not a reader's piece name
-	}}
-	cut := cutShortRuns(ds)
-	for name, want := range map[string]bool{"a": false, "b": true, "b~1": true, "b~2": false, "c~x": false} {
-		if cut[name] != want {
-			t.Errorf("%s: cut short %v, want %v", name, cut[name], want)
+		mk("a.csv", "a.csv", 0, 0, 0, 10), // whole
+		// a gap from 3 s to 4 s, then a hit at 6.01 s
+		mk("rig=1/b.csv", "b.csv", 1, 1, 0, 3), mk("rig=1/b.csv", "b.csv~1", 1, 1, 4, 6), mk("rig=1/b.csv", "b.csv~2", 1, 1, 6.01, 10),
+		mk("rig=2/b.csv", "b.csv", 0, 0, 0, 10),                                      // the same base name, never split
+		mk("c~x.csv", "c~x.csv", 1, 0, 0, 1), mk("c~x.csv", "c~x.csv~1", 1, 0, 2, 3), // a '~' in the base name
+		mk("d.csv", "d.csv", 2, 0, 0, 1), mk("d.csv", "d.csv~2", 2, 0, 5, 6), // d.csv~1 left out (MinPiece)
+	},
+		// the hit moved v (a step) and x (a kink) at one sample
+		Events: []ingest.Event{{Run: "b.csv", Time: 6.01, State: "x", Kind: ingest.EventKink, Sigmas: 20},
+			{Run: "b.csv", Time: 6.01, State: "v", Kind: ingest.EventStep, Sigmas: 900}}}
+	got := SplitCuts(ds)
+	want := map[RunKey]Cut{
+		{"rig=1/b.csv", "b.csv"}:   {Reason: CutGap, Time: 3, Until: 4},
+		{"rig=1/b.csv", "b.csv~1"}: {Reason: CutJump, Time: 6.01, State: "v"},
+		{"c~x.csv", "c~x.csv"}:     {Reason: CutGap, Time: 1, Until: 2},
+		{"d.csv", "d.csv"}:         {Reason: CutGap, Time: 1, Until: 5},
+	}
+	if len(got) != len(want) {
+		t.Errorf("%d runs cut, want %d: %v", len(got), len(want), got)
+	}
+	for k, w := range want {
+		if c := got[k]; c == nil || *c != w {
+			t.Errorf("%v: cut %+v, want %+v", k, c, w)
 		}
 	}
-	seg := &ingest.Dataset{Runs: []ingest.Run{
-		mk("a@0", 0, 0, 0, 4), mk("a@6", 0, 0, 6, 10), mk("b~2@6", 1, 1, 6, 10), mk("b@0", 1, 1, 0, 3),
-	}}
-	got := cutShortSegments(cut, ds, seg)
-	for name, want := range map[string]bool{"a@0": true, "a@6": false, "b~2@6": false, "b@0": true, "b": true} {
-		if got[name] != want {
-			t.Errorf("segment %s: cut short %v, want %v", name, got[name], want)
-		}
+	seg := []ingest.Run{
+		mk("rig=1/b.csv", "b.csv~1@4", 1, 1, 4, 6),     // to its recording's end: the hit
+		mk("rig=1/b.csv", "b.csv~1@4.5", 1, 1, 4.5, 5), // ends before (an input's onset: not this cut)
+		mk("rig=1/b.csv", "b.csv~2@7", 1, 1, 7, 10),    // to the last piece's end
+		mk("rig=2/b.csv", "b.csv@0", 0, 0, 0, 10),      // the other file's
 	}
-	if len(cut) != 2 {
-		t.Errorf("cutShortSegments changed its argument: %v", cut)
+	parents := map[RunKey]*ingest.Run{}
+	for i := range ds.Runs {
+		parents[RunKey{ds.Runs[i].Source.File, ds.Runs[i].Name}] = &ds.Runs[i]
+	}
+	for i, w := range []*Cut{got[RunKey{"rig=1/b.csv", "b.csv~1"}], nil, nil, nil} {
+		if c := splitCutOf(got, parents, &seg[i]); c != w {
+			t.Errorf("segment %s of %s: cut %+v, want %+v", seg[i].Name, seg[i].Source.File, c, w)
+		}
 	}
 }

@@ -40,7 +40,12 @@
 // at entry by more than the tolerance and below every earlier chunk by
 // the margin of screen's unsettled; see [Screener]); runs that never
 // enter lie outside the claim
-// and are only counted. The worst violation is given with run, time and
+// and are only counted. A piece cut short before its recording ends
+// (every piece of a recording split at a gap or a one-sample jump but
+// the last, [SplitCuts]; or one that ends where an input left rest,
+// [InputCuts]) had no chance to settle: it carries a [Cut] and no
+// unsettled flag, runs_cut_short counts those that entered and had not
+// settled, and its rises and leaves are still checked. The worst violation is given with run, time and
 // state.
 //
 // # Scenario bound
@@ -62,7 +67,7 @@
 // invariance 1 and a linearisation that is not unstable; its strength is
 // asymptotic when V has a positive decrease margin, every run that
 // entered with at least two tail windows of samples after entry settled
-// (and there is one) and the linearisation is strictly stable, else stable (stability without convergence, as for a
+// (and there is one; pieces cut short are left out) and the linearisation is strictly stable, else stable (stability without convergence, as for a
 // lossless oscillator). The stable strength also needs V not to trend up
 // along the held-out runs that entered: neither over whole runs nor over
 // the later half of each from entry (where a slow growth shows once an
@@ -137,8 +142,10 @@ type RunScreen struct {
 	DecayRate    float64 `json:"decay_rate"`
 	DecaySamples int     `json:"decay_samples"`
 	// Cut, when not nil, says the run is a piece of a recording that
-	// ends where an input left rest (see [Options.Whole]): it had no
-	// chance to settle, so it carries no unsettled flag.
+	// ends before the recording does: where a gap or a one-sample jump
+	// (a hit) split it, or where an input left rest (see
+	// [Options.Whole]). It had no chance to settle, so it carries no
+	// unsettled flag; the last piece of a recording never has a Cut.
 	Cut *Cut `json:"cut,omitempty"`
 
 	// From the first sample inside the region (validation from entry):
@@ -166,16 +173,34 @@ type RunScreen struct {
 
 // Cut says why a run was cut short before it could settle.
 type Cut struct {
-	// Reason is "input": an input left rest at Time, right after the
-	// piece's last sample; Input names it (the one farthest from rest,
-	// relative to its spread over the recording, when several did).
+	// Reason is CutInput, CutJump or CutGap.
+	//
+	// CutInput: an input left rest at Time, right after the piece's
+	// last sample; Input names it (the one farthest from rest, relative
+	// to its spread over the recording, when several did).
+	//
+	// CutJump: a one-sample jump far beyond the noise (ingest.Event: a
+	// hit, a relay) split the recording at Time, the event's time (the
+	// first sample after a step, or a spike's dropped sample); State
+	// names the state that jumped (the one that stood out most, when
+	// several did at that sample), empty when not known.
+	//
+	// CutGap: the recording stops after the piece's last sample, at
+	// Time, and resumes at Until (0 when no later piece of it was kept):
+	// a time gap, or samples with a missing cell.
 	Reason string  `json:"reason"`
 	Time   float64 `json:"time"`
 	Input  string  `json:"input,omitempty"`
+	State  string  `json:"state,omitempty"`
+	Until  float64 `json:"until,omitempty"`
 }
 
-// CutInput is Cut.Reason for a piece that ends where an input left rest.
-const CutInput = "input"
+// Cut reasons.
+const (
+	CutInput = "input" // an input left rest
+	CutJump  = "jump"  // a one-sample jump split the recording
+	CutGap   = "gap"   // a gap split the recording
+)
 
 // ScreenOptions controls screening. A nil *ScreenOptions means defaults.
 type ScreenOptions struct {

@@ -51,7 +51,11 @@ time apart). The verdict on these runs follows the same rules as 'run'.
 With --inputs and a certificate at rest input, the runs are checked in
 pieces where the inputs rest; a piece that ends where an input comes on
 is not judged on settling (settled reads "cut: drive on at T s", --json
-gives the run's cut), its rises and leaves still are.
+gives the run's cut), its rises and leaves still are. So is a piece that
+ends where a one-sample jump (a hit) or a gap split its recording, every
+piece but the recording's last: settled reads "cut: jump in v at T s" or
+"cut: gap from T1 s to T2 s", and --json's cut has reason jump (time,
+state) or gap (time, until).
 A run that came to rest outside the region settled at another rest point:
 its unsettled flag says where (rest_point in --json) and, when a
 certificate-N.json or model.json beside the certificate has an
@@ -93,19 +97,20 @@ type stateJSON struct {
 }
 
 type checkSummary struct {
-	Runs               int          `json:"runs"`
-	Flagged            int          `json:"flagged"`
-	StartedInside      int          `json:"runs_started_inside"`
-	Settled            int          `json:"runs_settled"`
-	CutShort           int          `json:"runs_cut_short,omitempty"`
-	DecreaseFraction   float64      `json:"decrease_fraction"`
-	InvarianceFraction float64      `json:"invariance_fraction"`
-	ViolationBound     float64      `json:"violation_bound"`
-	Confidence         float64      `json:"confidence"`
-	Verdict            fit.Verdict  `json:"verdict"`
-	Strength           fit.Strength `json:"strength"`
-	Reason             string       `json:"reason"`
-	Caveat             string       `json:"caveat"`
+	Runs               int            `json:"runs"`
+	Flagged            int            `json:"flagged"`
+	StartedInside      int            `json:"runs_started_inside"`
+	Settled            int            `json:"runs_settled"`
+	CutShort           int            `json:"runs_cut_short,omitempty"`
+	CutShortBy         map[string]int `json:"runs_cut_short_by,omitempty"`
+	DecreaseFraction   float64        `json:"decrease_fraction"`
+	InvarianceFraction float64        `json:"invariance_fraction"`
+	ViolationBound     float64        `json:"violation_bound"`
+	Confidence         float64        `json:"confidence"`
+	Verdict            fit.Verdict    `json:"verdict"`
+	Strength           fit.Strength   `json:"strength"`
+	Reason             string         `json:"reason"`
+	Caveat             string         `json:"caveat"`
 }
 
 func runCheck(ctx context.Context, e *env, args []string) error {
@@ -184,6 +189,9 @@ func runCheck(ctx context.Context, e *env, args []string) error {
 		}
 	}
 	for _, r := range runs {
+		if r.Flags == nil {
+			r.Flags = []validate.Flag{} // the contract's list, as screen writes it: [] not null
+		}
 		doc.Runs = append(doc.Runs, checkRun{RunScreen: r, Partition: parts[r.File]})
 	}
 	if doc.Runs == nil {
@@ -199,7 +207,7 @@ func runCheck(ctx context.Context, e *env, args []string) error {
 			sum.Flagged++
 		}
 	}
-	sum.StartedInside, sum.Settled, sum.CutShort = val.StartInside, val.Settled, val.CutShort
+	sum.StartedInside, sum.Settled, sum.CutShort, sum.CutShortBy = val.StartInside, val.Settled, val.CutShort, val.CutShortBy
 	sum.DecreaseFraction, sum.InvarianceFraction = val.DecreaseFraction, val.InvarianceFraction
 	sum.ViolationBound, sum.Confidence = val.ViolationBound, val.Confidence
 	sum.Verdict, sum.Strength, sum.Reason, sum.Caveat = judged.Verdict, judged.Strength, judged.Reason, fit.Caveat

@@ -177,6 +177,11 @@ units than the certificate's, is an input error (exit 2). With --inputs
 and a certificate at rest input the runs are checked in pieces where the
 inputs rest, and a piece that ends where an input comes on is not judged
 on settling (settled reads "cut: drive on at T s"; --json gives its cut).
+Neither is a piece that ends where a one-sample jump (a hit) or a gap
+split its recording, every piece but the recording's last: settled reads
+"cut: jump in v at T s" or "cut: gap from T1 s to T2 s", and --json's cut
+has reason jump (time, state) or gap (time, until); the last piece must
+settle as any run.
 A run that came to rest outside the region settled at another rest point,
 named from the certificates and model.json beside --cert when they know it.
 
@@ -199,7 +204,10 @@ certificate that records the held-out decay rates); exit status 1 when any
 run is flagged. A certificate of strength stable does not claim that runs
 settle, so against it no run is flagged unsettled or slow (one warning says
 so). Rises and leaves say how far past the boundary, per state
-in the states' units; every run reports its decay rate. Files are read one
+in the states' units; every run reports its decay rate. Each piece of a
+recording split at a gap or a one-sample jump (a hit) is screened as a
+run, those before a split included: one that had not settled when the
+split came is flagged unsettled (check does not judge it on settling). Files are read one
 at a time per worker, so memory stays bounded however many are given.
 Folders are read with their key=value subfolders (logs/vehicle=17/
 day=2026-11-30/run.parquet), and each run reports its partition values.

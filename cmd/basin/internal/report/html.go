@@ -410,7 +410,7 @@ func valRows(v *fit.Validation, hc heldoutCount) []valRow {
 	inv := human.Share(stayed, base, u)
 	settled := fmt.Sprintf("%d of %d", v.Settled, base)
 	if v.CutShort > 0 {
-		settled += fmt.Sprintf(" (%d more cut short where an input left rest, not judged on settling)", v.CutShort)
+		settled += fmt.Sprintf("; %d more cut short %s, not judged on settling", v.CutShort, cutWhere(v))
 	}
 	if base == 0 {
 		inv = "no " + u + " entered the region"

@@ -149,19 +149,56 @@ func FirstEquilibrium(m *fit.Model) string {
 }
 
 // SettledText is a run's entry in a table's settled column: yes, no,
-// "another rest point" for a run that came to rest at another rest point (an
-// unsettled flag's RestPoint), or, for a piece that ends where an input left rest (r.Cut), that it was
-// cut short there, which input and when: "cut: drive on at 11.6 s".
+// "another rest point" for a run that came to rest at another rest point
+// (an unsettled flag's RestPoint), or, for a piece cut short before its
+// recording ends (r.Cut), where and why: "cut: jump in v at 6.03 s" (a
+// one-sample jump split the recording), "cut: gap from 7.99 s to 9 s"
+// (the log stops, and resumes), "cut: drive on at 11.6 s" (an input
+// left rest).
 func SettledText(r *validate.RunScreen) string {
 	switch {
 	case r.Settled:
 		return "yes"
 	case slices.ContainsFunc(r.Flags, func(f validate.Flag) bool { return f.RestPoint != nil }):
 		return "another rest point"
-	case r.Cut != nil && r.Cut.Input != "":
+	case r.Cut == nil:
+		return "no"
+	case r.Cut.Reason == validate.CutJump && r.Cut.State != "":
+		return fmt.Sprintf("cut: jump in %s at %s s", r.Cut.State, human.Num(r.Cut.Time))
+	case r.Cut.Reason == validate.CutJump:
+		return fmt.Sprintf("cut: jump at %s s", human.Num(r.Cut.Time))
+	case r.Cut.Reason == validate.CutGap && r.Cut.Until > r.Cut.Time:
+		return fmt.Sprintf("cut: gap from %s s to %s s", human.Num(r.Cut.Time), human.Num(r.Cut.Until))
+	case r.Cut.Reason == validate.CutGap:
+		return fmt.Sprintf("cut: gap after %s s", human.Num(r.Cut.Time))
+	case r.Cut.Input != "":
 		return fmt.Sprintf("cut: %s on at %s s", r.Cut.Input, human.Num(r.Cut.Time))
-	case r.Cut != nil:
-		return fmt.Sprintf("cut: an input on at %s s", human.Num(r.Cut.Time))
 	}
-	return "no"
+	return fmt.Sprintf("cut: an input on at %s s", human.Num(r.Cut.Time))
+}
+
+// cutWhere says where the held-out runs that v counts as cut short
+// (CutShort) were cut, for the held-out lines: "at a one-sample jump"
+// (a hit), or, for several reasons, "(2 at a one-sample jump, 1 at a
+// gap in the log)". A certificate written before CutShortBy counted only
+// pieces cut where an input left rest.
+func cutWhere(v *fit.Validation) string {
+	words := []struct{ reason, where string }{
+		{validate.CutJump, "at a one-sample jump"},
+		{validate.CutGap, "at a gap in the log"},
+		{validate.CutInput, "where an input left rest"},
+	}
+	var parts []string
+	for _, w := range words {
+		if n := v.CutShortBy[w.reason]; n > 0 {
+			if n == v.CutShort {
+				return w.where
+			}
+			parts = append(parts, fmt.Sprintf("%d %s", n, w.where))
+		}
+	}
+	if len(parts) == 0 {
+		return "where an input left rest"
+	}
+	return "(" + strings.Join(parts, ", ") + ")"
 }

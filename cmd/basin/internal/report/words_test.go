@@ -2,6 +2,7 @@ package report
 
 import (
 	"bytes"
+	"fmt"
 	"html"
 	"regexp"
 	"strings"
@@ -101,8 +102,10 @@ func TestWords(t *testing.T) {
 // TestRestAndCutWords: an unsettled flag that came to rest at another
 // rest point says so, where, and which, not that the run had not
 // settled; the settled column reads "another rest point" for it and
-// "cut: drive on at 11.6 s" for a piece cut short by an input's onset
-// (common practice: a table cell says what happened, the flag why).
+// "cut: drive on at 11.6 s" for a piece cut short by an input's onset,
+// "cut: jump in v at 6.03 s" for one cut at a hit, "cut: gap from 7.99 s
+// to 9 s" for one cut at a gap; the held-out lines say where the pieces
+// not judged on settling were cut (common practice: a table cell says what happened, the flag why).
 func TestRestAndCutWords(t *testing.T) {
 	c := mustCert(fixtureCertJSON)
 	rest := validate.Flag{Kind: validate.FlagUnsettled, Time: 14.99, Excess: 33, RestPoint: []float64{-1, 0.0003}, RestName: "certificate-2.json's rest point"}
@@ -128,9 +131,55 @@ func TestRestAndCutWords(t *testing.T) {
 		{validate.RunScreen{Settled: true}, "yes"},
 		{validate.RunScreen{Flags: []validate.Flag{plain}}, "no"},
 		{validate.RunScreen{Cut: &validate.Cut{Reason: validate.CutInput, Time: 11.6, Input: "drive"}}, "cut: drive on at 11.6 s"},
+		{validate.RunScreen{Cut: &validate.Cut{Reason: validate.CutJump, Time: 6.03, State: "v"}}, "cut: jump in v at 6.03 s"},
+		{validate.RunScreen{Cut: &validate.Cut{Reason: validate.CutJump, Time: 6.03}}, "cut: jump at 6.03 s"},
+		{validate.RunScreen{Cut: &validate.Cut{Reason: validate.CutGap, Time: 7.99, Until: 9}}, "cut: gap from 7.99 s to 9 s"},
+		{validate.RunScreen{Cut: &validate.Cut{Reason: validate.CutGap, Time: 7.99}}, "cut: gap after 7.99 s"},
+		// a piece cut short that settled all the same says so
+		{validate.RunScreen{Settled: true, Cut: &validate.Cut{Reason: validate.CutJump, Time: 6.03, State: "v"}}, "yes"},
 	} {
 		if got := SettledText(&tc.r); got != tc.want {
 			t.Errorf("settled column %q, want %q", got, tc.want)
 		}
+	}
+}
+
+// TestCutWhere: the held-out lines say where the pieces not judged on
+// settling were cut, by reason, and a certificate written before the
+// reasons were counted had only input cuts.
+func TestCutWhere(t *testing.T) {
+	for _, tc := range []struct {
+		v    fit.Validation
+		want string
+	}{
+		{fit.Validation{CutShort: 2}, "where an input left rest"},
+		{fit.Validation{CutShort: 2, CutShortBy: map[string]int{"jump": 2}}, "at a one-sample jump"},
+		{fit.Validation{CutShort: 1, CutShortBy: map[string]int{"gap": 1}}, "at a gap in the log"},
+		{fit.Validation{CutShort: 3, CutShortBy: map[string]int{"gap": 1, "jump": 2}}, "(2 at a one-sample jump, 1 at a gap in the log)"},
+	} {
+		if got := cutWhere(&tc.v); got != tc.want {
+			t.Errorf("%+v: %q, want %q", tc.v.CutShortBy, got, tc.want)
+		}
+	}
+}
+
+// TestHeldoutCutLines: the summary's held-out line and the page's
+// settled row say how many entered runs were cut short and where, after
+// the count that settled (common practice: a count says what it leaves
+// out).
+func TestHeldoutCutLines(t *testing.T) {
+	c := mustCert(fixtureCertJSON)
+	v := &fit.Validation{HeldoutRuns: 6, EnteredRuns: 6, Settled: 3, InvarianceFraction: 1, Pairs: 100, DecreaseFraction: 1,
+		CutShort: 3, CutShortBy: map[string]int{"jump": 2, "gap": 1}}
+	line := heldoutPieces(c, v, heldoutCount{Runs: 6})
+	if want := "of the 6 runs that entered the region, 6 stayed inside and 3 settled, 3 cut short (2 at a one-sample jump, 1 at a gap in the log) before they could settle"; !strings.Contains(line, want) {
+		t.Errorf("held-out line %q lacks %q", line, want)
+	}
+	found := false
+	for _, r := range valRows(v, heldoutCount{Runs: 6}) {
+		found = found || strings.Contains(fmt.Sprint(r), "3 of 6; 3 more cut short (2 at a one-sample jump, 1 at a gap in the log), not judged on settling")
+	}
+	if !found {
+		t.Errorf("no settled row names the cut pieces: %+v", valRows(v, heldoutCount{Runs: 6}))
 	}
 }
