@@ -305,6 +305,14 @@ func Field(ctx context.Context, ds *ingest.Dataset, opts *FieldOptions) (*Model,
 		ce, sp := inputScale(runs, k)
 		sc.centre, sc.spread = append(sc.centre, ce), append(sc.spread, sp)
 	}
+	if q > 0 {
+		for k, share := range inputExplained(m, runs, q, o.Degree) {
+			if share >= feedbackShare {
+				return nil, errorf(ErrFeedback, "input %q follows the states: a degree-%d polynomial in them explains %.4g%% of its variance, as a feedback controller's command does; the field with the input held at rest cannot be told from the controller's part in these logs. Give the states alone (ingest.Options.States, without %q) and no inputs to certify the loop as logged, controller included, or log runs with a test signal added to the input",
+					ds.Inputs[k].Name, o.Degree, 100*share, ds.Inputs[k].Name)
+			}
+		}
+	}
 	cols := make([][][]float64, n) // cols[j][r] = runs[r].X[j]
 	for j := range cols {
 		cols[j] = make([][]float64, len(runs))
@@ -1137,5 +1145,55 @@ func inputSteps(dst []int, run *ingest.Run, reach, steps int) []int {
 	if len(dst)*span > L/2 {
 		return dst[:0]
 	}
+	// Nor may the rows left out be most of those where an input is away
+	// from its usual value (its run's median): a pulse shorter than a
+	// derivative window would leave the fit no row with the input on,
+	// and its terms no data at all (a 0.5 s pulse against windows of
+	// 0.6 s made the library singular). Such a run keeps every row, and
+	// the edges' bias with it.
+	active, kept := 0, 0
+	for _, u := range run.U {
+		if len(u) != L {
+			continue
+		}
+		med := order.HighMedian(order.Sorted(d, u))
+		for i := range L {
+			if u[i] == med || u[i] != u[i] {
+				continue
+			}
+			active++
+			if !spoils(dst, i, reach, span) {
+				kept++
+			}
+		}
+	}
+	if 2*kept < active {
+		return dst[:0]
+	}
 	return dst
+}
+
+// spoils says a step in steps (ascending) lies in row i's window: k in [i-reach+1, i+reach] for a
+// derivative of reach samples each side, or, for the integral form
+// (reach 0), in the window of span steps that holds i.
+func spoils(steps []int, i, reach, span int) bool {
+	for _, k := range steps {
+		if reach > 0 {
+			if k > i+reach {
+				return false
+			}
+			if k >= i-reach+1 {
+				return true
+			}
+			continue
+		}
+		a := i - i%span // the integral window (a, a+span] holding sample i
+		if k > a+span {
+			return false
+		}
+		if k > a {
+			return true
+		}
+	}
+	return false
 }

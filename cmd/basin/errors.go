@@ -38,7 +38,7 @@ func usagef(format string, a ...any) error { return &usageError{fmt.Sprintf(form
 // files or options, not failures of basin: they exit 2.
 var badInput = []error{
 	ingest.ErrEmpty, ingest.ErrFormat, ingest.ErrNoFiles, ingest.ErrNoTime, ingest.ErrNoStates, ingest.ErrWindow,
-	fit.ErrTooFewSamples, fit.ErrBudget, fit.ErrConstant, fit.ErrCollinear, fit.ErrShortRun, fit.ErrMismatch, fit.ErrOptions,
+	fit.ErrTooFewSamples, fit.ErrBudget, fit.ErrConstant, fit.ErrCollinear, fit.ErrFeedback, fit.ErrShortRun, fit.ErrMismatch, fit.ErrOptions,
 	validate.ErrOptions, export.ErrNoV, export.ErrOption,
 }
 
@@ -47,7 +47,7 @@ var badInput = []error{
 var optionFields = []struct{ pkg, field, flag string }{
 	{"ingest", "Options.TimeCol", "--time-col"}, {"ingest", "Options.Rate", "--rate"},
 	{"ingest", "Options.RunCol", "--run-col"}, {"ingest", "Options.States", "--states"},
-	{"ingest", "Options.Manifest", "--manifest"},
+	{"ingest", "Options.Manifest", "--manifest"}, {"ingest", "Options.Inputs", "--inputs"},
 	{"fit", "FieldOptions.Degree", "--degree"}, {"fit", "FieldOptions.InputDegree", "--input-degree"}, {"fit", "FieldOptions.Folds", "--select-folds"},
 	{"fit", "FieldOptions.Derivative", "--deriv"}, {"fit", "FieldOptions.Bootstrap", "--bootstrap"},
 	{"fit", "FieldOptions.MaxMemory", "--max-memory"},
