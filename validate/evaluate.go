@@ -556,7 +556,7 @@ func decide(cert *fit.Certificate, val *fit.Validation, runs []RunScreen, eig []
 		}
 	}
 	if long > 0 && settled == long && cert.Margin > 0 && !cert.NonRise && lin == linStable {
-		return fit.Certified, fit.Asymptotic, fit.ReasonCertified, fmt.Sprintf("V did not rise beyond the noise tolerance on %s of %d held-out pairs inside the region; %s stayed inside and settled.", sharePct(val.DecreaseFraction), val.Pairs, enteredRuns(val.EnteredRuns))
+		return fit.Certified, fit.Asymptotic, fit.ReasonCertified, fmt.Sprintf("V did not rise beyond the noise tolerance on %s of %d held-out pairs inside the region; %s.", sharePct(val.DecreaseFraction), val.Pairs, settledWords(val.EnteredRuns, long))
 	}
 	// The weaker claim still needs V not to drift up: a run that entered
 	// and ends with V higher than at entry by more than the tolerance
@@ -645,6 +645,27 @@ func enteredRuns(k int) string {
 		return "the one held-out run that entered"
 	}
 	return fmt.Sprintf("all %d held-out runs that entered", k)
+}
+
+// settledWords says that the entered held-out runs stayed inside and
+// that the long ones of them settled: "all 10 held-out runs that entered
+// stayed inside and settled", or, when only long of the entered were
+// long enough after entry (or not cut short) to judge, "all 10 held-out
+// runs that entered stayed inside; the 9 long enough after entry to judge
+// settled (the other was too short or cut short)".
+func settledWords(entered, long int) string {
+	if long >= entered {
+		return enteredRuns(entered) + " stayed inside and settled"
+	}
+	other := "the other was"
+	if entered-long > 1 {
+		other = fmt.Sprintf("the other %d were", entered-long)
+	}
+	judged := fmt.Sprintf("the %d long enough after entry to judge settled", long)
+	if long == 1 {
+		judged = "the one long enough after entry to judge settled"
+	}
+	return fmt.Sprintf("%s stayed inside; %s (%s too short or cut short)", enteredRuns(entered), judged, other)
 }
 
 // Evaluate splits ds by run, fits the model and certificate on the fit
@@ -924,12 +945,16 @@ func combineFolds(rel *fit.Certificate, certs []*fit.Certificate) {
 	var cert, rej, abstain int
 	var firstRej *fit.Certificate
 	strength := fit.Asymptotic
-	for _, c := range certs {
+	weak := -1 // the first fold certified only as stable
+	for i, c := range certs {
 		switch c.Verdict {
 		case fit.Certified:
 			cert++
 			if c.Strength == fit.Stable {
 				strength = fit.Stable
+				if weak < 0 {
+					weak = i
+				}
 			}
 		case fit.Rejected:
 			rej++
@@ -964,7 +989,9 @@ func combineFolds(rel *fit.Certificate, certs []*fit.Certificate) {
 		}
 		rel.Strength = strength
 		if strength == fit.Stable && !saysStable {
-			rel.Reason += " Another fold's certificate claims only stability, so this one does too."
+			// name the fold and its reason: the user cannot find it
+			// elsewhere (FoldVerdicts records no strength)
+			rel.Reason += fmt.Sprintf(" Fold %d of %d claims only stability (%s), so this one does too.", weak+1, k, strings.TrimSuffix(certs[weak].Reason, "."))
 		}
 	case 2*rej > k:
 		if rel.Verdict != fit.Rejected {

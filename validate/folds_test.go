@@ -47,6 +47,25 @@ func TestCombineFolds(t *testing.T) {
 	}
 }
 
+// TestCombineFoldsStable: a fold certified only as stable makes the
+// released certificate stable too, and the reason names that fold and
+// why (the user finds it nowhere else).
+func TestCombineFoldsStable(t *testing.T) {
+	var certs []*fit.Certificate
+	for i := range 3 {
+		c := &fit.Certificate{Verdict: fit.Certified, Strength: fit.Asymptotic, Reason: "settled.", Validation: &fit.Validation{}}
+		if i == 1 {
+			c.Strength, c.Reason = fit.Stable, "runs stayed inside but 2 did not settle."
+		}
+		certs = append(certs, c)
+	}
+	combineFolds(certs[0], certs)
+	want := "settled. Fold 2 of 3 claims only stability (runs stayed inside but 2 did not settle), so this one does too. Folds: 3 of 3 agree."
+	if certs[0].Strength != fit.Stable || certs[0].Reason != want {
+		t.Errorf("strength %s, reason %q; want stable, %q", certs[0].Strength, certs[0].Reason, want)
+	}
+}
+
 // TestVerdictSeeds: with every fold held out once (the default) seeds 1
 // to 10 give the same verdict on the same data, the damped linear
 // oscillator of [Strogatz1994] §5.1 at 1% noise.

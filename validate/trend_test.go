@@ -174,3 +174,22 @@ func TestDecideClearGrowth(t *testing.T) {
 	}
 	t.Logf("%s/%s: %s", c.Verdict, c.Strength, c.Reason)
 }
+
+// TestSettledWords: the certified reason says every entered run settled
+// only when every one of them was judged (long enough after entry, not
+// cut short); else it counts the judged ones, as the held-out line does.
+func TestSettledWords(t *testing.T) {
+	for _, tc := range []struct {
+		entered, long int
+		want          string
+	}{
+		{10, 10, "all 10 held-out runs that entered stayed inside and settled"},
+		{1, 1, "the one held-out run that entered stayed inside and settled"},
+		{10, 9, "all 10 held-out runs that entered stayed inside; the 9 long enough after entry to judge settled (the other was too short or cut short)"},
+		{5, 1, "all 5 held-out runs that entered stayed inside; the one long enough after entry to judge settled (the other 4 were too short or cut short)"},
+	} {
+		if got := settledWords(tc.entered, tc.long); got != tc.want {
+			t.Errorf("settledWords(%d, %d) = %q, want %q", tc.entered, tc.long, got, tc.want)
+		}
+	}
+}

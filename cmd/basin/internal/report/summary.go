@@ -491,7 +491,11 @@ func heldoutPieces(c *fit.Certificate, v *fit.Validation, hc heldoutCount) strin
 		stayed := int(math.Round(v.InvarianceFraction * float64(base)))
 		fmt.Fprintf(&b, "; of the %s that %s, %d stayed inside and %d settled", human.Count(base, unit), how, stayed, v.Settled)
 		if v.CutShort > 0 {
-			fmt.Fprintf(&b, ", %d cut short %s before they could settle", v.CutShort, cutWhere(v))
+			they := "they"
+			if v.CutShort == 1 {
+				they = "it"
+			}
+			fmt.Fprintf(&b, ", %d cut short %s before %s could settle", v.CutShort, cutWhere(v), they)
 		}
 		if how == "entered the region" && v.StartInside > 0 {
 			fmt.Fprintf(&b, " (%d started inside)", v.StartInside)

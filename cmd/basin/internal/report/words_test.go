@@ -175,6 +175,11 @@ func TestHeldoutCutLines(t *testing.T) {
 	if want := "of the 6 runs that entered the region, 6 stayed inside and 3 settled, 3 cut short (2 at a one-sample jump, 1 at a gap in the log) before they could settle"; !strings.Contains(line, want) {
 		t.Errorf("held-out line %q lacks %q", line, want)
 	}
+	one := *v
+	one.Settled, one.CutShort, one.CutShortBy = 5, 1, map[string]int{"gap": 1}
+	if line, want := heldoutPieces(c, &one, heldoutCount{Runs: 6}), "5 settled, 1 cut short at a gap in the log before it could settle"; !strings.Contains(line, want) {
+		t.Errorf("held-out line %q lacks %q", line, want)
+	}
 	found := false
 	for _, r := range valRows(v, heldoutCount{Runs: 6}) {
 		found = found || strings.Contains(fmt.Sprint(r), "3 of 6; 3 more cut short (2 at a one-sample jump, 1 at a gap in the log), not judged on settling")
