@@ -254,7 +254,10 @@ func Check(ctx context.Context, cert *fit.Certificate, ds *ingest.Dataset, opts 
 		s.Screen(r, ds.Runs[i].Source.File, &ds.Runs[i])
 		if k := slices.IndexFunc(r.Flags, func(f Flag) bool { return f.Kind == FlagUnsettled }); k >= 0 {
 			// came to rest outside the region: at another rest point
-			if ok, pt := ingest.Settles(&ds.Runs[i]); ok && !s.Inside(pt) {
+			// (without a region, nowhere is outside it: a run at rest on
+			// the equilibrium is not elsewhere)
+			hasRegion := len(cert.V.Exponents) > 0 && cert.Level > 0
+			if ok, pt := ingest.Settles(&ds.Runs[i]); ok && hasRegion && !s.Inside(pt) {
 				r.Flags[k].RestPoint = pt
 			}
 		}

@@ -87,6 +87,19 @@ func TestCheckOtherRest(t *testing.T) {
 			t.Errorf("%s: unsettled flag %+v, want one without a rest point", runs[i].Run, f)
 		}
 	}
+	// Without a V there is no region, so nowhere is outside it: the run
+	// at rest in the other well is not said to be at another rest point.
+	noV := *cert
+	noV.V, noV.Level, noV.Found, noV.Verdict, noV.Strength = poly.Poly{}, 0, false, fit.Inconclusive, fit.NoClaim
+	if _, nv, err := Check(context.Background(), &noV, ds, nil); err != nil {
+		t.Fatal(err)
+	} else {
+		for i := range nv {
+			if f := unsettled(&nv[i]); f != nil && f.RestPoint != nil {
+				t.Errorf("no V, %s: unsettled flag with a rest point %v", nv[i].Run, f.RestPoint)
+			}
+		}
+	}
 	// Naming: the other well names it; the saddle, two scale units from
 	// it against four from the certificate's equilibrium, does not.
 	for _, c := range []struct {
