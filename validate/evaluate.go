@@ -947,6 +947,7 @@ func combineFolds(rel *fit.Certificate, certs []*fit.Certificate) {
 	}
 	var cert, rej, abstain int
 	var firstRej *fit.Certificate
+	firstRejAt := 0
 	strength := fit.Asymptotic
 	weak := -1 // the first fold certified only as stable
 	for i, c := range certs {
@@ -962,7 +963,7 @@ func combineFolds(rel *fit.Certificate, certs []*fit.Certificate) {
 		case fit.Rejected:
 			rej++
 			if firstRej == nil {
-				firstRej = c
+				firstRej, firstRejAt = c, i
 			}
 		default:
 			switch c.ReasonKind {
@@ -981,9 +982,9 @@ func combineFolds(rel *fit.Certificate, certs []*fit.Certificate) {
 		// strength stable, which already says so (Decide's wording).
 		saysStable := rel.Verdict == fit.Certified && rel.Strength == fit.Stable
 		if rel.Verdict != fit.Certified {
-			for _, c := range certs {
+			for i, c := range certs {
 				if c.Verdict == fit.Certified {
-					rel.Reason = "Another fold: " + c.Reason
+					rel.Reason = fmt.Sprintf("In fold %d of %d: %s", i+1, k, c.Reason)
 					saysStable = c.Strength == fit.Stable
 					break
 				}
@@ -999,7 +1000,9 @@ func combineFolds(rel *fit.Certificate, certs []*fit.Certificate) {
 	case 2*rej > k:
 		if rel.Verdict != fit.Rejected {
 			rel.Verdict, rel.Strength, rel.ReasonKind = fit.Rejected, fit.NoClaim, firstRej.ReasonKind
-			rel.Reason = firstRej.Reason
+			// another fold's reason cites its own model (its
+			// eigenvalues), not the released one in model.json
+			rel.Reason = fmt.Sprintf("In fold %d of %d (a model fitted without that fold's held-out runs): %s", firstRejAt+1, k, firstRej.Reason)
 		}
 	default:
 		if rel.Verdict != fit.Inconclusive || cert > 0 {

@@ -2,6 +2,7 @@ package validate
 
 import (
 	"context"
+	"fmt"
 	"strings"
 	"testing"
 
@@ -63,6 +64,20 @@ func TestCombineFoldsStable(t *testing.T) {
 	want := "settled. Fold 2 of 3 claims only stability (runs stayed inside but 2 did not settle), so this one does too. Folds: 3 of 3 agree."
 	if certs[0].Strength != fit.Stable || certs[0].Reason != want {
 		t.Errorf("strength %s, reason %q; want stable, %q", certs[0].Strength, certs[0].Reason, want)
+	}
+}
+
+// TestCombineFoldsRejectedReason: rejected by most folds while the
+// released one was not, the reason is another fold's, and it says which:
+// its eigenvalues are that fold's model's, not the released model's.
+func TestCombineFoldsRejectedReason(t *testing.T) {
+	var certs []*fit.Certificate
+	for i, v := range []fit.Verdict{fit.Certified, fit.Rejected, fit.Rejected, fit.Rejected, fit.Inconclusive} {
+		certs = append(certs, &fit.Certificate{Verdict: v, Strength: fit.Asymptotic, Reason: fmt.Sprintf("reason %d.", i), Validation: &fit.Validation{}})
+	}
+	combineFolds(certs[0], certs)
+	if want := "In fold 2 of 5 (a model fitted without that fold's held-out runs): reason 1."; certs[0].Verdict != fit.Rejected || !strings.HasPrefix(certs[0].Reason, want) {
+		t.Errorf("%s: %q, want rejected with %q", certs[0].Verdict, certs[0].Reason, want)
 	}
 }
 
