@@ -122,8 +122,13 @@ type colJob struct {
 
 // colScratch is one worker's reused buffers.
 type colScratch struct {
-	dict  []float64 // plainFloats' dictionary
+	dict  []float64 // plainFloats' dictionary, when it cannot be read in place
 	chunk []byte
+	// pad is where in chunk a float64 chunk with a dictionary page is
+	// read: the offset that put the last one's dictionary values on an
+	// 8-byte boundary (a column's page headers keep their length from
+	// row group to row group), so plainFloats reads them in place
+	pad   int
 	hdr   []byte // readPlainInto's page header
 	defs  []int16
 	i32   []int32
@@ -274,10 +279,14 @@ func (tb *table) readGroup(f *os.File, pr *file.Reader, jb *colJob, c Column,
 			return rows, nil
 		}
 	}
-	if cap(sc.chunk) < int(clen) {
-		sc.chunk = make([]byte, clen)
+	pad := 0
+	if jb.kind == kindFloat64 && cc.HasDictionaryPage() {
+		pad = sc.pad
 	}
-	buf := sc.chunk[:clen]
+	if cap(sc.chunk) < pad+int(clen) {
+		sc.chunk = make([]byte, int(clen)+8) // room for any pad
+	}
+	buf := sc.chunk[pad : pad+int(clen)]
 	if n, err := f.ReadAt(buf, start); n < len(buf) {
 		if err == nil || err == io.EOF { // the footer's chunk lies past the end now
 			return 0, &ParseError{File: tb.file, Err: fmt.Errorf("%w: the file changed while it was read", ErrFormat)}
@@ -292,7 +301,7 @@ func (tb *table) readGroup(f *os.File, pr *file.Reader, jb *colJob, c Column,
 		return 0, bad("row group %d: %v", i, err)
 	}
 	if jb.kind == kindFloat64 && descr.MaxDefinitionLevel() == 0 && cc.Compression() == compress.Codecs.Uncompressed {
-		if ok, err := tb.plainFloats(buf, jb.dst[off:off+rows], jb.base+off, &sc.dict); err != nil {
+		if ok, err := tb.plainFloats(buf, jb.dst[off:off+rows], jb.base+off, sc); err != nil {
 			pe := err.(*ParseError)
 			pe.Column, pe.Name = jb.j+1, c.Name
 			return 0, pe

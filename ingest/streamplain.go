@@ -26,9 +26,14 @@ var littleEndian = binary.NativeEndian.Uint16([]byte{1, 0}) == 1
 // decodes the chunk with Arrow's reader, which reports what is wrong.
 // The page headers have been checked by checkChunk. An infinite value is
 // a *ParseError on row row0+k+1.
-func (tb *table) plainFloats(buf []byte, dst []float64, row0 int, dict *[]float64) (ok bool, err error) {
+//
+// The dictionary's values are used where they lie in buf when they
+// start on an 8-byte boundary (little-endian, as memory holds them),
+// else copied to sc.dict; sc.pad is set to the offset in sc.chunk that
+// would have aligned them (see colScratch), for the next chunk.
+func (tb *table) plainFloats(buf []byte, dst []float64, row0 int, sc *colScratch) (ok bool, err error) {
 	pos, k := 0, 0
-	*dict = (*dict)[:0]
+	var dict []float64 // the dictionary: in buf, or in sc.dict
 	// every value finite: the dictionary's (a dictionary-encoded value
 	// is one of them) and the plain pages' values, each checked once
 	finite := true
@@ -47,19 +52,28 @@ func (tb *table) plainFloats(buf []byte, dst []float64, row0 int, dict *[]float6
 		case h.typ == pageDictionary:
 			// encoding is not parsed for dictionary pages: it is PLAIN
 			// (or PLAIN_DICTIONARY, the same bytes) for float64
-			if len(*dict) > 0 || int64(len(body)) != 8*int64(h.values) {
+			if len(dict) > 0 || int64(len(body)) != 8*int64(h.values) {
 				return false, nil
 			}
-			d := slices.Grow((*dict)[:0], int(h.values))[:h.values]
-			if littleEndian && len(d) > 0 {
+			var d []float64
+			if mis := int(uintptr(unsafe.Pointer(unsafe.SliceData(body))) % 8); littleEndian && len(body) > 0 && mis == 0 {
 				// the page holds the values' little-endian bytes, as memory does
-				copy(unsafe.Slice((*byte)(unsafe.Pointer(&d[0])), 8*len(d)), body)
+				d = unsafe.Slice((*float64)(unsafe.Pointer(&body[0])), h.values)
 			} else {
-				for i := range d {
-					d[i] = math.Float64frombits(binary.LittleEndian.Uint64(body[8*i:]))
+				if len(body) > 0 {
+					sc.pad = (sc.pad + 8 - mis) % 8
 				}
+				d = slices.Grow(sc.dict[:0], int(h.values))[:h.values]
+				if littleEndian && len(d) > 0 {
+					copy(unsafe.Slice((*byte)(unsafe.Pointer(&d[0])), 8*len(d)), body)
+				} else {
+					for i := range d {
+						d[i] = math.Float64frombits(binary.LittleEndian.Uint64(body[8*i:]))
+					}
+				}
+				sc.dict = d
 			}
-			*dict = d
+			dict = d
 			finite = allFinite(d)
 			continue
 		case h.typ == pageData:
@@ -88,7 +102,7 @@ func (tb *table) plainFloats(buf []byte, dst []float64, row0 int, dict *[]float6
 				finite = false
 			}
 		case encPlainDict, encRLEDict:
-			if len(*dict) == 0 || !unpackDict(out, body, *dict) {
+			if len(dict) == 0 || !unpackDict(out, body, dict) {
 				return false, nil
 			}
 		default:

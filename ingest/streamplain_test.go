@@ -1,10 +1,20 @@
 package ingest
 
 import (
+	"bytes"
 	"encoding/binary"
 	"math"
 	"math/rand/v2"
+	"slices"
 	"testing"
+	"time"
+
+	"github.com/apache/arrow/go/v15/arrow"
+	"github.com/apache/arrow/go/v15/arrow/array"
+	"github.com/apache/arrow/go/v15/arrow/memory"
+	"github.com/apache/arrow/go/v15/parquet"
+	"github.com/apache/arrow/go/v15/parquet/file"
+	"github.com/apache/arrow/go/v15/parquet/pqarrow"
 )
 
 // unpackDictRef decodes a dictionary-encoded data page body as the
@@ -203,4 +213,120 @@ func BenchmarkUnpackDict(b *testing.B) {
 			}
 		})
 	}
+}
+
+// dictChunk writes n distinct float64 values as one row group with
+// Arrow's writer (dictionary encoding by default, uncompressed) and
+// returns the column chunk's bytes and the values.
+func dictChunk(t testing.TB, n int) ([]byte, []float64) {
+	t.Helper()
+	rng := rand.New(rand.NewPCG(4, 4))
+	v := make([]float64, n)
+	for i := range v {
+		v[i] = float64(i)*1e-3 + 1e-4*rng.NormFloat64()
+	}
+	sc := arrow.NewSchema([]arrow.Field{{Name: "x", Type: arrow.PrimitiveTypes.Float64}}, nil)
+	rb := array.NewRecordBuilder(memory.NewGoAllocator(), sc)
+	defer rb.Release()
+	rb.Field(0).(*array.Float64Builder).AppendValues(v, nil)
+	rec := rb.NewRecord()
+	defer rec.Release()
+	var buf bytes.Buffer
+	props := parquet.NewWriterProperties(parquet.WithMaxRowGroupLength(int64(n)), parquet.WithDictionaryDefault(true))
+	w, err := pqarrow.NewFileWriter(sc, &buf, props, pqarrow.DefaultWriterProps())
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := w.Write(rec); err != nil {
+		t.Fatal(err)
+	}
+	if err := w.Close(); err != nil {
+		t.Fatal(err)
+	}
+	pr, err := file.NewParquetReader(bytes.NewReader(buf.Bytes()))
+	if err != nil {
+		t.Fatal(err)
+	}
+	cc, err := pr.MetaData().RowGroup(0).ColumnChunk(0)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !cc.HasDictionaryPage() {
+		t.Fatal("no dictionary page")
+	}
+	start := min(cc.DataPageOffset(), cc.DictionaryPageOffset())
+	return buf.Bytes()[start : start+cc.TotalCompressedSize()], v
+}
+
+// TestPlainFloatsInPlace checks that plainFloats decodes a dictionary
+// chunk (Arrow's writer) to the values written, with its dictionary read
+// copied (a byte off the boundary) and in place (at the pad it learnt),
+// and that the pad it learns aligns the dictionary.
+func TestPlainFloatsInPlace(t *testing.T) {
+	chunk, want := dictChunk(t, 5000)
+	tb := &table{file: "t.parquet"}
+	var sc colScratch
+	mem := make([]byte, len(chunk)+16)
+	got := make([]float64, len(want))
+	for trial, off := range []int{1, -1, 0} { // misaligned, at the learnt pad, then at 0
+		if off < 0 {
+			off = sc.pad
+		}
+		sc.pad = off // where readGroup reads the chunk
+		buf := mem[off : off+len(chunk)]
+		copy(buf, chunk)
+		clear(got)
+		sc.dict = sc.dict[:0]
+		ok, err := tb.plainFloats(buf, got, 0, &sc)
+		if !ok || err != nil {
+			t.Fatalf("trial %d: ok %v, err %v", trial, ok, err)
+		}
+		for i := range got {
+			if math.Float64bits(got[i]) != math.Float64bits(want[i]) {
+				t.Fatalf("trial %d (offset %d): value %d = %v, want %v", trial, off, i, got[i], want[i])
+			}
+		}
+		if trial == 1 && len(sc.dict) > 0 {
+			t.Errorf("at the learnt pad %d the dictionary was copied", off)
+		}
+	}
+}
+
+// BenchmarkPlainFloats decodes a dictionary chunk of 64 Ki distinct
+// values (a row group of Arrow's writer) with its dictionary read in
+// place ("in-place") and, a byte off the boundary, copied out first as
+// before ("copy"), alternately in one loop; it reports each one's
+// median ns per chunk and the median of the per-pair ratios (x-copy).
+func BenchmarkPlainFloats(b *testing.B) {
+	chunk, _ := dictChunk(b, 1<<16)
+	tb := &table{file: "b.parquet"}
+	var sc colScratch
+	mem := make([]byte, len(chunk)+16)
+	dst := make([]float64, 1<<16)
+	copy(mem, chunk)
+	tb.plainFloats(mem[:len(chunk)], dst, 0, &sc) // learns the pad
+	aligned := mem[sc.pad : sc.pad+len(chunk)]
+	copy(aligned, chunk)
+	off := append([]byte(nil), mem[:len(chunk)+16]...)
+	mis := off[(sc.pad+1)%8 : (sc.pad+1)%8+len(chunk)]
+	copy(mis, chunk)
+	var now, before, ratio []float64
+	for b.Loop() {
+		pad := sc.pad
+		t0 := time.Now()
+		okA, _ := tb.plainFloats(aligned, dst, 0, &sc)
+		t1 := time.Now()
+		okB, _ := tb.plainFloats(mis, dst, 0, &sc)
+		t2 := time.Now()
+		sc.pad = pad
+		if !okA || !okB {
+			b.Fatal("refused")
+		}
+		a, c := float64(t1.Sub(t0)), float64(t2.Sub(t1))
+		now, before, ratio = append(now, a), append(before, c), append(ratio, a/c)
+	}
+	med := func(s []float64) float64 { slices.Sort(s); return s[len(s)/2] }
+	b.ReportMetric(med(now), "in-place-ns")
+	b.ReportMetric(med(before), "copy-ns")
+	b.ReportMetric(med(ratio), "x-copy")
 }

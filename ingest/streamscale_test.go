@@ -7,6 +7,7 @@ import (
 	"math/rand/v2"
 	"os"
 	"path/filepath"
+	"slices"
 	"sort"
 	"strings"
 	"testing"
@@ -40,12 +41,15 @@ func madBySort(v []float64) float64 {
 	return madGauss * med(w)
 }
 
-// TestScaleOf checks that the selection (Hoare's FIND [Hoare1961]) gives
-// the sorted definition's scale to the bit (both are order statistics of
-// the same values, so no tolerance applies), on odd and even counts,
-// ties, signed zeros, a count above noiseSubsample (strided), sorted and
-// reversed input (the pivot's worst cases), and values that are not
-// finite (robustScale's order settles those).
+// TestScaleOf checks that the selection (Hoare's FIND [Hoare1961], in
+// a sample's bracket [FloydRivest1975] from scaleSampled values on)
+// gives the sorted definition's scale to the bit (both are order
+// statistics of the same values, so no tolerance applies), on odd and
+// even counts, ties, signed zeros, a count above noiseSubsample
+// (strided), sorted and reversed input (the pivot's worst cases),
+// samples that miss the median's or the deviations' rank (the whole
+// selection then decides), and values that are not finite, sampled or
+// not (robustScale's order settles those).
 func TestScaleOf(t *testing.T) {
 	rng := rand.New(rand.NewPCG(12, 1))
 	gauss := func(n int) []float64 {
@@ -69,6 +73,27 @@ func TestScaleOf(t *testing.T) {
 		}
 		return v
 	}
+	// the values scaleOf's sample draws (every n/scaleSample-th) far
+	// above the others: the median's bracket misses and the whole
+	// selection decides
+	missed := func(n int) []float64 {
+		v := gauss(n)
+		for i := range scaleSample {
+			v[i*n/scaleSample] = 1e6 + float64(i)
+		}
+		return v
+	}
+	// the sample's values at the median: the deviations' bracket misses
+	missedDev := func(n int) []float64 {
+		v := gauss(n)
+		slices.Sort(v)
+		m := v[n/2]
+		for i := range scaleSample {
+			v[i*n/scaleSample] = m
+		}
+		return v
+	}
+	withAt := func(v []float64, i int, x float64) []float64 { v[i] = x; return v }
 	cases := []struct {
 		name string
 		v    []float64
@@ -85,6 +110,14 @@ func TestScaleOf(t *testing.T) {
 		{"signed zeros", []float64{0, math.Copysign(0, -1), 0, math.Copysign(0, -1), 1, -1}},
 		{"sorted", ramp(10000, 1)},
 		{"reversed", ramp(10001, -1)},
+		{"even 16384", gauss(16384)},
+		{"sampled ties", rounded(16384)},
+		{"sample misses", missed(16384)},
+		{"sample misses the deviations", missedDev(16385)},
+		{"sampled with Inf", append(gauss(16384), math.Inf(-1))},
+		{"sampled with NaN", append(gauss(16385), math.NaN())},
+		{"strided with NaN", withAt(gauss(40001), 2*7, math.NaN())},
+		{"strided, NaN between", withAt(gauss(40001), 1, math.NaN())},
 		{"with Inf", append(gauss(100), math.Inf(1))},
 		{"with NaN", append(gauss(100), math.NaN())},
 	}
