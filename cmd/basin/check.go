@@ -236,7 +236,7 @@ func checkTable(e *env, doc *checkJSON, cert *fit.Certificate, recorded int, pie
 	for _, k := range keys {
 		fmt.Fprintf(tw, "%s\t", printable(k))
 	}
-	fmt.Fprintln(tw, "run\tfile\tsamples\tstarts inside\tsettled\tpairs inside\tV did not rise\tflags")
+	fmt.Fprintln(tw, "run\tfile\tsamples\tstarts inside\tsettled\tpairs inside\tof them, V did not rise\tflags")
 	for i := range doc.Runs {
 		r := &doc.Runs[i]
 		for _, k := range keys {
