@@ -1,6 +1,7 @@
 package fit
 
 import (
+	"bytes"
 	"encoding/json"
 	"errors"
 	"fmt"
@@ -540,9 +541,16 @@ var ErrFormat = errors.New("not a basin file of this format")
 // ReadModel decodes and checks a model.json. Unknown fields are allowed.
 func ReadModel(r io.Reader) (*Model, error) {
 	var m Model
-	dec := json.NewDecoder(r)
-	if err := dec.Decode(&m); err != nil {
+	data, err := io.ReadAll(io.LimitReader(r, maxCertBytes+1))
+	if err != nil {
 		return nil, fmt.Errorf("model: %w", err)
+	}
+	if len(data) > maxCertBytes {
+		return nil, fmt.Errorf("model: larger than %d MiB, not a model: %w", maxCertBytes>>20, ErrFormat)
+	}
+	dec := json.NewDecoder(bytes.NewReader(data))
+	if err := dec.Decode(&m); err != nil {
+		return nil, fmt.Errorf("model: %w", jsonWhere(data, err))
 	}
 	if _, err := dec.Token(); err != io.EOF {
 		return nil, fmt.Errorf("model: data after the JSON object: %w", ErrFormat)
@@ -609,9 +617,18 @@ func (m *Model) validate() error {
 // inconsistent file is refused with the reason. Unknown fields are allowed.
 func ReadCertificate(r io.Reader) (*Certificate, error) {
 	var c Certificate
-	dec := json.NewDecoder(r)
-	if err := dec.Decode(&c); err != nil {
+	// Certificates are small: read whole (at most maxCertBytes), so that
+	// a decoding error can say where, by line and column.
+	data, err := io.ReadAll(io.LimitReader(r, maxCertBytes+1))
+	if err != nil {
 		return nil, fmt.Errorf("certificate: %w", err)
+	}
+	if len(data) > maxCertBytes {
+		return nil, fmt.Errorf("certificate: larger than %d MiB, not a certificate: %w", maxCertBytes>>20, ErrFormat)
+	}
+	dec := json.NewDecoder(bytes.NewReader(data))
+	if err := dec.Decode(&c); err != nil {
+		return nil, fmt.Errorf("certificate: %w", jsonWhere(data, err))
 	}
 	// A second value after the object (two files pasted together, an
 	// edit gone wrong) makes the file ambiguous: refuse it.
@@ -748,4 +765,38 @@ func (m *Model) Nearest(x []float64) (int, float64) {
 		}
 	}
 	return best, math.Sqrt(bd)
+}
+
+// maxCertBytes bounds the certificate ReadCertificate (and the model
+// ReadModel) reads: a
+// degree-8 V in 12 states has about 10^5 terms, a few MiB of JSON.
+const maxCertBytes = 64 << 20
+
+// jsonWhere words a JSON decoding error of data with the line and column
+// where it happened (encoding/json gives a byte offset): "line 1, column
+// 2: not JSON: invalid character ',' ...", or "line 3, column 13: field
+// states: a number where string belongs". Other errors are returned as
+// they are.
+func jsonWhere(data []byte, err error) error {
+	// off is the bytes read when the error was found: the byte at off-1
+	// is the one it was found at
+	at := func(off int64) string {
+		pos := min(max(off-1, 0), int64(len(data)))
+		line := 1 + bytes.Count(data[:pos], []byte("\n"))
+		col := pos - int64(bytes.LastIndexByte(data[:pos], '\n'))
+		return fmt.Sprintf("line %d, column %d", line, col)
+	}
+	var se *json.SyntaxError
+	var te *json.UnmarshalTypeError
+	switch {
+	case errors.As(err, &se):
+		return fmt.Errorf("%s: not JSON (%v): %w", at(se.Offset), se, ErrFormat)
+	case errors.As(err, &te):
+		return fmt.Errorf("%s: field %s: a JSON %s where %s belongs: %w", at(te.Offset), te.Field, te.Value, te.Type, ErrFormat)
+	case errors.Is(err, io.EOF):
+		return fmt.Errorf("empty file, not JSON: %w", ErrFormat)
+	case errors.Is(err, io.ErrUnexpectedEOF):
+		return fmt.Errorf("%s: the JSON ends early (a truncated file?): %w", at(int64(len(data))), ErrFormat)
+	}
+	return err
 }
