@@ -112,7 +112,8 @@ type Dataset struct {
 	// Missing counts samples dropped because a cell was empty or NaN.
 	Missing int
 	// Ignored lists columns that were neither time, run nor state: text
-	// columns (decided on the first data row) and columns left out by
+	// columns (decided on a CSV column's first filled cell and the filled
+	// cells after it, see [ReadCSV]) and columns left out by
 	// Options.States.
 	Ignored []Column
 	// TimeLogged is the time column's unit as logged when the times were
