@@ -51,6 +51,8 @@ type csvLayout struct {
 	// slot is, by header column, where the fast path stores a cell: 0 for
 	// time, 1+k for state k, -1 for a column it skips
 	slot []int
+	// headerUnits counts the header cells that carry a unit
+	headerUnits int
 	// mixed lists the columns of numbers and words (see sniffLater):
 	// the error at the first filled cell of one says how many cells
 	// after it are numbers
@@ -103,7 +105,11 @@ type chunk struct {
 // column is a state when its first filled cell is a number; when that
 // cell is not one, the filled cells after it decide: mostly words, a text
 // column, left out (in [Dataset.Ignored]); half numbers or more, the
-// first cell is a bad value (a *ParseError). The time
+// first cell is a bad value (a *ParseError). A units row under the
+// header ("s,rad,rad/s", as data loggers write) gives the columns whose
+// header cell has no unit their units, and the data start on the line
+// after it (see [csvLayout.unitsRow] for when a row is one; line numbers
+// stay the file's). The time
 // column holds seconds or ISO 8601 date-times (RFC 3339, 'T' or a space
 // between date and time; no zone means UTC); date-times become seconds
 // from the recording's first sample and set [Run.Epoch].
@@ -233,9 +239,17 @@ func readCSVBlocks(r io.Reader, name string, opts *Options, bufs *csvBufs) (*csv
 	}
 	headerLine := line
 	line++
-	lay, tb, err := newLayout(name, header, headerLine, opts)
+	lay, tb, err := newLayout(name, header, headerLine, nil, opts)
 	if err != nil {
 		return nil, err
+	}
+	// A row of units under the header gives the columns their units; the
+	// data start on the line after it.
+	if units, after, n := lay.unitsRow(rest, line); units != nil {
+		if lay, tb, err = newLayout(name, header, headerLine, units, opts); err != nil {
+			return nil, err
+		}
+		rest, line = after, n
 	}
 	// Decide text columns and the kind of time cell on the first data row.
 	if err := lay.sniff(tb, rest, line, opts); err != nil {
@@ -342,8 +356,10 @@ func isBlankOrComment(l []byte) bool {
 	return len(l) == 0 || l[0] == '#'
 }
 
-// newLayout reads the header and assigns column roles.
-func newLayout(name string, header []byte, line int, opts *Options) (*csvLayout, *table, error) {
+// newLayout reads the header and assigns column roles. units, when not
+// nil, are the cells of a units row ([csvLayout.unitsRow]), one per
+// header column: a column whose header cell has no unit takes its cell's.
+func newLayout(name string, header []byte, line int, units []string, opts *Options) (*csvLayout, *table, error) {
 	lay := &csvLayout{file: name, delim: detectDelim(header)}
 	cells, ok := splitQuoted(header, lay.delim, nil)
 	if !ok {
@@ -354,6 +370,11 @@ func newLayout(name string, header []byte, line int, opts *Options) (*csvLayout,
 	seen := map[string]int{}
 	for j, c := range cells {
 		cols[j] = splitUnit(strings.TrimSpace(string(c)))
+		if cols[j].Unit == "" && j < len(units) {
+			cols[j].Unit = units[j]
+		} else if cols[j].Unit != "" {
+			lay.headerUnits++
+		}
 		if err := printable(cols[j].Name + cols[j].Unit); err != nil {
 			return nil, nil, &ParseError{File: name, Line: line, Column: j + 1, Err: fmt.Errorf("%w: header cell %v", ErrFormat, err)}
 		}
@@ -397,6 +418,126 @@ func splitUnit(s string) Column {
 		}
 	}
 	return Column{Name: s}
+}
+
+// maxUnitLen is the longest cell of a units row, in characters: room for
+// "yyyy-mm-dd hh:mm:ss" (19) over a date-time column and for any unit
+// written with a prefix and powers ("kg*m^2/s^2" is 10), short enough
+// that a row of notes or descriptions is not taken for units.
+const maxUnitLen = 20
+
+// unitsRow looks for a row of units under the header: the first line of
+// rest (on line) that is neither blank nor a comment. It is one when
+//
+//   - the header has a time column, and some header cell has no unit;
+//   - the line splits into the header's columns, and its time cell and
+//     every other cell that is not empty are unit cells ([unitCell]),
+//     none of them its column's name again (a second row of names);
+//   - the next line that is neither blank nor a comment has a time cell
+//     that parses as a time: seconds, or an ISO 8601 date-time (with a
+//     decimal comma too, in a ';' or tab file).
+//
+// It returns the units, one per header column, and the rest of the input
+// after the row with the line it starts on; nil when there is no units
+// row. A text first data row that is not one is left to the sniff and
+// the parser, which report it as before.
+func (lay *csvLayout) unitsRow(rest []byte, line int) ([]string, []byte, int) {
+	ti := slices.Index(lay.role, roleTime)
+	if ti < 0 || lay.headerUnits == lay.ncol {
+		return nil, nil, 0
+	}
+	var cells [][]byte
+	var units []string
+	var after []byte
+	afterLine := 0
+	for len(rest) > 0 {
+		nl := bytes.IndexByte(rest, '\n')
+		cut := nl < 0 // the last line, or one cut at the first block's end
+		if cut {
+			nl = len(rest)
+		}
+		l := trimCR(rest[:nl])
+		rest = rest[min(nl+1, len(rest)):]
+		line++
+		if isBlankOrComment(l) {
+			continue
+		}
+		var ok bool
+		cells, ok = splitQuoted(l, lay.delim, cells[:0])
+		if units != nil { // the line after the units row
+			if !ok || len(cells) <= ti || !lay.timeCell(trimBlank(cells[ti], lay.delim)) {
+				return nil, nil, 0
+			}
+			return units, after, afterLine
+		}
+		if cut || !ok || len(cells) != lay.ncol {
+			return nil, nil, 0
+		}
+		units = make([]string, lay.ncol)
+		for j, c := range cells {
+			u, ok := unitCell(trimBlank(c, lay.delim))
+			if !ok || (j == ti && u == "") || (u != "" && strings.EqualFold(u, lay.names[j])) {
+				return nil, nil, 0 // a second row of names is no units row
+			}
+			units[j] = u
+		}
+		after, afterLine = rest, line
+	}
+	return nil, nil, 0
+}
+
+// timeCell says c is a time cell: seconds or an ISO 8601 date-time, as
+// written or, in a ';' or tab file, with its one decimal comma read as a
+// point.
+func (lay *csvLayout) timeCell(c []byte) bool {
+	if _, ok := parseFloat(c); ok {
+		return true
+	}
+	if _, ok := parseISO(c); ok {
+		return true
+	}
+	if lay.delim == ',' || bytes.Count(c, []byte{','}) != 1 {
+		return false
+	}
+	pt := bytes.ReplaceAll(c, []byte(","), []byte("."))
+	if _, ok := parseFloat(pt); ok {
+		return true
+	}
+	_, ok := parseISO(pt)
+	return ok
+}
+
+// unitCell reads a cell of a units row: empty (no unit), or a unit of at
+// most maxUnitLen characters, optionally in one pair of brackets ("[s]",
+// "(rad)": the brackets are dropped), made of letters, digits (with
+// superscripts) and / * ^ . % ° · : _ - and spaces, with at least one
+// letter, % or °, or "-" alone (a dimensionless column, kept as written).
+// A number, a NaN or a number too large for a float64 is no unit: such a
+// row is data.
+func unitCell(c []byte) (string, bool) {
+	if len(c) >= 2 && (c[0] == '[' && c[len(c)-1] == ']' || c[0] == '(' && c[len(c)-1] == ')') {
+		c = bytes.TrimSpace(c[1 : len(c)-1])
+	}
+	if len(c) == 0 {
+		return "", true
+	}
+	if !utf8.Valid(c) || utf8.RuneCount(c) > maxUnitLen || isNumberCell(c) || outOfRange(c) {
+		return "", false
+	}
+	if string(c) == "-" {
+		return "-", true
+	}
+	named := false
+	for _, r := range string(c) {
+		switch {
+		case unicode.IsLetter(r) || r == '%' || r == '°':
+			named = true
+		case unicode.IsNumber(r) || strings.ContainsRune("/*^.·:_- ", r):
+		default:
+			return "", false
+		}
+	}
+	return string(c), named
 }
 
 // detectDelim returns the most frequent of ',' ';' '\t' outside quotes in

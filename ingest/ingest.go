@@ -29,8 +29,9 @@ import (
 const GapFactor = 5
 
 // Column names a state (or time) column and carries its unit, read from a
-// header cell "name [unit]" or "name (unit)". Unit is empty when none was
-// given.
+// header cell "name [unit]" or "name (unit)", or, in a CSV file, from a
+// units row under the header (see [ReadCSV]; the header's unit wins).
+// Unit is empty when none was given.
 type Column struct {
 	Name string `json:"name"`
 	Unit string `json:"unit"`

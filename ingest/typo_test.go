@@ -134,8 +134,9 @@ func TestFirstCellTypo(t *testing.T) {
 		// a decimal-comma file: the cells are judged with their commas read as points
 		tcase{name: "decimal comma", in: "t;a;b\n0;0,1O;1,5\n0,1;0,2;1,4\n0,2;0,3;1,3\n0,3;0,4;1,2\n",
 			err: `x.csv:2:2: column "a": not a number "0.1O" (the file's decimal commas read as points)`},
-		// units on the line under the header: no data; an error there, as before (it named b)
-		tcase{name: "units row", in: "t,a,b\ns,rad,rad/s\n0,0.1,0.2\n0.1,0.2,0.3\n0.2,0.3,0.4\n0.3,0.3,0.4\n",
+		// words on the line under the header with a number among them: no
+		// units row (those are read, see TestUnitsRow), an error there, as before
+		tcase{name: "units row with a number", in: "t,a,b\ns,rad,2\n0,0.1,0.2\n0.1,0.2,0.3\n0.2,0.3,0.4\n0.3,0.3,0.4\n",
 			err: `x.csv:2:1: column "t": not a number "s"`},
 		// --states chooses: c is not chosen, whatever its cells
 		tcase{name: "states chosen", in: typoRows(50, numberAt(0, "0.1O")), opts: &Options{States: []string{"a", "b"}}, ignored: "c"},
