@@ -532,7 +532,7 @@ func BenchmarkParseBlocks(b *testing.B) {
 	const rows = 100_000
 	data := benchText(rows)
 	nl := bytes.IndexByte(data, '\n')
-	lay, tb, err := newLayout("bench.csv", data[:nl], 1, &Options{})
+	lay, tb, err := newLayout("bench.csv", data[:nl], 1, nil, &Options{})
 	if err != nil {
 		b.Fatal(err)
 	}

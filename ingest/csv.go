@@ -51,6 +51,12 @@ type csvLayout struct {
 	// slot is, by header column, where the fast path stores a cell: 0 for
 	// time, 1+k for state k, -1 for a column it skips
 	slot []int
+	// headerUnits counts the header cells that carry a unit
+	headerUnits int
+	// mixed lists the columns of numbers and words (see sniffLater):
+	// the error at the first filled cell of one says how many cells
+	// after it are numbers
+	mixed []mixedNote
 }
 
 // index fills the fast path's slots from role and stateOf.
@@ -95,7 +101,15 @@ type chunk struct {
 // a ',' ';' or tab delimiter (the most frequent one in the header), '#'
 // comment lines, a UTF-8 BOM, CRLF line ends, quoted cells (a quoted cell
 // may not span lines). Empty and NaN cells are missing samples ("-nan"
-// and "nan(ind)", as C writes them, too). The time
+// and "nan(ind)", as C writes them, too). With no Options.States, a
+// column is a state when its first filled cell is a number; when that
+// cell is not one, the filled cells after it decide: mostly words, a text
+// column, left out (in [Dataset.Ignored]); half numbers or more, the
+// first cell is a bad value (a *ParseError). A units row under the
+// header ("s,rad,rad/s", as data loggers write) gives the columns whose
+// header cell has no unit their units, and the data start on the line
+// after it (see [csvLayout.unitsRow] for when a row is one; line numbers
+// stay the file's). The time
 // column holds seconds or ISO 8601 date-times (RFC 3339, 'T' or a space
 // between date and time; no zone means UTC); date-times become seconds
 // from the recording's first sample and set [Run.Epoch].
@@ -225,9 +239,17 @@ func readCSVBlocks(r io.Reader, name string, opts *Options, bufs *csvBufs) (*csv
 	}
 	headerLine := line
 	line++
-	lay, tb, err := newLayout(name, header, headerLine, opts)
+	lay, tb, err := newLayout(name, header, headerLine, nil, opts)
 	if err != nil {
 		return nil, err
+	}
+	// A row of units under the header gives the columns their units; the
+	// data start on the line after it.
+	if units, after, n := lay.unitsRow(rest, line); units != nil {
+		if lay, tb, err = newLayout(name, header, headerLine, units, opts); err != nil {
+			return nil, err
+		}
+		rest, line = after, n
 	}
 	// Decide text columns and the kind of time cell on the first data row.
 	if err := lay.sniff(tb, rest, line, opts); err != nil {
@@ -334,8 +356,10 @@ func isBlankOrComment(l []byte) bool {
 	return len(l) == 0 || l[0] == '#'
 }
 
-// newLayout reads the header and assigns column roles.
-func newLayout(name string, header []byte, line int, opts *Options) (*csvLayout, *table, error) {
+// newLayout reads the header and assigns column roles. units, when not
+// nil, are the cells of a units row ([csvLayout.unitsRow]), one per
+// header column: a column whose header cell has no unit takes its cell's.
+func newLayout(name string, header []byte, line int, units []string, opts *Options) (*csvLayout, *table, error) {
 	lay := &csvLayout{file: name, delim: detectDelim(header)}
 	cells, ok := splitQuoted(header, lay.delim, nil)
 	if !ok {
@@ -346,6 +370,11 @@ func newLayout(name string, header []byte, line int, opts *Options) (*csvLayout,
 	seen := map[string]int{}
 	for j, c := range cells {
 		cols[j] = splitUnit(strings.TrimSpace(string(c)))
+		if cols[j].Unit == "" && j < len(units) {
+			cols[j].Unit = units[j]
+		} else if cols[j].Unit != "" {
+			lay.headerUnits++
+		}
 		if err := printable(cols[j].Name + cols[j].Unit); err != nil {
 			return nil, nil, &ParseError{File: name, Line: line, Column: j + 1, Err: fmt.Errorf("%w: header cell %v", ErrFormat, err)}
 		}
@@ -389,6 +418,126 @@ func splitUnit(s string) Column {
 		}
 	}
 	return Column{Name: s}
+}
+
+// maxUnitLen is the longest cell of a units row, in characters: room for
+// "yyyy-mm-dd hh:mm:ss" (19) over a date-time column and for any unit
+// written with a prefix and powers ("kg*m^2/s^2" is 10), short enough
+// that a row of notes or descriptions is not taken for units.
+const maxUnitLen = 20
+
+// unitsRow looks for a row of units under the header: the first line of
+// rest (on line) that is neither blank nor a comment. It is one when
+//
+//   - the header has a time column, and some header cell has no unit;
+//   - the line splits into the header's columns, and its time cell and
+//     every other cell that is not empty are unit cells ([unitCell]),
+//     none of them its column's name again (a second row of names);
+//   - the next line that is neither blank nor a comment has a time cell
+//     that parses as a time: seconds, or an ISO 8601 date-time (with a
+//     decimal comma too, in a ';' or tab file).
+//
+// It returns the units, one per header column, and the rest of the input
+// after the row with the line it starts on; nil when there is no units
+// row. A text first data row that is not one is left to the sniff and
+// the parser, which report it as before.
+func (lay *csvLayout) unitsRow(rest []byte, line int) ([]string, []byte, int) {
+	ti := slices.Index(lay.role, roleTime)
+	if ti < 0 || lay.headerUnits == lay.ncol {
+		return nil, nil, 0
+	}
+	var cells [][]byte
+	var units []string
+	var after []byte
+	afterLine := 0
+	for len(rest) > 0 {
+		nl := bytes.IndexByte(rest, '\n')
+		cut := nl < 0 // the last line, or one cut at the first block's end
+		if cut {
+			nl = len(rest)
+		}
+		l := trimCR(rest[:nl])
+		rest = rest[min(nl+1, len(rest)):]
+		line++
+		if isBlankOrComment(l) {
+			continue
+		}
+		var ok bool
+		cells, ok = splitQuoted(l, lay.delim, cells[:0])
+		if units != nil { // the line after the units row
+			if !ok || len(cells) <= ti || !lay.timeCell(trimBlank(cells[ti], lay.delim)) {
+				return nil, nil, 0
+			}
+			return units, after, afterLine
+		}
+		if cut || !ok || len(cells) != lay.ncol {
+			return nil, nil, 0
+		}
+		units = make([]string, lay.ncol)
+		for j, c := range cells {
+			u, ok := unitCell(trimBlank(c, lay.delim))
+			if !ok || (j == ti && u == "") || (u != "" && strings.EqualFold(u, lay.names[j])) {
+				return nil, nil, 0 // a second row of names is no units row
+			}
+			units[j] = u
+		}
+		after, afterLine = rest, line
+	}
+	return nil, nil, 0
+}
+
+// timeCell says c is a time cell: seconds or an ISO 8601 date-time, as
+// written or, in a ';' or tab file, with its one decimal comma read as a
+// point.
+func (lay *csvLayout) timeCell(c []byte) bool {
+	if _, ok := parseFloat(c); ok {
+		return true
+	}
+	if _, ok := parseISO(c); ok {
+		return true
+	}
+	if lay.delim == ',' || bytes.Count(c, []byte{','}) != 1 {
+		return false
+	}
+	pt := bytes.ReplaceAll(c, []byte(","), []byte("."))
+	if _, ok := parseFloat(pt); ok {
+		return true
+	}
+	_, ok := parseISO(pt)
+	return ok
+}
+
+// unitCell reads a cell of a units row: empty (no unit), or a unit of at
+// most maxUnitLen characters, optionally in one pair of brackets ("[s]",
+// "(rad)": the brackets are dropped), made of letters, digits (with
+// superscripts) and / * ^ . % ° · : _ - and spaces, with at least one
+// letter, % or °, or "-" alone (a dimensionless column, kept as written).
+// A number, a NaN or a number too large for a float64 is no unit: such a
+// row is data.
+func unitCell(c []byte) (string, bool) {
+	if len(c) >= 2 && (c[0] == '[' && c[len(c)-1] == ']' || c[0] == '(' && c[len(c)-1] == ')') {
+		c = bytes.TrimSpace(c[1 : len(c)-1])
+	}
+	if len(c) == 0 {
+		return "", true
+	}
+	if !utf8.Valid(c) || utf8.RuneCount(c) > maxUnitLen || isNumberCell(c) || outOfRange(c) {
+		return "", false
+	}
+	if string(c) == "-" {
+		return "-", true
+	}
+	named := false
+	for _, r := range string(c) {
+		switch {
+		case unicode.IsLetter(r) || r == '%' || r == '°':
+			named = true
+		case unicode.IsNumber(r) || strings.ContainsRune("/*^.·:_- ", r):
+		default:
+			return "", false
+		}
+	}
+	return string(c), named
 }
 
 // detectDelim returns the most frequent of ',' ';' '\t' outside quotes in
@@ -472,19 +621,78 @@ func splitQuoted(l []byte, delim byte, dst [][]byte) ([][]byte, bool) {
 }
 
 // sniffLines is how many lines after the first data row sniffLater
-// looks through for a column's first cell that is not empty.
+// looks through for a column's first cell that is not empty, and for the
+// cells that follow it.
 const sniffLines = 4096
 
-// sniffLater drops, as text, each unnamed state column whose cell in the
-// first data row (first) is empty and whose first non-empty cell in the
-// following lines of rest (at most sniffLines) is not a number; a number
-// out of float64's range is no text, and the parser reports it. Lines
-// that do not split into the header's columns are left to the parser.
-func (lay *csvLayout) sniffLater(first [][]byte, rest []byte, r *roles) {
-	var pending []int
+// A column whose first filled cell is not a number is judged by the
+// filled cells after it in the same sniffLines lines, at most sniffAhead
+// of them:
+//
+//   - fewer than sniffFew: too little to tell; a text column, ignored, as
+//     the first cell says;
+//   - fewer than half of them numbers: a text column (notes, labels, a
+//     status word), ignored;
+//   - at least sniffTypo of them numbers: a numeric column whose first
+//     cell is a bad value (0.1O, 1.2.3, a Unicode minus, 1 000, (0.5)):
+//     kept, so that the parser reports that cell as it reports one on any
+//     later row;
+//   - half of them numbers or more, but fewer than sniffTypo: a column of
+//     numbers and words; kept too, so that the same cell is an error, with
+//     a note of how many of the cells after it are numbers.
+//
+// This is a vote over a sample of the column's cells, the common practice
+// for telling a column's type ([MajorityType] in docs/references.md): one
+// cell, the first, does not outvote the rest. Dropping a column is silent
+// (only inspect lists ignored columns) and an error is not, so every
+// doubtful case (half numbers or more) is an error; a column of words
+// with the odd number in it stays a text column. 64 cells
+// are enough to tell the two apart: for a column with a bad cell in ten
+// (90% numbers), fewer than 32 numbers among 64 cells has a binomial
+// probability of about 1e-16, and it keeps the look-ahead to a few
+// kilobytes of a first block. Below three cells after it, a lone number
+// would outvote the first cell (one of one, one of two is half), so a
+// notes column with one number noted would be an error; from three on it
+// takes two numbers at least. Below three, the first cell decides (text),
+// as it always did.
+const (
+	sniffAhead = 64
+	sniffFew   = 3
+	sniffTypo  = 90 // percent
+)
+
+// mixedNote is what sniffLater found after the first filled cell of a
+// column of numbers and words: the cell's line and header column, and how
+// many of the n filled cells after it are numbers (k).
+type mixedNote struct {
+	line, col, k, n int
+}
+
+// sniffLater judges each unnamed state column whose cell in the first
+// data row (first, on line) is empty or not a number: its first filled
+// cell (there or in the following lines of rest, at most sniffLines),
+// then, when that is not a number, the filled cells after it by the rule
+// above. A text column is dropped; a column of numbers and words is noted
+// in lay.mixed for the parser's error. A number out of float64's range is
+// no text, and the parser reports it. Lines that do not split into the
+// header's columns are left to the parser.
+func (lay *csvLayout) sniffLater(first [][]byte, rest []byte, line int, r *roles) {
+	type judged struct {
+		j      int
+		found  bool // the first filled cell is found, and is not a number
+		line   int  // its line
+		n, num int  // filled cells after it, and numbers among them
+	}
+	var pending, done []judged
 	for j, c := range first {
-		if lay.role[j] == roleState && !r.isInput(j) && len(trimBlank(c, lay.delim)) == 0 {
-			pending = append(pending, j)
+		if lay.role[j] != roleState || r.isInput(j) {
+			continue
+		}
+		switch c = trimBlank(c, lay.delim); {
+		case len(c) == 0:
+			pending = append(pending, judged{j: j})
+		case !isNumberCell(c) && !outOfRange(c):
+			pending = append(pending, judged{j: j, found: true, line: line})
 		}
 	}
 	var cells [][]byte
@@ -495,6 +703,7 @@ func (lay *csvLayout) sniffLater(first [][]byte, rest []byte, r *roles) {
 		}
 		l := trimCR(rest[:nl])
 		rest = rest[min(nl+1, len(rest)):]
+		line++
 		if isBlankOrComment(l) {
 			continue
 		}
@@ -506,16 +715,43 @@ func (lay *csvLayout) sniffLater(first [][]byte, rest []byte, r *roles) {
 			continue
 		}
 		keep := pending[:0]
-		for _, j := range pending {
-			c := trimBlank(cells[j], lay.delim)
+		for _, p := range pending {
+			c := trimBlank(cells[p.j], lay.delim)
+			number := isNumberCell(c) || outOfRange(c) // a number too large is a bad value, which the parser reports at its line
 			switch {
 			case len(c) == 0:
-				keep = append(keep, j)
-			case !isNumberCell(c) && !outOfRange(c):
-				r.dropState(j) // a number too large is a bad value, which the parser reports at its line
+				keep = append(keep, p)
+			case !p.found && number:
+				// a numeric column: nothing to do
+			case !p.found:
+				p.found, p.line = true, line
+				keep = append(keep, p)
+			default:
+				p.n++
+				if number {
+					p.num++
+				}
+				if p.n < sniffAhead {
+					keep = append(keep, p)
+				} else {
+					done = append(done, p)
+				}
 			}
 		}
 		pending = keep
+	}
+	// in header order, so that the ignored columns are listed so
+	done = append(done, pending...)
+	slices.SortFunc(done, func(a, b judged) int { return a.j - b.j })
+	for _, p := range done {
+		switch {
+		case !p.found:
+			// every cell empty in the window: the parser decides
+		case p.n < sniffFew || 2*p.num < p.n:
+			r.dropState(p.j)
+		case 100*p.num < sniffTypo*p.n:
+			lay.mixed = append(lay.mixed, mixedNote{line: p.line, col: p.j, k: p.num, n: p.n})
+		}
 	}
 }
 
@@ -535,10 +771,13 @@ func outOfRange(c []byte) bool {
 	return errors.Is(err, strconv.ErrRange)
 }
 
-// sniff looks at the first data row: with no --states, a state column
-// whose cell there is text (not a number, not empty) is ignored, and one
-// whose cell is a number out of float64's range is an error there; the time
-// column's cell says whether time is in seconds or ISO 8601.
+// sniff looks at the first data row: a state column whose cell there is a
+// number out of float64's range is an error there, as is an input
+// column's cell that is not a number; with no --states, a state column
+// whose first filled cell is text is judged by the cells after it
+// ([csvLayout.sniffLater]): ignored when they are mostly text too, kept
+// (and its first cell an error) otherwise. The time column's cell says
+// whether time is in seconds or ISO 8601.
 func (lay *csvLayout) sniff(tb *table, rest []byte, line int, opts *Options) error {
 	var cells [][]byte
 	for len(rest) > 0 {
@@ -569,12 +808,6 @@ func (lay *csvLayout) sniff(tb *table, rest []byte, line int, opts *Options) err
 	}
 	r := &roles{role: lay.role, stateOf: lay.stateOf, states: tb.states, stateCol: tb.stateCol, ignored: tb.ignored, nInput: tb.nInput}
 	firstText, textCell := -1, []byte(nil)
-	// A column empty in the first row (a notes column a logger fills now
-	// and then) is judged by its first cell that is not empty, within the
-	// next sniffLines lines of the first block.
-	if opts.States == nil {
-		lay.sniffLater(cells, rest, r)
-	}
 	for j, c := range cells {
 		c = trimBlank(c, lay.delim)
 		switch lay.role[j] {
@@ -601,9 +834,14 @@ func (lay *csvLayout) sniff(tb *table, rest []byte, line int, opts *Options) err
 				if firstText < 0 {
 					firstText, textCell = j, c
 				}
-				r.dropState(j)
 			}
 		}
+	}
+	// A column whose first filled cell is text, in this row or (a notes
+	// column a logger fills now and then) in the next sniffLines lines of
+	// the first block, is judged by the filled cells after that one.
+	if opts.States == nil {
+		lay.sniffLater(cells, rest, line, r)
 	}
 	tb.states, tb.stateCol, tb.ignored = r.states, r.stateCol, r.ignored
 	if len(tb.states) == tb.nInput {
@@ -1337,6 +1575,11 @@ func (p *csvParser) cellError(line, j int, cell []byte) error {
 		msg = fmt.Errorf("%w: %q is infinite or out of range", ErrNotNumber, s)
 	} else if !utf8.Valid(cell) {
 		msg = fmt.Errorf("%w: not text (binary data?)", ErrNotNumber)
+	}
+	for _, m := range p.lay.mixed {
+		if m.line == line && m.col == j {
+			msg = fmt.Errorf("%w (%d of the %d filled cells after it are numbers, the others not: a column of numbers and words; --states names the state columns)", msg, m.k, m.n)
+		}
 	}
 	if p.lay.decimalComma {
 		msg = fmt.Errorf("%w (the file's decimal commas read as points)", msg)

@@ -63,6 +63,8 @@ func FuzzReadCSV(f *testing.F) {
 		"t,a,b\n0,1,-1e400\n1,2,3\n",
 		"t,a,b,c\n0,1,,NaN\n1,2,1e309,inf\n",
 		"t,a,b\n0,-nan,nan(ind)\n-nan,2,3\n2,nan(,4\n",
+		"time,a,b [deg]\r\n# units\r\ns,rad,rad/s\r\n0,1,2\r\n1,2,3\r\n",
+		"time;a;b\nISO8601;°;\n2026-11-30 08:00:00,5;1,5;2\n2026-11-30 08:00:01,5;1;3\n",
 	} {
 		f.Add([]byte(s), uint8(0))
 	}

@@ -29,8 +29,9 @@ import (
 const GapFactor = 5
 
 // Column names a state (or time) column and carries its unit, read from a
-// header cell "name [unit]" or "name (unit)". Unit is empty when none was
-// given.
+// header cell "name [unit]" or "name (unit)", or, in a CSV file, from a
+// units row under the header (see [ReadCSV]; the header's unit wins).
+// Unit is empty when none was given.
 type Column struct {
 	Name string `json:"name"`
 	Unit string `json:"unit"`
@@ -112,7 +113,8 @@ type Dataset struct {
 	// Missing counts samples dropped because a cell was empty or NaN.
 	Missing int
 	// Ignored lists columns that were neither time, run nor state: text
-	// columns (decided on the first data row) and columns left out by
+	// columns (decided on a CSV column's first filled cell and the filled
+	// cells after it, see [ReadCSV]) and columns left out by
 	// Options.States.
 	Ignored []Column
 	// TimeLogged is the time column's unit as logged when the times were

@@ -77,7 +77,8 @@ func TestOutOfRangeCell(t *testing.T) {
 // [strconv] behave there as in later rows: NaN (any case) is a missing
 // sample of a numeric column, an infinity is a bad value, the largest
 // float64 [IEEE754] and an underflow (rounded to zero) are numbers, and a
-// word is text (the column is ignored).
+// word followed by numbers is a bad cell of a numeric column, an error
+// there (TestFirstCellTypo has the rule).
 func TestFirstRowSpecials(t *testing.T) {
 	const tail = "0.1,0.9,-0.4\n0.2,0.8,-0.3\n0.3,0.7,-0.2\n"
 	for _, c := range []string{"inf", "-Inf", "+INF", "Infinity", "-infinity"} {
@@ -95,30 +96,30 @@ func TestFirstRowSpecials(t *testing.T) {
 	}
 	for _, tc := range []struct {
 		name, cell string
-		v          float64 // the cell's value, NaN for a missing sample; checked only when not ignored
-		ignored    bool
+		v          float64 // the cell's value, NaN for a missing sample; checked when err is ""
+		err        string  // the error, for a cell that is not a number
 	}{
-		{"NaN", "NaN", math.NaN(), false},
-		{"nan", "nan", math.NaN(), false},
-		{"NAN", "NAN", math.NaN(), false},
-		{"largest float64", "1.7976931348623157e308", math.MaxFloat64, false},
-		{"rounds to the largest", "1.7976931348623158e308", math.MaxFloat64, false},
-		{"just below the tie", halfUlpAboveMax()[:308] + "1", math.MaxFloat64, false},
-		{"negative largest", "-1.7976931348623157e308", -math.MaxFloat64, false},
-		{"underflow", "1e-400", 0, false},
-		{"leading plus", "+2.5", 2.5, false},
-		{"word", "ok", 0, true},
+		{"NaN", "NaN", math.NaN(), ""},
+		{"nan", "nan", math.NaN(), ""},
+		{"NAN", "NAN", math.NaN(), ""},
+		{"largest float64", "1.7976931348623157e308", math.MaxFloat64, ""},
+		{"rounds to the largest", "1.7976931348623158e308", math.MaxFloat64, ""},
+		{"just below the tie", halfUlpAboveMax()[:308] + "1", math.MaxFloat64, ""},
+		{"negative largest", "-1.7976931348623157e308", -math.MaxFloat64, ""},
+		{"underflow", "1e-400", 0, ""},
+		{"leading plus", "+2.5", 2.5, ""},
+		{"word", "ok", 0, `x.csv:2:3: column "v": not a number "ok"`},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
 			ds, err := ReadCSV(strings.NewReader("t,x,v\n0,1,"+tc.cell+"\n"+tail), "x.csv", &Options{KeepEvents: true, KeepHead: true})
-			if err != nil {
-				t.Fatal(err)
-			}
-			if tc.ignored {
-				if len(ds.States) != 1 || len(ds.Ignored) != 1 || ds.Ignored[0].Name != "v" {
-					t.Errorf("states %v, ignored %v; want x, and v ignored", ds.States, ds.Ignored)
+			if tc.err != "" {
+				if err == nil || err.Error() != tc.err {
+					t.Errorf("err %v, want %s", err, tc.err)
 				}
 				return
+			}
+			if err != nil {
+				t.Fatal(err)
 			}
 			if len(ds.States) != 2 || len(ds.Ignored) != 0 {
 				t.Fatalf("states %v, ignored %v; want x and v", ds.States, ds.Ignored)
@@ -159,8 +160,9 @@ func halfUlpAboveMax() string {
 // the C standard's strtod and fprintf [C99]; whether strtod reads a cell
 // whole as NaN was checked, cell by cell, with glibc 2.36's strtod (the
 // "whole" column, pasted here; Microsoft's "-nan(ind)" is from memory).
-// Near misses stay what they were: text where the column's kind is
-// decided (the first row, or the first filled cell), an error later.
+// Near misses are not numbers: followed by numbers, as here, they are
+// bad cells of a numeric column, an error on their line wherever they are
+// (the first row, the first filled cell, a later row).
 func TestNaNForms(t *testing.T) {
 	const tail = "0.1,0.9,-0.4\n0.2,0.8,-0.3\n0.3,0.7,-0.2\n"
 	for _, tc := range []struct {
@@ -173,26 +175,21 @@ func TestNaNForms(t *testing.T) {
 	} {
 		first := "t,x,v\n0,1," + tc.cell + "\n" + tail
 		later := "t,x,v\n0,1,-0.5\n" + tail[:13] + "0.2,0.8," + tc.cell + "\n0.3,0.7,-0.2\n"
-		empty := "t,x,v\n0,1,\n0.1,0.9," + tc.cell + "\n0.2,0.8,-0.3\n0.3,0.7,-0.2\n"
+		// three numbers after the first filled cell: enough to judge it by (sniffFew)
+		empty := "t,x,v\n0,1,\n0.1,0.9," + tc.cell + "\n0.2,0.8,-0.3\n0.3,0.7,-0.2\n0.4,0.6,-0.1\n"
 		for _, in := range []string{first, later, empty} {
 			ds, err := ReadCSV(strings.NewReader(in), "x.csv", &Options{KeepEvents: true, KeepHead: true})
 			switch {
 			case tc.whole:
-				n := 3 // one row missing
-				if in == empty {
-					n = 2 // two
-				}
+				n := 3 // one row missing (two of five in empty)
 				if err != nil {
 					t.Errorf("%q: %v", in, err)
 				} else if len(ds.States) != 2 || ds.Samples() != n {
 					t.Errorf("%q: states %v, %d samples; want x and v, %d", in, ds.States, ds.Samples(), n)
 				}
-			case in != later: // a word where the column's kind is decided: text
-				if err != nil || len(ds.States) != 1 || len(ds.Ignored) != 1 {
-					t.Errorf("%q: err %v; want v ignored", in, err)
-				}
 			default:
-				want := `x.csv:4:3: column "v": not a number "` + tc.cell + `"`
+				line := map[string]string{first: "2", empty: "3", later: "4"}[in]
+				want := `x.csv:` + line + `:3: column "v": not a number "` + tc.cell + `"`
 				if err == nil || err.Error() != want {
 					t.Errorf("%q: err = %v, want %s", in, err, want)
 				}

@@ -49,7 +49,14 @@ Every command that reads logs takes:
 	                    split there)
 
 A header cell "name [unit]" or "name (unit)" carries a unit, reported back
-wherever the column appears. Empty cells and NaN (in any case, or as C's
+wherever the column appears. A CSV file may give its units in a row of
+their own under the header ("s,rad,rad/s", as data loggers write): the
+first line after the header is one when the file has a time column, some
+header cell has no unit, the time cell and every other filled cell are
+units (at most 20 characters of letters, digits, / * ^ . % ° · : _ - and
+spaces, with a letter, % or °, or a lone -; no number, not the column's
+name again) and the next line's time cell is a time. A unit in the header wins over the row's; error line
+numbers stay the file's. Empty cells and NaN (in any case, or as C's
 printf writes it: -nan, nan(ind)) are missing samples: a run is split at a
 gap, not interpolated across it.
 

@@ -24,6 +24,8 @@ func TestInspectBadInput(t *testing.T) {
 		{"empty file", []string{"empty.csv"}, "empty.csv: no samples: no header line"},
 		{"header only", []string{"header-only.csv"}, "header-only.csv: no samples: a header but no data rows"},
 		{"non-numeric cell", []string{"not-a-number.csv"}, `not-a-number.csv:4:2: column "theta": not a number "0.1O"`},
+		// the same typo in the first data row, numbers after it: not a text column to ignore
+		{"non-numeric first cell", []string{"first-cell-typo.csv"}, `first-cell-typo.csv:2:2: column "theta": not a number "0.1O"`},
 		{"number beyond float64 in the first row", []string{"out-of-range.csv"}, `out-of-range.csv:2:3: column "v": not a number: "1e400" is infinite or out of range`},
 		{"ragged rows", []string{"ragged.csv"}, "ragged.csv:3:2: wrong number of fields: 2, the header has 3"},
 		{"time repeats", []string{"time-repeats.csv"}, `time-repeats.csv:4:1: column "t": time does not increase: repeats`},
@@ -85,6 +87,37 @@ func TestRunOutOfRange(t *testing.T) {
 	}
 	if _, err := os.Stat(out); !os.IsNotExist(err) {
 		t.Errorf("%s written (stat: %v)", out, err)
+	}
+}
+
+// TestFirstCellTypoCommands: fit, run, check and screen refuse a log whose
+// first data row holds a typo of a number followed by numbers, as inspect
+// does (TestInspectBadInput): one line naming file, line and column,
+// exit 2, nothing written. The column was taken for text and fit and run
+// went on without that state.
+func TestFirstCellTypoCommands(t *testing.T) {
+	in := filepath.Join("..", "..", "testdata", "bad", "first-cell-typo.csv")
+	cert := writeTestCert(t, strings.Replace(certJSON, `["pitch", "rate"]`, `["theta", "omega"]`, 1))
+	for _, cmd := range []string{"fit", "run", "check", "screen"} {
+		t.Run(cmd, func(t *testing.T) {
+			out := filepath.Join(t.TempDir(), "out")
+			args := []string{cmd, "--out", out, in}
+			if cmd == "check" || cmd == "screen" {
+				args = []string{cmd, "--cert", cert, in}
+			}
+			before := listDir(t, ".")
+			code, msg := run1(t, args...)
+			want := `basin ` + cmd + `: ` + in + `:2:2: column "theta": not a number "0.1O"`
+			if code != 2 || msg != want {
+				t.Errorf("exit %d %q, want 2 and %q", code, msg, want)
+			}
+			if _, err := os.Stat(out); !os.IsNotExist(err) {
+				t.Errorf("%s written (stat: %v)", out, err)
+			}
+			if after := listDir(t, "."); after != before {
+				t.Errorf("files written: %s", after)
+			}
+		})
 	}
 }
 
