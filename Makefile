@@ -17,10 +17,12 @@ lint:
 	if [ -n "$$out" ]; then echo "gofmt needed:"; echo "$$out"; exit 1; fi
 
 # make test runs every test case, in two passes: everything under the race
-# detector, where the heaviest single-goroutine numerical cases (degree-4
-# certificates, the derivative table, the false-certificate sweep; they
-# call heavy(t) in fit and validate) skip themselves, then ./fit/... and
-# ./validate again without -race, where they run. The timeout is per
+# detector, where the heaviest single-goroutine cases (degree-4
+# certificates, the derivative table, the false-certificate sweep, the SQL
+# parity runs on SQLite and PostgreSQL; they call heavy(t) in fit,
+# fit/export and validate) skip themselves, then ./fit/... and ./validate
+# again without -race, where they run. (TestSQLSQLite alone passed 20
+# minutes under -race at load 7.) The timeout is per
 # package binary: the slowest package under -race on a loaded 2-core
 # machine (load average about 24) took 5.5 minutes (cmd/basin), so 20
 # minutes means a hang, not a slow machine. test-short is the inner loop:

@@ -397,6 +397,7 @@ func TestSQLGapExercised(t *testing.T) {
 }
 
 func TestSQLSQLite(t *testing.T) {
+	heavy(t)
 	for name, c := range sqlCerts() {
 		runs, pieces := gapped(sqlRuns(c))
 		slow := name == "two" // slow and stuck
@@ -573,6 +574,7 @@ func (pg *postgres) psql(t *testing.T, sql string, stdin []byte) string {
 }
 
 func TestSQLPostgreSQL(t *testing.T) {
+	heavy(t)
 	pg := startPostgres(t)
 	for name, c := range sqlCerts() {
 		runs, pieces := gapped(sqlRuns(c))
