@@ -141,6 +141,9 @@ func readCSV(r io.Reader, name string, opts *Options) (*Dataset, error) {
 		return nil, err
 	}
 	ds.Ignored = tb.ignored
+	for _, u := range tb.unnamed {
+		ds.Warnings = append(ds.Warnings, fmt.Sprintf("%s:%d:%d: a column with no name in the header holds values; it is ignored (name it in the header to read it as a state; a row index may stay unnamed)", name, u[0], u[1]))
+	}
 	return ds, nil
 }
 
@@ -842,6 +845,16 @@ func (lay *csvLayout) sniff(tb *table, rest []byte, line int, opts *Options) err
 	// the first block, is judged by the filled cells after that one.
 	if opts.States == nil {
 		lay.sniffLater(cells, rest, line, r)
+		// A column without a name in the header that holds values in
+		// the first data row is read by no one: list it as ignored and
+		// say so (a row index, as a data-frame export writes it, is
+		// often left unnamed; a state left unnamed would vanish).
+		for j, c := range cells {
+			if lay.names[j] == "" && lay.role[j] == roleSkip && len(trimBlank(c, lay.delim)) > 0 {
+				r.ignored = append(r.ignored, Column{Name: fmt.Sprintf("(column %d, unnamed)", j+1)})
+				tb.unnamed = append(tb.unnamed, [2]int{line, j + 1})
+			}
+		}
 	}
 	tb.states, tb.stateCol, tb.ignored = r.states, r.stateCol, r.ignored
 	if len(tb.states) == tb.nInput {

@@ -44,6 +44,9 @@ type table struct {
 	byRow    bool // line numbers are 1-based rows (Parquet), not lines
 	rows     int
 	ignored  []Column
+	// unnamed: the line and column (1-based) of each column without a
+	// header name whose first data row holds a value (CSV)
+	unnamed [][2]int
 	// finite: every cell of x is known to be finite, with no missing
 	// cell (the CSV reader's fast row path took every row: it takes
 	// finite numbers only), so that the runs need no look for holes
