@@ -60,6 +60,24 @@ func TestUnstableRuns(t *testing.T) {
 	}
 }
 
+// TestUnstableRunsTwoWells: runs that settle on the two wells either side
+// of a saddle (x'' = x - x³ - δx' [GuckenheimerHolmes1983], wells at ±1)
+// have a median settle point between the wells that means nothing: the
+// words name the model's stable equilibria instead.
+func TestUnstableRunsTwoWells(t *testing.T) {
+	m := &fit.Model{States: []string{"latch", "latch_rate"}, Units: []string{"mm", "mm/s"}, Spread: []float64{1, 1},
+		Runs: 24, SettledRuns: 24, Settle: []float64{0.999, 0},
+		Equilibria: []fit.Equilibrium{
+			{Point: []float64{0, 0}, Eigenvalues: [][2]float64{{0.7, 0}, {-1.5, 0}}, Class: fit.ClassSaddle, InEnvelope: true},
+			{Point: []float64{1, 0}, Eigenvalues: [][2]float64{{-0.4, 1.4}, {-0.4, -1.4}}, Class: fit.ClassStableFocus, InEnvelope: true},
+			{Point: []float64{-1, 0}, Eigenvalues: [][2]float64{{-0.4, 1.4}, {-0.4, -1.4}}, Class: fit.ClassStableFocus, InEnvelope: true}}}
+	got := UnstableRuns(m, &m.Equilibria[0])
+	want := "24 of the 24 fit runs settle within the data, where the model has stable equilibria at latch = 1 mm, latch_rate = 0 mm/s; latch = -1 mm, latch_rate = 0 mm/s"
+	if !strings.Contains(got, want) || strings.Contains(got, "median") {
+		t.Errorf("UnstableRuns = %q, want %q and no median", got, want)
+	}
+}
+
 // TestSummaryUnstableEquilibrium: the summary's equilibrium line is
 // followed by what the runs do when the fitted equilibrium nearest the
 // certificate's is unstable, and by nothing when it is stable.

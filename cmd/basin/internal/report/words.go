@@ -77,12 +77,31 @@ func UnstableRuns(m *fit.Model, e *fit.Equilibrium) string {
 	case m.Runs == 0:
 	case m.SettledRuns == 0:
 		fmt.Fprintf(&b, "; none of the %s settles within the data: they end still moving (circling, drifting or on their way elsewhere)", human.Count(m.Runs, "fit run"))
+	case len(stableEquilibria(m)) > 1:
+		// runs that settle on two wells: the median of their settle
+		// points lies between them and means nothing
+		var at []string
+		for _, q := range stableEquilibria(m) {
+			at = append(at, modelPoint(m, q.Point))
+		}
+		fmt.Fprintf(&b, "; %d of the %s settle within the data, where the model has stable equilibria at %s", m.SettledRuns, human.Count(m.Runs, "fit run"), strings.Join(at, "; "))
 	case len(m.Settle) == len(m.States):
 		fmt.Fprintf(&b, "; %d of the %s settle within the data, the median of their settle points at %s", m.SettledRuns, human.Count(m.Runs, "fit run"), modelPoint(m, m.Settle))
 	default:
 		fmt.Fprintf(&b, "; %d of the %s settle within the data", m.SettledRuns, human.Count(m.Runs, "fit run"))
 	}
 	return b.String()
+}
+
+// stableEquilibria returns m's equilibria whose class is a stable one.
+func stableEquilibria(m *fit.Model) []*fit.Equilibrium {
+	var out []*fit.Equilibrium
+	for i := range m.Equilibria {
+		if strings.HasPrefix(m.Equilibria[i].Class, "stable") {
+			out = append(out, &m.Equilibria[i])
+		}
+	}
+	return out
 }
 
 // NearestEquilibrium returns the equilibrium of m nearest x in m's
