@@ -61,7 +61,7 @@ func TestUnstableRuns(t *testing.T) {
 }
 
 // TestUnstableRunsTwoWells: runs that settle on the two wells either side
-// of a saddle (x'' = x - x³ - δx' [GuckenheimerHolmes1983], wells at ±1)
+// of a saddle (x” = x - x³ - δx' [GuckenheimerHolmes1983], wells at ±1)
 // have a median settle point between the wells that means nothing: the
 // words name the model's stable equilibria instead.
 func TestUnstableRunsTwoWells(t *testing.T) {
