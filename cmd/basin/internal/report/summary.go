@@ -693,6 +693,10 @@ func ConflictLine(c *fit.Certificate) string {
 // steadily (a temperature that keeps rising) has no rest point, and the
 // certificate cannot claim one. Empty otherwise.
 func noEquilibriumLine(m *fit.Model, at []float64) string {
+	// stillShare: a rate at the settle point of at most a thousandth of
+	// its state's spread per second is no drift (over a 100 s log it
+	// moves the state a tenth of its spread at most)
+	const stillShare = 1e-3
 	if m == nil || len(m.Equilibria) > 0 || len(at) != len(m.States) {
 		return ""
 	}
@@ -708,6 +712,13 @@ func noEquilibriumLine(m *fit.Model, at []float64) string {
 	}
 	if worst < 0 {
 		return "the fitted model has no equilibrium in the data's box: the point above is where the runs settle, not a rest point of the model"
+	}
+	if share <= stillShare {
+		// the field vanishes where the runs settle, yet no isolated
+		// equilibrium was found: a line (or plane) of them, as a column
+		// with no dynamics of its own gives (a drive left among the
+		// states: its equation is zero)
+		return "the fitted model has no isolated equilibrium in the data's box: its field vanishes where the runs settle (the point above) along a line or more of rest points, as when a column with no dynamics of its own (a drive, a setpoint) is read as a state; name such a column with --inputs"
 	}
 	u := ""
 	if worst < len(m.Units) && m.Units[worst] != "" {
