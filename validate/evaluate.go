@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"path/filepath"
 	"slices"
 	"sort"
 	"strconv"
@@ -517,7 +518,7 @@ func decide(cert *fit.Certificate, val *fit.Validation, runs []RunScreen, eig []
 	for _, r := range runs {
 		if r.StartInside && hasFlag(&r, FlagLeaves) {
 			if f := flagOf(&r, FlagLeaves); f.Excess > tol {
-				return fit.Rejected, fit.NoClaim, fit.ReasonLeft, fmt.Sprintf("Held-out run %s started inside the region and left it at t = %.4g s (V above the level by %.3g).", r.Run, f.Time, f.Excess)
+				return fit.Rejected, fit.NoClaim, fit.ReasonLeft, fmt.Sprintf("Held-out run %s started inside the region and left it at t = %.4g s (V above the level by %.3g).", runLabel(r), f.Time, f.Excess)
 			}
 		}
 	}
@@ -526,7 +527,7 @@ func decide(cert *fit.Certificate, val *fit.Validation, runs []RunScreen, eig []
 			// entered later and left: the region is not invariant on this
 			// run; not a contradiction of the equilibrium's stability.
 			if f := flagOf(&r, FlagLeaves); f.Excess > tol {
-				return fit.Inconclusive, fit.NoClaim, fit.ReasonLeft, fmt.Sprintf("Held-out run %s entered the region and left it again at t = %.4g s (V above the level by %.3g). Record more runs through that part of the state space, or expect a smaller region.", r.Run, f.Time, f.Excess)
+				return fit.Inconclusive, fit.NoClaim, fit.ReasonLeft, fmt.Sprintf("Held-out run %s entered the region and left it again at t = %.4g s (V above the level by %.3g). Record more runs through that part of the state space, or expect a smaller region.", runLabel(r), f.Time, f.Excess)
 			}
 		}
 	}
@@ -566,7 +567,7 @@ func decide(cert *fit.Certificate, val *fit.Validation, runs []RunScreen, eig []
 	// grows (slowly enough to stay inside this time).
 	for _, r := range runs {
 		if r.EverInside && r.VEnd-r.vEnter > tol {
-			return fit.Inconclusive, fit.NoClaim, fit.ReasonHeldoutRise, fmt.Sprintf("V rose along held-out run %s from %.4g where it entered the region to %.4g at its end (tolerance %.3g): growth, not stability, so this V is no Lyapunov function along that run. Look at that run (a growing oscillation, a drift, a fault) before recording more.", r.Run, r.vEnter, r.VEnd, tol)
+			return fit.Inconclusive, fit.NoClaim, fit.ReasonHeldoutRise, fmt.Sprintf("V rose along held-out run %s from %.4g where it entered the region to %.4g at its end (tolerance %.3g): growth, not stability, so this V is no Lyapunov function along that run. Look at that run (a growing oscillation, a drift, a fault) before recording more.", runLabel(r), r.vEnter, r.VEnd, tol)
 		}
 	}
 	// Nor may V trend up along the runs: a slowly growing oscillation
@@ -648,6 +649,16 @@ func enteredRuns(k int) string {
 		return "the one held-out run that entered"
 	}
 	return fmt.Sprintf("all %d held-out runs that entered", k)
+}
+
+// runLabel names a run in a verdict's reason: its name, and its file
+// when the file lies in a folder (a fleet's partitions hold many a
+// "log.csv": the name alone does not say which).
+func runLabel(r RunScreen) string {
+	if r.File != "" && filepath.Dir(r.File) != "." {
+		return fmt.Sprintf("%s (%s)", r.Run, r.File)
+	}
+	return r.Run
 }
 
 // settledWords says that the entered held-out runs stayed inside and

@@ -193,3 +193,20 @@ func TestSettledWords(t *testing.T) {
 		}
 	}
 }
+
+// TestRunLabel: a reason names a run by its file too when the file lies
+// in a folder, where a fleet's partitions repeat the same base name.
+func TestRunLabel(t *testing.T) {
+	for _, tc := range []struct {
+		r    RunScreen
+		want string
+	}{
+		{RunScreen{Run: "log.csv", File: "fleet/unit=21/log.csv"}, "log.csv (fleet/unit=21/log.csv)"},
+		{RunScreen{Run: "run03.csv", File: "run03.csv"}, "run03.csv"},
+		{RunScreen{Run: "run03.csv"}, "run03.csv"},
+	} {
+		if got := runLabel(tc.r); got != tc.want {
+			t.Errorf("runLabel(%+v) = %q, want %q", tc.r, got, tc.want)
+		}
+	}
+}
