@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"strings"
 	"testing"
 
 	"basin.example/fit"
@@ -129,5 +130,34 @@ func TestSplitCut(t *testing.T) {
 	Decide(&c, val, runs, [][2]float64{{-zeta * w, w}, {-zeta * w, -w}}, nil)
 	if c.Strength == fit.Asymptotic {
 		t.Errorf("%s/%s with every judged piece unsettled: %s", c.Verdict, c.Strength, c.Reason)
+	}
+}
+
+// TestJudgeLastPieces: of a recording split into pieces (name, name~1,
+// name~2, as the readers name them), only the last is judged on
+// settling; other flags stay, another file's recording of the same
+// name is its own, and a run-column split (file#value) is grouped by
+// its own name.
+func TestJudgeLastPieces(t *testing.T) {
+	un := func() []Flag { return []Flag{{Kind: FlagUnsettled}} }
+	rs := []RunScreen{
+		{File: "a/log.csv", Run: "log.csv", Flagged: true, Flags: un()},
+		{File: "a/log.csv", Run: "log.csv~1", Flagged: true, Flags: []Flag{{Kind: FlagUnsettled}, {Kind: FlagRises}}},
+		{File: "a/log.csv", Run: "log.csv~2", Flagged: true, Flags: un()},
+		{File: "b/log.csv", Run: "log.csv", Flagged: true, Flags: un()},
+		{File: "c.csv", Run: "c.csv#7", Flagged: true, Flags: un()},
+		{File: "c.csv", Run: "c.csv#7~1", Flagged: true, Flags: un()},
+		{File: "c.csv", Run: "c.csv#8", Flagged: true, Flags: un()},
+	}
+	JudgeLastPieces(rs)
+	want := []string{"", "rises", "unsettled", "unsettled", "", "unsettled", "unsettled"}
+	for i, r := range rs {
+		var kinds []string
+		for _, f := range r.Flags {
+			kinds = append(kinds, string(f.Kind))
+		}
+		if got := strings.Join(kinds, ","); got != want[i] || r.Flagged != (want[i] != "") {
+			t.Errorf("%s %s: flags %q flagged %v, want %q", r.File, r.Run, got, r.Flagged, want[i])
+		}
 	}
 }

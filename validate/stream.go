@@ -6,6 +6,8 @@ import (
 	"fmt"
 	"math"
 	"slices"
+	"strconv"
+	"strings"
 
 	"basin.example/ingest"
 	"basin.example/internal/order"
@@ -20,7 +22,52 @@ import (
 // the file is one run whose noise [Screener.Tap] took. Each
 // result's Flags must be copied before dst is reused. It stops with
 // ctx's error when ctx is done, and returns the file's read errors.
+//
+// A piece that ends where its recording was split (at a gap, a missing
+// sample or a one-sample jump: every piece of a recording but the last)
+// is not judged on settling: see [JudgeLastPieces].
 func (s *Screener) ScreenFile(ctx context.Context, dst []RunScreen, sf *ingest.StreamFile) ([]RunScreen, error) {
+	dst, err := s.screenFile(ctx, dst, sf)
+	if err != nil {
+		return nil, err
+	}
+	JudgeLastPieces(dst)
+	return dst, nil
+}
+
+// JudgeLastPieces drops the unsettled flag of every run in rs that is a
+// piece of a split recording other than its last (named "name~N" as the
+// readers name pieces, the recording "name" itself being its first
+// piece): the piece ended where its recording was cut (a logger dropout,
+// a hammer hit) and had no chance to settle, while the recording's last
+// piece ends where the log does and is judged. Flagged is set again.
+func JudgeLastPieces(rs []RunScreen) {
+	last := map[string]int{} // recording (file and stem) -> its last piece's number
+	key := func(r *RunScreen) (string, int) {
+		stem, n := r.Run, 0
+		if i := strings.LastIndexByte(stem, '~'); i > 0 {
+			if k, err := strconv.Atoi(stem[i+1:]); err == nil && k > 0 && stem[i+1] != '+' {
+				stem, n = stem[:i], k
+			}
+		}
+		return r.File + "\x00" + stem, n
+	}
+	for i := range rs {
+		k, n := key(&rs[i])
+		if m, ok := last[k]; !ok || n > m {
+			last[k] = n
+		}
+	}
+	for i := range rs {
+		r := &rs[i]
+		if k, n := key(r); n < last[k] {
+			r.Flags = slices.DeleteFunc(r.Flags, func(f Flag) bool { return f.Kind == FlagUnsettled })
+			r.Flagged = len(r.Flags) > 0
+		}
+	}
+}
+
+func (s *Screener) screenFile(ctx context.Context, dst []RunScreen, sf *ingest.StreamFile) ([]RunScreen, error) {
 	pre := false // the runs' tolerances (s.tols, s.known) from the first Scan
 	if sf.Late() && len(sf.States) == s.n {
 		if !s.noise.on {

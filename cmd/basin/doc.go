@@ -213,8 +213,8 @@ settle, so against it no run is flagged unsettled or slow (one warning says
 so). Rises and leaves say how far past the boundary, per state
 in the states' units; every run reports its decay rate. Each piece of a
 recording split at a gap or a one-sample jump (a hit) is screened as a
-run, those before a split included: one that had not settled when the
-split came is flagged unsettled (check does not judge it on settling). Files are read one
+run, but only the recording's last piece is judged on settling: the
+others ended where the log was cut (as in check). Files are read one
 at a time per worker, so memory stays bounded however many are given.
 Folders are read with their key=value subfolders (logs/vehicle=17/
 day=2026-11-30/run.parquet), and each run reports its partition values.

@@ -62,11 +62,11 @@ flag with the first time it happened and the worst excess, in units of V;
 rises and leaves also say how far past the boundary, per state in the
 states' units; and the run's decay rate. A run that starts outside and
 comes in to settle is not flagged. Each piece of a recording split at a
-gap or a one-sample jump (a hit) is screened as a run of its own, those
-before a split included: one that had not settled when the split came is
-flagged unsettled (check does not judge such a piece on settling; the
-SQL of export --lang sql judges each piece it splits at a missing cell as
-screen does, and splits at no jump). A certificate without held-out decay
+gap or a one-sample jump (a hit) is screened as a run of its own, but
+only the recording's last piece is judged on settling: the others ended
+where the log was cut (as in check; the SQL of export --lang sql does
+the same over the pieces it splits at a missing cell, and splits at no
+jump). A certificate without held-out decay
 rates (an older file, or too few held-out runs with a positive rate)
 screens without the slow flag, with one warning saying why. A certificate
 of strength stable does not claim that runs settle: against it no run is

@@ -193,6 +193,7 @@ func TestScreenStreamed(t *testing.T) {
 							s.Screen(&want[k], f, &ds.Runs[k])
 							want[k].Flags = append([]validate.Flag(nil), want[k].Flags...)
 						}
+						validate.JudgeLastPieces(want) // as ScreenFile does
 						sf, err := st.Open(context.Background(), f)
 						if err != nil {
 							t.Fatal(err)

@@ -79,7 +79,8 @@ func writeSQL(b *strings.Builder, cert *fit.Certificate, opts *Options) error {
 -- table has columns "run", "t" (seconds, increasing within a run) and one
 -- DOUBLE PRECISION column per state, named as in the certificate. A row
 -- with a missing state (NULL or NaN) splits its run there, as basin does,
--- and the run is flagged when a piece is; a row without a time is left
+-- and the run is flagged when a piece is (on settling, its last piece
+-- only: the others ended where it was cut); a row without a time is left
 -- out. Runs are not split at one-sample jumps (a hammer hit) nor trimmed
 -- of a resting start: store those pieces as runs, or compare with
 -- basin screen --keep-events --keep-head.
@@ -300,18 +301,20 @@ k AS (
 	}
 	// one row per run: a run split at missing samples is flagged when
 	// any of its pieces is, with each flag any piece has
-	b.WriteString("  FROM rl\n)\nSELECT \"run\",\n")
+	// Only a run's last piece is judged on settling (as screen does: see
+	// validate.JudgeLastPieces): the others ended where the run was cut.
+	b.WriteString("  FROM rl\n),\nkl AS (\n  SELECT k.*, CASE WHEN pc = MAX(pc) OVER (PARTITION BY \"run\") THEN unsettled ELSE 0 END AS lastunsettled\n  FROM k\n)\nSELECT \"run\",\n")
 	if ru.SlowBound > 0 {
-		b.WriteString("  (MAX(rises) = 1 OR MAX(leaves) = 1 OR MAX(unsettled) = 1 OR MAX(slow) = 1 OR MAX(stuck) = 1) AS flagged,\n")
+		b.WriteString("  (MAX(rises) = 1 OR MAX(leaves) = 1 OR MAX(lastunsettled) = 1 OR MAX(slow) = 1 OR MAX(stuck) = 1) AS flagged,\n")
 	} else {
-		b.WriteString("  (MAX(rises) = 1 OR MAX(leaves) = 1 OR MAX(unsettled) = 1 OR MAX(stuck) = 1) AS flagged,\n")
+		b.WriteString("  (MAX(rises) = 1 OR MAX(leaves) = 1 OR MAX(lastunsettled) = 1 OR MAX(stuck) = 1) AS flagged,\n")
 	}
-	b.WriteString("  (MAX(rises) = 1) AS rises,\n  (MAX(leaves) = 1) AS leaves,\n  (MAX(unsettled) = 1) AS unsettled")
+	b.WriteString("  (MAX(rises) = 1) AS rises,\n  (MAX(leaves) = 1) AS leaves,\n  (MAX(lastunsettled) = 1) AS unsettled")
 	if ru.SlowBound > 0 {
 		b.WriteString(",\n  (MAX(slow) = 1) AS slow")
 	}
 	b.WriteString(",\n  (MAX(stuck) = 1) AS stuck")
-	b.WriteString("\nFROM k\nGROUP BY \"run\"\nORDER BY \"run\";\n")
+	b.WriteString("\nFROM kl\nGROUP BY \"run\"\nORDER BY \"run\";\n")
 	return nil
 }
 

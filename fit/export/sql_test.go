@@ -208,13 +208,22 @@ func gapped(runs []ingest.Run) (table, pieces []ingest.Run) {
 	for j := range src.X {
 		g.X[j] = append([]float64(nil), src.X[j]...)
 	}
-	missing := []int{10, 20, 21}
-	for _, i := range missing {
-		g.X[i%len(g.X)][i] = math.NaN()
+	// The first piece ends in a reading held over its last 80 samples
+	// from sample 40 on (a sensor that froze, then the logger dropped a
+	// row): split there it is stuck, joined it is not, so a query that
+	// ran across the gap would differ from screen. A second gap, in
+	// another state, leaves a short middle piece.
+	const h0, cut = 40, 120
+	for i := h0; i < cut; i++ {
+		g.X[0][i] = g.X[0][h0]
+	}
+	missing := [][2]int{{cut, 0}, {cut + 30, 1 % len(g.X)}}
+	for _, m := range missing {
+		g.X[m[1]][m[0]] = math.NaN()
 	}
 	table = append(append([]ingest.Run(nil), runs...), g)
 	pieces = append([]ingest.Run(nil), runs...)
-	for k, r := range [][2]int{{0, 10}, {11, 20}, {22, len(g.T)}} {
+	for k, r := range [][2]int{{0, cut}, {cut + 1, cut + 30}, {cut + 31, len(g.T)}} {
 		p := ingest.Run{Name: g.Name, T: g.T[r[0]:r[1]], X: make([][]float64, len(g.X))}
 		if k > 0 {
 			p.Name = fmt.Sprintf("%s~%d", g.Name, k)
@@ -263,9 +272,13 @@ func (f flagRow) String() string {
 func screenFlags(c *fit.Certificate, runs []ingest.Run, tol float64) map[string]flagRow {
 	s := validate.NewScreener(c, &validate.ScreenOptions{Tolerance: tol})
 	out := map[string]flagRow{}
+	all := make([]validate.RunScreen, len(runs))
 	for i := range runs {
-		var rs validate.RunScreen
-		s.Screen(&rs, "f", &runs[i])
+		s.Screen(&all[i], "f", &runs[i])
+	}
+	validate.JudgeLastPieces(all) // as ScreenFile does
+	for i := range runs {
+		rs := all[i]
 		var f flagRow
 		f.flagged = rs.Flagged
 		for _, fl := range rs.Flags {
