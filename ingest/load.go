@@ -137,6 +137,7 @@ func Load(ctx context.Context, paths []string, opts *Options) (*Dataset, error) 
 	}
 	out := dss[0]
 	for i, ds := range dss[1:] {
+		reorderLike(out, ds)
 		if err := sameColumns(out, ds, files[0], files[i+1]); err != nil {
 			return nil, err
 		}
@@ -162,6 +163,57 @@ func Load(ctx context.Context, paths []string, opts *Options) (*Dataset, error) 
 		}
 	}
 	return out, finish(out, opts)
+}
+
+// reorderLike puts b's states and inputs in a's order when b has the
+// same columns (names and units) in another order: loggers reconfigured
+// between sessions write the same channels in another order, and check
+// and screen already match a certificate's states by name. Any other
+// difference is left for sameColumns to report.
+func reorderLike(a, b *Dataset) {
+	perm := func(want, have []Column) []int {
+		if len(want) != len(have) {
+			return nil
+		}
+		p := make([]int, len(want))
+		moved := false
+		for i, w := range want {
+			k := slices.Index(have, w)
+			if k < 0 {
+				return nil
+			}
+			p[i] = k
+			moved = moved || k != i
+		}
+		if !moved {
+			return nil
+		}
+		return p
+	}
+	if p := perm(a.States, b.States); p != nil {
+		b.States = permuted(b.States, p)
+		for r := range b.Runs {
+			b.Runs[r].X = permuted(b.Runs[r].X, p)
+		}
+	}
+	if p := perm(a.Inputs, b.Inputs); p != nil {
+		b.Inputs = permuted(b.Inputs, p)
+		for r := range b.Runs {
+			if len(b.Runs[r].U) == len(p) {
+				b.Runs[r].U = permuted(b.Runs[r].U, p)
+			}
+		}
+	}
+}
+
+// permuted returns the elements of s in the order p gives (out[i] =
+// s[p[i]]), in a new slice.
+func permuted[T any](s []T, p []int) []T {
+	out := make([]T, len(p))
+	for i, k := range p {
+		out[i] = s[k]
+	}
+	return out
 }
 
 func hasColumn(cs []Column, name string) bool {
