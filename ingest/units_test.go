@@ -8,6 +8,8 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
+
+	"gonum.org/v1/gonum/floats/scalar"
 )
 
 // unitRows is n data rows of time, pitch, pitch_rate joined by sep, the
@@ -120,7 +122,7 @@ func TestUnitsRow(t *testing.T) {
 				t.Errorf("first sample on line %d, want %d", r.Source.Line, tc.line)
 			}
 			// the written cells, to the 1e-6 they are rounded to
-			if p := 0.5 * math.Exp(-0.1) * math.Cos(0.3); math.Abs(r.X[0][1]-p) > 1e-6 || math.Abs(r.T[1]-r.T[0]-tc.t1) > 1e-9 {
+			if p := 0.5 * math.Exp(-0.1) * math.Cos(0.3); !scalar.EqualWithinAbs(r.X[0][1], p, 1e-6) || !scalar.EqualWithinAbs(r.T[1]-r.T[0], tc.t1, 1e-9) {
 				t.Errorf("second sample t=%g pitch=%g, want t=%g pitch=%g", r.T[1]-r.T[0], r.X[0][1], tc.t1, p)
 			}
 		})
