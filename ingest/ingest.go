@@ -21,6 +21,8 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"strconv"
+	"strings"
 	"time"
 )
 
@@ -250,3 +252,20 @@ func (e *ParseError) Error() string {
 }
 
 func (e *ParseError) Unwrap() error { return e.Err }
+
+// PieceOf splits a run's name as the readers form it into its
+// recording's name and its piece number: "log.csv~2" is piece 2 of
+// "log.csv", and a name without a "~N" suffix (N a positive integer
+// written plainly) is piece 0, the recording's first (a base name that
+// holds '~' itself included).
+func PieceOf(name string) (recording string, piece int) {
+	j := strings.LastIndexByte(name, '~')
+	if j <= 0 {
+		return name, 0
+	}
+	n, err := strconv.Atoi(name[j+1:])
+	if err != nil || n < 1 || strconv.Itoa(n) != name[j+1:] {
+		return name, 0
+	}
+	return name[:j], n
+}

@@ -9,7 +9,6 @@ import (
 	"path/filepath"
 	"slices"
 	"sort"
-	"strconv"
 	"strings"
 
 	"basin.example/fit"
@@ -1062,26 +1061,13 @@ func SplitCuts(ds *ingest.Dataset) map[RunKey]*Cut {
 		k int
 		r *ingest.Run
 	}
-	// pieceOf splits a reader's piece name into its recording's name and
-	// its number; ok is false for a name that is not one.
-	pieceOf := func(r *ingest.Run) (string, int, bool) {
-		j := strings.LastIndexByte(r.Name, '~')
-		if j < 0 {
-			return r.Name, 0, true
-		}
-		n, err := strconv.Atoi(r.Name[j+1:])
-		if err != nil || n < 1 || strconv.Itoa(n) != r.Name[j+1:] {
-			return r.Name, 0, true // a base name holding '~': the whole recording's first piece
-		}
-		return r.Name[:j], n, true
-	}
 	pieces := map[rec][]piece{}
 	for i := range ds.Runs {
 		r := &ds.Runs[i]
 		if r.Gaps+r.Events == 0 || r.Len() == 0 {
 			continue
 		}
-		name, k, _ := pieceOf(r)
+		name, k := ingest.PieceOf(r.Name)
 		key := rec{r.Source.File, name}
 		pieces[key] = append(pieces[key], piece{k, r})
 	}

@@ -6,8 +6,6 @@ import (
 	"fmt"
 	"math"
 	"slices"
-	"strconv"
-	"strings"
 
 	"basin.example/ingest"
 	"basin.example/internal/order"
@@ -44,12 +42,7 @@ func (s *Screener) ScreenFile(ctx context.Context, dst []RunScreen, sf *ingest.S
 func JudgeLastPieces(rs []RunScreen) {
 	last := map[string]int{} // recording (file and stem) -> its last piece's number
 	key := func(r *RunScreen) (string, int) {
-		stem, n := r.Run, 0
-		if i := strings.LastIndexByte(stem, '~'); i > 0 {
-			if k, err := strconv.Atoi(stem[i+1:]); err == nil && k > 0 && stem[i+1] != '+' {
-				stem, n = stem[:i], k
-			}
-		}
+		stem, n := ingest.PieceOf(r.Run)
 		return r.File + "\x00" + stem, n
 	}
 	for i := range rs {

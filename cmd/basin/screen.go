@@ -464,26 +464,13 @@ func fileJumps(runs []validate.RunScreen, jumps []int) int {
 	seen := map[string]bool{}
 	n := 0
 	for k, r := range runs {
-		stem := r.Run
-		if i := strings.LastIndexByte(stem, '~'); i > 0 && isDigits(stem[i+1:]) {
-			stem = stem[:i]
-		}
+		stem, _ := ingest.PieceOf(r.Run)
 		if !seen[stem] {
 			seen[stem] = true
 			n += jumps[k]
 		}
 	}
 	return n
-}
-
-// isDigits says s is one or more ASCII digits.
-func isDigits(s string) bool {
-	for _, c := range []byte(s) {
-		if c < '0' || c > '9' {
-			return false
-		}
-	}
-	return s != ""
 }
 
 // screenTable prints the runs in input order, then a summary line.
