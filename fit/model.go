@@ -541,19 +541,8 @@ var ErrFormat = errors.New("not a basin file of this format")
 // ReadModel decodes and checks a model.json. Unknown fields are allowed.
 func ReadModel(r io.Reader) (*Model, error) {
 	var m Model
-	data, err := io.ReadAll(io.LimitReader(r, maxCertBytes+1))
-	if err != nil {
+	if err := decodeOne(r, &m); err != nil {
 		return nil, fmt.Errorf("model: %w", err)
-	}
-	if len(data) > maxCertBytes {
-		return nil, fmt.Errorf("model: larger than %d MiB, not a model: %w", maxCertBytes>>20, ErrFormat)
-	}
-	dec := json.NewDecoder(bytes.NewReader(data))
-	if err := dec.Decode(&m); err != nil {
-		return nil, fmt.Errorf("model: %w", jsonWhere(data, err))
-	}
-	if _, err := dec.Token(); err != io.EOF {
-		return nil, fmt.Errorf("model: data after the JSON object: %w", ErrFormat)
 	}
 	if m.Format != ModelFormat {
 		return nil, fmt.Errorf("model: format %q: %w", m.Format, ErrFormat)
@@ -617,23 +606,8 @@ func (m *Model) validate() error {
 // inconsistent file is refused with the reason. Unknown fields are allowed.
 func ReadCertificate(r io.Reader) (*Certificate, error) {
 	var c Certificate
-	// Certificates are small: read whole (at most maxCertBytes), so that
-	// a decoding error can say where, by line and column.
-	data, err := io.ReadAll(io.LimitReader(r, maxCertBytes+1))
-	if err != nil {
+	if err := decodeOne(r, &c); err != nil {
 		return nil, fmt.Errorf("certificate: %w", err)
-	}
-	if len(data) > maxCertBytes {
-		return nil, fmt.Errorf("certificate: larger than %d MiB, not a certificate: %w", maxCertBytes>>20, ErrFormat)
-	}
-	dec := json.NewDecoder(bytes.NewReader(data))
-	if err := dec.Decode(&c); err != nil {
-		return nil, fmt.Errorf("certificate: %w", jsonWhere(data, err))
-	}
-	// A second value after the object (two files pasted together, an
-	// edit gone wrong) makes the file ambiguous: refuse it.
-	if _, err := dec.Token(); err != io.EOF {
-		return nil, fmt.Errorf("certificate: data after the JSON object: %w", ErrFormat)
 	}
 	if c.Format != CertificateFormat {
 		return nil, fmt.Errorf("certificate: format %q: %w", c.Format, ErrFormat)
@@ -765,6 +739,29 @@ func (m *Model) Nearest(x []float64) (int, float64) {
 		}
 	}
 	return best, math.Sqrt(bd)
+}
+
+// decodeOne decodes the one JSON value of r into v. The file is read
+// whole (at most maxCertBytes; models and certificates are small), so
+// that a decoding error can say where, by line and column (jsonWhere);
+// a second value after the first (two files pasted together, an edit
+// gone wrong) makes the file ambiguous and is refused.
+func decodeOne(r io.Reader, v any) error {
+	data, err := io.ReadAll(io.LimitReader(r, maxCertBytes+1))
+	if err != nil {
+		return err
+	}
+	if len(data) > maxCertBytes {
+		return fmt.Errorf("larger than %d MiB, not a basin file: %w", maxCertBytes>>20, ErrFormat)
+	}
+	dec := json.NewDecoder(bytes.NewReader(data))
+	if err := dec.Decode(v); err != nil {
+		return jsonWhere(data, err)
+	}
+	if _, err := dec.Token(); err != io.EOF {
+		return fmt.Errorf("data after the JSON object: %w", ErrFormat)
+	}
+	return nil
 }
 
 // maxCertBytes bounds the certificate ReadCertificate (and the model
