@@ -44,9 +44,8 @@ func inputExplained(m *Model, runs []*ingest.Run, q, degree int) []float64 {
 		total += r.Len()
 	}
 	stride := max(1, total/feedbackRows)
-	var rows [][]float64
-	var us [][]float64 // us[k] the input samples
-	us = make([][]float64, q)
+	var rows []float64         // the design matrix, row by row
+	us := make([][]float64, q) // us[k] the input samples
 	z := make([]float64, n)
 	i := 0
 	for _, r := range runs {
@@ -65,23 +64,22 @@ func inputExplained(m *Model, runs []*ingest.Run, q, degree int) []float64 {
 			if !ok {
 				continue
 			}
-			rows = append(rows, lib.EvalTo(make([]float64, p), z))
+			rows = append(rows, make([]float64, p)...)
+			lib.EvalTo(rows[len(rows)-p:], z)
 			for k := range q {
 				us[k] = append(us[k], r.U[k][s])
 			}
 		}
 	}
 	out := make([]float64, q)
-	if len(rows) < 2*p {
+	nr := len(rows) / p
+	if nr < 2*p {
 		for k := range out {
 			out[k] = 0 // too few samples to tell: the fit's own checks refuse them
 		}
 		return out
 	}
-	A := mat.NewDense(len(rows), p, nil)
-	for r, row := range rows {
-		A.SetRow(r, row)
-	}
+	A := mat.NewDense(nr, p, rows)
 	var qr mat.QR
 	qr.Factorize(A)
 	for k := range q {
