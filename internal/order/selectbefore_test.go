@@ -61,16 +61,24 @@ func partition3Before(d []float64, lo, hi int) (lt, gt int) {
 // BenchmarkSelect times the median selection of 4,096 and 16,384
 // values (the sizes of the streamed noise estimates) against the code
 // before the branchless partitions (selectRangeBefore), interleaved, on
-// Gaussian values and on values of a few levels (quantised jumps).
+// Gaussian values, on values of a few levels (quantised jumps) and on
+// the third differences of a sampled smooth sine (the jump statistic of
+// a state logged without noise: a periodic pattern on which fixed pivot
+// positions took ten times as long).
 func BenchmarkSelect(b *testing.B) {
 	rng := rand.New(rand.NewPCG(5, 1))
 	for _, n := range []int{4096, 16384} {
-		for _, kind := range []string{"normal", "levels"} {
+		for _, kind := range []string{"normal", "levels", "sine"} {
 			x := make([]float64, n)
 			for i := range x {
-				if kind == "normal" {
+				switch kind {
+				case "normal":
 					x[i] = rng.NormFloat64()
-				} else {
+				case "sine":
+					s := func(k int) float64 { return math.Sin(float64(k) * 0.001) }
+					k := 3*i + 2
+					x[i] = s(k+1) - 3*s(k) + 3*s(k-1) - s(k-2)
+				default:
 					x[i] = math.Abs(float64(rng.IntN(9) - 4))
 				}
 			}
