@@ -294,8 +294,10 @@ func (tb *table) noiseOf(pieces [][][2]int, ns int) ([]stateNoise, error) {
 		total += pieceLen(p)
 	}
 	stride := max(1, total/noiseSubsample)
-	err := parallel.For(context.Background(), ns, 0, func() *[]float64 { return new([]float64) }, func(_ context.Context, j int, buf *[]float64) error {
-		all := (*buf)[:0]
+	// per worker: the jump statistics, and scaleOf's scratch
+	type bufs struct{ all, sel []float64 }
+	err := parallel.For(context.Background(), ns, 0, func() *bufs { return new(bufs) }, func(_ context.Context, j int, buf *bufs) error {
+		all := buf.all[:0]
 		q := math.Inf(1)
 		lo, hi := math.Inf(1), math.Inf(-1)
 		for _, p := range pieces {
@@ -307,8 +309,10 @@ func (tb *table) noiseOf(pieces [][][2]int, ns int) ([]stateNoise, error) {
 				all = append(all, jumpAt(x[i-2], x[i-1], x[i], x[i+1], t[i-2], t[i-1], t[i], t[i+1]))
 			}
 		}
-		*buf = all
-		out[j] = stateNoise{s: robustScale(all), quant: q, span: hi - lo}
+		var sc float64
+		buf.all = all
+		buf.sel, sc = scaleOf(buf.sel, all)
+		out[j] = stateNoise{s: sc, quant: q, span: hi - lo}
 		return nil
 	})
 	if err != nil {
