@@ -294,9 +294,15 @@ func (tb *table) noiseOf(pieces [][][2]int, ns int) ([]stateNoise, error) {
 		total += pieceLen(p)
 	}
 	stride := max(1, total/noiseSubsample)
-	// per worker: the jump statistics, and scaleOf's scratch
-	type bufs struct{ all, sel []float64 }
-	err := parallel.For(context.Background(), ns, 0, func() *bufs { return new(bufs) }, func(_ context.Context, j int, buf *bufs) error {
+	scr := tb.scratchOf()
+	w := min(parallel.Workers(0), ns)
+	for len(scr.noise) < w {
+		scr.noise = append(scr.noise, new(noiseScratch))
+	}
+	var next atomic.Int32
+	err := parallel.For(context.Background(), ns, w, func() *noiseScratch {
+		return scr.noise[next.Add(1)-1]
+	}, func(_ context.Context, j int, buf *noiseScratch) error {
 		all := buf.all[:0]
 		q := math.Inf(1)
 		lo, hi := math.Inf(1), math.Inf(-1)

@@ -127,6 +127,9 @@ func readParquetTable(ctx context.Context, path string, opts *Options, store *co
 		return nil, err
 	}
 	po.store = store
+	if store != nil {
+		po.tb.scratch = &store.scr
+	}
 	defer po.f.Close()
 	return po.tb, po.readAll(ctx, opts)
 }

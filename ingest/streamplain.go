@@ -328,7 +328,12 @@ func unpackNarrow(out []float64, k int, body []byte, q, vals int, bw uint, dict 
 // colStore is column storage reused from file to file: slot 0 for time,
 // 1+k for state (or input) k. A nil *colStore hands out fresh slices.
 // Reused slices are not cleared: every row is written before it is read.
-type colStore struct{ f [][]float64 }
+// It also holds the noise and event passes' buffers (see tableScratch),
+// reused from file to file with it.
+type colStore struct {
+	f   [][]float64
+	scr tableScratch
+}
 
 func (cs *colStore) floats(slot, n int) []float64 {
 	if cs == nil {
