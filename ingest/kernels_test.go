@@ -106,6 +106,58 @@ func TestSpanStep(t *testing.T) {
 	}
 }
 
+// rangeResBefore is rangeRes before it took spanStep's pass: float
+// comparisons, a NaN flag.
+func rangeResBefore(x []float64) (lo, hi, res float64, ok bool) {
+	lo, hi, res = math.Inf(1), math.Inf(-1), math.Inf(1)
+	if len(x) == 0 {
+		return lo, hi, res, true
+	}
+	prev := x[0]
+	nan := prev != prev
+	lo, hi = prev, prev
+	for _, v := range x[1:] {
+		if v < lo {
+			lo = v
+		}
+		if v > hi {
+			hi = v
+		}
+		if d := math.Abs(v - prev); d > 0 && d < res {
+			res = d
+		}
+		nan = nan || v != v
+		prev = v
+	}
+	return lo, hi, res, !nan
+}
+
+// TestRangeRes: rangeRes finds a NaN where the comparison loop did and
+// otherwise gives its resolution to the bit and its least and greatest
+// value but for a zero's sign (the comparisons keep the first of -0 and
+// +0; the span hi - lo, the only use, is +0 either way).
+func TestRangeRes(t *testing.T) {
+	checked, withNaN := 0, 0
+	for _, x := range kernelInputs() {
+		lo, hi, res, ok := rangeRes(x)
+		wlo, whi, wres, wok := rangeResBefore(x)
+		if ok != wok {
+			t.Fatalf("rangeRes(%v): ok %v, the comparison loop %v", x, ok, wok)
+		}
+		checked++
+		if !ok {
+			withNaN++
+			continue
+		}
+		if lo != wlo || hi != whi || !sameBits(res, wres) || !sameBits(hi-lo, whi-wlo) {
+			t.Fatalf("rangeRes(%v) = %v %v %v, the comparison loop %v %v %v", x, lo, hi, res, wlo, whi, wres)
+		}
+	}
+	if checked < 1000 || withNaN < 30 {
+		t.Fatalf("%d cases, %d with NaN: too few", checked, withNaN)
+	}
+}
+
 // TestOrderKey: orderKey orders float64 values as Go's min does (-0
 // below +0; common practice for sorting floats as integers), and
 // keyValue undoes it.
