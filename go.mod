@@ -5,6 +5,7 @@ go 1.26.0
 require (
 	github.com/apache/arrow/go/v15 v15.0.2
 	github.com/gocarina/gocsv v0.0.0-20240520201108-78e41c74b4b1
+	github.com/golang/snappy v0.0.4
 	github.com/sajari/regression v1.0.1
 	golang.org/x/sys v0.49.0
 	gonum.org/v1/gonum v0.17.0
@@ -25,7 +26,6 @@ require (
 	github.com/goccy/go-json v0.10.2 // indirect
 	github.com/golang/freetype v0.0.0-20170609003504-e2365dfdc4a0 // indirect
 	github.com/golang/protobuf v1.5.3 // indirect
-	github.com/golang/snappy v0.0.4 // indirect
 	github.com/google/flatbuffers v23.5.26+incompatible // indirect
 	github.com/google/uuid v1.6.0 // indirect
 	github.com/klauspost/asmfmt v1.3.2 // indirect

@@ -130,6 +130,9 @@ type colScratch struct {
 	// row group to row group), so plainFloats reads them in place
 	pad   int
 	hdr   []byte // readPlainInto's page header
+	// plainFloats' decompressed page bodies: the dictionary's, a data
+	// page's
+	unzDict, unz []byte
 	defs  []int16
 	i32   []int32
 	i64   []int64
@@ -300,8 +303,8 @@ func (tb *table) readGroup(f *os.File, pr *file.Reader, jb *colJob, c Column,
 	if err := checkChunk(buf, cc.Compression(), lim); err != nil {
 		return 0, bad("row group %d: %v", i, err)
 	}
-	if jb.kind == kindFloat64 && descr.MaxDefinitionLevel() == 0 && cc.Compression() == compress.Codecs.Uncompressed {
-		if ok, err := tb.plainFloats(buf, jb.dst[off:off+rows], jb.base+off, sc); err != nil {
+	if jb.kind == kindFloat64 && descr.MaxDefinitionLevel() == 0 {
+		if ok, err := tb.plainFloats(buf, jb.dst[off:off+rows], jb.base+off, sc, cc.Compression()); err != nil {
 			pe := err.(*ParseError)
 			pe.Column, pe.Name = jb.j+1, c.Name
 			return 0, pe

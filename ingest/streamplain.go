@@ -8,6 +8,9 @@ import (
 	"os"
 	"slices"
 	"unsafe"
+
+	"github.com/apache/arrow/go/v15/parquet/compress"
+	"github.com/golang/snappy"
 )
 
 // littleEndian says float64 values are stored little-endian in memory,
@@ -31,7 +34,15 @@ var littleEndian = binary.NativeEndian.Uint16([]byte{1, 0}) == 1
 // start on an 8-byte boundary (little-endian, as memory holds them),
 // else copied to sc.dict; sc.pad is set to the offset in sc.chunk that
 // would have aligned them (see colScratch), for the next chunk.
-func (tb *table) plainFloats(buf []byte, dst []float64, row0 int, sc *colScratch) (ok bool, err error) {
+//
+// With codec Snappy, each page body is first decompressed (into dst
+// itself for a PLAIN page, else into sc's buffers), as Arrow's reader
+// would with the same library; a body that does not decompress to its
+// header's size is left to Arrow's reader. Other codecs are not taken.
+func (tb *table) plainFloats(buf []byte, dst []float64, row0 int, sc *colScratch, codec compress.Compression) (ok bool, err error) {
+	if codec != compress.Codecs.Uncompressed && codec != compress.Codecs.Snappy {
+		return false, nil
+	}
 	pos, k := 0, 0
 	var dict []float64 // the dictionary: in buf, or in sc.dict
 	// every value finite: the dictionary's (a dictionary-encoded value
@@ -43,11 +54,23 @@ func (tb *table) plainFloats(buf []byte, dst []float64, row0 int, sc *colScratch
 			return false, nil
 		}
 		pos += n
-		if h.compressed != h.uncompressed || h.values < 0 || int64(h.compressed) > int64(len(buf)-pos) {
+		if h.values < 0 || h.compressed < 0 || int64(h.compressed) > int64(len(buf)-pos) {
 			return false, nil
 		}
 		body := buf[pos : pos+int(h.compressed)]
 		pos += int(h.compressed)
+		// a compressed body: every page of a chunk, but a v2 data page
+		// that says it is not
+		squeezed := codec != compress.Codecs.Uncompressed && (h.typ != pageDataV2 || h.v2Compressed)
+		if !squeezed && h.compressed != h.uncompressed {
+			return false, nil
+		}
+		if squeezed && h.typ == pageDictionary {
+			// its own buffer: the data pages' bodies must not overwrite it
+			if body, ok = unsnappy(&sc.unzDict, body, int(h.uncompressed)); !ok {
+				return false, nil
+			}
+		}
 		switch {
 		case h.typ == pageDictionary:
 			// encoding is not parsed for dictionary pages: it is PLAIN
@@ -77,7 +100,7 @@ func (tb *table) plainFloats(buf []byte, dst []float64, row0 int, sc *colScratch
 			finite = allFinite(d)
 			continue
 		case h.typ == pageData:
-		case h.typ == pageDataV2 && h.levels == 0 && !h.v2Compressed:
+		case h.typ == pageDataV2 && h.levels == 0:
 		default:
 			return false, nil
 		}
@@ -85,6 +108,24 @@ func (tb *table) plainFloats(buf []byte, dst []float64, row0 int, sc *colScratch
 			return false, nil
 		}
 		out := dst[k : k+int(h.values)]
+		if squeezed && h.encoding == encPlain && littleEndian && len(out) > 0 && int64(h.uncompressed) == 8*int64(len(out)) {
+			// the values' bytes decompress straight into their place
+			into := unsafe.Slice((*byte)(unsafe.Pointer(&out[0])), 8*len(out))
+			got, err := snappy.Decode(into, body)
+			if err != nil || len(got) != len(into) || &got[0] != &into[0] {
+				return false, nil
+			}
+			if !allFinite(out) {
+				finite = false
+			}
+			k += len(out)
+			continue
+		}
+		if squeezed {
+			if body, ok = unsnappy(&sc.unz, body, int(h.uncompressed)); !ok {
+				return false, nil
+			}
+		}
 		switch h.encoding {
 		case encPlain:
 			if int64(len(body)) != 8*int64(h.values) {
@@ -119,6 +160,23 @@ func (tb *table) plainFloats(buf []byte, dst []float64, row0 int, sc *colScratch
 		}
 	}
 	return true, nil
+}
+
+// unsnappy decompresses the Snappy block src into *buf (grown as needed,
+// kept for the next page) and returns it; ok is false unless it
+// decompresses to exactly n bytes.
+func unsnappy(buf *[]byte, src []byte, n int) (out []byte, ok bool) {
+	if dl, err := snappy.DecodedLen(src); err != nil || dl != n {
+		return nil, false
+	}
+	if cap(*buf) < n {
+		*buf = make([]byte, n)
+	}
+	out, err := snappy.Decode((*buf)[:n], src)
+	if err != nil || len(out) != n {
+		return nil, false
+	}
+	return out, true
 }
 
 // plainHeaderMax is the most bytes of a page header readPlainInto reads

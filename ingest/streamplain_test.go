@@ -13,6 +13,7 @@ import (
 	"github.com/apache/arrow/go/v15/arrow/array"
 	"github.com/apache/arrow/go/v15/arrow/memory"
 	"github.com/apache/arrow/go/v15/parquet"
+	"github.com/apache/arrow/go/v15/parquet/compress"
 	"github.com/apache/arrow/go/v15/parquet/file"
 	"github.com/apache/arrow/go/v15/parquet/pqarrow"
 )
@@ -220,6 +221,13 @@ func BenchmarkUnpackDict(b *testing.B) {
 // returns the column chunk's bytes and the values.
 func dictChunk(t testing.TB, n int) ([]byte, []float64) {
 	t.Helper()
+	return chunkWith(t, n, parquet.WithDictionaryDefault(true))
+}
+
+// chunkWith is dictChunk with the writer's properties (after a row group
+// of n rows).
+func chunkWith(t testing.TB, n int, opts ...parquet.WriterProperty) ([]byte, []float64) {
+	t.Helper()
 	rng := rand.New(rand.NewPCG(4, 4))
 	v := make([]float64, n)
 	for i := range v {
@@ -232,7 +240,7 @@ func dictChunk(t testing.TB, n int) ([]byte, []float64) {
 	rec := rb.NewRecord()
 	defer rec.Release()
 	var buf bytes.Buffer
-	props := parquet.NewWriterProperties(parquet.WithMaxRowGroupLength(int64(n)), parquet.WithDictionaryDefault(true))
+	props := parquet.NewWriterProperties(append([]parquet.WriterProperty{parquet.WithMaxRowGroupLength(int64(n))}, opts...)...)
 	w, err := pqarrow.NewFileWriter(sc, &buf, props, pqarrow.DefaultWriterProps())
 	if err != nil {
 		t.Fatal(err)
@@ -251,11 +259,64 @@ func dictChunk(t testing.TB, n int) ([]byte, []float64) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if !cc.HasDictionaryPage() {
-		t.Fatal("no dictionary page")
+	start := cc.DataPageOffset()
+	if cc.HasDictionaryPage() {
+		start = min(start, cc.DictionaryPageOffset())
 	}
-	start := min(cc.DataPageOffset(), cc.DictionaryPageOffset())
 	return buf.Bytes()[start : start+cc.TotalCompressedSize()], v
+}
+
+// TestPlainFloatsSnappy: plainFloats takes Snappy-compressed chunks
+// (the default codec of many Parquet writers) of Arrow's writer,
+// dictionary-encoded, plain, and in data pages of format v2, and
+// decodes them to the values written, bit for bit; a chunk whose body
+// does not decompress to its page's size is refused (left to Arrow's
+// reader), as is another codec. The Snappy format [Snappy] is
+// decompressed by the library Arrow's own reader uses.
+func TestPlainFloatsSnappy(t *testing.T) {
+	snappyOn := parquet.WithCompression(compress.Codecs.Snappy)
+	for _, tc := range []struct {
+		name string
+		opts []parquet.WriterProperty
+	}{
+		{"dictionary", []parquet.WriterProperty{snappyOn, parquet.WithDictionaryDefault(true)}},
+		{"plain", []parquet.WriterProperty{snappyOn, parquet.WithDictionaryDefault(false)}},
+		{"plain v2", []parquet.WriterProperty{snappyOn, parquet.WithDictionaryDefault(false), parquet.WithDataPageVersion(parquet.DataPageV2)}},
+		{"dictionary v2", []parquet.WriterProperty{snappyOn, parquet.WithDictionaryDefault(true), parquet.WithDataPageVersion(parquet.DataPageV2)}},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			chunk, want := chunkWith(t, 5000, tc.opts...)
+			tb := &table{file: "t.parquet"}
+			var sc colScratch
+			got := make([]float64, len(want))
+			ok, err := tb.plainFloats(chunk, got, 0, &sc, compress.Codecs.Snappy)
+			if !ok || err != nil {
+				t.Fatalf("ok %v, err %v", ok, err)
+			}
+			for i := range got {
+				if math.Float64bits(got[i]) != math.Float64bits(want[i]) {
+					t.Fatalf("value %d = %v, want %v", i, got[i], want[i])
+				}
+			}
+			// the same bytes said to be Zstandard: not taken
+			if ok, _ := tb.plainFloats(chunk, got, 0, &sc, compress.Codecs.Zstd); ok {
+				t.Error("a chunk of another codec taken")
+			}
+			// a first body declaring one byte more or less than its page
+			// (the block's leading varint length, [Snappy]): refused
+			_, n, err := parsePageHeader(chunk)
+			if err != nil {
+				t.Fatal(err)
+			}
+			for _, d := range []byte{1, 2} {
+				bad := slices.Clone(chunk)
+				bad[n] ^= d
+				if ok, _ := tb.plainFloats(bad, got, 0, &sc, compress.Codecs.Snappy); ok {
+					t.Errorf("a body declaring the wrong size (first byte %#x, was %#x) taken", bad[n], chunk[n])
+				}
+			}
+		})
+	}
 }
 
 // TestPlainFloatsInPlace checks that plainFloats decodes a dictionary
@@ -277,7 +338,7 @@ func TestPlainFloatsInPlace(t *testing.T) {
 		copy(buf, chunk)
 		clear(got)
 		sc.dict = sc.dict[:0]
-		ok, err := tb.plainFloats(buf, got, 0, &sc)
+		ok, err := tb.plainFloats(buf, got, 0, &sc, compress.Codecs.Uncompressed)
 		if !ok || err != nil {
 			t.Fatalf("trial %d: ok %v, err %v", trial, ok, err)
 		}
@@ -304,7 +365,7 @@ func BenchmarkPlainFloats(b *testing.B) {
 	mem := make([]byte, len(chunk)+16)
 	dst := make([]float64, 1<<16)
 	copy(mem, chunk)
-	tb.plainFloats(mem[:len(chunk)], dst, 0, &sc) // learns the pad
+	tb.plainFloats(mem[:len(chunk)], dst, 0, &sc, compress.Codecs.Uncompressed) // learns the pad
 	aligned := mem[sc.pad : sc.pad+len(chunk)]
 	copy(aligned, chunk)
 	off := append([]byte(nil), mem[:len(chunk)+16]...)
@@ -314,9 +375,9 @@ func BenchmarkPlainFloats(b *testing.B) {
 	for b.Loop() {
 		pad := sc.pad
 		t0 := time.Now()
-		okA, _ := tb.plainFloats(aligned, dst, 0, &sc)
+		okA, _ := tb.plainFloats(aligned, dst, 0, &sc, compress.Codecs.Uncompressed)
 		t1 := time.Now()
-		okB, _ := tb.plainFloats(mis, dst, 0, &sc)
+		okB, _ := tb.plainFloats(mis, dst, 0, &sc, compress.Codecs.Uncompressed)
 		t2 := time.Now()
 		sc.pad = pad
 		if !okA || !okB {
