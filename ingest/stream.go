@@ -44,6 +44,14 @@ type StreamOptions struct {
 	// read (see [BlockTap]): a caller's statistic over the whole file
 	// gathered without a read of its own.
 	Tap BlockTap
+	// Hold is the most bytes of samples (8 a value, time included) a
+	// streamed file's first read keeps in memory, so that its later
+	// passes (planning's, then the Scans) take them from there instead
+	// of decoding the file again; a larger file is read once per pass.
+	// The memory is the Streamer's, reused from file to file, so it
+	// bounds what a Streamer holds whatever the files' sizes. Zero means
+	// DefaultHold; negative holds nothing.
+	Hold int64
 }
 
 // A BlockTap is shown the rows of each streamed file in its first read,
@@ -84,7 +92,9 @@ type Streamer struct {
 	late      bool      // StreamOptions.LateRuns
 	tap       BlockTap  // StreamOptions.Tap
 	src       streamScratch
-	plan      *plan // the last plan, whose buffers the next one reuses
+	plan      *plan   // the last plan, whose buffers the next one reuses
+	hold      int64   // StreamOptions.Hold, in bytes (<= 0: none)
+	hb        holdBuf // the held samples of the file last opened
 
 	csv csvBufs // a streamed CSV file's read buffers (see csvSource)
 }
@@ -92,7 +102,7 @@ type Streamer struct {
 // NewStreamer returns a Streamer that reads with opts (nil: defaults)
 // and so (nil: defaults). opts is copied.
 func NewStreamer(opts *Options, so *StreamOptions) *Streamer {
-	s := &Streamer{window: DefaultWindow, csvWindow: DefaultCSVWindow, store: &colStore{}}
+	s := &Streamer{window: DefaultWindow, csvWindow: DefaultCSVWindow, store: &colStore{}, hold: DefaultHold}
 	if opts != nil {
 		s.opts = *opts
 	}
@@ -104,6 +114,9 @@ func NewStreamer(opts *Options, so *StreamOptions) *Streamer {
 	}
 	if so != nil && so.CSVWindow != 0 {
 		s.csvWindow = so.CSVWindow
+	}
+	if so != nil && so.Hold != 0 {
+		s.hold = so.Hold
 	}
 	return s
 }
@@ -134,6 +147,8 @@ type StreamFile struct {
 	src  source   // streamed
 	xbuf [][]float64
 	late *plan // the plan whose pass 3 is left to the first Scan
+	// wasHeld: the samples were held (see Held) when the file was closed
+	wasHeld bool
 }
 
 // A StreamRun is one run of a [StreamFile], as [Run] without the samples.
@@ -151,6 +166,11 @@ type StreamRun struct {
 // for a file read whole.
 func (r *StreamRun) Rows() (first, end int) { return r.rows[0], r.rows[1] }
 
+// Held reports whether a streamed file's samples are held in memory
+// from its first read (see [StreamOptions.Hold]): its later passes do
+// not read the file. After Close it tells whether they were.
+func (sf *StreamFile) Held() bool { return sf.wasHeld || sf.src != nil && held(sf.src) }
+
 // Dataset returns the file's data set when it was read whole, nil when
 // it is streamed.
 func (sf *StreamFile) Dataset() *Dataset { return sf.ds }
@@ -158,6 +178,7 @@ func (sf *StreamFile) Dataset() *Dataset { return sf.ds }
 // Close releases the file. It is safe to call more than once.
 func (sf *StreamFile) Close() error {
 	if sf.src != nil {
+		sf.wasHeld = held(sf.src)
 		err := sf.src.close()
 		sf.src = nil
 		return err
@@ -174,8 +195,9 @@ func (e *errFallback) Error() string { return "read whole: " + e.why }
 // sample counts and line numbers that [ReadFile] gives, without holding
 // the file's samples. A file of at most Window rows, or one that cannot
 // be streamed (see [StreamFile.Whole]), is read whole instead, and
-// [StreamFile.Dataset] returns it. Planning reads a streamed file two to
-// three times (see the package documentation of the passes). Errors are
+// [StreamFile.Dataset] returns it. Planning makes two to three passes
+// over a streamed file (see the package documentation of the passes);
+// only the first reads it when its samples fit in [StreamOptions.Hold]. Errors are
 // those of ReadFile, with the same text: a streamed file that turns out
 // bad is read again whole to report its error as ReadFile would.
 func (s *Streamer) Open(ctx context.Context, path string) (*StreamFile, error) {
@@ -279,6 +301,8 @@ func (s *Streamer) openStream(ctx context.Context, path string) (*StreamFile, er
 	if rows := src.rowsHint(); rows >= 0 && s.window > 0 && rows <= s.window {
 		return nil, &errFallback{"window"}
 	}
+	src = holdSource(src, &s.hb, s.hold)
+	sf.src = src
 	pl := newPlan(sf, src, &s.opts, s.plan)
 	pl.tap = s.tap
 	s.plan = pl
@@ -359,7 +383,7 @@ func (sf *StreamFile) ScanRuns(ctx context.Context, need func(k int) bool, fn fu
 			return nil // no run needed: nothing to read
 		}
 	}
-	if ps, ok := sf.src.(*parquetSource); ok {
+	if ps, ok := unheld(sf.src).(*parquetSource); ok {
 		ps.lim = lim
 		defer func() { ps.lim = [2]int{} }()
 	}
@@ -531,6 +555,10 @@ type parquetSource struct {
 	// lim[1]-1 (all when lim[1] is 0), the others skipped by their row
 	// counts
 	lim [2]int
+	// hold, when not nil, has a column per job of the file's length:
+	// decode writes each row group into its rows there, not into the
+	// scratch buffers (see heldSource)
+	hold *holdBuf
 }
 
 // skip reports whether the row group of rows rows from row0 lies
@@ -702,6 +730,13 @@ type groupBuf struct {
 	x [][]float64
 }
 
+// jb0bad is the error of a row group that lies past the rows the
+// footer counts (the file changed).
+func jb0bad(ps *parquetSource, i, row0, rows int) error {
+	jb := ps.jobs[0]
+	return jb.bad(ps.po.tb.file, ps.po.cols[jb.j], "row group %d: rows %d to %d past the file's %d", i, row0, row0+rows, ps.po.tb.rows)
+}
+
 // decode decodes row group i, whose first row is row0, into g and
 // returns its row count. A panic in the decoder (corrupt data that the
 // checks let through) is an error.
@@ -726,6 +761,17 @@ func (ps *parquetSource) decode(i, row0 int, g *groupBuf) (rows int, err error) 
 	ns := len(tb.states)
 	if len(g.x) != ns {
 		g.x = make([][]float64, ns)
+	}
+	if h := ps.hold; h != nil {
+		// the rows' place in the held columns (g is reset after the pass)
+		e := row0 + rows
+		if len(h.cols) != ns+1 || e > len(h.cols[0]) {
+			return 0, jb0bad(ps, i, row0, rows)
+		}
+		g.t = h.cols[0][row0:e:e]
+		for k := range g.x {
+			g.x[k] = h.cols[k+1][row0:e:e]
+		}
 	}
 	if cap(g.t) < rows {
 		g.t = make([]float64, rows)

@@ -47,6 +47,8 @@ func FuzzStreamParquet(f *testing.F) {
 
 func fuzzStreamOnce(t *testing.T, p string, opts *Options, late bool, want *Dataset, werr error) {
 	fuzzStreamWith(NewStreamer, t, p, opts, &StreamOptions{Window: -1, LateRuns: late}, want, werr)
+	// every pass reading the file again (the default holds a small one)
+	fuzzStreamWith(NewStreamer, t, p, opts, &StreamOptions{Window: -1, LateRuns: late, Hold: -1}, want, werr)
 }
 
 // fuzzStreamWith is fuzzStreamOnce with the Streamer made by newS from

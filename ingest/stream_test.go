@@ -285,10 +285,20 @@ func TestStreamSameRuns(t *testing.T) {
 				// decoding one row group ahead on another goroutine
 				_, got = streamRuns(t, path, &opts, &StreamOptions{Window: -1, Prefetch: true})
 				sameRuns(t, got, want.Runs)
+				// every pass decoding the file again, nothing held
+				hsf, got := streamRuns(t, path, &opts, &StreamOptions{Window: -1, Hold: -1})
+				sameRuns(t, got, want.Runs)
+				if sf.Whole == "" && (!sf.Held() || hsf.Held()) {
+					t.Errorf("held by default %v, with Hold -1 %v", sf.Held(), hsf.Held())
+				}
 				// the runs found as the first Scan gives them, then a
 				// second Scan of the runs found
 				for _, pre := range []bool{false, true} {
-					lsf, err := NewStreamer(&opts, &StreamOptions{Window: -1, LateRuns: true, Prefetch: pre}).Open(context.Background(), path)
+					hold := int64(0)
+					if pre {
+						hold = -1
+					}
+					lsf, err := NewStreamer(&opts, &StreamOptions{Window: -1, LateRuns: true, Prefetch: pre, Hold: hold}).Open(context.Background(), path)
 					if err != nil {
 						t.Fatal(err)
 					}
@@ -579,17 +589,21 @@ func writePlainCols(t *testing.T, path string, cols ...[]float64) {
 }
 
 // TestStreamFileChanged: a streamed file cut short between the plan and
-// the scan is an error, not a screen of fewer samples.
+// the scan is an error, not a screen of fewer samples, when the scan
+// reads it again; when its samples are held from the first read (see
+// StreamOptions.Hold), the scan gives them, all of them, as planned.
 func TestStreamFileChanged(t *testing.T) {
 	for _, late := range []bool{false, true} {
-		t.Run(fmt.Sprintf("late=%v", late), func(t *testing.T) { testStreamFileChanged(t, late) })
+		for _, hold := range []int64{-1, 0} {
+			t.Run(fmt.Sprintf("late=%v/hold=%d", late, hold), func(t *testing.T) { testStreamFileChanged(t, late, hold) })
+		}
 	}
 }
 
-func testStreamFileChanged(t *testing.T, late bool) {
+func testStreamFileChanged(t *testing.T, late bool, hold int64) {
 	path := filepath.Join(t.TempDir(), "log.csv")
 	writeRigCSV(t, path, rigLog{n: 20000, dt: 0.001, sd: 1e-3}, 3, 0)
-	sf, err := NewStreamer(nil, &StreamOptions{CSVWindow: -1, LateRuns: late}).Open(context.Background(), path)
+	sf, err := NewStreamer(nil, &StreamOptions{CSVWindow: -1, LateRuns: late, Hold: hold}).Open(context.Background(), path)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -602,7 +616,21 @@ func testStreamFileChanged(t *testing.T, late bool) {
 	if err := os.WriteFile(path, b[:cut], 0o644); err != nil {
 		t.Fatal(err)
 	}
-	err = sf.Scan(context.Background(), func(int, []float64, [][]float64) error { return nil })
+	n := 0
+	err = sf.Scan(context.Background(), func(_ int, tt []float64, _ [][]float64) error { n += len(tt); return nil })
+	if hold >= 0 {
+		if err != nil || !sf.Held() {
+			t.Fatalf("held %v: Scan of a held file cut short after its read: %v", sf.Held(), err)
+		}
+		want := 0
+		for _, r := range sf.Runs {
+			want += r.Samples
+		}
+		if n != want || n == 0 {
+			t.Fatalf("held: the scan gave %d samples, the runs hold %d", n, want)
+		}
+		return
+	}
 	if err == nil || !strings.Contains(err.Error(), "changed while it was read") {
 		t.Fatalf("Scan of a file cut short: %v", err)
 	}

@@ -139,7 +139,7 @@ func (pl *plan) setup(ns int) {
 	g := max(1, pl.src.rowsHint()/noiseSubsample)
 	pl.strides = pl.strides[:0]
 	bottom, top := -2, 2
-	if ps, exact := pl.src.(*parquetSource); exact {
+	if ps, exact := unheld(pl.src).(*parquetSource); exact {
 		top = 0 // the footer's count: missing rows can only lower the stride
 		if ps.noNulls() {
 			// only a NaN value can make a row missing: rare enough that

@@ -242,13 +242,14 @@ func TestUnpackDict(t *testing.T) {
 // TestStreamParquetCut: a streamed Parquet file cut short between the
 // plan and the scan, or between two scans, is an error naming the file
 // and saying it changed, not a decode of what the short read left in
-// the buffer.
+// the buffer (its samples not held from the first read: see
+// StreamOptions.Hold and TestStreamFileChanged).
 func TestStreamParquetCut(t *testing.T) {
 	for _, cutAt := range []string{"before the scan", "between scans"} {
 		t.Run(cutAt, func(t *testing.T) {
 			path := filepath.Join(t.TempDir(), "log.parquet")
 			writeRigParquet(t, path, rigLog{n: 40000, dt: 0.001, sd: 1e-3}, 4, 4096, false, false, compress.Codecs.Uncompressed)
-			sf, err := NewStreamer(nil, &StreamOptions{Window: -1}).Open(context.Background(), path)
+			sf, err := NewStreamer(nil, &StreamOptions{Window: -1, Hold: -1}).Open(context.Background(), path)
 			if err != nil {
 				t.Fatal(err)
 			}

@@ -20,6 +20,7 @@ import (
 	"github.com/apache/arrow/go/v15/arrow/array"
 	"github.com/apache/arrow/go/v15/arrow/memory"
 	"github.com/apache/arrow/go/v15/parquet"
+	"github.com/apache/arrow/go/v15/parquet/compress"
 	"github.com/apache/arrow/go/v15/parquet/pqarrow"
 
 	"basin.example/fit"
@@ -69,7 +70,11 @@ func benchData(b *testing.B, dir, format string, states, files, rows int) ([]str
 		}
 		path := filepath.Join(dir, fmt.Sprintf("run%02d.%s", f, ext))
 		if ext == "parquet" {
-			writeParquetCols(b, path, format == "parquet", names, cols...)
+			if format == "parquet-snappy" {
+				writeParquetColsWith(b, path, names, []parquet.WriterProperty{parquet.WithCompression(compress.Codecs.Snappy)}, cols...)
+			} else {
+				writeParquetCols(b, path, format == "parquet", names, cols...)
+			}
 		} else {
 			var sb strings.Builder
 			sb.WriteString(strings.Join(names, ",") + "\n")
@@ -154,6 +159,12 @@ func cpuSeconds() float64 {
 // writeParquetCols writes float64 columns with Arrow's writer, with its
 // default dictionary encoding or plain encoding.
 func writeParquetCols(b testing.TB, path string, dict bool, names []string, cols ...[]float64) {
+	writeParquetColsWith(b, path, names, []parquet.WriterProperty{parquet.WithDictionaryDefault(dict)}, cols...)
+}
+
+// writeParquetColsWith is writeParquetCols with the writer's properties
+// (row groups of 64 Ki rows, then props).
+func writeParquetColsWith(b testing.TB, path string, names []string, props []parquet.WriterProperty, cols ...[]float64) {
 	mem := memory.NewGoAllocator()
 	var fields []arrow.Field
 	for _, n := range names {
@@ -174,8 +185,8 @@ func writeParquetCols(b testing.TB, path string, dict bool, names []string, cols
 	defer f.Close()
 	tbl := array.NewTableFromRecords(sc, []arrow.Record{rec})
 	defer tbl.Release()
-	props := parquet.NewWriterProperties(parquet.WithMaxRowGroupLength(64*1024), parquet.WithDictionaryDefault(dict))
-	if err := pqarrow.WriteTable(tbl, f, 64*1024, props, pqarrow.DefaultWriterProps()); err != nil {
+	wp := parquet.NewWriterProperties(append([]parquet.WriterProperty{parquet.WithMaxRowGroupLength(64 * 1024)}, props...)...)
+	if err := pqarrow.WriteTable(tbl, f, 64*1024, wp, pqarrow.DefaultWriterProps()); err != nil {
 		b.Fatal(err)
 	}
 }
@@ -217,11 +228,14 @@ func catFiles(b *testing.B, paths []string) {
 
 // BenchmarkScreen measures basin screen end to end (read the files, screen
 // every run) on a quadratic V of 2 and 6 states, Parquet (Arrow's default
-// dictionary encoding, and plain) and CSV (read whole below the CSV
+// dictionary encoding, plain, and dictionary with Snappy compression, as
+// many writers default to) and CSV (read whole below the CSV
 // window, and streamed), with a certificate without and with the noise
 // per state ("-noise": each run's own noise widens the tolerance), on
 // GOMAXPROCS workers (run with -cpu 1,2),
-// streamed ("stream") beside the whole-file screen it replaces ("whole")
+// streamed ("stream"; "stream-unheld": every pass reading the file
+// again, nothing held from the first read) beside the whole-file screen
+// it replaces ("whole")
 // and a cat of the same files (io.Copy to io.Discard). Each reports
 // samples/s, samples per CPU-second (on a shared machine CPU time does
 // not depend on the other load), and x-cat: its CPU time over cat's on
@@ -230,7 +244,7 @@ func catFiles(b *testing.B, paths []string) {
 func BenchmarkScreen(b *testing.B) {
 	for _, states := range []int{2, 6} {
 		c := benchCert(b, states)
-		for _, format := range []string{"parquet", "parquet-plain", "csv"} {
+		for _, format := range []string{"parquet", "parquet-plain", "parquet-snappy", "csv"} {
 			dir := b.TempDir()
 			// the files, written when a benchmark that reads them first runs
 			var paths []string
@@ -280,7 +294,8 @@ func BenchmarkScreen(b *testing.B) {
 				sto  *ingest.StreamOptions
 				cert *fit.Certificate
 			}
-			modes := []mode{{"stream", nil, c}, {"stream-noise", nil, &cn}, {"window", &ingest.StreamOptions{Window: 1 << 20}, c}}
+			modes := []mode{{"stream", nil, c}, {"stream-noise", nil, &cn}, {"window", &ingest.StreamOptions{Window: 1 << 20}, c},
+				{"stream-unheld", &ingest.StreamOptions{Hold: -1}, c}}
 			if format == "csv" {
 				modes = append(modes, mode{"stream-csv", &ingest.StreamOptions{CSVWindow: -1}, c},
 					mode{"stream-csv-noise", &ingest.StreamOptions{CSVWindow: -1}, &cn})

@@ -1,0 +1,188 @@
+package ingest
+
+import (
+	"context"
+	"slices"
+)
+
+// DefaultHold is the default [StreamOptions.Hold]: 32 MiB of samples
+// (4 Mi float64 values, a file of 1 Mi rows of a time and three
+// states) per Streamer.
+const DefaultHold = 32 << 20
+
+// holdBuf is a Streamer's memory for the samples of a streamed file's
+// first read (see [StreamOptions.Hold]): the columns, time first,
+// concatenated block after block, and the blocks' first rows and
+// lengths. It is reused from file to file; owner is the source whose
+// samples it holds.
+type holdBuf struct {
+	owner  *heldSource
+	cols   [][]float64 // time, then one per state
+	blocks [][2]int    // row0 and length of each block, in order
+	rows   int         // the rows held: the sum of the lengths
+	xs     [][]float64 // the block views given to a pass
+}
+
+// heldSource is a source whose first pass, when the file's samples fit
+// within limit values, is kept in buf, so that every later pass gives
+// the same blocks from memory instead of decoding the file again. A
+// first pass that ends early (an error, a fallback) or outgrows the
+// limit keeps nothing, and every pass then reads the file.
+type heldSource struct {
+	source
+	buf   *holdBuf
+	limit int  // the most float64 values held
+	state int  // heldNone (before the first pass ends), heldAll, heldOff
+	read  bool // the first pass has run
+}
+
+const (
+	heldNone = iota
+	heldAll
+	heldOff
+)
+
+// holdSource wraps src so that its samples, when they fit in limit
+// bytes, are read once. limit <= 0 returns src.
+func holdSource(src source, buf *holdBuf, limit int64) source {
+	if limit <= 0 {
+		return src
+	}
+	return &heldSource{source: src, buf: buf, limit: int(limit / 8)}
+}
+
+// unheld returns the source under src's hold, or src.
+func unheld(src source) source {
+	if h, ok := src.(*heldSource); ok {
+		return h.source
+	}
+	return src
+}
+
+// held reports whether src gives its passes from memory.
+func held(src source) bool {
+	h, ok := src.(*heldSource)
+	return ok && h.state == heldAll && h.buf.owner == h
+}
+
+func (h *heldSource) pass(ctx context.Context, fn func(row0 int, t []float64, x [][]float64) error) error {
+	b := h.buf
+	if h.state == heldAll && b.owner == h {
+		return h.replay(ctx, fn)
+	}
+	if h.read || h.state == heldOff {
+		return h.source.pass(ctx, fn)
+	}
+	h.read = true
+	if n := h.source.rowsHint(); n > 0 && n > h.limit {
+		h.state = heldOff // too large by the footer's (or an estimate's) count
+		return h.source.pass(ctx, fn)
+	}
+	b.owner, b.blocks, b.rows = h, b.blocks[:0], 0
+	keep := true
+	record := h.keep
+	if ps, ok := h.source.(*parquetSource); ok {
+		// the footer's exact count: the decoder writes into the held
+		// columns themselves, and the blocks are only recorded
+		ns := len(ps.po.tb.states)
+		n := ps.rowsHint()
+		if n*(ns+1) > h.limit {
+			h.state = heldOff
+			return h.source.pass(ctx, fn)
+		}
+		if len(b.cols) != ns+1 {
+			b.cols = make([][]float64, ns+1)
+		}
+		for j := range b.cols {
+			b.cols[j] = slices.Grow(b.cols[j][:0], n)[:n]
+		}
+		ps.hold = b
+		defer func() {
+			ps.hold = nil
+			ps.s.bufs = [2]groupBuf{} // they point into the held columns
+		}()
+		record = func(row0 int, t []float64, _ [][]float64) bool {
+			if len(t) == 0 {
+				return true
+			}
+			if row0 != b.rows || row0+len(t) > n || &t[0] != &b.cols[0][row0] {
+				return false
+			}
+			b.blocks = append(b.blocks, [2]int{row0, len(t)})
+			b.rows += len(t)
+			return true
+		}
+	}
+	err := h.source.pass(ctx, func(row0 int, t []float64, x [][]float64) error {
+		if keep {
+			keep = record(row0, t, x)
+		}
+		return fn(row0, t, x)
+	})
+	if err == nil && keep && b.owner == h {
+		h.state = heldAll
+	} else {
+		h.state = heldOff
+		if b.owner == h {
+			b.owner = nil
+		}
+	}
+	return err
+}
+
+// keep appends a block to the hold; false when it would pass the limit.
+func (h *heldSource) keep(row0 int, t []float64, x [][]float64) bool {
+	b := h.buf
+	if len(t) == 0 {
+		return true
+	}
+	if (b.rows+len(t))*(len(x)+1) > h.limit || row0 != b.rows {
+		return false
+	}
+	if len(b.cols) != len(x)+1 {
+		b.cols = make([][]float64, len(x)+1)
+	}
+	if b.rows == 0 {
+		for j := range b.cols {
+			b.cols[j] = b.cols[j][:0]
+		}
+	}
+	b.cols[0] = append(b.cols[0], t...)
+	for j := range x {
+		b.cols[j+1] = append(b.cols[j+1], x[j]...)
+	}
+	b.blocks = append(b.blocks, [2]int{row0, len(t)})
+	b.rows += len(t)
+	return true
+}
+
+// replay gives the held blocks, as the first pass gave them.
+func (h *heldSource) replay(ctx context.Context, fn func(row0 int, t []float64, x [][]float64) error) error {
+	b := h.buf
+	ns := len(b.cols) - 1
+	if len(b.xs) != ns {
+		b.xs = make([][]float64, ns)
+	}
+	at := 0
+	for _, bl := range b.blocks {
+		if err := ctx.Err(); err != nil {
+			return err
+		}
+		e := at + bl[1]
+		for j := range b.xs {
+			b.xs[j] = b.cols[j+1][at:e:e]
+		}
+		if err := fn(bl[0], b.cols[0][at:e:e], b.xs); err != nil {
+			return err
+		}
+		at = e
+	}
+	return nil
+}
+
+func (h *heldSource) close() error {
+	if h.buf.owner == h {
+		h.buf.owner = nil
+	}
+	return h.source.close()
+}
