@@ -126,16 +126,24 @@ func ReadCSV(r io.Reader, name string, opts *Options) (*Dataset, error) {
 
 // readCSV is ReadCSV without the data-set-wide checks of [finish].
 func readCSV(r io.Reader, name string, opts *Options) (*Dataset, error) {
+	return readCSVWith(r, name, opts, nil)
+}
+
+// readCSVWith is readCSV with bufs' buffers (nil: new ones; see
+// readCSVBlocks), and the columns and the table's scratch from
+// bufs.cols when it is set.
+func readCSVWith(r io.Reader, name string, opts *Options, bufs *csvBufs) (*Dataset, error) {
 	if opts == nil {
 		opts = &Options{}
 	}
 	if err := opts.checkWindow(); err != nil {
 		return nil, err
 	}
-	tb, err := readCSVTable(r, name, opts)
+	p, err := readCSVBlocks(r, name, opts, bufs)
 	if err != nil {
 		return nil, err
 	}
+	tb := p.tb
 	ds, err := tb.dataset(opts)
 	if err != nil {
 		return nil, err
@@ -166,6 +174,9 @@ type csvBufs struct {
 	t  []float64
 	x  [][]float64
 	rt []float64 // times from a rate (csvSource)
+	// cols, when not nil, gives a whole read's columns and the table's
+	// scratch (a Streamer's, reused from file to file)
+	cols *colStore
 }
 
 // readCSVBlocks reads r as readCSVTable does, with bufs' buffers (nil:
@@ -288,13 +299,18 @@ func readCSVBlocks(r io.Reader, name string, opts *Options, bufs *csvBufs) (*csv
 	}
 	if lines := bytes.Count(rest, []byte{'\n'}); total > 0 && lines > 0 && len(rest) > 0 && p.sink == nil {
 		est := int(float64(lines)*float64(total)/float64(len(rest))*1.01) + 64
+		var cs *colStore // nil: fresh columns
+		if bufs != nil && bufs.cols != nil {
+			cs = bufs.cols
+			tb.scratch = &cs.scr
+		}
 		if tb.timeIdx > 0 && !tb.dateTime {
-			tb.t = make([]float64, 0, est)
+			tb.t = cs.floats(0, est)[:0]
 		} else if tb.dateTime {
 			tb.tn = make([]int64, 0, est)
 		}
 		for j := range tb.x {
-			tb.x[j] = make([]float64, 0, est)
+			tb.x[j] = cs.floats(j+1, est)[:0]
 		}
 	}
 	if err := p.parallel(r, rest, line); err != nil {
