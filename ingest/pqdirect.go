@@ -179,13 +179,23 @@ func (tb *table) readDirect(ctx context.Context, f *os.File, pr *file.Reader, r 
 	var pool sync.Pool
 	next := make(chan *colJob)
 	var wg sync.WaitGroup
-	for range min(runtime.GOMAXPROCS(0), len(jobs)) {
+	w := min(runtime.GOMAXPROCS(0), len(jobs))
+	scs := make([]colScratch, w) // fresh without a store
+	if store != nil {
+		for len(store.sc) < w {
+			store.sc = append(store.sc, new(colScratch))
+		}
+	}
+	for k := range w {
+		sc := &scs[k]
+		if store != nil {
+			sc = store.sc[k]
+		}
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
-			var sc colScratch
 			for jb := range next {
-				jb.err = tb.readColumn(ctx, f, pr, jb, cols[jb.j], &sc, &pool, size)
+				jb.err = tb.readColumn(ctx, f, pr, jb, cols[jb.j], sc, &pool, size)
 			}
 		}()
 	}

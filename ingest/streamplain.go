@@ -391,6 +391,7 @@ func unpackNarrow(out []float64, k int, body []byte, q, vals int, bw uint, dict 
 type colStore struct {
 	f   [][]float64
 	scr tableScratch
+	sc  []*colScratch // readDirect's, one per worker
 }
 
 func (cs *colStore) floats(slot, n int) []float64 {

@@ -63,6 +63,7 @@ type table struct {
 type tableScratch struct {
 	ev    eventScratch
 	noise []*noiseScratch // one per worker
+	dts   []float64       // splitGroup's time steps
 }
 
 // noiseScratch holds one worker's buffers of noiseOf: the jump
@@ -303,7 +304,13 @@ func (tb *table) splitGroup(ds *Dataset, g group, opts *Options) error {
 	for _, sp := range g.spans {
 		nrows += sp[1] - sp[0]
 	}
-	dts := make([]float64, 0, nrows)
+	var dts []float64
+	if tb.scratch != nil {
+		dts = slices.Grow(tb.scratch.dts[:0], nrows)
+		defer func() { tb.scratch.dts = dts[:0] }()
+	} else {
+		dts = make([]float64, 0, nrows)
+	}
 	for _, p := range pieces {
 		prev := -1
 		for _, rg := range p {
