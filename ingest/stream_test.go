@@ -442,13 +442,28 @@ func TestStreamReuse(t *testing.T) {
 }
 
 // TestStreamWindow: a file within the window is read whole into the
-// reused buffers, and gives ReadFile's runs, file after file.
+// reused buffers (columns, chunk buffers, the noise and event passes'
+// scratch), and gives ReadFile's runs, file after file: Parquet plain
+// and dictionary-encoded, and CSV files large enough to be read in
+// several blocks, interleaved, larger and smaller than the one before.
 func TestStreamWindow(t *testing.T) {
 	dir := t.TempDir()
 	s := NewStreamer(nil, nil)
-	for i, n := range []int{5000, 3000, 8000} {
-		path := filepath.Join(dir, fmt.Sprintf("w%d.parquet", i))
-		writeRigParquet(t, path, rigLog{n: n, dt: 0.001, sd: 1e-3, head: 500, hits: []int{n / 2}}, uint64(i), 1000, false, false, compress.Codecs.Uncompressed)
+	for i, n := range []int{5000, 3000, 8000, 60000, 20000, 60000, 9000} {
+		g := rigLog{n: n, dt: 0.001, sd: 1e-3, head: 500, hits: []int{n / 2}}
+		if i%2 == 1 {
+			g.hits = append(g.hits, n/4)
+			g.missing = []int{n / 3}
+		}
+		var path string
+		switch i % 3 {
+		case 2:
+			path = filepath.Join(dir, fmt.Sprintf("w%d.csv", i))
+			writeRigCSV(t, path, g, uint64(i), 0)
+		default:
+			path = filepath.Join(dir, fmt.Sprintf("w%d.parquet", i))
+			writeRigParquet(t, path, g, uint64(i), 1000, i%3 == 1, false, compress.Codecs.Uncompressed)
+		}
 		want, err := ReadFile(context.Background(), path, nil)
 		if err != nil {
 			t.Fatal(err)
