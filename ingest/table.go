@@ -209,6 +209,33 @@ func allNaN(c []float64) bool {
 	return true
 }
 
+// stepRange returns the least and greatest time step between
+// consecutive samples within the pieces (+Inf and -Inf when there is
+// none): the steps the gap limit's median is taken over.
+func (tb *table) stepRange(pieces [][][2]int) (lo, hi float64) {
+	lo, hi = math.Inf(1), math.Inf(-1)
+	for _, p := range pieces {
+		prev := -1
+		for _, rg := range p {
+			i := rg[0]
+			if prev >= 0 && i < rg[1] {
+				d := tb.t[i] - tb.t[prev]
+				lo, hi = min(lo, d), max(hi, d)
+			}
+			if i >= rg[1] {
+				continue
+			}
+			t := tb.t[i:rg[1]]
+			for k := 1; k < len(t); k++ {
+				d := t[k] - t[k-1]
+				lo, hi = min(lo, d), max(hi, d)
+			}
+			prev = rg[1] - 1
+		}
+	}
+	return lo, hi
+}
+
 func (tb *table) splitGroup(ds *Dataset, g group, opts *Options) error {
 	var epoch time.Time
 	var t0 int64
@@ -299,37 +326,45 @@ func (tb *table) splitGroup(ds *Dataset, g group, opts *Options) error {
 			return nil
 		}
 	}
-	// median step over consecutive valid samples within pieces
-	nrows := 0
-	for _, sp := range g.spans {
-		nrows += sp[1] - sp[0]
-	}
-	var dts []float64
-	if tb.scratch != nil {
-		dts = slices.Grow(tb.scratch.dts[:0], nrows)
-		defer func() { tb.scratch.dts = dts[:0] }()
-	} else {
-		dts = make([]float64, 0, nrows)
-	}
-	for _, p := range pieces {
-		prev := -1
-		for _, rg := range p {
-			for i := rg[0]; i < rg[1]; i++ {
-				if prev >= 0 {
-					dts = append(dts, tb.t[i]-tb.t[prev])
+	// The gap limit: GapFactor times the median step over consecutive
+	// valid samples within pieces. When no step exceeds GapFactor times
+	// the least step, none exceeds the limit (the median is no less than
+	// the least, and rounding keeps the order of the products), so the
+	// median is not needed: the rule of an even clock, found in one pass
+	// over the steps without storing them.
+	var limit = math.Inf(1)
+	if lo, hi := tb.stepRange(pieces); hi > GapFactor*lo {
+		nrows := 0
+		for _, sp := range g.spans {
+			nrows += sp[1] - sp[0]
+		}
+		var dts []float64
+		if tb.scratch != nil {
+			dts = slices.Grow(tb.scratch.dts[:0], nrows)
+		} else {
+			dts = make([]float64, 0, nrows)
+		}
+		for _, p := range pieces {
+			prev := -1
+			for _, rg := range p {
+				for i := rg[0]; i < rg[1]; i++ {
+					if prev >= 0 {
+						dts = append(dts, tb.t[i]-tb.t[prev])
+					}
+					prev = i
 				}
-				prev = i
 			}
 		}
+		if n := len(dts); n > 0 {
+			// the middle of dts by selection, not a sort: the same order
+			// statistics (dts has no NaN: its times are not missing)
+			order.Select(dts, (n-1)/2, n/2)
+			limit = GapFactor * order.Median(dts[(n-1)/2:n/2+1])
+		}
+		if tb.scratch != nil {
+			tb.scratch.dts = dts[:0]
+		}
 	}
-	var limit = math.Inf(1)
-	if n := len(dts); n > 0 {
-		// the middle of dts by selection, not a sort: the same order
-		// statistics (dts has no NaN: its times are not missing)
-		order.Select(dts, (n-1)/2, n/2)
-		limit = GapFactor * order.Median(dts[(n-1)/2:n/2+1])
-	}
-	dts = nil
 	var final [][][2]int
 	for _, p := range pieces {
 		var out [][2]int
