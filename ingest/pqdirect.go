@@ -128,17 +128,17 @@ type colScratch struct {
 	// read: the offset that put the last one's dictionary values on an
 	// 8-byte boundary (a column's page headers keep their length from
 	// row group to row group), so plainFloats reads them in place
-	pad   int
-	hdr   []byte // readPlainInto's page header
+	pad int
+	hdr []byte // readPlainInto's page header
 	// plainFloats' decompressed page bodies: the dictionary's, a data
 	// page's
 	unzDict, unz []byte
-	defs  []int16
-	i32   []int32
-	i64   []int64
-	ba    []parquet.ByteArray
-	br    byteReader
-	pages file.PageReader
+	defs         []int16
+	i32          []int32
+	i64          []int64
+	ba           []parquet.ByteArray
+	br           byteReader
+	pages        file.PageReader
 }
 
 // readDirect reads the columns straight from their column chunks with

@@ -46,7 +46,7 @@ type StreamOptions struct {
 	// gathered without a read of its own.
 	Tap BlockTap
 	// Hold is the most bytes of samples (8 a value, time included) a
-	// streamed file's first read keeps in memory, so that its later
+	// streamed Parquet file's first read keeps in memory, so that its later
 	// passes (planning's, then the Scans) take them from there instead
 	// of decoding the file again; a larger file is read once per pass.
 	// The memory is the Streamer's, reused from file to file, so it

@@ -10,9 +10,9 @@ import (
 // states) per Streamer.
 const DefaultHold = 32 << 20
 
-// holdBuf is a Streamer's memory for the samples of a streamed file's
-// first read (see [StreamOptions.Hold]): the columns, time first,
-// concatenated block after block, and the blocks' first rows and
+// holdBuf is a Streamer's memory for the samples of a streamed Parquet
+// file's first read (see [StreamOptions.Hold]): the columns, time
+// first, a row group after another, and the row groups' first rows and
 // lengths. It is reused from file to file; owner is the source whose
 // samples it holds.
 type holdBuf struct {
@@ -23,11 +23,11 @@ type holdBuf struct {
 	xs     [][]float64 // the block views given to a pass
 }
 
-// heldSource is a source whose first pass, when the file's samples fit
-// within limit values, is kept in buf, so that every later pass gives
-// the same blocks from memory instead of decoding the file again. A
-// first pass that ends early (an error, a fallback) or outgrows the
-// limit keeps nothing, and every pass then reads the file.
+// heldSource is a Parquet source whose first pass, when the file's
+// samples fit within limit values, is decoded into buf, so that every
+// later pass gives the same blocks from memory instead of decoding the
+// file again. A first pass that ends early (an error, a fallback) keeps
+// nothing, and every pass then reads the file.
 type heldSource struct {
 	source
 	buf   *holdBuf
@@ -42,10 +42,14 @@ const (
 	heldOff
 )
 
-// holdSource wraps src so that its samples, when they fit in limit
-// bytes, are read once. limit <= 0 returns src.
+// holdSource wraps a Parquet source so that its samples, when they fit
+// in limit bytes, are read once. limit <= 0, or another source, returns
+// src: a CSV file is streamed only above the CSV window (64 MiB of text
+// by default, some four million values), so its samples would seldom
+// fit, and copying them as they are parsed until they outgrow the limit
+// costs memory for nothing.
 func holdSource(src source, buf *holdBuf, limit int64) source {
-	if limit <= 0 {
+	if _, ok := src.(*parquetSource); !ok || limit <= 0 {
 		return src
 	}
 	return &heldSource{source: src, buf: buf, limit: int(limit / 8)}
@@ -74,52 +78,38 @@ func (h *heldSource) pass(ctx context.Context, fn func(row0 int, t []float64, x 
 		return h.source.pass(ctx, fn)
 	}
 	h.read = true
-	if n := h.source.rowsHint(); n > 0 && n > h.limit {
-		h.state = heldOff // too large by the footer's (or an estimate's) count
+	ps := h.source.(*parquetSource)
+	// the footer's exact count: the decoder writes into the held columns
+	// themselves, and the blocks are only recorded
+	ns := len(ps.po.tb.states)
+	n := ps.rowsHint()
+	if n <= 0 || n*(ns+1) > h.limit {
+		h.state = heldOff
 		return h.source.pass(ctx, fn)
 	}
+	if len(b.cols) != ns+1 {
+		b.cols = make([][]float64, ns+1)
+	}
+	for j := range b.cols {
+		b.cols[j] = slices.Grow(b.cols[j][:0], n)[:n]
+	}
 	b.owner, b.blocks, b.rows = h, b.blocks[:0], 0
+	ps.hold = b
+	defer func() {
+		ps.hold = nil
+		ps.s.bufs = [2]groupBuf{} // they point into the held columns
+	}()
 	keep := true
-	record := h.keep
-	if ps, ok := h.source.(*parquetSource); ok {
-		// the footer's exact count: the decoder writes into the held
-		// columns themselves, and the blocks are only recorded
-		ns := len(ps.po.tb.states)
-		n := ps.rowsHint()
-		if n*(ns+1) > h.limit {
-			h.state = heldOff
-			return h.source.pass(ctx, fn)
-		}
-		if len(b.cols) != ns+1 {
-			b.cols = make([][]float64, ns+1)
-		}
-		for j := range b.cols {
-			b.cols[j] = slices.Grow(b.cols[j][:0], n)[:n]
-		}
-		ps.hold = b
-		defer func() {
-			ps.hold = nil
-			ps.s.bufs = [2]groupBuf{} // they point into the held columns
-		}()
-		record = func(row0 int, t []float64, _ [][]float64) bool {
-			if len(t) == 0 {
-				return true
-			}
-			if row0 != b.rows || row0+len(t) > n || &t[0] != &b.cols[0][row0] {
-				return false
-			}
+	err := h.source.pass(ctx, func(row0 int, t []float64, x [][]float64) error {
+		if keep && len(t) > 0 {
+			// each block in its place in the held columns, in order
+			keep = row0 == b.rows && row0+len(t) <= n && &t[0] == &b.cols[0][row0]
 			b.blocks = append(b.blocks, [2]int{row0, len(t)})
 			b.rows += len(t)
-			return true
-		}
-	}
-	err := h.source.pass(ctx, func(row0 int, t []float64, x [][]float64) error {
-		if keep {
-			keep = record(row0, t, x)
 		}
 		return fn(row0, t, x)
 	})
-	if err == nil && keep && b.owner == h {
+	if err == nil && keep && b.rows == n && b.owner == h {
 		h.state = heldAll
 	} else {
 		h.state = heldOff
@@ -128,32 +118,6 @@ func (h *heldSource) pass(ctx context.Context, fn func(row0 int, t []float64, x 
 		}
 	}
 	return err
-}
-
-// keep appends a block to the hold; false when it would pass the limit.
-func (h *heldSource) keep(row0 int, t []float64, x [][]float64) bool {
-	b := h.buf
-	if len(t) == 0 {
-		return true
-	}
-	if (b.rows+len(t))*(len(x)+1) > h.limit || row0 != b.rows {
-		return false
-	}
-	if len(b.cols) != len(x)+1 {
-		b.cols = make([][]float64, len(x)+1)
-	}
-	if b.rows == 0 {
-		for j := range b.cols {
-			b.cols[j] = b.cols[j][:0]
-		}
-	}
-	b.cols[0] = append(b.cols[0], t...)
-	for j := range x {
-		b.cols[j+1] = append(b.cols[j+1], x[j]...)
-	}
-	b.blocks = append(b.blocks, [2]int{row0, len(t)})
-	b.rows += len(t)
-	return true
 }
 
 // replay gives the held blocks, as the first pass gave them.

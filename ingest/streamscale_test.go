@@ -3,6 +3,7 @@ package ingest
 import (
 	"context"
 	"encoding/binary"
+	"fmt"
 	"math"
 	"math/rand/v2"
 	"os"
@@ -242,37 +243,55 @@ func TestUnpackDict(t *testing.T) {
 // TestStreamParquetCut: a streamed Parquet file cut short between the
 // plan and the scan, or between two scans, is an error naming the file
 // and saying it changed, not a decode of what the short read left in
-// the buffer (its samples not held from the first read: see
-// StreamOptions.Hold and TestStreamFileChanged).
+// the buffer, when its samples are read again (Hold -1). When they are
+// held from the first read (the default, see StreamOptions.Hold), the
+// scans give them, all of them, as planned.
 func TestStreamParquetCut(t *testing.T) {
-	for _, cutAt := range []string{"before the scan", "between scans"} {
-		t.Run(cutAt, func(t *testing.T) {
-			path := filepath.Join(t.TempDir(), "log.parquet")
-			writeRigParquet(t, path, rigLog{n: 40000, dt: 0.001, sd: 1e-3}, 4, 4096, false, false, compress.Codecs.Uncompressed)
-			sf, err := NewStreamer(nil, &StreamOptions{Window: -1, Hold: -1}).Open(context.Background(), path)
-			if err != nil {
-				t.Fatal(err)
-			}
-			defer sf.Close()
-			if sf.Whole != "" {
-				t.Fatalf("read whole: %s", sf.Whole)
-			}
-			scan := func() error {
-				return sf.Scan(context.Background(), func(int, []float64, [][]float64) error { return nil })
-			}
-			if cutAt == "between scans" {
-				if err := scan(); err != nil {
+	for _, hold := range []int64{-1, 0} {
+		for _, cutAt := range []string{"before the scan", "between scans"} {
+			t.Run(fmt.Sprintf("hold=%d/%s", hold, cutAt), func(t *testing.T) {
+				path := filepath.Join(t.TempDir(), "log.parquet")
+				writeRigParquet(t, path, rigLog{n: 40000, dt: 0.001, sd: 1e-3}, 4, 4096, false, false, compress.Codecs.Uncompressed)
+				sf, err := NewStreamer(nil, &StreamOptions{Window: -1, Hold: hold}).Open(context.Background(), path)
+				if err != nil {
 					t.Fatal(err)
 				}
-			}
-			if err := os.Truncate(path, 4096); err != nil {
-				t.Fatal(err)
-			}
-			err = scan()
-			if err == nil || !strings.Contains(err.Error(), "log.parquet") || !strings.Contains(err.Error(), "changed while it was read") {
-				t.Fatalf("Scan of a file cut short: %v", err)
-			}
-			t.Log(err)
-		})
+				defer sf.Close()
+				if sf.Whole != "" {
+					t.Fatalf("read whole: %s", sf.Whole)
+				}
+				if sf.Held() != (hold == 0) {
+					t.Fatalf("hold %d: held %v", hold, sf.Held())
+				}
+				n := 0
+				scan := func() error {
+					n = 0
+					return sf.Scan(context.Background(), func(_ int, tt []float64, _ [][]float64) error { n += len(tt); return nil })
+				}
+				if cutAt == "between scans" {
+					if err := scan(); err != nil {
+						t.Fatal(err)
+					}
+				}
+				if err := os.Truncate(path, 4096); err != nil {
+					t.Fatal(err)
+				}
+				err = scan()
+				if hold == 0 {
+					want := 0
+					for _, r := range sf.Runs {
+						want += r.Samples
+					}
+					if err != nil || n != want || n == 0 {
+						t.Fatalf("held: the scan gave %d samples (%v), the runs hold %d", n, err, want)
+					}
+					return
+				}
+				if err == nil || !strings.Contains(err.Error(), "log.parquet") || !strings.Contains(err.Error(), "changed while it was read") {
+					t.Fatalf("Scan of a file cut short: %v", err)
+				}
+				t.Log(err)
+			})
+		}
 	}
 }
