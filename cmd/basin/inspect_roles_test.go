@@ -217,3 +217,47 @@ func TestFitConstantInput(t *testing.T) {
 		}
 	}
 }
+
+// TestInspectLatin1: a header written in Windows-1252 [CP1252] (0xB0 the
+// degree sign, 0xB5 the micro sign) is read with one warning naming the
+// file and the code page, and --json gives the units as UTF-8; a byte the
+// code page leaves undefined (0x81) is one line naming file, line and
+// column, exit 2.
+func TestInspectLatin1(t *testing.T) {
+	dir := t.TempDir()
+	var sb strings.Builder
+	sb.WriteString("Zeit [s];Temperatur [\xb0C];Weg [\xb5m]\n")
+	for i := range 50 {
+		sb.WriteString(ftoa(float64(i)*0.1) + ";" + ftoa(math.Exp(-0.1*float64(i))) + ";" + ftoa(math.Cos(0.3*float64(i))) + "\n")
+	}
+	good := filepath.Join(dir, "good.csv")
+	bad := filepath.Join(dir, "bad.csv")
+	if err := os.WriteFile(good, []byte(sb.String()), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	if err := os.WriteFile(bad, []byte(strings.Replace(sb.String(), "[\xb5m]", "[\x81m]", 1)), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	var stdout, stderr bytes.Buffer
+	code := basinMainIn(context.Background(), []string{"inspect", "--json", "--time-col", "Zeit", good}, &stdout, &stderr, nil)
+	want := "basin: warning: " + good + `:1:2: header cell "Temperatur [°C]" is not UTF-8 text: the file's text is read as Windows-1252 (Latin-1)` + "\n"
+	if code != 0 || stderr.String() != want {
+		t.Fatalf("exit %d, stderr %q, want %q", code, stderr.String(), want)
+	}
+	var doc struct {
+		States []struct{ Name, Unit string }
+	}
+	if err := json.Unmarshal(stdout.Bytes(), &doc); err != nil {
+		t.Fatal(err)
+	}
+	if len(doc.States) != 2 || doc.States[0].Unit != "°C" || doc.States[1].Unit != "\u00b5m" || !strings.Contains(stdout.String(), `"°C"`) {
+		t.Errorf("states %+v", doc.States)
+	}
+	stdout.Reset()
+	stderr.Reset()
+	code = basinMainIn(context.Background(), []string{"inspect", "--time-col", "Zeit", bad}, &stdout, &stderr, nil)
+	msg := stderr.String()
+	if code != 2 || strings.Count(msg, "\n") != 1 || !strings.Contains(msg, bad+":1:3: ") || !strings.Contains(msg, "byte 0x81") {
+		t.Errorf("exit %d, stderr %q", code, msg)
+	}
+}
