@@ -110,7 +110,7 @@ func FuzzReadCSV(f *testing.F) {
 		case 6:
 			opts = &Options{States: []string{"a"}, Inputs: []string{"b"}, RunCol: "run", From: 1}
 		case 7:
-			opts = &Options{Inputs: []string{"b"}, KeepHead: true, KeepEvents: true}
+			opts = &Options{Inputs: []string{"b"}, KeepHead: true, KeepEvents: true, HoldConstantInputs: true}
 		}
 		ds, err := ReadCSV(bytes.NewReader(data), "f.csv", opts)
 		if err != nil {
@@ -125,6 +125,9 @@ func FuzzReadCSV(f *testing.F) {
 		}
 		checkDataset(t, ds)
 		checkText(t, ds)
+		if len(ds.Held) > 0 && (len(ds.Inputs) != 0 || len(ds.ConstantInputs()) != 0) {
+			t.Fatalf("held %v, yet inputs %v (constant %v)", ds.Held, ds.Inputs, ds.ConstantInputs())
+		}
 	})
 }
 
