@@ -145,7 +145,7 @@ func readCSV(r io.Reader, name string, opts *Options) (*Dataset, error) {
 	}
 	ds.Ignored = tb.ignored
 	if tb.latin != nil {
-		ds.Warnings = append(ds.Warnings, tb.latin.warning(name))
+		ds.latin = []string{tb.latin.warning(name)} // a warning of finish's
 	}
 	for _, u := range tb.unnamed {
 		ds.Warnings = append(ds.Warnings, fmt.Sprintf("%s:%d:%d: a column with no name in the header holds values; it is ignored (name it in the header to read it as a state; a row index may stay unnamed)", name, u[0], u[1]))

@@ -181,3 +181,28 @@ func TestReadCSVEncoding(t *testing.T) {
 		})
 	}
 }
+
+// TestLoadEncodingOnce: several files read as Windows-1252 give one
+// warning, naming the first and counting the others; a UTF-8 file among
+// them adds nothing.
+func TestLoadEncodingOnce(t *testing.T) {
+	dir := t.TempDir()
+	var body strings.Builder
+	for i := range 20 {
+		body.WriteString(ftoa(float64(i)/10) + "," + ftoa(1/(1+float64(i))) + "\n")
+	}
+	for _, c := range []struct{ name, header string }{
+		{"a.csv", "t,x [\xb5m]\n"}, {"b.csv", "t,x [µm]\n"}, {"c.csv", "t,x [\xb5m]\n"}, {"d.csv", "t,x [\xb5m]\n"},
+	} {
+		writeFile(t, dir, c.name, c.header+body.String())
+	}
+	ds, err := Load(context.Background(), []string{dir}, &Options{KeepEvents: true}) // 1/(1+t) jumps at its start
+	if err != nil {
+		t.Fatal(err)
+	}
+	a := filepath.Join(dir, "a.csv")
+	want := a + `:1:2: header cell "x [µm]" is not UTF-8 text: the file's text is read as Windows-1252 (Latin-1), and so are 2 more files`
+	if len(ds.Warnings) != 1 || ds.Warnings[0] != want || len(ds.Runs) != 4 || ds.States[0].Unit != "µm" {
+		t.Errorf("warnings %q, want [%q]; %d runs, unit %q", ds.Warnings, want, len(ds.Runs), ds.States[0].Unit)
+	}
+}

@@ -122,6 +122,9 @@ type Dataset struct {
 	longest float64
 	// files are the files read, for that message.
 	files []string
+	// latin holds, per file whose text was read as Windows-1252, its
+	// warning; finish makes them one
+	latin []string
 	// Missing counts samples dropped because a cell was empty or NaN.
 	Missing int
 	// Ignored lists columns that were neither time, run nor state: text

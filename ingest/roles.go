@@ -296,8 +296,9 @@ func valueText(v float64, unit string) string {
 }
 
 // finish makes the checks that need the whole data set, once it is read
-// and joined: a time window that leaves no run is an error; recordings
-// it leaves out, and inputs that never change, are warnings.
+// and joined: a time window that leaves no run is an error; files read
+// as Windows-1252 (one warning for all), recordings the window leaves
+// out, and inputs that never change, are warnings.
 func finish(ds *Dataset, opts *Options) error {
 	if opts == nil {
 		opts = &Options{}
@@ -309,6 +310,16 @@ func finish(ds *Dataset, opts *Options) error {
 			return &ParseError{File: ds.files[0], Err: err}
 		}
 		return err
+	}
+	if len(ds.latin) > 0 { // one warning for every file read as Windows-1252
+		w := ds.latin[0]
+		if n := len(ds.latin) - 1; n == 1 {
+			w += ", and so is 1 more file"
+		} else if n > 1 {
+			w += fmt.Sprintf(", and so are %d more files", n)
+		}
+		ds.Warnings = append([]string{w}, ds.Warnings...)
+		ds.latin = nil
 	}
 	if ds.Window > 0 {
 		ds.Warnings = append(ds.Warnings, fmt.Sprintf("%d of %d recordings have no samples from %s and are left out",

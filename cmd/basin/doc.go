@@ -62,7 +62,7 @@ gap, not interpolated across it.
 
 CSV text that is not UTF-8 (header cells, a units row, --run-col values)
 is read as Windows-1252 (Latin-1: ° as the byte 0xB0, µ as 0xB5), with one
-warning naming the file; a byte that fits neither, or a UTF-16 file, is
+warning naming the first such file; a byte that fits neither, or a UTF-16 file, is
 an input error (exit 2) naming line and column. An input that holds one
 value throughout cannot be told from a constant term: one warning names
 it with its value and unit, and fit and run hold it at that value, folded
