@@ -87,6 +87,11 @@ func TestReadCSVEncoding(t *testing.T) {
 		{name: "latin-1 time unit", in: "time [\xb5s];a;b\n" + rows(20),
 			names: []string{"a", "b"}, units: []string{"", ""}, runs: []string{"f.csv"},
 			warn: `f.csv:1:1: header cell "time [µs]"`},
+		// cell by cell: the UTF-8 "°" stays "°" (not "Â°"), the Latin-1
+		// "µ" is decoded
+		{name: "mixed header", in: "t [s];a [°C];b [\xb5m]\n" + rows(20),
+			names: []string{"a", "b"}, units: []string{"°C", "\u00b5m"}, runs: []string{"f.csv"},
+			warn: `f.csv:1:3: header cell "b [µm]" is not UTF-8 text`},
 		{name: "latin-1 units row", in: "t;a;b\ns;\xb0C;\xb5m\n" + rows(20),
 			names: []string{"a", "b"}, units: []string{"°C", "µm"}, runs: []string{"f.csv"},
 			warn: `f.csv:2:2: unit "°C" is not UTF-8 text`},
