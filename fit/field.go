@@ -8,6 +8,7 @@ import (
 	"math/rand/v2"
 	"slices"
 	"sort"
+	"strconv"
 
 	"basin.example/fit/poly"
 	"basin.example/ingest"
@@ -302,8 +303,18 @@ func Field(ctx context.Context, ds *ingest.Dataset, opts *FieldOptions) (*Model,
 	sc := &varScale{centre: append([]float64(nil), m.Centre...), spread: append([]float64(nil), m.Spread...)}
 	for k, c := range ds.Inputs {
 		m.Inputs = append(m.Inputs, Input{Name: c.Name, Unit: c.Unit})
-		ce, sp := inputScale(runs, k)
+		ce, sp, lo, hi := inputScale(runs, k)
+		if !(hi > lo) { // its column would repeat the constant term's
+			v := strconv.FormatFloat(lo, 'g', -1, 64)
+			if c.Unit != "" {
+				v += " " + c.Unit
+			}
+			return nil, errorf(ErrConstant, "input %q is constant (%s in every sample of the %d runs fitted): its effect cannot be told from a constant term; leave it out of ingest.Options.Inputs, or record more runs in which it changes", c.Name, v, len(runs))
+		}
 		sc.centre, sc.spread = append(sc.centre, ce), append(sc.spread, sp)
+	}
+	for _, h := range ds.Held {
+		m.Held = append(m.Held, HeldInput{Name: h.Name, Unit: h.Unit, Value: h.Value})
 	}
 	if q > 0 {
 		for k, share := range inputExplained(m, runs, q, o.Degree) {

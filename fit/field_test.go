@@ -368,6 +368,18 @@ func TestFieldBadInput(t *testing.T) {
 			}
 			return ds
 		}, ErrConstant, `state "y" is constant`},
+		{"constant input", func() *ingest.Dataset {
+			ds := good()
+			ds.Inputs = []ingest.Column{{Name: "drive", Unit: "V"}}
+			for i := range ds.Runs {
+				u := make([]float64, len(ds.Runs[i].T))
+				for k := range u {
+					u[k] = 1.5
+				}
+				ds.Runs[i].U = [][]float64{u}
+			}
+			return ds
+		}, ErrConstant, `input "drive" is constant (1.5 V in every sample of the 6 runs fitted)`},
 		{"collinear columns", func() *ingest.Dataset {
 			ds := good()
 			ds.States = append(ds.States, ingest.Column{Name: "x2"})

@@ -15,6 +15,15 @@ type Input struct {
 	Unit string `json:"unit"`
 }
 
+// A HeldInput is an input that held one value throughout the data the
+// model was fitted on ([ingest.Options.HoldConstantInputs]): its effect
+// is folded into the equations, which hold at that value only.
+type HeldInput struct {
+	Name  string  `json:"name"`
+	Unit  string  `json:"unit"`
+	Value float64 `json:"value"`
+}
+
 // Vars is the names of the library's variables: the states, then the
 // inputs. Each equation's exponent vectors have one entry per name.
 func (m *Model) Vars() []string {
@@ -129,17 +138,15 @@ type varScale struct {
 
 // inputScale is the robust centre and spread of input k over the runs,
 // as scaleStates computes them for a state (a spread of a quarter of the
-// range when the robust one is zero).
-func inputScale(runs []*ingest.Run, k int) (centre, spread float64) {
+// range when the robust one is zero), and its range [lo, hi].
+// A constant input (lo == hi) is refused by the caller.
+func inputScale(runs []*ingest.Run, k int) (centre, spread, lo, hi float64) {
 	sub, lo, hi := subsample(runs, func(r *ingest.Run) []float64 { return r.U[k] })
 	centre, spread = robustScale(sub)
 	if !(spread > 0) {
 		spread = (hi - lo) / 4
 	}
-	if !(spread > 0) {
-		spread = 1 // a constant input: its column is the constant's
-	}
-	return centre, spread
+	return centre, spread, lo, hi
 }
 
 // EvalInputTo stores f(x, u) in dst and returns dst: the field at state x

@@ -161,6 +161,10 @@ type Model struct {
 	// inputs.
 	Inputs    []Input   `json:"inputs,omitempty"`
 	RestInput []float64 `json:"rest_input,omitempty"`
+	// Held lists the inputs that held one value in every sample fitted
+	// ([ingest.Options.HoldConstantInputs]): folded into the equations,
+	// which hold at those values. Absent when none was.
+	Held []HeldInput `json:"held_inputs,omitempty"`
 	// Equilibrium is the primary equilibrium (the one nearest where the
 	// runs settle, or end when none settles: an unstable one is not where
 	// they settle);
@@ -361,8 +365,12 @@ type Certificate struct {
 	Units       []string   `json:"units"`
 	Equilibrium []float64  `json:"equilibrium"`
 	Scale       []float64  `json:"scale"`
-	V           poly.Poly  `json:"V"`
-	Level       float64    `json:"level"`
+	// Held is the model's Held: inputs constant throughout the data,
+	// folded into the equations, so that the certificate holds with them
+	// at those values. Absent when none was.
+	Held  []HeldInput `json:"held_inputs,omitempty"`
+	V     poly.Poly   `json:"V"`
+	Level float64     `json:"level"`
 	// Box bounds, per state in original units, the connected piece of the
 	// level set that holds the equilibrium; membership tests use it too.
 	Box        [][2]float64 `json:"box"`

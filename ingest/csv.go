@@ -57,6 +57,9 @@ type csvLayout struct {
 	// the error at the first filled cell of one says how many cells
 	// after it are numbers
 	mixed []mixedNote
+	// latin: where the header or units row was first read as
+	// Windows-1252 (nil when they are UTF-8)
+	latin *latinNote
 }
 
 // index fills the fast path's slots from role and stateOf.
@@ -149,6 +152,9 @@ func readCSVWith(r io.Reader, name string, opts *Options, bufs *csvBufs) (*Datas
 		return nil, err
 	}
 	ds.Ignored = tb.ignored
+	if tb.latin != nil {
+		ds.latin = []string{tb.latin.warning(name)} // a warning of finish's
+	}
 	for _, u := range tb.unnamed {
 		ds.Warnings = append(ds.Warnings, fmt.Sprintf("%s:%d:%d: a column with no name in the header holds values; it is ignored (name it in the header to read it as a state; a row index may stay unnamed)", name, u[0], u[1]))
 	}
@@ -218,8 +224,11 @@ func readCSVBlocks(r io.Reader, name string, opts *Options, bufs *csvBufs) (*csv
 	}
 	first = first[:n]
 	first = bytes.TrimPrefix(first, []byte("\xef\xbb\xbf"))
+	if enc := utf16BOM(first); enc != "" {
+		return nil, &ParseError{File: name, Line: 1, Column: 1, Err: fmt.Errorf("%w: %s text (it starts with the byte-order mark % X), not UTF-8 or %s: save the file as UTF-8", ErrFormat, enc, first[:2], textCP1252)}
+	}
 	if k := bytes.IndexByte(first, 0); k >= 0 {
-		return nil, &ParseError{File: name, Err: binaryError(1 + bytes.Count(first[:k], []byte{'\n'}))}
+		return nil, &ParseError{File: name, Err: binaryError(1+bytes.Count(first[:k], []byte{'\n'}), looksUTF16(first))}
 	}
 	// the header: the first line that is neither blank nor a comment
 	line := 1
@@ -245,9 +254,6 @@ func readCSVBlocks(r io.Reader, name string, opts *Options, bufs *csvBufs) (*csv
 	if header == nil {
 		return nil, &ParseError{File: name, Err: fmt.Errorf("%w: no header line", ErrEmpty)}
 	}
-	if !utf8.Valid(header) {
-		return nil, &ParseError{File: name, Line: line, Err: fmt.Errorf("%w: header is not UTF-8 text", ErrFormat)}
-	}
 	if n := bytes.Count(header, []byte{detectDelim(header)}) + 1; n > MaxColumns {
 		return nil, &ParseError{File: name, Line: line, Err: fmt.Errorf("%w: %d columns, more than the limit of %d", ErrFormat, n, MaxColumns)}
 	}
@@ -260,8 +266,12 @@ func readCSVBlocks(r io.Reader, name string, opts *Options, bufs *csvBufs) (*csv
 	// A row of units under the header gives the columns their units; the
 	// data start on the line after it.
 	if units, after, n := lay.unitsRow(rest, line); units != nil {
+		note := lay.latin // a units row read as Windows-1252
 		if lay, tb, err = newLayout(name, header, headerLine, units, opts); err != nil {
 			return nil, err
+		}
+		if lay.latin == nil {
+			lay.latin = note
 		}
 		rest, line = after, n
 	}
@@ -280,11 +290,12 @@ func readCSVBlocks(r io.Reader, name string, opts *Options, bufs *csvBufs) (*csv
 		}
 	}
 	tb.finite = true // until a row from the general path (see parseBlocks)
+	tb.latin = lay.latin
 	if eof {
 		if err := p.parseBlocks([]*chunk{{data: rest, line: line}}); err != nil {
 			return nil, err
 		}
-		return p, nil
+		return p, p.decodeKeys()
 	}
 	// Size the columns from the input's size, when known, so that they are
 	// not regrown (each regrowth briefly holds two copies).
@@ -316,7 +327,34 @@ func readCSVBlocks(r io.Reader, name string, opts *Options, bufs *csvBufs) (*csv
 	if err := p.parallel(r, rest, line); err != nil {
 		return nil, err
 	}
-	return p, nil
+	return p, p.decodeKeys()
+}
+
+// decodeKeys makes the table's --run-col values UTF-8 text: one that is
+// not is read as Windows-1252 ([decodeText]), and one that is neither is
+// an error at its first row.
+func (p *csvParser) decodeKeys() error {
+	tb := p.tb
+	row := 0
+	for i := range tb.keys {
+		k := &tb.keys[i]
+		if utf8.ValidString(k.key) {
+			row += k.n
+			continue
+		}
+		s, _, bad := decodeText([]byte(k.key))
+		col := slices.Index(p.lay.role, roleRun) + 1
+		if bad >= 0 {
+			return &ParseError{File: p.lay.file, Line: tb.line(row), Column: col, Name: p.lay.names[col-1],
+				Err: encodingError("run name", []byte(k.key), bad)}
+		}
+		if tb.latin == nil {
+			tb.latin = &latinNote{line: tb.line(row), col: col, what: "run name", text: s}
+		}
+		k.key = s
+		row += k.n
+	}
+	return nil
 }
 
 // takeCols starts the table's columns on the buffers' (emptied).
@@ -347,9 +385,32 @@ func (p *csvParser) keepCols() {
 	}
 }
 
-// binaryError is the error for a NUL byte on a line of a CSV file.
-func binaryError(line int) error {
+// binaryError is the error for a NUL byte on a line of a CSV file;
+// utf16 adds that the file looks like UTF-16 text without a byte-order
+// mark.
+func binaryError(line int, utf16 bool) error {
+	if utf16 {
+		return fmt.Errorf("%w: binary data, not text (a NUL byte on line %d): every other byte is NUL, as in UTF-16 text; save the file as UTF-8", ErrFormat, line)
+	}
 	return fmt.Errorf("%w: binary data, not text (a NUL byte on line %d): not a text log", ErrFormat, line)
+}
+
+// looksUTF16 says the start of data looks like ASCII text written as
+// UTF-16 (either byte order) without a byte-order mark: of its first
+// bytes (up to 64 pairs, at least 2), every byte at one parity is NUL and
+// none at the other.
+func looksUTF16(data []byte) bool {
+	n := min(len(data), 128) &^ 1
+	if n < 4 {
+		return false
+	}
+	var nul [2]int
+	for i, c := range data[:n] {
+		if c == 0 {
+			nul[i&1]++
+		}
+	}
+	return nul[0] == n/2 && nul[1] == 0 || nul[1] == n/2 && nul[0] == 0
 }
 
 // printable reports a column name that would not print as itself in an
@@ -388,7 +449,15 @@ func newLayout(name string, header []byte, line int, units []string, opts *Optio
 	cols := make([]Column, len(cells))
 	seen := map[string]int{}
 	for j, c := range cells {
-		cols[j] = splitUnit(strings.TrimSpace(string(c)))
+		s, latin, bad := decodeText(c)
+		if bad >= 0 {
+			return nil, nil, &ParseError{File: name, Line: line, Column: j + 1, Err: encodingError("header cell", c, bad)}
+		}
+		s = strings.TrimSpace(s)
+		if latin && lay.latin == nil {
+			lay.latin = &latinNote{line: line, col: j + 1, what: "header cell", text: s}
+		}
+		cols[j] = splitUnit(s)
 		if cols[j].Unit == "" && j < len(units) {
 			cols[j].Unit = units[j]
 		} else if cols[j].Unit != "" {
@@ -469,6 +538,7 @@ func (lay *csvLayout) unitsRow(rest []byte, line int) ([]string, []byte, int) {
 	var units []string
 	var after []byte
 	afterLine := 0
+	var note *latinNote // where the row's text was read as Windows-1252
 	for len(rest) > 0 {
 		nl := bytes.IndexByte(rest, '\n')
 		cut := nl < 0 // the last line, or one cut at the first block's end
@@ -487,16 +557,27 @@ func (lay *csvLayout) unitsRow(rest []byte, line int) ([]string, []byte, int) {
 			if !ok || len(cells) <= ti || !lay.timeCell(trimBlank(cells[ti], lay.delim)) {
 				return nil, nil, 0
 			}
+			if lay.latin == nil {
+				lay.latin = note
+			}
 			return units, after, afterLine
 		}
 		if cut || !ok || len(cells) != lay.ncol {
 			return nil, nil, 0
 		}
 		units = make([]string, lay.ncol)
+		note = nil
 		for j, c := range cells {
-			u, ok := unitCell(trimBlank(c, lay.delim))
+			s, latin, bad := decodeText(trimBlank(c, lay.delim))
+			if bad >= 0 {
+				return nil, nil, 0 // no text: the parser reports it as data
+			}
+			u, ok := unitCell([]byte(s))
 			if !ok || (j == ti && u == "") || (u != "" && strings.EqualFold(u, lay.names[j])) {
 				return nil, nil, 0 // a second row of names is no units row
+			}
+			if latin && note == nil {
+				note = &latinNote{line: line - 1, col: j + 1, what: "unit", text: u} // line is past the row
 			}
 			units[j] = u
 		}
@@ -1279,7 +1360,7 @@ func (p *csvParser) parse(c *chunk) {
 	data := c.data
 	line := c.line
 	if k := bytes.IndexByte(data, 0); k >= 0 {
-		c.err = &ParseError{File: lay.file, Err: binaryError(line + bytes.Count(data[:k], []byte{'\n'}))}
+		c.err = &ParseError{File: lay.file, Err: binaryError(line+bytes.Count(data[:k], []byte{'\n'}), false)}
 		return
 	}
 	// The fast row path: numbers only (it leaves a line with a quote to
@@ -1602,8 +1683,13 @@ func (p *csvParser) cellError(line, j int, cell []byte) error {
 		msg = fmt.Errorf("%w %q (write plain decimals: no digit separators, no hexadecimal)", ErrNotNumber, s)
 	} else if ok && math.IsInf(v, 0) || errors.As(perr, &ne) && errors.Is(ne.Err, strconv.ErrRange) {
 		msg = fmt.Errorf("%w: %q is infinite or out of range", ErrNotNumber, s)
-	} else if !utf8.Valid(cell) {
+	} else if t, _, bad := decodeText(cell); bad >= 0 {
 		msg = fmt.Errorf("%w: not text (binary data?)", ErrNotNumber)
+	} else if t != string(cell) {
+		if len(t) > 40 {
+			t = string([]rune(t)[:min(40, utf8.RuneCountInString(t))]) + "..."
+		}
+		msg = fmt.Errorf("%w %q (text read as Windows-1252)", ErrNotNumber, t)
 	}
 	for _, m := range p.lay.mixed {
 		if m.line == line && m.col == j {

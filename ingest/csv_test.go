@@ -146,7 +146,8 @@ func TestReadCSVErrors(t *testing.T) {
 		{"unknown time-col", "a,b\n1,2\n", &Options{TimeCol: "clock"}, ErrNoTime, `x.csv: no time column (name one with Options.TimeCol, or give Options.Rate): Options.TimeCol "clock" is not a column`},
 		{"unknown state", "t,a\n1,2\n", &Options{States: []string{"b"}}, ErrNoStates, `x.csv: no state columns: Options.States names "b", which is not a column`},
 		{"binary", "t,a\n\x00\x01\x02\xff", nil, ErrFormat, "x.csv: not a readable log file: binary data, not text (a NUL byte on line 2): not a text log"},
-		{"bad utf8 header", "t,\xff\xfe\n1,2\n", nil, ErrFormat, "x.csv:1: not a readable log file: header is not UTF-8 text"},
+		// 0xFF 0xFE alone would be Windows-1252 text (ÿþ); 0x9D is undefined there [CP1252]
+		{"header neither UTF-8 nor Windows-1252", "t,\xff\x9d\n1,2\n", nil, ErrFormat, `x.csv:1:2: not a readable log file: header cell "\xff\x9d" is neither UTF-8 nor Windows-1252 (Latin-1) text (byte 0x9D at byte 2 of the cell)`},
 		{"decimal comma, then a bad cell", "t;a\n0;1,5\n1;2,5,1\n", nil, ErrNotNumber, `x.csv:3:2: column "a": not a number "2.5.1" (the file's decimal commas read as points)`},
 		{"unbalanced quote", "t,a\n0,\"1\n", nil, ErrFormat, "x.csv:2: not a readable log file: unbalanced quote"},
 		// a quoted delimiter in a text column: 3 fields, not the 4 the

@@ -11,6 +11,7 @@ import (
 	"strings"
 	"testing"
 	"time"
+	"unicode/utf8"
 
 	"github.com/apache/arrow/go/v15/arrow"
 	"github.com/apache/arrow/go/v15/arrow/array"
@@ -65,6 +66,13 @@ func FuzzReadCSV(f *testing.F) {
 		"t,a,b\n0,-nan,nan(ind)\n-nan,2,3\n2,nan(,4\n",
 		"time,a,b [deg]\r\n# units\r\ns,rad,rad/s\r\n0,1,2\r\n1,2,3\r\n",
 		"time;a;b\nISO8601;°;\n2026-11-30 08:00:00,5;1,5;2\n2026-11-30 08:00:01,5;1;3\n",
+		// Windows-1252 text: a header, a units row, a run name; a byte it
+		// leaves undefined; a cut UTF-8 sequence; UTF-16
+		"Zeit [s];Temperatur [\xb0C];Weg [\xb5m]\n0;1,5;2\n0,1;1;3\n",
+		"t,a,b\ns,\xb0C,\xb5m\n0,1,2\n1,2,3\n",
+		"run,t,a,b\nPr\xfcf,0,1,2\nPr\xfcf,1,2,3\nB\x81,0,1,2\n",
+		"t,a [\xe2\x82],b\n0,1,2\n1,2,3\n",
+		"\xff\xfet\x00,\x00a\x00\n\x000\x00,\x001\x00\n\x00",
 	} {
 		f.Add([]byte(s), uint8(0))
 	}
@@ -102,7 +110,7 @@ func FuzzReadCSV(f *testing.F) {
 		case 6:
 			opts = &Options{States: []string{"a"}, Inputs: []string{"b"}, RunCol: "run", From: 1}
 		case 7:
-			opts = &Options{Inputs: []string{"b"}, KeepHead: true, KeepEvents: true}
+			opts = &Options{Inputs: []string{"b"}, KeepHead: true, KeepEvents: true, HoldConstantInputs: true}
 		}
 		ds, err := ReadCSV(bytes.NewReader(data), "f.csv", opts)
 		if err != nil {
@@ -116,7 +124,29 @@ func FuzzReadCSV(f *testing.F) {
 			return
 		}
 		checkDataset(t, ds)
+		checkText(t, ds)
+		if len(ds.Held) > 0 && (len(ds.Inputs) != 0 || len(ds.ConstantInputs()) != 0) {
+			t.Fatalf("held %v, yet inputs %v (constant %v)", ds.Held, ds.Inputs, ds.ConstantInputs())
+		}
 	})
+}
+
+// checkText asserts that the names a read gives (columns, units, runs)
+// are UTF-8 text, whatever the file's encoding.
+func checkText(t *testing.T, ds *Dataset) {
+	t.Helper()
+	for _, cs := range [][]Column{ds.States, ds.Inputs, ds.Ignored, {ds.Time}} {
+		for _, c := range cs {
+			if !utf8.ValidString(c.Name) || !utf8.ValidString(c.Unit) {
+				t.Fatalf("column %q [%q] is not UTF-8", c.Name, c.Unit)
+			}
+		}
+	}
+	for _, r := range ds.Runs {
+		if !utf8.ValidString(r.Name) {
+			t.Fatalf("run name %q is not UTF-8", r.Name)
+		}
+	}
 }
 
 func FuzzReadParquet(f *testing.F) {

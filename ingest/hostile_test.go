@@ -117,8 +117,10 @@ func TestHostileCSV(t *testing.T) {
 			"", 64 * mib},
 		{"unbalanced quotes", strings.NewReader("t,x\n0,1\n1," + strings.Repeat(`"`, 1<<20+1) + "\n"),
 			"unbalanced quote", 64 * mib},
-		{"invalid UTF-8 in the header", strings.NewReader("t,x\xff\xfe\n0,1\n"),
-			"x.csv:1: not a readable log file: header is not UTF-8 text", mib},
+		// 0xFF 0xFE are ÿþ in Windows-1252, which reads them; 0x81 it
+		// leaves undefined [CP1252]
+		{"neither UTF-8 nor Windows-1252 in the header", strings.NewReader("t,x\x81\xfe\n0,1\n"),
+			`x.csv:1:2: not a readable log file: header cell "x\x81\xfe" is neither UTF-8 nor Windows-1252 (Latin-1) text (byte 0x81 at byte 2 of the cell)`, mib},
 		{"control character in the header", strings.NewReader("t,x\x1b[31m\n0,1\n"),
 			`header cell "x\x1b[31m" has a non-printable character U+001B`, mib},
 		{"NUL bytes", strings.NewReader("t,x\n0,1\n1,\x00\x00\x00\n"),

@@ -77,6 +77,13 @@ type Run struct {
 	U [][]float64
 }
 
+// A HeldInput is an input column that held one value in every sample of
+// every run (see [Options.HoldConstantInputs]).
+type HeldInput struct {
+	Column
+	Value float64 // in Column.Unit
+}
+
 // Len returns the number of samples in r.
 func (r *Run) Len() int { return len(r.T) }
 
@@ -87,8 +94,11 @@ type Dataset struct {
 	// setpoint), in the order of [Options.Inputs]; Run.U holds their
 	// samples. Empty without inputs.
 	Inputs []Column
-	Time   Column
-	Runs   []Run
+	// Held lists the inputs that held one value throughout, taken out of
+	// Inputs by Options.HoldConstantInputs. Empty otherwise.
+	Held []HeldInput
+	Time Column
+	Runs []Run
 	// Gaps counts the splits made at gaps, over all runs.
 	Gaps int
 	// Events lists the one-sample jumps far beyond the noise at which
@@ -112,6 +122,9 @@ type Dataset struct {
 	longest float64
 	// files are the files read, for that message.
 	files []string
+	// latin holds, per file whose text was read as Windows-1252, its
+	// warning; finish makes them one
+	latin []string
 	// Missing counts samples dropped because a cell was empty or NaN.
 	Missing int
 	// Ignored lists columns that were neither time, run nor state: text
@@ -190,6 +203,14 @@ type Options struct {
 	// [Dataset.ShortPieces], with one warning. A recording that was never
 	// split is kept whatever its length. Zero means keep every piece.
 	MinPiece int
+	// HoldConstantInputs takes an input that holds one value in every
+	// sample of every run (see [Dataset.ConstantInputs]) as a known
+	// constant: it is left out of Dataset.Inputs and Run.U and listed in
+	// [Dataset.Held] with its value, so that a fit folds it into the
+	// states' equations (its effect cannot be told from their constant
+	// terms). One warning says so. False keeps it among the inputs, with a
+	// warning.
+	HoldConstantInputs bool
 	// Stdin is read for the input "-". Nil means os.Stdin.
 	Stdin io.Reader `json:"-"`
 

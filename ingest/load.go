@@ -151,6 +151,7 @@ func Load(ctx context.Context, paths []string, opts *Options) (*Dataset, error) 
 		out.longest = max(out.longest, ds.longest)
 		out.files = append(out.files, ds.files...)
 		out.Warnings = append(out.Warnings, ds.Warnings...)
+		out.latin = append(out.latin, ds.latin...)
 		for _, c := range ds.Ignored {
 			if !hasColumn(out.Ignored, c.Name) {
 				out.Ignored = append(out.Ignored, c)

@@ -3,6 +3,7 @@ package ingest
 import (
 	"fmt"
 	"math"
+	"slices"
 	"strconv"
 	"strings"
 )
@@ -247,22 +248,57 @@ func (ds *Dataset) constantInput(k int) (float64, bool) {
 }
 
 // warnConstantInputs appends a warning to ds.Warnings for each input
-// column that [Dataset.ConstantInputs] finds.
-func warnConstantInputs(ds *Dataset) {
-	for _, k := range ds.ConstantInputs() {
+// column that [Dataset.ConstantInputs] finds; with hold, it also takes
+// each out of the inputs into ds.Held.
+func warnConstantInputs(ds *Dataset, hold bool) {
+	ks := ds.ConstantInputs()
+	for _, k := range ks {
 		v, _ := ds.constantInput(k)
 		c := ds.Inputs[k]
-		val := fmt.Sprintf("%g", v)
-		if c.Unit != "" {
-			val += " " + c.Unit
+		val := valueText(v, c.Unit)
+		w := fmt.Sprintf("input %s is constant (%s in every sample): its effect cannot be told from a constant term", c.Name, val)
+		if hold {
+			w += fmt.Sprintf(", so it is taken as known, held at %s and folded into the states' equations (the model has no input %s)", val, c.Name)
+			ds.Held = append(ds.Held, HeldInput{Column: c, Value: v})
 		}
-		ds.Warnings = append(ds.Warnings, fmt.Sprintf("input %s is constant (%s in every sample): it adds nothing", c.Name, val))
+		ds.Warnings = append(ds.Warnings, w)
+	}
+	if !hold || len(ks) == 0 {
+		return
+	}
+	keep := func(k int) bool { return !slices.Contains(ks, k) }
+	var in []Column
+	for k, c := range ds.Inputs {
+		if keep(k) {
+			in = append(in, c)
+		}
+	}
+	ds.Inputs = in
+	for i := range ds.Runs {
+		r := &ds.Runs[i]
+		var u [][]float64
+		for k, col := range r.U {
+			if keep(k) {
+				u = append(u, col)
+			}
+		}
+		r.U = u
 	}
 }
 
+// valueText is v with its unit, as warnings and errors quote a value.
+func valueText(v float64, unit string) string {
+	s := strconv.FormatFloat(v, 'g', -1, 64)
+	if unit != "" {
+		s += " " + unit
+	}
+	return s
+}
+
 // finish makes the checks that need the whole data set, once it is read
-// and joined: a time window that leaves no run is an error; recordings
-// it leaves out, and inputs that never change, are warnings.
+// and joined: a time window that leaves no run is an error; files read
+// as Windows-1252 (one warning for all), recordings the window leaves
+// out, and inputs that never change, are warnings.
 func finish(ds *Dataset, opts *Options) error {
 	if opts == nil {
 		opts = &Options{}
@@ -275,13 +311,23 @@ func finish(ds *Dataset, opts *Options) error {
 		}
 		return err
 	}
+	if len(ds.latin) > 0 { // one warning for every file read as Windows-1252
+		w := ds.latin[0]
+		if n := len(ds.latin) - 1; n == 1 {
+			w += ", and so is 1 more file"
+		} else if n > 1 {
+			w += fmt.Sprintf(", and so are %d more files", n)
+		}
+		ds.Warnings = append([]string{w}, ds.Warnings...)
+		ds.latin = nil
+	}
 	if ds.Window > 0 {
 		ds.Warnings = append(ds.Warnings, fmt.Sprintf("%d of %d recordings have no samples from %s and are left out",
 			ds.Window, ds.Window+ds.recordings(), windowText(opts.From, opts.To)))
 	}
 	warnEvents(ds)
 	dropShortPieces(ds, opts.MinPiece)
-	warnConstantInputs(ds)
+	warnConstantInputs(ds, opts.HoldConstantInputs)
 	return nil
 }
 

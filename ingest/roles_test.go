@@ -116,10 +116,24 @@ func TestConstantInputWarns(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if !slices.Equal(ds.ConstantInputs(), []int{0}) || len(ds.Warnings) != 1 ||
-		!strings.Contains(ds.Warnings[0], "input u is constant") || !strings.Contains(ds.Warnings[0], "adds nothing") {
+	if !slices.Equal(ds.ConstantInputs(), []int{0}) || len(ds.Warnings) != 1 || len(ds.Inputs) != 1 || len(ds.Held) != 0 ||
+		ds.Warnings[0] != "input u is constant (2 in every sample): its effect cannot be told from a constant term" {
 		t.Errorf("constant input: warnings %q, ConstantInputs %v", ds.Warnings, ds.ConstantInputs())
 	}
+	// held: out of the inputs, into Held, with one warning that gives the
+	// value with its unit both times; the other input stays, in order
+	h := writeFile(t, dir, "h.csv", "t,x,u [V],w\n0,1,2.5,0\n1,2,2.5,1\n")
+	ds, err = Load(context.Background(), []string{h}, &Options{Inputs: []string{"u", "w"}, HoldConstantInputs: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	want := "input u is constant (2.5 V in every sample): its effect cannot be told from a constant term, so it is taken as known, held at 2.5 V and folded into the states' equations (the model has no input u)"
+	if len(ds.Warnings) != 1 || ds.Warnings[0] != want || len(ds.Inputs) != 1 || ds.Inputs[0].Name != "w" ||
+		len(ds.Held) != 1 || ds.Held[0] != (HeldInput{Column: Column{Name: "u", Unit: "V"}, Value: 2.5}) ||
+		len(ds.Runs[0].U) != 1 || !slices.Equal(ds.Runs[0].U[0], []float64{0, 1}) {
+		t.Errorf("held: warnings %q, inputs %v, held %v, U %v", ds.Warnings, ds.Inputs, ds.Held, ds.Runs[0].U)
+	}
+	checkDataset(t, ds)
 	// an input missing from one file names that file
 	c := writeFile(t, dir, "c.csv", "t,x,v\n0,1,3\n1,2,3\n")
 	_, err = Load(context.Background(), []string{a, c}, &Options{Inputs: []string{"u"}})

@@ -37,6 +37,9 @@ func FuzzStreamCSV(f *testing.F) {
 		"clock,a\n1,2\n3,4\n",
 		"t,a,b\n0,1,1e400\n1,2,3\n",
 		"t,a,b\n0,-nan,1\n1,2,nan(ind)\n2,3,4\n3,4,5\n",
+		"Zeit [s];Temperatur [\xb0C];Weg [\xb5m]\n0;1,5;2\n0,1;1;3\n0,2;0,5;2,5\n",
+		"time,a,b\ns,\xb0C,\xb5m\n0,1,2\n1,2,3\n2,1,1\n",
+		"t,a [\x81],b\n0,1,2\n1,2,3\n",
 	} {
 		f.Add([]byte(s), uint8(2))
 	}

@@ -8,6 +8,8 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"slices"
+	"strings"
 	"testing"
 	"time"
 
@@ -103,6 +105,13 @@ func fuzzStreamWith(newS func(*Options, *StreamOptions) *Streamer, t *testing.T,
 		if len(sf.Runs) != len(want.Runs) {
 			t.Fatalf("%d runs, ReadFile %d", len(sf.Runs), len(want.Runs))
 		}
+		// the columns, and the warning of a file read as Windows-1252
+		if !slices.Equal(sf.States, want.States) {
+			t.Fatalf("states %q, ReadFile %q", sf.States, want.States)
+		}
+		if a, b := encodingWarnings(sf.Warnings), encodingWarnings(want.Warnings); !slices.Equal(a, b) {
+			t.Fatalf("encoding warnings %q, ReadFile %q", a, b)
+		}
 		for k, r := range want.Runs {
 			if sf.Runs[k].Name != r.Name || n[k] != r.Len() || sf.Runs[k].Source != r.Source {
 				t.Fatalf("run %d: %s %d samples %+v, ReadFile %s %d %+v", k, sf.Runs[k].Name, n[k], sf.Runs[k].Source, r.Name, r.Len(), r.Source)
@@ -156,4 +165,16 @@ func (r *recTap) Block(row0 int, t []float64, x [][]float64) {
 		}
 		r.rows = append(r.rows, row)
 	}
+}
+
+// encodingWarnings are the warnings of a CSV file's text read as
+// Windows-1252.
+func encodingWarnings(ws []string) []string {
+	var out []string
+	for _, w := range ws {
+		if strings.Contains(w, textCP1252) {
+			out = append(out, w)
+		}
+	}
+	return out
 }

@@ -79,6 +79,9 @@ func (cs *csvSource) pass(ctx context.Context, fn func(row0 int, t []float64, x 
 			cs.ns = len(tb.states)
 			sf := cs.sf
 			sf.States, sf.Ignored = tb.states[:cs.ns:cs.ns], tb.ignored
+			if tb.latin != nil {
+				sf.Warnings = append(sf.Warnings, tb.latin.warning(cs.path))
+			}
 			cs.conv = newTimeConv(tb, sf)
 			if len(c.data) > 0 {
 				cs.hint = int(float64(c.rows) * float64(cs.size) / float64(len(c.data)))

@@ -47,6 +47,9 @@ type table struct {
 	// unnamed: the line and column (1-based) of each column without a
 	// header name whose first data row holds a value (CSV)
 	unnamed [][2]int
+	// latin: where a CSV file's text was first read as Windows-1252
+	// (nil when all of it is UTF-8)
+	latin *latinNote
 	// finite: every cell of x is known to be finite, with no missing
 	// cell (the CSV reader's fast row path took every row: it takes
 	// finite numbers only), so that the runs need no look for holes

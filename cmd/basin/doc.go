@@ -60,6 +60,15 @@ numbers stay the file's. Empty cells and NaN (in any case, or as C's
 printf writes it: -nan, nan(ind)) are missing samples: a run is split at a
 gap, not interpolated across it.
 
+CSV text that is not UTF-8 (header cells, a units row, --run-col values)
+is read as Windows-1252 (Latin-1: ° as the byte 0xB0, µ as 0xB5), with one
+warning naming the first such file; a byte that fits neither, or a UTF-16 file, is
+an input error (exit 2) naming line and column. An input that holds one
+value throughout cannot be told from a constant term: one warning names
+it with its value and unit, and fit and run hold it at that value, folded
+into the states' equations (held_inputs in model.json and
+certificate.json).
+
 A one-sample jump far beyond the noise (a hammer hit, a relay, a dropped
 packet) splits a run there like a gap; a spike, one sample that departs
 and comes back, is dropped. Far means more than 8 times the robust noise

@@ -68,10 +68,8 @@ func runFit(ctx context.Context, e *env, args []string) error {
 	pg := newProgress(e.stderr, f.Quiet)
 	defer pg.Done()
 	pg.Stage("reading logs")
+	f.hold = true // a constant input is folded into the equations, with a warning
 	ds, err := loadInputs(ctx, e, &f.inputFlags, f.Quiet, args)
-	if err == nil {
-		err = refuseConstantInputs(ds)
-	}
 	if err != nil {
 		return err
 	}
@@ -190,6 +188,13 @@ func printModel(w io.Writer, m *fit.Model) {
 			at = append(at, fmt.Sprintf("%s = %s%s", in.Name, human.Sig(m.RestInput[k], 4), unitSuffix(in.Unit)))
 		}
 		fmt.Fprintf(w, "\nequilibria and certificate at rest input %s\n", strings.Join(at, ", "))
+	}
+	if len(m.Held) > 0 {
+		var at []string
+		for _, h := range m.Held {
+			at = append(at, fmt.Sprintf("%s = %s%s", h.Name, human.Sig(h.Value, 4), unitSuffix(h.Unit)))
+		}
+		fmt.Fprintf(w, "\nthe equations hold at the constant input %s (folded in: it never changed)\n", strings.Join(at, ", "))
 	}
 	fmt.Fprintf(w, "\nequilibria (%s):\n", report.FirstEquilibrium(m))
 	if len(m.Equilibria) == 0 {

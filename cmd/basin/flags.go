@@ -38,6 +38,9 @@ type inputFlags struct {
 	From, To   float64
 	KeepHead   bool
 	KeepEvents bool
+	// hold: take an input constant throughout as a known constant (the
+	// fitting commands; not a flag)
+	hold bool
 }
 
 // register adds the input flags to fs; --manifest only when manifest.
@@ -70,7 +73,7 @@ func (f *inputFlags) options() (*ingest.Options, error) {
 		return nil, usagef("--from %g is after --to %g", f.From, f.To)
 	}
 	o := &ingest.Options{TimeCol: f.TimeCol, Rate: f.Rate, RunCol: f.RunCol, Manifest: f.Manifest,
-		From: f.From, To: f.To, KeepHead: f.KeepHead, KeepEvents: f.KeepEvents}
+		From: f.From, To: f.To, KeepHead: f.KeepHead, KeepEvents: f.KeepEvents, HoldConstantInputs: f.hold}
 	var err error
 	if o.States, err = nameList("--states", f.States); err != nil {
 		return nil, err

@@ -382,15 +382,3 @@ func inspectEvents(w io.Writer, ds *ingest.Dataset) {
 		fmt.Fprintf(w, "\n%d recordings left out: no samples in the --from/--to window\n", ds.Window)
 	}
 }
-
-// refuseConstantInputs is the fitting commands' check that every input
-// varies: one that holds one value in every sample cannot be told from a
-// constant term, so fitting with it is bad input (inspect only warns).
-func refuseConstantInputs(ds *ingest.Dataset) error {
-	for _, k := range ds.ConstantInputs() {
-		c := ds.Inputs[k]
-		return &inputError{fmt.Errorf("--inputs %q: the input is constant (%s in every sample): it adds nothing; leave it out",
-			printable(c.Name), g(ds.Runs[0].U[k][0]))}
-	}
-	return nil
-}

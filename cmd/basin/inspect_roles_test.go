@@ -7,9 +7,12 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"slices"
 	"strconv"
 	"strings"
 	"testing"
+
+	"basin.example/fit"
 
 	"gonum.org/v1/gonum/floats/scalar"
 )
@@ -192,28 +195,108 @@ func TestInspectRestPoints(t *testing.T) {
 	}
 }
 
-// TestFitConstantInput: fitting with an input that never changes exits 2
-// with one line naming it (inspect only warns), and writes nothing.
+// TestFitConstantInput: fitting with an input that never changes takes
+// it as a known constant: one warning naming it with its value and unit,
+// exit 0, and a model without the input that records it as held, its
+// equation the states' alone. The truth: x = exp(-t/10) solves
+// x' = -0.1 x whatever the constant u (exact, sampled without noise), so
+// the coefficient of x is -0.1 to the derivative's error on a smooth
+// exponential (1e-3 relative is far above it) and no other term is kept.
 func TestFitConstantInput(t *testing.T) {
 	dir := t.TempDir()
-	in := "t,x,u\n"
-	for i := range 50 {
-		in += ftoa(float64(i)*0.1) + "," + ftoa(math.Exp(-0.1*float64(i))) + ",2\n"
-	}
-	path := filepath.Join(dir, "c.csv")
-	if err := os.WriteFile(path, []byte(in), 0o644); err != nil {
+	data := filepath.Join(dir, "data")
+	if err := os.Mkdir(data, 0o755); err != nil {
 		t.Fatal(err)
 	}
-	out := filepath.Join(dir, "out")
+	for r, x0 := range []float64{1, -1, 2, -2, 0.5, -0.5} { // runs to hold out, too
+		in := "t,x [m],u [V]\n"
+		for i := range 200 {
+			in += ftoa(float64(i)*0.1) + "," + ftoa(x0*math.Exp(-0.01*float64(i))) + ",2\n"
+		}
+		if err := os.WriteFile(filepath.Join(data, "c"+strconv.Itoa(r)+".csv"), []byte(in), 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	warn := "basin: warning: input u is constant (2 V in every sample): its effect cannot be told from a constant term, so it is taken as known, held at 2 V and folded into the states' equations (the model has no input u)\n"
 	for _, cmd := range []string{"fit", "run"} {
+		out := filepath.Join(dir, "out-"+cmd)
 		var stdout, stderr bytes.Buffer
-		code := basinMainIn(context.Background(), []string{cmd, "--quiet", "--inputs", "u", "--out", out, path}, &stdout, &stderr, nil)
+		code := basinMainIn(context.Background(), []string{cmd, "--inputs", "u", "--out", out, data}, &stdout, &stderr, nil)
 		msg := stderr.String()
-		if code != 2 || strings.Count(msg, "\n") != 1 || !strings.Contains(msg, `--inputs "u": the input is constant (2 in every sample): it adds nothing`) {
+		if code != 0 || !strings.HasPrefix(msg, warn) || strings.Count(msg, "is constant") != 1 || strings.Contains(msg, "basin "+cmd+":") {
 			t.Errorf("%s: exit %d, stderr %q", cmd, code, msg)
+			continue
 		}
-		if _, err := os.Stat(out); err == nil {
-			t.Errorf("%s wrote %s", cmd, out)
+		m, err := fit.ReadModel(mustOpen(t, filepath.Join(out, "model.json")))
+		if err != nil {
+			t.Fatal(err)
 		}
+		if len(m.Inputs) != 0 || len(m.Held) != 1 || m.Held[0] != (fit.HeldInput{Name: "u", Unit: "V", Value: 2}) {
+			t.Errorf("%s: inputs %v, held %v", cmd, m.Inputs, m.Held)
+		}
+		eq := m.Equations[0]
+		if len(eq.Coefficients) != 1 || !slices.Equal(eq.Exponents[0], []int{1}) || !scalar.EqualWithinRel(eq.Coefficients[0], -0.1, 1e-3) {
+			t.Errorf("%s: d(x)/dt terms %v coefficients %v, want -0.1 x", cmd, eq.Exponents, eq.Coefficients)
+		}
+		if cmd == "fit" && !strings.Contains(stdout.String(), "the equations hold at the constant input u = 2 V") {
+			t.Errorf("fit summary does not say u is held:\n%s", stdout.String())
+		}
+		if cmd == "run" {
+			c, err := fit.ReadCertificate(mustOpen(t, filepath.Join(out, "certificate.json")))
+			if err != nil {
+				t.Fatal(err)
+			}
+			sum, err := os.ReadFile(filepath.Join(out, "summary.txt"))
+			if err != nil {
+				t.Fatal(err)
+			}
+			if len(c.Held) != 1 || c.Held[0] != m.Held[0] || !strings.Contains(string(sum), "at the constant input u = 2 V (it never changed") {
+				t.Errorf("certificate held %v; summary:\n%s", c.Held, sum)
+			}
+		}
+	}
+}
+
+// TestInspectLatin1: a header written in Windows-1252 [CP1252] (0xB0 the
+// degree sign, 0xB5 the micro sign) is read with one warning naming the
+// file and the code page, and --json gives the units as UTF-8; a byte the
+// code page leaves undefined (0x81) is one line naming file, line and
+// column, exit 2.
+func TestInspectLatin1(t *testing.T) {
+	dir := t.TempDir()
+	var sb strings.Builder
+	sb.WriteString("Zeit [s];Temperatur [\xb0C];Weg [\xb5m]\n")
+	for i := range 50 {
+		sb.WriteString(ftoa(float64(i)*0.1) + ";" + ftoa(math.Exp(-0.1*float64(i))) + ";" + ftoa(math.Cos(0.3*float64(i))) + "\n")
+	}
+	good := filepath.Join(dir, "good.csv")
+	bad := filepath.Join(dir, "bad.csv")
+	if err := os.WriteFile(good, []byte(sb.String()), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	if err := os.WriteFile(bad, []byte(strings.Replace(sb.String(), "[\xb5m]", "[\x81m]", 1)), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	var stdout, stderr bytes.Buffer
+	code := basinMainIn(context.Background(), []string{"inspect", "--json", "--time-col", "Zeit", good}, &stdout, &stderr, nil)
+	want := "basin: warning: " + good + `:1:2: header cell "Temperatur [°C]" is not UTF-8 text: the file's text is read as Windows-1252 (Latin-1)` + "\n"
+	if code != 0 || stderr.String() != want {
+		t.Fatalf("exit %d, stderr %q, want %q", code, stderr.String(), want)
+	}
+	var doc struct {
+		States []struct{ Name, Unit string }
+	}
+	if err := json.Unmarshal(stdout.Bytes(), &doc); err != nil {
+		t.Fatal(err)
+	}
+	if len(doc.States) != 2 || doc.States[0].Unit != "°C" || doc.States[1].Unit != "\u00b5m" || !strings.Contains(stdout.String(), `"°C"`) {
+		t.Errorf("states %+v", doc.States)
+	}
+	stdout.Reset()
+	stderr.Reset()
+	code = basinMainIn(context.Background(), []string{"inspect", "--time-col", "Zeit", bad}, &stdout, &stderr, nil)
+	msg := stderr.String()
+	if code != 2 || strings.Count(msg, "\n") != 1 || !strings.Contains(msg, bad+":1:3: ") || !strings.Contains(msg, "byte 0x81") {
+		t.Errorf("exit %d, stderr %q", code, msg)
 	}
 }

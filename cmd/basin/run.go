@@ -199,10 +199,8 @@ func runRun(ctx context.Context, e *env, args []string) error {
 	prog := newProgress(e.stderr, c.Quiet)
 	defer prog.Done()
 	prog.Stage("reading logs")
+	c.hold = true // a constant input is folded into the equations, with a warning
 	ds, err := loadInputs(ctx, e, &c.inputFlags, c.Quiet, args)
-	if err == nil {
-		err = refuseConstantInputs(ds)
-	}
 	if err != nil {
 		return err
 	}

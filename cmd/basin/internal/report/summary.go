@@ -50,6 +50,13 @@ func Summary(w io.Writer, in *Input) error {
 			}
 			fmt.Fprintf(&b, "  %s\n", Formula(e.State, u, e.Exponents, e.Coefficients, m.Vars()))
 		}
+		if len(m.Held) > 0 {
+			var at []string
+			for _, h := range m.Held {
+				at = append(at, fmt.Sprintf("%s = %s%s", h.Name, human.Sig(h.Value, 4), spaceUnit(h.Unit)))
+			}
+			fmt.Fprintf(&b, "  at the constant input %s (it never changed in the data: folded into the equations, which hold there only)\n", strings.Join(at, ", "))
+		}
 		if len(m.Inputs) > 0 && len(m.RestInput) == len(m.Inputs) {
 			var at []string
 			for k, in := range m.Inputs {
