@@ -508,6 +508,64 @@ type Validation struct {
 	// Decay holds the held-out runs' decay rates of V, from which screen
 	// flags runs that settle too slowly; nil in older certificates.
 	Decay *Decay `json:"decay,omitempty"`
+	// RestScatter is the test of whether the runs that settle at the
+	// equilibrium share one rest point; nil when it was not made (the
+	// model has inputs, or fewer than three runs settle there) and in
+	// older certificates.
+	RestScatter *RestScatter `json:"rest_scatter,omitempty"`
+}
+
+// RestScatter tests whether the runs that settle at the certified
+// equilibrium come to rest at one point, as a model of the logged states
+// alone says they must (package validate computes it). Over each run's
+// final quarter it takes the mean drive the model leaves unexplained
+// (the weak form: the change of the quarter's end means less the
+// integral of the model's field, per second), whose spread under
+// measurement noise is known from the run's own noise; an unlogged state
+// or input that sets where a run comes to rest shows as drives that
+// differ from run to run by more than that.
+type RestScatter struct {
+	// Runs counts the runs tested: those that settle near the
+	// equilibrium and are at rest (no motion beyond their noise) over
+	// their final quarter.
+	Runs int `json:"runs"`
+	// ChiSquare is the homogeneity statistic of the runs' unexplained
+	// drives about their common (weighted) mean, on Dof degrees of
+	// freedom ((Runs - 1) per state); PValue its chi-square tail
+	// probability, and Alpha the level below which the rest points are
+	// said to scatter (Scattered).
+	ChiSquare float64 `json:"chi_square"`
+	Dof       int     `json:"dof"`
+	PValue    float64 `json:"p_value"`
+	Alpha     float64 `json:"alpha"`
+	Scattered bool    `json:"scattered"`
+	// Ratio is ChiSquare / Dof: how many times the noise's variance the
+	// drives scatter by (about 1 when the runs share a rest point).
+	Ratio float64 `json:"ratio"`
+	// DriftZ, when Scattered, is the pooled z-score of the change of each
+	// run's unexplained drive from the quarter before its final one to
+	// the final one, along the run's own offset from the common rest
+	// point: above zero the offsets grow along the runs, below they
+	// shrink. Zero when not Scattered or when fewer than three runs are
+	// at rest over both quarters (DriftRuns counts those used).
+	DriftZ    float64 `json:"drift_z"`
+	DriftRuns int     `json:"drift_runs"`
+	// Widest lists up to three runs whose rest points lie farthest from
+	// the common one, in standard errors, farthest first.
+	Widest []RestOffset `json:"widest,omitempty"`
+}
+
+// RestOffset is one run's rest point against the runs' common one.
+type RestOffset struct {
+	Run string `json:"run"`
+	// Offset is, per state and in the states' units, where the run would
+	// come to rest under its unexplained drive minus where the common
+	// drive brings the runs to rest (the drive through the inverse
+	// Jacobian at the equilibrium).
+	Offset []float64 `json:"offset"`
+	// Sigmas is the offset's size in standard errors of the run's noise
+	// (the square root of its term of ChiSquare).
+	Sigmas float64 `json:"sigmas"`
 }
 
 // Decay is the distribution of V's decay rate over the held-out runs:

@@ -55,6 +55,11 @@ const (
 	// ReasonLackOfFit: the certificate would be certified, but the model
 	// fails the lack-of-fit check ([Model.Misfit]).
 	ReasonLackOfFit ReasonKind = "model_lacks_fit"
+	// ReasonRestScatter: the certificate would be certified, but the runs
+	// that settle at the equilibrium come to rest at points that differ
+	// by more than their noise allows (Validation.RestScatter), and do
+	// not draw together along the runs.
+	ReasonRestScatter ReasonKind = "rest_points_scatter"
 	// ReasonFoldsDisagree: the folds (each run held out once) did not all
 	// certify, nor did most reject.
 	ReasonFoldsDisagree ReasonKind = "folds_disagree"

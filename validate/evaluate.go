@@ -785,6 +785,20 @@ func Evaluate(ctx context.Context, ds *ingest.Dataset, opts *Options) (*Result, 
 		if why := m.Misfit(); why != "" && cert.Verdict == fit.Certified {
 			cert.Verdict, cert.Strength, cert.ReasonKind, cert.Reason = fit.Inconclusive, fit.NoClaim, fit.ReasonLackOfFit, why
 		}
+		if rs := restScatter(m, ds, m.Equilibrium, o.splits); rs != nil {
+			// every run of ds that settles here, fit and held out: the
+			// test is of the data against a model of the logged states
+			val.RestScatter = rs
+			if rs.Scattered && cert.Verdict == fit.Certified {
+				if rs.DriftZ < -restShrinkZ {
+					cert.Strength = fit.Stable
+					cert.Reason += fmt.Sprintf(" The runs come to rest at points that differ by more than their noise allows (%.3g times, p = %.2g), but draw together along the runs (drift z = %+.2g): something unlogged sets where they rest and dies out, so only stability is claimed, not settling at the equilibrium.", rs.Ratio, rs.PValue, rs.DriftZ)
+				} else {
+					cert.Verdict, cert.Strength, cert.ReasonKind = fit.Inconclusive, fit.NoClaim, fit.ReasonRestScatter
+					cert.Reason = restScatterWords(rs, m.States, m.Units)
+				}
+			}
+		}
 		if sameStart(ds) && cert.Verdict == fit.Certified {
 			cert.Verdict, cert.Strength, cert.ReasonKind = fit.Inconclusive, fit.NoClaim, fit.ReasonSameStart
 			cert.Reason = "Every run starts at the same state, so the held-out runs repeat the fit runs and check nothing new. Record runs that start from different states."

@@ -306,6 +306,11 @@ func runRun(ctx context.Context, e *env, args []string) error {
 		return err
 	}
 	removeStaleRests(c.Out, len(all))
+	for i, a := range all {
+		if w := validate.ScatterWarning(a.Certificate); w != "" {
+			warnf(e, c.Quiet, "%s: %s", names[min(i+1, len(names)-1)], w)
+		}
+	}
 	prog.Done()
 	if c.JSON {
 		return writeJSON(e.stdout, cert)
