@@ -400,7 +400,7 @@ func driveOver(fe *fit.FieldEvaluator, run *ingest.Run, lo, hi int, sd []float64
 // states with units.
 func restScatterWords(rs *fit.RestScatter, states, units []string) string {
 	runs := widestWords(rs, states, units)
-	return fmt.Sprintf("The %d runs that settle at the equilibrium, at rest over their final quarter, do not come to rest at one point: the drive the model leaves unexplained over their final quarter scatters %.3g times the variance their noise allows (chi-square %.4g on %d degrees of freedom, p = %.2g), and %s. Farthest from the common rest point: %s. Something the model does not see, an unlogged state or input, sets where the runs come to rest, and the logged data cannot tell whether it dies out or grows, so no stability is claimed. Log the missing state or input, or record runs long enough to show where it goes.",
+	return fmt.Sprintf("The %d runs that settle at the equilibrium, at rest over their final quarter, do not come to rest at one point: the drive the model leaves unexplained over their final quarter scatters %.3g times the variance their noise allows (chi-square %.4g on %d degrees of freedom, p = %.2g), and %s. Farthest from the common rest point: %s. Something the model does not see sets where the runs come to rest: an unlogged state or input, whose fate (dying out or growing) the logged data cannot tell, or a sensor offset that changes from run to run (it shifts where a run seems to rest as much); so no stability is claimed. Log the missing state or input, zero the sensors the same way before every run, or record runs long enough to show where the rest points go.",
 		rs.Runs, rs.Ratio, rs.ChiSquare, rs.Dof, rs.PValue, driftWords(rs), runs)
 }
 
@@ -428,7 +428,7 @@ func ScatterWarning(cert *fit.Certificate) string {
 	}
 	rs := cert.Validation.RestScatter
 	runs := widestWords(rs, cert.States, cert.Units)
-	return fmt.Sprintf("the %d runs that settle at the equilibrium come to rest at points that differ by more than their noise allows (%.3g times its variance, p = %.2g; farthest: %s): an unlogged state or input sets where they rest; log it, or record longer runs",
+	return fmt.Sprintf("the %d runs that settle at the equilibrium come to rest at points that differ by more than their noise allows (%.3g times its variance, p = %.2g; farthest: %s): an unlogged state or input, or a sensor offset that changes between runs, sets where they rest; log it, zero the sensors alike before every run, or record longer runs",
 		rs.Runs, rs.Ratio, rs.PValue, runs)
 }
 
