@@ -160,22 +160,33 @@ func yardstickFloor(runs []*ingest.Run, groupOf func(r, i int) int, keep []bool,
 // lackOfFit fills eq's lack-of-fit figures from the chosen candidate c
 // (its per-group held-out errors on the yardstick sc), the groups'
 // weights in the mean, the noise floor per group (yardstickFloor, state
-// i) and the run of each group, and returns the warning, or "" when the
-// fit is adequate. sd is the yardstick target's standard deviation in the
-// state's unit per second, unit the state's unit.
+// i), the run of each group and the held-out windows split by their
+// fold's envelope (in; nil when unknown), and returns the warning, or ""
+// when the fit is adequate. sd is the yardstick target's standard
+// deviation in the state's unit per second, unit the state's unit.
 //
-// Two findings warn. The whole equation's held-out error is at least
+// The findings are judged on the held-out windows inside their fold's
+// envelope only (see envelope.go): where a fold's model extrapolates its
+// error is no evidence of a lack. When no window lies outside, the
+// figures are the groups' (LackOfFit, HeldoutShare); else those of the
+// windows inside (Equation.InsideLackOfFit, InsideShare), and the runs
+// whose windows outside miss by far more than the noise are named in
+// Equation.Extrapolation.
+//
+// Two findings warn. The equation's held-out error is at least
 // [lackOfFitRatio] times its floor (and at least [lackOfFitShare] of its
-// spread); then the runs that carry it are named when a robust refit
-// (see excessRuns) rejects windows of at most half the runs and fits the
-// rest to within [restRatio] of their noise. Or the equation passes as a
-// whole, but some run's own held-out error is at least [runScreenRatio]
-// times its floor, and the robust refit finds windows of at most half
-// the runs far beyond the noise (the worst at least [outlierWorst] noise
-// sd), carrying at least [outlierMass] of the floor's weight, while it
-// fits the others: something happened in those
-// runs that the model does not have.
-func lackOfFit(eq *Equation, ad *adequacy, sc *problem, c choice, weight []float64, floor [][]float64, runOf []int, runs []*ingest.Run, i int, sd float64, unit string) string {
+// spread); then the runs that carry it are named: those whose windows a
+// robust refit (see excessRuns) rejects, when they are at most half the
+// runs and the rest fit to within [restRatio] of their noise, else the
+// runs of the largest held-out excess over their floor. Or the equation
+// passes as a whole, but some run's own held-out error is at least
+// [runScreenRatio] times its floor, and the robust refit finds windows of
+// at most half the runs far beyond the noise (the worst at least
+// [outlierWorst] noise sd), carrying at least [outlierMass] of the
+// floor's weight, while it fits the others: something happened in those
+// runs that the model does not have. Either names its runs in
+// Equation.MisfitRuns.
+func lackOfFit(eq *Equation, ad *adequacy, sc *problem, c choice, weight []float64, floor [][]float64, runOf []int, runs []*ingest.Run, in *interp, i int, sd float64, unit string) string {
 	if len(floor) != len(c.groupErr) || len(weight) != len(floor) || len(sc.groups) != len(floor) {
 		return ""
 	}
@@ -214,32 +225,74 @@ func lackOfFit(eq *Equation, ad *adequacy, sc *problem, c choice, weight []float
 			R++
 		}
 	}
-	if eq.LackOfFit >= lackOfFitRatio && eq.HeldoutShare >= lackOfFitShare {
+	// The figures judged, and each run's held-out squares and floor:
+	// the groups' when every window is inside, else the windows' inside.
+	ratio, share, rms, floorRMS := eq.LackOfFit, eq.HeldoutShare, eq.HeldoutRMS, eq.NoiseFloorRMS
+	errRun, floorRun := make([]float64, len(runs)), make([]float64, len(runs))
+	rowsRun := make([]int, len(runs))
+	if in != nil && in.outside > 0 {
+		eq.OutsideWindows = in.outside
+		if in.floor > 0 {
+			eq.InsideLackOfFit = math.Sqrt(in.err / in.floor)
+			eq.InsideShare = math.Sqrt(in.err)
+		}
+		ratio, share = eq.InsideLackOfFit, eq.InsideShare
+		rms, floorRMS = eq.InsideShare*sd, math.Sqrt(in.floor)*sd
+		copy(errRun, in.inErr)
+		copy(floorRun, in.inFloor)
+		copy(rowsRun, in.inRows)
+		names := make([]string, 0, len(ad.vs.centre))
+		names = append(names, ad.m.States...)
+		for _, u := range ad.m.Inputs {
+			names = append(names, u.Name)
+		}
+		runNames := make([]string, len(runs))
+		for r, rn := range runs {
+			runNames[r] = rn.Name
+		}
+		rs, note := in.outsideNote(runNames, names)
+		for _, r := range rs {
+			eq.OutsideRuns = append(eq.OutsideRuns, runs[r].Name)
+		}
+		eq.Extrapolation = note
+	} else {
+		for g, gs := range sc.groups {
+			r := runOf[g]
+			errRun[r] += float64(gs.rows) * c.groupErr[g]
+			floorRun[r] += float64(gs.rows) * floor[g][i]
+			rowsRun[r] += gs.rows
+		}
+	}
+	if ratio >= lackOfFitRatio && share >= lackOfFitShare {
 		w := fmt.Sprintf("held-out error %.3g times what the measurement noise leaves (%.4g against %.4g %s): the model lacks something the data have",
-			eq.LackOfFit, eq.HeldoutRMS, eq.NoiseFloorRMS, rate)
+			ratio, rms, floorRMS, rate)
+		if eq.OutsideWindows > 0 {
+			w = fmt.Sprintf("held-out error %.3g times what the measurement noise leaves (%.4g against %.4g %s) where the model interpolates (%d held-out windows outside the fitted runs' range left out): the model lacks something the data have",
+				ratio, rms, floorRMS, rate, eq.OutsideWindows)
+		}
 		rb := ad.excessRuns(i, eq.Exponents, c.lam, int(excessRunsShare*float64(R)))
 		out, rest := rb.runs, rb.rest
 		if len(out) == 0 {
-			return w + " in most runs (a term outside the library, an unlogged input, saturation?)"
+			worst := worstRuns(errRun, floorRun)
+			if len(worst) == 0 {
+				return w + " in most runs (a term outside the library, an unlogged input, saturation?)"
+			}
+			for _, r := range worst {
+				eq.MisfitRuns = append(eq.MisfitRuns, runs[r].Name)
+			}
+			return w + fmt.Sprintf(" in most runs, the most in %s (a term outside the library, an unlogged input, saturation?)", names(worst))
 		}
 		for _, r := range out {
 			eq.ExcessRuns = append(eq.ExcessRuns, runs[r].Name)
 		}
+		eq.MisfitRuns = append([]string(nil), eq.ExcessRuns...)
 		return w + fmt.Sprintf("; most of it sits in %s (%d of %d runs; the others fit to %.2f times the noise): something there the model lacks (an unlogged input, a disturbance, saturation?)",
 			names(out), len(out), R, rest)
 	}
 	// The equation passes as a whole: a run whose own held-out error is
-	// well above its floor (CV, so it may be extrapolation) is looked at
-	// by the robust refit, which names runs only for windows far beyond
-	// the noise that the other windows' fit leaves.
-	errRun, floorRun := make([]float64, len(runs)), make([]float64, len(runs))
-	rowsRun := make([]int, len(runs))
-	for g, gs := range sc.groups {
-		r := runOf[g]
-		errRun[r] += float64(gs.rows) * c.groupErr[g]
-		floorRun[r] += float64(gs.rows) * floor[g][i]
-		rowsRun[r] += gs.rows
-	}
+	// well above its floor is looked at by the robust refit, which names
+	// runs only for windows far beyond the noise that the other windows'
+	// fit leaves, inside the envelope of those.
 	look := false
 	for r := range runs {
 		if floorRun[r] > 0 && errRun[r] >= runScreenRatio*runScreenRatio*floorRun[r] &&
@@ -257,8 +310,33 @@ func lackOfFit(eq *Equation, ad *adequacy, sc *problem, c choice, weight []float
 	for _, r := range rb.runs {
 		eq.ExcessRuns = append(eq.ExcessRuns, runs[r].Name)
 	}
+	eq.MisfitRuns = append([]string(nil), eq.ExcessRuns...)
 	return fmt.Sprintf("windows of %s (%d of %d runs) lie up to %.3g times beyond the measurement noise where the other windows fit to %.2f times it: something there the model lacks (an unlogged input, a disturbance, saturation?)",
 		names(rb.runs), len(rb.runs), R, rb.worst, rb.rest)
+}
+
+// worstRuns returns the runs of the largest held-out excess over their
+// noise floor (err - floor, sums over each run's windows), largest
+// first, as many as carry half the positive excess of all runs (at
+// least one).
+func worstRuns(err, floor []float64) []int {
+	var rs []int
+	tot := 0.0
+	for r := range err {
+		if x := err[r] - floor[r]; x > 0 {
+			rs = append(rs, r)
+			tot += x
+		}
+	}
+	sort.SliceStable(rs, func(a, b int) bool { return err[rs[a]]-floor[rs[a]] > err[rs[b]]-floor[rs[b]] })
+	acc := 0.0
+	for k, r := range rs {
+		acc += err[r] - floor[r]
+		if acc >= tot/2 {
+			return rs[:k+1]
+		}
+	}
+	return rs
 }
 
 // windows holds one equation's yardstick rows for the robust refit of
@@ -266,11 +344,13 @@ func lackOfFit(eq *Equation, ad *adequacy, sc *problem, c choice, weight []float
 // window-mean slope of z = x/Spread, the noise sd of that slope
 // (√2·σ/(Spread·(t_b - t_a))) and the run.
 type windows struct {
-	p          int
-	phi        []float64 // rows×p
-	y, s       []float64
-	run        []int
-	runsByName []string
+	p, nv  int       // library terms; states and inputs
+	phi    []float64 // rows×p
+	y, s   []float64
+	run    []int
+	lo, hi []float64 // rows×nv: the window's least and largest sample of each variable
+	row    []int     // the window's row in tab
+	tab    *winTable
 }
 
 // adequacy is what the lack-of-fit check needs beyond the yardstick's
@@ -283,6 +363,12 @@ type adequacy struct {
 	vs    *varScale
 	steps int
 	sigma [][]float64 // per run, per state
+	// groupOf and kept place a run's sample in a cross-validation
+	// group, kept[groupOf(r, i)] its index among the kept groups (-1
+	// when it is not kept); nil groupOf when unknown.
+	groupOf func(r, i int) int
+	kept    []int
+	tab     *winTable // the windows, once computed (see table)
 }
 
 // robustWork bounds one reweighted fit of the robust refit, windows ×
@@ -292,55 +378,24 @@ type adequacy struct {
 // 455 terms 48).
 const robustWork = 10_000_000
 
-// windows computes state i's yardstick rows as integralRows does (in the
-// centred basis of accumulate), every stride-th window.
+// windows returns state i's yardstick rows as integralRows computes them
+// (in the centred basis of accumulate), every stride-th window: the
+// table's rows with a usable target and noise for state i.
 func (ad *adequacy) windows(i int) *windows {
-	p, n := ad.lib.Len(), len(ad.m.States)
-	total := 0
-	for _, r := range ad.runs {
-		total += (r.Len()-1)/ad.steps + 1
-	}
-	stride := max(1, (total*p*p+robustWork-1)/robustWork)
-	w := &windows{p: p}
-	work, z, theta := make([]float64, ad.lib.WorkLen()), make([]float64, len(ad.vs.centre)), make([]float64, p)
-	var qw []float64
-	k := 0
-	for ri, run := range ad.runs {
-		L := run.Len()
-		for a := 0; a+2 <= L-1; a += ad.steps {
-			b := min(a+ad.steps, L-1)
-			k++
-			if k%stride == 0 {
-				dur := run.T[b] - run.T[a]
-				row := len(w.phi)
-				w.phi = append(w.phi, make([]float64, p)...)
-				phi := w.phi[row:]
-				qw = simpsonWeights(qw[:0], run.T[a:b+1])
-				for t := a; t <= b; t++ {
-					for j := 0; j < n; j++ {
-						z[j] = (run.X[j][t] - ad.m.Centre[j]) / ad.m.Spread[j]
-					}
-					for q, u := range run.U {
-						z[n+q] = (u[t] - ad.vs.centre[n+q]) / ad.vs.spread[n+q]
-					}
-					ad.lib.EvalWorkTo(theta, work, z)
-					for l, v := range theta {
-						phi[l] += qw[t-a] * v / dur
-					}
-				}
-				y := (run.X[i][b] - run.X[i][a]) / (ad.m.Spread[i] * dur)
-				sd := math.Sqrt2 * ad.sigma[ri][i] / (ad.m.Spread[i] * dur)
-				if !(dur > 0) || !(sd > 0) || !finite(y) || !finite(phi...) {
-					w.phi = w.phi[:row]
-				} else {
-					w.y, w.s, w.run = append(w.y, y), append(w.s, sd), append(w.run, ri)
-				}
-			}
-			if b == L-1 {
-				break
-			}
+	tb := ad.table()
+	p, n, nv := tb.p, tb.n, tb.nv
+	w := &windows{p: p, nv: nv}
+	for r := range tb.run {
+		y, sd := tb.y[r*n+i], tb.s[r*n+i]
+		if !(sd > 0) || !finite(y) {
+			continue
 		}
+		w.phi = append(w.phi, tb.phi[r*p:(r+1)*p]...)
+		w.lo, w.hi = append(w.lo, tb.lo[r*nv:(r+1)*nv]...), append(w.hi, tb.hi[r*nv:(r+1)*nv]...)
+		w.y, w.s, w.run = append(w.y, y), append(w.s, sd), append(w.run, tb.run[r])
+		w.row = append(w.row, r)
 	}
+	w.tab = tb
 	return w
 }
 
@@ -415,6 +470,7 @@ func (ad *adequacy) excessRuns(i int, support [][]int, lam float64, most int) ro
 			support = append(support, e)
 		}
 	}
+	var act []int // the columns fitted
 	{
 		for k := 0; k < w.p; k++ {
 			in := false
@@ -436,6 +492,8 @@ func (ad *adequacy) excessRuns(i int, support [][]int, lam float64, most int) ro
 				for r := 0; r < len(w.y); r++ {
 					w.phi[r*w.p+k] = 0
 				}
+			} else {
+				act = append(act, k)
 			}
 		}
 	}
@@ -609,6 +667,11 @@ func (ad *adequacy) excessRuns(i int, support [][]int, lam float64, most int) ro
 	}
 	copy(wt, bestWt)
 	copy(u, bestU)
+	// A rejected window outside the envelope of the kept ones (their
+	// box, or a leverage over them above theirs: see envelope.go) is
+	// where their fit extrapolates: its residual says nothing of a lack,
+	// and it is not counted.
+	outside := w.outsideOf(wt, act)
 	// The kept windows' RMS over their noise, and the rejected windows'
 	// squares by run.
 	in, nin := 0.0, 0
@@ -618,7 +681,7 @@ func (ad *adequacy) excessRuns(i int, support [][]int, lam float64, most int) ro
 		if wt[k] > 0 {
 			in += u[k] * u[k]
 			nin++
-		} else {
+		} else if !outside[k] {
 			rej[w.run[k]] += u[k] * u[k]
 			totRej += u[k] * u[k]
 		}
@@ -628,7 +691,7 @@ func (ad *adequacy) excessRuns(i int, support [][]int, lam float64, most int) ro
 	}
 	rb := robust{rest: math.Sqrt(in / float64(nin)), mass: totRej, windows: N}
 	for k := range u {
-		if wt[k] == 0 {
+		if wt[k] == 0 && !outside[k] {
 			rb.worst = math.Max(rb.worst, math.Abs(u[k]))
 		}
 	}
@@ -659,6 +722,61 @@ func (ad *adequacy) excessRuns(i int, support [][]int, lam float64, most int) ro
 	return rb
 }
 
+// outsideOf says, for each window of w with weight zero in wt, whether it
+// lies outside the envelope of the windows of nonzero weight: a sample of
+// it of a leverage over their samples (on the columns cols) above
+// levSlack times the largest of theirs, or, where leverage is not defined, beyond their box
+// in some state or input (see envelope.go).
+func (w *windows) outsideOf(wt []float64, cols []int) []bool {
+	N, nv, tb := len(w.y), w.nv, w.tab
+	out := make([]bool, N)
+	lo, hi := make([]float64, nv), make([]float64, nv)
+	for j := range lo {
+		lo[j], hi[j] = math.Inf(1), math.Inf(-1)
+	}
+	S := len(tb.smp.group)
+	fit, test := make([]bool, S), make([]bool, S)
+	var kept []int
+	for k := 0; k < N; k++ {
+		r := w.row[k]
+		for s := tb.s0[r]; s < tb.s1[r]; s++ {
+			if wt[k] > 0 {
+				fit[s] = true
+			} else {
+				test[s] = true
+			}
+		}
+		if wt[k] > 0 {
+			for j := 0; j < nv; j++ {
+				lo[j], hi[j] = math.Min(lo[j], w.lo[k*nv+j]), math.Max(hi[j], w.hi[k*nv+j])
+			}
+		}
+	}
+	for s, f := range fit {
+		if f {
+			kept = append(kept, s)
+		}
+	}
+	h, hmax, ok := leverageFit(tb.smp.phi, w.p, cols, kept, func(s int) bool { return test[s] }, S)
+	for k := 0; k < N; k++ {
+		if wt[k] > 0 {
+			continue
+		}
+		r := w.row[k]
+		for s := tb.s0[r]; ok && s < tb.s1[r]; s++ {
+			if !(h[s] <= levSlack*hmax) {
+				out[k] = true
+			}
+		}
+		for j := 0; !ok && j < nv; j++ { // the box alone when leverage is not defined
+			if w.lo[k*nv+j] < lo[j] || w.hi[k*nv+j] > hi[j] {
+				out[k] = true
+			}
+		}
+	}
+	return out
+}
+
 // quantileSelect returns the value of rank ⌊q·(len(d)-1)⌋ of d, reordering
 // d ([order.Select]); d must not be empty.
 func quantileSelect(d []float64, q float64) float64 {
@@ -668,22 +786,42 @@ func quantileSelect(d []float64, q float64) float64 {
 }
 
 // Misfit returns, when some equation of m fails the lack-of-fit check as
-// a whole (Equation.LackOfFit at least 2 and its held-out error at least
-// 5% of its rate's spread), a sentence saying so for a verdict's reason,
-// naming the worst such equation; "" otherwise. A model that lacks
-// something the data have is no ground for a certificate, whatever the
-// held-out runs of V say: the runs V was checked on are the ones the
-// model misses.
+// a whole (its held-out error at least 2 times what the noise leaves and
+// at least 5% of its rate's spread, over the held-out windows where the
+// model interpolates: Equation.InsideLackOfFit and InsideShare when some
+// windows lie outside, else LackOfFit and HeldoutShare), a sentence
+// saying so for a verdict's reason, naming the worst such equation and
+// the runs that drive it (Equation.MisfitRuns); "" otherwise. A model
+// that lacks something the data have is no ground for a certificate,
+// whatever the held-out runs of V say: the runs V was checked on are the
+// ones the model misses. Extrapolation (held-out windows outside the
+// fitted runs' range) is not a lack.
 func (m *Model) Misfit() string {
-	worst := -1
-	for i, e := range m.Equations {
-		if e.LackOfFit >= lackOfFitRatio && e.HeldoutShare >= lackOfFitShare && (worst < 0 || e.LackOfFit > m.Equations[worst].LackOfFit) {
-			worst = i
+	judged := func(e *Equation) (ratio, share float64) {
+		if e.OutsideWindows > 0 {
+			return e.InsideLackOfFit, e.InsideShare
+		}
+		return e.LackOfFit, e.HeldoutShare
+	}
+	worst, worstRatio := -1, 0.0
+	for i := range m.Equations {
+		r, s := judged(&m.Equations[i])
+		if r >= lackOfFitRatio && s >= lackOfFitShare && (worst < 0 || r > worstRatio) {
+			worst, worstRatio = i, r
 		}
 	}
 	if worst < 0 {
 		return ""
 	}
 	e := m.Equations[worst]
-	return fmt.Sprintf("The fitted model lacks something the data have: the held-out error of d(%s)/dt is %.3g times what the measurement noise leaves, so the runs V was checked on are not the model's. Log the missing input or disturbance (or trim the runs it hits) and fit again.", e.State, e.LackOfFit)
+	runs := ""
+	if len(e.MisfitRuns) > 0 {
+		shown := e.MisfitRuns[:min(len(e.MisfitRuns), excessShown)]
+		runs = " (most in " + strings.Join(shown, ", ")
+		if more := len(e.MisfitRuns) - len(shown); more > 0 {
+			runs += fmt.Sprintf(" and %d more", more)
+		}
+		runs += ")"
+	}
+	return fmt.Sprintf("The fitted model lacks something the data have: the held-out error of d(%s)/dt is %.3g times what the measurement noise leaves%s, so the runs V was checked on are not the model's. Log the missing input or disturbance (or trim the runs it hits) and fit again.", e.State, worstRatio, runs)
 }

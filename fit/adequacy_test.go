@@ -126,6 +126,16 @@ func TestLackOfFit(t *testing.T) {
 			if tc.all && len(eq.ExcessRuns) != len(want) || tc.warn && 2*len(eq.ExcessRuns) < len(want) {
 				t.Errorf("d(v)/dt: names %v of the disturbed %v", eq.ExcessRuns, want)
 			}
+			// A lack-of-fit warning names the runs that drive it (the
+			// first five, the rest counted), and only disturbed ones here.
+			if tc.warn && (len(eq.MisfitRuns) == 0 || !strings.Contains(eq.Warning, eq.MisfitRuns[0])) {
+				t.Errorf("d(v)/dt: misfit runs %v, the warning %q names none", eq.MisfitRuns, eq.Warning)
+			}
+			for _, r := range eq.MisfitRuns {
+				if !slices.Contains(want, r) {
+					t.Errorf("d(v)/dt: misfit runs %v, want disturbed ones (%v)", eq.MisfitRuns, want)
+				}
+			}
 			if w := m.Equations[0].Warning; w != "" {
 				t.Errorf("d(x)/dt = v, undisturbed: warning %q", w)
 			}

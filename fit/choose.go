@@ -106,6 +106,8 @@ type selection struct {
 	eq     []choice // per equation
 	scores []float64
 	weight []float64 // each group's share of the mean held-out error (sum 1)
+	foldOf []int     // each group's fold (index-aligned with the groups)
+	folds  int       // the number of folds
 }
 
 // unnormalise stores in beta the coefficients of equation i in the
@@ -275,7 +277,7 @@ func selectModel(ctx context.Context, ms []*method, sc *problem, taus, lams []fl
 		}
 		return s / float64(folds)
 	}
-	sel := selection{method: 0, scores: make([]float64, len(ms)), weight: weight}
+	sel := selection{method: 0, scores: make([]float64, len(ms)), weight: weight, foldOf: foldOf, folds: folds}
 	for mi := range ms {
 		s := 0.0
 		for i := 0; i < n; i++ {

@@ -522,9 +522,47 @@ func Field(ctx context.Context, ds *ingest.Dataset, opts *FieldOptions) (*Model,
 	m.Equations = make([]Equation, n)
 	var floor [][]float64
 	var runOf []int
-	ad := &adequacy{runs: runs, lib: lib, m: m, vs: sc, steps: score.steps}
+	ad := &adequacy{runs: runs, lib: lib, m: m, vs: sc, steps: score.steps, groupOf: groupOf, kept: make([]int, nGroups)}
+	for g, k := 0, 0; g < nGroups; g++ {
+		ad.kept[g] = -1
+		if keep[g] {
+			ad.kept[g], k = k, k+1
+		}
+	}
 	if score.steps > 0 {
 		floor, runOf, ad.sigma = yardstickFloor(runs, groupOf, keep, score.steps, m.Spread, score.pr.ySD)
+	}
+	// foldCoef refits equation i's chosen candidate on fold f's fitted
+	// groups, as selectModel did, and returns its coefficients in the
+	// centred basis of the yardstick's windows (β_c = T·β in the raw
+	// basis, whose columns are the centred ones times T).
+	foldCoef := func(i, f int) []float64 {
+		train := newGroupSums(p, n)
+		for g, gs := range md.groups {
+			if sel.foldOf[g] != f {
+				addSums(train, gs, 1)
+			}
+		}
+		if train.rows == 0 {
+			return nil
+		}
+		gh, bh, col, x, beta := make([]float64, p*p), make([]float64, p*n), make([]float64, p), make([]float64, p), make([]float64, p)
+		pr.normalised(gh, bh, train)
+		for k := range col {
+			col[k] = bh[k*n+i]
+		}
+		newSolver(p).thresholdRefit(x, gh, col, taus[i], lams[i])
+		pr.unnormalise(beta, x, i)
+		if m.Basis != "raw" {
+			return beta
+		}
+		bc := make([]float64, p)
+		for l := range bc {
+			for k, b := range beta {
+				bc[l] += T[l*p+k] * b
+			}
+		}
+		return bc
 	}
 	for i := range m.Equations {
 		raw[i] = toRaw(make([]float64, p), i, xi[i])
@@ -546,7 +584,11 @@ func Field(ctx context.Context, ds *ingest.Dataset, opts *FieldOptions) (*Model,
 		case eq.HeldoutShare >= constantShare:
 			eq.Warning = fmt.Sprintf("no better than a constant on held-out runs (error %.0f%% of the spread of d%s/dt)", 100*eq.HeldoutShare, names[i])
 		}
-		if w := lackOfFit(&eq, ad, score.pr, c, sel.weight, floor, runOf, runs, i, sd, m.Units[i]); w != "" {
+		var in *interp
+		if score.steps > 0 && len(floor) > 0 {
+			in = ad.interpolation(i, func(f int) []float64 { return foldCoef(i, f) }, sel.foldOf, sel.folds, sel.weight, score.pr.ySD[i])
+		}
+		if w := lackOfFit(&eq, ad, score.pr, c, sel.weight, floor, runOf, runs, in, i, sd, m.Units[i]); w != "" {
 			if eq.Warning != "" {
 				w = eq.Warning + "; " + w
 			}
@@ -1017,7 +1059,7 @@ func modelFinite(m *Model) bool {
 		finite(m.Centre...) && finite(m.Spread...) && finite(m.Lower...) && finite(m.Upper...) &&
 		finite(m.Noise...) && finite(m.Settle...)
 	for _, e := range m.Equations {
-		ok = ok && finite(e.Coefficients...) && finite(e.HeldoutError, e.NoiseFloorRMS, e.LackOfFit)
+		ok = ok && finite(e.Coefficients...) && finite(e.HeldoutError, e.NoiseFloorRMS, e.LackOfFit, e.InsideLackOfFit, e.InsideShare)
 		for _, t := range e.Terms {
 			ok = ok && finite(t.Interval[0], t.Interval[1], t.KeptShare)
 		}

@@ -62,11 +62,38 @@ type Equation struct {
 	// beyond the noise, while the windows it keeps fit to within 1.5
 	// times theirs (at most half the runs); empty otherwise.
 	ExcessRuns []string `json:"excess_runs,omitempty"`
+	// OutsideWindows counts the held-out yardstick windows that lie
+	// outside the envelope of the runs their fold was fitted on (a sample
+	// of a leverage over those runs' samples above twice the largest of
+	// theirs; beyond their range in some state or input where leverage
+	// is not defined): there the fold's model extrapolates, and the
+	// lack-of-fit check leaves them out. When it is not 0,
+	// InsideLackOfFit and InsideShare are LackOfFit and HeldoutShare over
+	// the windows inside, the figures the check judges; all three are 0
+	// (absent) when every window is inside.
+	OutsideWindows  int     `json:"outside_windows,omitempty"`
+	InsideLackOfFit float64 `json:"inside_lack_of_fit,omitempty"`
+	InsideShare     float64 `json:"inside_heldout_share,omitempty"`
+	// OutsideRuns names the runs whose held-out windows outside their
+	// fold's envelope miss by at least twice what the noise leaves (and
+	// 5% of the rate's spread, and in all as much as one window 15 noise
+	// sd beyond), largest first; Extrapolation says so,
+	// naming the states or inputs whose range they leave: the model is
+	// not checked there. Not a warning: an extrapolation is no evidence
+	// of a lack of fit.
+	OutsideRuns   []string `json:"outside_runs,omitempty"`
+	Extrapolation string   `json:"extrapolation,omitempty"`
+	// MisfitRuns names the runs a lack-of-fit warning names: ExcessRuns
+	// when the misfit sits in a few runs, else the runs of the largest
+	// held-out excess over their noise floor (inside the envelope); empty
+	// when there is no lack-of-fit warning.
+	MisfitRuns []string `json:"misfit_runs,omitempty"`
 	// Warning says the equation is empty, no better than a constant, or
 	// that it lacks something the data have: its held-out error is at
-	// least twice what the noise leaves (LackOfFit >= 2) and at least 5%
-	// of the rate's spread, or some runs' windows lie far beyond the noise
-	// where the others fit; it names ExcessRuns when there are some.
+	// least twice what the noise leaves (LackOfFit >= 2, InsideLackOfFit
+	// when OutsideWindows is not 0) and at least 5% of the rate's spread
+	// (HeldoutShare, or InsideShare), or some runs' windows lie far
+	// beyond the noise where the others fit; it names MisfitRuns.
 	Warning string `json:"warning,omitempty"`
 }
 

@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"strings"
 	"testing"
 
 	"basin.example/fit"
@@ -91,6 +92,22 @@ func TestMisfitNotCertified(t *testing.T) {
 			}
 			if tc.misfit && (c.Verdict == fit.Certified || c.ReasonKind != fit.ReasonLackOfFit) {
 				t.Errorf("verdict %s (%s) on a model that misses the brake, want inconclusive for lack of fit: %s", c.Verdict, c.ReasonKind, c.Reason)
+			}
+			// The reason names the runs that drive the misfit, braked
+			// ones (every third run, from osc-00).
+			if tc.misfit {
+				named := 0
+				for r := range ds.Runs {
+					if name := ds.Runs[r].Name; strings.Contains(c.Reason, name+",") || strings.Contains(c.Reason, name+")") || strings.Contains(c.Reason, name+" ") {
+						named++
+						if r%3 != 0 {
+							t.Errorf("the reason names %s, which is not braked: %s", name, c.Reason)
+						}
+					}
+				}
+				if named == 0 {
+					t.Errorf("the reason names no run: %s", c.Reason)
+				}
 			}
 			if !tc.misfit && c.ReasonKind == fit.ReasonLackOfFit {
 				t.Errorf("the correct model held back for lack of fit: %s", c.Reason)

@@ -181,6 +181,9 @@ func printModel(w io.Writer, m *fit.Model) {
 		if eq.Warning != "" {
 			fmt.Fprintf(w, "warning: d(%s)/dt: %s\n", eq.State, eq.Warning)
 		}
+		if eq.Extrapolation != "" {
+			fmt.Fprintf(w, "note: d(%s)/dt: %s\n", eq.State, eq.Extrapolation)
+		}
 	}
 	if len(m.Inputs) > 0 {
 		var at []string

@@ -99,6 +99,9 @@ type eqRow struct {
 	RateUnit     string
 	HeldoutShare string
 	Warning      string
+	// Extrapolation is the equation's note on held-out runs outside the
+	// fitted runs' range (fit.Equation.Extrapolation).
+	Extrapolation string
 }
 
 type termRow struct {
@@ -258,7 +261,7 @@ func build(in *Input, pl [2]int) (*pageData, error) {
 	if m := in.Model; m != nil {
 		for _, e := range m.Equations {
 			row := eqRow{State: e.State, HeldoutError: mk(e.HeldoutError), HeldoutRMS: mk(e.HeldoutRMS),
-				RateUnit: "1/s", HeldoutShare: human.Percent(e.HeldoutShare), Warning: e.Warning}
+				RateUnit: "1/s", HeldoutShare: human.Percent(e.HeldoutShare), Warning: e.Warning, Extrapolation: e.Extrapolation}
 			if i := len(d.Equations); i < len(m.Units) {
 				row.RateUnit = RateUnit(m.Units[i])
 			}

@@ -654,6 +654,9 @@ func equationErrors(b *strings.Builder, m *fit.Model) {
 		if e.Warning != "" {
 			fmt.Fprintf(b, "  warning: d(%s)/dt: %s\n", e.State, e.Warning)
 		}
+		if e.Extrapolation != "" {
+			fmt.Fprintf(b, "  note: d(%s)/dt: %s\n", e.State, e.Extrapolation)
+		}
 	}
 }
 
