@@ -823,5 +823,5 @@ func (m *Model) Misfit() string {
 		}
 		runs += ")"
 	}
-	return fmt.Sprintf("The fitted model lacks something the data have: the held-out error of d(%s)/dt is %.3g times what the measurement noise leaves%s, so the runs V was checked on are not the model's. Log the missing input or disturbance (or trim the runs it hits) and fit again.", e.State, worstRatio, runs)
+	return fmt.Sprintf("The fitted model lacks something the data have: the held-out error of d(%s)/dt is %.3g times what the measurement noise leaves%s, so the runs V was checked on are not the model's. Log the missing input or disturbance (or trim the runs it hits) and fit again.%s", e.State, worstRatio, runs, m.correlatedAdvice())
 }

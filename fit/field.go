@@ -335,6 +335,11 @@ func Field(ctx context.Context, ds *ingest.Dataset, opts *FieldOptions) (*Model,
 	for j := range cols {
 		m.Noise[j] = noiseStd(cols[j], sampleCap)
 	}
+	for j := range cols {
+		if lag, ratio := correlatedNoise(cols[j], sampleCap); ratio >= noiseCorrRatio {
+			m.CorrelatedNoise = append(m.CorrelatedNoise, NoiseCorrelation{State: names[j], Samples: lag, Ratio: ratio, Block: lag})
+		}
+	}
 	var upper []float64
 	m.NoiseRange, upper = noiseRange(runs, n)
 	base := make([]int, n) // the smoothing window the noise explains, per state
@@ -593,6 +598,15 @@ func Field(ctx context.Context, ds *ingest.Dataset, opts *FieldOptions) (*Model,
 				w = eq.Warning + "; " + w
 			}
 			eq.Warning = w
+		}
+		for _, nc := range m.CorrelatedNoise {
+			if nc.State == names[i] {
+				w := noiseCorrWords(nc, meanStep(runs))
+				if eq.Warning != "" {
+					w += "; " + eq.Warning
+				}
+				eq.Warning = w
+			}
 		}
 		m.Equations[i] = eq
 		m.HeldoutError += c.err / float64(n)

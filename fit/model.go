@@ -186,8 +186,13 @@ type Model struct {
 	// entry per state followed by one per input. RestInput is the input
 	// value the certificate assumes (the rig idle). Both absent without
 	// inputs.
-	Inputs    []Input   `json:"inputs,omitempty"`
-	RestInput []float64 `json:"rest_input,omitempty"`
+	Inputs []Input `json:"inputs,omitempty"`
+	// CorrelatedNoise lists the states whose measurement noise is
+	// correlated over many samples (logged faster than it changes), which
+	// the white-noise figures and derivative windows misread; each such
+	// state's equation warns. Absent when none.
+	CorrelatedNoise []NoiseCorrelation `json:"correlated_noise,omitempty"`
+	RestInput       []float64          `json:"rest_input,omitempty"`
 	// Held lists the inputs that held one value in every sample fitted
 	// ([ingest.Options.HoldConstantInputs]): folded into the equations,
 	// which hold at those values. Absent when none was.
