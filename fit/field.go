@@ -756,7 +756,11 @@ func scaleStates(m *Model, runs []*ingest.Run) error {
 		sub[j], lo, hi = subsample(runs, func(r *ingest.Run) []float64 { return r.X[j] })
 		m.Lower[j], m.Upper[j] = lo, hi
 		if !(hi > lo) {
-			return errorf(ErrConstant, "state %q is constant (%g in every sample); leave it out of ingest.Options.States", m.States[j], lo)
+			val := strconv.FormatFloat(lo, 'g', -1, 64)
+			if j < len(m.Units) && m.Units[j] != "" {
+				val += " " + m.Units[j]
+			}
+			return errorf(ErrConstant, "state %q is constant (%s in every sample): it has no dynamics to fit; name the states that move in ingest.Options.States, or, if %q is a setting held fixed (a supply, a drive), name it in ingest.Options.Inputs", m.States[j], val, m.States[j])
 		}
 		tmp = append(tmp[:0], sub[j]...) // robustScale reorders; sub[j] stays in time order
 		m.Centre[j], m.Spread[j] = robustScale(tmp)
