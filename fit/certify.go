@@ -258,7 +258,7 @@ func (in *certInputs) certificate(res *lyapunov.Result, m *Model, o lyapunov.Opt
 		Format: CertificateFormat, Verdict: Inconclusive, Strength: NoClaim,
 		Empirical: true, Caveat: Caveat,
 		States: append([]string(nil), m.States...), Units: append([]string(nil), m.Units...),
-		Equilibrium: xe, Scale: scale, Held: m.Held,
+		Equilibrium: xe, Scale: scale, Held: m.Held, Average: m.Average,
 		Settings: &Settings{Search: searchSettings(o)},
 	}
 	cert.Region.Limit = LimitNone

@@ -316,6 +316,7 @@ func Field(ctx context.Context, ds *ingest.Dataset, opts *FieldOptions) (*Model,
 	for _, h := range ds.Held {
 		m.Held = append(m.Held, HeldInput{Name: h.Name, Unit: h.Unit, Value: h.Value})
 	}
+	m.Average = ds.Average
 	if q > 0 {
 		for k, share := range inputExplained(m, runs, q, o.Degree) {
 			if share >= feedbackShare {

@@ -192,7 +192,10 @@ type Model struct {
 	// the white-noise figures and derivative windows misread; each such
 	// state's equation warns. Absent when none.
 	CorrelatedNoise []NoiseCorrelation `json:"correlated_noise,omitempty"`
-	RestInput       []float64          `json:"rest_input,omitempty"`
+	// Average is the block of samples the runs were averaged in before
+	// the fit (ingest.Options.Average); 0 when they were not.
+	Average   int       `json:"average,omitempty"`
+	RestInput []float64 `json:"rest_input,omitempty"`
 	// Held lists the inputs that held one value in every sample fitted
 	// ([ingest.Options.HoldConstantInputs]): folded into the equations,
 	// which hold at those values. Absent when none was.
@@ -400,9 +403,13 @@ type Certificate struct {
 	// Held is the model's Held: inputs constant throughout the data,
 	// folded into the equations, so that the certificate holds with them
 	// at those values. Absent when none was.
-	Held  []HeldInput `json:"held_inputs,omitempty"`
-	V     poly.Poly   `json:"V"`
-	Level float64     `json:"level"`
+	Held []HeldInput `json:"held_inputs,omitempty"`
+	// Average is the model's Average: the runs were averaged in blocks of
+	// that many samples, and logs checked or screened against the
+	// certificate must be too. 0 when they were not.
+	Average int       `json:"average,omitempty"`
+	V       poly.Poly `json:"V"`
+	Level   float64   `json:"level"`
 	// Box bounds, per state in original units, the connected piece of the
 	// level set that holds the equilibrium; membership tests use it too.
 	Box        [][2]float64 `json:"box"`

@@ -132,8 +132,8 @@ func noiseCorrWords(nc NoiseCorrelation, dt float64) string {
 	if dt > 0 {
 		rate = fmt.Sprintf(", to %.3g Hz", 1/(dt*float64(nc.Block)))
 	}
-	return fmt.Sprintf("the noise of %s is correlated over about %d samples (%.2g times what sample-to-sample differences show: logged faster than the noise changes, as behind a sensor's filter), so the derivatives and noise figures here take it for motion; average the logs in blocks of about %d samples%s, and fit again",
-		nc.State, nc.Samples, nc.Ratio, nc.Block, rate)
+	return fmt.Sprintf("the noise of %s is correlated over about %d samples (%.2g times what sample-to-sample differences show: logged faster than the noise changes, as behind a sensor's filter), so the derivatives and noise figures here take it for motion; average the runs in blocks of about %d samples%s (ingest.Options.Average %d), and fit again",
+		nc.State, nc.Samples, nc.Ratio, nc.Block, rate, nc.Block)
 }
 
 // correlatedAdvice is the sentence the lack-of-fit reason adds when some
@@ -146,8 +146,8 @@ func (m *Model) correlatedAdvice() string {
 	for _, nc := range m.CorrelatedNoise {
 		names = append(names, fmt.Sprintf("%s over about %d samples", nc.State, nc.Samples))
 	}
-	return fmt.Sprintf(" The noise is correlated (%s), which this check reads as misfit: average the logs in blocks of about %d samples first.",
-		strings.Join(names, ", "), m.CorrelatedNoise[0].Block)
+	return fmt.Sprintf(" The noise is correlated (%s), which this check reads as misfit: average the runs in blocks of about %d samples first (ingest.Options.Average %d).",
+		strings.Join(names, ", "), m.CorrelatedNoise[0].Block, m.CorrelatedNoise[0].Block)
 }
 
 // meanStep is the runs' mean time step (seconds), 0 when no run has two

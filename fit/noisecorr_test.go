@@ -150,7 +150,7 @@ func TestFieldCorrelatedNoise(t *testing.T) {
 		t.Logf("φ %.3f: correlated %+v", phi, m.CorrelatedNoise)
 		warned := 0
 		for _, eq := range m.Equations {
-			if strings.Contains(eq.Warning, "is correlated over about") && strings.Contains(eq.Warning, "average the logs in blocks") {
+			if strings.Contains(eq.Warning, "is correlated over about") && strings.Contains(eq.Warning, "average the runs in blocks") {
 				warned++
 			}
 		}

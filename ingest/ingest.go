@@ -97,8 +97,11 @@ type Dataset struct {
 	// Held lists the inputs that held one value throughout, taken out of
 	// Inputs by Options.HoldConstantInputs. Empty otherwise.
 	Held []HeldInput
-	Time Column
-	Runs []Run
+	// Average is Options.Average when the runs were averaged in blocks of
+	// that many samples; 0 when not.
+	Average int
+	Time    Column
+	Runs    []Run
 	// Gaps counts the splits made at gaps, over all runs.
 	Gaps int
 	// Events lists the one-sample jumps far beyond the noise at which
@@ -211,6 +214,14 @@ type Options struct {
 	// terms). One warning says so. False keeps it among the inputs, with a
 	// warning.
 	HoldConstantInputs bool
+	// Average, when 2 or more, replaces each run by the means of its
+	// consecutive blocks of Average samples (times, states and inputs
+	// alike; a last block shorter than that is left out), after the runs
+	// are split: for logs sampled much faster than their noise changes
+	// (a sensor behind a filter), whose noise is then correlated from
+	// sample to sample. [Dataset.Average] records it, with one warning.
+	// Zero or 1 keeps every sample.
+	Average int
 	// Stdin is read for the input "-". Nil means os.Stdin.
 	Stdin io.Reader `json:"-"`
 

@@ -328,7 +328,51 @@ func finish(ds *Dataset, opts *Options) error {
 	warnEvents(ds)
 	dropShortPieces(ds, opts.MinPiece)
 	warnConstantInputs(ds, opts.HoldConstantInputs)
+	return average(ds, opts.Average)
+}
+
+// average replaces each run of ds by the means of its consecutive
+// blocks of k samples (see [Options.Average]), with one warning; k below
+// 2 does nothing. A run left with fewer than two blocks is an error
+// naming it.
+func average(ds *Dataset, k int) error {
+	if k < 2 {
+		return nil
+	}
+	before, after := 0, 0
+	for i := range ds.Runs {
+		r := &ds.Runs[i]
+		n := r.Len() / k
+		if n < 2 {
+			return fmt.Errorf("%w: run %s has %d samples, fewer than two blocks of %d to average (ingest.Options.Average)", ErrEmpty, r.Name, r.Len(), k)
+		}
+		before += r.Len()
+		after += n
+		r.T = blockMeans(r.T, k, n)
+		for j := range r.X {
+			r.X[j] = blockMeans(r.X[j], k, n)
+		}
+		for j := range r.U {
+			r.U[j] = blockMeans(r.U[j], k, n)
+		}
+	}
+	ds.Average = k
+	ds.Warnings = append(ds.Warnings, fmt.Sprintf("the runs are averaged in blocks of %d samples (%d samples become %d)", k, before, after))
 	return nil
+}
+
+// blockMeans returns the means of the first n blocks of k values of x, in
+// a new slice (the runs may share their columns with a reader's buffers).
+func blockMeans(x []float64, k, n int) []float64 {
+	out := make([]float64, n)
+	for b := range out {
+		s := 0.0
+		for _, v := range x[b*k : (b+1)*k] {
+			s += v
+		}
+		out[b] = s / float64(k)
+	}
+	return out
 }
 
 // dropShortPieces leaves out the pieces of split recordings with fewer

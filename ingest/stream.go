@@ -257,6 +257,8 @@ func (s *Streamer) streamable(path string) string {
 		return "the general Parquet decoder"
 	case o.MinPiece > 0:
 		return "a minimum piece length" // its warning names the first short piece's time
+	case o.Average >= 2:
+		return "averaging"
 	}
 	return ""
 }

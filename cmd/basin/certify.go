@@ -79,6 +79,9 @@ func runCertify(ctx context.Context, e *env, args []string) error {
 	if err := f.checkV(len(m.States), f.VDegree); err != nil {
 		return err
 	}
+	if err := f.adopt(f.Model, m.Average); err != nil {
+		return err
+	}
 	ds, err := loadInputs(ctx, e, &f.inputFlags, f.Quiet, args)
 	if err != nil {
 		return err

@@ -135,6 +135,9 @@ func runCheck(ctx context.Context, e *env, args []string) error {
 	if err != nil {
 		return err
 	}
+	if err := c.adopt(c.Cert, cert.Average); err != nil {
+		return err
+	}
 	// Without --states the certificate's states are read by name, as
 	// screen reads them: a file may hold them in any order, and other
 	// columns (a temperature, a status word) are left out.

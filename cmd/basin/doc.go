@@ -47,6 +47,12 @@ Every command that reads logs takes:
 	--keep-head         keep a run's resting start (default: trimmed)
 	--keep-events       keep runs whole across one-sample jumps (default:
 	                    split there)
+	--average K         replace each run by the means of its blocks of K
+	                    samples, for logs sampled far faster than their
+	                    noise changes (a sensor behind a filter: fit's
+	                    correlated_noise says so and suggests K); the
+	                    model and certificate record it, and check and
+	                    screen average new logs the same way
 
 A header cell "name [unit]" or "name (unit)" carries a unit, reported back
 wherever the column appears. A CSV file may give its units in a row of

@@ -44,7 +44,7 @@ func TestDocMentionsEveryFlag(t *testing.T) {
 		t.Fatal("doc.go has no Reading logs section")
 	}
 	inputFlags := map[string]bool{"--inputs": true, "--time-col": true, "--rate": true, "--run-col": true, "--states": true, "--manifest": true,
-		"--from": true, "--to": true, "--keep-head": true, "--keep-events": true}
+		"--from": true, "--to": true, "--keep-head": true, "--keep-events": true, "--average": true}
 	for _, c := range commands {
 		name := c.Name()
 		if name == "help" || name == "version" {

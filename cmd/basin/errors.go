@@ -39,7 +39,7 @@ func usagef(format string, a ...any) error { return &usageError{fmt.Sprintf(form
 var badInput = []error{
 	ingest.ErrEmpty, ingest.ErrFormat, ingest.ErrNoFiles, ingest.ErrNoTime, ingest.ErrNoStates, ingest.ErrWindow,
 	fit.ErrTooFewSamples, fit.ErrBudget, fit.ErrConstant, fit.ErrCollinear, fit.ErrFeedback, fit.ErrShortRun, fit.ErrMismatch, fit.ErrOptions,
-	validate.ErrOptions, export.ErrNoV, export.ErrOption,
+	validate.ErrOptions, export.ErrNoV, export.ErrOption, export.ErrAveraged,
 }
 
 // optionFields are the Go option fields the libraries name in their
@@ -48,6 +48,7 @@ var optionFields = []struct{ pkg, field, flag string }{
 	{"ingest", "Options.TimeCol", "--time-col"}, {"ingest", "Options.Rate", "--rate"},
 	{"ingest", "Options.RunCol", "--run-col"}, {"ingest", "Options.States", "--states"},
 	{"ingest", "Options.Manifest", "--manifest"}, {"ingest", "Options.Inputs", "--inputs"},
+	{"ingest", "Options.Average", "--average"},
 	{"fit", "FieldOptions.Degree", "--degree"}, {"fit", "FieldOptions.InputDegree", "--input-degree"}, {"fit", "FieldOptions.Folds", "--select-folds"},
 	{"fit", "FieldOptions.Derivative", "--deriv"}, {"fit", "FieldOptions.Bootstrap", "--bootstrap"},
 	{"fit", "FieldOptions.MaxMemory", "--max-memory"},
@@ -73,6 +74,17 @@ var optionFlags = func() *strings.Replacer {
 // flagNames rewords library prose that is not an error (a certificate's
 // Reason) for the command line, as exitCode does for errors.
 func flagNames(s string) string { return optionFlags.Replace(s) }
+
+// flagModel rewords a model's equation warnings as flagNames does a
+// reason, for what the command line prints and writes.
+func flagModel(m *fit.Model) {
+	if m == nil {
+		return
+	}
+	for i := range m.Equations {
+		m.Equations[i].Warning = flagNames(m.Equations[i].Warning)
+	}
+}
 
 // flagged is a library error reworded for the command line: the Go option
 // fields it names become the flags that set them.

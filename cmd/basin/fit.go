@@ -111,6 +111,7 @@ func fitModel(ctx context.Context, ds *ingest.Dataset, opts *fit.FieldOptions) (
 	if err != nil {
 		return nil, classify(levelsHint(err, ds, opts.Degree), "")
 	}
+	flagModel(m)
 	return m, nil
 }
 

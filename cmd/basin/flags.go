@@ -38,6 +38,7 @@ type inputFlags struct {
 	From, To   float64
 	KeepHead   bool
 	KeepEvents bool
+	Average    int
 	// hold: take an input constant throughout as a known constant (the
 	// fitting commands; not a flag)
 	hold bool
@@ -57,6 +58,26 @@ func (f *inputFlags) register(fs *flag.FlagSet, manifest bool) {
 	fs.Float64Var(&f.To, "to", 0, "keep samples up to `S` seconds after each run's first sample (default: to the end)")
 	fs.BoolVar(&f.KeepHead, "keep-head", false, "keep a run's resting start before its first motion (default: trimmed)")
 	fs.BoolVar(&f.KeepEvents, "keep-events", false, "keep runs whole across one-sample jumps far beyond the noise (default: split there)")
+	fs.IntVar(&f.Average, "average", 0, "average each run in blocks of `K` samples (logs sampled far faster than their noise changes)")
+}
+
+// maxAverage is the largest --average block.
+const maxAverage = 1 << 16
+
+// adopt takes the averaging a model or certificate (file) was fitted
+// with, avg samples a block (0: none), for the logs read against it:
+// without --average, the same; with another, a usage error, since the
+// file's noise and tolerances are those of the samples it was fitted on.
+func (f *inputFlags) adopt(file string, avg int) error {
+	switch {
+	case avg >= 2 && f.Average == 0:
+		f.Average = avg
+	case avg >= 2 && f.Average != avg:
+		return usagef("%s was fitted on runs averaged in blocks of %d samples: give --average %d or leave it out, not --average %d", file, avg, avg, f.Average)
+	case avg < 2 && f.Average >= 2:
+		return usagef("%s was fitted on samples not averaged: leave out --average %d", file, f.Average)
+	}
+	return nil
 }
 
 // options turns the flags into ingest options.
@@ -71,9 +92,11 @@ func (f *inputFlags) options() (*ingest.Options, error) {
 		return nil, usagef("--to must be more than 0 seconds, got %g", f.To)
 	case f.To > 0 && f.From > f.To:
 		return nil, usagef("--from %g is after --to %g", f.From, f.To)
+	case f.Average < 0 || f.Average > maxAverage:
+		return nil, usagef("--average must be a block of 1 to %d samples, got %d", maxAverage, f.Average)
 	}
 	o := &ingest.Options{TimeCol: f.TimeCol, Rate: f.Rate, RunCol: f.RunCol, Manifest: f.Manifest,
-		From: f.From, To: f.To, KeepHead: f.KeepHead, KeepEvents: f.KeepEvents, HoldConstantInputs: f.hold}
+		From: f.From, To: f.To, KeepHead: f.KeepHead, KeepEvents: f.KeepEvents, HoldConstantInputs: f.hold, Average: f.Average}
 	var err error
 	if o.States, err = nameList("--states", f.States); err != nil {
 		return nil, err

@@ -226,6 +226,7 @@ func runRun(ctx context.Context, e *env, args []string) error {
 		if c := a.Result.Certificate; c != nil {
 			c.Reason = flagNames(c.Reason)
 		}
+		flagModel(a.Result.Model)
 	}
 	res := all[0].Result
 	if err := ctx.Err(); err != nil {

@@ -231,6 +231,9 @@ func runScreen(ctx context.Context, e *env, args []string) error {
 	if err != nil {
 		return err
 	}
+	if err := c.inputFlags.adopt(c.Cert, cert.Average); err != nil {
+		return err
+	}
 	iopts, err := c.inputFlags.options()
 	if err != nil {
 		return err
