@@ -197,7 +197,7 @@ func Split(runs []ingest.Run, folds int, seed uint64) []int {
 // subset returns a data set with the runs where keep is true; the runs
 // share storage with ds.
 func subset(ds *ingest.Dataset, keep func(i int) bool) *ingest.Dataset {
-	out := &ingest.Dataset{States: ds.States, Inputs: ds.Inputs, Held: ds.Held, Time: ds.Time}
+	out := &ingest.Dataset{States: ds.States, Inputs: ds.Inputs, Held: ds.Held, Average: ds.Average, Time: ds.Time}
 	for i := range ds.Runs {
 		if keep(i) {
 			out.Runs = append(out.Runs, ds.Runs[i])
