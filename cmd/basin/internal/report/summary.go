@@ -57,6 +57,9 @@ func Summary(w io.Writer, in *Input) error {
 			}
 			fmt.Fprintf(&b, "  at the constant input %s (it never changed in the data: folded into the equations, which hold there only)\n", strings.Join(at, ", "))
 		}
+		if m.Average >= 2 {
+			fmt.Fprintf(&b, "  fitted on the runs averaged in blocks of %d samples (--average %d; check and screen average new logs the same way)\n", m.Average, m.Average)
+		}
 		if len(m.Inputs) > 0 && len(m.RestInput) == len(m.Inputs) {
 			var at []string
 			for k, in := range m.Inputs {
