@@ -592,6 +592,13 @@ type RestScatter struct {
 	// Widest lists up to three runs whose rest points lie farthest from
 	// the common one, in standard errors, farthest first.
 	Widest []RestOffset `json:"widest,omitempty"`
+	// Largest, when Scattered, is the largest offset of any run tested
+	// as a share of its state's noise (RestOffset.NoiseShare), and
+	// Material says it reaches a half: rest points that far apart hold
+	// the verdict back; nearer ones (a sensor offset between runs, or a
+	// weak unlogged drive) only keep the strength at stable.
+	Largest  float64 `json:"largest_noise_share,omitempty"`
+	Material bool    `json:"material,omitempty"`
 }
 
 // RestOffset is one run's rest point against the runs' common one.
@@ -605,6 +612,9 @@ type RestOffset struct {
 	// Sigmas is the offset's size in standard errors of the run's noise
 	// (the square root of its term of ChiSquare).
 	Sigmas float64 `json:"sigmas"`
+	// NoiseShare is the offset's largest state component over that
+	// state's noise (the run's sample-to-sample standard deviation).
+	NoiseShare float64 `json:"noise_share"`
 }
 
 // Decay is the distribution of V's decay rate over the held-out runs:

@@ -793,9 +793,14 @@ func Evaluate(ctx context.Context, ds *ingest.Dataset, opts *Options) (*Result, 
 				if rs.DriftZ < -restShrinkZ {
 					cert.Strength = fit.Stable
 					cert.Reason += fmt.Sprintf(" The runs come to rest at points that differ by more than their noise allows (%.3g times, p = %.2g), but draw together along the runs (drift z = %+.2g): something unlogged sets where they rest and dies out, so only stability is claimed, not settling at the equilibrium.", rs.Ratio, rs.PValue, rs.DriftZ)
-				} else {
+				} else if rs.Material {
 					cert.Verdict, cert.Strength, cert.ReasonKind = fit.Inconclusive, fit.NoClaim, fit.ReasonRestScatter
 					cert.Reason = restScatterWords(rs, m.States, m.Units)
+				} else {
+					if cert.Strength == fit.Asymptotic {
+						cert.Strength = fit.Stable
+					}
+					cert.Reason += fmt.Sprintf(" The runs come to rest at points that differ by more than their noise allows (%.3g times, p = %.2g) but by at most %.2g of it (a sensor offset that changes between runs, or something unlogged that sets where they rest): too little to contradict the region over the runs' time, but settling at one point is not shown, so only stability is claimed.", rs.Ratio, rs.PValue, rs.Largest)
 				}
 			}
 		}
