@@ -298,7 +298,7 @@ func TestRestScatterEdges(t *testing.T) {
 	}
 }
 
-// TestRestScatterOffsets: a plain damped oscillator (x'' + 0.8x' + 4x = 0,
+// TestRestScatterOffsets: a plain damped oscillator (x” + 0.8x' + 4x = 0,
 // stable: common practice) whose logged runs carry per-run sensor
 // offsets of a tenth of the noise (0.1% of each state's range at 1%
 // noise, as a re-zeroed sensor leaves) rests at points the test finds
