@@ -57,19 +57,23 @@ type pageData struct {
 	VKeys                     []keyItem
 	VPieces                   bool // the V figure draws the pieces where the inputs rest
 	Model                     bool
-	Equations                 []eqRow
-	VTerms                    []vTerm
-	VDropped                  string // "2 more terms" of V left out of the table (zero or below 1e-4 of the largest)
-	NoV                       string // in place of the V table when it has no term to list
-	NoRegion                  string // in place of the extent table when there is none
-	HeldoutNoV                string // before the held-out figures when there is no V
-	PlaneRegion               bool   // the phase plane draws the region's boundary
-	Val                       *fit.Validation
-	ValRows                   []valRow
-	Runs                      []runRow
-	Settings                  []kv
-	Noise                     num
-	Tolerance                 num
+	// Averaged is the block of samples the runs were averaged in (0:
+	// none); HeldInputs the constant inputs folded into the equations
+	Averaged    int
+	HeldInputs  string
+	Equations   []eqRow
+	VTerms      []vTerm
+	VDropped    string // "2 more terms" of V left out of the table (zero or below 1e-4 of the largest)
+	NoV         string // in place of the V table when it has no term to list
+	NoRegion    string // in place of the extent table when there is none
+	HeldoutNoV  string // before the held-out figures when there is no V
+	PlaneRegion bool   // the phase plane draws the region's boundary
+	Val         *fit.Validation
+	ValRows     []valRow
+	Runs        []runRow
+	Settings    []kv
+	Noise       num
+	Tolerance   num
 	// ValDerivErr is the model's derivative check on the held-out runs,
 	// as a percentage of each derivative's spread.
 	ValDerivErr []stateNum
@@ -277,6 +281,12 @@ func build(in *Input, pl [2]int) (*pageData, error) {
 			}
 			d.Equations = append(d.Equations, row)
 		}
+		d.Averaged = m.Average
+		var at []string
+		for _, h := range m.Held {
+			at = append(at, fmt.Sprintf("%s = %s%s", h.Name, human.Sig(h.Value, 4), spaceUnit(h.Unit)))
+		}
+		d.HeldInputs = strings.Join(at, ", ")
 	}
 	if v := c.Validation; v != nil {
 		d.ValRows = valRows(v, in.heldoutCount(v))
