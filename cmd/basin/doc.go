@@ -51,8 +51,8 @@ Every command that reads logs takes:
 	                    samples, for logs sampled far faster than their
 	                    noise changes (a sensor behind a filter: fit's
 	                    correlated_noise says so and suggests K); the
-	                    model and certificate record it, and check and
-	                    screen average new logs the same way
+	                    model and certificate record it, and check, screen and
+	                    the SQL export average new logs the same way
 
 A header cell "name [unit]" or "name (unit)" carries a unit, reported back
 wherever the column appears. A CSV file may give its units in a row of

@@ -39,7 +39,7 @@ func usagef(format string, a ...any) error { return &usageError{fmt.Sprintf(form
 var badInput = []error{
 	ingest.ErrEmpty, ingest.ErrFormat, ingest.ErrNoFiles, ingest.ErrNoTime, ingest.ErrNoStates, ingest.ErrWindow,
 	fit.ErrTooFewSamples, fit.ErrBudget, fit.ErrConstant, fit.ErrCollinear, fit.ErrFeedback, fit.ErrShortRun, fit.ErrMismatch, fit.ErrOptions,
-	validate.ErrOptions, export.ErrNoV, export.ErrOption, export.ErrAveraged,
+	validate.ErrOptions, export.ErrNoV, export.ErrOption,
 }
 
 // optionFields are the Go option fields the libraries name in their

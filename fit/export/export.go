@@ -52,10 +52,6 @@ var (
 	ErrName = errors.New("not a valid identifier")
 	// ErrOption reports an Options value out of its range.
 	ErrOption = errors.New("option out of range")
-	// ErrAveraged reports an SQL query asked of a certificate fitted on
-	// runs averaged in blocks of samples (fit.Certificate.Average), which
-	// the query, reading the samples as logged, does not average.
-	ErrAveraged = errors.New("the query does not average samples")
 )
 
 // Options controls [Write]. A nil *Options means all defaults.
@@ -87,8 +83,7 @@ var ident = regexp.MustCompile(`^[A-Za-z_][A-Za-z0-9_]*$`)
 // for an unknown language, [ErrNoV] for a certificate without V terms,
 // [ErrName] for a bad Options name (a Table that is not one to three
 // identifiers joined by dots), [ErrOption] for an SQL RiseTolerance that
-// is negative or not finite, [ErrAveraged] for an SQL query of a
-// certificate fitted on averaged runs, or the writer's error. Nothing is written
+// is negative or not finite, or the writer's error. Nothing is written
 // on an error other than the writer's.
 func Write(w io.Writer, cert *fit.Certificate, lang string, opts *Options) error {
 	o := Options{Package: "basinv", Prefix: "basin_"}
@@ -111,9 +106,6 @@ func Write(w io.Writer, cert *fit.Certificate, lang string, opts *Options) error
 	}
 	var b strings.Builder
 	if strings.ToLower(lang) == SQL {
-		if cert.Average >= 2 {
-			return fmt.Errorf("%w: the certificate was fitted on runs averaged in blocks of %d samples, and its tolerances are theirs; screen the logs with basin screen, which averages them the same way", ErrAveraged, cert.Average)
-		}
 		if err := writeSQL(&b, cert, opts); err != nil {
 			return err
 		}

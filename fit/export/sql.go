@@ -89,6 +89,10 @@ func writeSQL(b *strings.Builder, cert *fit.Certificate, opts *Options) error {
 		b.WriteString("-- The certificate's strength is stable: it does not claim that runs settle,\n" +
 			"-- so, as in basin screen, no run is checked for it: unsettled is always false.\n")
 	}
+	if cert.Average >= 2 {
+		fmt.Fprintf(b, "-- The certificate was fitted on runs averaged in blocks of %d samples: each piece's\n"+
+			"-- rows are averaged so (a last shorter block left out) before the rules apply.\n", cert.Average)
+	}
 	if so.Tolerance > 0 {
 		fmt.Fprintf(b, "-- Except the tolerated rise of V between samples: %s (the certificate's: %s).\n",
 			num(so.Tolerance), num(cert.Tolerance))
@@ -123,11 +127,30 @@ func writeSQL(b *strings.Builder, cert *fit.Certificate, opts *Options) error {
 		fmt.Fprintf(b, ", x%d", j)
 	}
 	b.WriteString(",\n    SUM(gap) OVER (PARTITION BY \"run\" ORDER BY t ROWS BETWEEN UNBOUNDED PRECEDING AND CURRENT ROW) AS pc\n  FROM xr\n),\n")
-	b.WriteString("x AS (\n  SELECT \"run\", pc, t")
+	// x holds the valid rows; with the certificate's averaging, the
+	// means of each piece's consecutive blocks of Average rows (a last
+	// shorter block left out), as basin averages a run's pieces
+	xv := "x"
+	if cert.Average >= 2 {
+		xv = "xv"
+	}
+	b.WriteString(xv + " AS (\n  SELECT \"run\", pc, t")
 	for j := range cert.States {
 		fmt.Fprintf(b, ", x%d", j)
 	}
 	b.WriteString("\n  FROM xs\n  WHERE gap = 0\n),\n")
+	if cert.Average >= 2 {
+		b.WriteString("xb AS (\n  SELECT \"run\", pc, t")
+		for j := range cert.States {
+			fmt.Fprintf(b, ", x%d", j)
+		}
+		fmt.Fprintf(b, ",\n    (ROW_NUMBER() OVER (PARTITION BY \"run\", pc ORDER BY t) - 1) / %d AS blk\n  FROM xv\n),\n", cert.Average)
+		b.WriteString("x AS (\n  SELECT \"run\", pc, AVG(t) AS t")
+		for j := range cert.States {
+			fmt.Fprintf(b, ", AVG(x%d) AS x%d", j, j)
+		}
+		fmt.Fprintf(b, "\n  FROM xb\n  GROUP BY \"run\", pc, blk\n  HAVING COUNT(*) = %d\n),\n", cert.Average)
+	}
 	writeSQLNoise(b, &ru)
 	b.WriteString("s AS (\n  SELECT \"run\", pc, t")
 	for j := range z {
