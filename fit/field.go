@@ -337,7 +337,7 @@ func Field(ctx context.Context, ds *ingest.Dataset, opts *FieldOptions) (*Model,
 		m.Noise[j] = noiseStd(cols[j], sampleCap)
 	}
 	for j := range cols {
-		if lag, ratio := correlatedNoise(cols[j], sampleCap); ratio >= noiseCorrRatio {
+		if lag, ratio := ingest.CorrelatedNoise(cols[j], sampleCap); ratio >= ingest.CorrelatedRatio {
 			m.CorrelatedNoise = append(m.CorrelatedNoise, NoiseCorrelation{State: names[j], Samples: lag, Ratio: ratio, Block: lag})
 		}
 	}

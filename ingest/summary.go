@@ -109,6 +109,12 @@ type RunSummary struct {
 type ColumnSummary struct {
 	Column
 	Min, Max float64
+	// NoiseLag and NoiseRatio, for a state, are [CorrelatedNoise]'s over
+	// its runs: the noise counts as correlated over about NoiseLag
+	// samples when NoiseRatio is at least [CorrelatedRatio]. Zero for an
+	// input.
+	NoiseLag   int
+	NoiseRatio float64
 }
 
 // Summarise describes ds: per run and in total, samples, timing, gaps,
@@ -164,7 +170,13 @@ func Summarise(ds *Dataset) *Summary {
 		s.Settle = s.RestPoints[0].Point
 	}
 	for j, c := range ds.States {
-		s.States = append(s.States, ColumnSummary{Column: c, Min: s.Total.Min[j], Max: s.Total.Max[j]})
+		cs := ColumnSummary{Column: c, Min: s.Total.Min[j], Max: s.Total.Max[j]}
+		cols := make([][]float64, len(ds.Runs))
+		for i := range ds.Runs {
+			cols[i] = ds.Runs[i].X[j]
+		}
+		cs.NoiseLag, cs.NoiseRatio = CorrelatedNoise(cols, summaryNoiseCap)
+		s.States = append(s.States, cs)
 	}
 	for k, c := range ds.Inputs {
 		cs := ColumnSummary{Column: c, Min: math.Inf(1), Max: math.Inf(-1)}
@@ -182,6 +194,10 @@ func Summarise(ds *Dataset) *Summary {
 	s.Files = len(files)
 	return s
 }
+
+// summaryNoiseCap bounds the differences per lag [CorrelatedNoise] takes
+// for a summary.
+const summaryNoiseCap = 1 << 14
 
 func fill(n int, v float64) []float64 {
 	s := make([]float64, n)

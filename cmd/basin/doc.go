@@ -157,7 +157,11 @@ the rest points the runs settle on, each with its count of runs, most first
 settle column and --json's settle are the first). A run settles when,
 over its last tenth, it neither trends nor spreads beyond its noise (runs
 of fewer than 81 samples are not judged); its settle point is the median
-of its last 5%. Flags: those of Reading logs, --quiet and --json.
+of its last 5%. A state whose noise is correlated over many samples
+(logged faster than it changes, as behind a sensor's filter) gets a
+noise line with the --average block to fit with (--json: the state's
+correlated_noise, samples and ratio). Flags: those of Reading logs,
+--quiet and --json.
 
 # basin fit
 

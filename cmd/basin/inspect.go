@@ -141,6 +141,15 @@ type inspectState struct {
 	Min    float64  `json:"min"`
 	Max    float64  `json:"max"`
 	Settle *float64 `json:"settle,omitempty"`
+	// CorrelatedNoise, for a state whose noise is correlated over many
+	// samples (see fit's correlated_noise), the lag and the ratio
+	CorrelatedNoise *noiseCorr `json:"correlated_noise,omitempty"`
+}
+
+// noiseCorr is a state's correlated noise, as inspect reports it.
+type noiseCorr struct {
+	Samples int     `json:"samples"`
+	Ratio   float64 `json:"ratio"`
 }
 
 type inspectSummary struct {
@@ -209,6 +218,9 @@ func inspectDoc(ds *ingest.Dataset, s *ingest.Summary) *inspectJSON {
 	}
 	for j, st := range s.States {
 		is := inspectState{Name: st.Name, Unit: st.Unit, Min: st.Min, Max: st.Max}
+		if st.NoiseRatio >= ingest.CorrelatedRatio {
+			is.CorrelatedNoise = &noiseCorr{Samples: st.NoiseLag, Ratio: st.NoiseRatio}
+		}
 		if s.Settle != nil {
 			v := s.Settle[j]
 			is.Settle = &v
@@ -317,6 +329,12 @@ func inspectTable(w io.Writer, ds *ingest.Dataset, s *ingest.Summary) error {
 	}
 	fmt.Fprintf(w, "; %s split runs, %s missing\n", human.Count(ds.Gaps, "gap"), human.Count(s.Missing, "sample"))
 	inspectEvents(w, ds)
+	for _, st := range s.States {
+		if st.NoiseRatio >= ingest.CorrelatedRatio {
+			fmt.Fprintf(w, "noise: %s's noise is correlated over about %d samples (%.2g times what sample-to-sample differences show: logged faster than it changes, as behind a sensor's filter); fit with --average %d\n",
+				printable(st.Name), st.NoiseLag, st.NoiseRatio, st.NoiseLag)
+		}
+	}
 	if len(ds.Ignored) > 0 {
 		fmt.Fprintf(w, "ignored columns (not numeric or not chosen):")
 		for _, c := range ds.Ignored {
