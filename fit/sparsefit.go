@@ -256,6 +256,24 @@ const refitJitter = 1e-12
 // p), threshold tau on the normalised coefficients, ridge lam; then
 // refits by least squares on the final support. It stores the coefficients in dst (zero outside
 // the support) and returns the support size.
+// supportRefit is the least-squares fit on the columns support holds
+// (of those with a positive diagonal), as thresholdRefit's last solve:
+// the coefficients of a fixed structure, the others zero.
+func (s *solver) supportRefit(dst, gh, b []float64, support []bool) {
+	p := s.p
+	for k := 0; k < p; k++ {
+		s.act[k] = support[k] && gh[k*p+k] > 0
+	}
+	if !s.solve(dst, gh, b, refitJitter) {
+		s.solve(dst, gh, b, 1e-8)
+	}
+	for k := 0; k < p; k++ {
+		if !s.act[k] {
+			dst[k] = 0
+		}
+	}
+}
+
 func (s *solver) thresholdRefit(dst, gh, b []float64, tau, lam float64) int {
 	p := s.p
 	for k := 0; k < p; k++ {
