@@ -5,6 +5,8 @@ import (
 	"math"
 	"math/rand/v2"
 	"testing"
+
+	"gonum.org/v1/gonum/floats/scalar"
 )
 
 // TestSettleMargin: screen's unsettled and the held-out check's settling
@@ -108,7 +110,7 @@ func TestSettleMargin(t *testing.T) {
 			// the noise's share of a tail mean: 2 z·n per sample, |z| =
 			// 0.1, σ 2e-4 in a and 4e-4 in b (in z 2e-4 each), over w samples
 			sd := 2 * math.Sqrt(tailV) * 2e-4 / math.Sqrt(float64(w))
-			if math.Abs(rs.VEnd-want) > 5*sd+2*2*2e-4*2e-4 {
+			if !scalar.EqualWithinAbs(rs.VEnd, want, 5*sd+2*2*2e-4*2e-4) {
 				t.Errorf("tail mean %.6g, geometric series %.6g (5 sd %.2g)", rs.VEnd, want, 5*sd)
 			}
 			last := want / math.Pow(q, float64(w)) // the chunk before, noise-free

@@ -5,6 +5,8 @@ import (
 	"math/rand/v2"
 	"testing"
 
+	"gonum.org/v1/gonum/floats/scalar"
+
 	"basin.example/fit"
 	"basin.example/fit/poly"
 	"basin.example/ingest"
@@ -145,7 +147,7 @@ func TestScreenUndershoot(t *testing.T) {
 				}
 				// sampled at 0.01 s, the bottom (curvature ω²·c = 0.09)
 				// is missed by at most 0.09·0.005²/2 ≈ 1.1e-6
-				if want := c - (x0-c)*mp; math.Abs(bottom-want) > 2e-6 || math.Abs(want) > 1e-12 {
+				if want := c - (x0-c)*mp; !scalar.EqualWithinAbs(bottom, want, 2e-6) || !scalar.EqualWithinAbs(want, 0, 1e-12) {
 					t.Fatalf("undershoot bottom %g, Mp formula %g (want 0)", bottom, want)
 				}
 				if !(rs.VEnd-minV > cert.Tolerance) {

@@ -8,6 +8,8 @@ import (
 	"strings"
 	"testing"
 
+	"gonum.org/v1/gonum/floats/scalar"
+
 	"basin.example/fit"
 	"basin.example/ingest"
 	"basin.example/validate"
@@ -97,7 +99,7 @@ func TestVFigurePieces(t *testing.T) {
 	if len(flagged) == 1 {
 		kx := (vf.xr[1] - vf.xr[0]) / (vf.cx[1] - vf.cx[0])
 		x := vf.xr[0] + (flagged[0][0][0]-vf.cx[0])*kx
-		if tol := 2 * svgPrecision(flagged[0][0][0]) * math.Abs(kx); math.Abs(x-7) > tol {
+		if tol := 2 * svgPrecision(flagged[0][0][0]) * math.Abs(kx); !scalar.EqualWithinAbs(x, 7, tol) {
 			t.Errorf("flagged piece drawn from %g s, want 7 s (±%g)", x, tol)
 		}
 	}
