@@ -31,9 +31,8 @@ type holdBuf struct {
 type heldSource struct {
 	source
 	buf   *holdBuf
-	limit int  // the most float64 values held
-	state int  // heldNone (before the first pass ends), heldAll, heldOff
-	read  bool // the first pass has run
+	limit int // the most float64 values held
+	state int // heldNone (before the first pass), heldAll, heldOff
 }
 
 const (
@@ -74,17 +73,16 @@ func (h *heldSource) pass(ctx context.Context, fn func(row0 int, t []float64, x 
 	if h.state == heldAll && b.owner == h {
 		return h.replay(ctx, fn)
 	}
-	if h.read || h.state == heldOff {
+	if h.state != heldNone { // off, or held once and the buffer since taken
 		return h.source.pass(ctx, fn)
 	}
-	h.read = true
+	h.state = heldOff // until the first pass has kept every row
 	ps := h.source.(*parquetSource)
 	// the footer's exact count: the decoder writes into the held columns
 	// themselves, and the blocks are only recorded
 	ns := len(ps.po.tb.states)
 	n := ps.rowsHint()
 	if n <= 0 || n*(ns+1) > h.limit {
-		h.state = heldOff
 		return h.source.pass(ctx, fn)
 	}
 	if len(b.cols) != ns+1 {
@@ -111,11 +109,8 @@ func (h *heldSource) pass(ctx context.Context, fn func(row0 int, t []float64, x 
 	})
 	if err == nil && keep && b.rows == n && b.owner == h {
 		h.state = heldAll
-	} else {
-		h.state = heldOff
-		if b.owner == h {
-			b.owner = nil
-		}
+	} else if b.owner == h {
+		b.owner = nil
 	}
 	return err
 }
