@@ -547,18 +547,29 @@ func Field(ctx context.Context, ds *ingest.Dataset, opts *FieldOptions) (*Model,
 	// held-out runs missed by five times the noise though every final
 	// equation was exact) says how stable the selection is, not whether
 	// the structure lacks something.
+	// foldSys[f] holds fold f's normalised normal matrix and right-hand
+	// sides (every equation's), made once; nil gh: the fold fitted nothing
+	type normal struct{ gh, bh []float64 }
+	foldSys := make([]*normal, sel.folds)
 	foldBeta := func(i, f int, support []bool) []float64 {
-		train := newGroupSums(p, n)
-		for g, gs := range md.groups {
-			if sel.foldOf[g] != f {
-				addSums(train, gs, 1)
+		if foldSys[f] == nil {
+			train := newGroupSums(p, n)
+			for g, gs := range md.groups {
+				if sel.foldOf[g] != f {
+					addSums(train, gs, 1)
+				}
+			}
+			foldSys[f] = &normal{}
+			if train.rows > 0 {
+				foldSys[f].gh, foldSys[f].bh = make([]float64, p*p), make([]float64, p*n)
+				pr.normalised(foldSys[f].gh, foldSys[f].bh, train)
 			}
 		}
-		if train.rows == 0 {
+		gh, bh := foldSys[f].gh, foldSys[f].bh
+		if gh == nil {
 			return nil
 		}
-		gh, bh, col, x, beta := make([]float64, p*p), make([]float64, p*n), make([]float64, p), make([]float64, p), make([]float64, p)
-		pr.normalised(gh, bh, train)
+		col, x, beta := make([]float64, p), make([]float64, p), make([]float64, p)
 		for k := range col {
 			col[k] = bh[k*n+i]
 		}
