@@ -52,6 +52,12 @@ func ReadFile(ctx context.Context, path string, opts *Options) (*Dataset, error)
 
 // readFile is ReadFile without the data-set-wide checks of [finish].
 func readFile(ctx context.Context, path string, opts *Options) (*Dataset, error) {
+	return readFileWith(ctx, path, opts, nil)
+}
+
+// readFileWith is readFile reading a CSV file with bufs' buffers (and
+// bufs.cols' columns; nil: new ones, see readCSVWith).
+func readFileWith(ctx context.Context, path string, opts *Options, bufs *csvBufs) (*Dataset, error) {
 	if err := ctx.Err(); err != nil {
 		return nil, err
 	}
@@ -73,7 +79,7 @@ func readFile(ctx context.Context, path string, opts *Options) (*Dataset, error)
 		return nil, err
 	}
 	defer f.Close()
-	return readCSV(f, path, opts)
+	return readCSVWith(f, path, opts, bufs)
 }
 
 // Load reads every input (see [Expand]), several files at a time, and

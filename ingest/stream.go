@@ -4,7 +4,6 @@ import (
 	"context"
 	"errors"
 	"fmt"
-	"os"
 	"path/filepath"
 	"strings"
 	"sync"
@@ -267,17 +266,9 @@ func (s *Streamer) streamable(path string) string {
 // CSV file as ReadFile does.
 func (s *Streamer) readWindow(ctx context.Context, path string) (*Dataset, error) {
 	if !strings.EqualFold(filepath.Ext(path), ".parquet") {
-		if err := ctx.Err(); err != nil {
-			return nil, err
-		}
-		f, err := os.Open(path)
-		if err != nil {
-			return nil, err
-		}
-		defer f.Close()
 		s.csv.cols = s.store
 		defer func() { s.csv.cols = nil }()
-		ds, err := readCSVWith(f, path, &s.opts, &s.csv)
+		ds, err := readFileWith(ctx, path, &s.opts, &s.csv)
 		if err != nil {
 			return nil, err
 		}
